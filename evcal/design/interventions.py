@@ -1,0 +1,117 @@
+"""Box–Tiao intervention columns: pulse, level shift, temporary change, ramp.
+
+Box, G.E.P. and Tiao, G.C. (1975), "Intervention analysis with applications to
+economic and environmental problems", JASA 70(349), 70–79. Each intervention is
+one column on the period grid:
+
+* ``pulse``: 1 in the periods that overlap [start, end] (end defaults to start);
+* ``level_shift``: the share of each period's days on or after ``start``
+  (0 before, a fraction in the period of the change, 1 after);
+* ``temporary``: ``decay**k`` in the k-th period from the one holding ``start``
+  (a change that fades away);
+* ``ramp``: rises linearly (day by day) from 0 at ``start`` to 1 at ``end``, then stays 1.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import period_days
+
+PERSISTENT = ("level_shift", "ramp")
+
+
+@dataclass(frozen=True)
+class InterventionTerm:
+    """Settings of one intervention (plain data, JSON-able)."""
+
+    name: str
+    type: str
+    start: pd.Timestamp
+    end: pd.Timestamp | None = None
+    decay: float | None = None
+
+    @classmethod
+    def from_spec(cls, spec: Any) -> InterventionTerm:
+        end = getattr(spec, "end", None)
+        return cls(
+            name=spec.name,
+            type=spec.type,
+            start=pd.Timestamp(spec.start),
+            end=None if end is None else pd.Timestamp(end),
+            decay=getattr(spec, "decay", None),
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name,
+            "type": self.type,
+            "start": self.start.date().isoformat(),
+            "end": None if self.end is None else self.end.date().isoformat(),
+            "decay": self.decay,
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> InterventionTerm:
+        return cls(
+            name=d["name"],
+            type=d["type"],
+            start=pd.Timestamp(d["start"]),
+            end=None if d.get("end") is None else pd.Timestamp(d["end"]),
+            decay=d.get("decay"),
+        )
+
+    def column(self, periods: pd.PeriodIndex) -> np.ndarray:
+        start = periods.start_time.normalize()
+        days = period_days(periods)
+        if self.type == "pulse":
+            last = self.end if self.end is not None else self.start
+            p_end = periods.end_time.normalize()
+            return ((start <= last) & (p_end >= self.start)).to_numpy(dtype=float)
+        if self.type == "level_shift":
+            # days on/after the change within each period, as a share
+            after = (start + pd.to_timedelta(days - 1, unit="D") - self.start).days + 1
+            return np.clip(after.to_numpy(dtype=float), 0.0, days) / days
+        if self.type == "temporary":
+            decay = 0.7 if self.decay is None else float(self.decay)
+            holding = periods.get_indexer([self.start.to_period(periods.freq)])[0]
+            if holding < 0:
+                # the change happened outside this grid: count periods from it
+                first = self.start.to_period(periods.freq)
+                k = np.array([(p - first).n for p in periods], dtype=float)
+            else:
+                k = np.arange(len(periods), dtype=float) - holding
+            return np.where(k >= 0, decay ** np.clip(k, 0, None), 0.0)
+        if self.type == "ramp":
+            end = self.end if self.end is not None else self.start
+            total = max((end - self.start).days, 1)
+            # mean over each period's days of clip((day - start)/total, 0, 1)
+            d0 = (start - self.start).days.to_numpy(dtype=float)
+            offsets = np.arange(int(days.max()))[None, :]
+            day_pos = (d0[:, None] + offsets) / total
+            mask = offsets < days[:, None]
+            return (np.clip(day_pos, 0.0, 1.0) * mask).sum(axis=1) / days
+        raise ValueError(f"unknown intervention type {self.type!r}")
+
+
+@dataclass(frozen=True)
+class Interventions:
+    """All interventions of a calendar as one block, a column each."""
+
+    terms: tuple[InterventionTerm, ...]
+    kind: str = "interventions"
+
+    def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
+        data = {t.name: t.column(periods) for t in self.terms}
+        return pd.DataFrame(data, index=periods, columns=[t.name for t in self.terms])
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"kind": self.kind, "terms": [t.to_dict() for t in self.terms]}
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> Interventions:
+        return cls(tuple(InterventionTerm.from_dict(t) for t in d["terms"]))

@@ -1,0 +1,130 @@
+"""Assemble the blocks into one design: regressors, roles and the open-share offset.
+
+:class:`DesignSpec` is the design's *settings* (plain data, saved in
+``model.json``); :func:`build_design` turns settings plus a calendar into the
+columns for any periods, past or future, with the same code.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import Block
+from evcal.design.events import EventColumns, OpenShare
+from evcal.design.interventions import Interventions, InterventionTerm
+from evcal.design.seasonal import (
+    AnnualFourier,
+    SeasonalDummies,
+    TradingDays,
+    WeekdayDummies,
+    base_freq,
+)
+from evcal.design.trend import Trend
+
+
+@dataclass
+class DesignSpec:
+    """Everything needed to rebuild the regressors (JSON-able).
+
+    Parameters
+    ----------
+    freq : str
+        Pandas period frequency of the series ("D", "W-SUN", "M", "Q-DEC").
+    trend_origin : float
+        Fractional year where trend time is zero.
+    trend_order : int
+        Polynomial order of the trend (1 = linear).
+    constant : bool
+        Whether the design has a constant (False for differenced errors).
+    seasonal : str
+        "dummies" (one per period of the year) or "fourier".
+    fourier_order : int
+        Harmonics when ``seasonal == "fourier"`` (and for daily data).
+    trading_days : bool
+        Add weekday-composition columns (monthly/quarterly data only).
+    event_columns : list of str
+        Event columns, as named by the calendar.
+    interventions : list of dict
+        Intervention settings (:class:`InterventionTerm` as dicts).
+    """
+
+    freq: str
+    trend_origin: float
+    trend_order: int = 1
+    constant: bool = True
+    seasonal: str = "dummies"
+    fourier_order: int = 10
+    trading_days: bool = False
+    event_columns: list[str] = field(default_factory=list)
+    interventions: list[dict[str, Any]] = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> DesignSpec:
+        return cls(**d)
+
+    def intervention_terms(self) -> tuple[InterventionTerm, ...]:
+        return tuple(InterventionTerm.from_dict(t) for t in self.interventions)
+
+    def seasonal_blocks(self) -> list[Block]:
+        b = base_freq(self.freq)
+        blocks: list[Block] = []
+        if b == "D":
+            blocks.append(WeekdayDummies())
+            blocks.append(AnnualFourier(self.fourier_order))
+        elif self.seasonal == "fourier":
+            blocks.append(AnnualFourier(self.fourier_order))
+        else:
+            blocks.append(SeasonalDummies(self.freq))
+        if self.trading_days and b in ("M", "Q"):
+            blocks.append(TradingDays())
+        return blocks
+
+
+@dataclass
+class Design:
+    """Regressors for a set of periods, with each column's role."""
+
+    X: pd.DataFrame
+    open_share: pd.Series
+    roles: dict[str, str]  # column -> "trend" | "seasonal" | "event" | "intervention"
+
+    def columns_with(self, role: str) -> list[str]:
+        return [c for c in self.X.columns if self.roles[c] == role]
+
+
+def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> Design:
+    """Build the design for ``periods`` from settings and a calendar.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from evcal.calendar import load_calendar
+    >>> cal = load_calendar("name: x\\nevents:\\n  - {name: e, when: {fixed: '03-10'}}\\n")
+    >>> spec = DesignSpec(freq="M", trend_origin=2024.0, event_columns=["e"])
+    >>> d = build_design(spec, cal, pd.period_range("2024-01", periods=4, freq="M"))
+    >>> round(float(d.X.loc[pd.Period("2024-03", "M"), "e"]), 4)  # 1 day of 31
+    0.0323
+    """
+    trend = Trend(spec.trend_origin, spec.trend_order, spec.constant)
+    parts: list[tuple[str, pd.DataFrame]] = [("trend", trend.columns(periods))]
+    for block in spec.seasonal_blocks():
+        parts.append(("seasonal", block.columns(periods)))
+    parts.append(("event", EventColumns(calendar, list(spec.event_columns)).columns(periods)))
+    parts.append(("intervention", Interventions(spec.intervention_terms()).columns(periods)))
+    roles: dict[str, str] = {}
+    frames = []
+    for role, frame in parts:
+        for c in frame.columns:
+            roles[c] = role
+        frames.append(frame)
+    X = pd.concat(frames, axis=1).astype(float)
+    share = OpenShare(calendar).values(periods) if calendar is not None else pd.Series(
+        np.ones(len(periods)), index=periods, name="open_share")
+    return Design(X=X, open_share=share, roles=roles)

@@ -1,0 +1,175 @@
+"""Seasonal blocks: period dummies, annual Fourier terms, weekday terms.
+
+Monthly and quarterly dummies come from ``statsmodels.tsa.deterministic``
+(``CalendarSeasonality``), annual Fourier terms from ``CalendarFourier``.
+statsmodels has no week-of-year seasonality, so weekly dummies are built here
+from the week's midpoint (week 53, when a year has one, shares week 52's
+dummy so the profile always has 52 positions).
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from statsmodels.tsa.deterministic import CalendarFourier, CalendarSeasonality
+
+from evcal.design.base import period_days
+
+
+def _quiet(fn: Any, *args: Any) -> pd.DataFrame:
+    # statsmodels warns about frequency inference on PeriodIndex input; the
+    # frequency is known here, so the warning carries no information.
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return fn(*args)
+
+
+def base_freq(freq: str) -> str:
+    """'W-SUN' -> 'W', 'Q-DEC' -> 'Q', 'M' -> 'M', 'D' -> 'D'."""
+    return freq.split("-")[0].rstrip("E").upper() or freq
+
+
+def cycle_length(freq: str) -> int:
+    """Positions in one annual cycle of the seasonal profile."""
+    return {"D": 365, "W": 52, "M": 12, "Q": 4}[base_freq(freq)]
+
+
+def season_position(periods: pd.PeriodIndex) -> np.ndarray:
+    """Position of each period in its annual cycle, 1-based (month 1..12, week 1..52, ...)."""
+    b = base_freq(periods.freqstr)
+    if b == "M":
+        return periods.month.to_numpy()
+    if b == "Q":
+        return periods.quarter.to_numpy()
+    start = periods.start_time.normalize()
+    if b == "W":
+        mid = start + pd.Timedelta(days=3)
+        return np.minimum((mid.dayofyear.to_numpy() - 1) // 7 + 1, 52)
+    doy = start.dayofyear.to_numpy()
+    # 29 February shares 28 February's position so every year has 365.
+    leap_shift = (start.is_leap_year & (doy > 59)).astype(int)
+    return doy - leap_shift
+
+
+@dataclass(frozen=True)
+class SeasonalDummies:
+    """One dummy per position of the annual cycle except the first (the reference).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> cols = SeasonalDummies("M").columns(pd.period_range("2024-01", periods=3, freq="M"))
+    >>> list(cols.columns[:2]), cols.iloc[1, 0]
+    (['season[2]', 'season[3]'], 1.0)
+    """
+
+    freq: str
+    kind: str = "seasonal_dummies"
+
+    def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
+        b = base_freq(self.freq)
+        p = cycle_length(self.freq)
+        if b in ("M", "Q"):
+            sm_freq = "ME" if b == "M" else "QE"
+            raw = _quiet(CalendarSeasonality(sm_freq, "YE").in_sample, periods)
+            values = raw.to_numpy()[:, 1:]
+        else:
+            pos = season_position(periods)
+            values = (pos[:, None] == np.arange(2, p + 1)[None, :]).astype(float)
+        names = [f"season[{k}]" for k in range(2, p + 1)]
+        return pd.DataFrame(values, index=periods, columns=names)
+
+    def cycle(self) -> pd.DataFrame:
+        """Columns for one reference cycle, rows = positions 1..P."""
+        p = cycle_length(self.freq)
+        values = np.vstack([np.zeros(p - 1), np.eye(p - 1)])
+        return pd.DataFrame(values, index=pd.RangeIndex(1, p + 1, name="period"),
+                            columns=[f"season[{k}]" for k in range(2, p + 1)])
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"kind": self.kind, "freq": self.freq}
+
+
+@dataclass(frozen=True)
+class AnnualFourier:
+    """``order`` sine/cosine pairs of the calendar year (``CalendarFourier``).
+
+    Used for daily data (where 364 dummies would be absurd) and optionally
+    for weekly data.
+    """
+
+    order: int
+    kind: str = "annual_fourier"
+
+    def _at(self, stamps: pd.DatetimeIndex) -> pd.DataFrame:
+        raw = _quiet(CalendarFourier("YE", self.order).in_sample, stamps)
+        raw.columns = [c.replace(",freq=YE-DEC", "").replace(" ", "") for c in raw.columns]
+        return raw
+
+    def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
+        mid = periods.start_time.normalize() + pd.to_timedelta(
+            (period_days(periods) - 1) / 2.0, unit="D")
+        out = self._at(pd.DatetimeIndex(mid))
+        out.index = periods
+        return out
+
+    def cycle(self) -> pd.DataFrame:
+        """Columns for a reference non-leap year, rows = day of year 1..365."""
+        days = pd.date_range("2023-01-01", "2023-12-31", freq="D")
+        out = self._at(days)
+        out.index = pd.RangeIndex(1, 366, name="period")
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"kind": self.kind, "order": self.order}
+
+
+@dataclass(frozen=True)
+class WeekdayDummies:
+    """Day-of-week dummies for daily data (Monday is the reference)."""
+
+    kind: str = "weekday_dummies"
+
+    def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
+        dow = periods.start_time.dayofweek.to_numpy()
+        values = (dow[:, None] == np.arange(1, 7)[None, :]).astype(float)
+        names = [f"weekday[{d}]" for d in ("tue", "wed", "thu", "fri", "sat", "sun")]
+        return pd.DataFrame(values, index=periods, columns=names)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"kind": self.kind}
+
+
+@dataclass(frozen=True)
+class TradingDays:
+    """Weekday composition of each month or quarter (trading-day regressors).
+
+    Six contrasts: the count of each of Monday..Saturday minus the count of
+    Sundays in the period (the usual trading-day contrast of Young 1965 and
+    X-11/X-13 practice). A month with five Saturdays gets its extra Saturday's
+    effect instead of having it read as seasonality.
+    """
+
+    kind: str = "trading_days"
+
+    def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
+        start = periods.start_time.normalize().to_numpy().astype("datetime64[D]")
+        days = period_days(periods).astype(int)
+        # Count weekdays in [start, start+days) without a loop over days:
+        # full weeks give days//7 of each, the remainder adds one to the
+        # weekdays that follow the start weekday.
+        first_dow = (start.astype("int64") + 3) % 7  # 1970-01-01 was a Thursday (3)
+        full, rem = np.divmod(days, 7)
+        counts = np.repeat(full[:, None], 7, axis=1).astype(float)
+        offs = (np.arange(7)[None, :] - first_dow[:, None]) % 7
+        counts += (offs < rem[:, None]).astype(float)
+        contrasts = counts[:, :6] - counts[:, 6:7]
+        names = [f"trading[{d}]" for d in ("mon", "tue", "wed", "thu", "fri", "sat")]
+        return pd.DataFrame(contrasts, index=periods, columns=names)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"kind": self.kind}

@@ -1,1 +1,52 @@
-"""effects step."""
+"""Effects step: fitted model -> base, contributions, lifts, occurrences, seasonal index."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.effects.decompose import closure_shares, decompose, term_coefficients
+from evcal.effects.tables import lifts_table, occurrences_table, profile_table
+
+__all__ = ["build_tables", "decompose", "closure_shares", "term_coefficients"]
+
+
+def build_tables(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame,
+                 inp: Any, history: Any) -> None:
+    """Fill ``result.fitted``, ``.occurrences``, ``.lifts``, ``.profile``, ``.residuals`` in place."""
+    from evcal.design.matrix import build_design
+
+    raw = build_design(result.spec, calendar, periods)  # unmerged columns (like-events apart)
+    closures = closure_shares(calendar, periods)
+    parts = decompose(result, raw.X, raw.open_share, closures)
+    result.mean_base = float(parts["base"].mean())
+    dates = history.dates(periods)
+    fitted = pd.DataFrame({"date": dates, "actual": inp.actual.to_numpy(),
+                           "fitted": parts["fitted"].to_numpy(), "base": parts["base"].to_numpy()})
+    for c in parts.columns:
+        if c not in ("base", "fitted"):
+            fitted[c] = parts[c].to_numpy()
+    fitted["in_fit"] = inp.rows
+    result.fitted = fitted
+    result.occurrences = occurrences_table(result, calendar, periods, raw.X, parts)
+    result.lifts = lifts_table(result, raw.X, parts, result.occurrences)
+    result.profile = profile_table(result)
+    if inp.transform == "log":
+        scale_resid = np.log(inp.actual.where(inp.rows)) - np.log(parts["fitted"] / result.smear)
+    else:
+        scale_resid = inp.actual.where(inp.rows) - parts["fitted"]
+    result.residuals = pd.Series(scale_resid.to_numpy(), index=periods, name="residual")
+    ok = inp.rows & np.isfinite(scale_resid.to_numpy())
+    a, f = inp.actual.to_numpy()[ok], parts["fitted"].to_numpy()[ok]
+    result.quality = {
+        "periods_fitted": int(ok.sum()),
+        "wape_pct": float(100 * np.abs(a - f).sum() / np.abs(a).sum()) if ok.any() else float("nan"),
+        "resid_sd": float(np.nanstd(scale_resid.to_numpy()[ok])),
+    }
+    for c, st in result.status.items():
+        if st.status in ("unidentifiable", "duplicate"):
+            result.warnings.append(f"{c}: {st.note}")
+        elif st.status == "no_history":
+            result.warnings.append(f"{c}: no occurrence in the history; listed, not fitted")

@@ -1,1 +1,142 @@
-"""fit step."""
+"""Fit step: history + calendar -> fitted model with lifts, occurrences, profile.
+
+Examples
+--------
+>>> import evcal                                     # doctest: +SKIP
+>>> res = evcal.fit("demo/fernhollow-history.csv",   # doctest: +SKIP
+...                 "demo/fernhollow-calendar.yaml")
+>>> res.lifts[["event", "lift_pct", "low_pct", "high_pct"]]  # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.seasonal import cycle_length
+from evcal.fit.model import (
+    average_share_profile,
+    calendar_text,
+    check_history_length,
+    estimate,
+    load_calendar_any,
+    prepare,
+)
+from evcal.fit.options import FitOptions
+from evcal.fit.result import FitResult, load_model
+
+__all__ = ["fit", "FitResult", "FitOptions", "load_model"]
+
+
+def _read(history: Any, date_col: str, value_col: str, freq: str | None, allow_negative: bool) -> Any:
+    from evcal.io import History, read_history
+
+    if isinstance(history, History):
+        return history
+    return read_history(history, date_col=date_col, value_col=value_col, freq=freq,
+                        allow_negative=allow_negative)
+
+
+def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col: str = "value",
+        freq: str | None = None, **options: Any) -> FitResult:
+    """Fit base, event lifts and interventions to a history.
+
+    Parameters
+    ----------
+    history : path, DataFrame or evcal.io.History
+        The series (see :func:`evcal.io.read_history`).
+    calendar : path, YAML text, Calendar or None
+        The event calendar.
+    date_col, value_col, freq
+        Passed to :func:`evcal.io.read_history`.
+    **options
+        :class:`FitOptions` fields: ``transform``, ``errors``, ``arima_order``,
+        ``seasonal``, ``fourier_order``, ``trend_order``, ``trading_days``,
+        ``allow_negative``.
+
+    Returns
+    -------
+    FitResult
+    """
+    opts = FitOptions(**options)
+    hist = _read(history, date_col, value_col, freq, opts.allow_negative)
+    cal = load_calendar_any(calendar)
+    check_history_length(hist)
+    inp = prepare(hist, cal, opts)
+    est, choice = estimate(inp, opts, hist.freq)
+
+    periods = inp.periods
+    X = inp.design.X
+    params = est.params
+    rows = inp.rows
+    resid = est.resid
+    if inp.transform != "none" and est.error_model.get("kind") != "arima":
+        smear = float(np.nanmean(np.exp(resid[rows]))) if inp.transform == "log" else 1.0
+    elif inp.transform == "log":
+        smear = float(np.exp(est.sigma2 / 2.0))
+    else:
+        smear = 1.0
+    colmap = cal.event_columns()
+    event_info: dict[str, dict[str, Any]] = {}
+    for c, ev_name in colmap.items():
+        ev = cal.event(ev_name)
+        event_info[c] = {"event": ev_name, "label": ev.label, "group": ev.group,
+                         "effect": ev.effect.describe(), "shape": ev.shape}
+    for t in cal.interventions:
+        event_info[t.name] = {"event": t.name, "label": getattr(t, "label", t.name) or t.name,
+                              "group": "intervention", "effect": t.type, "shape": t.type}
+    closure_events = [e.name for e in cal.events if e.effect.kind == "zero"]
+    last_full = _last_full_year(hist.values)
+    result = FitResult(
+        options=opts,
+        spec=inp.design.spec,  # type: ignore[attr-defined]
+        transform=inp.transform,
+        label=hist.label,
+        params=params,
+        cov=est.cov,
+        sigma2=est.sigma2,
+        smear=smear,
+        error_model=est.error_model,
+        model_choice={**choice, "covariance": est.cov_note, "transform": inp.transform},
+        status=inp.status,
+        like_map=inp.like_map,
+        assumed=inp.assumed,
+        base_columns=[c for c in X.columns if inp.design.roles[c] in ("trend", "seasonal")],
+        intervention_names=[t["name"] for t in inp.design.spec.interventions],  # type: ignore[attr-defined]
+        closure_events=closure_events,
+        event_info=event_info,
+        event_labels={e.name: e.label for e in cal.events},
+        calendar_text=calendar_text(cal, calendar),
+        calendar_name=cal.name,
+        history_start=str(periods[0]),
+        history_end=str(periods[-1]),
+        history_source=hist.source,
+        last_year=last_full,
+        average_share={int(k): float(v) for k, v in average_share_profile(
+            hist.values.where(rows)).items()},
+        mean_base=0.0,
+        exclusions=[{"start": pd.Timestamp(e.start).date().isoformat(),
+                     "end": pd.Timestamp(e.end).date().isoformat(), "reason": e.reason}
+                    for e in cal.exclusions],
+        warnings=list(inp.notes),
+        _open_share=inp.design.open_share.to_numpy(),
+        _calendar=cal,
+    )
+    from evcal.effects import build_tables
+
+    build_tables(result, cal, periods, X, inp, hist)
+    return result
+
+
+def _last_full_year(values: pd.Series) -> dict[str, Any]:
+    periods = values.index
+    p = cycle_length(periods.freqstr)
+    years = periods.start_time.year
+    counts = pd.Series(values.notna().to_numpy(), index=years).groupby(level=0).sum()
+    full = [int(y) for y, n in counts.items() if n >= p]
+    if not full:
+        return {}
+    y = max(full)
+    return {"year": y, "total": float(values[years == y].sum())}

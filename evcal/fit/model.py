@@ -1,0 +1,258 @@
+"""Turning a history and a calendar into model inputs, then into a fitted model."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import period_days, period_mid_years
+from evcal.design.interventions import InterventionTerm
+from evcal.design.matrix import Design, DesignSpec, build_design
+from evcal.design.seasonal import base_freq, cycle_length, season_position
+from evcal.errors import EvcalError, HistoryError
+from evcal.fit.estimators import Estimate, fit_arima, fit_count, fit_ols
+from evcal.fit.identify import ColumnStatus, check_columns
+from evcal.fit.options import FitOptions
+
+LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS+HAC for speed
+
+
+@dataclass
+class ModelInputs:
+    """Everything the estimators need, on the history's period grid."""
+
+    periods: pd.PeriodIndex
+    actual: pd.Series
+    design: Design
+    rows: np.ndarray  # periods used in the fit
+    excluded: np.ndarray  # periods inside an `exclude` entry
+    offset: pd.Series  # model-scale offset: log open share + assumed lifts
+    transform: str
+    status: dict[str, ColumnStatus]
+    fitted_cols: list[str]
+    like_map: dict[str, str]  # like-event column -> column it borrows from
+    assumed: dict[str, float]  # assumed-event column -> lift fraction
+    notes: list[str] = field(default_factory=list)
+
+
+def load_calendar_any(calendar: Any) -> Any:
+    """Accept a Calendar, a path, YAML text or None (an empty calendar)."""
+    from evcal.calendar import Calendar, load_calendar
+
+    if calendar is None:
+        return load_calendar("name: no events\n")
+    if isinstance(calendar, Calendar):
+        return calendar
+    return load_calendar(calendar)
+
+
+def calendar_text(calendar: Any, given: Any) -> str:
+    """The calendar's YAML text, kept in model.json so a plan needs no other file."""
+    text = getattr(calendar, "text", None)
+    if isinstance(text, str):
+        return text
+    if isinstance(given, Path) or (isinstance(given, str) and "\n" not in given and Path(given).is_file()):
+        return Path(given).read_text(encoding="utf-8")
+    if isinstance(given, str):
+        return given
+    return "name: no events\n"
+
+
+def choose_transform(values: pd.Series, options: FitOptions, source: str, known_zero: np.ndarray) -> str:
+    v = values.dropna()
+    open_v = values[~known_zero].dropna()
+    if options.allow_negative and (v < 0).any():
+        if options.transform in ("log", "count"):
+            raise HistoryError(f"{source}: column value has negative values; transform "
+                               f"{options.transform} needs values >= 0; use --transform none")
+        return "none"
+    if options.transform == "auto":
+        if (open_v > 0).all():
+            return "log"
+        is_int = np.allclose(v, np.round(v))
+        return "count" if is_int else "none"
+    if options.transform == "log" and (open_v <= 0).any():
+        first = open_v[open_v <= 0].index[0]
+        raise HistoryError(
+            f"{source}: period {first}: value {open_v[first]:g} is zero and --transform log needs "
+            "positive values; use --transform count for series with zeros (or mark closures "
+            "with effect: zero)")
+    return options.transform
+
+
+def prepare(history: Any, calendar: Any, options: FitOptions) -> ModelInputs:
+    """Build the design and decide which columns enter the fit."""
+    periods = history.values.index
+    actual = history.values.astype(float)
+    freq = history.freq
+    event_cols = [c for c, ev in calendar.event_columns().items()
+                  if calendar.event(ev).effect.kind != "zero"]
+    interventions = [InterventionTerm.from_spec(s).to_dict() for s in calendar.interventions]
+    seasonal = options.seasonal
+    if seasonal == "auto":
+        seasonal = "fourier" if base_freq(freq) == "D" else "dummies"
+    spec = DesignSpec(
+        freq=freq,
+        trend_origin=float(np.floor(period_mid_years(periods[:1])[0])),
+        trend_order=options.trend_order,
+        constant=True,
+        seasonal=seasonal,
+        fourier_order=options.fourier_order,
+        trading_days=options.trading_days,
+        event_columns=event_cols,
+        interventions=interventions,
+    )
+    design = build_design(spec, calendar, periods)
+    share = design.open_share.to_numpy()
+    closed_full = share <= 1e-9
+    excluded = np.zeros(len(periods), dtype=bool)
+    p_start = periods.start_time.normalize()
+    p_end = periods.end_time.normalize()
+    for ex in calendar.exclusions:
+        excluded |= ((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start))).to_numpy()
+    transform = choose_transform(actual, options, history.source, closed_full)
+    rows = actual.notna().to_numpy() & ~excluded & ~closed_full
+
+    X = design.X
+    base_cols = [c for c in X.columns if design.roles[c] in ("trend", "seasonal")]
+    like_map: dict[str, str] = {}
+    assumed: dict[str, float] = {}
+    colmap = calendar.event_columns()
+    candidates: list[str] = []
+    for c in event_cols:
+        eff = calendar.event(colmap[c]).effect
+        if eff.kind == "assume":
+            assumed[c] = float(eff.assume or 0.0)
+        elif eff.kind == "like":
+            target_cols = [k for k, ev in colmap.items() if ev == eff.like]
+            like_map[c] = target_cols[0] if target_cols else ""
+        else:
+            candidates.append(c)
+    candidates += [t["name"] for t in interventions]
+    kind_of = {c: design.roles[c] for c in X.columns}
+
+    # `like` events share their target's coefficient: add their column to it.
+    X = X.copy()
+    for c, target in like_map.items():
+        if target in X.columns:
+            X[target] = X[target] + X[c]
+    offset = pd.Series(0.0, index=periods)
+    notes: list[str] = []
+    if transform in ("log", "count"):
+        with np.errstate(divide="ignore"):
+            offset += np.log(np.where(closed_full, 1.0, share))
+        for c, a in assumed.items():
+            offset += np.log1p(a) * X[c]
+    else:
+        for c in assumed:
+            hit = X[c].to_numpy() > 0
+            if (hit & rows).any():
+                rows = rows & ~hit
+                notes.append(f"{c}: periods with this assumed event are left out of the additive fit")
+    status = check_columns(X, rows, base_cols, candidates, kind_of)
+    for c in assumed:
+        status[c] = ColumnStatus("assumed", f"lift assumed at {assumed[c] * 100:+g}%, not estimated")
+    for c, target in like_map.items():
+        status[c] = ColumnStatus("like", f"borrows the lift of {colmap.get(target, target)}")
+    fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
+    design = Design(X=X, open_share=design.open_share, roles=design.roles)
+    design.spec = spec  # type: ignore[attr-defined]
+    return ModelInputs(periods, actual, design, rows, excluded, offset, transform, status,
+                       fitted_cols, like_map, assumed, notes)
+
+
+def model_scale_response(inp: ModelInputs) -> pd.Series:
+    y = inp.actual.copy()
+    y[~inp.rows] = np.nan
+    if inp.transform == "log":
+        return np.log(y)
+    if inp.transform == "none":
+        return y / inp.design.open_share.where(inp.design.open_share > 0)
+    return y
+
+
+def estimate(inp: ModelInputs, options: FitOptions, freq: str) -> tuple[Estimate, dict[str, Any]]:
+    """Fit the chosen (or automatically selected) error model."""
+    X = inp.design.X[inp.fitted_cols]
+    y = model_scale_response(inp)
+    if inp.transform == "count":
+        est = fit_count(y, X, inp.offset)
+        return est, {"chosen": est.method, "reason": est.cov_note, "candidates": [
+            {"name": est.method, "criterion": "aic", "value": est.aic}]}
+    if inp.transform == "none":
+        # additive: the open share scales the whole period (rows of X and y alike)
+        share = inp.design.open_share.to_numpy()
+        X = X.mul(np.where(share > 0, share, 1.0), axis=0)
+        y = y * np.where(share > 0, share, 1.0)
+    offset = inp.offset if inp.transform == "log" else pd.Series(0.0, index=inp.periods)
+    if options.errors == "ols":
+        est = fit_ols(y, X, offset)
+        return est, {"chosen": "ols", "reason": "asked for (--errors ols); " + est.cov_note,
+                     "candidates": [{"name": "ols", "criterion": "aic", "value": est.aic}]}
+    if options.errors == "arima":
+        order = options.arima_order or (1, 0, 0)
+        est = fit_arima(y, _drop_const(X, order), offset, order)
+        return est, {"chosen": est.method, "reason": "asked for (--errors arima); " + est.cov_note,
+                     "candidates": [{"name": est.method, "criterion": "aic", "value": est.aic}]}
+    # auto
+    ols = fit_ols(y, X, offset)
+    if len(inp.periods) > LONG_SERIES:
+        return ols, {"chosen": "ols", "reason": (
+            f"long series ({len(inp.periods)} periods): OLS with HAC intervals, which stay valid "
+            "under autocorrelated errors and keep the fit fast"),
+            "candidates": [{"name": "ols", "criterion": "aic", "value": ols.aic}]}
+    cands: list[Estimate] = [ols]
+    for order in ((1, 0, 0), (1, 0, 1)):
+        try:
+            cands.append(fit_arima(y, X, offset, order))
+        except (np.linalg.LinAlgError, ValueError):
+            continue
+    best = min(cands, key=lambda e: e.aic)
+    table = [{"name": e.method, "criterion": "aic", "value": e.aic} for e in cands]
+    reason = (f"lowest AIC among {', '.join(e.method for e in cands)} (same response, "
+              f"comparable Gaussian likelihoods); {best.cov_note}")
+    return best, {"chosen": best.method, "reason": reason, "candidates": table}
+
+
+def _drop_const(X: pd.DataFrame, order: tuple[int, int, int]) -> pd.DataFrame:
+    if order[1] >= 1 and "const" in X.columns:
+        return X.drop(columns=["const"])
+    return X
+
+
+def min_periods(freq: str) -> int:
+    return 2 * cycle_length(freq)
+
+
+def check_history_length(history: Any) -> None:
+    n = int(history.values.notna().sum())
+    need = min_periods(history.freq)
+    if n < need:
+        raise HistoryError(
+            f"{history.source}: history has {n} periods with values; at least {need} "
+            f"(two full seasonal cycles of {cycle_length(history.freq)} periods) are needed")
+
+
+def average_share_profile(values: pd.Series) -> pd.Series:
+    """Each position's mean share of its year over full years (the plain profile, common practice)."""
+    periods = values.index
+    pos = season_position(periods)
+    years = periods.start_time.year
+    frame = pd.DataFrame({"v": values.to_numpy(), "pos": pos, "year": years})
+    counts = frame.groupby("year")["v"].count()
+    p = cycle_length(periods.freqstr)
+    full = counts[counts >= p].index
+    frame = frame[frame["year"].isin(full)]
+    if frame.empty:
+        return pd.Series(dtype=float)
+    frame = frame.assign(share=frame["v"] / frame.groupby("year")["v"].transform("sum"))
+    prof = frame.groupby("pos")["share"].mean()
+    return prof / prof.sum()
+
+
+__all__ = ["prepare", "estimate", "check_history_length", "average_share_profile", "EvcalError",
+           "period_days", "load_calendar_any", "calendar_text"]

@@ -1,0 +1,254 @@
+"""Series frequency: detect it from the dates, or read the user's ``--freq``.
+
+evcal reads one frequency per file: daily, weekly (any week-ending day),
+monthly or quarterly. Frequencies are pandas period strings (``"D"``,
+``"W-SUN"`` .. ``"W-SAT"``, ``"M"``, ``"Q-DEC"``) because every later step
+indexes by :class:`pandas.PeriodIndex`.
+
+Detection picks the coarsest frequency at which no two dates share a
+period, then checks the spacing is regular at that frequency: one period
+apart most of the time, and no long run of rows that are all the same larger
+step apart (that run is a second frequency mixed into the file).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+
+from evcal.errors import HistoryError
+
+WEEKDAYS: tuple[str, ...] = ("MON", "TUE", "WED", "THU", "FRI", "SAT", "SUN")
+_WEEKDAY_NAMES = ("Monday", "Tuesday", "Wednesday", "Thursday", "Friday", "Saturday", "Sunday")
+
+# What the user may type for --freq -> the period string (None: week end from the data).
+_FREQ_WORDS: dict[str, str | None] = {
+    "D": "D",
+    "DAILY": "D",
+    "DAY": "D",
+    "W": None,
+    "WEEKLY": None,
+    "WEEK": None,
+    "M": "M",
+    "MS": "M",
+    "ME": "M",
+    "MONTHLY": "M",
+    "MONTH": "M",
+    "Q": "Q-DEC",
+    "QS": "Q-DEC",
+    "QE": "Q-DEC",
+    "Q-DEC": "Q-DEC",
+    "QUARTERLY": "Q-DEC",
+    "QUARTER": "Q-DEC",
+} | {f"W-{day}": f"W-{day}" for day in WEEKDAYS}
+
+# A run of this many equal steps larger than one period is read as a second
+# frequency inside the file (common practice, no source: 5 evenly spaced rows
+# at a coarser rate are not a few scattered gaps).
+_MIXED_RUN = 4
+
+_MAX_QUOTED = 5
+
+
+def periods_per_year(freq: str) -> int:
+    """Periods in one seasonal cycle: 365 (daily), 52 (weekly), 12, 4.
+
+    Examples
+    --------
+    >>> periods_per_year("W-WED"), periods_per_year("M")
+    (52, 12)
+    """
+    if freq == "D":
+        return 365
+    if freq.startswith("W-"):
+        return 52
+    if freq == "M":
+        return 12
+    if freq.startswith("Q-"):
+        return 4
+    raise ValueError(f"unsupported frequency {freq!r}")
+
+
+def describe_freq(freq: str) -> str:
+    """A planner's name for a frequency: ``"weekly (week ending Sunday)"``."""
+    if freq == "D":
+        return "daily"
+    if freq.startswith("W-"):
+        return f"weekly (week ending {_WEEKDAY_NAMES[WEEKDAYS.index(freq[2:])]})"
+    if freq == "M":
+        return "monthly"
+    return "quarterly"
+
+
+def weekly_freq(weekday: int) -> str:
+    """The weekly period string whose weeks end on ``weekday`` (Monday = 0)."""
+    return f"W-{WEEKDAYS[weekday]}"
+
+
+def parse_freq_option(text: str, *, source: str = "--freq") -> str | None:
+    """Turn a ``--freq`` value into a period string.
+
+    Returns ``None`` for plain weekly (``"W"``, ``"weekly"``): the week-ending
+    day is then taken from the data.
+
+    Examples
+    --------
+    >>> parse_freq_option("monthly"), parse_freq_option("W-sat"), parse_freq_option("W")
+    ('M', 'W-SAT', None)
+    """
+    key = text.strip().upper()
+    if key not in _FREQ_WORDS:
+        raise HistoryError(
+            f"{source}: unknown frequency {text!r}; use D (daily), W (weekly, week end "
+            "taken from the dates) or W-MON .. W-SUN, M (monthly) or Q (quarterly)"
+        )
+    return _FREQ_WORDS[key]
+
+
+def _label_rows(rows: Sequence[int] | None, positions: np.ndarray) -> list[str]:
+    if rows is None:
+        return [f"date #{p + 1}" for p in positions]
+    return [f"row {rows[p]}" for p in positions]
+
+
+def _span(rows: Sequence[int] | None, first: int, last: int) -> str:
+    a, b = _label_rows(rows, np.array([first, last]))
+    if first == last:
+        return a
+    return f"{a.replace('row ', 'rows ').replace('date ', 'dates ')} to {b.split()[-1]}"
+
+
+def weekday_problem(dates: pd.DatetimeIndex, rows: Sequence[int] | None, source: str, weekday: int) -> str:
+    """One line naming the dates that are not on the week-ending ``weekday``."""
+    off = np.flatnonzero(dates.day_of_week != weekday)
+    shown = ", ".join(
+        f"{label} ({dates[p].date()}, a {_WEEKDAY_NAMES[dates[p].day_of_week]})"
+        for label, p in zip(_label_rows(rows, off[:_MAX_QUOTED]), off[:_MAX_QUOTED], strict=True)
+    )
+    more = f" and {len(off) - _MAX_QUOTED} more" if len(off) > _MAX_QUOTED else ""
+    return (
+        f"{source}: dates look weekly with weeks ending on {_WEEKDAY_NAMES[weekday]}, but "
+        f"{shown}{more} {'falls' if len(off) == 1 else 'fall'} on another day; weekly dates "
+        "must all be the same "
+        f"week-ending day (or give --freq D if the data are daily)"
+    )
+
+
+def _unique_at(dates: pd.DatetimeIndex, freq: str) -> bool:
+    return bool(dates.to_period(freq).is_unique)
+
+
+def detect_freq(
+    dates: pd.DatetimeIndex | Sequence[object],
+    *,
+    source: str = "<dates>",
+    rows: Sequence[int] | None = None,
+) -> str:
+    """Detect the period frequency of a set of distinct dates.
+
+    Parameters
+    ----------
+    dates : DatetimeIndex
+        One date per row, distinct, any order.
+    source : str, optional
+        Name used in error messages (the file name).
+    rows : sequence of int, optional
+        Spreadsheet row number of each date, for error messages.
+
+    Returns
+    -------
+    str
+        ``"D"``, ``"W-MON"`` .. ``"W-SUN"``, ``"M"`` or ``"Q-DEC"``.
+
+    Raises
+    ------
+    HistoryError
+        Fewer than two dates, duplicates, mixed or undetectable frequency.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> detect_freq(pd.to_datetime(["2024-01-31", "2024-02-29", "2024-03-31"]))
+    'M'
+    >>> detect_freq(pd.date_range("2024-01-03", periods=5, freq="7D"))
+    'W-WED'
+    """
+    idx = pd.DatetimeIndex(pd.to_datetime(dates)).normalize()
+    order = np.argsort(idx.asi8, kind="stable")
+    idx = idx[order]
+    row_list = None if rows is None else [list(rows)[i] for i in order]
+    if len(idx) < 2:
+        raise HistoryError(
+            f"{source}: only {len(idx)} date; the frequency cannot be detected from fewer "
+            "than two dates (give --freq, and note a fit needs two full seasonal cycles)"
+        )
+    if not idx.is_unique:
+        dup = idx[idx.duplicated()][0]
+        raise HistoryError(f"{source}: date {dup.date()} appears more than once")
+
+    weekdays = idx.day_of_week
+    candidates = ["Q-DEC", "M"]
+    if (weekdays == weekdays[0]).all():
+        candidates.append(weekly_freq(int(weekdays[0])))
+    candidates.append("D")
+    freq = next(f for f in candidates if _unique_at(idx, f))
+
+    steps = np.diff(idx.to_period(freq).asi8)
+    values, counts = np.unique(steps, return_counts=True)
+    modal = int(values[np.argmax(counts)])
+    if modal != 1:
+        day_steps = np.diff(_days(idx))
+        typical = int(np.median(day_steps))
+        modal_weekday = int(np.bincount(weekdays, minlength=7).argmax())
+        if freq == "D" and typical % 7 == 0:
+            raise HistoryError(weekday_problem(idx, row_list, source, modal_weekday))
+        raise HistoryError(
+            f"{source}: cannot tell the frequency: consecutive dates are typically "
+            f"{typical} days apart; evcal reads daily, weekly (every row on the same "
+            "week-ending day), monthly or quarterly data; give --freq to choose one"
+        )
+    run = _longest_run_above_one(steps)
+    if run is not None:
+        first, last, step = run
+        raise HistoryError(
+            f"{source}: mixed frequency: {_span(row_list, first, last + 1)} are {step} "
+            f"periods apart at the {describe_freq(freq)} rate the other rows follow; "
+            "evcal reads one frequency per file: split or aggregate the rows, or give "
+            "--freq to force one (the skipped periods then count as missing)"
+        )
+    return freq
+
+
+def _days(idx: pd.DatetimeIndex) -> np.ndarray:
+    return idx.as_unit("s").asi8 // 86_400
+
+
+def _longest_run_above_one(steps: np.ndarray) -> tuple[int, int, int] | None:
+    """(first, last, step) of the first run of >= _MIXED_RUN equal steps > 1, by position."""
+    start = 0
+    for i in range(1, len(steps) + 1):
+        if i == len(steps) or steps[i] != steps[start]:
+            if steps[start] > 1 and i - start >= _MIXED_RUN:
+                return start, i - 1, int(steps[start])
+            start = i
+    return None
+
+
+def detect_label(dates: pd.DatetimeIndex, freq: str) -> str:
+    """How dates are written for ``freq``: ``"start"`` or ``"end"`` of each period.
+
+    Monthly and quarterly: ``"end"`` only if every date is its period's last
+    day, else ``"start"``. Weekly dates are week-ending days (``"end"``); daily
+    dates are the day itself (``"start"``).
+    """
+    if freq.startswith("W-"):
+        return "end"
+    if freq == "D":
+        return "start"
+    periods = dates.to_period(freq)
+    ends = periods.end_time.normalize()
+    if len(dates) and (dates.normalize() == ends).all():
+        return "end"
+    return "start"

@@ -1,0 +1,223 @@
+"""``read_history``: a history file in, a clean regular :class:`History` out."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from evcal.errors import HistoryError
+from evcal.io.cells import RowProblem, is_empty, parse_dates, parse_values, quote
+from evcal.io.frequency import (
+    describe_freq,
+    detect_freq,
+    detect_label,
+    parse_freq_option,
+    weekday_problem,
+    weekly_freq,
+)
+from evcal.io.history import History
+from evcal.io.tables import find_column, load_table
+
+MAX_PROBLEM_LINES = 10
+_MAX_CLASHES = 3
+
+
+def read_history(
+    source: str | Path | pd.DataFrame,
+    date_col: str = "date",
+    value_col: str = "value",
+    freq: str | None = None,
+    allow_negative: bool = False,
+    sheet: str | int | None = None,
+) -> History:
+    """Read a history of one value per period into a regular series.
+
+    Parameters
+    ----------
+    source : str, Path or DataFrame
+        A ``.csv`` (also ``;``- or tab-separated), ``.parquet`` or ``.xlsx``
+        file, or a DataFrame (named ``"<frame>"`` in messages).
+    date_col, value_col : str
+        Column names; matched exactly, else ignoring case and spaces.
+    freq : str, optional
+        Force the frequency: ``"D"``/``"daily"``, ``"W"``/``"weekly"`` (week
+        end taken from the dates), ``"W-MON"`` .. ``"W-SUN"``,
+        ``"M"``/``"monthly"``, ``"Q"``/``"quarterly"``. Detected when omitted.
+    allow_negative : bool
+        Accept values below zero (returns, net flows).
+    sheet : str or int, optional
+        Excel sheet name or 0-based number (default: the first sheet).
+
+    Returns
+    -------
+    History
+        Values on a regular PeriodIndex from the first to the last period;
+        periods with no row or an empty value are NaN and listed in
+        ``missing``.
+
+    Raises
+    ------
+    HistoryError
+        One line per problem, naming file, row and column: empty file,
+        missing column, unparseable or duplicate dates, non-numeric or
+        negative values, mixed or undetectable frequency.
+
+    Notes
+    -----
+    Weekly dates name the last day of each week, so a file of Sundays is
+    ``W-SUN`` (Monday to Sunday weeks) and a file of Wednesdays ``W-WED``.
+    Monthly and quarterly dates may name the first day, the last day or any
+    day of the period: ``2024-01-31`` and ``2024-01-01`` are both January.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> frame = pd.DataFrame({"date": ["2024-01-31", "2024-02-29", "2024-04-30"],
+    ...                       "value": [10, 12, 9]})
+    >>> h = read_history(frame)
+    >>> h.freq, h.label, [str(p) for p in h.values.index], [str(p) for p in h.missing]
+    ('M', 'end', ['2024-01', '2024-02', '2024-03', '2024-04'], ['2024-03'])
+    """
+    forced = parse_freq_option(freq) if freq is not None else None
+    table = load_table(source, sheet=sheet, date_col=date_col)
+    name = table.source
+    dcol = find_column(table, date_col, "date", "--date-col")
+    vcol = find_column(table, value_col, "value", "--value-col")
+    if dcol == vcol:
+        raise HistoryError(
+            f"{name}: the date and value columns are both {dcol!r}; name two different "
+            "columns with --date-col and --value-col"
+        )
+
+    frame = table.frame
+    date_cells = frame[dcol].reset_index(drop=True)
+    value_cells = frame[vcol].reset_index(drop=True)
+    blank = np.array(
+        [is_empty(d) and is_empty(v) for d, v in zip(date_cells, value_cells, strict=True)],
+        dtype=bool,
+    )
+    keep = np.flatnonzero(~blank)
+    if len(keep) == 0:
+        raise HistoryError(f"{name}: no data rows below the header; columns {dcol!r} and {vcol!r} are empty")
+    rows = [table.rows[i] for i in keep]
+    date_cells = date_cells.iloc[keep].reset_index(drop=True)
+    value_cells = value_cells.iloc[keep].reset_index(drop=True)
+
+    dates, problems = parse_dates(date_cells, rows, dcol, name)
+    values, value_problems = parse_values(value_cells, rows, vcol, allow_negative)
+    problems += value_problems
+    dates = dates.dt.normalize()
+    for i in np.flatnonzero(dates.isna().to_numpy()):
+        if is_empty(date_cells.iloc[i]):
+            problems.append(
+                RowProblem(
+                    rows[i],
+                    dcol,
+                    f"empty date (value {quote(value_cells.iloc[i])}); every row needs a date",
+                )
+            )
+    problems += _duplicates(dates, date_cells, rows, dcol)
+    if problems:
+        raise HistoryError(_problem_lines(problems, name))
+    if values.notna().sum() == 0:
+        raise HistoryError(f"{name}: column {vcol!r} has no values; every cell is empty")
+
+    stamps = pd.DatetimeIndex(dates)
+    freq_used = _resolve_freq(stamps, rows, name, freq, forced)
+    periods = stamps.to_period(freq_used)
+    _check_one_row_per_period(periods, stamps, rows, name, freq_used)
+
+    index = pd.period_range(periods.min(), periods.max(), freq=freq_used, name="period")
+    series = pd.Series(np.nan, index=index, dtype="float64", name=value_col)
+    series.loc[periods] = values.to_numpy(dtype="float64")
+    missing = list(index[series.isna().to_numpy()])
+    return History(
+        values=series,
+        freq=freq_used,
+        label=detect_label(stamps, freq_used),
+        source=name,
+        missing=missing,
+    )
+
+
+def _resolve_freq(
+    stamps: pd.DatetimeIndex,
+    rows: list[int],
+    name: str,
+    option: str | None,
+    forced: str | None,
+) -> str:
+    if option is None:
+        return detect_freq(stamps, source=name, rows=rows)
+    if forced is not None:
+        return forced
+    # Plain "weekly": the week ends on the day every date falls on.
+    weekdays = stamps.day_of_week
+    modal = int(np.bincount(weekdays, minlength=7).argmax())
+    if not (weekdays == modal).all():
+        raise HistoryError(weekday_problem(stamps, rows, name, modal))
+    return weekly_freq(modal)
+
+
+def _duplicates(dates: pd.Series, cells: pd.Series, rows: list[int], column: str) -> list[RowProblem]:
+    found: list[RowProblem] = []
+    valid = dates[dates.notna()]
+    for _day, group in valid.groupby(valid, sort=True):
+        if len(group) < 2:
+            continue
+        positions = list(group.index)
+        first, others = positions[0], positions[1:]
+        where = ", ".join(f"row {rows[i]} ({quote(cells.iloc[i])})" for i in others)
+        found.append(
+            RowProblem(
+                rows[first],
+                column,
+                f"duplicate date {quote(cells.iloc[first])}, again in {where}; keep one "
+                "row per period (add the rows up if they "
+                "are parts of the same period)",
+            )
+        )
+    return found
+
+
+def _check_one_row_per_period(
+    periods: pd.PeriodIndex,
+    stamps: pd.DatetimeIndex,
+    rows: list[int],
+    name: str,
+    freq: str,
+) -> None:
+    if periods.is_unique:
+        return
+    try:
+        shown_freq = detect_freq(stamps, source=name, rows=rows)
+        hint = f"the dates look {describe_freq(shown_freq)}; leave out --freq to use that"
+    except HistoryError:
+        hint = "give one row per period"
+    codes = pd.Series(range(len(periods)), index=periods)
+    clashes = [(p, list(g)) for p, g in codes.groupby(level=0, sort=True) if len(g) > 1]
+    lines: list[str] = []
+    for period, positions in clashes[:_MAX_CLASHES]:
+        listed = ", ".join(f"{rows[i]} ({stamps[i].date()})" for i in positions[:3])
+        if len(positions) > 3:
+            listed += f" and {len(positions) - 3} more"
+        lines.append(
+            f"{name} rows {listed}: all fall in the {describe_freq(freq)} period {period}; "
+            f"evcal does not add rows up: {hint}"
+        )
+    if len(clashes) > _MAX_CLASHES:
+        lines.append(f"{name}: and {len(clashes) - _MAX_CLASHES} more periods with several rows")
+    raise HistoryError(lines)
+
+
+def _problem_lines(problems: list[RowProblem], name: str) -> list[str]:
+    ordered = sorted(problems)
+    lines = [p.line(name) for p in ordered[:MAX_PROBLEM_LINES]]
+    if len(ordered) > MAX_PROBLEM_LINES:
+        lines.append(
+            f"{name}: and {len(ordered) - MAX_PROBLEM_LINES} more problems like these "
+            f"(first {MAX_PROBLEM_LINES} shown)"
+        )
+    return lines

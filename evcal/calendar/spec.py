@@ -1,0 +1,189 @@
+"""The validated calendar: plain frozen records that the later steps read.
+
+These are what :func:`evcal.calendar.load_calendar` returns inside a
+:class:`~evcal.calendar.Calendar`. The file-level checking (keys, types, line
+numbers) lives in :mod:`evcal.calendar.schema` and
+:mod:`evcal.calendar.loader`; by the time one of these exists it is valid.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+from typing import Literal
+
+import pandas as pd
+
+from evcal.calendar.rules import Hit, Rule
+
+Shape = Literal["flat", "ramp", "decay", "daily"]
+EffectKind = Literal["estimate", "zero", "assume", "like"]
+InterventionType = Literal["pulse", "level_shift", "temporary", "ramp"]
+
+
+@dataclass(frozen=True)
+class EffectSpec:
+    """How an event's lift is obtained.
+
+    ``estimate`` (from history), ``zero`` (a closure: the days are known to be
+    zero), ``assume`` (a given lift, as a fraction: 0.15 is +15 %) or ``like``
+    (borrow another event's lift).
+    """
+
+    kind: EffectKind = "estimate"
+    assume: float | None = None
+    like: str | None = None
+
+    def describe(self) -> str:
+        if self.kind == "assume" and self.assume is not None:
+            return f"assume {self.assume * 100:+g}%"
+        if self.kind == "like":
+            return f"like {self.like}"
+        return self.kind
+
+
+@dataclass(frozen=True)
+class YearsSpec:
+    """Which years an event occurs in: all, a list, every n-th from a start, or a range."""
+
+    kind: Literal["all", "list", "every", "range"] = "all"
+    values: tuple[int, ...] = ()
+    every: int | None = None
+    start: int | None = None
+    first: int | None = None
+    last: int | None = None
+
+    def contains(self, year: int) -> bool:
+        if self.kind == "list":
+            return year in self.values
+        if self.kind == "every":
+            assert self.every is not None and self.start is not None
+            return year >= self.start and (year - self.start) % self.every == 0
+        if self.kind == "range":
+            return (self.first is None or year >= self.first) and (
+                self.last is None or year <= self.last
+            )
+        return True
+
+    def bounds(self) -> tuple[int | None, int | None]:
+        """First and last possible year (``None`` = open-ended)."""
+        if self.kind == "list":
+            return (min(self.values), max(self.values)) if self.values else (None, None)
+        if self.kind == "every":
+            return self.start, None
+        if self.kind == "range":
+            return self.first, self.last
+        return None, None
+
+    def describe(self) -> str:
+        if self.kind == "list":
+            return ", ".join(str(v) for v in self.values)
+        if self.kind == "every":
+            return f"every {self.every} years from {self.start}"
+        if self.kind == "range":
+            return f"{self.first or '...'} to {self.last or '...'}"
+        return "all"
+
+
+@dataclass(frozen=True)
+class MovedSpec:
+    """One year's occurrence on other dates (inclusive)."""
+
+    start: pd.Timestamp
+    end: pd.Timestamp
+    strength: float = 1.0
+
+
+@dataclass(frozen=True, eq=False)
+class EventSpec:
+    """One event of the calendar, validated.
+
+    ``rule`` is the ``when:`` kind ("easter", "weekday", ...); ``when`` is the
+    rule object that dates it. ``length`` is the occurrence length in days for
+    rules that give single days; ``span`` and ``dates`` carry their own ends.
+    """
+
+    name: str
+    rule: str
+    when: Rule
+    label: str = ""
+    group: str | None = None
+    length: int = 1
+    before: int = 0
+    after: int = 0
+    shape: Shape = "flat"
+    effect: EffectSpec = field(default_factory=EffectSpec)
+    years: YearsSpec = field(default_factory=YearsSpec)
+    skip: tuple[int, ...] = ()
+    moved: dict[int, MovedSpec] = field(default_factory=dict)
+    offset: int = 0
+    line: int | None = None
+
+    def __post_init__(self) -> None:
+        if not self.label:
+            object.__setattr__(self, "label", self.name)
+
+    @property
+    def window_offsets(self) -> list[int]:
+        """Day offsets from the occurrence start that the window covers."""
+        return list(range(-self.before, self.length + self.after))
+
+    @property
+    def is_closure(self) -> bool:
+        return self.effect.kind == "zero"
+
+    def columns(self) -> list[str]:
+        """Column names in day weights: the name, or one per day offset for ``daily``."""
+        if self.shape == "daily":
+            return [f"{self.name}[{k:+d}]" for k in self.window_offsets]
+        return [self.name]
+
+    def occurs_in(self, year: int) -> bool:
+        """Whether the rule, ``years`` and ``skip`` give this event an occurrence in ``year``."""
+        return bool(self._rule_hits(year))
+
+    def _rule_hits(self, year: int) -> list[Hit]:
+        if year in self.skip or not self.years.contains(year):
+            return []
+        return self.when.hits(year)
+
+    def dated(self, year: int) -> list[tuple[dt.date, dt.date, float]]:
+        """The occurrences of ``year`` as (start, end, strength), inclusive, without window."""
+        if year in self.moved:
+            m = self.moved[year]
+            return [(m.start.date(), m.end.date(), m.strength)]
+        shift = dt.timedelta(days=self.offset)
+        span = dt.timedelta(days=self.length - 1)
+        out = []
+        for h in self._rule_hits(year):
+            start = h.start + shift
+            end = (h.end + shift) if h.end is not None else start + span
+            out.append((start, end, h.strength))
+        return out
+
+
+@dataclass(frozen=True)
+class InterventionSpec:
+    """A known change in the history (Box–Tiao intervention)."""
+
+    name: str
+    type: InterventionType
+    start: pd.Timestamp
+    end: pd.Timestamp | None = None
+    decay: float | None = None
+    label: str = ""
+    line: int | None = None
+
+    def __post_init__(self) -> None:
+        if not self.label:
+            object.__setattr__(self, "label", self.name)
+
+
+@dataclass(frozen=True)
+class ExclusionSpec:
+    """A period kept out of the fit (inclusive), with the reason."""
+
+    start: pd.Timestamp
+    end: pd.Timestamp
+    reason: str
+    line: int | None = None

@@ -1,0 +1,66 @@
+"""Aggregate daily event weights to the series' periods (share of window).
+
+Events are laid out day by day first (:meth:`evcal.calendar.Calendar.day_weights`).
+Summing the day weights that fall in each period turns them into period
+columns; with ``normalize="window"`` day weights this is the Bell–Hillmer
+share-of-window regressor: the fraction of an occurrence's window that falls
+in the period (times its strength). A 10-day run-up to Easter that starts in
+March and ends in April is split between the two months in proportion to its
+days.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+
+def aggregate_day_weights(day_weights: pd.DataFrame, periods: pd.PeriodIndex) -> pd.DataFrame:
+    """Sum daily weights into ``periods`` (any pandas period frequency).
+
+    Parameters
+    ----------
+    day_weights : DataFrame
+        Daily DatetimeIndex (every day), one float column per regressor, as
+        returned by ``Calendar.day_weights``.
+    periods : PeriodIndex
+        The target periods, e.g. ``pd.period_range("2024-01", "2024-12", freq="M")``
+        or weeks ending on any day (``freq="W-SAT"``). Every day of every
+        period must be inside ``day_weights``' index, so that no part of a
+        window is silently dropped.
+
+    Returns
+    -------
+    DataFrame
+        Index ``periods``, the same columns, each value the sum of the day
+        weights inside that period.
+
+    Examples
+    --------
+    >>> days = pd.DataFrame({"x": 1.0}, index=pd.date_range("2024-03-30", "2024-04-02"))
+    >>> months = pd.period_range("2024-03", "2024-04", freq="M")
+    >>> full = pd.DataFrame({"x": 0.0}, index=pd.date_range("2024-03-01", "2024-04-30"))
+    >>> full.loc[days.index, "x"] = 1.0
+    >>> aggregate_day_weights(full, months)["x"].tolist()
+    [2.0, 2.0]
+    """
+    if not isinstance(periods, pd.PeriodIndex):
+        raise TypeError(f"periods must be a pandas PeriodIndex, not {type(periods).__name__}")
+    if not isinstance(day_weights.index, pd.DatetimeIndex):
+        raise TypeError("day_weights must have a daily DatetimeIndex")
+    values = day_weights.to_numpy(dtype=float)
+    out = np.zeros((len(periods), values.shape[1]))
+    if len(periods):
+        first = periods.min().start_time.normalize()
+        last = periods.max().end_time.normalize()
+        index = day_weights.index
+        if len(index) == 0 or index.min() > first or index.max() < last:
+            have = f"{index.min().date()} to {index.max().date()}" if len(index) else "no days"
+            raise ValueError(
+                f"day weights cover {have} but the periods need {first.date()} to {last.date()}"
+            )
+        codes = periods.get_indexer(index.to_period(periods.freq))
+        inside = codes >= 0
+        # np.add.at: several days map to one period; unbuffered addition sums them all.
+        np.add.at(out, codes[inside], values[inside])
+    return pd.DataFrame(out, index=periods, columns=day_weights.columns)

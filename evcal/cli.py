@@ -54,6 +54,83 @@ def main() -> None:  # pragma: no cover - console entry point
 # ---------------------------------------------------------------- calendar
 # (calendar check, calendar dates)
 
+
+@calendar_app.command("check")
+@guarded
+def calendar_check(
+    file: str = typer.Argument(..., help="Calendar file (YAML)."),
+    from_year: int | None = typer.Option(
+        None, "--from", help="First year to check (default: the first year the file names)."
+    ),
+    to_year: int | None = typer.Option(
+        None, "--to", help="Last year to check (default: the last year the file names)."
+    ),
+) -> None:
+    """Validate a calendar file and print a short summary and warnings."""
+    from pathlib import Path
+
+    from evcal.calendar import load_calendar
+    from evcal.calendar.summary import check_calendar, default_years
+
+    cal = load_calendar(Path(file))
+    lo, hi = default_years(cal)
+    first, last = from_year or lo, to_year or hi
+    _check_year_range(first, last)
+    report = check_calendar(cal, first, last)
+    for line in report.lines:
+        typer.echo(line)
+    if report.warnings:
+        typer.echo(f"warnings ({len(report.warnings)}):")
+        for line in report.warnings:
+            typer.echo(f"  - {line}")
+    else:
+        typer.echo("warnings: none")
+    typer.echo("ok: the calendar is valid")
+
+
+@calendar_app.command("dates")
+@guarded
+def calendar_dates(
+    file: str = typer.Argument(..., help="Calendar file (YAML)."),
+    from_year: int = typer.Option(..., "--from", help="First year (inclusive)."),
+    to_year: int = typer.Option(..., "--to", help="Last year (inclusive)."),
+    out: str | None = typer.Option(
+        None, "--out", help="CSV file to write (default: print to stdout)."
+    ),
+) -> None:
+    """List every occurrence (event, start, end, strength) between two years, as CSV."""
+    from pathlib import Path
+
+    from evcal._files import atomic_path
+    from evcal.calendar import load_calendar
+
+    _check_year_range(from_year, to_year)
+    cal = load_calendar(Path(file))
+    table = cal.occurrences(from_year, to_year)
+    table["start"] = table["start"].dt.strftime("%Y-%m-%d")
+    table["end"] = table["end"].dt.strftime("%Y-%m-%d")
+    text = table.to_csv(index=False, float_format="%g", lineterminator="\n")
+    if out is None:
+        typer.echo(text, nl=False)
+        return
+    with atomic_path(out) as tmp:
+        tmp.write_text(text, encoding="utf-8")
+    typer.echo(f"{len(table)} occurrences written to {out}", err=True)
+
+
+def _check_year_range(first: int, last: int) -> None:
+    from evcal.errors import CalendarError
+
+    problems = [
+        f"--{flag} {year}: not a year; use a four-digit year such as 2026"
+        for flag, year in (("from", first), ("to", last))
+        if not 1000 <= year <= 9999
+    ]
+    if not problems and last < first:
+        problems.append(f"--to {last} is before --from {first}; give --to the same year or later")
+    if problems:
+        raise CalendarError(problems)
+
 # ---------------------------------------------------------------- fit, show
 
 # ---------------------------------------------------------------- plan, backtest

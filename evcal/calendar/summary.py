@@ -1,0 +1,169 @@
+"""What ``evcal calendar check`` prints: a short summary and warnings.
+
+Warnings are things that are valid but probably not meant, or that will
+limit what the fit can tell apart:
+
+* two events whose occurrences overlap (their lifts share days);
+* two events whose windows cover exactly the same days in every year checked
+  (their lifts cannot be told apart at all);
+* events with no occurrence in the years checked, or with ``nth: 5`` /
+  ``02-29`` rules that skip some years;
+* ``dates`` events whose listed dates stop before the last year checked;
+* ``assume`` lifts below 1 % (``assume: 0.15`` is 0.15 %, not 15 %).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from evcal.calendar import rules as R
+from evcal.calendar.core import Calendar
+from evcal.calendar.occurrences import EPOCH_ORDINAL, as_day, day_number, expand
+from evcal.calendar.spec import EventSpec
+from evcal.calendar.weights import window_days
+
+
+@dataclass(frozen=True)
+class CheckReport:
+    """Summary lines and warning lines for one calendar over a range of years."""
+
+    lines: list[str]
+    warnings: list[str]
+    first_year: int
+    last_year: int
+
+
+def default_years(cal: Calendar, today: dt.date | None = None) -> tuple[int, int]:
+    """The years ``check`` looks at: those the file names, else the last five and the next."""
+    lo, hi = cal.years_covered()
+    year = (today or dt.date.today()).year
+    if lo is None or hi is None:
+        return year - 5, year + 1
+    return lo, hi
+
+
+def _years_of(days: np.ndarray) -> list[int]:
+    return sorted({dt.date.fromordinal(int(d) + EPOCH_ORDINAL).year for d in days})
+
+
+def _year_list(years: Sequence[int]) -> str:
+    if len(years) > 6:
+        return f"{', '.join(map(str, years[:3]))}, ... {years[-1]} ({len(years)} years)"
+    return ", ".join(map(str, years))
+
+
+def _coverage(events: Sequence[EventSpec], first: int, n_days: int, window: bool,
+              lo_ts: object, hi_ts: object) -> np.ndarray:
+    """Boolean day × event: day inside an occurrence (or its window)."""
+    occ = expand(events, lo_ts, hi_ts)  # type: ignore[arg-type]
+    grid = np.zeros((n_days, len(events)), dtype=bool)
+    if len(occ) == 0:
+        return grid
+    row, day, k, _ = window_days(events, occ)
+    if not window:
+        length = (occ.end - occ.start + 1)[row]
+        inside = (k >= 0) & (k < length)
+        row, day = row[inside], day[inside]
+    ok = (day >= first) & (day < first + n_days)
+    grid[day[ok] - first, occ.event[row[ok]]] = True
+    return grid
+
+
+def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckReport:
+    """Summarise ``cal`` and collect warnings over ``first_year``..``last_year``."""
+    lo, hi = as_day(first_year), as_day(last_year, end=True)
+    first, n_days = day_number(lo), (hi - lo).days + 1
+    events = cal.events
+    occ = cal.occurrences(lo, hi)
+    counts = occ["event"].value_counts()
+    public_ids = {id(e) for e in cal.public_holidays.events} if cal.public_holidays else set()
+    public = [e for e in events if id(e) in public_ids]
+    from_file = [e for e in events if id(e) not in public_ids]
+
+    lines = [f"calendar: {cal.name} ({cal.source})"]
+    src = cal.public_holidays.source.describe() if cal.public_holidays else None
+    lines.append(
+        f"events: {len(events)} ({len(from_file)} from the file"
+        + (f", {len(public)} public holidays of {src})" if src else ")")
+    )
+    for e in events:
+        n = int(counts.get(e.name, 0))
+        window = f"window {-e.before:+d}..{e.length + e.after - 1:+d}" if (
+            e.before or e.after or e.length > 1) else "1 day"
+        years = "" if e.years.kind == "all" else f", years {e.years.describe()}"
+        extra = "".join(
+            [
+                f", skip {', '.join(map(str, e.skip))}" if e.skip else "",
+                f", moved {', '.join(map(str, e.moved))}" if e.moved else "",
+                f", offset {e.offset:+d}" if e.offset else "",
+            ]
+        )
+        lines.append(
+            f"  {e.name}: {e.when.describe()}, {window}, {e.shape}{years}{extra}, "
+            f"effect {e.effect.describe()}; {n} occurrences in {first_year}-{last_year}"
+        )
+    rules = sorted({e.rule for e in events})
+    lines.append(f"rules used: {', '.join(rules) if rules else 'none'}")
+    for iv in cal.interventions:
+        end = f" to {iv.end.date()}" if iv.end is not None else ""
+        decay = f", decay {iv.decay:g}" if iv.decay is not None else ""
+        lines.append(f"intervention: {iv.name}: {iv.type} from {iv.start.date()}{end}{decay}")
+    for ex in cal.exclusions:
+        lines.append(f"excluded: {ex.start.date()} to {ex.end.date()} ({ex.reason})")
+    closed = int(cal.closed_days(lo, hi).sum())
+    lines.append(f"closed days in {first_year}-{last_year}: {closed}")
+    y0, y1 = cal.years_covered()
+    named = f"{y0}-{y1}" if y0 is not None else "none (every rule repeats yearly)"
+    lines.append(f"years named in the file: {named}; checked {first_year}-{last_year}")
+
+    warnings: list[str] = []
+    quiet_public: list[str] = []
+    for e in events:
+        if int(counts.get(e.name, 0)) == 0:
+            if e in public:
+                quiet_public.append(e.name)
+            else:
+                warnings.append(f"{e.name}: no occurrence in {first_year}-{last_year}")
+        if isinstance(e.when, R.WeekdayRule) and abs(e.when.nth) == 5:
+            missing = [y for y in range(first_year, last_year + 1)
+                       if e.years.contains(y) and y not in e.skip and not e.when.hits(y)]
+            if missing:
+                warnings.append(f"{e.name}: the month has no such 5th weekday in "
+                                f"{_year_list(missing)}; no occurrence those years")
+        if isinstance(e.when, R.FixedRule) and (e.when.month, e.when.day) == (2, 29):
+            warnings.append(f"{e.name}: 02-29 occurs in leap years only")
+        if isinstance(e.when, R.DatesRule):
+            last_listed = max(e.when.years())
+            if last_listed < last_year:
+                warnings.append(f"{e.name}: dates are listed up to {last_listed} only; add the "
+                                "dates of later years before planning them")
+        if e.effect.kind == "assume" and e.effect.assume is not None and (
+                0 < abs(e.effect.assume) < 0.01):
+            warnings.append(f"{e.name}: assume is {e.effect.assume * 100:g} %; write "
+                            f"{e.effect.assume * 1e4:g}% if you meant that many percent")
+    if quiet_public:
+        warnings.append(f"{len(quiet_public)} public holidays have no day in {first_year}-"
+                        f"{last_year}: {', '.join(quiet_public)}")
+
+    # Pairs of events: overlapping occurrences, and identical windows in every year.
+    pairable = [e for e in events if e.rule != "every_weekday"]
+    if len(pairable) > 1:
+        days = _coverage(pairable, first, n_days, False, lo, hi)
+        wins = _coverage(pairable, first, n_days, True, lo, hi)
+        shared = days.T.astype(np.int64) @ days.astype(np.int64)
+        for i in range(len(pairable)):
+            for j in range(i + 1, len(pairable)):
+                a, b = pairable[i], pairable[j]
+                if wins[:, i].any() and np.array_equal(wins[:, i], wins[:, j]):
+                    warnings.append(f"{a.name} and {b.name} cover the same days in every year "
+                                    "checked; their lifts cannot be told apart (merge them or "
+                                    "drop one)")
+                elif shared[i, j] > 0:
+                    both = np.flatnonzero(days[:, i] & days[:, j]) + first
+                    warnings.append(f"{a.name} and {b.name} overlap on {int(shared[i, j])} days"
+                                    f" (in {_year_list(_years_of(both))})")
+    return CheckReport(lines, warnings, first_year, last_year)

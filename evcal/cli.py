@@ -137,6 +137,30 @@ def _check_year_range(first: int, last: int) -> None:
 
 # ---------------------------------------------------------------- report, demo
 
+
+@app.command("report")
+@guarded
+def report_command(
+    model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
+    out: str = typer.Option(..., "--out", help="HTML file to write (one self-contained file)."),
+    plan: str | None = typer.Option(None, "--plan", help="plan.csv written by `evcal plan`."),
+    backtest: str | None = typer.Option(
+        None, "--backtest", help="backtest.csv written by `evcal backtest`."
+    ),
+    calendar: str | None = typer.Option(
+        None, "--calendar", help="Calendar file for the day-by-day calendar view of the plan."
+    ),
+    title: str | None = typer.Option(None, "--title", help="Heading of the report."),
+) -> None:
+    """Write one HTML report: history, seasonal index, lifts, plan, calendar, backtest."""
+    from evcal.report import write_report
+
+    path = write_report(
+        model_dir, out, plan_csv=plan, backtest_csv=backtest, calendar=calendar, title=title
+    )
+    typer.echo(f"report written: {path}")
+
+
 # ---------------------------------------------------------------- discover
 
 

@@ -92,8 +92,12 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
     )
     for e in events:
         n = int(counts.get(e.name, 0))
-        window = f"window {-e.before:+d}..{e.length + e.after - 1:+d}" if (
-            e.before or e.after or e.length > 1) else "1 day"
+        listed = isinstance(e.when, R.DatesRule | R.SpanRule | R.HolidayRule)
+        window = "days as listed" if isinstance(e.when, R.DatesRule) else (
+            f"{e.length} day{'s' if e.length > 1 else ''}" if not listed or e.length > 1
+            else "1 day")
+        if e.before or e.after:
+            window += f" (+{e.before} before, +{e.after} after)"
         years = "" if e.years.kind == "all" else f", years {e.years.describe()}"
         extra = "".join(
             [

@@ -17,7 +17,6 @@ PosixPath('report.html')
 from __future__ import annotations
 
 import math
-import os
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from html import escape
@@ -32,15 +31,9 @@ from evcal._files import atomic_path
 from evcal.report import charts
 from evcal.report import palette as pal
 from evcal.report.calendar_view import calendar_view, fold_weights, weights_from_plan
+from evcal.report.common import CAUTION, readable
 from evcal.report.model_folder import ModelFolder, lift_columns, read_model_folder
 from evcal.report.periods import cycle_name, kind_of, period_days, period_label
-
-CAUTION = (
-    "This plan is an estimate. It is built from past sales and the events in the "
-    "calendar file, and it is uncertain: the low–high band shows by how much. Use it "
-    "as a starting point; the decisions it informs (orders, staffing, targets, "
-    "budgets) belong to the people who own them."
-)
 
 METHOD_NAMES = {
     "evcal": "evcal (base + scheduled events)",
@@ -105,17 +98,6 @@ def write_report(
         tmp.write_text(page, encoding="utf-8")
         readable(tmp)
     return out
-
-
-def readable(path: Path) -> None:
-    """Give a finished temporary file the usual permissions (it is made owner-only).
-
-    A report is meant to be shared; the temporary file behind the atomic write
-    starts as 0600, so open it up to what the user's umask allows.
-    """
-    mask = os.umask(0)
-    os.umask(mask)
-    os.chmod(path, 0o666 & ~mask)
 
 
 def render_report(

@@ -1,0 +1,194 @@
+"""The Excel workbook: plan, lifts, seasonal index and past occurrences.
+
+A planner opens this next to their own sheets, so every number is an Excel
+number (never text), every date an Excel date, the header row stays in view
+when scrolling, and columns are wide enough to read. A last sheet, Notes,
+repeats the caution that the plan is an estimate.
+
+Examples
+--------
+>>> import pandas as pd, tempfile, pathlib
+>>> plan = pd.DataFrame({"date": pd.to_datetime(["2027-01-03"]), "base": [100.0],
+...                      "plan": [110.0], "low": [95.0], "high": [125.0]})
+>>> empty = pd.DataFrame()
+>>> out = pathlib.Path(tempfile.mkdtemp()) / "plan.xlsx"
+>>> write_workbook(out, plan, empty, empty, empty).name
+'plan.xlsx'
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from openpyxl import Workbook
+from openpyxl.styles import Alignment, Font, PatternFill
+from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.worksheet import Worksheet
+
+from evcal._files import atomic_path
+from evcal.report.common import CAUTION, readable
+
+SHEETS = ("Plan", "Lifts", "Seasonal index", "Past occurrences")
+DATE_FORMAT = "yyyy-mm-dd"
+UNITS_FORMAT = "#,##0.0"
+PCT_FORMAT = '0.0" %"'
+_HEADER_FILL = PatternFill("solid", fgColor="1E2B2F")
+_HEADER_FONT = Font(bold=True, color="FFFFFF")
+_MAX_WIDTH = 60
+_DATE_COLUMNS = {"date", "start", "end"}
+_PCT_COLUMNS = {"lift_pct", "low_pct", "high_pct", "added_pct"}
+
+
+def write_workbook(
+    out_xlsx: str | Path,
+    plan: pd.DataFrame,
+    lifts: pd.DataFrame,
+    profile: pd.DataFrame,
+    occurrences: pd.DataFrame,
+) -> Path:
+    """Write the four-sheet workbook (plus Notes) atomically; returns the path.
+
+    Parameters
+    ----------
+    out_xlsx : path
+        The ``.xlsx`` file to write.
+    plan : DataFrame
+        ``date, base, plan, low, high, lift:<event>..., [assumptions]``; a
+        DatetimeIndex is taken as the ``date`` column.
+    lifts, profile, occurrences : DataFrame
+        As in the model folder's ``lifts.csv``, ``profile.csv`` and
+        ``occurrences.csv``. An empty frame gives a sheet with a note.
+
+    Returns
+    -------
+    Path
+    """
+    wb = Workbook()
+    wb.remove(wb.active)
+    for name, frame in zip(SHEETS, (plan, lifts, profile, occurrences), strict=True):
+        _write_sheet(wb.create_sheet(name), _with_date_column(frame))
+    _notes_sheet(wb.create_sheet("Notes"))
+    out = Path(out_xlsx)
+    with atomic_path(out) as tmp:
+        wb.save(tmp)
+        readable(tmp)
+    return out
+
+
+def _with_date_column(frame: pd.DataFrame | None) -> pd.DataFrame:
+    if frame is None:
+        return pd.DataFrame()
+    if isinstance(frame.index, pd.DatetimeIndex) and "date" not in frame.columns:
+        frame = frame.rename_axis("date").reset_index()
+    return frame
+
+
+def cell_value(value: object, column: str) -> object:
+    """A value as openpyxl should store it: float/int, bool, datetime, str or None.
+
+    Examples
+    --------
+    >>> cell_value(np.float64(2.5), "plan")
+    2.5
+    >>> cell_value("2027-03-28", "start")
+    datetime.datetime(2027, 3, 28, 0, 0)
+    >>> cell_value(float("nan"), "low") is None
+    True
+    """
+    if value is None:
+        return None
+    if isinstance(value, str):
+        if not value.strip():
+            return None
+        if column in _DATE_COLUMNS:
+            ts = pd.to_datetime(value, errors="coerce", format="ISO8601")
+            return value if pd.isna(ts) else ts.to_pydatetime().replace(tzinfo=None)
+        return value
+    if isinstance(value, pd.Timestamp | dt.datetime | dt.date | np.datetime64):
+        ts = pd.Timestamp(value)
+        return None if pd.isna(ts) else ts.to_pydatetime().replace(tzinfo=None)
+    if isinstance(value, bool | np.bool_):
+        return bool(value)
+    if isinstance(value, int | np.integer):
+        return int(value)
+    if isinstance(value, float | np.floating):
+        v = float(value)
+        return v if math.isfinite(v) else None
+    if pd.isna(value):  # pd.NA, NaT
+        return None
+    return str(value)
+
+
+def _number_format(column: str, value: object) -> str | None:
+    if column in _DATE_COLUMNS or isinstance(value, dt.datetime):
+        return DATE_FORMAT
+    if isinstance(value, bool):
+        return None
+    if isinstance(value, float):
+        if column in _PCT_COLUMNS:
+            return PCT_FORMAT
+        if column == "index":
+            return "0.00"
+        return UNITS_FORMAT
+    if isinstance(value, int):
+        return "0"
+    return None
+
+
+def _write_sheet(ws: Worksheet, frame: pd.DataFrame) -> None:
+    if frame.empty and not len(frame.columns):
+        ws.append(["nothing to show"])
+        ws.column_dimensions["A"].width = 24
+        return
+    columns = [str(c) for c in frame.columns]
+    ws.append(columns)
+    for cell in ws[1]:
+        cell.fill = _HEADER_FILL
+        cell.font = _HEADER_FONT
+        cell.alignment = Alignment(vertical="center")
+    widths = [len(c) + 2 for c in columns]
+    for row in frame.itertuples(index=False, name=None):
+        values = [cell_value(v, c) for v, c in zip(row, columns, strict=True)]
+        ws.append(values)
+        r = ws.max_row
+        for j, (v, c) in enumerate(zip(values, columns, strict=True)):
+            fmt = _number_format(c, v)
+            if v is not None and fmt:
+                ws.cell(row=r, column=j + 1).number_format = fmt
+            widths[j] = max(widths[j], _display_len(v))
+    for j, w in enumerate(widths, start=1):
+        ws.column_dimensions[get_column_letter(j)].width = min(w + 1, _MAX_WIDTH)
+    ws.freeze_panes = "A2"
+    ws.auto_filter.ref = ws.dimensions
+
+
+def _display_len(value: object) -> int:
+    if value is None:
+        return 0
+    if isinstance(value, dt.datetime):
+        return 10
+    if isinstance(value, float):
+        return len(f"{value:,.1f}")
+    return len(str(value))
+
+
+def _notes_sheet(ws: Worksheet) -> None:
+    ws.append(["About this workbook"])
+    ws["A1"].font = Font(bold=True, size=13)
+    for line in (
+        CAUTION,
+        "Plan: base is the trend and regular season with no event; each lift:<event> column "
+        "is that event's contribution in units; low and high bound the plan's interval.",
+        "Lifts: % over base across the event's window with a 95 % interval; "
+        "identifiable = FALSE means the history cannot separate the event from the season.",
+        "Seasonal index: the base profile over one cycle, mean 100.",
+        "Past occurrences: what each past occurrence of an event added, in units and %.",
+    ):
+        ws.append([line])
+    ws.column_dimensions["A"].width = 110
+    for row in ws.iter_rows(min_row=2):
+        row[0].alignment = Alignment(wrap_text=True, vertical="top")

@@ -122,6 +122,12 @@ def read_yaml(text: str) -> tuple[Any, Lines, list[Problem]]:
             mark = err.problem_mark or err.context_mark
             line = mark.line + 1 if mark is not None else None
             what = (err.problem or err.context or "not valid YAML").strip()
+            ctx = err.context_mark
+            if err.problem and err.context and ctx is not None and mark is not None and (
+                ctx.line != mark.line
+            ):
+                # e.g. an unclosed '{': say where it was opened, not only where it was noticed
+                what += f" ({err.context.strip()} started at line {ctx.line + 1})"
             return None, {}, [Problem(line, "YAML syntax", f"{what}; {_syntax_hint(what)}")]
         except yaml.YAMLError as err:
             return None, {}, [Problem(None, "YAML syntax", f"{err}; check the file is YAML")]

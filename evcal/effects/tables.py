@@ -129,6 +129,10 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
                 xs = X.loc[touch, cols].sum(axis=1).to_numpy() * frac
                 base_t = parts["base"].to_numpy()[touch] * result.open_share_at(touch)
                 draws = (base_t[None, :] * np.expm1(np.outer(b + s * z, xs))).sum(axis=1)
+                point = float((base_t * np.expm1(b * xs)).sum())
+                # centre on the reported split (which shares overlaps with other terms)
+                if point:
+                    draws = draws * (added / point)
                 low, high = (float(v) for v in np.quantile(draws, [0.025, 0.975]))
         elif st is not None and st.status == "fitted" and result.transform == "none":
             pcol = src

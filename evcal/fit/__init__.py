@@ -140,3 +140,8 @@ def _last_full_year(values: pd.Series) -> dict[str, Any]:
         return {}
     y = max(full)
     return {"year": y, "total": float(values[years == y].sum())}
+
+
+from evcal._callable import make_module_callable  # noqa: E402
+
+make_module_callable(__name__, "fit")

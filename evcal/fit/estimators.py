@@ -75,57 +75,99 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
 def fit_arima(
     y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int]
 ) -> Estimate:
-    """Regression with ARIMA(p, d, q) errors by exact Gaussian likelihood (statsmodels SARIMAX).
+    """Regression with ARIMA(p, d, q) errors by iterated feasible GLS.
 
-    Periods left out of the fit are passed as missing values, which the
-    Kalman filter skips, so the error process stays on the regular grid.
-    With differenced errors (d >= 1) the constant is not identified and must
+    Two steps, repeated until the coefficients settle (at most 4 rounds):
+    the ARMA(p, q) error model is fitted by exact likelihood (statsmodels
+    SARIMAX, which skips missing periods) to the regression error of the
+    (d-times differenced) series; then the regression is re-estimated by GLS
+    with that error model's covariance (``arma_acovf``). This is the classic
+    two-step estimator for regression with ARMA errors (e.g. Hamilton 1994,
+    §8.3), which reaches the joint maximum-likelihood estimate in the limit
+    and avoids a numerical search over every regression coefficient. With
+    differenced errors (d >= 1) the constant is not identified and must
     already be absent from ``X``.
     """
+    from scipy.linalg import toeplitz
+    from statsmodels.tsa.arima_process import arma_acovf
+
     p, d, q = order
     endog = (y - offset).to_numpy(dtype=float)
-    start = fit_ols(y, X, offset)
-    model = sm.tsa.SARIMAX(
-        endog, exog=X.to_numpy(), order=order, trend="n",
-        enforce_stationarity=True, enforce_invertibility=True,
-    )
-    arma_start = [0.3] * p + [0.1] * q
-    start_params = np.r_[start.params.to_numpy(), arma_start, max(start.sigma2, 1e-8)]
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        res = model.fit(start_params=start_params, disp=False, maxiter=200, method="lbfgs")
-    k = X.shape[1]
+    Xa = X.to_numpy(dtype=float)
+    yy, XX = endog, Xa
+    if d:
+        yy = np.diff(endog, n=d)
+        XX = np.diff(Xa, n=d, axis=0)
+    obs = np.isfinite(yy)
+    beta = np.linalg.lstsq(XX[obs], yy[obs], rcond=None)[0]
+    ar = np.zeros(p)
+    ma = np.zeros(q)
+    long = int(obs.sum()) > 3000
+    res_g = None
+    for _ in range(3):
+        u = yy - XX @ beta
+        if p or q:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                arma = sm.tsa.SARIMAX(u, order=(p, 0, q), trend="n").fit(disp=False)
+            ar = np.asarray(arma.params[:p], dtype=float)
+            ma = np.asarray(arma.params[p : p + q], dtype=float)
+        if long:
+            # AR whitening only (the MA part is ignored): an n x n covariance is too big here
+            w_y, w_X = _ar_whiten(yy, ar), _ar_whiten(XX, ar)
+            ok = np.isfinite(w_y) & np.all(np.isfinite(w_X), axis=1)
+            res_g = sm.OLS(w_y[ok], w_X[ok]).fit()
+        else:
+            acov = arma_acovf(np.r_[1.0, -ar], np.r_[1.0, ma], nobs=len(yy), sigma2=1.0)
+            S = toeplitz(acov)[np.ix_(obs, obs)]
+            res_g = sm.GLS(yy[obs], XX[obs], sigma=S).fit()
+        new_beta = np.asarray(res_g.params)
+        done = np.max(np.abs(new_beta - beta)) < 1e-6 * (1 + np.max(np.abs(beta)))
+        beta = new_beta
+        if done or not (p or q):
+            break
+    assert res_g is not None
     names = list(X.columns)
-    params = pd.Series(res.params[:k], index=names)
-    cov_all = np.asarray(res.cov_params())
-    cov = pd.DataFrame(cov_all[:k, :k], index=names, columns=names)
-    ar = [float(v) for v in res.params[k : k + p]]
-    ma = [float(v) for v in res.params[k + p : k + p + q]]
-    sigma2 = float(res.params[-1])
-    # regression residual (the ARIMA error itself), kept to forecast the error forward
-    eta = endog - X.to_numpy() @ params.to_numpy()
-    resid_innov = pd.Series(np.asarray(res.resid), index=y.index)
-    resid_innov[~y.notna().to_numpy()] = np.nan
+    params = pd.Series(beta, index=names)
+    cov = pd.DataFrame(np.asarray(res_g.cov_params()), index=names, columns=names)
+    sigma2 = float(res_g.scale)
+    llf = float(res_g.llf)
+    n_par = len(names) + p + q + 1
+    eta = endog - Xa @ beta  # the regression error on the original scale, for forecasting
+    innov = pd.Series(np.nan, index=y.index)
+    u_full = yy - XX @ beta
+    innov.iloc[d:] = u_full
+    innov[~y.notna().to_numpy()] = np.nan
     tail_len = max(4 * (p + d + q) + 20, 60)
     return Estimate(
         method=f"arima({p},{d},{q})",
         params=params,
         cov=cov,
         sigma2=sigma2,
-        resid=resid_innov,
-        llf=float(res.llf),
-        aic=float(res.aic),
-        nobs=int(res.nobs - np.isnan(endog).sum()),
+        resid=innov,
+        llf=llf,
+        aic=float(-2 * llf + 2 * n_par),
+        nobs=int(obs.sum()),
         error_model={
             "kind": "arima",
             "order": [p, d, q],
-            "ar": ar,
-            "ma": ma,
+            "ar": [float(v) for v in ar],
+            "ma": [float(v) for v in ma],
             "sigma2": sigma2,
             "tail": [None if not np.isfinite(v) else float(v) for v in eta[-tail_len:]],
         },
-        cov_note=f"regression with ARIMA({p},{d},{q}) errors, covariance from the likelihood",
+        cov_note=f"regression with ARIMA({p},{d},{q}) errors (iterated feasible GLS), GLS covariance",
     )
+
+
+def _ar_whiten(a: np.ndarray, ar: np.ndarray) -> np.ndarray:
+    """Apply the AR polynomial 1 - ar_1 L - ... to rows of ``a`` (first p rows become NaN)."""
+    out = np.array(a, dtype=float, copy=True)
+    for i, phi in enumerate(ar, start=1):
+        lagged = np.full_like(out, np.nan)
+        lagged[i:] = a[:-i]
+        out = out - phi * lagged
+    return out
 
 
 def fit_count(y_units: pd.Series, X: pd.DataFrame, log_offset: pd.Series) -> Estimate:

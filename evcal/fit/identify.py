@@ -33,13 +33,21 @@ class ColumnStatus:
 
 
 def _relative_residual(col: np.ndarray, basis: np.ndarray) -> float:
+    """||col - proj(col)|| / ||col|| for the projection on the span of ``basis``."""
     norm = float(np.linalg.norm(col))
     if norm == 0.0:
         return 0.0
     if basis.shape[1] == 0:
         return 1.0
-    coef, *_ = np.linalg.lstsq(basis, col, rcond=None)
-    return float(np.linalg.norm(col - basis @ coef)) / norm
+    q = _orthonormal(basis)
+    return float(np.linalg.norm(col - q @ (q.T @ col))) / norm
+
+
+def _orthonormal(basis: np.ndarray) -> np.ndarray:
+    """Orthonormal columns spanning ``basis`` (rank-revealing via SVD)."""
+    u, s, _ = np.linalg.svd(basis, full_matrices=False)
+    keep = s > s[0] * 1e-10 if len(s) else np.zeros(0, dtype=bool)
+    return u[:, keep]
 
 
 def check_columns(

@@ -1,4 +1,4 @@
-"""Let ``evcal.fit(...)`` and ``evcal.discover(...)`` be calls although ``fit``/``discover`` are also step folders.
+"""Let ``evcal.fit(...)`` and ``evcal.discover(...)`` be calls though they are also step folders.
 
 Python's import system sets ``evcal.fit`` to the subpackage once it is
 imported, which would shadow the public function of the same name. Giving the

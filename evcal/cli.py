@@ -133,6 +133,60 @@ def _check_year_range(first: int, last: int) -> None:
 
 # ---------------------------------------------------------------- fit, show
 
+
+def _parse_order(text: str | None) -> tuple[int, int, int] | None:
+    if text is None:
+        return None
+    try:
+        parts = tuple(int(v) for v in text.split(","))
+    except ValueError:
+        parts = ()
+    if len(parts) != 3:
+        raise EvcalError(f"option --arima-order: {text!r} is not three integers p,d,q (e.g. 1,0,0)")
+    return parts  # type: ignore[return-value]
+
+
+@app.command("fit")
+@guarded
+def fit_cmd(
+    history: str = typer.Argument(..., help="History file: CSV, Parquet or .xlsx."),
+    calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML)."),
+    out: str = typer.Option(..., "--out", "-o", help="Output folder for the model."),
+    date_col: str = typer.Option("date", "--date-col", help="Column with the period dates."),
+    value_col: str = typer.Option("value", "--value-col", help="Column with the values."),
+    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly (default: detect)."),
+    transform: str = typer.Option("auto", "--transform", help="auto | log | none | count"),
+    errors: str = typer.Option("auto", "--errors", help="auto | ols | arima"),
+    arima_order: str = typer.Option(None, "--arima-order", help="p,d,q for --errors arima, e.g. 0,1,1"),
+    seasonal: str = typer.Option("auto", "--seasonal", help="auto | dummies | fourier"),
+    fourier_order: int = typer.Option(10, "--fourier-order", help="Harmonics of annual Fourier terms."),
+    trend_order: int = typer.Option(1, "--trend-order", help="0 flat, 1 linear, 2 quadratic."),
+    trading_days: bool = typer.Option(False, "--trading-days", help="Weekday-composition terms (monthly)."),
+    allow_negative: bool = typer.Option(False, "--allow-negative", help="Accept negative values."),
+) -> None:
+    """Fit base, event lifts and interventions; write the model folder."""
+    from evcal.fit import fit
+    from evcal.fit.summary import describe
+
+    result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq,
+                 transform=transform, errors=errors, arima_order=_parse_order(arima_order),
+                 seasonal=seasonal, fourier_order=fourier_order, trend_order=trend_order,
+                 trading_days=trading_days, allow_negative=allow_negative)
+    result.save(out)
+    typer.echo(describe(result))
+    typer.echo(f"\nwrote {out}/ (model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv)")
+
+
+@app.command("show")
+@guarded
+def show_cmd(model_dir: str = typer.Argument(..., help="Model folder written by evcal fit.")) -> None:
+    """Print a readable summary of a fitted model."""
+    from evcal.fit import load_model
+    from evcal.fit.summary import describe
+
+    typer.echo(describe(load_model(model_dir)))
+
+
 # ---------------------------------------------------------------- plan, backtest
 
 # ---------------------------------------------------------------- report, demo

@@ -573,7 +573,7 @@ def _plan_section(ctx: _Context) -> Safe:
     intro = _p(
         "Next periods as base plus the events scheduled in them. Bars: the base (grey) with "
         "each event's contribution stacked on it; hatched parts are units an event takes "
-        "away. The dark line is the plan; the whiskers (or band) run from low to high."
+        "away. The dark line is the plan; the shaded band runs from low to high."
     )
     shares = _table(["part of the plan", "units", "share of total", ""], share_rows, numeric=(1, 2))
     has_assump = "assumptions" in plan.columns

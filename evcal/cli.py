@@ -8,10 +8,12 @@ problem on stderr and exit code 2; no traceback reaches the user.
 from __future__ import annotations
 
 import functools
+import os
 import sys
 from collections.abc import Callable
 from typing import Any, TypeVar
 
+import numpy as np
 import typer
 
 from evcal.errors import EvcalError
@@ -40,6 +42,14 @@ def guarded(fn: F) -> F:
             for line in err.problems:
                 typer.echo(f"error: {line}", err=True)
             raise typer.Exit(code=err.exit_code) from None
+        except (ValueError, KeyError, TypeError, np.linalg.LinAlgError) as err:
+            # A bug or an input we did not foresee: say so in one line; a
+            # traceback only when asked for (EVCAL_DEBUG=1).
+            if os.environ.get("EVCAL_DEBUG"):
+                raise
+            typer.echo(f"error: unexpected problem ({type(err).__name__}: {err}); "
+                       "re-run with EVCAL_DEBUG=1 for details", err=True)
+            raise typer.Exit(code=1) from None
         except KeyboardInterrupt:
             typer.echo("interrupted; no output written", err=True)
             raise typer.Exit(code=130) from None
@@ -154,7 +164,7 @@ def fit_cmd(
     out: str = typer.Option(..., "--out", "-o", help="Output folder for the model."),
     date_col: str = typer.Option("date", "--date-col", help="Column with the period dates."),
     value_col: str = typer.Option("value", "--value-col", help="Column with the values."),
-    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly (default: detect)."),
+    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly."),
     transform: str = typer.Option("auto", "--transform", help="auto | log | none | count"),
     errors: str = typer.Option("auto", "--errors", help="auto | ols | arima"),
     arima_order: str = typer.Option(None, "--arima-order", help="p,d,q for --errors arima, e.g. 0,1,1"),

@@ -113,7 +113,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions) -> ModelInputs:
     p_start = periods.start_time.normalize()
     p_end = periods.end_time.normalize()
     for ex in calendar.exclusions:
-        excluded |= ((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start))).to_numpy()
+        excluded |= np.asarray((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start)))
     transform = choose_transform(actual, options, history.source, closed_full)
     rows = actual.notna().to_numpy() & ~excluded & ~closed_full
 

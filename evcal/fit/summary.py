@@ -24,8 +24,9 @@ def describe(result: Any) -> str:
     ]
     q = result.quality or {}
     if q:
-        lines.append(f"fit     : {q.get('periods_fitted', '?')} periods fitted, WAPE "
-                     f"{q.get('wape_pct', float('nan')):.1f} %, residual sd {q.get('resid_sd', float('nan')):.3f}")
+        wape, sd = q.get("wape_pct", float("nan")), q.get("resid_sd", float("nan"))
+        lines.append(f"fit     : {q.get('periods_fitted', '?')} periods fitted, WAPE {wape:.1f} %, "
+                     f"residual sd {sd:.3f}")
     lines.append("")
     lines.append(f"{'event':<28} {'lift %':>8} {'95 % interval':>19} {'units/occ.':>11}  note")
     for r in result.lifts.itertuples(index=False):

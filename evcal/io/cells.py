@@ -115,11 +115,14 @@ def parse_dates(
         return stamps.astype("datetime64[ns]"), problems
 
     text_pos: list[int] = []
+    stamp_pos: list[int] = []
+    stamp_vals: list[pd.Timestamp] = []
     for i, cell in enumerate(values):
         if is_empty(cell):
             continue
         if isinstance(cell, pd.Timestamp | dt.datetime | dt.date | np.datetime64):
-            out.iloc[i] = _naive(pd.Timestamp(cell))
+            stamp_pos.append(i)
+            stamp_vals.append(_naive(pd.Timestamp(cell)))
         elif isinstance(cell, str) and not _BARE_NUMBER.match(cell.strip()):
             text_pos.append(i)
         elif isinstance(cell, str) and len(cell.strip()) in (4, 8):
@@ -128,10 +131,13 @@ def parse_dates(
             problems.append(
                 RowProblem(rows[i], column, f"cannot read {quote(cell)} as a date; write YYYY-MM-DD")
             )
+    if stamp_pos:
+        out.iloc[stamp_pos] = pd.DatetimeIndex(stamp_vals).as_unit("ns")
     if not text_pos:
         return out, problems
 
-    texts = pd.Series([str(values.iloc[i]).strip() for i in text_pos], index=text_pos)
+    cells_array = values.to_numpy(dtype=object)
+    texts = pd.Series([str(cells_array[i]).strip() for i in text_pos], index=text_pos)
     iso = _parse_iso(texts)
     # Year-first text is only ever year-month-day: 2024/01/31 is read, 2024-13-01 is
     # a mistake (pandas' inference would quietly read it as 13 January).
@@ -156,17 +162,12 @@ def parse_dates(
         better = day_first if day_first.notna().sum() > month_first.notna().sum() else month_first
         parsed = iso.copy()
         parsed.loc[rest.index] = better
-    for i, stamp in parsed.items():
-        if pd.isna(stamp):
-            problems.append(
-                RowProblem(
-                    rows[int(i)],
-                    column,
-                    f"cannot read {quote(texts.loc[i])} as a date; write YYYY-MM-DD",
-                )
-            )
-        else:
-            out.iloc[int(i)] = stamp
+    good = parsed.notna()
+    out.iloc[parsed.index[good].to_numpy(dtype=int)] = parsed[good].to_numpy()
+    for i in parsed.index[~good]:
+        problems.append(
+            RowProblem(rows[int(i)], column, f"cannot read {quote(texts.loc[i])} as a date; write YYYY-MM-DD")
+        )
     return out, problems
 
 

@@ -178,7 +178,10 @@ def detect_freq(
     idx = pd.DatetimeIndex(pd.to_datetime(dates)).normalize()
     order = np.argsort(idx.asi8, kind="stable")
     idx = idx[order]
-    row_list = None if rows is None else [list(rows)[i] for i in order]
+    row_list = None
+    if rows is not None:
+        given = list(rows)
+        row_list = [given[i] for i in order]
     if len(idx) < 2:
         raise HistoryError(
             f"{source}: only {len(idx)} date; the frequency cannot be detected from fewer "

@@ -164,9 +164,8 @@ def _resolve_freq(
 def _duplicates(dates: pd.Series, cells: pd.Series, rows: list[int], column: str) -> list[RowProblem]:
     found: list[RowProblem] = []
     valid = dates[dates.notna()]
-    for _day, group in valid.groupby(valid, sort=True):
-        if len(group) < 2:
-            continue
+    repeated = valid[valid.duplicated(keep=False)]
+    for _day, group in repeated.groupby(repeated, sort=True):
         positions = list(group.index)
         first, others = positions[0], positions[1:]
         where = ", ".join(f"row {rows[i]} ({quote(cells.iloc[i])})" for i in others)
@@ -175,8 +174,7 @@ def _duplicates(dates: pd.Series, cells: pd.Series, rows: list[int], column: str
                 rows[first],
                 column,
                 f"duplicate date {quote(cells.iloc[first])}, again in {where}; keep one "
-                "row per period (add the rows up if they "
-                "are parts of the same period)",
+                "row per period (add the rows up if they are parts of the same period)",
             )
         )
     return found

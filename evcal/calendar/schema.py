@@ -171,8 +171,8 @@ def parse_years(value: Any) -> YearsSpec:
                 "use {every: 4, start: 2018} or {from: 2015, to: 2030}"
             )
         raise ValueError(
-            "years needs both `every` and `start` ({every: 4, start: 2018}) "
-            "or `from`/`to` ({from: 2015, to: 2030})"
+            "years needs both `every` and `start`, or `from` and/or `to`; "
+            "write {every: 4, start: 2018} or {from: 2015, to: 2030}"
         )
     raise ValueError(
         f"{value!r} is not a years value; use all, a list [2019, 2023], "

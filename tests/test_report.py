@@ -441,3 +441,95 @@ def test_cli_report_missing_model_file_exits_2(invented: dict, tmp_path: Path) -
     assert "lifts.csv: missing from the model folder" in result.output
     assert "Traceback" not in result.output
     assert not out.exists()
+
+
+def test_calendar_file_drives_the_calendar_view(invented: dict, tmp_path: Path) -> None:
+    # The bundled (invented) garden-centre calendar; Easter 2026 is 5 April (dateutil.easter),
+    # so Mothering Sunday (Easter - 21) is Sun 15 March and its 6-day run-up starts Mon 9 March.
+    cal = Path(__file__).resolve().parents[1] / "calendars" / "garden-centres.yaml"
+    page = write_report(
+        invented["model"], tmp_path / "r.html", plan_csv=invented["plan"], calendar=cal
+    ).read_text()
+    assert "Calendar: Fernhollow Garden Centres ·" in page
+    titles = dict(re.findall(r'title="(\w{3} \d\d \w{3} 2026)(?:: ([^"]*))?"', page))
+    assert "Mothering Sunday" in titles["Sun 15 Mar 2026"]
+    assert "Mothering Sunday" in titles["Mon 09 Mar 2026"]
+    assert "Mothering Sunday" not in titles["Sun 08 Mar 2026"]
+    # Easter Sunday is a closure in that calendar: hatched, and still inside the spring weekend
+    day = re.search(r'<span class="([^"]*)"[^>]*title="Sun 05 Apr 2026: ([^"]*)"', page)
+    assert day is not None and "cal-closed" in day.group(1)
+    assert "Closed on Easter Sunday" in day.group(2)
+
+
+def write_minimal_model(folder: Path, freq: str, periods: int, cycle: int) -> dict:
+    """An invented model folder at any frequency: one event, peak in a known period."""
+    folder.mkdir(parents=True)
+    dates = pd.date_range("2022-01-01", periods=periods, freq=freq)
+    phase = np.arange(periods) % cycle
+    base = 500 + 100 * np.cos(2 * np.pi * phase / cycle)
+    event = np.where(phase == cycle // 3, 80.0, 0.0)
+    pd.DataFrame(
+        {
+            "date": dates.strftime("%Y-%m-%d"),
+            "actual": base + event,
+            "fitted": base + event,
+            "base": base,
+            "fair": event,
+        }
+    ).to_csv(folder / "fitted.csv", index=False)
+    pd.DataFrame(
+        {
+            "event": ["fair"],
+            "lift_pct": [12.0],
+            "low_pct": [8.0],
+            "high_pct": [16.0],
+            "units_per_occurrence": [80.0],
+            "identifiable": ["True"],
+            "note": [""],
+        }
+    ).to_csv(folder / "lifts.csv", index=False)
+    hit = dates[event > 0]
+    pd.DataFrame(
+        {
+            "event": "fair",
+            "start": hit.strftime("%Y-%m-%d"),
+            "end": hit.strftime("%Y-%m-%d"),
+            "added_units": 80.0,
+            "added_pct": 12.0,
+        }
+    ).to_csv(folder / "occurrences.csv", index=False)
+    pd.DataFrame(
+        {"period": np.arange(1, cycle + 1), "index": 100 + 20 * np.cos(2 * np.pi * np.arange(cycle) / cycle)}
+    ).to_csv(folder / "profile.csv", index=False)
+    (folder / "model.json").write_text(json.dumps({"format_version": 1, "freq": freq}))
+    future = pd.date_range(dates[-1], periods=cycle + 1, freq=freq)[1:]
+    fphase = np.arange(periods, periods + cycle) % cycle
+    fbase = 500 + 100 * np.cos(2 * np.pi * fphase / cycle)
+    fev = np.where(fphase == cycle // 3, 400.0, 0.0)  # the event makes the peak
+    pd.DataFrame(
+        {
+            "date": future.strftime("%Y-%m-%d"),
+            "base": fbase,
+            "plan": fbase + fev,
+            "low": fbase + fev - 50,
+            "high": fbase + fev + 50,
+            "lift:fair": fev,
+        }
+    ).to_csv(folder / "plan.csv", index=False)
+    return {"model": folder, "plan": folder / "plan.csv", "peak": future[fev > 0][0]}
+
+
+@pytest.mark.parametrize(
+    ("freq", "periods", "cycle", "label"),
+    [
+        ("MS", 48, 12, "{d:%b} {d.year}"),
+        ("D", 3 * 365, 365, "{d.day} {d:%b} {d.year}"),
+        ("QS", 16, 4, "Q{d.quarter} {d.year}"),
+    ],
+)
+def test_other_frequencies(tmp_path: Path, freq: str, periods: int, cycle: int, label: str) -> None:
+    paths = write_minimal_model(tmp_path / "m", freq, periods, cycle)
+    page = write_report(paths["model"], tmp_path / "r.html", plan_csv=paths["plan"]).read_text()
+    # the peak card names the planned peak period in that frequency's words
+    assert f'<p class="v">{label.format(d=paths["peak"])}</p>' in page
+    assert page.count('class="cal-month"') >= 3

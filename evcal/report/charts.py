@@ -162,7 +162,7 @@ def index_chart(profile: pd.DataFrame, freq: str | None = None) -> Figure:
     elif kind == "quarter":
         ax.set_xticks(period, [f"Q{int(p)}" for p in period])
     elif kind == "day" and len(period) > 300:
-        starts = pd.date_range("2001-01-01", periods=12, freq="MS").dayofyear
+        starts = pd.date_range("2001-01-01", periods=12, freq="MS").day_of_year
         ax.set_xticks(list(starts), [month_abbr(m) for m in range(1, 13)])
     ax.set_xlabel(cycle_name(freq), color=pal.MUTED, fontsize=9)
     ax.set_ylabel("index (mean 100)", color=pal.MUTED, fontsize=9)

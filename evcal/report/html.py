@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from html import escape
 from pathlib import Path
 from typing import Any
@@ -91,7 +91,12 @@ def write_report(
     folder = read_model_folder(model_dir, plan_csv=plan_csv, backtest_csv=backtest_csv)
     cal = _calendar_weights(calendar, folder)
     page = render_report(
-        folder, weights=cal.weights, calendar_name=cal.name, title=title, closures=cal.closures
+        folder,
+        weights=cal.weights,
+        calendar_name=cal.name,
+        title=title,
+        closures=cal.closures,
+        labels=cal.labels,
     )
     out = Path(out_html)
     with atomic_path(out) as tmp:
@@ -106,14 +111,18 @@ def render_report(
     calendar_name: str | None = None,
     title: str | None = None,
     closures: Iterable[str] = (),
+    labels: Mapping[str, str] | None = None,
 ) -> str:
     """The report as one HTML string (see :func:`write_report`).
 
     ``weights`` are day weights with one column per event; ``closures`` names
-    events whose days are known zeros (added to those ``model.json`` marks).
+    events whose days are known zeros (added to those ``model.json`` marks);
+    ``labels`` name events the model does not know (a newer plan calendar).
     """
     ctx = _Context(folder, weights, calendar_name)
     ctx.closures |= set(closures)
+    for name, label in (labels or {}).items():
+        ctx.labels.setdefault(name, label)
     heading = title or (
         f"Calendar effects and plan: {ctx.calendar_name}"
         if ctx.calendar_name
@@ -193,6 +202,7 @@ class _CalendarInput:
     weights: pd.DataFrame | None = None
     name: str | None = None
     closures: frozenset[str] = frozenset()
+    labels: dict[str, str] = field(default_factory=dict)
 
 
 def _calendar_weights(calendar: Any, folder: ModelFolder) -> _CalendarInput:
@@ -214,7 +224,8 @@ def _calendar_weights(calendar: Any, folder: ModelFolder) -> _CalendarInput:
     owners = cal.event_columns() if hasattr(cal, "event_columns") else None
     closures = frozenset(str(e.name) for e in cal.closures()) if hasattr(cal, "closures") else frozenset()
     name = getattr(cal, "name", None)
-    return _CalendarInput(fold_weights(weights, owners=owners), str(name) if name else None, closures)
+    labels = {str(e.name): str(getattr(e, "label", "") or e.name) for e in getattr(cal, "events", [])}
+    return _CalendarInput(fold_weights(weights, owners=owners), str(name) if name else None, closures, labels)
 
 
 def _view_span(folder: ModelFolder) -> tuple[pd.Timestamp, pd.Timestamp]:

@@ -44,6 +44,15 @@ def is_empty(cell: object) -> bool:
         return False
 
 
+def empty_mask(cells: pd.Series) -> np.ndarray:
+    """Vectorised :func:`is_empty` over a column."""
+    missing = cells.isna().to_numpy()
+    if cells.dtype.kind in "biufcmM":
+        return missing
+    text = cells.astype(object).where(~missing, "").astype(str).str.strip().str.lower()
+    return missing | text.isin(EMPTY_TOKENS).to_numpy()
+
+
 def quote(cell: object) -> str:
     """The cell as the user would recognise it, quoted."""
     text = cell if isinstance(cell, str) else str(cell)
@@ -114,29 +123,33 @@ def parse_dates(
             stamps = stamps.dt.tz_localize(None)
         return stamps.astype("datetime64[ns]"), problems
 
-    text_pos: list[int] = []
+    cells_array = values.to_numpy(dtype=object)
+    empty = empty_mask(values)
+    is_text = np.array([isinstance(c, str) for c in cells_array], dtype=bool) & ~empty
+    stripped = pd.Series(cells_array[is_text], dtype=object).astype(str).str.strip()
+    # Bare numbers are not dates, except ISO 8601 years (2024) and basic dates (20240131).
+    bare = stripped.str.match(_BARE_NUMBER) & ~stripped.str.len().isin([4, 8])
+    text_pos = list(np.flatnonzero(is_text)[~bare.to_numpy(dtype=bool)])
     stamp_pos: list[int] = []
     stamp_vals: list[pd.Timestamp] = []
-    for i, cell in enumerate(values):
-        if is_empty(cell):
-            continue
+    for i in np.flatnonzero(~is_text & ~empty):
+        cell = cells_array[i]
         if isinstance(cell, pd.Timestamp | dt.datetime | dt.date | np.datetime64):
-            stamp_pos.append(i)
+            stamp_pos.append(int(i))
             stamp_vals.append(_naive(pd.Timestamp(cell)))
-        elif isinstance(cell, str) and not _BARE_NUMBER.match(cell.strip()):
-            text_pos.append(i)
-        elif isinstance(cell, str) and len(cell.strip()) in (4, 8):
-            text_pos.append(i)  # 2024 or 20240131: ISO 8601 year / basic date
         else:
             problems.append(
                 RowProblem(rows[i], column, f"cannot read {quote(cell)} as a date; write YYYY-MM-DD")
             )
+    for i in np.flatnonzero(is_text)[bare.to_numpy(dtype=bool)]:
+        problems.append(
+            RowProblem(rows[i], column, f"cannot read {quote(cells_array[i])} as a date; write YYYY-MM-DD")
+        )
     if stamp_pos:
         out.iloc[stamp_pos] = pd.DatetimeIndex(stamp_vals).as_unit("ns")
     if not text_pos:
         return out, problems
 
-    cells_array = values.to_numpy(dtype=object)
     texts = pd.Series([str(cells_array[i]).strip() for i in text_pos], index=text_pos)
     iso = _parse_iso(texts)
     # Year-first text is only ever year-month-day: 2024/01/31 is read, 2024-13-01 is
@@ -187,8 +200,8 @@ def parse_values(
     if pd.api.types.is_numeric_dtype(values.dtype):
         numbers = pd.Series(values.to_numpy(dtype="float64", na_value=np.nan), index=values.index)
     else:
-        texts = values.map(lambda c: "" if is_empty(c) else str(c).strip())
-        empty = texts == ""
+        empty = pd.Series(empty_mask(values), index=values.index)
+        texts = values.astype(object).where(~empty, "").astype(str).str.strip()
         numbers = pd.to_numeric(texts.where(~empty), errors="coerce").astype("float64")
         for i in np.flatnonzero((numbers.isna() & ~empty).to_numpy()):
             text = texts.iloc[i]

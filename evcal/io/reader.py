@@ -8,7 +8,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import HistoryError
-from evcal.io.cells import RowProblem, is_empty, parse_dates, parse_values, quote
+from evcal.io.cells import RowProblem, empty_mask, is_empty, parse_dates, parse_values, quote
 from evcal.io.frequency import (
     describe_freq,
     detect_freq,
@@ -94,10 +94,7 @@ def read_history(
     frame = table.frame
     date_cells = frame[dcol].reset_index(drop=True)
     value_cells = frame[vcol].reset_index(drop=True)
-    blank = np.array(
-        [is_empty(d) and is_empty(v) for d, v in zip(date_cells, value_cells, strict=True)],
-        dtype=bool,
-    )
+    blank = empty_mask(date_cells) & empty_mask(value_cells)
     keep = np.flatnonzero(~blank)
     if len(keep) == 0:
         raise HistoryError(f"{name}: no data rows below the header; columns {dcol!r} and {vcol!r} are empty")

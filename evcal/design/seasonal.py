@@ -48,8 +48,8 @@ def season_position(periods: pd.PeriodIndex) -> np.ndarray:
     start = periods.start_time.normalize()
     if b == "W":
         mid = start + pd.Timedelta(days=3)
-        return np.minimum((mid.dayofyear.to_numpy() - 1) // 7 + 1, 52)
-    doy = start.dayofyear.to_numpy()
+        return np.minimum((mid.day_of_year.to_numpy() - 1) // 7 + 1, 52)
+    doy = start.day_of_year.to_numpy()
     # 29 February shares 28 February's position so every year has 365.
     leap_shift = (start.is_leap_year & (doy > 59)).astype(int)
     return doy - leap_shift

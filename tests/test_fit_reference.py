@@ -8,7 +8,7 @@ import pytest
 import statsmodels.api as sm
 
 import evcal.fit
-from evcal.design.interventions import InterventionTerm, Interventions
+from evcal.design.interventions import Interventions, InterventionTerm
 from evcal.design.trend import Trend
 from evcal.fit.estimators import fit_arima, fit_count, fit_ols, newey_west_lags
 from evcal.fit.model import model_scale_response, prepare

@@ -102,8 +102,9 @@ def decompose(
     out = pd.DataFrame({"base": base, "fitted": fitted}, index=X.index)
     for j, c in enumerate(terms):
         out[c] = contrib[:, j]
-    # closures: what the closed days would have sold
-    lost = with_events * (share - 1.0)
+    # closures: the base the closed days lose. The event terms above are already
+    # scaled by the open share, so base + terms + closures adds up to `fitted`.
+    lost = base * (share - 1.0)
     if len(closures.columns):
         cl = closures.reindex(X.index).fillna(0.0).to_numpy()
         tot = cl.sum(axis=1)

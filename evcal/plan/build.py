@@ -1,0 +1,254 @@
+"""Building a plan: base carried forward, scheduled events applied, closures at zero.
+
+The horizon's regressors come from :func:`evcal.design.matrix.build_design`,
+the same code that built the fitted history, so the plan uses exactly the
+model's trend, seasonal and intervention terms. What goes into the plan:
+
+* **base**: trend and seasonal terms, plus the persistent interventions
+  (``level_shift``, ``ramp``) at the level they left the business at;
+  pulses and temporary changes are over and are not planned. With ARIMA
+  errors the forecast of the regression error is part of the base (it says
+  where the series stands against the regressors at the end of the history);
+* **lifts**: each scheduled event's contribution, from its fitted,
+  assumed or borrowed coefficient (:func:`evcal.effects.decompose` gives them
+  in units, adding up exactly);
+* **closures**: periods are planned at their open share, so a fully closed
+  day is zero and a week with one closed day keeps six sevenths of its plan.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.interventions import PERSISTENT
+from evcal.design.matrix import build_design
+from evcal.design.seasonal import cycle_length
+from evcal.effects.decompose import closure_shares, decompose
+from evcal.errors import PlanError
+from evcal.plan.horizon import (
+    history_end_period,
+    horizon_periods,
+    period_dates,
+    period_years,
+    steps_after,
+)
+from evcal.plan.noise import error_forecast
+from evcal.plan.result import Plan
+from evcal.plan.schedule import resolve_schedule
+from evcal.plan.simulate import simulate_interval
+from evcal.plan.spread import apply_spread, check_total, read_totals, spread_factors
+
+ERROR_COLUMN = "__error_forecast__"
+
+
+def load_plan_calendar(result: Any, calendar: Any) -> Any:
+    """The calendar to plan with: the fitted one by default, else a path, YAML text or Calendar."""
+    if calendar is None:
+        return result.calendar
+    from evcal.fit.model import load_calendar_any
+
+    return load_calendar_any(calendar)
+
+
+def make_plan(
+    result: Any,
+    start: Any,
+    end: Any,
+    calendar: Any = None,
+    total: Any = None,
+    totals: Any = None,
+    new_events: str = "error",
+    n_sims: int = 1000,
+    seed: int = 0,
+) -> Plan:
+    """Plan the periods from ``start`` to ``end``.
+
+    Parameters
+    ----------
+    result : FitResult
+        A fitted model (:func:`evcal.fit` or :func:`evcal.load_model`).
+    start, end : date-like or int year
+        First and last day of the horizon; the periods holding them are planned.
+    calendar : path, YAML text, Calendar or None
+        The plan calendar; the fitted one when None. It may be newer than the
+        fitted one: events the model fitted keep their lifts, new events need
+        ``effect: {assume: N%}`` or ``{like: other}`` (or ``new_events="zero"``).
+    total : float, optional
+        Target for the whole horizon: every amount is scaled by one factor so
+        the plan adds up to it exactly.
+    totals : dict or path, optional
+        ``{year: total}`` or a CSV ``year,total``: each year's periods scaled to
+        its own target (periods belong to the year of their date label).
+    new_events : {"error", "zero"}
+        What to do with an event the model never saw and that has no assumed or borrowed lift.
+    n_sims : int
+        Simulation draws for the interval (0: no interval; low/high are NaN).
+    seed : int
+        Random seed of the simulation.
+
+    Returns
+    -------
+    Plan
+
+    Raises
+    ------
+    PlanError
+        Horizon inside the history or reversed, bad total(s), a year without
+        a total, an event without a lift to plan with.
+
+    Examples
+    --------
+    >>> plan = result.plan("2026-01-01", "2026-12-31", total=1_200_000)  # doctest: +SKIP
+    >>> print(plan.summary())                                            # doctest: +SKIP
+    >>> plan.save("plan.xlsx")                                           # doctest: +SKIP
+    """
+    if total is not None and totals is not None:
+        raise PlanError("give either --total (one target for the horizon) or --totals (a target per "
+                        "year), not both")
+    target_total = check_total(total) if total is not None else None
+    year_totals = read_totals(totals) if totals is not None else None
+    periods = horizon_periods(result, start, end)
+    return plan_periods(result, periods, calendar=calendar, total=target_total, totals=year_totals,
+                        new_events=new_events, n_sims=n_sims, seed=seed)
+
+
+def plan_periods(
+    result: Any,
+    periods: pd.PeriodIndex,
+    calendar: Any = None,
+    total: float | None = None,
+    totals: dict[int, float] | None = None,
+    new_events: str = "error",
+    n_sims: int = 1000,
+    seed: int = 0,
+) -> Plan:
+    """:func:`make_plan` for periods already checked (used by the backtest and scenarios)."""
+    cal = load_plan_calendar(result, calendar)
+    colmap = cal.event_columns()
+    event_cols = [c for c, ev in colmap.items() if cal.event(ev).effect.kind != "zero"]
+    spec = replace(result.spec, event_columns=event_cols)
+    design = build_design(spec, cal, periods)
+    X = design.X.copy()
+    share = design.open_share
+    schedule = resolve_schedule(result, cal, X[event_cols], new_events)
+
+    persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
+    base_cols = [c for c in list(result.base_columns) + persistent if c in X.columns]
+    hist_end = history_end_period(result)
+    err = error_forecast(result.error_model, result.sigma2, steps_after(periods, hist_end))
+    transform = result.transform
+    if transform == "log":
+        # mean of a lognormal: exp(sigma^2 / 2) on the forecast variance (ARIMA),
+        # the fit's smearing factor (Duan 1983) for iid errors
+        smear = np.exp(err.var / 2.0) if err.kind == "arima" else np.full(len(periods), result.smear)
+    else:
+        smear = np.ones(len(periods))
+
+    params = result.params.copy()
+    params[ERROR_COLUMN] = 1.0
+    Xd = X.copy()
+    Xd[ERROR_COLUMN] = err.mean
+    if transform == "none" and schedule.assumed:
+        # additive model: an assumed lift is a share of the base, so its column carries the base
+        level = Xd[base_cols + [ERROR_COLUMN]].to_numpy() @ params.reindex(
+            base_cols + [ERROR_COLUMN]).fillna(0.0).to_numpy()
+        for c in schedule.assumed:
+            Xd[c] = Xd[c] * level
+    view = replace(result, params=params, status=schedule.status, like_map=schedule.like_map,
+                   assumed=schedule.assumed, base_columns=base_cols + [ERROR_COLUMN], smear=1.0)
+    closures = closure_shares(cal, periods)
+    parts = decompose(view, Xd, share, closures, terms=event_cols)
+    parts = parts.mul(smear, axis=0)
+
+    # one lift column per event that touches the horizon, in order of first appearance
+    touched: dict[str, int] = {}
+    for c in event_cols:
+        hit = np.flatnonzero(np.abs(X[c].to_numpy()) > 0)
+        if len(hit):
+            ev = colmap[c]
+            touched[ev] = min(touched.get(ev, len(periods)), int(hit[0]))
+    for ev in closures.columns:
+        hit = np.flatnonzero(closures[ev].to_numpy() > 0)
+        if len(hit):
+            touched[ev] = min(touched.get(ev, len(periods)), int(hit[0]))
+    events = sorted(touched, key=lambda e: (touched[e], e))
+
+    dates = period_dates(periods, result.label)
+    table = pd.DataFrame({"date": dates, "base": parts["base"].to_numpy(),
+                          "plan": parts["fitted"].to_numpy()})
+    if n_sims and n_sims > 0:
+        low, high = simulate_interval(result, X, share.to_numpy(), base_cols, schedule, err,
+                                      n_sims=n_sims, seed=seed)
+        table["low"], table["high"] = low, high
+        interval_note = (f"low/high: 95% prediction interval from {n_sims} simulation draws of the "
+                         "coefficients (normal, with the fit's covariance) and of each period's noise.")
+    else:
+        table["low"] = table["high"] = np.nan
+        interval_note = "No interval was simulated (n_sims=0)."
+    for ev in events:
+        cols = [c for c in parts.columns if c not in ("base", "fitted") and colmap.get(c, c) == ev]
+        table[f"lift:{ev}"] = parts[cols].sum(axis=1).to_numpy() if cols else 0.0
+
+    # assumptions active in each period
+    active_notes: dict[str, str] = {}
+    text = [[] for _ in range(len(periods))]
+    for ev, note in schedule.notes.items():
+        cols = [c for c in event_cols if colmap[c] == ev]
+        on = np.zeros(len(periods), dtype=bool)
+        for c in cols:
+            on |= np.abs(X[c].to_numpy()) > 0
+        if on.any():
+            active_notes[ev] = note
+            for i in np.flatnonzero(on):
+                text[i].append(note)
+    table["assumptions"] = ["; ".join(t) for t in text]
+
+    years = period_years(periods, result.label)
+    model_totals = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
+    factors: dict[int, float] = {}
+    target: dict[int, float] | None = None
+    if total is not None:
+        whole = float(table["plan"].sum())
+        if not np.isfinite(whole) or whole <= 0:
+            raise PlanError(f"--total: the plan adds up to {whole:g}, so it cannot be spread to a total; "
+                            "check that the horizon is not wholly closed")
+        f = total / whole
+        factors = {int(y): f for y in np.unique(years)}
+        table = apply_spread(table, years, factors)
+        target = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
+    elif totals is not None:
+        factors = spread_factors(table["plan"].to_numpy(), years, totals, source="--totals")
+        table = apply_spread(table, years, factors)
+        target = {int(y): float(totals[int(y)]) for y in np.unique(years)}
+
+    p = cycle_length(result.freq)
+    full_years = [int(y) for y in np.unique(years) if _is_full_year(periods[years == y], int(y), p,
+                                                                    result.label)]
+    notes = []
+    dropped = [t.name for t in spec.intervention_terms() if t.type not in PERSISTENT]
+    if dropped:
+        notes.append(f"not planned (over before the horizon): {', '.join(dropped)}")
+    if err.kind == "arima":
+        notes.append("the base includes the forecast of the ARIMA error from the end of the history")
+    return Plan(
+        table=table, periods=periods, freq=result.freq, label=result.label, events=events,
+        assumptions=active_notes, model_totals=model_totals, target=target, factors=factors,
+        full_years=full_years, last_year=dict(result.last_year or {}),
+        average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
+        interval_note=interval_note, notes=notes, target_total=total, result=result,
+    )
+
+
+def _is_full_year(year_periods: pd.PeriodIndex, year: int, p: int, label: str) -> bool:
+    """Whether the horizon holds every period labelled with ``year``."""
+    if len(year_periods) < p:
+        return False
+    freq = year_periods.freq
+    all_periods = pd.period_range(pd.Timestamp(year, 1, 1).to_period(freq),
+                                  pd.Timestamp(year, 12, 31).to_period(freq), freq=freq)
+    all_years = period_years(all_periods, label)
+    return set(all_periods[all_years == year]) <= set(year_periods)

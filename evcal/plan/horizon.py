@@ -1,0 +1,100 @@
+"""The plan's horizon: the future periods, checked against the history they follow.
+
+A horizon is given as two days (``--from``/``--to``), or years, and becomes
+the periods of the fitted frequency that hold them. Dates are written back
+with the history's own label convention (period start or end), so a plan
+lines up with the file it came from.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.errors import PlanError
+
+_YEAR = re.compile(r"^\s*(\d{4})\s*$")
+
+
+def _as_day(value: Any, *, end: bool, what: str) -> pd.Timestamp:
+    """A day from a date-like value; a bare year is 1 January (or 31 December for ``end``)."""
+    if isinstance(value, pd.Period):
+        return value.end_time.normalize() if end else value.start_time.normalize()
+    if isinstance(value, int | np.integer) and not isinstance(value, bool):
+        value = str(int(value))
+    if isinstance(value, str):
+        m = _YEAR.match(value)
+        if m:
+            year = int(m.group(1))
+            return pd.Timestamp(year, 12, 31) if end else pd.Timestamp(year, 1, 1)
+    try:
+        ts = pd.Timestamp(value)
+    except (ValueError, TypeError):
+        ts = pd.NaT
+    if ts is pd.NaT or pd.isna(ts):
+        raise PlanError(f"{what} {value!r}: not a date; write YYYY-MM-DD or a four-digit year")
+    if ts.tzinfo is not None:
+        ts = ts.tz_localize(None)
+    return ts.normalize()
+
+
+def history_end_period(result: Any) -> pd.Period:
+    """The last period of the fitted history, at the model's frequency."""
+    return pd.Period(result.history_end, freq=result.freq)
+
+
+def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
+    """The periods from the one holding ``start`` to the one holding ``end``.
+
+    Parameters
+    ----------
+    result : FitResult
+        Supplies the frequency and the end of the history.
+    start, end : str, date, Timestamp, Period or int
+        Days (or years: a year means 1 January for ``start``, 31 December for ``end``).
+
+    Raises
+    ------
+    PlanError
+        The horizon starts inside the history, or ends before it starts.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> res = SimpleNamespace(freq="M", history_end="2024-12")
+    >>> [str(p) for p in horizon_periods(res, "2025", "2025-03-15")]
+    ['2025-01', '2025-02', '2025-03']
+    """
+    first_day = _as_day(start, end=False, what="--from")
+    last_day = _as_day(end, end=True, what="--to")
+    freq = result.freq
+    first, last = first_day.to_period(freq), last_day.to_period(freq)
+    hist_end = history_end_period(result)
+    if first <= hist_end:
+        raise PlanError(
+            f"--from {first_day.date()}: the plan must start after the history, which ends with "
+            f"period {hist_end}; start on or after {(hist_end + 1).start_time.date()}")
+    if last < first:
+        raise PlanError(
+            f"--to {last_day.date()} is before --from {first_day.date()}; the horizon must end on or "
+            "after the day it starts")
+    return pd.period_range(first, last, freq=freq)
+
+
+def period_dates(periods: pd.PeriodIndex, label: str) -> pd.DatetimeIndex:
+    """Each period's date as the history writes it: its first day (``start``) or last (``end``)."""
+    stamps = periods.end_time.normalize() if label == "end" else periods.start_time.normalize()
+    return pd.DatetimeIndex(stamps, name="date").as_unit("ns")
+
+
+def period_years(periods: pd.PeriodIndex, label: str) -> np.ndarray:
+    """The calendar year each period belongs to, read from its date label."""
+    return period_dates(periods, label).year.to_numpy()
+
+
+def steps_after(periods: pd.PeriodIndex, hist_end: pd.Period) -> np.ndarray:
+    """How many periods after the history's last each horizon period is (1 = the next one)."""
+    return np.array([(p - hist_end).n for p in periods], dtype=int)

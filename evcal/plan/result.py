@@ -1,0 +1,104 @@
+"""The :class:`Plan`: the forward table, how it was spread, and what it assumed."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from evcal._files import atomic_path
+from evcal.errors import PlanError
+
+OUTPUT_SUFFIXES = (".csv", ".xlsx")
+
+
+@dataclass
+class Plan:
+    """A forward plan built by :func:`evcal.plan.make_plan`.
+
+    Attributes
+    ----------
+    table : DataFrame
+        ``date, base, plan, low, high``, then ``lift:<event>`` per event touching
+        the horizon (units; closures negative), then ``assumptions``. ``base``
+        plus the lifts adds up to ``plan`` in every period.
+    periods : PeriodIndex
+        The horizon's periods (``table`` rows, in order).
+    events : list of str
+        Events with a ``lift:`` column.
+    assumptions : dict
+        Event -> text, for every assumed or borrowed lift in the horizon.
+    model_totals : dict
+        Year -> what the model alone plans for the horizon's periods of that year.
+    target, factors : dict or None
+        Year -> target total and the factor the year was scaled by (None when not spread).
+    full_years : list of int
+        Years whose every period is in the horizon.
+    target_total : float or None
+        The single target of the whole horizon (``total=``), when one was given.
+    """
+
+    table: pd.DataFrame
+    periods: pd.PeriodIndex
+    freq: str
+    label: str
+    events: list[str]
+    assumptions: dict[str, str]
+    model_totals: dict[int, float]
+    target: dict[int, float] | None
+    factors: dict[int, float]
+    full_years: list[int]
+    last_year: dict[str, Any]
+    average_share: dict[int, float]
+    calendar_name: str
+    interval_note: str
+    notes: list[str] = field(default_factory=list)
+    target_total: float | None = None
+    result: Any = field(default=None, repr=False)
+
+    @property
+    def total(self) -> float:
+        """Sum of the plan over the horizon."""
+        return float(self.table["plan"].sum())
+
+    def summary(self) -> str:
+        """Total, where the peak lands, each event's share, what moved, assumptions used."""
+        from evcal.plan.summary import plan_summary
+
+        return plan_summary(self)
+
+    def save(self, path: str | Path) -> Path:
+        """Write the plan as ``.csv`` or ``.xlsx`` (atomically: the whole file or nothing).
+
+        The workbook adds the model's lifts, seasonal index and past occurrences
+        when :mod:`evcal.report` is available.
+        """
+        path = Path(path)
+        suffix = path.suffix.lower()
+        if suffix not in OUTPUT_SUFFIXES:
+            raise PlanError(f"--out {path}: unknown file type {suffix or '(none)'}; "
+                            "write plan.csv or plan.xlsx")
+        if suffix == ".csv":
+            with atomic_path(path) as tmp:
+                self.table.to_csv(tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+            return path
+        return write_xlsx(path, self.table, self.result)
+
+
+def write_xlsx(path: Path, table: pd.DataFrame, result: Any = None) -> Path:
+    """A workbook of ``table`` (plus the model's tables when the report step is there)."""
+    try:
+        from evcal.report.workbook import write_workbook
+    except ImportError:  # the report step is optional here: a plain one-sheet workbook
+        write_workbook = None
+    if write_workbook is not None:
+        empty = pd.DataFrame()
+        lifts = getattr(result, "lifts", empty) if result is not None else empty
+        profile = getattr(result, "profile", empty) if result is not None else empty
+        occ = getattr(result, "occurrences", empty) if result is not None else empty
+        return write_workbook(path, table, lifts, profile, occ)
+    with atomic_path(path) as tmp:
+        table.to_excel(tmp, index=False, sheet_name="Plan", engine="openpyxl")
+    return path

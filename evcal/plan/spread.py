@@ -1,0 +1,132 @@
+"""Spreading a target total over the plan, keeping its shape.
+
+Every amount column of the plan (base, plan, low, high and each event's
+lift) is multiplied by one factor per year, so that the year's planned
+periods add up to its target and every ratio between periods, and between
+a lift and the base, stays what the model said.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.errors import PlanError
+
+AMOUNT_COLUMNS = ("base", "plan", "low", "high")
+
+
+def check_total(value: Any, what: str = "--total") -> float:
+    """A target total as a positive finite float, or a one-line :class:`PlanError`.
+
+    Examples
+    --------
+    >>> check_total("125000")
+    125000.0
+    >>> check_total(-5)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    evcal.errors.PlanError: --total -5: the target total must be a positive number of units, ...
+    """
+    try:
+        if isinstance(value, bool):
+            raise TypeError
+        x = float(str(value).replace(",", "").replace("_", "")) if isinstance(value, str) else float(value)
+    except (TypeError, ValueError):
+        raise PlanError(f"{what} {value!r}: not a number; give the target total in units, "
+                        "e.g. --total 125000") from None
+    if not math.isfinite(x) or x <= 0:
+        raise PlanError(f"{what} {value}: the target total must be a positive number of units, "
+                        "e.g. --total 125000")
+    return x
+
+
+def read_totals(source: str | Path | dict[Any, Any]) -> dict[int, float]:
+    """Targets per year from a dict ``{year: total}`` or a CSV file with columns ``year,total``.
+
+    Raises
+    ------
+    PlanError
+        Unreadable file, missing columns, a year or total that is not valid
+        (named by file and row), or a year given twice.
+    """
+    if isinstance(source, dict):
+        out: dict[int, float] = {}
+        for k, v in source.items():
+            try:
+                year = int(k)
+            except (TypeError, ValueError):
+                raise PlanError(f"totals: {k!r} is not a year; use four-digit years as keys") from None
+            out[year] = check_total(v, what=f"totals {year}:")
+        return out
+    path = Path(source)
+    if not path.is_file():
+        raise PlanError(f"{path}: totals file not found; give a CSV with columns year,total")
+    try:
+        frame = pd.read_csv(path, dtype=str, keep_default_na=False)
+    except (OSError, ValueError, pd.errors.ParserError) as err:
+        raise PlanError(f"{path}: not a readable CSV ({err}); give columns year,total") from None
+    cols = {c.strip().lower(): c for c in frame.columns}
+    missing = [c for c in ("year", "total") if c not in cols]
+    if missing:
+        raise PlanError(f"{path}: missing column {', '.join(missing)}; the totals file needs the "
+                        f"columns year,total (found {', '.join(map(str, frame.columns)) or 'none'})")
+    problems: list[str] = []
+    out = {}
+    years_raw = frame[cols["year"]].astype(str).str.strip().tolist()
+    totals_raw = frame[cols["total"]].astype(str).str.strip().tolist()
+    for i, (raw_year, raw_total) in enumerate(zip(years_raw, totals_raw, strict=True), start=2):
+        # row 1 is the header, so data rows are numbered from 2 as a spreadsheet shows them
+        if not raw_year and not raw_total:
+            continue
+        if not raw_year.isdigit() or len(raw_year) != 4:
+            problems.append(f"{path}: row {i}, column year: {raw_year!r} is not a four-digit year")
+            continue
+        year = int(raw_year)
+        try:
+            total = check_total(raw_total, what=f"{path}: row {i}, column total:")
+        except PlanError as err:
+            problems += err.problems
+            continue
+        if year in out:
+            problems.append(f"{path}: row {i}: year {year} is given twice; give one total per year")
+            continue
+        out[year] = total
+    if problems:
+        raise PlanError(problems)
+    if not out:
+        raise PlanError(f"{path}: no rows; give one row per year: year,total")
+    return out
+
+
+def spread_factors(plan: np.ndarray, years: np.ndarray, totals: dict[int, float],
+                   source: str = "totals") -> dict[int, float]:
+    """One factor per horizon year so that the year's planned periods add up to its target."""
+    needed = sorted({int(y) for y in years})
+    missing = [y for y in needed if y not in totals]
+    if missing:
+        have = ", ".join(str(y) for y in sorted(totals)) or "none"
+        raise PlanError(f"{source}: no total for {', '.join(map(str, missing))}; the horizon covers "
+                        f"{', '.join(map(str, needed))} (totals given for {have}); add a row per year")
+    factors: dict[int, float] = {}
+    for y in needed:
+        s = float(plan[years == y].sum())
+        if not np.isfinite(s) or s <= 0:
+            raise PlanError(f"{source}: the plan for {y} adds up to {s:g}, so it cannot be spread to a "
+                            "total; check that the horizon is not wholly closed")
+        factors[y] = totals[y] / s
+    return factors
+
+
+def apply_spread(table: pd.DataFrame, years: np.ndarray, factors: dict[int, float]) -> pd.DataFrame:
+    """Scale every amount column (``base, plan, low, high, lift:*``) by its year's factor."""
+    out = table.copy()
+    f = np.array([factors[int(y)] for y in years], dtype=float)
+    cols = [c for c in out.columns if c in AMOUNT_COLUMNS or str(c).startswith("lift:")]
+    for c in cols:
+        out[c] = out[c].to_numpy(dtype=float) * f
+    return out

@@ -1,0 +1,127 @@
+"""The few lines printed after a plan: total, peak, event shares, what moved, assumptions.
+
+"What moved" compares the plan with the same total spread by the plain
+average-share profile (each position's mean share of its year over the
+history's full years: common practice, no source): the periods where the two
+differ most are where the events, and the base cleaned of them, change the plan.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.seasonal import base_freq, season_position
+
+
+def period_name(period: pd.Period, date: pd.Timestamp, label: str) -> str:
+    """A period as a planner reads it: ``2025-04``, ``2025Q2``, ``week ending 2025-04-20``, a day."""
+    b = base_freq(period.freqstr)
+    if b in ("M", "Q"):
+        return str(period)
+    if b == "W":
+        return f"week {'ending' if label == 'end' else 'starting'} {date.date()}"
+    return f"{date.date()} ({date.strftime('%a')})"
+
+
+def average_share_plan(periods: pd.PeriodIndex, years: np.ndarray, plan: np.ndarray,
+                       average_share: dict[int, float]) -> np.ndarray:
+    """The plan's own yearly totals spread by the average-share profile.
+
+    Each year's periods get ``total_year * share[pos] / sum(share over that year's periods)``.
+    Returns NaN everywhere when the history gave no profile.
+    """
+    if not average_share:
+        return np.full(len(periods), np.nan)
+    pos = season_position(periods)
+    s = np.array([average_share.get(int(p), np.nan) for p in pos], dtype=float)
+    out = np.full(len(periods), np.nan)
+    for y in np.unique(years):
+        m = years == y
+        denom = np.nansum(s[m])
+        if denom > 0:
+            out[m] = plan[m].sum() * s[m] / denom
+    return out
+
+
+def _num(x: float) -> str:
+    if not np.isfinite(x):
+        return "n/a"
+    return f"{x:,.0f}" if abs(x) >= 100 else f"{x:,.3g}"
+
+
+def _pct(x: float) -> str:
+    return "n/a" if not np.isfinite(x) else f"{x:+.1f}%"
+
+
+def plan_summary(plan: Any, top: int = 3) -> str:
+    """The printed summary of a :class:`~evcal.plan.Plan` (see :meth:`Plan.summary`)."""
+    t = plan.table
+    periods = plan.periods
+    dates = pd.DatetimeIndex(t["date"])
+    values = t["plan"].to_numpy(dtype=float)
+    total = float(values.sum())
+    names = [period_name(p, d, plan.label) for p, d in zip(periods, dates, strict=True)]
+    lines: list[str] = []
+    span = names[0] if len(names) == 1 else f"{names[0]} to {names[-1]}"
+    lines.append(f"Plan {span} ({len(t)} periods): total {_num(total)} units.")
+    if plan.target_total is not None:
+        model = sum(plan.model_totals.values())
+        lines.append(f"Spread to the target {_num(plan.target_total)}, shape kept: the model alone "
+                     f"planned {_num(model)} (every period scaled by {plan.target_total / model:.4f}).")
+    elif plan.target is not None:
+        parts = []
+        for y in sorted(plan.target):
+            parts.append(f"{y}: target {_num(plan.target[y])}, model alone {_num(plan.model_totals[y])} "
+                         f"(spread factor {plan.factors[y]:.4f})")
+        lines.append("Spread to the target, shape kept: " + "; ".join(parts) + ".")
+    lines += _change_lines(plan)
+    if len(values) and np.isfinite(values).any():
+        i = int(np.nanargmax(values))
+        share = 100.0 * values[i] / total if total else float("nan")
+        lines.append(f"Peak: {names[i]} with {_num(values[i])} units ({share:.1f}% of the total).")
+    ev_parts = []
+    for ev in plan.events:
+        units = float(t[f"lift:{ev}"].sum())
+        ev_parts.append(f"{ev} {_pct(100.0 * units / total if total else float('nan'))} "
+                        f"({_num(units)} units)")
+    if ev_parts:
+        lines.append("Events' share of the total: " + "; ".join(ev_parts) + ".")
+    else:
+        lines.append("No event touches the horizon: the plan is the base alone.")
+    years = t["date"].dt.year.to_numpy()
+    avg = average_share_plan(periods, years, values, plan.average_share)
+    if np.isfinite(avg).any():
+        diff = values - avg
+        order = np.argsort(-np.abs(np.nan_to_num(diff)))[:top]
+        moved = [f"{names[k]} {'+' if diff[k] >= 0 else '-'}{_num(abs(diff[k]))} "
+                 f"({_pct(100.0 * diff[k] / avg[k] if avg[k] else float('nan'))})" for k in order
+                 if np.isfinite(diff[k])]
+        lines.append("Against the average-share profile spread to the same total, the periods that "
+                     "change most: " + "; ".join(moved) + ".")
+    if plan.assumptions:
+        lines.append("Assumptions: " + "; ".join(plan.assumptions.values()) + ".")
+    lines.append(plan.interval_note)
+    lines += [f"Note: {n}" for n in plan.notes]
+    lines.append("This plan is an estimate from past sales and the calendar; targets and decisions "
+                 "stay with the people who own them.")
+    return "\n".join(lines)
+
+
+def _change_lines(plan: Any) -> list[str]:
+    last = plan.last_year or {}
+    if not last.get("total"):
+        return []
+    base_total = float(last["total"])
+    out = []
+    for y in sorted(plan.full_years):
+        amount = plan.target[y] if plan.target is not None else plan.model_totals[y]
+        what = "target" if plan.target is not None else "plan"
+        out.append(f"The {y} {what} {_num(amount)} is {_pct(100.0 * (amount / base_total - 1.0))} on "
+                   f"{last['year']} ({_num(base_total)}), the last full year of history.")
+    if not plan.full_years:
+        out.append("The horizon holds no full year, so no change against the last full year of "
+                   f"history ({last['year']}, {_num(base_total)}) is given.")
+    return out

@@ -1,0 +1,241 @@
+"""Group unexplained peaks and dips across years by the date rule they follow.
+
+A peak the calendar does not explain, seen in the same place in most years,
+is an event someone forgot. "The same place" can mean several date rules;
+each finding proposes every rule that would put an occurrence in its period:
+
+* ``fixed``: the same month-day (``{fixed: "MM-DD"}``);
+* ``easter``: the same offset from Western Easter Sunday (``dateutil.easter``),
+  within 70 days (``{easter: k}``);
+* ``weekday``: the same nth (or last) weekday of a month
+  (``{weekday: {month: M, day: thu, nth: N}}``);
+* ``week``: the same ISO week of the year (written in the calendar as the
+  ``span`` of that week's days in the middle year of the history, as the
+  calendar has no week-number rule).
+
+Each rule is then checked against every year of the history: a *hit* is a
+year whose period holding the rule's date has a finding of the same sign, an
+*available* year one where that period is in the fit. A rule is suggested
+when it hits in at least :data:`MIN_SHARE` (60 %, "most years"; common
+practice, no source) of its available years and in at least two years. The
+rule with most hits is taken first and its findings are removed, then the
+next (greedy); ties go to the simpler kind (``fixed``, ``weekday``,
+``easter``, ``week``) and then to the middle of the tied values, because at
+weekly or monthly resolution several days fit equally well.
+"""
+
+from __future__ import annotations
+
+import calendar as _stdcal
+import datetime as dt
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from dateutil.easter import easter
+
+__all__ = ["Finding", "Rule", "Recurring", "find_recurring", "MIN_SHARE"]
+
+#: share of available years a rule must hit ("most years")
+MIN_SHARE = 0.6
+MIN_HITS = 2
+EASTER_RANGE = 70
+_KIND_ORDER = {"fixed": 0, "weekday": 1, "easter": 2, "week": 3}
+_DAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
+
+
+@dataclass(frozen=True)
+class Finding:
+    """An unexplained peak (sign +1) or dip (-1) in one period."""
+
+    period: pd.Period
+    sign: int
+    size_pct: float = 0.0
+    key: Any = None
+
+
+@dataclass(frozen=True)
+class Rule:
+    """A yearly date rule in the calendar's vocabulary."""
+
+    kind: str
+    value: tuple[int, ...]
+
+    def date(self, year: int) -> dt.date | None:
+        """This rule's date in ``year`` (None when it has none)."""
+        if self.kind == "fixed":
+            month, day = self.value
+            if day > _stdcal.monthrange(year, month)[1]:
+                return None
+            return dt.date(year, month, day)
+        if self.kind == "easter":
+            return easter(year) + dt.timedelta(days=self.value[0])
+        if self.kind == "weekday":
+            month, weekday, nth = self.value
+            days = [d for d in _month_days(year, month) if d.weekday() == weekday]
+            if nth == -1:
+                return days[-1]
+            return days[nth - 1] if nth <= len(days) else None
+        if self.kind == "week":
+            try:
+                return dt.date.fromisocalendar(year, self.value[0], 1)
+            except ValueError:
+                return None
+        raise ValueError(f"unknown rule kind {self.kind!r}")
+
+    def when(self, middle_year: int) -> dict[str, Any]:
+        """The ``when:`` mapping of the calendar contract."""
+        if self.kind == "fixed":
+            return {"fixed": f"{self.value[0]:02d}-{self.value[1]:02d}"}
+        if self.kind == "easter":
+            return {"easter": int(self.value[0])}
+        if self.kind == "weekday":
+            month, weekday, nth = self.value
+            return {"weekday": {"month": month, "day": _DAYS[weekday], "nth": nth}}
+        monday = self.date(middle_year) or dt.date.fromisocalendar(middle_year, 1, 1)
+        sunday = monday + dt.timedelta(days=6)
+        return {"span": {"start": monday.strftime("%m-%d"), "end": sunday.strftime("%m-%d")}}
+
+    def describe(self) -> str:
+        if self.kind == "fixed":
+            return f"every {_stdcal.month_abbr[self.value[0]]} {self.value[1]}"
+        if self.kind == "easter":
+            k = self.value[0]
+            return "Easter Sunday" if k == 0 else f"{abs(k)} days {'after' if k > 0 else 'before'} Easter"
+        if self.kind == "weekday":
+            month, weekday, nth = self.value
+            which = "last" if nth == -1 else {1: "1st", 2: "2nd", 3: "3rd"}.get(nth, f"{nth}th")
+            return f"{which} {_stdcal.day_name[weekday]} of {_stdcal.month_name[month]}"
+        return f"ISO week {self.value[0]}"
+
+
+@dataclass
+class Recurring:
+    """A rule that explains findings in most years."""
+
+    rule: Rule
+    sign: int
+    years_seen: list[int]
+    years_available: list[int]
+    findings: list[Finding] = field(default_factory=list)
+
+    @property
+    def share(self) -> float:
+        return len(self.years_seen) / max(1, len(self.years_available))
+
+    @property
+    def mean_size_pct(self) -> float:
+        return float(np.mean([f.size_pct for f in self.findings])) if self.findings else 0.0
+
+
+def _month_days(year: int, month: int) -> list[dt.date]:
+    return [dt.date(year, month, d) for d in range(1, _stdcal.monthrange(year, month)[1] + 1)]
+
+
+def _rules_for_day(day: dt.date) -> list[Rule]:
+    rules = [Rule("fixed", (day.month, day.day))]
+    k = (day - easter(day.year)).days
+    if abs(k) <= EASTER_RANGE:
+        rules.append(Rule("easter", (k,)))
+    nth = (day.day - 1) // 7 + 1
+    rules.append(Rule("weekday", (day.month, day.weekday(), nth)))
+    if (day + dt.timedelta(days=7)).month != day.month:
+        rules.append(Rule("weekday", (day.month, day.weekday(), -1)))
+    return rules
+
+
+def _period_days(p: pd.Period) -> list[dt.date]:
+    start = p.start_time.normalize().date()
+    end = p.end_time.normalize().date()
+    return [start + dt.timedelta(days=i) for i in range((end - start).days + 1)]
+
+
+def find_recurring(
+    findings: Sequence[Finding],
+    periods: pd.PeriodIndex,
+    in_fit: np.ndarray | None = None,
+    *,
+    min_share: float = MIN_SHARE,
+    min_hits: int = MIN_HITS,
+) -> list[Recurring]:
+    """Rules that put unexplained findings of one sign in the same place in most years.
+
+    Parameters
+    ----------
+    findings : sequence of Finding
+        Unexplained one-period peaks and dips (additive outliers, the start of
+        temporary changes).
+    periods : PeriodIndex
+        The history's periods.
+    in_fit : array of bool, optional
+        Periods that were in the fit (others cannot show a finding).
+    min_share, min_hits : see module doc.
+
+    Returns
+    -------
+    list of Recurring
+        Best first.
+
+    Examples
+    --------
+    >>> idx = pd.period_range("2018-01-01", "2021-12-31", freq="D")
+    >>> days = [pd.Period(f"{y}-12-24", "D") for y in (2018, 2019, 2020, 2021)]
+    >>> found = find_recurring([Finding(p, +1) for p in days], idx)
+    >>> found[0].rule.when(2019), found[0].years_seen
+    ({'fixed': '12-24'}, [2018, 2019, 2020, 2021])
+    """
+    in_fit = np.ones(len(periods), dtype=bool) if in_fit is None else np.asarray(in_fit, dtype=bool)
+    first_day = periods[0].start_time.normalize().date()
+    last_day = periods[-1].end_time.normalize().date()
+    years = list(range(first_day.year, last_day.year + 1))
+    freq = periods.freq
+    position = {p: i for i, p in enumerate(periods)}
+    weekly_or_longer = _period_days(periods[0]).__len__() >= 7
+
+    results: list[Recurring] = []
+    for sign in (+1, -1):
+        remaining = [f for f in findings if f.sign == sign and f.period in position]
+        while remaining:
+            by_period = {f.period: f for f in remaining}
+            candidates: set[Rule] = set()
+            for f in remaining:
+                days = _period_days(f.period)
+                for day in days:
+                    candidates.update(_rules_for_day(day))
+                if weekly_or_longer:
+                    candidates.add(Rule("week", (days[len(days) // 2].isocalendar()[1],)))
+            scored = []
+            for rule in candidates:
+                seen: list[int] = []
+                available: list[int] = []
+                hit: list[Finding] = []
+                for y in years:
+                    d = rule.date(y)
+                    if d is None or not (first_day <= d <= last_day):
+                        continue
+                    p = pd.Timestamp(d).to_period(freq)
+                    i = position.get(p)
+                    if i is None or not in_fit[i]:
+                        continue
+                    available.append(y)
+                    if p in by_period:
+                        seen.append(y)
+                        hit.append(by_period[p])
+                if len(seen) >= min_hits and len(seen) >= min_share * len(available):
+                    scored.append((rule, seen, available, hit))
+            if not scored:
+                break
+            best_hits = max(len(s[1]) for s in scored)
+            top = [s for s in scored if len(s[1]) == best_hits]
+            fewest_misses = min(len(s[2]) - len(s[1]) for s in top)
+            top = [s for s in top if len(s[2]) - len(s[1]) == fewest_misses]
+            kind = min((s[0].kind for s in top), key=lambda k: _KIND_ORDER[k])
+            top = sorted((s for s in top if s[0].kind == kind), key=lambda s: s[0].value)
+            rule, seen, available, hit = top[(len(top) - 1) // 2]
+            results.append(Recurring(rule, sign, seen, available, hit))
+            used = {f.period for f in hit}
+            remaining = [f for f in remaining if f.period not in used]
+    results.sort(key=lambda r: (-len(r.years_seen), -r.share))
+    return results

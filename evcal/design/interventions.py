@@ -71,7 +71,7 @@ class InterventionTerm:
         if self.type == "pulse":
             last = self.end if self.end is not None else self.start
             p_end = periods.end_time.normalize()
-            return ((start <= last) & (p_end >= self.start)).to_numpy(dtype=float)
+            return np.asarray((start <= last) & (p_end >= self.start), dtype=float)
         if self.type == "level_shift":
             # days on/after the change within each period, as a share
             after = (start + pd.to_timedelta(days - 1, unit="D") - self.start).days + 1

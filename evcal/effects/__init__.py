@@ -34,7 +34,8 @@ def build_tables(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd.Data
     result.lifts = lifts_table(result, raw.X, parts, result.occurrences)
     result.profile = profile_table(result)
     if inp.transform == "log":
-        scale_resid = np.log(inp.actual.where(inp.rows)) - np.log(parts["fitted"] / result.smear)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            scale_resid = np.log(inp.actual.where(inp.rows)) - np.log(parts["fitted"] / result.smear)
     else:
         scale_resid = inp.actual.where(inp.rows) - parts["fitted"]
     result.residuals = pd.Series(scale_resid.to_numpy(), index=periods, name="residual")

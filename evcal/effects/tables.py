@@ -92,6 +92,10 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
     se = pd.Series(se, index=result.cov.index)
     rng = np.random.default_rng(rng_seed)
     z = rng.standard_normal(2000)
+    # plain arrays: this loop runs once per occurrence (thousands for weekly closures)
+    part_np = {c: parts[c].to_numpy(dtype=float) for c in parts.columns}
+    x_np = {c: X[c].to_numpy(dtype=float) for c in X.columns}
+    base_np = part_np["base"]
     out = []
     for r in occ.itertuples(index=False):
         ev = calendar.event(r.event)
@@ -109,15 +113,15 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
         ov0 = np.maximum(p_start[touch], np.datetime64(w0))
         ov1 = np.minimum(p_end[touch], np.datetime64(w1))
         ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
-        contrib = parts.loc[touch, cols].sum(axis=1).to_numpy()
+        contrib = sum(part_np[c][touch] for c in cols)
         active_days = np.maximum(ov_days, 1.0)
         frac = np.ones_like(contrib)
         if ev.effect.kind != "zero":
-            x_tot = X.loc[touch, cols].sum(axis=1).to_numpy() * days[touch]
+            x_tot = sum(x_np[c][touch] for c in cols) * days[touch]
             own = ov_days * float(r.strength)
             frac = np.where(x_tot > own + 1e-9, own / np.maximum(x_tot, 1e-12), 1.0)
         added = float((contrib * frac).sum())
-        base_win = float((parts["base"].to_numpy()[touch] * active_days / days[touch]).sum())
+        base_win = float((base_np[touch] * active_days / days[touch]).sum())
         added_pct = 100.0 * added / base_win if base_win else float("nan")
         low = high = added
         src = cols[0]
@@ -126,8 +130,8 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
             pcol = src if st.status == "fitted" else result.like_map.get(src, "")
             if pcol in result.params.index:
                 b, s = float(result.params[pcol]), float(se[pcol])
-                xs = X.loc[touch, cols].sum(axis=1).to_numpy() * frac
-                base_t = parts["base"].to_numpy()[touch] * result.open_share_at(touch)
+                xs = sum(x_np[c][touch] for c in cols) * frac
+                base_t = base_np[touch] * result.open_share_at(touch)
                 draws = (base_t[None, :] * np.expm1(np.outer(b + s * z, xs))).sum(axis=1)
                 point = float((base_t * np.expm1(b * xs)).sum())
                 # centre on the reported split (which shares overlaps with other terms)
@@ -138,7 +142,7 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
             pcol = src
             if pcol in result.params.index:
                 s = float(se[pcol])
-                xs = float((X.loc[touch, cols].sum(axis=1).to_numpy() * frac).sum())
+                xs = float((sum(x_np[c][touch] for c in cols) * frac).sum())
                 low, high = added - Z95 * s * abs(xs), added + Z95 * s * abs(xs)
         out.append({"event": r.event, "start": pd.Timestamp(r.start).date().isoformat(),
                     "end": pd.Timestamp(r.end).date().isoformat(), "added_units": added,

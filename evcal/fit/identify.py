@@ -32,22 +32,48 @@ class ColumnStatus:
     note: str = ""
 
 
-def _relative_residual(col: np.ndarray, basis: np.ndarray) -> float:
-    """||col - proj(col)|| / ||col|| for the projection on the span of ``basis``."""
+def _relative_residual(col: np.ndarray, q: np.ndarray) -> float:
+    """||col - proj(col)|| / ||col|| for the projection on orthonormal columns ``q``."""
     norm = float(np.linalg.norm(col))
     if norm == 0.0:
         return 0.0
-    if basis.shape[1] == 0:
+    if q.shape[1] == 0:
         return 1.0
-    q = _orthonormal(basis)
-    return float(np.linalg.norm(col - q @ (q.T @ col))) / norm
+    r = col - q @ (q.T @ col)
+    r = r - q @ (q.T @ r)  # second pass: classical Gram-Schmidt loses orthogonality once
+    return float(np.linalg.norm(r)) / norm
 
 
 def _orthonormal(basis: np.ndarray) -> np.ndarray:
     """Orthonormal columns spanning ``basis`` (rank-revealing via SVD)."""
+    if basis.shape[1] == 0:
+        return basis
     u, s, _ = np.linalg.svd(basis, full_matrices=False)
-    keep = s > s[0] * 1e-10 if len(s) else np.zeros(0, dtype=bool)
+    keep = s > s[0] * 1e-10 if len(s) and s[0] > 0 else np.zeros(len(s), dtype=bool)
     return u[:, keep]
+
+
+def _extend(q: np.ndarray, col: np.ndarray) -> np.ndarray:
+    r = col - q @ (q.T @ col)
+    r = r - q @ (q.T @ r)
+    return np.column_stack([q, r / np.linalg.norm(r)])
+
+
+def independent_base_columns(X: pd.DataFrame, rows: np.ndarray, base_cols: list[str]) -> list[str]:
+    """Trend/seasonal columns that are not constant-zero or collinear on the fitted rows.
+
+    A weekday dummy for a day that is always closed, or a season dummy for a
+    week that is always excluded, carries no information; it is left out (its
+    coefficient is zero) rather than making the design rank-deficient.
+    """
+    Xf = X.loc[rows, base_cols].to_numpy()
+    q = np.zeros((Xf.shape[0], 0))
+    keep = []
+    for j, c in enumerate(base_cols):
+        if _relative_residual(Xf[:, j], q) > REL_TOL:
+            q = _extend(q, Xf[:, j])
+            keep.append(c)
+    return keep
 
 
 def check_columns(
@@ -70,21 +96,19 @@ def check_columns(
         Column -> "event" or "intervention", for the wording of notes.
     """
     Xf = X.loc[rows]
-    basis = Xf[base_cols].to_numpy()
-    kept: list[str] = []
+    q_base = _orthonormal(Xf[base_cols].to_numpy())
+    q = q_base
+    kept: list[tuple[str, np.ndarray]] = []
     out: dict[str, ColumnStatus] = {}
     for c in candidate_cols:
         col = Xf[c].to_numpy()
-        if not np.any(np.abs(col) > 0):
+        norm = float(np.linalg.norm(col))
+        if norm == 0.0:
             out[c] = ColumnStatus("no_history", "no occurrence inside the fitted history; not fitted")
             continue
-        # identical (up to scale) to an event already kept?
-        twin = None
-        for k in kept:
-            other = Xf[k].to_numpy()
-            if _relative_residual(col, other[:, None]) < REL_TOL:
-                twin = k
-                break
+        unit = col / norm
+        twin = next((k for k, u in kept if min(np.linalg.norm(unit - u), np.linalg.norm(unit + u)) < REL_TOL),
+                    None)
         if twin is not None:
             out[c] = ColumnStatus(
                 "duplicate",
@@ -94,7 +118,7 @@ def check_columns(
             prev = out[twin].note
             out[twin] = ColumnStatus("fitted", (prev + "; " if prev else "") + f"estimate includes {c}")
             continue
-        if _relative_residual(col, basis) < REL_TOL:
+        if _relative_residual(col, q_base) < REL_TOL:
             what = "event" if kind_of.get(c) == "event" else "intervention"
             out[c] = ColumnStatus(
                 "unidentifiable",
@@ -102,11 +126,14 @@ def check_columns(
                 "apart from the season; its effect stays inside the seasonal index",
             )
             continue
-        trial = np.column_stack([basis, col])
-        if _relative_residual(col, basis) < 1e-3 and np.linalg.cond(trial) > 1e10:
-            out[c] = ColumnStatus("unidentifiable", "too close to the seasonal terms to estimate")
+        if _relative_residual(col, q) < REL_TOL:
+            out[c] = ColumnStatus(
+                "unidentifiable",
+                "a combination of the seasonal terms and the other events already fitted; "
+                "its effect cannot be separated from theirs",
+            )
             continue
-        basis = trial
-        kept.append(c)
+        q = _extend(q, col)
+        kept.append((c, unit))
         out.setdefault(c, ColumnStatus("fitted"))
     return out

@@ -15,7 +15,7 @@ from evcal.design.matrix import Design, DesignSpec, build_design
 from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.errors import EvcalError, HistoryError
 from evcal.fit.estimators import Estimate, fit_arima, fit_count, fit_ols
-from evcal.fit.identify import ColumnStatus, check_columns
+from evcal.fit.identify import ColumnStatus, check_columns, independent_base_columns
 from evcal.fit.options import FitOptions
 
 LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS+HAC for speed
@@ -153,6 +153,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions) -> ModelInputs:
             if (hit & rows).any():
                 rows = rows & ~hit
                 notes.append(f"{c}: periods with this assumed event are left out of the additive fit")
+    base_cols = independent_base_columns(X, rows, base_cols)
     status = check_columns(X, rows, base_cols, candidates, kind_of)
     for c in assumed:
         status[c] = ColumnStatus("assumed", f"lift assumed at {assumed[c] * 100:+g}%, not estimated")

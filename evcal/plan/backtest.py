@@ -1,0 +1,264 @@
+"""Backtest: does the plan beat the plain average-share profile on years it has not seen?
+
+Rolling origin by calendar year. For each of the last ``holdout_years``
+full years of the history, fit on every period before that year, plan the
+year, and score three methods against what happened:
+
+* ``evcal``: the plan (:func:`evcal.plan.make_plan` with the same calendar;
+  events new to the shortened history are planned with no lift, as
+  ``--new-events zero``);
+* ``average_share``: each position's mean share of its year over the past
+  full years (the profile :func:`evcal.fit.model.average_share_profile`
+  computes from the periods the fit uses), spread over a total: common
+  practice, no source;
+* ``seasonal_naive``: last year's value at the same position (for daily data
+  the day 364 days earlier, which keeps the weekday), filled from the
+  average-share profile where last year has no value.
+
+Each method is scored twice. ``spread``: scaled so the year's scored periods
+add up to the actual total, which isolates the *profile* (where the volume
+falls) from the level. ``unspread``: as the method gives it (``evcal``: the
+model's own level; ``average_share``: last year's total, annualised over
+the positions it has; ``seasonal_naive``: last year's values).
+
+Metrics per method, year and spread: ``wape`` = sum|plan - actual| / sum|actual|,
+``bias`` = sum(plan - actual) / sum(actual) (both ratios: 0.08 is 8 %), and
+``peak_error`` = the number of periods between the planned and the actual peak.
+Periods inside a calendar ``exclude`` entry, and periods with no value, are not
+scored (they say nothing about normal demand).
+"""
+
+from __future__ import annotations
+
+import sys
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.seasonal import base_freq, cycle_length, season_position
+from evcal.errors import PlanError
+from evcal.plan.horizon import period_dates
+
+COLUMNS = ["year", "method", "spread", "wape", "bias", "peak_error"]
+METHODS = ("evcal", "average_share", "seasonal_naive")
+
+
+def score(plan: np.ndarray, actual: np.ndarray) -> dict[str, float]:
+    """WAPE, bias and peak-timing error of ``plan`` against ``actual``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> score(np.array([1.0, 3.0, 2.0]), np.array([1.0, 2.0, 3.0]))
+    {'wape': 0.3333333333333333, 'bias': 0.0, 'peak_error': 1}
+    """
+    denom = float(np.abs(actual).sum())
+    wape = float(np.abs(plan - actual).sum()) / denom if denom else float("nan")
+    bias = float((plan - actual).sum()) / float(actual.sum()) if actual.sum() else float("nan")
+    peak = int(abs(int(np.argmax(plan)) - int(np.argmax(actual)))) if len(plan) else 0
+    return {"wape": wape, "bias": bias, "peak_error": peak}
+
+
+def _excluded(periods: pd.PeriodIndex, calendar: Any) -> np.ndarray:
+    out = np.zeros(len(periods), dtype=bool)
+    p0 = periods.start_time.normalize()
+    p1 = periods.end_time.normalize()
+    for ex in calendar.exclusions:
+        out |= ((p0 <= pd.Timestamp(ex.end)) & (p1 >= pd.Timestamp(ex.start))).to_numpy()
+    return out
+
+
+def _full_years(periods: pd.PeriodIndex, years: np.ndarray, label: str) -> list[int]:
+    """Years whose every period (by date label) lies inside the history."""
+    out = []
+    freq = periods.freq
+    for y in np.unique(years):
+        y = int(y)
+        span = pd.period_range(pd.Timestamp(y, 1, 1).to_period(freq),
+                               pd.Timestamp(y, 12, 31).to_period(freq), freq=freq)
+        need = span[period_dates(span, label).year == y]
+        if len(need) and need[0] >= periods[0] and need[-1] <= periods[-1]:
+            out.append(y)
+    return out
+
+
+def _average_share(res: Any, train_values: pd.Series) -> dict[int, float]:
+    if res.average_share:
+        return dict(res.average_share)
+    from evcal.fit.model import average_share_profile
+
+    prof = average_share_profile(train_values)
+    return {int(k): float(v) for k, v in prof.items()}
+
+
+def _seasonal_naive(values: pd.Series, test: pd.PeriodIndex, prev_mask: np.ndarray,
+                    fallback: np.ndarray) -> np.ndarray:
+    """Last year's value at the same position; the fallback where last year has none."""
+    if base_freq(test.freqstr) == "D":
+        lagged = values.reindex(test - 364).to_numpy(dtype=float)
+    else:
+        prev = values[prev_mask]
+        by_pos = pd.Series(prev.to_numpy(dtype=float), index=season_position(prev.index)).groupby(
+            level=0).mean()
+        lagged = by_pos.reindex(season_position(test)).to_numpy(dtype=float)
+    return np.where(np.isfinite(lagged), lagged, fallback)
+
+
+def _progress(total: int, show: bool | None) -> Any:
+    if show is None:
+        show = sys.stderr.isatty()
+    if not show:
+        return None
+    from rich.console import Console
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    progress = Progress(TextColumn("backtest {task.description}"), BarColumn(),
+                        TextColumn("{task.completed}/{task.total} years"), TimeElapsedColumn(),
+                        console=Console(stderr=True), transient=True)
+    progress.start()
+    progress.add_task("", total=total)
+    return progress
+
+
+def backtest(
+    history: Any,
+    calendar: Any,
+    holdout_years: int = 2,
+    *,
+    date_col: str = "date",
+    value_col: str = "value",
+    freq: str | None = None,
+    progress: bool | None = None,
+    **fit_options: Any,
+) -> pd.DataFrame:
+    """Rolling-origin backtest by calendar year: evcal against average-share and seasonal naive.
+
+    Parameters
+    ----------
+    history : path, DataFrame or evcal.io.History
+        The full history (see :func:`evcal.io.read_history`).
+    calendar : path, YAML text or Calendar
+        The event calendar (it should date every year of the history).
+    holdout_years : int
+        How many of the last full years to hold out, one fold each (default 2).
+    date_col, value_col, freq
+        Passed to :func:`evcal.io.read_history`.
+    progress : bool, optional
+        Show a progress bar on stderr (default: when stderr is a terminal).
+    **fit_options
+        :class:`evcal.fit.FitOptions` fields, used for every fold's fit.
+
+    Returns
+    -------
+    DataFrame
+        ``year, method, spread, wape, bias, peak_error``: one row per held-out
+        year, method (``evcal``, ``average_share``, ``seasonal_naive``) and
+        spread (``spread``, ``unspread``). ``attrs["notes"]`` lists the periods
+        left out of the scoring.
+
+    Raises
+    ------
+    PlanError
+        ``holdout_years`` is not a positive whole number, or leaves too little
+        history to fit.
+
+    Examples
+    --------
+    >>> bt = backtest("sales.csv", "calendar.yaml", holdout_years=2)   # doctest: +SKIP
+    >>> bt[bt.spread == "spread"].pivot(index="year", columns="method", values="wape")  # doctest: +SKIP
+    """
+    from evcal.fit import fit
+    from evcal.fit.model import load_calendar_any
+    from evcal.io import History, read_history
+    from evcal.plan.build import plan_periods
+
+    if isinstance(holdout_years, bool) or not isinstance(holdout_years, int | np.integer) \
+            or holdout_years < 1:
+        raise PlanError(f"--holdout-years {holdout_years!r}: must be a whole number of years, 1 or more")
+    hist = history if isinstance(history, History) else read_history(
+        history, date_col=date_col, value_col=value_col, freq=freq,
+        allow_negative=bool(fit_options.get("allow_negative", False)))
+    cal = load_calendar_any(calendar)
+    values = hist.values.astype(float)
+    periods = values.index
+    years = period_dates(periods, hist.label).year.to_numpy()
+    full = _full_years(periods, years, hist.label)
+    p = cycle_length(hist.freq)
+    if len(full) < int(holdout_years):
+        raise PlanError(f"{hist.source}: --holdout-years {holdout_years} but the history has only "
+                        f"{len(full)} full calendar year(s) ({', '.join(map(str, full)) or 'none'})")
+    holdout = full[-int(holdout_years):]
+    excluded = _excluded(periods, cal)
+    rows: list[dict[str, Any]] = []
+    notes: list[str] = []
+    bar = _progress(len(holdout), progress)
+    try:
+        for y in holdout:
+            train = years < y
+            n_train = int(values[train].notna().sum())
+            if n_train < 2 * p:
+                raise PlanError(
+                    f"{hist.source}: holding out {y} leaves {n_train} periods with values before it; "
+                    f"a fit needs at least {2 * p} (two full years); use fewer --holdout-years")
+            train_hist = History(values=values[train], freq=hist.freq, label=hist.label,
+                                 source=f"{hist.source} (before {y})",
+                                 missing=[m for m in hist.missing if m < periods[train][-1] + 1])
+            res = fit(train_hist, cal, **fit_options)
+            test_mask = years == y
+            test = periods[test_mask]
+            plan = plan_periods(res, test, calendar=cal, new_events="zero", n_sims=0)
+            actual = values[test_mask].to_numpy(dtype=float)
+            scored = np.isfinite(actual) & ~excluded[test_mask]
+            if not scored.all():
+                notes.append(f"{y}: {int((~scored).sum())} of {len(scored)} periods not scored "
+                             "(excluded in the calendar or without a value)")
+            if not scored.any():
+                notes.append(f"{y}: no period to score; skipped")
+                continue
+            a = actual[scored]
+            share = _average_share(res, values[train])
+            pos = season_position(test)
+            s = np.array([share.get(int(k), np.nan) for k in pos], dtype=float)
+            s = np.where(np.isfinite(s), s, 0.0)
+            prev_mask = years == (y - 1)
+            prev = values[prev_mask]
+            prev_ok = prev.notna().to_numpy() & ~excluded[prev_mask]
+            prev_s = np.array([share.get(int(k), 0.0) for k in season_position(prev.index)])
+            covered = float(prev_s[prev_ok].sum())
+            prev_total = float(prev.to_numpy()[prev_ok].sum()) / covered if covered > 0 else float("nan")
+            avg_unspread = prev_total * s / s.sum() if s.sum() > 0 else np.full(len(s), np.nan)
+            naive = _seasonal_naive(values.where(~pd.Series(excluded, index=periods)), test, prev_mask,
+                                    avg_unspread)
+            candidates = {"evcal": plan.table["plan"].to_numpy(dtype=float),
+                          "average_share": avg_unspread, "seasonal_naive": naive}
+            for method in METHODS:
+                raw = candidates[method][scored]
+                for how in ("spread", "unspread"):
+                    f = raw
+                    if how == "spread":
+                        tot = float(np.nansum(raw))
+                        f = raw * (a.sum() / tot) if tot > 0 else np.full(len(raw), np.nan)
+                    rows.append({"year": int(y), "method": method, "spread": how, **score(f, a)})
+            if bar is not None:
+                bar.update(bar.task_ids[0], advance=1, description=str(y))
+    finally:
+        if bar is not None:
+            bar.stop()
+    out = pd.DataFrame(rows, columns=COLUMNS)
+    out["peak_error"] = out["peak_error"].astype(int)
+    out.attrs["notes"] = notes
+    return out
+
+
+def format_table(bt: pd.DataFrame) -> str:
+    """The backtest as a fixed-width text table (WAPE and bias in %)."""
+    lines = [f"{'year':>6}  {'method':<15} {'spread':<9} {'WAPE':>8} {'bias':>8} {'peak':>5}"]
+    for r in bt.itertuples(index=False):
+        lines.append(f"{r.year:>6}  {r.method:<15} {r.spread:<9} {100 * r.wape:>7.1f}% "
+                     f"{100 * r.bias:>+7.1f}% {r.peak_error:>5d}")
+    if len(bt):
+        mean = bt.groupby(["spread", "method"], sort=False)["wape"].mean()
+        lines.append("")
+        lines.append("mean WAPE: " + "; ".join(f"{m} ({s}) {100 * v:.1f}%" for (s, m), v in mean.items()))
+    return "\n".join(lines)

@@ -199,6 +199,99 @@ def show_cmd(model_dir: str = typer.Argument(..., help="Model folder written by 
 
 # ---------------------------------------------------------------- plan, backtest
 
+
+def _check_out(out: str, what: str = "plan") -> None:
+    """Refuse an unknown output type before any work (nothing is written on error)."""
+    from pathlib import Path
+
+    from evcal.errors import PlanError
+
+    if Path(out).suffix.lower() not in (".csv", ".xlsx"):
+        raise PlanError(f"--out {out}: unknown file type; write {what}.csv or {what}.xlsx")
+
+
+@app.command("plan")
+@guarded
+def plan_cmd(
+    model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
+    start: str = typer.Option(..., "--from", help="First day (or year) of the plan, e.g. 2027-01-01."),
+    end: str = typer.Option(..., "--to", help="Last day (or year) of the plan, e.g. 2027-12-31."),
+    out: str = typer.Option(..., "--out", "-o", help="plan.csv or plan.xlsx."),
+    calendar: str | None = typer.Option(
+        None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
+    total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
+    totals: str | None = typer.Option(None, "--totals", help="CSV of year,total targets."),
+    compare_cal: str | None = typer.Option(
+        None, "--compare", help="Second calendar: write both plans side by side."),
+    new_events: str = typer.Option(
+        "error", "--new-events", help="error | zero: events the model never saw."),
+    sims: int = typer.Option(1000, "--sims", help="Simulation draws for low/high (0: none)."),
+    seed: int = typer.Option(0, "--seed", help="Random seed of the simulation."),
+) -> None:
+    """Plan future periods from the base and the scheduled events, optionally spread to a total."""
+    from evcal.fit import load_model
+    from evcal.plan import compare, make_plan
+
+    _check_out(out, "compare" if compare_cal else "plan")
+    result = load_model(model_dir)
+    options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed}
+    if compare_cal:
+        cmp = compare(result, start, end, compare_cal, calendar_a=calendar, **options)
+        cmp.save(out)
+        typer.echo(cmp.plan_a.summary())
+        typer.echo("")
+        typer.echo(cmp.summary())
+        typer.echo(f"\nwrote {out} (date, plan_a, plan_b, difference; last row: totals)")
+        return
+    plan = make_plan(result, start, end, calendar=calendar, **options)
+    plan.save(out)
+    typer.echo(plan.summary())
+    typer.echo(f"\nwrote {out} ({len(plan.table)} periods)")
+
+
+@app.command("backtest")
+@guarded
+def backtest_cmd(
+    history: str = typer.Argument(..., help="History file: CSV, Parquet or .xlsx."),
+    calendar: str = typer.Option(..., "--calendar", "-c", help="Event calendar (YAML)."),
+    out: str = typer.Option(..., "--out", "-o", help="backtest.csv to write."),
+    holdout_years: int = typer.Option(2, "--holdout-years", help="Last full years to hold out, one each."),
+    date_col: str = typer.Option("date", "--date-col", help="Column with the period dates."),
+    value_col: str = typer.Option("value", "--value-col", help="Column with the values."),
+    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly."),
+    transform: str = typer.Option("auto", "--transform", help="auto | log | none | count"),
+    errors: str = typer.Option("auto", "--errors", help="auto | ols | arima"),
+    arima_order: str = typer.Option(None, "--arima-order", help="p,d,q for --errors arima, e.g. 0,1,1"),
+    seasonal: str = typer.Option("auto", "--seasonal", help="auto | dummies | fourier"),
+    fourier_order: int = typer.Option(10, "--fourier-order", help="Harmonics of annual Fourier terms."),
+    trend_order: int = typer.Option(1, "--trend-order", help="0 flat, 1 linear, 2 quadratic."),
+    trading_days: bool = typer.Option(False, "--trading-days", help="Weekday-composition terms (monthly)."),
+    allow_negative: bool = typer.Option(False, "--allow-negative", help="Accept negative values."),
+) -> None:
+    """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
+    from pathlib import Path
+
+    from evcal._files import atomic_path
+    from evcal.errors import PlanError
+    from evcal.plan.backtest import backtest, format_table
+
+    if Path(out).suffix.lower() != ".csv":
+        raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
+    bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
+                  value_col=value_col, freq=freq, transform=transform, errors=errors,
+                  arima_order=_parse_order(arima_order), seasonal=seasonal,
+                  fourier_order=fourier_order, trend_order=trend_order, trading_days=trading_days,
+                  allow_negative=allow_negative)
+    with atomic_path(out) as tmp:
+        bt.to_csv(tmp, index=False, float_format="%.6f")
+    typer.echo(format_table(bt))
+    typer.echo("spread: scaled to each year's actual total (compares the profile); unspread: as planned.")
+    typer.echo("Periods excluded in the calendar, and periods without a value, are not scored.")
+    for note in bt.attrs.get("notes", []):
+        typer.echo(f"note: {note}")
+    typer.echo(f"\nwrote {out} ({len(bt)} rows)")
+
+
 # ---------------------------------------------------------------- report, demo
 
 
@@ -226,6 +319,34 @@ def report_command(
 
 
 # ---------------------------------------------------------------- discover
+
+
+@app.command("discover")
+@guarded
+def discover_cmd(
+    history: str = typer.Argument(..., help="History file: CSV, Parquet or .xlsx."),
+    calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML), if any."),
+    out: str = typer.Option(..., "--out", "-o", help="Output folder for the suggestions."),
+    stockouts: str = typer.Option(None, "--stockouts", help="CSV of stock-outs: start,end[,reason]."),
+    date_col: str = typer.Option("date", "--date-col", help="Column with the period dates."),
+    value_col: str = typer.Option("value", "--value-col", help="Column with the values."),
+    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly."),
+    transform: str = typer.Option("auto", "--transform", help="auto | log | none | count"),
+    errors: str = typer.Option("auto", "--errors", help="auto | ols | arima"),
+    critical: float = typer.Option(None, "--critical", help="Chen-Liu critical |tau| (default by length)."),
+) -> None:
+    """Find cycles, unexplained peaks, dips and breaks, abnormal years and lost demand."""
+    from evcal.discover import discover
+
+    if critical is not None and not 2.0 <= critical <= 10.0:
+        raise EvcalError(f"option --critical: {critical:g} must be between 2 and 10 (3 to 4 is usual)")
+    found = discover(history, calendar, stockouts=stockouts, date_col=date_col, value_col=value_col,
+                     freq=freq, cval=critical, transform=transform, errors=errors)
+    found.save(out)
+    typer.echo(found.summary())
+    extra = [n for n, keep in (("index_effects.csv", not found.index_effects.empty),
+                               ("lost_demand.csv", bool(found.lost))) if keep]
+    typer.echo(f"\nwrote {out}/ (suggestions.csv, suggestions.yaml{''.join(', ' + e for e in extra)})")
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -90,9 +90,8 @@ class Findings:
             lines.append(f"recurring {what}: {r.rule.describe()}, {r.mean_size_pct:+.0f}% on average, "
                          f"seen {len(r.years_seen)} of {len(r.years_available)} years "
                          f"({', '.join(map(str, r.years_seen))})")
-        for a in self.abnormal:
-            lines.append(f"abnormal year {a.year}: residual {a.kind} departs from other years "
-                         f"(modified z {a.z:+.1f})")
+        for row in self.table[self.table["kind"] == "abnormal_year"].itertuples():
+            lines.append(f"abnormal year: {row.suggestion}")
         for lo in self.lost:
             lines.append(
                 f"lost demand {lo.start.date()}..{lo.end.date()} ({lo.reason}): expected "
@@ -259,22 +258,30 @@ def discover(
         rows.append(_recurring_row(r, middle_year))
         entries.append(_recurring_entry(r, middle_year))
 
+    abnormal = abnormal_years(result.residuals)
+    abnormal_set = {a.year for a in abnormal}
     if search is not None:
         for o in search.result.outliers:
             p = periods[o.position]
             pct = size_pct(o.effect, o.position)
             r = in_pattern.get(o.position)
-            rows.append(_outlier_row(o.type, p, periods, pct, abs(o.tau), r))
-            if r is None:
+            row = _outlier_row(o.type, p, periods, pct, abs(o.tau), r)
+            year = int(p.start_time.year)
+            if r is None and year in abnormal_set:
+                # one abnormal year shows up as a run of breaks; the year row says what to do
+                row = Row(row.kind, row.start, row.end, row.size_pct, row.score, None,
+                          f"within abnormal year {year}: see that row")
+            rows.append(row)
+            if r is None and year not in abnormal_set:
                 entries.append(_outlier_entry(o.type, p, pct, abs(o.tau)))
 
-    abnormal = abnormal_years(result.residuals)
     effects = pd.DataFrame()
     if abnormal:
         effects = _index_effects(hist, text, result, abnormal, fit_options) if index_effects else effects
-        for a in abnormal:
-            rows.append(_abnormal_row(a, result.transform, effects))
-            entries += _abnormal_entries(a, result.transform)
+        for year in sorted(abnormal_set):
+            flagged = [a for a in abnormal if a.year == year]
+            rows.append(_abnormal_row(flagged, result.transform, effects))
+            entries += _abnormal_entries(flagged)
 
     lost = _lost_demand(hist, cal, result, x_fit, inp, extra_stockouts)
     for lo in lost:
@@ -443,30 +450,45 @@ def _outlier_entry(kind: str, p: pd.Period, pct: float, score: float) -> Entry:
                   "event (a promotion, a closure), put it under events instead"])
 
 
-def _abnormal_row(a: AbnormalYear, transform: str, effects: pd.DataFrame) -> Row:
-    pct = 100.0 * math.expm1(a.value) if transform != "none" else float("nan")
-    size = round(pct, 2) if a.kind == "level" and np.isfinite(pct) else None
-    what = (f"sits {pct:+.1f}% off the model" if a.kind == "level" and np.isfinite(pct)
-            else f"residual {a.kind} {a.value:.3g}")
-    text = f"{a.year} {what} (modified z {a.z:+.1f}): exclude the year"
-    if a.kind == "level":
+def _abnormal_row(flagged: list[AbnormalYear], transform: str, effects: pd.DataFrame) -> Row:
+    """One row per abnormal year (flagged on level, spread or both)."""
+    year = flagged[0].year
+    level = next((a for a in flagged if a.kind == "level"), None)
+    parts = []
+    size = None
+    if level is not None and transform != "none":
+        size = round(100.0 * math.expm1(level.value), 2)
+        parts.append(f"sits {size:+.1f}% off the model (modified z {level.z:+.1f})")
+    elif level is not None:
+        parts.append(f"sits {level.value:+.3g} units off the model (modified z {level.z:+.1f})")
+    spread = next((a for a in flagged if a.kind == "spread"), None)
+    if spread is not None:
+        parts.append(f"is erratic (mean absolute residual {spread.value:.3g}, modified z {spread.z:+.1f})")
+    text = f"{year} " + " and ".join(parts) + ": exclude the year"
+    if level is not None:
         text += " or add a pulse over it"
-    excl, pulse = f"excluded {a.year}", f"pulse {a.year}"
+    excl, pulse = f"excluded {year}", f"pulse {year}"
     if excl in effects.columns:
         shift = (effects[excl] - effects["index"]).abs().max()
         text += f"; excluding it moves the seasonal index by up to {shift:.1f} points"
     if pulse in effects.columns:
         shift = (effects[pulse] - effects["index"]).abs().max()
         text += f", a pulse by up to {shift:.1f}"
-    return Row("abnormal_year", a.start.date(), a.end.date(), size, round(abs(a.z), 2), None, text)
+    score = max(abs(a.z) for a in flagged)
+    return Row("abnormal_year", flagged[0].start.date(), flagged[0].end.date(), size,
+               round(score, 2), None, text)
 
 
-def _abnormal_entries(a: AbnormalYear, transform: str) -> list[Entry]:
-    seen = f"{a.year}: residual {a.kind} departs from the other years (modified z {a.z:+.1f})"
+def _abnormal_entries(flagged: list[AbnormalYear]) -> list[Entry]:
+    a = flagged[0]
+    seen = (f"{a.year}: residual {' and '.join(x.kind for x in flagged)} departs from the other "
+            f"years (modified z {', '.join(f'{x.z:+.1f}' for x in flagged)})")
+    level = any(x.kind == "level" for x in flagged)
     out = [Entry("exclude", {"start": a.start.date(), "end": a.end.date(),
-                             "reason": f"abnormal year {a.year}"}, [seen, "choose one: this exclusion "
-                             "or the pulse under interventions"])]
-    if a.kind == "level":
+                             "reason": f"abnormal year {a.year}"},
+                 [seen] + (["choose one: this exclusion or the pulse under interventions"]
+                           if level else []))]
+    if level:
         out.append(Entry("interventions", {"name": f"year-{a.year}", "type": "pulse",
                                            "start": a.start.date(), "end": a.end.date()},
                          [f"{seen}; alternative to excluding it"], active=False))

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import base64
 import io
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 
 import matplotlib
 
@@ -139,7 +139,7 @@ def history_chart(
     _date_axis(ax)
     ax.yaxis.set_major_formatter(_units_formatter())
     ax.set_ylabel("units", color=pal.MUTED, fontsize=9)
-    _legend(ax, loc="upper left", ncols=4)
+    _legend(ax, loc="lower left", bbox_to_anchor=(0.0, 1.0), ncols=4)
     return fig
 
 
@@ -173,9 +173,21 @@ def index_chart(profile: pd.DataFrame, freq: str | None = None) -> Figure:
 # ---------------------------------------------------------------- lifts
 
 
-def lifts_chart(lifts: pd.DataFrame, colours: Mapping[str, str]) -> Figure | None:
-    """Each identifiable lift as a point with its 95 % interval; None when there is none."""
-    rows = lifts[lifts["identifiable"] & lifts["lift_pct"].notna()]
+def lifts_chart(
+    lifts: pd.DataFrame,
+    colours: Mapping[str, str],
+    closures: Iterable[str] = (),
+    assumed: Iterable[str] = (),
+) -> Figure | None:
+    """Each identifiable lift as a point with its 95 % interval; None when there is none.
+
+    Closures (known zero days, always −100 %) are left out: they are not
+    estimates and would squash the scale. Assumed lifts (set in the calendar,
+    not learned) are drawn hollow and say so.
+    """
+    closed = set(closures)
+    assumed_set = set(assumed)
+    rows = lifts[lifts["identifiable"] & lifts["lift_pct"].notna() & ~lifts["event"].isin(closed)]
     if rows.empty:
         return None
     rows = rows.iloc[::-1]  # first row at the top
@@ -189,7 +201,16 @@ def lifts_chart(lifts: pd.DataFrame, colours: Mapping[str, str]) -> Figure | Non
         if pd.notna(lo) and pd.notna(hi):
             ax.hlines(yi, lo, hi, color=colour, linewidth=3.2, alpha=0.45)
         marker = "D" if r["kind"] == "intervention" else "o"
-        ax.plot([r["lift_pct"]], [yi], marker=marker, color=colour, markersize=7)
+        face = "white" if r["event"] in assumed_set else colour
+        ax.plot(
+            [r["lift_pct"]],
+            [yi],
+            marker=marker,
+            color=colour,
+            markerfacecolor=face,
+            markeredgewidth=1.6,
+            markersize=7,
+        )
         right = hi if pd.notna(hi) else r["lift_pct"]
         ax.annotate(
             f"{r['lift_pct']:+.1f} %",
@@ -201,10 +222,13 @@ def lifts_chart(lifts: pd.DataFrame, colours: Mapping[str, str]) -> Figure | Non
             color=pal.INK,
         )
     ax.axvline(0.0, color=pal.INK, linewidth=1.0)
-    labels = [
-        plain(r["label"]) + (" (intervention)" if r["kind"] == "intervention" else "")
-        for _, r in rows.iterrows()
-    ]
+
+    def suffix(r: pd.Series) -> str:
+        if r["event"] in assumed_set:
+            return " (assumed)"
+        return " (intervention)" if r["kind"] == "intervention" else ""
+
+    labels = [plain(r["label"], 46 - len(suffix(r))) + suffix(r) for _, r in rows.iterrows()]
     ax.set_yticks(y, labels)
     ax.set_ylim(-0.7, len(rows) - 0.3)
     lo_all = np.nanmin(np.r_[rows["low_pct"].to_numpy(float), rows["lift_pct"].to_numpy(float), 0])

@@ -177,12 +177,12 @@ class _Context:
                 self.labels[name] = str(item.get("label") or name)
         self.closures = {
             str(e.get("name")) for e in events_json if str(e.get("effect", "")).lower() == "zero"
-        }
-        self.assumed = {
-            str(e.get("name")): e.get("effect")
-            for e in events_json
-            if isinstance(e.get("effect"), dict) and ({"assume", "like"} & set(e["effect"]))
-        }
+        } | {str(n) for n in self.model.get("closure_events", []) or []}
+        self.assumed: dict[str, str] = {}
+        for e in events_json:
+            text = _assumption_text(e.get("effect"))
+            if text:
+                self.assumed[str(e.get("name"))] = text
         names = list(folder.lifts["event"])
         if folder.plan is not None:
             names += lift_columns(folder.plan)
@@ -203,6 +203,35 @@ class _CalendarInput:
     name: str | None = None
     closures: frozenset[str] = frozenset()
     labels: dict[str, str] = field(default_factory=dict)
+
+
+def _assumption_text(effect: object) -> str:
+    """How an event's lift was set without history, or "" when it was estimated.
+
+    ``model.json`` may hold the calendar's effect as a mapping (``{"assume": "15%"}``,
+    ``{"like": "spring-sale"}``) or as text (``"assume +20%"``, ``"like spring-sale"``).
+
+    Examples
+    --------
+    >>> _assumption_text({"assume": "15%"})
+    'lift assumed at 15% in the calendar file'
+    >>> _assumption_text("like spring-sale")
+    'lift borrowed from spring-sale'
+    >>> _assumption_text("estimate")
+    ''
+    """
+    if isinstance(effect, Mapping):
+        if "assume" in effect:
+            return f"lift assumed at {effect['assume']} in the calendar file"
+        if "like" in effect:
+            return f"lift borrowed from {effect['like']}"
+        return ""
+    words = str(effect or "").strip().split(None, 1)
+    if len(words) == 2 and words[0].lower() == "assume":
+        return f"lift assumed at {words[1]} in the calendar file"
+    if len(words) == 2 and words[0].lower() == "like":
+        return f"lift borrowed from {words[1]}"
+    return ""
 
 
 def _calendar_weights(calendar: Any, folder: ModelFolder) -> _CalendarInput:
@@ -432,11 +461,18 @@ def _lifts_section(ctx: _Context) -> Safe:
     lifts = ctx.folder.lifts
     if lifts.empty:
         return _p("lifts.csv has no rows: the calendar had no events to fit.", "muted")
-    fig = charts.lifts_chart(lifts, ctx.colours)
+    fig = charts.lifts_chart(lifts, ctx.colours, closures=ctx.closures, assumed=ctx.assumed)
     rows = []
     row_cls = []
     for _, r in lifts.iterrows():
-        if r["identifiable"] and pd.notna(r["lift_pct"]):
+        kind = r["kind"]
+        if r["event"] in ctx.closures:
+            kind = "closure"
+        elif r["event"] in ctx.assumed:
+            kind = "assumed"
+        if r["event"] in ctx.closures:
+            lift, interval, units = "closed (zero)", "–", _num(r["units_per_occurrence"])
+        elif r["identifiable"] and pd.notna(r["lift_pct"]):
             lift, interval = _pct(r["lift_pct"]), f"{_pct(r['low_pct'])} to {_pct(r['high_pct'])}"
             units = _num(r["units_per_occurrence"])
         else:
@@ -445,7 +481,7 @@ def _lifts_section(ctx: _Context) -> Safe:
             [
                 r["label"],
                 r["event"],
-                r["kind"],
+                kind,
                 lift,
                 interval,
                 units,
@@ -469,8 +505,27 @@ def _lifts_section(ctx: _Context) -> Safe:
         listed = Safe(
             f'<div class="callout"><p>Not estimated (no bar in the chart):</p><ul>{items}</ul></div>'
         )
+    closed = lifts[lifts["event"].isin(ctx.closures)]
+    if not closed.empty:
+        names = ", ".join(str(x) for x in closed["label"])
+        listed = Safe(
+            listed
+            + _p(
+                f"Closures are known zero days, not estimates, so they have no bar: {names}.",
+                "muted",
+            )
+        )
     table = _table(
-        ["event", "name", "kind", "lift", "95 % interval", "units / occurrence", "identifiable", "note"],
+        [
+            "event",
+            "name in files",
+            "kind",
+            "lift",
+            "95 % interval",
+            "units / occurrence",
+            "identifiable",
+            "note",
+        ],
         rows,
         numeric=(3, 4, 5),
         row_classes=row_cls,
@@ -518,10 +573,8 @@ def _past_section(ctx: _Context) -> Safe:
                 row.append("–")
                 continue
             n = count.loc[event, y]
-            cell = f"{_num(u)} ({_pct(pct.loc[event, y])})"
-            if pd.notna(n) and n > 1:
-                cell += f" ×{int(n)}"
-            row.append(cell)
+            extra = f" ×{int(n)}" if pd.notna(n) and n > 1 else ""
+            row.append(Safe(f"{esc(_num(u))}<br><small>{esc(_pct(pct.loc[event, y]) + extra)}</small>"))
         rows.append(row)
     total = ["all events"] + [_num(units[y].sum()) for y in years]
     rows.append(total)
@@ -531,24 +584,30 @@ def _past_section(ctx: _Context) -> Safe:
         numeric=range(1, len(years) + 1),
         row_classes=[""] * (len(rows) - 1) + ["total"],
     )
-    detail_rows = [
-        [
+    has_interval = {"low_units", "high_units"} <= set(occ.columns)
+    detail_rows = []
+    for _, r in occ.iterrows():
+        row = [
             ctx.label(r["event"]),
             f"{r['start']:%Y-%m-%d}",
             f"{r['end']:%Y-%m-%d}" if pd.notna(r["end"]) else "–",
             _num(r["added_units"]),
-            _pct(r["added_pct"]),
         ]
-        for _, r in occ.iterrows()
-    ]
+        if has_interval:
+            row.append(f"{_num(r['low_units'])} to {_num(r['high_units'])}")
+        row.append(_pct(r["added_pct"]))
+        detail_rows.append(row)
+    headers = ["event", "start", "end", "added units"]
+    headers += ["95 % interval (units)"] if has_interval else []
+    headers += ["added %"]
     details = Safe(
         f"<details><summary>Every past occurrence ({len(occ)})</summary>"
-        + _table(["event", "start", "end", "added units", "added %"], detail_rows, numeric=(3, 4))
+        + _table(headers, detail_rows, numeric=range(3, len(headers)))
         + "</details>"
     )
     intro = _p(
-        "Units each event added in each year of the history (its % over the base of the "
-        "periods it touched in brackets; ×n when it happened several times that year). "
+        "Units each event added in each year of the history (below: its % over the base of the "
+        "periods it touched; ×n when it happened several times that year). "
         "Negative numbers are units an event took away."
     )
     return Safe(intro + _figure(fig, "Stacked bars of units each event added per year") + table + details)
@@ -793,13 +852,8 @@ def _notes_section(ctx: _Context) -> Safe:
             + "</ul>"
         )
     assumption_items = []
-    for name, effect in ctx.assumed.items():
-        if "assume" in effect:
-            assumption_items.append(
-                f"{ctx.label(name)} ({name}): lift assumed at {effect['assume']} in the calendar file"
-            )
-        else:
-            assumption_items.append(f"{ctx.label(name)} ({name}): lift borrowed from {effect['like']}")
+    for name, text in ctx.assumed.items():
+        assumption_items.append(f"{ctx.label(name)} ({name}): {text}")
     plan = ctx.folder.plan
     if plan is not None and "assumptions" in plan.columns:
         marked = plan[plan["assumptions"].str.strip() != ""]
@@ -870,7 +924,9 @@ figcaption {{ font-size:12.5px; color:var(--muted); }}
 .tablewrap {{ overflow-x:auto; margin:8px 0 12px; }}
 table {{ border-collapse:collapse; font-size:13.5px; min-width:50%; }}
 th, td {{ padding:5px 10px; border-bottom:1px solid var(--grid); text-align:left; vertical-align:top; }}
-td {{ overflow-wrap:anywhere; }}
+td {{ overflow-wrap:break-word; }}
+td:first-child {{ min-width:11em; }}
+td small {{ color:var(--muted); font-size:12px; }}
 th {{ background:#f1f4f1; font-weight:600; }}
 td.n, th.n {{ text-align:right; font-variant-numeric:tabular-nums; white-space:nowrap; }}
 tr.unident td {{ color:var(--muted); font-style:italic; }}

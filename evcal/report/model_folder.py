@@ -130,8 +130,12 @@ def read_model_folder(
 
     fitted = frames["fitted.csv"]
     fitted["date"] = _dates(fitted["date"], folder / "fitted.csv", "date", problems)
-    for col in fitted.columns.drop("date"):
+    for col in ("actual", "fitted", "base"):
         fitted[col] = _numbers(fitted[col], folder / "fitted.csv", col, problems)
+    for col in fitted.columns.drop(["date", "actual", "fitted", "base"]):
+        fitted[col] = _extra_column(fitted[col], folder / "fitted.csv", col, problems)
+    for col in occ.columns.drop(list(MODEL_FILES["occurrences.csv"])):
+        occ[col] = _extra_column(occ[col], folder / "occurrences.csv", col, problems)
 
     plan = None
     if plan_csv is not None:
@@ -258,6 +262,18 @@ def _numbers(values: pd.Series, path: Path, col: str, problems: list[str]) -> pd
     for i in list(np.flatnonzero(bad.to_numpy()))[:3]:
         problems.append(f"{path}: line {i + 2}: column {col}: {values.iloc[i]!r} is not a number")
     return as_num.astype(float)
+
+
+def _extra_column(values: pd.Series, path: Path, col: str, problems: list[str]) -> pd.Series:
+    """A column beyond the contract: true/false flags stay flags, other columns are numbers.
+
+    The fit may add columns (e.g. a flag for periods inside the fit); an event
+    or intervention contribution must be a number.
+    """
+    text = values.dropna().astype(str).str.strip().str.lower()
+    if len(text) and text.isin(["true", "false"]).all():
+        return values.astype(str).str.strip().str.lower().eq("true")
+    return _numbers(values, path, col, problems)
 
 
 def _dates(values: pd.Series, path: Path, col: str, problems: list[str]) -> pd.Series:

@@ -273,7 +273,7 @@ def backtest_cmd(
 
     from evcal._files import atomic_path
     from evcal.errors import PlanError
-    from evcal.plan.backtest import backtest, format_table
+    from evcal.plan.backtesting import backtest, format_table
 
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")

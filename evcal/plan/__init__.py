@@ -11,22 +11,9 @@ Examples
 
 from __future__ import annotations
 
-from typing import Any
-
+from evcal.plan.backtesting import backtest
 from evcal.plan.build import make_plan, plan_periods
 from evcal.plan.result import Plan
+from evcal.plan.scenarios import Comparison, compare
 
 __all__ = ["make_plan", "plan_periods", "Plan", "compare", "Comparison", "backtest"]
-
-
-def __getattr__(name: str) -> Any:
-    # scenarios and the backtest pull in the fit step; imported when first used
-    if name in ("compare", "Comparison"):
-        from evcal.plan import compare as _compare
-
-        return getattr(_compare, name)
-    if name == "backtest":
-        from evcal.plan.backtest import backtest
-
-        return backtest
-    raise AttributeError(f"module 'evcal.plan' has no attribute {name!r}")

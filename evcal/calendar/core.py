@@ -38,6 +38,8 @@ class Calendar:
         File events in file order, then one event per public holiday name.
     interventions : list of InterventionSpec
     exclusions : list of ExclusionSpec
+    text : str
+        The YAML text the calendar was read from.
 
     Examples
     --------
@@ -53,6 +55,7 @@ class Calendar:
     interventions: list[InterventionSpec] = field(default_factory=list)
     exclusions: list[ExclusionSpec] = field(default_factory=list)
     public_holidays: PublicHolidays | None = None
+    text: str = field(default="", repr=False)  # the YAML as read, e.g. to keep with a model
 
     # ------------------------------------------------------------ look-up
 

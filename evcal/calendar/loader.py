@@ -40,7 +40,6 @@ from evcal.calendar.spec import (
     ExclusionSpec,
     InterventionSpec,
     MovedSpec,
-    YearsSpec,
 )
 from evcal.calendar.yamlread import Lines, Problem, read_yaml
 from evcal.errors import CalendarError
@@ -87,6 +86,7 @@ def load_calendar(path_or_text: str | Path) -> Calendar:
     if builder.problems:
         raise CalendarError([p.format(source) for p in sorted(builder.problems, key=_order)])
     assert cal is not None
+    cal.text = text
     return cal
 
 
@@ -126,9 +126,6 @@ def _read_source(path_or_text: str | Path) -> tuple[str, str]:
 
 
 # ------------------------------------------------------------------ pydantic errors -> lines
-
-_PATH_WORD = re.compile(r"^[A-Za-z_][A-Za-z0-9_-]*$")
-
 
 def _valid_keys(model: type[BaseModel]) -> list[str]:
     return list(model.model_fields)
@@ -597,4 +594,4 @@ def _years_text(spec: EventSpec) -> str:
     return text
 
 
-__all__ = ["load_calendar", "YearsSpec"]
+__all__ = ["load_calendar"]

@@ -97,7 +97,7 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
             f"{e.length} day{'s' if e.length > 1 else ''}" if not listed or e.length > 1
             else "1 day")
         if e.before or e.after:
-            window += f" (+{e.before} before, +{e.after} after)"
+            window += f" ({e.before} days before, {e.after} after)"
         years = "" if e.years.kind == "all" else f", years {e.years.describe()}"
         extra = "".join(
             [

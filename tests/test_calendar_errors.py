@@ -179,6 +179,16 @@ CASES: list[tuple[str, str, list[tuple[int, str, str]]]] = [
         ],
     ),
     (
+        "event-not-a-mapping",
+        "name: t\nevents:\n  - spring-weekend\n",
+        [(3, "events[#1]", "expected a block of `key: value` lines")],
+    ),
+    (
+        "events-not-a-list",
+        "name: t\nevents: spring-weekend\n",
+        [(2, "events", "expected a list")],
+    ),
+    (
         "duplicate-key",
         "name: t\nname: u\n",
         [(2, "name", "appears twice")],
@@ -251,3 +261,21 @@ def test_dates_with_bad_years(tmp_path: Path) -> None:
                                  "2024"])
     assert result.exit_code == 2
     assert "--to 2024 is before --from 2026" in result.stderr
+
+
+def test_real_process_prints_no_traceback(tmp_path: Path) -> None:
+    import subprocess
+    import sys
+
+    path = tmp_path / "bad.yaml"
+    path.write_text("name: t\nevents:\n  - {name: a, when: {fixed: '02-30'}}\n")
+    proc = subprocess.run(
+        [sys.executable, "-m", "evcal.cli", "calendar", "check", str(path)],
+        capture_output=True, text=True, timeout=120,
+    )
+    assert proc.returncode == 2
+    assert proc.stdout == ""
+    assert proc.stderr.splitlines() == [
+        f"error: {path}:3: events[a].when.fixed: \"02-30\" is not a day of the year "
+        "(February has at most 29 days); write a real \"MM-DD\""
+    ]

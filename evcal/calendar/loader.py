@@ -192,9 +192,11 @@ def _describe(err: dict[str, Any], model: type[BaseModel], loc: tuple[Any, ...])
     if kind in ("string_type",):
         return f"{value!r} is not text; write text (put it in quotes if it looks like a number)"
     if kind in ("model_type", "dict_type", "model_attributes_type"):
-        return f"expected a block of `key: value` lines here, got {value!r}"
+        return f"expected a block of `key: value` lines here, got {value!r}; write the keys " \
+            "one per line under it (or {key: value, ...})"
     if kind in ("list_type", "tuple_type"):
-        return f"expected a list (items starting with '- ', or [a, b]), got {value!r}"
+        return f"expected a list, got {value!r}; write one item per line starting with '- '" \
+            ", or [a, b]"
     if kind in ("greater_than_equal", "greater_than", "less_than_equal", "less_than"):
         bound = {
             "greater_than_equal": f"at least {ctx.get('ge')}",

@@ -44,6 +44,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 import statsmodels.api as sm
+from scipy.signal import lfilter
 
 __all__ = [
     "Outlier",
@@ -164,6 +165,7 @@ def detection_statistics(
     delta: float = TC_DELTA,
     positions: np.ndarray | None = None,
     exog: np.ndarray | None = None,
+    basis: np.ndarray | None = None,
     chunk: int = 256,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Detection-stage effects and tau statistics of one type at many dates.
@@ -186,6 +188,9 @@ def detection_statistics(
         ``w`` equals the coefficient of ``x`` in the OLS of ``y`` on ``[X, x]``
         (Frisch–Waugh–Lovell). Without it a level shift in a model with a
         trend is half absorbed by the trend before it is tested.
+    basis : array, optional
+        An orthonormal basis of ``exog`` on the observed rows (computed from
+        ``exog`` when not given; passed in to avoid repeating the QR).
 
     Returns
     -------
@@ -198,30 +203,71 @@ def detection_statistics(
     sigma = robust_sigma(e) if sigma is None else sigma
     if positions is None:
         positions = _candidates(kind, n, ok)
+    positions = np.asarray(positions, dtype=int)
     e0 = np.where(ok, e, 0.0)
-    basis = None
-    if exog is not None:
-        xo = np.where(ok[:, None], np.nan_to_num(np.asarray(exog, dtype=float)), 0.0)
-        q, r = np.linalg.qr(xo)
-        basis = q[:, np.abs(np.diag(r)) > 1e-10 * max(1.0, np.abs(r).max())]
-    effects = np.zeros(len(positions))
-    taus = np.zeros(len(positions))
-    for lo in range(0, len(positions), chunk):
-        block = positions[lo : lo + chunk]
-        xi = np.column_stack([outlier_pattern(kind, int(t0), n, delta) for t0 in block])
-        x = _ar_filter(xi, phi)
-        x = np.where(ok[:, None], np.nan_to_num(x), 0.0)
-        if basis is not None:
-            x = x - basis @ (basis.T @ x)
-        ss = (x * x).sum(axis=0)
-        ss = np.where(ss > 1e-12, ss, 0.0)  # a pattern the regressors already span
-        num = x.T @ e0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            w = np.where(ss > 0, num / ss, 0.0)
-            tau = np.where(ss > 0, w * np.sqrt(ss) / sigma, 0.0) if sigma > 0 else np.zeros_like(w)
-        effects[lo : lo + chunk] = w
-        taus[lo : lo + chunk] = tau
+    basis = _basis(exog, ok) if basis is None else basis
+    if len(phi) == 0:
+        num, ss = _white_noise_sums(kind, e0, ok, basis, delta)
+        num, ss = num[positions], ss[positions]
+    else:
+        num = np.zeros(len(positions))
+        ss = np.zeros(len(positions))
+        for lo in range(0, len(positions), chunk):
+            block = positions[lo : lo + chunk]
+            xi = np.column_stack([outlier_pattern(kind, int(t0), n, delta) for t0 in block])
+            x = _ar_filter(xi, phi)
+            x = np.where(ok[:, None], np.nan_to_num(x), 0.0)
+            if basis is not None:
+                x = x - basis @ (basis.T @ x)
+            ss[lo : lo + chunk] = (x * x).sum(axis=0)
+            num[lo : lo + chunk] = x.T @ e0
+    ss = np.where(ss > 1e-12, ss, 0.0)  # a pattern the regressors already span
+    with np.errstate(divide="ignore", invalid="ignore"):
+        effects = np.where(ss > 0, num / ss, 0.0)
+        scale = np.sqrt(ss) / sigma if sigma > 0 else np.zeros_like(ss)
+        taus = np.where(ss > 0, effects * scale, 0.0)
     return positions, effects, taus
+
+
+def _basis(exog: np.ndarray | None, ok: np.ndarray) -> np.ndarray | None:
+    """Orthonormal basis (QR) of the regressors on the observed rows; zero elsewhere."""
+    if exog is None:
+        return None
+    xo = np.where(ok[:, None], np.nan_to_num(np.asarray(exog, dtype=float)), 0.0)
+    q, r = np.linalg.qr(xo)
+    return q[:, np.abs(np.diag(r)) > 1e-10 * max(1.0, np.abs(r).max())]
+
+
+def _suffix_filter(a: np.ndarray, decay: float) -> np.ndarray:
+    """``out[t] = sum_{s >= t} decay^(s-t) a[s]`` along axis 0 (decay 1: suffix sums)."""
+    return lfilter([1.0], [1.0, -decay], a[::-1], axis=0)[::-1]
+
+
+def _white_noise_sums(
+    kind: str, e0: np.ndarray, ok: np.ndarray, basis: np.ndarray | None, delta: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """``x*.e`` and ``x*.x*`` at every date at once, for white-noise errors.
+
+    With ``x* = (I - Q Q') x``: ``x*.e = x.e - (Q'x).(Q'e)`` and
+    ``x*.x* = x.x - |Q'x|^2``; for the three patterns ``x.e``, ``x.x`` and
+    ``Q'x`` are suffix sums (LS) or decaying suffix sums (TC) of ``e``, the
+    observed-row indicator and the rows of ``Q``, so no pattern is built.
+    """
+    w = ok.astype(float)
+    if kind == "AO":
+        xe, xx, qx = e0, w, basis
+    elif kind == "LS":
+        xe, xx = _suffix_filter(e0, 1.0), _suffix_filter(w, 1.0)
+        qx = None if basis is None else _suffix_filter(basis, 1.0)
+    elif kind == "TC":
+        xe, xx = _suffix_filter(e0, delta), _suffix_filter(w, delta * delta)
+        qx = None if basis is None else _suffix_filter(basis, delta)
+    else:
+        raise ValueError(f"unknown outlier type {kind!r}; use one of {', '.join(TYPES)}")
+    if basis is None:
+        return xe, xx
+    qe = basis.T @ e0
+    return xe - qx @ qe, xx - (qx * qx).sum(axis=1)
 
 
 def _fit_ar(u: np.ndarray, p: int) -> np.ndarray:
@@ -389,6 +435,7 @@ def _detect(
     n = len(e)
     new: list[tuple[str, int]] = []
     ok = np.isfinite(e)
+    basis = _basis(exog, ok)
     while len(new) < room:
         best: tuple[float, str, int, float] | None = None
         for kind in types:
@@ -396,17 +443,16 @@ def _detect(
             if len(pos) == 0:
                 continue
             pos, w, tau = detection_statistics(e, kind, phi=phi, sigma=sigma, delta=delta,
-                                               positions=pos, exog=exog)
+                                               positions=pos, basis=basis)
             i = int(np.argmax(np.abs(tau)))
             if best is None or abs(tau[i]) > abs(best[0]):
                 best = (float(tau[i]), kind, int(pos[i]), float(w[i]))
         if best is None or abs(best[0]) < cval:
             break
         _, kind, t0, w = best
-        xf = np.nan_to_num(_ar_filter(outlier_pattern(kind, t0, n, delta), phi))
-        if exog is not None:
-            xo = np.where(ok[:, None], np.nan_to_num(exog), 0.0)
-            xf = xf - xo @ np.linalg.lstsq(xo, np.where(ok, xf, 0.0), rcond=None)[0]
+        xf = np.where(ok, np.nan_to_num(_ar_filter(outlier_pattern(kind, t0, n, delta), phi)), 0.0)
+        if basis is not None:
+            xf = xf - basis @ (basis.T @ xf)
         e = e - w * np.where(ok, xf, 0.0)
         new.append((kind, t0))
         taken = taken | {t0}

@@ -108,7 +108,8 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
         )
         lines.append(
             f"  {e.name}: {e.when.describe()}, {window}, {e.shape}{years}{extra}, "
-            f"effect {e.effect.describe()}; {n} occurrences in {first_year}-{last_year}"
+            f"effect {e.effect.describe()}; {n} occurrence{'' if n == 1 else 's'} in "
+            f"{first_year}-{last_year}"
         )
     rules = sorted({e.rule for e in events})
     lines.append(f"rules used: {', '.join(rules) if rules else 'none'}")

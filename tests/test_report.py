@@ -21,6 +21,7 @@ from evcal.cli import app
 from evcal.errors import ModelError
 from evcal.report import write_report
 from evcal.report.calendar_view import calendar_view, event_of_column, weights_from_plan
+from evcal.report.headlines import average_share_plan, headlines
 from evcal.report.html import added_by_year, ratio_as_percent
 from evcal.report.model_folder import read_model_folder
 
@@ -533,3 +534,56 @@ def test_other_frequencies(tmp_path: Path, freq: str, periods: int, cycle: int, 
     # the peak card names the planned peak period in that frequency's words
     assert f'<p class="v">{label.format(d=paths["peak"])}</p>' in page
     assert page.count('class="cal-month"') >= 3
+
+
+# ---------------------------------------------------------------- headlines
+
+
+def test_average_share_plan_by_hand() -> None:
+    # Worked by hand: 2027 total 300 spread 0.2/0.3/0.5 -> 60/90/150; 2028's one month keeps its 40.
+    plan = pd.DataFrame(
+        {
+            "date": pd.to_datetime(["2027-01-01", "2027-02-01", "2027-03-01", "2028-01-01"]),
+            "plan": [100.0, 100.0, 100.0, 40.0],
+        }
+    )
+    got = average_share_plan(plan, "MS", {"1": 0.2, "2": 0.3, "3": 0.5})
+    assert got.tolist() == pytest.approx([60.0, 90.0, 150.0, 40.0])
+    assert np.isnan(average_share_plan(plan, "MS", {})).all()
+
+
+def test_headlines_by_hand(tmp_path: Path) -> None:
+    paths = write_minimal_model(tmp_path / "m", "MS", 48, 12)
+    model = json.loads((paths["model"] / "model.json").read_text())
+    model["average_share"] = {str(m): 1 / 12 for m in range(1, 13)}
+    (paths["model"] / "model.json").write_text(json.dumps(model))
+    plan = pd.DataFrame(
+        {
+            "date": pd.date_range("2027-01-01", periods=12, freq="MS").strftime("%Y-%m-%d"),
+            "base": 100.0,
+            "plan": 100.0,
+            "low": 90.0,
+            "high": 110.0,
+            "lift:fair": 0.0,
+        }
+    )
+    plan.loc[2, ["plan", "low", "high", "lift:fair"]] = [400.0, 350.0, 450.0, 300.0]
+    plan.to_csv(paths["plan"], index=False)
+    lines = headlines(read_model_folder(paths["model"], plan_csv=paths["plan"]))
+    # By hand: total 1,500, uniform shares give 125 a month; March is +275, the rest −25 each,
+    # so (275 + 11 × 25) / 2 = 275 units (18.3 % of 1,500) sit in other periods.
+    assert lines == [
+        "fair adds the most: about 80 units each time, +12.0 % over base (95 % interval +8.0 % to +16.0 %).",
+        "The plan's peak lands in Mar 2027: 400 units (low 350, high 450).",
+        "Against an average-share profile spread to the same total, 275 units (18.3 % of the total) "
+        "sit in different periods; the biggest change is Mar 2027: +275 units (+220.0 %).",
+    ]
+    page = write_report(paths["model"], tmp_path / "r.html", plan_csv=paths["plan"]).read_text()
+    assert "275 units move" in page and "Where the plan departs from an average-share profile" in page
+
+
+def test_headlines_skip_closures_and_assumed(invented: dict) -> None:
+    lines = headlines(read_model_folder(invented["model"], plan_csv=invented["plan"]))
+    assert lines[0].startswith("Spring holiday weekend adds the most: about 410 units each time")
+    assert lines[1].startswith("The plan's peak lands in the week to 5 Apr 2026: ")
+    assert len(lines) == 2  # the invented model.json has no average-share profile

@@ -279,8 +279,12 @@ def plan_chart(
     labels: Mapping[str, str],
     colours: Mapping[str, str],
     freq: str | None = None,
+    compare: np.ndarray | None = None,
 ) -> Figure:
     """Base with each event's contribution stacked on it, the plan and its low/high interval.
+
+    ``compare`` (optional) is the same total spread by the average-share
+    profile, drawn dashed so the reader sees where the plan departs from it.
 
     Events that take units away (closures, negative lifts) are drawn hatched,
     stacked down from the top of the base.
@@ -329,6 +333,15 @@ def plan_chart(
     for edge in (low, high):
         ax.step(x, edge, where="mid", color="#a8862c", linewidth=0.7, alpha=0.9)
     ax.plot(x, plan["plan"].to_numpy(dtype=float), color=pal.INK, linewidth=1.3, label="plan")
+    if compare is not None and np.isfinite(compare).any():
+        ax.plot(
+            x,
+            compare,
+            color=pal.FITTED,
+            linewidth=1.2,
+            linestyle=(0, (4, 2)),
+            label="average-share profile, same total",
+        )
     if "assumptions" in plan.columns:
         mask = (plan["assumptions"].fillna("").astype(str).str.strip() != "").to_numpy()
         if mask.any():
@@ -346,7 +359,8 @@ def plan_chart(
     ax.set_ylabel("units", color=pal.MUTED, fontsize=9)
     ax.set_ylim(bottom=0)
     handles, names = ax.get_legend_handles_labels()
-    first = [i for i, n in enumerate(names) if n in ("plan", "low–high interval")]
+    lead = ("plan", "low–high interval", "average-share profile, same total")
+    first = [i for i, n in enumerate(names) if n in lead]
     order = first + [i for i in range(len(names)) if i not in first]
     leg = ax.legend(
         [handles[i] for i in order],

@@ -32,6 +32,7 @@ from evcal.report import charts
 from evcal.report import palette as pal
 from evcal.report.calendar_view import calendar_view, fold_weights, weights_from_plan
 from evcal.report.common import CAUTION, readable
+from evcal.report.headlines import average_share_plan, biggest_event
 from evcal.report.model_folder import ModelFolder, lift_columns, read_model_folder
 from evcal.report.periods import cycle_name, kind_of, period_days, period_label
 
@@ -283,6 +284,10 @@ def _num(x: object, digits: int = 0) -> str:
     return f"{v:,.{digits}f}".replace("-", "−")
 
 
+def _signed(x: float) -> str:
+    return f"{x:+,.0f}".replace("-", "−") if math.isfinite(x) else "–"
+
+
 def _sig(x: object, digits: int = 4) -> str:
     try:
         v = float(x)  # type: ignore[arg-type]
@@ -361,16 +366,14 @@ def _subtitle(ctx: _Context) -> Safe:
 
 def _glance(ctx: _Context) -> Safe:
     cards: list[tuple[str, str, str]] = []
-    ev = ctx.folder.lifts
-    ev = ev[(ev["kind"] == "event") & ev["identifiable"] & ev["lift_pct"].notna()]
-    if not ev.empty:
-        top = ev.loc[ev["units_per_occurrence"].abs().fillna(ev["lift_pct"].abs()).idxmax()]
+    top = biggest_event(ctx.folder, skip=ctx.closures | set(ctx.assumed))
+    if top is not None:
         cards.append(
             (
-                "Biggest event",
+                "Adds the most",
                 f"{top['label']}",
-                f"{_pct(top['lift_pct'])} over base ({_pct(top['low_pct'])} to "
-                f"{_pct(top['high_pct'])}), about {_num(top['units_per_occurrence'])} units each time",
+                f"about {_num(top['units_per_occurrence'])} units each time, "
+                f"{_pct(top['lift_pct'])} over base ({_pct(top['low_pct'])} to {_pct(top['high_pct'])})",
             )
         )
     plan = ctx.folder.plan
@@ -391,9 +394,26 @@ def _glance(ctx: _Context) -> Safe:
                 f"{_num(peak['plan'])} units planned (low {_num(peak['low'])}, high {_num(peak['high'])})",
             )
         )
+        avg = average_share_plan(plan, ctx.freq, ctx.model.get("average_share"))
+        if np.isfinite(avg).any():
+            values = plan["plan"].to_numpy(dtype=float)
+            diff = values - avg
+            moved = float(np.nansum(np.abs(diff)) / 2.0)
+            k = int(np.nanargmax(np.abs(np.nan_to_num(diff))))
+            cards.append(
+                (
+                    "Against average share",
+                    f"{_num(moved)} units move",
+                    f"{moved / values.sum() * 100:.1f} % of the total sits in other periods; most in "
+                    f"{period_label(plan['date'].iloc[k], ctx.freq)} ({_signed(diff[k])})",
+                )
+            )
     chosen = (ctx.model.get("model") or {}).get("chosen")
     if chosen:
-        cards.append(("Model", str(chosen), str((ctx.model.get("model") or {}).get("reason", ""))))
+        reason = str((ctx.model.get("model") or {}).get("reason", ""))
+        if len(reason) > 90:
+            reason = reason[:88].rsplit(" ", 1)[0] + " … (see Warnings and model)"
+        cards.append(("Model", str(chosen), reason))
     if not cards:
         return Safe("")
     html = "".join(
@@ -620,7 +640,8 @@ def _plan_section(ctx: _Context) -> Safe:
     if plan.empty:
         return _p("The plan file has no rows.", "muted")
     events = lift_columns(plan)
-    fig = charts.plan_chart(plan, events, ctx.labels, ctx.colours, ctx.freq)
+    avg = average_share_plan(plan, ctx.freq, ctx.model.get("average_share"))
+    fig = charts.plan_chart(plan, events, ctx.labels, ctx.colours, ctx.freq, compare=avg)
     total = float(plan["plan"].sum())
     base_total = float(plan["base"].sum())
     share_rows = []
@@ -646,6 +667,32 @@ def _plan_section(ctx: _Context) -> Safe:
         "away. The dark line is the plan; the shaded band runs from low to high."
     )
     shares = _table(["part of the plan", "units", "share of total", ""], share_rows, numeric=(1, 2))
+    moved = Safe("")
+    if np.isfinite(avg).any():
+        diff = plan["plan"].to_numpy(dtype=float) - avg
+        order = [k for k in np.argsort(-np.abs(np.nan_to_num(diff)))[:5] if np.isfinite(diff[k])]
+        moved_rows = [
+            [
+                period_label(plan["date"].iloc[k], ctx.freq),
+                _num(plan["plan"].iloc[k]),
+                _num(avg[k]),
+                _signed(diff[k]),
+                _pct(100.0 * diff[k] / avg[k] if avg[k] else np.nan),
+            ]
+            for k in order
+        ]
+        moved = Safe(
+            "<h3>Where the plan departs from an average-share profile</h3>"
+            + _p(
+                "The dashed line spreads the same yearly total by each period's average share of "
+                "past years (the usual spreadsheet method). The periods where the two differ most:"
+            )
+            + _table(
+                ["period", "plan", "average share", "difference", "difference %"],
+                moved_rows,
+                numeric=(1, 2, 3, 4),
+            )
+        )
     has_assump = "assumptions" in plan.columns
     period_rows = []
     for _, r in plan.iterrows():
@@ -671,7 +718,11 @@ def _plan_section(ctx: _Context) -> Safe:
         + "</details>"
     )
     return Safe(
-        intro + _figure(fig, "Plan: base with stacked event contributions and interval") + shares + details
+        intro
+        + _figure(fig, "Plan: base with stacked event contributions and interval")
+        + shares
+        + moved
+        + details
     )
 
 
@@ -901,11 +952,11 @@ h1 {{ margin:4px 0 6px; font-size:28px; line-height:1.2; font-weight:650; overfl
 main {{ padding-top:22px; padding-bottom:30px; }}
 .caution {{ border-left:6px solid var(--warm); background:#fff7e0; padding:12px 16px;
   margin:0 0 18px; border-radius:0 6px 6px 0; }}
-.glance {{ display:grid; grid-template-columns:repeat(auto-fit, minmax(220px, 1fr)); gap:12px;
+.glance {{ display:grid; grid-template-columns:repeat(auto-fit, minmax(190px, 1fr)); gap:10px;
   margin-bottom:18px; }}
 .card {{ background:#fff; border:1px solid var(--grid); border-radius:8px; padding:12px 14px; }}
 .card .k {{ margin:0; font-size:12px; text-transform:uppercase; letter-spacing:.08em; color:var(--muted); }}
-.card .v {{ margin:2px 0; font-size:19px; font-weight:650; overflow-wrap:anywhere; }}
+.card .v {{ margin:2px 0; font-size:17px; line-height:1.3; font-weight:650; overflow-wrap:anywhere; }}
 .card .d {{ margin:0; font-size:13px; color:var(--muted); overflow-wrap:anywhere; }}
 nav {{ display:flex; flex-wrap:wrap; gap:6px 16px; padding:10px 0 4px; margin-bottom:8px;
   border-top:1px solid var(--grid); border-bottom:1px solid var(--grid); font-size:14px; }}

@@ -23,13 +23,13 @@ def build_tables(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd.Data
     parts = decompose(result, raw.X, raw.open_share, closures)
     result.mean_base = float(parts["base"].mean())
     dates = history.dates(periods)
-    fitted = pd.DataFrame({"date": dates, "actual": inp.actual.to_numpy(),
-                           "fitted": parts["fitted"].to_numpy(), "base": parts["base"].to_numpy()})
+    cols: dict[str, Any] = {"date": dates, "actual": inp.actual.to_numpy(),
+                            "fitted": parts["fitted"].to_numpy(), "base": parts["base"].to_numpy()}
     for c in parts.columns:
         if c not in ("base", "fitted"):
-            fitted[c] = parts[c].to_numpy()
-    fitted["in_fit"] = inp.rows
-    result.fitted = fitted
+            cols[c] = parts[c].to_numpy()
+    cols["in_fit"] = inp.rows
+    result.fitted = pd.DataFrame(cols)
     result.occurrences = occurrences_table(result, calendar, periods, raw.X, parts)
     result.lifts = lifts_table(result, raw.X, parts, result.occurrences)
     result.profile = profile_table(result)

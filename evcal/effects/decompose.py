@@ -99,9 +99,9 @@ def decompose(
         contrib = np.where(np.abs(total)[:, None] > 1e-12, gap[:, None] * tmat / safe[:, None],
                            (base * share)[:, None] * tmat)
     fitted = with_events * share
-    out = pd.DataFrame({"base": base, "fitted": fitted}, index=X.index)
+    cols: dict[str, np.ndarray] = {"base": base, "fitted": fitted}
     for j, c in enumerate(terms):
-        out[c] = contrib[:, j]
+        cols[c] = contrib[:, j]
     # closures: the base the closed days lose. The event terms above are already
     # scaled by the open share, so base + terms + closures adds up to `fitted`.
     lost = base * (share - 1.0)
@@ -110,5 +110,5 @@ def decompose(
         tot = cl.sum(axis=1)
         safe_tot = np.where(tot > 0, tot, 1.0)
         for j, c in enumerate(closures.columns):
-            out[c] = np.where(tot > 0, lost * cl[:, j] / safe_tot, 0.0)
-    return out
+            cols[c] = np.where(tot > 0, lost * cl[:, j] / safe_tot, 0.0)
+    return pd.DataFrame(cols, index=X.index)

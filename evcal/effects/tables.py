@@ -101,17 +101,20 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
         ev = calendar.event(r.event)
         w0 = pd.Timestamp(r.start) - pd.Timedelta(days=ev.before)
         w1 = pd.Timestamp(r.end) + pd.Timedelta(days=ev.after)
-        touch = (p_start <= np.datetime64(w1)) & (p_end >= np.datetime64(w0))
-        if not touch.any():
+        # periods are sorted: the window touches one contiguous slice of them
+        i0 = int(np.searchsorted(p_end, np.datetime64(w0), side="left"))
+        i1 = int(np.searchsorted(p_start, np.datetime64(w1), side="right"))
+        if i1 <= i0:
             continue
+        touch = slice(i0, i1)
         cols = [c for c in cols_of.get(r.event, []) if c in parts.columns]
         if ev.effect.kind == "zero":
             cols = [r.event] if r.event in parts.columns else []
         if not cols:
             continue
         # share of the period's days that belong to this window (others may share the period)
-        ov0 = np.maximum(p_start[touch], np.datetime64(w0))
-        ov1 = np.minimum(p_end[touch], np.datetime64(w1))
+        ov0 = np.maximum(p_start[touch], np.datetime64(w0, "ns"))
+        ov1 = np.minimum(p_end[touch], np.datetime64(w1, "ns"))
         ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
         contrib = sum(part_np[c][touch] for c in cols)
         active_days = np.maximum(ov_days, 1.0)

@@ -53,7 +53,7 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
     yy = (y - offset)[rows]
     XX = X.loc[rows]
     lags = newey_west_lags(int(rows.sum()))
-    res = sm.OLS(yy.to_numpy(), XX.to_numpy()).fit(cov_type="HAC", cov_kwds={"maxlags": lags})
+    res = sm.OLS(yy.to_numpy(), XX.to_numpy()).fit(method="qr", cov_type="HAC", cov_kwds={"maxlags": lags})
     params = pd.Series(res.params, index=X.columns)
     cov = pd.DataFrame(res.cov_params(), index=X.columns, columns=X.columns)
     resid = pd.Series(np.nan, index=y.index)

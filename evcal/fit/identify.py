@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from scipy.linalg import solve_triangular
 
 REL_TOL = 1e-6
 
@@ -82,6 +83,11 @@ def check_columns(
 ) -> dict[str, ColumnStatus]:
     """Classify each candidate column on the fitted rows.
 
+    The base (trend and seasonal) columns are projected out once; the
+    candidates' remainders are then tested in order on their small Gram
+    matrix (an incremental Cholesky that skips dependent columns), so the
+    cost is one pass over the data however many events there are.
+
     Parameters
     ----------
     X : DataFrame
@@ -95,20 +101,30 @@ def check_columns(
     kind_of : dict
         Column -> "event" or "intervention", for the wording of notes.
     """
-    Xf = X.loc[rows]
-    q_base = _orthonormal(Xf[base_cols].to_numpy())
-    q = q_base
-    kept: list[tuple[str, np.ndarray]] = []
     out: dict[str, ColumnStatus] = {}
-    for c in candidate_cols:
-        col = Xf[c].to_numpy()
-        norm = float(np.linalg.norm(col))
-        if norm == 0.0:
+    if not candidate_cols:
+        return out
+    Xc = X.loc[rows, candidate_cols].to_numpy(dtype=float)
+    q_base = _orthonormal(X.loc[rows, base_cols].to_numpy(dtype=float))
+    norms = np.linalg.norm(Xc, axis=0)
+    resid = Xc - q_base @ (q_base.T @ Xc)
+    resid = resid - q_base @ (q_base.T @ resid)
+    rel_base = np.linalg.norm(resid, axis=0) / np.where(norms > 0, norms, 1.0)
+    gram_raw = Xc.T @ Xc
+    gram = resid.T @ resid
+    tol2 = (10 * REL_TOL) ** 2  # squared residual ratio on the Gram scale
+    kept: list[int] = []
+    chol = np.zeros((0, 0))
+    for j, c in enumerate(candidate_cols):
+        if norms[j] == 0.0:
             out[c] = ColumnStatus("no_history", "no occurrence inside the fitted history; not fitted")
             continue
-        unit = col / norm
-        twin = next((k for k, u in kept if min(np.linalg.norm(unit - u), np.linalg.norm(unit + u)) < REL_TOL),
-                    None)
+        twin = None
+        for k in kept:
+            cos = gram_raw[j, k] / (norms[j] * norms[k])
+            if abs(cos) > 1.0 - 1e-10:
+                twin = candidate_cols[k]
+                break
         if twin is not None:
             out[c] = ColumnStatus(
                 "duplicate",
@@ -118,7 +134,7 @@ def check_columns(
             prev = out[twin].note
             out[twin] = ColumnStatus("fitted", (prev + "; " if prev else "") + f"estimate includes {c}")
             continue
-        if _relative_residual(col, q_base) < REL_TOL:
+        if rel_base[j] < REL_TOL:
             what = "event" if kind_of.get(c) == "event" else "intervention"
             out[c] = ColumnStatus(
                 "unidentifiable",
@@ -126,14 +142,21 @@ def check_columns(
                 "apart from the season; its effect stays inside the seasonal index",
             )
             continue
-        if _relative_residual(col, q) < REL_TOL:
+        g = gram[kept, j] if kept else np.zeros(0)
+        v = solve_triangular(chol, g, lower=True) if kept else g
+        res2 = gram[j, j] - float(v @ v)
+        if res2 / norms[j] ** 2 < tol2:
             out[c] = ColumnStatus(
                 "unidentifiable",
                 "a combination of the seasonal terms and the other events already fitted; "
                 "its effect cannot be separated from theirs",
             )
             continue
-        q = _extend(q, col)
-        kept.append((c, unit))
+        new = np.zeros((len(kept) + 1, len(kept) + 1))
+        new[:-1, :-1] = chol
+        new[-1, :-1] = v
+        new[-1, -1] = np.sqrt(res2)
+        chol = new
+        kept.append(j)
         out.setdefault(c, ColumnStatus("fitted"))
     return out

@@ -81,10 +81,12 @@ class FitResult:
             self._calendar = load_calendar(self.calendar_text)
         return self._calendar
 
-    def open_share_at(self, mask: np.ndarray) -> np.ndarray:
+    def open_share_at(self, where: np.ndarray | slice) -> np.ndarray:
+        """Open share of the history periods selected by a mask or slice."""
         if self._open_share is None:
-            return np.ones(int(np.sum(mask)))
-        return self._open_share[mask]
+            n = len(range(*where.indices(10**9))) if isinstance(where, slice) else int(np.sum(where))
+            return np.ones(n)
+        return self._open_share[where]
 
     def plan(self, start: Any, end: Any, calendar: Any = None, total: float | None = None,
              **kwargs: Any) -> Any:

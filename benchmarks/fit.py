@@ -39,11 +39,13 @@ def daily_case(n_events: int = 100):
         if kind == 0:
             lines.append(f"  - {{name: e{k}, when: {{easter: {k % 40 - 20}}}, length: 2}}")
         elif kind == 1:
-            lines.append(f"  - {{name: e{k}, when: {{weekday: {{month: {k % 12 + 1}, day: fri, nth: {k % 4 + 1}}}}}}}")
+            rule = f"{{weekday: {{month: {k % 12 + 1}, day: fri, nth: {k % 4 + 1}}}}}"
+            lines.append(f"  - {{name: e{k}, when: {rule}}}")
         else:
             starts = [pd.Timestamp(f"{y}-01-01") + pd.Timedelta(days=int(rng.integers(0, 350))) for y in
                       range(2005, 2025)]
-            dates = ", ".join(f"{{start: {s.date()}, end: {(s + pd.Timedelta(days=3)).date()}}}" for s in starts)
+            dates = ", ".join(f"{{start: {s.date()}, end: {(s + pd.Timedelta(days=3)).date()}}}"
+                              for s in starts)
             lines.append(f"  - {{name: e{k}, when: {{dates: [{dates}]}}}}")
     cal_text = "\n".join(lines) + "\n"
     doy = days.day_of_year.to_numpy()
@@ -93,8 +95,9 @@ def weekly_case():
 events:
   - {name: spring-weekend, when: {easter: -2}, length: 4}
   - {name: mothers-day, when: {weekday: {month: 5, day: sun, nth: 2}}, before: 6}
-  - {name: promo, when: {dates: [{start: 2020-03-02, end: 2020-03-10}, {start: 2021-04-12, end: 2021-04-20},
-      {start: 2022-02-21, end: 2022-03-01}, {start: 2023-05-08, end: 2023-05-16}, {start: 2024-03-18, end: 2024-03-26}]}}
+  - {name: promo, when: {dates: [{start: 2020-03-02, end: 2020-03-10},
+      {start: 2021-04-12, end: 2021-04-20}, {start: 2022-02-21, end: 2022-03-01},
+      {start: 2023-05-08, end: 2023-05-16}, {start: 2024-03-18, end: 2024-03-26}]}}
 """
     return hist, cal
 

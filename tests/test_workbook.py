@@ -136,3 +136,31 @@ def test_failed_write_leaves_nothing(tmp_path: Path) -> None:
     with pytest.raises(RuntimeError):
         write_workbook(target, bad, pd.DataFrame(), pd.DataFrame(), pd.DataFrame())
     assert list(tmp_path.iterdir()) == []
+
+
+def test_workbook_from_model_folder_files(tmp_path: Path) -> None:
+    # The invented weekly model of tests/test_report.py, read back from its files.
+    from test_report import write_invented_model
+
+    from evcal.report import workbook_from_files
+
+    paths = write_invented_model(tmp_path / "model")
+    out = workbook_from_files(tmp_path / "plan.xlsx", paths["model"], paths["plan"])
+    wb = load_workbook(out)
+    plan = pd.read_csv(paths["plan"])
+    ws = wb["Plan"]
+    assert ws.max_row == len(plan) + 1
+    assert isinstance(ws["A2"].value, dt.datetime)
+    lifts_header = [c.value for c in wb["Lifts"][1]]
+    assert lifts_header[:7] == [
+        "event",
+        "lift_pct",
+        "low_pct",
+        "high_pct",
+        "units_per_occurrence",
+        "identifiable",
+        "note",
+    ]
+    occ = wb["Past occurrences"]
+    assert isinstance(occ["B2"].value, dt.datetime)
+    assert occ.max_row == len(pd.read_csv(paths["model"] / "occurrences.csv")) + 1

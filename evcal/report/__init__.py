@@ -8,21 +8,21 @@ from __future__ import annotations
 
 from typing import Any
 
-__all__ = ["write_report", "write_workbook", "read_model_folder"]
+__all__ = ["write_report", "write_workbook", "workbook_from_files", "read_model_folder", "headlines"]
+
+_WHERE = {
+    "write_report": "evcal.report.html",
+    "write_workbook": "evcal.report.workbook",
+    "workbook_from_files": "evcal.report.workbook",
+    "read_model_folder": "evcal.report.model_folder",
+    "headlines": "evcal.report.headlines",
+}
 
 
 def __getattr__(name: str) -> Any:
     # Imported lazily: matplotlib and openpyxl are only paid for when used.
-    if name == "write_report":
-        from evcal.report.html import write_report
+    if name in _WHERE:
+        import importlib
 
-        return write_report
-    if name == "write_workbook":
-        from evcal.report.workbook import write_workbook
-
-        return write_workbook
-    if name == "read_model_folder":
-        from evcal.report.model_folder import read_model_folder
-
-        return read_model_folder
+        return getattr(importlib.import_module(_WHERE[name]), name)
     raise AttributeError(f"module 'evcal.report' has no attribute {name!r}")

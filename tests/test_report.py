@@ -298,7 +298,8 @@ def test_added_by_year_combines_occurrences() -> None:
 
 def test_ratio_as_percent() -> None:
     assert list(ratio_as_percent(pd.Series([0.1, 0.25]))) == pytest.approx([10.0, 25.0])
-    assert list(ratio_as_percent(pd.Series([10.0, 25.0]))) == pytest.approx([10.0, 25.0])
+    # a ratio above 1 (a plan off by more than the actual total) is still a ratio
+    assert list(ratio_as_percent(pd.Series([1.6, 0.02]))) == pytest.approx([160.0, 2.0])
 
 
 # ---------------------------------------------------------------- escaping

@@ -768,15 +768,8 @@ def _calendar_section(ctx: _Context) -> Safe:
 
 
 def ratio_as_percent(values: pd.Series) -> pd.Series:
-    """WAPE and bias as %: the backtest writes them as ratios (0.12), shown as 12 %.
-
-    Values already above 1.5 in size are taken to be percent already.
-    """
-    v = pd.to_numeric(values, errors="coerce")
-    finite = v[np.isfinite(v)]
-    if not finite.empty and finite.abs().max() > 1.5:
-        return v
-    return v * 100.0
+    """WAPE and bias as %: ``backtest.csv`` holds them as ratios (0.08 is 8 %, per evcal.plan)."""
+    return pd.to_numeric(values, errors="coerce") * 100.0
 
 
 def _backtest_section(ctx: _Context) -> Safe:

@@ -23,6 +23,25 @@ Examples
 
 from __future__ import annotations
 
+import sys
+import types
+from typing import Any
+
 from evcal.discover.run import Findings, discover
 
 __all__ = ["discover", "Findings"]
+
+
+class _CallableModule(types.ModuleType):
+    """``evcal.discover`` is both this package and the function of the same name.
+
+    Once ``evcal.discover`` is imported, Python binds the package to that
+    attribute of ``evcal`` and the lazy export of the function is shadowed;
+    making the package callable keeps ``evcal.discover(history, ...)`` working.
+    """
+
+    def __call__(self, *args: Any, **kwargs: Any) -> Findings:
+        return discover(*args, **kwargs)
+
+
+sys.modules[__name__].__class__ = _CallableModule

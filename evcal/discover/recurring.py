@@ -120,6 +120,9 @@ class Recurring:
     years_seen: list[int]
     years_available: list[int]
     findings: list[Finding] = field(default_factory=list)
+    #: days the occurrence covers: at weekly or monthly resolution every day of
+    #: the period fits equally well, so the event spans the run of tied days
+    length: int = 1
 
     @property
     def share(self) -> float:
@@ -128,6 +131,26 @@ class Recurring:
     @property
     def mean_size_pct(self) -> float:
         return float(np.mean([f.size_pct for f in self.findings])) if self.findings else 0.0
+
+
+def _tied_run(rule: Rule, tied: list[Rule]) -> tuple[Rule, int]:
+    """The first rule of the run of consecutive days around ``rule``, and its length."""
+    if rule.kind == "easter":
+        values = {r.value[0] for r in tied}
+        lo = hi = rule.value[0]
+        while lo - 1 in values:
+            lo -= 1
+        while hi + 1 in values:
+            hi += 1
+        return Rule("easter", (lo,)), hi - lo + 1
+    days = {dt.date(2001, *r.value) for r in tied}  # a non-leap year to walk the days
+    day = dt.date(2001, *rule.value)
+    lo = hi = day
+    while lo - dt.timedelta(days=1) in days:
+        lo -= dt.timedelta(days=1)
+    while hi + dt.timedelta(days=1) in days:
+        hi += dt.timedelta(days=1)
+    return Rule("fixed", (lo.month, lo.day)), (hi - lo).days + 1
 
 
 def _month_days(year: int, month: int) -> list[dt.date]:
@@ -234,7 +257,10 @@ def find_recurring(
             kind = min((s[0].kind for s in top), key=lambda k: _KIND_ORDER[k])
             top = sorted((s for s in top if s[0].kind == kind), key=lambda s: s[0].value)
             rule, seen, available, hit = top[(len(top) - 1) // 2]
-            results.append(Recurring(rule, sign, seen, available, hit))
+            length = 1
+            if kind in ("easter", "fixed"):
+                rule, length = _tied_run(rule, [s[0] for s in top if s[1] == seen])
+            results.append(Recurring(rule, sign, seen, available, hit, length))
             used = {f.period for f in hit}
             remaining = [f for f in remaining if f.period not in used]
     results.sort(key=lambda r: (-len(r.years_seen), -r.share))

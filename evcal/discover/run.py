@@ -87,7 +87,7 @@ class Findings:
                 f"{counts['temporary']} temporary changes")
         for r in self.recurring:
             what = "peak" if r.sign > 0 else "dip"
-            lines.append(f"recurring {what}: {r.rule.describe()}, {r.mean_size_pct:+.0f}% on average, "
+            lines.append(f"recurring {what}: {_describe(r)}, {r.mean_size_pct:+.0f}% on average, "
                          f"seen {len(r.years_seen)} of {len(r.years_available)} years "
                          f"({', '.join(map(str, r.years_seen))})")
         for row in self.table[self.table["kind"] == "abnormal_year"].itertuples():
@@ -392,18 +392,28 @@ def _recurring_row(r: Recurring, middle_year: int) -> Row:
     return Row(
         "recurring", _day(first), _day(last, end=True), round(r.mean_size_pct, 2),
         round(r.share, 3), None,
-        f"unexplained {what} {r.rule.describe()} in {len(r.years_seen)} of "
+        f"unexplained {what} {_describe(r)} in {len(r.years_seen)} of "
         f"{len(r.years_available)} years ({', '.join(map(str, r.years_seen))}): add an event "
-        f"with when: {_inline(r.rule.when(middle_year))}")
+        f"with when: {_inline(r.rule.when(middle_year))}"
+        + (f", length: {r.length}" if r.length > 1 else ""))
 
 
 def _recurring_entry(r: Recurring, middle_year: int) -> Entry:
     what = "peak" if r.sign > 0 else "dip"
-    return Entry("events", {"name": f"unexplained-{what}-{_rule_slug(r.rule)}",
-                            "when": r.rule.when(middle_year)},
-                 [f"{what} of {r.mean_size_pct:+.0f}% on average, {r.rule.describe()}, seen in "
+    mapping: dict[str, Any] = {"name": f"unexplained-{what}-{_rule_slug(r.rule)}",
+                               "when": r.rule.when(middle_year)}
+    if r.length > 1:
+        mapping["length"] = r.length
+    return Entry("events", mapping,
+                 [f"{what} of {r.mean_size_pct:+.0f}% on average, {_describe(r)}, seen in "
                   f"{len(r.years_seen)} of {len(r.years_available)} years: "
                   f"{', '.join(map(str, r.years_seen))}"])
+
+
+def _describe(r: Recurring) -> str:
+    if r.length > 1:
+        return f"from {r.rule.describe()}, {r.length} days"
+    return r.rule.describe()
 
 
 def _inline(d: dict[str, Any]) -> str:
@@ -422,14 +432,14 @@ def _outlier_row(kind: str, p: pd.Period, periods: pd.PeriodIndex, pct: float, s
         suggestion = (f"temporary change of {pct:+.1f}% at {_day(p)}, fading 30% a period: "
                       "add intervention type temporary, decay 0.7")
         if pattern is not None:
-            suggestion = f"part of the recurring pattern {pattern.rule.describe()}"
+            suggestion = f"part of the recurring pattern {_describe(pattern)}"
         return Row("temporary", _day(p), _day(periods[fade], end=True), round(pct, 2),
                    round(score, 2), None, suggestion)
     what = "peak" if pct > 0 else "dip"
     suggestion = (f"one-period {what} of {pct:+.1f}%: if it was a known one-off (promotion, "
                   "closure, data error), add it to the calendar; otherwise a pulse intervention")
     if pattern is not None:
-        suggestion = f"part of the recurring pattern {pattern.rule.describe()}"
+        suggestion = f"part of the recurring pattern {_describe(pattern)}"
     return Row("outlier", _day(p), _day(p, end=True), round(pct, 2), round(score, 2), None, suggestion)
 
 

@@ -14,7 +14,6 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-import statsmodels.api as sm
 
 
 @dataclass
@@ -49,6 +48,7 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
     >>> round(fit_ols(y, X, pd.Series(np.zeros(50))).params["x"], 2)
     0.5
     """
+    import statsmodels.api as sm  # imported when first used: it is slow to import
     rows = y.notna().to_numpy()
     yy = (y - offset)[rows]
     XX = X.loc[rows]
@@ -88,6 +88,7 @@ def fit_arima(
     differenced errors (d >= 1) the constant is not identified and must
     already be absent from ``X``.
     """
+    import statsmodels.api as sm  # imported when first used: it is slow to import
     from scipy.linalg import toeplitz
     from statsmodels.tsa.arima_process import arma_acovf
 
@@ -176,6 +177,7 @@ def fit_count(y_units: pd.Series, X: pd.DataFrame, log_offset: pd.Series) -> Est
     The switch uses the Pearson dispersion (chi2 / df > 1.5: common practice,
     no source). Periods with missing ``y_units`` are left out.
     """
+    import statsmodels.api as sm  # imported when first used: it is slow to import
     rows = y_units.notna().to_numpy()
     yy = y_units[rows].to_numpy(dtype=float)
     XX = X.loc[rows].to_numpy()

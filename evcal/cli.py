@@ -295,6 +295,19 @@ def backtest_cmd(
 # ---------------------------------------------------------------- report, demo
 
 
+@app.command("demo")
+@guarded
+def demo_cmd(
+    out: str = typer.Option("demo-output", "--out", "-o", help="Folder for every demo output."),
+    data: str = typer.Option(None, "--data", help="Folder with the demo history and calendar."),
+) -> None:
+    """Run the whole job on the bundled, invented demo data (Fernhollow Garden Centres)."""
+    from evcal.demo import run_demo
+
+    run_demo(out, data=data, echo=typer.echo)
+
+
+
 @app.command("report")
 @guarded
 def report_command(

@@ -65,7 +65,7 @@ def _excluded(periods: pd.PeriodIndex, calendar: Any) -> np.ndarray:
     p0 = periods.start_time.normalize()
     p1 = periods.end_time.normalize()
     for ex in calendar.exclusions:
-        out |= ((p0 <= pd.Timestamp(ex.end)) & (p1 >= pd.Timestamp(ex.start))).to_numpy()
+        out |= np.asarray((p0 <= pd.Timestamp(ex.end)) & (p1 >= pd.Timestamp(ex.start)))
     return out
 
 

@@ -1,0 +1,128 @@
+"""The demo: the whole job on the bundled, invented Fernhollow Garden Centres data.
+
+Calendar check, fit, a 2027 plan spread to a stated target, a backtest, the
+HTML report and the Excel workbook, each written into one folder; then where
+everything is and three lines a planner would quote. Everything here is
+invented (see ``demo/README.md`` and ``demo/generate.py``).
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from evcal.errors import EvcalError
+
+HISTORY = "fernhollow-history.csv"
+CALENDAR = "fernhollow-calendar.yaml"
+PLAN_YEAR = 2027
+#: Finance's (invented) unit target for the plan year: about 7 % over 2025.
+TARGET = 210_000.0
+
+
+@dataclass
+class DemoRun:
+    """What the demo wrote and the lines it would have a planner quote."""
+
+    out: Path
+    files: dict[str, Path] = field(default_factory=dict)
+    headlines: list[str] = field(default_factory=list)
+    seconds: float = 0.0
+
+
+def find_demo_data(data: str | Path | None = None) -> Path:
+    """The folder with the demo history and calendar.
+
+    Looked for in ``data`` if given, else ``./demo``, else the source tree next
+    to this package (an editable install or a clone).
+    """
+    candidates = [Path(data)] if data is not None else [
+        Path.cwd() / "demo", Path(__file__).resolve().parents[1] / "demo"]
+    for c in candidates:
+        if (c / HISTORY).is_file() and (c / CALENDAR).is_file():
+            return c
+    where = ", ".join(str(c) for c in candidates)
+    raise EvcalError(f"demo data not found (looked in {where}); run from the evcal source folder "
+                     f"or pass --data DIR holding {HISTORY} and {CALENDAR}")
+
+
+def run_demo(out: str | Path, data: str | Path | None = None,
+             echo: Callable[[str], None] = print) -> DemoRun:
+    """Run every step on the demo data and write the outputs into ``out``.
+
+    Examples
+    --------
+    >>> run = run_demo("demo-output")  # doctest: +SKIP
+    >>> sorted(run.files)              # doctest: +SKIP
+    ['backtest', 'model', 'plan_csv', 'plan_xlsx', 'report']
+    """
+    from evcal.calendar import load_calendar
+    from evcal.calendar.summary import check_calendar
+    from evcal.fit import fit
+    from evcal.fit.summary import describe
+    from evcal.plan import backtest
+    from evcal.plan.backtesting import format_table
+    from evcal.report.headlines import headlines
+    from evcal.report.html import write_report
+    from evcal.report.model_folder import read_model_folder
+
+    t0 = time.perf_counter()
+    src = find_demo_data(data)
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    run = DemoRun(out=out)
+    history, calendar = src / HISTORY, src / CALENDAR
+    echo("evcal demo: Fernhollow Garden Centres, an invented chain of garden centres "
+         "(all data invented).")
+
+    echo(f"\n[1/6] calendar check: {calendar}")
+    cal = load_calendar(calendar)
+    report = check_calendar(cal, 2020, PLAN_YEAR)
+    for line in report.lines[:3]:
+        echo(f"  {line}")
+    echo(f"  warnings: {len(report.warnings)}")
+
+    echo(f"\n[2/6] fit: weekly history {history.name}")
+    result = fit(history, cal)
+    run.files["model"] = result.save(out / "model")
+    echo("  " + describe(result).replace("\n", "\n  "))
+
+    echo(f"\n[3/6] plan {PLAN_YEAR}, spread to finance's target of {TARGET:,.0f} units")
+    plan = result.plan(f"{PLAN_YEAR}-01-01", f"{PLAN_YEAR}-12-31", total=TARGET)
+    run.files["plan_csv"] = plan.save(out / "plan.csv")
+    run.files["plan_xlsx"] = plan.save(out / "plan.xlsx")
+    echo("  " + plan.summary().replace("\n", "\n  "))
+
+    echo("\n[4/6] backtest: hold out 2024 and 2025 in turn, fit on the years before")
+    bt = backtest(history, cal, holdout_years=2, progress=False)
+    from evcal._files import atomic_path
+
+    bt_path = out / "backtest.csv"
+    with atomic_path(bt_path) as tmp:
+        bt.to_csv(tmp, index=False, float_format="%.6f")
+    run.files["backtest"] = bt_path
+    echo("  " + format_table(bt).replace("\n", "\n  "))
+
+    echo("\n[5/6] report")
+    run.files["report"] = write_report(out / "model", out / "report.html", plan_csv=out / "plan.csv",
+                                       backtest_csv=bt_path, calendar=calendar)
+    echo("\n[6/6] workbook written with the plan (plan.xlsx)")
+
+    folder = read_model_folder(out / "model", plan_csv=out / "plan.csv", backtest_csv=bt_path)
+    run.headlines = headlines(folder)
+    run.seconds = time.perf_counter() - t0
+    echo("\nOutputs:")
+    labels = {"model": "model folder (lifts, occurrences, profile, fitted)", "plan_csv": "plan (CSV)",
+              "plan_xlsx": "plan workbook (Excel)", "backtest": "backtest table",
+              "report": "HTML report (open in a browser)"}
+    for key, path in run.files.items():
+        echo(f"  {labels[key]:<52} {path}")
+    echo("\nWhat a planner would quote:")
+    for line in run.headlines:
+        echo(f"  - {line}")
+    echo("\nThe plan is an estimate from past data and the calendar; the people who own the "
+         "decision decide.")
+    echo(f"done in {run.seconds:.1f} s")
+    return run

@@ -4,7 +4,8 @@ For each calendar year with at least half its periods in the fit, two
 summaries of the model's residuals (on the model scale, e.g. log):
 
 * ``level``: the mean residual (a year sitting above or below the model);
-* ``spread``: the mean absolute residual (a year that is erratic).
+* ``spread``: the mean absolute deviation of the residuals from that year's
+  own mean (a year that is erratic, whatever its level).
 
 Each summary is compared across years by the **modified z-score** of
 Iglewicz & Hoaglin (1993, *How to Detect and Handle Outliers*, ASQC):
@@ -94,7 +95,8 @@ def abnormal_years(
     if len(ok) < MIN_YEARS:
         return []
     level = per_year.mean().loc[ok]
-    spread = frame.assign(a=frame["r"].abs()).groupby("year")["a"].mean().loc[ok]
+    own_mean = per_year.transform("mean")
+    spread = frame.assign(a=(frame["r"] - own_mean).abs()).groupby("year")["a"].mean().loc[ok]
     found: list[AbnormalYear] = []
     for kind, values in (("level", level), ("spread", spread)):
         z = modified_z(values)

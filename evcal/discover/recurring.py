@@ -42,6 +42,7 @@ __all__ = ["Finding", "Rule", "Recurring", "find_recurring", "MIN_SHARE"]
 MIN_SHARE = 0.6
 MIN_HITS = 2
 EASTER_RANGE = 70
+WEEKDAY_OFFSETS = 3
 _KIND_ORDER = {"fixed": 0, "weekday": 1, "easter": 2, "week": 3}
 _DAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 
@@ -73,11 +74,11 @@ class Rule:
         if self.kind == "easter":
             return easter(year) + dt.timedelta(days=self.value[0])
         if self.kind == "weekday":
-            month, weekday, nth = self.value
+            month, weekday, nth, offset = self.value
             days = [d for d in _month_days(year, month) if d.weekday() == weekday]
             if nth == -1:
-                return days[-1]
-            return days[nth - 1] if nth <= len(days) else None
+                return days[-1] + dt.timedelta(days=offset)
+            return days[nth - 1] + dt.timedelta(days=offset) if nth <= len(days) else None
         if self.kind == "week":
             try:
                 return dt.date.fromisocalendar(year, self.value[0], 1)
@@ -92,8 +93,11 @@ class Rule:
         if self.kind == "easter":
             return {"easter": int(self.value[0])}
         if self.kind == "weekday":
-            month, weekday, nth = self.value
-            return {"weekday": {"month": month, "day": _DAYS[weekday], "nth": nth}}
+            month, weekday, nth, offset = self.value
+            when: dict[str, Any] = {"weekday": {"month": month, "day": _DAYS[weekday], "nth": nth}}
+            if offset:
+                when["offset"] = offset
+            return when
         monday = self.date(middle_year) or dt.date.fromisocalendar(middle_year, 1, 1)
         sunday = monday + dt.timedelta(days=6)
         return {"span": {"start": monday.strftime("%m-%d"), "end": sunday.strftime("%m-%d")}}
@@ -105,9 +109,13 @@ class Rule:
             k = self.value[0]
             return "Easter Sunday" if k == 0 else f"{abs(k)} days {'after' if k > 0 else 'before'} Easter"
         if self.kind == "weekday":
-            month, weekday, nth = self.value
+            month, weekday, nth, offset = self.value
             which = "last" if nth == -1 else {1: "1st", 2: "2nd", 3: "3rd"}.get(nth, f"{nth}th")
-            return f"{which} {_stdcal.day_name[weekday]} of {_stdcal.month_name[month]}"
+            text = f"{which} {_stdcal.day_name[weekday]} of {_stdcal.month_name[month]}"
+            if offset:
+                text = f"{abs(offset)} day{'s' if abs(offset) > 1 else ''} " \
+                       f"{'after' if offset > 0 else 'before'} the {text}"
+            return text
         return f"ISO week {self.value[0]}"
 
 
@@ -131,6 +139,11 @@ class Recurring:
     @property
     def mean_size_pct(self) -> float:
         return float(np.mean([f.size_pct for f in self.findings])) if self.findings else 0.0
+
+
+def _simplicity(rule: Rule) -> int:
+    """Tie-break order: kind first, then a weekday rule without an offset."""
+    return _KIND_ORDER[rule.kind] * 10 + (abs(rule.value[3]) if rule.kind == "weekday" else 0)
 
 
 def _tied_run(rule: Rule, tied: list[Rule]) -> tuple[Rule, int]:
@@ -162,10 +175,15 @@ def _rules_for_day(day: dt.date) -> list[Rule]:
     k = (day - easter(day.year)).days
     if abs(k) <= EASTER_RANGE:
         rules.append(Rule("easter", (k,)))
-    nth = (day.day - 1) // 7 + 1
-    rules.append(Rule("weekday", (day.month, day.weekday(), nth)))
-    if (day + dt.timedelta(days=7)).month != day.month:
-        rules.append(Rule("weekday", (day.month, day.weekday(), -1)))
+    # the nth (or last) weekday of a month, on the day or a few days after or
+    # before it (the day after the 4th Thursday of November is not always
+    # the 4th Friday)
+    for offset in range(-WEEKDAY_OFFSETS, WEEKDAY_OFFSETS + 1):
+        anchor = day - dt.timedelta(days=offset)
+        nth = (anchor.day - 1) // 7 + 1
+        rules.append(Rule("weekday", (anchor.month, anchor.weekday(), nth, offset)))
+        if (anchor + dt.timedelta(days=7)).month != anchor.month:
+            rules.append(Rule("weekday", (anchor.month, anchor.weekday(), -1, offset)))
     return rules
 
 
@@ -254,8 +272,9 @@ def find_recurring(
             top = [s for s in scored if len(s[1]) == best_hits]
             fewest_misses = min(len(s[2]) - len(s[1]) for s in top)
             top = [s for s in top if len(s[2]) - len(s[1]) == fewest_misses]
-            kind = min((s[0].kind for s in top), key=lambda k: _KIND_ORDER[k])
-            top = sorted((s for s in top if s[0].kind == kind), key=lambda s: s[0].value)
+            simplest = min(_simplicity(s[0]) for s in top)
+            top = sorted((s for s in top if _simplicity(s[0]) == simplest), key=lambda s: s[0].value)
+            kind = top[0][0].kind
             rule, seen, available, hit = top[(len(top) - 1) // 2]
             length = 1
             if kind in ("easter", "fixed"):

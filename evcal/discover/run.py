@@ -258,7 +258,14 @@ def discover(
         rows.append(_recurring_row(r, middle_year))
         entries.append(_recurring_entry(r, middle_year))
 
-    abnormal = abnormal_years(result.residuals)
+    # a level shift is a lasting break, not a year's departure: read the years
+    # with the shifts found taken out of the residuals
+    resid = result.residuals.copy()
+    if search is not None:
+        for o in search.result.outliers:
+            if o.type == "LS":
+                resid.iloc[o.position:] -= o.effect
+    abnormal = abnormal_years(resid)
     abnormal_set = {a.year for a in abnormal}
     if search is not None:
         for o in search.result.outliers:
@@ -379,9 +386,10 @@ def _rule_slug(rule: Rule) -> str:
     if rule.kind == "fixed":
         return f"{rule.value[0]:02d}-{rule.value[1]:02d}"
     if rule.kind == "weekday":
-        m, w, n = rule.value
-        return f"{dt.date(2000, m, 1).strftime('%b').lower()}-" \
-               f"{('mon', 'tue', 'wed', 'thu', 'fri', 'sat', 'sun')[w]}-{'last' if n == -1 else n}"
+        m, w, n, offset = rule.value
+        slug = (f"{dt.date(2000, m, 1).strftime('%b').lower()}-"
+                f"{('mon', 'tue', 'wed', 'thu', 'fri', 'sat', 'sun')[w]}-{'last' if n == -1 else n}")
+        return slug + (f"-{'plus' if offset > 0 else 'minus'}-{abs(offset)}" if offset else "")
     return f"week-{rule.value[0]}"
 
 
@@ -473,7 +481,7 @@ def _abnormal_row(flagged: list[AbnormalYear], transform: str, effects: pd.DataF
         parts.append(f"sits {level.value:+.3g} units off the model (modified z {level.z:+.1f})")
     spread = next((a for a in flagged if a.kind == "spread"), None)
     if spread is not None:
-        parts.append(f"is erratic (mean absolute residual {spread.value:.3g}, modified z {spread.z:+.1f})")
+        parts.append(f"is erratic (mean absolute deviation {spread.value:.3g}, modified z {spread.z:+.1f})")
     text = f"{year} " + " and ".join(parts) + ": exclude the year"
     if level is not None:
         text += " or add a pulse over it"

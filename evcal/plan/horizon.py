@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.design.seasonal import base_freq
 from evcal.errors import PlanError
 
 _YEAR = re.compile(r"^\s*(\d{4})\s*$")
@@ -49,6 +50,12 @@ def history_end_period(result: Any) -> pd.Period:
 def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
     """The periods from the one holding ``start`` to the one holding ``end``.
 
+    Days, months and quarters: the periods that hold the two days. Weeks are
+    known by their date label (the history's convention: last or first day),
+    so the horizon is the weeks whose label falls between the two days: with
+    weeks dated by their Sunday, ``2027-01-01`` to ``2027-12-31`` is the 52
+    weeks dated in 2027, as the yearly totals count them.
+
     Parameters
     ----------
     result : FitResult
@@ -72,6 +79,18 @@ def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
     last_day = _as_day(end, end=True, what="--to")
     freq = result.freq
     first, last = first_day.to_period(freq), last_day.to_period(freq)
+    if base_freq(freq) == "W" and last >= first:
+        # a week is named by its date label (its last or first day, as in the history),
+        # so the horizon holds the weeks whose label falls between the two days
+        label = getattr(result, "label", "end")
+        around = pd.period_range(first - 1, last + 1, freq=freq)
+        stamps = period_dates(around, label)
+        inside = around[(stamps >= first_day) & (stamps <= last_day)]
+        if len(inside) == 0:
+            raise PlanError(
+                f"--from {first_day.date()} --to {last_day.date()}: no week is dated between these days "
+                f"(weeks are dated by their {'last' if label == 'end' else 'first'} day); widen the horizon")
+        first, last = inside[0], inside[-1]
     hist_end = history_end_period(result)
     if first <= hist_end:
         raise PlanError(

@@ -50,7 +50,7 @@ def modified_z(x: pd.Series) -> pd.Series:
     Examples
     --------
     >>> modified_z(pd.Series([1.0, 2.0, 3.0, 4.0, 100.0])).round(2).tolist()
-    [-1.35, -0.67, 0.0, 0.67, 65.42]
+    [-1.35, -0.67, 0.0, 0.67, 65.43]
     """
     med = float(np.median(x))
     mad = float(np.median(np.abs(x - med)))

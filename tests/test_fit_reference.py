@@ -66,6 +66,8 @@ def test_ols_equals_statsmodels_on_same_design():
         cov_type="HAC", cov_kwds={"maxlags": newey_west_lags(int(rows.sum()))})
     np.testing.assert_allclose(est.params.to_numpy(), ref.params, rtol=1e-10, atol=1e-12)
     np.testing.assert_allclose(np.sqrt(np.diag(est.cov)), ref.bse, rtol=1e-10)
+    assert est.llf == pytest.approx(ref.llf, rel=1e-10)
+    assert est.aic == pytest.approx(ref.aic, rel=1e-10)
 
 
 def test_count_model_equals_statsmodels_glm():

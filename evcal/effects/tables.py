@@ -4,7 +4,7 @@ Intervals: a lift's 95 % interval is the coefficient's interval
 (beta ± 1.96 se, from the fit's covariance: HAC for OLS) mapped through the
 monotone transform 100 (exp(b) - 1); for the additive model, divided by the
 mean base of the event's periods. Per-occurrence intervals are simulated from
-the coefficient's normal distribution (2,000 draws, fixed seed).
+the coefficient's normal distribution (1,000 draws, fixed seed).
 """
 
 from __future__ import annotations
@@ -91,64 +91,73 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
     se = np.sqrt(np.clip(np.diag(result.cov.to_numpy()), 0, None))
     se = pd.Series(se, index=result.cov.index)
     rng = np.random.default_rng(rng_seed)
-    z = rng.standard_normal(2000)
+    z = rng.standard_normal(1000)
     # plain arrays: this loop runs once per occurrence (thousands for weekly closures)
     part_np = {c: parts[c].to_numpy(dtype=float) for c in parts.columns}
     x_np = {c: X[c].to_numpy(dtype=float) for c in X.columns}
     base_np = part_np["base"]
+    open_np = result.open_share_at(slice(0, len(periods)))
+    info: dict[str, tuple[int, int, str, list[str], str, float, float]] = {}
+    for name in occ["event"].unique():
+        ev = calendar.event(name)
+        kind = ev.effect.kind
+        cols = [r for r in ([name] if kind == "zero" else cols_of.get(name, [])) if r in parts.columns]
+        pcol, b, sd = "", float("nan"), float("nan")
+        st = result.status.get(cols[0]) if cols else None
+        if st is not None and st.status in ("fitted", "like"):
+            pcol = cols[0] if st.status == "fitted" else result.like_map.get(cols[0], "")
+            if pcol in result.params.index:
+                b, sd = float(result.params[pcol]), float(se[pcol])
+            else:
+                pcol = ""
+        info[name] = (ev.before, ev.after, kind, cols, pcol, b, sd)
+    names = occ["event"].to_numpy()
+    starts = pd.to_datetime(occ["start"]).to_numpy(dtype="datetime64[ns]")
+    ends = pd.to_datetime(occ["end"]).to_numpy(dtype="datetime64[ns]")
+    before = np.array([info[n][0] for n in names], dtype="timedelta64[D]")
+    after = np.array([info[n][1] for n in names], dtype="timedelta64[D]")
+    w0s, w1s = starts - before, ends + after
+    # periods are sorted: each window touches one contiguous slice of them
+    i0s = np.searchsorted(p_end, w0s, side="left")
+    i1s = np.searchsorted(p_start, w1s, side="right")
+    start_txt = pd.DatetimeIndex(starts).strftime("%Y-%m-%d")
+    end_txt = pd.DatetimeIndex(ends).strftime("%Y-%m-%d")
+    strengths = occ["strength"].to_numpy(dtype=float)
     out = []
-    for r in occ.itertuples(index=False):
-        ev = calendar.event(r.event)
-        w0 = pd.Timestamp(r.start) - pd.Timedelta(days=ev.before)
-        w1 = pd.Timestamp(r.end) + pd.Timedelta(days=ev.after)
-        # periods are sorted: the window touches one contiguous slice of them
-        i0 = int(np.searchsorted(p_end, np.datetime64(w0), side="left"))
-        i1 = int(np.searchsorted(p_start, np.datetime64(w1), side="right"))
-        if i1 <= i0:
+    for j in range(len(occ)):
+        i0, i1 = int(i0s[j]), int(i1s[j])
+        _, _, kind, cols, pcol, b, sd = info[names[j]]
+        if i1 <= i0 or not cols:
             continue
         touch = slice(i0, i1)
-        cols = [c for c in cols_of.get(r.event, []) if c in parts.columns]
-        if ev.effect.kind == "zero":
-            cols = [r.event] if r.event in parts.columns else []
-        if not cols:
-            continue
         # share of the period's days that belong to this window (others may share the period)
-        ov0 = np.maximum(p_start[touch], np.datetime64(w0, "ns"))
-        ov1 = np.minimum(p_end[touch], np.datetime64(w1, "ns"))
+        ov0 = np.maximum(p_start[touch], w0s[j])
+        ov1 = np.minimum(p_end[touch], w1s[j])
         ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
         contrib = sum(part_np[c][touch] for c in cols)
-        active_days = np.maximum(ov_days, 1.0)
         frac = np.ones_like(contrib)
-        if ev.effect.kind != "zero":
-            x_tot = sum(x_np[c][touch] for c in cols) * days[touch]
-            own = ov_days * float(r.strength)
+        xs_raw = sum(x_np[c][touch] for c in cols) if kind != "zero" else None
+        if xs_raw is not None:
+            x_tot = xs_raw * days[touch]
+            own = ov_days * strengths[j]
             frac = np.where(x_tot > own + 1e-9, own / np.maximum(x_tot, 1e-12), 1.0)
         added = float((contrib * frac).sum())
-        base_win = float((base_np[touch] * active_days / days[touch]).sum())
+        base_win = float((base_np[touch] * np.maximum(ov_days, 1.0) / days[touch]).sum())
         added_pct = 100.0 * added / base_win if base_win else float("nan")
         low = high = added
-        src = cols[0]
-        st = result.status.get(src)
-        if st is not None and st.status in ("fitted", "like") and result.transform != "none":
-            pcol = src if st.status == "fitted" else result.like_map.get(src, "")
-            if pcol in result.params.index:
-                b, s = float(result.params[pcol]), float(se[pcol])
-                xs = sum(x_np[c][touch] for c in cols) * frac
-                base_t = base_np[touch] * result.open_share_at(touch)
-                draws = (base_t[None, :] * np.expm1(np.outer(b + s * z, xs))).sum(axis=1)
-                point = float((base_t * np.expm1(b * xs)).sum())
-                # centre on the reported split (which shares overlaps with other terms)
-                if point:
-                    draws = draws * (added / point)
-                low, high = (float(v) for v in np.quantile(draws, [0.025, 0.975]))
-        elif st is not None and st.status == "fitted" and result.transform == "none":
-            pcol = src
-            if pcol in result.params.index:
-                s = float(se[pcol])
-                xs = float((sum(x_np[c][touch] for c in cols) * frac).sum())
-                low, high = added - Z95 * s * abs(xs), added + Z95 * s * abs(xs)
-        out.append({"event": r.event, "start": pd.Timestamp(r.start).date().isoformat(),
-                    "end": pd.Timestamp(r.end).date().isoformat(), "added_units": added,
+        if pcol and xs_raw is not None and result.transform != "none":
+            xs = xs_raw * frac
+            base_t = base_np[touch] * open_np[touch]
+            draws = (base_t[None, :] * np.expm1(np.outer(b + sd * z, xs))).sum(axis=1)
+            point = float((base_t * np.expm1(b * xs)).sum())
+            # centre on the reported split (which shares overlaps with other terms)
+            if point:
+                draws = draws * (added / point)
+            low, high = (float(v) for v in np.quantile(draws, [0.025, 0.975]))
+        elif pcol and xs_raw is not None:
+            xs_sum = float((xs_raw * frac).sum())
+            low, high = added - Z95 * sd * abs(xs_sum), added + Z95 * sd * abs(xs_sum)
+        out.append({"event": names[j], "start": start_txt[j], "end": end_txt[j], "added_units": added,
                     "added_pct": added_pct, "low_units": low, "high_units": high})
     return pd.DataFrame(out, columns=OCC_COLUMNS + ["low_units", "high_units"])
 

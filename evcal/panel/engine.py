@@ -1,0 +1,436 @@
+"""Fitting every series of a panel: screen, group by design, solve in blocks, collect the tables.
+
+The work is cut into *units* that depend only on their inputs: a block of at
+most :data:`BLOCK_SERIES` series of one design group (batched OLS), or a few
+series for the per-series path (ARIMA errors, count models). The same units
+run in this process or on a Dask cluster (:mod:`evcal.panel.distributed`),
+so the results do not depend on where they ran.
+
+Grouping. Series share a design when they have the same transform, the same
+trend origin (the year their history starts) and the same *fit-row pattern*
+(which periods have a value; exclusions and closures are shared through the
+calendar). Each group gets its own identifiability check, exactly as a single
+series would (:func:`evcal.fit.identify.check_columns` on its rows), and one
+QR factorisation.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field, fields, replace
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import period_mid_years
+from evcal.design.matrix import build_design
+from evcal.design.trend import Trend
+from evcal.fit.identify import check_columns, independent_base_columns
+from evcal.fit.model import load_calendar_any, prepare
+from evcal.fit.options import FitOptions
+from evcal.io.history import History
+from evcal.panel.batched import SharedSolve
+from evcal.panel.longformat import Panel
+from evcal.panel.skipped import Screen, screen_series
+from evcal.panel.tables import BlockTables, GroupInfo, SpanContext, block_tables
+
+__all__ = ["PanelFit", "fit_long_panel", "BLOCK_SERIES", "LOOP_SERIES"]
+
+#: series per batched unit (fixed, so results never depend on how the work is spread)
+BLOCK_SERIES = 1000
+#: series per unit of the per-series path
+LOOP_SERIES = 16
+
+
+# ---------------------------------------------------------------- shared model inputs
+
+
+@dataclass
+class Template:
+    """:func:`evcal.fit.model.prepare` on a placeholder series covering the whole panel.
+
+    Everything that does not depend on a series' values (design, offset,
+    exclusions, closures, assumed and borrowed lifts) is computed once here.
+    """
+
+    transform: str
+    inp: Any  # ModelInputs
+    raw: pd.DataFrame  # unmerged design (like-events apart), for the tables
+    mid_years: np.ndarray
+
+    @classmethod
+    def build(cls, panel: Panel, calendar: Any, options: FitOptions, transform: str) -> Template:
+        placeholder = History(pd.Series(1.0, index=panel.periods, name="value"), panel.freq, panel.label,
+                              panel.source, [])
+        inp = prepare(placeholder, calendar, replace(options, transform=transform))
+        raw = build_design(inp.design.spec, calendar, panel.periods).X  # type: ignore[attr-defined]
+        return cls(transform, inp, raw, period_mid_years(panel.periods))
+
+    def origin(self, first: int) -> float:
+        """Trend origin of a series whose history starts at period ``first`` (as prepare sets it)."""
+        return float(np.floor(self.mid_years[first]))
+
+    def with_origin(self, frame: pd.DataFrame, origin: float) -> pd.DataFrame:
+        spec = self.inp.design.spec
+        if origin == spec.trend_origin:
+            return frame
+        trend = Trend(origin, spec.trend_order, spec.constant).columns(frame.index)
+        out = frame.copy()
+        for c in trend.columns:
+            out[c] = trend[c].to_numpy()
+        return out
+
+
+@dataclass
+class Group:
+    """Series that share a design: one factorisation, one set of column statuses."""
+
+    gid: int
+    transform: str
+    origin: float
+    rows: np.ndarray  # bool over the panel's periods
+    members: np.ndarray  # series positions
+    info: GroupInfo
+    solve: SharedSolve | None
+    notes: list[str] = field(default_factory=list)
+    offset: np.ndarray | None = None  # model-scale offset on the fit rows
+    share: np.ndarray | None = None  # open share on the fit rows (additive model)
+
+
+def _group_info(template: Template, calendar: Any, observed: np.ndarray, origin: float
+                ) -> tuple[GroupInfo, np.ndarray, np.ndarray, list[str]]:
+    """Fit rows, column statuses and the fit matrix for one observed pattern (prepare's last steps)."""
+    inp = template.inp
+    rows = observed & inp.rows
+    roles = inp.design.roles
+    X = template.with_origin(inp.design.X, origin)
+    all_base = [c for c in X.columns if roles[c] in ("trend", "seasonal")]
+    base_cols = independent_base_columns(X, rows, all_base)
+    fixed = {c: st for c, st in inp.status.items() if st.status in ("assumed", "like")}
+    candidates = [c for c in inp.status if c not in fixed]
+    status = check_columns(X, rows, base_cols, candidates, {c: roles[c] for c in X.columns})
+    status.update(fixed)
+    fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
+    spec = replace(inp.design.spec, trend_origin=origin)
+    colmap = calendar.event_columns()
+    event_info: dict[str, dict[str, Any]] = {}
+    for c, ev_name in colmap.items():
+        ev = calendar.event(ev_name)
+        event_info[c] = {"event": ev_name, "label": ev.label, "group": ev.group,
+                         "effect": ev.effect.describe(), "shape": ev.shape}
+    for t in calendar.interventions:
+        event_info[t.name] = {"event": t.name, "label": getattr(t, "label", t.name) or t.name,
+                              "group": "intervention", "effect": t.type, "shape": t.type}
+    info = GroupInfo(
+        transform=template.transform, status=status, fitted_cols=fitted_cols, base_columns=all_base,
+        like_map=dict(inp.like_map), assumed=dict(inp.assumed),
+        intervention_names=[t["name"] for t in spec.interventions],
+        closure_events=[e.name for e in calendar.events if e.effect.kind == "zero"],
+        event_info=event_info, event_labels={e.name: e.label for e in calendar.events}, spec=spec)
+    Xf = X.loc[rows, fitted_cols].to_numpy(dtype=float)
+    notes = [n for n in inp.notes if not n.endswith("left out of the additive fit")]
+    if template.transform == "none":
+        share = inp.design.open_share.to_numpy()
+        Xf = Xf * np.where(share > 0, share, 1.0)[rows][:, None]  # the additive model scales rows
+        before = observed & ~inp.excluded & ~(share <= 1e-9)
+        for c in inp.assumed:
+            if ((X[c].to_numpy() > 0) & before).any():
+                notes.append(f"{c}: periods with this assumed event are left out of the additive fit")
+    for c, st in status.items():
+        if st.status in ("unidentifiable", "duplicate"):
+            notes.append(f"{c}: {st.note}")
+        elif st.status == "no_history":
+            notes.append(f"{c}: no occurrence in the history; listed, not fitted")
+    return info, rows, Xf, notes
+
+
+def _pattern_ids(obs: np.ndarray, keys: list[np.ndarray]) -> np.ndarray:
+    """One id per distinct (extra keys, observed-rows pattern) among the columns of ``obs``."""
+    packed = np.packbits(obs, axis=0).T  # (series, bytes)
+    extra = np.column_stack([np.asarray(k, dtype=np.int64) for k in keys]) if keys else \
+        np.zeros((obs.shape[1], 0), dtype=np.int64)
+    table = np.concatenate([extra.view(np.uint8).reshape(obs.shape[1], -1), packed], axis=1)
+    table = np.ascontiguousarray(table)
+    rows = table.view(np.dtype((np.void, table.shape[1]))).ravel()
+    _, first, inv = np.unique(rows, return_index=True, return_inverse=True)
+    # number groups in order of their first series, so group ids follow the key order
+    order = np.argsort(first, kind="stable")
+    rank = np.empty_like(order)
+    rank[order] = np.arange(len(order))
+    return rank[inv.ravel()]
+
+
+# ---------------------------------------------------------------- units of work
+
+
+@dataclass
+class BatchUnit:
+    """A block of series of one group: everything the block needs, nothing else."""
+
+    index: int
+    group: Group
+    sids: np.ndarray
+    actual: np.ndarray  # (n_periods, m): the panel's values for these series
+    spans: np.ndarray  # (m, 2): first, last
+    contexts: dict[tuple[int, int], SpanContext]
+
+
+@dataclass
+class LoopUnit:
+    """A few series fitted one by one with :func:`evcal.fit.fit`."""
+
+    index: int
+    sids: np.ndarray
+    histories: list[History]
+    transforms: list[str]
+    calendar_text: str
+    options: FitOptions
+
+
+@dataclass
+class UnitResult:
+    index: int
+    tables: BlockTables
+    series: pd.DataFrame  # _sid, engine, group, transform, method, sigma2, smear, note
+    params: pd.DataFrame  # _sid + one column per coefficient
+    skipped: pd.DataFrame  # _sid, reason, detail
+
+
+def run_batch(unit: BatchUnit) -> UnitResult:
+    """Solve a block of series that share a design, then build their tables."""
+    g = unit.group
+    assert g.solve is not None
+    rows = g.rows
+    y = unit.actual[rows]
+    if g.transform == "log":
+        with np.errstate(divide="ignore"):
+            Y = np.log(y) - g.offset[:, None]
+    else:
+        # the single-series path divides by the open share, then scales rows by it
+        share = g.share[:, None]
+        Y = (y / share) * np.where(share > 0, share, 1.0)
+    B, E, sigma2 = g.solve.solve(Y)
+    term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
+    if len(term_idx):
+        cov = g.solve.covariances(E, term_idx)
+        se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
+    else:
+        se = np.zeros((0, len(unit.sids)))
+    smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
+    parts: list[BlockTables] = []
+    for (f, last), ctx in unit.contexts.items():
+        pick = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last))
+        if not len(pick):
+            continue
+        parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
+                                  unit.actual[f:last + 1, pick], unit.sids[pick]))
+    tables = _concat_tables(parts)
+    series = pd.DataFrame({"_sid": unit.sids, "engine": "batched", "group": g.gid,
+                           "transform": g.transform, "method": "ols", "sigma2": sigma2, "smear": smear,
+                           "hac_lags": g.solve.lags, "note": "; ".join(g.notes)})
+    params = pd.DataFrame(B.T, columns=g.info.fitted_cols)
+    params.insert(0, "_sid", unit.sids)
+    empty = pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
+    return UnitResult(unit.index, tables, series, params, empty)
+
+
+_CAL_CACHE: dict[str, Any] = {}
+
+
+def _calendar(text: str) -> Any:
+    if text not in _CAL_CACHE:
+        _CAL_CACHE[text] = load_calendar_any(text)
+    return _CAL_CACHE[text]
+
+
+def run_loop(unit: LoopUnit) -> UnitResult:
+    """Fit each series with the single-series :func:`evcal.fit.fit`; failures become skip reasons."""
+    from evcal.errors import EvcalError
+    from evcal.fit import fit
+
+    cal = _calendar(unit.calendar_text)
+    parts: list[BlockTables] = []
+    series_rows, param_rows, skipped = [], [], []
+    for sid, hist, tr in zip(unit.sids, unit.histories, unit.transforms, strict=True):
+        try:
+            res = fit(hist, cal, **{**_option_dict(unit.options), "transform": tr})
+        except (EvcalError, np.linalg.LinAlgError, ValueError) as err:
+            text = "; ".join(err.problems) if isinstance(err, EvcalError) else f"{type(err).__name__}: {err}"
+            skipped.append({"_sid": sid, "reason": "fit failed", "detail": text})
+            continue
+        parts.append(_result_tables(res, int(sid)))
+        series_rows.append({"_sid": sid, "engine": "per-series", "group": -1, "transform": res.transform,
+                            "method": res.model_choice.get("chosen", ""), "sigma2": res.sigma2,
+                            "smear": res.smear, "hac_lags": np.nan, "note": "; ".join(res.warnings)})
+        param_rows.append({"_sid": sid, **{k: float(v) for k, v in res.params.items()}})
+    return UnitResult(unit.index, _concat_tables(parts), pd.DataFrame(series_rows),
+                      pd.DataFrame(param_rows), pd.DataFrame(skipped, columns=["_sid", "reason", "detail"]))
+
+
+def _option_dict(options: FitOptions) -> dict[str, Any]:
+    return {f.name: getattr(options, f.name) for f in fields(options)}
+
+
+def _result_tables(res: Any, sid: int) -> BlockTables:
+    def tag(frame: pd.DataFrame) -> pd.DataFrame:
+        out = frame.copy()
+        out.insert(0, "_sid", sid)
+        return out
+
+    q = res.quality or {}
+    quality = pd.DataFrame({"_sid": [sid], "periods_fitted": [int(q.get("periods_fitted", 0))],
+                            "wape_pct": [q.get("wape_pct", np.nan)], "resid_sd": [q.get("resid_sd", np.nan)],
+                            "mean_base": [res.mean_base]})
+    return BlockTables(tag(res.lifts), tag(res.occurrences), tag(res.profile), tag(res.fitted), quality)
+
+
+def _concat_tables(parts: list[BlockTables]) -> BlockTables:
+    def cat(name: str) -> pd.DataFrame:
+        frames = [getattr(p, name) for p in parts if len(getattr(p, name))]
+        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+
+    return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), cat("fitted"), cat("quality"))
+
+
+# ---------------------------------------------------------------- the whole panel
+
+
+@dataclass
+class PanelFit:
+    """Everything a panel fit produced, with ``_sid`` (series position) in every table."""
+
+    panel: Panel
+    options: FitOptions
+    calendar: Any
+    lifts: pd.DataFrame
+    occurrences: pd.DataFrame
+    profile: pd.DataFrame
+    fitted: pd.DataFrame | None
+    quality: pd.DataFrame
+    series: pd.DataFrame
+    params: pd.DataFrame
+    skipped: pd.DataFrame
+    groups: list[dict[str, Any]]
+
+
+def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[Any], Screen, list[Group]]:
+    """Screen the series, build the shared inputs and cut the work into units."""
+    templates: dict[str, Template] = {}
+
+    def template(tr: str) -> Template:
+        if tr not in templates:
+            templates[tr] = Template.build(panel, calendar, options, tr)
+        return templates[tr]
+
+    from evcal.design.events import OpenShare
+
+    closed_full = OpenShare(calendar).values(panel.periods).to_numpy() <= 1e-9
+    screen = screen_series(panel.values, panel.periods, panel.freq, options.transform,
+                           options.allow_negative, closed_full)
+    batched = (screen.transform != "") & np.isin(screen.transform, ["log", "none"]) \
+        & (options.errors in ("auto", "ols"))
+    loop = (screen.transform != "") & ~batched
+
+    units: list[Any] = []
+    groups: list[Group] = []
+    pos = np.flatnonzero(batched)
+    if len(pos):
+        obs = ~np.isnan(panel.values[:, pos])
+        tr_code = np.where(screen.transform[pos] == "log", 0, 1)
+        t0 = template(str(screen.transform[pos[0]]))
+        origins = np.array([t0.origin(int(f)) for f in panel.first[pos]])
+        gid_local = _pattern_ids(obs, [tr_code, origins.astype(np.int64)])
+        for gl in range(int(gid_local.max()) + 1):
+            members = pos[gid_local == gl]
+            tr = str(screen.transform[members[0]])
+            tpl = template(tr)
+            origin = float(origins[gid_local == gl][0])
+            observed = ~np.isnan(panel.values[:, members[0]])
+            info, rows, Xf, notes = _group_info(tpl, calendar, observed, origin)
+            n_fit, k = Xf.shape
+            if n_fit <= k:
+                screen.skip(members, "too few periods for the model",
+                            f"{n_fit} periods in the fit for {k} coefficients")
+                continue
+            g = Group(len(groups), tr, origin, rows, members, info, SharedSolve.of(Xf), notes,
+                      offset=tpl.inp.offset.to_numpy()[rows],
+                      share=tpl.inp.design.open_share.to_numpy()[rows])
+            groups.append(g)
+            raw = tpl.with_origin(tpl.raw, origin)
+            share_all = tpl.inp.design.open_share.to_numpy()
+            spans = np.column_stack([panel.first[members], panel.last[members]])
+            contexts: dict[tuple[int, int], SpanContext] = {}
+            for f, last in {tuple(s) for s in spans.tolist()}:
+                sl = slice(f, last + 1)
+                periods = panel.periods[sl]
+                contexts[(f, last)] = SpanContext.build(raw.iloc[sl], share_all[sl], calendar, periods,
+                                                        panel.dates(periods), rows[sl], info.status)
+            for a in range(0, len(members), BLOCK_SERIES):
+                sids = members[a:a + BLOCK_SERIES]
+                sp = spans[a:a + BLOCK_SERIES]
+                used = {tuple(s) for s in sp.tolist()}
+                units.append(BatchUnit(len(units), g, sids, panel.values[:, sids], sp,
+                                       {key: c for key, c in contexts.items() if key in used}))
+    lpos = np.flatnonzero(loop)
+    cal_text = calendar_text_of(calendar)
+    for a in range(0, len(lpos), LOOP_SERIES):
+        sids = lpos[a:a + LOOP_SERIES]
+        units.append(LoopUnit(len(units), sids, [panel.history(int(j)) for j in sids],
+                              [str(screen.transform[j]) for j in sids], cal_text, options))
+    return units, screen, groups
+
+
+def calendar_text_of(calendar: Any) -> str:
+    from evcal.fit.model import calendar_text
+
+    return calendar_text(calendar, None)
+
+
+def run_unit(unit: Any) -> UnitResult:
+    return run_batch(unit) if isinstance(unit, BatchUnit) else run_loop(unit)
+
+
+def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions,
+                   runner: Callable[[list[Any], Callable[[Any], UnitResult]], list[UnitResult]] | None = None,
+                   keep_fitted: bool = True,
+                   on_result: Callable[[UnitResult], None] | None = None) -> PanelFit:
+    """Fit every series of ``panel`` with the shared ``calendar``.
+
+    Parameters
+    ----------
+    runner : callable, optional
+        ``runner(units, fn) -> results`` in unit order; runs here when None
+        (see :func:`evcal.panel.distributed.runner`).
+    keep_fitted : bool
+        Keep the long fitted table in memory (False when ``on_result`` streams it to a file).
+    on_result : callable, optional
+        Called with each unit's result in unit order (e.g. to write the fitted rows).
+    """
+    cal = load_calendar_any(calendar)
+    units, screen, groups = plan_units(panel, cal, options)
+    results = runner(units, run_unit) if runner is not None else [run_unit(u) for u in units]
+    results = sorted(results, key=lambda r: r.index)
+    if on_result is not None:
+        for r in results:
+            on_result(r)
+    for r in results:
+        if len(r.skipped):
+            screen.skip(r.skipped["_sid"].to_numpy(dtype=int), "fit failed", r.skipped["detail"].to_numpy())
+    tables = _concat_tables([r.tables for r in results])
+    fitted = tables.fitted if keep_fitted else None
+    series = pd.concat([r.series for r in results if len(r.series)], ignore_index=True) \
+        if any(len(r.series) for r in results) else pd.DataFrame(columns=["_sid"])
+    params = pd.concat([r.params for r in results if len(r.params)], ignore_index=True) \
+        if any(len(r.params) for r in results) else pd.DataFrame(columns=["_sid"])
+    skipped_pos = np.flatnonzero(~screen.ok)
+    skipped = pd.DataFrame({"_sid": skipped_pos, "reason": screen.reason[skipped_pos],
+                            "detail": screen.detail[skipped_pos]})
+    group_rows = [{"group": g.gid, "transform": g.transform, "trend_origin": g.origin,
+                   "series": int(len(g.members)), "periods_fitted": int(g.rows.sum()),
+                   "coefficients": len(g.info.fitted_cols), "hac_lags": g.solve.lags if g.solve else None,
+                   "status": {c: {"status": st.status, "note": st.note} for c, st in g.info.status.items()},
+                   "fitted_columns": g.info.fitted_cols, "notes": g.notes} for g in groups]
+    return PanelFit(panel, options, cal, tables.lifts, tables.occurrences, tables.profile, fitted,
+                    tables.quality, series.sort_values("_sid", kind="stable").reset_index(drop=True),
+                    params.sort_values("_sid", kind="stable").reset_index(drop=True), skipped, group_rows)

@@ -1,0 +1,432 @@
+"""The contract tables for a block of series that share a design, computed for all at once.
+
+Each function mirrors its single-series counterpart in :mod:`evcal.effects`
+(``decompose``, ``occurrences_table``, ``lifts_table``, ``profile_table`` and
+the fit-quality numbers of ``build_tables``) with the series as a second
+axis: the design, the open share, the closures and the occurrence windows
+are the same for every series of the block, only the coefficients differ.
+The tests check the results against :func:`evcal.fit.fit` series by series.
+
+Per-occurrence intervals: the single-series table takes the 2.5 % and 97.5 %
+quantiles of 1,000 simulated draws (fixed seed) of
+``Σₜ baseₜ (exp((b + s z) xₜ) − 1)``. With ``xₜ ≥ 0`` and ``baseₜ ≥ 0`` (every
+event column and base) each draw is a non-decreasing function of its ``z``, so
+the sorted draws are that function at the sorted ``z``: the same quantiles come
+from evaluating it at the four order statistics next to each quantile (the
+linear interpolation numpy uses), not at all 2,000 draws.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import period_days
+from evcal.design.seasonal import AnnualFourier, SeasonalDummies, base_freq, cycle_length
+from evcal.effects.decompose import closure_shares
+from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS, Z95
+
+__all__ = ["SpanContext", "GroupInfo", "BlockTables", "block_tables"]
+
+N_DRAWS = 1000  # as evcal.effects.tables.occurrences_table
+OCC_SEED = 7
+_H_LOW = (N_DRAWS - 1) * 0.025
+_H_HIGH = (N_DRAWS - 1) * 0.975
+
+
+@dataclass
+class GroupInfo:
+    """What a fit group shares: transform, column statuses, the fitted columns and the calendar's names."""
+
+    transform: str
+    status: dict[str, Any]  # column -> ColumnStatus
+    fitted_cols: list[str]
+    base_columns: list[str]  # every trend/seasonal column of the design (fitted or not)
+    like_map: dict[str, str]
+    assumed: dict[str, float]
+    intervention_names: list[str]
+    closure_events: list[str]
+    event_info: dict[str, dict[str, Any]]
+    event_labels: dict[str, str]
+    spec: Any  # DesignSpec (with the group's trend origin)
+
+    @property
+    def term_cols(self) -> list[str]:
+        """Fitted event and intervention columns: the ones whose intervals are reported."""
+        return [c for c in self.fitted_cols if c not in set(self.base_columns)]
+
+
+@dataclass
+class _Occ:
+    event: str
+    start: str
+    end: str
+    sl: slice
+    cols: list[str]
+    zero: bool
+    frac: np.ndarray
+    active_days: np.ndarray
+    xs: np.ndarray  # event columns summed over the window times frac (zeros for closures)
+
+
+@dataclass
+class SpanContext:
+    """The design rows, open share, closures and occurrence windows of one span of periods."""
+
+    periods: pd.PeriodIndex
+    dates: pd.DatetimeIndex
+    raw: pd.DataFrame  # unmerged design columns (like-events apart), as build_tables uses
+    share: np.ndarray
+    closures: pd.DataFrame
+    days: np.ndarray
+    in_fit: np.ndarray
+    occs: list[_Occ]
+
+    @classmethod
+    def build(cls, raw: pd.DataFrame, share: np.ndarray, calendar: Any, periods: pd.PeriodIndex,
+              dates: pd.DatetimeIndex, in_fit: np.ndarray, status: dict[str, Any]) -> SpanContext:
+        closures = closure_shares(calendar, periods)
+        days = period_days(periods)
+        parts_cols = set(c for c in status if c in raw.columns) | set(closures.columns)
+        occs = _occurrence_windows(calendar, periods, raw, days, parts_cols)
+        return cls(periods, dates, raw, share, closures, days, in_fit, occs)
+
+
+def _occurrence_windows(calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame, days: np.ndarray,
+                        parts_cols: set[str]) -> list[_Occ]:
+    """The series-independent part of :func:`evcal.effects.tables.occurrences_table`."""
+    start, end = periods[0].start_time.normalize(), periods[-1].end_time.normalize()
+    occ = calendar.occurrences(start, end)
+    if occ.empty:
+        return []
+    colmap = calendar.event_columns()
+    cols_of: dict[str, list[str]] = {}
+    for c, ev in colmap.items():
+        cols_of.setdefault(ev, []).append(c)
+    p_start = periods.start_time.normalize().to_numpy()
+    p_end = periods.end_time.normalize().to_numpy()
+    x_np = {c: X[c].to_numpy(dtype=float) for c in X.columns}
+    out = []
+    for r in occ.itertuples(index=False):
+        ev = calendar.event(r.event)
+        w0 = pd.Timestamp(r.start) - pd.Timedelta(days=ev.before)
+        w1 = pd.Timestamp(r.end) + pd.Timedelta(days=ev.after)
+        i0 = int(np.searchsorted(p_end, np.datetime64(w0), side="left"))
+        i1 = int(np.searchsorted(p_start, np.datetime64(w1), side="right"))
+        if i1 <= i0:
+            continue
+        touch = slice(i0, i1)
+        zero = ev.effect.kind == "zero"
+        cols = [c for c in cols_of.get(r.event, []) if c in parts_cols]
+        if zero:
+            cols = [r.event] if r.event in parts_cols else []
+        if not cols:
+            continue
+        ov0 = np.maximum(p_start[touch], np.datetime64(w0, "ns"))
+        ov1 = np.minimum(p_end[touch], np.datetime64(w1, "ns"))
+        ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
+        n_t = i1 - i0
+        frac = np.ones(n_t)
+        xs = np.zeros(n_t)
+        if not zero:
+            x_sum = sum(x_np[c][touch] for c in cols)
+            x_tot = x_sum * days[touch]
+            own = ov_days * float(r.strength)
+            frac = np.where(x_tot > own + 1e-9, own / np.maximum(x_tot, 1e-12), 1.0)
+            xs = x_sum * frac
+        out.append(_Occ(r.event, pd.Timestamp(r.start).date().isoformat(),
+                        pd.Timestamp(r.end).date().isoformat(), touch, cols, zero, frac,
+                        np.maximum(ov_days, 1.0), xs))
+    return out
+
+
+@dataclass
+class BlockTables:
+    """The tables of one block, long, with a ``_sid`` column (the series' position in the panel)."""
+
+    lifts: pd.DataFrame
+    occurrences: pd.DataFrame
+    profile: pd.DataFrame
+    fitted: pd.DataFrame
+    quality: pd.DataFrame  # _sid, periods_fitted, wape_pct, resid_sd, mean_base
+
+
+def _coefficients(group: GroupInfo, params: dict[str, np.ndarray], m: int) -> dict[str, np.ndarray]:
+    """:func:`evcal.effects.decompose.term_coefficients` for m series."""
+    out: dict[str, np.ndarray] = {}
+    for col, st in group.status.items():
+        if st.status == "fitted":
+            out[col] = params.get(col, np.zeros(m))
+        elif st.status == "like":
+            out[col] = params.get(group.like_map.get(col, ""), np.zeros(m))
+        elif st.status == "assumed":
+            a = group.assumed[col]
+            out[col] = np.full(m, float(np.log1p(a)) if group.transform != "none" else a)
+        else:
+            out[col] = np.zeros(m)
+    return out
+
+
+def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.ndarray,
+                 smear: np.ndarray, actual: np.ndarray, sids: np.ndarray) -> BlockTables:
+    """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
+
+    Parameters
+    ----------
+    ctx : SpanContext
+        The span's shared rows.
+    group : GroupInfo
+        Statuses and columns of the fit group.
+    params : ndarray, shape (len(group.fitted_cols), m)
+    se : ndarray, shape (len(group.term_cols), m)
+        HAC standard errors of the event and intervention coefficients.
+    smear : ndarray, shape (m,)
+    actual : ndarray, shape (len(ctx.periods), m)
+    sids : ndarray of int, shape (m,)
+        The series' positions in the panel (the ``_sid`` column of every table).
+    """
+    m = params.shape[1]
+    pmap = {c: params[i] for i, c in enumerate(group.fitted_cols)}
+    se_map = {c: se[i] for i, c in enumerate(group.term_cols)}
+    X = ctx.raw
+    coefs = _coefficients(group, pmap, m)
+    base_cols = [c for c in group.base_columns if c in X.columns]
+    Xb = X[base_cols].to_numpy()
+    Bb = np.vstack([pmap.get(c, np.zeros(m)) for c in base_cols]) if base_cols else np.zeros((0, m))
+    eta_base = Xb @ Bb
+    terms = [c for c in coefs if c in X.columns]
+    share = ctx.share[:, None]
+    tmat = {c: X[c].to_numpy()[:, None] * coefs[c][None, :] for c in terms}
+    parts: dict[str, np.ndarray] = {}
+    if group.transform == "none":
+        base = eta_base
+        total = sum(tmat.values()) if terms else np.zeros_like(base)
+        with_events = base + total
+        for c in terms:
+            parts[c] = tmat[c] * share
+    else:
+        base = smear[None, :] * np.exp(eta_base)
+        total = sum(tmat.values()) if terms else np.zeros_like(base)
+        with_events = smear[None, :] * np.exp(eta_base + total)
+        gap = (with_events - base) * share
+        big = np.abs(total) > 1e-12
+        safe = np.where(big, total, 1.0)
+        for c in terms:
+            parts[c] = np.where(big, gap * tmat[c] / safe, base * share * tmat[c])
+    fitted = with_events * share
+    lost = base * (share - 1.0)
+    if len(ctx.closures.columns):
+        cl = ctx.closures.reindex(ctx.periods).fillna(0.0).to_numpy()
+        tot = cl.sum(axis=1)
+        safe_tot = np.where(tot > 0, tot, 1.0)
+        for j, c in enumerate(ctx.closures.columns):
+            parts[c] = np.where((tot > 0)[:, None], lost * (cl[:, j] / safe_tot)[:, None], 0.0)
+    n = len(ctx.periods)
+    mean_base = base.mean(axis=0)
+
+    occ = _occurrences(ctx, group, parts, base, pmap, se_map, sids)
+    lifts = _lifts(ctx, group, parts, base, pmap, se_map, occ, sids)
+    profile = _profile(group, pmap, mean_base, sids)
+
+    # fitted table (long) and fit quality
+    sid_rep = np.repeat(sids, n)
+    fcols: dict[str, Any] = {"_sid": sid_rep, "date": np.tile(ctx.dates.to_numpy(), m),
+                             "actual": actual.T.ravel(), "fitted": fitted.T.ravel(), "base": base.T.ravel()}
+    for c, v in parts.items():
+        fcols[c] = v.T.ravel()
+    fcols["in_fit"] = np.tile(ctx.in_fit, m)
+    fitted_long = pd.DataFrame(fcols)
+
+    rows = ctx.in_fit[:, None]
+    a_in = np.where(rows, actual, np.nan)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if group.transform == "log":
+            scale_resid = np.log(a_in) - np.log(fitted / smear[None, :])
+        else:
+            scale_resid = a_in - fitted
+    ok = rows & np.isfinite(scale_resid)
+    n_ok = ok.sum(axis=0)
+    abs_err = np.where(ok, np.abs(actual - fitted), 0.0).sum(axis=0)
+    abs_act = np.where(ok, np.abs(actual), 0.0).sum(axis=0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        wape = np.where(n_ok > 0, 100 * abs_err / abs_act, np.nan)
+        r_ok = np.where(ok, scale_resid, 0.0)
+        mu = r_ok.sum(axis=0) / n_ok
+        sd = np.sqrt(np.where(ok, (scale_resid - mu) ** 2, 0.0).sum(axis=0) / n_ok)
+    quality = pd.DataFrame({"_sid": sids, "periods_fitted": n_ok.astype(int), "wape_pct": wape,
+                            "resid_sd": sd, "mean_base": mean_base})
+    return BlockTables(lifts, occ, profile, fitted_long, quality)
+
+
+def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray, ratio: np.ndarray,
+                z_sorted: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """2.5 % and 97.5 % quantiles of the simulated draws (see the module notes), m series at once."""
+    lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
+    t_lo, t_hi = _H_LOW - lo_i, _H_HIGH - hi_i
+    if (xs >= 0).all() and (base_t >= 0).all() and (s >= 0).all():
+        def g(i: int) -> np.ndarray:
+            return ratio * (base_t * np.expm1(np.outer(xs, b + s * z_sorted[i]))).sum(axis=0)
+
+        up = ratio >= 0
+        d = {i: g(i) for i in (lo_i, lo_i + 1, hi_i, hi_i + 1)}
+        # ascending draws: g at ascending z when g increases with z, at descending z otherwise
+        last = N_DRAWS - 1
+        dn = {i: g(last - i) for i in (lo_i, lo_i + 1, hi_i, hi_i + 1)}
+        a_lo = np.where(up, d[lo_i], dn[lo_i])
+        b_lo = np.where(up, d[lo_i + 1], dn[lo_i + 1])
+        a_hi = np.where(up, d[hi_i], dn[hi_i])
+        b_hi = np.where(up, d[hi_i + 1], dn[hi_i + 1])
+        return _lerp(a_lo, b_lo, t_lo), _lerp(a_hi, b_hi, t_hi)
+    # general case: the draws themselves
+    draws = (base_t[None, :, :] * np.expm1(xs[None, :, None] * (b[None, None, :]
+             + s[None, None, :] * z_sorted[:, None, None]))).sum(axis=1) * ratio[None, :]
+    low, high = np.quantile(draws, [0.025, 0.975], axis=0)
+    return low, high
+
+
+def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
+    # numpy's quantile interpolation (it computes from the upper end when t >= 0.5)
+    diff = b - a
+    return b - diff * (1 - t) if t >= 0.5 else a + diff * t
+
+
+def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
+                 pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], sids: np.ndarray
+                 ) -> pd.DataFrame:
+    m = len(sids)
+    cols_out = OCC_COLUMNS + ["low_units", "high_units"]
+    if not ctx.occs:
+        return pd.DataFrame({"_sid": np.zeros(0, dtype=int), **{c: [] for c in cols_out}})
+    z_sorted = np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
+    share = ctx.share
+    n_occ = len(ctx.occs)
+    added = np.empty((n_occ, m))
+    pct = np.empty((n_occ, m))
+    low = np.empty((n_occ, m))
+    high = np.empty((n_occ, m))
+    for i, o in enumerate(ctx.occs):
+        sl = o.sl
+        contrib = sum(parts[c][sl] for c in o.cols)
+        add = (contrib * o.frac[:, None]).sum(axis=0)
+        base_win = (base[sl] * (o.active_days / ctx.days[sl])[:, None]).sum(axis=0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            pct[i] = np.where(base_win != 0, 100.0 * add / base_win, np.nan)
+        added[i] = add
+        lo = hi = add
+        src = o.cols[0]
+        st = group.status.get(src)
+        pcol = ""
+        if st is not None and st.status in ("fitted", "like"):
+            pcol = src if st.status == "fitted" else group.like_map.get(src, "")
+        if pcol in pmap and not o.zero and group.transform != "none":
+            b, s = pmap[pcol], se_map[pcol]
+            base_t = base[sl] * share[sl][:, None]
+            point = (base_t * np.expm1(np.outer(o.xs, b))).sum(axis=0)
+            ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
+            lo, hi = _sim_bounds(b, s, o.xs, base_t, ratio, z_sorted)
+        elif pcol in pmap and not o.zero:
+            s = se_map[pcol]
+            xs_sum = abs(float(o.xs.sum()))
+            lo, hi = add - Z95 * s * xs_sum, add + Z95 * s * xs_sum
+        low[i], high[i] = lo, hi
+    return pd.DataFrame({
+        "_sid": np.repeat(sids, n_occ),
+        "event": np.tile(np.array([o.event for o in ctx.occs], dtype=object), m),
+        "start": np.tile(np.array([o.start for o in ctx.occs], dtype=object), m),
+        "end": np.tile(np.array([o.end for o in ctx.occs], dtype=object), m),
+        "added_units": added.T.ravel(), "added_pct": pct.T.ravel(),
+        "low_units": low.T.ravel(), "high_units": high.T.ravel(),
+    })
+
+
+def _pct(b: np.ndarray, transform: str, scale: np.ndarray | float) -> np.ndarray:
+    if transform == "none":
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(scale != 0, 100.0 * b / scale, np.nan)
+    return 100.0 * np.expm1(b)
+
+
+def _lifts(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
+           pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], occ: pd.DataFrame,
+           sids: np.ndarray) -> pd.DataFrame:
+    """:func:`evcal.effects.tables.lifts_table` for m series: one row per series and column."""
+    m = len(sids)
+    nan = np.full(m, np.nan)
+    n_occ = len(ctx.occs)
+    occ_events = [o.event for o in ctx.occs]
+    added = occ["added_units"].to_numpy().reshape(m, n_occ) if n_occ else np.zeros((m, 0))
+
+    def units_of(ev: str) -> np.ndarray:
+        idx = [i for i, e in enumerate(occ_events) if e == ev]
+        return added[:, idx].mean(axis=1) if idx else nan
+
+    rows: list[dict[str, Any]] = []
+    for col, st in group.status.items():
+        kind = "intervention" if col in group.intervention_names else "event"
+        info = group.event_info.get(col, {})
+        scale: np.ndarray | float = 1.0
+        if group.transform == "none" and col in ctx.raw.columns:
+            active = ctx.raw[col].to_numpy() > 0
+            scale = base[active].mean(axis=0) if active.any() else nan
+        lift = low = high = nan
+        if st.status in ("fitted", "like"):
+            src = col if st.status == "fitted" else group.like_map.get(col, "")
+            if src in pmap:
+                b, s = pmap[src], se_map[src]
+                lift = _pct(b, group.transform, scale)
+                low = _pct(b - Z95 * s, group.transform, scale)
+                high = _pct(b + Z95 * s, group.transform, scale)
+        elif st.status == "assumed":
+            lift = low = high = np.full(m, 100.0 * group.assumed[col])
+        ev_name = info.get("event", col)
+        if kind == "event":
+            units = units_of(ev_name)
+        elif col in parts and st.status == "fitted":
+            units = parts[col].sum(axis=0)
+        else:
+            units = nan
+        rows.append({"event": col, "lift_pct": lift, "low_pct": low, "high_pct": high,
+                     "units_per_occurrence": units,
+                     "identifiable": st.status in ("fitted", "like", "assumed"),
+                     "note": st.note, "kind": kind, "label": info.get("label", col)})
+    for ev in group.closure_events:
+        rows.append({"event": ev, "lift_pct": np.full(m, -100.0), "low_pct": np.full(m, -100.0),
+                     "high_pct": np.full(m, -100.0), "units_per_occurrence": units_of(ev),
+                     "identifiable": True, "note": "closure (effect: zero): known zero, kept out of the fit",
+                     "kind": "event", "label": group.event_labels.get(ev, ev)})
+    r = len(rows)
+    out: dict[str, Any] = {"_sid": np.repeat(sids, r)}
+    for c in LIFT_COLUMNS + ["kind", "label"]:
+        first = rows[0][c] if rows else None
+        if isinstance(first, np.ndarray):
+            out[c] = np.column_stack([row[c] for row in rows]).ravel() if rows else []
+        else:
+            out[c] = np.tile(np.array([row[c] for row in rows], dtype=object), m) if rows else []
+    frame = pd.DataFrame(out)
+    frame["identifiable"] = frame["identifiable"].astype(bool)
+    return frame
+
+
+def _profile(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarray,
+             sids: np.ndarray) -> pd.DataFrame:
+    """:func:`evcal.effects.tables.profile_table` for m series."""
+    spec = group.spec
+    m = len(sids)
+    b = base_freq(spec.freq)
+    cycle = AnnualFourier(spec.fourier_order).cycle() if (b == "D" or spec.seasonal == "fourier") \
+        else SeasonalDummies(spec.freq).cycle()
+    beta = np.vstack([pmap.get(c, np.zeros(m)) for c in cycle.columns])
+    s = cycle.to_numpy() @ beta
+    if group.transform == "none":
+        level = np.where(mean_base != 0, mean_base, 1.0)
+        vals = level[None, :] + s - s.mean(axis=0)
+        idx = 100.0 * vals / vals.mean(axis=0)
+    else:
+        e = np.exp(s - s.max(axis=0))
+        idx = 100.0 * e / e.mean(axis=0)
+    p = cycle_length(spec.freq)
+    return pd.DataFrame({"_sid": np.repeat(sids, p), "period": np.tile(np.arange(1, p + 1), m),
+                         "index": idx[:p].T.ravel()})

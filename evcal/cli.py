@@ -359,7 +359,8 @@ def discover_cmd(
     typer.echo(found.summary())
     extra = [n for n, keep in (("index_effects.csv", not found.index_effects.empty),
                                ("lost_demand.csv", bool(found.lost))) if keep]
-    typer.echo(f"\nwrote {out}/ (suggestions.csv, suggestions.yaml{''.join(', ' + e for e in extra)})")
+    typer.echo(f"\nwrote {out}/ (suggestions.csv, suggestions.yaml, findings.png"
+               f"{''.join(', ' + e for e in extra)})")
 
 
 if __name__ == "__main__":  # pragma: no cover

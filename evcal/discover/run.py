@@ -103,11 +103,15 @@ class Findings:
         lines += [f"note: {n}" for n in self.notes]
         return "\n".join(lines)
 
-    def save(self, directory: str | Path) -> Path:
-        """Write ``suggestions.csv`` and ``suggestions.yaml`` (and, when there are
-        any, ``index_effects.csv`` and ``lost_demand.csv``), all or nothing."""
+    def save(self, directory: str | Path, *, chart: bool = True) -> Path:
+        """Write ``suggestions.csv``, ``suggestions.yaml`` and ``findings.png`` (and,
+        when there are any, ``index_effects.csv`` and ``lost_demand.csv``), all or nothing."""
         directory = Path(directory)
         with atomic_dir(directory) as tmp:
+            if chart:
+                from evcal.discover.chart import findings_chart
+
+                findings_chart(self, tmp / "findings.png")
             self.table.to_csv(tmp / "suggestions.csv", index=False, float_format="%.6g")
             (tmp / "suggestions.yaml").write_text(self.yaml, encoding="utf-8")
             if not self.index_effects.empty:
@@ -476,12 +480,13 @@ def _abnormal_row(flagged: list[AbnormalYear], transform: str, effects: pd.DataF
     size = None
     if level is not None and transform != "none":
         size = round(100.0 * math.expm1(level.value), 2)
-        parts.append(f"sits {size:+.1f}% off the model (modified z {level.z:+.1f})")
+        parts.append(f"sits {size:+.1f}% off the other years (z {level.z:+.1f})")
     elif level is not None:
-        parts.append(f"sits {level.value:+.3g} units off the model (modified z {level.z:+.1f})")
+        parts.append(f"sits {level.value:+.3g} units off the other years (z {level.z:+.1f})")
     spread = next((a for a in flagged if a.kind == "spread"), None)
     if spread is not None:
-        parts.append(f"is erratic (mean absolute deviation {spread.value:.3g}, modified z {spread.z:+.1f})")
+        parts.append(f"is erratic (residual sd {spread.value:.1f} times the other years', "
+                     f"z {spread.z:+.1f})")
     text = f"{year} " + " and ".join(parts) + ": exclude the year"
     if level is not None:
         text += " or add a pulse over it"
@@ -500,7 +505,7 @@ def _abnormal_row(flagged: list[AbnormalYear], transform: str, effects: pd.DataF
 def _abnormal_entries(flagged: list[AbnormalYear]) -> list[Entry]:
     a = flagged[0]
     seen = (f"{a.year}: residual {' and '.join(x.kind for x in flagged)} departs from the other "
-            f"years (modified z {', '.join(f'{x.z:+.1f}' for x in flagged)})")
+            f"years (z {', '.join(f'{x.z:+.1f}' for x in flagged)})")
     level = any(x.kind == "level" for x in flagged)
     out = [Entry("exclude", {"start": a.start.date(), "end": a.end.date(),
                              "reason": f"abnormal year {a.year}"},

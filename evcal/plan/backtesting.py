@@ -195,6 +195,8 @@ def backtest(
     bar = _progress(len(holdout), progress)
     try:
         for y in holdout:
+            if bar is not None:
+                bar.update(bar.task_ids[0], description=f"fitting before {y}")
             train = years < y
             n_train = int(values[train].notna().sum())
             if n_train < 2 * p:
@@ -241,7 +243,7 @@ def backtest(
                         f = raw * (a.sum() / tot) if tot > 0 else np.full(len(raw), np.nan)
                     rows.append({"year": int(y), "method": method, "spread": how, **score(f, a)})
             if bar is not None:
-                bar.update(bar.task_ids[0], advance=1, description=str(y))
+                bar.update(bar.task_ids[0], advance=1)
     finally:
         if bar is not None:
             bar.stop()

@@ -217,6 +217,8 @@ def backtest(
                              "(excluded in the calendar or without a value)")
             if not scored.any():
                 notes.append(f"{y}: no period to score; skipped")
+                if bar is not None:
+                    bar.update(bar.task_ids[0], advance=1)
                 continue
             a = actual[scored]
             share = _average_share(res, values[train])

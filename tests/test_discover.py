@@ -184,3 +184,23 @@ def test_history_from_a_dataframe_and_from_a_file(tmp_path) -> None:
     b = evcal.discover(str(path), value_col="sales", errors="ols")
     assert a.n_periods == b.n_periods == 96
     assert [c.lag for c in a.cycles] == [c.lag for c in b.cycles] == [12]
+
+
+def test_demo_history_without_its_calendar_shows_what_the_calendar_holds() -> None:
+    # The invented demo (demo/generate.py, truth in demo/truth.json): Mothering
+    # Sunday is {easter: -21} with 6 days before, i.e. Easter -27 .. -21, and
+    # the centres close on Dec 25. Without the calendar, discover must suggest
+    # both with those rules, and the new store's level shift near 2022-03-07.
+    import json
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[1] / "demo"
+    truth = json.loads((demo / "truth.json").read_text())
+    found = evcal.discover(demo / "fernhollow-history.csv", errors="ols")
+    rules = {(r.rule.kind, r.rule.value, r.length, r.sign) for r in found.recurring}
+    assert ("easter", (-27,), 7, 1) in rules
+    assert ("fixed", (12, 25), 1, -1) in rules
+    assert "12-25" in truth["closures"]["christmas-closure"][0]
+    shift = truth["interventions"]["new-store-opening"]["start"]
+    starts = [found.fit.residuals.index[o.position] for o in found.outliers.outliers if o.type == "LS"]
+    assert any(abs((p - pd.Period(shift, p.freq)).n) <= 2 for p in starts)

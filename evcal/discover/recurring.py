@@ -17,7 +17,8 @@ Each rule is then checked against every year of the history: a *hit* is a
 year whose period holding the rule's date has a finding of the same sign, an
 *available* year one where that period is in the fit. A rule is suggested
 when it hits in at least :data:`MIN_SHARE` (60 %, "most years"; common
-practice, no source) of its available years and in at least two years. The
+practice, no source) of its available years and in at least half the years
+of the history (and two at least). The
 rule with most hits is taken first and its findings are removed, then the
 next (greedy); ties go to the simpler kind (``fixed``, ``weekday``,
 ``easter``, ``week``) and then to the middle of the tied values, because at
@@ -28,6 +29,7 @@ from __future__ import annotations
 
 import calendar as _stdcal
 import datetime as dt
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -199,7 +201,7 @@ def find_recurring(
     in_fit: np.ndarray | None = None,
     *,
     min_share: float = MIN_SHARE,
-    min_hits: int = MIN_HITS,
+    min_hits: int | None = None,
 ) -> list[Recurring]:
     """Rules that put unexplained findings of one sign in the same place in most years.
 
@@ -212,7 +214,12 @@ def find_recurring(
         The history's periods.
     in_fit : array of bool, optional
         Periods that were in the fit (others cannot show a finding).
-    min_share, min_hits : see module doc.
+    min_share : float
+        Share of available years a rule must hit (default 60 %).
+    min_hits : int, optional
+        Years a rule must hit; default half the years of the history, and at
+        least :data:`MIN_HITS` (a rule whose date exists in few years, such as
+        a 5th Wednesday, must not pass on two coincidences).
 
     Returns
     -------
@@ -231,6 +238,8 @@ def find_recurring(
     first_day = periods[0].start_time.normalize().date()
     last_day = periods[-1].end_time.normalize().date()
     years = list(range(first_day.year, last_day.year + 1))
+    if min_hits is None:
+        min_hits = max(MIN_HITS, math.ceil(len(years) / 2))
     freq = periods.freq
     position = {p: i for i, p in enumerate(periods)}
     weekly_or_longer = _period_days(periods[0]).__len__() >= 7

@@ -212,6 +212,8 @@ def discover(
         giving it a pulse on the seasonal index.
     **fit_options
         Passed to :func:`evcal.fit.fit` (``transform``, ``errors``, ...).
+        Weekly histories default to ``seasonal="fourier"`` here (a smooth
+        annual profile), so that moving events are left in the residuals.
 
     Returns
     -------
@@ -228,6 +230,10 @@ def discover(
     text = _with_entries(base_text, exclude=[
         {"start": s.start.date(), "end": s.end.date(), "reason": s.reason} for s in extra_stockouts])
     cal = load_calendar(text)
+    if "seasonal" not in fit_options and str(hist.freq).startswith("W"):
+        # 52 weekly dummies take up part of any event that falls in the same
+        # week in several years; a smooth annual profile leaves it to be found
+        fit_options = {**fit_options, "seasonal": "fourier"}
     result = fit(hist, cal, **fit_options)
     periods: pd.PeriodIndex = result.residuals.index
     in_fit = result.fitted["in_fit"].to_numpy(dtype=bool)

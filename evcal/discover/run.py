@@ -31,7 +31,7 @@ from evcal.discover.lost_demand import (
 from evcal.discover.outliers import TC_DELTA, OutlierSearch, chen_liu
 from evcal.discover.recurring import Finding, Recurring, Rule, find_recurring
 from evcal.discover.suggestions import Entry, Row, render_yaml, table
-from evcal.errors import HistoryError
+from evcal.errors import CalendarError, HistoryError
 
 __all__ = ["Findings", "discover"]
 
@@ -157,7 +157,8 @@ def _calendar_text(calendar: Any) -> str:
         text = getattr(calendar, "text", None)
         if isinstance(text, str):
             return text
-        raise HistoryError("calendar: pass the calendar as a file path or YAML text to discover")
+        raise CalendarError("calendar: this Calendar object has no YAML text; pass the calendar "
+                            "file path or its YAML text to discover")
     load_calendar(calendar)  # raises CalendarError with file, line and key
     if isinstance(calendar, Path) or (isinstance(calendar, str) and "\n" not in calendar):
         return Path(calendar).read_text(encoding="utf-8")

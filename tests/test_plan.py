@@ -396,3 +396,16 @@ def test_compare_two_calendars(monthly_fit: evcal.FitResult, tmp_path: Path) -> 
     back = pd.read_csv(tmp_path / "cmp.csv")
     assert list(back.columns) == ["date", "plan_a", "plan_b", "difference"]
     assert back["date"].iloc[-1] == "total"
+
+
+def test_february_event_stays_in_the_seasonal_index() -> None:
+    # a one-day event on 14 February is one day of February every year: its day count is the
+    # February dummy, so it cannot be told apart from the season. Only its share of the month
+    # changes (1/28 or 1/29: calendar.isleap), which must not pass for an estimate.
+    cal = EASTER_CAL + "  - {name: valentines, when: {fixed: '02-14'}}\n"
+    res = evcal.fit(monthly_history(start="2012-01"), cal, errors="ols", trading_days=True)
+    assert res.status["valentines"].status == "unidentifiable"
+    plan = res.plan("2024-01", "2024-12", n_sims=0)
+    np.testing.assert_allclose(plan.table["lift:valentines"], 0.0)
+    assert plan.in_season == ["valentines"]
+    assert "In the seasonal index" in plan.summary() and "valentines" in plan.summary()

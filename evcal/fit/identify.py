@@ -110,6 +110,19 @@ def check_columns(
     resid = Xc - q_base @ (q_base.T @ Xc)
     resid = resid - q_base @ (q_base.T @ resid)
     rel_base = np.linalg.norm(resid, axis=0) / np.where(norms > 0, norms, 1.0)
+    # Event columns are day counts divided by the period's length, so a February event
+    # (always one day in February) still varies with leap years (1/28 vs 1/29) and would
+    # pass the test above with a meaningless estimate. Test the day counts as well.
+    from evcal.design.base import period_days
+
+    days = period_days(X.index[rows]) if isinstance(X.index, pd.PeriodIndex) else np.ones(len(Xc))
+    counts = Xc * days[:, None]
+    c_norms = np.linalg.norm(counts, axis=0)
+    c_resid = counts - q_base @ (q_base.T @ counts)
+    c_resid = c_resid - q_base @ (q_base.T @ c_resid)
+    rel_counts = np.linalg.norm(c_resid, axis=0) / np.where(c_norms > 0, c_norms, 1.0)
+    is_event = np.array([kind_of.get(c) == "event" for c in candidate_cols])
+    rel_base = np.where(is_event, np.minimum(rel_base, rel_counts), rel_base)
     gram_raw = Xc.T @ Xc
     gram = resid.T @ resid
     tol2 = (10 * REL_TOL) ** 2  # squared residual ratio on the Gram scale

@@ -176,6 +176,10 @@ def plan_periods(
         if len(hit):
             touched[ev] = min(touched.get(ev, len(periods)), int(hit[0]))
     events = sorted(touched, key=lambda e: (touched[e], e))
+    # events whose effect the fit left inside the seasonal index: no lift of their own
+    in_season = [ev for ev in events if ev not in closures.columns and all(
+        schedule.status[c].status == "unidentifiable"
+        for c in event_cols if colmap[c] == ev)]
 
     dates = period_dates(periods, result.label)
     table = pd.DataFrame({"date": dates, "base": parts["base"].to_numpy(),
@@ -239,7 +243,8 @@ def plan_periods(
         assumptions=active_notes, model_totals=model_totals, target=target, factors=factors,
         full_years=full_years, last_year=dict(result.last_year or {}),
         average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
-        interval_note=interval_note, notes=notes, target_total=total, result=result,
+        interval_note=interval_note, notes=notes, target_total=total, in_season=in_season,
+        result=result,
     )
 
 

@@ -38,6 +38,9 @@ class Plan:
         Years whose every period is in the horizon.
     target_total : float or None
         The single target of the whole horizon (``total=``), when one was given.
+    in_season : list of str
+        Events in the horizon whose effect the fit could not tell apart from the
+        season (their ``lift:`` column is zero: the seasonal index holds them).
     """
 
     table: pd.DataFrame
@@ -56,6 +59,7 @@ class Plan:
     interval_note: str
     notes: list[str] = field(default_factory=list)
     target_total: float | None = None
+    in_season: list[str] = field(default_factory=list)
     result: Any = field(default=None, repr=False)
 
     @property

@@ -84,13 +84,18 @@ def plan_summary(plan: Any, top: int = 3) -> str:
         lines.append(f"Peak: {names[i]} with {_num(values[i])} units ({share:.1f}% of the total).")
     ev_parts = []
     for ev in plan.events:
+        if ev in plan.in_season:
+            continue
         units = float(t[f"lift:{ev}"].sum())
         ev_parts.append(f"{ev} {_pct(100.0 * units / total if total else float('nan'))} "
                         f"({_num(units)} units)")
     if ev_parts:
         lines.append("Events' share of the total: " + "; ".join(ev_parts) + ".")
-    else:
+    elif not plan.events:
         lines.append("No event touches the horizon: the plan is the base alone.")
+    if plan.in_season:
+        lines.append("In the seasonal index (always in the same period, so not separable from the "
+                     "season; no lift of their own): " + ", ".join(plan.in_season) + ".")
     years = t["date"].dt.year.to_numpy()
     avg = average_share_plan(periods, years, values, plan.average_share)
     if np.isfinite(avg).any():

@@ -135,7 +135,7 @@ class WeekdayDummies:
     kind: str = "weekday_dummies"
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
-        dow = periods.start_time.dayofweek.to_numpy()
+        dow = periods.start_time.day_of_week.to_numpy()
         values = (dow[:, None] == np.arange(1, 7)[None, :]).astype(float)
         names = [f"weekday[{d}]" for d in ("tue", "wed", "thu", "fri", "sat", "sun")]
         return pd.DataFrame(values, index=periods, columns=names)

@@ -1,1 +1,102 @@
-"""panel step."""
+"""Panel step: many series (product × location) with one calendar, fitted at once.
+
+``evcal fit history.parquet --series-col product,store --calendar cal.yaml --out m``
+fits every series of a long file. Series that share a design are solved
+together (one QR factorisation, every series a right-hand side, HAC standard
+errors for all at once: :mod:`evcal.panel.batched`); ARIMA errors and count
+models run the single-series fit per series. Each event's lift is also
+partially pooled across the series of a group (:mod:`evcal.panel.pooling`),
+roll-ups fit any level of the keys (:mod:`evcal.panel.rollup`) and the work can
+run on a Dask cluster (:mod:`evcal.panel.distributed`). Every series is either
+fitted or listed in ``skipped.csv`` with its reason.
+
+Examples
+--------
+>>> from evcal.panel import fit_panel, load_panel                     # doctest: +SKIP
+>>> res = fit_panel("sales.parquet", "calendar.yaml", ["product", "store"],
+...                 group_col="family", out="models/panel")          # doctest: +SKIP
+>>> res.lifts[["product", "store", "event", "lift_pct", "pooled_pct"]]  # doctest: +SKIP
+>>> one = res.series_result({"product": "P1", "store": "S1"})        # doctest: +SKIP
+>>> one.plan("2027-01-01", "2027-12-31")                             # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+from evcal.panel.result import PanelResult, is_panel_dir, load_panel
+
+__all__ = ["fit_panel", "PanelResult", "load_panel", "is_panel_dir", "plan_panel"]
+
+
+def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str | None = None, *,
+              date_col: str = "date", value_col: str = "value", freq: str | None = None,
+              level: list[str] | str | None = None, group_col: str | None = None,
+              workers: int | None = None, scheduler: str | None = None, progress: bool | None = None,
+              out: str | Path | None = None, **options: Any) -> PanelResult:
+    """Fit every series of a long table with a shared calendar.
+
+    Parameters
+    ----------
+    history : path or DataFrame
+        Long table: key columns, a date column, a value column (Parquet, CSV, .xlsx).
+    calendar : path, YAML text, Calendar or None
+        The event calendar shared by every series.
+    series_cols : list of str or "a,b"
+        Key columns; each distinct combination is one series.
+    date_col, value_col, freq
+        As for :func:`evcal.fit`.
+    level : list of str or "a,b", optional
+        Add the series up to these columns first (a roll-up) and fit those.
+    group_col : str, optional
+        Column naming each series' pooling group (e.g. ``family``); one group when omitted.
+    workers, scheduler : optional
+        Run on a local Dask cluster of ``workers`` processes, or on the cluster at ``scheduler``.
+    progress : bool, optional
+        Progress bar on stderr (default: only when stderr is a terminal).
+    out : path, optional
+        Write the panel folder there (atomically; the fitted rows are streamed
+        to ``fitted.parquet`` instead of being kept in memory).
+    **options
+        :class:`evcal.fit.FitOptions` fields. ``errors="auto"`` means OLS with
+        HAC intervals for a panel (the batched solver); ``errors="arima"``
+        fits regression with ARIMA errors series by series.
+
+    Returns
+    -------
+    PanelResult
+    """
+    from evcal.fit.options import FitOptions
+    from evcal.panel.build import build_result, read_for_panel
+    from evcal.panel.distributed import make_runner
+    from evcal.panel.engine import fit_long_panel
+
+    opts = FitOptions(**options)
+    panel, keys, levels = read_for_panel(history, series_cols, date_col, value_col, freq, level, group_col)
+    runner = make_runner(workers, scheduler, progress)
+    if out is None:
+        fitted = fit_long_panel(panel, calendar, opts, runner=runner)
+        return build_result(fitted, keys, levels, group_col, date_col, value_col, None)
+
+    from evcal._files import atomic_dir
+    from evcal.panel.build import FittedWriter
+
+    out = Path(out)
+    with atomic_dir(out) as tmp:
+        writer = FittedWriter(tmp / "fitted.parquet", panel)
+        try:
+            fitted = fit_long_panel(panel, calendar, opts, runner=runner, on_fitted=writer.write)
+        finally:
+            writer.close()
+        result = build_result(fitted, keys, levels, group_col, date_col, value_col, tmp / "fitted.parquet")
+        result.write_into(tmp)
+    result.fitted_path = out / "fitted.parquet"
+    return result
+
+
+def plan_panel(model: Any, start: Any, end: Any, series: list[str] | None = None, **kwargs: Any) -> Any:
+    """Plan each series of a panel model (see :func:`evcal.panel.planning.plan_panel`)."""
+    from evcal.panel.planning import plan_panel as _plan
+
+    return _plan(model, start, end, series=series, **kwargs)

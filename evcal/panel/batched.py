@@ -28,6 +28,8 @@ __all__ = ["SharedSolve", "hac_covariances", "bartlett_weights"]
 
 #: series per block in the batched products (bounds memory: block × periods × columns floats)
 BLOCK = 512
+#: up to this many coefficient pairs (j²) the covariances come from one product per lag
+SMALL_J2 = 144
 
 
 def bartlett_weights(lags: int) -> np.ndarray:
@@ -113,6 +115,16 @@ def hac_covariances(Z: np.ndarray, E: np.ndarray, lags: int, block: int = BLOCK)
     n, j = Z.shape
     m = E.shape[1]
     w = bartlett_weights(lags)
+    w[0] = 0.5  # Γ₀ is counted once in Γ₀/2 + Γ₀ᵀ/2
+    if j * j <= SMALL_J2:
+        # few coefficients: Γₗ for every series is one matrix product of the lagged
+        # column products (n × j²) with the lagged residual products (n × m)
+        acc = np.zeros((j * j, m))
+        for lag in range(0, min(lags, n - 1) + 1):
+            M = (Z[lag:, :, None] * Z[: n - lag, None, :]).reshape(n - lag, j * j)
+            acc += w[lag] * (M.T @ (E[lag:] * E[: n - lag]))
+        G = acc.reshape(j, j, m).transpose(2, 0, 1)
+        return G + G.transpose(0, 2, 1)
     out = np.empty((m, j, j))
     for a in range(0, m, block):
         b = min(a + block, m)

@@ -16,7 +16,7 @@ QR factorisation.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
@@ -171,7 +171,7 @@ class BatchUnit:
     index: int
     group: Group
     sids: np.ndarray
-    actual: np.ndarray  # (n_periods, m): the panel's values for these series
+    actual: np.ndarray  # (m, n_periods): the panel's values for these series (series-major)
     spans: np.ndarray  # (m, 2): first, last
     contexts: dict[tuple[int, int], SpanContext]
 
@@ -202,7 +202,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     g = unit.group
     assert g.solve is not None
     rows = g.rows
-    y = unit.actual[rows]
+    y = unit.actual[:, rows].T
     if g.transform == "log":
         with np.errstate(divide="ignore"):
             Y = np.log(y) - g.offset[:, None]
@@ -224,11 +224,11 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         if not len(pick):
             continue
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
-                                  unit.actual[f:last + 1, pick], unit.sids[pick]))
+                                  unit.actual[pick, f:last + 1], unit.sids[pick]))
     tables = _concat_tables(parts)
     series = pd.DataFrame({"_sid": unit.sids, "engine": "batched", "group": g.gid,
                            "transform": g.transform, "method": "ols", "sigma2": sigma2, "smear": smear,
-                           "hac_lags": g.solve.lags, "note": "; ".join(g.notes)})
+                           "hac_lags": g.solve.lags, "trend_origin": g.origin, "note": "; ".join(g.notes)})
     params = pd.DataFrame(B.T, columns=g.info.fitted_cols)
     params.insert(0, "_sid", unit.sids)
     empty = pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
@@ -262,7 +262,8 @@ def run_loop(unit: LoopUnit) -> UnitResult:
         parts.append(_result_tables(res, int(sid)))
         series_rows.append({"_sid": sid, "engine": "per-series", "group": -1, "transform": res.transform,
                             "method": res.model_choice.get("chosen", ""), "sigma2": res.sigma2,
-                            "smear": res.smear, "hac_lags": np.nan, "note": "; ".join(res.warnings)})
+                            "smear": res.smear, "hac_lags": np.nan, "trend_origin": res.spec.trend_origin,
+                            "note": "; ".join(res.warnings)})
         param_rows.append({"_sid": sid, **{k: float(v) for k, v in res.params.items()}})
     return UnitResult(unit.index, _concat_tables(parts), pd.DataFrame(series_rows),
                       pd.DataFrame(param_rows), pd.DataFrame(skipped, columns=["_sid", "reason", "detail"]))
@@ -282,7 +283,9 @@ def _result_tables(res: Any, sid: int) -> BlockTables:
     quality = pd.DataFrame({"_sid": [sid], "periods_fitted": [int(q.get("periods_fitted", 0))],
                             "wape_pct": [q.get("wape_pct", np.nan)], "resid_sd": [q.get("resid_sd", np.nan)],
                             "mean_base": [res.mean_base]})
-    return BlockTables(tag(res.lifts), tag(res.occurrences), tag(res.profile), tag(res.fitted), quality)
+    lifts = tag(res.lifts)
+    lifts["_fitted"] = [getattr(res.status.get(e), "status", "") == "fitted" for e in res.lifts["event"]]
+    return BlockTables(lifts, tag(res.occurrences), tag(res.profile), [tag(res.fitted)], quality)
 
 
 def _concat_tables(parts: list[BlockTables]) -> BlockTables:
@@ -290,7 +293,8 @@ def _concat_tables(parts: list[BlockTables]) -> BlockTables:
         frames = [getattr(p, name) for p in parts if len(getattr(p, name))]
         return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
 
-    return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), cat("fitted"), cat("quality"))
+    fitted = [f for p in parts for f in p.fitted]
+    return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), fitted, cat("quality"))
 
 
 # ---------------------------------------------------------------- the whole panel
@@ -306,12 +310,18 @@ class PanelFit:
     lifts: pd.DataFrame
     occurrences: pd.DataFrame
     profile: pd.DataFrame
-    fitted: pd.DataFrame | None
+    fitted_blocks: list[Any]  # FittedBlock or frames, in series order (empty when streamed)
     quality: pd.DataFrame
     series: pd.DataFrame
     params: pd.DataFrame
     skipped: pd.DataFrame
     groups: list[dict[str, Any]]
+
+    @property
+    def fitted(self) -> pd.DataFrame:
+        """The long fitted table (``_sid, date, actual, fitted, base, ...``), built on request."""
+        frames = [b if isinstance(b, pd.DataFrame) else b.frame() for b in self.fitted_blocks]
+        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
 
 
 def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[Any], Screen, list[Group]]:
@@ -370,7 +380,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[A
                 sids = members[a:a + BLOCK_SERIES]
                 sp = spans[a:a + BLOCK_SERIES]
                 used = {tuple(s) for s in sp.tolist()}
-                units.append(BatchUnit(len(units), g, sids, panel.values[:, sids], sp,
+                units.append(BatchUnit(len(units), g, sids, np.ascontiguousarray(panel.values[:, sids].T), sp,
                                        {key: c for key, c in contexts.items() if key in used}))
     lpos = np.flatnonzero(loop)
     cal_text = calendar_text_of(calendar)
@@ -391,34 +401,41 @@ def run_unit(unit: Any) -> UnitResult:
     return run_batch(unit) if isinstance(unit, BatchUnit) else run_loop(unit)
 
 
-def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions,
-                   runner: Callable[[list[Any], Callable[[Any], UnitResult]], list[UnitResult]] | None = None,
-                   keep_fitted: bool = True,
-                   on_result: Callable[[UnitResult], None] | None = None) -> PanelFit:
+Runner = Callable[[list[Any], Callable[[Any], "UnitResult"]], Iterable["UnitResult"]]
+
+
+def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Runner | None = None,
+                   on_fitted: Callable[[list[Any]], None] | None = None) -> PanelFit:
     """Fit every series of ``panel`` with the shared ``calendar``.
 
     Parameters
     ----------
     runner : callable, optional
-        ``runner(units, fn) -> results`` in unit order; runs here when None
-        (see :func:`evcal.panel.distributed.runner`).
-    keep_fitted : bool
-        Keep the long fitted table in memory (False when ``on_result`` streams it to a file).
-    on_result : callable, optional
-        Called with each unit's result in unit order (e.g. to write the fitted rows).
+        ``runner(units, fn)`` yields each unit's result (in any order); runs the
+        units here, one after the other, when None (see :mod:`evcal.panel.distributed`).
+    on_fitted : callable, optional
+        Receives each unit's fitted blocks in unit order (e.g. to stream them to
+        a Parquet file); they are then not kept in memory.
     """
     cal = load_calendar_any(calendar)
     units, screen, groups = plan_units(panel, cal, options)
-    results = runner(units, run_unit) if runner is not None else [run_unit(u) for u in units]
-    results = sorted(results, key=lambda r: r.index)
-    if on_result is not None:
-        for r in results:
-            on_result(r)
+    stream = runner(units, run_unit) if runner is not None else (run_unit(u) for u in units)
+    results: list[UnitResult] = []
+    pending: dict[int, UnitResult] = {}
+    next_index = 0
+    for r in stream:
+        pending[r.index] = r
+        while next_index in pending:  # hand the fitted rows on in unit order
+            done = pending.pop(next_index)
+            if on_fitted is not None:
+                on_fitted(done.tables.fitted)
+                done.tables.fitted = []
+            results.append(done)
+            next_index += 1
     for r in results:
         if len(r.skipped):
             screen.skip(r.skipped["_sid"].to_numpy(dtype=int), "fit failed", r.skipped["detail"].to_numpy())
     tables = _concat_tables([r.tables for r in results])
-    fitted = tables.fitted if keep_fitted else None
     series = pd.concat([r.series for r in results if len(r.series)], ignore_index=True) \
         if any(len(r.series) for r in results) else pd.DataFrame(columns=["_sid"])
     params = pd.concat([r.params for r in results if len(r.params)], ignore_index=True) \
@@ -431,6 +448,6 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions,
                    "coefficients": len(g.info.fitted_cols), "hac_lags": g.solve.lags if g.solve else None,
                    "status": {c: {"status": st.status, "note": st.note} for c, st in g.info.status.items()},
                    "fitted_columns": g.info.fitted_cols, "notes": g.notes} for g in groups]
-    return PanelFit(panel, options, cal, tables.lifts, tables.occurrences, tables.profile, fitted,
+    return PanelFit(panel, options, cal, tables.lifts, tables.occurrences, tables.profile, tables.fitted,
                     tables.quality, series.sort_values("_sid", kind="stable").reset_index(drop=True),
                     params.sort_values("_sid", kind="stable").reset_index(drop=True), skipped, group_rows)

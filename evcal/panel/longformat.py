@@ -80,6 +80,7 @@ class Panel:
     label: str
     source: str
     value_col: str = "value"
+    attrs: pd.DataFrame | None = None  # per-series attribute columns (constant within a series)
 
     @property
     def key_cols(self) -> list[str]:
@@ -116,16 +117,26 @@ class Panel:
     def subset(self, cols: np.ndarray) -> Panel:
         """The panel restricted to the series at positions ``cols``."""
         cols = np.asarray(cols, dtype=int)
+        attrs = None if self.attrs is None else self.attrs.iloc[cols].reset_index(drop=True)
         return Panel(self.keys.iloc[cols].reset_index(drop=True), self.values[:, cols],
                      self.periods, self.first[cols], self.last[cols], self.freq, self.label,
-                     self.source, self.value_col)
+                     self.source, self.value_col, attrs)
+
+    def column(self, name: str) -> pd.Series:
+        """A key or attribute column, one value per series."""
+        if name in self.keys.columns:
+            return self.keys[name]
+        if self.attrs is not None and name in self.attrs.columns:
+            return self.attrs[name]
+        raise KeyError(name)
 
 
 # ---------------------------------------------------------------- reading
 
 
 def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_col: str = "date",
-               value_col: str = "value", freq: str | None = None) -> Panel:
+               value_col: str = "value", freq: str | None = None, attr_cols: list[str] | None = None
+               ) -> Panel:
     """Read a long table of ``key columns, date, value`` rows into a :class:`Panel`.
 
     Parameters
@@ -138,6 +149,9 @@ def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_c
         As for :func:`evcal.io.read_history` (matched exactly, else ignoring case and spaces).
     freq : str, optional
         Force one frequency (``--freq``); detected from the dates when omitted.
+    attr_cols : list of str, optional
+        Columns that describe a series (a product family for ``--group-col``, the
+        parents of ``--level``): each must hold one value per series.
 
     Examples
     --------
@@ -149,8 +163,9 @@ def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_c
     """
     if not series_cols:
         raise HistoryError("--series-col: give at least one key column (e.g. --series-col product)")
-    table = _load(source, series_cols, date_col, value_col)
-    return panel_from_frame(table, series_cols, date_col, value_col, freq)
+    attr_cols = [c for c in (attr_cols or []) if c not in series_cols]
+    table = _load(source, series_cols + attr_cols, date_col, value_col)
+    return panel_from_frame(table, series_cols, date_col, value_col, freq, attr_cols)
 
 
 def _load(source: Any, series_cols: list[str], date_col: str, value_col: str) -> RawTable:
@@ -198,7 +213,7 @@ def _row_number(table: RawTable, i: int) -> int:
 
 
 def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, value_col: str,
-                     freq: str | None) -> Panel:
+                     freq: str | None, attr_cols: list[str] | None = None) -> Panel:
     """Build the panel from a loaded table (see :func:`read_panel`)."""
     name = table.source
     frame = table.frame
@@ -238,7 +253,10 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     for c, uu in zip(reversed(kcols), reversed(uniques), strict=True):
         keys[c] = np.asarray(uu)[rem % len(uu)]
         rem //= len(uu)
-    key_frame = pd.DataFrame({c: keys[c] for c in kcols})
+    # keys are text in every output (sorted by their original values)
+    key_frame = pd.DataFrame({c: pd.Series(keys[c]).astype(str).to_numpy(dtype=object) for c in kcols})
+    attrs = _attributes(table, [_key_column(table, c) for c in (attr_cols or [])], sid, n_series,
+                        key_frame) if attr_cols else None
 
     # dates: parsed once per distinct cell
     dcells = frame[dcol]
@@ -315,7 +333,31 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     first = np.argmax(has_row, axis=0)
     last = n_per - 1 - np.argmax(has_row[::-1], axis=0)
     return Panel(keys=key_frame, values=values, periods=periods, first=first, last=last, freq=used,
-                 label=detect_label(u_stamps, used), source=name, value_col=value_col)
+                 label=detect_label(u_stamps, used), source=name, value_col=value_col, attrs=attrs)
+
+
+def _attributes(table: RawTable, cols: list[str], sid: np.ndarray, n_series: int, keys: pd.DataFrame
+                ) -> pd.DataFrame:
+    """One value per series for each attribute column, or an error naming a series with two."""
+    out = {}
+    for c in cols:
+        codes, uniq = pd.factorize(table.frame[c], use_na_sentinel=True)
+        if (codes < 0).any():
+            i = int(np.flatnonzero(codes < 0)[0])
+            raise HistoryError(f"{table.source} row {_row_number(table, i)}, column {c!r}: empty value; "
+                               "every row needs one")
+        first = np.full(n_series, -1, dtype=np.int64)
+        first[sid[::-1]] = codes[::-1]  # the first row's value of each series
+        clash = np.flatnonzero(codes != first[sid])
+        if len(clash):
+            i = int(clash[0])
+            j = int(sid[i])
+            raise HistoryError(
+                f"{table.source} row {_row_number(table, i)}, column {c!r}: series {_key_text(keys, j)} has "
+                f"both {quote(uniq[first[j]])} and {quote(uniq[codes[i]])}; a grouping column needs one "
+                "value per series (add it to --series-col if it is part of the key)")
+        out[c] = pd.Series(np.asarray(uniq, dtype=object)[first]).astype(str).to_numpy(dtype=object)
+    return pd.DataFrame(out)
 
 
 def _dense_codes(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

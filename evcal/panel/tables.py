@@ -144,13 +144,31 @@ def _occurrence_windows(calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame,
 
 
 @dataclass
+class FittedBlock:
+    """The fitted table of a block as arrays (series-major), written without building a frame."""
+
+    sids: np.ndarray  # (m,)
+    dates: np.ndarray  # (n,) datetime64
+    columns: dict[str, np.ndarray]  # name -> (m, n): actual, fitted, base, then one per term
+    in_fit: np.ndarray  # (n,) bool
+
+    def frame(self) -> pd.DataFrame:
+        m, n = len(self.sids), len(self.dates)
+        cols: dict[str, Any] = {"_sid": np.repeat(self.sids, n), "date": np.tile(self.dates, m)}
+        for c, v in self.columns.items():
+            cols[c] = v.ravel()
+        cols["in_fit"] = np.tile(self.in_fit, m)
+        return pd.DataFrame(cols)
+
+
+@dataclass
 class BlockTables:
     """The tables of one block, long, with a ``_sid`` column (the series' position in the panel)."""
 
     lifts: pd.DataFrame
     occurrences: pd.DataFrame
     profile: pd.DataFrame
-    fitted: pd.DataFrame
+    fitted: list[FittedBlock | pd.DataFrame]
     quality: pd.DataFrame  # _sid, periods_fitted, wape_pct, resid_sd, mean_base
 
 
@@ -174,6 +192,9 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
                  smear: np.ndarray, actual: np.ndarray, sids: np.ndarray) -> BlockTables:
     """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
 
+    Arrays are series-major (one row per series), so the long tables are
+    plain reshapes.
+
     Parameters
     ----------
     ctx : SpanContext
@@ -184,7 +205,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     se : ndarray, shape (len(group.term_cols), m)
         HAC standard errors of the event and intervention coefficients.
     smear : ndarray, shape (m,)
-    actual : ndarray, shape (len(ctx.periods), m)
+    actual : ndarray, shape (m, len(ctx.periods))
     sids : ndarray of int, shape (m,)
         The series' positions in the panel (the ``_sid`` column of every table).
     """
@@ -196,93 +217,85 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     base_cols = [c for c in group.base_columns if c in X.columns]
     Xb = X[base_cols].to_numpy()
     Bb = np.vstack([pmap.get(c, np.zeros(m)) for c in base_cols]) if base_cols else np.zeros((0, m))
-    eta_base = Xb @ Bb
+    eta_base = Bb.T @ Xb.T  # (m, n)
     terms = [c for c in coefs if c in X.columns]
-    share = ctx.share[:, None]
-    tmat = {c: X[c].to_numpy()[:, None] * coefs[c][None, :] for c in terms}
+    share = ctx.share[None, :]
+    xcol = {c: X[c].to_numpy(dtype=float) for c in terms}
+    tmat = {c: coefs[c][:, None] * xcol[c][None, :] for c in terms}
+    total = sum(tmat.values()) if terms else np.zeros_like(eta_base)
     parts: dict[str, np.ndarray] = {}
     if group.transform == "none":
         base = eta_base
-        total = sum(tmat.values()) if terms else np.zeros_like(base)
         with_events = base + total
         for c in terms:
             parts[c] = tmat[c] * share
     else:
-        base = smear[None, :] * np.exp(eta_base)
-        total = sum(tmat.values()) if terms else np.zeros_like(base)
-        with_events = smear[None, :] * np.exp(eta_base + total)
+        base = smear[:, None] * np.exp(eta_base)
+        with_events = smear[:, None] * np.exp(eta_base + total)
         gap = (with_events - base) * share
         big = np.abs(total) > 1e-12
-        safe = np.where(big, total, 1.0)
+        ratio = gap / np.where(big, total, 1.0)
+        base_share = base * share
         for c in terms:
-            parts[c] = np.where(big, gap * tmat[c] / safe, base * share * tmat[c])
+            parts[c] = np.where(big, ratio * tmat[c], base_share * tmat[c])
     fitted = with_events * share
-    lost = base * (share - 1.0)
     if len(ctx.closures.columns):
+        lost = base * (share - 1.0)
         cl = ctx.closures.reindex(ctx.periods).fillna(0.0).to_numpy()
         tot = cl.sum(axis=1)
         safe_tot = np.where(tot > 0, tot, 1.0)
         for j, c in enumerate(ctx.closures.columns):
-            parts[c] = np.where((tot > 0)[:, None], lost * (cl[:, j] / safe_tot)[:, None], 0.0)
-    n = len(ctx.periods)
-    mean_base = base.mean(axis=0)
+            parts[c] = np.where((tot > 0)[None, :], lost * (cl[:, j] / safe_tot)[None, :], 0.0)
+    mean_base = base.mean(axis=1)
 
     occ = _occurrences(ctx, group, parts, base, pmap, se_map, sids)
     lifts = _lifts(ctx, group, parts, base, pmap, se_map, occ, sids)
     profile = _profile(group, pmap, mean_base, sids)
+    fitted_block = FittedBlock(sids, ctx.dates.to_numpy(),
+                               {"actual": actual, "fitted": fitted, "base": base, **parts}, ctx.in_fit)
 
-    # fitted table (long) and fit quality
-    sid_rep = np.repeat(sids, n)
-    fcols: dict[str, Any] = {"_sid": sid_rep, "date": np.tile(ctx.dates.to_numpy(), m),
-                             "actual": actual.T.ravel(), "fitted": fitted.T.ravel(), "base": base.T.ravel()}
-    for c, v in parts.items():
-        fcols[c] = v.T.ravel()
-    fcols["in_fit"] = np.tile(ctx.in_fit, m)
-    fitted_long = pd.DataFrame(fcols)
-
-    rows = ctx.in_fit[:, None]
+    rows = ctx.in_fit[None, :]
     a_in = np.where(rows, actual, np.nan)
     with np.errstate(divide="ignore", invalid="ignore"):
         if group.transform == "log":
-            scale_resid = np.log(a_in) - np.log(fitted / smear[None, :])
+            scale_resid = np.log(a_in) - np.log(fitted / smear[:, None])
         else:
             scale_resid = a_in - fitted
     ok = rows & np.isfinite(scale_resid)
-    n_ok = ok.sum(axis=0)
-    abs_err = np.where(ok, np.abs(actual - fitted), 0.0).sum(axis=0)
-    abs_act = np.where(ok, np.abs(actual), 0.0).sum(axis=0)
+    n_ok = ok.sum(axis=1)
+    abs_err = np.where(ok, np.abs(actual - fitted), 0.0).sum(axis=1)
+    abs_act = np.where(ok, np.abs(actual), 0.0).sum(axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
         wape = np.where(n_ok > 0, 100 * abs_err / abs_act, np.nan)
-        r_ok = np.where(ok, scale_resid, 0.0)
-        mu = r_ok.sum(axis=0) / n_ok
-        sd = np.sqrt(np.where(ok, (scale_resid - mu) ** 2, 0.0).sum(axis=0) / n_ok)
+        mu = np.where(ok, scale_resid, 0.0).sum(axis=1) / n_ok
+        sd = np.sqrt(np.where(ok, (scale_resid - mu[:, None]) ** 2, 0.0).sum(axis=1) / n_ok)
     quality = pd.DataFrame({"_sid": sids, "periods_fitted": n_ok.astype(int), "wape_pct": wape,
                             "resid_sd": sd, "mean_base": mean_base})
-    return BlockTables(lifts, occ, profile, fitted_long, quality)
+    return BlockTables(lifts, occ, profile, [fitted_block], quality)
 
 
 def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray, ratio: np.ndarray,
                 z_sorted: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """2.5 % and 97.5 % quantiles of the simulated draws (see the module notes), m series at once."""
+    """2.5 % and 97.5 % quantiles of the simulated draws (see the module notes), m series at once.
+
+    ``base_t`` is (m, len), ``xs`` (len,), ``b``, ``s`` and ``ratio`` (m,).
+    """
     lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
     t_lo, t_hi = _H_LOW - lo_i, _H_HIGH - hi_i
     if (xs >= 0).all() and (base_t >= 0).all() and (s >= 0).all():
         def g(i: int) -> np.ndarray:
-            return ratio * (base_t * np.expm1(np.outer(xs, b + s * z_sorted[i]))).sum(axis=0)
+            return ratio * (base_t * np.expm1(np.outer(b + s * z_sorted[i], xs))).sum(axis=1)
 
-        up = ratio >= 0
-        d = {i: g(i) for i in (lo_i, lo_i + 1, hi_i, hi_i + 1)}
-        # ascending draws: g at ascending z when g increases with z, at descending z otherwise
         last = N_DRAWS - 1
-        dn = {i: g(last - i) for i in (lo_i, lo_i + 1, hi_i, hi_i + 1)}
-        a_lo = np.where(up, d[lo_i], dn[lo_i])
-        b_lo = np.where(up, d[lo_i + 1], dn[lo_i + 1])
-        a_hi = np.where(up, d[hi_i], dn[hi_i])
-        b_hi = np.where(up, d[hi_i + 1], dn[hi_i + 1])
-        return _lerp(a_lo, b_lo, t_lo), _lerp(a_hi, b_hi, t_hi)
+        need = (lo_i, lo_i + 1, hi_i, hi_i + 1)
+        up = {i: g(i) for i in need}
+        # a negative ratio turns the order of the draws around
+        down = up if (ratio >= 0).all() else {i: g(last - i) for i in need}
+        pick = {i: np.where(ratio >= 0, up[i], down[i]) for i in need}
+        return _lerp(pick[lo_i], pick[lo_i + 1], t_lo), _lerp(pick[hi_i], pick[hi_i + 1], t_hi)
     # general case: the draws themselves
-    draws = (base_t[None, :, :] * np.expm1(xs[None, :, None] * (b[None, None, :]
-             + s[None, None, :] * z_sorted[:, None, None]))).sum(axis=1) * ratio[None, :]
+    draws = (base_t[None, :, :] * np.expm1((b[None, :, None] + s[None, :, None]
+             * z_sorted[:, None, None]) * xs[None, None, :])).sum(axis=2) * ratio[None, :]
     low, high = np.quantile(draws, [0.025, 0.975], axis=0)
     return low, high
 
@@ -303,18 +316,18 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
     z_sorted = np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
     share = ctx.share
     n_occ = len(ctx.occs)
-    added = np.empty((n_occ, m))
-    pct = np.empty((n_occ, m))
-    low = np.empty((n_occ, m))
-    high = np.empty((n_occ, m))
+    added = np.empty((m, n_occ))
+    pct = np.empty((m, n_occ))
+    low = np.empty((m, n_occ))
+    high = np.empty((m, n_occ))
     for i, o in enumerate(ctx.occs):
         sl = o.sl
-        contrib = sum(parts[c][sl] for c in o.cols)
-        add = (contrib * o.frac[:, None]).sum(axis=0)
-        base_win = (base[sl] * (o.active_days / ctx.days[sl])[:, None]).sum(axis=0)
+        contrib = sum(parts[c][:, sl] for c in o.cols)
+        add = contrib @ o.frac
+        base_win = base[:, sl] @ (o.active_days / ctx.days[sl])
         with np.errstate(divide="ignore", invalid="ignore"):
-            pct[i] = np.where(base_win != 0, 100.0 * add / base_win, np.nan)
-        added[i] = add
+            pct[:, i] = np.where(base_win != 0, 100.0 * add / base_win, np.nan)
+        added[:, i] = add
         lo = hi = add
         src = o.cols[0]
         st = group.status.get(src)
@@ -323,23 +336,30 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
             pcol = src if st.status == "fitted" else group.like_map.get(src, "")
         if pcol in pmap and not o.zero and group.transform != "none":
             b, s = pmap[pcol], se_map[pcol]
-            base_t = base[sl] * share[sl][:, None]
-            point = (base_t * np.expm1(np.outer(o.xs, b))).sum(axis=0)
+            base_t = base[:, sl] * share[None, sl]
+            point = (base_t * np.expm1(np.outer(b, o.xs))).sum(axis=1)
             ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
             lo, hi = _sim_bounds(b, s, o.xs, base_t, ratio, z_sorted)
         elif pcol in pmap and not o.zero:
             s = se_map[pcol]
             xs_sum = abs(float(o.xs.sum()))
             lo, hi = add - Z95 * s * xs_sum, add + Z95 * s * xs_sum
-        low[i], high[i] = lo, hi
+        low[:, i], high[:, i] = lo, hi
     return pd.DataFrame({
         "_sid": np.repeat(sids, n_occ),
-        "event": np.tile(np.array([o.event for o in ctx.occs], dtype=object), m),
-        "start": np.tile(np.array([o.start for o in ctx.occs], dtype=object), m),
-        "end": np.tile(np.array([o.end for o in ctx.occs], dtype=object), m),
-        "added_units": added.T.ravel(), "added_pct": pct.T.ravel(),
-        "low_units": low.T.ravel(), "high_units": high.T.ravel(),
+        "event": _tiled_text([o.event for o in ctx.occs], m),
+        "start": _tiled_text([o.start for o in ctx.occs], m),
+        "end": _tiled_text([o.end for o in ctx.occs], m),
+        "added_units": added.ravel(), "added_pct": pct.ravel(),
+        "low_units": low.ravel(), "high_units": high.ravel(),
     })
+
+
+def _tiled_text(values: list[Any], m: int) -> pd.Categorical:
+    """``values`` repeated for m series, as a categorical (one copy of each text)."""
+    cats = list(dict.fromkeys(values))
+    codes = np.array([cats.index(v) for v in values], dtype=np.int32)
+    return pd.Categorical.from_codes(np.tile(codes, m), categories=pd.Index(cats, dtype=object))
 
 
 def _pct(b: np.ndarray, transform: str, scale: np.ndarray | float) -> np.ndarray:
@@ -370,7 +390,7 @@ def _lifts(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], bas
         scale: np.ndarray | float = 1.0
         if group.transform == "none" and col in ctx.raw.columns:
             active = ctx.raw[col].to_numpy() > 0
-            scale = base[active].mean(axis=0) if active.any() else nan
+            scale = base[:, active].mean(axis=1) if active.any() else nan
         lift = low = high = nan
         if st.status in ("fitted", "like"):
             src = col if st.status == "fitted" else group.like_map.get(col, "")
@@ -385,29 +405,31 @@ def _lifts(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], bas
         if kind == "event":
             units = units_of(ev_name)
         elif col in parts and st.status == "fitted":
-            units = parts[col].sum(axis=0)
+            units = parts[col].sum(axis=1)
         else:
             units = nan
         rows.append({"event": col, "lift_pct": lift, "low_pct": low, "high_pct": high,
                      "units_per_occurrence": units,
                      "identifiable": st.status in ("fitted", "like", "assumed"),
-                     "note": st.note, "kind": kind, "label": info.get("label", col)})
+                     "note": st.note, "kind": kind, "label": info.get("label", col),
+                     "_fitted": st.status == "fitted"})
     for ev in group.closure_events:
         rows.append({"event": ev, "lift_pct": np.full(m, -100.0), "low_pct": np.full(m, -100.0),
                      "high_pct": np.full(m, -100.0), "units_per_occurrence": units_of(ev),
                      "identifiable": True, "note": "closure (effect: zero): known zero, kept out of the fit",
-                     "kind": "event", "label": group.event_labels.get(ev, ev)})
+                     "kind": "event", "label": group.event_labels.get(ev, ev), "_fitted": False})
     r = len(rows)
     out: dict[str, Any] = {"_sid": np.repeat(sids, r)}
-    for c in LIFT_COLUMNS + ["kind", "label"]:
-        first = rows[0][c] if rows else None
-        if isinstance(first, np.ndarray):
-            out[c] = np.column_stack([row[c] for row in rows]).ravel() if rows else []
+    for c in LIFT_COLUMNS + ["kind", "label", "_fitted"]:
+        if not rows:
+            out[c] = []
+        elif isinstance(rows[0][c], np.ndarray):
+            out[c] = np.column_stack([row[c] for row in rows]).ravel()
+        elif c in ("identifiable", "_fitted"):
+            out[c] = np.tile(np.array([row[c] for row in rows], dtype=bool), m)
         else:
-            out[c] = np.tile(np.array([row[c] for row in rows], dtype=object), m) if rows else []
-    frame = pd.DataFrame(out)
-    frame["identifiable"] = frame["identifiable"].astype(bool)
-    return frame
+            out[c] = _tiled_text([row[c] for row in rows], m)
+    return pd.DataFrame(out)
 
 
 def _profile(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarray,

@@ -1,0 +1,194 @@
+"""From a long file to a :class:`~evcal.panel.result.PanelResult`: reading, roll-up, keys on every table."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal import __version__
+from evcal.errors import HistoryError
+from evcal.panel.longformat import Panel, read_panel, split_key_option
+from evcal.panel.result import PANEL_FORMAT, PANEL_VERSION, PanelResult, key_codes_of, keyed
+
+__all__ = ["read_for_panel", "build_result", "FittedWriter"]
+
+
+def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str, freq: str | None,
+                   level: Any, group_col: str | None) -> tuple[Panel, list[str], list[str]]:
+    """Read the long file (and add it up to ``level``); return the panel, its keys and the levels."""
+    from evcal.panel.rollup import aggregate, check_level
+
+    keys = split_key_option(series_cols)
+    levels = split_key_option(level)
+    check_level(levels, keys)
+    if not keys:
+        raise HistoryError("--series-col: give at least one key column (e.g. --series-col product)")
+    attr_cols = [c for c in levels + ([group_col] if group_col else []) if c not in keys]
+    panel = read_panel(history, keys, date_col=date_col, value_col=value_col, freq=freq,
+                       attr_cols=list(dict.fromkeys(attr_cols)))
+    if levels:
+        panel = aggregate(panel, levels)
+        keys = levels
+    if group_col:
+        try:
+            panel.column(group_col)
+        except KeyError:
+            raise HistoryError(f"--group-col {group_col}: it takes more than one value inside a --level "
+                               f"group ({', '.join(levels)}); pool by a column that is constant within "
+                               "each fitted series") from None
+    return panel, keys, levels
+
+
+class FittedWriter:
+    """Streams the fitted rows to one Parquet file, a row group per unit, keys first."""
+
+    def __init__(self, path: Path, panel: Panel) -> None:
+        import pyarrow as pa
+
+        self.path = path
+        self.keys = {c: pa.array(panel.keys[c].to_numpy(dtype=object), type=pa.string())
+                     for c in panel.key_cols}
+        self.writer: Any = None
+        self.schema: Any = None
+
+    def _table(self, block: Any) -> Any:
+        import pyarrow as pa
+
+        if isinstance(block, pd.DataFrame):
+            sid = block["_sid"].to_numpy(dtype=np.int64)
+            cols = {c: block[c].to_numpy() for c in block.columns if c != "_sid"}
+        else:
+            n = len(block.dates)
+            sid = np.repeat(block.sids.astype(np.int64), n)
+            cols = {"date": np.tile(block.dates, len(block.sids))}
+            for c, v in block.columns.items():
+                cols[c] = v.ravel()
+            cols["in_fit"] = np.tile(block.in_fit, len(block.sids))
+        idx = pa.array(sid)
+        arrays = {c: k.take(idx) for c, k in self.keys.items()}
+        for c, v in cols.items():
+            arrays[c] = pa.array(np.asarray(v, dtype="datetime64[ns]") if c == "date" else v)
+        return pa.table(arrays)
+
+    def write(self, blocks: list[Any]) -> None:
+        import pyarrow.parquet as pq
+
+        for block in blocks:
+            table = self._table(block)
+            if self.writer is None:
+                self.schema = table.schema
+                self.writer = pq.ParquetWriter(self.path, self.schema)
+            else:
+                table = table.select(self.schema.names).cast(self.schema)
+            self.writer.write_table(table)
+
+    def close(self) -> None:
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        if self.writer is not None:
+            self.writer.close()
+            self.writer = None
+        elif not self.path.exists():
+            empty = {c: pa.array([], type=pa.string()) for c in self.keys}
+            empty["date"] = pa.array([], type=pa.timestamp("ns"))
+            pq.write_table(pa.table(empty), self.path)
+
+
+def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | None, date_col: str,
+                 value_col: str, fitted_path: Path | None) -> PanelResult:
+    """Attach the keys, pool the lifts and assemble the series table and settings."""
+    from evcal.fit.model import calendar_text
+    from evcal.panel.pooling import pool_lifts
+
+    panel = fit.panel
+    kc = key_codes_of(panel.keys)
+    n = panel.n_series
+    sids = np.arange(n)
+    pool_groups = panel.column(group_col).astype(str) if group_col else pd.Series(["all"] * n)
+    pool_groups.index = sids
+
+    series = pd.DataFrame({"_sid": sids})
+    fitted_ids = set(fit.series["_sid"].tolist()) if len(fit.series) else set()
+    series["status"] = np.where(np.isin(sids, list(fitted_ids)), "fitted", "skipped")
+    reason = pd.Series("", index=sids, dtype=object)
+    if len(fit.skipped):
+        reason[fit.skipped["_sid"].to_numpy()] = fit.skipped["reason"].to_numpy()
+    series["reason"] = reason.to_numpy()
+    info = fit.series.set_index("_sid") if len(fit.series) else pd.DataFrame()
+    for c in ("engine", "group", "transform", "method", "sigma2", "smear", "hac_lags", "trend_origin"):
+        series[c] = info[c].reindex(sids).to_numpy() if c in info.columns else np.nan
+    series["group"] = pd.array(series["group"], dtype="Int64")
+    series["hac_lags"] = pd.array(series["hac_lags"], dtype="Int64")
+    q = fit.quality.set_index("_sid") if len(fit.quality) else pd.DataFrame()
+    for c in ("periods_fitted", "wape_pct", "resid_sd", "mean_base"):
+        series[c] = q[c].reindex(sids).to_numpy() if c in q.columns else np.nan
+    series["periods_fitted"] = pd.array(series["periods_fitted"], dtype="Int64")
+    series["start"] = panel.dates(panel.periods[panel.first]).strftime("%Y-%m-%d")
+    series["end"] = panel.dates(panel.periods[panel.last]).strftime("%Y-%m-%d")
+    series["pool_group"] = pool_groups.to_numpy()
+    series["note"] = info["note"].reindex(sids).fillna("").to_numpy() if "note" in info.columns else ""
+    transforms = pd.Series(series["transform"].to_numpy(), index=sids)
+
+    lifts = fit.lifts
+    pooling = pd.DataFrame(columns=["group", "event", "series", "mean_pct", "mean_low_pct", "mean_high_pct",
+                                    "tau", "q", "i2_pct"])
+    if len(lifts):
+        lifts, pooling = pool_lifts(lifts, pool_groups, transforms)
+    skipped = fit.skipped[["_sid", "reason", "detail"]]
+    coefficients = fit.params
+    settings = {
+        "format": PANEL_FORMAT, "format_version": PANEL_VERSION, "evcal_version": __version__,
+        "keys": keys, "level": levels or None, "group_col": group_col, "freq": panel.freq,
+        "label": panel.label, "source": panel.source, "date_col": date_col, "value_col": value_col,
+        "periods": {"start": panel.dates(panel.periods[:1]).strftime("%Y-%m-%d")[0],
+                    "end": panel.dates(panel.periods[-1:]).strftime("%Y-%m-%d")[0]},
+        "options": fit.options.to_dict(),
+        "errors": ("OLS with HAC (Newey-West) intervals, solved in blocks of series that share a design"
+                   if fit.options.errors in ("auto", "ols") else f"errors {fit.options.errors}, per series"),
+        "calendar_name": fit.calendar.name, "calendar_text": calendar_text(fit.calendar, None),
+        "design": _template_spec(fit),
+        "counts": {"series": int(n), "fitted": int((series["status"] == "fitted").sum()),
+                   "skipped": int((series["status"] == "skipped").sum()),
+                   "batched": int((series["engine"] == "batched").sum()),
+                   "per_series": int((series["engine"] == "per-series").sum())},
+        "groups": fit.groups,
+    }
+    fitted_frame = None if fitted_path is not None else fit.fitted
+    return PanelResult(
+        settings=settings,
+        series=keyed(series, panel.keys, kc),
+        lifts=keyed(lifts, panel.keys, kc) if len(lifts) else lifts,
+        pooling=pooling,
+        occurrences=keyed(fit.occurrences, panel.keys, kc) if len(fit.occurrences) else fit.occurrences,
+        profile=keyed(fit.profile, panel.keys, kc) if len(fit.profile) else fit.profile,
+        coefficients=keyed(coefficients, panel.keys, kc) if len(coefficients) else coefficients,
+        skipped=keyed(skipped, panel.keys, kc),
+        fitted_path=fitted_path,
+        _fitted=keyed(fitted_frame, panel.keys, kc) if fitted_frame is not None and len(fitted_frame)
+        else None,
+    )
+
+
+def _template_spec(fit: Any) -> dict[str, Any]:
+    """The shared design settings (each series' own trend origin is in series.csv)."""
+    from evcal.design.base import period_mid_years
+    from evcal.design.interventions import InterventionTerm
+    from evcal.design.matrix import DesignSpec
+    from evcal.design.seasonal import base_freq
+
+    cal = fit.calendar
+    opts = fit.options
+    seasonal = opts.seasonal
+    if seasonal == "auto":
+        seasonal = "fourier" if base_freq(fit.panel.freq) == "D" else "dummies"
+    spec = DesignSpec(
+        freq=fit.panel.freq, trend_origin=float(np.floor(period_mid_years(fit.panel.periods[:1])[0])),
+        trend_order=opts.trend_order, constant=True, seasonal=seasonal, fourier_order=opts.fourier_order,
+        trading_days=opts.trading_days,
+        event_columns=[c for c, ev in cal.event_columns().items() if cal.event(ev).effect.kind != "zero"],
+        interventions=[InterventionTerm.from_spec(s).to_dict() for s in cal.interventions])
+    return spec.to_dict()

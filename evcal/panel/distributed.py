@@ -1,0 +1,110 @@
+"""Where the units of work run: here, or on a Dask cluster; with a progress bar over series.
+
+``--workers N`` starts a local ``dask.distributed.LocalCluster`` (N worker
+processes, one thread each: the numerical work releases the GIL but one BLAS
+thread per process avoids oversubscribing the cores); ``--scheduler ADDRESS``
+connects to a running cluster (``tcp://host:8786``). Each unit (a block of
+series of one design group, or a few series of the per-series path) is one
+task. The units are cut the same way whatever runs them and their results are
+put back in unit order, so the output does not depend on the number of
+workers. Dask is imported only when asked for (``pip install evcal[dask]``).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import sys
+from collections.abc import Callable, Iterator
+from typing import Any
+
+from evcal.errors import EvcalError
+
+__all__ = ["make_runner", "progress_enabled"]
+
+
+def progress_enabled(flag: bool | None = None) -> bool:
+    """Show progress only when asked, or by default when stderr is a terminal."""
+    if flag is not None:
+        return flag
+    return bool(getattr(sys.stderr, "isatty", lambda: False)())
+
+
+def _units_size(unit: Any) -> int:
+    return int(len(unit.sids))
+
+
+@contextlib.contextmanager
+def _progress(total: int, enabled: bool, label: str) -> Iterator[Callable[[int], None]]:
+    if not enabled:
+        yield lambda n: None
+        return
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    with Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+                  TimeRemainingColumn(), console=Console(stderr=True), transient=True) as bar:
+        task = bar.add_task(label, total=total)
+        yield lambda n: bar.advance(task, n)
+
+
+def local_runner(progress: bool = False) -> Callable[[list[Any], Callable[[Any], Any]], Iterator[Any]]:
+    """Run the units in this process, one after the other."""
+
+    def run(units: list[Any], fn: Callable[[Any], Any]) -> Iterator[Any]:
+        total = sum(_units_size(u) for u in units)
+        with _progress(total, progress, "fitting series") as advance:
+            for u in units:
+                yield fn(u)
+                advance(_units_size(u))
+
+    return run
+
+
+def dask_runner(workers: int | None = None, scheduler: str | None = None, progress: bool = False
+                ) -> Callable[[list[Any], Callable[[Any], Any]], Iterator[Any]]:
+    """Run the units as Dask tasks on a local cluster (``workers``) or an existing one (``scheduler``)."""
+    try:
+        from dask.distributed import Client, LocalCluster, as_completed
+    except ImportError:
+        raise EvcalError("--workers/--scheduler need dask.distributed: pip install 'evcal[dask]'") from None
+
+    def run(units: list[Any], fn: Callable[[Any], Any]) -> Iterator[Any]:
+        total = sum(_units_size(u) for u in units)
+        with contextlib.ExitStack() as stack:
+            if scheduler:
+                try:
+                    client = stack.enter_context(Client(scheduler, timeout="10s"))
+                except (OSError, TimeoutError) as err:
+                    raise EvcalError(f"--scheduler {scheduler}: cannot connect ({type(err).__name__}: "
+                                     f"{err}); start the scheduler first (dask scheduler) or check the "
+                                     "address") from None
+            else:
+                cluster = stack.enter_context(LocalCluster(
+                    n_workers=int(workers or 1), threads_per_worker=1, processes=True,
+                    dashboard_address=None, silence_logs=40,
+                    env={"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1", "MKL_NUM_THREADS": "1"}))
+                client = stack.enter_context(Client(cluster))
+            if not units:
+                return
+            futures = client.map(fn, units, pure=False)
+            with _progress(total, progress, "fitting series") as advance:
+                for fut in as_completed(futures):
+                    result = fut.result()
+                    advance(_units_size(units[result.index]) if result.index < len(units) else 0)
+                    yield result
+                    fut.release()
+
+    return run
+
+
+def make_runner(workers: int | None = None, scheduler: str | None = None, progress: bool | None = None
+                ) -> Callable[[list[Any], Callable[[Any], Any]], Iterator[Any]]:
+    """The runner for the options: Dask when ``workers`` or ``scheduler`` is given, else this process."""
+    show = progress_enabled(progress)
+    if workers is not None and workers < 1:
+        raise EvcalError(f"--workers {workers}: give 1 or more worker processes")
+    if workers is not None and scheduler:
+        raise EvcalError("give either --workers (start a local cluster) or --scheduler (use a running one)")
+    if workers or scheduler:
+        return dask_runner(workers, scheduler, show)
+    return local_runner(show)

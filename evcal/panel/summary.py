@@ -1,0 +1,97 @@
+"""A readable panel summary: what was fitted, what was skipped, each event's lifts across series."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+
+def _q(values: np.ndarray, p: float) -> float:
+    return float(np.quantile(values, p)) if len(values) else float("nan")
+
+
+def lift_distribution(lifts: pd.DataFrame) -> pd.DataFrame:
+    """Per event: how many series estimate it, and the spread of their raw and pooled lifts.
+
+    Columns: ``event, series, median_pct, p10_pct, p90_pct, above_zero_pct`` (share of
+    series whose whole 95 % interval is above zero), ``below_zero_pct``, ``pooled_median_pct``.
+    """
+    rows = []
+    est = lifts[lifts["identifiable"].astype(str).str.lower().isin(["true", "1"])
+                & lifts["lift_pct"].notna() & (lifts["low_pct"] < lifts["high_pct"])]
+    for ev, g in est.groupby("event", sort=False):
+        lift = g["lift_pct"].to_numpy(dtype=float)
+        pooled = g["pooled_pct"].to_numpy(dtype=float) if "pooled_pct" in g else np.full(len(g), np.nan)
+        rows.append({"event": ev, "series": len(g), "median_pct": _q(lift, 0.5), "p10_pct": _q(lift, 0.1),
+                     "p90_pct": _q(lift, 0.9),
+                     "above_zero_pct": 100.0 * float((g["low_pct"] > 0).mean()),
+                     "below_zero_pct": 100.0 * float((g["high_pct"] < 0).mean()),
+                     "pooled_median_pct": _q(pooled[np.isfinite(pooled)], 0.5)})
+    return pd.DataFrame(rows, columns=["event", "series", "median_pct", "p10_pct", "p90_pct",
+                                       "above_zero_pct", "below_zero_pct", "pooled_median_pct"])
+
+
+def _freq_text(freq: str) -> str:
+    from evcal.io.frequency import describe_freq
+
+    try:
+        return describe_freq(freq)
+    except (ValueError, IndexError):
+        return freq
+
+
+def describe_panel(result: Any) -> str:
+    """Series fitted and skipped, fit quality, each event's lift across series, pooling."""
+    s = result.settings
+    series = result.series
+    counts = s.get("counts", {})
+    keys = ", ".join(s["keys"])
+    level = f", added up to {', '.join(s['level'])}" if s.get("level") else ""
+    lines = [
+        f"panel   : {s.get('calendar_name', '')} | {counts.get('series', len(series))} series "
+        f"(keys: {keys}{level}) | {_freq_text(s['freq'])} {s['periods']['start']} .. {s['periods']['end']} "
+        f"from {s['source']}",
+        f"fitted  : {counts.get('fitted', 0)} series: {counts.get('batched', 0)} by the batched OLS+HAC "
+        f"solver in {len(s.get('groups', []))} design group(s), {counts.get('per_series', 0)} one by one",
+    ]
+    skipped = result.skipped
+    if len(skipped):
+        by = skipped["reason"].value_counts()
+        lines.append(f"skipped : {len(skipped)} series (skipped.csv): "
+                     + ", ".join(f"{r} {n}" for r, n in by.items()))
+    else:
+        lines.append("skipped : none")
+    fitted = series[series["status"] == "fitted"]
+    if len(fitted):
+        w = fitted["wape_pct"].to_numpy(dtype=float)
+        w = w[np.isfinite(w)]
+        lines.append(f"quality : WAPE median {_q(w, 0.5):.1f} % "
+                     f"(10-90 % of series: {_q(w, 0.1):.1f} .. {_q(w, 0.9):.1f} %)")
+    lines.append("")
+    dist = lift_distribution(result.lifts) if len(result.lifts) else pd.DataFrame()
+    if len(dist):
+        lines.append(f"{'event':<26} {'series':>7} {'median %':>9} {'10-90 % of series':>20} "
+                     f"{'>0':>6} {'<0':>6} {'pooled':>8}")
+        for r in dist.itertuples(index=False):
+            spread = f"{r.p10_pct:+.1f} .. {r.p90_pct:+.1f}"
+            pooled = "" if not np.isfinite(r.pooled_median_pct) else f"{r.pooled_median_pct:+.1f}"
+            lines.append(f"{str(r.event)[:26]:<26} {r.series:>7} {r.median_pct:>+9.1f} {spread:>20} "
+                         f"{r.above_zero_pct:>5.0f}% {r.below_zero_pct:>5.0f}% {pooled:>8}")
+        lines.append("(>0 / <0: share of series whose 95 % interval lies wholly above / below zero)")
+    pooling = result.pooling
+    if len(pooling):
+        by = s.get("group_col") or "one group of all series"
+        lines.append("")
+        lines.append("pooling : empirical-Bayes shrinkage toward the group mean (DerSimonian-Laird "
+                     f"tau^2) by {by}; {pooling['group'].nunique()} group(s)")
+        sh = result.lifts["shrinkage"].to_numpy(dtype=float) if "shrinkage" in result.lifts else np.array([])
+        sh = sh[np.isfinite(sh)]
+        if len(sh):
+            lines.append(f"          shrinkage median {_q(sh, 0.5):.2f} "
+                         "(0: own estimate kept, 1: group mean)")
+    lines.append("")
+    lines.append("Lifts are estimates from past data; intervals are 95 %. Decisions stay with the people "
+                 "who own them.")
+    return "\n".join(lines)

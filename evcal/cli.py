@@ -173,8 +173,23 @@ def fit_cmd(
     trend_order: int = typer.Option(1, "--trend-order", help="0 flat, 1 linear, 2 quadratic."),
     trading_days: bool = typer.Option(False, "--trading-days", help="Weekday-composition terms (monthly)."),
     allow_negative: bool = typer.Option(False, "--allow-negative", help="Accept negative values."),
+    series_col: list[str] = typer.Option(
+        None, "--series-col", help="Key column(s) of a long file, one series per key (repeat, or a,b)."),
+    level: str = typer.Option(None, "--level", help="Add the series up to these key columns first (a,b)."),
+    group_col: str = typer.Option(None, "--group-col", help="Column grouping series for pooled lifts."),
+    workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
+    scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
+    if series_col or level or group_col or workers or scheduler:  # many series: evcal.panel
+        from evcal.panel.cli_support import fit_panel_cmd
+
+        return fit_panel_cmd(history, calendar, out, series_col, echo=typer.echo, level=level,
+                             group_col=group_col, workers=workers, scheduler=scheduler, date_col=date_col,
+                             value_col=value_col, freq=freq, transform=transform, errors=errors,
+                             arima_order=_parse_order(arima_order), seasonal=seasonal,
+                             fourier_order=fourier_order, trend_order=trend_order,
+                             trading_days=trading_days, allow_negative=allow_negative)
     from evcal.fit import fit
     from evcal.fit.summary import describe
 
@@ -189,8 +204,17 @@ def fit_cmd(
 
 @app.command("show")
 @guarded
-def show_cmd(model_dir: str = typer.Argument(..., help="Model folder written by evcal fit.")) -> None:
+def show_cmd(
+    model_dir: str = typer.Argument(..., help="Model folder written by evcal fit."),
+    series: str = typer.Option(None, "--series", help="Panel models: one series, e.g. product=P1,store=S2."),
+) -> None:
     """Print a readable summary of a fitted model."""
+    from evcal.panel.result import is_panel_dir
+
+    if is_panel_dir(model_dir):
+        from evcal.panel.cli_support import show_panel_cmd
+
+        return show_panel_cmd(model_dir, series, typer.echo)
     from evcal.fit import load_model
     from evcal.fit.summary import describe
 

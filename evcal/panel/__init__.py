@@ -67,14 +67,26 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     -------
     PanelResult
     """
+    from threadpoolctl import threadpool_limits
+
     from evcal.fit.options import FitOptions
-    from evcal.panel.build import build_result, read_for_panel
     from evcal.panel.distributed import make_runner
-    from evcal.panel.engine import fit_long_panel
 
     opts = FitOptions(**options)
-    panel, keys, levels = read_for_panel(history, series_cols, date_col, value_col, freq, level, group_col)
     runner = make_runner(workers, scheduler, progress)
+    # the matrices are small: one BLAS thread each, the cores go to the units instead
+    with threadpool_limits(limits=1):
+        return _fit(history, calendar, series_cols, date_col, value_col, freq, level, group_col, opts,
+                    runner, out)
+
+
+def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col: str, freq: str | None,
+         level: Any, group_col: str | None, opts: Any, runner: Any, out: str | Path | None) -> PanelResult:
+    from evcal.panel.build import build_result, read_for_panel
+    from evcal.panel.engine import fit_long_panel
+
+    panel, keys, levels = read_for_panel(history, series_cols, date_col, value_col, freq, level, group_col)
+    _release_arrow_memory()
     if out is None:
         fitted = fit_long_panel(panel, calendar, opts, runner=runner)
         return build_result(fitted, keys, levels, group_col, date_col, value_col, None)
@@ -93,6 +105,16 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
         result.write_into(tmp)
     result.fitted_path = out / "fitted.parquet"
     return result
+
+
+def _release_arrow_memory() -> None:
+    """Hand the file buffers pyarrow has freed back to the system (its pool keeps them otherwise)."""
+    try:
+        import pyarrow as pa
+
+        pa.default_memory_pool().release_unused()
+    except (ImportError, AttributeError):
+        pass
 
 
 def plan_panel(model: Any, start: Any, end: Any, series: list[str] | None = None, **kwargs: Any) -> Any:

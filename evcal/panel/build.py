@@ -43,14 +43,26 @@ def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str
 
 
 class FittedWriter:
-    """Streams the fitted rows to one Parquet file, a row group per unit, keys first."""
+    """Streams the fitted rows to one Parquet file, a row group per unit, keys first.
+
+    The writing runs on a background thread (pyarrow releases the GIL), so the
+    file fills while the next units are being fitted.
+    """
 
     def __init__(self, path: Path, panel: Panel) -> None:
+        import queue
+        import threading
+
         import pyarrow as pa
 
+        self._queue: queue.Queue[Any] = queue.Queue(maxsize=4)
+        self._error: BaseException | None = None
+        self._thread = threading.Thread(target=self._drain, name="evcal-fitted-writer", daemon=True)
+        self._thread.start()
         self.path = path
         self.keys = {c: pa.array(panel.keys[c].to_numpy(dtype=object), type=pa.string())
                      for c in panel.key_cols}
+        self.key_cols = list(panel.key_cols)
         self.writer: Any = None
         self.schema: Any = None
 
@@ -67,20 +79,40 @@ class FittedWriter:
             for c, v in block.columns.items():
                 cols[c] = v.ravel()
             cols["in_fit"] = np.tile(block.in_fit, len(block.sids))
-        idx = pa.array(sid)
-        arrays = {c: k.take(idx) for c, k in self.keys.items()}
+        idx = pa.array(sid.astype(np.int32))
+        # keys as dictionary arrays: one copy of each key, an index per row
+        arrays = {c: pa.DictionaryArray.from_arrays(idx, k) for c, k in self.keys.items()}
         for c, v in cols.items():
             arrays[c] = pa.array(np.asarray(v, dtype="datetime64[ns]") if c == "date" else v)
         return pa.table(arrays)
 
     def write(self, blocks: list[Any]) -> None:
+        """Queue a unit's fitted blocks (raises here if the writer thread failed)."""
+        if self._error is not None:
+            raise self._error
+        self._queue.put(blocks)
+
+    def _drain(self) -> None:
+        while True:
+            blocks = self._queue.get()
+            if blocks is None:
+                return
+            if self._error is None:
+                try:
+                    self._write_now(blocks)
+                except BaseException as err:  # handed to the caller by write/close
+                    self._error = err
+
+    def _write_now(self, blocks: list[Any]) -> None:
         import pyarrow.parquet as pq
 
         for block in blocks:
             table = self._table(block)
             if self.writer is None:
                 self.schema = table.schema
-                self.writer = pq.ParquetWriter(self.path, self.schema)
+                # dictionary pages for the keys only: trying them on float columns is slow
+                self.writer = pq.ParquetWriter(self.path, self.schema, compression="snappy",
+                                               use_dictionary=self.key_cols)
             else:
                 table = table.select(self.schema.names).cast(self.schema)
             self.writer.write_table(table)
@@ -89,6 +121,10 @@ class FittedWriter:
         import pyarrow as pa
         import pyarrow.parquet as pq
 
+        self._queue.put(None)
+        self._thread.join()
+        if self._error is not None:
+            raise self._error
         if self.writer is not None:
             self.writer.close()
             self.writer = None

@@ -187,8 +187,12 @@ def _load_parquet(path: Path, series_cols: list[str], date_col: str, value_col: 
     wanted = [_key_column(probe, c) for c in series_cols]
     wanted += [find_column(probe, date_col, "date", "--date-col"),
                find_column(probe, value_col, "value", "--value-col")]
+    keys = list(dict.fromkeys(wanted[:-2]))
     try:
-        frame = pd.read_parquet(path, columns=list(dict.fromkeys(wanted)))
+        # key columns as dictionaries: each distinct key is decoded once, rows carry integer codes
+        table = pq.read_table(path, columns=list(dict.fromkeys(wanted)), read_dictionary=keys)
+        frame = table.to_pandas()
+        del table
     except Exception as err:
         raise HistoryError(f"{path.name}: not a readable Parquet file ({type(err).__name__})") from None
     if len(frame) == 0:

@@ -210,17 +210,25 @@ class PanelResult:
     # ------------------------------------------------------------ persistence
     def write_into(self, directory: Path) -> None:
         """Write every file except ``fitted.parquet`` (streamed while fitting) into ``directory``."""
+        from concurrent.futures import ThreadPoolExecutor
+
         directory = Path(directory)
         (directory / "panel.json").write_text(json.dumps(_clean(self.settings), indent=1), encoding="utf-8")
-        write_csv(self.series, directory / "series.csv")
-        write_csv(self.lifts.drop(columns=["_fitted"], errors="ignore"), directory / "lifts.csv")
-        write_csv(self.pooling, directory / "pooling.csv")
-        write_csv(self.occurrences, directory / "occurrences.csv")
-        write_csv(self.profile, directory / "profile.csv")
-        write_csv(self.skipped, directory / "skipped.csv")
-        self.coefficients.to_parquet(directory / "coefficients.parquet", index=False)
+        jobs: list[tuple[Any, ...]] = [
+            (write_csv, self.occurrences, directory / "occurrences.csv"),
+            (write_csv, self.profile, directory / "profile.csv"),
+            (write_csv, self.lifts.drop(columns=["_fitted"], errors="ignore"), directory / "lifts.csv"),
+            (write_csv, self.series, directory / "series.csv"),
+            (write_csv, self.pooling, directory / "pooling.csv"),
+            (write_csv, self.skipped, directory / "skipped.csv"),
+            (_write_parquet, self.coefficients, directory / "coefficients.parquet"),
+        ]
         if self._fitted is not None and not (directory / "fitted.parquet").exists():
-            self._fitted.to_parquet(directory / "fitted.parquet", index=False)
+            jobs.append((_write_parquet, self._fitted, directory / "fitted.parquet"))
+        # pyarrow writes without holding the GIL: the files go out side by side
+        with ThreadPoolExecutor(max_workers=2) as pool:
+            for fut in [pool.submit(*job) for job in jobs]:
+                fut.result()
 
     def save(self, directory: str | Path) -> Path:
         """Write the panel folder atomically (all files or none)."""
@@ -240,6 +248,10 @@ class PanelResult:
         from evcal.panel.summary import describe_panel
 
         return describe_panel(self)
+
+
+def _write_parquet(frame: pd.DataFrame, path: Path) -> None:
+    frame.to_parquet(path, index=False)
 
 
 def _clean(obj: Any) -> Any:

@@ -50,6 +50,9 @@ class DesignSpec:
         Event columns, as named by the calendar.
     interventions : list of dict
         Intervention settings (:class:`InterventionTerm` as dicts).
+    event_theta : dict
+        Fitted log-lift per event column, for the exact aggregation of
+        multiplicative daily lifts into longer periods (see :mod:`evcal.design.events`).
     """
 
     freq: str
@@ -61,6 +64,7 @@ class DesignSpec:
     trading_days: bool = False
     event_columns: list[str] = field(default_factory=list)
     interventions: list[dict[str, Any]] = field(default_factory=list)
+    event_theta: dict[str, float] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -116,7 +120,8 @@ def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> De
     parts: list[tuple[str, pd.DataFrame]] = [("trend", trend.columns(periods))]
     for block in spec.seasonal_blocks():
         parts.append(("seasonal", block.columns(periods)))
-    parts.append(("event", EventColumns(calendar, list(spec.event_columns)).columns(periods)))
+    parts.append(("event", EventColumns(calendar, list(spec.event_columns),
+                                        dict(spec.event_theta)).columns(periods)))
     parts.append(("intervention", Interventions(spec.intervention_terms()).columns(periods)))
     roles: dict[str, str] = {}
     frames = []

@@ -87,6 +87,10 @@ def decompose(
     share = open_share.to_numpy(dtype=float)
     if result.transform == "none":
         base = eta_base
+        # an assumed lift is a fraction of base, not a number of units
+        for j, c in enumerate(terms):
+            if c in result.status and result.status[c].status == "assumed":
+                tmat[:, j] = tmat[:, j] * base
         with_events = base + tmat.sum(axis=1)
         contrib = tmat * share[:, None]
     else:

@@ -20,9 +20,8 @@ from evcal.fit.model import (
     average_share_profile,
     calendar_text,
     check_history_length,
-    estimate,
+    estimate_exact,
     load_calendar_any,
-    prepare,
 )
 from evcal.fit.options import FitOptions
 from evcal.fit.result import FitResult, load_model
@@ -64,8 +63,7 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
     hist = _read(history, date_col, value_col, freq, opts.allow_negative)
     cal = load_calendar_any(calendar)
     check_history_length(hist)
-    inp = prepare(hist, cal, opts)
-    est, choice = estimate(inp, opts, hist.freq)
+    inp, est, choice = estimate_exact(hist, cal, opts)
 
     periods = inp.periods
     X = inp.design.X

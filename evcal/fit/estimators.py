@@ -95,7 +95,8 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
 
 
 def fit_arima(
-    y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int]
+    y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int],
+    start: Any = None,
 ) -> Estimate:
     """Regression with ARIMA(p, d, q) errors by iterated feasible GLS.
 
@@ -111,7 +112,7 @@ def fit_arima(
     already be absent from ``X``.
     """
     import statsmodels.api as sm  # imported when first used: it is slow to import
-    from scipy.linalg import toeplitz
+    from scipy.linalg import cho_factor, cho_solve, lstsq, solve_triangular, toeplitz
     from statsmodels.tsa.arima_process import arma_acovf
 
     p, d, q = order
@@ -122,39 +123,53 @@ def fit_arima(
         yy = np.diff(endog, n=d)
         XX = np.diff(Xa, n=d, axis=0)
     obs = np.isfinite(yy)
-    beta = np.linalg.lstsq(XX[obs], yy[obs], rcond=None)[0]
+    n = int(obs.sum())
+    k = XX.shape[1]
+    beta = lstsq(XX[obs], yy[obs], lapack_driver="gelsy")[0]
     ar = np.zeros(p)
     ma = np.zeros(q)
-    long = int(obs.sum()) > 3000
-    res_g = None
+    long = n > 3000
+    arma_start = None if start is None else np.asarray(start, dtype=float)
     for _ in range(3):
         u = yy - XX @ beta
         if p or q:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                arma = sm.tsa.SARIMAX(u, order=(p, 0, q), trend="n").fit(disp=False)
+                arma = sm.tsa.SARIMAX(u, order=(p, 0, q), trend="n").fit(
+                    disp=False, start_params=arma_start)
+            arma_start = np.asarray(arma.params, dtype=float)
             ar = np.asarray(arma.params[:p], dtype=float)
             ma = np.asarray(arma.params[p : p + q], dtype=float)
+        # GLS by whitening with the Cholesky factor of the ARMA correlation
         if long:
             # AR whitening only (the MA part is ignored): an n x n covariance is too big here
             w_y, w_X = _ar_whiten(yy, ar), _ar_whiten(XX, ar)
             ok = np.isfinite(w_y) & np.all(np.isfinite(w_X), axis=1)
-            res_g = sm.OLS(w_y[ok], w_X[ok]).fit()
+            w_y, w_X = w_y[ok], w_X[ok]
+            logdet = 0.0
         else:
             acov = arma_acovf(np.r_[1.0, -ar], np.r_[1.0, ma], nobs=len(yy), sigma2=1.0)
-            S = toeplitz(acov)[np.ix_(obs, obs)]
-            res_g = sm.GLS(yy[obs], XX[obs], sigma=S).fit()
-        new_beta = np.asarray(res_g.params)
+            chol = cho_factor(toeplitz(acov)[np.ix_(obs, obs)], lower=True)
+            w_y = solve_triangular(chol[0], yy[obs], lower=True)
+            w_X = solve_triangular(chol[0], XX[obs], lower=True)
+            logdet = 2.0 * float(np.sum(np.log(np.diag(chol[0]))))
+        new_beta = lstsq(w_X, w_y, lapack_driver="gelsy")[0]
         done = np.max(np.abs(new_beta - beta)) < 1e-6 * (1 + np.max(np.abs(beta)))
         beta = new_beta
         if done or not (p or q):
             break
-    assert res_g is not None
+    w_e = w_y - w_X @ beta
+    m = len(w_y)
+    ssr = float(w_e @ w_e)
+    sigma2 = ssr / max(m - k, 1)
+    xtx = w_X.T @ w_X
+    cov_m = sigma2 * cho_solve(cho_factor(xtx), np.eye(k)) if np.linalg.matrix_rank(xtx) == k \
+        else sigma2 * np.linalg.pinv(xtx)
+    # Gaussian log-likelihood of the GLS regression (as statsmodels GLS reports it)
+    llf = -0.5 * m * (np.log(2 * np.pi * ssr / m) + 1.0) - 0.5 * logdet
     names = list(X.columns)
     params = pd.Series(beta, index=names)
-    cov = pd.DataFrame(np.asarray(res_g.cov_params()), index=names, columns=names)
-    sigma2 = float(res_g.scale)
-    llf = float(res_g.llf)
+    cov = pd.DataFrame(cov_m, index=names, columns=names)
     n_par = len(names) + p + q + 1
     eta = endog - Xa @ beta  # the regression error on the original scale, for forecasting
     innov = pd.Series(np.nan, index=y.index)
@@ -170,7 +185,7 @@ def fit_arima(
         resid=innov,
         llf=llf,
         aic=float(-2 * llf + 2 * n_par),
-        nobs=int(obs.sum()),
+        nobs=n,
         error_model={
             "kind": "arima",
             "order": [p, d, q],
@@ -178,6 +193,7 @@ def fit_arima(
             "ma": [float(v) for v in ma],
             "sigma2": sigma2,
             "tail": [None if not np.isfinite(v) else float(v) for v in eta[-tail_len:]],
+            "arma_params": [float(v) for v in (arma_start if arma_start is not None else [])],
         },
         cov_note=f"regression with ARIMA({p},{d},{q}) errors (iterated feasible GLS), GLS covariance",
     )

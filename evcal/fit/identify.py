@@ -31,6 +31,7 @@ class ColumnStatus:
 
     status: str  # fitted | no_history | unidentifiable | duplicate
     note: str = ""
+    twin: str = ""  # for a duplicate: the column that carries the joint estimate
 
 
 def _relative_residual(col: np.ndarray, q: np.ndarray) -> float:
@@ -143,6 +144,7 @@ def check_columns(
                 "duplicate",
                 f"always falls on the same days as {twin}: only their joint effect can be "
                 f"estimated (reported under {twin}); consider merging the two events",
+                twin=twin,
             )
             prev = out[twin].note
             out[twin] = ColumnStatus("fitted", (prev + "; " if prev else "") + f"estimate includes {c}")

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -84,8 +84,13 @@ def choose_transform(values: pd.Series, options: FitOptions, source: str, known_
     return options.transform
 
 
-def prepare(history: Any, calendar: Any, options: FitOptions) -> ModelInputs:
-    """Build the design and decide which columns enter the fit."""
+def prepare(history: Any, calendar: Any, options: FitOptions,
+            theta: dict[str, float] | None = None) -> ModelInputs:
+    """Build the design and decide which columns enter the fit.
+
+    ``theta`` (log-lift per event column from a previous pass) makes the event
+    columns aggregate the daily lifts exactly; see :mod:`evcal.design.events`.
+    """
     periods = history.values.index
     actual = history.values.astype(float)
     freq = history.freq
@@ -105,6 +110,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions) -> ModelInputs:
         trading_days=options.trading_days,
         event_columns=event_cols,
         interventions=interventions,
+        event_theta=dict(theta or {}),
     )
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()
@@ -257,3 +263,53 @@ def average_share_profile(values: pd.Series) -> pd.Series:
 
 __all__ = ["prepare", "estimate", "check_history_length", "average_share_profile", "EvcalError",
            "period_days", "load_calendar_any", "calendar_text"]
+
+
+def fitted_theta(inp: ModelInputs, est: Estimate) -> dict[str, float]:
+    """Log-lift of each event column after a pass: fitted, borrowed (like) and assumed."""
+    theta: dict[str, float] = {}
+    for col, st in inp.status.items():
+        if inp.design.roles.get(col) != "event":
+            continue
+        if st.status == "fitted" and col in est.params.index:
+            theta[col] = float(est.params[col])
+        elif st.status == "like" and inp.like_map.get(col) in est.params.index:
+            theta[col] = float(est.params[inp.like_map[col]])
+        elif st.status == "assumed":
+            theta[col] = float(np.log1p(inp.assumed[col]))
+        elif st.status == "duplicate" and st.twin in est.params.index:
+            # shaped like its twin, so the two stay recognisably the same column
+            theta[col] = float(est.params[st.twin])
+    return theta
+
+
+def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[ModelInputs, Estimate, dict]:
+    """Fit, then refit with event columns that aggregate the fitted daily lifts exactly.
+
+    Daily data need no second pass (each period is one day). For longer
+    periods the log-lifts from one pass set the columns of the next, until
+    they settle (at most 8 passes; typically 3).
+    """
+    inp = prepare(history, calendar, options)
+    est, choice = estimate(inp, options, history.freq)
+    if inp.transform == "none" or base_freq(history.freq) == "D":
+        return inp, est, choice
+    theta = fitted_theta(inp, est)
+    # later passes keep the error model the first pass chose (and its reasons)
+    if est.method == "ols":
+        fixed = replace(options, errors="ols")
+    elif est.method.startswith("arima"):
+        fixed = replace(options, errors="arima", arima_order=tuple(est.error_model["order"]))
+    else:
+        fixed = options
+    for _ in range(8):
+        if not theta:
+            break
+        inp = prepare(history, calendar, options, theta=theta)
+        est, _ = estimate(inp, fixed, history.freq)
+        new = fitted_theta(inp, est)
+        moved = max((abs(new.get(k, 0.0) - theta.get(k, 0.0)) for k in set(new) | set(theta)), default=0.0)
+        theta = new
+        if moved < 1e-6:
+            break
+    return inp, est, choice

@@ -111,7 +111,8 @@ class FitResult:
             "smear": self.smear,
             "error_model": self.error_model,
             "model": self.model_choice,
-            "status": {k: {"status": v.status, "note": v.note} for k, v in self.status.items()},
+            "status": {k: {"status": v.status, "note": v.note, "twin": v.twin}
+                       for k, v in self.status.items()},
             "like_map": self.like_map,
             "assumed": self.assumed,
             "base_columns": self.base_columns,
@@ -159,7 +160,8 @@ class FitResult:
             smear=float(d["smear"]),
             error_model=d["error_model"],
             model_choice=d["model"],
-            status={k: ColumnStatus(v["status"], v["note"]) for k, v in d["status"].items()},
+            status={k: ColumnStatus(v["status"], v["note"], v.get("twin", ""))
+                    for k, v in d["status"].items()},
             like_map=d["like_map"],
             assumed={k: float(v) for k, v in d["assumed"].items()},
             base_columns=d["base_columns"],

@@ -78,13 +78,15 @@ class InterventionTerm:
             return np.clip(after.to_numpy(dtype=float), 0.0, days) / days
         if self.type == "temporary":
             decay = 0.7 if self.decay is None else float(self.decay)
-            holding = periods.get_indexer([self.start.to_period(periods.freq)])[0]
-            if holding < 0:
-                # the change happened outside this grid: count periods from it
+            ends = periods.end_time.normalize()
+            if start[0] <= self.start <= ends[-1]:
+                # k counts periods from the one holding the change (k = 0)
+                holding = int(np.searchsorted(ends.to_numpy(), np.datetime64(self.start), side="left"))
+                k = np.arange(len(periods), dtype=float) - holding
+            else:
+                # the change happened outside this grid (a plan after the history): count from it
                 first = self.start.to_period(periods.freq)
                 k = np.array([(p - first).n for p in periods], dtype=float)
-            else:
-                k = np.arange(len(periods), dtype=float) - holding
             return np.where(k >= 0, decay ** np.clip(k, 0, None), 0.0)
         if self.type == "ramp":
             end = self.end if self.end is not None else self.start

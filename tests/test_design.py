@@ -58,7 +58,8 @@ def test_box_tiao_columns(kind, expected):
 
 def test_ramp_reaches_one_at_its_end():
     periods = pd.period_range("2024-01", "2024-06", freq="M")
-    col = InterventionTerm("r", "ramp", pd.Timestamp("2024-02-01"), pd.Timestamp("2024-04-01")).column(periods)
+    term = InterventionTerm("r", "ramp", pd.Timestamp("2024-02-01"), pd.Timestamp("2024-04-01"))
+    col = term.column(periods)
     assert col[0] == 0 and col[-1] == 1 and col[-2] == 1
     assert 0 < col[1] < col[2] < 1
 

@@ -25,6 +25,7 @@ import pandas as pd
 
 from evcal.design.base import period_mid_years
 from evcal.design.matrix import build_design
+from evcal.design.seasonal import base_freq
 from evcal.design.trend import Trend
 from evcal.fit.identify import check_columns, independent_base_columns
 from evcal.fit.model import load_calendar_any, prepare
@@ -58,6 +59,9 @@ class Template:
     inp: Any  # ModelInputs
     raw: pd.DataFrame  # unmerged design (like-events apart), for the tables
     mid_years: np.ndarray
+    calendar: Any = None
+    periods: Any = None
+    _curve: Any = None
 
     @classmethod
     def build(cls, panel: Panel, calendar: Any, options: FitOptions, transform: str) -> Template:
@@ -65,7 +69,26 @@ class Template:
                               panel.source, [])
         inp = prepare(placeholder, calendar, replace(options, transform=transform))
         raw = build_design(inp.design.spec, calendar, panel.periods).X  # type: ignore[attr-defined]
-        return cls(transform, inp, raw, period_mid_years(panel.periods))
+        return cls(transform, inp, raw, period_mid_years(panel.periods), calendar, panel.periods)
+
+    def curve(self) -> Any:
+        """Event columns as functions of θ, when the single-series fit aggregates lifts exactly.
+
+        :func:`evcal.fit.model.estimate_exact` refits weekly, monthly and quarterly
+        log-link models with each event column built from the series' own lift;
+        additive models and daily data keep the linear columns.
+        """
+        import evcal.fit.model as fit_model
+
+        if not hasattr(fit_model, "estimate_exact") or self.transform == "none" \
+                or base_freq(self.inp.design.spec.freq) == "D":
+            return None
+        if self._curve is None:
+            from evcal.panel.curved import CurvedEvents
+
+            spec = self.inp.design.spec
+            self._curve = CurvedEvents(self.calendar, list(spec.event_columns), self.periods)
+        return self._curve
 
     def origin(self, first: int) -> float:
         """Trend origin of a series whose history starts at period ``first`` (as prepare sets it)."""
@@ -96,6 +119,7 @@ class Group:
     notes: list[str] = field(default_factory=list)
     offset: np.ndarray | None = None  # model-scale offset on the fit rows
     share: np.ndarray | None = None  # open share on the fit rows (additive model)
+    curve: Any = None  # CurvedEvents on the panel's periods, when lifts are aggregated exactly
 
 
 def _group_info(template: Template, calendar: Any, observed: np.ndarray, origin: float
@@ -127,7 +151,8 @@ def _group_info(template: Template, calendar: Any, observed: np.ndarray, origin:
         like_map=dict(inp.like_map), assumed=dict(inp.assumed),
         intervention_names=[t["name"] for t in spec.interventions],
         closure_events=[e.name for e in calendar.events if e.effect.kind == "zero"],
-        event_info=event_info, event_labels={e.name: e.label for e in calendar.events}, spec=spec)
+        event_info=event_info, event_labels={e.name: e.label for e in calendar.events}, spec=spec,
+        roles=dict(roles))
     Xf = X.loc[rows, fitted_cols].to_numpy(dtype=float)
     notes = [n for n in inp.notes if not n.endswith("left out of the additive fit")]
     if template.transform == "none":
@@ -211,20 +236,34 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         share = g.share[:, None]
         Y = (y / share) * np.where(share > 0, share, 1.0)
     B, E, sigma2 = g.solve.solve(Y)
-    term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
-    if len(term_idx):
-        cov = g.solve.covariances(E, term_idx)
-        se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
+    refined = None
+    if g.curve is not None:
+        from evcal.panel.curved import refine
+
+        refined = refine(g.info, g.curve, rows, g.solve.X, Y, B, g.solve.lags)
+    if refined is not None:
+        B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
     else:
-        se = np.zeros((0, len(unit.sids)))
+        term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
+        if len(term_idx):
+            cov = g.solve.covariances(E, term_idx)
+            se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
+        else:
+            se = np.zeros((0, len(unit.sids)))
     smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
+    curved_all: dict[str, np.ndarray] = {}
+    if refined is not None:
+        from evcal.panel.curved import curved_columns
+
+        curved_all = curved_columns(g.curve, g.info, refined.theta_in)
     parts: list[BlockTables] = []
     for (f, last), ctx in unit.contexts.items():
         pick = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last))
         if not len(pick):
             continue
+        curved = {c: v[pick, f:last + 1] for c, v in curved_all.items()}
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
-                                  unit.actual[pick, f:last + 1], unit.sids[pick]))
+                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved))
     tables = _concat_tables(parts)
     series = pd.DataFrame({"_sid": unit.sids, "engine": "batched", "group": g.gid,
                            "transform": g.transform, "method": "ols", "sigma2": sigma2, "smear": smear,
@@ -365,7 +404,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[A
                 continue
             g = Group(len(groups), tr, origin, rows, members, info, SharedSolve.of(Xf), notes,
                       offset=tpl.inp.offset.to_numpy()[rows],
-                      share=tpl.inp.design.open_share.to_numpy()[rows])
+                      share=tpl.inp.design.open_share.to_numpy()[rows], curve=tpl.curve())
             groups.append(g)
             raw = tpl.with_origin(tpl.raw, origin)
             share_all = tpl.inp.design.open_share.to_numpy()

@@ -237,7 +237,7 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     uniques: list[Any] = []
     for c in kcols:
         col = frame[c]
-        cc, uu = pd.factorize(col, sort=True, use_na_sentinel=True)
+        cc, uu = _factorize_sorted(col)
         bad = cc < 0
         if len(uu) and not pd.api.types.is_numeric_dtype(uu.dtype):
             # blank or NA-like key text, checked once per distinct key
@@ -362,6 +362,25 @@ def _attributes(table: RawTable, cols: list[str], sid: np.ndarray, n_series: int
                 "value per series (add it to --series-col if it is part of the key)")
         out[c] = pd.Series(np.asarray(uniq, dtype=object)[first]).astype(str).to_numpy(dtype=object)
     return pd.DataFrame(out)
+
+
+def _factorize_sorted(col: pd.Series) -> tuple[np.ndarray, Any]:
+    """Codes in sorted order of the distinct values (-1 for missing), categorical columns included."""
+    if isinstance(col.dtype, pd.CategoricalDtype):
+        cats = col.cat.categories
+        order = np.argsort(np.asarray(cats.astype(str)), kind="stable")
+        rank = np.empty(len(cats), dtype=np.int64)
+        rank[order] = np.arange(len(cats))
+        codes = col.cat.codes.to_numpy()
+        cc = np.where(codes >= 0, rank[np.maximum(codes, 0)], -1)
+        used = np.zeros(len(cats), dtype=bool)
+        used[cc[cc >= 0]] = True  # drop categories no row uses
+        if not used.all():
+            remap = np.cumsum(used) - 1
+            cc = np.where(cc >= 0, remap[np.maximum(cc, 0)], -1)
+            return cc, cats[order][used]
+        return cc, cats[order]
+    return pd.factorize(col, sort=True, use_na_sentinel=True)
 
 
 def _dense_codes(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -18,7 +18,7 @@ linear interpolation numpy uses), not at all 2,000 draws.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -52,6 +52,7 @@ class GroupInfo:
     event_info: dict[str, dict[str, Any]]
     event_labels: dict[str, str]
     spec: Any  # DesignSpec (with the group's trend origin)
+    roles: dict[str, str] = field(default_factory=dict)  # column -> trend | seasonal | event | intervention
 
     @property
     def term_cols(self) -> list[str]:
@@ -70,6 +71,7 @@ class _Occ:
     frac: np.ndarray
     active_days: np.ndarray
     xs: np.ndarray  # event columns summed over the window times frac (zeros for closures)
+    own: np.ndarray  # the occurrence's own days in each period times its strength
 
 
 @dataclass
@@ -129,18 +131,23 @@ def _occurrence_windows(calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame,
         ov1 = np.minimum(p_end[touch], np.datetime64(w1, "ns"))
         ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
         n_t = i1 - i0
+        own = ov_days * float(r.strength)
         frac = np.ones(n_t)
         xs = np.zeros(n_t)
         if not zero:
             x_sum = sum(x_np[c][touch] for c in cols)
-            x_tot = x_sum * days[touch]
-            own = ov_days * float(r.strength)
-            frac = np.where(x_tot > own + 1e-9, own / np.maximum(x_tot, 1e-12), 1.0)
-            xs = x_sum * frac
+            frac, xs = _window_share(x_sum, days[touch], own)
         out.append(_Occ(r.event, pd.Timestamp(r.start).date().isoformat(),
                         pd.Timestamp(r.end).date().isoformat(), touch, cols, zero, frac,
-                        np.maximum(ov_days, 1.0), xs))
+                        np.maximum(ov_days, 1.0), xs, own))
     return out
+
+
+def _window_share(x_sum: np.ndarray, days: np.ndarray, own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The occurrence's share of each period's event intensity (others may share the period)."""
+    x_tot = x_sum * days
+    frac = np.where(x_tot > own + 1e-9, own / np.maximum(x_tot, 1e-12), 1.0)
+    return frac, x_sum * frac
 
 
 @dataclass
@@ -189,7 +196,8 @@ def _coefficients(group: GroupInfo, params: dict[str, np.ndarray], m: int) -> di
 
 
 def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.ndarray,
-                 smear: np.ndarray, actual: np.ndarray, sids: np.ndarray) -> BlockTables:
+                 smear: np.ndarray, actual: np.ndarray, sids: np.ndarray,
+                 curved: dict[str, np.ndarray] | None = None) -> BlockTables:
     """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
 
     Arrays are series-major (one row per series), so the long tables are
@@ -208,8 +216,12 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     actual : ndarray, shape (m, len(ctx.periods))
     sids : ndarray of int, shape (m,)
         The series' positions in the panel (the ``_sid`` column of every table).
+    curved : dict, optional
+        Event columns that differ by series (each series' own exact aggregation,
+        :mod:`evcal.panel.curved`): column -> (m, n) on the span.
     """
     m = params.shape[1]
+    curved = curved or {}
     pmap = {c: params[i] for i, c in enumerate(group.fitted_cols)}
     se_map = {c: se[i] for i, c in enumerate(group.term_cols)}
     X = ctx.raw
@@ -220,8 +232,8 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     eta_base = Bb.T @ Xb.T  # (m, n)
     terms = [c for c in coefs if c in X.columns]
     share = ctx.share[None, :]
-    xcol = {c: X[c].to_numpy(dtype=float) for c in terms}
-    tmat = {c: coefs[c][:, None] * xcol[c][None, :] for c in terms}
+    xcol = {c: curved[c] if c in curved else X[c].to_numpy(dtype=float)[None, :] for c in terms}
+    tmat = {c: coefs[c][:, None] * xcol[c] for c in terms}
     total = sum(tmat.values()) if terms else np.zeros_like(eta_base)
     parts: dict[str, np.ndarray] = {}
     if group.transform == "none":
@@ -248,7 +260,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
             parts[c] = np.where((tot > 0)[None, :], lost * (cl[:, j] / safe_tot)[None, :], 0.0)
     mean_base = base.mean(axis=1)
 
-    occ = _occurrences(ctx, group, parts, base, pmap, se_map, sids)
+    occ = _occurrences(ctx, group, parts, base, pmap, se_map, sids, curved)
     lifts = _lifts(ctx, group, parts, base, pmap, se_map, occ, sids)
     profile = _profile(group, pmap, mean_base, sids)
     fitted_block = FittedBlock(sids, ctx.dates.to_numpy(),
@@ -284,7 +296,7 @@ def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray
     t_lo, t_hi = _H_LOW - lo_i, _H_HIGH - hi_i
     if (xs >= 0).all() and (base_t >= 0).all() and (s >= 0).all():
         def g(i: int) -> np.ndarray:
-            return ratio * (base_t * np.expm1(np.outer(b + s * z_sorted[i], xs))).sum(axis=1)
+            return ratio * (base_t * np.expm1((b + s * z_sorted[i])[:, None] * xs)).sum(axis=1)
 
         last = N_DRAWS - 1
         need = (lo_i, lo_i + 1, hi_i, hi_i + 1)
@@ -294,8 +306,9 @@ def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray
         pick = {i: np.where(ratio >= 0, up[i], down[i]) for i in need}
         return _lerp(pick[lo_i], pick[lo_i + 1], t_lo), _lerp(pick[hi_i], pick[hi_i + 1], t_hi)
     # general case: the draws themselves
+    xs_b = np.broadcast_to(xs, base_t.shape)[None, :, :]
     draws = (base_t[None, :, :] * np.expm1((b[None, :, None] + s[None, :, None]
-             * z_sorted[:, None, None]) * xs[None, None, :])).sum(axis=2) * ratio[None, :]
+             * z_sorted[:, None, None]) * xs_b)).sum(axis=2) * ratio[None, :]
     low, high = np.quantile(draws, [0.025, 0.975], axis=0)
     return low, high
 
@@ -307,8 +320,8 @@ def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
 
 
 def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
-                 pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], sids: np.ndarray
-                 ) -> pd.DataFrame:
+                 pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], sids: np.ndarray,
+                 curved: dict[str, np.ndarray]) -> pd.DataFrame:
     m = len(sids)
     cols_out = OCC_COLUMNS + ["low_units", "high_units"]
     if not ctx.occs:
@@ -323,7 +336,12 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
     for i, o in enumerate(ctx.occs):
         sl = o.sl
         contrib = sum(parts[c][:, sl] for c in o.cols)
-        add = contrib @ o.frac
+        frac, xs = o.frac, o.xs
+        if not o.zero and any(c in curved for c in o.cols):
+            x_sum = sum(curved[c][:, sl] if c in curved else ctx.raw[c].to_numpy()[sl][None, :]
+                        for c in o.cols)
+            frac, xs = _window_share(x_sum, ctx.days[sl], o.own)
+        add = (contrib * frac).sum(axis=1)
         base_win = base[:, sl] @ (o.active_days / ctx.days[sl])
         with np.errstate(divide="ignore", invalid="ignore"):
             pct[:, i] = np.where(base_win != 0, 100.0 * add / base_win, np.nan)
@@ -337,12 +355,12 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
         if pcol in pmap and not o.zero and group.transform != "none":
             b, s = pmap[pcol], se_map[pcol]
             base_t = base[:, sl] * share[None, sl]
-            point = (base_t * np.expm1(np.outer(b, o.xs))).sum(axis=1)
+            point = (base_t * np.expm1(b[:, None] * xs)).sum(axis=1)
             ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
-            lo, hi = _sim_bounds(b, s, o.xs, base_t, ratio, z_sorted)
+            lo, hi = _sim_bounds(b, s, xs, base_t, ratio, z_sorted)
         elif pcol in pmap and not o.zero:
             s = se_map[pcol]
-            xs_sum = abs(float(o.xs.sum()))
+            xs_sum = np.abs(np.sum(xs, axis=-1))
             lo, hi = add - Z95 * s * xs_sum, add + Z95 * s * xs_sum
         low[:, i], high[:, i] = lo, hi
     return pd.DataFrame({

@@ -1,0 +1,296 @@
+"""Event columns that aggregate each series' own daily lift exactly, for many series at once.
+
+For weekly, monthly and quarterly data the single-series fit builds an event
+column from the fitted log-lift θ of that series (:mod:`evcal.design.events`):
+the period's column is ``log(1 + mean over its open days of (exp(θ w_d) − 1)) / θ``
+for day intensities ``w_d``, and the fit is repeated until θ settles. The
+columns then differ from series to series, but only through θ: a period's
+column depends on the *distinct* day intensities in it and how many open days
+carry each. :class:`CurvedEvents` keeps those counts, so the columns of a
+thousand series are one small matrix product per event.
+
+:func:`refine` then runs the fit's fixed-point passes for a block of series:
+the shared trend and seasonal columns are projected out once
+(Frisch–Waugh–Lovell), and each series solves only its few event and
+intervention columns. The HAC covariance of those coefficients comes from the
+same projected columns (their rows of ``(XᵀX)⁻¹Xᵀ`` are ``(X̃ᵀX̃)⁻¹X̃ᵀ``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import day_span, period_days
+from evcal.design.dayweights import aggregate_day_weights
+from evcal.panel.batched import bartlett_weights
+
+__all__ = ["CurvedEvents", "curved_columns", "refine", "MAX_PASSES", "THETA_TOL"]
+
+MAX_PASSES = 8  # as evcal.fit.model.estimate_exact
+THETA_TOL = 1e-6
+
+
+class CurvedEvents:
+    """Event columns on ``periods`` as functions of θ, from the calendar's daily intensities.
+
+    Parameters
+    ----------
+    calendar : Calendar
+    names : list of str
+        Event columns (as ``calendar.event_columns()`` names them).
+    periods : PeriodIndex
+    """
+
+    def __init__(self, calendar: Any, names: list[str], periods: pd.PeriodIndex) -> None:
+        self.periods = periods
+        self.basis: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+        colmap = calendar.event_columns()
+        wanted = sorted({colmap[c] for c in names if c in colmap})
+        if not wanted:
+            return
+        start, end = day_span(periods)
+        daily = calendar.day_weights(start, end, normalize="none", events=wanted)
+        days = period_days(periods)
+        closed = calendar.closed_days(start, end).reindex(daily.index, fill_value=False)
+        if closed.any():  # closed days carry no lift; the mean is over the open days
+            daily = daily.mul(~closed.to_numpy(), axis=0)
+            shut = aggregate_day_weights(closed.astype(float).to_frame("closed"), periods)
+            days = np.maximum(days - shut["closed"].to_numpy(dtype=float), 1.0)
+        codes = periods.get_indexer(daily.index.to_period(periods.freq))
+        inside = codes >= 0
+        for n in names:
+            if n not in daily.columns:
+                continue
+            w = daily[n].to_numpy(dtype=float)
+            nz = inside & (w != 0)
+            vals, inv = np.unique(w[nz], return_inverse=True)
+            counts = np.zeros((len(periods), len(vals)))
+            np.add.at(counts, (codes[nz], inv), 1.0)
+            self.basis[n] = (vals, counts / days[:, None])
+
+    def column(self, name: str, theta: np.ndarray, at: np.ndarray | None = None) -> np.ndarray:
+        """Column ``name`` for each θ: shape (len(theta), periods); zeros if the calendar has none.
+
+        ``at`` restricts the result to those period positions.
+        """
+        theta = np.asarray(theta, dtype=float)
+        n_out = len(self.periods) if at is None else len(at)
+        if name not in self.basis:
+            return np.zeros((len(theta), n_out))
+        vals, share = self.basis[name]
+        if at is not None:
+            share = share[at]
+        linear = share @ vals
+        out = np.broadcast_to(linear, (len(theta), n_out)).copy()
+        bent = np.abs(theta) > 1e-9
+        if bent.any():
+            t = theta[bent]
+            mean = np.expm1(t[:, None] * vals[None, :]) @ share.T
+            out[bent] = np.log1p(np.clip(mean, -0.999999, None)) / t[:, None]
+        return out
+
+
+def _pair_sums(A: np.ndarray, B: np.ndarray) -> np.ndarray:
+    """``Σₜ A[t, s, i] B[t, s, j]`` for every series s: (m, j, j) from (n, m, j) arrays.
+
+    The columns are few, so one elementwise product per pair beats a batched
+    matrix product of tiny matrices.
+    """
+    n_c = A.shape[2]
+    out = np.empty((A.shape[1], n_c, n_c))
+    for i in range(n_c):
+        for j in range(n_c):
+            out[:, i, j] = np.einsum("nm,nm->m", A[:, :, i], B[:, :, j])
+    return out
+
+
+def _theta_sources(group: Any) -> dict[str, str]:
+    """Event column -> fitted column whose coefficient is its θ (fitted, borrowed, duplicate)."""
+    src: dict[str, str] = {}
+    for col, st in group.status.items():
+        if group.roles.get(col) != "event":
+            continue
+        if st.status == "fitted":
+            src[col] = col
+        elif st.status == "like" and group.like_map.get(col) in group.fitted_cols:
+            src[col] = group.like_map[col]
+        elif st.status == "duplicate" and getattr(st, "twin", "") in group.fitted_cols:
+            src[col] = st.twin
+    return src
+
+
+def curved_columns(curve: CurvedEvents, group: Any, theta: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """Each series' raw (unmerged) event columns for its θ: {column: (m, n)}."""
+    return {col: curve.column(col, theta[src]) for col, src in _theta_sources(group).items() if src in theta}
+
+
+@dataclass
+class Refined:
+    """A block after the fixed-point passes."""
+
+    params: np.ndarray  # (k, m) in group.fitted_cols order
+    resid: np.ndarray  # (n_rows, m)
+    sigma2: np.ndarray  # (m,)
+    se_terms: np.ndarray  # (len(term_cols), m)
+    theta_in: dict[str, np.ndarray]  # θ the final design was built with, per source column
+    passes: np.ndarray  # (m,)
+
+
+def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, Y: np.ndarray,
+           B0: np.ndarray, lags: int) -> Refined | None:
+    """The single-series fit's θ passes for a block of series (None when nothing is curved).
+
+    Each pass solves, for every series still moving, the event and intervention
+    coefficients after the shared trend and seasonal columns are projected out
+    (Frisch–Waugh–Lovell, with ``X̃ᵀX̃ = XᵀX − PᵀP`` and ``P = QᵀX`` for the
+    orthonormal basis ``Q`` of the shared columns). An event column is zero
+    outside its windows whatever θ is, so ``P`` needs only the few rows the
+    windows touch. A series stops when its θ moves less than :data:`THETA_TOL`
+    (as the single-series fit does), so every series gets the passes it would
+    get alone.
+
+    Parameters
+    ----------
+    group : GroupInfo
+        With ``roles`` (column -> role).
+    curve : CurvedEvents
+        On the panel's periods.
+    rows : bool array
+        Fit rows on the panel's periods.
+    X_fit : ndarray (n_rows, k)
+        The first-pass design on the fit rows (group.fitted_cols).
+    Y : ndarray (n_rows, m)
+        Model-scale responses (offset taken off).
+    B0 : ndarray (k, m)
+        First-pass coefficients.
+    """
+    cols = list(group.fitted_cols)
+    idx = {c: i for i, c in enumerate(cols)}
+    curved_cols = [c for c in cols if group.roles.get(c) == "event"]
+    if not curved_cols:
+        return None
+    n, m = Y.shape
+    base_set = set(group.base_columns)
+    term = [c for c in cols if c not in base_set]
+    base = [c for c in cols if c in base_set]
+    jc = [term.index(c) for c in curved_cols]
+    js = [j for j, c in enumerate(term) if c not in curved_cols]
+    A = X_fit[:, [idx[c] for c in base]]
+    Qa, Ra = np.linalg.qr(A)
+    qy = Qa.T @ Y
+    # merged like columns add their own curve (with the target's θ) to the target column
+    like_into: dict[str, list[str]] = {}
+    for c, tgt in group.like_map.items():
+        if tgt in idx and group.status.get(c) is not None and group.status[c].status == "like":
+            like_into.setdefault(tgt, []).append(c)
+    # rows any event window touches (an event column is zero elsewhere for every θ)
+    fit_periods = np.flatnonzero(rows)
+    support = np.zeros(n, dtype=bool)
+    for c in curved_cols:
+        for name in [c] + like_into.get(c, []):
+            support |= curve.column(name, np.zeros(1))[0, fit_periods] != 0
+    U = np.flatnonzero(support)
+    QU, YU, at = Qa[U], Y[U], fit_periods[U]
+    xs = X_fit[:, [idx[term[j]] for j in js]]  # shared term columns (interventions)
+    ps = Qa.T @ xs
+    ss = xs.T @ xs
+    sy = xs.T @ Y
+    xs_u = xs[U]
+
+    def event_values(th: dict[str, np.ndarray], sel: np.ndarray) -> np.ndarray:
+        """(ms, |U|, n_curved): each series' event columns on the touched rows."""
+        out = np.empty((len(sel), len(U), len(curved_cols)))
+        for k, c in enumerate(curved_cols):
+            col = curve.column(c, th[c][sel], at=at)
+            for extra in like_into.get(c, []):
+                col = col + curve.column(extra, th[c][sel], at=at)
+            out[:, :, k] = col
+        return out
+
+    def projections(V: np.ndarray, sel: np.ndarray) -> np.ndarray:
+        """P = Qᵀ X_term per series: (ms, j, ka)."""
+        ms = len(sel)
+        P = np.empty((ms, len(term), Qa.shape[1]))
+        P[:, js, :] = ps.T[None, :, :]
+        P[:, jc, :] = (V.transpose(0, 2, 1).reshape(ms * len(jc), len(U)) @ QU).reshape(ms, len(jc), -1)
+        return P
+
+    def solve(th: dict[str, np.ndarray], sel: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        V = event_values(th, sel)
+        P = projections(V, sel)
+        ms = len(sel)
+        # Gram matrix of the term columns, block by block, minus the projected part
+        cc = np.einsum("muc,mud->mcd", V, V)
+        cs = np.einsum("muc,us->mcs", V, xs_u)
+        G = np.empty((ms, len(term), len(term)))
+        for a, i in enumerate(jc):
+            for b, j in enumerate(jc):
+                G[:, i, j] = cc[:, a, b]
+            for b, j in enumerate(js):
+                G[:, i, j] = G[:, j, i] = cs[:, a, b]
+        for a, i in enumerate(js):
+            for b, j in enumerate(js):
+                G[:, i, j] = ss[a, b]
+        G -= np.einsum("mik,mjk->mij", P, P)
+        rhs = np.empty((ms, len(term)))
+        rhs[:, jc] = np.einsum("muc,um->mc", V, YU[:, sel])
+        rhs[:, js] = sy[:, sel].T
+        rhs -= np.einsum("mjk,km->mj", P, qy[:, sel])
+        bt = np.linalg.solve(G, rhs[:, :, None])[:, :, 0]
+        ba = np.linalg.solve(Ra, qy[:, sel] - np.einsum("mjk,mj->km", P, bt))
+        return bt, ba
+
+    params = B0.copy()
+    theta = {c: B0[idx[c]].copy() for c in curved_cols}
+    theta_in = {c: np.zeros(m) for c in curved_cols}
+    active = np.ones(m, dtype=bool)
+    passes = np.ones(m, dtype=int)
+    for _ in range(MAX_PASSES):
+        sel = np.flatnonzero(active)
+        if not len(sel):
+            break
+        bt, ba = solve(theta, sel)
+        for j, c in enumerate(term):
+            params[idx[c], sel] = bt[:, j]
+        for j, c in enumerate(base):
+            params[idx[c], sel] = ba[j]
+        for c in curved_cols:
+            theta_in[c][sel] = theta[c][sel]
+        new = {c: params[idx[c], sel] for c in curved_cols}
+        moved = np.max(np.abs(np.vstack([new[c] - theta[c][sel] for c in curved_cols])), axis=0)
+        for c in curved_cols:
+            theta[c][sel] = new[c]
+        passes[sel] += 1
+        active[sel[moved < THETA_TOL]] = False
+
+    # the final designs: residuals and the HAC covariance of the term coefficients
+    everyone = np.arange(m)
+    V = event_values(theta_in, everyone)
+    P = projections(V, everyone)
+    Xt = np.empty((n, m, len(term)))
+    Xt[:, :, js] = xs[:, None, :]
+    Xt[:, :, jc] = 0.0
+    for k, j in enumerate(jc):
+        Xt[U, :, j] = V[:, :, k].T
+    bt = np.stack([params[idx[c]] for c in term], axis=1)  # (m, j)
+    ba = np.stack([params[idx[c]] for c in base], axis=0)  # (ka, m)
+    resid = Y - A @ ba - (Xt * bt[None, :, :]).sum(axis=2)
+    Xp = Xt - (Qa @ P.transpose(2, 0, 1).reshape(Qa.shape[1], -1)).reshape(n, m, len(term))
+    G = _pair_sums(Xp, Xp)
+    k_all = len(cols)
+    sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
+    Z = np.linalg.solve(G, Xp.transpose(1, 2, 0)).transpose(2, 0, 1)  # (n, m, j)
+    Vz = Z * resid[:, :, None]
+    w = bartlett_weights(lags)
+    W = 0.5 * Vz
+    for lag in range(1, min(lags, n - 1) + 1):
+        W[lag:] += w[lag] * Vz[:-lag]
+    Acov = _pair_sums(Vz, W)
+    cov = Acov + Acov.transpose(0, 2, 1)
+    se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
+    order = [term.index(c) for c in group.term_cols]
+    return Refined(params, resid, sigma2, se[order], theta_in, passes)

@@ -1,0 +1,326 @@
+"""Many series at once: the batched solver against statsmodels and against the single-series fit,
+grouping by missing pattern, partial pooling, skipped series, roll-ups and allocation.
+
+All panels here are invented (Fernhollow Garden Centres products in a few
+stores, made with numpy's seeded generator) with a known truth; the checks
+are against reference libraries (statsmodels OLS with HAC covariance,
+statsmodels' DerSimonian-Laird meta-analysis) and against evcal's own
+single-series fit, which the fit tests check against statsmodels.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.api as sm
+from statsmodels.stats.meta_analysis import combine_effects
+
+import evcal.fit
+from evcal.calendar import load_calendar
+from evcal.fit.options import FitOptions
+from evcal.panel import fit_panel
+from evcal.panel.batched import SharedSolve, hac_covariances
+from evcal.panel.engine import fit_long_panel
+from evcal.panel.longformat import read_panel
+from evcal.panel.pooling import dersimonian_laird, pool_lifts
+from evcal.panel.rollup import aggregate
+
+# Invented calendar: an Easter run-up, a promotion on explicit dates, a closure and a level shift.
+CAL = """
+name: Fernhollow panel test (invented)
+events:
+  - name: easter-run
+    when: {easter: -3}
+    length: 5
+  - name: summer-promo
+    when: {dates: [{start: 2021-06-10, end: 2021-06-19}, {start: 2022-07-01, end: 2022-07-10},
+                   {start: 2023-06-15, end: 2023-06-24}]}
+  - name: autumn-promo
+    when: {dates: [{start: 2023-10-05, end: 2023-10-11}]}
+    effect: {like: summer-promo}
+  - name: open-day
+    when: {dates: [{start: 2022-04-20, end: 2022-04-21}]}
+    effect: {assume: 10%}
+  - name: christmas-closure
+    when: {fixed: "12-25"}
+    effect: zero
+interventions:
+  - {name: refit, type: level_shift, start: 2022-09-05}
+"""
+TRUE_EASTER, TRUE_PROMO = 0.25, 0.15  # log-lifts used to make the data
+
+
+def _panel_frame(n_items: int = 6, seed: int = 4, weeks: int = 156, noise: float = 0.04) -> pd.DataFrame:
+    """Invented weekly sales of Fernhollow products (2021-2023), with events and a level shift."""
+    from dateutil.easter import easter
+
+    rng = np.random.default_rng(seed)
+    days = pd.date_range("2020-12-28", periods=weeks * 7, freq="D")
+    doy = days.day_of_year.to_numpy()
+    easter_day = np.zeros(len(days), bool)
+    for y in range(2021, 2024):
+        e = pd.Timestamp(easter(y))
+        easter_day |= (days >= e - pd.Timedelta(days=3)) & (days <= e + pd.Timedelta(days=1))
+    promo = np.zeros(len(days), bool)
+    for a, b in [("2021-06-10", "2021-06-19"), ("2022-07-01", "2022-07-10"), ("2023-06-15", "2023-06-24")]:
+        promo |= (days >= a) & (days <= b)
+    closed = (days.month == 12) & (days.day == 25)
+    shift = days >= "2022-09-05"
+    frames = []
+    for i in range(n_items):
+        level = 40.0 * (1 + i) ** 1.3
+        season = 0.35 * np.sin(2 * np.pi * (doy - 80 - 10 * i) / 365.25)
+        log_daily = np.log(level) + season + TRUE_EASTER * easter_day + TRUE_PROMO * promo + 0.08 * shift
+        daily = np.where(closed, 0.0, np.exp(log_daily))
+        weekly = pd.Series(daily, index=days).resample("W-SUN").sum()
+        weekly = weekly * np.exp(rng.normal(0, noise, len(weekly)))
+        frames.append(pd.DataFrame({"store": "S1" if i % 2 else "S2", "product": f"P{i:02d}",
+                                    "family": "bulbs" if i < n_items // 2 else "tools",
+                                    "date": weekly.index, "value": weekly.round(2).to_numpy()}))
+    return pd.concat(frames, ignore_index=True)
+
+
+@pytest.fixture(scope="module")
+def cal():
+    return load_calendar(CAL)
+
+
+# ---------------------------------------------------------------- the batched solver
+
+
+@pytest.mark.parametrize("k", [6, 30])
+def test_batched_ols_and_hac_equal_statsmodels(k):
+    # Reference library: statsmodels OLS(...).fit(cov_type="HAC", maxlags=L) series by series.
+    # k=6 takes the few-coefficient path (one product per lag), k=30 the batched sandwich.
+    rng = np.random.default_rng(11)
+    n, m = 150, 7
+    X = np.column_stack([np.ones(n), rng.standard_normal((n, k - 1))])
+    ar = np.zeros((n, m))
+    e = rng.standard_normal((n, m))
+    for t in range(1, n):  # autocorrelated errors, so the HAC lags matter
+        ar[t] = 0.6 * ar[t - 1] + e[t]
+    Y = X @ rng.standard_normal((k, m)) + ar
+    solve = SharedSolve.of(X)
+    B, E, sigma2 = solve.solve(Y)
+    cov = solve.covariances(E)
+    assert solve.lags == int(np.floor(4 * (n / 100) ** (2 / 9)))  # Newey-West (1994) plug-in
+    for j in range(m):
+        ref = sm.OLS(Y[:, j], X).fit(cov_type="HAC", cov_kwds={"maxlags": solve.lags})
+        np.testing.assert_allclose(B[:, j], ref.params, rtol=1e-8, atol=1e-10)
+        np.testing.assert_allclose(np.sqrt(np.diag(cov[j])), ref.bse, rtol=1e-8)
+        np.testing.assert_allclose(cov[j], ref.cov_params(), rtol=1e-8, atol=1e-12)
+        assert sigma2[j] == pytest.approx(ref.scale, rel=1e-10)
+    # a column subset gives the same block of the covariance
+    sub = hac_covariances(solve.Z[:, [1, 3]], E, solve.lags)
+    np.testing.assert_allclose(sub, cov[:, [1, 3]][:, :, [1, 3]], rtol=1e-10, atol=1e-14)
+
+
+def test_panel_fit_equals_single_series_fits(cal):
+    # Reference: evcal.fit.fit series by series (OLS + HAC, itself checked against statsmodels).
+    frame = _panel_frame(5)
+    frame = frame.drop(index=frame.index[(frame["product"] == "P01") & frame.index.isin(range(200, 204))])
+    frame = frame[~((frame["product"] == "P03") & (frame["date"] < "2021-09-01"))]  # starts later
+    panel = read_panel(frame, ["product"])
+    fit = fit_long_panel(panel, cal, FitOptions(errors="ols"))
+    assert set(fit.series["engine"]) == {"batched"}
+    fitted = fit.fitted
+    for j in range(panel.n_series):
+        ref = evcal.fit.fit(panel.history(j), cal, errors="ols")
+        lifts = fit.lifts[fit.lifts["_sid"] == j].reset_index(drop=True)
+        num = ["lift_pct", "low_pct", "high_pct", "units_per_occurrence"]
+        np.testing.assert_allclose(lifts[num].to_numpy(float), ref.lifts[num].to_numpy(float),
+                                   rtol=1e-8, atol=1e-8)
+        assert list(lifts["event"].astype(str)) == list(ref.lifts["event"])
+        assert list(lifts["note"].astype(str)) == list(ref.lifts["note"].astype(str))
+        occ = fit.occurrences[fit.occurrences["_sid"] == j].reset_index(drop=True)
+        cols = ["added_units", "added_pct", "low_units", "high_units"]
+        np.testing.assert_allclose(occ[cols].to_numpy(float), ref.occurrences[cols].to_numpy(float),
+                                   rtol=1e-8, atol=1e-7)
+        assert list(occ["start"].astype(str)) == list(ref.occurrences["start"])
+        prof = fit.profile[fit.profile["_sid"] == j]["index"].to_numpy()
+        np.testing.assert_allclose(prof, ref.profile["index"].to_numpy(), rtol=1e-10)
+        f = fitted[fitted["_sid"] == j].reset_index(drop=True)
+        fc = [c for c in ref.fitted.columns if c not in ("date", "in_fit")]
+        np.testing.assert_allclose(f[fc].to_numpy(float), ref.fitted[fc].to_numpy(float), rtol=1e-8,
+                                   atol=1e-8)
+        assert (f["in_fit"].to_numpy() == ref.fitted["in_fit"].to_numpy()).all()
+        s = fit.series[fit.series["_sid"] == j].iloc[0]
+        assert s["sigma2"] == pytest.approx(ref.sigma2, rel=1e-8)
+        assert s["smear"] == pytest.approx(ref.smear, rel=1e-10)
+        params = fit.params[fit.params["_sid"] == j].iloc[0]
+        np.testing.assert_allclose(params[ref.params.index].to_numpy(float), ref.params.to_numpy(), rtol=1e-8,
+                                   atol=1e-10)
+
+
+def test_series_are_grouped_by_missing_pattern(cal):
+    frame = _panel_frame(6)
+    gap = frame.index[frame["date"].between("2022-02-01", "2022-02-20")]
+    # P01 and P02 share a gap; P04 has its own; the rest are complete
+    drop = [i for i in gap if frame.loc[i, "product"] in ("P01", "P02")]
+    drop += list(frame.index[(frame["product"] == "P04") & frame["date"].between("2023-03-01", "2023-03-10")])
+    panel = read_panel(frame.drop(index=drop), ["product"])
+    fit = fit_long_panel(panel, cal, FitOptions(errors="ols"))
+    groups = fit.series.set_index("_sid")["group"]
+    keys = panel.keys["product"]
+    gid = {keys[j]: groups[j] for j in range(panel.n_series)}
+    assert gid["P01"] == gid["P02"]
+    assert gid["P00"] == gid["P03"] == gid["P05"]
+    assert len({gid["P00"], gid["P01"], gid["P04"]}) == 3
+    assert len(fit.groups) == 3
+    by_id = {g["group"]: g for g in fit.groups}
+    n_full = by_id[gid["P00"]]["periods_fitted"]
+    assert by_id[gid["P01"]]["periods_fitted"] == n_full - 3  # three weeks missing
+    assert by_id[gid["P04"]]["periods_fitted"] == n_full - 1
+
+
+# ---------------------------------------------------------------- pooling
+
+
+def test_dersimonian_laird_equals_statsmodels_meta_analysis():
+    # Reference library: statsmodels.stats.meta_analysis.combine_effects, method_re="chi2"
+    # (the DerSimonian-Laird 1986 moment estimator of tau^2).
+    b = np.array([0.12, 0.31, 0.18, 0.52, -0.08, 0.22])
+    se = np.array([0.05, 0.10, 0.04, 0.30, 0.20, 0.07])
+    mu, var_mu, tau2, q = dersimonian_laird(b, se)
+    ref = combine_effects(b, se**2, method_re="chi2")
+    assert tau2 == pytest.approx(ref.tau2, rel=1e-10)
+    assert mu == pytest.approx(ref.mean_effect_re, rel=1e-10)
+    assert var_mu == pytest.approx(ref.var_eff_w_re, rel=1e-10)
+    assert q == pytest.approx(ref.q, rel=1e-10)
+
+
+def test_pooling_shrinks_a_noisy_series_and_keeps_precise_ones():
+    # Synthetic lifts: a family of precise series near +20 % and one small, noisy series at +60 %.
+    rng = np.random.default_rng(3)
+    b = np.r_[np.log(1.20) + rng.normal(0, 0.03, 8), np.log(1.60)]
+    se = np.r_[np.full(8, 0.005), 0.40]
+    lifts = pd.DataFrame({"_sid": np.arange(9), "event": "spring", "lift_pct": 100 * np.expm1(b),
+                          "low_pct": 100 * np.expm1(b - 1.959963984540054 * se),
+                          "high_pct": 100 * np.expm1(b + 1.959963984540054 * se), "_fitted": True})
+    pooled, summary = pool_lifts(lifts, pd.Series("bulbs", index=range(9)), pd.Series("log", index=range(9)))
+    mean = summary.loc[0, "mean_pct"]
+    noisy = pooled.iloc[8]
+    assert noisy["lift_pct"] == pytest.approx(60.0)
+    assert abs(noisy["pooled_pct"] - mean) < 0.1 * abs(noisy["lift_pct"] - mean)  # moved most of the way
+    assert noisy["shrinkage"] > 0.9
+    assert noisy["pooled_high_pct"] - noisy["pooled_low_pct"] < noisy["high_pct"] - noisy["low_pct"]
+    precise = pooled.iloc[:8]
+    assert (np.abs(precise["pooled_pct"] - precise["lift_pct"]) < 0.5).all()  # within half a point
+    assert (precise["shrinkage"] < 0.1).all()
+    # additive series are not pooled
+    pooled2, _ = pool_lifts(lifts, pd.Series("bulbs", index=range(9)), pd.Series("none", index=range(9)))
+    assert pooled2["shrinkage"].isna().all()
+    assert (pooled2["pooled_pct"] == pooled2["lift_pct"]).all()
+
+
+def test_pooled_lifts_in_a_fitted_panel(cal, tmp_path):
+    frame = _panel_frame(6, noise=0.03)
+    noisy = frame["product"] == "P00"
+    rng = np.random.default_rng(9)
+    frame.loc[noisy, "value"] = (frame.loc[noisy, "value"] * np.exp(rng.normal(0, 0.5, noisy.sum()))).round(2)
+    res = fit_panel(frame, CAL, ["product"], group_col="family", errors="ols")
+    easter = res.lifts[res.lifts["event"] == "easter-run"].set_index("product")
+    raw_err = abs(easter.loc["P00", "lift_pct"] - 100 * np.expm1(TRUE_EASTER))
+    pooled_err = abs(easter.loc["P00", "pooled_pct"] - 100 * np.expm1(TRUE_EASTER))
+    assert pooled_err < raw_err  # the noisy item borrows strength from its family
+    assert set(res.pooling["group"]) == {"bulbs", "tools"}
+    assert easter.loc["P00", "shrinkage"] > easter.loc["P02", "shrinkage"]
+
+
+# ---------------------------------------------------------------- skipped series and per-series path
+
+
+def test_skipped_series_with_reasons(cal):
+    frame = _panel_frame(3)
+    dates = frame["date"].drop_duplicates().sort_values().to_numpy()
+    extra = [
+        pd.DataFrame({"product": "SHORT", "date": dates[:60], "value": 5.0 + np.arange(60) % 7}),
+        pd.DataFrame({"product": "ZEROS", "date": dates, "value": 0.0}),
+        pd.DataFrame({"product": "FLAT", "date": dates, "value": 12.0}),
+        pd.DataFrame({"product": "EMPTY", "date": dates, "value": np.nan}),
+        pd.DataFrame({"product": "NEG", "date": dates, "value": np.where(np.arange(len(dates)) == 5, -3.0, 9.0
+                                                                            + np.arange(len(dates)) % 5)}),
+    ]
+    frame = pd.concat([frame.drop(columns=["store", "family"])] + extra, ignore_index=True)
+    res = fit_panel(frame, CAL, ["product"], errors="ols")
+    reasons = res.skipped.set_index("product")["reason"].to_dict()
+    assert reasons == {"SHORT": "too short", "ZEROS": "all zeros", "FLAT": "constant", "EMPTY": "no values",
+                       "NEG": "negative values"}
+    detail = res.skipped.set_index("product")["detail"]
+    assert "60 periods with values; at least 104" in detail["SHORT"]
+    assert "-3" in detail["NEG"] and "--allow-negative" in detail["NEG"]
+    status = res.series.set_index("product")["status"]
+    assert (status[["P00", "P01", "P02"]] == "fitted").all()
+    assert len(res.series) == 8  # every series is listed, fitted or not
+
+
+def test_count_series_use_the_single_series_fit(cal):
+    # Whole numbers with zeros: a count model, fitted by evcal.fit one series at a time.
+    frame = _panel_frame(2)
+    rng = np.random.default_rng(5)
+    dates = frame["date"].drop_duplicates().sort_values()
+    lam = 3 + 2 * np.sin(np.arange(len(dates)) / 8.3)
+    frame = pd.concat([frame.drop(columns=["store", "family"]),
+                       pd.DataFrame({"product": "SLOW", "date": dates, "value": rng.poisson(lam).astype(float)})])
+    res = fit_panel(frame, CAL, ["product"])
+    s = res.series.set_index("product")
+    assert s.loc["SLOW", "engine"] == "per-series" and s.loc["SLOW", "transform"] == "count"
+    assert (s.loc[["P00", "P01"], "engine"] == "batched").all()
+    panel = read_panel(frame, ["product"])
+    j = list(panel.keys["product"]).index("SLOW")
+    ref = evcal.fit.fit(panel.history(j), load_calendar(CAL))
+    mine = res.lifts[res.lifts["product"] == "SLOW"].reset_index(drop=True)
+    np.testing.assert_allclose(mine["lift_pct"].to_numpy(float), ref.lifts["lift_pct"].to_numpy(float),
+                               rtol=1e-10)
+
+
+# ---------------------------------------------------------------- long format, roll-ups, allocation
+
+
+def test_long_format_from_parquet_and_csv_agree(tmp_path):
+    frame = _panel_frame(3)
+    frame.to_parquet(tmp_path / "p.parquet", index=False)
+    out = frame.copy()
+    out["date"] = out["date"].dt.strftime("%Y-%m-%d")
+    out.to_csv(tmp_path / "p.csv", index=False)
+    a = read_panel(tmp_path / "p.parquet", ["store", "product"])
+    b = read_panel(tmp_path / "p.csv", ["store", "product"])
+    assert a.freq == b.freq == "W-SUN" and a.label == b.label == "end"
+    assert a.keys.equals(b.keys)
+    np.testing.assert_array_equal(a.values, b.values)
+    assert list(a.keys.columns) == ["store", "product"]
+    assert a.keys.iloc[0].tolist() == ["S1", "P01"]  # sorted by key
+
+
+def test_rollup_adds_children_and_marks_incomplete_periods():
+    frame = _panel_frame(4)
+    frame = frame.drop(index=frame.index[(frame["product"] == "P01")][10:11])  # one gap in P01
+    panel = read_panel(frame, ["product"], attr_cols=["family"])
+    up = aggregate(panel, ["family"])
+    assert list(up.keys["family"]) == ["bulbs", "tools"]
+    wide = frame.pivot(index="date", columns="product", values="value")
+    bulbs = wide[["P00", "P01"]].sum(axis=1, min_count=2)
+    np.testing.assert_allclose(up.values[:, 0], bulbs.to_numpy(), equal_nan=True)
+    assert np.isnan(up.values[10, 0]) and not np.isnan(up.values[10, 1])
+
+
+def test_top_down_allocation_adds_up_to_the_parent_plan(tmp_path):
+    frame = _panel_frame(4)
+    child = fit_panel(frame, CAL, ["family", "product"], errors="ols", out=tmp_path / "child")
+    parent = fit_panel(frame, CAL, ["family", "product"], level="family", errors="ols",
+                       out=tmp_path / "parent")
+    assert parent.key_cols == ["family"] and len(parent.series) == 2
+    from evcal.panel.planning import plan_panel
+
+    plan = plan_panel(tmp_path / "parent", "2024-01-01", "2024-06-30", n_sims=50)
+    alloc = plan_panel(tmp_path / "parent", "2024-01-01", "2024-06-30", n_sims=50, allocate=child)
+    assert set(alloc["product"]) == {"P00", "P01", "P02", "P03"}
+    back = alloc.groupby(["family", "date"])["plan"].sum()
+    ref = plan.set_index(["family", "date"])["plan"]
+    np.testing.assert_allclose(back.to_numpy(), ref.loc[back.index].to_numpy(), rtol=1e-12)
+    share = alloc.groupby(["family", "date"])["share"].sum()
+    np.testing.assert_allclose(share.to_numpy(), 1.0, rtol=1e-12)
+    # a child whose season peaks later gets more of the later months (sine phase shifts with i)
+    s = alloc[alloc["family"] == "bulbs"].pivot(index="date", columns="product", values="share")
+    assert s["P00"].iloc[0] != pytest.approx(s["P00"].iloc[-1], rel=1e-3)

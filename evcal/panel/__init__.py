@@ -115,6 +115,13 @@ def _release_arrow_memory() -> None:
         pa.default_memory_pool().release_unused()
     except (ImportError, AttributeError):
         pass
+    # glibc keeps freed heap pages after large temporary arrays; hand them back (Linux only)
+    try:
+        import ctypes
+
+        ctypes.CDLL("libc.so.6").malloc_trim(0)
+    except (OSError, AttributeError):
+        pass
 
 
 def plan_panel(model: Any, start: Any, end: Any, series: list[str] | None = None, **kwargs: Any) -> Any:

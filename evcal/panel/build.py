@@ -55,7 +55,7 @@ class FittedWriter:
 
         import pyarrow as pa
 
-        self._queue: queue.Queue[Any] = queue.Queue(maxsize=4)
+        self._queue: queue.Queue[Any] = queue.Queue(maxsize=2)
         self._error: BaseException | None = None
         self._thread = threading.Thread(target=self._drain, name="evcal-fitted-writer", daemon=True)
         self._thread.start()

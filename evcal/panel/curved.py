@@ -219,7 +219,8 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         P[:, jc, :] = (V.transpose(0, 2, 1).reshape(ms * len(jc), len(U)) @ QU).reshape(ms, len(jc), -1)
         return P
 
-    def solve(th: dict[str, np.ndarray], sel: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def solve(th: dict[str, np.ndarray], sel: np.ndarray) -> np.ndarray:
+        """The term coefficients (ms, j) for the designs built with θ."""
         V = event_values(th, sel)
         P = projections(V, sel)
         ms = len(sel)
@@ -240,9 +241,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         rhs[:, jc] = np.einsum("muc,um->mc", V, YU[:, sel])
         rhs[:, js] = sy[:, sel].T
         rhs -= np.einsum("mjk,km->mj", P, qy[:, sel])
-        bt = np.linalg.solve(G, rhs[:, :, None])[:, :, 0]
-        ba = np.linalg.solve(Ra, qy[:, sel] - np.einsum("mjk,mj->km", P, bt))
-        return bt, ba
+        return np.linalg.solve(G, rhs[:, :, None])[:, :, 0]
 
     params = B0.copy()
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
@@ -253,11 +252,9 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         sel = np.flatnonzero(active)
         if not len(sel):
             break
-        bt, ba = solve(theta, sel)
+        bt = solve(theta, sel)
         for j, c in enumerate(term):
             params[idx[c], sel] = bt[:, j]
-        for j, c in enumerate(base):
-            params[idx[c], sel] = ba[j]
         for c in curved_cols:
             theta_in[c][sel] = theta[c][sel]
         new = {c: params[idx[c], sel] for c in curved_cols}
@@ -277,7 +274,10 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     for k, j in enumerate(jc):
         Xt[U, :, j] = V[:, :, k].T
     bt = np.stack([params[idx[c]] for c in term], axis=1)  # (m, j)
-    ba = np.stack([params[idx[c]] for c in base], axis=0)  # (ka, m)
+    # the shared columns' coefficients, once, from each series' final pass
+    ba = np.linalg.solve(Ra, qy - np.einsum("mjk,mj->km", P, bt))
+    for j, c in enumerate(base):
+        params[idx[c]] = ba[j]
     resid = Y - A @ ba - (Xt * bt[None, :, :]).sum(axis=2)
     Xp = Xt - (Qa @ P.transpose(2, 0, 1).reshape(Qa.shape[1], -1)).reshape(n, m, len(term))
     G = _pair_sums(Xp, Xp)

@@ -39,7 +39,7 @@ from evcal.panel.tables import BlockTables, GroupInfo, SpanContext, block_tables
 __all__ = ["PanelFit", "fit_long_panel", "BLOCK_SERIES", "LOOP_SERIES"]
 
 #: series per batched unit (fixed, so results never depend on how the work is spread)
-BLOCK_SERIES = 1000
+BLOCK_SERIES = 500
 #: series per unit of the per-series path
 LOOP_SERIES = 16
 

@@ -193,6 +193,9 @@ def _load_parquet(path: Path, series_cols: list[str], date_col: str, value_col: 
         table = pq.read_table(path, columns=list(dict.fromkeys(wanted)), read_dictionary=keys)
         frame = table.to_pandas()
         del table
+        import pyarrow as pa
+
+        pa.default_memory_pool().release_unused()  # the file's buffers, now copied into the frame
     except Exception as err:
         raise HistoryError(f"{path.name}: not a readable Parquet file ({type(err).__name__})") from None
     if len(frame) == 0:
@@ -232,8 +235,9 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     if n_rows == 0:
         raise HistoryError(f"{name}: no data rows; expected one row per series and period")
 
-    # series codes: one integer per distinct key combination, in sorted key order
-    codes = np.zeros(n_rows, dtype=np.int64)
+    # series codes: one integer per distinct key combination, in sorted key order. Arrays with
+    # a value per row are the memory of this step: they are kept small (int32) and dropped early.
+    codes: np.ndarray | None = None
     uniques: list[Any] = []
     for c in kcols:
         col = frame[c]
@@ -248,9 +252,14 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
             i = int(np.flatnonzero(bad)[0])
             raise HistoryError(f"{name} row {_row_number(table, i)}, column {c!r}: empty key; every row "
                                f"needs a value in each --series-col column ({int(bad.sum())} such rows)")
-        codes = codes * len(uu) + cc
+        del bad
+        codes = cc.astype(np.int64) if codes is None else codes * len(uu) + cc
+        del cc
         uniques.append(uu)
+    assert codes is not None
     sid_unique, sid = _dense_codes(codes)
+    del codes
+    sid = sid.astype(np.int32)
     n_series = len(sid_unique)
     keys = {}
     rem = sid_unique.copy()
@@ -266,17 +275,21 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     dcells = frame[dcol]
     if pd.api.types.is_datetime64_any_dtype(dcells.dtype):
         stamps = dcells.dt.tz_localize(None) if isinstance(dcells.dtype, pd.DatetimeTZDtype) else dcells
-        ns = stamps.to_numpy(dtype="datetime64[ns]").astype(np.int64)
-        nat = np.isnat(stamps.to_numpy(dtype="datetime64[ns]"))
+        raw = stamps.to_numpy(dtype="datetime64[ns]")
+        nat = np.isnat(raw)
         if nat.any():
             i = int(np.flatnonzero(nat)[0])
             raise HistoryError(f"{name} row {_row_number(table, i)}, column {dcol!r}: empty date; every "
                                "row needs a date")
-        day = ns // NS_PER_DAY
+        del nat
+        day = raw.view(np.int64) // NS_PER_DAY
+        del raw
         d0 = int(day.min())
-        present = np.bincount(day - d0)
+        day -= d0
+        present = np.bincount(day)
         udays = np.flatnonzero(present) + d0
-        dcode = (np.cumsum(present > 0) - 1)[day - d0]
+        dcode = (np.cumsum(present > 0) - 1).astype(np.int32)[day]
+        del day
         u_stamps = pd.DatetimeIndex((udays * NS_PER_DAY).astype("datetime64[ns]"))
         u_rows = None
     else:
@@ -322,18 +335,20 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     u_periods = u_stamps.to_period(used)
     p0 = u_periods.min()
     periods = pd.period_range(p0, u_periods.max(), freq=used, name="period")
-    u_pcode = (u_periods.asi8 - p0.ordinal).astype(np.int64)
+    u_pcode = (u_periods.asi8 - p0.ordinal).astype(np.int32)
     pcode = u_pcode[dcode]
     n_per = len(periods)
 
-    cell = sid * n_per + pcode
+    cell = sid.astype(np.int64) * n_per + pcode
     counts = np.bincount(cell, minlength=n_series * n_per)
     if counts.max() > 1:
         _raise_duplicates(table, cell, counts, sid, pcode, periods, key_frame, dcells, used, u_stamps,
                           dcode)
+    del cell
+    has_row = counts.reshape(n_series, n_per).T > 0
+    del counts
     values = np.full((n_per, n_series), np.nan)
     values[pcode, sid] = vals
-    has_row = counts.reshape(n_series, n_per).T > 0
     first = np.argmax(has_row, axis=0)
     last = n_per - 1 - np.argmax(has_row[::-1], axis=0)
     return Panel(keys=key_frame, values=values, periods=periods, first=first, last=last, freq=used,
@@ -372,7 +387,8 @@ def _factorize_sorted(col: pd.Series) -> tuple[np.ndarray, Any]:
         rank = np.empty(len(cats), dtype=np.int64)
         rank[order] = np.arange(len(cats))
         codes = col.cat.codes.to_numpy()
-        cc = np.where(codes >= 0, rank[np.maximum(codes, 0)], -1)
+        rank = rank.astype(np.int32)
+        cc = np.where(codes >= 0, rank[np.maximum(codes, 0)], np.int32(-1))
         used = np.zeros(len(cats), dtype=bool)
         used[cc[cc >= 0]] = True  # drop categories no row uses
         if not used.all():

@@ -251,8 +251,20 @@ def plan_cmd(
         "error", "--new-events", help="error | zero: events the model never saw."),
     sims: int = typer.Option(1000, "--sims", help="Simulation draws for low/high (0: none)."),
     seed: int = typer.Option(0, "--seed", help="Random seed of the simulation."),
+    series: list[str] = typer.Option(None, "--series", help="Panel models: plan these series only."),
+    allocate: str | None = typer.Option(
+        None, "--allocate", help="Panel models: spread the plan over this child panel model."),
+    workers: int | None = typer.Option(None, "--workers", help="Panel models: plan on N processes."),
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
+    from evcal.panel.result import is_panel_dir
+
+    if is_panel_dir(model_dir):  # many series: evcal.panel.planning
+        from evcal.panel.planning import plan_panel_cmd
+
+        return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
+                              totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
+                              seed=seed, series=series or None, allocate=allocate, workers=workers)
     from evcal.fit import load_model
     from evcal.plan import compare, make_plan
 

@@ -261,8 +261,8 @@ def test_count_series_use_the_single_series_fit(cal):
     rng = np.random.default_rng(5)
     dates = frame["date"].drop_duplicates().sort_values()
     lam = 3 + 2 * np.sin(np.arange(len(dates)) / 8.3)
-    frame = pd.concat([frame.drop(columns=["store", "family"]),
-                       pd.DataFrame({"product": "SLOW", "date": dates, "value": rng.poisson(lam).astype(float)})])
+    slow = pd.DataFrame({"product": "SLOW", "date": dates, "value": rng.poisson(lam).astype(float)})
+    frame = pd.concat([frame.drop(columns=["store", "family"]), slow])
     res = fit_panel(frame, CAL, ["product"])
     s = res.series.set_index("product")
     assert s.loc["SLOW", "engine"] == "per-series" and s.loc["SLOW", "transform"] == "count"

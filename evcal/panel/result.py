@@ -127,10 +127,10 @@ class PanelResult:
         cols = self.key_cols
         if isinstance(key, str):
             parts = [p.strip() for p in key.split(",")]
-            if len(parts) == len(cols) and len(cols) > 1:
-                key = dict(zip(cols, parts, strict=True))
-            elif all("=" in p for p in parts):
+            if all("=" in p for p in parts):
                 key = {p.split("=", 1)[0].strip(): p.split("=", 1)[1].strip() for p in parts}
+            elif len(parts) == len(cols) and len(cols) > 1:
+                key = dict(zip(cols, parts, strict=True))
             else:
                 key = {cols[-1]: key}
         elif isinstance(key, tuple):

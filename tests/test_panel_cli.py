@@ -1,0 +1,169 @@
+"""`evcal fit --series-col`, `evcal show` and `evcal plan` on panels, bad long files, and Dask.
+
+Bad input must give exit code 2, one line naming the file, the rows or
+columns and the series, no traceback, and no output folder. The data are
+invented (Fernhollow Garden Centres products, seeded numpy).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from evcal.cli import app
+from evcal.panel import fit_panel
+
+runner = CliRunner()
+
+CAL = """
+name: Fernhollow panel CLI test (invented)
+events:
+  - name: easter-run
+    when: {easter: -3}
+    length: 5
+  - name: autumn-sale
+    when: {dates: [{start: 2021-10-01, end: 2021-10-07}, {start: 2022-10-06, end: 2022-10-12},
+                   {start: 2023-10-05, end: 2023-10-11}, {start: 2024-10-03, end: 2024-10-09}]}
+"""
+
+
+def _long(n_items: int = 4, weeks: int = 156, seed: int = 2) -> pd.DataFrame:
+    # invented weekly sales with a seasonal wave and a +20 % Easter week
+    rng = np.random.default_rng(seed)
+    dates = pd.date_range("2021-01-03", periods=weeks, freq="W-SUN")
+    t = np.arange(weeks)
+    frames = []
+    for i in range(n_items):
+        y = 50 * (i + 1) * np.exp(0.3 * np.sin(2 * np.pi * t / 52.18 + i) + rng.normal(0, 0.05, weeks))
+        frames.append(pd.DataFrame({"product": f"P{i}", "store": "S1" if i % 2 else "S2",
+                                    "date": dates, "value": y.round(1)}))
+    return pd.concat(frames, ignore_index=True)
+
+
+def _files(tmp_path: Path, frame: pd.DataFrame, suffix: str = ".parquet") -> tuple[Path, Path]:
+    hist = tmp_path / f"long{suffix}"
+    if suffix == ".parquet":
+        frame.to_parquet(hist, index=False)
+    else:
+        frame.to_csv(hist, index=False)
+    cal = tmp_path / "cal.yaml"
+    cal.write_text(CAL, encoding="utf-8")
+    return hist, cal
+
+
+def _bad(res, out: Path, *needles: str) -> None:
+    assert res.exit_code == 2, res.output
+    text = res.output
+    assert "Traceback" not in text
+    lines = [ln for ln in text.strip().splitlines() if ln.strip()]
+    assert len(lines) == 1, text
+    for n in needles:
+        assert n in lines[0], (n, lines[0])
+    assert not out.exists()
+    assert not any(p.name.startswith(".model") for p in out.parent.iterdir())
+
+
+def test_fit_show_and_plan_a_panel(tmp_path):
+    hist, cal = _files(tmp_path, _long())
+    out = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col", "store",
+                              "--series-col", "product", "--errors", "ols"])
+    assert res.exit_code == 0, res.output
+    for f in ("panel.json", "series.csv", "lifts.csv", "pooling.csv", "occurrences.csv", "profile.csv",
+              "fitted.parquet", "coefficients.parquet", "skipped.csv"):
+        assert (out / f).is_file(), f
+    lifts = pd.read_csv(out / "lifts.csv")
+    assert list(lifts.columns[:9]) == ["store", "product", "event", "lift_pct", "low_pct", "high_pct",
+                                       "units_per_occurrence", "identifiable", "note"]
+    assert {"pooled_pct", "pooled_low_pct", "pooled_high_pct", "shrinkage"} <= set(lifts.columns)
+    assert len(lifts[lifts["event"] == "easter-run"]) == 4  # one row per series and event
+    occ = pd.read_csv(out / "occurrences.csv")
+    assert list(occ.columns[:7]) == ["store", "product", "event", "start", "end", "added_units", "added_pct"]
+    prof = pd.read_csv(out / "profile.csv")
+    assert list(prof.columns) == ["store", "product", "period", "index"] and len(prof) == 4 * 52
+    fitted = pd.read_parquet(out / "fitted.parquet")
+    assert list(fitted.columns[:6]) == ["store", "product", "date", "actual", "fitted", "base"]
+    assert len(fitted) == 4 * 156
+    shown = runner.invoke(app, ["show", str(out)])
+    assert shown.exit_code == 0 and "easter-run" in shown.output and "4 series" in shown.output
+    one = runner.invoke(app, ["show", str(out), "--series", "store=S1,product=P1"])
+    assert one.exit_code == 0 and "easter-run" in one.output and "95 %" in one.output
+    plan = tmp_path / "plan.csv"
+    res = runner.invoke(app, ["plan", str(out), "--from", "2024-01-01", "--to", "2024-03-31", "--out",
+                              str(plan), "--sims", "50"])
+    assert res.exit_code == 0, res.output
+    table = pd.read_csv(plan)
+    assert list(table.columns[:7]) == ["store", "product", "date", "base", "plan", "low", "high"]
+    assert table.groupby("product").size().tolist() == [13, 13, 13, 13]
+    too_many = runner.invoke(app, ["plan", str(out), "--from", "2024-01-01", "--to", "2024-03-31", "--out",
+                                   str(tmp_path / "p2.csv"), "--total", "1000"])
+    _bad(too_many, tmp_path / "p2.csv", "--total", "4 series")
+
+
+def test_comma_separated_keys_and_csv_input(tmp_path):
+    hist, cal = _files(tmp_path, _long(2), ".csv")
+    out = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col",
+                              "store,product", "--errors", "ols"])
+    assert res.exit_code == 0, res.output
+    keys = pd.read_csv(out / "series.csv")[["store", "product"]].values.tolist()
+    assert keys == [["S1", "P1"], ["S2", "P0"]]
+
+
+def test_duplicate_key_date_rows(tmp_path):
+    frame = _long(3)
+    frame = pd.concat([frame, frame.iloc[[170]]], ignore_index=True)  # P1's 15th week twice
+    hist, cal = _files(tmp_path, frame, ".csv")
+    out = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col", "product"])
+    # rows: the header is row 1, so frame row 170 is file row 172 and the copy is the last row
+    _bad(res, out, "long.csv", "rows 172 and 470", "product='P1'", "2021-04-11", "more than one row")
+
+
+def test_missing_key_column(tmp_path):
+    hist, cal = _files(tmp_path, _long(2))
+    out = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col",
+                              "product,region"])
+    _bad(res, out, "long.parquet", "no key column 'region'", "'product'", "'store'", "'date'", "'value'")
+
+
+def test_mixed_frequencies_between_series(tmp_path):
+    weekly = _long(1)
+    months = pd.date_range("2021-01-31", periods=40, freq="ME")
+    monthly = pd.DataFrame({"product": "M1", "store": "S9", "date": months, "value": 100.0 + np.arange(40)})
+    hist, cal = _files(tmp_path, pd.concat([weekly, monthly], ignore_index=True))
+    out = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col", "product"])
+    _bad(res, out, "mixed frequencies", "product='M1' is monthly", "product='P0' is weekly")
+
+
+def test_options_that_need_a_panel(tmp_path):
+    hist, cal = _files(tmp_path, _long(2))
+    out = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--level", "store"])
+    _bad(res, out, "--level needs --series-col")
+
+
+def test_dask_local_cluster_gives_identical_results(tmp_path, monkeypatch):
+    pytest.importorskip("dask.distributed")
+    import evcal.panel.engine as engine
+
+    monkeypatch.setattr(engine, "BLOCK_SERIES", 2)  # several batched units
+    monkeypatch.setattr(engine, "LOOP_SERIES", 1)
+    frame = _long(5)
+    rng = np.random.default_rng(8)
+    counts = pd.DataFrame({"product": "SLOW", "store": "S1", "date": frame["date"].unique(),
+                           "value": rng.poisson(2.0, 156).astype(float)})  # a count model: per-series path
+    frame = pd.concat([frame, counts], ignore_index=True)
+    here = fit_panel(frame, CAL, ["product"])
+    there = fit_panel(frame, CAL, ["product"], workers=2)
+    assert set(here.series["engine"]) == {"batched", "per-series"}
+    for name in ("lifts", "occurrences", "profile", "series", "coefficients", "skipped"):
+        a, b = getattr(here, name), getattr(there, name)
+        pd.testing.assert_frame_equal(a.reset_index(drop=True), b.reset_index(drop=True), check_exact=True)
+    pd.testing.assert_frame_equal(here.fitted, there.fitted, check_exact=True)

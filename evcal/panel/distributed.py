@@ -113,7 +113,18 @@ def dask_runner(workers: int | None = None, scheduler: str | None = None, progre
                 client = stack.enter_context(Client(cluster))
             if not units:
                 return
-            futures = client.map(fn, units, pure=False)
+            # inputs shared by many units (a design group's factorised design) go to each worker once
+            scattered: dict[int, Any] = {}
+            futures = []
+            for u in units:
+                shared = getattr(u, "shared", None)
+                if shared is None:
+                    futures.append(client.submit(fn, u, pure=False))
+                    continue
+                if id(shared) not in scattered:
+                    scattered[id(shared)] = client.scatter(shared, broadcast=True, hash=False)
+                futures.append(client.submit(_with_shared, fn, u.without_shared(), scattered[id(shared)],
+                                             pure=False))
             with _progress(total, progress, "fitting series") as advance:
                 for fut in as_completed(futures):
                     result = fut.result()
@@ -122,6 +133,10 @@ def dask_runner(workers: int | None = None, scheduler: str | None = None, progre
                     fut.release()
 
     return run
+
+
+def _with_shared(fn: Callable[[Any], Any], unit: Any, shared: Any) -> Any:
+    return fn(unit.with_shared(shared))
 
 
 def make_runner(workers: int | None = None, scheduler: str | None = None, progress: bool | None = None

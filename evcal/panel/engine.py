@@ -190,15 +190,31 @@ def _pattern_ids(obs: np.ndarray, keys: list[np.ndarray]) -> np.ndarray:
 
 
 @dataclass
+class BatchShared:
+    """What every block of a group shares: the factorised design and the spans' tables inputs.
+
+    Sent to each Dask worker once (scattered), not with every block.
+    """
+
+    group: Group
+    contexts: dict[tuple[int, int], SpanContext]
+
+
+@dataclass
 class BatchUnit:
-    """A block of series of one group: everything the block needs, nothing else."""
+    """A block of series of one group: its values, and the group's shared inputs."""
 
     index: int
-    group: Group
     sids: np.ndarray
     actual: np.ndarray  # (m, n_periods): the panel's values for these series (series-major)
     spans: np.ndarray  # (m, 2): first, last
-    contexts: dict[tuple[int, int], SpanContext]
+    shared: BatchShared | None
+
+    def without_shared(self) -> BatchUnit:
+        return replace(self, shared=None)
+
+    def with_shared(self, shared: BatchShared) -> BatchUnit:
+        return replace(self, shared=shared)
 
 
 @dataclass
@@ -224,7 +240,8 @@ class UnitResult:
 
 def run_batch(unit: BatchUnit) -> UnitResult:
     """Solve a block of series that share a design, then build their tables."""
-    g = unit.group
+    assert unit.shared is not None
+    g = unit.shared.group
     assert g.solve is not None
     rows = g.rows
     y = unit.actual[:, rows].T
@@ -257,7 +274,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
 
         curved_all = curved_columns(g.curve, g.info, refined.theta_in)
     parts: list[BlockTables] = []
-    for (f, last), ctx in unit.contexts.items():
+    for (f, last), ctx in unit.shared.contexts.items():
         pick = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last))
         if not len(pick):
             continue
@@ -415,12 +432,11 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[A
                 periods = panel.periods[sl]
                 contexts[(f, last)] = SpanContext.build(raw.iloc[sl], share_all[sl], calendar, periods,
                                                         panel.dates(periods), rows[sl], info.status)
+            shared = BatchShared(g, contexts)
             for a in range(0, len(members), BLOCK_SERIES):
                 sids = members[a:a + BLOCK_SERIES]
-                sp = spans[a:a + BLOCK_SERIES]
-                used = {tuple(s) for s in sp.tolist()}
-                units.append(BatchUnit(len(units), g, sids, np.ascontiguousarray(panel.values[:, sids].T), sp,
-                                       {key: c for key, c in contexts.items() if key in used}))
+                units.append(BatchUnit(len(units), sids, np.ascontiguousarray(panel.values[:, sids].T),
+                                       spans[a:a + BLOCK_SERIES], shared))
     lpos = np.flatnonzero(loop)
     cal_text = calendar_text_of(calendar)
     for a in range(0, len(lpos), LOOP_SERIES):

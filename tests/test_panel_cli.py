@@ -161,9 +161,17 @@ def test_dask_local_cluster_gives_identical_results(tmp_path, monkeypatch):
                            "value": rng.poisson(2.0, 156).astype(float)})  # a count model: per-series path
     frame = pd.concat([frame, counts], ignore_index=True)
     here = fit_panel(frame, CAL, ["product"])
-    there = fit_panel(frame, CAL, ["product"], workers=2)
+    there = fit_panel(frame, CAL, ["product"], workers=2)  # --workers 2: evcal starts the cluster
+    from dask.distributed import LocalCluster
+
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
+                      silence_logs=40) as cluster:
+        # --scheduler ADDRESS: a cluster that is already running
+        elsewhere = fit_panel(frame, CAL, ["product"], scheduler=cluster.scheduler_address)
     assert set(here.series["engine"]) == {"batched", "per-series"}
-    for name in ("lifts", "occurrences", "profile", "series", "coefficients", "skipped"):
-        a, b = getattr(here, name), getattr(there, name)
-        pd.testing.assert_frame_equal(a.reset_index(drop=True), b.reset_index(drop=True), check_exact=True)
-    pd.testing.assert_frame_equal(here.fitted, there.fitted, check_exact=True)
+    for other in (there, elsewhere):
+        for name in ("lifts", "occurrences", "profile", "series", "coefficients", "skipped"):
+            a, b = getattr(here, name), getattr(other, name)
+            pd.testing.assert_frame_equal(a.reset_index(drop=True), b.reset_index(drop=True),
+                                          check_exact=True)
+        pd.testing.assert_frame_equal(here.fitted, other.fitted, check_exact=True)

@@ -175,6 +175,10 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
     if len(lifts):
         lifts, pooling = pool_lifts(lifts, pool_groups, transforms)
     skipped = fit.skipped[["_sid", "reason", "detail"]]
+    labels: dict[str, dict[str, str]] = {}
+    if len(lifts):
+        first = lifts.drop_duplicates("event")
+        labels = {str(r.event): {"kind": str(r.kind), "label": str(r.label)} for r in first.itertuples()}
     coefficients = fit.params
     settings = {
         "format": PANEL_FORMAT, "format_version": PANEL_VERSION, "evcal_version": __version__,
@@ -191,6 +195,7 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
                    "skipped": int((series["status"] == "skipped").sum()),
                    "batched": int((series["engine"] == "batched").sum()),
                    "per_series": int((series["engine"] == "per-series").sum())},
+        "events": labels,
         "groups": fit.groups,
     }
     fitted_frame = None if fitted_path is not None else fit.fitted

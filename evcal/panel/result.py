@@ -217,7 +217,9 @@ class PanelResult:
         jobs: list[tuple[Any, ...]] = [
             (write_csv, self.occurrences, directory / "occurrences.csv"),
             (write_csv, self.profile, directory / "profile.csv"),
-            (write_csv, self.lifts.drop(columns=["_fitted"], errors="ignore"), directory / "lifts.csv"),
+            # event labels are in panel.json ("events"), not on every row
+            (write_csv, self.lifts.drop(columns=["_fitted", "label"], errors="ignore"),
+             directory / "lifts.csv"),
             (write_csv, self.series, directory / "series.csv"),
             (write_csv, self.pooling, directory / "pooling.csv"),
             (write_csv, self.skipped, directory / "skipped.csv"),

@@ -116,17 +116,20 @@ def test_batched_ols_and_hac_equal_statsmodels(k):
     np.testing.assert_allclose(sub, cov[:, [1, 3]][:, :, [1, 3]], rtol=1e-10, atol=1e-14)
 
 
-def test_panel_fit_equals_single_series_fits(cal):
-    # Reference: evcal.fit.fit series by series (OLS + HAC, itself checked against statsmodels).
+@pytest.mark.parametrize("transform", ["auto", "none"])
+def test_panel_fit_equals_single_series_fits(cal, transform):
+    # Reference: evcal.fit.fit series by series (OLS + HAC, itself checked against statsmodels);
+    # "auto" is the log model here (exact lift aggregation passes), "none" the additive one.
     frame = _panel_frame(5)
     frame = frame.drop(index=frame.index[(frame["product"] == "P01") & frame.index.isin(range(200, 204))])
     frame = frame[~((frame["product"] == "P03") & (frame["date"] < "2021-09-01"))]  # starts later
     panel = read_panel(frame, ["product"])
-    fit = fit_long_panel(panel, cal, FitOptions(errors="ols"))
+    fit = fit_long_panel(panel, cal, FitOptions(errors="ols", transform=transform))
     assert set(fit.series["engine"]) == {"batched"}
+    assert set(fit.series["transform"]) == {"log" if transform == "auto" else "none"}
     fitted = fit.fitted
     for j in range(panel.n_series):
-        ref = evcal.fit.fit(panel.history(j), cal, errors="ols")
+        ref = evcal.fit.fit(panel.history(j), cal, errors="ols", transform=transform)
         lifts = fit.lifts[fit.lifts["_sid"] == j].reset_index(drop=True)
         num = ["lift_pct", "low_pct", "high_pct", "units_per_occurrence"]
         np.testing.assert_allclose(lifts[num].to_numpy(float), ref.lifts[num].to_numpy(float),

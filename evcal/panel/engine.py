@@ -78,10 +78,7 @@ class Template:
         log-link models with each event column built from the series' own lift;
         additive models and daily data keep the linear columns.
         """
-        import evcal.fit.model as fit_model
-
-        if not hasattr(fit_model, "estimate_exact") or self.transform == "none" \
-                or base_freq(self.inp.design.spec.freq) == "D":
+        if self.transform == "none" or base_freq(self.inp.design.spec.freq) == "D":
             return None
         if self._curve is None:
             from evcal.panel.curved import CurvedEvents

@@ -234,6 +234,11 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     share = ctx.share[None, :]
     xcol = {c: curved[c] if c in curved else X[c].to_numpy(dtype=float)[None, :] for c in terms}
     tmat = {c: coefs[c][:, None] * xcol[c] for c in terms}
+    if group.transform == "none":
+        # an assumed lift is a fraction of base, not a number of units (as decompose has it)
+        for c in terms:
+            if group.status[c].status == "assumed":
+                tmat[c] = tmat[c] * eta_base
     total = sum(tmat.values()) if terms else np.zeros_like(eta_base)
     parts: dict[str, np.ndarray] = {}
     if group.transform == "none":

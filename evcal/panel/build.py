@@ -110,9 +110,11 @@ class FittedWriter:
             table = self._table(block)
             if self.writer is None:
                 self.schema = table.schema
-                # dictionary pages for the keys only: trying them on float columns is slow
+                # dictionary pages and min/max statistics for the keys and dates only (what a
+                # reader filters on): computing them for every float column costs time, not space
                 self.writer = pq.ParquetWriter(self.path, self.schema, compression="snappy",
-                                               use_dictionary=self.key_cols)
+                                               use_dictionary=self.key_cols,
+                                               write_statistics=self.key_cols + ["date"])
             else:
                 table = table.select(self.schema.names).cast(self.schema)
             self.writer.write_table(table)

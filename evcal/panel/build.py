@@ -140,7 +140,7 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
                  value_col: str, fitted_path: Path | None) -> PanelResult:
     """Attach the keys, pool the lifts and assemble the series table and settings."""
     from evcal.fit.model import calendar_text
-    from evcal.panel.pooling import pool_lifts
+    from evcal.panel.pooling import POOLED_COLUMNS, pool_lifts
 
     panel = fit.panel
     kc = key_codes_of(panel.keys)
@@ -176,6 +176,8 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
                                     "tau", "q", "i2_pct"])
     if len(lifts):
         lifts, pooling = pool_lifts(lifts, pool_groups, transforms)
+    else:
+        lifts = lifts.assign(**{c: pd.Series(dtype=float) for c in POOLED_COLUMNS})
     skipped = fit.skipped[["_sid", "reason", "detail"]]
     labels: dict[str, dict[str, str]] = {}
     if len(lifts):
@@ -204,11 +206,11 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
     return PanelResult(
         settings=settings,
         series=keyed(series, panel.keys, kc),
-        lifts=keyed(lifts, panel.keys, kc) if len(lifts) else lifts,
+        lifts=keyed(lifts, panel.keys, kc),
         pooling=pooling,
-        occurrences=keyed(fit.occurrences, panel.keys, kc) if len(fit.occurrences) else fit.occurrences,
-        profile=keyed(fit.profile, panel.keys, kc) if len(fit.profile) else fit.profile,
-        coefficients=keyed(coefficients, panel.keys, kc) if len(coefficients) else coefficients,
+        occurrences=keyed(fit.occurrences, panel.keys, kc),
+        profile=keyed(fit.profile, panel.keys, kc),
+        coefficients=keyed(coefficients, panel.keys, kc),
         skipped=keyed(skipped, panel.keys, kc),
         fitted_path=fitted_path,
         _fitted=keyed(fitted_frame, panel.keys, kc) if fitted_frame is not None and len(fitted_frame)

@@ -27,6 +27,7 @@ from evcal.design.base import period_mid_years
 from evcal.design.matrix import build_design
 from evcal.design.seasonal import base_freq
 from evcal.design.trend import Trend
+from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS
 from evcal.fit.identify import check_columns, independent_base_columns
 from evcal.fit.model import load_calendar_any, prepare
 from evcal.fit.options import FitOptions
@@ -341,10 +342,18 @@ def _result_tables(res: Any, sid: int) -> BlockTables:
     return BlockTables(lifts, tag(res.occurrences), tag(res.profile), [tag(res.fitted)], quality)
 
 
+_EMPTY = {  # the columns of each table when no series produced a row
+    "lifts": ["_sid", *LIFT_COLUMNS, "kind", "label", "_fitted"],
+    "occurrences": ["_sid", *OCC_COLUMNS, "low_units", "high_units"],
+    "profile": ["_sid", "period", "index"],
+    "quality": ["_sid", "periods_fitted", "wape_pct", "resid_sd", "mean_base"],
+}
+
+
 def _concat_tables(parts: list[BlockTables]) -> BlockTables:
     def cat(name: str) -> pd.DataFrame:
         frames = [getattr(p, name) for p in parts if len(getattr(p, name))]
-        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=_EMPTY[name])
 
     fitted = [f for p in parts for f in p.fitted]
     return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), fitted, cat("quality"))

@@ -32,6 +32,7 @@ from evcal.io.tables import PARQUET_SUFFIXES, RawTable, find_column, load_table
 __all__ = ["Panel", "read_panel", "panel_from_frame", "split_key_option"]
 
 NS_PER_DAY = 86_400 * 10**9
+SERIES_CHUNK = 2000  # series per frequency check (a dates x series matrix each)
 
 
 def split_key_option(values: str | list[str] | tuple[str, ...] | None) -> list[str]:
@@ -448,11 +449,12 @@ def _frequency(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray, n
         if len(set(weekdays.tolist())) > 1:
             _mixed_error(u_stamps, dcode, sid, n_series, keys, name)
         return weekly_freq(int(weekdays[0]))
-    try:
-        return detect_freq(u_stamps, source=name, rows=u_rows)
-    except HistoryError:
-        _mixed_error(u_stamps, dcode, sid, n_series, keys, name)
-        raise
+    # series by series (a panel of monthly series may date some on the 1st and some on the
+    # last day: together their dates are no regular grid, each series alone is monthly)
+    agreed = _mixed_error(u_stamps, dcode, sid, n_series, keys, name)
+    if agreed:
+        return agreed
+    return detect_freq(u_stamps, source=name, rows=u_rows)
 
 
 def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray,
@@ -464,6 +466,14 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
     computed for all series at once on the ``dates × series`` presence matrix.
     """
     n_u = len(u_stamps)
+    if n_series > SERIES_CHUNK:  # bound the dates x series matrices
+        order = np.argsort(sid, kind="stable")
+        bounds = np.searchsorted(sid[order], np.arange(0, n_series + SERIES_CHUNK, SERIES_CHUNK))
+        out: list[str] = []
+        for a in range(0, n_series, SERIES_CHUNK):
+            rows = order[bounds[a // SERIES_CHUNK]:bounds[a // SERIES_CHUNK + 1]]
+            out += series_frequencies(u_stamps, dcode[rows], sid[rows] - a, min(SERIES_CHUNK, n_series - a))
+        return out
     present = np.zeros((n_u, n_series), dtype=bool)
     present[dcode, sid] = True
     day = (u_stamps.asi8 // NS_PER_DAY).astype(np.int64)
@@ -481,24 +491,21 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
         has = present[wd == w].any(axis=0)
         wd_first = np.where(has & (n_weekdays == 0), w, wd_first)
         n_weekdays += has
-    out = []
-    for g, nw, w in zip(min_gap, n_weekdays, wd_first, strict=True):
-        if g == 1:
-            out.append("D")
-        elif g % 7 == 0 and g <= 21 and nw == 1:
-            out.append(weekly_freq(int(w)))
-        elif 28 <= g <= 31:
-            out.append("M")
-        elif 89 <= g <= 92:
-            out.append("Q-DEC")
-        else:
-            out.append("")
-    return out
+    weekly = np.array([weekly_freq(w) for w in range(7)], dtype=object)
+    out = np.full(n_series, "", dtype=object)
+    out[(min_gap % 7 == 0) & (min_gap <= 21) & (n_weekdays == 1)] = \
+        weekly[wd_first[(min_gap % 7 == 0) & (min_gap <= 21) & (n_weekdays == 1)]]
+    out[min_gap == 1] = "D"
+    out[(min_gap >= 28) & (min_gap <= 31)] = "M"
+    out[(min_gap >= 89) & (min_gap <= 92)] = "Q-DEC"
+    return list(out)
 
 
 def _mixed_error(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray, n_series: int,
-                 keys: pd.DataFrame, name: str) -> None:
+                 keys: pd.DataFrame, name: str) -> str:
+    """Raise naming two series at different frequencies; return the one frequency if they agree."""
     classes = series_frequencies(u_stamps, dcode, sid, n_series)
+    n_dates = np.bincount(sid, minlength=n_series)  # rows per series (distinct dates: no duplicates yet)
     seen: dict[str, int] = {}
     for j, c in enumerate(classes):
         if c and c not in seen:
@@ -509,8 +516,10 @@ def _mixed_error(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray,
             f"{name}: mixed frequencies between series: {_key_text(keys, ja)} is {describe_freq(fa)} "
             f"and {_key_text(keys, jb)} is {describe_freq(fb)}; evcal fits one frequency per run: "
             "split the file by frequency, or aggregate the finer series to the coarser frequency")
-    unclear = [j for j, c in enumerate(classes) if not c]
+    # a series with one or two dates is skipped as too short later; it cannot be read here
+    unclear = [j for j, c in enumerate(classes) if not c and n_dates[j] >= 3]
     if unclear:
         j = unclear[0]
         mine = u_stamps[np.unique(dcode[sid == j])]
         detect_freq(mine, source=f"{name} [{_key_text(keys, j)}]")
+    return next(iter(seen)) if len(seen) == 1 else ""

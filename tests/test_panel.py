@@ -327,3 +327,30 @@ def test_top_down_allocation_adds_up_to_the_parent_plan(tmp_path):
     # a child whose season peaks later gets more of the later months (sine phase shifts with i)
     s = alloc[alloc["family"] == "bulbs"].pivot(index="date", columns="product", values="share")
     assert s["P00"].iloc[0] != pytest.approx(s["P00"].iloc[-1], rel=1e-3)
+
+
+def test_monthly_series_dated_on_first_or_last_day_are_one_frequency():
+    # Each series alone is monthly; together their dates (1st and last days) are no grid.
+    a = pd.DataFrame({"k": "A", "date": pd.date_range("2021-01-31", periods=30, freq="ME"), "value": 1.0})
+    b = pd.DataFrame({"k": "B", "date": pd.date_range("2021-01-01", periods=30, freq="MS"), "value": 2.0})
+    panel = read_panel(pd.concat([a, b]), ["k"])
+    assert panel.freq == "M" and panel.values.shape == (30, 2) and not np.isnan(panel.values).any()
+
+
+@pytest.mark.parametrize("freq", ["W-SUN", "M"])
+def test_curved_event_columns_equal_the_design_block(cal, freq):
+    # Reference: evcal.design.events.EventColumns, the single-series fit's own columns for a θ.
+    from evcal.design.events import EventColumns
+    from evcal.panel.curved import CurvedEvents
+
+    periods = pd.period_range("2021-01", "2023-12", freq="M") if freq == "M" else \
+        pd.period_range("2021-01-03", periods=156, freq=freq)
+    names = [c for c, ev in cal.event_columns().items() if cal.event(ev).effect.kind != "zero"]
+    curve = CurvedEvents(cal, names, periods)
+    for theta in (0.0, 0.25, -0.4):
+        ref = EventColumns(cal, names, {n: theta for n in names}).columns(periods)
+        for n in names:
+            if cal.event(cal.event_columns()[n]).effect.kind in ("assume", "like"):
+                continue  # their θ comes from the calendar or the event they borrow from
+            np.testing.assert_allclose(curve.column(n, np.array([theta]))[0], ref[n].to_numpy(),
+                                       rtol=1e-12, atol=1e-15)

@@ -94,6 +94,38 @@ class CurvedEvents:
         return out
 
 
+def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
+    """Solve ``G x = b`` for a stack of small symmetric positive-definite ``G`` (m, j, j), ``B`` (m, j, r).
+
+    A Cholesky factorisation written over the stack (loops over the j columns,
+    vector operations over the m systems): for thousands of 5 × 5 Gram
+    matrices this is many times faster than one LAPACK call per matrix. Falls
+    back to :func:`numpy.linalg.solve` if a matrix is not positive definite.
+
+    Examples
+    --------
+    >>> G = np.array([[[4.0, 2.0], [2.0, 3.0]]])
+    >>> spd_solve(G, np.array([[[2.0], [1.0]]]))[0, :, 0].round(4).tolist()
+    [0.5, 0.0]
+    """
+    m, j, _ = G.shape
+    L = np.zeros_like(G)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        for c in range(j):
+            L[:, c, c] = np.sqrt(G[:, c, c] - np.einsum("mk,mk->m", L[:, c, :c], L[:, c, :c]))
+            for r in range(c + 1, j):
+                L[:, r, c] = (G[:, r, c] - np.einsum("mk,mk->m", L[:, r, :c], L[:, c, :c])) / L[:, c, c]
+        Y = np.empty_like(B)
+        for r in range(j):
+            Y[:, r] = (B[:, r] - np.einsum("mk,mkq->mq", L[:, r, :r], Y[:, :r])) / L[:, r, r][:, None]
+        X = np.empty_like(B)
+        for r in reversed(range(j)):
+            X[:, r] = (Y[:, r] - np.einsum("mk,mkq->mq", L[:, r + 1:, r], X[:, r + 1:])) / L[:, r, r][:, None]
+    if not np.isfinite(X).all():
+        return np.linalg.solve(G, B)
+    return X
+
+
 def _pair_sums(A: np.ndarray, B: np.ndarray) -> np.ndarray:
     """``Σₜ A[t, s, i] B[t, s, j]`` for every series s: (m, j, j) from (n, m, j) arrays.
 
@@ -241,7 +273,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         rhs[:, jc] = np.einsum("muc,um->mc", V, YU[:, sel])
         rhs[:, js] = sy[:, sel].T
         rhs -= np.einsum("mjk,km->mj", P, qy[:, sel])
-        return np.linalg.solve(G, rhs[:, :, None])[:, :, 0]
+        return spd_solve(G, rhs[:, :, None])[:, :, 0]
 
     params = B0.copy()
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
@@ -283,7 +315,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     G = _pair_sums(Xp, Xp)
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
-    Z = np.linalg.solve(G, Xp.transpose(1, 2, 0)).transpose(2, 0, 1)  # (n, m, j)
+    Z = spd_solve(G, Xp.transpose(1, 2, 0)).transpose(2, 0, 1)  # (n, m, j)
     Vz = Z * resid[:, :, None]
     w = bartlett_weights(lags)
     W = 0.5 * Vz

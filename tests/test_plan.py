@@ -228,7 +228,8 @@ def test_like_borrows_the_fitted_lift(monthly_fit: evcal.FitResult) -> None:
     x = 12 / 31  # window days in October over its days
     b = float(monthly_fit.params["easter-run"])
     # the window's 12 days each sell exp(b) times base; October's mean multiplier follows
-    assert t["plan"].iloc[0] / t["base"].iloc[0] == pytest.approx(1 + x * math.expm1(b), rel=1e-9)
+    # (to the fit's stopping rule: its columns use the last pass's log-lift, within 1e-4 of b)
+    assert t["plan"].iloc[0] / t["base"].iloc[0] == pytest.approx(1 + x * math.expm1(b), rel=1e-5)
     assert plan.assumptions == {"autumn-run": "autumn-run: borrows the lift of easter-run"}
 
 

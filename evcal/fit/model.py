@@ -19,6 +19,10 @@ from evcal.fit.identify import ColumnStatus, check_columns, independent_base_col
 from evcal.fit.options import FitOptions
 
 LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS+HAC for speed
+#: passes of the exact-aggregation refit stop when no log-lift moves more than this
+#: (1e-4 on the log scale is a hundredth of a percentage point: far inside any interval)
+THETA_TOL = 1e-4
+MAX_PASSES = 8
 
 
 @dataclass
@@ -288,7 +292,7 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[Mo
 
     Daily data need no second pass (each period is one day). For longer
     periods the log-lifts from one pass set the columns of the next, until
-    they settle (at most 8 passes; typically 3).
+    they settle (at most ``MAX_PASSES``; typically 2 or 3).
     """
     inp = prepare(history, calendar, options)
     est, choice = estimate(inp, options, history.freq)
@@ -302,7 +306,7 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[Mo
         fixed = replace(options, errors="arima", arima_order=tuple(est.error_model["order"]))
     else:
         fixed = options
-    for _ in range(8):
+    for _ in range(MAX_PASSES):
         if not theta:
             break
         inp = prepare(history, calendar, options, theta=theta)
@@ -310,6 +314,6 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[Mo
         new = fitted_theta(inp, est)
         moved = max((abs(new.get(k, 0.0) - theta.get(k, 0.0)) for k in set(new) | set(theta)), default=0.0)
         theta = new
-        if moved < 1e-6:
+        if moved < THETA_TOL:
             break
     return inp, est, choice

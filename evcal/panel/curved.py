@@ -30,8 +30,8 @@ from evcal.panel.batched import bartlett_weights
 
 __all__ = ["CurvedEvents", "curved_columns", "refine", "MAX_PASSES", "THETA_TOL"]
 
-MAX_PASSES = 8  # as evcal.fit.model.estimate_exact
-THETA_TOL = 1e-6
+# the same stopping rule as the single-series fit (evcal.fit.model.estimate_exact)
+from evcal.fit.model import MAX_PASSES, THETA_TOL  # noqa: E402
 
 
 class CurvedEvents:

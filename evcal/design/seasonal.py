@@ -15,8 +15,6 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-from statsmodels.tsa.deterministic import CalendarFourier, CalendarSeasonality
-
 from evcal.design.base import period_days
 
 
@@ -74,6 +72,8 @@ class SeasonalDummies:
         b = base_freq(self.freq)
         p = cycle_length(self.freq)
         if b in ("M", "Q"):
+            from statsmodels.tsa.deterministic import CalendarSeasonality  # slow import: when used
+
             sm_freq = "ME" if b == "M" else "QE"
             raw = _quiet(CalendarSeasonality(sm_freq, "YE").in_sample, periods)
             values = raw.to_numpy()[:, 1:]
@@ -106,6 +106,8 @@ class AnnualFourier:
     kind: str = "annual_fourier"
 
     def _at(self, stamps: pd.DatetimeIndex) -> pd.DataFrame:
+        from statsmodels.tsa.deterministic import CalendarFourier  # slow import: when used
+
         raw = _quiet(CalendarFourier("YE", self.order).in_sample, stamps)
         raw.columns = [c.replace(",freq=YE-DEC", "").replace(" ", "") for c in raw.columns]
         return raw

@@ -20,7 +20,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy.linalg import solve_triangular
 
 REL_TOL = 1e-6
 
@@ -102,6 +101,8 @@ def check_columns(
     kind_of : dict
         Column -> "event" or "intervention", for the wording of notes.
     """
+    from scipy.linalg import solve_triangular  # slow to import: only when there are candidates
+
     out: dict[str, ColumnStatus] = {}
     if not candidate_cols:
         return out

@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+
 from evcal.design.base import period_days
 
 

@@ -11,7 +11,7 @@ import functools
 import os
 import sys
 from collections.abc import Callable
-from typing import Any, TypeVar
+from typing import Annotated, Any, TypeVar
 
 import numpy as np
 import typer
@@ -156,23 +156,47 @@ def _parse_order(text: str | None) -> tuple[int, int, int] | None:
     return parts  # type: ignore[return-value]
 
 
+# Options shared by every command that reads a history or fits a model: one
+# definition each, so their names, defaults and help never drift apart.
+DateCol = Annotated[str, typer.Option("--date-col", help="Column with the period dates.")]
+ValueCol = Annotated[str, typer.Option("--value-col", help="Column with the values.")]
+Freq = Annotated[str | None, typer.Option("--freq", help="daily, weekly, W-SAT, monthly, quarterly.")]
+Transform = Annotated[str, typer.Option("--transform", help="auto | log | none | count")]
+Errors = Annotated[str, typer.Option("--errors", help="auto | ols | arima")]
+ArimaOrder = Annotated[str | None, typer.Option("--arima-order", help="p,d,q for errors arima, e.g. 0,1,1")]
+Seasonal = Annotated[str, typer.Option("--seasonal", help="auto | dummies | fourier")]
+FourierOrder = Annotated[int, typer.Option("--fourier-order", help="Harmonics of annual Fourier terms.")]
+TrendOrder = Annotated[int, typer.Option("--trend-order", help="0 flat, 1 linear, 2 quadratic.")]
+TradingDays = Annotated[bool, typer.Option("--trading-days", help="Weekday-composition terms (monthly).")]
+AllowNegative = Annotated[bool, typer.Option("--allow-negative", help="Accept negative values.")]
+
+
+def _fit_options(transform: str, errors: str, arima_order: str | None, seasonal: str, fourier_order: int,
+                 trend_order: int, trading_days: bool, allow_negative: bool) -> dict[str, Any]:
+    """The fit options of a command line, as keyword arguments of :func:`evcal.fit`."""
+    return {"transform": transform, "errors": errors, "arima_order": _parse_order(arima_order),
+            "seasonal": seasonal, "fourier_order": fourier_order, "trend_order": trend_order,
+            "trading_days": trading_days, "allow_negative": allow_negative}
+
+
+
 @app.command("fit")
 @guarded
 def fit_cmd(
     history: str = typer.Argument(..., help="History file: CSV, Parquet or .xlsx."),
     calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML)."),
     out: str = typer.Option(..., "--out", "-o", help="Output folder for the model."),
-    date_col: str = typer.Option("date", "--date-col", help="Column with the period dates."),
-    value_col: str = typer.Option("value", "--value-col", help="Column with the values."),
-    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly."),
-    transform: str = typer.Option("auto", "--transform", help="auto | log | none | count"),
-    errors: str = typer.Option("auto", "--errors", help="auto | ols | arima"),
-    arima_order: str = typer.Option(None, "--arima-order", help="p,d,q for --errors arima, e.g. 0,1,1"),
-    seasonal: str = typer.Option("auto", "--seasonal", help="auto | dummies | fourier"),
-    fourier_order: int = typer.Option(10, "--fourier-order", help="Harmonics of annual Fourier terms."),
-    trend_order: int = typer.Option(1, "--trend-order", help="0 flat, 1 linear, 2 quadratic."),
-    trading_days: bool = typer.Option(False, "--trading-days", help="Weekday-composition terms (monthly)."),
-    allow_negative: bool = typer.Option(False, "--allow-negative", help="Accept negative values."),
+    date_col: DateCol = "date",
+    value_col: ValueCol = "value",
+    freq: Freq = None,
+    transform: Transform = "auto",
+    errors: Errors = "auto",
+    arima_order: ArimaOrder = None,
+    seasonal: Seasonal = "auto",
+    fourier_order: FourierOrder = 10,
+    trend_order: TrendOrder = 1,
+    trading_days: TradingDays = False,
+    allow_negative: AllowNegative = False,
     series_col: list[str] = typer.Option(
         None, "--series-col", help="Key column(s) of a long file, one series per key (repeat, or a,b)."),
     level: str = typer.Option(None, "--level", help="Add the series up to these key columns first (a,b)."),
@@ -181,22 +205,18 @@ def fit_cmd(
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
+    options = _fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
+                           trading_days, allow_negative)
     if series_col or level or group_col or workers or scheduler:  # many series: evcal.panel
         from evcal.panel.cli_support import fit_panel_cmd
 
         return fit_panel_cmd(history, calendar, out, series_col, echo=typer.echo, level=level,
                              group_col=group_col, workers=workers, scheduler=scheduler, date_col=date_col,
-                             value_col=value_col, freq=freq, transform=transform, errors=errors,
-                             arima_order=_parse_order(arima_order), seasonal=seasonal,
-                             fourier_order=fourier_order, trend_order=trend_order,
-                             trading_days=trading_days, allow_negative=allow_negative)
+                             value_col=value_col, freq=freq, **options)
     from evcal.fit import fit
     from evcal.fit.summary import describe
 
-    result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq,
-                 transform=transform, errors=errors, arima_order=_parse_order(arima_order),
-                 seasonal=seasonal, fourier_order=fourier_order, trend_order=trend_order,
-                 trading_days=trading_days, allow_negative=allow_negative)
+    result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq, **options)
     result.save(out)
     typer.echo(describe(result))
     typer.echo(f"\nwrote {out}/ (model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv)")
@@ -292,17 +312,17 @@ def backtest_cmd(
     calendar: str = typer.Option(..., "--calendar", "-c", help="Event calendar (YAML)."),
     out: str = typer.Option(..., "--out", "-o", help="backtest.csv to write."),
     holdout_years: int = typer.Option(2, "--holdout-years", help="Last full years to hold out, one each."),
-    date_col: str = typer.Option("date", "--date-col", help="Column with the period dates."),
-    value_col: str = typer.Option("value", "--value-col", help="Column with the values."),
-    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly."),
-    transform: str = typer.Option("auto", "--transform", help="auto | log | none | count"),
-    errors: str = typer.Option("auto", "--errors", help="auto | ols | arima"),
-    arima_order: str = typer.Option(None, "--arima-order", help="p,d,q for --errors arima, e.g. 0,1,1"),
-    seasonal: str = typer.Option("auto", "--seasonal", help="auto | dummies | fourier"),
-    fourier_order: int = typer.Option(10, "--fourier-order", help="Harmonics of annual Fourier terms."),
-    trend_order: int = typer.Option(1, "--trend-order", help="0 flat, 1 linear, 2 quadratic."),
-    trading_days: bool = typer.Option(False, "--trading-days", help="Weekday-composition terms (monthly)."),
-    allow_negative: bool = typer.Option(False, "--allow-negative", help="Accept negative values."),
+    date_col: DateCol = "date",
+    value_col: ValueCol = "value",
+    freq: Freq = None,
+    transform: Transform = "auto",
+    errors: Errors = "auto",
+    arima_order: ArimaOrder = None,
+    seasonal: Seasonal = "auto",
+    fourier_order: FourierOrder = 10,
+    trend_order: TrendOrder = 1,
+    trading_days: TradingDays = False,
+    allow_negative: AllowNegative = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
     from pathlib import Path
@@ -314,10 +334,9 @@ def backtest_cmd(
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
-                  value_col=value_col, freq=freq, transform=transform, errors=errors,
-                  arima_order=_parse_order(arima_order), seasonal=seasonal,
-                  fourier_order=fourier_order, trend_order=trend_order, trading_days=trading_days,
-                  allow_negative=allow_negative)
+                  value_col=value_col, freq=freq,
+                  **_fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
+                                 trading_days, allow_negative))
     with atomic_path(out) as tmp:
         bt.to_csv(tmp, index=False, float_format="%.6f")
     typer.echo(format_table(bt))
@@ -377,11 +396,11 @@ def discover_cmd(
     calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML), if any."),
     out: str = typer.Option(..., "--out", "-o", help="Output folder for the suggestions."),
     stockouts: str = typer.Option(None, "--stockouts", help="CSV of stock-outs: start,end[,reason]."),
-    date_col: str = typer.Option("date", "--date-col", help="Column with the period dates."),
-    value_col: str = typer.Option("value", "--value-col", help="Column with the values."),
-    freq: str = typer.Option(None, "--freq", help="daily, weekly, W-SAT, monthly, quarterly."),
-    transform: str = typer.Option("auto", "--transform", help="auto | log | none | count"),
-    errors: str = typer.Option("auto", "--errors", help="auto | ols | arima"),
+    date_col: DateCol = "date",
+    value_col: ValueCol = "value",
+    freq: Freq = None,
+    transform: Transform = "auto",
+    errors: Errors = "auto",
     critical: float = typer.Option(None, "--critical", help="Chen-Liu critical |tau| (default by length)."),
 ) -> None:
     """Find cycles, unexplained peaks, dips and breaks, abnormal years and lost demand."""

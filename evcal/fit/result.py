@@ -137,7 +137,7 @@ class FitResult:
         """Write the output folder of the contract (atomically: all files or none)."""
         directory = Path(directory)
         with atomic_dir(directory) as tmp:
-            (tmp / "model.json").write_text(json.dumps(_clean(self.to_json()), indent=1),
+            (tmp / "model.json").write_text(json.dumps(json_safe(self.to_json()), indent=1),
                                             encoding="utf-8")
             self.lifts.to_csv(tmp / "lifts.csv", index=False, float_format="%.6g")
             self.occurrences.to_csv(tmp / "occurrences.csv", index=False, float_format="%.6g")
@@ -183,18 +183,20 @@ class FitResult:
         )
 
 
-def _clean(obj: Any) -> Any:
-    """JSON has no NaN: write null."""
+def json_safe(obj: Any) -> Any:
+    """Plain JSON values: NaN and infinity become null, numpy scalars Python ones, keys text."""
     if isinstance(obj, float):
         return obj if np.isfinite(obj) else None
     if isinstance(obj, dict):
-        return {k: _clean(v) for k, v in obj.items()}
+        return {str(k): json_safe(v) for k, v in obj.items()}
     if isinstance(obj, list | tuple):
-        return [_clean(v) for v in obj]
+        return [json_safe(v) for v in obj]
     if isinstance(obj, np.floating):
-        return _clean(float(obj))
+        return json_safe(float(obj))
     if isinstance(obj, np.integer):
         return int(obj)
+    if isinstance(obj, np.bool_):
+        return bool(obj)
     return obj
 
 

@@ -38,6 +38,7 @@ import pandas as pd
 
 from evcal import __version__
 from evcal.errors import ModelError
+from evcal.fit.result import json_safe
 
 __all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "write_csv"]
 
@@ -213,7 +214,8 @@ class PanelResult:
         from concurrent.futures import ThreadPoolExecutor
 
         directory = Path(directory)
-        (directory / "panel.json").write_text(json.dumps(_clean(self.settings), indent=1), encoding="utf-8")
+        settings = json.dumps(json_safe(self.settings), indent=1)
+        (directory / "panel.json").write_text(settings, encoding="utf-8")
         jobs: list[tuple[Any, ...]] = [
             (write_csv, self.occurrences, directory / "occurrences.csv"),
             (write_csv, self.profile, directory / "profile.csv"),
@@ -256,20 +258,6 @@ def _write_parquet(frame: pd.DataFrame, path: Path) -> None:
     frame.to_parquet(path, index=False)
 
 
-def _clean(obj: Any) -> Any:
-    if isinstance(obj, float):
-        return obj if np.isfinite(obj) else None
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, list | tuple):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, np.floating):
-        return _clean(float(obj))
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    return obj
 
 
 def is_panel_dir(directory: str | Path) -> bool:

@@ -101,8 +101,6 @@ def check_columns(
     kind_of : dict
         Column -> "event" or "intervention", for the wording of notes.
     """
-    from scipy.linalg import solve_triangular  # slow to import: only when there are candidates
-
     out: dict[str, ColumnStatus] = {}
     if not candidate_cols:
         return out
@@ -159,7 +157,8 @@ def check_columns(
             )
             continue
         g = gram[kept, j] if kept else np.zeros(0)
-        v = solve_triangular(chol, g, lower=True) if kept else g
+        # small (events x events) system: numpy's solve avoids importing scipy here
+        v = np.linalg.solve(chol, g) if kept else g
         res2 = gram[j, j] - float(v @ v)
         if res2 / norms[j] ** 2 < tol2:
             out[c] = ColumnStatus(

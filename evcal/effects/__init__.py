@@ -16,11 +16,10 @@ __all__ = ["build_tables", "decompose", "closure_shares", "term_coefficients"]
 def build_tables(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame,
                  inp: Any, history: Any) -> None:
     """Fill ``result.fitted``, ``.occurrences``, ``.lifts``, ``.profile``, ``.residuals`` in place."""
-    from evcal.design.matrix import build_design
-
-    raw = build_design(result.spec, calendar, periods)  # unmerged columns (like-events apart)
+    # the fit's own design, before like-events were added into their targets
+    raw_X = inp.raw_X
     closures = closure_shares(calendar, periods)
-    parts = decompose(result, raw.X, raw.open_share, closures)
+    parts = decompose(result, raw_X, inp.design.open_share, closures)
     result.mean_base = float(parts["base"].mean())
     dates = history.dates(periods)
     cols: dict[str, Any] = {"date": dates, "actual": inp.actual.to_numpy(),
@@ -30,8 +29,8 @@ def build_tables(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd.Data
             cols[c] = parts[c].to_numpy()
     cols["in_fit"] = inp.rows
     result.fitted = pd.DataFrame(cols)
-    result.occurrences = occurrences_table(result, calendar, periods, raw.X, parts)
-    result.lifts = lifts_table(result, raw.X, parts, result.occurrences)
+    result.occurrences = occurrences_table(result, calendar, periods, raw_X, parts)
+    result.lifts = lifts_table(result, raw_X, parts, result.occurrences)
     result.profile = profile_table(result)
     if inp.transform == "log":
         with np.errstate(divide="ignore", invalid="ignore"):

@@ -22,6 +22,7 @@ from evcal.fit.model import (
     check_history_length,
     estimate_exact,
     load_calendar_any,
+    term_info,
 )
 from evcal.fit.options import FitOptions
 from evcal.fit.result import FitResult, load_model
@@ -76,20 +77,12 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         smear = float(np.exp(est.sigma2 / 2.0))
     else:
         smear = 1.0
-    colmap = cal.event_columns()
-    event_info: dict[str, dict[str, Any]] = {}
-    for c, ev_name in colmap.items():
-        ev = cal.event(ev_name)
-        event_info[c] = {"event": ev_name, "label": ev.label, "group": ev.group,
-                         "effect": ev.effect.describe(), "shape": ev.shape}
-    for t in cal.interventions:
-        event_info[t.name] = {"event": t.name, "label": getattr(t, "label", t.name) or t.name,
-                              "group": "intervention", "effect": t.type, "shape": t.type}
+    event_info = term_info(cal)
     closure_events = [e.name for e in cal.events if e.effect.kind == "zero"]
     last_full = _last_full_year(hist.values)
     result = FitResult(
         options=opts,
-        spec=inp.design.spec,  # type: ignore[attr-defined]
+        spec=inp.spec,
         transform=inp.transform,
         label=hist.label,
         params=params,
@@ -102,7 +95,7 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         like_map=inp.like_map,
         assumed=inp.assumed,
         base_columns=[c for c in X.columns if inp.design.roles[c] in ("trend", "seasonal")],
-        intervention_names=[t["name"] for t in inp.design.spec.interventions],  # type: ignore[attr-defined]
+        intervention_names=[t["name"] for t in inp.spec.interventions],
         closure_events=closure_events,
         event_info=event_info,
         event_labels={e.name: e.label for e in cal.events},

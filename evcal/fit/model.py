@@ -40,6 +40,8 @@ class ModelInputs:
     fitted_cols: list[str]
     like_map: dict[str, str]  # like-event column -> column it borrows from
     assumed: dict[str, float]  # assumed-event column -> lift fraction
+    spec: DesignSpec  # the settings that rebuild ``design`` for any periods
+    raw_X: pd.DataFrame  # the design before like-events were added into their targets
     notes: list[str] = field(default_factory=list)
 
 
@@ -170,10 +172,9 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     for c, target in like_map.items():
         status[c] = ColumnStatus("like", f"borrows the lift of {colmap.get(target, target)}")
     fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
-    design = Design(X=X, open_share=design.open_share, roles=design.roles)
-    design.spec = spec  # type: ignore[attr-defined]
-    return ModelInputs(periods, actual, design, rows, excluded, offset, transform, status,
-                       fitted_cols, like_map, assumed, notes)
+    merged = Design(X=X, open_share=design.open_share, roles=design.roles)
+    return ModelInputs(periods, actual, merged, rows, excluded, offset, transform, status,
+                       fitted_cols, like_map, assumed, spec, design.X, notes)
 
 
 def model_scale_response(inp: ModelInputs) -> pd.Series:
@@ -317,3 +318,16 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[Mo
         if moved < THETA_TOL:
             break
     return inp, est, choice
+
+
+def term_info(calendar: Any) -> dict[str, dict[str, Any]]:
+    """Name, label, group, effect and shape of every event column and intervention (for outputs)."""
+    info: dict[str, dict[str, Any]] = {}
+    for c, ev_name in calendar.event_columns().items():
+        ev = calendar.event(ev_name)
+        info[c] = {"event": ev_name, "label": ev.label, "group": ev.group,
+                   "effect": ev.effect.describe(), "shape": ev.shape}
+    for t in calendar.interventions:
+        info[t.name] = {"event": t.name, "label": getattr(t, "label", t.name) or t.name,
+                        "group": "intervention", "effect": t.type, "shape": t.type}
+    return info

@@ -24,12 +24,11 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.base import period_mid_years
-from evcal.design.matrix import build_design
 from evcal.design.seasonal import base_freq
 from evcal.design.trend import Trend
 from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS
 from evcal.fit.identify import check_columns, independent_base_columns
-from evcal.fit.model import load_calendar_any, prepare
+from evcal.fit.model import load_calendar_any, prepare, term_info
 from evcal.fit.options import FitOptions
 from evcal.io.history import History
 from evcal.panel.batched import SharedSolve
@@ -69,7 +68,7 @@ class Template:
         placeholder = History(pd.Series(1.0, index=panel.periods, name="value"), panel.freq, panel.label,
                               panel.source, [])
         inp = prepare(placeholder, calendar, replace(options, transform=transform))
-        raw = build_design(inp.design.spec, calendar, panel.periods).X  # type: ignore[attr-defined]
+        raw = inp.raw_X
         return cls(transform, inp, raw, period_mid_years(panel.periods), calendar, panel.periods)
 
     def curve(self) -> Any:
@@ -79,12 +78,12 @@ class Template:
         log-link models with each event column built from the series' own lift;
         additive models and daily data keep the linear columns.
         """
-        if self.transform == "none" or base_freq(self.inp.design.spec.freq) == "D":
+        if self.transform == "none" or base_freq(self.inp.spec.freq) == "D":
             return None
         if self._curve is None:
             from evcal.panel.curved import CurvedEvents
 
-            spec = self.inp.design.spec
+            spec = self.inp.spec
             self._curve = CurvedEvents(self.calendar, list(spec.event_columns), self.periods)
         return self._curve
 
@@ -93,7 +92,7 @@ class Template:
         return float(np.floor(self.mid_years[first]))
 
     def with_origin(self, frame: pd.DataFrame, origin: float) -> pd.DataFrame:
-        spec = self.inp.design.spec
+        spec = self.inp.spec
         if origin == spec.trend_origin:
             return frame
         trend = Trend(origin, spec.trend_order, spec.constant).columns(frame.index)
@@ -134,16 +133,8 @@ def _group_info(template: Template, calendar: Any, observed: np.ndarray, origin:
     status = check_columns(X, rows, base_cols, candidates, {c: roles[c] for c in X.columns})
     status.update(fixed)
     fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
-    spec = replace(inp.design.spec, trend_origin=origin)
-    colmap = calendar.event_columns()
-    event_info: dict[str, dict[str, Any]] = {}
-    for c, ev_name in colmap.items():
-        ev = calendar.event(ev_name)
-        event_info[c] = {"event": ev_name, "label": ev.label, "group": ev.group,
-                         "effect": ev.effect.describe(), "shape": ev.shape}
-    for t in calendar.interventions:
-        event_info[t.name] = {"event": t.name, "label": getattr(t, "label", t.name) or t.name,
-                              "group": "intervention", "effect": t.type, "shape": t.type}
+    spec = replace(inp.spec, trend_origin=origin)
+    event_info = term_info(calendar)
     info = GroupInfo(
         transform=template.transform, status=status, fitted_cols=fitted_cols, base_columns=all_base,
         like_map=dict(inp.like_map), assumed=dict(inp.assumed),

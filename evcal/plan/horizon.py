@@ -21,25 +21,22 @@ _YEAR = re.compile(r"^\s*(\d{4})\s*$")
 
 
 def _as_day(value: Any, *, end: bool, what: str) -> pd.Timestamp:
-    """A day from a date-like value; a bare year is 1 January (or 31 December for ``end``)."""
+    """A day from a date-like value; a bare year is 1 January (or 31 December for ``end``).
+
+    The calendar's :func:`~evcal.calendar.occurrences.as_day` does the parsing; here a
+    period and a year written as text are accepted too, and the error is a plan error.
+    """
+    from evcal.calendar.occurrences import as_day
+    from evcal.errors import CalendarError
+
     if isinstance(value, pd.Period):
         return value.end_time.normalize() if end else value.start_time.normalize()
-    if isinstance(value, int | np.integer) and not isinstance(value, bool):
-        value = str(int(value))
-    if isinstance(value, str):
-        m = _YEAR.match(value)
-        if m:
-            year = int(m.group(1))
-            return pd.Timestamp(year, 12, 31) if end else pd.Timestamp(year, 1, 1)
+    if isinstance(value, str) and _YEAR.match(value):
+        value = int(value)
     try:
-        ts = pd.Timestamp(value)
-    except (ValueError, TypeError):
-        ts = pd.NaT
-    if ts is pd.NaT or pd.isna(ts):
-        raise PlanError(f"{what} {value!r}: not a date; write YYYY-MM-DD or a four-digit year")
-    if ts.tzinfo is not None:
-        ts = ts.tz_localize(None)
-    return ts.normalize()
+        return as_day(value, end=end, what=what)
+    except CalendarError:
+        raise PlanError(f"{what} {value!r}: not a date; write YYYY-MM-DD or a four-digit year") from None
 
 
 def history_end_period(result: Any) -> pd.Period:

@@ -22,20 +22,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS
 from evcal.errors import ModelError
 
 #: Files ``evcal fit`` writes, with the columns each must have (contract).
 MODEL_FILES: dict[str, tuple[str, ...]] = {
-    "lifts.csv": (
-        "event",
-        "lift_pct",
-        "low_pct",
-        "high_pct",
-        "units_per_occurrence",
-        "identifiable",
-        "note",
-    ),
-    "occurrences.csv": ("event", "start", "end", "added_units", "added_pct"),
+    "lifts.csv": tuple(LIFT_COLUMNS),
+    "occurrences.csv": tuple(OCC_COLUMNS),
     "profile.csv": ("period", "index"),
     "fitted.csv": ("date", "actual", "fitted", "base"),
 }

@@ -127,16 +127,16 @@ def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
 
 
 def _pair_sums(A: np.ndarray, B: np.ndarray) -> np.ndarray:
-    """``Σₜ A[t, s, i] B[t, s, j]`` for every series s: (m, j, j) from (n, m, j) arrays.
+    """``Σₜ A[i, t, s] B[j, t, s]`` for every series s: (m, j, j) from (j, n, m) arrays.
 
-    The columns are few, so one elementwise product per pair beats a batched
-    matrix product of tiny matrices.
+    The columns are few, so one elementwise product per pair of contiguous
+    (n, m) slices beats a batched matrix product of tiny matrices.
     """
-    n_c = A.shape[2]
-    out = np.empty((A.shape[1], n_c, n_c))
+    n_c = A.shape[0]
+    out = np.empty((A.shape[2], n_c, n_c))
     for i in range(n_c):
         for j in range(n_c):
-            out[:, i, j] = np.einsum("nm,nm->m", A[:, :, i], B[:, :, j])
+            out[:, i, j] = np.einsum("nm,nm->m", A[i], B[j])
     return out
 
 
@@ -300,29 +300,35 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     everyone = np.arange(m)
     V = event_values(theta_in, everyone)
     P = projections(V, everyone)
-    Xt = np.empty((n, m, len(term)))
-    Xt[:, :, js] = xs[:, None, :]
-    Xt[:, :, jc] = 0.0
-    for k, j in enumerate(jc):
-        Xt[U, :, j] = V[:, :, k].T
     bt = np.stack([params[idx[c]] for c in term], axis=1)  # (m, j)
     # the shared columns' coefficients, once, from each series' final pass
     ba = np.linalg.solve(Ra, qy - np.einsum("mjk,mj->km", P, bt))
     for j, c in enumerate(base):
         params[idx[c]] = ba[j]
-    resid = Y - A @ ba - (Xt * bt[None, :, :]).sum(axis=2)
-    Xp = Xt - (Qa @ P.transpose(2, 0, 1).reshape(Qa.shape[1], -1)).reshape(n, m, len(term))
+    # an event column is zero off the rows U, so its part of the residual is added there only
+    resid = Y - A @ ba - xs @ bt[:, js].T
+    resid[U] -= np.einsum("muc,mc->um", V, bt[:, jc])
+    # each term column with the shared columns projected out, one contiguous (n, m) array per
+    # term: the HAC "meat" of the projected columns equals the meat of the full design's
+    # (XᵀX)⁻¹Xᵀ rows once multiplied by the inverse of their Gram matrix on both sides
+    Xp = np.empty((len(term), n, m))
+    for b, j in enumerate(js):
+        Xp[j] = (xs[:, b] - Qa @ ps[:, b])[:, None]
+    for k, j in enumerate(jc):
+        Xp[j] = -(Qa @ P[:, j, :].T)
+        Xp[j, U] += V[:, :, k].T
     G = _pair_sums(Xp, Xp)
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
-    Z = spd_solve(G, Xp.transpose(1, 2, 0)).transpose(2, 0, 1)  # (n, m, j)
-    Vz = Z * resid[:, :, None]
+    Ginv = spd_solve(G, np.broadcast_to(np.eye(len(term)), G.shape).copy())
+    Vx = Xp * resid[None, :, :]
     w = bartlett_weights(lags)
-    W = 0.5 * Vz
+    W = 0.5 * Vx
     for lag in range(1, min(lags, n - 1) + 1):
-        W[lag:] += w[lag] * Vz[:-lag]
-    Acov = _pair_sums(Vz, W)
-    cov = Acov + Acov.transpose(0, 2, 1)
+        W[:, lag:] += w[lag] * Vx[:, :-lag]
+    meat = _pair_sums(Vx, W)
+    meat += meat.transpose(0, 2, 1)
+    cov = Ginv @ meat @ Ginv
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
     order = [term.index(c) for c in group.term_cols]
     return Refined(params, resid, sigma2, se[order], theta_in, passes)

@@ -18,6 +18,7 @@ linear interpolation numpy uses), not at all 2,000 draws.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -86,6 +87,24 @@ class SpanContext:
     days: np.ndarray
     in_fit: np.ndarray
     occs: list[_Occ]
+    # the arrays every block of the span reads, taken out of the frames once
+    columns: dict[str, np.ndarray] = field(default_factory=dict)  # raw design column -> (n,)
+    closure_matrix: np.ndarray | None = None  # (n, closures): each closure's share of the period
+    _base: dict[tuple[str, ...], np.ndarray] = field(default_factory=dict, repr=False)
+
+    def __post_init__(self) -> None:
+        if not self.columns:
+            self.columns = {c: self.raw[c].to_numpy(dtype=float) for c in self.raw.columns}
+        if self.closure_matrix is None:
+            self.closure_matrix = self.closures.reindex(self.periods).fillna(0.0).to_numpy(dtype=float)
+
+    def base_matrix(self, cols: list[str]) -> np.ndarray:
+        """The (n, len(cols)) block of the design's trend and seasonal columns (kept for later blocks)."""
+        key = tuple(cols)
+        if key not in self._base:
+            self._base[key] = np.column_stack([self.columns[c] for c in cols]) if cols \
+                else np.zeros((len(self.periods), 0))
+        return self._base[key]
 
     @classmethod
     def build(cls, raw: pd.DataFrame, share: np.ndarray, calendar: Any, periods: pd.PeriodIndex,
@@ -224,15 +243,14 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     curved = curved or {}
     pmap = {c: params[i] for i, c in enumerate(group.fitted_cols)}
     se_map = {c: se[i] for i, c in enumerate(group.term_cols)}
-    X = ctx.raw
     coefs = _coefficients(group, pmap, m)
-    base_cols = [c for c in group.base_columns if c in X.columns]
-    Xb = X[base_cols].to_numpy()
+    base_cols = [c for c in group.base_columns if c in ctx.columns]
+    Xb = ctx.base_matrix(base_cols)
     Bb = np.vstack([pmap.get(c, np.zeros(m)) for c in base_cols]) if base_cols else np.zeros((0, m))
     eta_base = Bb.T @ Xb.T  # (m, n)
-    terms = [c for c in coefs if c in X.columns]
+    terms = [c for c in coefs if c in ctx.columns]
     share = ctx.share[None, :]
-    xcol = {c: curved[c] if c in curved else X[c].to_numpy(dtype=float)[None, :] for c in terms}
+    xcol = {c: curved[c] if c in curved else ctx.columns[c][None, :] for c in terms}
     tmat = {c: coefs[c][:, None] * xcol[c] for c in terms}
     if group.transform == "none":
         # an assumed lift is a fraction of base, not a number of units (as decompose has it)
@@ -252,13 +270,15 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         gap = (with_events - base) * share
         big = np.abs(total) > 1e-12
         ratio = gap / np.where(big, total, 1.0)
-        base_share = base * share
+        # each term's part of the gap: its share of the summed log-effect, or (where the
+        # effects are all zero) its own first-order size
+        factor = np.where(big, ratio, base * share)
         for c in terms:
-            parts[c] = np.where(big, ratio * tmat[c], base_share * tmat[c])
+            parts[c] = factor * tmat[c]
     fitted = with_events * share
     if len(ctx.closures.columns):
         lost = base * (share - 1.0)
-        cl = ctx.closures.reindex(ctx.periods).fillna(0.0).to_numpy()
+        cl = ctx.closure_matrix
         tot = cl.sum(axis=1)
         safe_tot = np.where(tot > 0, tot, 1.0)
         for j, c in enumerate(ctx.closures.columns):
@@ -324,6 +344,17 @@ def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
     return b - diff * (1 - t) if t >= 0.5 else a + diff * t
 
 
+def _sorted_draws() -> np.ndarray:
+    """The single-series table's standard normal draws (fixed seed), sorted; made once."""
+    global _Z_SORTED
+    if _Z_SORTED is None:
+        _Z_SORTED = np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
+    return _Z_SORTED
+
+
+_Z_SORTED: np.ndarray | None = None
+
+
 def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
                  pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], sids: np.ndarray,
                  curved: dict[str, np.ndarray]) -> pd.DataFrame:
@@ -331,7 +362,7 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
     cols_out = OCC_COLUMNS + ["low_units", "high_units"]
     if not ctx.occs:
         return pd.DataFrame({"_sid": np.zeros(0, dtype=int), **{c: [] for c in cols_out}})
-    z_sorted = np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
+    z_sorted = _sorted_draws()
     share = ctx.share
     n_occ = len(ctx.occs)
     added = np.empty((m, n_occ))
@@ -343,7 +374,7 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
         contrib = sum(parts[c][:, sl] for c in o.cols)
         frac, xs = o.frac, o.xs
         if not o.zero and any(c in curved for c in o.cols):
-            x_sum = sum(curved[c][:, sl] if c in curved else ctx.raw[c].to_numpy()[sl][None, :]
+            x_sum = sum(curved[c][:, sl] if c in curved else ctx.columns[c][sl][None, :]
                         for c in o.cols)
             frac, xs = _window_share(x_sum, ctx.days[sl], o.own)
         add = (contrib * frac).sum(axis=1)
@@ -380,9 +411,15 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
 
 def _tiled_text(values: list[Any], m: int) -> pd.Categorical:
     """``values`` repeated for m series, as a categorical (one copy of each text)."""
-    cats = list(dict.fromkeys(values))
+    cats = tuple(dict.fromkeys(values))
     codes = np.array([cats.index(v) for v in values], dtype=np.int32)
-    return pd.Categorical.from_codes(np.tile(codes, m), categories=pd.Index(cats, dtype=object))
+    # the codes are made here, in range by construction: no need to check them again
+    return pd.Categorical.from_codes(np.tile(codes, m), dtype=_text_dtype(cats), validate=False)
+
+
+@functools.lru_cache(maxsize=256)
+def _text_dtype(cats: tuple[Any, ...]) -> pd.CategoricalDtype:
+    return pd.CategoricalDtype(pd.Index(list(cats), dtype=object))
 
 
 def _pct(b: np.ndarray, transform: str, scale: np.ndarray | float) -> np.ndarray:
@@ -412,7 +449,7 @@ def _lifts(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], bas
         info = group.event_info.get(col, {})
         scale: np.ndarray | float = 1.0
         if group.transform == "none" and col in ctx.raw.columns:
-            active = ctx.raw[col].to_numpy() > 0
+            active = ctx.columns[col] > 0
             scale = base[:, active].mean(axis=1) if active.any() else nan
         lift = low = high = nan
         if st.status in ("fitted", "like"):

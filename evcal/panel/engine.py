@@ -87,9 +87,9 @@ class Template:
             self._curve = CurvedEvents(self.calendar, list(spec.event_columns), self.periods)
         return self._curve
 
-    def origin(self, first: int) -> float:
-        """Trend origin of a series whose history starts at period ``first`` (as prepare sets it)."""
-        return float(np.floor(self.mid_years[first]))
+    def origins(self, first: np.ndarray) -> np.ndarray:
+        """Trend origins of series whose histories start at periods ``first`` (as prepare sets them)."""
+        return np.floor(self.mid_years[np.asarray(first, dtype=int)]).astype(float)
 
     def with_origin(self, frame: pd.DataFrame, origin: float) -> pd.DataFrame:
         spec = self.inp.spec
@@ -157,6 +157,12 @@ def _group_info(template: Template, calendar: Any, observed: np.ndarray, origin:
         elif st.status == "no_history":
             notes.append(f"{c}: no occurrence in the history; listed, not fitted")
     return info, rows, Xf, notes
+
+
+def _distinct_spans(spans: np.ndarray, n_periods: int) -> list[tuple[int, int]]:
+    """The distinct (first, last) rows of ``spans``, in sorted order."""
+    code = np.unique(spans[:, 0].astype(np.int64) * (n_periods + 1) + spans[:, 1])
+    return [(int(c // (n_periods + 1)), int(c % (n_periods + 1))) for c in code]
 
 
 def _pattern_ids(obs: np.ndarray, keys: list[np.ndarray]) -> np.ndarray:
@@ -402,7 +408,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[A
         obs = ~np.isnan(panel.values[:, pos])
         tr_code = np.where(screen.transform[pos] == "log", 0, 1)
         t0 = template(str(screen.transform[pos[0]]))
-        origins = np.array([t0.origin(int(f)) for f in panel.first[pos]])
+        origins = t0.origins(panel.first[pos])
         gid_local = _pattern_ids(obs, [tr_code, origins.astype(np.int64)])
         for gl in range(int(gid_local.max()) + 1):
             members = pos[gid_local == gl]
@@ -424,7 +430,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[A
             share_all = tpl.inp.design.open_share.to_numpy()
             spans = np.column_stack([panel.first[members], panel.last[members]])
             contexts: dict[tuple[int, int], SpanContext] = {}
-            for f, last in {tuple(s) for s in spans.tolist()}:
+            for f, last in _distinct_spans(spans, len(panel.periods)):
                 sl = slice(f, last + 1)
                 periods = panel.periods[sl]
                 contexts[(f, last)] = SpanContext.build(raw.iloc[sl], share_all[sl], calendar, periods,

@@ -95,17 +95,20 @@ def screen_series(values: np.ndarray, periods: pd.PeriodIndex, freq: str, transf
     n_series = values.shape[1]
     scr = Screen(np.full(n_series, "", dtype=object), np.full(n_series, "", dtype=object),
                  np.full(n_series, "", dtype=object))
+    # every test below is one pass over the (periods × series) matrix: comparisons with NaN are
+    # False, so the empty cells drop out without a filled copy of the matrix
     obs = ~np.isnan(values)
     n_obs = obs.sum(axis=0)
     scr.skip(n_obs == 0, "no values", "every value is empty")
 
-    neg = obs & (np.nan_to_num(values, nan=0.0) < 0)
+    neg = values < 0
     has_neg = neg.any(axis=0)
     if not allow_negative and has_neg.any():
         cols = np.flatnonzero(has_neg)
         scr.skip(cols, "negative values",
                  [f"{t}; sales and demand cannot be below zero: fix the values, or pass --allow-negative "
                   "if negatives are real" for t in _first_where(neg, values, periods, cols)])
+    del neg
 
     need = 2 * cycle_length(freq)
     short = (n_obs > 0) & (n_obs < need)
@@ -113,20 +116,23 @@ def screen_series(values: np.ndarray, periods: pd.PeriodIndex, freq: str, transf
              [f"{k} periods with values; at least {need} (two seasonal cycles of {need // 2}) are needed"
               for k in n_obs[short]])
 
-    filled = np.where(obs, values, 0.0)
-    all_zero = (n_obs > 0) & ~(obs & (filled != 0)).any(axis=0)
-    scr.skip(all_zero, "all zeros", "every value is 0; there is nothing to fit")
     with np.errstate(invalid="ignore"):
-        vmax = np.nanmax(np.where(obs, values, -np.inf), axis=0)
-        vmin = np.nanmin(np.where(obs, values, np.inf), axis=0)
+        vmax = np.fmax.reduce(values, axis=0)  # fmax/fmin skip NaN (NaN only where a series is empty)
+        vmin = np.fmin.reduce(values, axis=0)
+    all_zero = (n_obs > 0) & (vmax == 0) & (vmin == 0)
+    scr.skip(all_zero, "all zeros", "every value is 0; there is nothing to fit")
     constant = (n_obs > 0) & (vmax == vmin)
     scr.skip(constant, "constant",
              [f"every value is {v:g}; no season or event can be estimated from it" for v in vmax[constant]])
 
     open_rows = np.ones(len(periods), dtype=bool) if closed_full is None else ~closed_full
-    open_obs = obs & open_rows[:, None]
-    nonpos_open = (open_obs & (filled <= 0)).any(axis=0)
-    whole = ~(obs & (filled != np.round(filled))).any(axis=0)
+    nonpos_open = vmin <= 0 if open_rows.all() else (values[open_rows] <= 0).any(axis=0)
+    # whole numbers matter only for the series with zeros (the count model); test those alone
+    whole = np.ones(n_series, dtype=bool)
+    zero_cols = np.flatnonzero(nonpos_open)
+    if len(zero_cols):
+        sub = values[:, zero_cols]
+        whole[zero_cols] = ~(np.mod(sub, 1.0) > 0).any(axis=0)  # NaN % 1 is NaN: not > 0
     if allow_negative and has_neg.any() and transform in ("log", "count"):
         cols = np.flatnonzero(has_neg)
         scr.skip(cols, "negative values", f"--transform {transform} needs values >= 0; use --transform none")
@@ -139,7 +145,7 @@ def screen_series(values: np.ndarray, periods: pd.PeriodIndex, freq: str, transf
         if allow_negative:
             chosen[has_neg] = "none"
         if transform == "log" and nonpos_open.any():
-            zero_open = open_obs & (filled <= 0)
+            zero_open = obs & open_rows[:, None] & (values <= 0)
             cols = np.flatnonzero(nonpos_open)
             scr.skip(cols, "zeros with --transform log",
                      [f"{t}; a log model needs positive values: use --transform count (or auto) for "

@@ -337,6 +337,39 @@ def test_monthly_series_dated_on_first_or_last_day_are_one_frequency():
     assert panel.freq == "M" and panel.values.shape == (30, 2) and not np.isnan(panel.values).any()
 
 
+def test_frequency_classes_from_sorted_rows_equal_the_presence_matrix():
+    # Two implementations of one rule (the shortest gap between a series' dates and its weekdays):
+    # the one-pass path for rows sorted by series and date, the matrix path for any order.
+    from evcal.panel.longformat import series_frequencies
+
+    rng = np.random.default_rng(3)
+    weekly = pd.date_range("2021-01-03", periods=60, freq="W-SUN")
+    wed = pd.date_range("2021-01-06", periods=60, freq="W-WED")
+    daily = pd.date_range("2021-01-01", periods=60, freq="D")
+    monthly = pd.date_range("2021-01-31", periods=30, freq="ME")
+    quarterly = pd.date_range("2021-03-31", periods=12, freq="QE")
+    stamps = pd.DatetimeIndex(sorted(set(weekly) | set(wed) | set(daily) | set(monthly) | set(quarterly)))
+    pos = {d: i for i, d in enumerate(stamps)}
+    rows = []  # (series, date code): gaps, a lone date, a repeated row, every frequency
+    for j, dates in enumerate([weekly, weekly[::3], wed, daily, monthly, quarterly, weekly[:1],
+                               weekly.append(weekly[5:6]), daily[::2]]):
+        keep = sorted(set(rng.choice(len(dates), size=max(1, len(dates) - 5), replace=False)))
+        rows += [(j, pos[dates[k]]) for k in keep]
+        if j == 7:
+            rows.append((j, pos[weekly[5]]))
+    rows.sort()
+    sid = np.array([r[0] for r in rows], dtype=np.int32)
+    dcode = np.array([r[1] for r in rows], dtype=np.int64)
+    sorted_classes = series_frequencies(stamps, dcode, sid, 9)
+    shuffle = rng.permutation(len(rows))
+    matrix_classes = series_frequencies(stamps, dcode[shuffle], sid[shuffle], 9)
+    assert sorted_classes == matrix_classes
+    backwards = np.argsort(-sid, kind="stable")  # each series' rows together, series in reverse order
+    assert series_frequencies(stamps, dcode[backwards], sid[backwards], 9) == sorted_classes
+    assert sorted_classes[0] == "W-SUN" and sorted_classes[2] == "W-WED" and sorted_classes[3] == "D"
+    assert sorted_classes[4] == "M" and sorted_classes[5] == "Q-DEC" and sorted_classes[6] == ""
+
+
 @pytest.mark.parametrize("freq", ["W-SUN", "M"])
 def test_curved_event_columns_equal_the_design_block(cal, freq):
     # Reference: evcal.design.events.EventColumns, the single-series fit's own columns for a θ.

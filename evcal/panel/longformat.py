@@ -388,10 +388,14 @@ def _factorize_sorted(col: pd.Series) -> tuple[np.ndarray, Any]:
         rank = np.empty(len(cats), dtype=np.int64)
         rank[order] = np.arange(len(cats))
         codes = col.cat.codes.to_numpy()
-        rank = rank.astype(np.int32)
-        cc = np.where(codes >= 0, rank[np.maximum(codes, 0)], np.int32(-1))
-        used = np.zeros(len(cats), dtype=bool)
-        used[cc[cc >= 0]] = True  # drop categories no row uses
+        missing = bool(len(codes)) and int(codes.min()) < 0
+        if not (order == np.arange(len(cats))).all():  # a file's dictionary is often sorted already
+            rank = rank.astype(np.int32)
+            codes = np.where(codes >= 0, rank[np.maximum(codes, 0)], np.int32(-1)) if missing \
+                else rank[codes]
+        cc = codes
+        # drop categories no row uses
+        used = np.bincount(cc[cc >= 0] if missing else cc, minlength=len(cats)) > 0
         if not used.all():
             remap = np.cumsum(used) - 1
             cc = np.where(cc >= 0, remap[np.maximum(cc, 0)], -1)
@@ -466,6 +470,9 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
     computed for all series at once on the ``dates × series`` presence matrix.
     """
     n_u = len(u_stamps)
+    fast = _frequencies_of_sorted_rows(u_stamps, dcode, sid, n_series)
+    if fast is not None:
+        return fast
     if n_series > SERIES_CHUNK:  # bound the dates x series matrices
         order = np.argsort(sid, kind="stable")
         bounds = np.searchsorted(sid[order], np.arange(0, n_series + SERIES_CHUNK, SERIES_CHUNK))
@@ -476,7 +483,7 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
         return out
     present = np.zeros((n_u, n_series), dtype=bool)
     present[dcode, sid] = True
-    day = (u_stamps.asi8 // NS_PER_DAY).astype(np.int64)
+    day = _day_numbers(u_stamps)
     prev = np.where(present, day[:, None], np.iinfo(np.int64).min // 2)
     prev = np.maximum.accumulate(prev, axis=0)
     gap = np.full((n_u, n_series), np.iinfo(np.int64).max)
@@ -491,6 +498,48 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
         has = present[wd == w].any(axis=0)
         wd_first = np.where(has & (n_weekdays == 0), w, wd_first)
         n_weekdays += has
+    return _frequency_classes(min_gap, n_weekdays, wd_first)
+
+
+def _frequencies_of_sorted_rows(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray,
+                                n_series: int) -> list[str] | None:
+    """:func:`series_frequencies` when each series' rows are together and in date order (as in most
+    long files); None otherwise.
+
+    One pass over the rows: each row's gap to the row before it in the same
+    series, the smallest per series (a repeated row, gap 0, is not a gap: the
+    duplicate check reports it later).
+    """
+    if len(sid) < 2:
+        return None
+    new_series = sid[1:] != sid[:-1]
+    starts = np.flatnonzero(np.r_[True, new_series])
+    if len(starts) != n_series:  # some series' rows are not together
+        return None
+    big = np.iinfo(np.int64).max
+    day = _day_numbers(u_stamps)[dcode]
+    gap = np.empty(len(day), dtype=np.int64)
+    gap[0] = big
+    gap[1:] = np.diff(day)
+    if (gap[1:][~new_series] < 0).any():  # dates out of order inside a series
+        return None
+    gap[1:][new_series | (gap[1:] == 0)] = big
+    min_gap = np.full(n_series, big, dtype=np.int64)
+    min_gap[sid[starts]] = np.minimum.reduceat(gap, starts)
+    wd = u_stamps.day_of_week.to_numpy().astype(np.int64)
+    has = np.zeros((n_series, 7), dtype=bool)
+    has.reshape(-1)[sid.astype(np.int64) * 7 + wd[dcode]] = True
+    return _frequency_classes(min_gap, has.sum(axis=1), np.argmax(has, axis=1))
+
+
+def _day_numbers(stamps: pd.DatetimeIndex) -> np.ndarray:
+    """Days since 1970 whatever the index's resolution (pandas may hold dates in s, ms, us or ns)."""
+    return stamps.to_numpy().astype("datetime64[D]").astype(np.int64)
+
+
+def _frequency_classes(min_gap: np.ndarray, n_weekdays: np.ndarray, wd_first: np.ndarray) -> list[str]:
+    """The class of each series from its smallest gap in days and the weekdays it falls on."""
+    n_series = len(min_gap)
     weekly = np.array([weekly_freq(w) for w in range(7)], dtype=object)
     out = np.full(n_series, "", dtype=object)
     out[(min_gap % 7 == 0) & (min_gap <= 21) & (n_weekdays == 1)] = \

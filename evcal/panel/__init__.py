@@ -84,9 +84,10 @@ def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col
          level: Any, group_col: str | None, opts: Any, runner: Any, out: str | Path | None) -> PanelResult:
     from evcal.panel.build import build_result, read_for_panel
     from evcal.panel.engine import fit_long_panel
+    from evcal.panel.memory import release_freed_memory
 
     panel, keys, levels = read_for_panel(history, series_cols, date_col, value_col, freq, level, group_col)
-    _release_arrow_memory()
+    release_freed_memory(arrow=True)
     if out is None:
         fitted = fit_long_panel(panel, calendar, opts, runner=runner)
         return build_result(fitted, keys, levels, group_col, date_col, value_col, None)
@@ -105,23 +106,6 @@ def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col
         result.write_into(tmp)
     result.fitted_path = out / "fitted.parquet"
     return result
-
-
-def _release_arrow_memory() -> None:
-    """Hand the file buffers pyarrow has freed back to the system (its pool keeps them otherwise)."""
-    try:
-        import pyarrow as pa
-
-        pa.default_memory_pool().release_unused()
-    except (ImportError, AttributeError):
-        pass
-    # glibc keeps freed heap pages after large temporary arrays; hand them back (Linux only)
-    try:
-        import ctypes
-
-        ctypes.CDLL("libc.so.6").malloc_trim(0)
-    except (OSError, AttributeError):
-        pass
 
 
 def plan_panel(model: Any, start: Any, end: Any, series: list[str] | None = None, **kwargs: Any) -> Any:

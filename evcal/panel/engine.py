@@ -33,6 +33,7 @@ from evcal.fit.options import FitOptions
 from evcal.io.history import History
 from evcal.panel.batched import SharedSolve
 from evcal.panel.longformat import Panel
+from evcal.panel.memory import release_freed_memory
 from evcal.panel.skipped import Screen, screen_series
 from evcal.panel.tables import BlockTables, GroupInfo, SpanContext, block_tables
 
@@ -42,6 +43,9 @@ __all__ = ["PanelFit", "fit_long_panel", "BLOCK_SERIES", "LOOP_SERIES"]
 BLOCK_SERIES = 500
 #: series per unit of the per-series path
 LOOP_SERIES = 16
+#: freed memory goes back to the system after this many units (each release costs the page
+#: faults of refilling it; never releasing lets the heap of two threads grow by a third)
+TRIM_EVERY = 4
 
 
 # ---------------------------------------------------------------- shared model inputs
@@ -490,6 +494,8 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
                 done.tables.fitted = []
             results.append(done)
             next_index += 1
+            if next_index % TRIM_EVERY == 0:  # the units' temporaries, before more are made
+                release_freed_memory()
     for r in results:
         if len(r.skipped):
             screen.skip(r.skipped["_sid"].to_numpy(dtype=int), "fit failed", r.skipped["detail"].to_numpy())

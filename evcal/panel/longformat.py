@@ -192,7 +192,8 @@ def _load_parquet(path: Path, series_cols: list[str], date_col: str, value_col: 
     try:
         # key columns as dictionaries: each distinct key is decoded once, rows carry integer codes
         table = pq.read_table(path, columns=list(dict.fromkeys(wanted)), read_dictionary=keys)
-        frame = table.to_pandas()
+        # each column is freed as soon as it is converted: the table and the frame are not both held
+        frame = table.to_pandas(split_blocks=True, self_destruct=True)
         del table
         import pyarrow as pa
 

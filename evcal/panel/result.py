@@ -71,11 +71,11 @@ def keyed(frame: pd.DataFrame, keys: pd.DataFrame, key_codes: dict[str, tuple[np
     for c in keys.columns:
         codes, cats = key_codes[c]
         cols[c] = pd.Categorical.from_codes(codes[sid], categories=cats) if len(cats) else keys[c].iloc[sid]
-    rest = frame.drop(columns=["_sid"])
-    out = pd.DataFrame(cols)
-    for c in rest.columns:
-        out[c] = rest[c].to_numpy() if not isinstance(rest[c].dtype, pd.CategoricalDtype) else rest[c].array
-    return out
+    for c in frame.columns:
+        if c != "_sid":  # one frame built at once: adding columns one by one copies the block each time
+            col = frame[c]
+            cols[c] = col.array if isinstance(col.dtype, pd.CategoricalDtype) else col.to_numpy()
+    return pd.DataFrame(cols)
 
 
 def key_codes_of(keys: pd.DataFrame) -> dict[str, tuple[np.ndarray, Any]]:

@@ -48,6 +48,7 @@ class CurvedEvents:
     def __init__(self, calendar: Any, names: list[str], periods: pd.PeriodIndex) -> None:
         self.periods = periods
         self.basis: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+        self.touched: dict[str, np.ndarray] = {}  # periods that hold some of the event's days
         colmap = calendar.event_columns()
         wanted = sorted({colmap[c] for c in names if c in colmap})
         if not wanted:
@@ -71,6 +72,7 @@ class CurvedEvents:
             counts = np.zeros((len(periods), len(vals)))
             np.add.at(counts, (codes[nz], inv), 1.0)
             self.basis[n] = (vals, counts / days[:, None])
+            self.touched[n] = np.flatnonzero(counts.any(axis=1))
 
     def column(self, name: str, theta: np.ndarray, at: np.ndarray | None = None) -> np.ndarray:
         """Column ``name`` for each θ: shape (len(theta), periods); zeros if the calendar has none.
@@ -84,13 +86,18 @@ class CurvedEvents:
         vals, share = self.basis[name]
         if at is not None:
             share = share[at]
+        # periods with none of the event's days are zero for every θ: compute the others only
+        touched = np.flatnonzero(share.any(axis=1)) if at is not None else self.touched[name]
+        share = share[touched]
+        out = np.zeros((len(theta), n_out))
         linear = share @ vals
-        out = np.broadcast_to(linear, (len(theta), n_out)).copy()
+        sub = np.broadcast_to(linear, (len(theta), len(touched))).copy()
         bent = np.abs(theta) > 1e-9
         if bent.any():
             t = theta[bent]
             mean = np.expm1(t[:, None] * vals[None, :]) @ share.T
-            out[bent] = np.log1p(np.clip(mean, -0.999999, None)) / t[:, None]
+            sub[bent] = np.log1p(np.clip(mean, -0.999999, None)) / t[:, None]
+        out[:, touched] = sub
         return out
 
 
@@ -232,15 +239,18 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     ss = xs.T @ xs
     sy = xs.T @ Y
     xs_u = xs[U]
+    YUt = np.ascontiguousarray(YU.T)  # (m, |U|): a series' touched rows side by side
+    qyt = np.ascontiguousarray(qy.T)
 
+    # series-major layouts throughout, so the per-series products are batched matrix products
     def event_values(th: dict[str, np.ndarray], sel: np.ndarray) -> np.ndarray:
-        """(ms, |U|, n_curved): each series' event columns on the touched rows."""
-        out = np.empty((len(sel), len(U), len(curved_cols)))
+        """(ms, n_curved, |U|): each series' event columns on the touched rows."""
+        out = np.empty((len(sel), len(curved_cols), len(U)))
         for k, c in enumerate(curved_cols):
             col = curve.column(c, th[c][sel], at=at)
             for extra in like_into.get(c, []):
                 col = col + curve.column(extra, th[c][sel], at=at)
-            out[:, :, k] = col
+            out[:, k, :] = col
         return out
 
     def projections(V: np.ndarray, sel: np.ndarray) -> np.ndarray:
@@ -248,7 +258,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         ms = len(sel)
         P = np.empty((ms, len(term), Qa.shape[1]))
         P[:, js, :] = ps.T[None, :, :]
-        P[:, jc, :] = (V.transpose(0, 2, 1).reshape(ms * len(jc), len(U)) @ QU).reshape(ms, len(jc), -1)
+        P[:, jc, :] = (V.reshape(ms * len(jc), len(U)) @ QU).reshape(ms, len(jc), -1)
         return P
 
     def solve(th: dict[str, np.ndarray], sel: np.ndarray) -> np.ndarray:
@@ -257,8 +267,8 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         P = projections(V, sel)
         ms = len(sel)
         # Gram matrix of the term columns, block by block, minus the projected part
-        cc = np.einsum("muc,mud->mcd", V, V)
-        cs = np.einsum("muc,us->mcs", V, xs_u)
+        cc = V @ V.transpose(0, 2, 1)
+        cs = V @ xs_u
         G = np.empty((ms, len(term), len(term)))
         for a, i in enumerate(jc):
             for b, j in enumerate(jc):
@@ -270,9 +280,9 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
                 G[:, i, j] = ss[a, b]
         G -= np.einsum("mik,mjk->mij", P, P)
         rhs = np.empty((ms, len(term)))
-        rhs[:, jc] = np.einsum("muc,um->mc", V, YU[:, sel])
+        rhs[:, jc] = (V @ YUt[sel][:, :, None])[:, :, 0]
         rhs[:, js] = sy[:, sel].T
-        rhs -= np.einsum("mjk,km->mj", P, qy[:, sel])
+        rhs -= (P @ qyt[sel][:, :, None])[:, :, 0]
         return spd_solve(G, rhs[:, :, None])[:, :, 0]
 
     params = B0.copy()
@@ -307,7 +317,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         params[idx[c]] = ba[j]
     # an event column is zero off the rows U, so its part of the residual is added there only
     resid = Y - A @ ba - xs @ bt[:, js].T
-    resid[U] -= np.einsum("muc,mc->um", V, bt[:, jc])
+    resid[U] -= np.einsum("mcu,mc->um", V, bt[:, jc])
     # each term column with the shared columns projected out, one contiguous (n, m) array per
     # term: the HAC "meat" of the projected columns equals the meat of the full design's
     # (XᵀX)⁻¹Xᵀ rows once multiplied by the inverse of their Gram matrix on both sides
@@ -316,7 +326,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         Xp[j] = (xs[:, b] - Qa @ ps[:, b])[:, None]
     for k, j in enumerate(jc):
         Xp[j] = -(Qa @ P[:, j, :].T)
-        Xp[j, U] += V[:, :, k].T
+        Xp[j, U] += V[:, k, :].T
     G = _pair_sums(Xp, Xp)
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
@@ -324,8 +334,10 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     Vx = Xp * resid[None, :, :]
     w = bartlett_weights(lags)
     W = 0.5 * Vx
+    lagged = np.empty_like(Vx)
     for lag in range(1, min(lags, n - 1) + 1):
-        W[:, lag:] += w[lag] * Vx[:, :-lag]
+        np.multiply(Vx[:, :-lag], w[lag], out=lagged[:, lag:])
+        W[:, lag:] += lagged[:, lag:]
     meat = _pair_sums(Vx, W)
     meat += meat.transpose(0, 2, 1)
     cov = Ginv @ meat @ Ginv

@@ -35,7 +35,16 @@ from evcal.panel.batched import SharedSolve
 from evcal.panel.longformat import Panel
 from evcal.panel.memory import release_freed_memory
 from evcal.panel.skipped import Screen, screen_series
-from evcal.panel.tables import BlockTables, GroupInfo, SpanContext, block_tables
+from evcal.panel.tables import (
+    BlockTables,
+    Columns,
+    GroupInfo,
+    SpanContext,
+    block_tables,
+    join_columns,
+    join_tables,
+    text_dtype,
+)
 
 __all__ = ["PanelFit", "fit_long_panel", "BLOCK_SERIES", "LOOP_SERIES"]
 
@@ -280,14 +289,33 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         curved = {c: v[pick, f:last + 1] for c, v in curved_all.items()}
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
                                   unit.actual[pick, f:last + 1], unit.sids[pick], curved))
-    tables = _concat_tables(parts)
-    series = pd.DataFrame({"_sid": unit.sids, "engine": "batched", "group": g.gid,
-                           "transform": g.transform, "method": "ols", "sigma2": sigma2, "smear": smear,
-                           "hac_lags": g.solve.lags, "trend_origin": g.origin, "note": "; ".join(g.notes)})
-    params = pd.DataFrame(B.T, columns=g.info.fitted_cols)
-    params.insert(0, "_sid", unit.sids)
+    tables = _join_blocks(parts)
+    m = len(unit.sids)
+
+    def text(value: str) -> pd.Categorical:
+        return pd.Categorical.from_codes(np.zeros(m, dtype=np.int8), dtype=text_dtype((value,)),
+                                         validate=False)
+
+    series = Columns({"_sid": unit.sids, "engine": text("batched"), "group": np.full(m, g.gid),
+                      "transform": text(g.transform), "method": text("ols"), "sigma2": sigma2, "smear": smear,
+                      "hac_lags": np.full(m, g.solve.lags), "trend_origin": np.full(m, g.origin),
+                      "note": text("; ".join(g.notes))})
+    params = Columns({"_sid": unit.sids, **{c: B[i] for i, c in enumerate(g.info.fitted_cols)}})
     empty = pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
     return UnitResult(unit.index, tables, series, params, empty)
+
+
+def _join_blocks(parts: list[BlockTables]) -> BlockTables:
+    """A unit's tables from its spans' blocks, kept as columns (one frame is made at the end)."""
+    if len(parts) == 1:
+        return parts[0]
+
+    def cat(name: str) -> Any:
+        joined = join_columns([getattr(p, name) for p in parts])
+        return joined if joined is not None else join_tables([getattr(p, name) for p in parts], _EMPTY[name])
+
+    return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), [f for p in parts for f in p.fitted],
+                       cat("quality"))
 
 
 _CAL_CACHE: dict[str, Any] = {}
@@ -353,8 +381,7 @@ _EMPTY = {  # the columns of each table when no series produced a row
 
 def _concat_tables(parts: list[BlockTables]) -> BlockTables:
     def cat(name: str) -> pd.DataFrame:
-        frames = [getattr(p, name) for p in parts if len(getattr(p, name))]
-        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=_EMPTY[name])
+        return join_tables([getattr(p, name) for p in parts], _EMPTY[name])
 
     fitted = [f for p in parts for f in p.fitted]
     return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), fitted, cat("quality"))
@@ -500,10 +527,8 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
         if len(r.skipped):
             screen.skip(r.skipped["_sid"].to_numpy(dtype=int), "fit failed", r.skipped["detail"].to_numpy())
     tables = _concat_tables([r.tables for r in results])
-    series = pd.concat([r.series for r in results if len(r.series)], ignore_index=True) \
-        if any(len(r.series) for r in results) else pd.DataFrame(columns=["_sid"])
-    params = pd.concat([r.params for r in results if len(r.params)], ignore_index=True) \
-        if any(len(r.params) for r in results) else pd.DataFrame(columns=["_sid"])
+    series = join_tables([r.series for r in results], ["_sid"])
+    params = join_tables([r.params for r in results], ["_sid"])
     skipped_pos = np.flatnonzero(~screen.ok)
     skipped = pd.DataFrame({"_sid": skipped_pos, "reason": screen.reason[skipped_pos],
                             "detail": screen.detail[skipped_pos]})

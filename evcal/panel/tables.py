@@ -30,7 +30,8 @@ from evcal.design.seasonal import AnnualFourier, SeasonalDummies, base_freq, cyc
 from evcal.effects.decompose import closure_shares
 from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS, Z95
 
-__all__ = ["SpanContext", "GroupInfo", "BlockTables", "block_tables"]
+__all__ = ["SpanContext", "GroupInfo", "BlockTables", "Columns", "block_tables", "join_columns",
+           "join_tables", "text_dtype"]
 
 N_DRAWS = 1000  # as evcal.effects.tables.occurrences_table
 OCC_SEED = 7
@@ -187,15 +188,64 @@ class FittedBlock:
         return pd.DataFrame(cols)
 
 
+class Columns(dict[str, Any]):
+    """A table as named columns of equal length (arrays or categoricals).
+
+    The blocks' tables are joined column by column and made into one frame at
+    the end: a frame per block and a ``pandas.concat`` of them cost more than
+    the numbers in them.
+    """
+
+    @property
+    def n_rows(self) -> int:
+        return len(next(iter(self.values()))) if self else 0
+
+    def frame(self) -> pd.DataFrame:
+        return pd.DataFrame(dict(self))
+
+
+def n_rows(table: pd.DataFrame | Columns) -> int:
+    return table.n_rows if isinstance(table, Columns) else len(table)
+
+
+def join_columns(parts: list[pd.DataFrame | Columns]) -> Columns | None:
+    """The blocks' tables joined column by column, in order; None unless all are alike ``Columns``."""
+    parts = [t for t in parts if n_rows(t)]
+    if not parts or not all(isinstance(t, Columns) for t in parts) or len({tuple(t) for t in parts}) > 1:
+        return None
+    if len(parts) == 1:
+        return parts[0]  # type: ignore[return-value]
+    out = Columns()
+    for c in parts[0]:
+        vals = [t[c] for t in parts]
+        if isinstance(vals[0], pd.Categorical):
+            if any(not isinstance(v, pd.Categorical) or v.dtype != vals[0].dtype for v in vals):
+                return None  # text with other categories: pandas joins those frames
+            out[c] = pd.Categorical.from_codes(np.concatenate([v.codes for v in vals]), dtype=vals[0].dtype,
+                                               validate=False)
+        else:
+            out[c] = np.concatenate([np.asarray(v) for v in vals])
+    return out
+
+
+def join_tables(parts: list[pd.DataFrame | Columns], columns: list[str]) -> pd.DataFrame:
+    """One frame from the blocks' tables, in order (``columns`` when there are no rows)."""
+    joined = join_columns(parts)
+    if joined is not None:
+        return joined.frame()
+    frames = [t.frame() if isinstance(t, Columns) else t for t in parts if n_rows(t)]
+    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=columns)
+
+
 @dataclass
 class BlockTables:
     """The tables of one block, long, with a ``_sid`` column (the series' position in the panel)."""
 
-    lifts: pd.DataFrame
-    occurrences: pd.DataFrame
-    profile: pd.DataFrame
+    lifts: pd.DataFrame | Columns
+    occurrences: pd.DataFrame | Columns
+    profile: pd.DataFrame | Columns
     fitted: list[FittedBlock | pd.DataFrame]
-    quality: pd.DataFrame  # _sid, periods_fitted, wape_pct, resid_sd, mean_base
+    quality: pd.DataFrame | Columns  # _sid, periods_fitted, wape_pct, resid_sd, mean_base
 
 
 def _coefficients(group: GroupInfo, params: dict[str, np.ndarray], m: int) -> dict[str, np.ndarray]:
@@ -306,8 +356,8 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         wape = np.where(n_ok > 0, 100 * abs_err / abs_act, np.nan)
         mu = np.where(ok, scale_resid, 0.0).sum(axis=1) / n_ok
         sd = np.sqrt(np.where(ok, (scale_resid - mu[:, None]) ** 2, 0.0).sum(axis=1) / n_ok)
-    quality = pd.DataFrame({"_sid": sids, "periods_fitted": n_ok.astype(int), "wape_pct": wape,
-                            "resid_sd": sd, "mean_base": mean_base})
+    quality = Columns({"_sid": sids, "periods_fitted": n_ok.astype(int), "wape_pct": wape,
+                       "resid_sd": sd, "mean_base": mean_base})
     return BlockTables(lifts, occ, profile, [fitted_block], quality)
 
 
@@ -357,11 +407,11 @@ _Z_SORTED: np.ndarray | None = None
 
 def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
                  pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], sids: np.ndarray,
-                 curved: dict[str, np.ndarray]) -> pd.DataFrame:
+                 curved: dict[str, np.ndarray]) -> Columns:
     m = len(sids)
     cols_out = OCC_COLUMNS + ["low_units", "high_units"]
     if not ctx.occs:
-        return pd.DataFrame({"_sid": np.zeros(0, dtype=int), **{c: [] for c in cols_out}})
+        return Columns({"_sid": np.zeros(0, dtype=int), **{c: np.zeros(0) for c in cols_out}})
     z_sorted = _sorted_draws()
     share = ctx.share
     n_occ = len(ctx.occs)
@@ -399,7 +449,7 @@ def _occurrences(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray
             xs_sum = np.abs(np.sum(xs, axis=-1))
             lo, hi = add - Z95 * s * xs_sum, add + Z95 * s * xs_sum
         low[:, i], high[:, i] = lo, hi
-    return pd.DataFrame({
+    return Columns({
         "_sid": np.repeat(sids, n_occ),
         "event": _tiled_text([o.event for o in ctx.occs], m),
         "start": _tiled_text([o.start for o in ctx.occs], m),
@@ -414,11 +464,11 @@ def _tiled_text(values: list[Any], m: int) -> pd.Categorical:
     cats = tuple(dict.fromkeys(values))
     codes = np.array([cats.index(v) for v in values], dtype=np.int32)
     # the codes are made here, in range by construction: no need to check them again
-    return pd.Categorical.from_codes(np.tile(codes, m), dtype=_text_dtype(cats), validate=False)
+    return pd.Categorical.from_codes(np.tile(codes, m), dtype=text_dtype(cats), validate=False)
 
 
 @functools.lru_cache(maxsize=256)
-def _text_dtype(cats: tuple[Any, ...]) -> pd.CategoricalDtype:
+def text_dtype(cats: tuple[Any, ...]) -> pd.CategoricalDtype:
     return pd.CategoricalDtype(pd.Index(list(cats), dtype=object))
 
 
@@ -430,14 +480,14 @@ def _pct(b: np.ndarray, transform: str, scale: np.ndarray | float) -> np.ndarray
 
 
 def _lifts(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
-           pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], occ: pd.DataFrame,
-           sids: np.ndarray) -> pd.DataFrame:
+           pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], occ: Columns,
+           sids: np.ndarray) -> Columns:
     """:func:`evcal.effects.tables.lifts_table` for m series: one row per series and column."""
     m = len(sids)
     nan = np.full(m, np.nan)
     n_occ = len(ctx.occs)
     occ_events = [o.event for o in ctx.occs]
-    added = occ["added_units"].to_numpy().reshape(m, n_occ) if n_occ else np.zeros((m, 0))
+    added = np.asarray(occ["added_units"]).reshape(m, n_occ) if n_occ else np.zeros((m, 0))
 
     def units_of(ev: str) -> np.ndarray:
         idx = [i for i, e in enumerate(occ_events) if e == ev]
@@ -489,11 +539,11 @@ def _lifts(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], bas
             out[c] = np.tile(np.array([row[c] for row in rows], dtype=bool), m)
         else:
             out[c] = _tiled_text([row[c] for row in rows], m)
-    return pd.DataFrame(out)
+    return Columns(out)
 
 
 def _profile(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarray,
-             sids: np.ndarray) -> pd.DataFrame:
+             sids: np.ndarray) -> Columns:
     """:func:`evcal.effects.tables.profile_table` for m series."""
     spec = group.spec
     m = len(sids)
@@ -510,5 +560,5 @@ def _profile(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarra
         e = np.exp(s - s.max(axis=0))
         idx = 100.0 * e / e.mean(axis=0)
     p = cycle_length(spec.freq)
-    return pd.DataFrame({"_sid": np.repeat(sids, p), "period": np.tile(np.arange(1, p + 1), m),
+    return Columns({"_sid": np.repeat(sids, p), "period": np.tile(np.arange(1, p + 1), m),
                          "index": idx[:p].T.ravel()})

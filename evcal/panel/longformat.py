@@ -349,8 +349,11 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     del cell
     has_row = counts.reshape(n_series, n_per).T > 0
     del counts
-    values = np.full((n_per, n_series), np.nan)
-    values[pcode, sid] = vals
+    # filled series by series (rows of one series are usually together: writes stay close), then
+    # seen as (periods × series)
+    values = np.full((n_series, n_per), np.nan)
+    values[sid, pcode] = vals
+    values = values.T
     first = np.argmax(has_row, axis=0)
     last = n_per - 1 - np.argmax(has_row[::-1], axis=0)
     return Panel(keys=key_frame, values=values, periods=periods, first=first, last=last, freq=used,
@@ -528,6 +531,8 @@ def _frequencies_of_sorted_rows(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, s
     min_gap = np.full(n_series, big, dtype=np.int64)
     min_gap[sid[starts]] = np.minimum.reduceat(gap, starts)
     wd = u_stamps.day_of_week.to_numpy().astype(np.int64)
+    if (wd == wd[0]).all():  # every date on one weekday (weekly data): so is every series
+        return _frequency_classes(min_gap, np.ones(n_series, dtype=int), np.full(n_series, wd[0]))
     has = np.zeros((n_series, 7), dtype=bool)
     has.reshape(-1)[sid.astype(np.int64) * 7 + wd[dcode]] = True
     return _frequency_classes(min_gap, has.sum(axis=1), np.argmax(has, axis=1))
@@ -555,7 +560,6 @@ def _mixed_error(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray,
                  keys: pd.DataFrame, name: str) -> str:
     """Raise naming two series at different frequencies; return the one frequency if they agree."""
     classes = series_frequencies(u_stamps, dcode, sid, n_series)
-    n_dates = np.bincount(sid, minlength=n_series)  # rows per series (distinct dates: no duplicates yet)
     seen: dict[str, int] = {}
     for j, c in enumerate(classes):
         if c and c not in seen:
@@ -567,7 +571,10 @@ def _mixed_error(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray,
             f"and {_key_text(keys, jb)} is {describe_freq(fb)}; evcal fits one frequency per run: "
             "split the file by frequency, or aggregate the finer series to the coarser frequency")
     # a series with one or two dates is skipped as too short later; it cannot be read here
-    unclear = [j for j, c in enumerate(classes) if not c and n_dates[j] >= 3]
+    unclear = [j for j, c in enumerate(classes) if not c]
+    if unclear:
+        n_dates = np.bincount(sid, minlength=n_series)  # rows per series (no duplicates yet)
+        unclear = [j for j in unclear if n_dates[j] >= 3]
     if unclear:
         j = unclear[0]
         mine = u_stamps[np.unique(dcode[sid == j])]

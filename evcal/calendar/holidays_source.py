@@ -26,13 +26,13 @@ import re
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
-import holidays
-
 OBSERVED = "(observed)"
 
 
 def _entity_names() -> dict[str, str]:
     """Country code -> readable name ("GB" -> "United Kingdom"), for suggestions."""
+    import holidays
+
     out: dict[str, str] = {}
     registry = getattr(holidays, "registry", None)
     for _module, spec in getattr(registry, "COUNTRIES", {}).items():
@@ -82,6 +82,8 @@ class HolidaySource:
             With ``key`` "country", "subdivision" or "language" and a one-line message
             that suggests near names.
         """
+        import holidays  # imported when a calendar names a country: most runs never need it
+
         supported = holidays.list_supported_countries()
         code = str(country).strip()
         if code.upper() not in supported:
@@ -139,6 +141,8 @@ class HolidaySource:
     def _year(self, year: int) -> dict[str, list[dt.date]]:
         got = self._cache.get(year)
         if got is None:
+            import holidays
+
             table = holidays.country_holidays(
                 self.country, subdiv=self.subdivision, years=year, language=self.language
             )

@@ -80,9 +80,13 @@ class SharedSolve:
     def k(self) -> int:
         return int(self.X.shape[1])
 
+    def coefficients(self, Y: np.ndarray) -> np.ndarray:
+        """Coefficients (k, m) only."""
+        return np.linalg.solve(self.R, self.Q.T @ Y)
+
     def solve(self, Y: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Coefficients (k, m), residuals (n, m) and residual variances ``ssr / (n - k)`` (m,)."""
-        B = np.linalg.solve(self.R, self.Q.T @ Y)
+        B = self.coefficients(Y)
         E = Y - self.X @ B
         sigma2 = np.einsum("ij,ij->j", E, E) / max(self.n - self.k, 1)
         return B, E, sigma2

@@ -260,15 +260,16 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         # the single-series path divides by the open share, then scales rows by it
         share = g.share[:, None]
         Y = (y / share) * np.where(share > 0, share, 1.0)
-    B, E, sigma2 = g.solve.solve(Y)
     refined = None
     if g.curve is not None:
         from evcal.panel.curved import refine
 
-        refined = refine(g.info, g.curve, rows, g.solve.X, Y, B, g.solve.lags)
+        # the first pass's coefficients start the passes; its residuals are not needed
+        refined = refine(g.info, g.curve, rows, g.solve.X, Y, g.solve.coefficients(Y), g.solve.lags)
     if refined is not None:
         B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
     else:
+        B, E, sigma2 = g.solve.solve(Y)
         term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
         if len(term_idx):
             cov = g.solve.covariances(E, term_idx)

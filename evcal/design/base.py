@@ -8,6 +8,7 @@ did not (the idea of ``statsmodels.tsa.deterministic``, extended to events).
 
 from __future__ import annotations
 
+import functools
 from typing import Any, Protocol, runtime_checkable
 
 import numpy as np
@@ -30,6 +31,37 @@ class Block(Protocol):
         ...
 
 
+def _run_key(periods: pd.PeriodIndex) -> tuple[str, int, int] | None:
+    """(frequency, first ordinal, length) for a run of consecutive periods, else None."""
+    n = len(periods)
+    if n == 0:
+        return None
+    ords = periods.asi8
+    if int(ords[-1]) - int(ords[0]) != n - 1:
+        return None
+    return periods.freqstr, int(ords[0]), n
+
+
+def _cached(fn: Any) -> Any:
+    """Per-period arrays are asked for many times over the same runs: keep them (read-only)."""
+    cache = functools.lru_cache(maxsize=64)(
+        lambda freq, first, n: _readonly(fn(pd.period_range(pd.Period(ordinal=first, freq=freq),
+                                                             periods=n))))
+
+    @functools.wraps(fn)
+    def wrapper(periods: pd.PeriodIndex) -> np.ndarray:
+        key = _run_key(periods)
+        return fn(periods) if key is None else cache(*key)
+
+    return wrapper
+
+
+def _readonly(a: np.ndarray) -> np.ndarray:
+    a.setflags(write=False)
+    return a
+
+
+@_cached
 def period_days(periods: pd.PeriodIndex) -> np.ndarray:
     """Number of calendar days in each period (1 for daily data)."""
     start = periods.start_time.normalize()
@@ -42,6 +74,7 @@ def day_span(periods: pd.PeriodIndex) -> tuple[pd.Timestamp, pd.Timestamp]:
     return periods[0].start_time.normalize(), periods[-1].end_time.normalize()
 
 
+@_cached
 def period_mid_years(periods: pd.PeriodIndex) -> np.ndarray:
     """Midpoint of each period as a fractional calendar year (e.g. 2024.49)."""
     start = periods.start_time.normalize()

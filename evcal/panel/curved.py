@@ -261,6 +261,11 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         P[:, jc, :] = (V.reshape(ms * len(jc), len(U)) @ QU).reshape(ms, len(jc), -1)
         return P
 
+    # each series' last pass's event values, projections and Gram matrix: its final design's
+    V_last = np.zeros((m, len(curved_cols), len(U)))
+    P_last = np.zeros((m, len(term), Qa.shape[1]))
+    G_last = np.zeros((m, len(term), len(term)))
+
     def solve(th: dict[str, np.ndarray], sel: np.ndarray) -> np.ndarray:
         """The term coefficients (ms, j) for the designs built with θ."""
         V = event_values(th, sel)
@@ -283,6 +288,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         rhs[:, jc] = (V @ YUt[sel][:, :, None])[:, :, 0]
         rhs[:, js] = sy[:, sel].T
         rhs -= (P @ qyt[sel][:, :, None])[:, :, 0]
+        V_last[sel], P_last[sel], G_last[sel] = V, P, G
         return spd_solve(G, rhs[:, :, None])[:, :, 0]
 
     params = B0.copy()
@@ -307,9 +313,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         active[sel[moved < THETA_TOL]] = False
 
     # the final designs: residuals and the HAC covariance of the term coefficients
-    everyone = np.arange(m)
-    V = event_values(theta_in, everyone)
-    P = projections(V, everyone)
+    V, P, G = V_last, P_last, G_last  # built with theta_in
     bt = np.stack([params[idx[c]] for c in term], axis=1)  # (m, j)
     # the shared columns' coefficients, once, from each series' final pass
     ba = np.linalg.solve(Ra, qy - np.einsum("mjk,mj->km", P, bt))
@@ -327,7 +331,6 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     for k, j in enumerate(jc):
         Xp[j] = -(Qa @ P[:, j, :].T)
         Xp[j, U] += V[:, k, :].T
-    G = _pair_sums(Xp, Xp)
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
     Ginv = spd_solve(G, np.broadcast_to(np.eye(len(term)), G.shape).copy())

@@ -16,6 +16,7 @@ QR factorisation.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field, fields, replace
 from typing import Any
@@ -302,8 +303,13 @@ def run_batch(unit: BatchUnit) -> UnitResult:
                       "hac_lags": np.full(m, g.solve.lags), "trend_origin": np.full(m, g.origin),
                       "note": text("; ".join(g.notes))})
     params = Columns({"_sid": unit.sids, **{c: B[i] for i, c in enumerate(g.info.fitted_cols)}})
-    empty = pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
-    return UnitResult(unit.index, tables, series, params, empty)
+    return UnitResult(unit.index, tables, series, params, _no_skips())
+
+
+@functools.lru_cache(maxsize=1)
+def _no_skips() -> pd.DataFrame:
+    """The (shared, never changed) skipped table of a unit that skipped nothing."""
+    return pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
 
 
 def _join_blocks(parts: list[BlockTables]) -> BlockTables:

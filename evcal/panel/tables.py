@@ -370,16 +370,17 @@ def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray
     lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
     t_lo, t_hi = _H_LOW - lo_i, _H_HIGH - hi_i
     if (xs >= 0).all() and (base_t >= 0).all() and (s >= 0).all():
-        def g(i: int) -> np.ndarray:
-            return ratio * (base_t * np.expm1((b + s * z_sorted[i])[:, None] * xs)).sum(axis=1)
+        def g(order: list[int]) -> np.ndarray:
+            """The draws at these order statistics, (len(order), m), in one expression."""
+            z = z_sorted[order]
+            return ratio * (base_t * np.expm1((b + s * z[:, None])[:, :, None] * xs)).sum(axis=2)
 
         last = N_DRAWS - 1
-        need = (lo_i, lo_i + 1, hi_i, hi_i + 1)
-        up = {i: g(i) for i in need}
+        need = [lo_i, lo_i + 1, hi_i, hi_i + 1]
+        up = g(need)
         # a negative ratio turns the order of the draws around
-        down = up if (ratio >= 0).all() else {i: g(last - i) for i in need}
-        pick = {i: np.where(ratio >= 0, up[i], down[i]) for i in need}
-        return _lerp(pick[lo_i], pick[lo_i + 1], t_lo), _lerp(pick[hi_i], pick[hi_i + 1], t_hi)
+        pick = up if (ratio >= 0).all() else np.where(ratio >= 0, up, g([last - i for i in need]))
+        return _lerp(pick[0], pick[1], t_lo), _lerp(pick[2], pick[3], t_hi)
     # general case: the draws themselves
     xs_b = np.broadcast_to(xs, base_t.shape)[None, :, :]
     draws = (base_t[None, :, :] * np.expm1((b[None, :, None] + s[None, :, None]
@@ -547,11 +548,9 @@ def _profile(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarra
     """:func:`evcal.effects.tables.profile_table` for m series."""
     spec = group.spec
     m = len(sids)
-    b = base_freq(spec.freq)
-    cycle = AnnualFourier(spec.fourier_order).cycle() if (b == "D" or spec.seasonal == "fourier") \
-        else SeasonalDummies(spec.freq).cycle()
-    beta = np.vstack([pmap.get(c, np.zeros(m)) for c in cycle.columns])
-    s = cycle.to_numpy() @ beta
+    names, cycle = _season_cycle(spec.freq, spec.seasonal, spec.fourier_order)
+    beta = np.vstack([pmap.get(c, np.zeros(m)) for c in names])
+    s = cycle @ beta
     if group.transform == "none":
         level = np.where(mean_base != 0, mean_base, 1.0)
         vals = level[None, :] + s - s.mean(axis=0)
@@ -561,4 +560,14 @@ def _profile(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarra
         idx = 100.0 * e / e.mean(axis=0)
     p = cycle_length(spec.freq)
     return Columns({"_sid": np.repeat(sids, p), "period": np.tile(np.arange(1, p + 1), m),
-                         "index": idx[:p].T.ravel()})
+                    "index": idx[:p].T.ravel()})
+
+
+@functools.lru_cache(maxsize=16)
+def _season_cycle(freq: str, seasonal: str, fourier_order: int) -> tuple[tuple[str, ...], np.ndarray]:
+    """The seasonal columns over one cycle (as profile_table builds them), made once per design."""
+    daily = base_freq(freq) == "D" or seasonal == "fourier"
+    cycle = AnnualFourier(fourier_order).cycle() if daily else SeasonalDummies(freq).cycle()
+    values = cycle.to_numpy(dtype=float)
+    values.setflags(write=False)
+    return tuple(cycle.columns), values

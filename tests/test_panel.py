@@ -337,6 +337,16 @@ def test_monthly_series_dated_on_first_or_last_day_are_one_frequency():
     assert panel.freq == "M" and panel.values.shape == (30, 2) and not np.isnan(panel.values).any()
 
 
+def test_unused_categories_of_a_key_column_make_no_series():
+    # A categorical key may carry categories no row uses (a filtered frame, a Parquet dictionary).
+    dates = pd.date_range("2021-01-03", periods=110, freq="W-SUN")
+    key = pd.Categorical(["B"] * 110 + ["A"] * 110, categories=["Z", "B", "A", "Q"])
+    frame = pd.DataFrame({"product": key, "date": np.tile(dates, 2), "value": np.arange(220.0) + 1})
+    panel = read_panel(frame, ["product"])
+    assert panel.n_series == 2 and list(panel.keys["product"]) == ["A", "B"]
+    np.testing.assert_array_equal(panel.values[:, 0], np.arange(111.0, 221.0))
+
+
 def test_frequency_classes_from_sorted_rows_equal_the_presence_matrix():
     # Two implementations of one rule (the shortest gap between a series' dates and its weekdays):
     # the one-pass path for rows sorted by series and date, the matrix path for any order.

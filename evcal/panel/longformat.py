@@ -385,7 +385,10 @@ def _attributes(table: RawTable, cols: list[str], sid: np.ndarray, n_series: int
 
 
 def _factorize_sorted(col: pd.Series) -> tuple[np.ndarray, Any]:
-    """Codes in sorted order of the distinct values (-1 for missing), categorical columns included."""
+    """Codes in sorted order of the distinct values (-1 for missing), categorical columns included.
+
+    For a categorical column the values are its categories, used or not.
+    """
     if isinstance(col.dtype, pd.CategoricalDtype):
         cats = col.cat.categories
         order = np.argsort(np.asarray(cats.astype(str)), kind="stable")
@@ -397,14 +400,9 @@ def _factorize_sorted(col: pd.Series) -> tuple[np.ndarray, Any]:
             rank = rank.astype(np.int32)
             codes = np.where(codes >= 0, rank[np.maximum(codes, 0)], np.int32(-1)) if missing \
                 else rank[codes]
-        cc = codes
-        # drop categories no row uses
-        used = np.bincount(cc[cc >= 0] if missing else cc, minlength=len(cats)) > 0
-        if not used.all():
-            remap = np.cumsum(used) - 1
-            cc = np.where(cc >= 0, remap[np.maximum(cc, 0)], -1)
-            return cc, cats[order][used]
-        return cc, cats[order]
+        # categories no row uses may stay: the series codes built from these keep only the key
+        # combinations that occur (_dense_codes)
+        return codes, cats[order]
     return pd.factorize(col, sort=True, use_na_sentinel=True)
 
 

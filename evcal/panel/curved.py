@@ -133,20 +133,6 @@ def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
     return X
 
 
-def _pair_sums(A: np.ndarray, B: np.ndarray) -> np.ndarray:
-    """``Σₜ A[i, t, s] B[j, t, s]`` for every series s: (m, j, j) from (j, n, m) arrays.
-
-    The columns are few, so one elementwise product per pair of contiguous
-    (n, m) slices beats a batched matrix product of tiny matrices.
-    """
-    n_c = A.shape[0]
-    out = np.empty((A.shape[2], n_c, n_c))
-    for i in range(n_c):
-        for j in range(n_c):
-            out[:, i, j] = np.einsum("nm,nm->m", A[i], B[j])
-    return out
-
-
 def _theta_sources(group: Any) -> dict[str, str]:
     """Event column -> fitted column whose coefficient is its θ (fitted, borrowed, duplicate)."""
     src: dict[str, str] = {}
@@ -322,26 +308,34 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     # an event column is zero off the rows U, so its part of the residual is added there only
     resid = Y - A @ ba - xs @ bt[:, js].T
     resid[U] -= np.einsum("mcu,mc->um", V, bt[:, jc])
-    # each term column with the shared columns projected out, one contiguous (n, m) array per
-    # term: the HAC "meat" of the projected columns equals the meat of the full design's
-    # (XᵀX)⁻¹Xᵀ rows once multiplied by the inverse of their Gram matrix on both sides
-    Xp = np.empty((len(term), n, m))
+    # each term column with the shared columns projected out, times the residual: one contiguous
+    # (n, m) array per term. The HAC "meat" of the projected columns equals the meat of the full
+    # design's (XᵀX)⁻¹Xᵀ rows once multiplied by the inverse of their Gram matrix on both sides.
+    n_t = len(term)
+    Vx = np.empty((n_t, n, m))
     for b, j in enumerate(js):
-        Xp[j] = (xs[:, b] - Qa @ ps[:, b])[:, None]
+        np.multiply((xs[:, b] - Qa @ ps[:, b])[:, None], resid, out=Vx[j])
     for k, j in enumerate(jc):
-        Xp[j] = -(Qa @ P[:, j, :].T)
-        Xp[j, U] += V[:, k, :].T
+        np.matmul(Qa, P[:, j, :].T, out=Vx[j])
+        np.negative(Vx[j], out=Vx[j])
+        Vx[j, U] += V[:, k, :].T
+        Vx[j] *= resid
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
-    Ginv = spd_solve(G, np.broadcast_to(np.eye(len(term)), G.shape).copy())
-    Vx = Xp * resid[None, :, :]
+    Ginv = spd_solve(G, np.broadcast_to(np.eye(n_t), G.shape).copy())
+    # Σₜ Vxᵢ,ₜ (½Vxⱼ,ₜ + Σₗ wₗ Vxⱼ,ₜ₋ₗ), one term j at a time (two (n, m) buffers in all)
     w = bartlett_weights(lags)
-    W = 0.5 * Vx
-    lagged = np.empty_like(Vx)
-    for lag in range(1, min(lags, n - 1) + 1):
-        np.multiply(Vx[:, :-lag], w[lag], out=lagged[:, lag:])
-        W[:, lag:] += lagged[:, lag:]
-    meat = _pair_sums(Vx, W)
+    meat = np.empty((m, n_t, n_t))
+    W = np.empty((n, m))
+    lagged = np.empty((n, m))
+    for j in range(n_t):
+        np.multiply(Vx[j], 0.5, out=W)
+        for lag in range(1, min(lags, n - 1) + 1):
+            np.multiply(Vx[j, :-lag], w[lag], out=lagged[lag:])
+            W[lag:] += lagged[lag:]
+        for i in range(n_t):
+            meat[:, i, j] = np.einsum("nm,nm->m", Vx[i], W)
+    del Vx, W, lagged
     meat += meat.transpose(0, 2, 1)
     cov = Ginv @ meat @ Ginv
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T

@@ -314,18 +314,28 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         with_events = base + total
         for c in terms:
             parts[c] = tmat[c] * share
+        fitted = with_events * share
     else:
-        base = smear[:, None] * np.exp(eta_base)
-        with_events = smear[:, None] * np.exp(eta_base + total)
-        gap = (with_events - base) * share
+        # (series × periods) arrays, a dozen per block: made in place where they can be
+        base = np.exp(eta_base, out=eta_base)
+        base *= smear[:, None]
         big = np.abs(total) > 1e-12
-        ratio = gap / np.where(big, total, 1.0)
+        denom = np.where(big, total, 1.0)
+        with_events = np.exp(total, out=total)
+        with_events *= base
+        ratio = with_events - base
+        ratio *= share
+        ratio /= denom
         # each term's part of the gap: its share of the summed log-effect, or (where the
         # effects are all zero) its own first-order size
-        factor = np.where(big, ratio, base * share)
+        factor = np.multiply(base, share, out=denom)
+        np.copyto(factor, ratio, where=big)
+        del ratio, denom
         for c in terms:
-            parts[c] = factor * tmat[c]
-    fitted = with_events * share
+            tmat[c] *= factor
+            parts[c] = tmat[c]
+        fitted = with_events
+        fitted *= share
     if len(ctx.closures.columns):
         lost = base * (share - 1.0)
         cl = ctx.closure_matrix
@@ -342,20 +352,31 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
                                {"actual": actual, "fitted": fitted, "base": base, **parts}, ctx.in_fit)
 
     rows = ctx.in_fit[None, :]
-    a_in = np.where(rows, actual, np.nan)
+    scale_resid = np.where(rows, actual, np.nan)
     with np.errstate(divide="ignore", invalid="ignore"):
         if group.transform == "log":
-            scale_resid = np.log(a_in) - np.log(fitted / smear[:, None])
+            np.log(scale_resid, out=scale_resid)
+            model = np.divide(fitted, smear[:, None])
+            scale_resid -= np.log(model, out=model)
+            del model
         else:
-            scale_resid = a_in - fitted
+            scale_resid -= fitted
     ok = rows & np.isfinite(scale_resid)
     n_ok = ok.sum(axis=1)
-    abs_err = np.where(ok, np.abs(actual - fitted), 0.0).sum(axis=1)
-    abs_act = np.where(ok, np.abs(actual), 0.0).sum(axis=1)
+    err = np.subtract(actual, fitted)
+    np.abs(err, out=err)
+    abs_err = np.where(ok, err, 0.0).sum(axis=1)
+    np.abs(actual, out=err)
+    abs_act = np.where(ok, err, 0.0).sum(axis=1)
+    del err
     with np.errstate(divide="ignore", invalid="ignore"):
         wape = np.where(n_ok > 0, 100 * abs_err / abs_act, np.nan)
-        mu = np.where(ok, scale_resid, 0.0).sum(axis=1) / n_ok
-        sd = np.sqrt(np.where(ok, (scale_resid - mu[:, None]) ** 2, 0.0).sum(axis=1) / n_ok)
+        scale_resid[~ok] = 0.0
+        mu = scale_resid.sum(axis=1) / n_ok
+        scale_resid -= mu[:, None]
+        scale_resid[~ok] = 0.0
+        np.square(scale_resid, out=scale_resid)
+        sd = np.sqrt(scale_resid.sum(axis=1) / n_ok)
     quality = Columns({"_sid": sids, "periods_fitted": n_ok.astype(int), "wape_pct": wape,
                        "resid_sd": sd, "mean_base": mean_base})
     return BlockTables(lifts, occ, profile, [fitted_block], quality)

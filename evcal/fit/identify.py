@@ -28,7 +28,7 @@ REL_TOL = 1e-6
 class ColumnStatus:
     """Fate of one event or intervention column in the fit."""
 
-    status: str  # fitted | no_history | unidentifiable | duplicate
+    status: str  # fitted | no_history | unidentifiable | duplicate | assumed | like | unchecked
     note: str = ""
     twin: str = ""  # for a duplicate: the column that carries the joint estimate
 

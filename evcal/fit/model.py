@@ -91,11 +91,14 @@ def choose_transform(values: pd.Series, options: FitOptions, source: str, known_
 
 
 def prepare(history: Any, calendar: Any, options: FitOptions,
-            theta: dict[str, float] | None = None) -> ModelInputs:
+            theta: dict[str, float] | None = None, identify: bool = True) -> ModelInputs:
     """Build the design and decide which columns enter the fit.
 
     ``theta`` (log-lift per event column from a previous pass) makes the event
     columns aggregate the daily lifts exactly; see :mod:`evcal.design.events`.
+    ``identify=False`` skips the identifiability check: every estimable column
+    is then marked ``unchecked`` (the panel engine checks each design group's
+    own rows instead).
     """
     periods = history.values.index
     actual = history.values.astype(float)
@@ -165,8 +168,11 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             if (hit & rows).any():
                 rows = rows & ~hit
                 notes.append(f"{c}: periods with this assumed event are left out of the additive fit")
-    base_cols = independent_base_columns(X, rows, base_cols)
-    status = check_columns(X, rows, base_cols, candidates, kind_of)
+    if identify:
+        base_cols = independent_base_columns(X, rows, base_cols)
+        status = check_columns(X, rows, base_cols, candidates, kind_of)
+    else:
+        status = {c: ColumnStatus("unchecked", "identifiability not checked") for c in candidates}
     for c in assumed:
         status[c] = ColumnStatus("assumed", f"lift assumed at {assumed[c] * 100:+g}%, not estimated")
     for c, target in like_map.items():

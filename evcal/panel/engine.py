@@ -81,7 +81,8 @@ class Template:
     def build(cls, panel: Panel, calendar: Any, options: FitOptions, transform: str) -> Template:
         placeholder = History(pd.Series(1.0, index=panel.periods, name="value"), panel.freq, panel.label,
                               panel.source, [])
-        inp = prepare(placeholder, calendar, replace(options, transform=transform))
+        # each design group is checked on its own rows (_group_info): not the placeholder's
+        inp = prepare(placeholder, calendar, replace(options, transform=transform), identify=False)
         raw = inp.raw_X
         return cls(transform, inp, raw, period_mid_years(panel.periods), calendar, panel.periods)
 

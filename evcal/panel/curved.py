@@ -165,8 +165,30 @@ class Refined:
     passes: np.ndarray  # (m,)
 
 
+def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, idx: dict[str, int],
+                 base: list[str], term: list[str], js: list[int], curved_cols: list[str]) -> tuple[Any, ...]:
+    """What :func:`refine` needs that depends on the design group alone, not on the series."""
+    n = X_fit.shape[0]
+    A = X_fit[:, [idx[c] for c in base]]
+    Qa, Ra = np.linalg.qr(A)
+    # merged like columns add their own curve (with the target's θ) to the target column
+    like_into: dict[str, list[str]] = {}
+    for c, tgt in group.like_map.items():
+        if tgt in idx and group.status.get(c) is not None and group.status[c].status == "like":
+            like_into.setdefault(tgt, []).append(c)
+    # rows any event window touches (an event column is zero elsewhere for every θ)
+    fit_periods = np.flatnonzero(rows)
+    support = np.zeros(n, dtype=bool)
+    for c in curved_cols:
+        for name in [c] + like_into.get(c, []):
+            support |= curve.column(name, np.zeros(1))[0, fit_periods] != 0
+    U = np.flatnonzero(support)
+    xs = X_fit[:, [idx[term[j]] for j in js]]  # shared term columns (interventions)
+    return A, Qa, Ra, like_into, U, Qa[U], fit_periods[U], xs, Qa.T @ xs, xs.T @ xs, xs[U]
+
+
 def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, Y: np.ndarray,
-           B0: np.ndarray, lags: int) -> Refined | None:
+           B0: np.ndarray, lags: int, cache: dict[str, Any] | None = None) -> Refined | None:
     """The single-series fit's θ passes for a block of series (None when nothing is curved).
 
     Each pass solves, for every series still moving, the event and intervention
@@ -192,6 +214,10 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         Model-scale responses (offset taken off).
     B0 : ndarray (k, m)
         First-pass coefficients.
+    cache : dict, optional
+        Kept by the caller for the blocks of one design group: what depends on
+        the group alone (the basis of its shared columns, the rows the event
+        windows touch) is computed once and kept there.
     """
     cols = list(group.fitted_cols)
     idx = {c: i for i, c in enumerate(cols)}
@@ -204,27 +230,13 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     base = [c for c in cols if c in base_set]
     jc = [term.index(c) for c in curved_cols]
     js = [j for j, c in enumerate(term) if c not in curved_cols]
-    A = X_fit[:, [idx[c] for c in base]]
-    Qa, Ra = np.linalg.qr(A)
+    cache = {} if cache is None else cache
+    if "basis" not in cache:  # a race between two threads only computes it twice
+        cache["basis"] = _group_basis(group, curve, rows, X_fit, idx, base, term, js, curved_cols)
+    A, Qa, Ra, like_into, U, QU, at, xs, ps, ss, xs_u = cache["basis"]
     qy = Qa.T @ Y
-    # merged like columns add their own curve (with the target's θ) to the target column
-    like_into: dict[str, list[str]] = {}
-    for c, tgt in group.like_map.items():
-        if tgt in idx and group.status.get(c) is not None and group.status[c].status == "like":
-            like_into.setdefault(tgt, []).append(c)
-    # rows any event window touches (an event column is zero elsewhere for every θ)
-    fit_periods = np.flatnonzero(rows)
-    support = np.zeros(n, dtype=bool)
-    for c in curved_cols:
-        for name in [c] + like_into.get(c, []):
-            support |= curve.column(name, np.zeros(1))[0, fit_periods] != 0
-    U = np.flatnonzero(support)
-    QU, YU, at = Qa[U], Y[U], fit_periods[U]
-    xs = X_fit[:, [idx[term[j]] for j in js]]  # shared term columns (interventions)
-    ps = Qa.T @ xs
-    ss = xs.T @ xs
+    YU = Y[U]
     sy = xs.T @ Y
-    xs_u = xs[U]
     YUt = np.ascontiguousarray(YU.T)  # (m, |U|): a series' touched rows side by side
     qyt = np.ascontiguousarray(qy.T)
 

@@ -132,6 +132,7 @@ class Group:
     offset: np.ndarray | None = None  # model-scale offset on the fit rows
     share: np.ndarray | None = None  # open share on the fit rows (additive model)
     curve: Any = None  # CurvedEvents on the panel's periods, when lifts are aggregated exactly
+    refine_cache: dict[str, Any] = field(default_factory=dict)  # refine's group-level inputs, made once
 
 
 def _group_info(template: Template, calendar: Any, observed: np.ndarray, origin: float
@@ -267,7 +268,8 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         from evcal.panel.curved import refine
 
         # the first pass's coefficients start the passes; its residuals are not needed
-        refined = refine(g.info, g.curve, rows, g.solve.X, Y, g.solve.coefficients(Y), g.solve.lags)
+        refined = refine(g.info, g.curve, rows, g.solve.X, Y, g.solve.coefficients(Y), g.solve.lags,
+                         cache=g.refine_cache)
     if refined is not None:
         B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
     else:

@@ -142,6 +142,19 @@ def test_mixed_frequencies_between_series(tmp_path):
     _bad(res, out, "mixed frequencies", "product='M1' is monthly", "product='P0' is weekly")
 
 
+def test_bad_calendar_and_bad_file_the_file_is_reported_first(tmp_path):
+    # the calendar is loaded while the file is read (on another thread); the messages stay in
+    # the order of a plain read-then-load: the file's problem first, else the calendar's
+    hist, cal = _files(tmp_path, _long(2))
+    cal.write_text(CAL.replace("{easter: -3}", "{easter: -3, fixed: '12-25'}"), encoding="utf-8")
+    out = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col", "product"])
+    _bad(res, out, "cal.yaml", "easter-run")
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col",
+                              "product,region"])
+    _bad(res, out, "long.parquet", "no key column 'region'")
+
+
 def test_options_that_need_a_panel(tmp_path):
     hist, cal = _files(tmp_path, _long(2))
     out = tmp_path / "model"

@@ -83,13 +83,15 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
 def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col: str, freq: str | None,
          level: Any, group_col: str | None, opts: Any, runner: Any, out: str | Path | None) -> PanelResult:
     from evcal.panel.build import build_result, read_for_panel
-    from evcal.panel.engine import fit_long_panel
     from evcal.panel.memory import release_freed_memory
 
-    panel, keys, levels = read_for_panel(history, series_cols, date_col, value_col, freq, level, group_col)
+    panel, keys, levels, cal = read_for_panel(history, series_cols, date_col, value_col, freq, level,
+                                              group_col, meanwhile=lambda: _ready_to_fit(calendar))
+    from evcal.panel.engine import fit_long_panel  # imported by _ready_to_fit while the file was read
+
     release_freed_memory(arrow=True)
     if out is None:
-        fitted = fit_long_panel(panel, calendar, opts, runner=runner)
+        fitted = fit_long_panel(panel, cal, opts, runner=runner)
         return build_result(fitted, keys, levels, group_col, date_col, value_col, None)
 
     from evcal._files import atomic_dir
@@ -99,13 +101,24 @@ def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col
     with atomic_dir(out) as tmp:
         writer = FittedWriter(tmp / "fitted.parquet", panel)
         try:
-            fitted = fit_long_panel(panel, calendar, opts, runner=runner, on_fitted=writer.write)
+            fitted = fit_long_panel(panel, cal, opts, runner=runner, on_fitted=writer.write)
         finally:
             writer.close()
         result = build_result(fitted, keys, levels, group_col, date_col, value_col, tmp / "fitted.parquet")
         result.write_into(tmp)
     result.fitted_path = out / "fitted.parquet"
     return result
+
+
+def _ready_to_fit(calendar: Any) -> Any:
+    """The calendar loaded and the fitting modules imported (done while the file is read)."""
+    import importlib
+
+    from evcal.fit.model import load_calendar_any
+
+    for name in ("evcal.panel.engine", "evcal.panel.tables", "evcal.panel.curved", "evcal.panel.pooling"):
+        importlib.import_module(name)
+    return load_calendar_any(calendar)
 
 
 def plan_panel(model: Any, start: Any, end: Any, series: list[str] | None = None, **kwargs: Any) -> Any:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -17,8 +18,24 @@ __all__ = ["read_for_panel", "build_result", "FittedWriter"]
 
 
 def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str, freq: str | None,
-                   level: Any, group_col: str | None) -> tuple[Panel, list[str], list[str]]:
-    """Read the long file (and add it up to ``level``); return the panel, its keys and the levels."""
+                   level: Any, group_col: str | None, meanwhile: Callable[[], Any] | None = None
+                   ) -> tuple[Panel, list[str], list[str], Any]:
+    """Read the long file (and add it up to ``level``); return the panel, its keys, the levels.
+
+    Parameters
+    ----------
+    meanwhile : callable, optional
+        Work for this thread while the file is read on another one (loading the
+        calendar and the fitting modules is pure Python; pyarrow and numpy read
+        the file mostly without the GIL, so the two overlap instead of adding
+        up). Its result is the fourth item returned. A problem with the file
+        is reported before one that ``meanwhile`` raises, as if the file had
+        been read first.
+    """
+    from concurrent.futures import ThreadPoolExecutor
+
+    import pyarrow.parquet  # noqa: F401 -- imported here, not by both threads at once
+
     from evcal.panel.rollup import aggregate, check_level
 
     keys = split_key_option(series_cols)
@@ -27,8 +44,19 @@ def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str
     if not keys:
         raise HistoryError("--series-col: give at least one key column (e.g. --series-col product)")
     attr_cols = [c for c in levels + ([group_col] if group_col else []) if c not in keys]
-    panel = read_panel(history, keys, date_col=date_col, value_col=value_col, freq=freq,
-                       attr_cols=list(dict.fromkeys(attr_cols)))
+    extra: Any = None
+    problem: BaseException | None = None
+    with ThreadPoolExecutor(max_workers=1, thread_name_prefix="evcal-read") as pool:
+        reading = pool.submit(read_panel, history, keys, date_col=date_col, value_col=value_col,
+                              freq=freq, attr_cols=list(dict.fromkeys(attr_cols)))
+        if meanwhile is not None:
+            try:
+                extra = meanwhile()
+            except BaseException as err:  # raised once the file is known to be good
+                problem = err
+        panel = reading.result()
+    if problem is not None:
+        raise problem
     if levels:
         panel = aggregate(panel, levels)
         keys = levels
@@ -39,7 +67,7 @@ def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str
             raise HistoryError(f"--group-col {group_col}: it takes more than one value inside a --level "
                                f"group ({', '.join(levels)}); pool by a column that is constant within "
                                "each fitted series") from None
-    return panel, keys, levels
+    return panel, keys, levels, extra
 
 
 class FittedWriter:

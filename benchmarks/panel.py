@@ -31,7 +31,8 @@ pooled lifts. The ratios are for the whole job each side does.
 Every timing is the best of ``--repeat`` runs (3 by default), on both sides:
 on a shared machine a single run can be slowed by other work by tens of
 percent, and the best run is the least disturbed measure of each side (the
-usual practice of ``timeit``).
+usual practice of ``timeit``). The runs of the two sides alternate, so a slow
+spell of the machine falls on both.
 
     python benchmarks/panel.py [--series 10000] [--loop-series 300] [--repeat 3]
 """
@@ -245,10 +246,13 @@ def main() -> None:
                     str(tmp / "model")]
         reps = max(1, args.repeat)
         _, base_mb = run_evcal(["--imports-only"], tmp)
-        runs = [run_evcal(fit_args, tmp) for _ in range(reps)]
-        wall, peak_mb = min(r[0] for r in runs), max(r[1] for r in runs)
         n_loop = min(args.loop_series, args.series)
-        loops = [plain_loop(path, n_loop) for _ in range(reps)]
+        # the two sides take turns, so a slow spell of the machine falls on both
+        runs, loops = [], []
+        for _ in range(reps):
+            runs.append(run_evcal(fit_args, tmp))
+            loops.append(plain_loop(path, n_loop))
+        wall, peak_mb = min(r[0] for r in runs), max(r[1] for r in runs)
         loop_fit = min(r[1] for r in loops)
         read_s = min(r[0] - r[1] for r in loops)
         scale = args.series / n_loop

@@ -1,0 +1,62 @@
+"""The real ``evcal`` process: exit codes and complete output with the fast exit.
+
+``evcal.cli.main`` ends the process with ``os._exit`` after flushing stdout and
+stderr; these tests run it as a separate process (as the console script does)
+and check that nothing printed or written is lost and that the exit codes
+stay those of the commands.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import yaml
+from typer.testing import CliRunner
+
+from evcal.cli import app
+
+ROOT = Path(__file__).resolve().parents[1]
+CALENDAR = ROOT / "calendars" / "garden-centres.yaml"
+
+
+def _run(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "evcal.cli", *args], capture_output=True, text=True,
+                          timeout=300, cwd=cwd, check=False)
+
+
+def test_long_output_arrives_whole_and_exit_code_is_zero() -> None:
+    # calendar dates prints one line per occurrence: the process must print exactly what the
+    # same command prints in-process (CliRunner does not end the process, so it loses nothing)
+    args = ["calendar", "dates", str(CALENDAR), "--from", "1990", "--to", "2060"]
+    proc = _run(*args)
+    assert proc.returncode == 0, proc.stderr
+    in_process = CliRunner().invoke(app, args)
+    assert in_process.exit_code == 0
+    assert len(proc.stdout) > 20_000  # more than one pipe buffer's worth
+    assert proc.stdout == in_process.stdout
+
+
+def test_user_error_exit_code_two_and_one_line(tmp_path: Path) -> None:
+    bad = tmp_path / "bad.yaml"
+    bad.write_text(yaml.safe_dump({"name": "t", "events": [{"name": "a", "when": {"fixed": "13-01"}}]}))
+    proc = _run("calendar", "check", str(bad))
+    assert proc.returncode == 2
+    assert proc.stdout == ""
+    assert len(proc.stderr.strip().splitlines()) == 1
+    assert "13-01" in proc.stderr
+
+
+def test_usage_error_keeps_its_exit_code() -> None:
+    proc = _run("fit")  # the history file is missing: click's usage error, exit code 2
+    assert proc.returncode == 2
+    assert "Missing argument" in proc.stderr
+
+
+def test_files_written_by_a_command_are_complete(tmp_path: Path) -> None:
+    out = tmp_path / "dates.csv"
+    proc = _run("calendar", "dates", str(CALENDAR), "--from", "2024", "--to", "2026", "--out", str(out))
+    assert proc.returncode == 0, proc.stderr
+    text = out.read_text(encoding="utf-8")
+    assert text.endswith("\n") and len(text.splitlines()) > 3

@@ -292,8 +292,10 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         if not len(pick):
             continue
         curved = {c: v[pick, f:last + 1] for c, v in curved_all.items()}
+        support = {c: t[(t >= f) & (t <= last)] - f for c in curved
+                   if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
-                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved))
+                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved, support))
     tables = _join_blocks(parts)
     m = len(unit.sids)
 

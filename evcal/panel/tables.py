@@ -93,12 +93,24 @@ class SpanContext:
     closure_matrix: np.ndarray | None = None  # (n, closures): each closure's share of the period
     _base: dict[tuple[str, ...], np.ndarray] = field(default_factory=dict, repr=False)
     _occ_groups: list[Any] | None = field(default=None, repr=False)
+    _support: dict[str, np.ndarray | None] = field(default_factory=dict, repr=False)
 
     def __post_init__(self) -> None:
         if not self.columns:
             self.columns = {c: self.raw[c].to_numpy(dtype=float) for c in self.raw.columns}
         if self.closure_matrix is None:
             self.closure_matrix = self.closures.reindex(self.periods).fillna(0.0).to_numpy(dtype=float)
+
+    def support(self, col: str) -> np.ndarray | None:
+        """The periods where the design column ``col`` is not zero, or None when that is most of them.
+
+        An event column is zero outside its windows, so its products with the
+        coefficients are needed on these periods only (kept for later blocks).
+        """
+        if col not in self._support:
+            nz = np.flatnonzero(self.columns[col])
+            self._support[col] = nz if 2 * len(nz) < len(self.periods) else None
+        return self._support[col]
 
     def base_matrix(self, cols: list[str]) -> np.ndarray:
         """The (n, len(cols)) block of the design's trend and seasonal columns (kept for later blocks)."""
@@ -267,7 +279,8 @@ def _coefficients(group: GroupInfo, params: dict[str, np.ndarray], m: int) -> di
 
 def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.ndarray,
                  smear: np.ndarray, actual: np.ndarray, sids: np.ndarray,
-                 curved: dict[str, np.ndarray] | None = None) -> BlockTables:
+                 curved: dict[str, np.ndarray] | None = None,
+                 curved_support: dict[str, np.ndarray] | None = None) -> BlockTables:
     """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
 
     Arrays are series-major (one row per series), so the long tables are
@@ -289,6 +302,9 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     curved : dict, optional
         Event columns that differ by series (each series' own exact aggregation,
         :mod:`evcal.panel.curved`): column -> (m, n) on the span.
+    curved_support : dict, optional
+        For each curved column, the span's periods outside which it is zero
+        (its windows); the products of a sparse column are formed there only.
     """
     m = params.shape[1]
     curved = curved or {}
@@ -301,20 +317,47 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     eta_base = Bb.T @ Xb.T  # (m, n)
     terms = [c for c in coefs if c in ctx.columns]
     share = ctx.share[None, :]
-    xcol = {c: curved[c] if c in curved else ctx.columns[c][None, :] for c in terms}
-    tmat = {c: coefs[c][:, None] * xcol[c] for c in terms}
-    if group.transform == "none":
-        # an assumed lift is a fraction of base, not a number of units (as decompose has it)
-        for c in terms:
-            if group.status[c].status == "assumed":
-                tmat[c] = tmat[c] * eta_base
-    total = sum(tmat.values()) if terms else np.zeros_like(eta_base)
+    n = len(ctx.periods)
+    # each term's coefficient times its column, on the periods where the column is not zero (an
+    # event's windows: a few of the span's periods) or on all of them (support None)
+    support: dict[str, np.ndarray | None] = {}
+    tmat: dict[str, np.ndarray] = {}
+    for c in terms:
+        if c in curved:
+            nz = (curved_support or {}).get(c)
+            support[c] = nz if nz is not None and 2 * len(nz) < n else None
+            x = curved[c] if support[c] is None else curved[c][:, support[c]]
+        else:
+            support[c] = ctx.support(c)
+            x = ctx.columns[c][None, :] if support[c] is None else ctx.columns[c][None, support[c]]
+        tmat[c] = coefs[c][:, None] * x
+        if group.transform == "none" and group.status[c].status == "assumed":
+            # an assumed lift is a fraction of base, not a number of units (as decompose has it)
+            tmat[c] *= eta_base if support[c] is None else eta_base[:, support[c]]
+    total = np.zeros_like(eta_base)
+    for c in terms:
+        if support[c] is None:
+            total += tmat[c]
+        else:
+            total[:, support[c]] += tmat[c]
+
+    def spread(c: str, values: np.ndarray) -> np.ndarray:
+        """A term's (m, n) contribution from its values on its support."""
+        if support[c] is None:
+            return values
+        out = np.zeros((m, n))
+        out[:, support[c]] = values
+        return out
+
+    def on_support(c: str, a: np.ndarray) -> np.ndarray:
+        return a if support[c] is None else a[:, support[c]]
+
     parts: dict[str, np.ndarray] = {}
     if group.transform == "none":
         base = eta_base
         with_events = base + total
         for c in terms:
-            parts[c] = tmat[c] * share
+            parts[c] = spread(c, tmat[c] * on_support(c, share))
         fitted = with_events * share
     else:
         # (series × periods) arrays, a dozen per block: made in place where they can be
@@ -333,8 +376,8 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         np.copyto(factor, ratio, where=big)
         del ratio, denom
         for c in terms:
-            tmat[c] *= factor
-            parts[c] = tmat[c]
+            tmat[c] *= on_support(c, factor)
+            parts[c] = spread(c, tmat[c])
         fitted = with_events
         fitted *= share
     if len(ctx.closures.columns):
@@ -343,7 +386,10 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         tot = cl.sum(axis=1)
         safe_tot = np.where(tot > 0, tot, 1.0)
         for j, c in enumerate(ctx.closures.columns):
-            parts[c] = np.where((tot > 0)[None, :], lost * (cl[:, j] / safe_tot)[None, :], 0.0)
+            # a closure's part is zero outside the periods it closes
+            nz = np.flatnonzero((cl[:, j] > 0) & (tot > 0))
+            parts[c] = np.zeros((m, n))
+            parts[c][:, nz] = lost[:, nz] * (cl[nz, j] / safe_tot[nz])[None, :]
     mean_base = base.mean(axis=1)
 
     occ = _occurrences(ctx, group, parts, base, pmap, se_map, sids, curved)

@@ -48,6 +48,10 @@ def _progress(total: int, enabled: bool, label: str) -> Iterator[Callable[[int],
         yield lambda n: bar.advance(task, n)
 
 
+#: units submitted beyond the running ones (local threads): enough to keep the threads busy
+UNITS_AHEAD = 2
+
+
 def local_threads() -> int:
     """Threads for the units in this process: the cores this process may use, at most 4."""
     try:
@@ -67,7 +71,7 @@ def local_runner(progress: bool = False, threads: int | None = None
     n_threads = threads or local_threads()
 
     def run(units: list[Any], fn: Callable[[Any], Any]) -> Iterator[Any]:
-        from concurrent.futures import ThreadPoolExecutor, as_completed
+        from concurrent.futures import FIRST_COMPLETED, Future, ThreadPoolExecutor, wait
 
         from threadpoolctl import threadpool_limits
 
@@ -78,11 +82,27 @@ def local_runner(progress: bool = False, threads: int | None = None
                     yield fn(u)
                     advance(_units_size(u))
                 return
+            # a few units ahead of the threads, not all of them: when the caller is slower than
+            # the threads (writing the fitted rows), finished units wait here in bounded number
+            # instead of all piling up in memory
+            todo = iter(units)
+            running: dict[Future[Any], Any] = {}
+
+            def submit_next() -> None:
+                u = next(todo, None)
+                if u is not None:
+                    running[pool.submit(fn, u)] = u
+
             with ThreadPoolExecutor(max_workers=n_threads) as pool:
-                futures = {pool.submit(fn, u): u for u in units}
-                for fut in as_completed(futures):
-                    yield fut.result()
-                    advance(_units_size(futures[fut]))
+                for _ in range(n_threads + UNITS_AHEAD):
+                    submit_next()
+                while running:
+                    done, _ = wait(running, return_when=FIRST_COMPLETED)
+                    for fut in sorted(done, key=lambda f: running[f].index):
+                        u = running.pop(fut)
+                        submit_next()
+                        yield fut.result()
+                        advance(_units_size(u))
 
     return run
 

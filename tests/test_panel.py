@@ -397,3 +397,27 @@ def test_curved_event_columns_equal_the_design_block(cal, freq):
                 continue  # their θ comes from the calendar or the event they borrow from
             np.testing.assert_allclose(curve.column(n, np.array([theta]))[0], ref[n].to_numpy(),
                                        rtol=1e-12, atol=1e-15)
+
+
+def test_threads_with_a_bounded_window_give_the_serial_results_in_order(cal, monkeypatch):
+    # The local runner keeps only a few units ahead of its threads; with one series per unit
+    # (many more units than the window) the tables and the streamed fitted rows must be those
+    # of running the units one after the other, in unit order.
+    import evcal.panel.engine as engine
+    from evcal.panel.distributed import UNITS_AHEAD, local_runner
+
+    monkeypatch.setattr(engine, "BLOCK_SERIES", 1)
+    panel = read_panel(_panel_frame(9), ["product"])
+    assert panel.n_series > 2 + UNITS_AHEAD
+    streamed: dict[str, list[np.ndarray]] = {"serial": [], "threads": []}
+
+    def keep(name):
+        return lambda blocks: streamed[name].extend(np.asarray(b.sids) for b in blocks)
+
+    serial = fit_long_panel(panel, cal, FitOptions(errors="ols"), on_fitted=keep("serial"))
+    threads = fit_long_panel(panel, cal, FitOptions(errors="ols"), runner=local_runner(threads=2),
+                             on_fitted=keep("threads"))
+    for name in ("lifts", "occurrences", "profile", "series", "params"):
+        pd.testing.assert_frame_equal(getattr(serial, name), getattr(threads, name), check_exact=True)
+    order = np.concatenate(streamed["threads"])
+    assert order.tolist() == np.concatenate(streamed["serial"]).tolist() == list(range(panel.n_series))

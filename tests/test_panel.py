@@ -421,3 +421,22 @@ def test_threads_with_a_bounded_window_give_the_serial_results_in_order(cal, mon
         pd.testing.assert_frame_equal(getattr(serial, name), getattr(threads, name), check_exact=True)
     order = np.concatenate(streamed["threads"])
     assert order.tolist() == np.concatenate(streamed["serial"]).tolist() == list(range(panel.n_series))
+
+
+def test_many_key_combinations_keep_each_series_apart():
+    # three key columns with 1,300 distinct values each: 1,300³ ≈ 2.2e9 combinations do not
+    # fit in 4-byte codes, so the read switches to 8 bytes; every series keeps its own rows
+    n = 1300
+    i = np.arange(n)
+    rng = np.random.default_rng(3)
+    perm = rng.permutation(n)
+    weeks = pd.date_range("2024-01-07", periods=3, freq="W-SUN")
+    frame = pd.DataFrame({"a": np.repeat(i, 3), "b": np.repeat(perm, 3), "c": np.repeat(n - 1 - i, 3),
+                          "date": np.tile(weeks, n), "value": np.repeat(i, 3) + np.tile([0.0, 0.5, 0.25], n)})
+    panel = read_panel(frame.sample(frac=1.0, random_state=1), ["a", "b", "c"])
+    assert panel.n_series == n
+    keys = panel.keys.astype(int)
+    # sorted by (a, b, c) as text; each series' values are its own a + (0, .5, .25)
+    a = keys["a"].to_numpy()
+    assert (keys["b"].to_numpy() == perm[a]).all() and (keys["c"].to_numpy() == n - 1 - a).all()
+    np.testing.assert_array_equal(panel.values, a[None, :] + np.array([0.0, 0.5, 0.25])[:, None])

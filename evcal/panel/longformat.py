@@ -255,13 +255,19 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
             raise HistoryError(f"{name} row {_row_number(table, i)}, column {c!r}: empty key; every row "
                                f"needs a value in each --series-col column ({int(bad.sum())} such rows)")
         del bad
-        codes = cc.astype(np.int64) if codes is None else codes * len(uu) + cc
-        del cc
         uniques.append(uu)
+        # 4 bytes a row while the combinations fit (the usual case), 8 beyond
+        wide = np.prod([float(len(u)) for u in uniques]) >= 2**31
+        if codes is None:
+            codes = cc.astype(np.int64 if wide else np.int32)
+        else:
+            codes = codes.astype(np.int64) if wide and codes.dtype != np.int64 else codes
+            codes *= len(uu)
+            codes += cc
+        del cc
     assert codes is not None
     sid_unique, sid = _dense_codes(codes)
     del codes
-    sid = sid.astype(np.int32)
     n_series = len(sid_unique)
     keys = {}
     rem = sid_unique.copy()
@@ -411,10 +417,10 @@ def _dense_codes(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     hi = int(codes.max()) + 1 if len(codes) else 0
     if hi <= 4 * len(codes) + 1024:
         present = np.bincount(codes, minlength=hi) > 0
-        rank = np.cumsum(present) - 1
+        rank = (np.cumsum(present) - 1).astype(np.int32)
         return np.flatnonzero(present), rank[codes]
     uniq, inv = np.unique(codes, return_inverse=True)
-    return uniq, inv
+    return uniq, inv.astype(np.int32)
 
 
 def _key_text(keys: pd.DataFrame, j: int) -> str:
@@ -518,16 +524,18 @@ def _frequencies_of_sorted_rows(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, s
     starts = np.flatnonzero(np.r_[True, new_series])
     if len(starts) != n_series:  # some series' rows are not together
         return None
-    big = np.iinfo(np.int64).max
-    day = _day_numbers(u_stamps)[dcode]
-    gap = np.empty(len(day), dtype=np.int64)
+    big = np.iinfo(np.int32).max
+    day = _day_numbers(u_stamps).astype(np.int32)[dcode]  # days since 1970 fit in 4 bytes
+    gap = np.empty(len(day), dtype=np.int32)
     gap[0] = big
-    gap[1:] = np.diff(day)
+    np.subtract(day[1:], day[:-1], out=gap[1:])
+    del day
     if (gap[1:][~new_series] < 0).any():  # dates out of order inside a series
         return None
     gap[1:][new_series | (gap[1:] == 0)] = big
     min_gap = np.full(n_series, big, dtype=np.int64)
     min_gap[sid[starts]] = np.minimum.reduceat(gap, starts)
+    min_gap[min_gap == big] = np.iinfo(np.int64).max  # no gap (one row), as the matrix path has it
     wd = u_stamps.day_of_week.to_numpy().astype(np.int64)
     if (wd == wd[0]).all():  # every date on one weekday (weekly data): so is every series
         return _frequency_classes(min_gap, np.ones(n_series, dtype=int), np.full(n_series, wd[0]))

@@ -102,10 +102,13 @@ def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col
         writer = FittedWriter(tmp / "fitted.parquet", panel)
         try:
             fitted = fit_long_panel(panel, cal, opts, runner=runner, on_fitted=writer.write)
+            # the writer's thread finishes the fitted rows while the other tables are built and
+            # written (none of them reads fitted.parquet)
+            result = build_result(fitted, keys, levels, group_col, date_col, value_col,
+                                  tmp / "fitted.parquet")
+            result.write_into(tmp)
         finally:
             writer.close()
-        result = build_result(fitted, keys, levels, group_col, date_col, value_col, tmp / "fitted.parquet")
-        result.write_into(tmp)
     result.fitted_path = out / "fitted.parquet"
     return result
 

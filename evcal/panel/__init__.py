@@ -71,11 +71,13 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
 
     from evcal.fit.options import FitOptions
     from evcal.panel.distributed import make_runner
+    from evcal.panel.memory import arrow_on_system_heap
 
     opts = FitOptions(**options)
     runner = make_runner(workers, scheduler, progress)
-    # the matrices are small: one BLAS thread each, the cores go to the units instead
-    with threadpool_limits(limits=1):
+    # the matrices are small: one BLAS thread each, the cores go to the units instead; pyarrow
+    # and numpy share one heap, so the pages one frees the other reuses
+    with threadpool_limits(limits=1), arrow_on_system_heap():
         return _fit(history, calendar, series_cols, date_col, value_col, freq, level, group_col, opts,
                     runner, out)
 

@@ -6,15 +6,23 @@ are freed; a fit that makes many short-lived (series × periods) arrays on
 two threads would then hold far more memory than it uses at any moment.
 ``malloc_trim`` returns the free pages of every arena. pyarrow's pool keeps
 the buffers of a file it has read in the same way.
+
+While a panel is fitted, pyarrow allocates from the same C library heap
+(:func:`arrow_on_system_heap`): its default pool (mimalloc or jemalloc) cannot
+reuse the pages numpy has freed, so reading the file, streaming the fitted
+rows and writing the tables would each add their own pages on top of them.
 """
 
 from __future__ import annotations
 
+import contextlib
 import ctypes
 import functools
+import os
+from collections.abc import Iterator
 from typing import Any
 
-__all__ = ["release_freed_memory"]
+__all__ = ["release_freed_memory", "arrow_on_system_heap"]
 
 
 @functools.lru_cache(maxsize=1)
@@ -37,3 +45,23 @@ def release_freed_memory(arrow: bool = False) -> None:
     libc = _libc()
     if libc is not None and hasattr(libc, "malloc_trim"):
         libc.malloc_trim(0)
+
+
+@contextlib.contextmanager
+def arrow_on_system_heap() -> Iterator[None]:
+    """pyarrow's default pool set to the C library's allocator for the duration (then restored).
+
+    Left alone when ``ARROW_DEFAULT_MEMORY_POOL`` names a pool (the user's
+    choice). Buffers made meanwhile go back to the pool that made them.
+    """
+    if os.environ.get("ARROW_DEFAULT_MEMORY_POOL"):
+        yield
+        return
+    import pyarrow as pa
+
+    before = pa.default_memory_pool()
+    pa.set_memory_pool(pa.system_memory_pool())
+    try:
+        yield
+    finally:
+        pa.set_memory_pool(before)

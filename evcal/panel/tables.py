@@ -62,6 +62,12 @@ class GroupInfo:
         return [c for c in self.fitted_cols if c not in set(self.base_columns)]
 
 
+def column_arrays(frame: pd.DataFrame) -> dict[str, np.ndarray]:
+    """Each column of a numeric frame as a contiguous float array (one conversion for all of them)."""
+    values = np.asfortranarray(frame.to_numpy(dtype=float))
+    return {c: values[:, j] for j, c in enumerate(frame.columns)}
+
+
 @dataclass
 class _Occ:
     event: str
@@ -97,7 +103,7 @@ class SpanContext:
 
     def __post_init__(self) -> None:
         if not self.columns:
-            self.columns = {c: self.raw[c].to_numpy(dtype=float) for c in self.raw.columns}
+            self.columns = column_arrays(self.raw)
         if self.closure_matrix is None:
             self.closure_matrix = self.closures.reindex(self.periods).fillna(0.0).to_numpy(dtype=float)
 
@@ -143,7 +149,7 @@ def _occurrence_windows(calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame,
         cols_of.setdefault(ev, []).append(c)
     p_start = periods.start_time.normalize().to_numpy()
     p_end = periods.end_time.normalize().to_numpy()
-    x_np = {c: X[c].to_numpy(dtype=float) for c in X.columns}
+    x_np = column_arrays(X)
     out = []
     for r in occ.itertuples(index=False):
         ev = calendar.event(r.event)

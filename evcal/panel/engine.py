@@ -448,7 +448,8 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions) -> tuple[list[A
     groups: list[Group] = []
     pos = np.flatnonzero(batched)
     if len(pos):
-        obs = ~np.isnan(panel.values[:, pos])
+        # (all series are usually batched: no copy of the values then)
+        obs = ~np.isnan(panel.values if len(pos) == panel.n_series else panel.values[:, pos])
         tr_code = np.where(screen.transform[pos] == "log", 0, 1)
         t0 = template(str(screen.transform[pos[0]]))
         origins = t0.origins(panel.first[pos])

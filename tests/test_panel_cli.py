@@ -188,3 +188,31 @@ def test_dask_local_cluster_gives_identical_results(tmp_path, monkeypatch):
             pd.testing.assert_frame_equal(a.reset_index(drop=True), b.reset_index(drop=True),
                                           check_exact=True)
         pd.testing.assert_frame_equal(here.fitted, other.fitted, check_exact=True)
+
+
+def test_streamed_fitted_rows_equal_the_in_memory_ones(tmp_path, monkeypatch):
+    # fitted.parquet is written block by block on a thread, as required (non-null) columns;
+    # with a gap (NaN actuals) and a per-series count model among the blocks it must hold
+    # exactly the rows the in-memory result has
+    import evcal.panel.engine as engine
+
+    monkeypatch.setattr(engine, "BLOCK_SERIES", 2)
+    frame = _long(5)
+    frame = frame.drop(index=frame.index[(frame["product"] == "P2") & frame.index.isin(range(330, 336))])
+    rng = np.random.default_rng(8)
+    counts = pd.DataFrame({"product": "SLOW", "store": "S1", "date": frame["date"].unique(),
+                           "value": rng.poisson(2.0, 156).astype(float)})
+    frame = pd.concat([frame, counts], ignore_index=True)
+    here = fit_panel(frame, CAL, ["product"])
+    written = fit_panel(frame, CAL, ["product"], out=tmp_path / "m")
+    assert set(here.series["engine"]) == {"batched", "per-series"}
+    a = here.fitted.reset_index(drop=True)
+    b = written.fitted  # read back from fitted.parquet
+    assert written.fitted_path == tmp_path / "m" / "fitted.parquet"
+    assert list(a.columns) == list(b.columns)
+    assert a["actual"].isna().sum() == 6 and b["actual"].isna().sum() == 6
+    assert (a["product"].astype(str).to_numpy() == b["product"].astype(str).to_numpy()).all()
+    num = [c for c in a.columns if c not in ("product", "date", "in_fit")]
+    np.testing.assert_array_equal(a[num].to_numpy(float), b[num].to_numpy(float))
+    assert (a["date"].to_numpy() == b["date"].to_numpy()).all()
+    assert (a["in_fit"].to_numpy() == b["in_fit"].to_numpy()).all()

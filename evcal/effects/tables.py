@@ -74,6 +74,14 @@ def lifts_table(result: Any, X: pd.DataFrame, parts: pd.DataFrame, occurrences: 
     return pd.DataFrame(rows, columns=LIFT_COLUMNS + ["kind", "label"])
 
 
+def columns_by_event(calendar: Any) -> dict[str, list[str]]:
+    """Each event's design columns, in the order the calendar names them."""
+    cols_of: dict[str, list[str]] = {}
+    for c, ev in calendar.event_columns().items():
+        cols_of.setdefault(ev, []).append(c)
+    return cols_of
+
+
 def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame,
                       parts: pd.DataFrame, rng_seed: int = 7) -> pd.DataFrame:
     """What each past occurrence added, in units and in % of base over its window."""
@@ -81,10 +89,7 @@ def occurrences_table(result: Any, calendar: Any, periods: pd.PeriodIndex, X: pd
     occ = calendar.occurrences(start, end)
     if occ.empty:
         return pd.DataFrame(columns=OCC_COLUMNS + ["low_units", "high_units"])
-    colmap = calendar.event_columns()
-    cols_of: dict[str, list[str]] = {}
-    for c, ev in colmap.items():
-        cols_of.setdefault(ev, []).append(c)
+    cols_of = columns_by_event(calendar)
     p_start = periods.start_time.normalize().to_numpy()
     p_end = periods.end_time.normalize().to_numpy()
     days = period_days(periods)

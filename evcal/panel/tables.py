@@ -28,7 +28,7 @@ import pandas as pd
 from evcal.design.base import period_days
 from evcal.design.seasonal import AnnualFourier, SeasonalDummies, base_freq, cycle_length
 from evcal.effects.decompose import closure_shares
-from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS, Z95
+from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS, Z95, columns_by_event
 
 __all__ = ["SpanContext", "GroupInfo", "BlockTables", "Columns", "block_tables", "join_columns",
            "join_tables", "text_dtype"]
@@ -143,10 +143,7 @@ def _occurrence_windows(calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame,
     occ = calendar.occurrences(start, end)
     if occ.empty:
         return []
-    colmap = calendar.event_columns()
-    cols_of: dict[str, list[str]] = {}
-    for c, ev in colmap.items():
-        cols_of.setdefault(ev, []).append(c)
+    cols_of = columns_by_event(calendar)
     p_start = periods.start_time.normalize().to_numpy()
     p_end = periods.end_time.normalize().to_numpy()
     x_np = column_arrays(X)

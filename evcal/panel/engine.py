@@ -255,10 +255,12 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     g = unit.shared.group
     assert g.solve is not None
     rows = g.rows
-    y = unit.actual[:, rows].T
+    # (periods × series); a view when every period is fitted (no gaps: the usual case)
+    y = unit.actual.T if rows.all() else unit.actual[:, rows].T
     if g.transform == "log":
         with np.errstate(divide="ignore"):
-            Y = np.log(y) - g.offset[:, None]
+            Y = np.log(y)
+        Y -= g.offset[:, None]
     else:
         # the single-series path divides by the open share, then scales rows by it
         share = g.share[:, None]
@@ -288,9 +290,11 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         curved_all = curved_columns(g.curve, g.info, refined.theta_in)
     parts: list[BlockTables] = []
     for (f, last), ctx in unit.shared.contexts.items():
-        pick = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last))
+        pick: Any = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last))
         if not len(pick):
             continue
+        if len(pick) == len(unit.sids):
+            pick = slice(None)  # the whole block has this span (the usual case): views, not copies
         curved = {c: v[pick, f:last + 1] for c, v in curved_all.items()}
         support = {c: t[(t >= f) & (t <= last)] - f for c in curved
                    if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}

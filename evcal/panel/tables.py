@@ -384,15 +384,14 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         fitted = with_events
         fitted *= share
     if len(ctx.closures.columns):
-        lost = base * (share - 1.0)
         cl = ctx.closure_matrix
         tot = cl.sum(axis=1)
         safe_tot = np.where(tot > 0, tot, 1.0)
         for j, c in enumerate(ctx.closures.columns):
-            # a closure's part is zero outside the periods it closes
+            # a closure's part (the base lost to closed days) is zero outside the periods it closes
             nz = np.flatnonzero((cl[:, j] > 0) & (tot > 0))
             parts[c] = np.zeros((m, n))
-            parts[c][:, nz] = lost[:, nz] * (cl[nz, j] / safe_tot[nz])[None, :]
+            parts[c][:, nz] = base[:, nz] * (share[:, nz] - 1.0) * (cl[nz, j] / safe_tot[nz])[None, :]
     mean_base = base.mean(axis=1)
 
     occ = _occurrences(ctx, group, parts, base, pmap, se_map, sids, curved)
@@ -415,9 +414,9 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     n_ok = ok.sum(axis=1)
     err = np.subtract(actual, fitted)
     np.abs(err, out=err)
-    abs_err = np.where(ok, err, 0.0).sum(axis=1)
+    abs_err = np.sum(err, axis=1, where=ok)
     np.abs(actual, out=err)
-    abs_act = np.where(ok, err, 0.0).sum(axis=1)
+    abs_act = np.sum(err, axis=1, where=ok)
     del err
     with np.errstate(divide="ignore", invalid="ignore"):
         wape = np.where(n_ok > 0, 100 * abs_err / abs_act, np.nan)

@@ -81,8 +81,12 @@ class SharedSolve:
         return int(self.X.shape[1])
 
     def coefficients(self, Y: np.ndarray) -> np.ndarray:
-        """Coefficients (k, m) only."""
-        return np.linalg.solve(self.R, self.Q.T @ Y)
+        """Coefficients (k, m) only: ``(XᵀX)⁻¹XᵀY = R⁻¹QᵀY = ZᵀY``, one product for all series.
+
+        ``R⁻¹`` is formed once per design (triangular, from the QR factors), so
+        each block costs a matrix product instead of a solve.
+        """
+        return self.Z.T @ Y
 
     def solve(self, Y: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Coefficients (k, m), residuals (n, m) and residual variances ``ssr / (n - k)`` (m,)."""

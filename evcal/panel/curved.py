@@ -184,7 +184,8 @@ def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.nd
             support |= curve.column(name, np.zeros(1))[0, fit_periods] != 0
     U = np.flatnonzero(support)
     xs = X_fit[:, [idx[term[j]] for j in js]]  # shared term columns (interventions)
-    return A, Qa, Ra, like_into, U, Qa[U], fit_periods[U], xs, Qa.T @ xs, xs.T @ xs, xs[U]
+    Ra_inv = np.linalg.solve(Ra, np.eye(Ra.shape[0]))  # once per group: each block then multiplies
+    return A, Qa, Ra_inv, like_into, U, Qa[U], fit_periods[U], xs, Qa.T @ xs, xs.T @ xs, xs[U]
 
 
 def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, Y: np.ndarray,
@@ -233,7 +234,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     cache = {} if cache is None else cache
     if "basis" not in cache:  # a race between two threads only computes it twice
         cache["basis"] = _group_basis(group, curve, rows, X_fit, idx, base, term, js, curved_cols)
-    A, Qa, Ra, like_into, U, QU, at, xs, ps, ss, xs_u = cache["basis"]
+    A, Qa, Ra_inv, like_into, U, QU, at, xs, ps, ss, xs_u = cache["basis"]
     qy = Qa.T @ Y
     YU = Y[U]
     sy = xs.T @ Y
@@ -314,7 +315,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     V, P, G = V_last, P_last, G_last  # built with theta_in
     bt = np.stack([params[idx[c]] for c in term], axis=1)  # (m, j)
     # the shared columns' coefficients, once, from each series' final pass
-    ba = np.linalg.solve(Ra, qy - np.einsum("mjk,mj->km", P, bt))
+    ba = Ra_inv @ (qy - np.einsum("mjk,mj->km", P, bt))
     for j, c in enumerate(base):
         params[idx[c]] = ba[j]
     # an event column is zero off the rows U, so its part of the residual is added there only

@@ -31,8 +31,9 @@ pooled lifts. The ratios are for the whole job each side does.
 Every timing is the best of ``--repeat`` runs (3 by default), on both sides:
 on a shared machine a single run can be slowed by other work by tens of
 percent, and the best run is the least disturbed measure of each side (the
-usual practice of ``timeit``). The runs of the two sides alternate, so a slow
-spell of the machine falls on both.
+usual practice of ``timeit``). The runs of the two sides alternate (whole
+process, loop, compute, then again), so a slow spell of the machine falls on
+both.
 
     python benchmarks/panel.py [--series 10000] [--loop-series 300] [--repeat 3]
 """
@@ -255,19 +256,21 @@ def main() -> None:
         _, base_mb = run_evcal(["--imports-only"], tmp)
         n_loop = min(args.loop_series, args.series)
         # the two sides take turns, so a slow spell of the machine falls on both
-        runs, loops = [], []
+        runs, loops, computes = [], [], []
         for _ in range(reps):
             runs.append(run_evcal(fit_args, tmp))
             loops.append(plain_loop(path, n_loop))
+            computes.append(evcal_compute(path, cal))
         wall, peak_mb = min(r[0] for r in runs), max(r[1] for r in runs)
         loop_fit = min(r[1] for r in loops)
         read_s = min(r[0] - r[1] for r in loops)
         scale = args.series / n_loop
         loop_total = read_s + loop_fit * scale
         loop_compute = loop_fit * scale
-        compute = min(evcal_compute(path, cal) for _ in range(reps))
+        compute = min(computes)
         print(f"best of {reps} runs each: evcal whole process {', '.join(f'{r[0]:.2f}' for r in runs)} s; "
-              f"loop on {n_loop} series {', '.join(f'{r[1]:.2f}' for r in loops)} s")
+              f"loop on {n_loop} series {', '.join(f'{r[1]:.2f}' for r in loops)} s; "
+              f"evcal compute {', '.join(f'{c:.2f}' for c in computes)} s")
 
         print(f"\nplain statsmodels loop: {n_loop} series fitted in {loop_fit:.2f} s "
               f"(+ {read_s:.2f} s reading); "

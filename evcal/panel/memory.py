@@ -19,6 +19,7 @@ import contextlib
 import ctypes
 import functools
 import os
+import threading
 from collections.abc import Iterator
 from typing import Any
 
@@ -47,21 +48,31 @@ def release_freed_memory(arrow: bool = False) -> None:
         libc.malloc_trim(0)
 
 
+_pool_lock = threading.Lock()
+_pool_users: list[Any] = []  # the pool to restore, once per fit using the system heap
+
+
 @contextlib.contextmanager
 def arrow_on_system_heap() -> Iterator[None]:
     """pyarrow's default pool set to the C library's allocator for the duration (then restored).
 
     Left alone when ``ARROW_DEFAULT_MEMORY_POOL`` names a pool (the user's
-    choice). Buffers made meanwhile go back to the pool that made them.
+    choice). Buffers made meanwhile go back to the pool that made them. Fits
+    running at the same time on several threads share the switch: the first
+    makes it, the last one out restores the pool that was set before.
     """
     if os.environ.get("ARROW_DEFAULT_MEMORY_POOL"):
         yield
         return
     import pyarrow as pa
 
-    before = pa.default_memory_pool()
-    pa.set_memory_pool(pa.system_memory_pool())
+    with _pool_lock:
+        _pool_users.append(pa.default_memory_pool() if not _pool_users else _pool_users[0])
+        pa.set_memory_pool(pa.system_memory_pool())
     try:
         yield
     finally:
-        pa.set_memory_pool(before)
+        with _pool_lock:
+            before = _pool_users.pop()
+            if not _pool_users:
+                pa.set_memory_pool(before)

@@ -10,7 +10,6 @@ process umask), so a plan written to a shared folder can be read there.
 from __future__ import annotations
 
 import contextlib
-import functools
 import os
 import shutil
 import tempfile
@@ -18,7 +17,6 @@ from collections.abc import Iterator
 from pathlib import Path
 
 
-@functools.lru_cache(maxsize=1)
 def _umask() -> int:
     """The process umask (read from /proc where it can be, without changing it)."""
     try:

@@ -56,7 +56,10 @@ def test_usage_error_keeps_its_exit_code() -> None:
 
 def test_files_written_by_a_command_are_complete(tmp_path: Path) -> None:
     out = tmp_path / "dates.csv"
-    proc = _run("calendar", "dates", str(CALENDAR), "--from", "2024", "--to", "2026", "--out", str(out))
+    args = ["calendar", "dates", str(CALENDAR), "--from", "2024", "--to", "2026"]
+    proc = _run(*args, "--out", str(out))
     assert proc.returncode == 0, proc.stderr
-    text = out.read_text(encoding="utf-8")
-    assert text.endswith("\n") and len(text.splitlines()) > 3
+    ref = tmp_path / "ref.csv"
+    assert CliRunner().invoke(app, [*args, "--out", str(ref)]).exit_code == 0
+    assert len(ref.read_text(encoding="utf-8").splitlines()) > 3
+    assert out.read_bytes() == ref.read_bytes()

@@ -15,7 +15,6 @@ from pathlib import Path
 
 import pytest
 
-from evcal import _files
 from evcal._files import atomic_dir, atomic_path
 
 posix_only = pytest.mark.skipif(sys.platform == "win32", reason="POSIX permissions")
@@ -29,7 +28,6 @@ def _mode(path: Path) -> int:
 @pytest.mark.parametrize("umask", [0o022, 0o077, 0o002])
 def test_finished_outputs_have_the_modes_of_a_plain_write(tmp_path: Path, umask: int) -> None:
     old = os.umask(umask)
-    _files._umask.cache_clear()
     try:
         plain_file = tmp_path / "plain.csv"
         plain_file.write_text("x\n")
@@ -44,7 +42,6 @@ def test_finished_outputs_have_the_modes_of_a_plain_write(tmp_path: Path, umask:
         assert _mode(tmp_path / "model") == _mode(plain_dir) == 0o777 & ~umask
     finally:
         os.umask(old)
-        _files._umask.cache_clear()
 
 
 def test_a_failed_write_leaves_nothing(tmp_path: Path) -> None:

@@ -121,7 +121,7 @@ def _ready_to_fit(calendar: Any) -> Any:
 
     from evcal.fit.model import load_calendar_any
 
-    for name in ("evcal.panel.engine", "evcal.panel.tables", "evcal.panel.curved", "evcal.panel.pooling"):
+    for name in ("evcal.panel.engine", "evcal.panel.curved", "evcal.panel.pooling"):
         importlib.import_module(name)
     return load_calendar_any(calendar)
 

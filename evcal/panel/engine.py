@@ -554,9 +554,6 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
                    "coefficients": len(g.info.fitted_cols), "hac_lags": g.solve.lags if g.solve else None,
                    "status": {c: {"status": st.status, "note": st.note} for c, st in g.info.status.items()},
                    "fitted_columns": g.info.fitted_cols, "notes": g.notes} for g in groups]
-    # the units' freed temporaries go back to the system before the tables are written: the
-    # writers' buffers come from pyarrow's own pool and could not reuse them
-    release_freed_memory()
     return PanelFit(panel, options, cal, tables.lifts, tables.occurrences, tables.profile, tables.fitted,
                     tables.quality, series.sort_values("_sid", kind="stable").reset_index(drop=True),
                     params.sort_values("_sid", kind="stable").reset_index(drop=True), skipped, group_rows)

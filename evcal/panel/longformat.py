@@ -524,7 +524,7 @@ def _frequencies_of_sorted_rows(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, s
     starts = np.flatnonzero(np.r_[True, new_series])
     if len(starts) != n_series:  # some series' rows are not together
         return None
-    big = np.iinfo(np.int32).max
+    big = np.iinfo(np.int32).max  # "no gap" (one row): no frequency class, as in the matrix path
     day = _day_numbers(u_stamps).astype(np.int32)[dcode]  # days since 1970 fit in 4 bytes
     gap = np.empty(len(day), dtype=np.int32)
     gap[0] = big
@@ -535,7 +535,6 @@ def _frequencies_of_sorted_rows(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, s
     gap[1:][new_series | (gap[1:] == 0)] = big
     min_gap = np.full(n_series, big, dtype=np.int64)
     min_gap[sid[starts]] = np.minimum.reduceat(gap, starts)
-    min_gap[min_gap == big] = np.iinfo(np.int64).max  # no gap (one row), as the matrix path has it
     wd = u_stamps.day_of_week.to_numpy().astype(np.int64)
     if (wd == wd[0]).all():  # every date on one weekday (weekly data): so is every series
         return _frequency_classes(min_gap, np.ones(n_series, dtype=int), np.full(n_series, wd[0]))

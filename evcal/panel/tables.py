@@ -68,6 +68,15 @@ def column_arrays(frame: pd.DataFrame) -> dict[str, np.ndarray]:
     return {c: values[:, j] for j, c in enumerate(frame.columns)}
 
 
+def sparse_support(nz: np.ndarray | None, n: int) -> np.ndarray | None:
+    """``nz`` (a column's non-zero periods) when it is under half of the ``n`` periods, else None.
+
+    Worth working on the support only when it saves most of the work; a column
+    with None is handled on all its periods.
+    """
+    return nz if nz is not None and 2 * len(nz) < n else None
+
+
 @dataclass
 class _Occ:
     event: str
@@ -114,8 +123,7 @@ class SpanContext:
         coefficients are needed on these periods only (kept for later blocks).
         """
         if col not in self._support:
-            nz = np.flatnonzero(self.columns[col])
-            self._support[col] = nz if 2 * len(nz) < len(self.periods) else None
+            self._support[col] = sparse_support(np.flatnonzero(self.columns[col]), len(self.periods))
         return self._support[col]
 
     def base_matrix(self, cols: list[str]) -> np.ndarray:
@@ -327,8 +335,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     tmat: dict[str, np.ndarray] = {}
     for c in terms:
         if c in curved:
-            nz = (curved_support or {}).get(c)
-            support[c] = nz if nz is not None and 2 * len(nz) < n else None
+            support[c] = sparse_support((curved_support or {}).get(c), n)
             x = curved[c] if support[c] is None else curved[c][:, support[c]]
         else:
             support[c] = ctx.support(c)

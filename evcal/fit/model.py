@@ -255,20 +255,50 @@ def check_history_length(history: Any) -> None:
             f"(two full seasonal cycles of {cycle_length(history.freq)} periods) are needed")
 
 
-def average_share_profile(values: pd.Series) -> pd.Series:
-    """Each position's mean share of its year over full years (the plain profile, common practice)."""
+def average_share_profile(values: pd.Series, closed: Any = None) -> pd.Series:
+    """Each position's mean share of its year over full years (the plain profile, common practice).
+
+    A period known to be closed (``closed`` True, e.g. a calendar closure with
+    ``effect: zero``) counts as a period with zero sales, so a year with a
+    closure is still a full year and the closed position gets a share of 0,
+    never NaN. Other periods without a value (gaps, exclusions) are left out;
+    a year is full when it has a value or a closure at every position. Every
+    share returned is finite; a position seen in no full year is not returned.
+
+    Parameters
+    ----------
+    values : Series
+        Sales per period (PeriodIndex); NaN where not known.
+    closed : array of bool, optional
+        Periods known to be closed (sales zero by the calendar).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> idx = pd.period_range("2021-01", "2022-12", freq="M")
+    >>> v = pd.Series(np.where(idx.month == 8, np.nan, 10.0), index=idx)
+    >>> prof = average_share_profile(v, closed=idx.month == 8)
+    >>> float(prof[8]), round(float(prof[1]), 4)
+    (0.0, 0.0909)
+    """
     periods = values.index
+    v = values.to_numpy(dtype=float).copy()
+    if closed is not None:
+        v[np.asarray(closed, dtype=bool)] = 0.0
     pos = season_position(periods)
     years = periods.start_time.year
-    frame = pd.DataFrame({"v": values.to_numpy(), "pos": pos, "year": years})
-    counts = frame.groupby("year")["v"].count()
+    frame = pd.DataFrame({"v": v, "pos": pos, "year": years})
     p = cycle_length(periods.freqstr)
-    full = counts[counts >= p].index
-    frame = frame[frame["year"].isin(full)]
-    if frame.empty:
+    # a full year has a value (or a known closure) at every position of the cycle
+    seen = frame.dropna(subset=["v"]).groupby("year")["pos"].nunique()
+    full = seen[seen >= p].index
+    frame = frame[frame["year"].isin(full)].dropna(subset=["v"])
+    totals = frame.groupby("year")["v"].transform("sum")
+    frame = frame.assign(share=frame["v"] / totals.where(totals > 0))
+    prof = frame.dropna(subset=["share"]).groupby("pos")["share"].mean()
+    prof = prof[np.isfinite(prof.to_numpy())]
+    if prof.empty or not prof.sum() > 0:
         return pd.Series(dtype=float)
-    frame = frame.assign(share=frame["v"] / frame.groupby("year")["v"].transform("sum"))
-    prof = frame.groupby("pos")["share"].mean()
     return prof / prof.sum()
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -13,12 +12,20 @@ import pandas as pd
 from evcal import __version__
 from evcal._files import atomic_dir
 from evcal.design.matrix import DesignSpec
-from evcal.errors import ModelError
 from evcal.fit.identify import ColumnStatus
 from evcal.fit.options import FitOptions
+from evcal.fit.schema import (
+    FORMAT_VERSION,
+    MODEL_FILES,
+    check_consistency,
+    dumps,
+    json_safe,
+    model_dict,
+    read_folder,
+    validate_model_json,
+)
 
-FORMAT_VERSION = 1
-MODEL_FILES = ("model.json", "lifts.csv", "occurrences.csv", "profile.csv", "fitted.csv")
+__all__ = ["FitResult", "load_model", "json_safe", "FORMAT_VERSION", "MODEL_FILES"]
 
 
 @dataclass
@@ -137,8 +144,7 @@ class FitResult:
         """Write the output folder of the contract (atomically: all files or none)."""
         directory = Path(directory)
         with atomic_dir(directory) as tmp:
-            (tmp / "model.json").write_text(json.dumps(json_safe(self.to_json()), indent=1),
-                                            encoding="utf-8")
+            (tmp / "model.json").write_text(dumps(self.to_json()), encoding="utf-8")
             self.lifts.to_csv(tmp / "lifts.csv", index=False, float_format="%.6g")
             self.occurrences.to_csv(tmp / "occurrences.csv", index=False, float_format="%.6g")
             self.profile.to_csv(tmp / "profile.csv", index=False, float_format="%.6g")
@@ -146,7 +152,24 @@ class FitResult:
         return directory
 
     @classmethod
-    def from_json(cls, d: dict[str, Any]) -> FitResult:
+    def from_json(cls, d: dict[str, Any], source: str | Path = "model.json") -> FitResult:
+        """A model from the contents of ``model.json``, checked first (:mod:`evcal.fit.schema`).
+
+        Raises
+        ------
+        ModelError
+            One line naming ``source`` and the first key that is missing, of the wrong type,
+            not finite where a finite number is needed, or inconsistent with the others.
+        """
+        path = Path(source)
+        m = validate_model_json(path, d)
+        cal, _ = check_consistency(path, m)
+        res = cls._from_checked(model_dict(m))
+        res._calendar = cal
+        return res
+
+    @classmethod
+    def _from_checked(cls, d: dict[str, Any]) -> FitResult:
         cols = d["cov"]["columns"]
         return cls(
             options=FitOptions.from_dict(d["options"]),
@@ -183,55 +206,25 @@ class FitResult:
         )
 
 
-def json_safe(obj: Any) -> Any:
-    """Plain JSON values: NaN and infinity become null, numpy scalars Python ones, keys text."""
-    if isinstance(obj, float):
-        return obj if np.isfinite(obj) else None
-    if isinstance(obj, dict):
-        return {str(k): json_safe(v) for k, v in obj.items()}
-    if isinstance(obj, list | tuple):
-        return [json_safe(v) for v in obj]
-    if isinstance(obj, np.floating):
-        return json_safe(float(obj))
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    return obj
-
-
 def load_model(directory: str | Path) -> FitResult:
-    """Read a model folder written by :meth:`FitResult.save`.
+    """Read a model folder written by :meth:`FitResult.save`, checking every key and table first.
 
     Raises
     ------
     ModelError
-        A file is missing, unreadable, or from an incompatible format version.
+        A file is missing, unreadable, from another format version, or damaged: one line
+        naming the file and the key (see :func:`evcal.fit.schema.read_folder`).
+
+    Examples
+    --------
+    >>> res = load_model("models/garden")                     # doctest: +SKIP
+    >>> res.plan("2027-01-01", "2027-12-31").table.head()     # doctest: +SKIP
     """
-    directory = Path(directory)
-    if not directory.is_dir():
-        raise ModelError(f"{directory}: not a model folder (it does not exist); run evcal fit first")
-    missing = [f for f in MODEL_FILES if not (directory / f).is_file()]
-    if missing:
-        raise ModelError(f"{directory}: model folder is missing {', '.join(missing)}; "
-                         "re-run evcal fit to write a complete folder")
-    try:
-        d = json.loads((directory / "model.json").read_text(encoding="utf-8"))
-    except (OSError, json.JSONDecodeError) as err:
-        raise ModelError(f"{directory / 'model.json'}: not readable JSON ({err})") from None
-    fv = d.get("format_version") if isinstance(d, dict) else None
-    if fv != FORMAT_VERSION:
-        raise ModelError(
-            f"{directory / 'model.json'}: format_version {fv!r} written by evcal "
-            f"{d.get('evcal_version', '?') if isinstance(d, dict) else '?'}; this evcal "
-            f"({__version__}) reads format_version {FORMAT_VERSION}; re-run evcal fit")
-    try:
-        res = FitResult.from_json(d)
-    except (KeyError, TypeError, ValueError) as err:
-        raise ModelError(f"{directory / 'model.json'}: incomplete or damaged (missing {err}); "
-                         "re-run evcal fit") from None
-    res.lifts = pd.read_csv(directory / "lifts.csv")
-    res.occurrences = pd.read_csv(directory / "occurrences.csv")
-    res.profile = pd.read_csv(directory / "profile.csv")
-    res.fitted = pd.read_csv(directory / "fitted.csv", parse_dates=["date"])
+    folder = read_folder(directory)
+    res = FitResult._from_checked(folder.model)
+    res._calendar = folder.calendar
+    res.lifts = folder.lifts
+    res.occurrences = folder.occurrences
+    res.profile = folder.profile
+    res.fitted = folder.fitted
     return res

@@ -84,6 +84,9 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         ``total``/``totals`` with more than one series (a target is per plan:
         plan one series, or fit the level the target belongs to and allocate).
     """
+    from evcal.plan.simulate import check_sims
+
+    check_sims(n_sims)  # before any series is loaded or planned
     path = Path(model) if not isinstance(model, PanelResult) else None
     model = load_panel(model) if path is not None else model
     keys = _selected(model, series)

@@ -39,7 +39,7 @@ from evcal.plan.horizon import (
 from evcal.plan.noise import error_forecast
 from evcal.plan.result import Plan
 from evcal.plan.schedule import resolve_schedule
-from evcal.plan.simulate import simulate_interval
+from evcal.plan.simulate import check_sims, simulate_interval
 from evcal.plan.spread import apply_spread, check_total, read_totals, spread_factors
 
 ERROR_COLUMN = "__error_forecast__"
@@ -86,7 +86,8 @@ def make_plan(
     new_events : {"error", "zero"}
         What to do with an event the model never saw and that has no assumed or borrowed lift.
     n_sims : int
-        Simulation draws for the interval (0: no interval; low/high are NaN).
+        Simulation draws for the interval, 0 to 100,000 (0: no interval; low/high are
+        NaN), and at most 50 million draws x periods (:func:`evcal.plan.simulate.check_sims`).
     seed : int
         Random seed of the simulation.
 
@@ -109,6 +110,7 @@ def make_plan(
     if total is not None and totals is not None:
         raise PlanError("give either --total (one target for the horizon) or --totals (a target per "
                         "year), not both")
+    check_sims(n_sims)
     target_total = check_total(total) if total is not None else None
     year_totals = read_totals(totals) if totals is not None else None
     periods = horizon_periods(result, start, end)
@@ -127,6 +129,7 @@ def plan_periods(
     seed: int = 0,
 ) -> Plan:
     """:func:`make_plan` for periods already checked (used by the backtest and scenarios)."""
+    n_sims = check_sims(n_sims, len(periods))
     cal = load_plan_calendar(result, calendar)
     colmap = cal.event_columns()
     event_cols = [c for c, ev in colmap.items() if cal.event(ev).effect.kind != "zero"]

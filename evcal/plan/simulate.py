@@ -15,6 +15,18 @@ and adds one period's noise:
 period. Borrowed lifts (``like``) move with the coefficient they borrow;
 assumed lifts are fixed (they carry no uncertainty of their own). Fully closed
 periods are zero in every draw.
+
+Count models and separation. When every count at one seasonal position (or
+in one event's periods) is zero, the GLM's estimate of that coefficient has no
+finite maximum (separation: Albert & Anderson, Biometrika 1984): the fit stops
+at a large negative value with a huge standard error, and a normal draw from it
+is ``exp`` of hundreds or thousands, i.e. infinite or exactly zero counts. Such
+coefficients (standard error above :data:`MAX_LOG_SE` on the log scale) are held
+at their estimate, and the other coefficients are drawn from their normal
+distribution conditional on them (the Schur complement of the covariance), so
+the interval keeps the uncertainty the data do carry. Means are formed on the
+log scale with closed periods at exactly zero, so no draw multiplies a zero
+share by an overflow.
 """
 
 from __future__ import annotations
@@ -24,17 +36,79 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.errors import PlanError
 from evcal.plan.noise import ErrorForecast
 from evcal.plan.schedule import Schedule
 
+#: a coefficient of a count model whose standard error on the log scale is above this is not
+#: drawn: its 95 % interval would span a factor of exp(2 x 1.96 x 10), about 1e17, which only
+#: happens when the estimate runs off towards minus infinity (separation; see the module notes)
+MAX_LOG_SE = 10.0
+#: largest mean count a draw may have (numpy's Poisson sampler refuses means near 9.2e18)
+MAX_COUNT_MEAN = 1e15
+
+
+#: most simulation draws a plan takes: 100,000 puts the 2.5 % and 97.5 % quantiles within a
+#: fraction of a percent of their limit (common practice, no source); more only costs memory
+MAX_SIMS = 100_000
+#: most numbers one draws x periods array may hold (50 million: 400 MB of float64); the
+#: simulation keeps a few such arrays at once
+MAX_DRAW_CELLS = 50_000_000
+
+
+def check_sims(n_sims: Any, n_periods: int | None = None) -> int:
+    """The number of simulation draws as an int in 0..:data:`MAX_SIMS`, or a one-line :class:`PlanError`.
+
+    With ``n_periods``, also ``n_sims x n_periods <= MAX_DRAW_CELLS``: each draw
+    holds one number per period (8 bytes each) in several arrays at once.
+
+    Examples
+    --------
+    >>> check_sims(1000)
+    1000
+    >>> check_sims(100_000_000)  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    evcal.errors.PlanError: --sims 100000000: ...
+    """
+    if isinstance(n_sims, bool) or not isinstance(n_sims, int | np.integer):
+        raise PlanError(f"--sims {n_sims!r}: not a whole number; give 0 (no interval) to {MAX_SIMS:,}")
+    n = int(n_sims)
+    if not 0 <= n <= MAX_SIMS:
+        raise PlanError(f"--sims {n}: must be 0 (no interval) to {MAX_SIMS:,} draws; the simulation "
+                        f"keeps draws x periods numbers of 8 bytes in memory several times over, and "
+                        f"{MAX_SIMS:,} draws already fix the 95 % interval's ends closely")
+    if n_periods and n * n_periods > MAX_DRAW_CELLS:
+        most = MAX_DRAW_CELLS // n_periods
+        raise PlanError(f"--sims {n}: a horizon of {n_periods} periods allows at most {most:,} draws "
+                        f"(draws x periods x 8 bytes, at most {MAX_DRAW_CELLS * 8 // 10**6} MB per array); "
+                        "use fewer draws or a shorter horizon")
+    return n
+
+
+def separated(cov: pd.DataFrame) -> list[str]:
+    """Count-model coefficients whose normal approximation says nothing (see :data:`MAX_LOG_SE`).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> separated(pd.DataFrame([[0.01, 0.0], [0.0, 2e8]], index=["a", "b"], columns=["a", "b"]))
+    ['b']
+    """
+    var = np.diag(cov.to_numpy(dtype=float))
+    return [c for c, v in zip(cov.columns, var, strict=True) if not v <= MAX_LOG_SE ** 2]
+
 
 def draw_coefficients(params: pd.Series, cov: pd.DataFrame, n: int,
-                      rng: np.random.Generator) -> pd.DataFrame:
+                      rng: np.random.Generator, fixed: list[str] | None = None) -> pd.DataFrame:
     """``n`` draws of the estimated coefficients from N(params, cov).
 
     The covariance is factored by its eigen-decomposition with negative
     eigenvalues (rounding) set to zero, so a nearly singular covariance still
-    gives draws.
+    gives draws. Coefficients named in ``fixed`` stay at their estimate in every
+    draw and the others are drawn conditionally on them (covariance
+    ``S_oo - S_of S_ff^-1 S_fo``; the conditional mean is the estimate, since
+    the fixed ones sit at theirs).
 
     Examples
     --------
@@ -48,6 +122,13 @@ def draw_coefficients(params: pd.Series, cov: pd.DataFrame, n: int,
     mu = params.reindex(names).fillna(0.0).to_numpy(dtype=float)
     c = cov.to_numpy(dtype=float)
     c = (c + c.T) / 2.0
+    hold = np.isin(names, list(fixed or []))
+    if hold.any():
+        o, f = ~hold, hold
+        s_of = c[np.ix_(o, f)]
+        cond = c[np.ix_(o, o)] - s_of @ np.linalg.pinv(c[np.ix_(f, f)]) @ s_of.T
+        c = np.zeros_like(c)
+        c[np.ix_(o, o)] = cond
     w, v = np.linalg.eigh(c)
     root = v * np.sqrt(np.clip(w, 0.0, None))[None, :]
     z = rng.standard_normal((n, len(names)))
@@ -94,13 +175,15 @@ def simulate_interval(
     """
     rng = np.random.default_rng(seed)
     n = int(n_sims)
-    draws = draw_coefficients(result.params, result.cov, n, rng)
+    transform = result.transform
+    # a count model's separated coefficients are held at their estimate (module notes)
+    fixed = separated(result.cov) if transform == "count" else []
+    draws = draw_coefficients(result.params, result.cov, n, rng, fixed=fixed)
     params = result.params
     B = X[base_cols].to_numpy(dtype=float)  # periods x base columns
     Pb = np.column_stack([_coef_draws(c, draws, params, n) for c in base_cols]) if base_cols \
         else np.zeros((n, 0))
     eta_base = Pb @ B.T  # draws x periods
-    transform = result.transform
     terms = np.zeros_like(eta_base)
     assumed_units = np.zeros_like(eta_base)
     for c in schedule.columns:
@@ -133,14 +216,20 @@ def simulate_interval(
         level_units = eta_base + terms + assumed_units + err.mean[None, :]
         y = share[None, :] * level_units + open_[None, :] * sd[None, :] * z
     elif transform == "count":
-        mu = share[None, :] * np.exp(eta_base + terms)
+        # the mean on the log scale: closed periods are exactly zero (no 0 x overflow)
+        with np.errstate(divide="ignore", over="ignore"):
+            log_mu = np.where(share[None, :] > 0, np.log(np.where(share > 0, share, 1.0))[None, :]
+                              + eta_base + terms, -np.inf)
+            mu = np.exp(log_mu)
+        if not (np.all(mu <= MAX_COUNT_MEAN) and np.all(np.isfinite(log_mu) | (log_mu == -np.inf))):
+            raise PlanError("the count model's coefficients give a mean beyond any count in some "
+                            "simulation draws, so no interval can be simulated; plan with --sims 0 "
+                            "(no low/high), or refit on a longer history")
         kind = result.error_model.get("kind")
         if kind == "negative_binomial":
             alpha = max(float(result.error_model.get("alpha", 0.0)), 1e-12)
             r = 1.0 / alpha
-            mu_safe = np.maximum(mu, 1e-300)
-            y = rng.negative_binomial(r, r / (r + mu_safe)).astype(float)
-            y = np.where(mu > 0, y, 0.0)
+            y = rng.negative_binomial(r, r / (r + mu)).astype(float)
         else:
             y = rng.poisson(mu).astype(float)
     else:

@@ -540,9 +540,14 @@ _TRUE = {"true", "yes", "weak"}
 _FALSE = {"false", "no"}
 
 
+#: columns read as text; every other column is parsed by pandas (numbers, with an empty cell as NaN)
+TEXT_COLUMNS = ("event", "note", "kind", "label", "identifiable", "date", "start", "end")
+
+
 def _read_csv(path: Path, required: tuple[str, ...]) -> pd.DataFrame:
     try:
-        frame = pd.read_csv(path, dtype=str, keep_default_na=False, na_filter=False)
+        frame = pd.read_csv(path, dtype=dict.fromkeys(TEXT_COLUMNS, str), keep_default_na=False,
+                            na_values=[""])
     except pd.errors.EmptyDataError:
         raise ModelError(f"{path}: the file is empty; expected a header row with "
                          f"{', '.join(required)}; {AGAIN}") from None
@@ -560,22 +565,32 @@ def _read_csv(path: Path, required: tuple[str, ...]) -> pd.DataFrame:
 
 
 def _cells(path: Path, frame: pd.DataFrame, col: str, *, required: bool) -> pd.Series:
-    """A text column as floats: empty is NaN (only where ``required`` is False)."""
-    text = frame[col].str.strip()
-    num = pd.to_numeric(text.where(text != "", None), errors="coerce")
-    bad = (text != "") & num.isna() & ~text.str.lower().isin(["nan"])
-    if required:
-        bad |= ~np.isfinite(num.to_numpy(dtype=float))
+    """A column as floats: an empty cell is NaN, refused where ``required`` (with non-finite values)."""
+    values = frame[col]
+    if values.dtype.kind in "fiu":  # pandas parsed every cell as a number (the usual case: fast)
+        num = values.to_numpy(dtype=float)
+        bad = ~np.isfinite(num) if required else np.zeros(len(num), dtype=bool)
+    else:
+        text = values.astype(str).str.strip().where(values.notna(), "")
+        num = pd.to_numeric(text.where(text != "", None), errors="coerce").to_numpy(dtype=float)
+        bad = ((text != "") & np.isnan(num) & ~text.str.lower().eq("nan")).to_numpy()
+        if required:
+            bad = bad | ~np.isfinite(num)
     if bad.any():
-        i = int(np.flatnonzero(bad.to_numpy())[0])
-        what = "is empty" if text.iloc[i] == "" else f"{_shown(text.iloc[i])} is not a " + (
+        i = int(np.flatnonzero(bad)[0])
+        raw = values.iloc[i]
+        what = "is empty" if pd.isna(raw) or str(raw).strip() == "" else f"{_shown(str(raw))} is not a " + (
             "finite number" if required else "number")
         raise ModelError(f"{path}: line {i + 2}: column {col}: {what}; {AGAIN}")
-    return num.astype(float)
+    return pd.Series(num, index=frame.index, dtype=float)
+
+
+def _text(frame: pd.DataFrame, col: str) -> pd.Series:
+    return frame[col].fillna("").astype(str)
 
 
 def _days(path: Path, frame: pd.DataFrame, col: str) -> pd.Series:
-    text = frame[col].str.strip()
+    text = _text(frame, col).str.strip()
     days = pd.to_datetime(text, errors="coerce", format="%Y-%m-%d")
     if days.isna().any():
         i = int(np.flatnonzero(days.isna().to_numpy())[0])
@@ -585,7 +600,7 @@ def _days(path: Path, frame: pd.DataFrame, col: str) -> pd.Series:
 
 
 def _flags(path: Path, frame: pd.DataFrame, col: str) -> pd.Series:
-    text = frame[col].str.strip().str.lower()
+    text = _text(frame, col).str.strip().str.lower()
     ok = text.isin(_TRUE | _FALSE)
     if not ok.all():
         i = int(np.flatnonzero(~ok.to_numpy())[0])
@@ -595,7 +610,7 @@ def _flags(path: Path, frame: pd.DataFrame, col: str) -> pd.Series:
 
 
 def _names(path: Path, frame: pd.DataFrame, col: str, allowed: set[str] | None = None) -> pd.Series:
-    text = frame[col]
+    text = _text(frame, col)
     bad = text.str.strip() == ""
     if allowed is not None:
         bad |= ~text.isin(allowed)
@@ -625,8 +640,11 @@ def read_tables(directory: Path, model: ModelJson, periods: pd.PeriodIndex) -> d
     for col in ("lift_pct", "low_pct", "high_pct", "units_per_occurrence"):
         lifts[col] = _cells(path, lifts, col, required=False)
     lifts["identifiable"] = _flags(path, lifts, "identifiable")
+    lifts["note"] = _text(lifts, "note")
+    if "label" in lifts.columns:
+        lifts["label"] = _text(lifts, "label")
     if "kind" in lifts.columns:
-        kinds = lifts["kind"].str.strip()
+        lifts["kind"] = kinds = _text(lifts, "kind").str.strip()
         if not kinds.isin(["event", "intervention"]).all():
             i = int(np.flatnonzero(~kinds.isin(["event", "intervention"]).to_numpy())[0])
             raise ModelError(f"{path}: line {i + 2}: column kind: {_shown(lifts['kind'].iloc[i])} is not "
@@ -673,11 +691,9 @@ def read_tables(directory: Path, model: ModelJson, periods: pd.PeriodIndex) -> d
     for col in ("fitted", "base"):
         fit[col] = _cells(path, fit, col, required=True)
     for col in fit.columns.drop(list(FITTED_REQUIRED)):
-        low = fit[col].str.strip().str.lower()
-        if len(low) and low.isin(["true", "false"]).all():
-            fit[col] = low.eq("true")
-        else:
-            fit[col] = _cells(path, fit, col, required=False)
+        if fit[col].dtype == bool:  # a flag column (in_fit): pandas reads True/False as booleans
+            continue
+        fit[col] = _cells(path, fit, col, required=False)
     out["fitted"] = fit
     return out
 

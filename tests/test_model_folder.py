@@ -213,17 +213,6 @@ def test_empty_lifts_csv_is_refused(demo_model: Path, tmp_path: Path) -> None:
     _one_line(_plan_cli(m, tmp_path), "lifts.csv", "empty")
 
 
-def test_report_reader_uses_the_same_checks(demo_model: Path, tmp_path: Path) -> None:
-    from evcal.report.model_folder import read_model_folder
-
-    m = _copy(demo_model, tmp_path / "m")
-    _edit_json(m, lambda d: d["params"].__setitem__("const", "Infinity"))
-    with pytest.raises(ModelError) as err:
-        read_model_folder(m)
-    assert err.value.problems == [f"{m / 'model.json'}: params.const: \"Infinity\" is not a finite number; "
-                                  "re-run evcal fit to write the folder again"]
-
-
 # ------------------------------------------------------------------ --sims (issue 13, seen 4)
 
 

@@ -83,30 +83,52 @@ def read_model_folder(
 ) -> ModelFolder:
     """Read and check a model folder and the optional plan and backtest files.
 
-    The model folder is read by :func:`evcal.fit.schema.read_folder`, the same
-    checked reader ``evcal plan`` and ``evcal show`` use.
-
     Raises
     ------
     ModelError
-        A missing folder or file, a damaged key of model.json, a missing column,
-        a value that is not a date or a number (with its line in the file).
+        One line per problem: a missing folder or file, a missing column, a
+        value that is not a date or a number (with its line in the file).
     """
-    from evcal.fit.schema import read_folder
-
-    # the one reader of a model folder (evcal.fit.schema): every key of model.json and every
-    # table is checked as `plan` and `show` check it; the first problem is one ModelError line
-    checked = read_folder(model_dir)
-    folder = checked.path
-    model = checked.model
+    folder = Path(model_dir)
+    if not folder.is_dir():
+        raise ModelError(f"{folder}: model folder not found (write one with `evcal fit`)")
+    missing = [name for name in ("model.json", *MODEL_FILES) if not (folder / name).is_file()]
+    if missing:
+        raise ModelError(
+            [f"{folder / name}: missing from the model folder (`evcal fit` writes it)" for name in missing]
+        )
+    model = _read_model_json(folder / "model.json")
+    frames = {name: _read_csv(folder / name, cols) for name, cols in MODEL_FILES.items()}
     problems: list[str] = []
-    lifts = checked.lifts.copy()
-    lifts["note"] = lifts["note"].astype(str)
+
+    lifts = frames["lifts.csv"]
+    for col in ("lift_pct", "low_pct", "high_pct", "units_per_occurrence"):
+        lifts[col] = _numbers(lifts[col], folder / "lifts.csv", col, problems)
+    lifts["identifiable"] = _booleans(lifts["identifiable"], folder / "lifts.csv", problems)
+    lifts["event"] = lifts["event"].astype(str)
+    lifts["note"] = lifts["note"].fillna("").astype(str)
     lifts["kind"] = _kinds(lifts, model)
     lifts["label"] = _labels(lifts, model)
-    occ = checked.occurrences
-    profile = checked.profile
-    fitted = checked.fitted
+
+    occ = frames["occurrences.csv"]
+    occ["event"] = occ["event"].astype(str)
+    for col in ("start", "end"):
+        occ[col] = _dates(occ[col], folder / "occurrences.csv", col, problems)
+    for col in ("added_units", "added_pct"):
+        occ[col] = _numbers(occ[col], folder / "occurrences.csv", col, problems)
+
+    profile = frames["profile.csv"]
+    for col in ("period", "index"):
+        profile[col] = _numbers(profile[col], folder / "profile.csv", col, problems)
+
+    fitted = frames["fitted.csv"]
+    fitted["date"] = _dates(fitted["date"], folder / "fitted.csv", "date", problems)
+    for col in ("actual", "fitted", "base"):
+        fitted[col] = _numbers(fitted[col], folder / "fitted.csv", col, problems)
+    for col in fitted.columns.drop(["date", "actual", "fitted", "base"]):
+        fitted[col] = _extra_column(fitted[col], folder / "fitted.csv", col, problems)
+    for col in occ.columns.drop(list(MODEL_FILES["occurrences.csv"])):
+        occ[col] = _extra_column(occ[col], folder / "occurrences.csv", col, problems)
 
     plan = None
     if plan_csv is not None:

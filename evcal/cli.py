@@ -56,13 +56,13 @@ def _debug() -> bool:
     return _DEBUG["on"] or bool(os.environ.get("EVCAL_DEBUG"))
 
 
-def _command_name() -> str:
-    ctx = click.get_current_context(silent=True)
-    names = []
-    while ctx is not None and ctx.parent is not None:
-        names.append(ctx.info_name or "")
-        ctx = ctx.parent
-    return " ".join(["evcal", *reversed(names)])
+def _command_name(callback: Callable[..., Any]) -> str:
+    """``evcal fit``, ``evcal calendar dates``: the command registered with ``callback``."""
+    for prefix, group in (("evcal", app), ("evcal calendar", calendar_app)):
+        for info in group.registered_commands:
+            if info.callback is callback:
+                return f"{prefix} {info.name or callback.__name__}"
+    return "evcal"
 
 
 def last_resort_line(err: BaseException, command: str, inputs: list[str]) -> str:
@@ -112,7 +112,7 @@ def guarded(fn: F) -> F:
             if _debug():
                 typer.echo(traceback.format_exc(), err=True, nl=False)
             inputs = [str(kwargs[k]) for k in _INPUT_PARAMS if isinstance(kwargs.get(k), str) and kwargs[k]]
-            typer.echo(f"error: {last_resort_line(err, _command_name(), inputs)}", err=True)
+            typer.echo(f"error: {last_resort_line(err, _command_name(wrapper), inputs)}", err=True)
             raise typer.Exit(code=1) from None
 
     return wrapper  # type: ignore[return-value]

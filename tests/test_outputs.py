@@ -74,7 +74,7 @@ def model(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return d / "model"
 
 
-# ---------------------------------------------------------------- seen 1: --out destroys what evcal did not write
+# ---------------------------------------- seen 1: --out destroys what evcal did not write
 
 
 def test_fit_out_at_the_data_folder_is_refused_and_nothing_changes(tmp_path: Path) -> None:
@@ -145,7 +145,7 @@ def test_report_and_backtest_refuse_an_input(model: Path, tmp_path: Path) -> Non
     assert _hashes(model) == before
 
 
-# ---------------------------------------------------------------- seen 4: read-only parent, existing directory
+# ---------------------------------------- seen 4: read-only parent, existing directory
 
 
 def test_plan_out_naming_an_existing_directory_is_refused(model: Path, tmp_path: Path) -> None:

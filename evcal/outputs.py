@@ -197,10 +197,11 @@ def _check_folder(out: Path, kind: str, force: bool) -> None:
         raise OutputError(f"--out {out}: this folder was not written by evcal and would be replaced with "
                           f"everything in it; choose a new folder such as {_suggest(out, kind)}")
     if owner.extra:
-        more = f" and {len(owner.extra) - 1} more file(s)" if len(owner.extra) > 1 else ""
+        many = len(owner.extra) > 1
+        more = f" and {len(owner.extra) - 1} more file(s)" if many else ""
         raise OutputError(f"--out {out}: holds {clip(owner.extra[0], 100)}{more} that evcal did not write; "
-                          f"move them out of the folder, or choose a new folder such as "
-                          f"{_suggest(out.parent, kind)}")
+                          f"move {'them' if many else 'it'} out of the folder, or choose a new folder such "
+                          f"as {_suggest(out.parent, kind)}")
     if (owner.kind != kind or owner.version not in (MARKER_VERSION, 1)) and not force:
         found = f"{_WHAT.get(owner.kind, owner.kind)} (format version {owner.version})"
         raise OutputError(f"--out {out}: holds evcal's {found}, not a {_WHAT[kind]}; choose a new folder "

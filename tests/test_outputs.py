@@ -118,6 +118,16 @@ def test_plan_out_inside_the_model_folder_is_refused(model: Path) -> None:
     assert _hashes(model) == before
 
 
+def test_fit_from_a_file_inside_the_out_folder_is_refused(model: Path, tmp_path: Path) -> None:
+    out = tmp_path / "model"
+    shutil.copytree(model, out)
+    before = _hashes(out)
+    res = runner.invoke(app, ["fit", str(out / "fitted.csv"), "--value-col", "actual", "--errors", "ols",
+                              "--out", str(out)])
+    _refused(res, "fitted.csv", "input")
+    assert _hashes(out) == before
+
+
 def test_calendar_dates_out_at_its_calendar_is_refused(tmp_path: Path) -> None:
     data = _data(tmp_path)
     before = _hashes(data)

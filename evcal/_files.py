@@ -26,6 +26,7 @@ import json
 import os
 import re
 import shutil
+import sys
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -242,7 +243,7 @@ def _is_temp(relative: str) -> bool:
 
 
 def _alive(pid: int) -> bool:
-    if pid == os.getpid():
+    if pid == os.getpid() or sys.platform == "win32":  # os.kill(pid, 0) would end the process there
         return True
     try:
         os.kill(pid, 0)

@@ -54,6 +54,7 @@ LEGACY_FINDINGS_FILES = frozenset({"suggestions.csv", "suggestions.yaml", "findi
                                    "lost_demand.csv"})
 #: the entries of a demo folder written before the marker existed
 LEGACY_DEMO_ENTRIES = frozenset({"model", "plan.csv", "plan.xlsx", "backtest.csv", "report.html"})
+_LEGACY_TOP = LEGACY_MODEL_FILES | LEGACY_PANEL_FILES | LEGACY_FINDINGS_FILES | LEGACY_DEMO_ENTRIES
 
 
 def _umask() -> int:
@@ -186,14 +187,16 @@ def folder_owner(folder: str | Path) -> Owner | None:
     'model'
     """
     folder = Path(folder)
-    files = folder_files(folder)
     marker = read_marker(folder)
     if marker is not None:
         listed = set(marker["files"]) | {MARKER}
-        # a listed file's folders are listed too (the demo's model/ folder)
         return Owner(marker["kind"], marker.get("format_version"),
-                     tuple(f for f in files if f not in listed and not _is_temp(f)))
-    return _legacy_owner(folder, set(files))
+                     tuple(f for f in folder_files(folder) if f not in listed and not _is_temp(f)))
+    # without a marker, look inside only when the top level could be an old evcal folder: --out at
+    # a home folder must not walk a million files to say no
+    if not set(os.listdir(folder)) <= _LEGACY_TOP:
+        return None
+    return _legacy_owner(folder, set(folder_files(folder)))
 
 
 def write_marker(folder: str | Path, kind: str, files: list[str] | None = None) -> Owner:

@@ -5,16 +5,56 @@ these helpers. The rename is atomic on the same filesystem. The temporary
 file or folder is made private (as ``tempfile`` makes it); the finished one
 gets the permissions a plain ``open`` or ``mkdir`` would have given it (the
 process umask), so a plan written to a shared folder can be read there.
+
+Every folder evcal writes carries a marker file, :data:`MARKER`
+(``evcal-output.json``): who wrote it, what kind of output it is, the format
+version and every file evcal put there. That is how evcal knows a folder is
+its own before it replaces it; a folder that is not evcal's, or that holds a
+file evcal did not write, is never replaced (:class:`~evcal.errors.OutputError`).
+
+Temporary siblings are named ``.evcal-tmp.<name>.<pid>.<random>`` (and a
+folder being swapped out ``.evcal-old.<name>.<pid>.<random>``), so the
+leftovers of a save that was killed (SIGKILL, power cut) are recognisably
+evcal's: the next write to the same target removes those whose process is no
+longer alive and leaves everything else alone.
 """
 
 from __future__ import annotations
 
 import contextlib
+import json
 import os
+import re
 import shutil
-import tempfile
+import sys
 from collections.abc import Iterator
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
+
+from evcal.errors import OutputError
+
+#: the marker file in every folder evcal writes
+MARKER = "evcal-output.json"
+#: kinds of folder evcal writes
+FOLDER_KINDS = ("model", "panel", "findings", "demo")
+#: version of the marker (and of the folder layout it describes)
+MARKER_VERSION = 1
+#: prefixes of evcal's temporary siblings (a save in progress, a folder being swapped out)
+TMP_PREFIX = ".evcal-tmp."
+OLD_PREFIX = ".evcal-old."
+
+#: the files of a model folder written before the marker existed
+LEGACY_MODEL_FILES = frozenset({"model.json", "lifts.csv", "occurrences.csv", "profile.csv", "fitted.csv"})
+#: the files a panel folder written before the marker may hold
+LEGACY_PANEL_FILES = frozenset({"panel.json", "series.csv", "lifts.csv", "pooling.csv", "occurrences.csv",
+                                "profile.csv", "fitted.parquet", "coefficients.parquet", "skipped.csv"})
+#: the files a findings folder (evcal discover) written before the marker may hold
+LEGACY_FINDINGS_FILES = frozenset({"suggestions.csv", "suggestions.yaml", "findings.png", "index_effects.csv",
+                                   "lost_demand.csv"})
+#: the entries of a demo folder written before the marker existed
+LEGACY_DEMO_ENTRIES = frozenset({"model", "plan.csv", "plan.xlsx", "backtest.csv", "report.html"})
+_LEGACY_TOP = LEGACY_MODEL_FILES | LEGACY_PANEL_FILES | LEGACY_FINDINGS_FILES | LEGACY_DEMO_ENTRIES
 
 
 def _umask() -> int:
@@ -36,9 +76,235 @@ def _as_created(path: Path, mode: int) -> None:
         os.chmod(path, mode & ~_umask())
 
 
+# ---------------------------------------------------------------- whose folder is it
+
+
+@dataclass(frozen=True)
+class Owner:
+    """What evcal knows of an existing folder it wrote: its kind, version and any stranger's files."""
+
+    kind: str
+    version: Any
+    extra: tuple[str, ...] = ()
+
+
+def folder_files(folder: Path) -> list[str]:
+    """Every file under ``folder`` (recursively, ``/``-separated, sorted); links and empty folders too.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "a.csv").write_text("x")
+    >>> folder_files(d)
+    ['a.csv']
+    """
+    found: list[str] = []
+    for root, dirs, files in os.walk(folder):
+        rel = Path(root).relative_to(folder)
+        found.extend((rel / name).as_posix() for name in files)
+        for name in dirs:
+            full = os.path.join(root, name)
+            if os.path.islink(full):  # os.walk does not descend into links: count the link itself
+                found.append((rel / name).as_posix())
+            elif not os.listdir(full):  # an empty folder someone made
+                found.append((rel / name).as_posix() + "/")
+    return sorted(found)
+
+
+def read_marker(folder: str | Path) -> dict[str, Any] | None:
+    """The marker of ``folder`` when it is a valid one evcal wrote, else None."""
+    path = Path(folder) / MARKER
+    if not path.is_file() or path.is_symlink() or path.stat().st_size > 50_000_000:
+        return None
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError, RecursionError):
+        return None
+    if not isinstance(data, dict) or data.get("written_by") != "evcal":
+        return None
+    files = data.get("files")
+    if not isinstance(data.get("kind"), str) or not isinstance(files, list) \
+            or not all(isinstance(f, str) for f in files):
+        return None
+    return data
+
+
+def _json_field(path: Path, key: str) -> Any:
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError, RecursionError):
+        return None
+    return data.get(key) if isinstance(data, dict) else None
+
+
+def _first_line(path: Path, size: int = 4096) -> str:
+    try:
+        with open(path, "rb") as f:
+            return f.read(size).decode("utf-8", errors="replace")
+    except OSError:
+        return ""
+
+
+def _legacy_owner(folder: Path, files: set[str]) -> Owner | None:
+    """A folder evcal wrote before the marker existed (exactly its own files), else None."""
+    if files == LEGACY_MODEL_FILES:
+        version = _json_field(folder / "model.json", "format_version")
+        return Owner("model", version) if version == 1 else None
+    if "panel.json" in files and files <= LEGACY_PANEL_FILES:
+        if _json_field(folder / "panel.json", "format") == "evcal-panel":
+            return Owner("panel", _json_field(folder / "panel.json", "format_version"))
+        return None
+    if {"suggestions.csv", "suggestions.yaml"} <= files <= LEGACY_FINDINGS_FILES:
+        return Owner("findings", 1) if _first_line(folder / "suggestions.csv").startswith("kind,start,") \
+            else None
+    top = {f.split("/", 1)[0] for f in files}
+    if "model" in top and top <= LEGACY_DEMO_ENTRIES and (folder / "model").is_dir():
+        inner = {f.split("/", 1)[1] for f in files if f.startswith("model/")}
+        report = folder / "report.html"
+        if _legacy_owner(folder / "model", inner) == Owner("model", 1) and (
+                not report.is_file() or 'class="kicker">evcal report<' in _first_line(report, 20_000)):
+            return Owner("demo", 1)
+    return None
+
+
+def folder_owner(folder: str | Path) -> Owner | None:
+    """Whether evcal wrote the existing folder ``folder``: its :class:`Owner`, or None when it did not.
+
+    A folder is evcal's when it holds a valid :data:`MARKER`, or is a model,
+    panel, findings or demo folder written before the marker existed (exactly
+    the files evcal writes there, with evcal's own headers). ``extra`` lists
+    the files inside that the marker does not name: a user's file dropped into
+    evcal's folder, which evcal must never delete.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> folder_owner(d) is None
+    True
+    >>> write_marker(d, "model").kind
+    'model'
+    """
+    folder = Path(folder)
+    marker = read_marker(folder)
+    if marker is not None:
+        listed = set(marker["files"]) | {MARKER}
+        return Owner(marker["kind"], marker.get("format_version"),
+                     tuple(f for f in folder_files(folder) if f not in listed and not _is_temp(f)))
+    # without a marker, look inside only when the top level could be an old evcal folder: --out at
+    # a home folder must not walk a million files to say no
+    if not set(os.listdir(folder)) <= _LEGACY_TOP:
+        return None
+    return _legacy_owner(folder, set(folder_files(folder)))
+
+
+def write_marker(folder: str | Path, kind: str, files: list[str] | None = None) -> Owner:
+    """Write ``folder``'s :data:`MARKER` naming ``files`` (default: every file now in it)."""
+    from evcal import __version__
+
+    folder = Path(folder)
+    if kind not in FOLDER_KINDS:
+        raise ValueError(f"kind {kind!r}: not one of {', '.join(FOLDER_KINDS)}")
+    listed = sorted(f for f in (folder_files(folder) if files is None else files) if f != MARKER)
+    body = {"written_by": "evcal", "kind": kind, "format_version": MARKER_VERSION,
+            "evcal_version": __version__, "files": listed}
+    tmp = _temp_name(folder / MARKER)
+    tmp.write_text(json.dumps(body, indent=1) + "\n", encoding="utf-8")
+    _as_created(tmp, 0o666)
+    os.replace(tmp, folder / MARKER)
+    return Owner(kind, MARKER_VERSION)
+
+
+def refuse_foreign_folder(target: Path) -> None:
+    """Raise :class:`OutputError` unless the existing ``target`` is a folder evcal may replace."""
+    if target.is_symlink() or not target.is_dir():
+        raise OutputError(f"{target}: exists and is not a folder evcal wrote (it is a "
+                          f"{'link' if target.is_symlink() else 'file'}); choose a new folder name")
+    owner = folder_owner(target)
+    if owner is None:
+        raise OutputError(f"{target}: this folder was not written by evcal and would be replaced with "
+                          "everything in it; choose a new folder name")
+    if owner.extra:
+        more = f" (and {len(owner.extra) - 1} more)" if len(owner.extra) > 1 else ""
+        raise OutputError(f"{target / owner.extra[0]}{more}: not written by evcal, so the folder "
+                          f"{target} is not replaced; move that file out of it or choose a new folder name")
+
+
+# ---------------------------------------------------------------- temporary siblings and leftovers
+
+
+def _temp_name(target: Path, prefix: str = TMP_PREFIX, suffix: str = "") -> Path:
+    """A fresh name ``.evcal-tmp.<name>.<pid>.<random><suffix>`` beside ``target`` (not created)."""
+    return target.parent / f"{prefix}{target.name}.{os.getpid()}.{os.urandom(5).hex()}{suffix}"
+
+
+def _is_temp(relative: str) -> bool:
+    """Whether a path inside a folder is one of evcal's temporary siblings (a save in progress)."""
+    name = relative.rstrip("/").rsplit("/", 1)[-1]
+    return name.startswith((TMP_PREFIX, OLD_PREFIX))
+
+
+def _alive(pid: int) -> bool:
+    if pid == os.getpid() or sys.platform == "win32":  # os.kill(pid, 0) would end the process there
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except (PermissionError, OSError):  # someone else's process (or no way to tell): alive
+        return True
+    return True
+
+
+def leftovers(target: str | Path) -> list[Path]:
+    """evcal's own temporary siblings of ``target`` whose process is no longer alive.
+
+    Only names of the form ``.evcal-tmp.<target name>.<pid>.<random>[suffix]``
+    (and ``.evcal-old.``) count; a pid that is alive, or any other name, is
+    left alone.
+    """
+    target = Path(target)
+    pattern = re.compile(r"(\d+)\.[0-9a-z_]+" + re.escape(target.suffix) + "$")
+    found = []
+    try:
+        names = os.listdir(target.parent)
+    except OSError:
+        return []
+    for name in names:
+        for prefix in (TMP_PREFIX, OLD_PREFIX):
+            head = f"{prefix}{target.name}."
+            if name.startswith(head):
+                m = pattern.fullmatch(name[len(head):])
+                if m and not _alive(int(m.group(1))):
+                    found.append(target.parent / name)
+    return sorted(found)
+
+
+def remove_leftovers(target: str | Path) -> list[Path]:
+    """Remove :func:`leftovers` of ``target`` (best effort); returns what was removed."""
+    removed = []
+    for path in leftovers(target):
+        with contextlib.suppress(OSError):
+            if path.is_dir() and not path.is_symlink():
+                shutil.rmtree(path)
+            else:
+                path.unlink()
+            removed.append(path)
+    return removed
+
+
+# ---------------------------------------------------------------- the writers
+
+
 @contextlib.contextmanager
 def atomic_path(target: str | Path) -> Iterator[Path]:
     """Yield a temporary file path next to ``target``; rename it on success.
+
+    Raises
+    ------
+    OutputError
+        ``target`` is an existing folder (a file is never put in a folder's place).
 
     Examples
     --------
@@ -50,10 +316,14 @@ def atomic_path(target: str | Path) -> Iterator[Path]:
     'hello'
     """
     target = Path(target)
+    if target.is_dir():
+        raise OutputError(f"{target}: is a folder, and a file is to be written here; name a file "
+                          "inside it or beside it instead")
     target.parent.mkdir(parents=True, exist_ok=True)
-    fd, name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=target.suffix, dir=target.parent)
+    remove_leftovers(target)
+    tmp = _temp_name(target, suffix=target.suffix)
+    fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
     os.close(fd)
-    tmp = Path(name)
     try:
         yield tmp
         _as_created(tmp, 0o666)
@@ -64,20 +334,46 @@ def atomic_path(target: str | Path) -> Iterator[Path]:
 
 
 @contextlib.contextmanager
-def atomic_dir(target: str | Path) -> Iterator[Path]:
+def atomic_dir(target: str | Path, kind: str | None = None) -> Iterator[Path]:
     """Yield a temporary folder next to ``target``; swap it into place on success.
 
-    An existing ``target`` folder is replaced only after the new one is complete.
+    An existing ``target`` folder is replaced only after the new one is
+    complete, and only when evcal wrote it (:func:`folder_owner`) and it holds
+    nothing evcal did not put there. With ``kind`` (one of
+    :data:`FOLDER_KINDS`) the new folder gets its :data:`MARKER`, naming every
+    file written into it.
+
+    Raises
+    ------
+    OutputError
+        ``target`` exists and is not a folder evcal may replace.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> with atomic_dir(d / "model", kind="model") as tmp:
+    ...     _ = (tmp / "lifts.csv").write_text("event\\n")
+    >>> sorted(p.name for p in (d / "model").iterdir())
+    ['evcal-output.json', 'lifts.csv']
     """
     target = Path(target)
+    if kind is not None and kind not in FOLDER_KINDS:
+        raise ValueError(f"kind {kind!r}: not one of {', '.join(FOLDER_KINDS)}")
+    if target.exists() or target.is_symlink():
+        refuse_foreign_folder(target)
     target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.", dir=target.parent))
+    remove_leftovers(target)
+    tmp = _temp_name(target)
+    tmp.mkdir(mode=0o700)
     try:
         yield tmp
+        if kind is not None:
+            write_marker(tmp, kind)
         _as_created(tmp, 0o777)
         if target.exists():
-            old = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=target.parent))
-            old.rmdir()
+            refuse_foreign_folder(target)  # again: a file may have been dropped in meanwhile
+            old = _temp_name(target, OLD_PREFIX)
             os.replace(target, old)
             os.replace(tmp, target)
             shutil.rmtree(old, ignore_errors=True)

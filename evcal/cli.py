@@ -1,8 +1,11 @@
 """The ``evcal`` command line: thin wrappers over the steps.
 
-Each command parses options, calls one step's API and writes its outputs
-atomically. Any :class:`~evcal.errors.EvcalError` becomes one line per
-problem on stderr and exit code 2; no traceback reaches the user.
+Each command parses options, checks its output location
+(:func:`evcal.outputs.check_output`) before reading anything, calls one step's
+API and writes its outputs atomically. Any :class:`~evcal.errors.EvcalError`
+becomes one line per problem on stderr and exit code 2; any other exception
+one line naming the command and its inputs, exit code 1. No traceback reaches
+the user unless asked for (``evcal --debug ...`` or ``EVCAL_DEBUG=1``).
 """
 
 from __future__ import annotations
@@ -11,13 +14,14 @@ import contextlib
 import functools
 import os
 import sys
+import traceback
 from collections.abc import Callable
 from typing import Annotated, Any, TypeVar
 
-import numpy as np
+import click
 import typer
 
-from evcal.errors import EvcalError
+from evcal.errors import EvcalError, clip
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -31,9 +35,65 @@ app = typer.Typer(
 calendar_app = typer.Typer(help="Check an event calendar and list its dates.", no_args_is_help=True)
 app.add_typer(calendar_app, name="calendar")
 
+#: set by the global ``--debug`` flag for the command being run
+_DEBUG = {"on": False}
+#: parameters of the commands that name an input (file or folder), for the last-resort message
+_INPUT_PARAMS = ("history", "file", "model_dir", "calendar", "plan", "backtest", "totals", "compare_cal",
+                 "stockouts", "allocate", "data")
+_REPORT = "please report this with the command line and the input files"
+
+
+@app.callback()
+def _root(
+    debug: bool = typer.Option(
+        False, "--debug", help="Show the traceback of an unexpected problem (as EVCAL_DEBUG=1 does)."),
+) -> None:
+    """Calendar-effect models: event lifts, a clean seasonal base, forward plans."""
+    _DEBUG["on"] = debug
+
+
+def _debug() -> bool:
+    return _DEBUG["on"] or bool(os.environ.get("EVCAL_DEBUG"))
+
+
+def _command_name(callback: Callable[..., Any]) -> str:
+    """``evcal fit``, ``evcal calendar dates``: the command registered with ``callback``."""
+    for prefix, group in (("evcal", app), ("evcal calendar", calendar_app)):
+        for info in group.registered_commands:
+            if info.callback is callback:
+                return f"{prefix} {info.name or callback.__name__}"
+    return "evcal"
+
+
+def last_resort_line(err: BaseException, command: str, inputs: list[str]) -> str:
+    """The one line an unexpected exception ends in: the command, its inputs, what to do.
+
+    Examples
+    --------
+    >>> last_resort_line(RecursionError("maximum recursion depth exceeded"), "evcal fit", ["a.csv"])
+    'evcal fit: unexpected problem (RecursionError: maximum recursion depth exceeded) with input a.csv; \
+please report this with the command line and the input files (add --debug to see the traceback)'
+    """
+    name = type(err).__name__
+    shown = f" with input{'s' if len(inputs) > 1 else ''} {', '.join(clip(i, 120) for i in inputs)}" \
+        if inputs else ""
+    debug = "add --debug to see the traceback"
+    if isinstance(err, OSError):
+        where = err.filename if err.filename is not None else "a file or folder"
+        reason = err.strerror or clip(str(err))
+        return (f"{command}: {clip(str(where), 200)}: {reason} ({name}); check that the path exists, "
+                f"that you may read or write it and that the disk has room ({debug})")
+    if isinstance(err, MemoryError):
+        return (f"{command}: ran out of memory (MemoryError){shown}; try smaller inputs or options "
+                f"(e.g. fewer --sims); if it should fit, {_REPORT} ({debug})")
+    text = " ".join(str(err).split())
+    detail = f"{name}: {clip(text)}" if text else name
+    return f"{command}: unexpected problem ({detail}){shown}; {_REPORT} ({debug})"
+
 
 def guarded(fn: F) -> F:
-    """Turn user-fixable errors into one line each on stderr and exit code 2."""
+    """Turn user-fixable errors into one line each on stderr and exit code 2; anything else into one
+    line naming the command and its inputs and exit code 1 (the last-resort handler)."""
 
     @functools.wraps(fn)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
@@ -43,17 +103,17 @@ def guarded(fn: F) -> F:
             for line in err.problems:
                 typer.echo(f"error: {line}", err=True)
             raise typer.Exit(code=err.exit_code) from None
-        except (ValueError, KeyError, TypeError, np.linalg.LinAlgError) as err:
-            # A bug or an input we did not foresee: say so in one line; a
-            # traceback only when asked for (EVCAL_DEBUG=1).
-            if os.environ.get("EVCAL_DEBUG"):
-                raise
-            typer.echo(f"error: unexpected problem ({type(err).__name__}: {err}); "
-                       "re-run with EVCAL_DEBUG=1 for details", err=True)
-            raise typer.Exit(code=1) from None
+        except (click.exceptions.Exit, click.exceptions.ClickException, click.exceptions.Abort):
+            raise  # typer's own exits and usage errors keep their codes
         except KeyboardInterrupt:
             typer.echo("interrupted; no output written", err=True)
             raise typer.Exit(code=130) from None
+        except Exception as err:  # noqa: BLE001 - the last resort: a bug or an input we did not foresee
+            if _debug():
+                typer.echo(traceback.format_exc(), err=True, nl=False)
+            inputs = [str(kwargs[k]) for k in _INPUT_PARAMS if isinstance(kwargs.get(k), str) and kwargs[k]]
+            typer.echo(f"error: {last_resort_line(err, _command_name(wrapper), inputs)}", err=True)
+            raise typer.Exit(code=1) from None
 
     return wrapper  # type: ignore[return-value]
 
@@ -66,14 +126,23 @@ def main() -> None:
     ~850 loaded modules of pandas, pyarrow, pydantic, ...) takes about 0.2 s
     and has nothing left to do, so the process ends with ``os._exit`` once
     stdout and stderr are flushed (common practice for command-line tools, no
-    source). An unexpected exception still ends the normal way, with its
-    traceback.
+    source). An exception outside a command (the commands have their own
+    handler, :func:`guarded`) still ends in one line and exit code 1; with
+    ``--debug`` or ``EVCAL_DEBUG=1`` its traceback is shown first.
     """
     try:
         app()
         code: Any = 0
     except SystemExit as done:
         code = done.code
+    except KeyboardInterrupt:
+        print("interrupted; no output written", file=sys.stderr)
+        code = 130
+    except Exception as err:  # noqa: BLE001 - the last resort, outside any command
+        if _debug() or "--debug" in sys.argv[1:]:
+            traceback.print_exc()
+        print(f"error: {last_resort_line(err, 'evcal', [])}", file=sys.stderr)
+        code = 1
     if code is None:
         code = 0
     elif not isinstance(code, int):  # SystemExit("message"): Python prints it and exits with 1
@@ -132,13 +201,17 @@ def calendar_dates(
     out: str | None = typer.Option(
         None, "--out", help="CSV file to write (default: print to stdout)."
     ),
+    force: Force = False,
 ) -> None:
     """List every occurrence (event, start, end, strength) between two years, as CSV."""
     from pathlib import Path
 
     from evcal._files import atomic_path
     from evcal.calendar import load_calendar
+    from evcal.outputs import check_output
 
+    if out is not None:
+        check_output(out, "dates", inputs=[file], force=force)
     _check_year_range(from_year, to_year)
     cal = load_calendar(Path(file))
     table = cal.occurrences(from_year, to_year)
@@ -194,6 +267,9 @@ FourierOrder = Annotated[int, typer.Option("--fourier-order", help="Harmonics of
 TrendOrder = Annotated[int, typer.Option("--trend-order", help="0 flat, 1 linear, 2 quadratic.")]
 TradingDays = Annotated[bool, typer.Option("--trading-days", help="Weekday-composition terms (monthly).")]
 AllowNegative = Annotated[bool, typer.Option("--allow-negative", help="Accept negative values.")]
+Force = Annotated[bool, typer.Option(
+    "--force", help="Replace evcal's own output of another kind or version at --out (never a file or "
+    "folder evcal did not write, never an input).")]
 
 
 def _fit_options(transform: str, errors: str, arima_order: str | None, seasonal: str, fourier_order: int,
@@ -228,11 +304,16 @@ def fit_cmd(
     group_col: str = typer.Option(None, "--group-col", help="Column grouping series for pooled lifts."),
     workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
+    force: Force = False,
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
+    from evcal.outputs import check_output
+
+    panel = bool(series_col or level or group_col or workers or scheduler)
+    check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
     options = _fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                            trading_days, allow_negative)
-    if series_col or level or group_col or workers or scheduler:  # many series: evcal.panel
+    if panel:  # many series: evcal.panel
         from evcal.panel.cli_support import fit_panel_cmd
 
         return fit_panel_cmd(history, calendar, out, series_col, echo=typer.echo, level=level,
@@ -300,8 +381,10 @@ def plan_cmd(
     allocate: str | None = typer.Option(
         None, "--allocate", help="Panel models: spread the plan over this child panel model."),
     workers: int | None = typer.Option(None, "--workers", help="Panel models: plan on N processes."),
+    force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
+    from evcal.outputs import check_output
     from evcal.panel.result import is_panel_dir
 
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
@@ -309,11 +392,14 @@ def plan_cmd(
 
         return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
                               totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
-                              seed=seed, series=series or None, allocate=allocate, workers=workers)
+                              seed=seed, series=series or None, allocate=allocate, workers=workers,
+                              force=force)
+    kind = "compare" if compare_cal else "plan"
+    _check_out(out, kind)
+    check_output(out, kind, inputs=[model_dir, calendar, totals, compare_cal, allocate], force=force)
     from evcal.fit import load_model
     from evcal.plan import compare, make_plan
 
-    _check_out(out, "compare" if compare_cal else "plan")
     result = load_model(model_dir)
     options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed}
     if compare_cal:
@@ -348,16 +434,20 @@ def backtest_cmd(
     trend_order: TrendOrder = 1,
     trading_days: TradingDays = False,
     allow_negative: AllowNegative = False,
+    force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
     from pathlib import Path
 
     from evcal._files import atomic_path
     from evcal.errors import PlanError
-    from evcal.plan.backtesting import backtest, format_table
+    from evcal.outputs import check_output
 
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
+    check_output(out, "backtest", inputs=[history, calendar], force=force)
+    from evcal.plan.backtesting import backtest, format_table
+
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
                   value_col=value_col, freq=freq,
                   **_fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
@@ -380,11 +470,12 @@ def backtest_cmd(
 def demo_cmd(
     out: str = typer.Option("demo-output", "--out", "-o", help="Folder for every demo output."),
     data: str = typer.Option(None, "--data", help="Folder with the demo history and calendar."),
+    force: Force = False,
 ) -> None:
     """Run the whole job on the bundled, invented demo data (Fernhollow Garden Centres)."""
     from evcal.demo import run_demo
 
-    run_demo(out, data=data, echo=typer.echo)
+    run_demo(out, data=data, echo=typer.echo, force=force)  # checks --out first
 
 
 
@@ -401,8 +492,12 @@ def report_command(
         None, "--calendar", help="Calendar file for the day-by-day calendar view of the plan."
     ),
     title: str | None = typer.Option(None, "--title", help="Heading of the report."),
+    force: Force = False,
 ) -> None:
     """Write one HTML report: history, seasonal index, lifts, plan, calendar, backtest."""
+    from evcal.outputs import check_output
+
+    check_output(out, "report", inputs=[model_dir, plan, backtest, calendar], force=force)
     from evcal.report import write_report
 
     path = write_report(
@@ -427,12 +522,16 @@ def discover_cmd(
     transform: Transform = "auto",
     errors: Errors = "auto",
     critical: float = typer.Option(None, "--critical", help="Chen-Liu critical |tau| (default by length)."),
+    force: Force = False,
 ) -> None:
     """Find cycles, unexplained peaks, dips and breaks, abnormal years and lost demand."""
-    from evcal.discover import discover
+    from evcal.outputs import check_output
 
+    check_output(out, "findings", inputs=[history, calendar, stockouts], force=force)
     if critical is not None and not 2.0 <= critical <= 10.0:
         raise EvcalError(f"option --critical: {critical:g} must be between 2 and 10 (3 to 4 is usual)")
+    from evcal.discover import discover
+
     found = discover(history, calendar, stockouts=stockouts, date_col=date_col, value_col=value_col,
                      freq=freq, cval=critical, transform=transform, errors=errors)
     found.save(out)

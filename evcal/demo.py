@@ -20,6 +20,10 @@ CALENDAR = "fernhollow-calendar.yaml"
 PLAN_YEAR = 2027
 #: Finance's (invented) unit target for the plan year: about 7 % over 2025.
 TARGET = 210_000.0
+#: every file the demo writes into its folder (named in the folder's marker before the first is written)
+DEMO_FILES = ("model/evcal-output.json", "model/model.json", "model/lifts.csv", "model/occurrences.csv",
+              "model/profile.csv", "model/fitted.csv", "plan.csv", "plan.xlsx", "backtest.csv",
+              "report.html")
 
 
 @dataclass
@@ -49,8 +53,13 @@ def find_demo_data(data: str | Path | None = None) -> Path:
 
 
 def run_demo(out: str | Path, data: str | Path | None = None,
-             echo: Callable[[str], None] = print) -> DemoRun:
+             echo: Callable[[str], None] = print, force: bool = False) -> DemoRun:
     """Run every step on the demo data and write the outputs into ``out``.
+
+    ``out`` is checked first (:func:`evcal.outputs.check_output`): a new
+    folder, or a demo folder evcal wrote (``force``: any folder evcal wrote).
+    It carries evcal's marker from the start, naming every file the demo
+    writes, so a run cut short leaves a folder the next run may replace.
 
     Examples
     --------
@@ -58,10 +67,12 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     >>> sorted(run.files)              # doctest: +SKIP
     ['backtest', 'model', 'plan_csv', 'plan_xlsx', 'report']
     """
+    from evcal._files import folder_owner, write_marker
     from evcal.calendar import load_calendar
     from evcal.calendar.summary import check_calendar
     from evcal.fit import fit
     from evcal.fit.summary import describe
+    from evcal.outputs import check_output
     from evcal.plan import backtest
     from evcal.plan.backtesting import format_table
     from evcal.report.headlines import headlines
@@ -70,10 +81,16 @@ def run_demo(out: str | Path, data: str | Path | None = None,
 
     t0 = time.perf_counter()
     src = find_demo_data(data)
-    out = Path(out)
-    out.mkdir(parents=True, exist_ok=True)
-    run = DemoRun(out=out)
     history, calendar = src / HISTORY, src / CALENDAR
+    out = check_output(out, "demo", inputs=[history, calendar], force=force)
+    owner = folder_owner(out) if out.is_dir() else None
+    if owner is not None and owner.kind != "demo":  # --force over evcal's own output of another kind
+        import shutil
+
+        shutil.rmtree(out)
+    out.mkdir(exist_ok=True)
+    write_marker(out, "demo", files=list(DEMO_FILES))
+    run = DemoRun(out=out)
     echo("evcal demo: Fernhollow Garden Centres, an invented chain of garden centres "
          "(all data invented).")
 
@@ -110,6 +127,7 @@ def run_demo(out: str | Path, data: str | Path | None = None,
                                        backtest_csv=bt_path, calendar=calendar)
     echo("\n[6/6] workbook written with the plan (plan.xlsx)")
 
+    write_marker(out, "demo")  # every file now there
     folder = read_model_folder(out / "model", plan_csv=out / "plan.csv", backtest_csv=bt_path)
     run.headlines = headlines(folder)
     run.seconds = time.perf_counter() - t0

@@ -181,6 +181,7 @@ def test_dates_command_writes_the_contract_csv(tmp_path: Path) -> None:
     lines = shown.stdout.splitlines()
     assert lines[0] == "event,start,end,strength"
     out = tmp_path / "sub" / "dates.csv"
+    out.parent.mkdir()  # --out in a missing folder is refused (issue 13)
     written = runner.invoke(app, ["calendar", "dates", str(path), "--from", "2026", "--to",
                                   "2027", "--out", str(out)])
     assert written.exit_code == 0

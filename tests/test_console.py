@@ -63,3 +63,23 @@ def test_files_written_by_a_command_are_complete(tmp_path: Path) -> None:
     assert CliRunner().invoke(app, [*args, "--out", str(ref)]).exit_code == 0
     assert len(ref.read_text(encoding="utf-8").splitlines()) > 3
     assert out.read_bytes() == ref.read_bytes()
+
+
+def test_debug_flag_keeps_user_errors_one_line_and_usage_errors_code_two(tmp_path: Path) -> None:
+    bad = tmp_path / "bad.yaml"
+    bad.write_text(yaml.safe_dump({"name": "t", "events": [{"name": "a", "when": {"fixed": "13-01"}}]}))
+    proc = _run("--debug", "calendar", "check", str(bad))
+    assert proc.returncode == 2
+    assert len(proc.stderr.strip().splitlines()) == 1 and "Traceback" not in proc.stderr
+    proc = _run("--debug", "fit")
+    assert proc.returncode == 2 and "Missing argument" in proc.stderr
+
+
+def test_refused_output_location_in_the_real_process(tmp_path: Path) -> None:
+    # calendar dates --out at its own calendar: one line, exit 2, the calendar untouched
+    cal = tmp_path / "cal.yaml"
+    cal.write_bytes(CALENDAR.read_bytes())
+    proc = _run("calendar", "dates", str(cal), "--from", "2026", "--to", "2026", "--out", str(cal))
+    assert proc.returncode == 2
+    assert len(proc.stderr.strip().splitlines()) == 1 and "input" in proc.stderr
+    assert cal.read_bytes() == CALENDAR.read_bytes()

@@ -64,7 +64,7 @@ def _bad(res, out: Path, *needles: str) -> None:
     for n in needles:
         assert n in lines[0], (n, lines[0])
     assert not out.exists()
-    assert not any(p.name.startswith(".model") for p in out.parent.iterdir())
+    assert not any(p.name.startswith((".model", ".evcal-tmp.")) for p in out.parent.iterdir())
 
 
 def test_fit_show_and_plan_a_panel(tmp_path):

@@ -417,6 +417,7 @@ def test_missing_column_is_named(invented: dict) -> None:
 
 def test_cli_report_writes_file(invented: dict, tmp_path: Path) -> None:
     out = tmp_path / "out" / "report.html"
+    out.parent.mkdir()  # --out in a missing folder is refused (issue 13)
     result = CliRunner().invoke(
         app,
         [

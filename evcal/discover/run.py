@@ -107,7 +107,7 @@ class Findings:
         """Write ``suggestions.csv``, ``suggestions.yaml`` and ``findings.png`` (and,
         when there are any, ``index_effects.csv`` and ``lost_demand.csv``), all or nothing."""
         directory = Path(directory)
-        with atomic_dir(directory) as tmp:
+        with atomic_dir(directory, kind="findings") as tmp:
             if chart:
                 from evcal.discover.chart import findings_chart
 

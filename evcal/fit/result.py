@@ -143,7 +143,7 @@ class FitResult:
     def save(self, directory: str | Path) -> Path:
         """Write the output folder of the contract (atomically: all files or none)."""
         directory = Path(directory)
-        with atomic_dir(directory) as tmp:
+        with atomic_dir(directory, kind="model") as tmp:
             (tmp / "model.json").write_text(dumps(self.to_json()), encoding="utf-8")
             self.lifts.to_csv(tmp / "lifts.csv", index=False, float_format="%.6g")
             self.occurrences.to_csv(tmp / "occurrences.csv", index=False, float_format="%.6g")

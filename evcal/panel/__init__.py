@@ -100,7 +100,7 @@ def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col
     from evcal.panel.build import FittedWriter
 
     out = Path(out)
-    with atomic_dir(out) as tmp:
+    with atomic_dir(out, kind="panel") as tmp:
         writer = FittedWriter(tmp / "fitted.parquet", panel)
         try:
             fitted = fit_long_panel(panel, cal, opts, runner=runner, on_fitted=writer.write)

@@ -162,13 +162,20 @@ def _run_dask(tasks: list[Any], workers: int, progress: bool | None) -> list[pd.
 
 def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callable[[str], None],
                    **kwargs: Any) -> None:
-    """What ``evcal plan`` does with a panel folder: plan, write one CSV, print a short summary."""
-    from evcal._files import atomic_path
+    """What ``evcal plan`` does with a panel folder: plan, write one CSV, print a short summary.
 
+    The output location is checked first (:func:`evcal.outputs.check_output`), before the panel is read.
+    """
+    from evcal._files import atomic_path
+    from evcal.outputs import check_output
+
+    force = bool(kwargs.pop("force", False))
     if kwargs.pop("compare", None):
         raise PlanError("--compare plans one series; for a panel, plan each calendar to its own file")
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: a panel plan is one long table; write it as CSV (e.g. plan.csv)")
+    check_output(out, "plan", inputs=[model_dir, kwargs.get("calendar"), kwargs.get("totals"),
+                                      kwargs.get("allocate")], force=force)
     table = plan_panel(model_dir, start, end, **kwargs)
     with atomic_path(out) as tmp:
         table.to_csv(tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")

@@ -239,7 +239,7 @@ class PanelResult:
         from evcal._files import atomic_dir
 
         directory = Path(directory)
-        with atomic_dir(directory) as tmp:
+        with atomic_dir(directory, kind="panel") as tmp:
             if self._fitted is None and self.fitted_path is not None and self.fitted_path.exists():
                 import shutil
 

@@ -148,6 +148,7 @@ def render_report(
     return (
         "<!DOCTYPE html>\n"
         '<html lang="en"><head><meta charset="utf-8">'
+        f'<meta name="generator" content="evcal {esc(evcal.__version__)}">'
         f'<meta http-equiv="Content-Security-Policy" content="{csp}">'
         '<meta name="viewport" content="width=device-width, initial-scale=1">'
         f"<title>{esc(heading)}</title><style>{_CSS}</style></head><body>"

@@ -1,0 +1,274 @@
+"""Where a command may write: the output-location rule, in one place.
+
+Every command that writes calls :func:`check_output` first, before it reads
+an input or computes anything, so a long fit never ends in a permission
+error and nothing the user did not ask for is ever lost. The rule:
+
+* ``--out`` is a new path in an existing folder evcal can write to; or
+* something evcal wrote itself: a folder carrying evcal's marker
+  (``evcal-output.json``, see :mod:`evcal._files`) and nothing else, or a file
+  of the kind the command writes (plan, compare, backtest and dates CSVs by
+  their header row, the HTML report by its ``generator`` meta tag, a workbook
+  by its document properties);
+* never an input of the same command, a folder holding an input, or a path
+  inside an input folder;
+* ``force=True`` (``--force``) also replaces evcal's own output of another kind
+  or format version, never anything evcal did not write and never an input.
+
+Every refusal is one :class:`~evcal.errors.OutputError` line: the path, what
+is wrong and what to do instead.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import zipfile
+from collections.abc import Iterable
+from pathlib import Path
+from typing import Any
+
+from evcal._files import FOLDER_KINDS, MARKER_VERSION, folder_owner
+from evcal.errors import OutputError, clip
+
+__all__ = ["FILE_KINDS", "FOLDER_KINDS", "KINDS", "check_output", "file_kind"]
+
+#: kinds of single file evcal writes
+FILE_KINDS = ("plan", "compare", "backtest", "dates", "report")
+KINDS = FOLDER_KINDS + FILE_KINDS
+
+#: a name to suggest for a new output of each kind
+_DEFAULT_NAME = {"model": "model", "panel": "panel-model", "findings": "findings", "demo": "demo-output",
+                 "plan": "plan.csv", "compare": "compare.csv", "backtest": "backtest.csv",
+                 "dates": "dates.csv", "report": "report.html"}
+_WHAT = {"model": "model folder", "panel": "panel model folder", "findings": "findings folder",
+         "demo": "demo folder", "plan": "plan", "compare": "comparison", "backtest": "backtest table",
+         "dates": "dates list", "report": "HTML report"}
+
+# Header rows of the CSV files evcal writes (DESIGN.md "Outputs — contract", evcal.plan.backtesting.COLUMNS,
+# evcal.plan.scenarios); kept here as text so this check imports nothing heavy.
+_DATES_HEADER = ["event", "start", "end", "strength"]
+_BACKTEST_HEADER = ["year", "method", "spread", "wape", "bias", "peak_error"]
+_COMPARE_HEADER = ["date", "plan_a", "plan_b", "difference"]
+_PLAN_RUNS = (["date", "base", "plan", "low", "high"], ["date", "share", "base", "plan", "low", "high"])
+#: sheet names of evcal's workbooks (evcal.report.workbook.SHEETS + Notes; a compare; a plain plan)
+_WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Notes"): "plan",
+                    ("Plan",): "plan", ("Scenarios",): "compare"}
+
+
+# ---------------------------------------------------------------- what a file is
+
+
+def _csv_kind(head: str) -> str | None:
+    line = head.lstrip("\ufeff").split("\n", 1)[0].rstrip("\r")
+    cols = [c.strip().strip('"') for c in line.split(",")]
+    if cols == _DATES_HEADER:
+        return "dates"
+    if cols == _BACKTEST_HEADER:
+        return "backtest"
+    if cols == _COMPARE_HEADER:
+        return "compare"
+    for run in _PLAN_RUNS:  # a panel plan puts its key columns first
+        for i in range(len(cols) - len(run) + 1):
+            if cols[i:i + len(run)] == run:
+                return "plan"
+    return None
+
+
+def _workbook_kind(path: Path) -> str | None:
+    try:
+        with zipfile.ZipFile(path) as book:
+            core = book.read("docProps/core.xml").decode("utf-8", errors="replace")[:100_000]
+            workbook = book.read("xl/workbook.xml").decode("utf-8", errors="replace")[:1_000_000]
+    except (OSError, KeyError, zipfile.BadZipFile, ValueError):
+        return None
+    creator = re.search(r"<dc:creator>([^<]*)</dc:creator>", core)
+    sheets = tuple(re.findall(r'<sheet [^>]*name="([^"]*)"', workbook))
+    kind = _WORKBOOK_SHEETS.get(sheets)
+    if creator is None or kind is None:
+        return None
+    # evcal's own creator; "openpyxl" (its default) for workbooks written before evcal set it,
+    # recognised by evcal's exact sheet names
+    return kind if creator.group(1) in ("evcal", "openpyxl") else None
+
+
+def file_kind(path: str | Path) -> str | None:
+    """The kind of output file evcal wrote at ``path`` (one of :data:`FILE_KINDS`), or None.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> p = pathlib.Path(tempfile.mkdtemp()) / "x.csv"
+    >>> _ = p.write_text("event,start,end,strength\\nsale,2026-01-01,2026-01-02,1\\n")
+    >>> file_kind(p)
+    'dates'
+    >>> _ = p.write_text("date,units\\n")
+    >>> file_kind(p) is None
+    True
+    """
+    path = Path(path)
+    try:
+        with open(path, "rb") as f:
+            head = f.read(65_536)
+    except OSError:
+        return None
+    if head.startswith(b"PK"):
+        return _workbook_kind(path)
+    text = head.decode("utf-8", errors="replace")
+    if text.lstrip().lower().startswith(("<!doctype html", "<html")):
+        if '<meta name="generator" content="evcal' in text or 'class="kicker">evcal report<' in text:
+            return "report"
+        return None
+    return _csv_kind(text)
+
+
+# ---------------------------------------------------------------- the rule
+
+
+def _suggest(near: Path, kind: str) -> str:
+    """A path that does not exist yet, for the message: ``near/<default name>`` (or -2, -3, ...)."""
+    name = _DEFAULT_NAME[kind]
+    stem, dot, suffix = name.partition(".")
+    for n in range(1, 100):
+        candidate = near / (name if n == 1 else f"{stem}-{n}{dot}{suffix}")
+        if not candidate.exists():
+            return str(candidate)
+    return str(near / name)
+
+
+def _paths(inputs: Iterable[Any]) -> list[Path]:
+    found = []
+    for item in inputs:
+        if isinstance(item, str | os.PathLike) and str(item) and "://" not in str(item):
+            found.append(Path(item))
+    return found
+
+
+def _same(a: Path, b: Path) -> bool:
+    if a.exists() and b.exists():
+        try:
+            return os.path.samefile(a, b)
+        except OSError:
+            pass
+    return a.resolve() == b.resolve()
+
+
+def _check_inputs(out: Path, inputs: list[Path], kind: str) -> None:
+    real_out = out.resolve()
+    for inp in inputs:
+        real_in = inp.resolve()
+        if _same(out, inp):
+            raise OutputError(f"--out {out}: is an input of this command ({inp}); evcal never writes over "
+                              f"an input; choose a new {_WHAT[kind]} such as {_suggest(out.parent, kind)}")
+        if real_in.is_relative_to(real_out):
+            raise OutputError(f"--out {out}: holds {inp}, an input of this command, and would be replaced; "
+                              f"choose a new {_WHAT[kind]} such as {_suggest(out, kind)}")
+        if inp.is_dir() and real_out.is_relative_to(real_in):
+            raise OutputError(f"--out {out}: is inside {inp}, an input of this command; write the "
+                              f"{_WHAT[kind]} outside it, e.g. {_suggest(inp.parent, kind)}")
+
+
+def _check_parent(out: Path, kind: str) -> None:
+    parent = out.parent
+    if not parent.exists():
+        raise OutputError(f"--out {out}: the folder {parent} does not exist; create it first or choose "
+                          "an existing folder")
+    if not parent.is_dir():
+        raise OutputError(f"--out {out}: {parent} is a file, not a folder; choose a path in a folder")
+    from evcal._files import _temp_name
+
+    probe = _temp_name(out, suffix=out.suffix)
+    try:  # really write: os.access says yes to root on a read-only share, and on /sys
+        fd = os.open(probe, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+    except OSError as err:
+        raise OutputError(f"--out {out}: cannot write in the folder {parent} ({err.strerror or err}); "
+                          f"choose a folder you can write to") from None
+    os.close(fd)
+    probe.unlink(missing_ok=True)
+
+
+def _check_folder(out: Path, kind: str, force: bool) -> None:
+    if out.is_symlink() or not out.is_dir():
+        what = "link" if out.is_symlink() else "file"
+        raise OutputError(f"--out {out}: is a {what}, and the {_WHAT[kind]} is a folder; choose a new "
+                          f"folder such as {_suggest(out.parent, kind)}")
+    owner = folder_owner(out)
+    if owner is None:
+        raise OutputError(f"--out {out}: this folder was not written by evcal and would be replaced with "
+                          f"everything in it; choose a new folder such as {_suggest(out, kind)}")
+    if owner.extra:
+        many = len(owner.extra) > 1
+        more = f" and {len(owner.extra) - 1} more file(s)" if many else ""
+        raise OutputError(f"--out {out}: holds {clip(owner.extra[0], 100)}{more} that evcal did not write; "
+                          f"move {'them' if many else 'it'} out of the folder, or choose a new folder such "
+                          f"as {_suggest(out.parent, kind)}")
+    if (owner.kind != kind or owner.version not in (MARKER_VERSION, 1)) and not force:
+        found = f"{_WHAT.get(owner.kind, owner.kind)} (format version {owner.version})"
+        raise OutputError(f"--out {out}: holds evcal's {found}, not a {_WHAT[kind]}; choose a new folder "
+                          f"such as {_suggest(out.parent, kind)}, or add --force to replace it")
+
+
+def _check_file(out: Path, kind: str, force: bool) -> None:
+    if out.is_symlink():
+        raise OutputError(f"--out {out}: is a link; evcal does not replace links; name the file itself "
+                          f"or a new file such as {_suggest(out.parent, kind)}")
+    if out.is_dir():
+        raise OutputError(f"--out {out}: is a folder, and the {_WHAT[kind]} is one file; name a new file "
+                          f"such as {_suggest(out.parent, kind)}")
+    found = file_kind(out)
+    if found is None:
+        raise OutputError(f"--out {out}: this file was not written by evcal and would be replaced; "
+                          f"choose a new file such as {_suggest(out.parent, kind)}")
+    if found != kind and not force:
+        raise OutputError(f"--out {out}: holds evcal's {_WHAT[found]}, not a {_WHAT[kind]}; choose a new "
+                          f"file such as {_suggest(out.parent, kind)}, or add --force to replace it")
+
+
+def check_output(out: str | Path, kind: str, inputs: Iterable[Any] = (), force: bool = False) -> Path:
+    """Check that a command may write its ``kind`` of output at ``out``; call it before any work.
+
+    Parameters
+    ----------
+    out : path
+        The ``--out`` the user gave.
+    kind : str
+        What the command writes: a folder (``model``, ``panel``, ``findings``,
+        ``demo``) or a file (``plan``, ``compare``, ``backtest``, ``dates``,
+        ``report``).
+    inputs : paths
+        Every file or folder the command reads (None and non-paths are skipped).
+    force : bool
+        Also replace evcal's own output of another kind or format version.
+
+    Returns
+    -------
+    Path
+        ``out`` as a path.
+
+    Raises
+    ------
+    OutputError
+        One line: the path, what is wrong, what to do instead.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> check_output(d / "model", "model").name
+    'model'
+    >>> _ = (d / "sales.csv").write_text("date,value\\n")
+    >>> check_output(d / "sales.csv", "plan")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    evcal.errors.OutputError: --out .../sales.csv: this file was not written by evcal ...
+    """
+    if kind not in KINDS:
+        raise ValueError(f"kind {kind!r}: not one of {', '.join(KINDS)}")
+    if out is None or not str(out).strip():
+        raise OutputError(f"--out: empty; name a new {_WHAT[kind]} such as {_DEFAULT_NAME[kind]}")
+    out = Path(out)
+    _check_inputs(out, _paths(inputs), kind)
+    if out.exists() or out.is_symlink():
+        (_check_folder if kind in FOLDER_KINDS else _check_file)(out, kind, force)
+    _check_parent(out, kind)
+    return out

@@ -258,12 +258,13 @@ _PERIOD_WORDS = {"D": ("daily", "a longer history"), "W": ("weekly", "daily data
                  "M": ("monthly", "weekly or daily data"), "Q": ("quarterly", "weekly or daily data")}
 
 
-def degenerate_note(seen: str, share: float, freq_base: str, kind: str) -> str:
+def degenerate_note(seen: str, share: float, freq_base: str, kind: str, nil: bool = False) -> str:
     """The note of a flagged column: why it cannot be estimated and what to do.
 
     ``seen`` is from :func:`degenerate_terms`, ``share`` from
     :func:`seasonal_share`, ``freq_base`` one of D, W, M, Q, ``kind`` "event"
-    or "intervention".
+    or "intervention"; ``nil`` (the fit pushed the lift towards -100 %) adds the
+    advice to mark a closure as one.
 
     Examples
     --------
@@ -278,6 +279,7 @@ def degenerate_note(seen: str, share: float, freq_base: str, kind: str) -> str:
         return (f"{word} periods hold this event in the same period nearly every year, so its lift "
                 f"cannot be told apart from the season ({seen}); its effect stays inside the seasonal "
                 f"index; fit {finer}, or give effect: {{assume: ...}}")
+    closed = "; if nothing is sold on those days, mark the event effect: zero" if nil else ""
     return (f"the history cannot pin this lift down ({seen}, beyond what an event does); not fitted: "
             f"its effect stays inside the base; give effect: {{assume: ...}}, or fit a longer history "
-            f"or {finer}")
+            f"or {finer}{closed}")

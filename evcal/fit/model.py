@@ -17,6 +17,7 @@ from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.errors import CalendarError, EvcalError, HistoryError
 from evcal.fit.estimators import Estimate, fit_arima, fit_count, fit_ols
 from evcal.fit.identify import (
+    MAX_LOG_LIFT,
     ColumnStatus,
     check_columns,
     degenerate_note,
@@ -336,8 +337,9 @@ def flag_degenerate(inp: ModelInputs, est: Estimate, freq: str) -> dict[str, str
         level = float(np.nanmean(np.abs(y))) if np.isfinite(y).any() else 1.0
     seen = degenerate_terms(est.params, se, terms, inp.transform, level)
     base_cols = [c for c in inp.fitted_cols if roles.get(c) in ("trend", "seasonal")]
+    bound = -MAX_LOG_LIFT if inp.transform != "none" else -level
     return {c: degenerate_note(what, seasonal_share(inp.design.X, inp.rows, base_cols, c),
-                               base_freq(freq), roles.get(c, "event"))
+                               base_freq(freq), roles.get(c, "event"), nil=float(est.params[c]) < bound)
             for c, what in seen.items()}
 
 

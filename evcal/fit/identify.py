@@ -247,7 +247,7 @@ def seasonal_share(X: pd.DataFrame, rows: np.ndarray, base_cols: list[str], col:
     Examples
     --------
     >>> X = pd.DataFrame({"const": [1.0] * 4, "s": [1.0, 0, 1, 0], "e": [0.5, 0, 0.5, 0]})
-    >>> seasonal_share(X, np.ones(4, dtype=bool), ["const", "s"], "e")
+    >>> round(seasonal_share(X, np.ones(4, dtype=bool), ["const", "s"], "e"), 12)
     0.0
     """
     q = _orthonormal(X.loc[rows, base_cols].to_numpy(dtype=float))

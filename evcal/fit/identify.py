@@ -227,9 +227,11 @@ def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], trans
         elif not np.isfinite(s):
             out[c] = f"the fit gave {_size(b, transform)} with no finite standard error"
         elif abs(b) > bound:
-            out[c] = f"the fit gave {_size(b, transform)}"
+            out[c] = f"the fit gave {_size(b, transform)}, beyond what any event does"
         elif Z95 * s > bound:
-            out[c] = f"the fit gave {_size(b, transform)} with a standard error of {s:.3g}"
+            scale = "x100 either way" if transform != "none" else f"{MAX_LEVEL_RATIO:g} times the level"
+            out[c] = (f"the fit gave {_size(b, transform)} with a 95 % interval wider than {scale} "
+                      f"(standard error {s:.3g})")
     return out
 
 
@@ -280,6 +282,6 @@ def degenerate_note(seen: str, share: float, freq_base: str, kind: str, nil: boo
                 f"cannot be told apart from the season ({seen}); its effect stays inside the seasonal "
                 f"index; fit {finer}, or give effect: {{assume: ...}}")
     closed = "; if nothing is sold on those days, mark the event effect: zero" if nil else ""
-    return (f"the history cannot pin this lift down ({seen}, beyond what an event does); not fitted: "
+    return (f"the history cannot pin this lift down ({seen}); not fitted: "
             f"its effect stays inside the base; give effect: {{assume: ...}}, or fit a longer history "
             f"or {finer}{closed}")

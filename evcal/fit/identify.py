@@ -12,6 +12,15 @@ number:
 
 The test is numerical rank: the relative residual of a column regressed on
 the columns kept before it (least squares), below a tolerance.
+
+A column can pass that test and still carry no usable information: a
+Father's Day window in quarterly data is in the second quarter every year and
+moves only when a closed Easter day changes the quarter's count of open days
+(7/91 against 7/90). Such a fit does not fail; it returns a coefficient that
+no event could have (``+1e21 %``), or an interval bound that overflows. After
+the fit, :func:`degenerate_terms` flags those coefficients, and the fit
+leaves the column out (its effect stays inside the seasonal index), with a
+note from :func:`degenerate_note` that says why and what to do.
 """
 
 from __future__ import annotations
@@ -22,6 +31,16 @@ import numpy as np
 import pandas as pd
 
 REL_TOL = 1e-6
+#: a log-lift no real event reaches: more than x100, or less than 1/100, of base on every day
+#: of its window (+9,900 % / -99 %). Past it a fitted lift is a breakdown of the fit, not a
+#: measurement (common practice, no source). Known zeros are closures (effect: zero).
+MAX_LOG_LIFT = float(np.log(100.0))
+#: the same bound for the additive model: a lift of more than 99 times the series' level
+MAX_LEVEL_RATIO = 99.0
+#: below this share of its column left apart from the trend and season, the note says the
+#: event sits in the same period (nearly) every year (wording only, not a rule)
+SEASONAL_SHARE = 0.1
+Z95 = 1.959963984540054
 
 
 @dataclass
@@ -175,3 +194,94 @@ def check_columns(
         kept.append(j)
         out.setdefault(c, ColumnStatus("fitted"))
     return out
+
+
+def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], transform: str,
+                     level: float = 1.0) -> dict[str, str]:
+    """Fitted columns whose coefficient is a breakdown of the fit, not a lift; column -> what was seen.
+
+    A column is flagged when its coefficient or standard error is not finite,
+    when the coefficient is beyond :data:`MAX_LOG_LIFT` (x100 or 1/100 of base),
+    or when the 95 % interval reaches past that bound on both sides of the
+    estimate by more than the bound itself (``1.96 se > log 100``: the data do
+    not say even the order of magnitude, and ``exp`` of the bounds may overflow).
+    For the additive model (``transform="none"``) the bound is
+    :data:`MAX_LEVEL_RATIO` times ``level`` (the series' mean, in units).
+
+    Examples
+    --------
+    >>> p = pd.Series({"a": 0.3, "b": -73.8, "c": 0.1})
+    >>> s = pd.Series({"a": 0.05, "b": 30.0, "c": 900.0})
+    >>> sorted(degenerate_terms(p, s, ["a", "b", "c"], "log"))
+    ['b', 'c']
+    """
+    bound = MAX_LOG_LIFT if transform != "none" else MAX_LEVEL_RATIO * abs(level or 1.0)
+    out: dict[str, str] = {}
+    for c in columns:
+        if c not in params.index:
+            continue
+        b = float(params[c])
+        s = float(se.get(c, np.nan))
+        if not np.isfinite(b):
+            out[c] = "the fit gave no finite coefficient"
+        elif not np.isfinite(s):
+            out[c] = f"the fit gave {_size(b, transform)} with no finite standard error"
+        elif abs(b) > bound:
+            out[c] = f"the fit gave {_size(b, transform)}, beyond what any event does"
+        elif Z95 * s > bound:
+            scale = "x100 either way" if transform != "none" else f"{MAX_LEVEL_RATIO:g} times the level"
+            out[c] = (f"the fit gave {_size(b, transform)} with a 95 % interval wider than {scale} "
+                      f"(standard error {s:.3g})")
+    return out
+
+
+def _size(b: float, transform: str) -> str:
+    if transform == "none":
+        return f"{b:+,.4g} units"
+    if abs(b) <= MAX_LOG_LIFT:
+        return f"{100.0 * np.expm1(b):+,.1f} %"
+    return f"a log-lift of {b:+.4g}"
+
+
+def seasonal_share(X: pd.DataFrame, rows: np.ndarray, base_cols: list[str], col: str) -> float:
+    """Share of ``col`` (relative norm, 0..1) left after projecting out the trend and season columns.
+
+    Examples
+    --------
+    >>> X = pd.DataFrame({"const": [1.0] * 4, "s": [1.0, 0, 1, 0], "e": [0.5, 0, 0.5, 0]})
+    >>> round(seasonal_share(X, np.ones(4, dtype=bool), ["const", "s"], "e"), 12)
+    0.0
+    """
+    q = _orthonormal(X.loc[rows, base_cols].to_numpy(dtype=float))
+    return _relative_residual(X.loc[rows, col].to_numpy(dtype=float), q)
+
+
+_PERIOD_WORDS = {"D": ("daily", "a longer history"), "W": ("weekly", "daily data"),
+                 "M": ("monthly", "weekly or daily data"), "Q": ("quarterly", "weekly or daily data")}
+
+
+def degenerate_note(seen: str, share: float, freq_base: str, kind: str, nil: bool = False) -> str:
+    """The note of a flagged column: why it cannot be estimated and what to do.
+
+    ``seen`` is from :func:`degenerate_terms`, ``share`` from
+    :func:`seasonal_share`, ``freq_base`` one of D, W, M, Q, ``kind`` "event"
+    or "intervention"; ``nil`` (the fit pushed the lift towards -100 %) adds the
+    advice to mark a closure as one.
+
+    Examples
+    --------
+    >>> degenerate_note("the fit gave a log-lift of -24.06", 0.004, "Q", "event")[:60]
+    'quarterly periods hold this event in the same period nearly '
+    """
+    word, finer = _PERIOD_WORDS.get(freq_base, ("these", "finer data"))
+    if kind != "event":
+        return (f"the history cannot pin this {kind} down ({seen}): not fitted; check its dates, "
+                "or fit a longer or finer history")
+    if share < SEASONAL_SHARE:
+        return (f"{word} periods hold this event in the same period nearly every year, so its lift "
+                f"cannot be told apart from the season ({seen}); its effect stays inside the seasonal "
+                f"index; fit {finer}, or give effect: {{assume: ...}}")
+    closed = "; if nothing is sold on those days, mark the event effect: zero" if nil else ""
+    return (f"the history cannot pin this lift down ({seen}); not fitted: "
+            f"its effect stays inside the base; give effect: {{assume: ...}}, or fit a longer history "
+            f"or {finer}{closed}")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
@@ -13,9 +14,17 @@ from evcal.design.base import period_days, period_mid_years
 from evcal.design.interventions import InterventionTerm
 from evcal.design.matrix import Design, DesignSpec, build_design
 from evcal.design.seasonal import base_freq, cycle_length, season_position
-from evcal.errors import EvcalError, HistoryError
+from evcal.errors import CalendarError, EvcalError, HistoryError
 from evcal.fit.estimators import Estimate, fit_arima, fit_count, fit_ols
-from evcal.fit.identify import ColumnStatus, check_columns, independent_base_columns
+from evcal.fit.identify import (
+    MAX_LOG_LIFT,
+    ColumnStatus,
+    check_columns,
+    degenerate_note,
+    degenerate_terms,
+    independent_base_columns,
+    seasonal_share,
+)
 from evcal.fit.options import FitOptions
 
 LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS+HAC for speed
@@ -91,14 +100,18 @@ def choose_transform(values: pd.Series, options: FitOptions, source: str, known_
 
 
 def prepare(history: Any, calendar: Any, options: FitOptions,
-            theta: dict[str, float] | None = None, identify: bool = True) -> ModelInputs:
+            theta: dict[str, float] | None = None, identify: bool = True,
+            degenerate: dict[str, str] | None = None) -> ModelInputs:
     """Build the design and decide which columns enter the fit.
 
     ``theta`` (log-lift per event column from a previous pass) makes the event
     columns aggregate the daily lifts exactly; see :mod:`evcal.design.events`.
     ``identify=False`` skips the identifiability check: every estimable column
     is then marked ``unchecked`` (the panel engine checks each design group's
-    own rows instead).
+    own rows instead). ``degenerate`` (column -> note) lists columns an earlier
+    fit flagged with :func:`evcal.fit.identify.degenerate_terms`: they are
+    marked ``unidentifiable`` with that note and left out, and so are the
+    events that borrow their lift or share their days.
     """
     periods = history.values.index
     actual = history.values.astype(float)
@@ -177,6 +190,15 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         status[c] = ColumnStatus("assumed", f"lift assumed at {assumed[c] * 100:+g}%, not estimated")
     for c, target in like_map.items():
         status[c] = ColumnStatus("like", f"borrows the lift of {colmap.get(target, target)}")
+    for c, note in (degenerate or {}).items():
+        if c in status:
+            status[c] = ColumnStatus("unidentifiable", note)
+    for c, st in list(status.items()):
+        source = like_map.get(c) if st.status == "like" else st.twin if st.status == "duplicate" else None
+        if source and source in (degenerate or {}):
+            name = colmap.get(source, source)
+            status[c] = ColumnStatus("unidentifiable", f"{st.note}; {name} cannot be estimated from this "
+                                     "history (see its note), so neither can this")
     fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
     merged = Design(X=X, open_share=design.open_share, roles=design.roles)
     return ModelInputs(periods, actual, merged, rows, excluded, offset, transform, status,
@@ -194,7 +216,18 @@ def model_scale_response(inp: ModelInputs) -> pd.Series:
 
 
 def estimate(inp: ModelInputs, options: FitOptions, freq: str) -> tuple[Estimate, dict[str, Any]]:
-    """Fit the chosen (or automatically selected) error model."""
+    """Fit the chosen (or automatically selected) error model.
+
+    Numerical warnings (overflow, division by zero) are not passed on: a
+    degenerate fit is found from its numbers afterwards
+    (:func:`flag_degenerate`) and reported as a note on the event.
+    """
+    with warnings.catch_warnings(), np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        warnings.simplefilter("ignore", RuntimeWarning)
+        return _estimate(inp, options)
+
+
+def _estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str, Any]]:
     X = inp.design.X[inp.fitted_cols]
     y = model_scale_response(inp)
     if inp.transform == "count":
@@ -244,6 +277,70 @@ def _drop_const(X: pd.DataFrame, order: tuple[int, int, int]) -> pd.DataFrame:
 
 def min_periods(freq: str) -> int:
     return 2 * cycle_length(freq)
+
+
+def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
+    """Stop with one line when exclusions and closures leave fewer periods than the fit needs.
+
+    The fit needs two seasonal cycles (the rule of :func:`check_history_length`)
+    and more periods than terms. The line names the calendar's exclusions (file,
+    line, dates, reason) and closures, and the count of periods left and needed.
+
+    Raises
+    ------
+    CalendarError
+        The calendar's exclusions or closures leave too few periods.
+    """
+    n = int(inp.rows.sum())
+    p = cycle_length(history.freq)
+    need = max(min_periods(history.freq), len(inp.fitted_cols) + 1)
+    if n >= need:
+        return
+    total = len(inp.periods)
+    why = f"two seasonal cycles of {p} periods" if need == 2 * p else f"one more than the {need - 1} terms"
+    p_start = inp.periods.start_time.normalize()
+    p_end = inp.periods.end_time.normalize()
+    causes = []
+    for ex in calendar.exclusions:
+        hit = int(np.sum((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start))))
+        if hit:
+            where = f"line {ex.line}: " if ex.line else ""
+            causes.append(f"{where}exclude {pd.Timestamp(ex.start).date()} .. {pd.Timestamp(ex.end).date()} "
+                          f"({ex.reason}) covers {hit}")
+    closed = int(np.sum(inp.design.open_share.to_numpy() <= 1e-9))
+    if closed:
+        causes.append(f"closures (effect: zero) close all the days of {closed}")
+    message = f"leaves {n} of {total} periods to fit; at least {need} are needed ({why})"
+    if not causes:
+        raise HistoryError(f"{history.source}: the history {message}; give a longer history")
+    fix = "shorten the exclusion" if any(c.startswith(("line", "exclude")) for c in causes) \
+        else "check the closures' dates"
+    raise CalendarError(f"{calendar.source}: {'; '.join(causes)} of the history's periods: that "
+                        f"{message}; {fix} or give a longer history")
+
+
+def flag_degenerate(inp: ModelInputs, est: Estimate, freq: str) -> dict[str, str]:
+    """Fitted event and intervention columns whose estimate is a breakdown; column -> note.
+
+    The rule is :func:`evcal.fit.identify.degenerate_terms` (a bound on the
+    log-lift, finite estimates); the note says why (the event sits in the same
+    period every year, or the history cannot pin it down) and what to do.
+    """
+    roles = inp.design.roles
+    terms = [c for c in inp.fitted_cols if roles.get(c) in ("event", "intervention")]
+    if not terms:
+        return {}
+    se = pd.Series(np.sqrt(np.clip(np.diag(est.cov.to_numpy(dtype=float)), 0, None)), index=est.cov.index)
+    level = 1.0
+    if inp.transform == "none":
+        y = model_scale_response(inp).to_numpy(dtype=float)
+        level = float(np.nanmean(np.abs(y))) if np.isfinite(y).any() else 1.0
+    seen = degenerate_terms(est.params, se, terms, inp.transform, level)
+    base_cols = [c for c in inp.fitted_cols if roles.get(c) in ("trend", "seasonal")]
+    bound = -MAX_LOG_LIFT if inp.transform != "none" else -level
+    return {c: degenerate_note(what, seasonal_share(inp.design.X, inp.rows, base_cols, c),
+                               base_freq(freq), roles.get(c, "event"), nil=float(est.params[c]) < bound)
+            for c, what in seen.items()}
 
 
 def check_history_length(history: Any) -> None:
@@ -330,9 +427,16 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[Mo
     Daily data need no second pass (each period is one day). For longer
     periods the log-lifts from one pass set the columns of the next, until
     they settle (at most ``MAX_PASSES``; typically 2 or 3).
+
+    After every pass, columns whose estimate is a breakdown rather than a lift
+    (:func:`flag_degenerate`) are left out and the pass is fitted again
+    without them; a pass whose lifts run away (a period asking for a bigger
+    change than the event's days can make) is caught the same way.
     """
     inp = prepare(history, calendar, options)
-    est, choice = estimate(inp, options, history.freq)
+    check_fit_rows(inp, calendar, history)
+    dropped: dict[str, str] = {}
+    inp, est, choice = _fit_flagged(history, calendar, options, None, dropped, inp)
     if inp.transform == "none" or base_freq(history.freq) == "D":
         return inp, est, choice
     theta = fitted_theta(inp, est)
@@ -346,14 +450,32 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[Mo
     for _ in range(MAX_PASSES):
         if not theta:
             break
-        inp = prepare(history, calendar, options, theta=theta)
-        est, _ = estimate(inp, fixed, history.freq)
+        inp, est, _ = _fit_flagged(history, calendar, fixed, theta, dropped)
         new = fitted_theta(inp, est)
         moved = max((abs(new.get(k, 0.0) - theta.get(k, 0.0)) for k in set(new) | set(theta)), default=0.0)
         theta = new
         if moved < THETA_TOL:
             break
     return inp, est, choice
+
+
+def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[str, float] | None,
+                 dropped: dict[str, str], inp: ModelInputs | None = None,
+                 ) -> tuple[ModelInputs, Estimate, dict[str, Any]]:
+    """One pass: fit, leave out the columns :func:`flag_degenerate` flags, refit until none is.
+
+    ``dropped`` collects the flagged columns and their notes across passes.
+    Each round leaves out at least one more column, so it ends.
+    """
+    while True:
+        if inp is None:
+            inp = prepare(history, calendar, options, theta=theta, degenerate=dropped)
+        est, choice = estimate(inp, options, history.freq)
+        flagged = flag_degenerate(inp, est, history.freq)
+        if not flagged:
+            return inp, est, choice
+        dropped.update(flagged)
+        inp = None
 
 
 def term_info(calendar: Any) -> dict[str, dict[str, Any]]:

@@ -10,6 +10,7 @@ import pandas as pd
 
 from evcal._files import atomic_path
 from evcal.errors import PlanError
+from evcal.formula_safe import formula_safe_sheet, write_csv
 
 OUTPUT_SUFFIXES = (".csv", ".xlsx")
 
@@ -76,6 +77,9 @@ class Plan:
     def save(self, path: str | Path) -> Path:
         """Write the plan as ``.csv`` or ``.xlsx`` (atomically: the whole file or nothing).
 
+        Text cells are formula-safe (:mod:`evcal.formula_safe`): quoted in the
+        CSV when they begin like a formula, text cells in the workbook.
+
         The workbook adds the model's lifts, seasonal index and past occurrences
         when :mod:`evcal.report` is available.
         """
@@ -86,7 +90,7 @@ class Plan:
                             "write plan.csv or plan.xlsx")
         if suffix == ".csv":
             with atomic_path(path) as tmp:
-                self.table.to_csv(tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+                write_csv(self.table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
             return path
         return write_xlsx(path, self.table, self.result)
 
@@ -103,6 +107,7 @@ def write_xlsx(path: Path, table: pd.DataFrame, result: Any = None) -> Path:
         profile = getattr(result, "profile", empty) if result is not None else empty
         occ = getattr(result, "occurrences", empty) if result is not None else empty
         return write_workbook(path, table, lifts, profile, occ)
-    with atomic_path(path) as tmp:
-        table.to_excel(tmp, index=False, sheet_name="Plan", engine="openpyxl")
+    with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
+        table.to_excel(writer, index=False, sheet_name="Plan")
+        formula_safe_sheet(writer.sheets["Plan"].iter_rows())
     return path

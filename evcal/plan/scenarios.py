@@ -18,6 +18,7 @@ import pandas as pd
 
 from evcal._files import atomic_path
 from evcal.errors import PlanError
+from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.plan.build import make_plan
 from evcal.plan.result import OUTPUT_SUFFIXES, Plan
 from evcal.plan.summary import period_name
@@ -75,7 +76,7 @@ class Comparison:
         return "\n".join(lines)
 
     def save(self, path: str | Path) -> Path:
-        """Write the side-by-side table as ``.csv`` or ``.xlsx`` (atomically)."""
+        """Write the side-by-side table as ``.csv`` or ``.xlsx`` (atomically; text formula-safe)."""
         path = Path(path)
         suffix = path.suffix.lower()
         if suffix not in OUTPUT_SUFFIXES:
@@ -85,12 +86,13 @@ class Comparison:
         if suffix == ".csv":
             out["date"] = [d.strftime("%Y-%m-%d") if isinstance(d, pd.Timestamp) else d for d in out["date"]]
             with atomic_path(path) as tmp:
-                out.to_csv(tmp, index=False, float_format="%.6f")
+                write_csv(out, tmp, index=False, float_format="%.6f")
             return path
         # dates stay Excel dates; the totals row is labelled in the same column
         out["date"] = [d.date() if isinstance(d, pd.Timestamp) else d for d in out["date"]]
-        with atomic_path(path) as tmp:
-            out.to_excel(tmp, index=False, sheet_name="Scenarios", engine="openpyxl")
+        with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
+            out.to_excel(writer, index=False, sheet_name="Scenarios")
+            formula_safe_sheet(writer.sheets["Scenarios"].iter_rows())
         return path
 
 

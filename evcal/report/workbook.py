@@ -3,7 +3,9 @@
 A planner opens this next to their own sheets, so every number is an Excel
 number (never text), every date an Excel date, the header row stays in view
 when scrolling, and columns are wide enough to read. A last sheet, Notes,
-repeats the caution that the plan is an estimate.
+repeats the caution that the plan is an estimate. Text (event names, labels,
+notes: free text from the user's calendar) is always a text cell, never a
+formula (:mod:`evcal.formula_safe`).
 
 Examples
 --------
@@ -30,6 +32,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
 from evcal._files import atomic_path
+from evcal.formula_safe import formula_safe_sheet, workbook_text
 from evcal.report.common import CAUTION, readable
 
 SHEETS = ("Plan", "Lifts", "Seasonal index", "Past occurrences")
@@ -126,8 +129,8 @@ def cell_value(value: object, column: str) -> object:
             return None
         if column in _DATE_COLUMNS:
             ts = pd.to_datetime(value, errors="coerce", format="ISO8601")
-            return value if pd.isna(ts) else ts.to_pydatetime().replace(tzinfo=None)
-        return value
+            return workbook_text(value) if pd.isna(ts) else ts.to_pydatetime().replace(tzinfo=None)
+        return workbook_text(value)
     if isinstance(value, pd.Timestamp | dt.datetime | dt.date | np.datetime64):
         ts = pd.Timestamp(value)
         return None if pd.isna(ts) else ts.to_pydatetime().replace(tzinfo=None)
@@ -140,7 +143,7 @@ def cell_value(value: object, column: str) -> object:
         return v if math.isfinite(v) else None
     if pd.isna(value):  # pd.NA, NaT
         return None
-    return str(value)
+    return workbook_text(str(value))
 
 
 def _number_format(column: str, value: object) -> str | None:
@@ -165,7 +168,7 @@ def _write_sheet(ws: Worksheet, frame: pd.DataFrame) -> None:
         ws.column_dimensions["A"].width = 24
         return
     columns = [str(c) for c in frame.columns]
-    ws.append(columns)
+    ws.append([workbook_text(c) for c in columns])
     for cell in ws[1]:
         cell.fill = _HEADER_FILL
         cell.font = _HEADER_FONT
@@ -182,6 +185,7 @@ def _write_sheet(ws: Worksheet, frame: pd.DataFrame) -> None:
             widths[j] = max(widths[j], _display_len(v))
     for j, w in enumerate(widths, start=1):
         ws.column_dimensions[get_column_letter(j)].width = min(w + 1, _MAX_WIDTH)
+    formula_safe_sheet(ws.iter_rows())  # text from the calendar is text, never a live formula
     ws.freeze_panes = "A2"
     ws.auto_filter.ref = ws.dimensions
 

@@ -208,6 +208,7 @@ def calendar_dates(
 
     from evcal._files import atomic_path
     from evcal.calendar import load_calendar
+    from evcal.formula_safe import formula_safe_frame
     from evcal.outputs import check_output
 
     if out is not None:
@@ -217,7 +218,7 @@ def calendar_dates(
     table = cal.occurrences(from_year, to_year)
     table["start"] = table["start"].dt.strftime("%Y-%m-%d")
     table["end"] = table["end"].dt.strftime("%Y-%m-%d")
-    text = table.to_csv(index=False, float_format="%g", lineterminator="\n")
+    text = formula_safe_frame(table).to_csv(index=False, float_format="%g", lineterminator="\n")
     if out is None:
         typer.echo(text, nl=False)
         return
@@ -441,6 +442,7 @@ def backtest_cmd(
 
     from evcal._files import atomic_path
     from evcal.errors import PlanError
+    from evcal.formula_safe import write_csv
     from evcal.outputs import check_output
 
     if Path(out).suffix.lower() != ".csv":
@@ -453,7 +455,7 @@ def backtest_cmd(
                   **_fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                                  trading_days, allow_negative))
     with atomic_path(out) as tmp:
-        bt.to_csv(tmp, index=False, float_format="%.6f")
+        write_csv(bt, tmp, index=False, float_format="%.6f")
     typer.echo(format_table(bt))
     typer.echo("spread: scaled to each year's actual total (compares the profile); unspread: as planned.")
     typer.echo("Periods excluded in the calendar, and periods without a value, are not scored.")

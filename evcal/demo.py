@@ -115,10 +115,11 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     echo("\n[4/6] backtest: hold out 2024 and 2025 in turn, fit on the years before")
     bt = backtest(history, cal, holdout_years=2, progress=False)
     from evcal._files import atomic_path
+    from evcal.formula_safe import write_csv
 
     bt_path = out / "backtest.csv"
     with atomic_path(bt_path) as tmp:
-        bt.to_csv(tmp, index=False, float_format="%.6f")
+        write_csv(bt, tmp, index=False, float_format="%.6f")
     run.files["backtest"] = bt_path
     echo("  " + format_table(bt).replace("\n", "\n  "))
 

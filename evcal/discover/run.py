@@ -32,6 +32,7 @@ from evcal.discover.outliers import TC_DELTA, OutlierSearch, chen_liu
 from evcal.discover.recurring import Finding, Recurring, Rule, find_recurring
 from evcal.discover.suggestions import Entry, Row, render_yaml, table
 from evcal.errors import CalendarError, HistoryError
+from evcal.formula_safe import write_csv
 
 __all__ = ["Findings", "discover"]
 
@@ -112,17 +113,17 @@ class Findings:
                 from evcal.discover.chart import findings_chart
 
                 findings_chart(self, tmp / "findings.png")
-            self.table.to_csv(tmp / "suggestions.csv", index=False, float_format="%.6g")
+            write_csv(self.table, tmp / "suggestions.csv", index=False, float_format="%.6g")
             (tmp / "suggestions.yaml").write_text(self.yaml, encoding="utf-8")
             if not self.index_effects.empty:
-                self.index_effects.to_csv(tmp / "index_effects.csv", index=False, float_format="%.4f")
+                write_csv(self.index_effects, tmp / "index_effects.csv", index=False, float_format="%.4f")
             if self.lost:
-                pd.DataFrame([{
+                write_csv(pd.DataFrame([{
                     "start": lo.start.date(), "end": lo.end.date(), "reason": lo.reason,
                     "periods": lo.periods, "expected": lo.expected, "expected_low": lo.expected_low,
                     "expected_high": lo.expected_high, "actual": lo.actual, "lost": lo.lost,
                     "lost_low": lo.lost_low, "lost_high": lo.lost_high,
-                } for lo in self.lost]).to_csv(tmp / "lost_demand.csv", index=False, float_format="%.6g")
+                } for lo in self.lost]), tmp / "lost_demand.csv", index=False, float_format="%.6g")
         return directory
 
 

@@ -106,7 +106,7 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         history_source=hist.source,
         last_year=last_full,
         average_share={int(k): float(v) for k, v in average_share_profile(
-            hist.values.where(rows)).items()},
+            hist.values.where(rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
         mean_base=0.0,
         exclusions=[{"start": pd.Timestamp(e.start).date().isoformat(),
                      "end": pd.Timestamp(e.end).date().isoformat(), "reason": e.reason}

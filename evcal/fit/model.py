@@ -450,13 +450,38 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[Mo
     for _ in range(MAX_PASSES):
         if not theta:
             break
-        inp, est, _ = _fit_flagged(history, calendar, fixed, theta, dropped)
+        trial = dict(dropped)
+        inp_next, est_next, _ = _fit_flagged(history, calendar, fixed, theta, trial)
+        ran_away = [c for c in trial if c not in dropped]
+        if ran_away:
+            # A lift that was sound in the previous pass breaks down once its column follows
+            # the fitted daily lift exactly: its periods moved more than the event's days alone
+            # can make them move (a window too short for what happens around the event). Keep
+            # the previous pass, whose share-of-window estimate is finite and fits the periods
+            # (dropping the event would push a moving holiday into the seasonal index), and say so.
+            for c in ran_away:
+                _mark_approximate(inp, c)
+            break
+        inp, est = inp_next, est_next
         new = fitted_theta(inp, est)
         moved = max((abs(new.get(k, 0.0) - theta.get(k, 0.0)) for k in set(new) | set(theta)), default=0.0)
         theta = new
         if moved < THETA_TOL:
             break
     return inp, est, choice
+
+
+#: the note on a lift whose exact refit ran away (see :func:`estimate_exact`)
+APPROXIMATE_NOTE = (
+    "approximate: the periods around this event moved more than its own days can explain (its window "
+    "may be too short, e.g. the days after a holiday fall too), so the lift could not be refitted to "
+    "the exact days and is the share-of-window estimate; widen before/after, or fit daily data")
+
+
+def _mark_approximate(inp: ModelInputs, column: str) -> None:
+    st = inp.status.get(column)
+    if st is not None and st.status == "fitted":
+        inp.status[column] = ColumnStatus("fitted", APPROXIMATE_NOTE)
 
 
 def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[str, float] | None,

@@ -24,6 +24,7 @@ from evcal.fit.schema import (
     read_folder,
     validate_model_json,
 )
+from evcal.formula_safe import write_csv
 
 __all__ = ["FitResult", "load_model", "json_safe", "FORMAT_VERSION", "MODEL_FILES"]
 
@@ -145,10 +146,10 @@ class FitResult:
         directory = Path(directory)
         with atomic_dir(directory, kind="model") as tmp:
             (tmp / "model.json").write_text(dumps(self.to_json()), encoding="utf-8")
-            self.lifts.to_csv(tmp / "lifts.csv", index=False, float_format="%.6g")
-            self.occurrences.to_csv(tmp / "occurrences.csv", index=False, float_format="%.6g")
-            self.profile.to_csv(tmp / "profile.csv", index=False, float_format="%.6g")
-            self.fitted.to_csv(tmp / "fitted.csv", index=False, float_format="%.6g")
+            write_csv(self.lifts, tmp / "lifts.csv", index=False, float_format="%.6g")
+            write_csv(self.occurrences, tmp / "occurrences.csv", index=False, float_format="%.6g")
+            write_csv(self.profile, tmp / "profile.csv", index=False, float_format="%.6g")
+            write_csv(self.fitted, tmp / "fitted.csv", index=False, float_format="%.6g")
         return directory
 
     @classmethod

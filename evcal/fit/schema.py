@@ -39,6 +39,7 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationEr
 
 from evcal.design.seasonal import base_freq, cycle_length
 from evcal.errors import ModelError, clip
+from evcal.formula_safe import unguard_frame
 
 FORMAT_VERSION = 1
 MODEL_FILES = ("model.json", "lifts.csv", "occurrences.csv", "profile.csv", "fitted.csv")
@@ -554,6 +555,7 @@ def _read_csv(path: Path, required: tuple[str, ...]) -> pd.DataFrame:
     except (OSError, UnicodeDecodeError, pd.errors.ParserError, ValueError) as err:
         raise ModelError(f"{path}: cannot be read as CSV ({clip(str(err).strip(), 120)}); {AGAIN}") from None
     frame.columns = [str(c).strip() for c in frame.columns]
+    frame = unguard_frame(frame)  # the writer quoted text that a spreadsheet would run (formula_safe)
     absent = [c for c in required if c not in frame.columns]
     if absent:
         raise ModelError(f"{path}: line 1: missing column(s) {', '.join(absent)}; expected "

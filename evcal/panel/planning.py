@@ -167,6 +167,7 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
     The output location is checked first (:func:`evcal.outputs.check_output`), before the panel is read.
     """
     from evcal._files import atomic_path
+    from evcal.formula_safe import write_csv
     from evcal.outputs import check_output
 
     force = bool(kwargs.pop("force", False))
@@ -178,7 +179,7 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
                                       kwargs.get("allocate")], force=force)
     table = plan_panel(model_dir, start, end, **kwargs)
     with atomic_path(out) as tmp:
-        table.to_csv(tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+        write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
     keys = [c for c in table.columns if c not in ("date", "share", "base", "plan", "low", "high",
                                                    "assumptions", "note") and not str(c).startswith("lift:")]
     n_series = len(table[keys].drop_duplicates()) if keys else 1

@@ -108,6 +108,7 @@ def write_xlsx(path: Path, table: pd.DataFrame, result: Any = None) -> Path:
         occ = getattr(result, "occurrences", empty) if result is not None else empty
         return write_workbook(path, table, lifts, profile, occ)
     with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
+        writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
         table.to_excel(writer, index=False, sheet_name="Plan")
         formula_safe_sheet(writer.sheets["Plan"].iter_rows())
     return path

@@ -91,6 +91,7 @@ class Comparison:
         # dates stay Excel dates; the totals row is labelled in the same column
         out["date"] = [d.date() if isinstance(d, pd.Timestamp) else d for d in out["date"]]
         with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
+            writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
             out.to_excel(writer, index=False, sheet_name="Scenarios")
             formula_safe_sheet(writer.sheets["Scenarios"].iter_rows())
         return path

@@ -71,6 +71,7 @@ def write_workbook(
     Path
     """
     wb = Workbook()
+    wb.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook (evcal.outputs)
     wb.remove(wb.active)
     for name, frame in zip(SHEETS, (plan, lifts, profile, occurrences), strict=True):
         _write_sheet(wb.create_sheet(name), _with_date_column(frame))

@@ -94,6 +94,9 @@ class Problem:
 
 Lines = dict[tuple[str, ...], int]
 
+_INT_TAG = "tag:yaml.org,2002:int"
+_MAX_INT_CHARS = 30
+
 
 def _short_tag(tag: str) -> str:
     short = "!!" + tag.removeprefix("tag:yaml.org,2002:") if tag.startswith("tag:yaml.org") else tag
@@ -116,7 +119,7 @@ def check_bounds(loader: yaml.SafeLoader) -> Problem | None:
 
     Examples
     --------
-    >>> check_bounds(yaml.SafeLoader("a: &x [1, 2]\nb: *x\n")) is None
+    >>> check_bounds(yaml.SafeLoader("a: &x [1, 2]\\nb: *x\\n")) is None
     True
     >>> check_bounds(yaml.SafeLoader("a: " + "[" * 40 + "]" * 40)).line
     1
@@ -182,6 +185,18 @@ def _walk(node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[P
                 ".".join(path) or "(top level)",
                 f"YAML tag '{_short_tag(node.tag)}' is not allowed (the calendar is read as plain data, "
                 "never as code); write a plain value",
+            )
+        )
+        return
+    if node.tag == _INT_TAG and len(str(node.value)) > _MAX_INT_CHARS:
+        # Python refuses to turn more than 4300 digits into an int (a ValueError deep in
+        # the constructor); no setting of a calendar needs more than a few digits.
+        problems.append(
+            Problem(
+                node.start_mark.line + 1,
+                ".".join(path) or "(top level)",
+                f"a whole number of {len(str(node.value))} characters is far too long for any "
+                "setting here; write a number of a few digits",
             )
         )
         return

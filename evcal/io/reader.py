@@ -19,7 +19,7 @@ from evcal.io.cells import (
     quote,
 )
 from evcal.io.frequency import (
-    WEEKDAYS,
+    check_forced_freq,
     describe_freq,
     detect_freq,
     detect_label,
@@ -155,7 +155,7 @@ def _resolve_freq(
     if option is None:
         return detect_freq(stamps, source=name, rows=rows)
     if forced is not None:
-        _check_forced(stamps, rows, name, option, forced)
+        check_forced_freq(stamps, rows, name, option, forced)
         return forced
     # Plain "weekly": the week ends on the day every date falls on.
     weekdays = stamps.day_of_week
@@ -163,76 +163,6 @@ def _resolve_freq(
     if not (weekdays == modal).all():
         raise HistoryError(weekday_problem(stamps, rows, name, modal))
     return weekly_freq(modal)
-
-
-_UNITS = {"D": "days", "W": "weeks", "M": "months", "Q": "quarters"}
-_DAY_NAMES = ("Monday", "Tuesday", "Wednesday", "Thursday", "Friday", "Saturday", "Sunday")
-
-
-def _freq_code(freq: str) -> str:
-    """What to type for ``freq`` after --freq: D, W-SUN, M or Q."""
-    return "Q" if freq.startswith("Q") else freq
-
-
-def _check_forced(stamps: pd.DatetimeIndex, rows: list[int], name: str, option: str, forced: str) -> None:
-    """Refuse a ``--freq`` the dates contradict, instead of reading them wrongly.
-
-    * weekly ``W-XXX``: weekly dates name the week's last day, so every date
-      must fall on that day (Sunday dates under ``W-SAT`` would each be read as
-      the week ending six days later, and the event lifts would land in the
-      wrong weeks);
-    * any frequency: consecutive dates must mostly be one period apart (weekly
-      dates read as daily would leave six days in seven missing).
-
-    The frequency detected from the dates, when there is one, is named as the
-    choice to pass instead.
-    """
-    option = option.strip()
-    if forced.startswith("W-"):
-        want = WEEKDAYS.index(forced[2:])
-        weekdays = np.asarray(stamps.day_of_week)
-        off = np.flatnonzero(weekdays != want)
-        if len(off):
-            shown = ", ".join(f"row {rows[i]} ({stamps[i].date()})" for i in off[:3])
-            if len(off) > 3:
-                shown += f" and {len(off) - 3:,} more"
-            days = set(weekdays.tolist())
-            if len(days) == 1:
-                day = int(weekdays[0])
-                raise HistoryError(
-                    f"{name}: --freq {option} reads weeks ending {_DAY_NAMES[want]}, but the dates "
-                    f"fall on {_DAY_NAMES[day]}s ({shown}); weekly dates name the last day of each "
-                    f"week: pass --freq {weekly_freq(day)}, or leave --freq out to detect it"
-                )
-            raise HistoryError(
-                f"{name}: --freq {option} reads weeks ending {_DAY_NAMES[want]}, but {shown} "
-                f"fall on other days; weekly dates name the last day of each week: "
-                f"{_instead(stamps, rows, name)}"
-            )
-    if len(stamps) < 3:
-        return
-    steps = np.diff(np.sort(stamps.to_period(forced).asi8))
-    steps = steps[steps > 0]  # rows sharing a period are reported later, with their rows
-    if len(steps) == 0:
-        return
-    typical = int(np.median(steps))
-    if typical > 1:
-        raise HistoryError(
-            f"{name}: --freq {option} reads the dates as {describe_freq(forced)}, but consecutive "
-            f"dates are typically {typical} {_UNITS[forced[0]]} apart, so most periods would be "
-            f"missing: {_instead(stamps, rows, name)}"
-        )
-
-
-def _instead(stamps: pd.DatetimeIndex, rows: list[int], name: str) -> str:
-    try:
-        found = detect_freq(stamps, source=name, rows=rows)
-    except HistoryError:
-        return "give the frequency the dates have, or leave --freq out to detect it"
-    return (
-        f"the dates are {describe_freq(found)}: pass --freq {_freq_code(found)}, or leave --freq "
-        "out to detect it"
-    )
 
 
 def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:

@@ -164,7 +164,7 @@ CASES: list[tuple[str, str, list[tuple[int, str, str]]]] = [
             (5, "events[a].shape", "did you mean 'ramp'"),
             (6, "events[a].years", "needs both `every` and `start`"),
             (7, "events[a].effect", "not a percentage"),
-            (8, "events[a].before", "at least 0"),
+            (8, "events[a].before", "must be from 0 to 366"),
         ],
     ),
     (
@@ -174,7 +174,7 @@ CASES: list[tuple[str, str, list[tuple[int, str, str]]]] = [
         "  - {name: x, type: jump, start: 2022-07-18}\n",
         [
             (3, "interventions[refit]", "a ramp needs `end`"),
-            (4, "interventions[hot]", "between 0 and 1"),
+            (4, "interventions[hot].decay", "between 0 and 1"),
             (5, "interventions[x].type", "use one of pulse, level_shift, temporary, ramp"),
         ],
     ),

@@ -180,25 +180,31 @@ def test_statsmodels_elnino_monthly_long_form() -> None:
 
 @pytest.mark.parametrize(
     ("option", "expected"),
-    [("D", "D"), ("daily", "D"), ("W", "W-SUN"), ("weekly", "W-SUN"), ("W-SUN", "W-SUN")],
+    [("W", "W-SUN"), ("weekly", "W-SUN"), ("W-SUN", "W-SUN"), ("w-sun", "W-SUN")],
 )
 def test_freq_override_on_sundays(option: str, expected: str) -> None:
     dates = pd.date_range("2024-01-07", periods=10, freq="7D")
     assert read_history(pd.DataFrame({"date": dates, "value": 1.0}), freq=option).freq == expected
 
 
-def test_freq_override_daily_on_weekly_dates_keeps_gaps() -> None:
-    dates = pd.date_range("2024-01-07", periods=3, freq="7D")
-    h = read_history(pd.DataFrame({"date": dates, "value": 1.0}), freq="D")
-    assert len(h.values) == 15 and len(h.missing) == 12
+@pytest.mark.parametrize("option", ["D", "daily"])
+def test_freq_override_daily_on_weekly_dates_is_refused(option: str) -> None:
+    # Weekly rows read as daily would leave six days in seven missing: a misread, not a choice.
+    dates = pd.date_range("2024-01-07", periods=10, freq="7D")
+    with pytest.raises(HistoryError) as e:
+        read_history(pd.DataFrame({"date": dates, "value": 1.0}), freq=option)
+    (line,) = problems_of(e)
+    assert "typically 7 days apart" in line and "pass --freq W-SUN" in line
 
 
-def test_freq_override_monthly_and_quarterly() -> None:
+def test_freq_override_monthly_on_quarterly_dates_is_refused() -> None:
     frame = pd.DataFrame({"date": ["2024-01-01", "2024-04-01", "2024-07-01"], "value": 1})
     assert read_history(frame).freq == "Q-DEC"
-    h = read_history(frame, freq="monthly")
-    assert h.freq == "M" and len(h.missing) == 4
     assert read_history(frame, freq="quarterly").freq == "Q-DEC"
+    with pytest.raises(HistoryError) as e:
+        read_history(frame, freq="monthly")
+    (line,) = problems_of(e)
+    assert "typically 3 months apart" in line and "pass --freq Q" in line
 
 
 def test_freq_override_that_puts_two_rows_in_one_period() -> None:

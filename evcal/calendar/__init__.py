@@ -14,7 +14,9 @@ Examples
 
 from evcal.calendar.core import Calendar, PublicHolidays
 from evcal.calendar.loader import load_calendar
+from evcal.calendar.schema import year_span_problems
 from evcal.calendar.spec import (
+    YEAR_RANGE,
     EffectSpec,
     EventSpec,
     ExclusionSpec,
@@ -31,6 +33,8 @@ __all__ = [
     "InterventionSpec",
     "MovedSpec",
     "PublicHolidays",
+    "YEAR_RANGE",
     "YearsSpec",
     "load_calendar",
+    "year_span_problems",
 ]

@@ -44,6 +44,8 @@ def _entity_names() -> dict[str, str]:
 def suggest(word: str, choices: Iterable[str], n: int = 3) -> list[str]:
     """Near matches of ``word`` among ``choices`` (case-insensitive, difflib)."""
     choices = list(choices)
+    if len(str(word)) > 100:  # no name is that long; difflib would take seconds on it
+        return []
     lower = {c.lower(): c for c in choices}
     hits = difflib.get_close_matches(str(word).lower(), list(lower), n=n, cutoff=0.6)
     return [lower[h] for h in hits]

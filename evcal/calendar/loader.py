@@ -34,6 +34,7 @@ from evcal.calendar.schema import (
     PublicHolidaysModel,
     WhenModel,
     parse_effect,
+    show,
 )
 from evcal.calendar.spec import (
     EventSpec,
@@ -42,7 +43,7 @@ from evcal.calendar.spec import (
     MovedSpec,
 )
 from evcal.calendar.yamlread import Lines, Problem, read_yaml
-from evcal.errors import CalendarError
+from evcal.errors import CalendarError, clip
 
 # Years whose holiday names make up the public-holiday events when the block gives no
 # `years` bounds. Wide enough for any history or plan we expect; a choice, documented.
@@ -165,8 +166,9 @@ def _expected_choices(ctx: dict[str, Any]) -> list[str]:
 def _describe(err: dict[str, Any], model: type[BaseModel], loc: tuple[Any, ...]) -> str:
     kind = err["type"]
     value = err.get("input")
-    key = str(loc[-1]) if loc else ""
+    key = clip(str(loc[-1]), 60) if loc else ""
     ctx = err.get("ctx") or {}
+    shown = show(value)  # the user's value, at most ~200 characters
     if kind == "extra_forbidden":
         owner = _model_at(model, loc)
         keys = _valid_keys(owner) if owner else []
@@ -180,22 +182,24 @@ def _describe(err: dict[str, Any], model: type[BaseModel], loc: tuple[Any, ...])
         return f"`{key}` is missing; add `{key}: ...`"
     if kind in ("value_error", "assertion_error"):
         return str(ctx.get("error", err["msg"])).removeprefix("Value error, ")
+    if kind == "finite_number":
+        return f"{shown} is not a finite number; write a plain number such as 3 or 1.5"
     if kind == "literal_error":
         choices = _expected_choices(ctx)
-        near = suggest(str(value), choices, n=1)
+        near = suggest(str(value), choices, n=1) if isinstance(value, str) else []
         hint = f"did you mean '{near[0]}'? " if near else ""
-        return f"'{value}' is not allowed for `{key}`; {hint}use one of {', '.join(choices)}"
+        return f"{shown} is not allowed for `{key}`; {hint}use one of {', '.join(choices)}"
     if kind in ("int_type", "int_parsing", "int_from_float"):
-        return f"{value!r} is not a whole number; write a whole number such as 3"
+        return f"{shown} is not a whole number; write a whole number such as 3"
     if kind in ("float_type", "float_parsing"):
-        return f"{value!r} is not a number; write a number such as 1.5"
+        return f"{shown} is not a number; write a number such as 1.5"
     if kind in ("string_type",):
-        return f"{value!r} is not text; write text (put it in quotes if it looks like a number)"
+        return f"{shown} is not text; write text (put it in quotes if it looks like a number)"
     if kind in ("model_type", "dict_type", "model_attributes_type"):
-        return f"expected a block of `key: value` lines here, got {value!r}; write the keys " \
+        return f"expected a block of `key: value` lines here, got {shown}; write the keys " \
             "one per line under it (or {key: value, ...})"
     if kind in ("list_type", "tuple_type"):
-        return f"expected a list, got {value!r}; write one item per line starting with '- '" \
+        return f"expected a list, got {shown}; write one item per line starting with '- '" \
             ", or [a, b]"
     if kind in ("greater_than_equal", "greater_than", "less_than_equal", "less_than"):
         bound = {
@@ -204,7 +208,7 @@ def _describe(err: dict[str, Any], model: type[BaseModel], loc: tuple[Any, ...])
             "less_than_equal": f"at most {ctx.get('le')}",
             "less_than": f"less than {ctx.get('lt')}",
         }[kind]
-        return f"{value!r} is out of range; `{key}` must be {bound}"
+        return f"{shown} is out of range; `{key}` must be {bound}"
     return f"{err['msg']}; check the value"
 
 
@@ -245,7 +249,7 @@ class _Builder:
         if isinstance(items, list) and index < len(items) and isinstance(items[index], dict):
             name = items[index].get("name")
             if isinstance(name, str) and name.strip():
-                return name.strip()
+                return clip(name.strip(), 60)
         return None
 
     def add(self, loc: tuple[Any, ...], message: str) -> None:
@@ -292,7 +296,7 @@ class _Builder:
             )
             return None
         if not isinstance(data, dict):
-            kind = "a list" if isinstance(data, list) else f"{type(data).__name__} {data!r}"
+            kind = "a list" if isinstance(data, list) else f"{type(data).__name__} {show(data)}"
             self.problems.append(
                 Problem(
                     self.lines.get((), 1),

@@ -12,14 +12,17 @@ from __future__ import annotations
 
 import calendar as _stdcal
 import datetime as dt
+import math
 import re
+import reprlib
 from typing import Annotated, Any, Literal
 
-from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Field, model_validator
+from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, model_validator
 
 from evcal.calendar.holidays_source import suggest
 from evcal.calendar.rules import WEEKDAYS
-from evcal.calendar.spec import EffectSpec, YearsSpec
+from evcal.calendar.spec import FIRST_YEAR, LAST_YEAR, EffectSpec, YearsSpec
+from evcal.errors import clip
 
 RULE_KEYS = (
     "easter",
@@ -33,6 +36,122 @@ RULE_KEYS = (
 )
 MAX_DAYS = 366  # longest occurrence, run-up, run-down or offset, in days
 MONTHS = tuple(_stdcal.month_name)[1:]
+# Accepted ranges of the numeric settings, checked when the file is read (so `calendar
+# check` refuses what `fit` could not use). The bounds are choices, not sources:
+#: assumed lift, in percent: above -100 % (log(1 + lift) is what the design uses) and at
+#: most +10,000 % (101 times the base), far above any event's lift
+ASSUME_PCT = (-100.0, 10_000.0)
+#: an occurrence's strength (1 = a normal occurrence): above 0, at most 100
+MAX_STRENGTH = 100.0
+#: `every` in `years: {every: n, start: y}`: at most the span of years a calendar holds
+MAX_EVERY = LAST_YEAR - FIRST_YEAR
+
+_REPR = reprlib.Repr()
+_REPR.maxlevel, _REPR.maxlist, _REPR.maxtuple, _REPR.maxdict = 3, 6, 6, 6
+_REPR.maxstring, _REPR.maxother = 80, 80
+
+
+def show(value: Any) -> str:
+    """A user's value quoted for a message: at most ~200 characters, whatever its size.
+
+    Examples
+    --------
+    >>> show("12-24"), show([1, 2])
+    ("'12-24'", '[1, 2]')
+    >>> show("x" * 10_000)[-22:]
+    "x'… (10000 characters)"
+    """
+    if isinstance(value, str):
+        if len(value) > 200:
+            return f"{value[:200]!r}… ({len(value)} characters)"
+        return repr(value)
+    if isinstance(value, bool | float) or value is None:
+        return repr(value)
+    if isinstance(value, int):
+        if abs(value).bit_length() > 200:  # str() of a 4300-digit int raises; say its size
+            return f"a whole number of about {int(abs(value).bit_length() * math.log10(2))} digits"
+        return clip(repr(value))
+    return clip(_REPR.repr(value))  # lists and blocks: a few items, a few levels
+
+
+def _range_text(lo: float, hi: float) -> str:
+    return f"from {lo:g} to {hi:g}"
+
+
+def _check_strength(value: float) -> float:
+    if not (math.isfinite(value) and 0 < value <= MAX_STRENGTH):
+        raise ValueError(
+            f"strength {show(value)} is out of range; write a number above 0 and at most "
+            f"{MAX_STRENGTH:g} (1 = a normal occurrence, 1.5 = half as strong again)"
+        )
+    return value
+
+
+def _check_decay(value: float | None) -> float | None:
+    if value is not None and not (math.isfinite(value) and 0 < value < 1):
+        raise ValueError(
+            f"decay {show(value)} is out of range; write a number between 0 and 1, both "
+            "excluded (the share of the change kept each day), e.g. 0.7"
+        )
+    return value
+
+
+def _bounded(lo: int, hi: int, what: str) -> AfterValidator:
+    """An int check that names the whole accepted range (pydantic's names one bound)."""
+
+    def check(value: int) -> int:
+        if not lo <= value <= hi:
+            raise ValueError(f"{show(value)} is out of range; {what} must be {_range_text(lo, hi)}")
+        return value
+
+    return AfterValidator(check)
+
+
+def check_year(year: int, what: str = "the year") -> int:
+    """``year`` if it is in the range a calendar holds (:data:`FIRST_YEAR`..:data:`LAST_YEAR`).
+
+    Examples
+    --------
+    >>> check_year(2024)
+    2024
+    >>> check_year(9999)
+    Traceback (most recent call last):
+    ...
+    ValueError: 9999 is outside the years a calendar can hold; the year must be from 1900 to 2200
+    """
+    if not FIRST_YEAR <= year <= LAST_YEAR:
+        raise ValueError(
+            f"{show(year)} is outside the years a calendar can hold; {what} must be from "
+            f"{FIRST_YEAR} to {LAST_YEAR}"
+        )
+    return year
+
+
+def year_span_problems(first: int, last: int, names: tuple[str, str] = ("--from", "--to")) -> list[str]:
+    """One line per problem with a span of years asked for (``calendar dates --from --to``).
+
+    Both years must be in :data:`~evcal.calendar.spec.YEAR_RANGE` and ``last``
+    not before ``first``; ``names`` are how the user wrote the two bounds.
+
+    Examples
+    --------
+    >>> year_span_problems(2024, 2026)
+    []
+    >>> year_span_problems(1, 2026)
+    ['--from 1: outside the years a calendar can hold; give a year from 1900 to 2200']
+    """
+    problems = [
+        f"{name} {show(year)}: outside the years a calendar can hold; give a year from "
+        f"{FIRST_YEAR} to {LAST_YEAR}"
+        for name, year in zip(names, (first, last), strict=True)
+        if not FIRST_YEAR <= year <= LAST_YEAR
+    ]
+    if not problems and last < first:
+        problems.append(
+            f"{names[1]} {last} is before {names[0]} {first}; give {names[1]} the same year or later"
+        )
+    return problems
+
 
 # ------------------------------------------------------------------ value parsers
 
@@ -63,14 +182,19 @@ def parse_date(value: Any) -> dt.date:
     ValueError: 2023-02-30 is not a date (February 2023 has 28 days); write a real date as YYYY-MM-DD
     """
     if isinstance(value, dt.datetime):
-        return value.date()
+        value = value.date()
     if isinstance(value, dt.date):
-        return value
+        value = value.isoformat()  # same checks (the year range) as for text
     text = str(value).strip()
     m = _ISO.match(text)
     if not m or isinstance(value, bool):
-        raise ValueError(f"{value!r} is not a date; write it as YYYY-MM-DD, e.g. 2024-03-02")
+        raise ValueError(f"{show(value)} is not a date; write it as YYYY-MM-DD, e.g. 2024-03-02")
     year, month, day = (int(g) for g in m.groups())
+    if not FIRST_YEAR <= year <= LAST_YEAR:
+        raise ValueError(
+            f"{text} is outside the years a calendar can hold; write a date from "
+            f"{FIRST_YEAR}-01-01 to {LAST_YEAR}-12-31"
+        )
     if not 1 <= month <= 12:
         raise ValueError(f"{text} is not a date (there is no month {month}); write YYYY-MM-DD")
     if not 1 <= day <= _stdcal.monthrange(year, month)[1]:
@@ -86,7 +210,7 @@ def parse_month_day(value: Any, allow_feb29: bool = True) -> tuple[int, int]:
     text = str(value).strip()
     m = _MD.match(text)
     if not m or isinstance(value, bool | int | float):
-        raise ValueError(f"{value!r} is not a month-day; write it as \"MM-DD\", e.g. \"12-24\"")
+        raise ValueError(f"{show(value)} is not a month-day; write it as \"MM-DD\", e.g. \"12-24\"")
     month, day = int(m.group(1)), int(m.group(2))
     if not 1 <= month <= 12:
         raise ValueError(f"\"{text}\" has no month {month}; write \"MM-DD\" with MM from 01 to 12")
@@ -109,32 +233,53 @@ def parse_weekday(value: Any) -> int:
     near = suggest(text, list(WEEKDAYS))
     hint = f"did you mean '{near[0]}'? " if near else ""
     raise ValueError(
-        f"'{value}' is not a weekday; {hint}use mon, tue, wed, thu, fri, sat, sun "
+        f"{show(str(value))} is not a weekday; {hint}use mon, tue, wed, thu, fri, sat, sun "
         "(or the full names)"
     )
 
 
 def parse_percent(value: Any) -> float:
-    """``"15%"``, ``15`` or ``"15"`` (all meaning 15 %) as the fraction 0.15."""
+    """``"15%"``, ``15`` or ``"15"`` (all meaning 15 %) as the fraction 0.15.
+
+    Finite and in :data:`ASSUME_PCT` (above -100 %, at most +10,000 %).
+
+    Examples
+    --------
+    >>> parse_percent("15%"), parse_percent(-20)
+    (0.15, -0.2)
+    >>> parse_percent("inf")
+    Traceback (most recent call last):
+    ...
+    ValueError: assume: 'inf' is not a finite percentage; write a change above -100% and at \
+most +10000%, e.g. 15% or -20%
+    """
+    lo, hi = ASSUME_PCT
+    allowed = f"write a change above {lo:g}% and at most +{hi:g}%, e.g. 15% or -20%"
     if isinstance(value, bool):
-        raise ValueError(f"{value!r} is not a percentage; write it like 15% or -20%")
-    text = str(value).strip()
+        raise ValueError(f"assume: {show(value)} is not a percentage; {allowed}")
+    text = str(value).strip() if not isinstance(value, int) or abs(value) < 10**30 else "1e30"
     number = text[:-1].strip() if text.endswith("%") else text
     try:
         pct = float(number)
     except ValueError:
-        raise ValueError(f"{value!r} is not a percentage; write it like 15% or -20%") from None
-    if pct <= -100:
-        raise ValueError(f"{text} would take sales below zero; use a change above -100%")
+        raise ValueError(f"assume: {show(value)} is not a percentage; {allowed}") from None
+    if not math.isfinite(pct):
+        raise ValueError(f"assume: {show(value)} is not a finite percentage; {allowed}")
+    if pct <= lo:
+        raise ValueError(f"assume: {clip(text)} would take sales to zero or below; {allowed}")
+    if pct > hi:
+        raise ValueError(f"assume: {clip(text)} is out of range; {allowed}")
     return pct / 100.0
 
 
 def _int(value: Any, what: str) -> int:
+    """A year written as a whole number (or its digits as text), in the calendar's range."""
     if isinstance(value, bool) or not (
-        isinstance(value, int) or (isinstance(value, str) and value.strip().lstrip("-").isdigit())
+        isinstance(value, int)
+        or (isinstance(value, str) and value.strip().lstrip("-").isdigit() and len(value.strip()) < 30)
     ):
-        raise ValueError(f"{value!r} is not a year; write {what} as a four-digit year, e.g. 2024")
-    return int(value)
+        raise ValueError(f"{show(value)} is not a year; write {what} as a four-digit year, e.g. 2024")
+    return check_year(int(value), what if what.startswith(("the", "each")) else f"`{what}`")
 
 
 def parse_years(value: Any) -> YearsSpec:
@@ -151,8 +296,11 @@ def parse_years(value: Any) -> YearsSpec:
         keys = set(map(str, value))
         if keys == {"every", "start"}:
             every, start = value["every"], value["start"]
-            if isinstance(every, bool) or not isinstance(every, int) or every < 1:
-                raise ValueError(f"every: {every!r} is not a whole number of years; e.g. every: 4")
+            if isinstance(every, bool) or not isinstance(every, int) or not 1 <= every <= MAX_EVERY:
+                raise ValueError(
+                    f"every: {show(every)} is not a whole number of years from 1 to {MAX_EVERY}; "
+                    "e.g. every: 4"
+                )
             return YearsSpec("every", every=every, start=_int(start, "start"))
         if keys and keys <= {"from", "to"}:
             first = _int(value["from"], "from") if "from" in value else None
@@ -175,7 +323,7 @@ def parse_years(value: Any) -> YearsSpec:
             "write {every: 4, start: 2018} or {from: 2015, to: 2030}"
         )
     raise ValueError(
-        f"{value!r} is not a years value; use all, a list [2019, 2023], "
+        f"{show(value)} is not a years value; use all, a list [2019, 2023], "
         "{every: 4, start: 2018} or {from: 2015, to: 2030}"
     )
 
@@ -193,7 +341,7 @@ def parse_effect(value: Any) -> EffectSpec:
             return EffectSpec(text)  # type: ignore[arg-type]
         near = suggest(text, ["estimate", "zero", "assume", "like"])
         hint = f"did you mean '{near[0]}'? " if near else ""
-        raise ValueError(f"'{value}' is not an effect; {hint}use {EFFECT_FORMS}")
+        raise ValueError(f"{show(value)} is not an effect; {hint}use {EFFECT_FORMS}")
     if isinstance(value, dict) and len(value) == 1:
         key, inner = next(iter(value.items()))
         if key == "assume":
@@ -204,8 +352,8 @@ def parse_effect(value: Any) -> EffectSpec:
             return EffectSpec("like", like=inner.strip())
         near = suggest(str(key), ["assume", "like"])
         hint = f"did you mean `{near[0]}`? " if near else ""
-        raise ValueError(f"unknown key `{key}` in effect; {hint}use {EFFECT_FORMS}")
-    raise ValueError(f"{value!r} is not an effect; use one of {EFFECT_FORMS}")
+        raise ValueError(f"unknown key `{clip(str(key), 60)}` in effect; {hint}use {EFFECT_FORMS}")
+    raise ValueError(f"{show(value)} is not an effect; use one of {EFFECT_FORMS}")
 
 
 def _weekday_list(value: Any) -> tuple[int, ...]:
@@ -221,8 +369,12 @@ SpanDay = Annotated[tuple[int, int], BeforeValidator(lambda v: parse_month_day(v
 Weekday = Annotated[int, BeforeValidator(parse_weekday)]
 Years = Annotated[YearsSpec, BeforeValidator(parse_years)]
 Effect = Annotated[EffectSpec, BeforeValidator(parse_effect)]
-Days = Annotated[int, Field(ge=0, le=MAX_DAYS)]
-Offset = Annotated[int, Field(ge=-MAX_DAYS, le=MAX_DAYS)]
+Days = Annotated[int, _bounded(0, MAX_DAYS, "a number of days")]
+Offset = Annotated[int, _bounded(-MAX_DAYS, MAX_DAYS, "an offset in days")]
+Length = Annotated[int, _bounded(1, MAX_DAYS, "a length in days")]
+Year = Annotated[int, AfterValidator(check_year)]
+Strength = Annotated[float, AfterValidator(_check_strength)]
+Decay = Annotated[float | None, AfterValidator(_check_decay)]
 Shape = Literal["flat", "ramp", "decay", "daily"]
 
 # ------------------------------------------------------------------ models
@@ -235,7 +387,7 @@ class _Section(BaseModel):
 class _Span(_Section):
     start: Date
     end: Date | None = None
-    strength: Annotated[float, Field(gt=0)] = 1.0
+    strength: Strength = 1.0
 
     @model_validator(mode="after")
     def _order(self) -> _Span:
@@ -273,7 +425,7 @@ def _check_nth(nth: int) -> int:
 
 
 class WeekdayModel(_Section):
-    month: Annotated[int, Field(ge=1, le=12)]
+    month: Annotated[int, _bounded(1, 12, "a month")]
     day: Weekday
     nth: Annotated[int, AfterValidator(_check_nth)]
 
@@ -301,7 +453,7 @@ class WhenModel(_Section):
     def _one_rule(cls, value: Any) -> Any:
         if not isinstance(value, dict):
             raise ValueError(
-                f"{value!r} is not a rule; write a mapping such as {{easter: -2}} or "
+                f"{show(value)} is not a rule; write a mapping such as {{easter: -2}} or "
                 "{fixed: \"12-24\"}"
             )
         rules = [k for k in value if k in RULE_KEYS]
@@ -325,13 +477,13 @@ class EventModel(_Section):
     label: str | None = None
     group: str | None = None
     when: WhenModel
-    length: Annotated[int, Field(ge=1, le=MAX_DAYS)] | None = None
+    length: Length | None = None
     before: Days = 0
     after: Days = 0
     shape: Shape = "flat"
     years: Years = YearsSpec()
-    skip: list[int] = []
-    moved: dict[int, MovedItem] = {}
+    skip: list[Year] = []
+    moved: dict[Year, MovedItem] = {}
     effect: Effect = EffectSpec()
 
 
@@ -351,7 +503,7 @@ class InterventionModel(_Section):
     type: Literal["pulse", "level_shift", "temporary", "ramp"]
     start: Date
     end: Date | None = None
-    decay: float | None = None
+    decay: Decay = None
     label: str | None = None
 
     @model_validator(mode="after")
@@ -369,10 +521,6 @@ class InterventionModel(_Section):
             )
         if self.decay is not None and self.type != "temporary":
             raise ValueError(f"decay is only for type: temporary; remove it from this {self.type}")
-        if self.decay is not None and not 0 < self.decay < 1:
-            raise ValueError(
-                f"decay: {self.decay} must be between 0 and 1 (the share kept each day); e.g. 0.7"
-            )
         return self
 
 

@@ -20,6 +20,15 @@ Shape = Literal["flat", "ramp", "decay", "daily"]
 EffectKind = Literal["estimate", "zero", "assume", "like"]
 InterventionType = Literal["pulse", "level_shift", "temporary", "ramp"]
 
+#: The years a calendar may name (dates, ``years``, ``skip``, ``moved``) and that
+#: ``evcal calendar dates --from/--to`` may list. A choice, not a source: every later
+#: step stamps days as pandas nanosecond Timestamps (1677-09-21 to 2262-04-11), and a
+#: window of up to a year before or after an occurrence must stay inside them; no sales
+#: history this tool reads starts before 1900, and plans do not reach 2200.
+FIRST_YEAR = 1900
+LAST_YEAR = 2200
+YEAR_RANGE = (FIRST_YEAR, LAST_YEAR)
+
 
 @dataclass(frozen=True)
 class EffectSpec:

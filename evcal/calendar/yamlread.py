@@ -7,7 +7,12 @@ The calendar file is read with a subclass of PyYAML's ``SafeLoader`` that
 * leaves dates as text, so that an impossible date (``2023-02-30``) becomes a
   clear message from the validator instead of a crash inside the parser;
 * reads only ``true``/``false`` as booleans (YAML 1.2), so the country code
-  ``NO`` (Norway) or a weekday written ``on`` stays text.
+  ``NO`` (Norway) or a weekday written ``on`` stays text;
+* is bounded: before anything is composed, the parser's events are read once
+  to refuse nesting deeper than :data:`MAX_DEPTH` and aliases that would
+  expand to more than :data:`MAX_ALIAS_NODES` values (a "billion laughs"
+  file) or into themselves. That pass stops at the first breach, so a hostile
+  file costs a few dozen events, whatever its size.
 
 :func:`read_yaml` returns the data and a map from key path (a tuple of
 strings) to the 1-based line where that key or list item starts.
@@ -20,6 +25,25 @@ from dataclasses import dataclass
 from typing import Any
 
 import yaml
+
+from evcal.errors import clip
+
+#: Deepest nesting of blocks and lists accepted. A real calendar is at most 6
+#: deep (top level > events > an event > when > dates > a date; `moved` is as
+#: deep), so 32 leaves room for any hand-written style while staying far below
+#: Python's recursion limit (1000), which the pure-Python composer, the
+#: key-line walk and the validator each spend a few frames of per level.
+MAX_DEPTH = 32
+#: Most values that aliases (``*name``, ``<<: *name``) may add to the data.
+#: Calendars use an alias to repeat a `when` block or a list of dates for a
+#: few events: hundreds of values. 100,000 is far above that and still
+#: validates in a fraction of a second; a billion-laughs file (nine aliases of
+#: nine aliases ...) passes it within a few dozen events and is refused there.
+MAX_ALIAS_NODES = 100_000
+# A file that libyaml cannot parse is parsed again by the pure-Python parser
+# for its clearer message; that parser is ~100x slower, so very large files
+# keep libyaml's message instead.
+_FALLBACK_MAX_CHARS = 1_000_000
 
 _PLAIN_TAGS = {
     "tag:yaml.org,2002:" + t for t in ("str", "int", "float", "bool", "null", "map", "seq", "merge")
@@ -64,14 +88,89 @@ class Problem:
 
     def format(self, source: str) -> str:
         where = f"{source}:{self.line}" if self.line is not None else source
-        return f"{where}: {self.path}: {self.message}" if self.path else f"{where}: {self.message}"
+        path = clip(self.path)  # a key path can hold a user's (long) key or event name
+        return f"{where}: {path}: {self.message}" if path else f"{where}: {self.message}"
 
 
 Lines = dict[tuple[str, ...], int]
 
+_INT_TAG = "tag:yaml.org,2002:int"
+_MAX_INT_CHARS = 30
+
 
 def _short_tag(tag: str) -> str:
-    return "!!" + tag.removeprefix("tag:yaml.org,2002:") if tag.startswith("tag:yaml.org") else tag
+    short = "!!" + tag.removeprefix("tag:yaml.org,2002:") if tag.startswith("tag:yaml.org") else tag
+    return clip(short)
+
+
+_OPEN = (yaml.SequenceStartEvent, yaml.MappingStartEvent)
+_CLOSE = (yaml.SequenceEndEvent, yaml.MappingEndEvent)
+
+
+def check_bounds(loader: yaml.SafeLoader) -> Problem | None:
+    """Read ``loader``'s parser events and return the first breach of the bounds, or None.
+
+    Counts, before any node is composed: the nesting depth (against
+    :data:`MAX_DEPTH`) and the number of values the aliases would add when the
+    data is built (against :data:`MAX_ALIAS_NODES`), from the size of each
+    anchored block as it closes. An alias used inside the block it names would
+    repeat forever and is refused too. Stops at the first breach; syntax
+    errors are raised as PyYAML raises them.
+
+    Examples
+    --------
+    >>> check_bounds(yaml.SafeLoader("a: &x [1, 2]\\nb: *x\\n")) is None
+    True
+    >>> check_bounds(yaml.SafeLoader("a: " + "[" * 40 + "]" * 40)).line
+    1
+    """
+    frames: list[list[Any]] = []  # per open block: [anchor, values so far]
+    sizes: dict[str, int] = {}  # anchor -> values in its block
+    added = 0
+    while True:
+        event = loader.get_event()
+        if event is None or isinstance(event, yaml.StreamEndEvent):
+            return None
+        line = event.start_mark.line + 1 if event.start_mark is not None else None
+        size = 0
+        if isinstance(event, _OPEN):
+            frames.append([event.anchor, 1])
+            if len(frames) > MAX_DEPTH:
+                return Problem(
+                    line, "YAML",
+                    f"the data is nested more than {MAX_DEPTH} levels deep here; a calendar needs "
+                    "at most 6 (top level, events, an event, when, dates, a date): check for "
+                    "unclosed brackets",
+                )
+            continue
+        if isinstance(event, _CLOSE):
+            anchor, size = frames.pop()
+            if anchor is not None:
+                sizes[anchor] = size
+        elif isinstance(event, yaml.ScalarEvent):
+            size = 1
+            if event.anchor is not None:
+                sizes[event.anchor] = 1
+        elif isinstance(event, yaml.AliasEvent):
+            name = event.anchor
+            if any(anchor == name for anchor, _ in frames):
+                return Problem(
+                    line, "YAML",
+                    f"alias *{clip(name, 60)} is used inside the block it names "
+                    f"(&{clip(name, 60)}), so it would repeat forever; refer only to a block "
+                    "that is complete",
+                )
+            size = sizes.get(name, 0)  # an undefined alias is reported by the composer
+            added += size
+            if added > MAX_ALIAS_NODES:
+                return Problem(
+                    line, "YAML",
+                    f"the aliases (*name) up to here would expand to more than "
+                    f"{MAX_ALIAS_NODES:,} values; a calendar repeats a block a few times at "
+                    "most: write the values out, or use fewer aliases of aliases",
+                )
+        if frames:
+            frames[-1][1] += size
 
 
 def _walk(node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[Problem],
@@ -86,6 +185,18 @@ def _walk(node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[P
                 ".".join(path) or "(top level)",
                 f"YAML tag '{_short_tag(node.tag)}' is not allowed (the calendar is read as plain data, "
                 "never as code); write a plain value",
+            )
+        )
+        return
+    if node.tag == _INT_TAG and len(str(node.value)) > _MAX_INT_CHARS:
+        # Python refuses to turn more than 4300 digits into an int (a ValueError deep in
+        # the constructor); no setting of a calendar needs more than a few digits.
+        problems.append(
+            Problem(
+                node.start_mark.line + 1,
+                ".".join(path) or "(top level)",
+                f"a whole number of {len(str(node.value))} characters is far too long for any "
+                "setting here; write a number of a few digits",
             )
         )
         return
@@ -113,6 +224,30 @@ def _walk(node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[P
             _walk(item, (*path, str(i)), lines, problems, seen)
 
 
+def _compose(cls: type, text: str) -> tuple[Any, yaml.Node | None, Problem | None]:
+    """(loader, node, None) once the bounds hold, else (None, None, the breach).
+
+    The bounds pass reads the parser's events with its own loader, then a fresh
+    loader composes the tree: composing is where depth and aliases would cost
+    recursion and memory (libyaml's composer is compiled code and cannot be
+    interrupted part-way).
+    """
+    scan = cls(text)
+    try:
+        bound = check_bounds(scan)
+    finally:
+        scan.dispose()
+    if bound is not None:
+        return None, None, bound
+    loader = cls(text)
+    try:
+        node = loader.get_single_node()
+    except BaseException:
+        loader.dispose()
+        raise
+    return loader, node, None
+
+
 def read_yaml(text: str) -> tuple[Any, Lines, list[Problem]]:
     """Parse ``text``; return (data, lines, problems).
 
@@ -125,28 +260,30 @@ def read_yaml(text: str) -> tuple[Any, Lines, list[Problem]]:
     >>> lines[("events", "0", "name")], problems
     (3, [])
     """
-    loader = _FastCalendarLoader(text)
     try:
         try:
-            try:
-                node = loader.get_single_node()
-            except yaml.YAMLError:
-                loader.dispose()
-                loader = _CalendarLoader(text)
-                node = loader.get_single_node()
-        except yaml.MarkedYAMLError as err:
-            mark = err.problem_mark or err.context_mark
-            line = mark.line + 1 if mark is not None else None
-            what = (err.problem or err.context or "not valid YAML").strip()
-            ctx = err.context_mark
-            if err.problem and err.context and ctx is not None and mark is not None and (
-                ctx.line != mark.line
-            ):
-                # e.g. an unclosed '{': say where it was opened, not only where it was noticed
-                what += f" ({err.context.strip()} started at line {ctx.line + 1})"
-            return None, {}, [Problem(line, "YAML syntax", f"{what}; {_syntax_hint(what)}")]
-        except yaml.YAMLError as err:
-            return None, {}, [Problem(None, "YAML syntax", f"{err}; check the file is YAML")]
+            loader, node, bound = _compose(_FastCalendarLoader, text)
+        except yaml.YAMLError:
+            if len(text) > _FALLBACK_MAX_CHARS:
+                raise
+            loader, node, bound = _compose(_CalendarLoader, text)
+    except yaml.MarkedYAMLError as err:
+        mark = err.problem_mark or err.context_mark
+        line = mark.line + 1 if mark is not None else None
+        what = clip((err.problem or err.context or "not valid YAML").strip())
+        ctx = err.context_mark
+        if err.problem and err.context and ctx is not None and mark is not None and (
+            ctx.line != mark.line
+        ):
+            # e.g. an unclosed '{': say where it was opened, not only where it was noticed
+            what += f" ({clip(err.context.strip())} started at line {ctx.line + 1})"
+        return None, {}, [Problem(line, "YAML syntax", f"{what}; {_syntax_hint(what)}")]
+    except yaml.YAMLError as err:
+        return None, {}, [Problem(None, "YAML syntax", f"{clip(str(err))}; check the file is YAML")]
+    if bound is not None:
+        return None, {}, [bound]
+    assert loader is not None
+    try:
         if node is None:
             return None, {}, []
         lines: Lines = {(): node.start_mark.line + 1}
@@ -159,7 +296,7 @@ def read_yaml(text: str) -> tuple[Any, Lines, list[Problem]]:
         except yaml.MarkedYAMLError as err:
             mark = err.problem_mark
             line = mark.line + 1 if mark is not None else None
-            return None, lines, [Problem(line, "YAML", f"{err.problem}; write plain values")]
+            return None, lines, [Problem(line, "YAML", f"{clip(str(err.problem))}; write plain values")]
         return data, lines, []
     finally:
         loader.dispose()

@@ -7,6 +7,7 @@ day), ``"M"``, ``"Q-DEC"``. Gaps are NaN and listed, never filled with zeros.
 """
 
 from evcal.io.frequency import (
+    check_forced_freq,
     describe_freq,
     detect_freq,
     detect_label,
@@ -18,6 +19,7 @@ from evcal.io.reader import read_history
 
 __all__ = [
     "History",
+    "check_forced_freq",
     "check_length",
     "describe_freq",
     "detect_freq",

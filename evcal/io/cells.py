@@ -6,9 +6,11 @@ per bad cell, so a file with several mistakes is reported in one go.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import re
 import warnings
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -19,17 +21,88 @@ from evcal.errors import HistoryError
 # Cell text that means "no value here" (a gap), compared case-insensitively.
 EMPTY_TOKENS = frozenset({"", "na", "n/a", "nan", "null", "none", "#n/a"})
 
+#: Problems of one kind kept with their row (the first rows); the others are only
+#: counted. At least as many as a message shows, so the first rows shown are the
+#: file's first problem rows whatever their kinds.
+KEEP_PROBLEMS = 10
+
+#: Days a history date may name: pandas' nanosecond Timestamps (every later step
+#: indexes by them) run from 1677-09-21 00:12 to 2262-04-11 23:47; whole days inside.
+FIRST_DAY = pd.Timestamp("1677-09-22")
+LAST_DAY = pd.Timestamp("2262-04-11")
+
 
 @dataclass(frozen=True, order=True)
 class RowProblem:
-    """One bad cell: its spreadsheet row, its column and what is wrong."""
+    """One bad cell: its spreadsheet row, its column and what is wrong.
+
+    ``more`` counts further cells with the same problem that were not kept
+    (see :func:`capped`); a message says how many there are in all.
+    """
 
     row: int
     column: str
     text: str
+    more: int = dataclasses.field(default=0, compare=False)
 
     def line(self, source: str) -> str:
         return f"{source} row {self.row}, column {self.column!r}: {self.text}"
+
+
+def count_problems(problems: list[RowProblem]) -> int:
+    """How many bad cells ``problems`` stand for, the counted-only ones included.
+
+    Examples
+    --------
+    >>> count_problems([RowProblem(2, "value", "x"), RowProblem(3, "value", "y", more=98)])
+    100
+    """
+    return sum(1 + p.more for p in problems)
+
+
+def capped(positions: np.ndarray | list[int], make: Callable[[int], RowProblem]) -> list[RowProblem]:
+    """``make(i)`` for the first :data:`KEEP_PROBLEMS` positions; the rest only counted.
+
+    Keeps a file with two million bad cells from building two million messages.
+
+    Examples
+    --------
+    >>> kept = capped(range(25), lambda i: RowProblem(i + 2, "value", "bad"))
+    >>> len(kept), count_problems(kept)
+    (10, 25)
+    """
+    positions = np.asarray(positions, dtype=np.int64)
+    kept = [make(int(i)) for i in positions[:KEEP_PROBLEMS]]
+    if len(positions) > KEEP_PROBLEMS:
+        kept[-1] = dataclasses.replace(kept[-1], more=len(positions) - KEEP_PROBLEMS)
+    return kept
+
+
+def outside_days(stamps: pd.Series) -> np.ndarray:
+    """Mask of parsed dates outside :data:`FIRST_DAY`..:data:`LAST_DAY` (any datetime unit)."""
+    if stamps.empty:
+        return np.zeros(0, dtype=bool)
+    return (stamps.notna() & ((stamps < FIRST_DAY) | (stamps >= LAST_DAY + pd.Timedelta(days=1)))).to_numpy()
+
+
+def _range_problem(row: int, column: str, cell: object) -> RowProblem:
+    return RowProblem(
+        row,
+        column,
+        f"date {quote(cell)} is outside the dates evcal can hold ({FIRST_DAY.date()} to "
+        f"{LAST_DAY.date()}); check the year",
+    )
+
+
+def _unreadable(row: int, column: str, cell: object) -> RowProblem:
+    return RowProblem(row, column, f"cannot read {quote(cell)} as a date; write YYYY-MM-DD")
+
+
+def _as_ns(stamps: pd.Series) -> pd.Series:
+    """Timezone-free datetime64[ns]; dates outside the range must be NaT already."""
+    if isinstance(stamps.dtype, pd.DatetimeTZDtype):
+        stamps = stamps.dt.tz_localize(None)
+    return stamps.astype("datetime64[ns]")
 
 
 def is_empty(cell: object) -> bool:
@@ -67,14 +140,18 @@ def _naive(ts: pd.Timestamp) -> pd.Timestamp:
 
 
 def _parse_iso(texts: pd.Series) -> pd.Series:
-    """ISO 8601 parse with NaT for failures; mixed UTC offsets parsed one by one."""
+    """ISO 8601 parse with NaT for failures; mixed UTC offsets parsed one by one.
+
+    The result keeps pandas' own unit (dates outside the nanosecond range stay
+    readable, so the caller can name them).
+    """
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
             parsed = pd.to_datetime(texts, format="ISO8601", errors="coerce")
             if isinstance(parsed.dtype, pd.DatetimeTZDtype):
                 parsed = parsed.dt.tz_localize(None)
-            return parsed.astype("datetime64[ns]")
+            return parsed.astype("datetime64[us]")
         except (ValueError, TypeError):
             pass
         out = []
@@ -83,7 +160,7 @@ def _parse_iso(texts: pd.Series) -> pd.Series:
                 out.append(_naive(pd.Timestamp(pd.to_datetime(text, format="ISO8601"))))
             except (ValueError, TypeError):
                 out.append(pd.NaT)
-        return pd.Series(out, index=texts.index, dtype="datetime64[ns]")
+        return pd.Series(out, index=texts.index, dtype="datetime64[us]")
 
 
 def _parse_inferred(texts: pd.Series, dayfirst: bool) -> pd.Series:
@@ -93,10 +170,10 @@ def _parse_inferred(texts: pd.Series, dayfirst: bool) -> pd.Series:
         try:
             parsed = pd.to_datetime(texts, errors="coerce", dayfirst=dayfirst)
         except (ValueError, TypeError, OverflowError):
-            return pd.Series(pd.NaT, index=texts.index, dtype="datetime64[ns]")
+            return pd.Series(pd.NaT, index=texts.index, dtype="datetime64[us]")
     if isinstance(parsed.dtype, pd.DatetimeTZDtype):
         parsed = parsed.dt.tz_localize(None)
-    return parsed.astype("datetime64[ns]")
+    return parsed.astype("datetime64[us]")
 
 
 _BARE_NUMBER = re.compile(r"^[+-]?\d+(\.\d*)?$")
@@ -111,17 +188,27 @@ def parse_dates(
     Text is read as ISO 8601 first (``2024-01-31``, ``2024-01``). Text that is
     not ISO goes to pandas' format inference, once month-first and once
     day-first: if both read every such cell but disagree (``03/04/2024``), the
-    file is ambiguous and the user is asked for ISO dates.
+    file is ambiguous and the user is asked for ISO dates. A date outside
+    :data:`FIRST_DAY`..:data:`LAST_DAY` (``1500-01-01``) is a problem naming
+    its row. At most :data:`KEEP_PROBLEMS` problems of each kind are kept, the
+    others counted (:func:`count_problems`).
+
+    Examples
+    --------
+    >>> dates, problems = parse_dates(pd.Series(["2024-01-07", "1500-01-01"]), [2, 3], "date", "f")
+    >>> problems[0].line("f")
+    "f row 3, column 'date': date '1500-01-01' is outside the dates evcal can hold \
+(1677-09-22 to 2262-04-11); check the year"
     """
     n = len(cells)
     out = pd.Series(pd.NaT, index=range(n), dtype="datetime64[ns]")
     problems: list[RowProblem] = []
     values = cells.reset_index(drop=True)
     if pd.api.types.is_datetime64_any_dtype(values.dtype):
-        stamps = values
-        if isinstance(stamps.dtype, pd.DatetimeTZDtype):
-            stamps = stamps.dt.tz_localize(None)
-        return stamps.astype("datetime64[ns]"), problems
+        stamps = values.dt.tz_localize(None) if isinstance(values.dtype, pd.DatetimeTZDtype) else values
+        far = outside_days(stamps)
+        problems += capped(np.flatnonzero(far), lambda i: _range_problem(rows[i], column, stamps.iloc[i]))
+        return _as_ns(stamps.where(~far)), problems
 
     cells_array = values.to_numpy(dtype=object)
     empty = empty_mask(values)
@@ -132,21 +219,26 @@ def parse_dates(
     text_pos = list(np.flatnonzero(is_text)[~bare.to_numpy(dtype=bool)])
     stamp_pos: list[int] = []
     stamp_vals: list[pd.Timestamp] = []
+    unreadable: list[int] = []
     for i in np.flatnonzero(~is_text & ~empty):
         cell = cells_array[i]
         if isinstance(cell, pd.Timestamp | dt.datetime | dt.date | np.datetime64):
             stamp_pos.append(int(i))
             stamp_vals.append(_naive(pd.Timestamp(cell)))
         else:
-            problems.append(
-                RowProblem(rows[i], column, f"cannot read {quote(cell)} as a date; write YYYY-MM-DD")
-            )
-    for i in np.flatnonzero(is_text)[bare.to_numpy(dtype=bool)]:
-        problems.append(
-            RowProblem(rows[i], column, f"cannot read {quote(cells_array[i])} as a date; write YYYY-MM-DD")
-        )
+            unreadable.append(int(i))
+    unreadable += [int(i) for i in np.flatnonzero(is_text)[bare.to_numpy(dtype=bool)]]
+    problems += capped(
+        sorted(unreadable),
+        lambda i: _unreadable(rows[i], column, cells_array[i]),
+    )
     if stamp_pos:
-        out.iloc[stamp_pos] = pd.DatetimeIndex(stamp_vals).as_unit("ns")
+        given = pd.Series(pd.DatetimeIndex(stamp_vals).as_unit("us"), index=stamp_pos)
+        far = outside_days(given)
+        problems += capped(
+            np.flatnonzero(far), lambda j: _range_problem(rows[stamp_pos[j]], column, given.iloc[j])
+        )
+        out.iloc[stamp_pos] = _as_ns(given.where(~far)).to_numpy()
     if not text_pos:
         return out, problems
 
@@ -175,12 +267,16 @@ def parse_dates(
         better = day_first if day_first.notna().sum() > month_first.notna().sum() else month_first
         parsed = iso.copy()
         parsed.loc[rest.index] = better
-    good = parsed.notna()
-    out.iloc[parsed.index[good].to_numpy(dtype=int)] = parsed[good].to_numpy()
-    for i in parsed.index[~good]:
-        problems.append(
-            RowProblem(rows[int(i)], column, f"cannot read {quote(texts.loc[i])} as a date; write YYYY-MM-DD")
-        )
+    far = outside_days(parsed)
+    problems += capped(
+        parsed.index[far].to_numpy(dtype=int), lambda i: _range_problem(rows[i], column, texts.loc[i])
+    )
+    good = parsed.notna() & ~far
+    out.iloc[parsed.index[good].to_numpy(dtype=int)] = _as_ns(parsed[good]).to_numpy()
+    problems += capped(
+        parsed.index[~good & ~far].to_numpy(dtype=int),
+        lambda i: _unreadable(rows[i], column, texts.loc[i]),
+    )
     return out, problems
 
 
@@ -195,7 +291,8 @@ def parse_values(
     problems: list[RowProblem] = []
     if pd.api.types.is_bool_dtype(values.dtype):
         numbers = pd.Series(np.nan, index=values.index)
-        problems += [RowProblem(rows[i], column, f"{quote(v)} is not a number") for i, v in values.items()]
+        problems += capped(range(len(values)), lambda i: RowProblem(
+            rows[i], column, f"{quote(values.iloc[i])} is not a number"))
         return numbers, problems
     if pd.api.types.is_numeric_dtype(values.dtype):
         numbers = pd.Series(values.to_numpy(dtype="float64", na_value=np.nan), index=values.index)
@@ -203,27 +300,27 @@ def parse_values(
         empty = pd.Series(empty_mask(values), index=values.index)
         texts = values.astype(object).where(~empty, "").astype(str).str.strip()
         numbers = pd.to_numeric(texts.where(~empty), errors="coerce").astype("float64")
-        for i in np.flatnonzero((numbers.isna() & ~empty).to_numpy()):
+
+        def not_a_number(i: int) -> RowProblem:
             text = texts.iloc[i]
             hint = "write plain numbers such as 1234.5"
             if _THOUSANDS.match(text):
                 hint = "write it without thousands separators, e.g. 1234.5"
             elif re.search(r"\d", text):
                 hint = "write a plain number without units or currency signs, e.g. 1234.5"
-            problems.append(RowProblem(rows[i], column, f"{quote(values.iloc[i])} is not a number; {hint}"))
-    bad = ~np.isfinite(numbers) & numbers.notna()
-    for i in np.flatnonzero(bad.to_numpy()):
-        problems.append(RowProblem(rows[i], column, f"{quote(values.iloc[i])} is not a finite number"))
-        numbers.iloc[i] = np.nan
+            return RowProblem(rows[i], column, f"{quote(values.iloc[i])} is not a number; {hint}")
+
+        problems += capped(np.flatnonzero((numbers.isna() & ~empty).to_numpy()), not_a_number)
+    bad = (~np.isfinite(numbers) & numbers.notna()).to_numpy()
+    problems += capped(np.flatnonzero(bad), lambda i: RowProblem(
+        rows[i], column, f"{quote(values.iloc[i])} is not a finite number"))
+    numbers[bad] = np.nan
     if not allow_negative:
-        for i in np.flatnonzero((numbers < 0).to_numpy()):
-            problems.append(
-                RowProblem(
-                    rows[i],
-                    column,
-                    f"negative value {numbers.iloc[i]:g}; sales and demand cannot be below "
-                    "zero: fix the value, or pass --allow-negative (allow_negative=True) if "
-                    "negatives are real (returns, net flows)",
-                )
-            )
+        problems += capped(np.flatnonzero((numbers < 0).to_numpy()), lambda i: RowProblem(
+            rows[i],
+            column,
+            f"negative value {numbers.iloc[i]:g}; sales and demand cannot be below "
+            "zero: fix the value, or pass --allow-negative (allow_negative=True) if "
+            "negatives are real (returns, net flows)",
+        ))
     return numbers, problems

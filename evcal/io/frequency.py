@@ -239,6 +239,90 @@ def _longest_run_above_one(steps: np.ndarray) -> tuple[int, int, int] | None:
     return None
 
 
+_UNITS = {"D": "days", "W": "weeks", "M": "months", "Q": "quarters"}
+def _freq_code(freq: str) -> str:
+    """What to type for ``freq`` after --freq: D, W-SUN, M or Q."""
+    return "Q" if freq.startswith("Q") else freq
+
+
+def check_forced_freq(
+    stamps: pd.DatetimeIndex, rows: Sequence[int] | None, name: str, option: str, forced: str
+) -> None:
+    """Raise :class:`HistoryError` when the dates contradict a ``--freq`` (``forced``, a period string).
+
+    Refuses instead of reading the dates wrongly:
+
+    * weekly ``W-XXX``: weekly dates name the week's last day, so every date
+      must fall on that day (Sunday dates under ``W-SAT`` would each be read as
+      the week ending six days later, and the event lifts would land in the
+      wrong weeks);
+    * any frequency: consecutive dates must mostly be one period apart (weekly
+      dates read as daily would leave six days in seven missing).
+
+    The frequency detected from the dates, when there is one, is named as the
+    choice to pass instead. ``rows`` (spreadsheet rows of the dates) may be None.
+
+    Examples
+    --------
+    >>> sundays = pd.date_range("2024-01-07", periods=5, freq="7D")
+    >>> check_forced_freq(sundays, None, "f.csv", "W-SUN", "W-SUN")
+    >>> check_forced_freq(sundays, None, "f.csv", "D", "D")
+    Traceback (most recent call last):
+    ...
+    evcal.errors.HistoryError: f.csv: --freq D reads the dates as daily, but consecutive dates are \
+typically 7 days apart, so most periods would be missing: the dates are weekly (week ending Sunday): \
+pass --freq W-SUN, or leave --freq out to detect it
+    """
+    option = option.strip()
+    if forced.startswith("W-"):
+        want = WEEKDAYS.index(forced[2:])
+        weekdays = np.asarray(stamps.day_of_week)
+        off = np.flatnonzero(weekdays != want)
+        if len(off):
+            first = off[:3]
+            labels = _label_rows(rows, first)
+            shown = ", ".join(f"{label} ({stamps[i].date()})" for label, i in zip(labels, first, strict=True))
+            if len(off) > 3:
+                shown += f" and {len(off) - 3:,} more"
+            days = set(weekdays.tolist())
+            if len(days) == 1:
+                day = int(weekdays[0])
+                raise HistoryError(
+                    f"{name}: --freq {option} reads weeks ending {_WEEKDAY_NAMES[want]}, but the dates "
+                    f"fall on {_WEEKDAY_NAMES[day]}s ({shown}); weekly dates name the last day of each "
+                    f"week: pass --freq {weekly_freq(day)}, or leave --freq out to detect it"
+                )
+            raise HistoryError(
+                f"{name}: --freq {option} reads weeks ending {_WEEKDAY_NAMES[want]}, but {shown} "
+                f"fall on other days; weekly dates name the last day of each week: "
+                f"{_instead(stamps, rows, name)}"
+            )
+    if len(stamps) < 3:
+        return
+    steps = np.diff(np.sort(stamps.to_period(forced).asi8))
+    steps = steps[steps > 0]  # rows sharing a period are reported later, with their rows
+    if len(steps) == 0:
+        return
+    typical = int(np.median(steps))
+    if typical > 1:
+        raise HistoryError(
+            f"{name}: --freq {option} reads the dates as {describe_freq(forced)}, but consecutive "
+            f"dates are typically {typical} {_UNITS[forced[0]]} apart, so most periods would be "
+            f"missing: {_instead(stamps, rows, name)}"
+        )
+
+
+def _instead(stamps: pd.DatetimeIndex, rows: Sequence[int] | None, name: str) -> str:
+    try:
+        found = detect_freq(stamps, source=name, rows=rows)
+    except HistoryError:
+        return "give the frequency the dates have, or leave --freq out to detect it"
+    return (
+        f"the dates are {describe_freq(found)}: pass --freq {_freq_code(found)}, or leave --freq "
+        "out to detect it"
+    )
+
+
 def detect_label(dates: pd.DatetimeIndex, freq: str) -> str:
     """How dates are written for ``freq``: ``"start"`` or ``"end"`` of each period.
 

@@ -8,8 +8,18 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import HistoryError
-from evcal.io.cells import RowProblem, empty_mask, is_empty, parse_dates, parse_values, quote
+from evcal.io.cells import (
+    KEEP_PROBLEMS,
+    RowProblem,
+    capped,
+    count_problems,
+    empty_mask,
+    parse_dates,
+    parse_values,
+    quote,
+)
 from evcal.io.frequency import (
+    check_forced_freq,
     describe_freq,
     detect_freq,
     detect_label,
@@ -20,8 +30,10 @@ from evcal.io.frequency import (
 from evcal.io.history import History
 from evcal.io.tables import find_column, load_table
 
-MAX_PROBLEM_LINES = 10
+MAX_PROBLEM_LINES = KEEP_PROBLEMS
 _MAX_CLASHES = 3
+# Rows named for one repeated date or period; the others are counted.
+_MAX_ROWS_NAMED = 3
 
 
 def read_history(
@@ -106,15 +118,9 @@ def read_history(
     values, value_problems = parse_values(value_cells, rows, vcol, allow_negative)
     problems += value_problems
     dates = dates.dt.normalize()
-    for i in np.flatnonzero(dates.isna().to_numpy()):
-        if is_empty(date_cells.iloc[i]):
-            problems.append(
-                RowProblem(
-                    rows[i],
-                    dcol,
-                    f"empty date (value {quote(value_cells.iloc[i])}); every row needs a date",
-                )
-            )
+    no_date = np.flatnonzero(dates.isna().to_numpy() & empty_mask(date_cells))
+    problems += capped(no_date, lambda i: RowProblem(
+        rows[i], dcol, f"empty date (value {quote(value_cells.iloc[i])}); every row needs a date"))
     problems += _duplicates(dates, date_cells, rows, dcol)
     if problems:
         raise HistoryError(_problem_lines(problems, name))
@@ -149,6 +155,7 @@ def _resolve_freq(
     if option is None:
         return detect_freq(stamps, source=name, rows=rows)
     if forced is not None:
+        check_forced_freq(stamps, rows, name, option, forced)
         return forced
     # Plain "weekly": the week ends on the day every date falls on.
     weekdays = stamps.day_of_week
@@ -158,23 +165,47 @@ def _resolve_freq(
     return weekly_freq(modal)
 
 
+def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:
+    """Positions of each key that occurs more than once, in order of first row; NaN/NaT skipped.
+
+    Vectorised (a file of two million rows of one date, or of every date twice,
+    is one pass); the caller lists a few groups and counts the rest.
+    """
+    keys = pd.Series(keys).reset_index(drop=True)
+    repeated = np.flatnonzero((keys.duplicated(keep=False) & keys.notna()).to_numpy())
+    if len(repeated) == 0:
+        return []
+    codes, _ = pd.factorize(keys.iloc[repeated])  # numbered in order of first appearance
+    order = np.argsort(codes, kind="stable")
+    bounds = np.flatnonzero(np.diff(codes[order])) + 1
+    return np.split(repeated[order], bounds)
+
+
+def _rows_text(rows: list[int], positions: np.ndarray, show: object = None) -> str:
+    """``row 3 ('2024-01-07'), row 4 (...) and 1,999,997 more rows``: a few named, the rest counted."""
+    named = positions[:_MAX_ROWS_NAMED]
+    text = ", ".join(
+        f"row {rows[i]}" + (f" ({quote(show.iloc[i])})" if show is not None else "")  # type: ignore[attr-defined]
+        for i in named
+    )
+    if len(positions) > len(named):
+        text += f" and {len(positions) - len(named):,} more rows"
+    return text
+
+
 def _duplicates(dates: pd.Series, cells: pd.Series, rows: list[int], column: str) -> list[RowProblem]:
-    found: list[RowProblem] = []
-    valid = dates[dates.notna()]
-    repeated = valid[valid.duplicated(keep=False)]
-    for _day, group in repeated.groupby(repeated, sort=True):
-        positions = list(group.index)
-        first, others = positions[0], positions[1:]
-        where = ", ".join(f"row {rows[i]} ({quote(cells.iloc[i])})" for i in others)
-        found.append(
-            RowProblem(
-                rows[first],
-                column,
-                f"duplicate date {quote(cells.iloc[first])}, again in {where}; keep one "
-                "row per period (add the rows up if they are parts of the same period)",
-            )
+    groups = _repeats(dates)
+
+    def problem(g: int) -> RowProblem:
+        first, others = groups[g][0], groups[g][1:]
+        return RowProblem(
+            rows[first],
+            column,
+            f"duplicate date {quote(cells.iloc[first])}, again in {_rows_text(rows, others, cells)}; "
+            "keep one row per period (add the rows up if they are parts of the same period)",
         )
-    return found
+
+    return capped(range(len(groups)), problem)
 
 
 def _check_one_row_per_period(
@@ -191,28 +222,27 @@ def _check_one_row_per_period(
         hint = f"the dates look {describe_freq(shown_freq)}; leave out --freq to use that"
     except HistoryError:
         hint = "give one row per period"
-    codes = pd.Series(range(len(periods)), index=periods)
-    clashes = [(p, list(g)) for p, g in codes.groupby(level=0, sort=True) if len(g) > 1]
+    clashes = _repeats(pd.Series(periods.asi8))
     lines: list[str] = []
-    for period, positions in clashes[:_MAX_CLASHES]:
-        listed = ", ".join(f"{rows[i]} ({stamps[i].date()})" for i in positions[:3])
-        if len(positions) > 3:
-            listed += f" and {len(positions) - 3} more"
+    for positions in clashes[:_MAX_CLASHES]:
+        listed = ", ".join(f"{rows[i]} ({stamps[i].date()})" for i in positions[:_MAX_ROWS_NAMED])
+        if len(positions) > _MAX_ROWS_NAMED:
+            listed += f" and {len(positions) - _MAX_ROWS_NAMED:,} more"
         lines.append(
-            f"{name} rows {listed}: all fall in the {describe_freq(freq)} period {period}; "
-            f"evcal does not add rows up: {hint}"
+            f"{name} rows {listed}: all fall in the {describe_freq(freq)} period "
+            f"{periods[positions[0]]}; evcal does not add rows up: {hint}"
         )
     if len(clashes) > _MAX_CLASHES:
-        lines.append(f"{name}: and {len(clashes) - _MAX_CLASHES} more periods with several rows")
+        lines.append(f"{name}: and {len(clashes) - _MAX_CLASHES:,} more periods with several rows")
     raise HistoryError(lines)
 
 
 def _problem_lines(problems: list[RowProblem], name: str) -> list[str]:
     ordered = sorted(problems)
     lines = [p.line(name) for p in ordered[:MAX_PROBLEM_LINES]]
-    if len(ordered) > MAX_PROBLEM_LINES:
+    rest = count_problems(problems) - len(lines)
+    if rest > 0:
         lines.append(
-            f"{name}: and {len(ordered) - MAX_PROBLEM_LINES} more problems like these "
-            f"(first {MAX_PROBLEM_LINES} shown)"
+            f"{name}: and {rest:,} more problems like these (first {len(lines)} shown)"
         )
     return lines

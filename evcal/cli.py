@@ -228,15 +228,10 @@ def calendar_dates(
 
 
 def _check_year_range(first: int, last: int) -> None:
+    from evcal.calendar import year_span_problems
     from evcal.errors import CalendarError
 
-    problems = [
-        f"--{flag} {year}: not a year; use a four-digit year such as 2026"
-        for flag, year in (("from", first), ("to", last))
-        if not 1000 <= year <= 9999
-    ]
-    if not problems and last < first:
-        problems.append(f"--to {last} is before --from {first}; give --to the same year or later")
+    problems = year_span_problems(first, last)
     if problems:
         raise CalendarError(problems)
 

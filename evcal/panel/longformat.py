@@ -24,8 +24,15 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import HistoryError
-from evcal.io.cells import empty_mask, parse_dates, parse_values, quote
-from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_freq_option, weekly_freq
+from evcal.io.cells import count_problems, empty_mask, parse_dates, parse_values, quote
+from evcal.io.frequency import (
+    check_forced_freq,
+    describe_freq,
+    detect_freq,
+    detect_label,
+    parse_freq_option,
+    weekly_freq,
+)
 from evcal.io.history import History
 from evcal.io.tables import PARQUET_SUFFIXES, RawTable, find_column, load_table
 
@@ -334,7 +341,8 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
         rows = table.rows or list(range(2, n_rows + 2))
         parsed_v, problems = parse_values(vcells, rows, vcol, allow_negative=True)
         if problems:
-            more = f" (and {len(problems) - 1} more bad cells)" if len(problems) > 1 else ""
+            n_bad = count_problems(problems)
+            more = f" (and {n_bad - 1} more bad cells)" if n_bad > 1 else ""
             raise HistoryError(sorted(problems)[0].line(name) + more)
         vals = parsed_v.to_numpy(dtype="float64")
 
@@ -456,6 +464,7 @@ def _frequency(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.ndarray, n
     if option is not None:
         forced = parse_freq_option(option)
         if forced is not None:
+            check_forced_freq(u_stamps, u_rows, name, option, forced)  # never a silent misread
             return forced
         weekdays = u_stamps.day_of_week
         if len(set(weekdays.tolist())) > 1:

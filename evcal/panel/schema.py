@@ -152,7 +152,7 @@ def validate_panel_json(path: Path, data: dict[str, Any]) -> PanelJson:
     fmt, version = data.get("format"), data.get("format_version")
     if fmt != PANEL_FORMAT or version != PANEL_VERSION or isinstance(version, bool):
         written = clip(str(data.get("evcal_version", "?")), 20)
-        raise ModelError(f"{path}: format {_shown(fmt)} version {_shown(version)} (written by evcal "
+        raise ModelError(f"{path}: format {_shown(fmt)}, format_version {_shown(version)} (written by evcal "
                          f"{written}); this evcal ({__version__}) reads {PANEL_FORMAT} version "
                          f"{PANEL_VERSION}; {AGAIN}")
     try:
@@ -209,6 +209,9 @@ def check_panel_settings(path: Path, m: PanelJson) -> Any:
     if [t.name for t in m.design.interventions] != [t.name for t in cal.interventions]:
         raise _fail(path, "design.interventions", "do not match the saved calendar's interventions")
     c = m.counts
+    if sum(g.series for g in m.groups) != c.batched:
+        raise _fail(path, "groups", f"hold {sum(g.series for g in m.groups)} series; counts.batched says "
+                                    f"{c.batched}")
     if c.fitted + c.skipped != c.series or c.batched + c.per_series != c.fitted:
         raise _fail(path, "counts", f"do not add up (series {c.series} = fitted {c.fitted} + skipped "
                                     f"{c.skipped}; fitted = batched {c.batched} + per_series {c.per_series})")
@@ -342,6 +345,10 @@ def read_panel_tables(directory: Path, m: PanelJson, cal: Any) -> dict[str, pd.D
     if len(series) != m.counts.series:
         raise ModelError(f"{path}: {len(series)} rows; panel.json counts.series says {m.counts.series}; "
                          f"{AGAIN}")
+    in_file = list(series.columns[:list(series.columns).index("status")])
+    if in_file != keys:
+        raise _fail(directory / "panel.json", "keys", f"{_shown(keys)} are not the key columns of series.csv "
+                                                      f"({clip(', '.join(in_file), 80)})")
     _text_col(path, series, "status", {"fitted", "skipped"})
     fitted = (series["status"] == "fitted").to_numpy()
     _text_col(path, series, "engine", {"batched", "per-series"}, fitted)
@@ -365,6 +372,11 @@ def read_panel_tables(directory: Path, m: PanelJson, cal: Any) -> dict[str, pd.D
     if int(fitted.sum()) != m.counts.fitted:
         raise ModelError(f"{path}: {int(fitted.sum())} series with status fitted; panel.json counts.fitted "
                          f"says {m.counts.fitted}; {AGAIN}")
+    ids = {g.group for g in m.groups}
+    batched = fitted & (series["engine"] == "batched").to_numpy()
+    bad = batched & ~series["group"].isin(ids).to_numpy()
+    if bad.any():
+        raise _row_error(path, int(np.flatnonzero(bad)[0]), "group", "not a design group of panel.json")
     for col in ("group", "hac_lags", "periods_fitted"):
         series[col] = pd.array(series[col].round().where(series[col].notna()), dtype="Int64") \
             if series[col].notna().any() else pd.array([pd.NA] * n, dtype="Int64")
@@ -381,6 +393,8 @@ def read_panel_tables(directory: Path, m: PanelJson, cal: Any) -> dict[str, pd.D
     _text_col(path, lifts, "event", terms)
     _text_col(path, lifts, "kind", {"event", "intervention"})
     _flags(path, lifts, "identifiable")
+    _counted(path, pos, n, np.where(fitted, len(m.events), 0), "one row per event and intervention of "
+             "panel.json for each fitted series", series, keys)
     dup = pd.DataFrame({"_pos": pos, "event": lifts["event"].to_numpy()}).duplicated().to_numpy()
     if dup.any():
         raise _row_error(path, int(np.flatnonzero(dup)[0]), "event", "appears twice for the same series")

@@ -534,3 +534,44 @@ def test_model_json_without_a_key_is_one_line(invented: dict, tmp_path: Path) ->
         read_model_folder(invented["model"], plan_csv=invented["plan"])
     assert err.value.problems == [f"{path}: average_share: missing; re-run evcal fit to write the folder "
                                   "again"]
+
+
+@pytest.mark.parametrize("damage", ["params.const null", "freq D", "lifts.csv empty", "profile row dropped"])
+def test_cli_report_and_plan_refuse_a_damaged_folder_alike(invented: dict, tmp_path: Path,
+                                                           damage: str) -> None:
+    # issue 13: one checked reader, so `evcal report` says what `evcal plan` says, in one line, exit 2
+    folder = invented["model"]
+    path = folder / "model.json"
+    model = json.loads(path.read_text())
+    if damage == "params.const null":
+        model["params"]["const"] = None
+    elif damage == "freq D":
+        model["freq"] = model["design"]["freq"] = "D"
+    path.write_text(json.dumps(model))
+    if damage == "lifts.csv empty":
+        (folder / "lifts.csv").write_text("")
+    elif damage == "profile row dropped":
+        prof = pd.read_csv(folder / "profile.csv")
+        prof.iloc[:-1].to_csv(folder / "profile.csv", index=False)
+    runner = CliRunner()
+    plan = runner.invoke(app, ["plan", str(folder), "--from", "2026-01-01", "--to", "2026-12-31",
+                               "--sims", "0", "--out", str(tmp_path / "plan.csv")])
+    report = runner.invoke(app, ["report", str(folder), "--out", str(tmp_path / "r.html")])
+    lines = []
+    for res in (plan, report):
+        assert res.exit_code == 2, res.output
+        assert "Traceback" not in res.output
+        lines.append([ln for ln in res.output.splitlines() if ln.strip()])
+    assert len(lines[0]) == 1 and lines[0] == lines[1]
+    assert not (tmp_path / "plan.csv").exists() and not (tmp_path / "r.html").exists()
+
+
+def test_cli_report_on_a_panel_folder_is_one_line(tmp_path: Path) -> None:
+    # the report reads one series' model folder; a panel folder was refused before and still is
+    folder = tmp_path / "panel"
+    folder.mkdir()
+    (folder / "panel.json").write_text("{}")
+    res = CliRunner().invoke(app, ["report", str(folder), "--out", str(tmp_path / "r.html")])
+    assert res.exit_code == 2 and "Traceback" not in res.output
+    lines = [ln for ln in res.output.splitlines() if ln.strip()]
+    assert len(lines) == 1 and "a panel model folder" in lines[0], res.output

@@ -1,13 +1,17 @@
 """The HTML report: content, escaping, errors and the `evcal report` command.
 
-All data here is invented (a made-up weekly series for the invented
-"Fernhollow Garden Centres"), written straight into the files of the output
-contract so these tests do not depend on the fit. The browser rendering check
-is in tests/test_report_browser.py.
+The model folders here are real ones, written by ``evcal.fit(...).save(...)``
+from synthetic histories with a known truth, invented for these tests (a
+weekly series for the invented "Fernhollow Garden Centres", and a small series
+at other frequencies): the report reads them through the same checked reader
+as ``evcal plan``. The plan and backtest files beside them are invented and
+written straight into the files of their output contract. The browser
+rendering check is in tests/test_report_browser.py.
 """
 
 from __future__ import annotations
 
+import functools
 import json
 import re
 from pathlib import Path
@@ -17,6 +21,8 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
+import evcal
+from evcal.calendar import load_calendar
 from evcal.cli import app
 from evcal.errors import ModelError
 from evcal.report import write_report
@@ -27,152 +33,73 @@ from evcal.report.model_folder import read_model_folder
 
 XSS = "<script>alert(1)</script>"
 
+#: invented truth of the Fernhollow test history (multipliers on the days each event touches)
+TRUTH = {"spring-weekend": 0.30, "seed-promo": 0.18, "shop-refit": 0.05}
 
-def write_invented_model(folder: Path, promo_label: str = "Spring seed promotion") -> dict:
-    """Write an invented model folder, plan and backtest (Fernhollow, weekly, 2022-2025).
 
-    Returns the paths written. The numbers are made up; they only need to be
-    consistent with each other (fitted = base + contributions).
+def invented_calendar(promo_label: str, name: str = "Fernhollow Garden Centres (invented)") -> str:
+    """The invented calendar: two estimated events, a closure, one with no history, one assumed."""
+    return f"""name: {json.dumps(name)}
+events:
+  - name: spring-weekend
+    label: Spring holiday weekend
+    group: holiday
+    when: {{easter: -2}}
+    length: 4
+  - name: seed-promo
+    label: {json.dumps(promo_label)}
+    group: promotion
+    when: {{dates: [{{start: 2022-03-01, end: 2022-03-06}}, {{start: 2023-03-13, end: 2023-03-19}},
+                    {{start: 2024-03-04, end: 2024-03-10}}, {{start: 2025-02-24, end: 2025-03-02}}]}}
+  - name: christmas-closed
+    label: Closed for Christmas
+    group: closure
+    when: {{fixed: "12-25"}}
+    effect: zero
+  - name: new-year-sale
+    label: New Year sale
+    group: promotion
+    when: {{fixed: "01-03"}}
+    years: {{from: 2026, to: 2030}}
+  - name: autumn-fair
+    label: Autumn plant fair
+    group: event
+    when: {{fixed: "09-15"}}
+    effect: {{assume: 15%}}
+interventions:
+  - {{name: shop-refit, type: level_shift, start: 2024-03-01}}
+exclude:
+  - {{start: 2023-07-09, end: 2023-07-30, reason: stock-out of compost}}
+"""
+
+
+@functools.lru_cache(maxsize=8)
+def invented_fit(promo_label: str, name: str = "Fernhollow Garden Centres (invented)") -> evcal.FitResult:
+    """A fit of the invented weekly history (2022-2025), known truth in :data:`TRUTH`."""
+    text = invented_calendar(promo_label, name)
+    cal = load_calendar(text)
+    days = pd.date_range("2021-12-27", "2025-12-28", freq="D")
+    on = (cal.day_weights(days[0], days[-1]) > 0).astype(float)
+    doy = days.day_of_year.to_numpy()
+    base = 120 * (1 + 0.45 * np.sin(2 * np.pi * (doy - 80) / 365.25)) * (1 + 0.0002 * np.arange(len(days)))
+    mult = 1 + TRUTH["spring-weekend"] * on["spring-weekend"].to_numpy() + TRUTH["seed-promo"] * on[
+        "seed-promo"].to_numpy()
+    mult = mult * np.where(days >= "2024-03-01", 1 + TRUTH["shop-refit"], 1.0)
+    mult = mult * (1 - on["christmas-closed"].to_numpy())  # closed: no sales that day
+    weekly = pd.Series(base * mult, index=days).resample("W-SUN").sum().loc["2022-01-02":]
+    noise = np.exp(np.random.default_rng(7).normal(0, 0.03, len(weekly)))
+    hist = pd.DataFrame({"date": weekly.index, "value": (weekly.to_numpy() * noise).round(1)})
+    return evcal.fit(hist, text, errors="ols", seasonal="fourier", fourier_order=3)
+
+
+def write_invented_model(folder: Path, promo_label: str = "Spring seed promotion",
+                         name: str = "Fernhollow Garden Centres (invented)") -> dict:
+    """Write a real model folder of the invented weekly history, with an invented plan and backtest.
+
+    Returns the paths written.
     """
-    folder.mkdir(parents=True, exist_ok=True)
-    rng = np.random.default_rng(7)
+    invented_fit(promo_label, name).save(folder)
     dates = pd.date_range("2022-01-02", "2025-12-28", freq="W-SUN")
-    week = dates.isocalendar().week.to_numpy().astype(int)
-    index = 100 + 45 * np.sin((week - 10) / 52 * 2 * np.pi)
-    base = (800 + 0.8 * np.arange(len(dates))) * index / 100
-    easter_weeks = {2022: "2022-04-17", 2023: "2023-04-09", 2024: "2024-03-31", 2025: "2025-04-20"}
-    spring = np.zeros(len(dates))
-    for day in easter_weeks.values():
-        spring[dates.get_indexer([pd.Timestamp(day)], method="bfill")[0]] = 0.32
-    promo = np.zeros(len(dates))
-    for day in ["2022-03-06", "2023-03-19", "2024-03-10", "2025-03-02"]:
-        promo[dates.get_indexer([pd.Timestamp(day)], method="bfill")[0]] = 0.18
-    closure = np.where((week == 52), -0.4, 0.0)
-    contrib = {
-        "spring-weekend": base * spring,
-        "seed-promo": base * promo,
-        "christmas-closed": base * closure,
-        "shop-refit": np.where(dates >= "2024-03-01", base * 0.05, 0.0),
-    }
-    fitted_vals = base + sum(contrib.values())
-    actual = fitted_vals * (1 + rng.normal(0, 0.04, len(dates)))
-    fitted = pd.DataFrame(
-        {
-            "date": dates.strftime("%Y-%m-%d"),
-            "actual": actual.round(1),
-            "fitted": fitted_vals.round(1),
-            "base": base.round(1),
-        }
-    )
-    for name, values in contrib.items():
-        fitted[name] = values.round(1)
-    fitted.to_csv(folder / "fitted.csv", index=False)
-
-    lifts = pd.DataFrame(
-        [
-            ["spring-weekend", 31.5, 24.0, 39.6, 410.0, True, "", "event", "Spring holiday weekend"],
-            ["seed-promo", 17.2, 9.1, 25.8, 190.0, True, "", "event", promo_label],
-            [
-                "christmas-closed",
-                -40.0,
-                -40.0,
-                -40.0,
-                -300.0,
-                True,
-                "closure: known zero days",
-                "event",
-                "Closed for Christmas",
-            ],
-            [
-                "new-year-sale",
-                np.nan,
-                np.nan,
-                np.nan,
-                np.nan,
-                False,
-                "always in week 1: its effect stays inside the seasonal index",
-                "event",
-                "New Year sale",
-            ],
-            ["shop-refit", 5.1, 2.0, 8.3, 45.0, True, "", "intervention", "Shop refit"],
-        ],
-        columns=[
-            "event",
-            "lift_pct",
-            "low_pct",
-            "high_pct",
-            "units_per_occurrence",
-            "identifiable",
-            "note",
-            "kind",
-            "label",
-        ],
-    )
-    lifts.to_csv(folder / "lifts.csv", index=False)
-
-    occ_rows = []
-    for name in ("spring-weekend", "seed-promo", "christmas-closed"):
-        for i in np.flatnonzero(contrib[name]):
-            d = dates[i]
-            occ_rows.append(
-                [
-                    name,
-                    (d - pd.Timedelta(days=6)).date(),
-                    d.date(),
-                    round(contrib[name][i], 1),
-                    round(contrib[name][i] / base[i] * 100, 1),
-                ]
-            )
-    occ = pd.DataFrame(occ_rows, columns=["event", "start", "end", "added_units", "added_pct"])
-    occ.to_csv(folder / "occurrences.csv", index=False)
-
-    pd.DataFrame(
-        {
-            "period": np.arange(1, 53),
-            "index": np.round(100 + 45 * np.sin((np.arange(1, 53) - 10) / 52 * 2 * np.pi), 2),
-        }
-    ).to_csv(folder / "profile.csv", index=False)
-
-    model = {
-        "format_version": 1,
-        "evcal_version": "0.1.0",
-        "freq": "W-SUN",
-        "transform": "log",
-        "model": {
-            "chosen": "ols-hac",
-            "reason": "lowest rolling out-of-sample error among the candidates",
-            "candidates": [
-                {"name": "ols-hac", "criterion": "rolling WAPE", "value": 0.061},
-                {"name": "arima(1,0,0)", "criterion": "rolling WAPE", "value": 0.066},
-            ],
-        },
-        "warnings": ["new-year-sale always falls in week 1: not estimated"],
-        "exclusions": [{"start": "2023-07-09", "end": "2023-07-30", "reason": "stock-out of compost"}],
-        "calendar_name": "Fernhollow Garden Centres (invented)",
-        "events": [
-            {
-                "name": "spring-weekend",
-                "label": "Spring holiday weekend",
-                "group": "holiday",
-                "effect": "estimate",
-            },
-            {"name": "seed-promo", "label": promo_label, "group": "promotion", "effect": "estimate"},
-            {
-                "name": "christmas-closed",
-                "label": "Closed for Christmas",
-                "group": "closure",
-                "effect": "zero",
-            },
-            {"name": "new-year-sale", "label": "New Year sale", "group": "promotion", "effect": "estimate"},
-            {
-                "name": "autumn-fair",
-                "label": "Autumn plant fair",
-                "group": "event",
-                "effect": {"assume": "15%"},
-            },
-        ],
-    }
-    (folder / "model.json").write_text(json.dumps(model, indent=2))
 
     pdates = pd.date_range("2026-01-04", "2026-12-27", freq="W-SUN")
     pweek = pdates.isocalendar().week.to_numpy().astype(int)
@@ -248,18 +175,33 @@ def test_report_has_every_section_and_numbers(invented: dict, tmp_path: Path) ->
     ]:
         assert heading in page
     assert "This plan is an estimate" in page
-    # lifts table shows the interval of the contract values
-    assert "+31.5 %" in page and "+24.0 % to +39.6 %" in page
-    # the unidentifiable event is listed with its note, not given a number
-    assert "always in week 1: its effect stays inside the seasonal index" in page
+    # lifts table shows the interval of the contract values (lifts.csv of the fitted folder)
+    lifts = pd.read_csv(invented["model"] / "lifts.csv").set_index("event")
+    sw = lifts.loc["spring-weekend"]
+    assert f"{sw.lift_pct:+.1f} %" in page and f"{sw.low_pct:+.1f} % to {sw.high_pct:+.1f} %" in page
+    # the event without history is listed with its note, not given a number
+    assert np.isnan(lifts.loc["new-year-sale", "lift_pct"])
+    assert lifts.loc["new-year-sale", "note"] in page
     # the chosen model, exclusion and assumption are named
-    assert "ols-hac" in page and "stock-out of compost" in page
+    chosen = json.loads((invented["model"] / "model.json").read_text())["model"]["chosen"]
+    assert chosen in page and "stock-out of compost" in page
     assert "autumn-fair: assumed +15%" in page
     # every chart is an embedded PNG; nothing is fetched
     images = re.findall(r'<img src="([^"]+)"', page)
     assert len(images) >= 6 and all(src.startswith("data:image/png;base64,") for src in images)
     assert "http://" not in page and "https://" not in page
     assert "<script" not in page.lower()
+
+
+def test_invented_fit_finds_its_truth(invented: dict) -> None:
+    # synthetic history with a known truth (TRUTH): each estimated lift's 95 % interval, widened by
+    # 3 points for the share-of-window spread over partly touched weeks, holds the invented lift
+    lifts = pd.read_csv(invented["model"] / "lifts.csv").set_index("event")
+    for name, true in TRUTH.items():
+        row = lifts.loc[name]
+        assert row.low_pct - 3 < 100 * true < row.high_pct + 3, (name, row.to_dict())
+    assert lifts.loc["christmas-closed", "lift_pct"] == -100.0  # a closure: known zero
+    assert lifts.loc["autumn-fair", "lift_pct"] == 15.0  # assumed, not estimated
 
 
 def test_backtest_summary_is_computed_from_the_file(invented: dict, tmp_path: Path) -> None:
@@ -323,10 +265,10 @@ def test_script_label_is_escaped(tmp_path: Path) -> None:
 
 
 def test_file_and_calendar_names_are_escaped(tmp_path: Path) -> None:
-    paths = write_invented_model(tmp_path / 'm"<b>')
+    paths = write_invented_model(tmp_path / 'm"<b>', name="<img src=x onerror=alert(1)>")
     model = json.loads((paths["model"] / "model.json").read_text())
-    model["calendar_name"] = "<img src=x onerror=alert(1)>"
-    model["warnings"].append("<iframe>")
+    assert model["calendar_name"] == "<img src=x onerror=alert(1)>"
+    model["warnings"].append("<iframe>")  # warnings are free text: still a valid model.json
     (paths["model"] / "model.json").write_text(json.dumps(model))
     page = write_report(paths["model"], tmp_path / "x.html").read_text()
     assert "<img src=x" not in page and "<iframe>" not in page and "<b>" not in page
@@ -389,7 +331,8 @@ def test_missing_file_is_named(invented: dict, tmp_path: Path) -> None:
     (invented["model"] / "profile.csv").unlink()
     with pytest.raises(ModelError) as err:
         write_report(invented["model"], tmp_path / "r.html")
-    assert "profile.csv: missing from the model folder" in err.value.problems[0]
+    assert err.value.problems == [f"{invented['model']}: model folder is missing profile.csv; "
+                                  "re-run evcal fit to write the folder again"]
     assert not (tmp_path / "r.html").exists()
 
 
@@ -401,7 +344,8 @@ def test_bad_value_names_line_and_column(invented: dict) -> None:
     with pytest.raises(ModelError) as err:
         read_model_folder(invented["model"])
     assert err.value.problems == [
-        f"{invented['model'] / 'lifts.csv'}: line 3: column lift_pct: 'lots' is not a number"
+        f"{invented['model'] / 'lifts.csv'}: line 3: column lift_pct: \"lots\" is not a number; "
+        "re-run evcal fit to write the folder again"
     ]
 
 
@@ -441,7 +385,7 @@ def test_cli_report_missing_model_file_exits_2(invented: dict, tmp_path: Path) -
     out = tmp_path / "report.html"
     result = CliRunner().invoke(app, ["report", str(invented["model"]), "--out", str(out)])
     assert result.exit_code == 2
-    assert "lifts.csv: missing from the model folder" in result.output
+    assert "model folder is missing lifts.csv" in result.output
     assert "Traceback" not in result.output
     assert not out.exists()
 
@@ -464,47 +408,28 @@ def test_calendar_file_drives_the_calendar_view(invented: dict, tmp_path: Path) 
     assert "Closed on Easter Sunday" in day.group(2)
 
 
+#: the invented fair of write_minimal_model: a week at a different point of each year, so the fit
+#: tells it apart from the season (truth: +16 % on its days)
+FAIR_DATES = ["2022-04-10", "2023-05-08", "2024-07-08", "2025-04-14"]
+FAIR_CAL = ("name: invented fair (test)\nevents:\n  - name: fair\n    when: {dates: ["
+            + ", ".join(f"{{start: {d}, end: {(pd.Timestamp(d) + pd.Timedelta(days=6)).date()}}}"
+                        for d in FAIR_DATES) + "]}\n")
+
+
 def write_minimal_model(folder: Path, freq: str, periods: int, cycle: int) -> dict:
-    """An invented model folder at any frequency: one event, peak in a known period."""
-    folder.mkdir(parents=True)
+    """A real model folder at any frequency (synthetic history with a known truth: a cosine season and
+    a +16 % fair), and an invented plan whose peak is made by the fair in a known period."""
     dates = pd.date_range("2022-01-01", periods=periods, freq=freq)
-    phase = np.arange(periods) % cycle
-    base = 500 + 100 * np.cos(2 * np.pi * phase / cycle)
-    event = np.where(phase == cycle // 3, 80.0, 0.0)
-    pd.DataFrame(
-        {
-            "date": dates.strftime("%Y-%m-%d"),
-            "actual": base + event,
-            "fitted": base + event,
-            "base": base,
-            "fair": event,
-        }
-    ).to_csv(folder / "fitted.csv", index=False)
-    pd.DataFrame(
-        {
-            "event": ["fair"],
-            "lift_pct": [12.0],
-            "low_pct": [8.0],
-            "high_pct": [16.0],
-            "units_per_occurrence": [80.0],
-            "identifiable": ["True"],
-            "note": [""],
-        }
-    ).to_csv(folder / "lifts.csv", index=False)
-    hit = dates[event > 0]
-    pd.DataFrame(
-        {
-            "event": "fair",
-            "start": hit.strftime("%Y-%m-%d"),
-            "end": hit.strftime("%Y-%m-%d"),
-            "added_units": 80.0,
-            "added_pct": 12.0,
-        }
-    ).to_csv(folder / "occurrences.csv", index=False)
-    pd.DataFrame(
-        {"period": np.arange(1, cycle + 1), "index": 100 + 20 * np.cos(2 * np.pi * np.arange(cycle) / cycle)}
-    ).to_csv(folder / "profile.csv", index=False)
-    (folder / "model.json").write_text(json.dumps({"format_version": 1, "freq": freq}))
+    days = pd.date_range(dates[0], dates[-1] + pd.tseries.frequencies.to_offset(freq) - pd.Timedelta(days=1))
+    doy = days.day_of_year.to_numpy()
+    daily = 50 + 10 * np.cos(2 * np.pi * doy / 365.25)
+    fair = np.zeros(len(days), dtype=bool)
+    for d in FAIR_DATES:
+        fair |= (days >= d) & (days <= pd.Timestamp(d) + pd.Timedelta(days=6))
+    daily = daily * np.where(fair, 1.16, 1.0) * np.exp(np.random.default_rng(3).normal(0, 0.01, len(days)))
+    values = pd.Series(daily, index=days).groupby(days.to_period(freq[0])).sum().to_numpy()[:periods]
+    hist = pd.DataFrame({"date": dates, "value": values.round(2)})
+    evcal.fit(hist, FAIR_CAL, errors="ols", fourier_order=2).save(folder)
     future = pd.date_range(dates[-1], periods=cycle + 1, freq=freq)[1:]
     fphase = np.arange(periods, periods + cycle) % cycle
     fbase = 500 + 100 * np.cos(2 * np.pi * fphase / cycle)
@@ -557,6 +482,7 @@ def test_average_share_plan_by_hand() -> None:
 def test_headlines_by_hand(tmp_path: Path) -> None:
     paths = write_minimal_model(tmp_path / "m", "MS", 48, 12)
     model = json.loads((paths["model"] / "model.json").read_text())
+    # uniform shares keep the arithmetic by hand; still a valid model.json (twelve shares of 0 or more)
     model["average_share"] = {str(m): 1 / 12 for m in range(1, 13)}
     (paths["model"] / "model.json").write_text(json.dumps(model))
     plan = pd.DataFrame(
@@ -572,10 +498,12 @@ def test_headlines_by_hand(tmp_path: Path) -> None:
     plan.loc[2, ["plan", "low", "high", "lift:fair"]] = [400.0, 350.0, 450.0, 300.0]
     plan.to_csv(paths["plan"], index=False)
     lines = headlines(read_model_folder(paths["model"], plan_csv=paths["plan"]))
+    fair = pd.read_csv(paths["model"] / "lifts.csv").set_index("event").loc["fair"]
     # By hand: total 1,500, uniform shares give 125 a month; March is +275, the rest −25 each,
     # so (275 + 11 × 25) / 2 = 275 units (18.3 % of 1,500) sit in other periods.
     assert lines == [
-        "fair adds the most: about 80 units each time, +12.0 % over base (95 % interval +8.0 % to +16.0 %).",
+        f"fair adds the most: about {fair.units_per_occurrence:,.0f} units each time, {fair.lift_pct:+.1f} % "
+        f"over base (95 % interval {fair.low_pct:+.1f} % to {fair.high_pct:+.1f} %).",
         "The plan's peak lands in Mar 2027: 400 units (low 350, high 450).",
         "Against an average-share profile spread to the same total, 275 units (18.3 % of the total) "
         "sit in different periods; the biggest change is Mar 2027: +275 units (+220.0 %).",
@@ -586,6 +514,64 @@ def test_headlines_by_hand(tmp_path: Path) -> None:
 
 def test_headlines_skip_closures_and_assumed(invented: dict) -> None:
     lines = headlines(read_model_folder(invented["model"], plan_csv=invented["plan"]))
-    assert lines[0].startswith("Spring holiday weekend adds the most: about 410 units each time")
+    units = pd.read_csv(invented["model"] / "lifts.csv").set_index("event").loc["spring-weekend",
+                                                                                "units_per_occurrence"]
+    # the closure (-100 %) and the assumed fair are not "estimated events", however big
+    assert lines[0].startswith(f"Spring holiday weekend adds the most: about {units:,.0f} units each time")
     assert lines[1].startswith("The plan's peak lands in the week to 5 Apr 2026: ")
-    assert len(lines) == 2  # the invented model.json has no average-share profile
+    assert lines[2].startswith("Against an average-share profile spread to the same total")
+    assert len(lines) == 3
+
+
+def test_model_json_without_a_key_is_one_line(invented: dict, tmp_path: Path) -> None:
+    # the report used to read a model.json without average_share (the headline was left out);
+    # a model.json missing a key is now a damaged folder, refused as `evcal plan` refuses it
+    path = invented["model"] / "model.json"
+    model = json.loads(path.read_text())
+    del model["average_share"]
+    path.write_text(json.dumps(model))
+    with pytest.raises(ModelError) as err:
+        read_model_folder(invented["model"], plan_csv=invented["plan"])
+    assert err.value.problems == [f"{path}: average_share: missing; re-run evcal fit to write the folder "
+                                  "again"]
+
+
+@pytest.mark.parametrize("damage", ["params.const null", "freq D", "lifts.csv empty", "profile row dropped"])
+def test_cli_report_and_plan_refuse_a_damaged_folder_alike(invented: dict, tmp_path: Path,
+                                                           damage: str) -> None:
+    # issue 13: one checked reader, so `evcal report` says what `evcal plan` says, in one line, exit 2
+    folder = invented["model"]
+    path = folder / "model.json"
+    model = json.loads(path.read_text())
+    if damage == "params.const null":
+        model["params"]["const"] = None
+    elif damage == "freq D":
+        model["freq"] = model["design"]["freq"] = "D"
+    path.write_text(json.dumps(model))
+    if damage == "lifts.csv empty":
+        (folder / "lifts.csv").write_text("")
+    elif damage == "profile row dropped":
+        prof = pd.read_csv(folder / "profile.csv")
+        prof.iloc[:-1].to_csv(folder / "profile.csv", index=False)
+    runner = CliRunner()
+    plan = runner.invoke(app, ["plan", str(folder), "--from", "2026-01-01", "--to", "2026-12-31",
+                               "--sims", "0", "--out", str(tmp_path / "plan.csv")])
+    report = runner.invoke(app, ["report", str(folder), "--out", str(tmp_path / "r.html")])
+    lines = []
+    for res in (plan, report):
+        assert res.exit_code == 2, res.output
+        assert "Traceback" not in res.output
+        lines.append([ln for ln in res.output.splitlines() if ln.strip()])
+    assert len(lines[0]) == 1 and lines[0] == lines[1]
+    assert not (tmp_path / "plan.csv").exists() and not (tmp_path / "r.html").exists()
+
+
+def test_cli_report_on_a_panel_folder_is_one_line(tmp_path: Path) -> None:
+    # the report reads one series' model folder; a panel folder was refused before and still is
+    folder = tmp_path / "panel"
+    folder.mkdir()
+    (folder / "panel.json").write_text("{}")
+    res = CliRunner().invoke(app, ["report", str(folder), "--out", str(tmp_path / "r.html")])
+    assert res.exit_code == 2 and "Traceback" not in res.output
+    lines = [ln for ln in res.output.splitlines() if ln.strip()]
+    assert len(lines) == 1 and "a panel model folder" in lines[0], res.output

@@ -28,7 +28,6 @@ each series.
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -36,24 +35,45 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal import __version__
 from evcal.errors import ModelError
-from evcal.fit.result import json_safe
+from evcal.fit.schema import dumps
+from evcal.formula_safe import FORMULA_TRIGGERS, QUOTE, formula_safe_frame
+from evcal.panel.schema import PANEL_FILES, PANEL_FORMAT, PANEL_VERSION, read_panel_folder
 
-__all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "write_csv"]
+__all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "PANEL_FORMAT", "PANEL_VERSION",
+           "write_csv"]
 
-PANEL_FORMAT = "evcal-panel"
-PANEL_VERSION = 1
-PANEL_FILES = ("panel.json", "series.csv", "lifts.csv", "pooling.csv", "occurrences.csv", "profile.csv",
-               "fitted.parquet", "coefficients.parquet", "skipped.csv")
+
+def _needs_guard(frame: pd.DataFrame) -> bool:
+    """Whether any text cell or column name starts like a formula (or with the quote itself)."""
+    starts = (*FORMULA_TRIGGERS, QUOTE)
+    if any(str(c).startswith(starts) for c in frame.columns):
+        return True
+    for c in frame.columns:
+        col = frame[c]
+        if isinstance(col.dtype, pd.CategoricalDtype):
+            values = pd.Series(col.cat.categories)
+        elif pd.api.types.is_object_dtype(col.dtype) or pd.api.types.is_string_dtype(col.dtype):
+            values = col
+        else:
+            continue
+        text = values[values.map(lambda v: isinstance(v, str))] if values.dtype == object else values
+        if len(text) and bool(text.astype(str).str.startswith(starts).any()):
+            return True
+    return False
 
 
 def write_csv(frame: pd.DataFrame, path: Path) -> None:
-    """Write a frame as CSV through pyarrow (several times faster than pandas for long tables)."""
+    """Write a frame as CSV through pyarrow (several times faster than pandas for long tables).
+
+    Text cells that a spreadsheet would run as a formula get a leading quote
+    (:func:`evcal.formula_safe.formula_safe_frame`); :func:`load_panel` takes it off again.
+    """
     import pyarrow as pa
     import pyarrow.csv as pacsv
 
-    out = frame.copy(deep=False)
+    # the whole-frame guard maps every text cell; most panels have none to guard, so look first
+    out = formula_safe_frame(frame) if _needs_guard(frame) else frame.copy(deep=False)
     for c in out.columns:
         if out[c].dtype == bool:
             out[c] = pd.Categorical.from_codes(out[c].to_numpy().astype(np.int8), ["False", "True"])
@@ -214,8 +234,8 @@ class PanelResult:
         from concurrent.futures import ThreadPoolExecutor
 
         directory = Path(directory)
-        settings = json.dumps(json_safe(self.settings), indent=1)
-        (directory / "panel.json").write_text(settings, encoding="utf-8")
+        # non-finite floats as "NaN"/"Infinity"/"-Infinity", as in model.json (evcal.fit.schema)
+        (directory / "panel.json").write_text(dumps(self.settings), encoding="utf-8")
         jobs: list[tuple[Any, ...]] = [
             (write_csv, self.occurrences, directory / "occurrences.csv"),
             (write_csv, self.profile, directory / "profile.csv"),
@@ -266,35 +286,22 @@ def is_panel_dir(directory: str | Path) -> bool:
 
 
 def load_panel(directory: str | Path) -> PanelResult:
-    """Read a panel folder written by ``evcal fit --series-col``.
+    """Read a panel folder written by ``evcal fit --series-col``, checked first.
+
+    Every key of ``panel.json`` and every table is checked by
+    :func:`evcal.panel.schema.read_panel_folder` before any of it is used.
 
     Raises
     ------
     ModelError
-        Missing files or an incompatible format version.
+        One line naming the file and the key (or line and column): a missing
+        file, an incompatible format version, a damaged key or table.
+
+    Examples
+    --------
+    >>> load_panel("models/all").key_cols       # doctest: +SKIP
+    ['store', 'product']
     """
     directory = Path(directory)
-    if not directory.is_dir():
-        raise ModelError(f"{directory}: not a model folder (it does not exist); run evcal fit first")
-    missing = [f for f in PANEL_FILES if not (directory / f).is_file()]
-    if missing:
-        raise ModelError(f"{directory}: panel folder is missing {', '.join(missing)}; re-run evcal fit")
-    try:
-        settings = json.loads((directory / "panel.json").read_text(encoding="utf-8"))
-    except (OSError, json.JSONDecodeError) as err:
-        raise ModelError(f"{directory / 'panel.json'}: not readable JSON ({err})") from None
-    if settings.get("format") != PANEL_FORMAT or settings.get("format_version") != PANEL_VERSION:
-        raise ModelError(f"{directory / 'panel.json'}: format {settings.get('format')!r} version "
-                         f"{settings.get('format_version')!r}; this evcal ({__version__}) reads "
-                         f"{PANEL_FORMAT} version {PANEL_VERSION}; re-run evcal fit")
-    keys = settings["keys"]
-    kdt = {c: str for c in keys}
-
-    def read(name: str) -> pd.DataFrame:
-        return pd.read_csv(directory / name, dtype=kdt, keep_default_na=True)
-
-    return PanelResult(settings=settings, series=read("series.csv"), lifts=read("lifts.csv"),
-                       pooling=pd.read_csv(directory / "pooling.csv", dtype={"group": str}),
-                       occurrences=read("occurrences.csv"), profile=read("profile.csv"),
-                       coefficients=pd.read_parquet(directory / "coefficients.parquet"),
-                       skipped=read("skipped.csv"), fitted_path=directory / "fitted.parquet")
+    settings, tables = read_panel_folder(directory)
+    return PanelResult(settings=settings, fitted_path=directory / "fitted.parquet", **tables)

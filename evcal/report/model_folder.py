@@ -2,8 +2,12 @@
 
 The report is built from the files ``evcal fit``, ``evcal plan`` and
 ``evcal backtest`` write, not from in-memory classes, so a report can be made
-on another machine, later, from a folder someone sent. Every problem with a
-file is one line naming the file, the line and the column.
+on another machine, later, from a folder someone sent. The model folder is
+read by :func:`evcal.fit.schema.read_folder`, the one checked reader that
+``evcal plan`` and ``evcal show`` use too: a damaged folder is refused with the
+same line naming the file and the key, before any number from it is shown.
+Text cells that evcal wrote with a leading quote (formula-safe CSV,
+:mod:`evcal.formula_safe`) are read back as the text they were.
 
 Examples
 --------
@@ -14,7 +18,6 @@ Examples
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -22,22 +25,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS
 from evcal.errors import ModelError
+from evcal.formula_safe import unguard_frame
 
-#: Files ``evcal fit`` writes, with the columns each must have (contract).
-MODEL_FILES: dict[str, tuple[str, ...]] = {
-    "lifts.csv": tuple(LIFT_COLUMNS),
-    "occurrences.csv": tuple(OCC_COLUMNS),
-    "profile.csv": ("period", "index"),
-    "fitted.csv": ("date", "actual", "fitted", "base"),
-}
 PLAN_COLUMNS = ("date", "base", "plan", "low", "high")
 BACKTEST_COLUMNS = ("year", "method", "spread", "wape", "bias", "peak_error")
 LIFT_PREFIX = "lift:"
-
-_TRUE = {"true", "1", "yes", "y", "t"}
-_FALSE = {"false", "0", "no", "n", "f", ""}
 
 
 @dataclass
@@ -86,49 +79,29 @@ def read_model_folder(
     Raises
     ------
     ModelError
-        One line per problem: a missing folder or file, a missing column, a
-        value that is not a date or a number (with its line in the file).
+        The model folder: one line naming the file and the key (or line and
+        column), as ``evcal plan`` says it. The plan and backtest files: one
+        line per problem (a missing column, a value that is not a date or a
+        number, with its line in the file).
     """
-    folder = Path(model_dir)
-    if not folder.is_dir():
-        raise ModelError(f"{folder}: model folder not found (write one with `evcal fit`)")
-    missing = [name for name in ("model.json", *MODEL_FILES) if not (folder / name).is_file()]
-    if missing:
-        raise ModelError(
-            [f"{folder / name}: missing from the model folder (`evcal fit` writes it)" for name in missing]
-        )
-    model = _read_model_json(folder / "model.json")
-    frames = {name: _read_csv(folder / name, cols) for name, cols in MODEL_FILES.items()}
-    problems: list[str] = []
+    from evcal.fit.schema import read_folder
 
-    lifts = frames["lifts.csv"]
-    for col in ("lift_pct", "low_pct", "high_pct", "units_per_occurrence"):
-        lifts[col] = _numbers(lifts[col], folder / "lifts.csv", col, problems)
-    lifts["identifiable"] = _booleans(lifts["identifiable"], folder / "lifts.csv", problems)
-    lifts["event"] = lifts["event"].astype(str)
-    lifts["note"] = lifts["note"].fillna("").astype(str)
+    folder = Path(model_dir)
+    if (folder / "panel.json").is_file() and not (folder / "model.json").is_file():
+        # a panel folder holds many series' tables; the report shows one series' model folder
+        raise ModelError(f"{folder}: a panel model folder (panel.json); evcal report reads a single-series "
+                         "model folder: fit the series on its own (evcal fit without --series-col)")
+    # the one reader of a model folder: every key of model.json and every table checked as
+    # `plan` and `show` check them; the first problem is one ModelError line
+    checked = read_folder(folder)
+    model = checked.model
+    problems: list[str] = []
+    lifts = unguard_frame(checked.lifts)
     lifts["kind"] = _kinds(lifts, model)
     lifts["label"] = _labels(lifts, model)
-
-    occ = frames["occurrences.csv"]
-    occ["event"] = occ["event"].astype(str)
-    for col in ("start", "end"):
-        occ[col] = _dates(occ[col], folder / "occurrences.csv", col, problems)
-    for col in ("added_units", "added_pct"):
-        occ[col] = _numbers(occ[col], folder / "occurrences.csv", col, problems)
-
-    profile = frames["profile.csv"]
-    for col in ("period", "index"):
-        profile[col] = _numbers(profile[col], folder / "profile.csv", col, problems)
-
-    fitted = frames["fitted.csv"]
-    fitted["date"] = _dates(fitted["date"], folder / "fitted.csv", "date", problems)
-    for col in ("actual", "fitted", "base"):
-        fitted[col] = _numbers(fitted[col], folder / "fitted.csv", col, problems)
-    for col in fitted.columns.drop(["date", "actual", "fitted", "base"]):
-        fitted[col] = _extra_column(fitted[col], folder / "fitted.csv", col, problems)
-    for col in occ.columns.drop(list(MODEL_FILES["occurrences.csv"])):
-        occ[col] = _extra_column(occ[col], folder / "occurrences.csv", col, problems)
+    occ = unguard_frame(checked.occurrences)
+    profile = checked.profile
+    fitted = checked.fitted
 
     plan = None
     if plan_csv is not None:
@@ -176,6 +149,7 @@ def read_plan_csv(path: str | Path, problems: list[str] | None = None) -> pd.Dat
         plan[col] = _numbers(plan[col], path, col, problems)
     if "assumptions" in plan.columns:
         plan["assumptions"] = plan["assumptions"].fillna("").astype(str)
+    plan = unguard_frame(plan)  # the plan writer quotes text that a spreadsheet would run as a formula
     if own and problems:
         raise ModelError(problems)
     return plan.sort_values("date").reset_index(drop=True)
@@ -217,20 +191,6 @@ def _raise_or_empty(own: bool, problems: list[str]) -> pd.DataFrame:
     return pd.DataFrame()
 
 
-def _read_model_json(path: Path) -> dict[str, Any]:
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as err:
-        raise ModelError(
-            f"{path}: line {err.lineno}: not valid JSON ({err.msg}); write it again with `evcal fit`"
-        ) from None
-    except (OSError, UnicodeDecodeError) as err:
-        raise ModelError(f"{path}: cannot be read ({err})") from None
-    if not isinstance(data, dict):
-        raise ModelError(f"{path}: expected a JSON object at the top, found {type(data).__name__}")
-    return data
-
-
 def _read_csv(path: Path, required: tuple[str, ...]) -> pd.DataFrame:
     try:
         frame = pd.read_csv(path, dtype=str, keep_default_na=False, na_values=[""])
@@ -257,18 +217,6 @@ def _numbers(values: pd.Series, path: Path, col: str, problems: list[str]) -> pd
     return as_num.astype(float)
 
 
-def _extra_column(values: pd.Series, path: Path, col: str, problems: list[str]) -> pd.Series:
-    """A column beyond the contract: true/false flags stay flags, other columns are numbers.
-
-    The fit may add columns (e.g. a flag for periods inside the fit); an event
-    or intervention contribution must be a number.
-    """
-    text = values.dropna().astype(str).str.strip().str.lower()
-    if len(text) and text.isin(["true", "false"]).all():
-        return values.astype(str).str.strip().str.lower().eq("true")
-    return _numbers(values, path, col, problems)
-
-
 def _dates(values: pd.Series, path: Path, col: str, problems: list[str]) -> pd.Series:
     as_date = pd.to_datetime(values, errors="coerce", format="ISO8601")
     bad = as_date.isna()
@@ -280,27 +228,11 @@ def _dates(values: pd.Series, path: Path, col: str, problems: list[str]) -> pd.S
     return as_date
 
 
-def _booleans(values: pd.Series, path: Path, problems: list[str]) -> pd.Series:
-    out = []
-    for i, raw in enumerate(values):
-        text = "" if pd.isna(raw) else str(raw).strip().lower()
-        if text in _TRUE:
-            out.append(True)
-        elif text in _FALSE:
-            out.append(False)
-        else:
-            problems.append(f"{path}: line {i + 2}: column identifiable: {raw!r} is not true/false")
-            out.append(False)
-    return pd.Series(out, index=values.index, dtype=bool)
-
-
 def _kinds(lifts: pd.DataFrame, model: dict[str, Any]) -> pd.Series:
     if "kind" in lifts.columns:
         kind = lifts["kind"].fillna("").astype(str).str.strip().str.lower()
         return kind.where(kind.isin(["event", "intervention"]), "event")
-    interventions = {
-        str(item.get("name")) for item in model.get("interventions", []) or [] if isinstance(item, dict)
-    }
+    interventions = {str(name) for name in model.get("intervention_names", []) or []}
     return lifts["event"].map(lambda n: "intervention" if n in interventions else "event")
 
 

@@ -28,7 +28,7 @@ STRATEGIES: dict[str, st.SearchStrategy[Case]] = {
 #: cases per kind in the full run (>= 700 in all; the command lines are a finite list)
 FULL = {"calendar": 260, "history": 240, "model": 150, "command": len(templates())}
 #: the CI subset: every command line of the issue's list would be too slow, so a sample of each kind
-CI = {"calendar": 16, "history": 14, "model": 10, "command": 14}
+CI = {"calendar": 12, "history": 10, "model": 8, "command": 10}
 
 
 def draw_cases(strategy: st.SearchStrategy[Case], n: int, seed: int) -> list[Case]:

@@ -21,6 +21,8 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
+# benchmarks/calendar.py would shadow the standard library's calendar: drop this folder from the path
+sys.path = [p for p in sys.path if Path(p or ".").resolve() != ROOT / "benchmarks"]
 sys.path.insert(0, str(ROOT / "tests"))
 
 from corpus import build_corpus, format_failures, format_table, run_all  # noqa: E402

@@ -77,7 +77,7 @@ def synthetic_daily(start: str, end: str, seed: int, level: float = 500.0) -> pd
     days = pd.date_range(start, end, freq="D")
     rng = np.random.default_rng(seed)
     season = 1 + 0.25 * np.sin(2 * np.pi * (days.day_of_year - 80) / 365.25)
-    weekday = np.where(days.weekday == 5, 1.4, np.where(days.weekday == 6, 1.2, 1.0))
+    weekday = np.where(days.day_of_week == 5, 1.4, np.where(days.day_of_week == 6, 1.2, 1.0))
     noise = rng.lognormal(0.0, 0.05, len(days))
     return pd.Series(level * season * weekday * noise, index=days, name="value")
 

@@ -65,7 +65,7 @@ def _when(draw: st.DrawFn, years: tuple[int, int], rule: str) -> dict[str, Any]:
     # dates: one explicit occurrence in some of the years, the odd one with a strength
     items: list[Any] = []
     for year in range(first, last + 1):
-        if draw(st.booleans()) or not items and year == last:
+        if year == first or draw(st.booleans()):  # always one in the first year: the history has it
             start = dt.date(year, draw(st.integers(1, 12)), draw(st.integers(1, 20)))
             n = draw(st.integers(0, 8))
             if n == 0 and draw(st.booleans()):

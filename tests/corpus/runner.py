@@ -11,7 +11,7 @@ every file is hashed again. The checks are the issue's standard:
   over 500 characters, under 10 kB in all (a run that succeeds also stays under 10 kB);
 * nothing changed outside what the command was asked to write, and nothing at
   all on a refused run (no file written, replaced or deleted, no leftovers);
-* at most 60 s and 2 GiB;
+* at most 60 s and 2 GiB, and no crash (a process killed by a signal);
 * a model folder ``fit`` wrote is read back (the case's follow-up ``plan`` succeeds);
 * no spreadsheet formula in what was written: text cells starting with ``=``,
   ``+``, ``-``, ``@``, tab or CR are neutralised (OWASP's CSV-injection guidance);
@@ -347,14 +347,17 @@ def _check_main(
     if run["timed_out"] or run["seconds"] > TIME_LIMIT:
         failed["over_time"] = f"{run['seconds']:.0f} s"
     err = run["stderr"]
+    killed = rc is not None and rc < 0 and not run["timed_out"]
     if (
         run["maxrss_mib"] * (1 << 20) > 0.95 * MEMORY_LIMIT
         or "MemoryError" in err
         or "bad_alloc" in err
         or "Cannot allocate memory" in err
-        or (rc is not None and rc < 0 and not run["timed_out"])
+        or (killed and -rc == signal.SIGKILL)  # the kernel's out-of-memory kill
     ):
         failed["over_memory"] = f"{run['maxrss_mib']:.0f} MiB peak, exit {rc}"
+    elif killed:  # another signal: a crash (a C stack overflow, an abort)
+        failed["crashed"] = f"killed by {signal.Signals(-rc).name}, {run['maxrss_mib']:.0f} MiB peak"
 
 
 def _check_outputs(

@@ -62,6 +62,7 @@ CHECKS: dict[str, str] = {
     "files_changed": "files changed",
     "over_time": "over time",
     "over_memory": "over memory",
+    "crashed": "crashed",
     "no_roundtrip": "no round-trip",
     "formula_cells": "formula cells",
     "astronomic": "astronomic",

@@ -420,6 +420,13 @@ def templates() -> list[Template]:
 def command_cases(draw: st.DrawFn) -> Case:
     """One command line from the list above, in the standard folder."""
     name, argv, expect, writes, dirs, readonly, extra = draw(st.sampled_from(templates()))
+    if expect == "bad" and not writes and not readonly and "--out" in argv:
+        # a refused option with --out at a new path: if it runs anyway, writing there is the
+        # exit-0-on-bad failure, not also a changed file (an existing path stays protected)
+        out = argv[argv.index("--out") + 1]
+        taken = {"data", "data/sales.csv", "data/notes.txt", "cal.yaml", "model", *dirs}
+        if out not in taken and not out.startswith(("model/", "./")):
+            writes = (out.split("/")[0] if out.startswith("missing/") else out,)
     files = [
         ("data/sales.csv", assets.demo_history()),
         ("data/notes.txt", b"my own notes\n"),

@@ -77,6 +77,11 @@ def test_astronomic_lifts_are_found(tmp_path: Path) -> None:
                  "a,5867427147,-100,inf,yes\nb,12,5,20,yes\nc,1e12,,,no\n", encoding="utf-8")
     found = _astronomic(f)
     assert len(found) == 2 and all("'a'" in x for x in found)
+    # an estimated event at -100 % with no interval is degenerate; a closure at -100 % is not
+    f.write_text("event,lift_pct,low_pct,high_pct,identifiable,note\n"
+                 "fathers-day,-100,-100,-100,True,\nxmas,-100,-100,-100,True,closure (effect: zero)\n",
+                 encoding="utf-8")
+    assert [x.split()[1] for x in _astronomic(f)] == ["'fathers-day'"]
 
 
 def test_under_compares_whole_path_parts() -> None:

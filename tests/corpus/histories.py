@@ -207,6 +207,9 @@ def history_cases(draw: st.DrawFn) -> Case:
         q = q.iloc[1:-1]  # whole quarters only
         rows = [["date", "value"], *[[str(p.start_time.date()), f"{v:g}"] for p, v in q.items()]]
         name = "the demo summed to quarters"
+        if draw(st.booleans()):  # the garden-centres calendar has more events than quarters can tell apart
+            base = {**base, "calendar": assets.garden_calendar()}
+            name += ", garden-centres calendar"
     elif mode == "format":
         name, fmt, sep, bom, crlf = draw(
             st.sampled_from(

@@ -252,7 +252,8 @@ def _float(text: str) -> float | None:
 
 
 def _astronomic(path: Path) -> list[str]:
-    """Identifiable lifts that are not finite or beyond +-10,000 %; non-finite plan values."""
+    """Identifiable lifts that are not finite, beyond +-10,000 %, or an estimated -100 % with no
+    interval (a degenerate fit); non-finite plan values."""
     found: list[str] = []
     if path.suffix.lower() != ".csv":
         return found
@@ -260,8 +261,14 @@ def _astronomic(path: Path) -> list[str]:
         rows = list(csv.DictReader(fh))
     if path.name == "lifts.csv":
         for row in rows:
-            if str(row.get("identifiable", "")).strip().lower() == "no":
+            if str(row.get("identifiable", "")).strip().lower() in ("no", "false"):
                 continue
+            note = str(row.get("note") or "").lower()
+            low, high = _float(row.get("low_pct") or ""), _float(row.get("high_pct") or "")
+            lift = _float(row.get("lift_pct") or "")
+            if lift is not None and lift <= -99.9 and low == high and "closure" not in note:
+                # an estimated event at -100 % with no interval: a degenerate fit, not a lift
+                found.append(f"lifts.csv {row.get('event')!r} lift_pct={row.get('lift_pct')} [{low}, {high}]")
             for col in ("lift_pct", "low_pct", "high_pct"):
                 v = _float(row.get(col) or "")
                 if v is not None and (not math.isfinite(v) or abs(v) > ASTRONOMIC_PCT):

@@ -175,12 +175,6 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             offset += np.log(np.where(closed_full, 1.0, share))
         for c, a in assumed.items():
             offset += np.log1p(a) * X[c]
-    else:
-        for c in assumed:
-            hit = X[c].to_numpy() > 0
-            if (hit & rows).any():
-                rows = rows & ~hit
-                notes.append(f"{c}: periods with this assumed event are left out of the additive fit")
     if identify:
         base_cols = independent_base_columns(X, rows, base_cols)
         status = check_columns(X, rows, base_cols, candidates, kind_of)
@@ -235,6 +229,14 @@ def _estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str
         return est, {"chosen": est.method, "reason": est.cov_note, "candidates": [
             {"name": est.method, "criterion": "aic", "value": est.aic}]}
     if inp.transform == "none":
+        if inp.assumed:
+            # additive: an assumed lift is a share of the base (as the plan applies it,
+            # evcal.effects.decompose), so the base columns carry 1 + sum(lift x column) in each
+            # period; the periods stay in the fit (leaving them out could leave none at all)
+            scale = 1.0 + sum(a * inp.design.X[c].to_numpy() for c, a in inp.assumed.items())
+            base = [c for c in X.columns if inp.design.roles.get(c) in ("trend", "seasonal")]
+            X = X.copy()
+            X[base] = X[base].mul(scale, axis=0)
         # additive: the open share scales the whole period (rows of X and y alike)
         share = inp.design.open_share.to_numpy()
         X = X.mul(np.where(share > 0, share, 1.0), axis=0)
@@ -293,11 +295,18 @@ def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
     """
     n = int(inp.rows.sum())
     p = cycle_length(history.freq)
-    need = max(min_periods(history.freq), len(inp.fitted_cols) + 1)
-    if n >= need:
+    closed_periods = inp.design.open_share.to_numpy() <= 1e-9
+    # A closed period is known (planned as zero), so it counts towards covering two cycles;
+    # only fitted periods count towards the number of terms.
+    covered = int(np.sum(inp.rows | closed_periods))
+    if covered >= min_periods(history.freq) and n >= len(inp.fitted_cols) + 1:
         return
     total = len(inp.periods)
-    why = f"two seasonal cycles of {p} periods" if need == 2 * p else f"one more than the {need - 1} terms"
+    if covered < min_periods(history.freq):
+        n, need, why = covered, min_periods(history.freq), f"two seasonal cycles of {p} periods"
+    else:
+        need = len(inp.fitted_cols) + 1
+        why = f"one more than the {need - 1} terms"
     p_start = inp.periods.start_time.normalize()
     p_end = inp.periods.end_time.normalize()
     causes = []
@@ -307,8 +316,8 @@ def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
             where = f"line {ex.line}: " if ex.line else ""
             causes.append(f"{where}exclude {pd.Timestamp(ex.start).date()} .. {pd.Timestamp(ex.end).date()} "
                           f"({ex.reason}) covers {hit}")
-    closed = int(np.sum(inp.design.open_share.to_numpy() <= 1e-9))
-    if closed:
+    closed = int(np.sum(closed_periods))
+    if closed and covered >= min_periods(history.freq):  # closures count as covered for the cycles
         causes.append(f"closures (effect: zero) close all the days of {closed}")
     message = f"leaves {n} of {total} periods to fit; at least {need} are needed ({why})"
     if not causes:

@@ -159,14 +159,14 @@ def _group_info(template: Template, calendar: Any, observed: np.ndarray, origin:
         event_info=event_info, event_labels={e.name: e.label for e in calendar.events}, spec=spec,
         roles=dict(roles))
     Xf = X.loc[rows, fitted_cols].to_numpy(dtype=float)
-    notes = [n for n in inp.notes if not n.endswith("left out of the additive fit")]
+    notes = list(inp.notes)
     if template.transform == "none":
+        if inp.assumed:  # as evcal.fit.model._estimate: the base carries the assumed lifts
+            scale = 1.0 + sum(a * X[c].to_numpy() for c, a in inp.assumed.items())
+            is_base = np.array([roles.get(c) in ("trend", "seasonal") for c in fitted_cols])
+            Xf[:, is_base] = Xf[:, is_base] * scale[rows][:, None]
         share = inp.design.open_share.to_numpy()
         Xf = Xf * np.where(share > 0, share, 1.0)[rows][:, None]  # the additive model scales rows
-        before = observed & ~inp.excluded & ~(share <= 1e-9)
-        for c in inp.assumed:
-            if ((X[c].to_numpy() > 0) & before).any():
-                notes.append(f"{c}: periods with this assumed event are left out of the additive fit")
     for c, st in status.items():
         if st.status in ("unidentifiable", "duplicate"):
             notes.append(f"{c}: {st.note}")

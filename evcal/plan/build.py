@@ -155,12 +155,7 @@ def plan_periods(
     params[ERROR_COLUMN] = 1.0
     Xd = X.copy()
     Xd[ERROR_COLUMN] = err.mean
-    if transform == "none" and schedule.assumed:
-        # additive model: an assumed lift is a share of the base, so its column carries the base
-        level = Xd[base_cols + [ERROR_COLUMN]].to_numpy() @ params.reindex(
-            base_cols + [ERROR_COLUMN]).fillna(0.0).to_numpy()
-        for c in schedule.assumed:
-            Xd[c] = Xd[c] * level
+    # (additive model: an assumed lift is a share of the base; decompose multiplies it by the base)
     view = replace(result, params=params, status=schedule.status, like_map=schedule.like_map,
                    assumed=schedule.assumed, base_columns=base_cols + [ERROR_COLUMN], smear=1.0)
     closures = closure_shares(cal, periods)

@@ -419,20 +419,29 @@ def _fail(path: Path, key: str, what: str) -> ModelError:
     return ModelError(f"{path}: {key}: {what}; {AGAIN}")
 
 
-def check_consistency(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
-    """What types alone cannot say: frequency, periods, shapes of params/cov, names against the design.
+def check_freq(path: Path, freq: str, design_freq: str) -> int:
+    """Check ``freq`` is a frequency evcal fits and the design's; return its cycle length.
 
-    Returns the fitted calendar (loaded from ``calendar_text``) and the history's periods.
+    Shared by the single-series and the panel folder readers.
     """
-    freq = m.freq
     try:
         p = cycle_length(freq)
         pd.Period("2020-01-01", freq=freq)
     except (KeyError, ValueError, TypeError, AttributeError):
         raise _fail(path, "freq", f"{_shown(freq)} is not a frequency evcal fits (D, W-SUN..W-SAT, M, "
                                   "Q-DEC)") from None
-    if m.design.freq != freq:
-        raise _fail(path, "design.freq", f"{_shown(m.design.freq)} differs from freq {_shown(freq)}")
+    if design_freq != freq:
+        raise _fail(path, "design.freq", f"{_shown(design_freq)} differs from freq {_shown(freq)}")
+    return p
+
+
+def check_consistency(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
+    """What types alone cannot say: frequency, periods, shapes of params/cov, names against the design.
+
+    Returns the fitted calendar (loaded from ``calendar_text``) and the history's periods.
+    """
+    freq = m.freq
+    p = check_freq(path, freq, m.design.freq)
     ends = []
     for k in ("start", "end"):
         text = getattr(m.history, k)

@@ -46,6 +46,7 @@ from evcal.fit.schema import (
     _flags,
     _shown,
     _Strict,
+    check_freq,
     read_json,
     validation_line,
 )
@@ -175,14 +176,7 @@ def check_panel_settings(path: Path, m: PanelJson) -> Any:
         if k in SERIES_COLUMNS or k in LIFTS_COLUMNS or k in OCC_COLUMNS or k in FITTED_COLUMNS:
             raise _fail(path, f"keys[{i}]", f"{_shown(k)} is a column name of the panel's tables")
     freq = m.freq
-    try:
-        cycle_length(freq)
-        pd.Period("2020-01-01", freq=freq)
-    except (KeyError, ValueError, TypeError, AttributeError):
-        raise _fail(path, "freq", f"{_shown(freq)} is not a frequency evcal fits (D, W-SUN..W-SAT, M, "
-                                  "Q-DEC)") from None
-    if m.design.freq != freq:
-        raise _fail(path, "design.freq", f"{_shown(m.design.freq)} differs from freq {_shown(freq)}")
+    check_freq(path, freq, m.design.freq)
     ends = []
     for k in ("start", "end"):
         day = pd.Timestamp(getattr(m.periods, k))

@@ -548,3 +548,19 @@ def test_safe_loader_has_no_bounds_of_its_own() -> None:
     # (it shares the aliased lists, so the blow-up comes when anything walks the data).
     data = yaml.safe_load(laughs(4))
     assert len(data["name"]) == 9 and data["name"][0] is data["name"][1]
+
+
+def test_a_value_beyond_any_sales_figure_is_one_line(tmp_path: Path) -> None:
+    # found by the hostile corpus: one weekly value of 1e300 fitted, exit 0, with an interval bound
+    # of +17,783 % on an event (sums of squares of such a value overflow)
+    from evcal.io import read_history
+
+    dates = pd.date_range("2021-01-03", periods=120, freq="W-SUN")
+    values = [100.0] * 120
+    values[40] = 1e300
+    path = tmp_path / "sales.csv"
+    pd.DataFrame({"date": dates.strftime("%Y-%m-%d"), "value": values}).to_csv(path, index=False)
+    with pytest.raises(HistoryError) as err:
+        read_history(path)
+    assert len(err.value.problems) == 1
+    assert "row 42" in err.value.problems[0] and "larger than any value" in err.value.problems[0]

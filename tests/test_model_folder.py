@@ -179,6 +179,16 @@ def test_params_const_null_is_refused(demo_model: Path, tmp_path: Path) -> None:
     assert not (tmp_path / "plan.csv").exists()
 
 
+def test_params_const_huge_gives_no_infinite_plan(demo_model: Path, tmp_path: Path) -> None:
+    # found by the hostile corpus: a finite but absurd constant (1e308) passed the checks and the
+    # plan wrote base = inf, exit 0
+    m = _copy(demo_model, tmp_path / "m")
+    _edit_json(m, lambda d: d["params"].__setitem__("const", 1e308))
+    line = _one_line(_plan_cli(m, tmp_path), "not a finite number", "re-run evcal fit")
+    assert "base" in line
+    assert not (tmp_path / "plan.csv").exists()
+
+
 def test_freq_edited_to_daily_is_refused(demo_model: Path, tmp_path: Path) -> None:
     # before: 365 daily rows from a weekly model, exit 0
     m = _copy(demo_model, tmp_path / "m")

@@ -280,6 +280,10 @@ def parse_dates(
     return out, problems
 
 
+#: the largest value a history may hold: far above any sales or demand figure (a quadrillion),
+#: and far below where sums of squares overflow (about 1e154) — common practice, no source
+MAX_VALUE = 1e15
+
 _THOUSANDS = re.compile(r"^[+-]?\d{1,3}([,. ']\d{3})+([.,]\d+)?$")
 
 
@@ -315,6 +319,11 @@ def parse_values(
     problems += capped(np.flatnonzero(bad), lambda i: RowProblem(
         rows[i], column, f"{quote(values.iloc[i])} is not a finite number"))
     numbers[bad] = np.nan
+    huge = (numbers.abs() > MAX_VALUE).to_numpy()
+    problems += capped(np.flatnonzero(huge), lambda i: RowProblem(
+        rows[i], column, f"{quote(values.iloc[i])} is larger than any value evcal fits (at most "
+        f"{MAX_VALUE:.0e} in size); check the cell, or write the column in thousands"))
+    numbers[huge] = np.nan
     if not allow_negative:
         problems += capped(np.flatnonzero((numbers < 0).to_numpy()), lambda i: RowProblem(
             rows[i],

@@ -24,7 +24,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import HistoryError
-from evcal.io.cells import count_problems, empty_mask, parse_dates, parse_values, quote
+from evcal.io.cells import MAX_VALUE, count_problems, empty_mask, parse_dates, parse_values, quote
 from evcal.io.frequency import (
     check_forced_freq,
     describe_freq,
@@ -332,11 +332,11 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     vcells = frame[vcol]
     if pd.api.types.is_numeric_dtype(vcells.dtype) and not pd.api.types.is_bool_dtype(vcells.dtype):
         vals = vcells.to_numpy(dtype="float64", na_value=np.nan)
-        bad = np.isinf(vals)
+        bad = np.isinf(vals) | (np.abs(vals) > MAX_VALUE)
         if bad.any():
             i = int(np.flatnonzero(bad)[0])
             raise HistoryError(f"{name} row {_row_number(table, i)}, column {vcol!r}: {vals[i]!r} is not a "
-                               "finite number")
+                               f"finite number of at most {MAX_VALUE:.0e} in size; check the cell")
     else:
         rows = table.rows or list(range(2, n_rows + 2))
         parsed_v, problems = parse_values(vcells, rows, vcol, allow_negative=True)

@@ -118,6 +118,24 @@ def make_plan(
                         new_events=new_events, n_sims=n_sims, seed=seed)
 
 
+def _check_finite(table: pd.DataFrame, result: Any) -> None:
+    """Stop with one line when the model gives a base or plan that is not a finite number.
+
+    A fit writes finite coefficients (:mod:`evcal.fit.schema` checks them on
+    load), but one that is finite and absurd (a constant of 1e308 edited into
+    ``model.json``) still overflows on the sales scale; never plan with it.
+    """
+    for col in ("base", "plan"):
+        values = table[col].to_numpy(dtype=float)
+        bad = ~np.isfinite(values)
+        if bad.any():
+            first = table["date"].iloc[int(np.flatnonzero(bad)[0])]
+            raise PlanError(f"the model gives a {col} that is not a finite number for "
+                            f"{pd.Timestamp(first).date()} ({int(bad.sum())} period(s)); its coefficients "
+                            "are out of any real range (model from "
+                            f"{getattr(result, 'history_source', '?')}); re-run evcal fit")
+
+
 def plan_periods(
     result: Any,
     periods: pd.PeriodIndex,
@@ -182,6 +200,7 @@ def plan_periods(
     dates = period_dates(periods, result.label)
     table = pd.DataFrame({"date": dates, "base": parts["base"].to_numpy(),
                           "plan": parts["fitted"].to_numpy()})
+    _check_finite(table, result)
     if n_sims and n_sims > 0:
         low, high = simulate_interval(result, X, share.to_numpy(), base_cols, schedule, err,
                                       n_sims=n_sims, seed=seed)

@@ -564,3 +564,15 @@ def test_a_value_beyond_any_sales_figure_is_one_line(tmp_path: Path) -> None:
         read_history(path)
     assert len(err.value.problems) == 1
     assert "row 42" in err.value.problems[0] and "larger than any value" in err.value.problems[0]
+
+
+def test_a_history_of_zeros_only_is_one_line(tmp_path: Path) -> None:
+    # found by the hostile corpus: every value zero fitted a count model that failed inside
+    # statsmodels ("unexpected problem (ValueError: The first guess on the deviance ...)")
+    import evcal
+
+    dates = pd.date_range("2021-01-03", periods=120, freq="W-SUN")
+    frame = pd.DataFrame({"date": dates.strftime("%Y-%m-%d"), "value": 0.0})
+    with pytest.raises(HistoryError) as err:
+        evcal.fit(frame, None, errors="ols")
+    assert len(err.value.problems) == 1 and "every value" in err.value.problems[0]

@@ -189,6 +189,22 @@ def test_params_const_huge_gives_no_infinite_plan(demo_model: Path, tmp_path: Pa
     assert not (tmp_path / "plan.csv").exists()
 
 
+def test_deeply_nested_model_json_is_one_line(demo_model: Path, tmp_path: Path) -> None:
+    # found by the hostile corpus: 100,000 nested lists gave "unexpected problem (RecursionError)"
+    m = _copy(demo_model, tmp_path / "m")
+    (m / "model.json").write_text("[" * 100_000 + "]" * 100_000)
+    _one_line(_plan_cli(m, tmp_path), "model.json", "nested far too deeply")
+    assert not (tmp_path / "plan.csv").exists()
+
+
+def test_plan_beyond_the_calendar_years_is_one_line(demo_model: Path, tmp_path: Path) -> None:
+    # found by the hostile corpus: --to 9999-12-31 gave "unexpected problem (OutOfBoundsDatetime)"
+    res = runner.invoke(app, ["plan", str(demo_model), "--from", "2027-01-01", "--to", "9999-12-31",
+                              "--out", str(tmp_path / "plan.csv"), "--sims", "0"])
+    _one_line(res, "--to 9999-12-31", "from 1900 to 2200")
+    assert not (tmp_path / "plan.csv").exists()
+
+
 def test_freq_edited_to_daily_is_refused(demo_model: Path, tmp_path: Path) -> None:
     # before: 365 daily rows from a weekly model, exit 0
     m = _copy(demo_model, tmp_path / "m")

@@ -80,6 +80,9 @@ def calendar_text(calendar: Any, given: Any) -> str:
 def choose_transform(values: pd.Series, options: FitOptions, source: str, known_zero: np.ndarray) -> str:
     v = values.dropna()
     open_v = values[~known_zero].dropna()
+    if len(open_v) and not (open_v != 0).any():
+        raise HistoryError(f"{source}: every value of the history's open periods is zero; there is no "
+                           "level or season to fit: check that the value column is the one meant")
     if options.allow_negative and (v < 0).any():
         if options.transform in ("log", "count"):
             raise HistoryError(f"{source}: column value has negative values; transform "

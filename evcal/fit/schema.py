@@ -379,6 +379,8 @@ def read_json(path: Path) -> dict[str, Any]:
         raise ModelError(f"{path}: line {err.lineno}: not valid JSON ({err.msg}); {AGAIN}") from None
     except ValueError as err:
         raise ModelError(f"{path}: not valid JSON ({err}); {AGAIN}") from None
+    except RecursionError:  # lists in lists far deeper than anything evcal writes (3 levels)
+        raise ModelError(f"{path}: nested far too deeply to be a file evcal wrote; {AGAIN}") from None
     except (OSError, UnicodeDecodeError) as err:
         raise ModelError(f"{path}: cannot be read ({clip(str(err), 120)})") from None
     if not isinstance(data, dict):

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.seasonal import base_freq
-from evcal.errors import PlanError
+from evcal.errors import PlanError, clip
 
 _YEAR = re.compile(r"^\s*(\d{4})\s*$")
 
@@ -33,10 +33,17 @@ def _as_day(value: Any, *, end: bool, what: str) -> pd.Timestamp:
         return value.end_time.normalize() if end else value.start_time.normalize()
     if isinstance(value, str) and _YEAR.match(value):
         value = int(value)
+    from evcal.calendar import YEAR_RANGE
+
     try:
-        return as_day(value, end=end, what=what)
-    except CalendarError:
-        raise PlanError(f"{what} {value!r}: not a date; write YYYY-MM-DD or a four-digit year") from None
+        day = as_day(value, end=end, what=what)
+    except (CalendarError, ValueError, OverflowError):  # OutOfBoundsDatetime is a ValueError
+        raise PlanError(f"{what} {clip(str(value), 40)!r}: not a date; write YYYY-MM-DD or a four-digit "
+                        "year") from None
+    if not YEAR_RANGE[0] <= day.year <= YEAR_RANGE[1]:  # the years a calendar can hold
+        raise PlanError(f"{what} {day.date()}: outside the years a plan can cover; give a date from "
+                        f"{YEAR_RANGE[0]} to {YEAR_RANGE[1]}")
+    return day
 
 
 def history_end_period(result: Any) -> pd.Period:

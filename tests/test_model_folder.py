@@ -10,6 +10,8 @@ from __future__ import annotations
 import json
 import math
 import shutil
+import subprocess
+import sys
 import tempfile
 from pathlib import Path
 from typing import Any
@@ -187,6 +189,11 @@ def test_params_const_huge_gives_no_infinite_plan(demo_model: Path, tmp_path: Pa
     line = _one_line(_plan_cli(m, tmp_path), "not a finite number", "re-run evcal fit")
     assert "base" in line
     assert not (tmp_path / "plan.csv").exists()
+    # the real process prints that line alone: no numpy RuntimeWarning before it
+    proc = subprocess.run([sys.executable, "-m", "evcal.cli", "plan", str(m), "--from", "2027-01-01",
+                           "--to", "2027-12-31", "--out", str(tmp_path / "plan.csv")],
+                          capture_output=True, text=True, timeout=300, check=False)
+    assert proc.returncode == 2 and proc.stderr.strip().splitlines() == [line], proc.stderr
 
 
 def test_deeply_nested_model_json_is_one_line(demo_model: Path, tmp_path: Path) -> None:

@@ -177,7 +177,8 @@ def plan_periods(
     view = replace(result, params=params, status=schedule.status, like_map=schedule.like_map,
                    assumed=schedule.assumed, base_columns=base_cols + [ERROR_COLUMN], smear=1.0)
     closures = closure_shares(cal, periods)
-    parts = decompose(view, Xd, share, closures, terms=event_cols)
+    with np.errstate(over="ignore", invalid="ignore"):  # a non-finite plan is one line below
+        parts = decompose(view, Xd, share, closures, terms=event_cols)
     parts = parts.mul(smear, axis=0)
 
     # one lift column per event that touches the horizon, in order of first appearance

@@ -32,7 +32,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from evcal.errors import OutputError
+from evcal.errors import OutputError, clip
 
 #: the marker file in every folder evcal writes
 MARKER = "evcal-output.json"
@@ -216,19 +216,29 @@ def write_marker(folder: str | Path, kind: str, files: list[str] | None = None) 
     return Owner(kind, MARKER_VERSION)
 
 
+def foreign_problem(owner: Owner | None) -> str | None:
+    """Why an existing folder with this :func:`folder_owner` may not be replaced, or None.
+
+    The one rule for the command line's early check (:func:`evcal.outputs.check_output`)
+    and the writer's own (:func:`refuse_foreign_folder`); each adds its advice.
+    """
+    if owner is None:
+        return "this folder was not written by evcal and would be replaced with everything in it"
+    if owner.extra:
+        more = f" and {len(owner.extra) - 1} more file(s)" if len(owner.extra) > 1 else ""
+        return f"holds {clip(owner.extra[0], 100)}{more} that evcal did not write"
+    return None
+
+
 def refuse_foreign_folder(target: Path) -> None:
     """Raise :class:`OutputError` unless the existing ``target`` is a folder evcal may replace."""
     if target.is_symlink() or not target.is_dir():
         raise OutputError(f"{target}: exists and is not a folder evcal wrote (it is a "
                           f"{'link' if target.is_symlink() else 'file'}); choose a new folder name")
-    owner = folder_owner(target)
-    if owner is None:
-        raise OutputError(f"{target}: this folder was not written by evcal and would be replaced with "
-                          "everything in it; choose a new folder name")
-    if owner.extra:
-        more = f" (and {len(owner.extra) - 1} more)" if len(owner.extra) > 1 else ""
-        raise OutputError(f"{target / owner.extra[0]}{more}: not written by evcal, so the folder "
-                          f"{target} is not replaced; move that file out of it or choose a new folder name")
+    problem = foreign_problem(folder_owner(target))
+    if problem is not None:
+        raise OutputError(f"{target}: {problem}; move any file of yours out of it, or choose a new "
+                          "folder name")
 
 
 # ---------------------------------------------------------------- temporary siblings and leftovers

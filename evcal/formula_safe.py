@@ -79,7 +79,32 @@ def _is_text_column(series: pd.Series) -> bool:
             or isinstance(dtype, pd.CategoricalDtype))
 
 
-def _map_text(frame: pd.DataFrame, fn: Any) -> pd.DataFrame:
+def _any_text_starts(frame: pd.DataFrame, prefixes: tuple[str, ...]) -> bool:
+    """Whether a column name or a text cell of ``frame`` starts with one of ``prefixes`` (vectorised)."""
+    if any(str(c).startswith(prefixes) for c in frame.columns):
+        return True
+    for j in range(frame.shape[1]):
+        col = frame.iloc[:, j]
+        if isinstance(col.dtype, pd.CategoricalDtype):
+            values = pd.Series(col.cat.categories)
+        elif _is_text_column(col):
+            values = col
+        else:
+            continue
+        text = values[values.map(lambda v: isinstance(v, str))] if values.dtype == object else values
+        if len(text) and bool(text.astype(str).str.startswith(prefixes).any()):
+            return True
+    return False
+
+
+def _map_text(frame: pd.DataFrame, fn: Any, prefixes: tuple[str, ...]) -> pd.DataFrame:
+    """``fn`` on every text cell and column name; ``fn`` changes only texts starting with ``prefixes``.
+
+    Long tables (a panel's millions of key cells) mostly hold nothing to change:
+    a vectorised look first keeps that case to one pass and a shallow copy.
+    """
+    if not _any_text_starts(frame, prefixes):
+        return frame.copy(deep=False)
     out = frame.copy()
     for j in range(frame.shape[1]):
         series = frame.iloc[:, j]
@@ -117,7 +142,7 @@ def formula_safe_frame(frame: pd.DataFrame) -> pd.DataFrame:
     >>> formula_safe_frame(frame)["event"].tolist(), formula_safe_frame(frame)["lift_pct"].tolist()
     (["'=1+1", 'spring'], [-18.5, 3.0])
     """
-    return _map_text(frame, guard_text)
+    return _map_text(frame, guard_text, (*FORMULA_TRIGGERS, QUOTE))
 
 
 def _holds_cr(frame: pd.DataFrame) -> bool:
@@ -164,7 +189,7 @@ def unguard_frame(frame: pd.DataFrame) -> pd.DataFrame:
     >>> unguard_frame(formula_safe_frame(frame)).equals(frame)
     True
     """
-    return _map_text(frame, unguard_text)
+    return _map_text(frame, unguard_text, (QUOTE,))
 
 
 def workbook_text(text: str) -> str:

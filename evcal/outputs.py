@@ -28,8 +28,8 @@ from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
-from evcal._files import FOLDER_KINDS, MARKER_VERSION, folder_owner
-from evcal.errors import OutputError, clip
+from evcal._files import FOLDER_KINDS, MARKER_VERSION, folder_owner, foreign_problem
+from evcal.errors import OutputError
 
 __all__ = ["FILE_KINDS", "FOLDER_KINDS", "KINDS", "check_output", "file_kind"]
 
@@ -193,15 +193,12 @@ def _check_folder(out: Path, kind: str, force: bool) -> None:
         raise OutputError(f"--out {out}: is a {what}, and the {_WHAT[kind]} is a folder; choose a new "
                           f"folder such as {_suggest(out.parent, kind)}")
     owner = folder_owner(out)
+    problem = foreign_problem(owner)
     if owner is None:
-        raise OutputError(f"--out {out}: this folder was not written by evcal and would be replaced with "
-                          f"everything in it; choose a new folder such as {_suggest(out, kind)}")
-    if owner.extra:
-        many = len(owner.extra) > 1
-        more = f" and {len(owner.extra) - 1} more file(s)" if many else ""
-        raise OutputError(f"--out {out}: holds {clip(owner.extra[0], 100)}{more} that evcal did not write; "
-                          f"move {'them' if many else 'it'} out of the folder, or choose a new folder such "
-                          f"as {_suggest(out.parent, kind)}")
+        raise OutputError(f"--out {out}: {problem}; choose a new folder such as {_suggest(out, kind)}")
+    if problem is not None:
+        raise OutputError(f"--out {out}: {problem}; move {'them' if len(owner.extra) > 1 else 'it'} out "
+                          f"of the folder, or choose a new folder such as {_suggest(out.parent, kind)}")
     if (owner.kind != kind or owner.version not in (MARKER_VERSION, 1)) and not force:
         found = f"{_WHAT.get(owner.kind, owner.kind)} (format version {owner.version})"
         raise OutputError(f"--out {out}: holds evcal's {found}, not a {_WHAT[kind]}; choose a new folder "

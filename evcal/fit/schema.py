@@ -556,21 +556,26 @@ _FALSE = {"false", "no"}
 TEXT_COLUMNS = ("event", "note", "kind", "label", "identifiable", "date", "start", "end")
 
 
-def _read_csv(path: Path, required: tuple[str, ...]) -> pd.DataFrame:
+def read_csv_table(path: Path, required: tuple[str, ...], text: tuple[str, ...] = TEXT_COLUMNS
+                   ) -> pd.DataFrame:
+    """A CSV table of a model folder (single or panel): ``text`` columns as text, the rest parsed.
+
+    The formula-safe quote is taken off (:func:`evcal.formula_safe.unguard_frame`);
+    an empty file, a missing or a repeated column is one :class:`ModelError` line.
+    """
     try:
-        frame = pd.read_csv(path, dtype=dict.fromkeys(TEXT_COLUMNS, str), keep_default_na=False,
-                            na_values=[""])
+        frame = pd.read_csv(path, dtype=dict.fromkeys(text, str), keep_default_na=False, na_values=[""])
     except pd.errors.EmptyDataError:
         raise ModelError(f"{path}: the file is empty; expected a header row with "
-                         f"{', '.join(required)}; {AGAIN}") from None
+                         f"{clip(', '.join(required), 120)}; {AGAIN}") from None
     except (OSError, UnicodeDecodeError, pd.errors.ParserError, ValueError) as err:
         raise ModelError(f"{path}: cannot be read as CSV ({clip(str(err).strip(), 120)}); {AGAIN}") from None
     frame.columns = [str(c).strip() for c in frame.columns]
     frame = unguard_frame(frame)  # the writer quoted text that a spreadsheet would run (formula_safe)
     absent = [c for c in required if c not in frame.columns]
     if absent:
-        raise ModelError(f"{path}: line 1: missing column(s) {', '.join(absent)}; expected "
-                         f"{', '.join(required)}; {AGAIN}")
+        raise ModelError(f"{path}: line 1: missing column(s) {clip(', '.join(absent), 80)}; expected "
+                         f"{clip(', '.join(required), 120)}; {AGAIN}")
     if frame.columns.duplicated().any():
         dup = frame.columns[frame.columns.duplicated()][0]
         raise ModelError(f"{path}: line 1: column {clip(dup, 40)} appears twice; {AGAIN}")
@@ -640,7 +645,7 @@ def read_tables(directory: Path, model: ModelJson, periods: pd.PeriodIndex) -> d
     out: dict[str, pd.DataFrame] = {}
     # lifts.csv: one row per event column and intervention (status), then one per closure
     path = directory / "lifts.csv"
-    lifts = _read_csv(path, LIFT_REQUIRED)
+    lifts = read_csv_table(path, LIFT_REQUIRED)
     expected = list(model.status) + list(model.closure_events)
     if len(lifts) != len(expected):
         raise ModelError(f"{path}: {len(lifts)} rows; model.json has {len(expected)} events and "
@@ -665,7 +670,7 @@ def read_tables(directory: Path, model: ModelJson, periods: pd.PeriodIndex) -> d
     out["lifts"] = lifts
 
     path = directory / "occurrences.csv"
-    occ = _read_csv(path, OCC_REQUIRED)
+    occ = read_csv_table(path, OCC_REQUIRED)
     events = {info.event for info in model.event_info.values()} | set(model.closure_events)
     occ["event"] = _names(path, occ, "event", events)
     for col in ("start", "end"):
@@ -675,7 +680,7 @@ def read_tables(directory: Path, model: ModelJson, periods: pd.PeriodIndex) -> d
     out["occurrences"] = occ
 
     path = directory / "profile.csv"
-    prof = _read_csv(path, ("period", "index"))
+    prof = read_csv_table(path, ("period", "index"))
     p = cycle_length(model.freq)
     if len(prof) != p:
         raise ModelError(f"{path}: {len(prof)} rows; a {model.freq} model's seasonal index has {p} "
@@ -688,7 +693,7 @@ def read_tables(directory: Path, model: ModelJson, periods: pd.PeriodIndex) -> d
     out["profile"] = prof
 
     path = directory / "fitted.csv"
-    fit = _read_csv(path, FITTED_REQUIRED)
+    fit = read_csv_table(path, FITTED_REQUIRED)
     if len(fit) != len(periods):
         raise ModelError(f"{path}: {len(fit)} rows; the history {model.history.start} .. "
                          f"{model.history.end} in model.json has {len(periods)} periods; {AGAIN}")

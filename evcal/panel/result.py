@@ -37,30 +37,11 @@ import pandas as pd
 
 from evcal.errors import ModelError
 from evcal.fit.schema import dumps
-from evcal.formula_safe import FORMULA_TRIGGERS, QUOTE, formula_safe_frame
+from evcal.formula_safe import formula_safe_frame
 from evcal.panel.schema import PANEL_FILES, PANEL_FORMAT, PANEL_VERSION, read_panel_folder
 
 __all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "PANEL_FORMAT", "PANEL_VERSION",
            "write_csv"]
-
-
-def _needs_guard(frame: pd.DataFrame) -> bool:
-    """Whether any text cell or column name starts like a formula (or with the quote itself)."""
-    starts = (*FORMULA_TRIGGERS, QUOTE)
-    if any(str(c).startswith(starts) for c in frame.columns):
-        return True
-    for c in frame.columns:
-        col = frame[c]
-        if isinstance(col.dtype, pd.CategoricalDtype):
-            values = pd.Series(col.cat.categories)
-        elif pd.api.types.is_object_dtype(col.dtype) or pd.api.types.is_string_dtype(col.dtype):
-            values = col
-        else:
-            continue
-        text = values[values.map(lambda v: isinstance(v, str))] if values.dtype == object else values
-        if len(text) and bool(text.astype(str).str.startswith(starts).any()):
-            return True
-    return False
 
 
 def write_csv(frame: pd.DataFrame, path: Path) -> None:
@@ -72,8 +53,7 @@ def write_csv(frame: pd.DataFrame, path: Path) -> None:
     import pyarrow as pa
     import pyarrow.csv as pacsv
 
-    # the whole-frame guard maps every text cell; most panels have none to guard, so look first
-    out = formula_safe_frame(frame) if _needs_guard(frame) else frame.copy(deep=False)
+    out = formula_safe_frame(frame)
     for c in out.columns:
         if out[c].dtype == bool:
             out[c] = pd.Categorical.from_codes(out[c].to_numpy().astype(np.int8), ["False", "True"])

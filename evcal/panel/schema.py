@@ -47,12 +47,12 @@ from evcal.fit.schema import (
     _shown,
     _Strict,
     check_freq,
+    read_csv_table,
     read_json,
     validation_line,
 )
-from evcal.formula_safe import QUOTE, unguard_frame
 
-__all__ = ["PanelJson", "read_panel_folder", "validate_panel_json", "read_panel_tables", "unguard_fast",
+__all__ = ["PanelJson", "read_panel_folder", "validate_panel_json", "read_panel_tables",
            "PANEL_FORMAT", "PANEL_VERSION", "PANEL_FILES"]
 
 PANEL_FORMAT = "evcal-panel"
@@ -215,45 +215,9 @@ def check_panel_settings(path: Path, m: PanelJson) -> Any:
 # ---------------------------------------------------------------- the tables
 
 
-def unguard_fast(frame: pd.DataFrame) -> pd.DataFrame:
-    """:func:`~evcal.formula_safe.unguard_frame`, skipped when no text cell or name starts with a quote.
-
-    Panel tables have millions of text cells; a vectorised look for the quote
-    first keeps the usual case (nothing quoted) as fast as before.
-    """
-    quoted = any(str(c).startswith(QUOTE) for c in frame.columns)
-    for c in frame.columns:
-        if quoted:
-            break
-        col = frame[c]
-        if isinstance(col.dtype, pd.CategoricalDtype):
-            cats = col.cat.categories
-            quoted = bool(len(cats)) and bool(pd.Series(cats.astype(str)).str.startswith(QUOTE).any())
-        elif pd.api.types.is_object_dtype(col.dtype) or pd.api.types.is_string_dtype(col.dtype):
-            quoted = bool(col.astype(str).str.startswith(QUOTE).any())
-    return unguard_frame(frame) if quoted else frame
-
-
 def _read(path: Path, keys: list[str], columns: tuple[str, ...], text: tuple[str, ...]) -> pd.DataFrame:
-    required = (*keys, *columns)
-    try:
-        frame = pd.read_csv(path, dtype=dict.fromkeys((*keys, *text), str), keep_default_na=False,
-                            na_values=[""])
-    except pd.errors.EmptyDataError:
-        raise ModelError(f"{path}: the file is empty; expected a header row with "
-                         f"{clip(', '.join(required), 120)}; {AGAIN}") from None
-    except (OSError, UnicodeDecodeError, pd.errors.ParserError, ValueError) as err:
-        raise ModelError(f"{path}: cannot be read as CSV ({clip(str(err).strip(), 120)}); {AGAIN}") from None
-    frame = unguard_fast(frame)
-    frame.columns = [str(c).strip() for c in frame.columns]
-    absent = [c for c in required if c not in frame.columns]
-    if absent:
-        raise ModelError(f"{path}: line 1: missing column(s) {clip(', '.join(absent), 80)}; expected "
-                         f"{clip(', '.join(required), 120)}; {AGAIN}")
-    if frame.columns.duplicated().any():
-        dup = frame.columns[frame.columns.duplicated()][0]
-        raise ModelError(f"{path}: line 1: column {clip(dup, 40)} appears twice; {AGAIN}")
-    return frame
+    """A panel table: the key columns first, keys and ``text`` columns read as text."""
+    return read_csv_table(path, (*keys, *columns), (*keys, *text))
 
 
 def _row_error(path: Path, i: int, col: str, what: str) -> ModelError:

@@ -384,7 +384,7 @@ def test_frequency_classes_from_sorted_rows_equal_the_presence_matrix():
 def test_curved_event_columns_equal_the_design_block(cal, freq):
     # Reference: evcal.design.events.EventColumns, the single-series fit's own columns for a θ.
     from evcal.design.events import EventColumns
-    from evcal.panel.curved import CurvedEvents
+    from evcal.design.curved import CurvedEvents
 
     periods = pd.period_range("2021-01", "2023-12", freq="M") if freq == "M" else \
         pd.period_range("2021-01-03", periods=156, freq=freq)

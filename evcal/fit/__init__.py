@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.seasonal import cycle_length
+from evcal.effects import GroupInfo, SpanContext, block_tables
 from evcal.fit.model import (
     average_share_profile,
     calendar_text,
@@ -115,10 +116,52 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         _open_share=inp.design.open_share.to_numpy(),
         _calendar=cal,
     )
-    from evcal.effects import build_tables
-
-    build_tables(result, cal, periods, X, inp, hist)
+    fill_tables(result, cal, inp, hist)
     return result
+
+
+def fill_tables(result: FitResult, calendar: Any, inp: Any, history: Any) -> None:
+    """Fill ``result.fitted``, ``.occurrences``, ``.lifts``, ``.profile``, ``.residuals``, ``.quality``.
+
+    The tables come from the block builder (:func:`evcal.effects.block_tables`)
+    with a block of one series: the same code as every series of a panel.
+    """
+    periods = inp.periods
+    ctx = SpanContext.build(inp.raw_X, inp.design.open_share.to_numpy(dtype=float), calendar, periods,
+                            history.dates(periods), inp.rows, result.status)
+    group = GroupInfo.of_result(result)
+    params = result.params.reindex(group.fitted_cols).to_numpy(dtype=float)[:, None]
+    se = np.sqrt(np.clip(np.diag(result.cov.reindex(index=group.term_cols, columns=group.term_cols)
+                                 .to_numpy(dtype=float)), 0, None))[:, None]
+    actual = inp.actual.to_numpy(dtype=float)[None, :]
+    tables = block_tables(ctx, group, params, se, np.array([result.smear]), actual, np.zeros(1, dtype=int))
+    result.lifts = _plain(tables.lifts).drop(columns=["_fitted"])
+    result.occurrences = _plain(tables.occurrences)
+    result.profile = _plain(tables.profile)
+    fitted = _plain(tables.fitted[0])
+    result.fitted = fitted
+    q = tables.quality
+    result.mean_base = float(q["mean_base"][0])
+    model_fitted = fitted["fitted"].to_numpy()
+    observed = inp.actual.where(inp.rows).to_numpy(dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        scale_resid = np.log(observed) - np.log(model_fitted / result.smear) if inp.transform == "log" \
+            else observed - model_fitted
+    result.residuals = pd.Series(scale_resid, index=periods, name="residual")
+    result.quality = {"periods_fitted": int(q["periods_fitted"][0]), "wape_pct": float(q["wape_pct"][0]),
+                      "resid_sd": float(q["resid_sd"][0])}
+    for c, st in result.status.items():
+        if st.status in ("unidentifiable", "duplicate"):
+            result.warnings.append(f"{c}: {st.note}")
+        elif st.status == "no_history":
+            result.warnings.append(f"{c}: no occurrence in the history; listed, not fitted")
+
+
+def _plain(table: Any) -> pd.DataFrame:
+    """A block table of one series as a plain frame: no ``_sid``, text as text."""
+    frame = table.frame().drop(columns=["_sid"])
+    text = [c for c in frame.columns if isinstance(frame[c].dtype, pd.CategoricalDtype)]
+    return frame.astype({c: object for c in text}) if text else frame
 
 
 def _last_full_year(values: pd.Series) -> dict[str, Any]:

@@ -27,7 +27,8 @@ import pandas as pd
 from evcal.design.base import period_mid_years
 from evcal.design.seasonal import base_freq
 from evcal.design.trend import Trend
-from evcal.effects.tables import LIFT_COLUMNS, OCC_COLUMNS
+from evcal.effects import LIFT_COLUMNS, OCC_COLUMNS, BlockTables, GroupInfo, SpanContext, block_tables
+from evcal.effects.columns import Columns, join_columns, join_tables, text_dtype
 from evcal.fit.identify import check_columns, independent_base_columns
 from evcal.fit.model import load_calendar_any, prepare, term_info
 from evcal.fit.options import FitOptions
@@ -36,16 +37,6 @@ from evcal.panel.batched import SharedSolve
 from evcal.panel.longformat import Panel
 from evcal.panel.memory import release_freed_memory
 from evcal.panel.skipped import Screen, screen_series
-from evcal.panel.tables import (
-    BlockTables,
-    Columns,
-    GroupInfo,
-    SpanContext,
-    block_tables,
-    join_columns,
-    join_tables,
-    text_dtype,
-)
 
 __all__ = ["PanelFit", "fit_long_panel", "BLOCK_SERIES", "LOOP_SERIES"]
 
@@ -96,7 +87,7 @@ class Template:
         if self.transform == "none" or base_freq(self.inp.spec.freq) == "D":
             return None
         if self._curve is None:
-            from evcal.panel.curved import CurvedEvents
+            from evcal.design.curved import CurvedEvents
 
             spec = self.inp.spec
             self._curve = CurvedEvents(self.calendar, list(spec.event_columns), self.periods)

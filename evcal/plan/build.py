@@ -27,7 +27,7 @@ import pandas as pd
 from evcal.design.interventions import PERSISTENT
 from evcal.design.matrix import build_design
 from evcal.design.seasonal import cycle_length
-from evcal.effects.decompose import closure_shares, decompose
+from evcal.effects import closure_shares, decompose
 from evcal.errors import PlanError
 from evcal.plan.horizon import (
     history_end_period,

@@ -59,7 +59,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         The series' positions in the panel (the ``_sid`` column of every table).
     curved : dict, optional
         Event columns that differ by series (each series' own exact aggregation,
-        :mod:`evcal.panel.curved`): column -> (m, n) on the span.
+        :mod:`evcal.engine.refine`): column -> (m, n) on the span.
     curved_support : dict, optional
         For each curved column, the span's periods outside which it is zero
         (its windows); the products of a sparse column are formed there only.

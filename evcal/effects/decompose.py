@@ -63,7 +63,7 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
         Smearing factor of the log model (ones for the additive model).
     curved : dict, optional
         Event columns that differ by series (each series' own exact aggregation,
-        :mod:`evcal.fit.curved`): column -> (m, n) on the span.
+        :mod:`evcal.engine.refine`): column -> (m, n) on the span.
     curved_support : dict, optional
         For each curved column, the span's periods outside which it is zero.
     terms : list of str, optional

@@ -39,7 +39,7 @@ class GroupInfo:
 
     @classmethod
     def of_result(cls, result: Any) -> GroupInfo:
-        """The group of one fitted model (a :class:`~evcal.fit.FitResult`)."""
+        """The group of one fitted model (a :class:`~evcal.model.FitResult`)."""
         return cls(transform=result.transform, status=result.status, fitted_cols=list(result.params.index),
                    base_columns=list(result.base_columns), like_map=result.like_map, assumed=result.assumed,
                    intervention_names=result.intervention_names, closure_events=result.closure_events,

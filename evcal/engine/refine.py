@@ -24,12 +24,12 @@ from typing import Any
 import numpy as np
 
 from evcal.design.curved import CurvedEvents
-from evcal.panel.batched import bartlett_weights
+from evcal.engine.batched import bartlett_weights
 
-__all__ = ["CurvedEvents", "curved_columns", "refine", "MAX_PASSES", "THETA_TOL"]
+__all__ = ["curved_columns", "design_with_theta", "refine"]
 
-# the same stopping rule as the single-series fit (evcal.fit.model.estimate_exact)
-from evcal.fit.model import MAX_PASSES, THETA_TOL  # noqa: E402
+# the same stopping rule as the single-series fit (evcal.model.passes.estimate_exact)
+from evcal.model.passes import MAX_PASSES, THETA_TOL  # noqa: E402
 
 
 def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
@@ -82,6 +82,31 @@ def _theta_sources(group: Any) -> dict[str, str]:
 def curved_columns(curve: CurvedEvents, group: Any, theta: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
     """Each series' raw (unmerged) event columns for its θ: {column: (m, n)}."""
     return {col: curve.column(col, theta[src]) for col, src in _theta_sources(group).items() if src in theta}
+
+
+def design_with_theta(curve: CurvedEvents, group: Any, rows: np.ndarray, X_fit: np.ndarray,
+                      theta: dict[str, np.ndarray]) -> tuple[np.ndarray, dict[str, float]]:
+    """One series' final design on the fit rows, and the θ of every event column it was built with.
+
+    The event columns of ``X_fit`` (the first pass's, linear) are replaced by
+    the curved columns for the series' θ (``theta``: source column -> (1,)),
+    with borrowed (``like``) columns added into their target, as the fit's
+    last pass built them; assumed lifts aggregate with their own lift.
+    """
+    X = X_fit.copy()
+    idx = {c: i for i, c in enumerate(group.fitted_cols)}
+    cols = curved_columns(curve, group, theta)
+    for c, v in cols.items():
+        st = group.status[c]
+        target = c if st.status == "fitted" else group.like_map.get(c) if st.status == "like" else None
+        if target in idx and st.status == "fitted":
+            X[:, idx[c]] = v[0, rows]
+    for c, v in cols.items():
+        if group.status[c].status == "like" and group.like_map.get(c) in idx:
+            X[:, idx[group.like_map[c]]] += v[0, rows]
+    used = {c: float(theta[src][0]) for c, src in _theta_sources(group).items() if src in theta}
+    used.update({c: float(np.log1p(a)) for c, a in group.assumed.items()})
+    return X, used
 
 
 @dataclass

@@ -105,10 +105,10 @@ events:
 def main() -> None:
     import statsmodels.api as sm
 
-    import evcal.fit
-    from evcal.fit.model import model_scale_response, prepare
-    from evcal.fit.options import FitOptions
+    import evcal
     from evcal.io import read_history
+    from evcal.model.inputs import model_scale_response, prepare
+    from evcal.model.options import FitOptions
 
     hist, cal = daily_case()
     evcal.fit(hist.iloc[:800], cal, errors="ols")  # warm imports

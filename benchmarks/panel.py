@@ -187,7 +187,7 @@ WRAPPER = (
     "    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss\n"
     "atexit.register(lambda: open(out, 'w').write(str(peak())))\n"
     "if sys.argv[1:2] == ['--imports-only']:\n"
-    "    import evcal.cli, evcal.panel.engine, evcal.panel.build, evcal.calendar\n"
+    "    import evcal.cli, evcal.engine.run, evcal.panel.build, evcal.calendar\n"
     "    import pyarrow.parquet, pyarrow.csv\n"
     "    sys.exit(0)\n"
     "import os\n"
@@ -219,10 +219,10 @@ def evcal_compute(path: Path, cal: Path) -> float:
     from threadpoolctl import threadpool_limits
 
     from evcal.calendar import load_calendar
-    from evcal.fit.options import FitOptions
+    from evcal.engine.run import fit_long_panel
+    from evcal.io.longformat import read_panel
+    from evcal.model.options import FitOptions
     from evcal.panel.distributed import make_runner
-    from evcal.panel.engine import fit_long_panel
-    from evcal.panel.longformat import read_panel
 
     panel = read_panel(path, ["family", "product"])
     calendar = load_calendar(cal)

@@ -29,7 +29,7 @@ import pandas as pd  # noqa: E402
 
 import evcal  # noqa: E402
 from evcal.design.matrix import build_design  # noqa: E402
-from evcal.effects.decompose import closure_shares, decompose  # noqa: E402
+from evcal.effects import closure_shares, decompose  # noqa: E402
 from evcal.plan.simulate import draw_coefficients  # noqa: E402
 
 N_SIMS = 1000

@@ -15,9 +15,9 @@ _EXPORTS: dict[str, str] = {
     "load_calendar": "evcal.calendar:load_calendar",
     "Calendar": "evcal.calendar:Calendar",
     "read_history": "evcal.io:read_history",
-    "fit": "evcal.fit:fit",
-    "FitResult": "evcal.fit:FitResult",
-    "load_model": "evcal.fit:load_model",
+    "fit": "evcal.engine:fit",
+    "FitResult": "evcal.model:FitResult",
+    "load_model": "evcal.model:load_model",
     "backtest": "evcal.plan:backtest",
     "discover": "evcal.discover:discover",
 }

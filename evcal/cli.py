@@ -315,8 +315,8 @@ def fit_cmd(
         return fit_panel_cmd(history, calendar, out, series_col, echo=typer.echo, level=level,
                              group_col=group_col, workers=workers, scheduler=scheduler, date_col=date_col,
                              value_col=value_col, freq=freq, **options)
-    from evcal.fit import fit
-    from evcal.fit.summary import describe
+    from evcal.engine import fit
+    from evcal.model.summary import describe
 
     result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq, **options)
     result.save(out)
@@ -337,8 +337,8 @@ def show_cmd(
         from evcal.panel.cli_support import show_panel_cmd
 
         return show_panel_cmd(model_dir, series, typer.echo)
-    from evcal.fit import load_model
-    from evcal.fit.summary import describe
+    from evcal.model import load_model
+    from evcal.model.summary import describe
 
     typer.echo(describe(load_model(model_dir)))
 
@@ -393,7 +393,7 @@ def plan_cmd(
     kind = "compare" if compare_cal else "plan"
     _check_out(out, kind)
     check_output(out, kind, inputs=[model_dir, calendar, totals, compare_cal, allocate], force=force)
-    from evcal.fit import load_model
+    from evcal.model import load_model
     from evcal.plan import compare, make_plan
 
     result = load_model(model_dir)

@@ -70,8 +70,8 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     from evcal._files import folder_owner, write_marker
     from evcal.calendar import load_calendar
     from evcal.calendar.summary import check_calendar
-    from evcal.fit import fit
-    from evcal.fit.summary import describe
+    from evcal.engine import fit
+    from evcal.model.summary import describe
     from evcal.outputs import check_output
     from evcal.plan import backtest
     from evcal.plan.backtesting import format_table

@@ -21,7 +21,7 @@ from dateutil.easter import easter
 from typer.testing import CliRunner
 
 from evcal.cli import app
-from evcal.fit import fit
+from evcal.engine import fit
 
 ROOT = Path(__file__).resolve().parents[1]
 CALENDAR = ROOT / "calendars" / "garden-centres.yaml"
@@ -155,7 +155,7 @@ def test_identified_events_are_untouched_by_the_rule() -> None:
 
 
 def test_degenerate_rule() -> None:
-    from evcal.fit.identify import MAX_LOG_LIFT, degenerate_terms
+    from evcal.model.identify import MAX_LOG_LIFT, degenerate_terms
 
     params = pd.Series({"const": 5.0, "a": 0.3, "b": -73.8, "c": 0.2, "d": np.inf, "e": 1.0})
     se = pd.Series({"const": 0.1, "a": 0.05, "b": 30.0, "c": 500.0, "d": 1.0, "e": np.nan})

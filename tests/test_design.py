@@ -8,7 +8,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-import evcal.fit
+import evcal
 from evcal.design.interventions import InterventionTerm
 from evcal.design.seasonal import SeasonalDummies, TradingDays, season_position
 

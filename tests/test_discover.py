@@ -19,7 +19,7 @@ import evcal
 from evcal.calendar import load_calendar
 from evcal.discover import Findings
 from evcal.discover.suggestions import COLUMNS, KINDS
-from evcal.fit import fit
+from evcal.engine import fit
 
 
 def _weekly_easter_history(seed: int = 0) -> pd.Series:

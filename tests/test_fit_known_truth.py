@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-import evcal.fit
+import evcal
 
 DEMO = Path(__file__).resolve().parents[1] / "demo"
 

@@ -7,13 +7,13 @@ import pandas as pd
 import pytest
 import statsmodels.api as sm
 
-import evcal.fit
+import evcal
 from evcal.design.interventions import Interventions, InterventionTerm
 from evcal.design.trend import Trend
-from evcal.fit.estimators import fit_arima, fit_count, fit_ols, newey_west_lags
-from evcal.fit.model import model_scale_response, prepare
-from evcal.fit.options import FitOptions
 from evcal.io import read_history
+from evcal.model.estimators import fit_arima, fit_count, fit_ols, newey_west_lags
+from evcal.model.inputs import model_scale_response, prepare
+from evcal.model.options import FitOptions
 
 CAL = """
 name: reference test (invented)

@@ -44,7 +44,7 @@ def _formula_cells(path: Path) -> list[str]:
 
 @pytest.fixture(scope="module")
 def attacked_model(tmp_path_factory: pytest.TempPathFactory):
-    from evcal.fit import fit
+    from evcal.engine import fit
 
     tmp = tmp_path_factory.mktemp("attack")
     hist = pd.read_csv(ROOT / "demo" / "fernhollow-history.csv", parse_dates=["date"])

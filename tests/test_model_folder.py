@@ -26,8 +26,8 @@ from typer.testing import CliRunner
 import evcal
 from evcal.cli import app
 from evcal.errors import ModelError, PlanError
-from evcal.fit import load_model
-from evcal.fit.model import average_share_profile
+from evcal.model import load_model
+from evcal.model.inputs import average_share_profile
 from evcal.plan import make_plan
 
 ROOT = Path(__file__).resolve().parents[1]

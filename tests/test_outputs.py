@@ -200,10 +200,9 @@ def _read_only_folder() -> Path:
 
 
 def test_read_only_parent_is_refused_before_any_fit(monkeypatch: pytest.MonkeyPatch) -> None:
-    import evcal.fit
-
+    import evcal.engine
     calls = []
-    monkeypatch.setattr(evcal.fit, "fit", lambda *a, **k: calls.append(a) or pytest.fail("fit ran"))
+    monkeypatch.setattr(evcal.engine, "fit", lambda *a, **k: calls.append(a) or pytest.fail("fit ran"))
     folder = _read_only_folder()
     res = _fit(HISTORY, folder / "model")
     _refused(res, str(folder), "cannot write")
@@ -294,7 +293,7 @@ def test_force_replaces_evcals_own_output_of_another_kind_only(tmp_path: Path) -
 
 def test_the_writer_itself_refuses_a_folder_evcal_did_not_write(model: Path, tmp_path: Path) -> None:
     from evcal.errors import OutputError
-    from evcal.fit import load_model
+    from evcal.model import load_model
 
     data = _data(tmp_path)
     before = _hashes(data)
@@ -318,7 +317,7 @@ _KILLED_SAVE = textwrap.dedent("""
 
 
 def test_leftovers_of_a_killed_save_are_removed_by_the_next_save(model: Path, tmp_path: Path) -> None:
-    from evcal.fit import load_model
+    from evcal.model import load_model
 
     target = tmp_path / "model"
     # a real SIGKILL in the middle of a save: the child says where it writes, then waits to be killed
@@ -365,12 +364,11 @@ def test_a_dead_file_leftover_is_removed_and_the_plan_written(model: Path, tmp_p
                                    ZeroDivisionError("float division by zero")])
 def test_an_unexpected_error_is_one_line_and_exit_one(error: BaseException, tmp_path: Path,
                                                       monkeypatch: pytest.MonkeyPatch) -> None:
-    import evcal.fit
-
+    import evcal.engine
     def boom(*args: object, **kwargs: object) -> None:
         raise error
 
-    monkeypatch.setattr(evcal.fit, "fit", boom)
+    monkeypatch.setattr(evcal.engine, "fit", boom)
     res = _fit(HISTORY, tmp_path / "model")
     assert res.exit_code == 1, res.output
     assert "Traceback" not in res.output
@@ -386,12 +384,11 @@ def test_an_unexpected_error_is_one_line_and_exit_one(error: BaseException, tmp_
 
 
 def test_debug_shows_the_traceback(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
-    import evcal.fit
-
+    import evcal.engine
     def boom(*args: object, **kwargs: object) -> None:
         raise RecursionError("maximum recursion depth exceeded")
 
-    monkeypatch.setattr(evcal.fit, "fit", boom)
+    monkeypatch.setattr(evcal.engine, "fit", boom)
     res = runner.invoke(app, ["--debug", "fit", str(HISTORY), "-c", str(CALENDAR), "--out",
                               str(tmp_path / "model")])
     assert res.exit_code == 1
@@ -403,10 +400,10 @@ def test_debug_shows_the_traceback(tmp_path: Path, monkeypatch: pytest.MonkeyPat
 
 _PROCESS = textwrap.dedent("""
     import sys
-    import evcal.fit
+    import evcal.engine
     def boom(*a, **k):
         raise OverflowError("date value out of range")
-    evcal.fit.fit = boom
+    evcal.engine.fit = boom
     from evcal.cli import main
     sys.argv = ["evcal", *sys.argv[1:]]
     main()

@@ -16,13 +16,13 @@ import pytest
 import statsmodels.api as sm
 from statsmodels.stats.meta_analysis import combine_effects
 
-import evcal.fit
+import evcal
 from evcal.calendar import load_calendar
-from evcal.fit.options import FitOptions
+from evcal.engine.batched import SharedSolve, hac_covariances
+from evcal.engine.run import fit_long_panel
+from evcal.io.longformat import read_panel
+from evcal.model.options import FitOptions
 from evcal.panel import fit_panel
-from evcal.panel.batched import SharedSolve, hac_covariances
-from evcal.panel.engine import fit_long_panel
-from evcal.panel.longformat import read_panel
 from evcal.panel.pooling import dersimonian_laird, pool_lifts
 from evcal.panel.rollup import aggregate
 
@@ -118,7 +118,7 @@ def test_batched_ols_and_hac_equal_statsmodels(k):
 
 @pytest.mark.parametrize("transform", ["auto", "none"])
 def test_panel_fit_equals_single_series_fits(cal, transform):
-    # Reference: evcal.fit.fit series by series (OLS + HAC, itself checked against statsmodels);
+    # Reference: evcal.fit series by series (OLS + HAC, itself checked against statsmodels);
     # "auto" is the log model here (exact lift aggregation passes), "none" the additive one.
     frame = _panel_frame(5)
     frame = frame.drop(index=frame.index[(frame["product"] == "P01") & frame.index.isin(range(200, 204))])
@@ -129,7 +129,7 @@ def test_panel_fit_equals_single_series_fits(cal, transform):
     assert set(fit.series["transform"]) == {"log" if transform == "auto" else "none"}
     fitted = fit.fitted
     for j in range(panel.n_series):
-        ref = evcal.fit.fit(panel.history(j), cal, errors="ols", transform=transform)
+        ref = evcal.fit(panel.history(j), cal, errors="ols", transform=transform)
         lifts = fit.lifts[fit.lifts["_sid"] == j].reset_index(drop=True)
         num = ["lift_pct", "low_pct", "high_pct", "units_per_occurrence"]
         np.testing.assert_allclose(lifts[num].to_numpy(float), ref.lifts[num].to_numpy(float),
@@ -272,7 +272,7 @@ def test_count_series_use_the_single_series_fit(cal):
     assert (s.loc[["P00", "P01"], "engine"] == "batched").all()
     panel = read_panel(frame, ["product"])
     j = list(panel.keys["product"]).index("SLOW")
-    ref = evcal.fit.fit(panel.history(j), load_calendar(CAL))
+    ref = evcal.fit(panel.history(j), load_calendar(CAL))
     mine = res.lifts[res.lifts["product"] == "SLOW"].reset_index(drop=True)
     np.testing.assert_allclose(mine["lift_pct"].to_numpy(float), ref.lifts["lift_pct"].to_numpy(float),
                                rtol=1e-10)
@@ -350,7 +350,7 @@ def test_unused_categories_of_a_key_column_make_no_series():
 def test_frequency_classes_from_sorted_rows_equal_the_presence_matrix():
     # Two implementations of one rule (the shortest gap between a series' dates and its weekdays):
     # the one-pass path for rows sorted by series and date, the matrix path for any order.
-    from evcal.panel.longformat import series_frequencies
+    from evcal.io.series_freq import series_frequencies
 
     rng = np.random.default_rng(3)
     weekly = pd.date_range("2021-01-03", periods=60, freq="W-SUN")
@@ -383,8 +383,8 @@ def test_frequency_classes_from_sorted_rows_equal_the_presence_matrix():
 @pytest.mark.parametrize("freq", ["W-SUN", "M"])
 def test_curved_event_columns_equal_the_design_block(cal, freq):
     # Reference: evcal.design.events.EventColumns, the single-series fit's own columns for a θ.
+    from evcal.design.curved import CurvedEvents
     from evcal.design.events import EventColumns
-    from evcal.panel.curved import CurvedEvents
 
     periods = pd.period_range("2021-01", "2023-12", freq="M") if freq == "M" else \
         pd.period_range("2021-01-03", periods=156, freq=freq)
@@ -403,7 +403,7 @@ def test_threads_with_a_bounded_window_give_the_serial_results_in_order(cal, mon
     # The local runner keeps only a few units ahead of its threads; with one series per unit
     # (many more units than the window) the tables and the streamed fitted rows must be those
     # of running the units one after the other, in unit order.
-    import evcal.panel.engine as engine
+    import evcal.engine.run as engine
     from evcal.panel.distributed import UNITS_AHEAD, local_runner
 
     monkeypatch.setattr(engine, "BLOCK_SERIES", 1)

@@ -164,7 +164,7 @@ def test_options_that_need_a_panel(tmp_path):
 
 def test_dask_local_cluster_gives_identical_results(tmp_path, monkeypatch):
     pytest.importorskip("dask.distributed")
-    import evcal.panel.engine as engine
+    import evcal.engine.run as engine
 
     monkeypatch.setattr(engine, "BLOCK_SERIES", 2)  # several batched units
     monkeypatch.setattr(engine, "LOOP_SERIES", 1)
@@ -194,7 +194,7 @@ def test_streamed_fitted_rows_equal_the_in_memory_ones(tmp_path, monkeypatch):
     # fitted.parquet is written block by block on a thread, as required (non-null) columns;
     # with a gap (NaN actuals) and a per-series count model among the blocks it must hold
     # exactly the rows the in-memory result has
-    import evcal.panel.engine as engine
+    import evcal.engine.run as engine
 
     monkeypatch.setattr(engine, "BLOCK_SERIES", 2)
     frame = _long(5)

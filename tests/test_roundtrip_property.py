@@ -30,7 +30,7 @@ from hypothesis import strategies as st
 
 import evcal
 from evcal.calendar import load_calendar
-from evcal.fit.summary import describe
+from evcal.model.summary import describe
 from evcal.plan import make_plan
 from evcal.report import write_report
 

@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.base import day_span, period_days
+from evcal.design.curved import CurvedEvents
 from evcal.design.dayweights import aggregate_day_weights
 
 
@@ -68,34 +69,10 @@ class EventColumns:
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         if not self.names:
             return pd.DataFrame(index=periods)
-        start, end = day_span(periods)
-        colmap = self.calendar.event_columns()
-        wanted_events = sorted({colmap[c] for c in self.names if c in colmap})
-        days = period_days(periods)
-        out = {name: np.zeros(len(periods)) for name in self.names}
-        if wanted_events:
-            daily = self.calendar.day_weights(start, end, normalize="none", events=wanted_events)
-            # A closed day sells nothing, so it carries no lift: event weights count open
-            # days only, and the mean is over the period's open days (the closure itself
-            # enters as the open-share offset).
-            closed = self.calendar.closed_days(start, end).reindex(daily.index, fill_value=False)
-            if closed.any():
-                daily = daily.mul(~closed.to_numpy(), axis=0)
-                shut = aggregate_day_weights(closed.astype(float).to_frame("closed"), periods)
-                days = np.maximum(days - shut["closed"].to_numpy(dtype=float), 1.0)
-            present = [n for n in self.names if n in daily.columns]
-            thetas = {n: self.theta_of(n) for n in present}
-            curved = [n for n in present if abs(thetas[n]) > 1e-9]
-            if curved:
-                bent = pd.DataFrame({n: np.expm1(thetas[n] * daily[n].to_numpy()) for n in curved},
-                                    index=daily.index)
-                daily = pd.concat([daily.drop(columns=curved), bent], axis=1)
-            agg = aggregate_day_weights(daily, periods)
-            for n in present:
-                mean = agg[n].to_numpy(dtype=float) / days
-                if n in curved:
-                    mean = np.log1p(np.clip(mean, -0.999999, None)) / thetas[n]
-                out[n] = mean
+        # closed days carry no lift and the mean is over the period's open days (the closure
+        # itself enters as the open-share offset): CurvedEvents counts open days only
+        curve = CurvedEvents(self.calendar, self.names, periods)
+        out = {n: curve.column(n, np.array([self.theta_of(n)]))[0] for n in self.names}
         return pd.DataFrame(out, index=periods, columns=self.names)
 
     def to_dict(self) -> dict[str, Any]:

@@ -213,7 +213,7 @@ def discover(
         Refit once per abnormal year to show the effect of excluding it or
         giving it a pulse on the seasonal index.
     **fit_options
-        Passed to :func:`evcal.fit.fit` (``transform``, ``errors``, ...).
+        Passed to :func:`evcal.fit` (``transform``, ``errors``, ...).
         Weekly histories default to ``seasonal="fourier"`` here (a smooth
         annual profile), so that moving events are left in the residuals.
 
@@ -222,7 +222,7 @@ def discover(
     Findings
     """
     from evcal.calendar import load_calendar
-    from evcal.fit import fit
+    from evcal.engine import fit
 
     hist = _read_history(history, date_col, value_col, freq)
     base_text = _calendar_text(calendar)
@@ -339,7 +339,7 @@ class _Search:
 
 def _search(hist: Any, cal: Any, result: Any, cval: float | None) -> tuple[_Search | None, Any, Any]:
     """Chen–Liu on the model scale with the fit's own regressors."""
-    from evcal.fit.model import model_scale_response, prepare
+    from evcal.model.inputs import model_scale_response, prepare
 
     inp = prepare(hist, cal, result.options)
     cols = [c for c in inp.fitted_cols if c in result.params.index]
@@ -530,7 +530,7 @@ def _index_effects(hist: Any, text: str, result: Any, abnormal: list[AbnormalYea
                    fit_options: dict[str, Any]) -> pd.DataFrame:
     """Seasonal index refitted with each abnormal year excluded, and with a pulse over it."""
     from evcal.calendar import load_calendar
-    from evcal.fit import fit
+    from evcal.engine import fit
 
     frame = result.profile[["period", "index"]].copy()
     for year in sorted({a.year for a in abnormal}):

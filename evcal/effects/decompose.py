@@ -1,10 +1,13 @@
-"""Split a fitted (or planned) series into base and one contribution per term.
+"""Split a fitted (or planned) series into base and one contribution per term, for m series at once.
 
 On the log scale the terms add; in units they interact. The split used here
 adds up exactly: the closures' share is taken first (the open share of the
 period times everything else), then the remaining gap between "with events"
 and base is divided among the terms in proportion to their log-scale size.
 For the additive model the terms already add up in units.
+
+The m columns are the series of a block (the fit) or the draws of a
+simulation (the plan): the design rows are shared, the coefficients differ.
 """
 
 from __future__ import annotations
@@ -14,105 +17,174 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.design.base import day_span, period_days
-from evcal.design.dayweights import aggregate_day_weights
+from evcal.effects.columns import sparse_support
+from evcal.effects.span import GroupInfo, SpanContext
+
+__all__ = ["term_coefficients", "decompose_block", "decompose"]
 
 
-def term_coefficients(result: Any, params: pd.Series | None = None) -> dict[str, float]:
-    """Model-scale coefficient of every event and intervention column (0 when not estimated)."""
-    params = result.params if params is None else params
-    coefs: dict[str, float] = {}
-    for col, st in result.status.items():
+def term_coefficients(group: GroupInfo, params: dict[str, np.ndarray], m: int) -> dict[str, np.ndarray]:
+    """Model-scale coefficient of every event and intervention column for m series (0 when not estimated).
+
+    Borrowed lifts (``like``) take their target's coefficient; assumed lifts
+    are ``log(1 + a)`` on the log scale and the fraction ``a`` of base in the
+    additive model.
+    """
+    out: dict[str, np.ndarray] = {}
+    for col, st in group.status.items():
         if st.status == "fitted":
-            coefs[col] = float(params.get(col, 0.0))
+            out[col] = params.get(col, np.zeros(m))
         elif st.status == "like":
-            target = result.like_map.get(col, "")
-            coefs[col] = float(params.get(target, 0.0))
+            out[col] = params.get(group.like_map.get(col, ""), np.zeros(m))
         elif st.status == "assumed":
-            a = result.assumed[col]
-            coefs[col] = float(np.log1p(a)) if result.transform != "none" else a
+            a = group.assumed[col]
+            out[col] = np.full(m, float(np.log1p(a)) if group.transform != "none" else a)
         else:
-            coefs[col] = 0.0
-    return coefs
+            out[col] = np.zeros(m)
+    return out
 
 
-def closure_shares(calendar: Any, periods: pd.PeriodIndex) -> pd.DataFrame:
-    """Share of each period's days closed by each ``effect: zero`` event."""
-    zero = [e.name for e in calendar.events if e.effect.kind == "zero"]
-    if not zero:
-        return pd.DataFrame(index=periods)
-    start, end = day_span(periods)
-    daily = calendar.day_weights(start, end, normalize="none", events=zero)
-    daily = (daily > 0).astype(float)
-    agg = aggregate_day_weights(daily, periods)
-    days = period_days(periods)
-    out = pd.DataFrame({c: agg[c].to_numpy() / days for c in agg.columns}, index=periods)
-    # the event columns of a `daily` closure collapse to the event
-    colmap = calendar.event_columns()
-    return out.T.groupby(lambda c: colmap.get(c, c)).sum().T.clip(upper=1.0)
+def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
+                    curved: dict[str, np.ndarray] | None = None,
+                    curved_support: dict[str, np.ndarray] | None = None,
+                    terms: list[str] | None = None,
+                    ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+    """Base, fitted and each term's contribution in units, (m, n) each.
+
+    Parameters
+    ----------
+    ctx : SpanContext
+        The span's shared design rows, open share and closures.
+    group : GroupInfo
+        Transform, column statuses, base columns.
+    pmap : dict
+        Coefficient name -> (m,) values.
+    smear : ndarray, shape (m,)
+        Smearing factor of the log model (ones for the additive model).
+    curved : dict, optional
+        Event columns that differ by series (each series' own exact aggregation,
+        :mod:`evcal.engine.refine`): column -> (m, n) on the span.
+    curved_support : dict, optional
+        For each curved column, the span's periods outside which it is zero.
+    terms : list of str, optional
+        Term columns to include; every event and intervention column by default.
+
+    Returns
+    -------
+    base, fitted : ndarray, shape (m, n)
+    parts : dict
+        Term or closure name -> (m, n) contribution; base + parts add up to fitted.
+    """
+    m = len(smear)
+    curved = curved or {}
+    coefs = term_coefficients(group, pmap, m)
+    base_cols = [c for c in group.base_columns if c in ctx.columns]
+    Xb = ctx.base_matrix(base_cols)
+    Bb = np.vstack([pmap.get(c, np.zeros(m)) for c in base_cols]) if base_cols else np.zeros((0, m))
+    eta_base = Bb.T @ Xb.T  # (m, n)
+    terms = [c for c in (terms if terms is not None else list(coefs)) if c in ctx.columns]
+    share = ctx.share[None, :]
+    n = len(ctx.periods)
+    # each term's coefficient times its column, on the periods where the column is not zero (an
+    # event's windows: a few of the span's periods) or on all of them (support None)
+    support: dict[str, np.ndarray | None] = {}
+    tmat: dict[str, np.ndarray] = {}
+    for c in terms:
+        if c in curved:
+            support[c] = sparse_support((curved_support or {}).get(c), n)
+            x = curved[c] if support[c] is None else curved[c][:, support[c]]
+        else:
+            support[c] = ctx.support(c)
+            x = ctx.columns[c][None, :] if support[c] is None else ctx.columns[c][None, support[c]]
+        tmat[c] = coefs[c][:, None] * x
+        if group.transform == "none" and group.status[c].status == "assumed":
+            # an assumed lift is a fraction of base, not a number of units (as decompose has it)
+            tmat[c] *= eta_base if support[c] is None else eta_base[:, support[c]]
+    total = np.zeros_like(eta_base)
+    for c in terms:
+        if support[c] is None:
+            total += tmat[c]
+        else:
+            total[:, support[c]] += tmat[c]
+
+    def spread(c: str, values: np.ndarray) -> np.ndarray:
+        """A term's (m, n) contribution from its values on its support."""
+        if support[c] is None:
+            return values
+        out = np.zeros((m, n))
+        out[:, support[c]] = values
+        return out
+
+    def on_support(c: str, a: np.ndarray) -> np.ndarray:
+        return a if support[c] is None else a[:, support[c]]
+
+    parts: dict[str, np.ndarray] = {}
+    if group.transform == "none":
+        base = eta_base
+        with_events = base + total
+        for c in terms:
+            parts[c] = spread(c, tmat[c] * on_support(c, share))
+        fitted = with_events * share
+    else:
+        # (series × periods) arrays, a dozen per block: made in place where they can be
+        base = np.exp(eta_base, out=eta_base)
+        base *= smear[:, None]
+        big = np.abs(total) > 1e-12
+        denom = np.where(big, total, 1.0)
+        with_events = np.exp(total, out=total)
+        with_events *= base
+        ratio = with_events - base
+        ratio *= share
+        ratio /= denom
+        # each term's part of the gap: its share of the summed log-effect, or (where the
+        # effects are all zero) its own first-order size
+        factor = np.multiply(base, share, out=denom)
+        np.copyto(factor, ratio, where=big)
+        del ratio, denom
+        for c in terms:
+            tmat[c] *= on_support(c, factor)
+            parts[c] = spread(c, tmat[c])
+        fitted = with_events
+        fitted *= share
+    if len(ctx.closures.columns):
+        cl = ctx.closure_matrix
+        tot = cl.sum(axis=1)
+        safe_tot = np.where(tot > 0, tot, 1.0)
+        for j, c in enumerate(ctx.closures.columns):
+            # a closure's part (the base lost to closed days) is zero outside the periods it closes
+            nz = np.flatnonzero((cl[:, j] > 0) & (tot > 0))
+            parts[c] = np.zeros((m, n))
+            parts[c][:, nz] = base[:, nz] * (share[:, nz] - 1.0) * (cl[nz, j] / safe_tot[nz])[None, :]
+    return base, fitted, parts
 
 
-def decompose(
-    result: Any,
-    X: pd.DataFrame,
-    open_share: pd.Series,
-    closures: pd.DataFrame,
-    params: pd.Series | None = None,
-    terms: list[str] | None = None,
-) -> pd.DataFrame:
-    """Base, fitted and each term's contribution in units, for the rows of ``X``.
+def decompose(result: Any, X: pd.DataFrame, open_share: pd.Series, closures: pd.DataFrame,
+              params: pd.Series | None = None, terms: list[str] | None = None) -> pd.DataFrame:
+    """:func:`decompose_block` for one fitted model on the rows of ``X``, as a frame.
 
     Parameters
     ----------
     result : FitResult
-        Supplies the transform, the smearing factor, column statuses.
+        Supplies the transform, the smearing factor and the column statuses.
     X : DataFrame
         Unmerged design columns (as built by :func:`evcal.design.matrix.build_design`).
     open_share : Series
         Share of each period open.
     closures : DataFrame
-        Closed share per closure event (from :func:`closure_shares`).
+        Closed share per closure event (from :func:`evcal.effects.span.closure_shares`).
     params : Series, optional
-        Coefficients to use (a simulation draw); the fitted ones by default.
+        Coefficients to use; the fitted ones by default.
     terms : list of str, optional
         Term columns to include; all event and intervention columns by default.
     """
     params = result.params if params is None else params
-    coefs = term_coefficients(result, params)
-    base_cols = [c for c in result.base_columns if c in X.columns]
-    eta_base = X[base_cols].to_numpy() @ params.reindex(base_cols).fillna(0.0).to_numpy()
-    terms = [c for c in (terms if terms is not None else list(coefs)) if c in X.columns]
-    tmat = np.column_stack([X[c].to_numpy() * coefs.get(c, 0.0) for c in terms]) if terms else \
-        np.zeros((len(X), 0))
-    share = open_share.to_numpy(dtype=float)
-    if result.transform == "none":
-        base = eta_base
-        # an assumed lift is a fraction of base, not a number of units
-        for j, c in enumerate(terms):
-            if c in result.status and result.status[c].status == "assumed":
-                tmat[:, j] = tmat[:, j] * base
-        with_events = base + tmat.sum(axis=1)
-        contrib = tmat * share[:, None]
-    else:
-        smear = result.smear
-        base = smear * np.exp(eta_base)
-        total = tmat.sum(axis=1)
-        with_events = smear * np.exp(eta_base + total)
-        gap = (with_events - base) * share
-        safe = np.where(np.abs(total) > 1e-12, total, 1.0)
-        contrib = np.where(np.abs(total)[:, None] > 1e-12, gap[:, None] * tmat / safe[:, None],
-                           (base * share)[:, None] * tmat)
-    fitted = with_events * share
-    cols: dict[str, np.ndarray] = {"base": base, "fitted": fitted}
-    for j, c in enumerate(terms):
-        cols[c] = contrib[:, j]
-    # closures: the base the closed days lose. The event terms above are already
-    # scaled by the open share, so base + terms + closures adds up to `fitted`.
-    lost = base * (share - 1.0)
-    if len(closures.columns):
-        cl = closures.reindex(X.index).fillna(0.0).to_numpy()
-        tot = cl.sum(axis=1)
-        safe_tot = np.where(tot > 0, tot, 1.0)
-        for j, c in enumerate(closures.columns):
-            cols[c] = np.where(tot > 0, lost * cl[:, j] / safe_tot, 0.0)
+    group = GroupInfo.of_result(result)
+    n = len(X)
+    ctx = SpanContext(X.index, None, X, open_share.to_numpy(dtype=float),
+                      closures.reindex(X.index).fillna(0.0), np.ones(n), np.ones(n, dtype=bool), [])
+    pmap = {c: np.array([float(v)]) for c, v in params.items()}
+    base, fitted, parts = decompose_block(ctx, group, pmap, np.array([float(result.smear)]), terms=terms)
+    cols: dict[str, np.ndarray] = {"base": base[0], "fitted": fitted[0]}
+    for c, v in parts.items():
+        cols[c] = v[0]
     return pd.DataFrame(cols, index=X.index)

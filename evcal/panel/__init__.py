@@ -3,7 +3,7 @@
 ``evcal fit history.parquet --series-col product,store --calendar cal.yaml --out m``
 fits every series of a long file. Series that share a design are solved
 together (one QR factorisation, every series a right-hand side, HAC standard
-errors for all at once: :mod:`evcal.panel.batched`); ARIMA errors and count
+errors for all at once: :mod:`evcal.engine.batched`); ARIMA errors and count
 models run the single-series fit per series. Each event's lift is also
 partially pooled across the series of a group (:mod:`evcal.panel.pooling`),
 roll-ups fit any level of the keys (:mod:`evcal.panel.rollup`) and the work can
@@ -59,7 +59,7 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
         Write the panel folder there (atomically; the fitted rows are streamed
         to ``fitted.parquet`` instead of being kept in memory).
     **options
-        :class:`evcal.fit.FitOptions` fields. ``errors="auto"`` means OLS with
+        :class:`evcal.model.FitOptions` fields. ``errors="auto"`` means OLS with
         HAC intervals for a panel (the batched solver); ``errors="arima"``
         fits regression with ARIMA errors series by series.
 
@@ -69,7 +69,7 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     """
     from threadpoolctl import threadpool_limits
 
-    from evcal.fit.options import FitOptions
+    from evcal.model.options import FitOptions
     from evcal.panel.distributed import make_runner
     from evcal.panel.memory import arrow_on_system_heap
 
@@ -89,7 +89,7 @@ def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col
 
     panel, keys, levels, cal = read_for_panel(history, series_cols, date_col, value_col, freq, level,
                                               group_col, meanwhile=lambda: _ready_to_fit(calendar))
-    from evcal.panel.engine import fit_long_panel  # imported by _ready_to_fit while the file was read
+    from evcal.engine.run import fit_long_panel  # imported by _ready_to_fit while the file was read
 
     release_freed_memory(arrow=True)
     if out is None:
@@ -119,9 +119,9 @@ def _ready_to_fit(calendar: Any) -> Any:
     """The calendar loaded and the fitting modules imported (done while the file is read)."""
     import importlib
 
-    from evcal.fit.model import load_calendar_any
+    from evcal.model.inputs import load_calendar_any
 
-    for name in ("evcal.panel.engine", "evcal.panel.curved", "evcal.panel.pooling"):
+    for name in ("evcal.engine.run", "evcal.engine.refine", "evcal.panel.pooling"):
         importlib.import_module(name)
     return load_calendar_any(calendar)
 

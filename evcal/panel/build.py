@@ -11,7 +11,8 @@ import pandas as pd
 
 from evcal import __version__
 from evcal.errors import HistoryError
-from evcal.panel.longformat import Panel, read_panel, split_key_option
+from evcal.io.longformat import read_panel, split_key_option
+from evcal.io.panel import Panel
 from evcal.panel.result import PANEL_FORMAT, PANEL_VERSION, PanelResult, key_codes_of, keyed
 
 __all__ = ["read_for_panel", "build_result", "FittedWriter"]
@@ -173,7 +174,7 @@ class FittedWriter:
 def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | None, date_col: str,
                  value_col: str, fitted_path: Path | None) -> PanelResult:
     """Attach the keys, pool the lifts and assemble the series table and settings."""
-    from evcal.fit.model import calendar_text
+    from evcal.model.inputs import calendar_text
     from evcal.panel.pooling import POOLED_COLUMNS, pool_lifts
 
     panel = fit.panel

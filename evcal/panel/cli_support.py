@@ -29,6 +29,6 @@ def show_panel_cmd(model_dir: str, series: str | None, echo: Callable[[str], Non
     if series is None:
         echo(result.summary())
         return
-    from evcal.fit.summary import describe
+    from evcal.model.summary import describe
 
     echo(describe(result.series_result(series)))

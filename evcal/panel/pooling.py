@@ -32,7 +32,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from evcal.effects.tables import Z95
+from evcal.effects import Z95
 
 __all__ = ["dersimonian_laird", "pool_lifts", "POOLED_COLUMNS"]
 

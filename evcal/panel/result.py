@@ -36,8 +36,8 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import ModelError
-from evcal.fit.schema import dumps
 from evcal.formula_safe import formula_safe_frame
+from evcal.model.schema import dumps
 from evcal.panel.schema import PANEL_FILES, PANEL_FORMAT, PANEL_VERSION, read_panel_folder
 
 __all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "PANEL_FORMAT", "PANEL_VERSION",
@@ -184,8 +184,8 @@ class PanelResult:
         the panel's options: the batched solver gives the same numbers (the
         tests check it to 1e-8), so this is the same model.
         """
-        from evcal.fit import fit
-        from evcal.fit.options import FitOptions
+        from evcal.engine import fit
+        from evcal.model.options import FitOptions
 
         full = self.find(key)
         row = self.series.loc[self._mask(full)].iloc[0]
@@ -214,7 +214,7 @@ class PanelResult:
         from concurrent.futures import ThreadPoolExecutor
 
         directory = Path(directory)
-        # non-finite floats as "NaN"/"Infinity"/"-Infinity", as in model.json (evcal.fit.schema)
+        # non-finite floats as "NaN"/"Infinity"/"-Infinity", as in model.json (evcal.model.schema)
         (directory / "panel.json").write_text(dumps(self.settings), encoding="utf-8")
         jobs: list[tuple[Any, ...]] = [
             (write_csv, self.occurrences, directory / "occurrences.csv"),

@@ -25,7 +25,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import HistoryError, PlanError
-from evcal.panel.longformat import Panel
+from evcal.io.panel import Panel
 
 __all__ = ["aggregate", "allocate", "child_base"]
 
@@ -105,7 +105,7 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
 
     from evcal.design.interventions import PERSISTENT
     from evcal.design.matrix import DesignSpec, build_design
-    from evcal.fit.model import load_calendar_any
+    from evcal.model.inputs import load_calendar_any
 
     cal = load_calendar_any(calendar if calendar is not None else children.settings["calendar_text"])
     spec0 = DesignSpec.from_dict(children.settings["design"])

@@ -1,6 +1,6 @@
 """The panel folder's schema: ``panel.json`` (pydantic) and its tables, checked whenever a panel is read.
 
-The panel counterpart of :mod:`evcal.fit.schema`, built from the same pieces:
+The panel counterpart of :mod:`evcal.model.schema`, built from the same pieces:
 the same JSON reader (bare ``NaN`` refused; ``"NaN"``/``"Infinity"`` read back
 where a number may be non-finite), the same value types, the same CSV cell
 checks and the same one-line :class:`~evcal.errors.ModelError` naming the file
@@ -34,7 +34,7 @@ from pydantic import Field, ValidationError
 
 from evcal.design.seasonal import cycle_length
 from evcal.errors import ModelError, clip
-from evcal.fit.schema import (
+from evcal.model.schema import (
     AGAIN,
     Day,
     Design,

@@ -8,7 +8,7 @@ year, and score three methods against what happened:
   events new to the shortened history are planned with no lift, as
   ``--new-events zero``);
 * ``average_share``: each position's mean share of its year over the past
-  full years (the profile :func:`evcal.fit.model.average_share_profile`
+  full years (the profile :func:`evcal.model.inputs.average_share_profile`
   computes from the periods the fit uses), spread over a total: common
   practice, no source;
 * ``seasonal_naive``: last year's value at the same position (for daily data
@@ -86,7 +86,7 @@ def _full_years(periods: pd.PeriodIndex, years: np.ndarray, label: str) -> list[
 def _average_share(res: Any, train_values: pd.Series) -> dict[int, float]:
     if res.average_share:
         return dict(res.average_share)
-    from evcal.fit.model import average_share_profile
+    from evcal.model.inputs import average_share_profile
 
     prof = average_share_profile(train_values)
     return {int(k): float(v) for k, v in prof.items()}
@@ -147,7 +147,7 @@ def backtest(
     progress : bool, optional
         Show a progress bar on stderr (default: when stderr is a terminal).
     **fit_options
-        :class:`evcal.fit.FitOptions` fields, used for every fold's fit.
+        :class:`evcal.model.FitOptions` fields, used for every fold's fit.
 
     Returns
     -------
@@ -168,9 +168,9 @@ def backtest(
     >>> bt = backtest("sales.csv", "calendar.yaml", holdout_years=2)   # doctest: +SKIP
     >>> bt[bt.spread == "spread"].pivot(index="year", columns="method", values="wape")  # doctest: +SKIP
     """
-    from evcal.fit import fit
-    from evcal.fit.model import load_calendar_any
+    from evcal.engine import fit
     from evcal.io import History, read_history
+    from evcal.model.inputs import load_calendar_any
     from evcal.plan.build import plan_periods
 
     if isinstance(holdout_years, bool) or not isinstance(holdout_years, int | np.integer) \

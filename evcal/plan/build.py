@@ -27,7 +27,7 @@ import pandas as pd
 from evcal.design.interventions import PERSISTENT
 from evcal.design.matrix import build_design
 from evcal.design.seasonal import cycle_length
-from evcal.effects.decompose import closure_shares, decompose
+from evcal.effects import closure_shares, decompose
 from evcal.errors import PlanError
 from evcal.plan.horizon import (
     history_end_period,
@@ -49,7 +49,7 @@ def load_plan_calendar(result: Any, calendar: Any) -> Any:
     """The calendar to plan with: the fitted one by default, else a path, YAML text or Calendar."""
     if calendar is None:
         return result.calendar
-    from evcal.fit.model import load_calendar_any
+    from evcal.model.inputs import load_calendar_any
 
     return load_calendar_any(calendar)
 
@@ -121,7 +121,7 @@ def make_plan(
 def _check_finite(table: pd.DataFrame, result: Any) -> None:
     """Stop with one line when the model gives a base or plan that is not a finite number.
 
-    A fit writes finite coefficients (:mod:`evcal.fit.schema` checks them on
+    A fit writes finite coefficients (:mod:`evcal.model.schema` checks them on
     load), but one that is finite and absurd (a constant of 1e308 edited into
     ``model.json``) still overflows on the sales scale; never plan with it.
     """

@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import PlanError
-from evcal.fit.identify import ColumnStatus
+from evcal.model.identify import ColumnStatus
 
 NEW_EVENTS = ("error", "zero")
 

@@ -3,7 +3,7 @@
 The report is built from the files ``evcal fit``, ``evcal plan`` and
 ``evcal backtest`` write, not from in-memory classes, so a report can be made
 on another machine, later, from a folder someone sent. The model folder is
-read by :func:`evcal.fit.schema.read_folder`, the one checked reader that
+read by :func:`evcal.model.schema.read_folder`, the one checked reader that
 ``evcal plan`` and ``evcal show`` use too: a damaged folder is refused with the
 same line naming the file and the key, before any number from it is shown.
 Text cells that evcal wrote with a leading quote (formula-safe CSV,
@@ -84,7 +84,7 @@ def read_model_folder(
         line per problem (a missing column, a value that is not a date or a
         number, with its line in the file).
     """
-    from evcal.fit.schema import read_folder
+    from evcal.model.schema import read_folder
 
     folder = Path(model_dir)
     if (folder / "panel.json").is_file() and not (folder / "model.json").is_file():

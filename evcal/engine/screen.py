@@ -10,11 +10,11 @@ Reasons, in the order they are tested:
 * ``negative values``: a value below zero without ``--allow-negative``
   (for a panel this skips the series instead of stopping the run);
 * ``too short``: fewer values than two seasonal cycles (the single-series
-  fit's rule, :func:`evcal.fit.model.check_history_length`);
+  fit's rule, :func:`evcal.model.inputs.check_history_length`);
 * ``all zeros`` and ``constant``: nothing to estimate a season or a lift from;
 * ``zeros with --transform log``: a log model needs positive values on open periods.
 
-Transforms follow :func:`evcal.fit.model.choose_transform` series by series:
+Transforms follow :func:`evcal.model.inputs.choose_transform` series by series:
 ``auto`` is ``log`` when every open value is positive, ``count`` for whole
 numbers with zeros, ``none`` (additive) otherwise.
 """

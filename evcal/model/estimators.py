@@ -37,6 +37,11 @@ def newey_west_lags(n: int) -> int:
     return max(1, int(math.floor(4 * (n / 100.0) ** (2.0 / 9.0))))
 
 
+def hac_note(lags: int) -> str:
+    """How the covariance of an OLS fit was estimated, as the model's notes say it."""
+    return f"OLS, HAC (Newey-West, {lags} lags) covariance"
+
+
 def hac_covariance(X: np.ndarray, resid: np.ndarray, lags: int) -> np.ndarray:
     """Newey–West HAC covariance of OLS coefficients (Bartlett kernel, no small-sample factor).
 
@@ -90,7 +95,7 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
         aic=float(-2 * llf + 2 * rank),
         nobs=n,
         error_model={"kind": "iid"},
-        cov_note=f"OLS, HAC (Newey-West, {lags} lags) covariance",
+        cov_note=hac_note(lags),
     )
 
 

@@ -1,37 +1,21 @@
-"""Turning a history and a calendar into model inputs, then into a fitted model."""
+"""Turning a history and a calendar into model inputs: the design, the fit rows, the column statuses."""
 
 from __future__ import annotations
 
-import warnings
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from evcal.design.base import period_days, period_mid_years
+from evcal.design.base import period_mid_years
 from evcal.design.interventions import InterventionTerm
 from evcal.design.matrix import Design, DesignSpec, build_design
 from evcal.design.seasonal import base_freq, cycle_length, season_position
-from evcal.errors import CalendarError, EvcalError, HistoryError
-from evcal.fit.estimators import Estimate, fit_arima, fit_count, fit_ols
-from evcal.fit.identify import (
-    MAX_LOG_LIFT,
-    ColumnStatus,
-    check_columns,
-    degenerate_note,
-    degenerate_terms,
-    independent_base_columns,
-    seasonal_share,
-)
-from evcal.fit.options import FitOptions
-
-LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS+HAC for speed
-#: passes of the exact-aggregation refit stop when no log-lift moves more than this
-#: (1e-4 on the log scale is a hundredth of a percentage point: far inside any interval)
-THETA_TOL = 1e-4
-MAX_PASSES = 8
+from evcal.errors import CalendarError, HistoryError
+from evcal.model.identify import ColumnStatus, check_columns, independent_base_columns
+from evcal.model.options import FitOptions
 
 
 @dataclass
@@ -112,7 +96,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     ``identify=False`` skips the identifiability check: every estimable column
     is then marked ``unchecked`` (the panel engine checks each design group's
     own rows instead). ``degenerate`` (column -> note) lists columns an earlier
-    fit flagged with :func:`evcal.fit.identify.degenerate_terms`: they are
+    fit flagged with :func:`evcal.model.identify.degenerate_terms`: they are
     marked ``unidentifiable`` with that note and left out, and so are the
     events that borrow their lift or share their days.
     """
@@ -212,74 +196,6 @@ def model_scale_response(inp: ModelInputs) -> pd.Series:
     return y
 
 
-def estimate(inp: ModelInputs, options: FitOptions, freq: str) -> tuple[Estimate, dict[str, Any]]:
-    """Fit the chosen (or automatically selected) error model.
-
-    Numerical warnings (overflow, division by zero) are not passed on: a
-    degenerate fit is found from its numbers afterwards
-    (:func:`flag_degenerate`) and reported as a note on the event.
-    """
-    with warnings.catch_warnings(), np.errstate(over="ignore", divide="ignore", invalid="ignore"):
-        warnings.simplefilter("ignore", RuntimeWarning)
-        return _estimate(inp, options)
-
-
-def _estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str, Any]]:
-    X = inp.design.X[inp.fitted_cols]
-    y = model_scale_response(inp)
-    if inp.transform == "count":
-        est = fit_count(y, X, inp.offset)
-        return est, {"chosen": est.method, "reason": est.cov_note, "candidates": [
-            {"name": est.method, "criterion": "aic", "value": est.aic}]}
-    if inp.transform == "none":
-        if inp.assumed:
-            # additive: an assumed lift is a share of the base (as the plan applies it,
-            # evcal.effects.decompose), so the base columns carry 1 + sum(lift x column) in each
-            # period; the periods stay in the fit (leaving them out could leave none at all)
-            scale = 1.0 + sum(a * inp.design.X[c].to_numpy() for c, a in inp.assumed.items())
-            base = [c for c in X.columns if inp.design.roles.get(c) in ("trend", "seasonal")]
-            X = X.copy()
-            X[base] = X[base].mul(scale, axis=0)
-        # additive: the open share scales the whole period (rows of X and y alike)
-        share = inp.design.open_share.to_numpy()
-        X = X.mul(np.where(share > 0, share, 1.0), axis=0)
-        y = y * np.where(share > 0, share, 1.0)
-    offset = inp.offset if inp.transform == "log" else pd.Series(0.0, index=inp.periods)
-    if options.errors == "ols":
-        est = fit_ols(y, X, offset)
-        return est, {"chosen": "ols", "reason": "asked for (--errors ols); " + est.cov_note,
-                     "candidates": [{"name": "ols", "criterion": "aic", "value": est.aic}]}
-    if options.errors == "arima":
-        order = options.arima_order or (1, 0, 0)
-        est = fit_arima(y, _drop_const(X, order), offset, order)
-        return est, {"chosen": est.method, "reason": "asked for (--errors arima); " + est.cov_note,
-                     "candidates": [{"name": est.method, "criterion": "aic", "value": est.aic}]}
-    # auto
-    ols = fit_ols(y, X, offset)
-    if len(inp.periods) > LONG_SERIES:
-        return ols, {"chosen": "ols", "reason": (
-            f"long series ({len(inp.periods)} periods): OLS with HAC intervals, which stay valid "
-            "under autocorrelated errors and keep the fit fast"),
-            "candidates": [{"name": "ols", "criterion": "aic", "value": ols.aic}]}
-    cands: list[Estimate] = [ols]
-    for order in ((1, 0, 0), (1, 0, 1)):
-        try:
-            cands.append(fit_arima(y, X, offset, order))
-        except (np.linalg.LinAlgError, ValueError):
-            continue
-    best = min(cands, key=lambda e: e.aic)
-    table = [{"name": e.method, "criterion": "aic", "value": e.aic} for e in cands]
-    reason = (f"lowest AIC among {', '.join(e.method for e in cands)} (same response, "
-              f"comparable Gaussian likelihoods); {best.cov_note}")
-    return best, {"chosen": best.method, "reason": reason, "candidates": table}
-
-
-def _drop_const(X: pd.DataFrame, order: tuple[int, int, int]) -> pd.DataFrame:
-    if order[1] >= 1 and "const" in X.columns:
-        return X.drop(columns=["const"])
-    return X
-
-
 def min_periods(freq: str) -> int:
     return 2 * cycle_length(freq)
 
@@ -329,30 +245,6 @@ def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
         else "check the closures' dates"
     raise CalendarError(f"{calendar.source}: {'; '.join(causes)} of the history's periods: that "
                         f"{message}; {fix} or give a longer history")
-
-
-def flag_degenerate(inp: ModelInputs, est: Estimate, freq: str) -> dict[str, str]:
-    """Fitted event and intervention columns whose estimate is a breakdown; column -> note.
-
-    The rule is :func:`evcal.fit.identify.degenerate_terms` (a bound on the
-    log-lift, finite estimates); the note says why (the event sits in the same
-    period every year, or the history cannot pin it down) and what to do.
-    """
-    roles = inp.design.roles
-    terms = [c for c in inp.fitted_cols if roles.get(c) in ("event", "intervention")]
-    if not terms:
-        return {}
-    se = pd.Series(np.sqrt(np.clip(np.diag(est.cov.to_numpy(dtype=float)), 0, None)), index=est.cov.index)
-    level = 1.0
-    if inp.transform == "none":
-        y = model_scale_response(inp).to_numpy(dtype=float)
-        level = float(np.nanmean(np.abs(y))) if np.isfinite(y).any() else 1.0
-    seen = degenerate_terms(est.params, se, terms, inp.transform, level)
-    base_cols = [c for c in inp.fitted_cols if roles.get(c) in ("trend", "seasonal")]
-    bound = -MAX_LOG_LIFT if inp.transform != "none" else -level
-    return {c: degenerate_note(what, seasonal_share(inp.design.X, inp.rows, base_cols, c),
-                               base_freq(freq), roles.get(c, "event"), nil=float(est.params[c]) < bound)
-            for c, what in seen.items()}
 
 
 def check_history_length(history: Any) -> None:
@@ -409,110 +301,6 @@ def average_share_profile(values: pd.Series, closed: Any = None) -> pd.Series:
     if prof.empty or not prof.sum() > 0:
         return pd.Series(dtype=float)
     return prof / prof.sum()
-
-
-__all__ = ["prepare", "estimate", "check_history_length", "average_share_profile", "EvcalError",
-           "period_days", "load_calendar_any", "calendar_text"]
-
-
-def fitted_theta(inp: ModelInputs, est: Estimate) -> dict[str, float]:
-    """Log-lift of each event column after a pass: fitted, borrowed (like) and assumed."""
-    theta: dict[str, float] = {}
-    for col, st in inp.status.items():
-        if inp.design.roles.get(col) != "event":
-            continue
-        if st.status == "fitted" and col in est.params.index:
-            theta[col] = float(est.params[col])
-        elif st.status == "like" and inp.like_map.get(col) in est.params.index:
-            theta[col] = float(est.params[inp.like_map[col]])
-        elif st.status == "assumed":
-            theta[col] = float(np.log1p(inp.assumed[col]))
-        elif st.status == "duplicate" and st.twin in est.params.index:
-            # shaped like its twin, so the two stay recognisably the same column
-            theta[col] = float(est.params[st.twin])
-    return theta
-
-
-def estimate_exact(history: Any, calendar: Any, options: FitOptions) -> tuple[ModelInputs, Estimate, dict]:
-    """Fit, then refit with event columns that aggregate the fitted daily lifts exactly.
-
-    Daily data need no second pass (each period is one day). For longer
-    periods the log-lifts from one pass set the columns of the next, until
-    they settle (at most ``MAX_PASSES``; typically 2 or 3).
-
-    After every pass, columns whose estimate is a breakdown rather than a lift
-    (:func:`flag_degenerate`) are left out and the pass is fitted again
-    without them; a pass whose lifts run away (a period asking for a bigger
-    change than the event's days can make) is caught the same way.
-    """
-    inp = prepare(history, calendar, options)
-    check_fit_rows(inp, calendar, history)
-    dropped: dict[str, str] = {}
-    inp, est, choice = _fit_flagged(history, calendar, options, None, dropped, inp)
-    if inp.transform == "none" or base_freq(history.freq) == "D":
-        return inp, est, choice
-    theta = fitted_theta(inp, est)
-    # later passes keep the error model the first pass chose (and its reasons)
-    if est.method == "ols":
-        fixed = replace(options, errors="ols")
-    elif est.method.startswith("arima"):
-        fixed = replace(options, errors="arima", arima_order=tuple(est.error_model["order"]))
-    else:
-        fixed = options
-    for _ in range(MAX_PASSES):
-        if not theta:
-            break
-        trial = dict(dropped)
-        inp_next, est_next, _ = _fit_flagged(history, calendar, fixed, theta, trial)
-        ran_away = [c for c in trial if c not in dropped]
-        if ran_away:
-            # A lift that was sound in the previous pass breaks down once its column follows
-            # the fitted daily lift exactly: its periods moved more than the event's days alone
-            # can make them move (a window too short for what happens around the event). Keep
-            # the previous pass, whose share-of-window estimate is finite and fits the periods
-            # (dropping the event would push a moving holiday into the seasonal index), and say so.
-            for c in ran_away:
-                _mark_approximate(inp, c)
-            break
-        inp, est = inp_next, est_next
-        new = fitted_theta(inp, est)
-        moved = max((abs(new.get(k, 0.0) - theta.get(k, 0.0)) for k in set(new) | set(theta)), default=0.0)
-        theta = new
-        if moved < THETA_TOL:
-            break
-    return inp, est, choice
-
-
-#: the note on a lift whose exact refit ran away (see :func:`estimate_exact`)
-APPROXIMATE_NOTE = (
-    "approximate: the periods around this event moved more than its own days can explain (its window "
-    "may be too short, e.g. the days after a holiday fall too), so the lift could not be refitted to "
-    "the exact days and is the share-of-window estimate; widen before/after, or fit daily data")
-
-
-def _mark_approximate(inp: ModelInputs, column: str) -> None:
-    st = inp.status.get(column)
-    if st is not None and st.status == "fitted":
-        inp.status[column] = ColumnStatus("fitted", APPROXIMATE_NOTE)
-
-
-def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[str, float] | None,
-                 dropped: dict[str, str], inp: ModelInputs | None = None,
-                 ) -> tuple[ModelInputs, Estimate, dict[str, Any]]:
-    """One pass: fit, leave out the columns :func:`flag_degenerate` flags, refit until none is.
-
-    ``dropped`` collects the flagged columns and their notes across passes.
-    Each round leaves out at least one more column, so it ends.
-    """
-    while True:
-        if inp is None:
-            inp = prepare(history, calendar, options, theta=theta, degenerate=dropped)
-        est, choice = estimate(inp, options, history.freq)
-        flagged = flag_degenerate(inp, est, history.freq)
-        if not flagged:
-            return inp, est, choice
-        dropped.update(flagged)
-        inp = None
 
 
 def term_info(calendar: Any) -> dict[str, dict[str, Any]]:

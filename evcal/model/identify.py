@@ -26,6 +26,7 @@ note from :func:`degenerate_note` that says why and what to do.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -215,7 +216,7 @@ def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], trans
     >>> sorted(degenerate_terms(p, s, ["a", "b", "c"], "log"))
     ['b', 'c']
     """
-    bound = MAX_LOG_LIFT if transform != "none" else MAX_LEVEL_RATIO * abs(level or 1.0)
+    bound = _bound(transform, level)
     out: dict[str, str] = {}
     for c in columns:
         if c not in params.index:
@@ -233,6 +234,34 @@ def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], trans
             out[c] = (f"the fit gave {_size(b, transform)} with a 95 % interval wider than {scale} "
                       f"(standard error {s:.3g})")
     return out
+
+
+def _bound(transform: str, level: Any = 1.0) -> Any:
+    """Largest size a coefficient may have before it is a breakdown (log scale, or units for additive)."""
+    if transform != "none":
+        return MAX_LOG_LIFT
+    level = np.abs(np.asarray(level, dtype=float))
+    return MAX_LEVEL_RATIO * np.where((level > 0) & np.isfinite(level), level, 1.0)
+
+
+def breakdown(params: np.ndarray, se: np.ndarray | None, transform: str, level: Any = 1.0) -> np.ndarray:
+    """For many series (columns), whether any coefficient (rows) breaks :func:`degenerate_terms`' rule.
+
+    ``se`` None checks the coefficients alone (a first pass whose standard
+    errors were not computed).
+
+    Examples
+    --------
+    >>> b = np.array([[0.3, -73.8], [0.1, 0.2]])
+    >>> breakdown(b, np.full((2, 2), 0.05), "log").tolist()
+    [False, True]
+    """
+    bound = _bound(transform, level)
+    with np.errstate(invalid="ignore"):
+        bad = ~np.isfinite(params) | (np.abs(params) > bound)
+        if se is not None:
+            bad |= ~np.isfinite(se) | (Z95 * se > bound)
+    return bad.any(axis=0)
 
 
 def _size(b: float, transform: str) -> str:

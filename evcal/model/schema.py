@@ -1,6 +1,6 @@
 """The model folder's schema: ``model.json`` (pydantic) and the four CSVs, checked whenever a folder is read.
 
-One reader for every consumer: :func:`evcal.fit.load_model` (``plan``, ``show``)
+One reader for every consumer: :func:`evcal.model.load_model` (``plan``, ``show``)
 and :func:`evcal.report.model_folder.read_model_folder` (``report``, the
 workbook) both call :func:`read_folder`, so a damaged folder is refused the same
 way everywhere, with one line naming the file and the key, before any number

@@ -9,7 +9,7 @@ The HAC (Newey–West 1987, Bartlett kernel) covariance of series ``s`` is the
 sandwich ``H Sₛ H`` with ``H = (XᵀX)⁻¹`` and the "meat"
 ``Sₛ = Γ₀ + Σₗ wₗ (Γₗ + Γₗᵀ)``, ``Γₗ = Σₜ xₜ eₜ eₜ₋ₗ xₜ₋ₗᵀ``,
 ``wₗ = 1 − l/(L+1)`` (statsmodels' ``cov_hac_simple`` without small-sample
-correction, which :func:`evcal.fit.estimators.fit_ols` uses). Writing
+correction, which :func:`evcal.model.estimators.fit_ols` uses). Writing
 ``Z = X H`` and ``Vₜ = Zₜ eₜ`` the whole sandwich is ``A + Aᵀ`` with
 ``A = Σₜ Vₜ (½ Vₜ + Σₗ wₗ Vₜ₋ₗ)ᵀ``: one batched matrix product per block of
 series instead of a sandwich per series. The lag window is the Newey–West
@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from evcal.fit.estimators import newey_west_lags
+from evcal.model.estimators import newey_west_lags
 
 __all__ = ["SharedSolve", "hac_covariances", "bartlett_weights"]
 

@@ -12,9 +12,10 @@ import pandas as pd
 from evcal import __version__
 from evcal._files import atomic_dir
 from evcal.design.matrix import DesignSpec
-from evcal.fit.identify import ColumnStatus
-from evcal.fit.options import FitOptions
-from evcal.fit.schema import (
+from evcal.formula_safe import write_csv
+from evcal.model.identify import ColumnStatus
+from evcal.model.options import FitOptions
+from evcal.model.schema import (
     FORMAT_VERSION,
     MODEL_FILES,
     check_consistency,
@@ -24,7 +25,6 @@ from evcal.fit.schema import (
     read_folder,
     validate_model_json,
 )
-from evcal.formula_safe import write_csv
 
 __all__ = ["FitResult", "load_model", "json_safe", "FORMAT_VERSION", "MODEL_FILES"]
 
@@ -154,7 +154,7 @@ class FitResult:
 
     @classmethod
     def from_json(cls, d: dict[str, Any], source: str | Path = "model.json") -> FitResult:
-        """A model from the contents of ``model.json``, checked first (:mod:`evcal.fit.schema`).
+        """A model from the contents of ``model.json``, checked first (:mod:`evcal.model.schema`).
 
         Raises
         ------
@@ -214,7 +214,7 @@ def load_model(directory: str | Path) -> FitResult:
     ------
     ModelError
         A file is missing, unreadable, from another format version, or damaged: one line
-        naming the file and the key (see :func:`evcal.fit.schema.read_folder`).
+        naming the file and the key (see :func:`evcal.model.schema.read_folder`).
 
     Examples
     --------

@@ -22,83 +22,14 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-import pandas as pd
 
-from evcal.design.base import day_span, period_days
-from evcal.design.dayweights import aggregate_day_weights
-from evcal.panel.batched import bartlett_weights
+from evcal.design.curved import CurvedEvents
+from evcal.engine.batched import bartlett_weights
 
-__all__ = ["CurvedEvents", "curved_columns", "refine", "MAX_PASSES", "THETA_TOL"]
+__all__ = ["curved_columns", "design_with_theta", "refine"]
 
-# the same stopping rule as the single-series fit (evcal.fit.model.estimate_exact)
-from evcal.fit.model import MAX_PASSES, THETA_TOL  # noqa: E402
-
-
-class CurvedEvents:
-    """Event columns on ``periods`` as functions of θ, from the calendar's daily intensities.
-
-    Parameters
-    ----------
-    calendar : Calendar
-    names : list of str
-        Event columns (as ``calendar.event_columns()`` names them).
-    periods : PeriodIndex
-    """
-
-    def __init__(self, calendar: Any, names: list[str], periods: pd.PeriodIndex) -> None:
-        self.periods = periods
-        self.basis: dict[str, tuple[np.ndarray, np.ndarray]] = {}
-        self.touched: dict[str, np.ndarray] = {}  # periods that hold some of the event's days
-        colmap = calendar.event_columns()
-        wanted = sorted({colmap[c] for c in names if c in colmap})
-        if not wanted:
-            return
-        start, end = day_span(periods)
-        daily = calendar.day_weights(start, end, normalize="none", events=wanted)
-        days = period_days(periods)
-        closed = calendar.closed_days(start, end).reindex(daily.index, fill_value=False)
-        if closed.any():  # closed days carry no lift; the mean is over the open days
-            daily = daily.mul(~closed.to_numpy(), axis=0)
-            shut = aggregate_day_weights(closed.astype(float).to_frame("closed"), periods)
-            days = np.maximum(days - shut["closed"].to_numpy(dtype=float), 1.0)
-        codes = periods.get_indexer(daily.index.to_period(periods.freq))
-        inside = codes >= 0
-        for n in names:
-            if n not in daily.columns:
-                continue
-            w = daily[n].to_numpy(dtype=float)
-            nz = inside & (w != 0)
-            vals, inv = np.unique(w[nz], return_inverse=True)
-            counts = np.zeros((len(periods), len(vals)))
-            np.add.at(counts, (codes[nz], inv), 1.0)
-            self.basis[n] = (vals, counts / days[:, None])
-            self.touched[n] = np.flatnonzero(counts.any(axis=1))
-
-    def column(self, name: str, theta: np.ndarray, at: np.ndarray | None = None) -> np.ndarray:
-        """Column ``name`` for each θ: shape (len(theta), periods); zeros if the calendar has none.
-
-        ``at`` restricts the result to those period positions.
-        """
-        theta = np.asarray(theta, dtype=float)
-        n_out = len(self.periods) if at is None else len(at)
-        if name not in self.basis:
-            return np.zeros((len(theta), n_out))
-        vals, share = self.basis[name]
-        if at is not None:
-            share = share[at]
-        # periods with none of the event's days are zero for every θ: compute the others only
-        touched = np.flatnonzero(share.any(axis=1)) if at is not None else self.touched[name]
-        share = share[touched]
-        out = np.zeros((len(theta), n_out))
-        linear = share @ vals
-        sub = np.broadcast_to(linear, (len(theta), len(touched))).copy()
-        bent = np.abs(theta) > 1e-9
-        if bent.any():
-            t = theta[bent]
-            mean = np.expm1(t[:, None] * vals[None, :]) @ share.T
-            sub[bent] = np.log1p(np.clip(mean, -0.999999, None)) / t[:, None]
-        out[:, touched] = sub
-        return out
+# the same stopping rule as the single-series fit (evcal.model.passes.estimate_exact)
+from evcal.model.passes import MAX_PASSES, THETA_TOL  # noqa: E402
 
 
 def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
@@ -151,6 +82,31 @@ def _theta_sources(group: Any) -> dict[str, str]:
 def curved_columns(curve: CurvedEvents, group: Any, theta: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
     """Each series' raw (unmerged) event columns for its θ: {column: (m, n)}."""
     return {col: curve.column(col, theta[src]) for col, src in _theta_sources(group).items() if src in theta}
+
+
+def design_with_theta(curve: CurvedEvents, group: Any, rows: np.ndarray, X_fit: np.ndarray,
+                      theta: dict[str, np.ndarray]) -> tuple[np.ndarray, dict[str, float]]:
+    """One series' final design on the fit rows, and the θ of every event column it was built with.
+
+    The event columns of ``X_fit`` (the first pass's, linear) are replaced by
+    the curved columns for the series' θ (``theta``: source column -> (1,)),
+    with borrowed (``like``) columns added into their target, as the fit's
+    last pass built them; assumed lifts aggregate with their own lift.
+    """
+    X = X_fit.copy()
+    idx = {c: i for i, c in enumerate(group.fitted_cols)}
+    cols = curved_columns(curve, group, theta)
+    for c, v in cols.items():
+        st = group.status[c]
+        target = c if st.status == "fitted" else group.like_map.get(c) if st.status == "like" else None
+        if target in idx and st.status == "fitted":
+            X[:, idx[c]] = v[0, rows]
+    for c, v in cols.items():
+        if group.status[c].status == "like" and group.like_map.get(c) in idx:
+            X[:, idx[group.like_map[c]]] += v[0, rows]
+    used = {c: float(theta[src][0]) for c, src in _theta_sources(group).items() if src in theta}
+    used.update({c: float(np.log1p(a)) for c, a in group.assumed.items()})
+    return X, used
 
 
 @dataclass

@@ -1,0 +1,97 @@
+"""Event columns as functions of the fitted log-lift θ: the exact share-of-window aggregation.
+
+An event's column in a period is the mean daily intensity over the period's
+open days (:mod:`evcal.design.events`). That linear form is exact for daily
+data; for a period only partly covered it treats the lift as additive in logs,
+while a lift multiplies each window day. Given θ the period's column is
+``log(1 + mean over its open days of (exp(θ w_d) − 1)) / θ`` for day
+intensities ``w_d``, so column × θ is the exact log-effect and θ keeps its
+meaning "log-lift on the window days" at every frequency. θ = 0 gives the
+linear column.
+
+A period's column depends only on the *distinct* day intensities in it and on
+how many open days carry each: :class:`CurvedEvents` keeps those counts, so
+the columns of a thousand θ values (the series of a panel, or one series'
+fixed-point passes) are one small matrix product per event. This is the only
+place the aggregation with a lift is computed: the design (history and plan)
+and the fit's passes all call it.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import day_span, period_days
+from evcal.design.dayweights import aggregate_day_weights
+
+__all__ = ["CurvedEvents"]
+
+
+class CurvedEvents:
+    """Event columns on ``periods`` as functions of θ, from the calendar's daily intensities.
+
+    Parameters
+    ----------
+    calendar : Calendar
+    names : list of str
+        Event columns (as ``calendar.event_columns()`` names them).
+    periods : PeriodIndex
+    """
+
+    def __init__(self, calendar: Any, names: list[str], periods: pd.PeriodIndex) -> None:
+        self.periods = periods
+        self.basis: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+        self.touched: dict[str, np.ndarray] = {}  # periods that hold some of the event's days
+        colmap = calendar.event_columns()
+        wanted = sorted({colmap[c] for c in names if c in colmap})
+        if not wanted:
+            return
+        start, end = day_span(periods)
+        daily = calendar.day_weights(start, end, normalize="none", events=wanted)
+        days = period_days(periods)
+        closed = calendar.closed_days(start, end).reindex(daily.index, fill_value=False)
+        if closed.any():  # closed days carry no lift; the mean is over the open days
+            daily = daily.mul(~closed.to_numpy(), axis=0)
+            shut = aggregate_day_weights(closed.astype(float).to_frame("closed"), periods)
+            days = np.maximum(days - shut["closed"].to_numpy(dtype=float), 1.0)
+        codes = periods.get_indexer(daily.index.to_period(periods.freq))
+        inside = codes >= 0
+        for n in names:
+            if n not in daily.columns:
+                continue
+            w = daily[n].to_numpy(dtype=float)
+            nz = inside & (w != 0)
+            vals, inv = np.unique(w[nz], return_inverse=True)
+            counts = np.zeros((len(periods), len(vals)))
+            np.add.at(counts, (codes[nz], inv), 1.0)
+            self.basis[n] = (vals, counts / days[:, None])
+            self.touched[n] = np.flatnonzero(counts.any(axis=1))
+
+    def column(self, name: str, theta: np.ndarray, at: np.ndarray | None = None) -> np.ndarray:
+        """Column ``name`` for each θ: shape (len(theta), periods); zeros if the calendar has none.
+
+        ``at`` restricts the result to those period positions.
+        """
+        theta = np.asarray(theta, dtype=float)
+        n_out = len(self.periods) if at is None else len(at)
+        if name not in self.basis:
+            return np.zeros((len(theta), n_out))
+        vals, share = self.basis[name]
+        if at is not None:
+            share = share[at]
+        # periods with none of the event's days are zero for every θ: compute the others only
+        touched = np.flatnonzero(share.any(axis=1)) if at is not None else self.touched[name]
+        share = share[touched]
+        out = np.zeros((len(theta), n_out))
+        linear = share @ vals
+        sub = np.broadcast_to(linear, (len(theta), len(touched))).copy()
+        bent = np.abs(theta) > 1e-9
+        if bent.any():
+            t = theta[bent]
+            mean = np.expm1(t[:, None] * vals[None, :]) @ share.T
+            sub[bent] = np.log1p(np.clip(mean, -0.999999, None)) / t[:, None]
+        out[:, touched] = sub
+        return out

@@ -1,0 +1,123 @@
+"""One lift per event column and intervention, with its interval, and the seasonal index, for m series.
+
+A lift's 95 % interval is the coefficient's interval (beta ± 1.96 se, from
+the fit's covariance: HAC for OLS) mapped through the monotone transform
+100 (exp(b) - 1); for the additive model, divided by the mean base of the
+event's periods.
+"""
+
+from __future__ import annotations
+
+import functools
+from typing import Any
+
+import numpy as np
+
+from evcal.design.seasonal import AnnualFourier, SeasonalDummies, base_freq, cycle_length
+from evcal.effects.columns import Columns, tiled_text
+from evcal.effects.occurrences import Z95
+from evcal.effects.span import GroupInfo, SpanContext
+
+__all__ = ["lifts_columns", "profile_columns", "LIFT_COLUMNS"]
+
+LIFT_COLUMNS = ["event", "lift_pct", "low_pct", "high_pct", "units_per_occurrence", "identifiable", "note"]
+
+
+def _pct(b: np.ndarray, transform: str, scale: np.ndarray | float) -> np.ndarray:
+    if transform == "none":
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(scale != 0, 100.0 * b / scale, np.nan)
+    return 100.0 * np.expm1(b)
+
+
+def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
+           pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], occ: Columns,
+           sids: np.ndarray) -> Columns:
+    """The lifts table for m series: one row per series and column."""
+    m = len(sids)
+    nan = np.full(m, np.nan)
+    n_occ = len(ctx.occs)
+    occ_events = [o.event for o in ctx.occs]
+    added = np.asarray(occ["added_units"]).reshape(m, n_occ) if n_occ else np.zeros((m, 0))
+
+    def units_of(ev: str) -> np.ndarray:
+        idx = [i for i, e in enumerate(occ_events) if e == ev]
+        return added[:, idx].mean(axis=1) if idx else nan
+
+    rows: list[dict[str, Any]] = []
+    for col, st in group.status.items():
+        kind = "intervention" if col in group.intervention_names else "event"
+        info = group.event_info.get(col, {})
+        scale: np.ndarray | float = 1.0
+        if group.transform == "none" and col in ctx.raw.columns:
+            active = ctx.columns[col] > 0
+            scale = base[:, active].mean(axis=1) if active.any() else nan
+        lift = low = high = nan
+        if st.status in ("fitted", "like"):
+            src = col if st.status == "fitted" else group.like_map.get(col, "")
+            if src in pmap:
+                b, s = pmap[src], se_map[src]
+                lift = _pct(b, group.transform, scale)
+                low = _pct(b - Z95 * s, group.transform, scale)
+                high = _pct(b + Z95 * s, group.transform, scale)
+        elif st.status == "assumed":
+            lift = low = high = np.full(m, 100.0 * group.assumed[col])
+        ev_name = info.get("event", col)
+        if kind == "event":
+            units = units_of(ev_name)
+        elif col in parts and st.status == "fitted":
+            units = parts[col].sum(axis=1)
+        else:
+            units = nan
+        rows.append({"event": col, "lift_pct": lift, "low_pct": low, "high_pct": high,
+                     "units_per_occurrence": units,
+                     "identifiable": st.status in ("fitted", "like", "assumed"),
+                     "note": st.note, "kind": kind, "label": info.get("label", col),
+                     "_fitted": st.status == "fitted"})
+    for ev in group.closure_events:
+        rows.append({"event": ev, "lift_pct": np.full(m, -100.0), "low_pct": np.full(m, -100.0),
+                     "high_pct": np.full(m, -100.0), "units_per_occurrence": units_of(ev),
+                     "identifiable": True, "note": "closure (effect: zero): known zero, kept out of the fit",
+                     "kind": "event", "label": group.event_labels.get(ev, ev), "_fitted": False})
+    r = len(rows)
+    out: dict[str, Any] = {"_sid": np.repeat(sids, r)}
+    for c in LIFT_COLUMNS + ["kind", "label", "_fitted"]:
+        if not rows:
+            out[c] = []
+        elif isinstance(rows[0][c], np.ndarray):
+            out[c] = np.column_stack([row[c] for row in rows]).ravel()
+        elif c in ("identifiable", "_fitted"):
+            out[c] = np.tile(np.array([row[c] for row in rows], dtype=bool), m)
+        else:
+            out[c] = tiled_text([row[c] for row in rows], m)
+    return Columns(out)
+
+
+def profile_columns(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarray,
+             sids: np.ndarray) -> Columns:
+    """The seasonal index over one annual cycle (mean 100, free of events) for m series."""
+    spec = group.spec
+    m = len(sids)
+    names, cycle = _season_cycle(spec.freq, spec.seasonal, spec.fourier_order)
+    beta = np.vstack([pmap.get(c, np.zeros(m)) for c in names])
+    s = cycle @ beta
+    if group.transform == "none":
+        level = np.where(mean_base != 0, mean_base, 1.0)
+        vals = level[None, :] + s - s.mean(axis=0)
+        idx = 100.0 * vals / vals.mean(axis=0)
+    else:
+        e = np.exp(s - s.max(axis=0))
+        idx = 100.0 * e / e.mean(axis=0)
+    p = cycle_length(spec.freq)
+    return Columns({"_sid": np.repeat(sids, p), "period": np.tile(np.arange(1, p + 1), m),
+                    "index": idx[:p].T.ravel()})
+
+
+@functools.lru_cache(maxsize=16)
+def _season_cycle(freq: str, seasonal: str, fourier_order: int) -> tuple[tuple[str, ...], np.ndarray]:
+    """The seasonal columns over one cycle (as profile_table builds them), made once per design."""
+    daily = base_freq(freq) == "D" or seasonal == "fourier"
+    cycle = AnnualFourier(fourier_order).cycle() if daily else SeasonalDummies(freq).cycle()
+    values = cycle.to_numpy(dtype=float)
+    values.setflags(write=False)
+    return tuple(cycle.columns), values

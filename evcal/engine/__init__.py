@@ -1,0 +1,81 @@
+"""The engine: one fit for a ``periods × series`` block; a single series is a block of one.
+
+Examples
+--------
+>>> import evcal                                     # doctest: +SKIP
+>>> res = evcal.fit("demo/fernhollow-history.csv",   # doctest: +SKIP
+...                 "demo/fernhollow-calendar.yaml")
+>>> res.lifts[["event", "lift_pct", "low_pct", "high_pct"]]  # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from typing import Any
+
+from evcal.engine.run import PanelFit, fit_long_panel
+from evcal.engine.series import adopt_tables, new_result
+from evcal.engine.units import BlockModel
+from evcal.model.estimators import hac_note
+from evcal.model.inputs import ModelInputs, check_fit_rows, check_history_length, load_calendar_any, prepare
+from evcal.model.options import FitOptions
+from evcal.model.passes import ols_choice
+from evcal.model.result import FitResult
+
+__all__ = ["fit", "fit_long_panel", "PanelFit"]
+
+
+def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col: str = "value",
+        freq: str | None = None, **options: Any) -> FitResult:
+    """Fit base, event lifts and interventions to a history.
+
+    The series is fitted by the same engine as every series of a panel (a
+    panel of one): OLS in a block of one, or the per-series estimators (ARIMA
+    errors, count models, the automatic choice by AIC).
+
+    Parameters
+    ----------
+    history : path, DataFrame or evcal.io.History
+        The series (see :func:`evcal.io.read_history`).
+    calendar : path, YAML text, Calendar or None
+        The event calendar.
+    date_col, value_col, freq
+        Passed to :func:`evcal.io.read_history`.
+    **options
+        :class:`~evcal.model.FitOptions` fields: ``transform``, ``errors``, ``arima_order``,
+        ``seasonal``, ``fourier_order``, ``trend_order``, ``trading_days``,
+        ``allow_negative``.
+
+    Returns
+    -------
+    FitResult
+    """
+    from evcal.io import History, read_history
+    from evcal.io.panel import Panel
+
+    opts = FitOptions(**options)
+    hist = history if isinstance(history, History) else read_history(
+        history, date_col=date_col, value_col=value_col, freq=freq, allow_negative=opts.allow_negative)
+    cal = load_calendar_any(calendar)
+    check_history_length(hist)
+    inp = prepare(hist, cal, opts)
+    check_fit_rows(inp, cal, hist)
+    block = fit_long_panel(Panel.of_history(hist), cal, opts, single=inp)
+    model = block.models[0]
+    if isinstance(model, FitResult):
+        return model
+    return _from_block(hist, cal, opts, inp, model)
+
+
+def _from_block(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, model: BlockModel
+                ) -> FitResult:
+    """The :class:`FitResult` of a series solved in a block of one."""
+    note = hac_note(model.lags)
+    choice = {**ols_choice(model.aic, note, options, len(inp.periods)), "covariance": note,
+              "transform": inp.transform}
+    spec = replace(model.group.info.spec, event_theta=model.theta)
+    result = new_result(history, calendar, options, inp, params=model.params, cov=model.cov,
+                        sigma2=model.sigma2, smear=model.smear, error_model={"kind": "iid"},
+                        model_choice=choice, spec=spec, status=model.group.info.status)
+    adopt_tables(result, model.tables, inp)
+    return result

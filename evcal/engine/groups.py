@@ -1,0 +1,189 @@
+"""Series that share a design: the shared model inputs, the fit-row patterns, one factorisation each.
+
+Series share a design when they have the same transform, the same trend
+origin (the year their history starts) and the same *fit-row pattern* (which
+periods have a value; exclusions and closures are shared through the
+calendar). Each group gets its own identifiability check, exactly as a single
+series would (:func:`evcal.model.identify.check_columns` on its rows), and one
+QR factorisation.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.base import period_mid_years
+from evcal.design.seasonal import base_freq
+from evcal.design.trend import Trend
+from evcal.effects import GroupInfo
+from evcal.engine.batched import SharedSolve
+from evcal.io.history import History
+from evcal.io.panel import Panel
+from evcal.model.identify import check_columns, independent_base_columns
+from evcal.model.inputs import prepare, term_info
+from evcal.model.options import FitOptions
+from evcal.model.passes import LONG_SERIES
+
+__all__ = ["Template", "Group", "group_info", "distinct_spans", "pattern_ids", "batched_route"]
+
+
+def batched_route(options: FitOptions, n_series: int, n_periods: int) -> bool:
+    """Whether series with a log or additive model are solved in blocks (OLS + HAC) or one by one.
+
+    ``--errors ols`` is always solved in blocks. ``--errors auto`` chooses the
+    error model by AIC among OLS and ARIMA(1,0,0)/(1,0,1) errors series by
+    series (:func:`evcal.model.passes.estimate`), except for a panel (one
+    choice per series would cost a state-space fit each) and for a series
+    longer than :data:`~evcal.model.passes.LONG_SERIES` periods, which keep
+    OLS with HAC intervals. ARIMA errors and count models are per series.
+    """
+    if options.errors == "ols":
+        return True
+    return options.errors == "auto" and (n_series > 1 or n_periods > LONG_SERIES)
+
+
+@dataclass
+class Template:
+    """:func:`evcal.model.inputs.prepare` on a placeholder series covering the whole panel.
+
+    Everything that does not depend on a series' values (design, offset,
+    exclusions, closures, assumed and borrowed lifts) is computed once here.
+    """
+
+    transform: str
+    inp: Any  # ModelInputs
+    raw: pd.DataFrame  # unmerged design (like-events apart), for the tables
+    mid_years: np.ndarray
+    calendar: Any = None
+    periods: Any = None
+    _curve: Any = None
+
+    @classmethod
+    def build(cls, panel: Panel, calendar: Any, options: FitOptions, transform: str,
+              inputs: Any = None) -> Template:
+        """The shared inputs of ``panel``'s series with ``transform`` (``inputs``: a panel of one's own)."""
+        if inputs is not None:
+            inp = inputs
+        else:
+            placeholder = History(pd.Series(1.0, index=panel.periods, name="value"), panel.freq, panel.label,
+                                  panel.source, [])
+            # each design group is checked on its own rows (group_info): not the placeholder's
+            inp = prepare(placeholder, calendar, replace(options, transform=transform), identify=False)
+        raw = inp.raw_X
+        return cls(transform, inp, raw, period_mid_years(panel.periods), calendar, panel.periods)
+
+    def curve(self) -> Any:
+        """Event columns as functions of θ, when the single-series fit aggregates lifts exactly.
+
+        :func:`evcal.model.passes.estimate_exact` refits weekly, monthly and quarterly
+        log-link models with each event column built from the series' own lift;
+        additive models and daily data keep the linear columns.
+        """
+        if self.transform == "none" or base_freq(self.inp.spec.freq) == "D":
+            return None
+        if self._curve is None:
+            from evcal.design.curved import CurvedEvents
+
+            spec = self.inp.spec
+            self._curve = CurvedEvents(self.calendar, list(spec.event_columns), self.periods)
+        return self._curve
+
+    def origins(self, first: np.ndarray) -> np.ndarray:
+        """Trend origins of series whose histories start at periods ``first`` (as prepare sets them)."""
+        return np.floor(self.mid_years[np.asarray(first, dtype=int)]).astype(float)
+
+    def with_origin(self, frame: pd.DataFrame, origin: float) -> pd.DataFrame:
+        spec = self.inp.spec
+        if origin == spec.trend_origin:
+            return frame
+        trend = Trend(origin, spec.trend_order, spec.constant).columns(frame.index)
+        out = frame.copy()
+        for c in trend.columns:
+            out[c] = trend[c].to_numpy()
+        return out
+
+
+@dataclass
+class Group:
+    """Series that share a design: one factorisation, one set of column statuses."""
+
+    gid: int
+    transform: str
+    origin: float
+    rows: np.ndarray  # bool over the panel's periods
+    members: np.ndarray  # series positions
+    info: GroupInfo
+    solve: SharedSolve | None
+    notes: list[str] = field(default_factory=list)
+    offset: np.ndarray | None = None  # model-scale offset on the fit rows
+    share: np.ndarray | None = None  # open share on the fit rows (additive model)
+    curve: Any = None  # CurvedEvents on the panel's periods, when lifts are aggregated exactly
+    refine_cache: dict[str, Any] = field(default_factory=dict)  # refine's group-level inputs, made once
+
+
+def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: float
+                ) -> tuple[GroupInfo, np.ndarray, np.ndarray, list[str]]:
+    """Fit rows, column statuses and the fit matrix for one observed pattern (prepare's last steps)."""
+    inp = template.inp
+    rows = observed & inp.rows
+    roles = inp.design.roles
+    X = template.with_origin(inp.design.X, origin)
+    all_base = [c for c in X.columns if roles[c] in ("trend", "seasonal")]
+    base_cols = independent_base_columns(X, rows, all_base)
+    fixed = {c: st for c, st in inp.status.items() if st.status in ("assumed", "like")}
+    candidates = [c for c in inp.status if c not in fixed]
+    status = check_columns(X, rows, base_cols, candidates, {c: roles[c] for c in X.columns})
+    status.update(fixed)
+    fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
+    spec = replace(inp.spec, trend_origin=origin)
+    event_info = term_info(calendar)
+    info = GroupInfo(
+        transform=template.transform, status=status, fitted_cols=fitted_cols, base_columns=all_base,
+        like_map=dict(inp.like_map), assumed=dict(inp.assumed),
+        intervention_names=[t["name"] for t in spec.interventions],
+        closure_events=[e.name for e in calendar.events if e.effect.kind == "zero"],
+        event_info=event_info, event_labels={e.name: e.label for e in calendar.events}, spec=spec,
+        roles=dict(roles))
+    Xf = np.array(X.loc[rows, fitted_cols], dtype=float)  # written into below: a copy
+    notes = list(inp.notes)
+    if template.transform == "none":
+        if inp.assumed:  # as evcal.model.passes._estimate: the base carries the assumed lifts
+            scale = 1.0 + sum(a * X[c].to_numpy() for c, a in inp.assumed.items())
+            is_base = np.array([roles.get(c) in ("trend", "seasonal") for c in fitted_cols])
+            Xf[:, is_base] = Xf[:, is_base] * scale[rows][:, None]
+        share = inp.design.open_share.to_numpy()
+        Xf = Xf * np.where(share > 0, share, 1.0)[rows][:, None]  # the additive model scales rows
+    for c, st in status.items():
+        if st.status in ("unidentifiable", "duplicate"):
+            notes.append(f"{c}: {st.note}")
+        elif st.status == "no_history":
+            notes.append(f"{c}: no occurrence in the history; listed, not fitted")
+    return info, rows, Xf, notes
+
+
+def distinct_spans(spans: np.ndarray, n_periods: int) -> list[tuple[int, int]]:
+    """The distinct (first, last) rows of ``spans``, in sorted order."""
+    code = np.unique(spans[:, 0].astype(np.int64) * (n_periods + 1) + spans[:, 1])
+    return [(int(c // (n_periods + 1)), int(c % (n_periods + 1))) for c in code]
+
+
+def pattern_ids(obs: np.ndarray, keys: list[np.ndarray]) -> np.ndarray:
+    """One id per distinct (extra keys, observed-rows pattern) among the columns of ``obs``."""
+    packed = np.packbits(obs, axis=0).T  # (series, bytes)
+    extra = np.column_stack([np.asarray(k, dtype=np.int64) for k in keys]) if keys else \
+        np.zeros((obs.shape[1], 0), dtype=np.int64)
+    table = np.concatenate([extra.view(np.uint8).reshape(obs.shape[1], -1), packed], axis=1)
+    table = np.ascontiguousarray(table)
+    rows = table.view(np.dtype((np.void, table.shape[1]))).ravel()
+    _, first, inv = np.unique(rows, return_index=True, return_inverse=True)
+    # number groups in order of their first series, so group ids follow the key order
+    order = np.argsort(first, kind="stable")
+    rank = np.empty_like(order)
+    rank[order] = np.arange(len(order))
+    return rank[inv.ravel()]
+
+

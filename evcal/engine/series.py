@@ -1,0 +1,141 @@
+"""One series' fitted model: the per-series estimators' path and the fields every fit result carries.
+
+ARIMA errors, count models and the automatic choice among error models are
+fitted one series at a time (:func:`fit_series`); series that share a design
+and use OLS are solved in blocks (:mod:`evcal.engine.units`). Both end in a
+:class:`~evcal.model.FitResult` built by :func:`new_result`, with its tables
+from the one table builder (:func:`evcal.effects.block_tables`).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.seasonal import cycle_length
+from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
+from evcal.model.inputs import ModelInputs, average_share_profile, calendar_text, term_info
+from evcal.model.options import FitOptions
+from evcal.model.passes import estimate_exact
+from evcal.model.result import FitResult
+
+__all__ = ["fit_series", "new_result", "adopt_tables"]
+
+
+def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None) -> FitResult:
+    """Fit one series with the per-series estimators (OLS, ARIMA errors, count GLM or the AIC choice).
+
+    ``inp`` is the series' prepared and checked inputs, when the caller has them.
+    """
+    inp, est, choice = estimate_exact(history, calendar, options, inp)
+    rows = inp.rows
+    if inp.transform != "none" and est.error_model.get("kind") != "arima":
+        smear = float(np.nanmean(np.exp(est.resid[rows]))) if inp.transform == "log" else 1.0
+    elif inp.transform == "log":
+        smear = float(np.exp(est.sigma2 / 2.0))
+    else:
+        smear = 1.0
+    result = new_result(history, calendar, options, inp, params=est.params, cov=est.cov, sigma2=est.sigma2,
+                        smear=smear, error_model=est.error_model,
+                        model_choice={**choice, "covariance": est.cov_note, "transform": inp.transform})
+    group = GroupInfo.of_result(result)
+    ctx = SpanContext.build(inp.raw_X, inp.design.open_share.to_numpy(dtype=float), calendar, inp.periods,
+                            history.dates(inp.periods), rows, result.status)
+    params = result.params.reindex(group.fitted_cols).to_numpy(dtype=float)[:, None]
+    term_cov = result.cov.reindex(index=group.term_cols, columns=group.term_cols).to_numpy(dtype=float)
+    se = np.sqrt(np.clip(np.diag(term_cov), 0, None))[:, None]
+    actual = inp.actual.to_numpy(dtype=float)[None, :]
+    tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.zeros(1, dtype=int))
+    adopt_tables(result, tables, inp)
+    return result
+
+
+def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, *, params: pd.Series,
+               cov: pd.DataFrame, sigma2: float, smear: float, error_model: dict[str, Any],
+               model_choice: dict[str, Any], spec: Any = None, status: dict[str, Any] | None = None,
+               ) -> FitResult:
+    """A :class:`FitResult` with its fitted state and what the history and calendar tell (no tables yet)."""
+    periods = inp.periods
+    roles = inp.design.roles
+    spec = inp.spec if spec is None else spec
+    return FitResult(
+        options=options,
+        spec=spec,
+        transform=inp.transform,
+        label=history.label,
+        params=params,
+        cov=cov,
+        sigma2=sigma2,
+        smear=smear,
+        error_model=error_model,
+        model_choice=model_choice,
+        status=inp.status if status is None else status,
+        like_map=inp.like_map,
+        assumed=inp.assumed,
+        base_columns=[c for c in inp.design.X.columns if roles[c] in ("trend", "seasonal")],
+        intervention_names=[t["name"] for t in spec.interventions],
+        closure_events=[e.name for e in calendar.events if e.effect.kind == "zero"],
+        event_info=term_info(calendar),
+        event_labels={e.name: e.label for e in calendar.events},
+        calendar_text=calendar_text(calendar, None),
+        calendar_name=calendar.name,
+        history_start=str(periods[0]),
+        history_end=str(periods[-1]),
+        history_source=history.source,
+        last_year=_last_full_year(history.values),
+        average_share={int(k): float(v) for k, v in average_share_profile(
+            history.values.where(inp.rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
+        mean_base=0.0,
+        exclusions=[{"start": pd.Timestamp(e.start).date().isoformat(),
+                     "end": pd.Timestamp(e.end).date().isoformat(), "reason": e.reason}
+                    for e in calendar.exclusions],
+        warnings=list(inp.notes),
+        _open_share=inp.design.open_share.to_numpy(),
+        _calendar=calendar,
+    )
+
+
+def adopt_tables(result: FitResult, tables: BlockTables, inp: ModelInputs) -> None:
+    """Take one series' block tables into ``result`` (lifts, occurrences, profile, fitted, quality)."""
+    result.lifts = _plain(tables.lifts).drop(columns=["_fitted"])
+    result.occurrences = _plain(tables.occurrences)
+    result.profile = _plain(tables.profile)
+    fitted = tables.fitted[0]
+    result.fitted = _plain(fitted if isinstance(fitted, pd.DataFrame) else fitted)
+    q = _plain(tables.quality)
+    result.mean_base = float(q["mean_base"].iloc[0])
+    model_fitted = result.fitted["fitted"].to_numpy()
+    observed = inp.actual.where(inp.rows).to_numpy(dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        scale_resid = np.log(observed) - np.log(model_fitted / result.smear) if inp.transform == "log" \
+            else observed - model_fitted
+    result.residuals = pd.Series(scale_resid, index=inp.periods, name="residual")
+    result.quality = {"periods_fitted": int(q["periods_fitted"].iloc[0]),
+                      "wape_pct": float(q["wape_pct"].iloc[0]), "resid_sd": float(q["resid_sd"].iloc[0])}
+    for c, st in result.status.items():
+        if st.status in ("unidentifiable", "duplicate"):
+            result.warnings.append(f"{c}: {st.note}")
+        elif st.status == "no_history":
+            result.warnings.append(f"{c}: no occurrence in the history; listed, not fitted")
+
+
+def _plain(table: Any) -> pd.DataFrame:
+    """A block table of one series as a plain frame: no ``_sid``, text as text."""
+    frame = table if isinstance(table, pd.DataFrame) else table.frame()
+    frame = frame.drop(columns=["_sid"])
+    text = [c for c in frame.columns if isinstance(frame[c].dtype, pd.CategoricalDtype)]
+    return frame.astype({c: object for c in text}) if text else frame
+
+
+def _last_full_year(values: pd.Series) -> dict[str, Any]:
+    periods = values.index
+    p = cycle_length(periods.freqstr)
+    years = periods.start_time.year
+    counts = pd.Series(values.notna().to_numpy(), index=years).groupby(level=0).sum()
+    full = [int(y) for y, n in counts.items() if n >= p]
+    if not full:
+        return {}
+    y = max(full)
+    return {"year": y, "total": float(values[years == y].sum())}

@@ -1,0 +1,314 @@
+"""Units of work: a block of series of one design group (batched OLS) or a few series fitted one by one.
+
+A unit depends only on its inputs, so the same units run in this process or
+on a Dask cluster (:mod:`evcal.panel.distributed`) with the same results.
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass, field, fields, replace
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.effects import LIFT_COLUMNS, OCC_COLUMNS, BlockTables, SpanContext, block_tables
+from evcal.effects.columns import Columns, join_columns, join_tables, text_dtype
+from evcal.engine.batched import SharedSolve
+from evcal.engine.groups import Group
+from evcal.engine.series import fit_series
+from evcal.io.history import History
+from evcal.model.identify import breakdown
+from evcal.model.inputs import load_calendar_any
+from evcal.model.options import FitOptions
+
+__all__ = ["BatchShared", "BatchUnit", "LoopUnit", "UnitResult", "BlockModel", "run_unit", "concat_tables",
+           "EMPTY_TABLES"]
+
+
+@dataclass
+class BatchShared:
+    """What every block of a group shares: the factorised design and the spans' tables inputs.
+
+    Sent to each Dask worker once (scattered), not with every block.
+    """
+
+    group: Group
+    contexts: dict[tuple[int, int], SpanContext]
+
+
+@dataclass
+class BatchUnit:
+    """A block of series of one group: its values, and the group's shared inputs."""
+
+    index: int
+    sids: np.ndarray
+    actual: np.ndarray  # (m, n_periods): the panel's values for these series (series-major)
+    spans: np.ndarray  # (m, 2): first, last
+    shared: BatchShared | None
+    keep_models: bool = False  # a block of one fitted for the single-series API: keep its whole model
+
+    def without_shared(self) -> BatchUnit:
+        return replace(self, shared=None)
+
+    def with_shared(self, shared: BatchShared) -> BatchUnit:
+        return replace(self, shared=shared)
+
+
+@dataclass
+class LoopUnit:
+    """A few series fitted one by one (:func:`evcal.engine.series.fit_series`)."""
+
+    index: int
+    sids: np.ndarray
+    histories: list[History]
+    transforms: list[str]
+    calendar_text: str
+    options: FitOptions
+    keep_models: bool = False  # keep each FitResult, and let a user error through (single-series API)
+    inputs: list[Any] | None = None  # each series' prepared inputs, when the caller has them
+
+
+@dataclass
+class UnitResult:
+    index: int
+    tables: BlockTables
+    series: pd.DataFrame  # _sid, engine, group, transform, method, sigma2, smear, note
+    params: pd.DataFrame  # _sid + one column per coefficient
+    skipped: pd.DataFrame  # _sid, reason, detail
+    reroute: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))  # to fit one by one
+    models: dict[int, Any] = field(default_factory=dict)  # sid -> FitResult or BlockModel (keep_models)
+
+
+@dataclass
+class BlockModel:
+    """The whole fitted state of one series solved in a block (kept for the single-series API)."""
+
+    params: pd.Series
+    cov: pd.DataFrame
+    sigma2: float
+    smear: float
+    aic: float
+    lags: int
+    theta: dict[str, float]  # log-lift each event column was aggregated with (empty: linear columns)
+    group: Group
+    tables: BlockTables
+
+
+def run_batch(unit: BatchUnit) -> UnitResult:
+    """Solve a block of series that share a design, then build their tables."""
+    assert unit.shared is not None
+    g = unit.shared.group
+    assert g.solve is not None
+    rows = g.rows
+    # (periods × series); a view when every period is fitted (no gaps: the usual case)
+    y = unit.actual.T if rows.all() else unit.actual[:, rows].T
+    if g.transform == "log":
+        with np.errstate(divide="ignore"):
+            Y = np.log(y)
+        Y -= g.offset[:, None]
+    else:
+        # the single-series path divides by the open share, then scales rows by it
+        share = g.share[:, None]
+        Y = (y / share) * np.where(share > 0, share, 1.0)
+    refined = None
+    first = None
+    if g.curve is not None:
+        from evcal.engine.refine import refine
+
+        # the first pass's coefficients start the passes; its residuals are not needed
+        first = g.solve.coefficients(Y)
+        refined = refine(g.info, g.curve, rows, g.solve.X, Y, first, g.solve.lags, cache=g.refine_cache)
+    if refined is not None:
+        B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
+    else:
+        B, E, sigma2 = g.solve.solve(Y)
+        term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
+        if len(term_idx):
+            cov = g.solve.covariances(E, term_idx)
+            se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
+        else:
+            se = np.zeros((0, len(unit.sids)))
+    smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
+    curved_all: dict[str, np.ndarray] = {}
+    if refined is not None:
+        from evcal.engine.refine import curved_columns
+
+        curved_all = curved_columns(g.curve, g.info, refined.theta_in)
+    # a series whose fit breaks down (a lift past any real event's, or an interval that does not
+    # say even its order of magnitude) is fitted again on its own, where the degenerate-fit rule
+    # leaves the broken columns out (evcal.model.passes.estimate_exact)
+    broken = _broken(g, B, se, first, y)
+    keep = ~broken
+    parts: list[BlockTables] = []
+    for (f, last), ctx in unit.shared.contexts.items():
+        pick: Any = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last) & keep)
+        if not len(pick):
+            continue
+        if len(pick) == len(unit.sids):
+            pick = slice(None)  # the whole block has this span (the usual case): views, not copies
+        curved = {c: v[pick, f:last + 1] for c, v in curved_all.items()}
+        support = {c: t[(t >= f) & (t <= last)] - f for c in curved
+                   if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}
+        parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
+                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved, support))
+    tables = _join_blocks(parts) if parts else concat_tables([])
+    sids = unit.sids[keep]
+    m = len(sids)
+
+    def text(value: str) -> pd.Categorical:
+        return pd.Categorical.from_codes(np.zeros(m, dtype=np.int8), dtype=text_dtype((value,)),
+                                         validate=False)
+
+    series = Columns({"_sid": sids, "engine": text("batched"), "group": np.full(m, g.gid),
+                      "transform": text(g.transform), "method": text("ols"), "sigma2": sigma2[keep],
+                      "smear": smear[keep], "hac_lags": np.full(m, g.solve.lags),
+                      "trend_origin": np.full(m, g.origin), "note": text("; ".join(g.notes))})
+    params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
+    out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
+    if unit.keep_models and m:
+        # the error model's AIC is the first pass's, as the per-series fit reports it
+        E0 = E if first is None else Y - g.solve.X @ first
+        out.models = {int(sids[0]): _block_model(g, refined, B[:, keep], E[:, keep], E0[:, keep],
+                                                 sigma2[keep], smear[keep], tables)}
+    return out
+
+
+def _broken(g: Group, B: np.ndarray, se: np.ndarray, first: np.ndarray | None, y: np.ndarray) -> np.ndarray:
+    """Series whose fit breaks down by :func:`evcal.model.identify.degenerate_terms`' rule (m,)."""
+    term_idx = [g.info.fitted_cols.index(c) for c in g.info.term_cols]
+    if not term_idx:
+        return np.zeros(B.shape[1], dtype=bool)
+    level: Any = 1.0
+    if g.transform == "none":
+        with np.errstate(invalid="ignore", divide="ignore"):
+            level = np.nanmean(np.abs(y / g.share[:, None]), axis=0)
+    bad = breakdown(B[term_idx], se, g.transform, level)
+    if first is not None:  # the first pass of the exact aggregation, before its columns bend
+        bad |= breakdown(first[term_idx], None, g.transform, level)
+    return bad
+
+
+def _block_model(g: Group, refined: Any, B: np.ndarray, E: np.ndarray, E0: np.ndarray, sigma2: np.ndarray,
+                 smear: np.ndarray, tables: BlockTables) -> BlockModel:
+    """The whole fitted state of the block's one series: every coefficient's HAC covariance too."""
+    cols = g.info.fitted_cols
+    X = g.solve.X
+    theta: dict[str, float] = {}
+    if refined is not None:
+        from evcal.engine.refine import design_with_theta
+
+        X, theta = design_with_theta(g.curve, g.info, g.rows, X, refined.theta_in)
+    solve = SharedSolve.of(X) if refined is not None else g.solve
+    cov = solve.covariances(E[:, :1])[0]
+    n, k = X.shape
+    ssr = float(E0[:, 0] @ E0[:, 0])
+    llf = -0.5 * n * (np.log(2 * np.pi * ssr / n) + 1.0)
+    return BlockModel(pd.Series(B[:, 0], index=cols), pd.DataFrame(cov, index=cols, columns=cols),
+                      float(sigma2[0]), float(smear[0]), float(-2 * llf + 2 * k), solve.lags, theta, g,
+                      tables)
+
+
+@functools.lru_cache(maxsize=1)
+def _no_skips() -> pd.DataFrame:
+    """The (shared, never changed) skipped table of a unit that skipped nothing."""
+    return pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
+
+
+def _join_blocks(parts: list[BlockTables]) -> BlockTables:
+    """A unit's tables from its spans' blocks, kept as columns (one frame is made at the end)."""
+    if len(parts) == 1:
+        return parts[0]
+
+    def cat(name: str) -> Any:
+        joined = join_columns([getattr(p, name) for p in parts])
+        if joined is not None:
+            return joined
+        return join_tables([getattr(p, name) for p in parts], EMPTY_TABLES[name])
+
+    return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), [f for p in parts for f in p.fitted],
+                       cat("quality"))
+
+
+_CAL_CACHE: dict[str, Any] = {}
+
+
+def _calendar(text: str) -> Any:
+    if text not in _CAL_CACHE:
+        _CAL_CACHE[text] = load_calendar_any(text)
+    return _CAL_CACHE[text]
+
+
+def run_loop(unit: LoopUnit) -> UnitResult:
+    """Fit each series on its own (:func:`evcal.engine.series.fit_series`); failures become skip reasons."""
+    from evcal.errors import EvcalError
+
+    cal = _calendar(unit.calendar_text)
+    parts: list[BlockTables] = []
+    series_rows, param_rows, skipped = [], [], []
+    models: dict[int, Any] = {}
+    inputs = unit.inputs or [None] * len(unit.sids)
+    for sid, hist, tr, inp in zip(unit.sids, unit.histories, unit.transforms, inputs, strict=True):
+        try:
+            # a series prepared by the caller keeps the caller's options (its transform is chosen)
+            opts = unit.options if inp is not None else \
+                FitOptions(**{**_option_dict(unit.options), "transform": tr})
+            res = fit_series(hist, cal, opts, inp)
+        except (EvcalError, np.linalg.LinAlgError, ValueError) as err:
+            if unit.keep_models and isinstance(err, EvcalError):
+                raise
+            text = "; ".join(err.problems) if isinstance(err, EvcalError) else f"{type(err).__name__}: {err}"
+            skipped.append({"_sid": sid, "reason": "fit failed", "detail": text})
+            continue
+        if unit.keep_models:
+            models[int(sid)] = res
+        parts.append(_result_tables(res, int(sid)))
+        series_rows.append({"_sid": sid, "engine": "per-series", "group": -1, "transform": res.transform,
+                            "method": res.model_choice.get("chosen", ""), "sigma2": res.sigma2,
+                            "smear": res.smear, "hac_lags": np.nan, "trend_origin": res.spec.trend_origin,
+                            "note": "; ".join(res.warnings)})
+        param_rows.append({"_sid": sid, **{k: float(v) for k, v in res.params.items()}})
+    return UnitResult(unit.index, concat_tables(parts), pd.DataFrame(series_rows),
+                      pd.DataFrame(param_rows), pd.DataFrame(skipped, columns=["_sid", "reason", "detail"]),
+                      models=models)
+
+
+def _option_dict(options: FitOptions) -> dict[str, Any]:
+    return {f.name: getattr(options, f.name) for f in fields(options)}
+
+
+def _result_tables(res: Any, sid: int) -> BlockTables:
+    def tag(frame: pd.DataFrame) -> pd.DataFrame:
+        out = frame.copy()
+        out.insert(0, "_sid", sid)
+        return out
+
+    q = res.quality or {}
+    quality = pd.DataFrame({"_sid": [sid], "periods_fitted": [int(q.get("periods_fitted", 0))],
+                            "wape_pct": [q.get("wape_pct", np.nan)], "resid_sd": [q.get("resid_sd", np.nan)],
+                            "mean_base": [res.mean_base]})
+    lifts = tag(res.lifts)
+    lifts["_fitted"] = [getattr(res.status.get(e), "status", "") == "fitted" for e in res.lifts["event"]]
+    return BlockTables(lifts, tag(res.occurrences), tag(res.profile), [tag(res.fitted)], quality)
+
+
+EMPTY_TABLES = {  # the columns of each table when no series produced a row
+    "lifts": ["_sid", *LIFT_COLUMNS, "kind", "label", "_fitted"],
+    "occurrences": ["_sid", *OCC_COLUMNS, "low_units", "high_units"],
+    "profile": ["_sid", "period", "index"],
+    "quality": ["_sid", "periods_fitted", "wape_pct", "resid_sd", "mean_base"],
+}
+
+
+def concat_tables(parts: list[BlockTables]) -> BlockTables:
+    def cat(name: str) -> pd.DataFrame:
+        return join_tables([getattr(p, name) for p in parts], EMPTY_TABLES[name])
+
+    fitted = [f for p in parts for f in p.fitted]
+    return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), fitted, cat("quality"))
+
+
+def run_unit(unit: BatchUnit | LoopUnit) -> UnitResult:
+    """Run one unit of either kind."""
+    return run_batch(unit) if isinstance(unit, BatchUnit) else run_loop(unit)

@@ -19,7 +19,7 @@ _EXPORTS: dict[str, str] = {
     "FitResult": "evcal.fit:FitResult",
     "load_model": "evcal.fit:load_model",
     "backtest": "evcal.plan:backtest",
-    "discover": "evcal.discover:discover",
+    "discover": "evcal.discovery:discover",
 }
 
 

@@ -9,7 +9,7 @@ import statsmodels.api as sm
 import statsmodels.datasets as smd
 from scipy.stats import norm
 
-from evcal.discover.outliers import (
+from evcal.discovery.outliers import (
     chen_liu,
     critical_value,
     detection_statistics,

@@ -19,18 +19,18 @@ import pandas as pd
 import yaml
 
 from evcal._files import atomic_dir
-from evcal.discover.abnormal import AbnormalYear, abnormal_years
-from evcal.discover.cycles import Cycle, describe_cycles, detect_cycles
-from evcal.discover.lost_demand import (
+from evcal.discovery.abnormal import AbnormalYear, abnormal_years
+from evcal.discovery.cycles import Cycle, describe_cycles, detect_cycles
+from evcal.discovery.lost_demand import (
     LostDemand,
     StockOut,
     is_stockout,
     read_stockouts,
     simulate_lost_demand,
 )
-from evcal.discover.outliers import TC_DELTA, OutlierSearch, chen_liu
-from evcal.discover.recurring import Finding, Recurring, Rule, find_recurring
-from evcal.discover.suggestions import Entry, Row, render_yaml, table
+from evcal.discovery.outliers import TC_DELTA, OutlierSearch, chen_liu
+from evcal.discovery.recurring import Finding, Recurring, Rule, find_recurring
+from evcal.discovery.suggestions import Entry, Row, render_yaml, table
 from evcal.errors import CalendarError, HistoryError
 from evcal.formula_safe import write_csv
 
@@ -110,7 +110,7 @@ class Findings:
         directory = Path(directory)
         with atomic_dir(directory, kind="findings") as tmp:
             if chart:
-                from evcal.discover.chart import findings_chart
+                from evcal.discovery.chart import findings_chart
 
                 findings_chart(self, tmp / "findings.png")
             write_csv(self.table, tmp / "suggestions.csv", index=False, float_format="%.6g")
@@ -206,7 +206,7 @@ def discover(
         As for :func:`evcal.io.read_history`.
     cval : float, optional
         Chen–Liu critical value (default: by series length, see
-        :func:`evcal.discover.outliers.critical_value`).
+        :func:`evcal.discovery.outliers.critical_value`).
     alpha : float
         Significance of the cycle test (Fisher's g).
     index_effects : bool

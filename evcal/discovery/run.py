@@ -28,7 +28,8 @@ from evcal.discovery.lost_demand import (
     read_stockouts,
     simulate_lost_demand,
 )
-from evcal.discovery.outliers import TC_DELTA, OutlierSearch, chen_liu
+from evcal.discovery.outlier_detection import TC_DELTA
+from evcal.discovery.outliers import OutlierSearch, chen_liu
 from evcal.discovery.recurring import Finding, Recurring, Rule, find_recurring
 from evcal.discovery.suggestions import Entry, Row, render_yaml, table
 from evcal.errors import CalendarError, HistoryError

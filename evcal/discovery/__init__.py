@@ -23,6 +23,7 @@ Examples
 
 from __future__ import annotations
 
-from evcal.discovery.run import Findings, discover
+from evcal.discovery.findings import Findings
+from evcal.discovery.run import discover
 
 __all__ = ["discover", "Findings"]

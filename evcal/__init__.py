@@ -19,7 +19,7 @@ _EXPORTS: dict[str, str] = {
     "FitResult": "evcal.model:FitResult",
     "load_model": "evcal.model:load_model",
     "backtest": "evcal.plan:backtest",
-    "discover": "evcal.discover:discover",
+    "discover": "evcal.discovery:discover",
 }
 
 

@@ -527,7 +527,7 @@ def discover_cmd(
     check_output(out, "findings", inputs=[history, calendar, stockouts], force=force)
     if critical is not None and not 2.0 <= critical <= 10.0:
         raise EvcalError(f"option --critical: {critical:g} must be between 2 and 10 (3 to 4 is usual)")
-    from evcal.discover import discover
+    from evcal.discovery import discover
 
     found = discover(history, calendar, stockouts=stockouts, date_col=date_col, value_col=value_col,
                      freq=freq, cval=critical, transform=transform, errors=errors)

@@ -17,8 +17,8 @@ from dateutil.easter import easter
 
 import evcal
 from evcal.calendar import load_calendar
-from evcal.discover import Findings
-from evcal.discover.suggestions import COLUMNS, KINDS
+from evcal.discovery import Findings
+from evcal.discovery.suggestions import COLUMNS, KINDS
 from evcal.engine import fit
 
 

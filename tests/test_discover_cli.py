@@ -10,7 +10,7 @@ import pytest
 from typer.testing import CliRunner
 
 from evcal.cli import app
-from evcal.discover.suggestions import COLUMNS
+from evcal.discovery.suggestions import COLUMNS
 
 runner = CliRunner()
 

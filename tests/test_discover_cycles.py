@@ -11,7 +11,7 @@ import pytest
 import statsmodels.datasets as smd
 from statsmodels.datasets import elec_equip
 
-from evcal.discover.cycles import describe_cycles, detect_cycles, fisher_g_pvalue
+from evcal.discovery.cycles import describe_cycles, detect_cycles, fisher_g_pvalue
 
 
 def test_co2_weekly_has_an_annual_cycle_of_about_52_weeks() -> None:

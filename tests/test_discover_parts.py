@@ -9,9 +9,9 @@ import pandas as pd
 import pytest
 from dateutil.easter import easter
 
-from evcal.discover.abnormal import abnormal_years
-from evcal.discover.lost_demand import StockOut, is_stockout, read_stockouts, simulate_lost_demand
-from evcal.discover.recurring import Finding, Rule, find_recurring
+from evcal.discovery.abnormal import abnormal_years
+from evcal.discovery.lost_demand import StockOut, is_stockout, read_stockouts, simulate_lost_demand
+from evcal.discovery.recurring import Finding, Rule, find_recurring
 from evcal.errors import CalendarError
 
 

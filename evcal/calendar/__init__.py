@@ -14,7 +14,6 @@ Examples
 
 from evcal.calendar.core import Calendar, PublicHolidays
 from evcal.calendar.loader import load_calendar
-from evcal.calendar.schema import year_span_problems
 from evcal.calendar.spec import (
     YEAR_RANGE,
     EffectSpec,
@@ -24,6 +23,7 @@ from evcal.calendar.spec import (
     MovedSpec,
     YearsSpec,
 )
+from evcal.calendar.value_parsers import year_span_problems
 
 __all__ = [
     "Calendar",

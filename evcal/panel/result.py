@@ -178,7 +178,7 @@ class PanelResult:
         return pd.read_parquet(self.fitted_path, columns=["date", "actual"], filters=filters)
 
     def series_result(self, key: dict[str, Any] | str | tuple[Any, ...]) -> Any:
-        """The single-series :class:`~evcal.fit.FitResult` of one series.
+        """The single-series :class:`~evcal.model.FitResult` of one series.
 
         Fitted again from the stored history with the series' own transform and
         the panel's options: the batched solver gives the same numbers (the

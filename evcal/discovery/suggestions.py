@@ -15,7 +15,7 @@ from typing import Any
 import pandas as pd
 import yaml
 
-__all__ = ["COLUMNS", "KINDS", "Row", "Entry", "render_yaml", "table"]
+__all__ = ["COLUMNS", "KINDS", "Row", "Entry", "flow_yaml", "render_yaml", "table"]
 
 COLUMNS = ["kind", "start", "end", "size_pct", "score", "period", "suggestion"]
 KINDS = ("cycle", "outlier", "level_shift", "temporary", "recurring", "abnormal_year", "lost_demand")
@@ -59,8 +59,14 @@ def table(rows: list[Row]) -> pd.DataFrame:
     return frame
 
 
-def _flow(mapping: dict[str, Any]) -> str:
-    """A one-line YAML flow mapping (dates unquoted, month-days quoted)."""
+def flow_yaml(mapping: dict[str, Any]) -> str:
+    """A one-line YAML flow mapping (dates unquoted, month-days quoted).
+
+    Examples
+    --------
+    >>> flow_yaml({"when": {"fixed": "12-24"}})
+    '{when: {fixed: 12-24}}'
+    """
     text = yaml.safe_dump(mapping, default_flow_style=True, sort_keys=False, width=10_000,
                           allow_unicode=True)
     return text.strip()
@@ -78,7 +84,7 @@ def render_yaml(entries: list[Entry], header: list[str]) -> str:
         for e in chosen:
             lines += [f"  # {c}" for c in e.comment]
             prefix = "  - " if e.active else "  # - "
-            lines.append(prefix + _flow(e.mapping))
+            lines.append(prefix + flow_yaml(e.mapping))
     if not entries:
         lines.append("# nothing to suggest: no finding beyond what the calendar explains")
     return "\n".join(lines) + "\n"

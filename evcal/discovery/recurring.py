@@ -46,7 +46,7 @@ MIN_HITS = 2
 EASTER_RANGE = 70
 WEEKDAY_OFFSETS = 3
 _KIND_ORDER = {"fixed": 0, "weekday": 1, "easter": 2, "week": 3}
-_DAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
+DAY_NAMES = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 
 
 @dataclass(frozen=True)
@@ -96,7 +96,7 @@ class Rule:
             return {"easter": int(self.value[0])}
         if self.kind == "weekday":
             month, weekday, nth, offset = self.value
-            when: dict[str, Any] = {"weekday": {"month": month, "day": _DAYS[weekday], "nth": nth}}
+            when: dict[str, Any] = {"weekday": {"month": month, "day": DAY_NAMES[weekday], "nth": nth}}
             if offset:
                 when["offset"] = offset
             return when

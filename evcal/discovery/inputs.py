@@ -1,0 +1,223 @@
+"""What ``discover`` reads: a history (file, frame, series or model folder) and a calendar.
+
+A model folder written by ``evcal fit`` stands in for the history it was
+fitted from: a single-series folder (``model.json``) gives the ``date`` and
+``actual`` columns of its fitted table at the model's frequency, a panel folder
+(``panel.json``) the history of the one series named by ``series``. The
+folders are read by their own readers (:func:`evcal.model.load_model`,
+:func:`evcal.panel.load_panel`), so a damaged folder is refused the same way
+as by ``plan`` or ``show``. Without a calendar of its own, the model's
+calendar is used.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import yaml
+
+from evcal.errors import CalendarError, HistoryError, ModelError
+
+__all__ = ["MODEL_SERIES_SHOWN", "calendar_text", "read_discover_inputs", "read_history_input",
+           "with_entries"]
+
+#: most series keys named in the line asking for ``series`` on a panel folder
+MODEL_SERIES_SHOWN = 5
+#: the calendar of a history with none: trend and seasonal terms only
+NO_EVENTS = "name: no events\n"
+
+
+def read_discover_inputs(history: Any, calendar: Any, *, series: Any = None, date_col: str = "date",
+                         value_col: str = "value", freq: str | None = None) -> tuple[Any, str]:
+    """The history to search and the YAML text of the calendar it is fitted with.
+
+    Parameters
+    ----------
+    history : path, DataFrame, Series, evcal.io.History or model folder
+        A history file or frame (read by :func:`evcal.io.read_history`), or a
+        folder written by ``evcal fit``.
+    calendar : path, YAML text, Calendar or None
+        None: the model folder's own calendar, or no events for a history.
+    series : str, tuple or dict, optional
+        One series of a panel model folder, in any form
+        :meth:`evcal.panel.PanelResult.find` accepts (``"P1"``,
+        ``"store=S1,product=P1"``, ``("S1", "P1")``, ``{"product": "P1"}``).
+    date_col, value_col, freq
+        As for :func:`evcal.io.read_history`; a model folder has its own
+        columns and frequency (``freq``, when given, must be the model's).
+
+    Returns
+    -------
+    (History, str)
+
+    Raises
+    ------
+    HistoryError, ModelError, CalendarError
+        One line: a panel folder without ``series`` (naming a few of its
+        series), ``series`` for anything but a panel folder, a damaged folder,
+        a bad history or calendar.
+
+    Examples
+    --------
+    >>> hist, text = read_discover_inputs("models/garden", None)          # doctest: +SKIP
+    >>> hist, text = read_discover_inputs("models/all", None, series="P1")  # doctest: +SKIP
+    """
+    folder = _model_folder(history)
+    if folder is None:
+        if series is not None:
+            raise HistoryError(f"{_shown(history)}: a series is named ({series!r}), but only a panel model "
+                               "folder (written by evcal fit --series-col) holds several; drop --series")
+        return read_history_input(history, date_col, value_col, freq), calendar_text(calendar)
+    if (folder / "panel.json").is_file():
+        hist, model_text = _panel_series(folder, series)
+    else:
+        if series is not None:
+            raise ModelError(f"{folder}: a single-series model folder; drop --series ({series!r}), "
+                             "which names one series of a panel model folder")
+        hist, model_text = _single_series(folder)
+    _check_freq(folder, freq, hist.freq)
+    return hist, (model_text if calendar is None else calendar_text(calendar))
+
+
+def _shown(history: Any) -> str:
+    return str(history) if isinstance(history, str | Path) else f"<{type(history).__name__}>"
+
+
+def _model_folder(history: Any) -> Path | None:
+    """``history`` as a path when it names a folder written by ``evcal fit``, else None.
+
+    A folder with neither ``model.json`` nor ``panel.json`` is left to the
+    history reader, whose message says to name the file inside it.
+    """
+    if not isinstance(history, str | Path) or (isinstance(history, str) and "\n" in history):
+        return None
+    try:
+        folder = Path(history)
+        marked = (folder / "model.json").is_file() or (folder / "panel.json").is_file()
+        return folder if folder.is_dir() and marked else None
+    except (OSError, ValueError):  # a name the system cannot look up is left to the history reader
+        return None
+
+
+def _single_series(folder: Path) -> tuple[Any, str]:
+    from evcal.io import History
+    from evcal.model import load_model
+
+    res = load_model(folder)
+    fitted = res.fitted
+    periods = pd.PeriodIndex(pd.DatetimeIndex(fitted["date"]).to_period(res.freq), name="period")
+    values = pd.Series(fitted["actual"].to_numpy(dtype=float), index=periods, name="value")
+    hist = History(values=values, freq=res.freq, label=res.label, source=res.history_source,
+                   missing=list(periods[values.isna().to_numpy()]))
+    return hist, res.calendar_text
+
+
+def _panel_series(folder: Path, series: Any) -> tuple[Any, str]:
+    from evcal.panel import load_panel
+
+    panel = load_panel(folder)
+    if series is None:
+        raise ModelError(f"{folder}: a panel model of {len(panel.series)} series; name one with --series "
+                         f"(series= in Python), e.g. {_some_keys(panel)} (all in series.csv)")
+    key = panel.find(series)
+    return panel.history(key), str(panel.settings["calendar_text"])
+
+
+def _some_keys(panel: Any) -> str:
+    """A few fitted series' keys, written the way ``--series`` takes them."""
+    cols = panel.key_cols
+    table = panel.series
+    if "status" in table.columns:
+        table = table[table["status"] == "fitted"]
+    keys = []
+    for row in table[cols].head(MODEL_SERIES_SHOWN).itertuples(index=False):
+        if len(cols) == 1:
+            keys.append(str(row[0]))
+        else:
+            keys.append(",".join(f"{c}={v}" for c, v in zip(cols, row, strict=True)))
+    more = len(table) - len(keys)
+    return "; ".join(keys) + (f"; ... ({more} more)" if more > 0 else "")
+
+
+def _check_freq(folder: Path, freq: str | None, model_freq: str) -> None:
+    if freq is None:
+        return
+    from evcal.io.frequency import parse_freq_option
+
+    wanted = parse_freq_option(freq)
+    same = model_freq.startswith("W-") if wanted is None else wanted == model_freq
+    if not same:
+        raise HistoryError(f"--freq {freq}: the model in {folder} is {model_freq}; drop --freq (a model "
+                           "folder's history keeps the frequency it was fitted at)")
+
+
+def read_history_input(history: Any, date_col: str, value_col: str, freq: str | None) -> Any:
+    """A history given as a file, frame, Series or :class:`~evcal.io.History`, as a History.
+
+    A Series needs a PeriodIndex (used as it is) or a DatetimeIndex (read like a file).
+
+    Examples
+    --------
+    >>> s = pd.Series([1.0, 2.0], index=pd.period_range("2024-01", periods=2, freq="M"))
+    >>> read_history_input(s, "date", "value", None).freq
+    'M'
+    """
+    from evcal.io import History, read_history
+
+    if isinstance(history, History):
+        return history
+    if isinstance(history, pd.Series):
+        if isinstance(history.index, pd.PeriodIndex):
+            full = pd.period_range(history.index.min(), history.index.max(), freq=history.index.freq)
+            values = pd.to_numeric(history, errors="coerce").astype(float).reindex(full)
+            return History(values, full.freqstr, "start", "<series>",
+                           [p for p, v in values.items() if not np.isfinite(v)])
+        if isinstance(history.index, pd.DatetimeIndex):
+            frame = pd.DataFrame({"date": history.index, "value": history.to_numpy()})
+            return read_history(frame, freq=freq)
+        raise HistoryError("<series>: a Series history needs a PeriodIndex or DatetimeIndex of dates")
+    return read_history(history, date_col=date_col, value_col=value_col, freq=freq)
+
+
+def calendar_text(calendar: Any) -> str:
+    """Validate the user's calendar (errors name their file) and return its YAML text.
+
+    Examples
+    --------
+    >>> calendar_text(None)
+    'name: no events\\n'
+    """
+    from evcal.calendar import Calendar, load_calendar
+
+    if calendar is None:
+        return NO_EVENTS
+    if isinstance(calendar, Calendar):
+        text = getattr(calendar, "text", None)
+        if isinstance(text, str):
+            return text
+        raise CalendarError("calendar: this Calendar object has no YAML text; pass the calendar "
+                            "file path or its YAML text to discover")
+    load_calendar(calendar)  # raises CalendarError with file, line and key
+    if isinstance(calendar, Path) or (isinstance(calendar, str) and "\n" not in calendar):
+        return Path(calendar).read_text(encoding="utf-8")
+    return str(calendar)
+
+
+def with_entries(text: str, **sections: list[dict[str, Any]]) -> str:
+    """The calendar text with extra entries appended to its sections.
+
+    Examples
+    --------
+    >>> print(with_entries("name: x\\n", exclude=[{"start": "2024-01-01"}]), end="")
+    name: x
+    exclude:
+    - start: '2024-01-01'
+    """
+    data = yaml.safe_load(text) or {}
+    for key, extra in sections.items():
+        if extra:
+            data[key] = list(data.get(key) or []) + extra
+    return yaml.safe_dump(data, sort_keys=False, allow_unicode=True)

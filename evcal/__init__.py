@@ -18,7 +18,7 @@ _EXPORTS: dict[str, str] = {
     "fit": "evcal.engine:fit",
     "FitResult": "evcal.model:FitResult",
     "load_model": "evcal.model:load_model",
-    "backtest": "evcal.plan:backtest",
+    "backtest": "evcal.backtesting:backtest",
     "discover": "evcal.discovery:discover",
 }
 

@@ -443,7 +443,7 @@ def backtest_cmd(
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
     check_output(out, "backtest", inputs=[history, calendar], force=force)
-    from evcal.plan.backtesting import backtest, format_table
+    from evcal.backtesting import backtest, format_table
 
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
                   value_col=value_col, freq=freq,

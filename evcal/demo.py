@@ -68,13 +68,12 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     ['backtest', 'model', 'plan_csv', 'plan_xlsx', 'report']
     """
     from evcal._files import folder_owner, write_marker
+    from evcal.backtesting import backtest, format_table
     from evcal.calendar import load_calendar
     from evcal.calendar.summary import check_calendar
     from evcal.engine import fit
     from evcal.model.summary import describe
     from evcal.outputs import check_output
-    from evcal.plan import backtest
-    from evcal.plan.backtesting import format_table
     from evcal.report.headlines import headlines
     from evcal.report.html import write_report
     from evcal.report.model_folder import read_model_folder
@@ -107,7 +106,9 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     echo("  " + describe(result).replace("\n", "\n  "))
 
     echo(f"\n[3/6] plan {PLAN_YEAR}, spread to finance's target of {TARGET:,.0f} units")
-    plan = result.plan(f"{PLAN_YEAR}-01-01", f"{PLAN_YEAR}-12-31", total=TARGET)
+    from evcal.plan import make_plan
+
+    plan = make_plan(result, f"{PLAN_YEAR}-01-01", f"{PLAN_YEAR}-12-31", total=TARGET)
     run.files["plan_csv"] = plan.save(out / "plan.csv")
     run.files["plan_xlsx"] = plan.save(out / "plan.xlsx")
     echo("  " + plan.summary().replace("\n", "\n  "))

@@ -45,7 +45,7 @@ _WHAT = {"model": "model folder", "panel": "panel model folder", "findings": "fi
          "demo": "demo folder", "plan": "plan", "compare": "comparison", "backtest": "backtest table",
          "dates": "dates list", "report": "HTML report"}
 
-# Header rows of the CSV files evcal writes (DESIGN.md "Outputs — contract", evcal.plan.backtesting.COLUMNS,
+# Header rows of the CSV files evcal writes (DESIGN.md "Outputs — contract", evcal.backtesting.COLUMNS,
 # evcal.plan.scenarios); kept here as text so this check imports nothing heavy.
 _DATES_HEADER = ["event", "start", "end", "strength"]
 _BACKTEST_HEADER = ["year", "method", "spread", "wape", "bias", "peak_error"]

@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 import evcal
+from evcal.plan import make_plan
 
 CAL = """
 name: invented shop with an assumed Monday lift
@@ -41,7 +42,7 @@ def test_assumed_event_in_every_period_leaves_the_additive_fit_whole() -> None:
     days = pd.to_datetime(res.fitted["date"]).dt.days_in_month.to_numpy()
     per_day = np.median(res.fitted["base"].to_numpy(dtype=float) / days)
     assert abs(per_day / 1000.0 - 1) < 0.05, per_day
-    plan = res.plan("2023-01-01", "2023-12-31", n_sims=0)
+    plan = make_plan(res, "2023-01-01", "2023-12-31", n_sims=0)
     mondays = pd.date_range("2023-01-01", "2023-12-31", freq="D").day_of_week == 0
     # the plan adds the assumed +15 % on the Mondays of the year: 52 Mondays x 150 = 7,800 over base
     assert abs(plan.table["plan"].sum() - plan.table["base"].sum() - mondays.sum() * 150) < 0.1 * 7800

@@ -21,9 +21,10 @@ from dateutil.easter import easter
 from typer.testing import CliRunner
 
 import evcal
+from evcal.backtesting import COLUMNS, score
 from evcal.cli import app
 from evcal.errors import PlanError
-from evcal.plan.backtesting import COLUMNS, score
+from evcal.plan import make_plan
 
 
 def invented_business(first: int = 2011, last: int = 2024, seed: int = 7, noise: float = 0.015,
@@ -90,7 +91,7 @@ def test_spread_plan_is_much_closer_to_the_truth_than_average_share(business) ->
     frame, cal, truth = business
     res = evcal.fit(frame[pd.to_datetime(frame["date"]) < "2022-01-01"], cal, errors="ols")
     true_2022 = truth["2022"].to_numpy()
-    plan = res.plan("2022-01-01", "2022-12-31", total=float(true_2022.sum()), n_sims=0)
+    plan = make_plan(res, "2022-01-01", "2022-12-31", total=float(true_2022.sum()), n_sims=0)
     ev = plan.table["plan"].to_numpy()
     share = np.array([res.average_share[m] for m in range(1, 13)])
     avg = share / share.sum() * true_2022.sum()

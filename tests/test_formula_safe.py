@@ -30,6 +30,7 @@ from evcal.formula_safe import (
     unguard_text,
     write_csv,
 )
+from evcal.plan import make_plan
 from evcal.report import write_workbook
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -59,7 +60,7 @@ def test_calendar_text_never_becomes_a_formula_in_the_plan_workbook(attacked_mod
     # before the fix: live formulas in the Lifts sheet (event and label) and in the event
     # column of every past occurrence (5 cells here; 9 with the full 7-year demo history)
     res, tmp = attacked_model
-    plan = res.plan("2023-01-01", "2023-12-31", n_sims=0)
+    plan = make_plan(res, "2023-01-01", "2023-12-31", n_sims=0)
     out = plan.save(tmp / "plan.xlsx")
     assert _formula_cells(out) == []
     wb = load_workbook(out)
@@ -71,7 +72,7 @@ def test_calendar_text_never_becomes_a_formula_in_the_plan_workbook(attacked_mod
 
 def test_plan_csv_text_is_prefixed_and_numbers_are_not(attacked_model) -> None:
     res, tmp = attacked_model
-    plan = res.plan("2023-01-01", "2023-12-31", n_sims=0)
+    plan = make_plan(res, "2023-01-01", "2023-12-31", n_sims=0)
     plan.table["assumptions"] = [ATTACK] + [""] * (len(plan.table) - 1)  # a text column
     plan.table["base"] = -plan.table["base"]  # negative numbers must stay numbers
     out = plan.save(tmp / "plan.csv")
@@ -87,7 +88,7 @@ def test_compare_table_is_formula_safe(attacked_model) -> None:
     from evcal.plan.scenarios import Comparison
 
     res, tmp = attacked_model
-    plan = res.plan("2023-01-01", "2023-03-31", n_sims=0)
+    plan = make_plan(res, "2023-01-01", "2023-03-31", n_sims=0)
     table = pd.DataFrame({"date": [ATTACK, "@SUM(1)"], "plan_a": [-1.0, 2.0],
                           "plan_b": [3.0, 4.0], "difference": [4.0, 2.0]})
     cmp = Comparison(table=table, plan_a=plan, plan_b=plan, name_a="A", name_b="B")

@@ -78,7 +78,7 @@ def _lift_cols(t: pd.DataFrame) -> list[str]:
 # ------------------------------------------------------------------ the table
 
 def test_plan_table_columns_and_adding_up(monthly_fit: evcal.FitResult) -> None:
-    plan = monthly_fit.plan("2024-01-01", "2024-12-31")
+    plan = make_plan(monthly_fit, "2024-01-01", "2024-12-31")
     t = plan.table
     # contract (docs DESIGN.md, Outputs): date, base, plan, low, high, lift:<event>..., assumptions
     assert list(t.columns[:5]) == ["date", "base", "plan", "low", "high"]
@@ -93,7 +93,7 @@ def test_plan_table_columns_and_adding_up(monthly_fit: evcal.FitResult) -> None:
 
 def test_plan_dates_follow_start_labels() -> None:
     res = evcal.fit(monthly_history(label="start"), EASTER_CAL, errors="ols")
-    t = res.plan("2024-01-01", "2024-03-31", n_sims=0).table
+    t = make_plan(res, "2024-01-01", "2024-03-31", n_sims=0).table
     assert list(t["date"]) == [pd.Timestamp("2024-01-01"), pd.Timestamp("2024-02-01"),
                                pd.Timestamp("2024-03-01")]
 
@@ -101,7 +101,7 @@ def test_plan_dates_follow_start_labels() -> None:
 def test_base_carries_trend_and_season_forward(monthly_fit: evcal.FitResult) -> None:
     # invented truth: 1000 * exp(0.02 * years since Jan 2016) * season; the base in July 2024
     # (8.5 years on) is 1000 * exp(0.17) * 1.1 = 1303.9 (arithmetic); 2 % noise leaves ±3 %.
-    t = monthly_fit.plan("2024-07-01", "2024-07-31", n_sims=0).table
+    t = make_plan(monthly_fit, "2024-07-01", "2024-07-31", n_sims=0).table
     assert t["base"].iloc[0] == pytest.approx(1000 * math.exp(0.02 * 8.5) * 1.1, rel=0.03)
 
 
@@ -166,7 +166,7 @@ def test_bad_horizons(monthly_fit: evcal.FitResult) -> None:
 # ------------------------------------------------------------------ closures
 
 def test_closed_day_is_planned_at_zero_in_daily_data(daily_fit: evcal.FitResult) -> None:
-    t = daily_fit.plan("2024-12-20", "2024-12-31", n_sims=300).table.set_index("date")
+    t = make_plan(daily_fit, "2024-12-20", "2024-12-31", n_sims=300).table.set_index("date")
     xmas = t.loc[pd.Timestamp("2024-12-25")]
     assert xmas["plan"] == 0.0 and xmas["low"] == 0.0 and xmas["high"] == 0.0
     # the closure's lift takes the whole base of the day (closures negative)
@@ -176,8 +176,8 @@ def test_closed_day_is_planned_at_zero_in_daily_data(daily_fit: evcal.FitResult)
 
 def test_partly_closed_month_is_planned_at_its_open_share(monthly_fit: evcal.FitResult) -> None:
     with_closure = EASTER_CAL + '  - {name: stocktake, when: {fixed: "12-27"}, length: 3, effect: zero}\n'
-    open_ = monthly_fit.plan("2024-12", "2024-12", n_sims=0).table
-    closed = monthly_fit.plan("2024-12", "2024-12", calendar=with_closure, n_sims=0).table
+    open_ = make_plan(monthly_fit, "2024-12", "2024-12", n_sims=0).table
+    closed = make_plan(monthly_fit, "2024-12", "2024-12", calendar=with_closure, n_sims=0).table
     days = pycal.monthrange(2024, 12)[1]  # 31, from the standard library's calendar module
     assert closed["plan"].iloc[0] == pytest.approx(open_["plan"].iloc[0] * (days - 3) / days, rel=1e-12)
     assert closed["lift:stocktake"].iloc[0] < 0
@@ -190,7 +190,7 @@ NEW_DAY = '  - {name: street-fair, when: {dates: [2024-06-15]}, effect: {assume:
 
 def test_assumed_lift_of_20_percent(daily_fit: evcal.FitResult) -> None:
     cal = DAILY_CAL + NEW_DAY
-    plan = daily_fit.plan("2024-06-10", "2024-06-20", calendar=cal, n_sims=0)
+    plan = make_plan(daily_fit, "2024-06-10", "2024-06-20", calendar=cal, n_sims=0)
     t = plan.table.set_index("date")
     day = t.loc[pd.Timestamp("2024-06-15")]
     # log model: a one-day window at full intensity is exp(log(1.2)) = 1.2 times the base
@@ -206,24 +206,24 @@ def test_assumed_lift_of_20_percent(daily_fit: evcal.FitResult) -> None:
 def test_unknown_event_error_names_it_and_both_fixes(daily_fit: evcal.FitResult) -> None:
     cal = DAILY_CAL + '  - {name: street-fair, when: {dates: [2024-06-15]}}\n'
     with pytest.raises(PlanError) as err:
-        daily_fit.plan("2024-06-01", "2024-06-30", calendar=cal)
+        make_plan(daily_fit, "2024-06-01", "2024-06-30", calendar=cal)
     (line,) = err.value.problems
     assert "street-fair" in line
     assert "effect: {assume: N%}" in line and "effect: {like: other-event}" in line
     assert "--new-events zero" in line
     # the same calendar plans when asked to give new events no lift
-    t = daily_fit.plan("2024-06-01", "2024-06-30", calendar=cal, new_events="zero", n_sims=0).table
+    t = make_plan(daily_fit, "2024-06-01", "2024-06-30", calendar=cal, new_events="zero", n_sims=0).table
     np.testing.assert_allclose(t["lift:street-fair"], 0.0)
     assert "no lift (--new-events zero)" in t.set_index("date").loc["2024-06-15", "assumptions"]
     # an event outside the horizon needs no lift
-    daily_fit.plan("2024-07-01", "2024-07-31", calendar=cal, n_sims=0)
+    make_plan(daily_fit, "2024-07-01", "2024-07-31", calendar=cal, n_sims=0)
 
 
 def test_like_borrows_the_fitted_lift(monthly_fit: evcal.FitResult) -> None:
     # the borrowing event copies easter-run's window on other dates, so its lift is the same coefficient
     cal = EASTER_CAL + ("  - {name: autumn-run, when: {fixed: '10-20'}, length: 1, before: 10, after: 1, "
                         "effect: {like: easter-run}}\n")
-    plan = monthly_fit.plan("2024-10", "2024-10", calendar=cal, n_sims=0)
+    plan = make_plan(monthly_fit, "2024-10", "2024-10", calendar=cal, n_sims=0)
     t = plan.table
     x = 12 / 31  # window days in October over its days
     b = float(monthly_fit.params["easter-run"])
@@ -237,14 +237,14 @@ def test_like_borrows_the_fitted_lift(monthly_fit: evcal.FitResult) -> None:
 
 def test_intervals_contain_the_plan_and_widen_with_coefficient_uncertainty(
         monthly_fit: evcal.FitResult) -> None:
-    t = monthly_fit.plan("2024-01", "2025-12", n_sims=2000, seed=3).table
+    t = make_plan(monthly_fit, "2024-01", "2025-12", n_sims=2000, seed=3).table
     assert (t["low"] < t["plan"]).all() and (t["plan"] < t["high"]).all()
     wide = evcal.FitResult(**{**monthly_fit.__dict__, "cov": monthly_fit.cov * 100.0})
-    tw = wide.plan("2024-01", "2025-12", n_sims=2000, seed=3).table
+    tw = make_plan(wide, "2024-01", "2025-12", n_sims=2000, seed=3).table
     assert ((tw["high"] - tw["low"]) > (t["high"] - t["low"])).all()
     np.testing.assert_allclose(tw["plan"], t["plan"], rtol=1e-12)  # the point plan does not move
     # same seed, same interval
-    again = monthly_fit.plan("2024-01", "2025-12", n_sims=2000, seed=3).table
+    again = make_plan(monthly_fit, "2024-01", "2025-12", n_sims=2000, seed=3).table
     np.testing.assert_array_equal(again["low"], t["low"])
 
 
@@ -257,7 +257,7 @@ def test_interval_covers_the_invented_truth() -> None:
         full = monthly_history(end="2024-01", seed=100 + seed, noise=0.05)
         hist, nxt = full.iloc[:-1], float(full["value"].iloc[-1])
         res = evcal.fit(hist, None, errors="ols")
-        t = res.plan("2024-01", "2024-01", n_sims=400, seed=seed).table
+        t = make_plan(res, "2024-01", "2024-01", n_sims=400, seed=seed).table
         hits += int(t["low"].iloc[0] <= nxt <= t["high"].iloc[0])
     assert hits >= 24
 
@@ -269,7 +269,7 @@ def test_count_model_intervals() -> None:
     y = rng.poisson(3 * MONTH_SEASON[idx.month - 1])
     frame = pd.DataFrame({"date": idx.end_time.normalize().strftime("%Y-%m-%d"), "value": y})
     res = evcal.fit(frame, None, transform="count")
-    t = res.plan("2024-01", "2024-12", n_sims=1000).table
+    t = make_plan(res, "2024-01", "2024-12", n_sims=1000).table
     assert (t["low"] <= t["plan"]).all() and (t["plan"] <= t["high"]).all()
     np.testing.assert_array_equal(t["low"], np.round(t["low"]))
 
@@ -301,7 +301,7 @@ def test_plan_with_arima_errors_adds_the_error_forecast() -> None:
     frame = pd.DataFrame({"date": idx.end_time.normalize().strftime("%Y-%m-%d"), "value": y})
     res = evcal.fit(frame, None, errors="arima", arima_order=(1, 0, 0), trend_order=0)  # truth: flat
     assert res.error_model["kind"] == "arima"
-    t = res.plan("2024-01", "2025-12", n_sims=500).table
+    t = make_plan(res, "2024-01", "2025-12", n_sims=500).table
     ratio = t["base"].to_numpy() / (1000 * MONTH_SEASON[np.r_[np.arange(12), np.arange(12)]])
     phi = res.error_model["ar"][0]
     tail = res.error_model["tail"][-1]
@@ -310,7 +310,7 @@ def test_plan_with_arima_errors_adds_the_error_forecast() -> None:
     # exp(phi^h e_T + v_h / 2), v_h = sigma2 (1 - phi^(2h)) / (1 - phi^2): the lognormal mean of the
     # AR(1) forecast (formula as in the test above)
     iid = evcal.FitResult(**{**res.__dict__, "error_model": {"kind": "iid"}, "smear": 1.0})
-    reg = iid.plan("2024-01", "2025-12", n_sims=0).table["base"].to_numpy()
+    reg = make_plan(iid, "2024-01", "2025-12", n_sims=0).table["base"].to_numpy()
     h = np.arange(1, 25)
     s2 = res.error_model["sigma2"]
     expected = np.exp(phi**h * tail + s2 * (1 - phi ** (2 * h)) / (1 - phi**2) / 2)
@@ -335,7 +335,7 @@ def test_level_shift_is_planned_at_its_new_level_and_pulses_are_not() -> None:
            "  - {name: second-counter, type: level_shift, start: 2020-01-01}\n"
            "  - {name: may-sale, type: pulse, start: 2019-05-01, end: 2019-05-31}\n")
     res = evcal.fit(hist, cal, errors="ols")
-    plan = res.plan("2024-05", "2024-05", n_sims=0)
+    plan = make_plan(res, "2024-05", "2024-05", n_sims=0)
     truth = 1000 * math.exp(0.02 * (8 + 4.5 / 12)) * MONTH_SEASON[4] * 1.3
     assert plan.table["base"].iloc[0] == pytest.approx(truth, rel=0.03)
     assert plan.table["plan"].iloc[0] == pytest.approx(plan.table["base"].iloc[0], rel=1e-12)
@@ -347,13 +347,13 @@ def test_level_shift_is_planned_at_its_new_level_and_pulses_are_not() -> None:
 def test_saved_model_plans_the_same_numbers(monthly_fit: evcal.FitResult, tmp_path: Path) -> None:
     monthly_fit.save(tmp_path / "model")
     loaded = evcal.load_model(tmp_path / "model")
-    a = monthly_fit.plan("2024-01", "2025-12", total=30_000, n_sims=300, seed=1).table
-    b = loaded.plan("2024-01", "2025-12", total=30_000, n_sims=300, seed=1).table
+    a = make_plan(monthly_fit, "2024-01", "2025-12", total=30_000, n_sims=300, seed=1).table
+    b = make_plan(loaded, "2024-01", "2025-12", total=30_000, n_sims=300, seed=1).table
     pd.testing.assert_frame_equal(a, b, rtol=1e-12)
 
 
 def test_save_csv_and_xlsx(monthly_fit: evcal.FitResult, tmp_path: Path) -> None:
-    plan = monthly_fit.plan("2024-01", "2024-12", n_sims=100)
+    plan = make_plan(monthly_fit, "2024-01", "2024-12", n_sims=100)
     plan.save(tmp_path / "plan.csv")
     back = pd.read_csv(tmp_path / "plan.csv")
     assert back["date"].iloc[0] == "2024-01-31"
@@ -369,7 +369,7 @@ def test_save_csv_and_xlsx(monthly_fit: evcal.FitResult, tmp_path: Path) -> None
 # ------------------------------------------------------------------ summary and scenarios
 
 def test_summary_names_peak_event_share_and_what_moved(monthly_fit: evcal.FitResult) -> None:
-    plan = monthly_fit.plan("2024-01", "2024-12", n_sims=0)
+    plan = make_plan(monthly_fit, "2024-01", "2024-12", n_sims=0)
     text = plan.summary()
     peak = plan.table.loc[plan.table["plan"].idxmax(), "date"]
     assert f"Peak: {peak:%Y-%m}" in text
@@ -407,7 +407,7 @@ def test_february_event_stays_in_the_seasonal_index() -> None:
     cal = EASTER_CAL + "  - {name: valentines, when: {fixed: '02-14'}}\n"
     res = evcal.fit(monthly_history(start="2012-01"), cal, errors="ols", trading_days=True)
     assert res.status["valentines"].status == "unidentifiable"
-    plan = res.plan("2024-01", "2024-12", n_sims=0)
+    plan = make_plan(res, "2024-01", "2024-12", n_sims=0)
     np.testing.assert_allclose(plan.table["lift:valentines"], 0.0)
     assert plan.in_season == ["valentines"]
     assert "In the seasonal index" in plan.summary() and "valentines" in plan.summary()

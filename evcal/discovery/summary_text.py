@@ -7,13 +7,10 @@ stock-out window, and the notes.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import Any
 
 from evcal.discovery.cycles import describe_cycles
 from evcal.discovery.suggestion_rows import describe_pattern, period_day
-
-if TYPE_CHECKING:
-    from evcal.discovery.findings import Findings
 
 __all__ = ["findings_summary"]
 
@@ -21,7 +18,7 @@ __all__ = ["findings_summary"]
 _KIND = {"AO": "outlier", "LS": "level_shift", "TC": "temporary"}
 
 
-def findings_summary(found: Findings) -> str:
+def findings_summary(found: Any) -> str:
     """A short readable account of ``found``, one finding a line.
 
     Examples

@@ -96,13 +96,6 @@ class FitResult:
             return np.ones(n)
         return self._open_share[where]
 
-    def plan(self, start: Any, end: Any, calendar: Any = None, total: float | None = None,
-             **kwargs: Any) -> Any:
-        """Forward plan for [start, end]; see :func:`evcal.plan.make_plan`."""
-        from evcal.plan import make_plan
-
-        return make_plan(self, start, end, calendar=calendar, total=total, **kwargs)
-
     # ------------------------------------------------------------ persistence
     def to_json(self) -> dict[str, Any]:
         return {
@@ -219,7 +212,8 @@ def load_model(directory: str | Path) -> FitResult:
     Examples
     --------
     >>> res = load_model("models/garden")                     # doctest: +SKIP
-    >>> res.plan("2027-01-01", "2027-12-31").table.head()     # doctest: +SKIP
+    >>> from evcal.plan import make_plan                    # doctest: +SKIP
+    >>> make_plan(res, "2027-01-01", "2027-12-31").table.head()     # doctest: +SKIP
     """
     folder = read_folder(directory)
     res = FitResult._from_checked(folder.model)

@@ -17,7 +17,7 @@ Examples
 ...                 group_col="family", out="models/panel")          # doctest: +SKIP
 >>> res.lifts[["product", "store", "event", "lift_pct", "pooled_pct"]]  # doctest: +SKIP
 >>> one = res.series_result({"product": "P1", "store": "S1"})        # doctest: +SKIP
->>> one.plan("2027-01-01", "2027-12-31")                             # doctest: +SKIP
+>>> make_plan(one, "2027-01-01", "2027-12-31")                             # doctest: +SKIP
 """
 
 from __future__ import annotations

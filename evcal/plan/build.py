@@ -103,7 +103,7 @@ def make_plan(
 
     Examples
     --------
-    >>> plan = result.plan("2026-01-01", "2026-12-31", total=1_200_000)  # doctest: +SKIP
+    >>> plan = make_plan(result, "2026-01-01", "2026-12-31", total=1_200_000)  # doctest: +SKIP
     >>> print(plan.summary())                                            # doctest: +SKIP
     >>> plan.save("plan.xlsx")                                           # doctest: +SKIP
     """

@@ -28,7 +28,8 @@ from evcal.errors import ModelError
 from evcal.report import write_report
 from evcal.report.calendar_view import calendar_view, event_of_column, weights_from_plan
 from evcal.report.headlines import average_share_plan, headlines
-from evcal.report.html import added_by_year, ratio_as_percent
+from evcal.report.model_sections import added_by_year
+from evcal.report.review_sections import ratio_as_percent
 from evcal.report.model_folder import read_model_folder
 
 XSS = "<script>alert(1)</script>"

@@ -161,6 +161,9 @@ def subtitle(ctx: ReportContext) -> str:
 
 def _files(folder: ModelFolder) -> list[str]:
     files = [f"model folder {folder.path}"]
+    source = (folder.model.get("history") or {}).get("source")
+    if source:
+        files.append(f"history {source}")
     if "plan" in folder.sources:
         files.append(f"plan {folder.sources['plan']}")
     if "backtest" in folder.sources:

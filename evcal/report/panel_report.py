@@ -110,8 +110,10 @@ def panel_overview(panel: PanelResult, shown: int, fitted: int, named: bool) -> 
     if named:
         lines.append(f"Shown below: the {shown} series named with --series.")
     elif shown < fitted:
-        lines.append(f"Shown below: the first {shown} of {fitted} fitted series; {fitted - shown} are not "
-                     "shown. Pick the series to show with --series, once per series (e.g. --series "
+        left = fitted - shown
+        lines.append(f"Shown below: the first {shown} of {fitted} fitted series; {left} "
+                     f"{'is' if left == 1 else 'are'} not shown. Pick the series to show with --series, "
+                     "once per series (e.g. --series "
                      f"\"{key_text(panel, _first_fitted(panel)[0])}\").")
     else:
         lines.append(f"Shown below: all {shown} fitted series.")
@@ -132,7 +134,7 @@ def series_part(panel: PanelResult, key: dict[str, Any], folder: Path, number: i
     part["summary"] = (f"{int(row['periods_fitted'])} periods fitted, {row['start']} to {row['end']}; "
                        f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
                        f"in-sample WAPE {num(row['wape_pct'], 1)} %."
-                       + (f" Note: {row['note']}" if isinstance(row["note"], str) and row["note"].strip() else ""))
+                       + (f" Note: {note}" if (note := row["note"]) and isinstance(note, str) else ""))
     ctx = ReportContext(series_folder(panel, key, folder))
     part["parts"] = [{"key": k, "title": t, "template": tpl, "data": build(ctx)}
                      for k, t, tpl, build in SERIES_PARTS]
@@ -145,7 +147,7 @@ def series_folder(panel: PanelResult, key: dict[str, Any], folder: Path) -> Mode
 
     s = panel.settings
     cal = load_calendar(s["calendar_text"])  # the saved calendar: the reader checked that it loads
-    labels = {name: str(info.get("label") or name) for name, info in (s.get("events") or {}).items()}
+    labels = _event_labels(panel)
     drop = panel.key_cols
     lifts = panel.lifts.loc[_mask(panel.lifts, panel, key)].drop(columns=drop)
     lifts["identifiable"] = lifts["identifiable"].astype(str).str.lower().isin(["true", "1"])
@@ -173,6 +175,12 @@ def series_folder(panel: PanelResult, key: dict[str, Any], folder: Path) -> Mode
         profile=profile.sort_values("period").reset_index(drop=True),
         fitted=_fitted_rows(panel, key),
     )
+
+
+def _event_labels(panel: PanelResult) -> dict[str, str]:
+    """Event name -> label, from ``panel.json`` (the long lifts table does not repeat them)."""
+    events = panel.settings.get("events") or {}
+    return {name: str(info.get("label") or name) for name, info in events.items()}
 
 
 def _first_fitted(panel: PanelResult) -> list[dict[str, Any]]:
@@ -203,7 +211,7 @@ def _lift_table(panel: PanelResult) -> dict[str, Any] | None:
     dist = lift_distribution(panel.lifts) if len(panel.lifts) else pd.DataFrame()
     if dist.empty:
         return None
-    labels = {name: str(info.get("label") or name) for name, info in (panel.settings.get("events") or {}).items()}
+    labels = _event_labels(panel)
     rows = [
         [labels.get(r.event, r.event), str(r.series), pct(r.median_pct),
          f"{pct(r.p10_pct)} to {pct(r.p90_pct)}", pct(r.above_zero_pct, 0, sign=False),

@@ -92,9 +92,8 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
         share_rows.append(
             [ctx.label(event), num(units), pct(units / total * 100 if total else np.nan, sign=False), note]
         )
-    share_rows.append(
-        ["base (no events)", num(base_total), pct(base_total / total * 100 if total else np.nan, sign=False), ""]
-    )
+    base_share = pct(base_total / total * 100 if total else np.nan, sign=False)
+    share_rows.append(["base (no events)", num(base_total), base_share, ""])
     moved = None
     if np.isfinite(avg).any():
         diff = plan["plan"].to_numpy(dtype=float) - avg

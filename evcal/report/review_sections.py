@@ -63,7 +63,8 @@ def backtest_section(ctx: ReportContext) -> dict[str, Any]:
             by_year = sub.groupby(sub["year"].astype(int))["wape"].mean()
             row: list[object] = [METHOD_NAMES.get(m, m), "spread to actual total" if s == "spread" else s]
             row += [pct(by_year.get(y, np.nan), sign=False) for y in years]
-            row += [pct(means[m], sign=False), pct(sub["bias"].mean()), num(sub["peak_error"].abs().mean(), 1)]
+            row += [pct(means[m], sign=False), pct(sub["bias"].mean()),
+                    num(sub["peak_error"].abs().mean(), 1)]
             rows.append(row)
             row_cls.append("best" if pd.notna(means[m]) and means[m] == best else "")
         if "evcal" in means and "average_share" in means:
@@ -125,8 +126,7 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
             assumptions.append(f"{text} — in {periods}{more}")
     out["assumptions"] = assumptions
     exclusions = [e for e in ctx.model.get("exclusions", []) or [] if isinstance(e, Mapping)]
-    out["exclusions"] = table(
-        ["start", "end", "reason"], [[e.get("start", ""), e.get("end", ""), e.get("reason", "")] for e in exclusions]
-    ) if exclusions else None
+    spans = [[e.get("start", ""), e.get("end", ""), e.get("reason", "")] for e in exclusions]
+    out["exclusions"] = table(["start", "end", "reason"], spans) if exclusions else None
     out["empty"] = not (out["chosen"] or out["warnings"] or out["not_estimated"] or assumptions or exclusions)
     return out

@@ -30,6 +30,7 @@ from typing import Any
 import pandas as pd
 
 from evcal._files import atomic_path
+from evcal.errors import ModelError
 from evcal.report.common import page_frame, readable
 from evcal.report.context import ReportContext, calendar_weights
 from evcal.report.formatting import freq_words
@@ -92,9 +93,10 @@ def write_report(
         per problem); ``plan_csv``, ``backtest_csv``, ``calendar`` or ``series``
         given where they do not apply.
     """
-    from evcal.errors import ModelError
-    from evcal.panel import is_panel_dir
+    from evcal.panel import is_panel_dir  # the panel step, imported only when a report is written
 
+    if isinstance(series, str):  # one key given as text, not a list of keys
+        series = [series]
     if is_panel_dir(model_dir) and not (Path(model_dir) / "model.json").is_file():
         from evcal.report.panel_report import render_panel_report
 

@@ -133,6 +133,12 @@ def test_a_named_skipped_series_says_why(panel: Path, tmp_path: Path) -> None:
     assert "Not fitted: too short" in body and "<figure>" not in body
 
 
+def test_one_series_given_as_text(panel: Path, tmp_path: Path) -> None:
+    page = write_report(panel, tmp_path / "r.html", series="store=east").read_text()
+    assert re.findall(r'<section id="series-\d+" class="series"><h2><span class="num">2</span>([^<]*)</h2>',
+                      page) == ["Series store=east"]
+
+
 def test_unknown_series_is_one_line(panel: Path, tmp_path: Path) -> None:
     with pytest.raises(ModelError) as err:
         write_report(panel, tmp_path / "r.html", series=["nowhere"])

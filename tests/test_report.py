@@ -14,6 +14,7 @@ from __future__ import annotations
 import functools
 import json
 import re
+from html.parser import HTMLParser
 from pathlib import Path
 
 import numpy as np
@@ -25,11 +26,13 @@ import evcal
 from evcal.calendar import load_calendar
 from evcal.cli import app
 from evcal.errors import ModelError
+from evcal.formula_safe import formula_safe_frame, unguard_frame
 from evcal.report import write_report
 from evcal.report.calendar_view import calendar_view, event_of_column, weights_from_plan
 from evcal.report.headlines import average_share_plan, headlines
-from evcal.report.html import added_by_year, ratio_as_percent
 from evcal.report.model_folder import read_model_folder
+from evcal.report.model_sections import added_by_year
+from evcal.report.review_sections import ratio_as_percent
 
 XSS = "<script>alert(1)</script>"
 
@@ -273,7 +276,83 @@ def test_file_and_calendar_names_are_escaped(tmp_path: Path) -> None:
     page = write_report(paths["model"], tmp_path / "x.html").read_text()
     assert "<img src=x" not in page and "<iframe>" not in page and "<b>" not in page
     assert "&lt;img src=x onerror=alert(1)&gt;" in page
-    assert "m&quot;&lt;b&gt;" in page
+    # MarkupSafe writes a double quote as &#34; (html.escape wrote &quot;): the same character
+    assert "m&#34;&lt;b&gt;" in page
+
+
+#: hostile texts put into every text field a report shows (common practice, no source: the usual
+#: probes for markup, attribute and template injection)
+HOSTILE = [XSS, '"onmouseover="alert(1)', "{{7*7}}", "</style><svg onload=alert(1)>", "'><iframe src=x>"]
+
+
+class PageParts(HTMLParser):
+    """What a browser would build from the page: its tags with their attributes, and its text."""
+
+    def __init__(self, page: str) -> None:
+        super().__init__(convert_charrefs=True)
+        self.tags: list[tuple[str, dict[str, str | None]]] = []
+        self.text: list[str] = []
+        self.feed(page)
+
+    def handle_starttag(self, tag: str, attrs: list[tuple[str, str | None]]) -> None:
+        self.tags.append((tag, dict(attrs)))
+
+    def handle_data(self, data: str) -> None:
+        self.text.append(data)
+
+
+def assert_only_text(page: str, marks: list[str]) -> None:
+    """No markup from the hostile texts, and each marked text shown as written."""
+    parts = PageParts(page)
+    names = [t for t, _ in parts.tags]
+    assert not {"script", "iframe", "svg"} & set(names), set(names)
+    assert names.count("style") == 1 and names.count("title") == 1
+    assert all(not a.startswith("on") for _, attrs in parts.tags for a in attrs)
+    assert all(str(attrs.get("src", "")).startswith("data:image/png;base64,")
+               for t, attrs in parts.tags if t == "img")
+    # attribute values (the calendar's day titles, alt texts) are text a reader sees too
+    shown = "".join(parts.text) + " ".join(str(v) for _, attrs in parts.tags for v in attrs.values())
+    for mark in marks:
+        assert mark in shown, mark
+
+
+def write_hostile_model(folder: Path, h: str) -> dict:
+    """A real model folder (synthetic monthly history with a known fair, as write_minimal_model) whose
+    every text field holds ``h``, each with a mark saying which field it is: ``h (label)``."""
+    name = f"{h} (event)"
+    cal = (f"name: {json.dumps(h + ' (calendar)')}\nevents:\n  - name: {json.dumps(name)}\n"
+           f"    label: {json.dumps(h + ' (label)')}\n    when: {{dates: ["
+           + ", ".join(f"{{start: {d}, end: {(pd.Timestamp(d) + pd.Timedelta(days=6)).date()}}}"
+                       for d in FAIR_DATES)
+           + "]}\nexclude:\n  - {start: 2023-09-01, end: 2023-09-30, reason: "
+           + json.dumps(h + " (reason)") + "}\n")
+    (folder.parent / "hostile.yaml").write_text(cal)
+    paths = write_minimal_model(folder, "MS", 48, 12, calendar=cal, event=name)
+    model = json.loads((folder / "model.json").read_text())
+    model["warnings"].append(h + " (warning)")
+    model["history"]["source"] = h + " (source)"
+    (folder / "model.json").write_text(json.dumps(model))
+    lifts = unguard_frame(pd.read_csv(folder / "lifts.csv", dtype=str, keep_default_na=False))
+    lifts["note"] = h + " (note)"
+    formula_safe_frame(lifts).to_csv(folder / "lifts.csv", index=False)  # as evcal writes text
+    plan = pd.read_csv(paths["plan"])
+    plan["assumptions"] = np.where(plan[f"lift:{name}"] != 0, h + " (assumption)", "")
+    formula_safe_frame(plan).to_csv(paths["plan"], index=False)
+    pd.DataFrame([[2025, h + " (method)", "spread", 0.1, 0.0, 1]],
+                 columns=["year", "method", "spread", "wape", "bias", "peak_error"]).to_csv(
+        folder / "backtest.csv", index=False)
+    return {**paths, "calendar": folder.parent / "hostile.yaml", "backtest": folder / "backtest.csv"}
+
+
+@pytest.mark.parametrize("h", HOSTILE)
+def test_hostile_text_in_every_field_is_shown_as_text(tmp_path: Path, h: str) -> None:
+    paths = write_hostile_model(tmp_path / "m", h)
+    page = write_report(paths["model"], tmp_path / "r.html", plan_csv=paths["plan"],
+                        backtest_csv=paths["backtest"], calendar=paths["calendar"]).read_text()
+    fields = ["calendar", "event", "label", "reason", "warning", "source", "note", "assumption", "method"]
+    assert_only_text(page, [f"{h} ({f})" for f in fields])
+    if "{{" in h:
+        assert f"{h} (label)" in page  # printed as written: a template never evaluates data
 
 
 def test_dollar_in_label_does_not_break_the_charts(tmp_path: Path) -> None:
@@ -416,7 +495,8 @@ FAIR_CAL = ("name: invented fair (test)\nevents:\n  - name: fair\n    when: {dat
                         for d in FAIR_DATES) + "]}\n")
 
 
-def write_minimal_model(folder: Path, freq: str, periods: int, cycle: int) -> dict:
+def write_minimal_model(folder: Path, freq: str, periods: int, cycle: int, calendar: str = FAIR_CAL,
+                        event: str = "fair") -> dict:
     """A real model folder at any frequency (synthetic history with a known truth: a cosine season and
     a +16 % fair), and an invented plan whose peak is made by the fair in a known period."""
     dates = pd.date_range("2022-01-01", periods=periods, freq=freq)
@@ -429,7 +509,7 @@ def write_minimal_model(folder: Path, freq: str, periods: int, cycle: int) -> di
     daily = daily * np.where(fair, 1.16, 1.0) * np.exp(np.random.default_rng(3).normal(0, 0.01, len(days)))
     values = pd.Series(daily, index=days).groupby(days.to_period(freq[0])).sum().to_numpy()[:periods]
     hist = pd.DataFrame({"date": dates, "value": values.round(2)})
-    evcal.fit(hist, FAIR_CAL, errors="ols", fourier_order=2).save(folder)
+    evcal.fit(hist, calendar, errors="ols", fourier_order=2).save(folder)
     future = pd.date_range(dates[-1], periods=cycle + 1, freq=freq)[1:]
     fphase = np.arange(periods, periods + cycle) % cycle
     fbase = 500 + 100 * np.cos(2 * np.pi * fphase / cycle)
@@ -441,7 +521,7 @@ def write_minimal_model(folder: Path, freq: str, periods: int, cycle: int) -> di
             "plan": fbase + fev,
             "low": fbase + fev - 50,
             "high": fbase + fev + 50,
-            "lift:fair": fev,
+            f"lift:{event}": fev,
         }
     ).to_csv(folder / "plan.csv", index=False)
     return {"model": folder, "plan": folder / "plan.csv", "peak": future[fev > 0][0]}
@@ -566,12 +646,14 @@ def test_cli_report_and_plan_refuse_a_damaged_folder_alike(invented: dict, tmp_p
     assert not (tmp_path / "plan.csv").exists() and not (tmp_path / "r.html").exists()
 
 
-def test_cli_report_on_a_panel_folder_is_one_line(tmp_path: Path) -> None:
-    # the report reads one series' model folder; a panel folder was refused before and still is
+def test_cli_report_on_a_damaged_panel_folder_is_one_line(tmp_path: Path) -> None:
+    # the report reads panel folders too (tests/test_report_panel.py); a damaged one is the panel
+    # reader's one line, exit 2
     folder = tmp_path / "panel"
     folder.mkdir()
     (folder / "panel.json").write_text("{}")
     res = CliRunner().invoke(app, ["report", str(folder), "--out", str(tmp_path / "r.html")])
     assert res.exit_code == 2 and "Traceback" not in res.output
     lines = [ln for ln in res.output.splitlines() if ln.strip()]
-    assert len(lines) == 1 and "a panel model folder" in lines[0], res.output
+    assert len(lines) == 1 and "panel folder is missing series.csv" in lines[0], res.output
+    assert not (tmp_path / "r.html").exists()

@@ -4,7 +4,9 @@ Checks: the page loads with no console messages at all (the report has no
 scripts and loads nothing, so any message means something broke: a blocked
 resource, a Content-Security-Policy violation, a parse problem); the
 screenshot is not blank; a label written as a script tag reaches the DOM as
-text; the page prints to PDF. Data is invented (see tests/test_report.py).
+text; the page prints to PDF; a panel model's report loads as cleanly, a series key
+written as a script tag shown as text. Data is invented (see tests/test_report.py
+and tests/test_report_panel.py).
 
 `.ci/run` installs the `chromium` package; without the binary these tests skip.
 """
@@ -114,3 +116,25 @@ def test_report_prints(report: Path, tmp_path: Path) -> None:
     assert data.startswith(b"%PDF")
     pages = len(re.findall(rb"/Type\s*/Page[^s]", data))
     assert 3 <= pages <= 30, pages
+
+
+@pytest.fixture(scope="module")
+def panel_report(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    from test_report_panel import invented_calendar, invented_history
+
+    from evcal.panel import fit_panel
+
+    tmp = tmp_path_factory.mktemp("panel-browser")
+    history = invented_history(["north", XSS])  # invented data (tests/test_report_panel.py)
+    fit_panel(history, invented_calendar(), ["store"], out=tmp / "panel", errors="ols")
+    return write_report(tmp / "panel", tmp / "panel.html")
+
+
+def test_panel_report_loads_and_a_script_key_is_text(panel_report: Path, tmp_path: Path) -> None:
+    run = chromium(panel_report, tmp_path, "--dump-dom")
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert console_lines(run.stderr) == []
+    dom = run.stdout
+    assert "Panel overview" in dom and "Series store=north" in dom
+    assert "Series store=&lt;script&gt;alert(1)&lt;/script&gt;" in dom
+    assert "<script" not in dom.lower()

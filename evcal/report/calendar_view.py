@@ -18,7 +18,7 @@ from __future__ import annotations
 import calendar as _stdcal
 import re
 from collections.abc import Iterable, Mapping
-from html import escape
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -107,7 +107,26 @@ def calendar_view(
     closures: Iterable[str] = (),
     highlight: tuple[pd.Timestamp, pd.Timestamp] | None = None,
 ) -> str:
-    """HTML for the month cards from ``start`` to ``end`` and a legend.
+    """HTML for the month cards from ``start`` to ``end`` and a legend (template ``calendar_view.html``).
+
+    Parameters are those of :func:`calendar_data`; every label is escaped by the template.
+    """
+    from evcal.report.templating import render
+
+    return render("calendar_view.html", view=calendar_data(weights, start, end, labels, colours, closures,
+                                                           highlight))
+
+
+def calendar_data(
+    weights: pd.DataFrame,
+    start: pd.Timestamp,
+    end: pd.Timestamp,
+    labels: Mapping[str, str],
+    colours: Mapping[str, str],
+    closures: Iterable[str] = (),
+    highlight: tuple[pd.Timestamp, pd.Timestamp] | None = None,
+) -> dict[str, Any]:
+    """The month cards and the legend as plain data.
 
     Parameters
     ----------
@@ -124,8 +143,9 @@ def calendar_view(
 
     Returns
     -------
-    str
-        Safe HTML; every label is escaped here.
+    dict
+        ``weekdays``, ``months`` (name, leading blanks, days with their classes, hatch
+        colour, title and stripes) and ``legend`` (one item per event shown).
     """
     start = pd.Timestamp(start).normalize()
     end = pd.Timestamp(end).normalize()
@@ -139,12 +159,10 @@ def calendar_view(
     peak = {c: float(w[c].abs().max()) or 1.0 for c in touched}
     closure_set = set(closures)
     colour = {c: colours.get(c, pal.INK) for c in touched}
-
-    cards = []
-    for month in months:
-        cards.append(_month_card(month, w, touched, peak, labels, colour, closure_set, highlight, start, end))
-    legend = _legend(w, touched, labels, colour, closure_set, start, end, highlight)
-    return f'<div class="cal-grid">{"".join(cards)}</div>{legend}'
+    cards = [_month_card(month, w, touched, peak, labels, colour, closure_set, highlight, start, end)
+             for month in months]
+    legend = _legend(w, touched, labels, colour, closure_set, start, end)
+    return {"weekdays": _WEEKDAYS, "months": cards, "legend": legend, "highlight": highlight is not None}
 
 
 def _month_card(
@@ -158,12 +176,10 @@ def _month_card(
     highlight: tuple[pd.Timestamp, pd.Timestamp] | None,
     start: pd.Timestamp,
     end: pd.Timestamp,
-) -> str:
+) -> dict[str, Any]:
     first = month.start_time.normalize()
-    n_days = month.days_in_month
-    cells = [f'<span class="cal-wd">{d}</span>' for d in _WEEKDAYS]
-    cells += ['<span class="cal-pad"></span>'] * first.weekday()
-    for d in range(n_days):
+    days = []
+    for d in range(month.days_in_month):
         day = first + pd.Timedelta(days=d)
         row = w.loc[day]
         on = [c for c in touched if row[c] != 0]
@@ -172,29 +188,26 @@ def _month_card(
             classes.append("cal-we")
         if day < start or day > end:
             classes.append("cal-out")
-        style = ""
         closed = [c for c in on if c in closures]
         if closed:
             classes.append("cal-closed")
-            style = f' style="--hatch:{colour[closed[0]]}"'
         if highlight is not None and highlight[0] <= day <= highlight[1]:
             classes.append("cal-peak")
-        stripes = []
-        for c in [c for c in on if c not in closures][:MAX_STRIPES]:
-            strength = 0.35 + 0.65 * min(abs(float(row[c])) / peak[c], 1.0)
-            stripes.append(f'<i style="background:{colour[c]};opacity:{strength:.2f}"></i>')
-        extra = len([c for c in on if c not in closures]) - MAX_STRIPES
-        if extra > 0:
-            stripes.append(f'<b class="cal-more">+{extra}</b>')
+        open_events = [c for c in on if c not in closures]
+        stripes = [
+            {"colour": colour[c], "opacity": f"{0.35 + 0.65 * min(abs(float(row[c])) / peak[c], 1.0):.2f}"}
+            for c in open_events[:MAX_STRIPES]
+        ]
         names = ", ".join(labels.get(c, c) for c in on)
-        title = f"{day:%a %d %b %Y}" + (f": {names}" if names else "")
-        cells.append(
-            f'<span class="{" ".join(classes)}"{style} title="{escape(title)}">'
-            f'<span class="cal-num">{d + 1}</span>'
-            f'<span class="cal-stripes">{"".join(stripes)}</span></span>'
-        )
-    name = f"{_stdcal.month_name[month.month]} {month.year}"
-    return f'<div class="cal-month"><h4>{escape(name)}</h4><div class="cal-days">{"".join(cells)}</div></div>'
+        days.append({
+            "classes": " ".join(classes),
+            "hatch": colour[closed[0]] if closed else "",
+            "title": f"{day:%a %d %b %Y}" + (f": {names}" if names else ""),
+            "num": d + 1,
+            "stripes": stripes,
+            "more": max(len(open_events) - MAX_STRIPES, 0),
+        })
+    return {"name": f"{_stdcal.month_name[month.month]} {month.year}", "pad": first.weekday(), "days": days}
 
 
 def _legend(
@@ -205,21 +218,10 @@ def _legend(
     closures: set[str],
     start: pd.Timestamp,
     end: pd.Timestamp,
-    highlight: tuple[pd.Timestamp, pd.Timestamp] | None,
-) -> str:
+) -> list[dict[str, Any]]:
     inside = w.loc[start:end]
-    items = []
-    for c in touched:
-        n = int(np.count_nonzero(inside[c].to_numpy()))
-        swatch_cls = "cal-swatch cal-swatch-closed" if c in closures else "cal-swatch"
-        kind = " · closed" if c in closures else ""
-        items.append(
-            f'<li><span class="{swatch_cls}" style="--hatch:{colour[c]};background-color:{colour[c]}">'
-            f"</span>{escape(labels.get(c, c))}"
-            f'<span class="muted"> · {n} day{"s" if n != 1 else ""}{kind}</span></li>'
-        )
-    if highlight is not None:
-        items.append('<li><span class="cal-swatch cal-swatch-peak"></span>the plan\'s highest period</li>')
-    if not touched:
-        items.append('<li class="muted">No event touches a day in this span.</li>')
-    return f'<ul class="cal-legend">{"".join(items)}</ul>'
+    return [
+        {"label": labels.get(c, c), "colour": colour[c], "closed": c in closures,
+         "days": int(np.count_nonzero(inside[c].to_numpy()))}
+        for c in touched
+    ]

@@ -127,15 +127,8 @@ def history_chart(
         )
     ax.plot(dates, fitted["base"], color=pal.BASE, linewidth=2.4, label="base (no events)")
     ax.plot(dates, fitted["fitted"], color=pal.FITTED, linewidth=1.3, label="fitted")
-    ax.plot(
-        dates,
-        fitted["actual"],
-        color=pal.ACTUAL,
-        linewidth=0.9,
-        marker="o" if len(fitted) <= 160 else None,
-        markersize=2.2,
-        label="actual",
-    )
+    ax.plot(dates, fitted["actual"], color=pal.ACTUAL, linewidth=0.9,
+            marker="o" if len(fitted) <= 160 else None, markersize=2.2, label="actual")
     _date_axis(ax)
     ax.yaxis.set_major_formatter(_units_formatter())
     ax.set_ylabel("units", color=pal.MUTED, fontsize=9)
@@ -202,15 +195,8 @@ def lifts_chart(
             ax.hlines(yi, lo, hi, color=colour, linewidth=3.2, alpha=0.45)
         marker = "D" if r["kind"] == "intervention" else "o"
         face = "white" if r["event"] in assumed_set else colour
-        ax.plot(
-            [r["lift_pct"]],
-            [yi],
-            marker=marker,
-            color=colour,
-            markerfacecolor=face,
-            markeredgewidth=1.6,
-            markersize=7,
-        )
+        ax.plot([r["lift_pct"]], [yi], marker=marker, color=colour, markerfacecolor=face,
+                markeredgewidth=1.6, markersize=7)
         right = hi if pd.notna(hi) else r["lift_pct"]
         ax.annotate(
             f"{r['lift_pct']:+.1f} %",
@@ -362,16 +348,8 @@ def plan_chart(
     lead = ("plan", "low–high interval", "average-share profile, same total")
     first = [i for i, n in enumerate(names) if n in lead]
     order = first + [i for i in range(len(names)) if i not in first]
-    leg = ax.legend(
-        [handles[i] for i in order],
-        [names[i] for i in order],
-        frameon=False,
-        fontsize=8.5,
-        loc="upper left",
-        bbox_to_anchor=(1.0, 1.0),
-    )
-    for text in leg.get_texts():
-        text.set_color(pal.INK)
+    _legend(ax, handles=[handles[i] for i in order], labels=[names[i] for i in order], loc="upper left",
+            bbox_to_anchor=(1.0, 1.0))
     return fig
 
 

@@ -3,7 +3,11 @@
 from __future__ import annotations
 
 import os
+from collections.abc import Mapping
 from pathlib import Path
+from typing import Any
+
+import evcal
 
 CAUTION = (
     "This plan is an estimate. It is built from past sales and the events in the "
@@ -22,3 +26,12 @@ def readable(path: Path) -> None:
     mask = os.umask(0)
     os.umask(mask)
     os.chmod(path, 0o666 & ~mask)
+
+
+def page_frame(model: Mapping[str, Any], files: list[str]) -> dict[str, str]:
+    """What every page's frame shows: the version, the caution, the files it was made from."""
+    fitted_with = model.get("evcal_version")
+    made = f"Made by evcal {evcal.__version__}" + (
+        f" from a model fitted with evcal {fitted_with}" if fitted_with else ""
+    )
+    return {"version": evcal.__version__, "caution": CAUTION, "made": made, "files": "; ".join(files)}

@@ -7,7 +7,8 @@ read by :func:`evcal.model.schema.read_folder`, the one checked reader that
 ``evcal plan`` and ``evcal show`` use too: a damaged folder is refused with the
 same line naming the file and the key, before any number from it is shown.
 Text cells that evcal wrote with a leading quote (formula-safe CSV,
-:mod:`evcal.formula_safe`) are read back as the text they were.
+:mod:`evcal.formula_safe`) are read back as the text they were (the quote is
+taken off once, by that reader).
 
 Examples
 --------
@@ -88,18 +89,18 @@ def read_model_folder(
 
     folder = Path(model_dir)
     if (folder / "panel.json").is_file() and not (folder / "model.json").is_file():
-        # a panel folder holds many series' tables; the report shows one series' model folder
-        raise ModelError(f"{folder}: a panel model folder (panel.json); evcal report reads a single-series "
-                         "model folder: fit the series on its own (evcal fit without --series-col)")
+        # a panel folder holds many series' long tables: write_report reads it with evcal.panel.load_panel
+        raise ModelError(f"{folder}: a panel model folder (panel.json), not a single model; read it with "
+                         "evcal.panel.load_panel (write_report shows it with a section per series)")
     # the one reader of a model folder: every key of model.json and every table checked as
     # `plan` and `show` check them; the first problem is one ModelError line
     checked = read_folder(folder)
     model = checked.model
     problems: list[str] = []
-    lifts = unguard_frame(checked.lifts)
+    lifts = checked.lifts.copy()  # read_folder took the formula-safe quote off already: once only
     lifts["kind"] = _kinds(lifts, model)
     lifts["label"] = _labels(lifts, model)
-    occ = unguard_frame(checked.occurrences)
+    occ = checked.occurrences
     profile = checked.profile
     fitted = checked.fitted
 

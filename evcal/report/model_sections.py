@@ -1,0 +1,205 @@
+"""The data of the sections drawn from one fitted model: history, season, lifts, past occurrences.
+
+Each function takes a :class:`~evcal.report.context.ReportContext` and returns
+plain data for its template in ``evcal/report/templates`` (strings, numbers,
+lists and dicts; charts as ``data:`` URIs). A section with nothing to show
+returns ``{"muted": "why"}``. The panel report calls the same functions for
+each series it shows.
+
+Examples
+--------
+>>> section = lifts_section(ctx)                                # doctest: +SKIP
+>>> section["table"]["headers"][:3]                             # doctest: +SKIP
+['event', 'name in files', 'kind']
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.report import charts
+from evcal.report.context import ReportContext
+from evcal.report.formatting import num, pct
+from evcal.report.periods import cycle_name
+
+
+def table(
+    headers: Sequence[str],
+    rows: Iterable[Sequence[object]],
+    numeric: Iterable[int] = (),
+    row_classes: Sequence[str] | None = None,
+) -> dict[str, Any]:
+    """A table for the ``table`` macro: cells are text, or ``{"main", "small"}`` for two lines.
+
+    Examples
+    --------
+    >>> table(["a", "b"], [[1, "x"]], numeric=(0,))["numeric"]
+    [0]
+    """
+    rows = [["" if c is None else c if isinstance(c, dict) else str(c) for c in row] for row in rows]
+    return {
+        "headers": [str(h) for h in headers],
+        "rows": rows,
+        "numeric": sorted(set(numeric)),
+        "row_classes": list(row_classes) if row_classes else [""] * len(rows),
+    }
+
+
+def figure(fig: Any, alt: str, caption: str | None = None) -> dict[str, str] | None:
+    """A chart as a PNG data URI with its alternative text, or None when there is no chart."""
+    if fig is None:
+        return None
+    return {"uri": charts.to_data_uri(fig), "alt": alt, "caption": caption or ""}
+
+
+def history_section(ctx: ReportContext) -> dict[str, Any]:
+    fitted = ctx.folder.fitted
+    if fitted.empty:
+        return {"muted": "fitted.csv has no rows."}
+    exclusions = [e for e in ctx.model.get("exclusions", []) or [] if isinstance(e, dict)]
+    fig = charts.history_chart(fitted, exclusions, ctx.freq)
+    a = fitted["actual"].to_numpy(float)
+    f = fitted["fitted"].to_numpy(float)
+    ok = np.isfinite(a) & np.isfinite(f)
+    text = (
+        "Actual sales, the model's fitted values, and the base: what sales would have "
+        "been with the trend and the regular season alone, no events."
+    )
+    if ok.any() and np.abs(a[ok]).sum() > 0:
+        wape = np.abs(a[ok] - f[ok]).sum() / np.abs(a[ok]).sum() * 100
+        text += f" In-sample, fitted values are off by {wape:.1f} % of actual sales (WAPE)."
+    if exclusions:
+        text += " Shaded spans were left out of the fit (see Warnings)."
+    return {"text": text, "figure": figure(fig, "Line chart of actual, fitted and base over the history")}
+
+
+def season_section(ctx: ReportContext) -> dict[str, Any]:
+    prof = ctx.folder.profile.dropna()
+    if prof.empty:
+        return {"muted": "profile.csv has no rows."}
+    fig = charts.index_chart(prof, ctx.freq)
+    hi = prof.loc[prof["index"].idxmax()]
+    lo = prof.loc[prof["index"].idxmin()]
+    name = cycle_name(ctx.freq)
+    text = (
+        f"The regular seasonal profile with the events taken out, as an index over one "
+        f"cycle (mean 100). Highest: {name} {int(hi['period'])} at {hi['index']:.0f}; lowest: "
+        f"{name} {int(lo['period'])} at {lo['index']:.0f}. Events that always fall in the "
+        "same period cannot be told apart from the season and stay inside this index."
+    )
+    return {"text": text, "figure": figure(fig, "Bar chart of the seasonal index around 100")}
+
+
+def lifts_section(ctx: ReportContext) -> dict[str, Any]:
+    lifts = ctx.folder.lifts
+    if lifts.empty:
+        return {"muted": "lifts.csv has no rows: the calendar had no events to fit."}
+    fig = charts.lifts_chart(lifts, ctx.colours, closures=ctx.closures, assumed=ctx.assumed)
+    rows, row_cls = [], []
+    for _, r in lifts.iterrows():
+        kind = r["kind"]
+        if r["event"] in ctx.closures:
+            kind = "closure"
+        elif r["event"] in ctx.assumed:
+            kind = "assumed"
+        if r["event"] in ctx.closures:
+            lift, interval, units = "closed (zero)", "–", num(r["units_per_occurrence"])
+        elif r["identifiable"] and pd.notna(r["lift_pct"]):
+            lift, interval = pct(r["lift_pct"]), f"{pct(r['low_pct'])} to {pct(r['high_pct'])}"
+            units = num(r["units_per_occurrence"])
+        else:
+            lift, interval, units = "not estimated", "–", "–"
+        identifiable = "yes" if r["identifiable"] else "no"
+        rows.append([r["label"], r["event"], kind, lift, interval, units, identifiable, r["note"]])
+        row_cls.append("" if r["identifiable"] else "unident")
+    not_ident = lifts[~lifts["identifiable"]]
+    closed = lifts[lifts["event"].isin(ctx.closures)]
+    headers = ["event", "name in files", "kind", "lift", "95 % interval", "units / occurrence",
+               "identifiable", "note"]
+    return {
+        "figure": figure(fig, "Event lifts with 95 % interval bars"),
+        "not_estimated": [
+            {"label": str(r["label"]), "note": str(r["note"] or "not identifiable")}
+            for _, r in not_ident.iterrows()
+        ],
+        "closures": ", ".join(str(x) for x in closed["label"]),
+        "table": table(headers, rows, numeric=(3, 4, 5), row_classes=row_cls),
+    }
+
+
+def added_by_year(occurrences: pd.DataFrame) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
+    """Units, % over base and count of occurrences per event (rows) and year (columns).
+
+    The % for a year with several occurrences is total added over total base
+    of those occurrences; each occurrence's base is recovered as
+    ``added_units / (added_pct / 100)``.
+    """
+    occ = occurrences.dropna(subset=["start"]).copy()
+    if occ.empty:
+        empty = pd.DataFrame()
+        return empty, empty, empty
+    occ["year"] = occ["start"].dt.year
+    with np.errstate(divide="ignore", invalid="ignore"):
+        occ["base_units"] = np.where(
+            occ["added_pct"].abs() > 1e-9, occ["added_units"] / (occ["added_pct"] / 100.0), np.nan
+        )
+    order = list(dict.fromkeys(occ["event"]))
+    units = occ.pivot_table(index="event", columns="year", values="added_units", aggfunc="sum")
+    base = occ.pivot_table(index="event", columns="year", values="base_units", aggfunc="sum")
+    count = occ.pivot_table(index="event", columns="year", values="start", aggfunc="count")
+    share = (units / base * 100.0).where(base.abs() > 0)
+    return units.reindex(order), share.reindex(order), count.reindex(order)
+
+
+def past_section(ctx: ReportContext) -> dict[str, Any]:
+    occ = ctx.folder.occurrences
+    units, share, count = added_by_year(occ)
+    if units.empty:
+        return {"muted": "occurrences.csv has no rows: no event occurred inside the history."}
+    fig = charts.occurrences_chart(units.T, ctx.labels, ctx.colours)
+    years = list(units.columns)
+    rows: list[list[object]] = []
+    for event in units.index:
+        row: list[object] = [ctx.label(event)]
+        for y in years:
+            u = units.loc[event, y]
+            if pd.isna(u):
+                row.append("–")
+                continue
+            n = count.loc[event, y]
+            extra = f" ×{int(n)}" if pd.notna(n) and n > 1 else ""
+            row.append({"main": num(u), "small": pct(share.loc[event, y]) + extra})
+        rows.append(row)
+    rows.append(["all events"] + [num(units[y].sum()) for y in years])
+    by_year = table(
+        ["event"] + [str(y) for y in years],
+        rows,
+        numeric=range(1, len(years) + 1),
+        row_classes=[""] * (len(rows) - 1) + ["total"],
+    )
+    has_interval = {"low_units", "high_units"} <= set(occ.columns)
+    detail_rows = []
+    for _, r in occ.iterrows():
+        row = [
+            ctx.label(r["event"]),
+            f"{r['start']:%Y-%m-%d}",
+            f"{r['end']:%Y-%m-%d}" if pd.notna(r["end"]) else "–",
+            num(r["added_units"]),
+        ]
+        if has_interval:
+            row.append(f"{num(r['low_units'])} to {num(r['high_units'])}")
+        row.append(pct(r["added_pct"]))
+        detail_rows.append(row)
+    headers = ["event", "start", "end", "added units"]
+    headers += ["95 % interval (units)"] if has_interval else []
+    headers += ["added %"]
+    return {
+        "figure": figure(fig, "Stacked bars of units each event added per year"),
+        "by_year": by_year,
+        "count": len(occ),
+        "every": table(headers, detail_rows, numeric=range(3, len(headers))),
+    }

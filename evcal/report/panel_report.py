@@ -1,0 +1,234 @@
+"""The report of a panel model folder: an overview, then one section per series shown.
+
+The overview says how many series were fitted and skipped (and why), the fit
+quality across series and each event's lift across series with its pooled
+lift (the ``pooled_pct`` column of ``lifts.csv``, summarised by
+:func:`evcal.panel.summary.lift_distribution`, as ``evcal show`` does). Each
+series shown then gets the single-model sections (history, seasonal index,
+lifts, past occurrences) built from the panel folder's own long tables
+filtered by the series' key: nothing is fitted again.
+
+Which series: those named (each as :meth:`evcal.panel.PanelResult.find` reads
+a key), else the first :data:`SHOWN_BY_DEFAULT` fitted ones; the report says
+how many are left out and how to pick them.
+
+Examples
+--------
+>>> page = render_panel_report("models/stores", series=["north", "store=south"])  # doctest: +SKIP
+>>> "Panel overview" in page                                                       # doctest: +SKIP
+True
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.panel import PanelResult, load_panel
+from evcal.panel.summary import lift_distribution
+from evcal.report.common import page_frame
+from evcal.report.context import ReportContext
+from evcal.report.formatting import freq_words, num, pct
+from evcal.report.model_folder import ModelFolder
+from evcal.report.model_sections import history_section, lifts_section, past_section, season_section, table
+from evcal.report.templating import render
+
+#: how many fitted series the report shows when none are named (each adds four charts)
+SHOWN_BY_DEFAULT = 12
+#: rows of skipped.csv listed in the overview (the file has them all)
+SKIPPED_LISTED = 50
+
+SERIES_PARTS = (
+    ("history", "History, fitted and base", "history.html", history_section),
+    ("season", "Seasonal index", "season.html", season_section),
+    ("lifts", "Event lifts", "lifts.html", lifts_section),
+    ("past", "What each event added", "past.html", past_section),
+)
+
+
+def render_panel_report(model_dir: str | Path, series: Sequence[str] | None = None,
+                        title: str | None = None) -> str:
+    """The panel report as one HTML string (see :func:`evcal.report.write_report`).
+
+    Raises
+    ------
+    ModelError
+        The panel folder is damaged (the checked reader's line), or a name in
+        ``series`` matches no series or more than one.
+    """
+    folder = Path(model_dir)
+    panel = load_panel(folder)
+    keys = [panel.find(s) for s in series] if series is not None else _first_fitted(panel)
+    keys = list({key_text(panel, k): k for k in keys}.values())  # a series named twice is shown once
+    settings = panel.settings
+    name = settings.get("calendar_name") or folder.name
+    heading = title or f"Calendar effects by series: {name}"
+    fitted = int((panel.series["status"] == "fitted").sum())
+    shown = [series_part(panel, key, folder, i) for i, key in enumerate(keys, 2)]
+    overview = panel_overview(panel, shown=len(keys), fitted=fitted, named=series is not None)
+    return render("panel.html", heading=heading, subtitle=panel_subtitle(panel, folder),
+                  overview=overview, series=shown,
+                  **page_frame(settings, [f"panel model folder {folder}"]))
+
+
+def key_text(panel: PanelResult, key: dict[str, Any]) -> str:
+    """``store=north, product=P1``: a series' key as the report and ``--series`` write it."""
+    return ", ".join(f"{c}={key[c]}" for c in panel.key_cols)
+
+
+def panel_subtitle(panel: PanelResult, folder: Path) -> str:
+    s = panel.settings
+    parts = []
+    if s.get("calendar_name"):
+        parts.append(f"Calendar: {s['calendar_name']}")
+    parts.append(f"{freq_words(s['freq'])} history {pd.Timestamp(s['periods']['start']):%d %b %Y} to "
+                 f"{pd.Timestamp(s['periods']['end']):%d %b %Y}")
+    parts.append(f"{len(panel.series)} series (keys: {', '.join(panel.key_cols)})")
+    parts.append(f"model folder: {folder.name}")
+    return " · ".join(parts)
+
+
+def panel_overview(panel: PanelResult, shown: int, fitted: int, named: bool) -> dict[str, Any]:
+    """Series fitted and skipped, fit quality, each event's lift across series, which series follow."""
+    s = panel.settings
+    counts = s.get("counts", {})
+    level = f", added up to {', '.join(s['level'])}" if s.get("level") else ""
+    lines = [
+        f"{len(panel.series)} series (keys: {', '.join(panel.key_cols)}{level}) from {s['source']}: "
+        f"{fitted} fitted ({counts.get('batched', 0)} by the batched least-squares solver, "
+        f"{counts.get('per_series', 0)} one by one), {len(panel.skipped)} skipped.",
+    ]
+    wape = panel.series.loc[panel.series["status"] == "fitted", "wape_pct"].to_numpy(dtype=float)
+    wape = wape[np.isfinite(wape)]
+    if len(wape):
+        lines.append(f"In-sample fit: WAPE median {np.median(wape):.1f} % (10–90 % of series: "
+                     f"{np.quantile(wape, 0.1):.1f} to {np.quantile(wape, 0.9):.1f} %).")
+    if named:
+        lines.append(f"Shown below: the {shown} series named with --series.")
+    elif shown < fitted:
+        left = fitted - shown
+        lines.append(f"Shown below: the first {shown} of {fitted} fitted series; {left} "
+                     f"{'is' if left == 1 else 'are'} not shown. Pick the series to show with --series, "
+                     "once per series (e.g. --series "
+                     f"\"{key_text(panel, _first_fitted(panel)[0])}\").")
+    else:
+        lines.append(f"Shown below: all {shown} fitted series.")
+    return {"lines": lines, "lifts": _lift_table(panel), "skipped": _skipped_table(panel)}
+
+
+def series_part(panel: PanelResult, key: dict[str, Any], folder: Path, number: int) -> dict[str, Any]:
+    """One series' section: its line of facts and the single-model sections, from the panel's tables."""
+    row = panel.series.loc[_mask(panel.series, panel, key)].iloc[0]
+    name = key_text(panel, key)
+    part: dict[str, Any] = {"key": f"series-{number - 1}", "number": number, "title": f"Series {name}",
+                            "parts": []}
+    if row["status"] != "fitted":
+        skipped = panel.skipped.loc[_mask(panel.skipped, panel, key)]
+        why = f"{skipped['reason'].iloc[0]} ({skipped['detail'].iloc[0]})" if len(skipped) else ""
+        part["summary"] = f"Not fitted: {why or row.get('reason', '')}. See skipped.csv."
+        return part
+    part["summary"] = (f"{int(row['periods_fitted'])} periods fitted, {row['start']} to {row['end']}; "
+                       f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
+                       f"in-sample WAPE {num(row['wape_pct'], 1)} %."
+                       + (f" Note: {note}" if (note := row["note"]) and isinstance(note, str) else ""))
+    ctx = ReportContext(series_folder(panel, key, folder))
+    part["parts"] = [{"key": k, "title": t, "template": tpl, "data": build(ctx)}
+                     for k, t, tpl, build in SERIES_PARTS]
+    return part
+
+
+def series_folder(panel: PanelResult, key: dict[str, Any], folder: Path) -> ModelFolder:
+    """One series' tables from the panel folder (filtered by its key), shaped as a single model folder."""
+    from evcal.calendar import load_calendar
+
+    s = panel.settings
+    cal = load_calendar(s["calendar_text"])  # the saved calendar: the reader checked that it loads
+    labels = _event_labels(panel)
+    drop = panel.key_cols
+    lifts = panel.lifts.loc[_mask(panel.lifts, panel, key)].drop(columns=drop)
+    lifts["identifiable"] = lifts["identifiable"].astype(str).str.lower().isin(["true", "1"])
+    lifts["note"] = lifts["note"].fillna("")
+    lifts["label"] = [labels.get(e, e) for e in lifts["event"]]
+    occ = panel.occurrences.loc[_mask(panel.occurrences, panel, key)].drop(columns=drop)
+    for col in ("start", "end"):
+        occ[col] = pd.to_datetime(occ[col], format="ISO8601")
+    profile = panel.profile.loc[_mask(panel.profile, panel, key)].drop(columns=drop)
+    model = {
+        "freq": s["freq"],
+        "calendar_name": s.get("calendar_name") or "",
+        "evcal_version": s.get("evcal_version"),
+        "events": [{"name": e.name, "label": e.label, "effect": e.effect.describe()} for e in cal.events],
+        "closure_events": [e.name for e in cal.events if e.effect.kind == "zero"],
+        "intervention_names": [t.name for t in cal.interventions],
+        "exclusions": [{"start": f"{e.start:%Y-%m-%d}", "end": f"{e.end:%Y-%m-%d}", "reason": e.reason}
+                       for e in cal.exclusions],
+    }
+    return ModelFolder(
+        path=folder,
+        model=model,
+        lifts=lifts.reset_index(drop=True),
+        occurrences=occ.sort_values(["start", "event"]).reset_index(drop=True),
+        profile=profile.sort_values("period").reset_index(drop=True),
+        fitted=_fitted_rows(panel, key),
+    )
+
+
+def _event_labels(panel: PanelResult) -> dict[str, str]:
+    """Event name -> label, from ``panel.json`` (the long lifts table does not repeat them)."""
+    events = panel.settings.get("events") or {}
+    return {name: str(info.get("label") or name) for name, info in events.items()}
+
+
+def _first_fitted(panel: PanelResult) -> list[dict[str, Any]]:
+    fitted = panel.series[panel.series["status"] == "fitted"].head(SHOWN_BY_DEFAULT)
+    return [{c: fitted[c].iloc[i] for c in panel.key_cols} for i in range(len(fitted))]
+
+
+def _mask(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> np.ndarray:
+    """Rows of a long table that belong to one series (keys compared as text, as ``find`` does)."""
+    mask = np.ones(len(frame), dtype=bool)
+    for c in panel.key_cols:
+        mask &= frame[c].astype(str).to_numpy() == str(key[c])
+    return mask
+
+
+def _fitted_rows(panel: PanelResult, key: dict[str, Any]) -> pd.DataFrame:
+    """One series' rows of the fitted table; read from ``fitted.parquet`` for that key only."""
+    if panel.fitted_path is not None and panel.fitted_path.is_file():
+        rows = pd.read_parquet(panel.fitted_path, filters=[(c, "==", key[c]) for c in panel.key_cols])
+    else:
+        rows = panel.fitted.loc[_mask(panel.fitted, panel, key)]
+    rows = rows.drop(columns=panel.key_cols)
+    rows["date"] = pd.to_datetime(rows["date"])
+    return rows.sort_values("date").reset_index(drop=True)
+
+
+def _lift_table(panel: PanelResult) -> dict[str, Any] | None:
+    dist = lift_distribution(panel.lifts) if len(panel.lifts) else pd.DataFrame()
+    if dist.empty:
+        return None
+    labels = _event_labels(panel)
+    rows = [
+        [labels.get(r.event, r.event), str(r.series), pct(r.median_pct),
+         f"{pct(r.p10_pct)} to {pct(r.p90_pct)}", pct(r.above_zero_pct, 0, sign=False),
+         pct(r.below_zero_pct, 0, sign=False), pct(r.pooled_median_pct)]
+        for r in dist.itertuples(index=False)
+    ]
+    headers = ["event", "series", "median lift", "10–90 % of series", "above zero", "below zero",
+               "pooled lift"]
+    return table(headers, rows, numeric=range(1, 7))
+
+
+def _skipped_table(panel: PanelResult) -> dict[str, Any] | None:
+    skipped = panel.skipped
+    if skipped.empty:
+        return None
+    rows = [[key_text(panel, {c: r[c] for c in panel.key_cols}), r["reason"], r["detail"]]
+            for _, r in skipped.head(SKIPPED_LISTED).iterrows()]
+    out = table(["series", "reason", "detail"], rows)
+    out["more"] = max(len(skipped) - SKIPPED_LISTED, 0)
+    return out

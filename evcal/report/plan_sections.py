@@ -1,0 +1,166 @@
+"""The data of the sections about the plan: the glance cards, the plan and its calendar.
+
+Plain data for the templates ``glance.html``, ``plan.html`` and
+``calendar.html`` (see :mod:`evcal.report.model_sections` for the form).
+
+Examples
+--------
+>>> [card["k"] for card in glance(ctx)]                         # doctest: +SKIP
+['Adds the most', 'Plan total', 'Peak period', 'Against average share', 'Model']
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.report import charts
+from evcal.report.calendar_view import calendar_data, weights_from_plan
+from evcal.report.context import ReportContext, view_span
+from evcal.report.formatting import num, pct, signed
+from evcal.report.headlines import average_share_plan, biggest_event
+from evcal.report.model_folder import lift_columns
+from evcal.report.model_sections import figure, table
+from evcal.report.periods import period_days, period_label
+
+
+def glance(ctx: ReportContext) -> list[dict[str, str]]:
+    """The cards at the top: biggest event, plan total, peak, against average share, model."""
+    cards: list[dict[str, str]] = []
+    top = biggest_event(ctx.folder, skip=ctx.closures | set(ctx.assumed))
+    if top is not None:
+        cards.append({
+            "k": "Adds the most",
+            "v": f"{top['label']}",
+            "d": f"about {num(top['units_per_occurrence'])} units each time, "
+            f"{pct(top['lift_pct'])} over base ({pct(top['low_pct'])} to {pct(top['high_pct'])})",
+        })
+    plan = ctx.folder.plan
+    if plan is not None and not plan.empty:
+        peak = plan.loc[plan["plan"].idxmax()]
+        cards.append({
+            "k": "Plan total",
+            "v": f"{num(plan['plan'].sum())} units",
+            "d": f"over {len(plan)} periods, {period_label(plan['date'].iloc[0], ctx.freq)} to "
+            f"{period_label(plan['date'].iloc[-1], ctx.freq)}",
+        })
+        cards.append({
+            "k": "Peak period",
+            "v": period_label(peak["date"], ctx.freq),
+            "d": f"{num(peak['plan'])} units planned (low {num(peak['low'])}, high {num(peak['high'])})",
+        })
+        avg = average_share_plan(plan, ctx.freq, ctx.model.get("average_share"))
+        if np.isfinite(avg).any():
+            values = plan["plan"].to_numpy(dtype=float)
+            diff = values - avg
+            moved = float(np.nansum(np.abs(diff)) / 2.0)
+            k = int(np.nanargmax(np.abs(np.nan_to_num(diff))))
+            cards.append({
+                "k": "Against average share",
+                "v": f"{num(moved)} units move",
+                "d": f"{moved / values.sum() * 100:.1f} % of the total sits in other periods; most in "
+                f"{period_label(plan['date'].iloc[k], ctx.freq)} ({signed(diff[k])})",
+            })
+    chosen = (ctx.model.get("model") or {}).get("chosen")
+    if chosen:
+        reason = str((ctx.model.get("model") or {}).get("reason", ""))
+        if len(reason) > 90:
+            reason = reason[:88].rsplit(" ", 1)[0] + " … (see Warnings and model)"
+        cards.append({"k": "Model", "v": str(chosen), "d": reason})
+    return cards
+
+
+def plan_section(ctx: ReportContext) -> dict[str, Any]:
+    plan = ctx.folder.plan
+    if plan is None:
+        return {"muted": "No plan was given. Make one with `evcal plan` and pass it with --plan."}
+    if plan.empty:
+        return {"muted": "The plan file has no rows."}
+    events = lift_columns(plan)
+    avg = average_share_plan(plan, ctx.freq, ctx.model.get("average_share"))
+    fig = charts.plan_chart(plan, events, ctx.labels, ctx.colours, ctx.freq, compare=avg)
+    total = float(plan["plan"].sum())
+    base_total = float(plan["base"].sum())
+    share_rows = []
+    for event in events:
+        units = float(plan[f"lift:{event}"].fillna(0).sum())
+        if units == 0:
+            continue
+        note = "assumed lift" if event in ctx.assumed else ("closure" if event in ctx.closures else "")
+        share_rows.append(
+            [ctx.label(event), num(units), pct(units / total * 100 if total else np.nan, sign=False), note]
+        )
+    base_share = pct(base_total / total * 100 if total else np.nan, sign=False)
+    share_rows.append(["base (no events)", num(base_total), base_share, ""])
+    moved = None
+    if np.isfinite(avg).any():
+        diff = plan["plan"].to_numpy(dtype=float) - avg
+        order = [k for k in np.argsort(-np.abs(np.nan_to_num(diff)))[:5] if np.isfinite(diff[k])]
+        moved_rows = [
+            [
+                period_label(plan["date"].iloc[k], ctx.freq),
+                num(plan["plan"].iloc[k]),
+                num(avg[k]),
+                signed(diff[k]),
+                pct(100.0 * diff[k] / avg[k] if avg[k] else np.nan),
+            ]
+            for k in order
+        ]
+        moved = table(["period", "plan", "average share", "difference", "difference %"], moved_rows,
+                      numeric=(1, 2, 3, 4))
+    has_assump = "assumptions" in plan.columns
+    period_rows = []
+    for _, r in plan.iterrows():
+        events_sum = sum(float(r[f"lift:{e}"]) for e in events if pd.notna(r[f"lift:{e}"]))
+        row = [
+            period_label(r["date"], ctx.freq),
+            f"{r['date']:%Y-%m-%d}",
+            num(r["base"]),
+            num(events_sum),
+            num(r["plan"]),
+            num(r["low"]),
+            num(r["high"]),
+        ]
+        if has_assump:
+            row.append(r["assumptions"])
+        period_rows.append(row)
+    headers = ["period", "date", "base", "events", "plan", "low", "high"]
+    if has_assump:
+        headers.append("assumptions")
+    return {
+        "figure": figure(fig, "Plan: base with stacked event contributions and interval"),
+        "shares": table(["part of the plan", "units", "share of total", ""], share_rows, numeric=(1, 2)),
+        "moved": moved,
+        "count": len(plan),
+        "periods": table(headers, period_rows, numeric=(2, 3, 4, 5, 6)),
+    }
+
+
+def calendar_section(ctx: ReportContext) -> dict[str, Any]:
+    folder = ctx.folder
+    if ctx.weights is None and folder.plan is None:
+        return {"muted": "Pass --plan (or --calendar) to see which days of the plan year each event touches."}
+    start, end = view_span(folder)
+    if ctx.weights is not None:
+        weights = ctx.weights
+        note = "Each day shows the events whose window touches it (from the calendar file)."
+    else:
+        weights = weights_from_plan(folder.plan, ctx.freq)  # type: ignore[arg-type]
+        note = (
+            "Drawn from the plan's event columns, so a whole period lights up when an event "
+            "falls in it; pass --calendar for day-by-day windows."
+        )
+    highlight = None
+    plan = folder.plan
+    if plan is not None and not plan.empty:
+        highlight = period_days(plan.loc[plan["plan"].idxmax(), "date"], ctx.freq)
+    view = calendar_data(weights, start, end, ctx.labels, ctx.colours, closures=ctx.closures,
+                         highlight=highlight)
+    text = (
+        note + " Stripes along a day's foot are events (fainter where the day weighs less in "
+        "the event's window); hatched days are closures; the framed days are the plan's "
+        f"highest period. Shown: {start:%d %b %Y} to {end:%d %b %Y}."
+    )
+    return {"text": text, "view": view}

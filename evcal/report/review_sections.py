@@ -1,0 +1,132 @@
+"""The data of the sections that say how far to trust the numbers: the backtest, warnings and model.
+
+Plain data for the templates ``backtest.html`` and ``notes.html`` (see
+:mod:`evcal.report.model_sections` for the form).
+
+Examples
+--------
+>>> notes_section(ctx)["warnings"]                              # doctest: +SKIP
+['a: this event always falls in the same seasonal period, ...']
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.report import charts
+from evcal.report.context import ReportContext
+from evcal.report.formatting import num, pct, sig
+from evcal.report.model_sections import figure, table
+from evcal.report.periods import period_label
+
+METHOD_NAMES = {
+    "evcal": "evcal (base + scheduled events)",
+    "average_share": "average share of year",
+    "seasonal_naive": "same period last year",
+}
+
+TRANSFORM_WORDS = {
+    "log": "multiplicative (log): lifts act as % of base",
+    "none": "additive: lifts act as units",
+    "count": "count model (log link): lifts act as % of base",
+}
+
+
+def ratio_as_percent(values: pd.Series) -> pd.Series:
+    """WAPE and bias as %: ``backtest.csv`` holds them as ratios (0.08 is 8 %, per evcal.plan)."""
+    return pd.to_numeric(values, errors="coerce") * 100.0
+
+
+def backtest_section(ctx: ReportContext) -> dict[str, Any]:
+    bt = ctx.folder.backtest
+    if bt is None:
+        return {"muted": "No backtest was given. Run `evcal backtest` and pass its CSV with --backtest."}
+    if bt.empty:
+        return {"muted": "The backtest file has no rows."}
+    bt = bt.copy()
+    bt["wape"] = ratio_as_percent(bt["wape"])
+    bt["bias"] = ratio_as_percent(bt["bias"])
+    years = sorted(int(y) for y in bt["year"].dropna().unique())
+    groups = list(dict.fromkeys(zip(bt["spread"], bt["method"], strict=True)))
+    rows, row_cls = [], []
+    summary: list[str] = []
+    for spread in dict.fromkeys(bt["spread"]):
+        in_group = [g for g in groups if g[0] == spread]
+        means = {m: bt[(bt["spread"] == s) & (bt["method"] == m)]["wape"].mean() for s, m in in_group}
+        best = min((v for v in means.values() if pd.notna(v)), default=np.nan)
+        for s, m in in_group:
+            sub = bt[(bt["spread"] == s) & (bt["method"] == m)]
+            by_year = sub.groupby(sub["year"].astype(int))["wape"].mean()
+            row: list[object] = [METHOD_NAMES.get(m, m), "spread to actual total" if s == "spread" else s]
+            row += [pct(by_year.get(y, np.nan), sign=False) for y in years]
+            row += [pct(means[m], sign=False), pct(sub["bias"].mean()),
+                    num(sub["peak_error"].abs().mean(), 1)]
+            rows.append(row)
+            row_cls.append("best" if pd.notna(means[m]) and means[m] == best else "")
+        if "evcal" in means and "average_share" in means:
+            ev_y = bt[(bt["spread"] == spread) & (bt["method"] == "evcal")].set_index("year")["wape"]
+            av_y = bt[(bt["spread"] == spread) & (bt["method"] == "average_share")].set_index("year")["wape"]
+            common = ev_y.index.intersection(av_y.index)
+            wins = int((ev_y.loc[common] < av_y.loc[common]).sum())
+            summary.append(
+                f"{'Spread to each year’s actual total' if spread == 'spread' else f'Plans {spread}'}: "
+                f"evcal’s WAPE averaged {means['evcal']:.1f} % against {means['average_share']:.1f} % "
+                f"for the average-share index; evcal was closer in {wins} of {len(common)} years."
+            )
+    headers = (["method", "plan"] + [f"WAPE {y}" for y in years]
+               + ["mean WAPE", "mean bias", "peak off by (periods)"])
+    fig = charts.backtest_chart(bt.copy(), METHOD_NAMES)
+    return {
+        "summary": summary,
+        "table": table(headers, rows, numeric=range(2, len(years) + 5), row_classes=row_cls),
+        "figure": figure(fig, "WAPE per held-out year and method",
+                         "WAPE % per held-out year (plans spread to the actual total)"),
+    }
+
+
+def notes_section(ctx: ReportContext) -> dict[str, Any]:
+    """Model chosen, warnings, events not estimated, assumptions, exclusions (each may be empty)."""
+    out: dict[str, Any] = {"chosen": None}
+    model = ctx.model.get("model") or {}
+    if isinstance(model, Mapping) and model.get("chosen"):
+        transform = ctx.model.get("transform")
+        cands = [c for c in model.get("candidates", []) or [] if isinstance(c, Mapping)]
+        out["chosen"] = {
+            "name": str(model.get("chosen")),
+            "reason": str(model.get("reason", "")),
+            "transform": TRANSFORM_WORDS.get(str(transform), str(transform)) if transform else "",
+            "candidates": table(
+                ["candidate", "criterion", "value"],
+                [
+                    [str(c.get("name", "")) + (" (chosen)" if c.get("name") == model.get("chosen") else ""),
+                     c.get("criterion", ""), sig(c.get("value"))]
+                    for c in cands
+                ],
+                numeric=(2,),
+            ) if cands else None,
+        }
+    out["warnings"] = [str(w) for w in ctx.model.get("warnings", []) or []]
+    lifts = ctx.folder.lifts
+    out["not_estimated"] = [
+        {"label": str(r["label"]), "event": str(r["event"]),
+         "note": str(r["note"] or "not identifiable from this history")}
+        for _, r in lifts[~lifts["identifiable"]].iterrows()
+    ]
+    assumptions = [f"{ctx.label(name)} ({name}): {text}" for name, text in ctx.assumed.items()]
+    plan = ctx.folder.plan
+    if plan is not None and "assumptions" in plan.columns:
+        marked = plan[plan["assumptions"].str.strip() != ""]
+        for text, grp in marked.groupby("assumptions", sort=False):
+            periods = ", ".join(period_label(d, ctx.freq) for d in grp["date"].head(6))
+            more = f" and {len(grp) - 6} more" if len(grp) > 6 else ""
+            assumptions.append(f"{text} — in {periods}{more}")
+    out["assumptions"] = assumptions
+    exclusions = [e for e in ctx.model.get("exclusions", []) or [] if isinstance(e, Mapping)]
+    spans = [[e.get("start", ""), e.get("end", ""), e.get("reason", "")] for e in exclusions]
+    out["exclusions"] = table(["start", "end", "reason"], spans) if exclusions else None
+    out["empty"] = not (out["chosen"] or out["warnings"] or out["not_estimated"] or assumptions or exclusions)
+    return out

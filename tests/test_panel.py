@@ -18,9 +18,10 @@ from statsmodels.stats.meta_analysis import combine_effects
 
 import evcal
 from evcal.calendar import load_calendar
-from evcal.engine.batched import SharedSolve, hac_covariances
+from evcal.engine.batched import SharedSolve
 from evcal.engine.run import fit_long_panel
 from evcal.io.longformat import read_panel
+from evcal.model.estimators import hac_covariances
 from evcal.model.options import FitOptions
 from evcal.panel import fit_panel
 from evcal.panel.pooling import dersimonian_laird, pool_lifts

@@ -22,19 +22,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from evcal.model.estimators import newey_west_lags
+from evcal.model.estimators import hac_covariances, newey_west_lags
 
-__all__ = ["SharedSolve", "hac_covariances", "bartlett_weights"]
+__all__ = ["SharedSolve"]
 
-#: series per block in the batched products (bounds memory: block × periods × columns floats)
-BLOCK = 512
-#: up to this many coefficient pairs (j²) the covariances come from one product per lag
-SMALL_J2 = 144
-
-
-def bartlett_weights(lags: int) -> np.ndarray:
-    """Bartlett kernel weights ``1 - l/(L+1)`` for l = 0..L (statsmodels ``weights_bartlett``)."""
-    return 1.0 - np.arange(lags + 1) / (lags + 1.0)
 
 
 @dataclass
@@ -99,47 +90,3 @@ class SharedSolve:
         """HAC covariance of each series' coefficients (m, j, j), for columns ``cols`` (all by default)."""
         Z = self.Z if cols is None else self.Z[:, cols]
         return hac_covariances(Z, E, self.lags)
-
-
-def hac_covariances(Z: np.ndarray, E: np.ndarray, lags: int, block: int = BLOCK) -> np.ndarray:
-    """Newey–West sandwich covariances for many residual columns at once.
-
-    Parameters
-    ----------
-    Z : ndarray, shape (n, j)
-        ``X (XᵀX)⁻¹`` restricted to the coefficients wanted.
-    E : ndarray, shape (n, m)
-        Residuals of m series on the same n rows (consecutive periods).
-    lags : int
-        Highest lag L of the Bartlett window.
-
-    Returns
-    -------
-    ndarray, shape (m, j, j)
-        ``Zᵀ Ωₛ Z`` for each series s, equal to statsmodels'
-        ``OLS(y, X).fit(cov_type="HAC", cov_kwds={"maxlags": L}).cov_params()``
-        restricted to those rows and columns.
-    """
-    n, j = Z.shape
-    m = E.shape[1]
-    w = bartlett_weights(lags)
-    w[0] = 0.5  # Γ₀ is counted once in Γ₀/2 + Γ₀ᵀ/2
-    if j * j <= SMALL_J2:
-        # few coefficients: Γₗ for every series is one matrix product of the lagged
-        # column products (n × j²) with the lagged residual products (n × m)
-        acc = np.zeros((j * j, m))
-        for lag in range(0, min(lags, n - 1) + 1):
-            M = (Z[lag:, :, None] * Z[: n - lag, None, :]).reshape(n - lag, j * j)
-            acc += w[lag] * (M.T @ (E[lag:] * E[: n - lag]))
-        G = acc.reshape(j, j, m).transpose(2, 0, 1)
-        return G + G.transpose(0, 2, 1)
-    out = np.empty((m, j, j))
-    for a in range(0, m, block):
-        b = min(a + block, m)
-        V = E[:, a:b].T[:, :, None] * Z[None, :, :]  # (series, n, j)
-        W = 0.5 * V
-        for lag in range(1, min(lags, n - 1) + 1):
-            W[:, lag:, :] += w[lag] * V[:, :-lag, :]
-        A = np.matmul(V.transpose(0, 2, 1), W)
-        out[a:b] = A + A.transpose(0, 2, 1)
-    return out

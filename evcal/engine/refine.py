@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 
 from evcal.design.curved import CurvedEvents
-from evcal.engine.batched import bartlett_weights
+from evcal.model.estimators import bartlett_weights
 
 __all__ = ["curved_columns", "design_with_theta", "refine"]
 

@@ -86,6 +86,27 @@ def choose_transform(values: pd.Series, options: FitOptions, source: str, known_
     return options.transform
 
 
+def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, freq: str,
+                theta: dict[str, float] | None = None) -> DesignSpec:
+    """The design settings of a history on ``periods`` (the trend's origin is the year it starts)."""
+    seasonal = options.seasonal
+    if seasonal == "auto":
+        seasonal = "fourier" if base_freq(freq) == "D" else "dummies"
+    return DesignSpec(
+        freq=freq,
+        trend_origin=float(np.floor(period_mid_years(periods[:1])[0])),
+        trend_order=options.trend_order,
+        constant=True,
+        seasonal=seasonal,
+        fourier_order=options.fourier_order,
+        trading_days=options.trading_days,
+        event_columns=[c for c, ev in calendar.event_columns().items()
+                       if calendar.event(ev).effect.kind != "zero"],
+        interventions=[InterventionTerm.from_spec(s).to_dict() for s in calendar.interventions],
+        event_theta=dict(theta or {}),
+    )
+
+
 def prepare(history: Any, calendar: Any, options: FitOptions,
             theta: dict[str, float] | None = None, identify: bool = True,
             degenerate: dict[str, str] | None = None) -> ModelInputs:
@@ -103,24 +124,9 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     periods = history.values.index
     actual = history.values.astype(float)
     freq = history.freq
-    event_cols = [c for c, ev in calendar.event_columns().items()
-                  if calendar.event(ev).effect.kind != "zero"]
-    interventions = [InterventionTerm.from_spec(s).to_dict() for s in calendar.interventions]
-    seasonal = options.seasonal
-    if seasonal == "auto":
-        seasonal = "fourier" if base_freq(freq) == "D" else "dummies"
-    spec = DesignSpec(
-        freq=freq,
-        trend_origin=float(np.floor(period_mid_years(periods[:1])[0])),
-        trend_order=options.trend_order,
-        constant=True,
-        seasonal=seasonal,
-        fourier_order=options.fourier_order,
-        trading_days=options.trading_days,
-        event_columns=event_cols,
-        interventions=interventions,
-        event_theta=dict(theta or {}),
-    )
+    spec = design_spec(calendar, options, periods, freq, theta)
+    event_cols = list(spec.event_columns)
+    interventions = list(spec.interventions)
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()
     closed_full = share <= 1e-9

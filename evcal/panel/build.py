@@ -255,20 +255,6 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
 
 def _template_spec(fit: Any) -> dict[str, Any]:
     """The shared design settings (each series' own trend origin is in series.csv)."""
-    from evcal.design.base import period_mid_years
-    from evcal.design.interventions import InterventionTerm
-    from evcal.design.matrix import DesignSpec
-    from evcal.design.seasonal import base_freq
+    from evcal.model.inputs import design_spec
 
-    cal = fit.calendar
-    opts = fit.options
-    seasonal = opts.seasonal
-    if seasonal == "auto":
-        seasonal = "fourier" if base_freq(fit.panel.freq) == "D" else "dummies"
-    spec = DesignSpec(
-        freq=fit.panel.freq, trend_origin=float(np.floor(period_mid_years(fit.panel.periods[:1])[0])),
-        trend_order=opts.trend_order, constant=True, seasonal=seasonal, fourier_order=opts.fourier_order,
-        trading_days=opts.trading_days,
-        event_columns=[c for c, ev in cal.event_columns().items() if cal.event(ev).effect.kind != "zero"],
-        interventions=[InterventionTerm.from_spec(s).to_dict() for s in cal.interventions])
-    return spec.to_dict()
+    return design_spec(fit.calendar, fit.options, fit.panel.periods, fit.panel.freq).to_dict()

@@ -392,3 +392,14 @@ def atomic_dir(target: str | Path, kind: str | None = None) -> Iterator[Path]:
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
+
+
+def readable(path: Path) -> None:
+    """Give a finished temporary file the usual permissions (it is made owner-only).
+
+    Reports and workbooks are meant to be shared; the temporary file behind the
+    atomic write starts as 0600, so open it up to what the user's umask allows.
+    """
+    mask = os.umask(0)
+    os.umask(mask)
+    os.chmod(path, 0o666 & ~mask)

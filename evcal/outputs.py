@@ -51,7 +51,7 @@ _DATES_HEADER = ["event", "start", "end", "strength"]
 _BACKTEST_HEADER = ["year", "method", "spread", "wape", "bias", "peak_error"]
 _COMPARE_HEADER = ["date", "plan_a", "plan_b", "difference"]
 _PLAN_RUNS = (["date", "base", "plan", "low", "high"], ["date", "share", "base", "plan", "low", "high"])
-#: sheet names of evcal's workbooks (evcal.report.workbook.SHEETS + Notes; a compare; a plain plan)
+#: sheet names of evcal's workbooks (evcal.plan.workbook.SHEETS + Notes; a compare; a plain plan)
 _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Notes"): "plan",
                     ("Plan",): "plan", ("Scenarios",): "compare"}
 

@@ -10,7 +10,7 @@ import pandas as pd
 
 from evcal._files import atomic_path
 from evcal.errors import PlanError
-from evcal.formula_safe import formula_safe_sheet, write_csv
+from evcal.formula_safe import write_csv
 
 OUTPUT_SUFFIXES = (".csv", ".xlsx")
 
@@ -96,19 +96,11 @@ class Plan:
 
 
 def write_xlsx(path: Path, table: pd.DataFrame, result: Any = None) -> Path:
-    """A workbook of ``table`` (plus the model's tables when the report step is there)."""
-    try:
-        from evcal.report.workbook import write_workbook
-    except ImportError:  # the report step is optional here: a plain one-sheet workbook
-        write_workbook = None
-    if write_workbook is not None:
-        empty = pd.DataFrame()
-        lifts = getattr(result, "lifts", empty) if result is not None else empty
-        profile = getattr(result, "profile", empty) if result is not None else empty
-        occ = getattr(result, "occurrences", empty) if result is not None else empty
-        return write_workbook(path, table, lifts, profile, occ)
-    with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
-        writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
-        table.to_excel(writer, index=False, sheet_name="Plan")
-        formula_safe_sheet(writer.sheets["Plan"].iter_rows())
-    return path
+    """A workbook of ``table`` with the model's lifts, seasonal index and past occurrences (when given)."""
+    from evcal.plan.workbook import write_workbook
+
+    empty = pd.DataFrame()
+    lifts = getattr(result, "lifts", empty) if result is not None else empty
+    profile = getattr(result, "profile", empty) if result is not None else empty
+    occ = getattr(result, "occurrences", empty) if result is not None else empty
+    return write_workbook(path, table, lifts, profile, occ)

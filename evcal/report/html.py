@@ -29,9 +29,9 @@ from typing import Any
 
 import pandas as pd
 
-from evcal._files import atomic_path
+from evcal._files import atomic_path, readable
 from evcal.errors import ModelError
-from evcal.report.common import page_frame, readable
+from evcal.report.common import page_frame
 from evcal.report.context import ReportContext, calendar_weights
 from evcal.report.formatting import freq_words
 from evcal.report.model_folder import ModelFolder, read_model_folder

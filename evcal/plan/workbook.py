@@ -31,10 +31,15 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
-from evcal._files import atomic_path
+from evcal._files import atomic_path, readable
 from evcal.formula_safe import formula_safe_sheet, workbook_text
-from evcal.report.common import CAUTION, readable
 
+CAUTION = (
+    "This plan is an estimate. It is built from past sales and the events in the "
+    "calendar file, and it is uncertain: the low–high band shows by how much. Use it "
+    "as a starting point; the decisions it informs (orders, staffing, targets, "
+    "budgets) belong to the people who own them."
+)
 SHEETS = ("Plan", "Lifts", "Seasonal index", "Past occurrences")
 DATE_FORMAT = "yyyy-mm-dd"
 UNITS_FORMAT = "#,##0.0"

@@ -10,21 +10,12 @@ import numpy as np
 import pandas as pd
 
 from evcal import __version__
-from evcal._files import atomic_dir
 from evcal.design.matrix import DesignSpec
 from evcal.fit.identify import ColumnStatus
 from evcal.fit.options import FitOptions
-from evcal.fit.schema import (
-    FORMAT_VERSION,
-    MODEL_FILES,
-    check_consistency,
-    dumps,
-    json_safe,
-    model_dict,
-    read_folder,
-    validate_model_json,
-)
-from evcal.formula_safe import write_csv
+from evcal.store import FORMAT_VERSION, MODEL_FILES, json_safe, read_folder, save_folder
+from evcal.store.documents import plain, validate_document
+from evcal.store.settings import check_model
 
 __all__ = ["FitResult", "load_model", "json_safe", "FORMAT_VERSION", "MODEL_FILES"]
 
@@ -142,19 +133,14 @@ class FitResult:
         }
 
     def save(self, directory: str | Path) -> Path:
-        """Write the output folder of the contract (atomically: all files or none)."""
-        directory = Path(directory)
-        with atomic_dir(directory, kind="model") as tmp:
-            (tmp / "model.json").write_text(dumps(self.to_json()), encoding="utf-8")
-            write_csv(self.lifts, tmp / "lifts.csv", index=False, float_format="%.6g")
-            write_csv(self.occurrences, tmp / "occurrences.csv", index=False, float_format="%.6g")
-            write_csv(self.profile, tmp / "profile.csv", index=False, float_format="%.6g")
-            write_csv(self.fitted, tmp / "fitted.csv", index=False, float_format="%.6g")
-        return directory
+        """Write the output folder of the contract (atomically: all files or none; :mod:`evcal.store`)."""
+        tables = {"lifts": self.lifts, "occurrences": self.occurrences, "profile": self.profile,
+                  "fitted": self.fitted}
+        return save_folder(directory, "model", self.to_json(), tables)
 
     @classmethod
     def from_json(cls, d: dict[str, Any], source: str | Path = "model.json") -> FitResult:
-        """A model from the contents of ``model.json``, checked first (:mod:`evcal.fit.schema`).
+        """A model from the contents of ``model.json``, checked first (:mod:`evcal.store`).
 
         Raises
         ------
@@ -162,10 +148,9 @@ class FitResult:
             One line naming ``source`` and the first key that is missing, of the wrong type,
             not finite where a finite number is needed, or inconsistent with the others.
         """
-        path = Path(source)
-        m = validate_model_json(path, d)
-        cal, _ = check_consistency(path, m)
-        res = cls._from_checked(model_dict(m))
+        doc = validate_document("model", Path(source), d)
+        cal, _ = check_model(Path(source), doc)
+        res = cls._from_checked(plain(doc, d))
         res._calendar = cal
         return res
 
@@ -214,18 +199,16 @@ def load_model(directory: str | Path) -> FitResult:
     ------
     ModelError
         A file is missing, unreadable, from another format version, or damaged: one line
-        naming the file and the key (see :func:`evcal.fit.schema.read_folder`).
+        naming the file and the key (see :func:`evcal.store.read_folder`).
 
     Examples
     --------
     >>> res = load_model("models/garden")                     # doctest: +SKIP
     >>> res.plan("2027-01-01", "2027-12-31").table.head()     # doctest: +SKIP
     """
-    folder = read_folder(directory)
-    res = FitResult._from_checked(folder.model)
+    folder = read_folder(directory, "model")
+    res = FitResult._from_checked(folder.document)
     res._calendar = folder.calendar
-    res.lifts = folder.lifts
-    res.occurrences = folder.occurrences
-    res.profile = folder.profile
-    res.fitted = folder.fitted
+    for name, table in folder.tables.items():
+        setattr(res, name, table)
     return res

@@ -1,6 +1,12 @@
-"""Moved to :mod:`evcal.store` (one model-folder format for one series and for many); kept for
-:mod:`evcal.report.model_folder`, which imports :func:`read_folder` from here."""
+"""Moved to :mod:`evcal.store`; :func:`read_folder` kept here for :mod:`evcal.report.model_folder`."""
 
-from evcal.store import read_folder
+from types import SimpleNamespace
+from typing import Any
 
-__all__ = ["read_folder"]
+from evcal import store
+
+
+def read_folder(directory: Any) -> SimpleNamespace:
+    """A checked single-series folder: ``model`` (model.json) and its tables as attributes."""
+    folder = store.read_folder(directory, "model")
+    return SimpleNamespace(model=folder.document, calendar=folder.calendar, **folder.tables)

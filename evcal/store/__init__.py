@@ -1,14 +1,9 @@
-"""The model folder on disk: one format for one series and for many (a single series has no key columns).
+"""The model folder on disk, one format for one series and for many (a single series has no key columns).
 
-* :mod:`evcal.store.values`: the JSON convention (``"NaN"``/``"Infinity"``),
-  value types, the one-line error for a damaged folder;
-* :mod:`evcal.store.documents`: ``model.json`` and ``panel.json`` (pydantic),
-  sharing options, design, statuses and the calendar text;
-* :mod:`evcal.store.settings`: what types cannot say (frequency, calendar, design);
-* :mod:`evcal.store.tables`: the one table writer and reader (lifts, occurrences,
-  profile, fitted), with or without key columns; :mod:`evcal.store.panel_tables`:
-  the tables only a panel has;
-* :mod:`evcal.store.folder`: the folder kinds, :func:`read_folder` and :func:`save_folder`.
+``values`` (the JSON convention, the one-line error) -> ``documents``
+(model.json, panel.json) -> ``settings`` (their consistency) -> ``tables``
+(the one table writer and reader) -> ``folder`` (:func:`read_folder`,
+:func:`save_folder`).
 
 Examples
 --------
@@ -18,17 +13,10 @@ Examples
 """
 
 from evcal.store.documents import FORMAT_VERSION, PANEL_FORMAT, PANEL_VERSION
-from evcal.store.folder import (
-    LAYOUTS,
-    MODEL_FILES,
-    PANEL_FILES,
-    Folder,
-    folder_kind,
-    read_folder,
-    save_folder,
-    write_folder,
-)
+from evcal.store.folder import LAYOUTS, Folder, folder_kind, read_folder, save_folder, write_folder
 from evcal.store.values import dumps, json_safe
+
+MODEL_FILES, PANEL_FILES = LAYOUTS["model"].files, LAYOUTS["panel"].files
 
 __all__ = ["Folder", "read_folder", "save_folder", "write_folder", "folder_kind", "LAYOUTS", "MODEL_FILES",
            "PANEL_FILES", "FORMAT_VERSION", "PANEL_FORMAT", "PANEL_VERSION", "dumps", "json_safe"]

@@ -1,17 +1,8 @@
-"""The JSON documents of evcal's model folders: ``model.json`` (one series) and ``panel.json`` (many).
+"""The JSON documents of a model folder: ``model.json`` (one series) and ``panel.json`` (many).
 
-Both documents share their settings: the fit options, the design, the column
-statuses, the saved calendar text (checked by :mod:`evcal.store.settings`)
-and the non-finite number convention of :mod:`evcal.store.values`. Each keeps
-only what is its own: a single model its coefficients, covariance and error
-model; a panel its key columns, counts and design groups (the coefficients
-are in ``coefficients.parquet``).
-
-Examples
---------
->>> validate_document("model", Path("m/model.json"), {"format_version": 2})  # doctest: +SKIP
-Traceback (most recent call last):
-ModelError: m/model.json: format_version 2 (written by evcal ?); this evcal (0.1.0) reads ...
+Both share the settings (:class:`Settings`: options, design, calendar text);
+each keeps only what is its own: a single model its coefficients, covariance
+and error model, a panel its key columns, counts and design groups.
 """
 
 from __future__ import annotations
@@ -22,19 +13,8 @@ from typing import Annotated, Any, Literal
 from pydantic import Field, ValidationError
 
 from evcal.errors import ModelError, clip
-from evcal.store.values import (
-    AGAIN,
-    CountOrNum,
-    Day,
-    Finite,
-    NonNeg,
-    Num,
-    Positive,
-    Strict,
-    Whole,
-    shown,
-    validation_line,
-)
+from evcal.store.values import AGAIN, CountOrNum, Day, Finite, NonNeg, Num, Positive, Strict, Whole, shown
+from evcal.store.values import validation_line as _line
 
 FORMAT_VERSION = 1
 PANEL_FORMAT = "evcal-panel"
@@ -78,16 +58,12 @@ class Design(Strict):
     event_theta: dict[str, Finite]
 
 
-class ColumnNote(Strict):
-    """What identification said of an event column (a panel group's statuses)."""
-
+class ColumnNote(Strict):  # what identification said of an event column
     status: STATUSES
     note: str
 
 
-class Status(ColumnNote):
-    """What identification said of an event column, and the column it duplicates (``twin``)."""
-
+class Status(ColumnNote):  # ... and the column it duplicates
     twin: str
 
 
@@ -111,12 +87,8 @@ class Cov(Strict):
     values: list[list[Finite]]
 
 
-class Iid(Strict):
-    kind: Literal["iid"]
-
-
-class Poisson(Strict):
-    kind: Literal["poisson"]
+class Plain(Strict):  # an error model with no parameters of its own
+    kind: Literal["iid", "poisson"]
 
 
 class NegBin(Strict):
@@ -186,7 +158,7 @@ class ModelJson(Settings):
     cov: Cov
     sigma2: NonNeg
     smear: Positive
-    error_model: Annotated[Iid | Poisson | NegBin | Arima, Field(discriminator="kind")]
+    error_model: Annotated[Plain | NegBin | Arima, Field(discriminator="kind")]
     model: Choice
     status: dict[str, Status]
     like_map: dict[str, str]
@@ -262,7 +234,6 @@ DOCUMENTS: dict[str, type[Settings]] = {"model": ModelJson, "panel": PanelJson}
 
 
 def _check_version(kind: str, path: Path, data: dict[str, Any]) -> None:
-    """The format (and version) this evcal reads, before any other key: one line naming both."""
     from evcal import __version__
 
     written = clip(str(data.get("evcal_version", "?")), 20)
@@ -282,21 +253,19 @@ def _check_version(kind: str, path: Path, data: dict[str, Any]) -> None:
 def validate_document(kind: str, path: Path, data: dict[str, Any]) -> Any:
     """``data`` (the ``model.json`` or ``panel.json`` of a folder of ``kind``) against its schema.
 
-    Raises
-    ------
-    ModelError
-        One line: the file, the first key that is missing, unknown or of the wrong type.
+    The format and version are checked first; then the first key that is missing,
+    unknown or of the wrong type is one :class:`ModelError` line naming the file and the key.
 
     Examples
     --------
-    >>> validate_document("model", Path("m/model.json"), read_json(path)).freq    # doctest: +SKIP
-    'W-SUN'
+    >>> validate_document("model", Path("m/model.json"), {"format_version": 2})  # doctest: +SKIP
+    ModelError: m/model.json: format_version 2 (written by evcal ?); this evcal (0.1.0) reads ...
     """
     _check_version(kind, path, data)
     try:
         return DOCUMENTS[kind].model_validate(data)
     except ValidationError as err:
-        raise ModelError(validation_line(path, err)) from None
+        raise ModelError(_line(path, err)) from None
 
 
 def plain(doc: Any, raw: dict[str, Any]) -> dict[str, Any]:

@@ -1,30 +1,12 @@
-"""A model folder on disk: one writer, one reader, for one series and for many.
+"""A model folder on disk: one writer and one reader for one series and for many.
 
 A single-series folder (``model.json`` and four CSVs) is a panel folder with
-no key columns: the same tables (``lifts``, ``occurrences``, ``profile``,
-``fitted``) written by the same :func:`~evcal.store.tables.write_table`, read
-back and checked by the same functions; a panel adds the key columns, its
-``series``, ``pooling`` and ``skipped`` tables and the coefficients, and keeps
-its fitted rows in Parquet. :func:`read_folder` tells the kind (the
-``evcal-output.json`` marker, else the JSON document present), checks every
-key of the document and every table, and returns the checked parts
-(:class:`Folder`); ``load_model`` and ``load_panel`` build their results from it.
-
-============  =============================================================  ==========================
-kind          files                                                          numbers in CSV
-============  =============================================================  ==========================
-``model``     model.json, lifts.csv, occurrences.csv, profile.csv,           6 significant digits
-              fitted.csv
-``panel``     panel.json, series.csv, lifts.csv, pooling.csv,                in full
-              occurrences.csv, profile.csv, fitted.parquet,
-              coefficients.parquet, skipped.csv
-============  =============================================================  ==========================
-
-Examples
---------
->>> folder = read_folder("models/garden")                   # doctest: +SKIP
->>> folder.kind, folder.document["freq"], len(folder.tables["lifts"])
-('model', 'W-SUN', 9)
+no key columns: the same tables written by the same
+:func:`~evcal.store.tables.write_table` and checked by the same functions. A
+panel adds its key columns, ``series``, ``pooling`` and ``skipped`` tables,
+its coefficients, and keeps its fitted rows in Parquet (one row per series and
+period: CSV would be many times slower). The kind of a folder is told by its
+``evcal-output.json`` marker, else by the JSON document in it.
 """
 
 from __future__ import annotations
@@ -38,39 +20,16 @@ import pandas as pd
 
 from evcal._files import atomic_dir, read_marker
 from evcal.design.seasonal import cycle_length
-from evcal.errors import ModelError
+from evcal.errors import ModelError, clip
+from evcal.store import tables as t
 from evcal.store.documents import plain, validate_document
-from evcal.store.panel_tables import (
-    PANEL_LIFTS,
-    PANEL_OCCURRENCES,
-    TABLE_COLUMNS,
-    panel_terms,
-    read_coefficients,
-    read_pooling,
-    read_series,
-    read_skipped,
-)
 from evcal.store.settings import check_model, check_panel
-from evcal.store.tables import (
-    FITTED,
-    LIFTS,
-    OCCURRENCES,
-    PROFILE,
-    Rows,
-    check_fitted,
-    check_lifts,
-    check_occurrences,
-    check_profile,
-    parquet_columns,
-    read_table,
-    write_table,
-)
-from evcal.store.values import AGAIN, dumps, read_json
+from evcal.store.values import AGAIN, dumps, fail, read_json
 
 
 @dataclass(frozen=True)
 class Layout:
-    """The files of one kind of model folder: its JSON document, and each table's file."""
+    """The files of one kind of model folder: its JSON document and each table's file."""
 
     document: str
     tables: dict[str, str]
@@ -81,8 +40,7 @@ class Layout:
         return (self.document, *self.tables.values())
 
 
-LAYOUTS = {
-    # 0.1 wrote a single model's numbers with 6 significant digits, for reading; a panel's in full
+LAYOUTS = {  # 0.1 wrote a single model's numbers with 6 significant digits, a panel's in full
     "model": Layout("model.json", {"lifts": "lifts.csv", "occurrences": "occurrences.csv",
                                    "profile": "profile.csv", "fitted": "fitted.csv"}, 6),
     "panel": Layout("panel.json", {"series": "series.csv", "lifts": "lifts.csv", "pooling": "pooling.csv",
@@ -90,32 +48,26 @@ LAYOUTS = {
                                    "fitted": "fitted.parquet", "coefficients": "coefficients.parquet",
                                    "skipped": "skipped.csv"}, None),
 }
-MODEL_FILES = LAYOUTS["model"].files
-PANEL_FILES = LAYOUTS["panel"].files
-
-
-# ---------------------------------------------------------------- writing
+#: what a panel's lifts and occurrences hold besides the contract columns
+PANEL_EXTRA = {"lifts": ("kind", "pooled_pct", "pooled_low_pct", "pooled_high_pct", "shrinkage"),
+               "occurrences": ("low_units", "high_units")}
 
 
 def write_folder(directory: Path, kind: str, document: dict[str, Any], tables: dict[str, pd.DataFrame]
                  ) -> None:
-    """Write the JSON document and ``tables`` (by name; a table left out is not written) into ``directory``.
+    """Write the JSON document and ``tables`` (by name; one left out is not written) into ``directory``.
 
-    ``directory`` exists (a temporary folder of :func:`evcal._files.atomic_dir`,
-    see :func:`save_folder`). pyarrow writes without holding the GIL, so the
-    files go out side by side.
+    pyarrow writes without holding the GIL, so the files go out side by side.
 
     Examples
     --------
     >>> write_folder(tmp, "model", result.to_json(), {"lifts": result.lifts})   # doctest: +SKIP
     """
     layout = LAYOUTS[kind]
-    directory = Path(directory)
     (directory / layout.document).write_text(dumps(document), encoding="utf-8")
     with ThreadPoolExecutor(max_workers=2) as pool:
-        jobs = [pool.submit(write_table, frame, directory / layout.tables[name], layout.digits)
-                for name, frame in tables.items()]
-        for job in jobs:
+        for job in [pool.submit(t.write_table, frame, directory / layout.tables[name], layout.digits)
+                    for name, frame in tables.items()]:
             job.result()
 
 
@@ -128,21 +80,17 @@ def save_folder(directory: str | Path, kind: str, document: dict[str, Any], tabl
     >>> save_folder("models/garden", "model", result.to_json(), tables)   # doctest: +SKIP
     PosixPath('models/garden')
     """
-    directory = Path(directory)
-    with atomic_dir(directory, kind=kind) as tmp:
+    with atomic_dir(Path(directory), kind=kind) as tmp:
         write_folder(tmp, kind, document, tables)
-    return directory
-
-
-# ---------------------------------------------------------------- reading
+    return Path(directory)
 
 
 @dataclass
 class Folder:
-    """A checked model folder: the document as plain values, the parsed file, the calendar, the tables.
+    """A checked model folder: its document as plain values, as parsed, its calendar and its tables.
 
-    ``periods`` is the history of a single model (None for a panel); a panel's
-    ``fitted`` rows stay on disk (``fitted.parquet``, columns checked) until asked for.
+    ``periods`` is a single model's history (None for a panel, whose fitted
+    rows stay in ``fitted.parquet``, columns checked, until asked for).
     """
 
     path: Path
@@ -153,30 +101,6 @@ class Folder:
     periods: pd.PeriodIndex | None
     tables: dict[str, pd.DataFrame]
 
-    @property
-    def model(self) -> dict[str, Any]:
-        """The document (``model.json``'s keys for a single model)."""
-        return self.document
-
-    @property
-    def lifts(self) -> pd.DataFrame:
-        return self.tables["lifts"]
-
-    @property
-    def occurrences(self) -> pd.DataFrame:
-        return self.tables["occurrences"]
-
-    @property
-    def profile(self) -> pd.DataFrame:
-        return self.tables["profile"]
-
-    @property
-    def fitted(self) -> pd.DataFrame:
-        """The fitted rows (a panel's read from ``fitted.parquet`` when asked for)."""
-        if "fitted" in self.tables:
-            return self.tables["fitted"]
-        return pd.read_parquet(self.path / "fitted.parquet")
-
 
 def folder_kind(directory: str | Path) -> str | None:
     """``"model"``, ``"panel"`` or None: by the folder's marker, else by the JSON document in it.
@@ -186,21 +110,14 @@ def folder_kind(directory: str | Path) -> str | None:
     >>> folder_kind("models/all")       # doctest: +SKIP
     'panel'
     """
-    directory = Path(directory)
     marker = read_marker(directory)
     if marker is not None and marker["kind"] in LAYOUTS:
         return str(marker["kind"])
-    for kind in ("model", "panel"):  # folders written before the marker
-        if (directory / LAYOUTS[kind].document).is_file():
-            return kind
-    return None
+    return next((k for k, lay in LAYOUTS.items() if (Path(directory) / lay.document).is_file()), None)
 
 
 def read_folder(directory: str | Path, kind: str | None = None) -> Folder:
-    """Read and check a model folder written by ``evcal fit``: every key of its document, every table.
-
-    ``kind`` (``"model"`` or ``"panel"``) is what the caller reads; None takes
-    the folder's own (:func:`folder_kind`).
+    """Read and check a model folder of ``kind`` (None: the folder's own): every key, every table.
 
     Raises
     ------
@@ -209,61 +126,77 @@ def read_folder(directory: str | Path, kind: str | None = None) -> Folder:
 
     Examples
     --------
-    >>> read_folder("models/garden").fitted[["date", "actual"]].head()      # doctest: +SKIP
+    >>> folder = read_folder("models/garden")                 # doctest: +SKIP
+    >>> folder.kind, folder.document["freq"], folder.tables["fitted"].shape
+    ('model', 'W-SUN', (260, 14))
     """
     directory = Path(directory)
     if not directory.is_dir():
         raise ModelError(f"{directory}: not a model folder (it does not exist); run evcal fit first")
     found = folder_kind(directory)
     kind = kind or found or "model"
-    layout = LAYOUTS[kind]
-    missing = [f for f in layout.files if not (directory / f).is_file()]
-    if missing and found is not None and found != kind:
+    missing = [f for f in LAYOUTS[kind].files if not (directory / f).is_file()]
+    if missing and found not in (None, kind):
         what, reader = ("panel", "load_panel") if found == "panel" else ("single-series", "load_model")
         raise ModelError(f"{directory}: a {what} model folder ({LAYOUTS[found].document}), not a "
                          f"{'panel' if kind == 'panel' else 'single-series'} one: read it with {reader}")
     if missing:
         raise ModelError(f"{directory}: {kind} folder is missing {', '.join(missing)}; {AGAIN}")
-    path = directory / layout.document
+    path = directory / LAYOUTS[kind].document
     raw = read_json(path)
     doc = validate_document(kind, path, raw)
     if kind == "model":
         cal, periods = check_model(path, doc)
         tables = _model_tables(directory, doc, periods)
     else:
-        cal, periods = check_panel(path, doc, TABLE_COLUMNS), None
+        columns = {*t.SERIES.columns, *t.LIFTS.columns, *t.OCCURRENCES.columns, *t.FITTED.columns,
+                   *PANEL_EXTRA["lifts"], *PANEL_EXTRA["occurrences"]}
+        cal, periods = check_panel(path, doc, columns), None
         tables = _panel_tables(directory, doc, cal)
     return Folder(directory, kind, plain(doc, raw), raw, cal, periods, tables)
 
 
 def _model_tables(directory: Path, m: Any, periods: pd.PeriodIndex) -> dict[str, pd.DataFrame]:
-    rows = Rows([])
-    events = list(m.status) + list(m.closure_events)
+    rows, events = t.Rows([]), [*m.status, *m.closure_events]
     path = directory / "lifts.csv"
-    lifts = check_lifts(path, read_table(path, LIFTS, []), rows, set(events), len(events))
+    lifts = t.check_lifts(path, t.read_table(path, t.LIFTS, []), rows, set(events), len(events))
     path = directory / "occurrences.csv"
-    occ_events = {info.event for info in m.event_info.values()} | set(m.closure_events)
-    occ = check_occurrences(path, read_table(path, OCCURRENCES, []), rows, occ_events)
+    occ = t.check_occurrences(path, t.read_table(path, t.OCCURRENCES, []), rows,
+                              {info.event for info in m.event_info.values()} | set(m.closure_events))
     path = directory / "profile.csv"
-    profile = check_profile(path, read_table(path, PROFILE, []), rows, m.freq, cycle_length(m.freq))
+    profile = t.check_profile(path, t.read_table(path, t.PROFILE, []), rows, m.freq, cycle_length(m.freq))
     path = directory / "fitted.csv"
-    fitted = check_fitted(path, read_table(path, FITTED, []), periods, m.label,
-                          f"{m.history.start} .. {m.history.end} in model.json")
+    fitted = t.check_fitted(path, t.read_table(path, t.FITTED, []), periods, m.label,
+                            f"{m.history.start} .. {m.history.end} in model.json")
     return {"lifts": lifts, "occurrences": occ, "profile": profile, "fitted": fitted}
 
 
 def _panel_tables(directory: Path, m: Any, cal: Any) -> dict[str, pd.DataFrame]:
-    rows, series = read_series(directory / "series.csv", m)
-    terms = panel_terms(m, cal)
+    rows = t.check_series(directory / "series.csv", m)
+    terms = set(m.events) | set(m.design.event_columns) | {i.name for i in m.design.interventions} | {
+        e.name for e in cal.events}
     path = directory / "lifts.csv"
-    lifts = check_lifts(path, read_table(path, LIFTS, rows.keys, PANEL_LIFTS), rows, terms, len(m.events))
-    pooling = read_pooling(directory / "pooling.csv", terms)
+    lifts = t.check_lifts(path, t.read_table(path, t.LIFTS, rows.keys, PANEL_EXTRA["lifts"]), rows, terms,
+                          len(m.events))
+    path = directory / "pooling.csv"
+    pooling = t.read_table(path, t.POOLING, [])
+    t.names(path, pooling, "group")
+    t.names(path, pooling, "event", terms)
+    pooling = t.typed(path, pooling, t.POOLING, [])
     path = directory / "occurrences.csv"
-    occ = check_occurrences(path, read_table(path, OCCURRENCES, rows.keys, PANEL_OCCURRENCES), rows, terms)
+    occ = t.check_occurrences(path, t.read_table(path, t.OCCURRENCES, rows.keys, PANEL_EXTRA["occurrences"]),
+                              rows, terms)
     path = directory / "profile.csv"
-    profile = check_profile(path, read_table(path, PROFILE, rows.keys), rows, m.freq, cycle_length(m.freq))
-    skipped = read_skipped(directory / "skipped.csv", rows)
-    parquet_columns(directory / "fitted.parquet", (*rows.keys, *FITTED.columns))
-    coefficients = read_coefficients(directory, m, rows)
-    return {"series": series, "lifts": lifts, "pooling": pooling, "occurrences": occ, "profile": profile,
-            "coefficients": coefficients, "skipped": skipped}
+    profile = t.check_profile(path, t.read_table(path, t.PROFILE, rows.keys), rows, m.freq,
+                              cycle_length(m.freq))
+    path = directory / "skipped.csv"
+    skipped = t.check_skipped(path, t.read_table(path, t.SKIPPED, rows.keys), rows)
+    t.read_parquet(directory / "fitted.parquet", (*rows.keys, *t.FITTED.columns))
+    coefficients = t.read_parquet(directory / "coefficients.parquet", tuple(rows.keys), rows)
+    for gi, g in enumerate(m.groups):
+        absent = [c for c in g.fitted_columns if c not in coefficients.columns]
+        if absent:
+            raise fail(directory / "panel.json", f"groups[{gi}].fitted_columns",
+                       f"{clip(absent[0], 60)} is not a column of coefficients.parquet")
+    return {"series": rows.series, "lifts": lifts, "pooling": pooling,
+            "occurrences": occ, "profile": profile, "coefficients": coefficients, "skipped": skipped}

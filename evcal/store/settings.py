@@ -1,15 +1,8 @@
 """What types alone cannot say of a folder's JSON document: frequency, calendar, design, shapes.
 
-One check for what both documents share (:func:`check_calendar`: the
-frequency evcal fits and the design's, the saved calendar loads and matches
-the design's events and interventions; :func:`base_columns`: the trend and
-seasonal columns the design makes), then each document's own: a single
-model's history, coefficients and statuses (:func:`check_model`); a panel's
-key columns, stored period dates, counts and groups (:func:`check_panel`).
-
-Examples
---------
->>> cal, periods = check_model(Path("m/model.json"), validated)      # doctest: +SKIP
+:func:`check_calendar` checks what both documents share; :func:`check_model`
+and :func:`check_panel` each document's own. Every problem is one line naming
+the file and the key.
 """
 
 from __future__ import annotations
@@ -31,12 +24,14 @@ MAX_PERIODS = 73_050
 
 
 def check_calendar(path: Path, freq: str, design: Design, calendar_text: str) -> tuple[Any, int]:
-    """The frequency, and the saved calendar against the design; returns the calendar and the cycle length.
+    """The frequency (one evcal fits, the design's) and the saved calendar against the design.
+
+    Returns the calendar and the frequency's cycle length.
 
     Examples
     --------
     >>> cal, p = check_calendar(Path("m.json"), "W-SUN", doc.design, doc.calendar_text)  # doctest: +SKIP
-    >>> p
+    >>> p                                                                                 # doctest: +SKIP
     52
     """
     try:
@@ -64,16 +59,34 @@ def check_calendar(path: Path, freq: str, design: Design, calendar_text: str) ->
     return cal, p
 
 
-def base_columns(design: Design, period: pd.PeriodIndex) -> list[str]:
+def base_columns(design: Design, period: pd.Period) -> list[str]:
     """The trend and seasonal columns ``design`` makes (what is fitted besides events and interventions)."""
     from evcal.design.matrix import DesignSpec
     from evcal.design.trend import Trend
 
-    spec = DesignSpec.from_dict(design.model_dump())
-    out = list(Trend(spec.trend_origin, spec.trend_order, spec.constant).columns(period[:1]).columns)
+    spec, one = DesignSpec.from_dict(design.model_dump()), pd.PeriodIndex([period])
+    out = list(Trend(spec.trend_origin, spec.trend_order, spec.constant).columns(one).columns)
     for block in spec.seasonal_blocks():
-        out += list(block.columns(period[:1]).columns)
+        out += list(block.columns(one).columns)
     return out
+
+
+def _periods(path: Path, m: ModelJson) -> pd.PeriodIndex:
+    ends = []
+    for k in ("start", "end"):
+        text = getattr(m.history, k)
+        try:
+            ends.append(pd.Period(text, freq=m.freq))
+        except (ValueError, TypeError, OverflowError):
+            ends.append(None)
+        if ends[-1] is None or str(ends[-1]) != text:
+            raise fail(path, f"history.{k}", f"{shown(text)} is not a period of frequency {m.freq} "
+                                             "(freq and the stored history disagree)")
+    n = (ends[1] - ends[0]).n + 1
+    if not 1 <= n <= MAX_PERIODS:
+        raise fail(path, "history.end", f"{shown(m.history.end)} is {n - 1} periods after history.start; "
+                                        f"expected 0 to {MAX_PERIODS}")
+    return pd.period_range(ends[0], ends[1], freq=m.freq)
 
 
 def _cov(path: Path, m: ModelJson) -> None:
@@ -88,53 +101,34 @@ def _cov(path: Path, m: ModelJson) -> None:
     if float(np.abs(c - c.T).max()) > 1e-6 * max(float(np.abs(c).max()), 1e-300):
         raise fail(path, "cov.values", "not symmetric")
     if (np.diag(c) < 0).any():
-        bad = names[int(np.flatnonzero(np.diag(c) < 0)[0])]
-        raise fail(path, f"cov.values ({bad})", "negative variance on the diagonal")
+        raise fail(path, f"cov.values ({names[int(np.flatnonzero(np.diag(c) < 0)[0])]})",
+                   "negative variance on the diagonal")
 
 
 def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
-    """``model.json`` beyond types: history periods, params against cov and design, statuses, events.
-
-    Returns the fitted calendar (loaded from ``calendar_text``) and the history's periods.
+    """``model.json`` beyond types; returns the saved calendar and the history's periods.
 
     Examples
     --------
-    >>> cal, periods = check_model(Path("m/model.json"), doc)      # doctest: +SKIP
+    >>> cal, periods = check_model(Path("m/model.json"), validate_document("model", ...))  # doctest: +SKIP
     """
     cal, p = check_calendar(path, m.freq, m.design, m.calendar_text)
-    ends = []
-    for k in ("start", "end"):
-        text = getattr(m.history, k)
-        try:
-            per = pd.Period(text, freq=m.freq)
-        except (ValueError, TypeError, OverflowError):
-            per = None
-        if per is None or str(per) != text:
-            raise fail(path, f"history.{k}", f"{shown(text)} is not a period of frequency {m.freq} "
-                                             "(freq and the stored history disagree)")
-        ends.append(per)
-    n = (ends[1] - ends[0]).n + 1
-    if not 1 <= n <= MAX_PERIODS:
-        raise fail(path, "history.end", f"{shown(m.history.end)} is {n - 1} periods after history.start; "
-                                        f"expected 0 to {MAX_PERIODS}")
-    periods = pd.period_range(ends[0], ends[1], freq=m.freq)
+    periods = _periods(path, m)
     _cov(path, m)
-    expected = base_columns(m.design, periods)
+    expected = base_columns(m.design, periods[0])
     if m.base_columns != expected:
-        raise fail(path, "base_columns",
-                   f"do not match the design (expected {clip(', '.join(expected), 80)})")
+        shown_cols = clip(", ".join(expected), 80)
+        raise fail(path, "base_columns", f"do not match the design (expected {shown_cols})")
     for name in m.params:
-        st = m.status.get(name)
-        if name not in expected and (st is None or st.status != "fitted"):
+        if name not in expected and getattr(m.status.get(name), "status", "") != "fitted":
             raise fail(path, f"params.{name}", "not a column of the design, nor a fitted event")
     inter = [t.name for t in m.design.interventions]
     if m.intervention_names != inter:
         raise fail(path, "intervention_names", "do not match design.interventions and the saved calendar")
     if m.closure_events != [e.name for e in cal.events if e.effect.kind == "zero"]:
         raise fail(path, "closure_events", "do not match the saved calendar's closures")
-    terms = set(m.design.event_columns) | set(inter)
     for name, st in m.status.items():
-        if name not in terms:
+        if name not in set(m.design.event_columns) | set(inter):
             raise fail(path, f"status.{name}", "not an event column or intervention of the design")
         if st.status == "fitted" and name not in m.params:
             raise fail(path, f"status.{name}", "marked fitted but has no coefficient in params")
@@ -142,7 +136,7 @@ def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
             raise fail(path, f"assumed.{name}", "missing (status says assumed)")
         if st.status == "like" and name not in m.like_map:
             raise fail(path, f"like_map.{name}", "missing (status says like)")
-    for name in set(m.status) | set(m.closure_events):
+    for name in [*m.status, *m.closure_events]:
         if name not in m.event_info:
             raise fail(path, f"event_info.{name}", "missing")
     for name, target in m.like_map.items():
@@ -162,32 +156,27 @@ def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
 
 
 def check_panel(path: Path, m: PanelJson, table_columns: set[str]) -> Any:
-    """``panel.json`` beyond types: keys, the stored period dates, counts and groups; returns the calendar.
-
-    ``table_columns`` are the names of the tables' own columns, which a key column may not take.
+    """``panel.json`` beyond types (a key column may not take a name of ``table_columns``); the calendar.
 
     Examples
     --------
-    >>> cal = check_panel(Path("p/panel.json"), doc, {"event", "lift_pct"})      # doctest: +SKIP
+    >>> cal = check_panel(Path("p/panel.json"), validate_document("panel", ...), {"event"})  # doctest: +SKIP
     """
     for i, k in enumerate(m.keys):
-        if not k.strip():
-            raise fail(path, f"keys[{i}]", "is empty; expected a column name of the long file")
-        if k in m.keys[:i]:
-            raise fail(path, f"keys[{i}]", f"{shown(k)} appears twice")
-        if k in table_columns:
-            raise fail(path, f"keys[{i}]", f"{shown(k)} is a column name of the panel's tables")
+        if not k.strip() or k in m.keys[:i] or k in table_columns:
+            raise fail(path, f"keys[{i}]", "is empty; expected a column name of the long file"
+                       if not k.strip() else f"{shown(k)} appears twice" if k in m.keys[:i]
+                       else f"{shown(k)} is a column name of the panel's tables")
     cal, _ = check_calendar(path, m.freq, m.design, m.calendar_text)
     ends = []
     for k in ("start", "end"):
         day = pd.Timestamp(getattr(m.periods, k))
-        per = pd.Period(day, freq=m.freq)
-        dated = (per.end_time if m.label == "end" else per.start_time).normalize()
+        ends.append(pd.Period(day, freq=m.freq))
+        dated = (ends[-1].end_time if m.label == "end" else ends[-1].start_time).normalize()
         if dated != day:
             raise fail(path, f"periods.{k}", f"{day.date()} is not how a {m.freq} period is dated (label "
                                              f"{m.label}: {dated.date()}); freq and the stored dates "
                                              "disagree")
-        ends.append(per)
     if ends[1] < ends[0]:
         raise fail(path, "periods.end", f"{m.periods.end} is before periods.start {m.periods.start}")
     c = m.counts
@@ -197,12 +186,12 @@ def check_panel(path: Path, m: PanelJson, table_columns: set[str]) -> Any:
     if c.fitted + c.skipped != c.series or c.batched + c.per_series != c.fitted:
         raise fail(path, "counts", f"do not add up (series {c.series} = fitted {c.fitted} + skipped "
                                    f"{c.skipped}; fitted = batched {c.batched} + per_series {c.per_series})")
-    # a group fits the design's base columns (the frequency's seasonal columns) and its events
-    allowed = set(base_columns(m.design, pd.period_range(ends[0], periods=1))) | set(
-        m.design.event_columns) | {t.name for t in m.design.interventions}
+    # a group fits the design's base columns (those of its frequency), events and interventions
+    allowed = {*base_columns(m.design, ends[0]), *m.design.event_columns,
+               *(t.name for t in m.design.interventions)}
     for gi, g in enumerate(m.groups):
         wrong = [col for col in g.fitted_columns if col not in allowed]
         if wrong:
-            raise fail(path, f"groups[{gi}].fitted_columns", f"{clip(shown(wrong[0]), 60)} is not a column "
-                                                             f"of the {m.freq} design")
+            raise fail(path, f"groups[{gi}].fitted_columns", f"{shown(wrong[0])} is not a column of the "
+                                                             f"{m.freq} design")
     return cal

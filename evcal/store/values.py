@@ -1,18 +1,9 @@
-"""The JSON convention of evcal's folders and the one-line error for a damaged one.
+"""The JSON convention of evcal's folders, its value types, and the one line for a damaged folder.
 
-Non-finite numbers. JSON has no NaN or infinity, and a bare ``null`` cannot
-say which it was, so the writer (:func:`json_safe`) puts the strings
-``"NaN"``, ``"Infinity"`` and ``"-Infinity"`` where a float is not finite,
-and the reader accepts those three strings only where the schema allows a
-non-finite number (:data:`Num`). Where a number must be finite (:data:`Finite`)
-they are refused like any other bad value. ``null`` means "absent" and is
-accepted only where a value may be absent. In the CSVs a missing number is an
-empty cell (pandas' convention); ``inf``/``-inf`` are written as such.
-
-Examples
---------
->>> json_safe({"a": float("nan"), "b": [1.5, float("-inf")]})
-{'a': 'NaN', 'b': [1.5, '-Infinity']}
+JSON has no NaN or infinity, and a bare ``null`` cannot say which it was, so
+:func:`json_safe` writes ``"NaN"``, ``"Infinity"`` and ``"-Infinity"``; the
+reader takes them back only where a number may be non-finite (:data:`Num`),
+never where it must be finite (:data:`Finite`). ``null`` means "absent".
 """
 
 from __future__ import annotations
@@ -30,26 +21,23 @@ from evcal.errors import ModelError, clip
 
 #: the advice that ends every line about a damaged folder
 AGAIN = "re-run evcal fit to write the folder again"
-#: the writer's spelling of the floats JSON cannot hold
 NONFINITE = {"NaN": math.nan, "Infinity": math.inf, "-Infinity": -math.inf}
 
 
 def json_safe(obj: Any) -> Any:
     """Plain JSON values: non-finite floats as ``"NaN"``/``"Infinity"``/``"-Infinity"``, numpy scalars
-    as Python ones, keys as text (the one writer of the convention the reader takes back).
+    as Python ones, keys as text.
 
     Examples
     --------
-    >>> json_safe({1: float("inf")})
-    {'1': 'Infinity'}
+    >>> json_safe({1: float("nan"), "b": [1.5, float("-inf")]})
+    {'1': 'NaN', 'b': [1.5, '-Infinity']}
     """
     if isinstance(obj, bool | np.bool_):
         return bool(obj)
     if isinstance(obj, float | np.floating):
         x = float(obj)
-        if math.isnan(x):
-            return "NaN"
-        return ("Infinity" if x > 0 else "-Infinity") if math.isinf(x) else x
+        return x if math.isfinite(x) else "NaN" if math.isnan(x) else "Infinity" if x > 0 else "-Infinity"
     if isinstance(obj, np.integer):
         return int(obj)
     if isinstance(obj, dict):
@@ -72,8 +60,6 @@ def dumps(obj: Any) -> str:
 
 def shown(v: Any) -> str:
     """A value as a line shows it: JSON text, clipped to 60 characters."""
-    if v is None:
-        return "null"
     try:
         return clip(json.dumps(v), 60)
     except (TypeError, ValueError):
@@ -81,11 +67,8 @@ def shown(v: Any) -> str:
 
 
 def fail(path: Path | str, key: str, what: str) -> ModelError:
-    """The one line for a damaged folder: ``<file>: <key>: <what is wrong>; re-run evcal fit ...``."""
+    """``<file>: <key>: <what is wrong>; re-run evcal fit ...``"""
     return ModelError(f"{path}: {key}: {what}; {AGAIN}")
-
-
-# ---------------------------------------------------------------- value types
 
 
 def _number(v: Any) -> float:
@@ -96,25 +79,15 @@ def _number(v: Any) -> float:
     return float(v)
 
 
-def _finite(v: Any) -> float:
-    x = _number(v)
-    if not math.isfinite(x):
-        raise ValueError(f"{shown(v)} is not a finite number")
-    return x
-
-
-def _nonneg(v: Any) -> float:
-    x = _finite(v)
-    if x < 0:
-        raise ValueError(f"{shown(v)} is negative; it must be 0 or more")
-    return x
-
-
-def _positive(v: Any) -> float:
-    x = _finite(v)
-    if x <= 0:
-        raise ValueError(f"{shown(v)} must be a positive number")
-    return x
+def _rules(*rules: tuple[Any, str]) -> BeforeValidator:
+    """A number (as :func:`_number` reads it) that passes every ``(test, what is wrong)`` of ``rules``."""
+    def check(v: Any) -> float:
+        x = _number(v)
+        for test, what in rules:
+            if not test(x):
+                raise ValueError(f"{shown(v)} {what}")
+        return x
+    return BeforeValidator(check)
 
 
 def _whole(v: Any) -> int:
@@ -123,32 +96,27 @@ def _whole(v: Any) -> int:
     return v
 
 
-def _count_or_number(v: Any) -> int | float:
-    return v if isinstance(v, int) and not isinstance(v, bool) else _number(v)
-
-
 def _iso_day(v: Any) -> str:
     if not isinstance(v, str):
         raise ValueError(f"{shown(v)} is not a date")
     try:
-        pd.Timestamp(v)
-        if len(v) != 10:
+        if len(v) != 10 or pd.isna(pd.Timestamp(v)):
             raise ValueError
     except (ValueError, OverflowError):
         raise ValueError(f"{shown(v)} is not an ISO date (YYYY-MM-DD)") from None
     return v
 
 
+_FINITE = (math.isfinite, "is not a finite number")
 #: a number that may be NaN or infinite (written as "NaN", "Infinity", "-Infinity")
 Num = Annotated[float, BeforeValidator(_number)]
-#: a number that must be finite
-Finite = Annotated[float, BeforeValidator(_finite)]
-NonNeg = Annotated[float, BeforeValidator(_nonneg)]
-Positive = Annotated[float, BeforeValidator(_positive)]
+Finite = Annotated[float, _rules(_FINITE)]
+NonNeg = Annotated[float, _rules(_FINITE, (lambda x: x >= 0, "is negative; it must be 0 or more"))]
+Positive = Annotated[float, _rules(_FINITE, (lambda x: x > 0, "must be a positive number"))]
 Whole = Annotated[int, BeforeValidator(_whole)]
 Day = Annotated[str, BeforeValidator(_iso_day)]
 #: a count (kept whole) or any number
-CountOrNum = Annotated[int | float, BeforeValidator(_count_or_number)]
+CountOrNum = Annotated[int | float, BeforeValidator(lambda v: _whole(v) if type(v) is int else _number(v))]
 
 
 class Strict(BaseModel):
@@ -157,28 +125,12 @@ class Strict(BaseModel):
     model_config = ConfigDict(strict=True, extra="forbid")
 
 
-# ---------------------------------------------------------------- reading
-
-
-def _key(loc: tuple[Any, ...]) -> str:
-    parts: list[str] = []
-    for p in loc:
-        if isinstance(p, int):
-            parts.append(f"[{p}]")
-        elif p in ("iid", "poisson", "negative_binomial", "arima"):
-            continue  # the tagged union's branch name is not a key of the file
-        else:
-            parts.append(("." if parts else "") + str(p))
-    return "".join(parts) or "(top)"
-
-
 def _reason(e: dict[str, Any]) -> str:
-    kind = e["type"]
-    if kind == "missing":
+    if e["type"] == "missing":
         return "missing"
-    if kind == "extra_forbidden":
+    if e["type"] == "extra_forbidden":
         return "is not a key of this format"
-    if kind == "value_error":
+    if e["type"] == "value_error":
         return str(e.get("ctx", {}).get("error", e["msg"]))
     return f"{shown(e.get('input'))}: {str(e['msg']).replace('Input should be', 'should be')}"
 
@@ -186,8 +138,12 @@ def _reason(e: dict[str, Any]) -> str:
 def validation_line(path: Path | str, err: ValidationError) -> str:
     """The first problem of a pydantic error as one line: file, key, what is wrong."""
     errors = err.errors()
+    key = ""
+    for p in errors[0]["loc"]:  # a tagged union's branch name (arima, ...) is not a key of the file
+        if p not in ("iid", "poisson", "negative_binomial", "arima"):
+            key += f"[{p}]" if isinstance(p, int) else ("." if key else "") + str(p)
     more = f" (and {len(errors) - 1} more problem(s))" if len(errors) > 1 else ""
-    return f"{path}: {_key(errors[0]['loc'])}: {_reason(errors[0])}{more}; {AGAIN}"
+    return f"{path}: {key or '(top)'}: {_reason(errors[0])}{more}; {AGAIN}"
 
 
 def _bare_constant(token: str) -> float:
@@ -195,13 +151,7 @@ def _bare_constant(token: str) -> float:
 
 
 def read_json(path: Path) -> dict[str, Any]:
-    """Parse a JSON file of a folder (bare ``NaN``/``Infinity`` tokens refused) into a dict.
-
-    Examples
-    --------
-    >>> read_json(Path("models/garden/model.json"))["freq"]       # doctest: +SKIP
-    'W-SUN'
-    """
+    """A folder's JSON document as a dict (bare ``NaN``/``Infinity`` tokens refused); one line if not."""
     try:
         data = json.loads(path.read_text(encoding="utf-8"), parse_constant=_bare_constant)
     except json.JSONDecodeError as err:

@@ -131,7 +131,7 @@ def test_panel_csvs_are_formula_safe_and_read_back(panel: Path) -> None:
 
 
 def test_panel_json_non_finite_number_is_written_as_a_string(panel: Path, tmp_path: Path) -> None:
-    # the convention of model.json (evcal.fit.schema.json_safe): "NaN", never a bare NaN token
+    # the convention of model.json (evcal.store.values.json_safe): "NaN", never a bare NaN token
     loaded = load_panel(panel)
     loaded.settings["groups"][0]["trend_origin"] = float("nan")
     folder = tmp_path / "p"

@@ -156,40 +156,27 @@ class FitResult:
 
     @classmethod
     def _from_checked(cls, d: dict[str, Any]) -> FitResult:
-        cols = d["cov"]["columns"]
+        """A model from a checked ``model.json`` (:func:`evcal.store.documents.plain`): the keys that are
+        fields of their own name as they are, the others converted."""
+        cols, history = d["cov"]["columns"], d["history"]
         return cls(
+            **{k: d[k] for k in _AS_SAVED},
             options=FitOptions.from_dict(d["options"]),
             spec=DesignSpec.from_dict(d["design"]),
-            transform=d["transform"],
-            label=d["label"],
             params=pd.Series(d["params"], dtype=float),
             cov=pd.DataFrame(np.array(d["cov"]["values"], dtype=float).reshape(len(cols), len(cols)),
                              index=cols, columns=cols),
-            sigma2=float(d["sigma2"]),
-            smear=float(d["smear"]),
-            error_model=d["error_model"],
             model_choice=d["model"],
-            status={k: ColumnStatus(v["status"], v["note"], v.get("twin", ""))
-                    for k, v in d["status"].items()},
-            like_map=d["like_map"],
-            assumed={k: float(v) for k, v in d["assumed"].items()},
-            base_columns=d["base_columns"],
-            intervention_names=d["intervention_names"],
-            closure_events=d["closure_events"],
-            event_info=d["event_info"],
-            event_labels=d["event_labels"],
-            calendar_text=d["calendar_text"],
-            calendar_name=d["calendar_name"],
-            history_start=d["history"]["start"],
-            history_end=d["history"]["end"],
-            history_source=d["history"]["source"],
-            last_year=d["last_year"],
-            average_share={int(k): float(v) for k, v in d["average_share"].items()},
-            mean_base=float(d["mean_base"]),
-            exclusions=d["exclusions"],
-            warnings=d["warnings"],
-            quality=d.get("quality", {}),
+            status={k: ColumnStatus(v["status"], v["note"], v["twin"]) for k, v in d["status"].items()},
+            history_start=history["start"], history_end=history["end"], history_source=history["source"],
+            average_share={int(k): v for k, v in d["average_share"].items()},
         )
+
+
+#: keys of model.json that are fields of FitResult of the same name and type (checked by evcal.store)
+_AS_SAVED = ("transform", "label", "sigma2", "smear", "error_model", "like_map", "assumed", "base_columns",
+             "intervention_names", "closure_events", "event_info", "event_labels", "calendar_text",
+             "calendar_name", "last_year", "mean_base", "exclusions", "warnings", "quality")
 
 
 def load_model(directory: str | Path) -> FitResult:

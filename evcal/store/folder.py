@@ -1,12 +1,8 @@
 """A model folder on disk: one writer and one reader for one series and for many.
 
-A single-series folder (``model.json`` and four CSVs) is a panel folder with
-no key columns: the same tables written by the same
-:func:`~evcal.store.tables.write_table` and checked by the same functions. A
-panel adds its key columns, ``series``, ``pooling`` and ``skipped`` tables,
-its coefficients, and keeps its fitted rows in Parquet (one row per series and
-period: CSV would be many times slower). The kind of a folder is told by its
-``evcal-output.json`` marker, else by the JSON document in it.
+A single-series folder is a panel folder with no key columns: the same tables, written and checked
+by the same code. A panel adds its key columns, ``series``, ``pooling`` and ``skipped`` tables and
+its coefficients, and keeps its fitted rows (one per series and period) in Parquet.
 """
 
 from __future__ import annotations
@@ -55,9 +51,8 @@ PANEL_EXTRA = {"lifts": ("kind", "pooled_pct", "pooled_low_pct", "pooled_high_pc
 
 def write_folder(directory: Path, kind: str, document: dict[str, Any], tables: dict[str, pd.DataFrame]
                  ) -> None:
-    """Write the JSON document and ``tables`` (by name; one left out is not written) into ``directory``.
-
-    pyarrow writes without holding the GIL, so the files go out side by side.
+    """Write the JSON document and ``tables`` (by name) into ``directory``, side by side (pyarrow
+    writes without holding the GIL).
 
     Examples
     --------
@@ -87,11 +82,8 @@ def save_folder(directory: str | Path, kind: str, document: dict[str, Any], tabl
 
 @dataclass
 class Folder:
-    """A checked model folder: its document as plain values, as parsed, its calendar and its tables.
-
-    ``periods`` is a single model's history (None for a panel, whose fitted
-    rows stay in ``fitted.parquet``, columns checked, until asked for).
-    """
+    """A checked model folder: its document as plain values and as parsed, its calendar, its tables
+    (a panel's fitted rows stay in ``fitted.parquet``) and a single model's history ``periods``."""
 
     path: Path
     kind: str

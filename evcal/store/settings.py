@@ -24,16 +24,8 @@ MAX_PERIODS = 73_050
 
 
 def check_calendar(path: Path, freq: str, design: Design, calendar_text: str) -> tuple[Any, int]:
-    """The frequency (one evcal fits, the design's) and the saved calendar against the design.
-
-    Returns the calendar and the frequency's cycle length.
-
-    Examples
-    --------
-    >>> cal, p = check_calendar(Path("m.json"), "W-SUN", doc.design, doc.calendar_text)  # doctest: +SKIP
-    >>> p                                                                                 # doctest: +SKIP
-    52
-    """
+    """The frequency (one evcal fits, the design's) and the saved calendar against the design; returns
+    the calendar and the frequency's cycle length."""
     try:
         p = cycle_length(freq)
         pd.Period("2020-01-01", freq=freq)
@@ -106,12 +98,7 @@ def _cov(path: Path, m: ModelJson) -> None:
 
 
 def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
-    """``model.json`` beyond types; returns the saved calendar and the history's periods.
-
-    Examples
-    --------
-    >>> cal, periods = check_model(Path("m/model.json"), validate_document("model", ...))  # doctest: +SKIP
-    """
+    """``model.json`` beyond types; returns the saved calendar and the history's periods."""
     cal, p = check_calendar(path, m.freq, m.design, m.calendar_text)
     periods = _periods(path, m)
     _cov(path, m)
@@ -156,12 +143,7 @@ def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
 
 
 def check_panel(path: Path, m: PanelJson, table_columns: set[str]) -> Any:
-    """``panel.json`` beyond types (a key column may not take a name of ``table_columns``); the calendar.
-
-    Examples
-    --------
-    >>> cal = check_panel(Path("p/panel.json"), validate_document("panel", ...), {"event"})  # doctest: +SKIP
-    """
+    """``panel.json`` beyond types (a key column may not take a name of ``table_columns``); the calendar."""
     for i, k in enumerate(m.keys):
         if not k.strip() or k in m.keys[:i] or k in table_columns:
             raise fail(path, f"keys[{i}]", "is empty; expected a column name of the long file"

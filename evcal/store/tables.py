@@ -1,12 +1,8 @@
-"""The tables of a model folder: one writer and one reader, with key columns (a panel) or none (one series).
+"""The tables of a model folder: one writer, one reader, with key columns (a panel) or none (one series).
 
-:func:`write_table` writes any table (CSV or Parquet, by the file name);
-:func:`read_table` reads a CSV back, key and text columns as text, the rest
-as numbers; the ``check_*`` functions check rows against the JSON document
-for one series or many (:class:`Rows`). Each problem is one
-:class:`~evcal.errors.ModelError` line naming the file, the line and the
-column. Text a spreadsheet would run is written with a leading quote and read
-back without it (:mod:`evcal.formula_safe`).
+The ``check_*`` functions check rows against the JSON document for one series or many (:class:`Rows`);
+each problem is one line naming the file, line and column. Text a spreadsheet would run is written
+with a leading quote and read back without it (:mod:`evcal.formula_safe`).
 """
 
 from __future__ import annotations

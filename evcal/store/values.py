@@ -1,9 +1,8 @@
 """The JSON convention of evcal's folders, its value types, and the one line for a damaged folder.
 
-JSON has no NaN or infinity, and a bare ``null`` cannot say which it was, so
-:func:`json_safe` writes ``"NaN"``, ``"Infinity"`` and ``"-Infinity"``; the
-reader takes them back only where a number may be non-finite (:data:`Num`),
-never where it must be finite (:data:`Finite`). ``null`` means "absent".
+JSON has no NaN or infinity and ``null`` cannot say which it was, so :func:`json_safe` writes
+``"NaN"``, ``"Infinity"``, ``"-Infinity"``; they are read back only where a number may be
+non-finite (:data:`Num`), never where it must be finite (:data:`Finite`). ``null`` means "absent".
 """
 
 from __future__ import annotations
@@ -25,8 +24,7 @@ NONFINITE = {"NaN": math.nan, "Infinity": math.inf, "-Infinity": -math.inf}
 
 
 def json_safe(obj: Any) -> Any:
-    """Plain JSON values: non-finite floats as ``"NaN"``/``"Infinity"``/``"-Infinity"``, numpy scalars
-    as Python ones, keys as text.
+    """Plain JSON values: non-finite floats as text, numpy scalars as Python ones, keys as text.
 
     Examples
     --------
@@ -48,13 +46,7 @@ def json_safe(obj: Any) -> Any:
 
 
 def dumps(obj: Any) -> str:
-    """``obj`` as JSON text in the folder's convention (never a bare NaN token).
-
-    Examples
-    --------
-    >>> dumps({"x": float("nan")})
-    '{\\n "x": "NaN"\\n}'
-    """
+    """``obj`` as JSON text in the folder's convention (never a bare NaN token), as :func:`json_safe`."""
     return json.dumps(json_safe(obj), indent=1, allow_nan=False)
 
 
@@ -81,12 +73,14 @@ def _number(v: Any) -> float:
 
 def _rules(*rules: tuple[Any, str]) -> BeforeValidator:
     """A number (as :func:`_number` reads it) that passes every ``(test, what is wrong)`` of ``rules``."""
+
     def check(v: Any) -> float:
         x = _number(v)
         for test, what in rules:
             if not test(x):
                 raise ValueError(f"{shown(v)} {what}")
         return x
+
     return BeforeValidator(check)
 
 

@@ -144,6 +144,27 @@ def test_panel_json_non_finite_number_is_written_as_a_string(panel: Path, tmp_pa
         load_panel(folder)
 
 
+# ------------------------------------------------------------------ a folder written by 0.1 (issue 14)
+
+#: a panel folder written by evcal 0.1.0 before the one folder format (tests/corpus/v0_1/make.py)
+V01 = Path(__file__).resolve().parent / "corpus" / "v0_1" / "panel"
+
+
+def test_panel_written_by_0_1_loads_and_is_written_back_byte_for_byte(tmp_path: Path) -> None:
+    old = load_panel(V01)
+    assert old.key_cols == ["store", "product"] and set(old.series["product"]) == {"P1", "-P2"}
+    assert old.lifts["identifiable"].dtype == bool  # flags read as booleans, as in a single model's lifts
+    old.save(tmp_path / "p")
+    for name in ("panel.json", "series.csv", "lifts.csv", "pooling.csv", "occurrences.csv", "profile.csv",
+                 "skipped.csv"):
+        assert (tmp_path / "p" / name).read_bytes() == (V01 / name).read_bytes(), name
+    new = load_panel(tmp_path / "p")
+    for name in ("series", "lifts", "pooling", "occurrences", "profile", "skipped", "coefficients"):
+        pd.testing.assert_frame_equal(getattr(new, name), getattr(old, name), check_exact=True)
+    with pytest.raises(ModelError, match=r"a single-series model folder \(model\.json\), not a panel one"):
+        load_panel(V01.parent / "model")
+
+
 # ------------------------------------------------------------------ the issue's cases
 
 

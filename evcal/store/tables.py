@@ -168,7 +168,7 @@ def typed(path: Path, frame: pd.DataFrame, table: Table, keys: list[str]) -> pd.
     for col in frame.columns:
         if col not in keys and col not in table.text and col not in table.dates and frame[col].dtype != bool:
             frame[col] = _numbers(path, frame, col, col in table.finite)
-    for col in ("note", "label", "detail"):  # free text: an empty cell is an empty text
+    for col in ("note", "label", "detail", "reason"):  # free text: an empty cell is an empty text
         if col in frame.columns and col in table.text:
             frame[col] = frame[col].fillna("").astype(str)
     return frame

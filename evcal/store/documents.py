@@ -143,9 +143,12 @@ class LastYear(Strict):
     total: Finite | None = None
 
 
-class Exclusion(Strict):
+class Span(Strict):  # the days of a panel's first and last periods; an excluded stretch of a history
     start: Day
     end: Day
+
+
+class Exclusion(Span):
     reason: str
 
 
@@ -179,11 +182,6 @@ class ModelJson(Settings):
 
 
 # ---------------------------------------------------------------- panel.json (many series)
-
-
-class Periods(Strict):
-    start: Day
-    end: Day
 
 
 class Counts(Strict):
@@ -223,7 +221,7 @@ class PanelJson(Settings):
     source: str
     date_col: str
     value_col: str
-    periods: Periods
+    periods: Span
     errors: str
     counts: Counts
     events: dict[str, EventLabel]

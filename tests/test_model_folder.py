@@ -143,6 +143,48 @@ def test_non_finite_numbers_are_written_as_strings_and_read_back(tmp_path: Path,
     assert back.model_choice["candidates"][0]["value"] == -math.inf
 
 
+# ------------------------------------------------------------------ folders written by 0.1 (issue 14)
+
+#: folders written by evcal 0.1.0 before the one folder format (tests/corpus/v0_1/make.py, invented data)
+V01 = ROOT / "tests" / "corpus" / "v0_1"
+
+
+def test_folder_written_by_0_1_loads_plans_and_is_written_back_the_same(tmp_path: Path) -> None:
+    old = load_model(V01 / "model")
+    assert old.freq == "M" and list(old.lifts["event"]) == ["spring-fair", "xmas"]
+    assert old.lifts["label"].iloc[0] == "=Spring fair, 3 days"  # the formula-safe quote taken off
+    assert np.isnan(old.lifts["lift_pct"].iloc[0]) and not old.lifts["identifiable"].iloc[0]
+    res = runner.invoke(app, ["plan", str(V01 / "model"), "--from", "2024-01-01", "--to", "2024-12-31",
+                              "--sims", "0", "--out", str(tmp_path / "plan.csv")])
+    assert res.exit_code == 0, res.output
+    # written again by the one writer and read back: model.json byte for byte, the tables the same values
+    old.save(tmp_path / "m")
+    assert (tmp_path / "m" / "model.json").read_bytes() == (V01 / "model" / "model.json").read_bytes()
+    new = load_model(tmp_path / "m")
+    for name in ("lifts", "occurrences", "profile", "fitted"):
+        pd.testing.assert_frame_equal(getattr(new, name), getattr(old, name), check_exact=True)
+
+
+def test_folder_of_another_format_version_is_the_usual_line(tmp_path: Path) -> None:
+    m = _copy(V01 / "model", tmp_path / "m")
+    _edit_json(m, lambda d: d.__setitem__("format_version", 0))
+    line = _one_line(runner.invoke(app, ["show", str(m)]), "model.json", "format_version 0",
+                     "reads format_version 1")
+    assert line.endswith("re-run evcal fit to write the folder again"), line
+
+
+def test_the_folder_kind_is_told_by_the_marker_or_the_document(tmp_path: Path) -> None:
+    from evcal.store import folder_kind, read_folder
+
+    assert folder_kind(V01 / "model") == "model" and folder_kind(V01 / "panel") == "panel"
+    bare = _copy(V01 / "panel", tmp_path / "p")
+    (bare / "evcal-output.json").unlink()  # as panel folders were written before the marker
+    assert folder_kind(bare) == "panel" and read_folder(bare).kind == "panel"
+    assert read_folder(V01 / "model").tables["profile"]["period"].tolist() == list(range(1, 13))
+    with pytest.raises(ModelError, match=r"a panel model folder \(panel\.json\), not a single-series one"):
+        load_model(V01 / "panel")
+
+
 # ------------------------------------------------------------------ damaged folders (issue 13, seen 3)
 
 

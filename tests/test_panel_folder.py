@@ -131,7 +131,7 @@ def test_panel_csvs_are_formula_safe_and_read_back(panel: Path) -> None:
 
 
 def test_panel_json_non_finite_number_is_written_as_a_string(panel: Path, tmp_path: Path) -> None:
-    # the convention of model.json (evcal.model.schema.json_safe): "NaN", never a bare NaN token
+    # the convention of model.json (evcal.store.values.json_safe): "NaN", never a bare NaN token
     loaded = load_panel(panel)
     loaded.settings["groups"][0]["trend_origin"] = float("nan")
     folder = tmp_path / "p"
@@ -142,6 +142,27 @@ def test_panel_json_non_finite_number_is_written_as_a_string(panel: Path, tmp_pa
     # a group's trend origin must be finite: read back, it is refused by name
     with pytest.raises(ModelError, match=r"panel\.json: groups\[0\]\.trend_origin: \"NaN\" is not a finite"):
         load_panel(folder)
+
+
+# ------------------------------------------------------------------ a folder written by 0.1 (issue 14)
+
+#: a panel folder written by evcal 0.1.0 before the one folder format (tests/corpus/v0_1/make.py)
+V01 = Path(__file__).resolve().parent / "corpus" / "v0_1" / "panel"
+
+
+def test_panel_written_by_0_1_loads_and_is_written_back_byte_for_byte(tmp_path: Path) -> None:
+    old = load_panel(V01)
+    assert old.key_cols == ["store", "product"] and set(old.series["product"]) == {"P1", "-P2"}
+    assert old.lifts["identifiable"].dtype == bool  # flags read as booleans, as in a single model's lifts
+    old.save(tmp_path / "p")
+    for name in ("panel.json", "series.csv", "lifts.csv", "pooling.csv", "occurrences.csv", "profile.csv",
+                 "skipped.csv"):
+        assert (tmp_path / "p" / name).read_bytes() == (V01 / name).read_bytes(), name
+    new = load_panel(tmp_path / "p")
+    for name in ("series", "lifts", "pooling", "occurrences", "profile", "skipped", "coefficients"):
+        pd.testing.assert_frame_equal(getattr(new, name), getattr(old, name), check_exact=True)
+    with pytest.raises(ModelError, match=r"a single-series model folder \(model\.json\), not a panel one"):
+        load_panel(V01.parent / "model")
 
 
 # ------------------------------------------------------------------ the issue's cases

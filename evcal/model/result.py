@@ -10,21 +10,12 @@ import numpy as np
 import pandas as pd
 
 from evcal import __version__
-from evcal._files import atomic_dir
 from evcal.design.matrix import DesignSpec
-from evcal.formula_safe import write_csv
 from evcal.model.identify import ColumnStatus
 from evcal.model.options import FitOptions
-from evcal.model.schema import (
-    FORMAT_VERSION,
-    MODEL_FILES,
-    check_consistency,
-    dumps,
-    json_safe,
-    model_dict,
-    read_folder,
-    validate_model_json,
-)
+from evcal.store import FORMAT_VERSION, MODEL_FILES, json_safe, read_folder, save_folder
+from evcal.store.documents import plain, validate_document
+from evcal.store.settings import check_model
 
 __all__ = ["FitResult", "load_model", "json_safe", "FORMAT_VERSION", "MODEL_FILES"]
 
@@ -135,19 +126,14 @@ class FitResult:
         }
 
     def save(self, directory: str | Path) -> Path:
-        """Write the output folder of the contract (atomically: all files or none)."""
-        directory = Path(directory)
-        with atomic_dir(directory, kind="model") as tmp:
-            (tmp / "model.json").write_text(dumps(self.to_json()), encoding="utf-8")
-            write_csv(self.lifts, tmp / "lifts.csv", index=False, float_format="%.6g")
-            write_csv(self.occurrences, tmp / "occurrences.csv", index=False, float_format="%.6g")
-            write_csv(self.profile, tmp / "profile.csv", index=False, float_format="%.6g")
-            write_csv(self.fitted, tmp / "fitted.csv", index=False, float_format="%.6g")
-        return directory
+        """Write the output folder of the contract (atomically: all files or none; :mod:`evcal.store`)."""
+        tables = {"lifts": self.lifts, "occurrences": self.occurrences, "profile": self.profile,
+                  "fitted": self.fitted}
+        return save_folder(directory, "model", self.to_json(), tables)
 
     @classmethod
     def from_json(cls, d: dict[str, Any], source: str | Path = "model.json") -> FitResult:
-        """A model from the contents of ``model.json``, checked first (:mod:`evcal.model.schema`).
+        """A model from the contents of ``model.json``, checked first (:mod:`evcal.store`).
 
         Raises
         ------
@@ -155,49 +141,35 @@ class FitResult:
             One line naming ``source`` and the first key that is missing, of the wrong type,
             not finite where a finite number is needed, or inconsistent with the others.
         """
-        path = Path(source)
-        m = validate_model_json(path, d)
-        cal, _ = check_consistency(path, m)
-        res = cls._from_checked(model_dict(m))
+        doc = validate_document("model", Path(source), d)
+        cal, _ = check_model(Path(source), doc)
+        res = cls._from_checked(plain(doc, d))
         res._calendar = cal
         return res
 
     @classmethod
     def _from_checked(cls, d: dict[str, Any]) -> FitResult:
-        cols = d["cov"]["columns"]
+        """A model from a checked ``model.json`` (:func:`evcal.store.documents.plain`): the keys that are
+        fields of their own name as they are, the others converted."""
+        cols, history = d["cov"]["columns"], d["history"]
         return cls(
+            **{k: d[k] for k in _AS_SAVED},
             options=FitOptions.from_dict(d["options"]),
             spec=DesignSpec.from_dict(d["design"]),
-            transform=d["transform"],
-            label=d["label"],
             params=pd.Series(d["params"], dtype=float),
             cov=pd.DataFrame(np.array(d["cov"]["values"], dtype=float).reshape(len(cols), len(cols)),
                              index=cols, columns=cols),
-            sigma2=float(d["sigma2"]),
-            smear=float(d["smear"]),
-            error_model=d["error_model"],
             model_choice=d["model"],
-            status={k: ColumnStatus(v["status"], v["note"], v.get("twin", ""))
-                    for k, v in d["status"].items()},
-            like_map=d["like_map"],
-            assumed={k: float(v) for k, v in d["assumed"].items()},
-            base_columns=d["base_columns"],
-            intervention_names=d["intervention_names"],
-            closure_events=d["closure_events"],
-            event_info=d["event_info"],
-            event_labels=d["event_labels"],
-            calendar_text=d["calendar_text"],
-            calendar_name=d["calendar_name"],
-            history_start=d["history"]["start"],
-            history_end=d["history"]["end"],
-            history_source=d["history"]["source"],
-            last_year=d["last_year"],
-            average_share={int(k): float(v) for k, v in d["average_share"].items()},
-            mean_base=float(d["mean_base"]),
-            exclusions=d["exclusions"],
-            warnings=d["warnings"],
-            quality=d.get("quality", {}),
+            status={k: ColumnStatus(v["status"], v["note"], v["twin"]) for k, v in d["status"].items()},
+            history_start=history["start"], history_end=history["end"], history_source=history["source"],
+            average_share={int(k): v for k, v in d["average_share"].items()},
         )
+
+
+#: keys of model.json that are fields of FitResult of the same name and type (checked by evcal.store)
+_AS_SAVED = ("transform", "label", "sigma2", "smear", "error_model", "like_map", "assumed", "base_columns",
+             "intervention_names", "closure_events", "event_info", "event_labels", "calendar_text",
+             "calendar_name", "last_year", "mean_base", "exclusions", "warnings", "quality")
 
 
 def load_model(directory: str | Path) -> FitResult:
@@ -207,7 +179,7 @@ def load_model(directory: str | Path) -> FitResult:
     ------
     ModelError
         A file is missing, unreadable, from another format version, or damaged: one line
-        naming the file and the key (see :func:`evcal.model.schema.read_folder`).
+        naming the file and the key (see :func:`evcal.store.read_folder`).
 
     Examples
     --------
@@ -215,11 +187,9 @@ def load_model(directory: str | Path) -> FitResult:
     >>> from evcal.plan import make_plan                    # doctest: +SKIP
     >>> make_plan(res, "2027-01-01", "2027-12-31").table.head()     # doctest: +SKIP
     """
-    folder = read_folder(directory)
-    res = FitResult._from_checked(folder.model)
+    folder = read_folder(directory, "model")
+    res = FitResult._from_checked(folder.document)
     res._calendar = folder.calendar
-    res.lifts = folder.lifts
-    res.occurrences = folder.occurrences
-    res.profile = folder.profile
-    res.fitted = folder.fitted
+    for name, table in folder.tables.items():
+        setattr(res, name, table)
     return res

@@ -13,7 +13,8 @@ from evcal import __version__
 from evcal.errors import HistoryError
 from evcal.io.longformat import read_panel, split_key_option
 from evcal.io.panel import Panel
-from evcal.panel.result import PANEL_FORMAT, PANEL_VERSION, PanelResult, key_codes_of, keyed
+from evcal.panel.result import PanelResult, key_codes_of, keyed
+from evcal.store import PANEL_FORMAT, PANEL_VERSION
 
 __all__ = ["read_for_panel", "build_result", "FittedWriter"]
 

@@ -36,29 +36,9 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import ModelError
-from evcal.formula_safe import formula_safe_frame
-from evcal.model.schema import dumps
-from evcal.panel.schema import PANEL_FILES, PANEL_FORMAT, PANEL_VERSION, read_panel_folder
+from evcal.store import PANEL_FILES, PANEL_FORMAT, PANEL_VERSION, folder_kind, read_folder, write_folder
 
-__all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "PANEL_FORMAT", "PANEL_VERSION",
-           "write_csv"]
-
-
-def write_csv(frame: pd.DataFrame, path: Path) -> None:
-    """Write a frame as CSV through pyarrow (several times faster than pandas for long tables).
-
-    Text cells that a spreadsheet would run as a formula get a leading quote
-    (:func:`evcal.formula_safe.formula_safe_frame`); :func:`load_panel` takes it off again.
-    """
-    import pyarrow as pa
-    import pyarrow.csv as pacsv
-
-    out = formula_safe_frame(frame)
-    for c in out.columns:
-        if out[c].dtype == bool:
-            out[c] = pd.Categorical.from_codes(out[c].to_numpy().astype(np.int8), ["False", "True"])
-    table = pa.Table.from_pandas(out, preserve_index=False)
-    pacsv.write_csv(table, path, write_options=pacsv.WriteOptions(quoting_style="needed"))
+__all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "PANEL_FORMAT", "PANEL_VERSION"]
 
 
 def keyed(frame: pd.DataFrame, keys: pd.DataFrame, key_codes: dict[str, tuple[np.ndarray, Any]]
@@ -210,39 +190,26 @@ class PanelResult:
 
     # ------------------------------------------------------------ persistence
     def write_into(self, directory: Path) -> None:
-        """Write every file except ``fitted.parquet`` (streamed while fitting) into ``directory``."""
-        from concurrent.futures import ThreadPoolExecutor
-
-        directory = Path(directory)
-        # non-finite floats as "NaN"/"Infinity"/"-Infinity", as in model.json (evcal.model.schema)
-        (directory / "panel.json").write_text(dumps(self.settings), encoding="utf-8")
-        jobs: list[tuple[Any, ...]] = [
-            (write_csv, self.occurrences, directory / "occurrences.csv"),
-            (write_csv, self.profile, directory / "profile.csv"),
-            # event labels are in panel.json ("events"), not on every row
-            (write_csv, self.lifts.drop(columns=["_fitted", "label"], errors="ignore"),
-             directory / "lifts.csv"),
-            (write_csv, self.series, directory / "series.csv"),
-            (write_csv, self.pooling, directory / "pooling.csv"),
-            (write_csv, self.skipped, directory / "skipped.csv"),
-            (_write_parquet, self.coefficients, directory / "coefficients.parquet"),
-        ]
-        if self._fitted is not None and not (directory / "fitted.parquet").exists():
-            jobs.append((_write_parquet, self._fitted, directory / "fitted.parquet"))
-        # pyarrow writes without holding the GIL: the files go out side by side
-        with ThreadPoolExecutor(max_workers=2) as pool:
-            for fut in [pool.submit(*job) for job in jobs]:
-                fut.result()
+        """Write every file into ``directory`` (:func:`evcal.store.write_folder`), except ``fitted.parquet``
+        when it is there already (streamed while fitting) or the fitted rows are not in memory."""
+        tables = {"occurrences": self.occurrences, "profile": self.profile,
+                  # event labels are in panel.json ("events"), not on every row
+                  "lifts": self.lifts.drop(columns=["_fitted", "label"], errors="ignore"),
+                  "series": self.series, "pooling": self.pooling, "skipped": self.skipped,
+                  "coefficients": self.coefficients}
+        if self._fitted is not None and not (Path(directory) / "fitted.parquet").exists():
+            tables["fitted"] = self._fitted
+        write_folder(Path(directory), "panel", self.settings, tables)
 
     def save(self, directory: str | Path) -> Path:
         """Write the panel folder atomically (all files or none)."""
+        import shutil
+
         from evcal._files import atomic_dir
 
         directory = Path(directory)
         with atomic_dir(directory, kind="panel") as tmp:
             if self._fitted is None and self.fitted_path is not None and self.fitted_path.exists():
-                import shutil
-
                 shutil.copyfile(self.fitted_path, tmp / "fitted.parquet")
             self.write_into(tmp)
         self.fitted_path = directory / "fitted.parquet"
@@ -254,22 +221,14 @@ class PanelResult:
         return describe_panel(self)
 
 
-def _write_parquet(frame: pd.DataFrame, path: Path) -> None:
-    frame.to_parquet(path, index=False)
-
-
-
-
 def is_panel_dir(directory: str | Path) -> bool:
-    """Whether ``directory`` is a panel folder (``panel.json`` inside)."""
-    return (Path(directory) / "panel.json").is_file()
+    """Whether ``directory`` is a panel folder (its marker says so, or ``panel.json`` is inside)."""
+    return folder_kind(directory) == "panel"
 
 
 def load_panel(directory: str | Path) -> PanelResult:
-    """Read a panel folder written by ``evcal fit --series-col``, checked first.
-
-    Every key of ``panel.json`` and every table is checked by
-    :func:`evcal.panel.schema.read_panel_folder` before any of it is used.
+    """Read a panel folder written by ``evcal fit --series-col``, every key and table checked first
+    (:func:`evcal.store.read_folder`).
 
     Raises
     ------
@@ -282,6 +241,5 @@ def load_panel(directory: str | Path) -> PanelResult:
     >>> load_panel("models/all").key_cols       # doctest: +SKIP
     ['store', 'product']
     """
-    directory = Path(directory)
-    settings, tables = read_panel_folder(directory)
-    return PanelResult(settings=settings, fitted_path=directory / "fitted.parquet", **tables)
+    folder = read_folder(directory, "panel")
+    return PanelResult(settings=folder.document, fitted_path=folder.path / "fitted.parquet", **folder.tables)

@@ -121,7 +121,7 @@ def make_plan(
 def _check_finite(table: pd.DataFrame, result: Any) -> None:
     """Stop with one line when the model gives a base or plan that is not a finite number.
 
-    A fit writes finite coefficients (:mod:`evcal.model.schema` checks them on
+    A fit writes finite coefficients (:mod:`evcal.store` checks them on
     load), but one that is finite and absurd (a constant of 1e308 edited into
     ``model.json``) still overflows on the sales scale; never plan with it.
     """

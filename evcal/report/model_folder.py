@@ -3,7 +3,7 @@
 The report is built from the files ``evcal fit``, ``evcal plan`` and
 ``evcal backtest`` write, not from in-memory classes, so a report can be made
 on another machine, later, from a folder someone sent. The model folder is
-read by :func:`evcal.model.schema.read_folder`, the one checked reader that
+read by :func:`evcal.store.read_folder`, the one checked reader that
 ``evcal plan`` and ``evcal show`` use too: a damaged folder is refused with the
 same line naming the file and the key, before any number from it is shown.
 Text cells that evcal wrote with a leading quote (formula-safe CSV,
@@ -21,6 +21,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
+from types import SimpleNamespace
 from typing import Any
 
 import numpy as np
@@ -85,7 +86,7 @@ def read_model_folder(
         line per problem (a missing column, a value that is not a date or a
         number, with its line in the file).
     """
-    from evcal.model.schema import read_folder
+    from evcal.store import read_folder
 
     folder = Path(model_dir)
     if (folder / "panel.json").is_file() and not (folder / "model.json").is_file():
@@ -94,7 +95,8 @@ def read_model_folder(
                          "evcal.panel.load_panel (write_report shows it with a section per series)")
     # the one reader of a model folder: every key of model.json and every table checked as
     # `plan` and `show` check them; the first problem is one ModelError line
-    checked = read_folder(folder)
+    stored = read_folder(folder, "model")
+    checked = SimpleNamespace(model=stored.document, calendar=stored.calendar, **stored.tables)
     model = checked.model
     problems: list[str] = []
     lifts = checked.lifts.copy()  # read_folder took the formula-safe quote off already: once only

@@ -161,6 +161,8 @@ def main() -> None:
         code = 1
     for stream in (sys.stdout, sys.stderr):
         _flush_or_silence(stream)
+    # the ordinary teardown: skipping it with os._exit saved about 5 % of the whole-process time of
+    # benchmarks/panel.py's 10,000-series fit (median of 15 alternating pairs), under the 10 % bar
     sys.exit(code)
 
 

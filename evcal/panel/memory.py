@@ -1,29 +1,28 @@
-"""Handing freed memory back to the system between the steps of a large panel fit.
+"""Handing freed memory back to the system between the units of a large panel fit.
 
 glibc keeps the heap pages of freed arrays for reuse, per thread arena, and
 raises its threshold for mapping large blocks directly after the first ones
 are freed; a fit that makes many short-lived (series × periods) arrays on
 two threads would then hold far more memory than it uses at any moment.
-``malloc_trim`` returns the free pages of every arena. pyarrow's pool keeps
-the buffers of a file it has read in the same way.
+``malloc_trim`` returns the free pages of every arena.
 
-While a panel is fitted, pyarrow allocates from the same C library heap
-(:func:`arrow_on_system_heap`): its default pool (mimalloc or jemalloc) cannot
-reuse the pages numpy has freed, so reading the file, streaming the fitted
-rows and writing the tables would each add their own pages on top of them.
+Measured on ``benchmarks/panel.py``'s data (10,000 weekly series × 260 weeks,
+``evcal fit long.parquet --series-col family,product``, 11 alternating pairs of
+whole-process runs): without the trim every 4 units the median peak resident
+memory rose from 356 to 407 MiB (+14 %), for no change in time (CPU ratio
+1.01). Two other tricks did not earn the 10 % they must and were removed: a
+trim after reading the file (median peak within ±2 %), and switching pyarrow's
+pool to the C library heap during a fit (without it the median peak rose 5.8 %
+at 10,000 series and 0.9 % at 30,000, the time unchanged).
 """
 
 from __future__ import annotations
 
-import contextlib
 import ctypes
 import functools
-import os
-import threading
-from collections.abc import Iterator
 from typing import Any
 
-__all__ = ["release_freed_memory", "arrow_on_system_heap"]
+__all__ = ["release_freed_memory"]
 
 
 @functools.lru_cache(maxsize=1)
@@ -34,45 +33,13 @@ def _libc() -> Any:
         return None
 
 
-def release_freed_memory(arrow: bool = False) -> None:
-    """Return free heap pages to the system (glibc only), and pyarrow's unused buffers if ``arrow``."""
-    if arrow:
-        try:
-            import pyarrow as pa
+def release_freed_memory() -> None:
+    """Return the free heap pages of every arena to the system (glibc only; elsewhere nothing).
 
-            pa.default_memory_pool().release_unused()
-        except (ImportError, AttributeError):
-            pass
+    Examples
+    --------
+    >>> release_freed_memory()
+    """
     libc = _libc()
     if libc is not None and hasattr(libc, "malloc_trim"):
         libc.malloc_trim(0)
-
-
-_pool_lock = threading.Lock()
-_pool_users: list[Any] = []  # the pool to restore, once per fit using the system heap
-
-
-@contextlib.contextmanager
-def arrow_on_system_heap() -> Iterator[None]:
-    """pyarrow's default pool set to the C library's allocator for the duration (then restored).
-
-    Left alone when ``ARROW_DEFAULT_MEMORY_POOL`` names a pool (the user's
-    choice). Buffers made meanwhile go back to the pool that made them. Fits
-    running at the same time on several threads share the switch: the first
-    makes it, the last one out restores the pool that was set before.
-    """
-    if os.environ.get("ARROW_DEFAULT_MEMORY_POOL"):
-        yield
-        return
-    import pyarrow as pa
-
-    with _pool_lock:
-        _pool_users.append(pa.default_memory_pool() if not _pool_users else _pool_users[0])
-        pa.set_memory_pool(pa.system_memory_pool())
-    try:
-        yield
-    finally:
-        with _pool_lock:
-            before = _pool_users.pop()
-            if not _pool_users:
-                pa.set_memory_pool(before)

@@ -190,12 +190,6 @@ WRAPPER = (
     "    import evcal.cli, evcal.engine.run, evcal.panel.build, evcal.calendar\n"
     "    import pyarrow.parquet, pyarrow.csv\n"
     "    sys.exit(0)\n"
-    "import os\n"
-    "quick_exit = os._exit\n"
-    "def record_and_exit(code):\n"  # evcal's console entry ends with os._exit: no atexit there
-    "    open(out, 'w').write(str(peak()))\n"
-    "    quick_exit(code)\n"
-    "os._exit = record_and_exit\n"
     "from evcal.cli import main\n"
     "sys.argv[0] = 'evcal'\n"
     "main()\n"

@@ -1,9 +1,10 @@
-"""The real ``evcal`` process: exit codes and complete output with the fast exit.
+"""The real ``evcal`` process: exit codes and complete output.
 
-``evcal.cli.main`` ends the process with ``os._exit`` after flushing stdout and
-stderr; these tests run it as a separate process (as the console script does)
-and check that nothing printed or written is lost and that the exit codes
-stay those of the commands.
+``evcal.cli.main`` is the console script's entry (``python -m evcal.cli`` runs
+it too); it flushes stdout and stderr and exits with the command's code. These
+tests run it as a separate process (as the console script does) and check that
+nothing printed or written is lost and that the exit codes stay those of the
+commands.
 """
 
 from __future__ import annotations

@@ -152,3 +152,19 @@ def test_cli_discover_on_a_model_folder(single, panel, tmp_path) -> None:
     assert "Traceback" not in res.output and "name one with --series" in res.output
     assert len(res.output.strip().splitlines()) == 1
     assert not out.exists()
+
+
+def test_cli_discover_series_option_reaches_the_panel_folder(panel, tmp_path) -> None:
+    # `evcal discover PANEL --series P3` looks into that series (the same findings as the API)
+    from typer.testing import CliRunner
+
+    from evcal.cli import app
+
+    out = tmp_path / "found"
+    args = ["discover", str(panel), "--series", "P3", "--errors", "ols", "--out", str(out)]
+    res = CliRunner().invoke(app, args)
+    assert res.exit_code == 0, res.output
+    api = evcal.discover(panel, series="P3", errors="ols")
+    assert pd.read_csv(out / "suggestions.csv").shape[0] == len(api.table)
+    res = CliRunner().invoke(app, ["discover", str(panel), "--errors", "ols", "--out", str(tmp_path / "x")])
+    assert res.exit_code == 2 and "--series" in res.output and not (tmp_path / "x").exists()

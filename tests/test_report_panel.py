@@ -177,3 +177,13 @@ def test_hostile_keys_and_labels_in_a_panel_are_text(tmp_path: Path) -> None:
     marks = [k + " (key)" for k in keys] + [HOSTILE[3] + " (calendar)", HOSTILE[4] + " (label)",
                                             HOSTILE[0] + " (source)"]
     assert_only_text(page, marks)
+
+
+def test_cli_report_series_option_picks_the_sections(panel: Path, tmp_path: Path) -> None:
+    # --series reaches write_report: one series section, and the overview says which
+    out = tmp_path / "r.html"
+    res = CliRunner().invoke(app, ["report", str(panel), "--out", str(out), "--series", "south"])
+    assert res.exit_code == 0, res.output
+    page = out.read_text()
+    assert len(re.findall(r'<section id="series-\d+"', page)) == 1
+    assert "Shown below: the 1 series named with --series." in section(page, "overview")

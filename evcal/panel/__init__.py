@@ -71,13 +71,11 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
 
     from evcal.model.options import FitOptions
     from evcal.panel.distributed import make_runner
-    from evcal.panel.memory import arrow_on_system_heap
 
     opts = FitOptions(**options)
     runner = make_runner(workers, scheduler, progress)
-    # the matrices are small: one BLAS thread each, the cores go to the units instead; pyarrow
-    # and numpy share one heap, so the pages one frees the other reuses
-    with threadpool_limits(limits=1), arrow_on_system_heap():
+    # the matrices are small: one BLAS thread each, the cores go to the units instead
+    with threadpool_limits(limits=1):
         return _fit(history, calendar, series_cols, date_col, value_col, freq, level, group_col, opts,
                     runner, out)
 
@@ -85,13 +83,11 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
 def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col: str, freq: str | None,
          level: Any, group_col: str | None, opts: Any, runner: Any, out: str | Path | None) -> PanelResult:
     from evcal.panel.build import build_result, read_for_panel
-    from evcal.panel.memory import release_freed_memory
 
     panel, keys, levels, cal = read_for_panel(history, series_cols, date_col, value_col, freq, level,
                                               group_col, meanwhile=lambda: _ready_to_fit(calendar))
     from evcal.engine.run import fit_long_panel  # imported by _ready_to_fit while the file was read
 
-    release_freed_memory(arrow=True)
     if out is None:
         fitted = fit_long_panel(panel, cal, opts, runner=runner)
         return build_result(fitted, keys, levels, group_col, date_col, value_col, None)

@@ -1,4 +1,4 @@
-"""What the ``evcal fit`` / ``show`` commands do for panels (kept here so evcal/cli.py stays thin)."""
+"""What the ``evcal fit`` / ``show`` commands do for panels (kept here so evcal/cli/ stays thin)."""
 
 from __future__ import annotations
 

@@ -88,26 +88,6 @@ def write_workbook(
     return out
 
 
-def workbook_from_files(
-    out_xlsx: str | Path, model_dir: str | Path, plan_csv: str | Path | None = None
-) -> Path:
-    """The workbook from a model folder and a ``plan.csv`` (the files, not the classes).
-
-    Without a plan the Plan sheet says so; the other sheets come from the folder.
-    """
-    from evcal.report.model_folder import read_model_folder
-
-    folder = read_model_folder(model_dir, plan_csv=plan_csv)
-    lifts = folder.lifts
-    return write_workbook(
-        out_xlsx,
-        folder.plan if folder.plan is not None else pd.DataFrame(),
-        lifts,
-        folder.profile,
-        folder.occurrences,
-    )
-
-
 def _with_date_column(frame: pd.DataFrame | None) -> pd.DataFrame:
     if frame is None:
         return pd.DataFrame()

@@ -13,7 +13,7 @@ __all__ = ["write_report", "write_workbook", "workbook_from_files", "read_model_
 _WHERE = {
     "write_report": "evcal.report.html",
     "write_workbook": "evcal.plan.workbook",
-    "workbook_from_files": "evcal.plan.workbook",
+    "workbook_from_files": "evcal.report.model_folder",
     "read_model_folder": "evcal.report.model_folder",
     "headlines": "evcal.report.headlines",
 }

@@ -254,3 +254,23 @@ def _labels(lifts: pd.DataFrame, model: dict[str, Any]) -> pd.Series:
         index=lifts.index,
         dtype=object,
     )
+
+
+def workbook_from_files(
+    out_xlsx: str | Path, model_dir: str | Path, plan_csv: str | Path | None = None
+) -> Path:
+    """The workbook from a model folder and a ``plan.csv`` (the files, not the classes).
+
+    Without a plan the Plan sheet says so; the other sheets come from the folder.
+    """
+    from evcal.plan.workbook import write_workbook
+
+    folder = read_model_folder(model_dir, plan_csv=plan_csv)
+    lifts = folder.lifts
+    return write_workbook(
+        out_xlsx,
+        folder.plan if folder.plan is not None else pd.DataFrame(),
+        lifts,
+        folder.profile,
+        folder.occurrences,
+    )

@@ -443,3 +443,34 @@ def test_many_key_combinations_keep_each_series_apart():
     np.testing.assert_array_equal(panel.values, a[None, :] + np.array([0.0, 0.5, 0.25])[:, None])
 
 
+def test_arrow_pool_is_the_system_heap_during_a_fit_and_restored_after(monkeypatch):
+    import pyarrow as pa
+
+    from evcal.engine.memory import arrow_on_system_heap
+
+    monkeypatch.delenv("ARROW_DEFAULT_MEMORY_POOL", raising=False)
+    before = pa.default_memory_pool().backend_name
+    with arrow_on_system_heap():
+        assert pa.default_memory_pool().backend_name == "system"
+        buf = pa.allocate_buffer(1 << 20)  # made from the system pool, freed after the switch back
+    assert pa.default_memory_pool().backend_name == before
+    del buf
+    monkeypatch.setenv("ARROW_DEFAULT_MEMORY_POOL", before)  # the user's choice is left alone
+    with arrow_on_system_heap():
+        assert pa.default_memory_pool().backend_name == before
+
+
+def test_arrow_pool_switch_nested_restores_the_first_pool(monkeypatch):
+    # two fits at once (threads of one application) share the switch; the pool set before the
+    # first comes back when the last one ends
+    import pyarrow as pa
+
+    from evcal.engine.memory import arrow_on_system_heap
+
+    monkeypatch.delenv("ARROW_DEFAULT_MEMORY_POOL", raising=False)
+    before = pa.default_memory_pool().backend_name
+    with arrow_on_system_heap():
+        with arrow_on_system_heap():
+            assert pa.default_memory_pool().backend_name == "system"
+        assert pa.default_memory_pool().backend_name == "system"  # the outer fit is still running
+    assert pa.default_memory_pool().backend_name == before

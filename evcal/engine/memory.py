@@ -10,19 +10,33 @@ Measured on ``benchmarks/panel.py``'s data (10,000 weekly series × 260 weeks,
 ``evcal fit long.parquet --series-col family,product``, 11 alternating pairs of
 whole-process runs): without the trim every 4 units the median peak resident
 memory rose from 356 to 407 MiB (+14 %), for no change in time (CPU ratio
-1.01). Two other tricks did not earn the 10 % they must and were removed: a
-trim after reading the file (median peak within ±2 %), and switching pyarrow's
-pool to the C library heap during a fit (without it the median peak rose 5.8 %
-at 10,000 series and 0.9 % at 30,000, the time unchanged).
+1.01). A trim after reading the file did not earn the 10 % it must (median
+peak within ±2 %) and was removed. Switching pyarrow's pool to the C library
+heap during a fit measured +5.8 % peak without it at 10,000 series and +0.9 %
+at 30,000 in one run, and +25 % in the run below; the larger figure held in
+the whole-process comparison with the code before the engine was one.
+
+The pool switch was measured again once the engine was one (the same data and
+command, 5 alternating pairs of whole-process runs, ``ARROW_DEFAULT_MEMORY_POOL
+=system`` against the default pool): without it the median peak was 387 MiB
+against 310 MiB (+25 %), the time the same (CPU ratio 0.99), so it is kept:
+while a panel is fitted pyarrow allocates from the C library heap
+(:func:`arrow_on_system_heap`), whose pages numpy has freed and can reuse;
+its default pool (mimalloc or jemalloc) cannot, so reading the file,
+streaming the fitted rows and writing the tables each added their own pages.
 """
 
 from __future__ import annotations
 
+import contextlib
 import ctypes
 import functools
+import os
+import threading
+from collections.abc import Iterator
 from typing import Any
 
-__all__ = ["release_freed_memory"]
+__all__ = ["release_freed_memory", "arrow_on_system_heap"]
 
 
 @functools.lru_cache(maxsize=1)
@@ -43,3 +57,33 @@ def release_freed_memory() -> None:
     libc = _libc()
     if libc is not None and hasattr(libc, "malloc_trim"):
         libc.malloc_trim(0)
+
+
+_pool_lock = threading.Lock()
+_pool_users: list[Any] = []  # the pool to restore, once per fit using the system heap
+
+
+@contextlib.contextmanager
+def arrow_on_system_heap() -> Iterator[None]:
+    """pyarrow's default pool set to the C library's allocator for the duration (then restored).
+
+    Left alone when ``ARROW_DEFAULT_MEMORY_POOL`` names a pool (the user's
+    choice). Buffers made meanwhile go back to the pool that made them. Fits
+    running at the same time on several threads share the switch: the first
+    makes it, the last one out restores the pool that was set before.
+    """
+    if os.environ.get("ARROW_DEFAULT_MEMORY_POOL"):
+        yield
+        return
+    import pyarrow as pa
+
+    with _pool_lock:
+        _pool_users.append(pa.default_memory_pool() if not _pool_users else _pool_users[0])
+        pa.set_memory_pool(pa.system_memory_pool())
+    try:
+        yield
+    finally:
+        with _pool_lock:
+            before = _pool_users.pop()
+            if not _pool_users:
+                pa.set_memory_pool(before)

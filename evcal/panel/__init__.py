@@ -69,13 +69,15 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     """
     from threadpoolctl import threadpool_limits
 
+    from evcal.engine.memory import arrow_on_system_heap
     from evcal.model.options import FitOptions
     from evcal.panel.distributed import make_runner
 
     opts = FitOptions(**options)
     runner = make_runner(workers, scheduler, progress)
-    # the matrices are small: one BLAS thread each, the cores go to the units instead
-    with threadpool_limits(limits=1):
+    # the matrices are small: one BLAS thread each, the cores go to the units instead; pyarrow
+    # and numpy share one heap, so the pages one frees the other reuses (evcal.engine.memory)
+    with threadpool_limits(limits=1), arrow_on_system_heap():
         return _fit(history, calendar, series_cols, date_col, value_col, freq, level, group_col, opts,
                     runner, out)
 

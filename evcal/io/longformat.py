@@ -105,7 +105,7 @@ def _load_parquet(path: Path, series_cols: list[str], date_col: str, value_col: 
     except Exception as err:  # pyarrow raises many types for a damaged file
         raise HistoryError(f"{path.name}: not a readable Parquet file ({type(err).__name__})") from None
     probe = RawTable(pd.DataFrame(columns=names), [], path.name)
-    wanted = [_key_column(probe, c) for c in series_cols]
+    wanted = [find_column(probe, c, "key", "--series-col") for c in series_cols]
     wanted += [find_column(probe, date_col, "date", "--date-col"),
                find_column(probe, value_col, "value", "--value-col")]
     keys = list(dict.fromkeys(wanted[:-2]))
@@ -125,18 +125,6 @@ def _load_parquet(path: Path, series_cols: list[str], date_col: str, value_col: 
     return RawTable(frame, [], path.name)
 
 
-def _key_column(table: RawTable, wanted: str) -> str:
-    columns = [str(c) for c in table.frame.columns]
-    if wanted in columns:
-        return wanted
-    loose = [c for c in columns if c.strip().lower() == wanted.strip().lower()]
-    if len(loose) == 1:
-        return loose[0]
-    raise HistoryError(
-        f"{table.source} row 1: no key column {wanted!r} (from --series-col); columns found: "
-        f"{', '.join(repr(c) for c in columns)}; name existing columns with --series-col")
-
-
 def _row_number(table: RawTable, i: int) -> int:
     return table.rows[i] if table.rows else i + 2
 
@@ -146,7 +134,7 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     """Build the panel from a loaded table (see :func:`read_panel`)."""
     name = table.source
     frame = table.frame
-    kcols = [_key_column(table, c) for c in series_cols]
+    kcols = [find_column(table, c, "key", "--series-col") for c in series_cols]
     dcol = find_column(table, date_col, "date", "--date-col")
     vcol = find_column(table, value_col, "value", "--value-col")
     clash = sorted({c for c in kcols if c in (dcol, vcol)} | ({dcol} if dcol == vcol else set()))
@@ -196,8 +184,8 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
         rem //= len(uu)
     # keys are text in every output (sorted by their original values)
     key_frame = pd.DataFrame({c: pd.Series(keys[c]).astype(str).to_numpy(dtype=object) for c in kcols})
-    attrs = _attributes(table, [_key_column(table, c) for c in (attr_cols or [])], sid, n_series,
-                        key_frame) if attr_cols else None
+    attr_names = [find_column(table, c, "key", "--series-col") for c in (attr_cols or [])]
+    attrs = _attributes(table, attr_names, sid, n_series, key_frame) if attr_cols else None
 
     # dates: parsed once per distinct cell
     dcells = frame[dcol]

@@ -215,3 +215,23 @@ def test_exclusion_leaving_too_few_periods_names_the_counts(tmp_path: Path) -> N
     assert len(lines) == 1 and "Traceback" not in result.output
     assert "73 of 361 periods" in lines[0] and "covers 288" in lines[0] and "at least 104" in lines[0]
     assert "2019-01-01 .. 2025-06-30" in lines[0]
+
+
+def test_a_panel_series_whose_batched_fit_breaks_down_gets_the_single_series_rule(tmp_path: Path) -> None:
+    # Before the engine was one, a panel solved these series in a block with no degenerate-fit rule
+    # (mothering-sunday -100 %, fathers-day +inf in quarterly data). Now the block reroutes them to the
+    # per-series fit: the same lifts and notes as evcal.fit on each series alone.
+    from evcal.panel import fit_panel
+
+    quarters = pd.read_csv(quarterly_demo(tmp_path), parse_dates=["date"])
+    long = pd.concat([quarters.assign(store="A"), quarters.assign(store="B", value=quarters["value"] * 2.0)])
+    panel = fit_panel(long, CALENDAR, ["store"], errors="ols")
+    assert (panel.series["engine"] == "per-series").all()
+    for store, scale in (("A", 1.0), ("B", 2.0)):
+        alone = fit(quarters.assign(value=quarters["value"] * scale), CALENDAR, errors="ols").lifts
+        mine = panel.lifts[panel.lifts["store"] == store].set_index("event")
+        alone = alone.set_index("event")
+        assert not bool(mine.loc["mothering-sunday", "identifiable"])
+        assert mine.loc["mothering-sunday", "note"] == alone.loc["mothering-sunday", "note"]
+        np.testing.assert_allclose(mine.loc[alone.index, "lift_pct"].to_numpy(dtype=float),
+                                   alone["lift_pct"].to_numpy(dtype=float), rtol=1e-8, equal_nan=True)

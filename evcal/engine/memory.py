@@ -13,8 +13,9 @@ memory rose from 356 to 407 MiB (+14 %), for no change in time (CPU ratio
 1.01). A trim after reading the file did not earn the 10 % it must (median
 peak within ±2 %) and was removed. Switching pyarrow's pool to the C library
 heap during a fit measured +5.8 % peak without it at 10,000 series and +0.9 %
-at 30,000 in one run, and +25 % in the run below; the larger figure held in
-the whole-process comparison with the code before the engine was one.
+at 30,000 in a first series of runs, and +25 % in a second (below); it is
+kept on the second. With it, the whole fit's median peak against the code
+before the engine was one was 343 against 334 MiB (5 alternating pairs).
 
 The pool switch was measured again once the engine was one (the same data and
 command, 5 alternating pairs of whole-process runs, ``ARROW_DEFAULT_MEMORY_POOL

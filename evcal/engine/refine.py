@@ -25,11 +25,9 @@ import numpy as np
 
 from evcal.design.curved import CurvedEvents
 from evcal.model.estimators import bartlett_weights
+from evcal.model.passes import MAX_PASSES, THETA_TOL  # the per-series passes' stopping rule
 
 __all__ = ["curved_columns", "design_with_theta", "refine"]
-
-# the same stopping rule as the single-series fit (evcal.model.passes.estimate_exact)
-from evcal.model.passes import MAX_PASSES, THETA_TOL  # noqa: E402
 
 
 def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
@@ -96,10 +94,8 @@ def design_with_theta(curve: CurvedEvents, group: Any, rows: np.ndarray, X_fit: 
     X = X_fit.copy()
     idx = {c: i for i, c in enumerate(group.fitted_cols)}
     cols = curved_columns(curve, group, theta)
-    for c, v in cols.items():
-        st = group.status[c]
-        target = c if st.status == "fitted" else group.like_map.get(c) if st.status == "like" else None
-        if target in idx and st.status == "fitted":
+    for c, v in cols.items():  # fitted columns first: a borrowed column adds onto its target
+        if group.status[c].status == "fitted" and c in idx:
             X[:, idx[c]] = v[0, rows]
     for c, v in cols.items():
         if group.status[c].status == "like" and group.like_map.get(c) in idx:

@@ -16,7 +16,8 @@ import pandas as pd
 
 from evcal.design.seasonal import cycle_length
 from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
-from evcal.model.inputs import ModelInputs, average_share_profile, calendar_text, term_info
+from evcal.model.identify import status_notes
+from evcal.model.inputs import ModelInputs, average_share_profile, calendar_terms, calendar_text
 from evcal.model.options import FitOptions
 from evcal.model.passes import estimate_exact
 from evcal.model.result import FitResult
@@ -24,10 +25,13 @@ from evcal.model.result import FitResult
 __all__ = ["fit_series", "new_result", "adopt_tables"]
 
 
-def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None) -> FitResult:
+def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None,
+               sid: int = 0) -> tuple[FitResult, BlockTables]:
     """Fit one series with the per-series estimators (OLS, ARIMA errors, count GLM or the AIC choice).
 
     ``inp`` is the series' prepared and checked inputs, when the caller has them.
+    Returns the result and its block tables (``_sid`` = ``sid``), which a
+    panel keeps as they are.
     """
     inp, est, choice = estimate_exact(history, calendar, options, inp)
     rows = inp.rows
@@ -47,9 +51,9 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
     term_cov = result.cov.reindex(index=group.term_cols, columns=group.term_cols).to_numpy(dtype=float)
     se = np.sqrt(np.clip(np.diag(term_cov), 0, None))[:, None]
     actual = inp.actual.to_numpy(dtype=float)[None, :]
-    tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.zeros(1, dtype=int))
+    tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]))
     adopt_tables(result, tables, inp)
-    return result
+    return result, tables
 
 
 def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, *, params: pd.Series,
@@ -75,10 +79,6 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         like_map=inp.like_map,
         assumed=inp.assumed,
         base_columns=[c for c in inp.design.X.columns if roles[c] in ("trend", "seasonal")],
-        intervention_names=[t["name"] for t in spec.interventions],
-        closure_events=[e.name for e in calendar.events if e.effect.kind == "zero"],
-        event_info=term_info(calendar),
-        event_labels={e.name: e.label for e in calendar.events},
         calendar_text=calendar_text(calendar, None),
         calendar_name=calendar.name,
         history_start=str(periods[0]),
@@ -88,10 +88,8 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         average_share={int(k): float(v) for k, v in average_share_profile(
             history.values.where(inp.rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
         mean_base=0.0,
-        exclusions=[{"start": pd.Timestamp(e.start).date().isoformat(),
-                     "end": pd.Timestamp(e.end).date().isoformat(), "reason": e.reason}
-                    for e in calendar.exclusions],
         warnings=list(inp.notes),
+        **calendar_terms(calendar),
         _open_share=inp.design.open_share.to_numpy(),
         _calendar=calendar,
     )
@@ -102,8 +100,7 @@ def adopt_tables(result: FitResult, tables: BlockTables, inp: ModelInputs) -> No
     result.lifts = _plain(tables.lifts).drop(columns=["_fitted"])
     result.occurrences = _plain(tables.occurrences)
     result.profile = _plain(tables.profile)
-    fitted = tables.fitted[0]
-    result.fitted = _plain(fitted if isinstance(fitted, pd.DataFrame) else fitted)
+    result.fitted = _plain(tables.fitted[0])
     q = _plain(tables.quality)
     result.mean_base = float(q["mean_base"].iloc[0])
     model_fitted = result.fitted["fitted"].to_numpy()
@@ -114,11 +111,7 @@ def adopt_tables(result: FitResult, tables: BlockTables, inp: ModelInputs) -> No
     result.residuals = pd.Series(scale_resid, index=inp.periods, name="residual")
     result.quality = {"periods_fitted": int(q["periods_fitted"].iloc[0]),
                       "wape_pct": float(q["wape_pct"].iloc[0]), "resid_sd": float(q["resid_sd"].iloc[0])}
-    for c, st in result.status.items():
-        if st.status in ("unidentifiable", "duplicate"):
-            result.warnings.append(f"{c}: {st.note}")
-        elif st.status == "no_history":
-            result.warnings.append(f"{c}: no occurrence in the history; listed, not fitted")
+    result.warnings += status_notes(result.status)
 
 
 def _plain(table: Any) -> pd.DataFrame:

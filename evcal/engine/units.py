@@ -254,7 +254,7 @@ def run_loop(unit: LoopUnit) -> UnitResult:
             # a series prepared by the caller keeps the caller's options (its transform is chosen)
             opts = unit.options if inp is not None else \
                 FitOptions(**{**_option_dict(unit.options), "transform": tr})
-            res = fit_series(hist, cal, opts, inp)
+            res, tables = fit_series(hist, cal, opts, inp, int(sid))
         except (EvcalError, np.linalg.LinAlgError, ValueError) as err:
             if unit.keep_models and isinstance(err, EvcalError):
                 raise
@@ -263,7 +263,7 @@ def run_loop(unit: LoopUnit) -> UnitResult:
             continue
         if unit.keep_models:
             models[int(sid)] = res
-        parts.append(_result_tables(res, int(sid)))
+        parts.append(tables)
         series_rows.append({"_sid": sid, "engine": "per-series", "group": -1, "transform": res.transform,
                             "method": res.model_choice.get("chosen", ""), "sigma2": res.sigma2,
                             "smear": res.smear, "hac_lags": np.nan, "trend_origin": res.spec.trend_origin,
@@ -276,21 +276,6 @@ def run_loop(unit: LoopUnit) -> UnitResult:
 
 def _option_dict(options: FitOptions) -> dict[str, Any]:
     return {f.name: getattr(options, f.name) for f in fields(options)}
-
-
-def _result_tables(res: Any, sid: int) -> BlockTables:
-    def tag(frame: pd.DataFrame) -> pd.DataFrame:
-        out = frame.copy()
-        out.insert(0, "_sid", sid)
-        return out
-
-    q = res.quality or {}
-    quality = pd.DataFrame({"_sid": [sid], "periods_fitted": [int(q.get("periods_fitted", 0))],
-                            "wape_pct": [q.get("wape_pct", np.nan)], "resid_sd": [q.get("resid_sd", np.nan)],
-                            "mean_base": [res.mean_base]})
-    lifts = tag(res.lifts)
-    lifts["_fitted"] = [getattr(res.status.get(e), "status", "") == "fitted" for e in res.lifts["event"]]
-    return BlockTables(lifts, tag(res.occurrences), tag(res.profile), [tag(res.fitted)], quality)
 
 
 EMPTY_TABLES = {  # the columns of each table when no series produced a row

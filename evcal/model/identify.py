@@ -236,6 +236,17 @@ def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], trans
     return out
 
 
+def status_notes(status: dict[str, ColumnStatus]) -> list[str]:
+    """The warnings a fit gives for columns it could not estimate (one wording for every path)."""
+    notes = []
+    for c, st in status.items():
+        if st.status in ("unidentifiable", "duplicate"):
+            notes.append(f"{c}: {st.note}")
+        elif st.status == "no_history":
+            notes.append(f"{c}: no occurrence in the history; listed, not fitted")
+    return notes
+
+
 def _bound(transform: str, level: Any = 1.0) -> Any:
     """Largest size a coefficient may have before it is a breakdown (log scale, or units for additive)."""
     if transform != "none":

@@ -309,6 +309,42 @@ def average_share_profile(values: pd.Series, closed: Any = None) -> pd.Series:
     return prof / prof.sum()
 
 
+def calendar_terms(calendar: Any) -> dict[str, Any]:
+    """What a fitted model says of its calendar: each term's names, closures, interventions, exclusions.
+
+    The fields of the same names of :class:`~evcal.model.FitResult` (and of a
+    panel series' report), built in one place.
+    """
+    return {
+        "event_info": term_info(calendar),
+        "event_labels": {e.name: e.label for e in calendar.events},
+        "closure_events": [e.name for e in calendar.events if e.effect.kind == "zero"],
+        "intervention_names": [t.name for t in calendar.interventions],
+        "exclusions": [{"start": pd.Timestamp(e.start).date().isoformat(),
+                        "end": pd.Timestamp(e.end).date().isoformat(), "reason": e.reason}
+                       for e in calendar.exclusions],
+    }
+
+
+def additive_design(X: pd.DataFrame, inp: ModelInputs) -> pd.DataFrame:
+    """The additive model's regressors: base columns carry the assumed lifts, rows scaled by the open share.
+
+    An assumed lift is a share of the base (as the plan applies it,
+    :mod:`evcal.effects.decompose`), so the base columns carry
+    ``1 + Σ lift × column`` in each period; the periods stay in the fit
+    (leaving them out could leave none at all). The open share then scales the
+    whole period (the response is scaled alike by the caller).
+    """
+    roles = inp.design.roles
+    if inp.assumed:
+        scale = 1.0 + sum(a * inp.design.X[c].to_numpy() for c, a in inp.assumed.items())
+        base = [c for c in X.columns if roles.get(c) in ("trend", "seasonal")]
+        X = X.copy()
+        X[base] = X[base].mul(scale, axis=0)
+    share = inp.design.open_share.to_numpy()
+    return X.mul(np.where(share > 0, share, 1.0), axis=0)
+
+
 def term_info(calendar: Any) -> dict[str, dict[str, Any]]:
     """Name, label, group, effect and shape of every event column and intervention (for outputs)."""
     info: dict[str, dict[str, Any]] = {}

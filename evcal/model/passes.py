@@ -12,7 +12,7 @@ import pandas as pd
 from evcal.design.seasonal import base_freq
 from evcal.model.estimators import Estimate, fit_arima, fit_count, fit_ols
 from evcal.model.identify import MAX_LOG_LIFT, ColumnStatus, degenerate_note, degenerate_terms, seasonal_share
-from evcal.model.inputs import ModelInputs, check_fit_rows, model_scale_response, prepare
+from evcal.model.inputs import ModelInputs, additive_design, check_fit_rows, model_scale_response, prepare
 from evcal.model.options import FitOptions
 
 LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS+HAC for speed
@@ -42,18 +42,9 @@ def _estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str
         return est, {"chosen": est.method, "reason": est.cov_note, "candidates": [
             {"name": est.method, "criterion": "aic", "value": est.aic}]}
     if inp.transform == "none":
-        if inp.assumed:
-            # additive: an assumed lift is a share of the base (as the plan applies it,
-            # evcal.effects.decompose), so the base columns carry 1 + sum(lift x column) in each
-            # period; the periods stay in the fit (leaving them out could leave none at all)
-            scale = 1.0 + sum(a * inp.design.X[c].to_numpy() for c, a in inp.assumed.items())
-            base = [c for c in X.columns if inp.design.roles.get(c) in ("trend", "seasonal")]
-            X = X.copy()
-            X[base] = X[base].mul(scale, axis=0)
-        # additive: the open share scales the whole period (rows of X and y alike)
+        X = additive_design(X, inp)
         share = inp.design.open_share.to_numpy()
-        X = X.mul(np.where(share > 0, share, 1.0), axis=0)
-        y = y * np.where(share > 0, share, 1.0)
+        y = y * np.where(share > 0, share, 1.0)  # the open share scales the response as the rows
     offset = inp.offset if inp.transform == "log" else pd.Series(0.0, index=inp.periods)
     if options.errors == "ols":
         est = fit_ols(y, X, offset)

@@ -28,6 +28,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.model.inputs import calendar_terms
 from evcal.panel import PanelResult, load_panel
 from evcal.panel.summary import lift_distribution
 from evcal.report.common import page_frame
@@ -162,10 +163,8 @@ def series_folder(panel: PanelResult, key: dict[str, Any], folder: Path) -> Mode
         "calendar_name": s.get("calendar_name") or "",
         "evcal_version": s.get("evcal_version"),
         "events": [{"name": e.name, "label": e.label, "effect": e.effect.describe()} for e in cal.events],
-        "closure_events": [e.name for e in cal.events if e.effect.kind == "zero"],
-        "intervention_names": [t.name for t in cal.interventions],
-        "exclusions": [{"start": f"{e.start:%Y-%m-%d}", "end": f"{e.end:%Y-%m-%d}", "reason": e.reason}
-                       for e in cal.exclusions],
+        **{k: v for k, v in calendar_terms(cal).items()
+           if k in ("closure_events", "intervention_names", "exclusions")},
     }
     return ModelFolder(
         path=folder,

@@ -19,46 +19,28 @@ import pandas as pd
 class Block(Protocol):
     """A block of named regressor columns."""
 
-    #: short name used in model.json and messages
-    kind: str
-
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         """Return the block's columns for ``periods`` (index = ``periods``)."""
         ...
 
-    def to_dict(self) -> dict[str, Any]:
-        """Settings as plain JSON-able data."""
-        ...
-
-
-def _run_key(periods: pd.PeriodIndex) -> tuple[str, int, int] | None:
-    """(frequency, first ordinal, length) for a run of consecutive periods, else None."""
-    n = len(periods)
-    if n == 0:
-        return None
-    ords = periods.asi8
-    if int(ords[-1]) - int(ords[0]) != n - 1:
-        return None
-    return periods.freqstr, int(ords[0]), n
-
 
 def _cached(fn: Any) -> Any:
-    """Per-period arrays are asked for many times over the same runs: keep them (read-only)."""
-    cache = functools.lru_cache(maxsize=64)(
-        lambda freq, first, n: _readonly(fn(pd.period_range(pd.Period(ordinal=first, freq=freq),
-                                                             periods=n))))
+    """Per-period arrays are asked for many times over the same runs of periods: keep them (read-only)."""
+
+    @functools.lru_cache(maxsize=64)
+    def on_run(freq: str, first: int, n: int) -> np.ndarray:
+        out = fn(pd.period_range(pd.Period(ordinal=first, freq=freq), periods=n))
+        out.setflags(write=False)
+        return out
 
     @functools.wraps(fn)
     def wrapper(periods: pd.PeriodIndex) -> np.ndarray:
-        key = _run_key(periods)
-        return fn(periods) if key is None else cache(*key)
+        ords = periods.asi8
+        if len(ords) and int(ords[-1]) - int(ords[0]) == len(ords) - 1:  # a run of consecutive periods
+            return on_run(periods.freqstr, int(ords[0]), len(ords))
+        return fn(periods)
 
     return wrapper
-
-
-def _readonly(a: np.ndarray) -> np.ndarray:
-    a.setflags(write=False)
-    return a
 
 
 @_cached

@@ -44,10 +44,6 @@ def aggregate_day_weights(day_weights: pd.DataFrame, periods: pd.PeriodIndex) ->
     >>> aggregate_day_weights(full, months)["x"].tolist()
     [2.0, 2.0]
     """
-    if not isinstance(periods, pd.PeriodIndex):
-        raise TypeError(f"periods must be a pandas PeriodIndex, not {type(periods).__name__}")
-    if not isinstance(day_weights.index, pd.DatetimeIndex):
-        raise TypeError("day_weights must have a daily DatetimeIndex")
     values = day_weights.to_numpy(dtype=float)
     out = np.zeros((len(periods), values.shape[1]))
     if len(periods):

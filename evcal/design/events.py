@@ -8,15 +8,9 @@ divided by the period's length. With that scaling one coefficient means the
 same thing at every frequency: on the log scale, the lift on the event's
 window days. A 10-day run-up to Easter that puts 3 days in March and 7 in
 April puts 3/31 of a full-intensity month into March and 7/30 into April.
-
-That linear form is exact for daily data, but for a period only partly
-covered it treats the lift as additive in logs, while a lift multiplies each
-window day: a period's mean multiplier is 1 + mean over its days of
-(exp(theta w_d) - 1), for day intensity w_d and log-lift theta. Given theta
-(``theta`` below, set by the fit after a first pass and saved with the model),
-the column is log(that mean) / theta, so column x theta is the exact log-effect
-and theta keeps its meaning "log-lift on the window days" at every frequency
-(without it, a +60 % Easter window in monthly data reads as about +77 %).
+Given the fitted log-lift θ the columns aggregate the multiplicative daily
+lifts exactly (:mod:`evcal.design.curved`; without it, a +60 % Easter window
+in monthly data reads as about +77 %).
 """
 
 from __future__ import annotations
@@ -49,21 +43,18 @@ class EventColumns:
     calendar: Any
     names: list[str]
     theta: dict[str, float] = field(default_factory=dict)
-    kind: str = "events"
 
     def theta_of(self, name: str) -> float:
         """Log-lift used to aggregate ``name`` (0 = the linear share of days)."""
-        if name in self.theta:
-            return float(self.theta[name])
         colmap = self.calendar.event_columns()
-        if name not in colmap:
-            return 0.0
+        if name in self.theta or name not in colmap:
+            return float(self.theta.get(name, 0.0))
         effect = self.calendar.event(colmap[name]).effect
         if effect.kind == "assume" and effect.assume is not None:
             return float(np.log1p(effect.assume))
-        if effect.kind == "like" and effect.like:
-            target = next((c for c, ev in colmap.items() if ev == effect.like), None)
-            return float(self.theta.get(target, 0.0)) if target else 0.0
+        if effect.kind == "like":
+            target = next((c for c, ev in colmap.items() if ev == effect.like), "")
+            return float(self.theta.get(target, 0.0))
         return 0.0
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
@@ -75,9 +66,6 @@ class EventColumns:
         out = {n: curve.column(n, np.array([self.theta_of(n)]))[0] for n in self.names}
         return pd.DataFrame(out, index=periods, columns=self.names)
 
-    def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind, "names": list(self.names)}
-
 
 @dataclass
 class OpenShare:
@@ -88,8 +76,6 @@ class OpenShare:
     """
 
     calendar: Any
-    kind: str = "open_share"
-    _cache: dict[str, pd.Series] = field(default_factory=dict, repr=False)
 
     def values(self, periods: pd.PeriodIndex) -> pd.Series:
         start, end = day_span(periods)

@@ -37,33 +37,18 @@ class InterventionTerm:
 
     @classmethod
     def from_spec(cls, spec: Any) -> InterventionTerm:
-        end = getattr(spec, "end", None)
-        return cls(
-            name=spec.name,
-            type=spec.type,
-            start=pd.Timestamp(spec.start),
-            end=None if end is None else pd.Timestamp(end),
-            decay=getattr(spec, "decay", None),
-        )
+        """The settings of a calendar's intervention (its dates are already timestamps)."""
+        return cls(spec.name, spec.type, spec.start, spec.end, spec.decay)
 
     def to_dict(self) -> dict[str, Any]:
-        return {
-            "name": self.name,
-            "type": self.type,
-            "start": self.start.date().isoformat(),
-            "end": None if self.end is None else self.end.date().isoformat(),
-            "decay": self.decay,
-        }
+        end = None if self.end is None else self.end.date().isoformat()
+        return {"name": self.name, "type": self.type, "start": self.start.date().isoformat(), "end": end,
+                "decay": self.decay}
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> InterventionTerm:
-        return cls(
-            name=d["name"],
-            type=d["type"],
-            start=pd.Timestamp(d["start"]),
-            end=None if d.get("end") is None else pd.Timestamp(d["end"]),
-            decay=d.get("decay"),
-        )
+        end = None if d.get("end") is None else pd.Timestamp(d["end"])
+        return cls(d["name"], d["type"], pd.Timestamp(d["start"]), end, d.get("decay"))
 
     def column(self, periods: pd.PeriodIndex) -> np.ndarray:
         start = periods.start_time.normalize()
@@ -105,15 +90,7 @@ class Interventions:
     """All interventions of a calendar as one block, a column each."""
 
     terms: tuple[InterventionTerm, ...]
-    kind: str = "interventions"
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         data = {t.name: t.column(periods) for t in self.terms}
         return pd.DataFrame(data, index=periods, columns=[t.name for t in self.terms])
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind, "terms": [t.to_dict() for t in self.terms]}
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> Interventions:
-        return cls(tuple(InterventionTerm.from_dict(t) for t in d["terms"]))

@@ -76,16 +76,15 @@ class DesignSpec:
     def intervention_terms(self) -> tuple[InterventionTerm, ...]:
         return tuple(InterventionTerm.from_dict(t) for t in self.interventions)
 
+    def annual_block(self) -> AnnualFourier | SeasonalDummies:
+        """The annual cycle's block: Fourier terms for daily data or when asked, else period dummies."""
+        if base_freq(self.freq) == "D" or self.seasonal == "fourier":
+            return AnnualFourier(self.fourier_order)
+        return SeasonalDummies(self.freq)
+
     def seasonal_blocks(self) -> list[Block]:
         b = base_freq(self.freq)
-        blocks: list[Block] = []
-        if b == "D":
-            blocks.append(WeekdayDummies())
-            blocks.append(AnnualFourier(self.fourier_order))
-        elif self.seasonal == "fourier":
-            blocks.append(AnnualFourier(self.fourier_order))
-        else:
-            blocks.append(SeasonalDummies(self.freq))
+        blocks: list[Block] = [WeekdayDummies(), self.annual_block()] if b == "D" else [self.annual_block()]
         if self.trading_days and b in ("M", "Q"):
             blocks.append(TradingDays())
         return blocks
@@ -98,9 +97,6 @@ class Design:
     X: pd.DataFrame
     open_share: pd.Series
     roles: dict[str, str]  # column -> "trend" | "seasonal" | "event" | "intervention"
-
-    def columns_with(self, role: str) -> list[str]:
-        return [c for c in self.X.columns if self.roles[c] == role]
 
 
 def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> Design:
@@ -123,13 +119,8 @@ def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> De
     parts.append(("event", EventColumns(calendar, list(spec.event_columns),
                                         dict(spec.event_theta)).columns(periods)))
     parts.append(("intervention", Interventions(spec.intervention_terms()).columns(periods)))
-    roles: dict[str, str] = {}
-    frames = []
-    for role, frame in parts:
-        for c in frame.columns:
-            roles[c] = role
-        frames.append(frame)
-    X = pd.concat(frames, axis=1).astype(float)
+    roles = {c: role for role, frame in parts for c in frame.columns}
+    X = pd.concat([frame for _, frame in parts], axis=1).astype(float)
     share = OpenShare(calendar).values(periods) if calendar is not None else pd.Series(
         np.ones(len(periods)), index=periods, name="open_share")
     return Design(X=X, open_share=share, roles=roles)

@@ -1,30 +1,21 @@
 """Seasonal blocks: period dummies, annual Fourier terms, weekday terms.
 
-Monthly and quarterly dummies come from ``statsmodels.tsa.deterministic``
-(``CalendarSeasonality``), annual Fourier terms from ``CalendarFourier``.
-statsmodels has no week-of-year seasonality, so weekly dummies are built here
-from the week's midpoint (week 53, when a year has one, shares week 52's
-dummy so the profile always has 52 positions).
+Annual Fourier terms come from ``statsmodels.tsa.deterministic.CalendarFourier``.
+The dummies are built here from each period's position in the year for every
+frequency (statsmodels has no week-of-year seasonality): a week's position comes
+from its midpoint, and week 53, when a year has one, shares week 52's dummy so
+the profile always has 52 positions.
 """
 
 from __future__ import annotations
 
 import warnings
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from evcal.design.base import period_days
-
-
-def _quiet(fn: Any, *args: Any) -> pd.DataFrame:
-    # statsmodels warns about frequency inference on PeriodIndex input; the
-    # frequency is known here, so the warning carries no information.
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        return fn(*args)
 
 
 def base_freq(freq: str) -> str:
@@ -67,32 +58,19 @@ class SeasonalDummies:
     """
 
     freq: str
-    kind: str = "seasonal_dummies"
+
+    def _at(self, position: np.ndarray, index: pd.Index) -> pd.DataFrame:
+        p = cycle_length(self.freq)
+        values = (position[:, None] == np.arange(2, p + 1)[None, :]).astype(float)
+        return pd.DataFrame(values, index=index, columns=[f"season[{k}]" for k in range(2, p + 1)])
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
-        b = base_freq(self.freq)
-        p = cycle_length(self.freq)
-        if b in ("M", "Q"):
-            from statsmodels.tsa.deterministic import CalendarSeasonality  # slow import: when used
-
-            sm_freq = "ME" if b == "M" else "QE"
-            raw = _quiet(CalendarSeasonality(sm_freq, "YE").in_sample, periods)
-            values = raw.to_numpy()[:, 1:]
-        else:
-            pos = season_position(periods)
-            values = (pos[:, None] == np.arange(2, p + 1)[None, :]).astype(float)
-        names = [f"season[{k}]" for k in range(2, p + 1)]
-        return pd.DataFrame(values, index=periods, columns=names)
+        return self._at(season_position(periods), periods)
 
     def cycle(self) -> pd.DataFrame:
         """Columns for one reference cycle, rows = positions 1..P."""
         p = cycle_length(self.freq)
-        values = np.vstack([np.zeros(p - 1), np.eye(p - 1)])
-        return pd.DataFrame(values, index=pd.RangeIndex(1, p + 1, name="period"),
-                            columns=[f"season[{k}]" for k in range(2, p + 1)])
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind, "freq": self.freq}
+        return self._at(np.arange(1, p + 1), pd.RangeIndex(1, p + 1, name="period"))
 
 
 @dataclass(frozen=True)
@@ -104,12 +82,13 @@ class AnnualFourier:
     """
 
     order: int
-    kind: str = "annual_fourier"
 
     def _at(self, stamps: pd.DatetimeIndex) -> pd.DataFrame:
         from statsmodels.tsa.deterministic import CalendarFourier  # slow import: when used
 
-        raw = _quiet(CalendarFourier("YE", self.order).in_sample, stamps)
+        with warnings.catch_warnings():  # statsmodels' frequency inference warns; the frequency is known here
+            warnings.simplefilter("ignore")
+            raw = CalendarFourier("YE", self.order).in_sample(stamps)
         raw.columns = [c.replace(",freq=YE-DEC", "").replace(" ", "") for c in raw.columns]
         return raw
 
@@ -127,24 +106,16 @@ class AnnualFourier:
         out.index = pd.RangeIndex(1, 366, name="period")
         return out
 
-    def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind, "order": self.order}
-
 
 @dataclass(frozen=True)
 class WeekdayDummies:
     """Day-of-week dummies for daily data (Monday is the reference)."""
-
-    kind: str = "weekday_dummies"
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         dow = periods.start_time.day_of_week.to_numpy()
         values = (dow[:, None] == np.arange(1, 7)[None, :]).astype(float)
         names = [f"weekday[{d}]" for d in ("tue", "wed", "thu", "fri", "sat", "sun")]
         return pd.DataFrame(values, index=periods, columns=names)
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind}
 
 
 @dataclass(frozen=True)
@@ -157,7 +128,6 @@ class TradingDays:
     effect instead of having it read as seasonality.
     """
 
-    kind: str = "trading_days"
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         start = periods.start_time.normalize().to_numpy().astype("datetime64[D]")
@@ -173,6 +143,3 @@ class TradingDays:
         contrasts = counts[:, :6] - counts[:, 6:7]
         names = [f"trading[{d}]" for d in ("mon", "tue", "wed", "thu", "fri", "sat")]
         return pd.DataFrame(contrasts, index=periods, columns=names)
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind}

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -38,7 +37,6 @@ class Trend:
     origin: float
     order: int = 1
     constant: bool = True
-    kind: str = "trend"
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         t = period_mid_years(periods) - self.origin
@@ -48,7 +46,3 @@ class Trend:
         for k in range(1, self.order + 1):
             cols["trend" if k == 1 else f"trend^{k}"] = t**k
         return pd.DataFrame(cols, index=periods)
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind, "origin": self.origin, "order": self.order,
-                "constant": self.constant}

@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 
-from evcal.design.seasonal import AnnualFourier, SeasonalDummies, base_freq, cycle_length
+from evcal.design.seasonal import AnnualFourier, SeasonalDummies, cycle_length
 from evcal.effects.columns import Columns, tiled_text
 from evcal.effects.occurrences import Z95
 from evcal.effects.span import GroupInfo, SpanContext
@@ -98,7 +98,7 @@ def profile_columns(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np
     """The seasonal index over one annual cycle (mean 100, free of events) for m series."""
     spec = group.spec
     m = len(sids)
-    names, cycle = _season_cycle(spec.freq, spec.seasonal, spec.fourier_order)
+    names, cycle = _season_cycle(spec.annual_block())
     beta = np.vstack([pmap.get(c, np.zeros(m)) for c in names])
     s = cycle @ beta
     if group.transform == "none":
@@ -114,10 +114,9 @@ def profile_columns(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np
 
 
 @functools.lru_cache(maxsize=16)
-def _season_cycle(freq: str, seasonal: str, fourier_order: int) -> tuple[tuple[str, ...], np.ndarray]:
-    """The seasonal columns over one cycle (as profile_table builds them), made once per design."""
-    daily = base_freq(freq) == "D" or seasonal == "fourier"
-    cycle = AnnualFourier(fourier_order).cycle() if daily else SeasonalDummies(freq).cycle()
+def _season_cycle(block: AnnualFourier | SeasonalDummies) -> tuple[tuple[str, ...], np.ndarray]:
+    """The seasonal columns over one cycle, made once per design."""
+    cycle = block.cycle()
     values = cycle.to_numpy(dtype=float)
     values.setflags(write=False)
     return tuple(cycle.columns), values

@@ -53,7 +53,7 @@ class SeasonalDummies:
     --------
     >>> import pandas as pd
     >>> cols = SeasonalDummies("M").columns(pd.period_range("2024-01", periods=3, freq="M"))
-    >>> list(cols.columns[:2]), cols.iloc[1, 0]
+    >>> list(cols.columns[:2]), float(cols.iloc[1, 0])
     (['season[2]', 'season[3]'], 1.0)
     """
 

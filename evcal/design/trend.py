@@ -31,7 +31,7 @@ class Trend:
     >>> import pandas as pd
     >>> t = Trend(origin=2020.0)
     >>> t.columns(pd.period_range("2020-01", periods=2, freq="M")).round(3).to_dict("list")
-    {'const': [1.0, 1.0], 'trend': [0.042, 0.124]}
+    {'const': [1.0, 1.0], 'trend': [0.041, 0.123]}
     """
 
     origin: float

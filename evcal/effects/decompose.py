@@ -179,9 +179,8 @@ def decompose(result: Any, X: pd.DataFrame, open_share: pd.Series, closures: pd.
     """
     params = result.params if params is None else params
     group = GroupInfo.of_result(result)
-    n = len(X)
-    ctx = SpanContext(X.index, None, X, open_share.to_numpy(dtype=float),
-                      closures.reindex(X.index).fillna(0.0), np.ones(n), np.ones(n, dtype=bool), [])
+    in_fit = np.ones(len(X), dtype=bool)
+    ctx = SpanContext(X.index, None, X, open_share.to_numpy(dtype=float), closures, in_fit)
     pmap = {c: np.array([float(v)]) for c, v in params.items()}
     base, fitted, parts = decompose_block(ctx, group, pmap, np.array([float(result.smear)]), terms=terms)
     cols: dict[str, np.ndarray] = {"base": base[0], "fitted": fitted[0]}

@@ -37,19 +37,19 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
     m = len(sids)
     nan = np.full(m, np.nan)
     n_occ = len(ctx.occs)
-    occ_events = [o.event for o in ctx.occs]
-    added = np.asarray(occ["added_units"]).reshape(m, n_occ) if n_occ else np.zeros((m, 0))
+    occ_events = ctx.occs["event"].to_numpy()
+    added = np.asarray(occ["added_units"]).reshape(m, n_occ)
 
     def units_of(ev: str) -> np.ndarray:
-        idx = [i for i, e in enumerate(occ_events) if e == ev]
-        return added[:, idx].mean(axis=1) if idx else nan
+        idx = np.flatnonzero(occ_events == ev)
+        return added[:, idx].mean(axis=1) if len(idx) else nan
 
     rows: list[dict[str, Any]] = []
     for col, st in group.status.items():
         kind = "intervention" if col in group.intervention_names else "event"
         info = group.event_info.get(col, {})
         scale: np.ndarray | float = 1.0
-        if group.transform == "none" and col in ctx.raw.columns:
+        if group.transform == "none" and col in ctx.columns:
             active = ctx.columns[col] > 0
             scale = base[:, active].mean(axis=1) if active.any() else nan
         lift = low = high = nan

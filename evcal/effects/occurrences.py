@@ -11,7 +11,7 @@ all 1,000 draws.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import functools
 
 import numpy as np
 
@@ -65,59 +65,10 @@ def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
     return b - diff * (1 - t) if t >= 0.5 else a + diff * t
 
 
+@functools.cache
 def _sorted_draws() -> np.ndarray:
     """The single-series table's standard normal draws (fixed seed), sorted; made once."""
-    global _Z_SORTED
-    if _Z_SORTED is None:
-        _Z_SORTED = np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
-    return _Z_SORTED
-
-
-_Z_SORTED: np.ndarray | None = None
-
-
-@dataclass
-class _OccGroup:
-    """The occurrences of one event in a span, padded to one length so all are done at once."""
-
-    pos: np.ndarray  # positions in ctx.occs
-    cols: list[str]
-    zero: bool
-    idx: np.ndarray  # (k, L) period positions (padding repeats a valid one)
-    mask: np.ndarray  # (k, L) 1 on the occurrence's periods, 0 on padding
-    own: np.ndarray  # (k, L)
-    days: np.ndarray  # (k, L) days in each period
-    wdays: np.ndarray  # (k, L) the occurrence's days / the period's days (0 on padding)
-    frac: np.ndarray  # (k, L)
-    xs: np.ndarray  # (k, L) (0 on padding)
-
-
-def _occ_groups(ctx: SpanContext) -> list[_OccGroup]:
-    """``ctx.occs`` grouped by event columns, each group as padded (occurrences × periods) arrays."""
-    if ctx._occ_groups is not None:
-        return ctx._occ_groups
-    by: dict[tuple[tuple[str, ...], bool], list[int]] = {}
-    for i, o in enumerate(ctx.occs):
-        by.setdefault((tuple(o.cols), o.zero), []).append(i)
-    out = []
-    for (cols, zero), pos in by.items():
-        occs = [ctx.occs[i] for i in pos]
-        width = max(o.sl.stop - o.sl.start for o in occs)
-        k = len(occs)
-        idx = np.empty((k, width), dtype=np.intp)
-        arrays = {n: np.zeros((k, width)) for n in ("mask", "own", "wdays", "frac", "xs")}
-        for r, o in enumerate(occs):
-            span = np.arange(o.sl.start, o.sl.stop)
-            w = len(span)
-            idx[r, :w], idx[r, w:] = span, span[0]
-            arrays["mask"][r, :w] = 1.0
-            arrays["own"][r, :w] = o.own
-            arrays["wdays"][r, :w] = o.active_days / ctx.days[o.sl]
-            arrays["frac"][r, :w] = o.frac
-            arrays["xs"][r, :w] = o.xs
-        out.append(_OccGroup(np.array(pos), list(cols), zero, idx, days=ctx.days[idx], **arrays))
-    ctx._occ_groups = out
-    return out
+    return np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
 
 
 def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
@@ -126,7 +77,7 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
     """The occurrences table for m series, all occurrences of an event at once."""
     m = len(sids)
     cols_out = OCC_COLUMNS + ["low_units", "high_units"]
-    if not ctx.occs:
+    if not len(ctx.occs):
         return Columns({"_sid": np.zeros(0, dtype=int), **{c: np.zeros(0) for c in cols_out}})
     z_sorted = _sorted_draws()
     share = ctx.share
@@ -135,7 +86,7 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
     pct = np.empty((m, n_occ))
     low = np.empty((m, n_occ))
     high = np.empty((m, n_occ))
-    for og in _occ_groups(ctx):
+    for og in ctx.occ_groups:
         idx, mask = og.idx, og.mask
         contrib = sum(parts[c][:, idx] for c in og.cols) * mask  # (m, k, L)
         frac, xs = og.frac, og.xs
@@ -168,9 +119,9 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
         low[:, og.pos], high[:, og.pos] = lo, hi
     return Columns({
         "_sid": np.repeat(sids, n_occ),
-        "event": tiled_text([o.event for o in ctx.occs], m),
-        "start": tiled_text([o.start for o in ctx.occs], m),
-        "end": tiled_text([o.end for o in ctx.occs], m),
+        "event": tiled_text(ctx.occs["event"].tolist(), m),
+        "start": tiled_text(ctx.occs["start"].tolist(), m),
+        "end": tiled_text(ctx.occs["end"].tolist(), m),
         "added_units": added.ravel(), "added_pct": pct.ravel(),
         "low_units": low.ravel(), "high_units": high.ravel(),
     })

@@ -17,7 +17,7 @@ from evcal.design.base import day_span, period_days
 from evcal.design.dayweights import aggregate_day_weights
 from evcal.effects.columns import column_arrays, sparse_support
 
-__all__ = ["GroupInfo", "SpanContext", "FittedBlock", "closure_shares", "columns_by_event", "window_share"]
+__all__ = ["GroupInfo", "SpanContext", "OccGroup", "FittedBlock", "closure_shares", "window_share"]
 
 
 @dataclass
@@ -53,17 +53,19 @@ class GroupInfo:
 
 
 @dataclass
-class _Occ:
-    event: str
-    start: str
-    end: str
-    sl: slice
-    cols: list[str]
-    zero: bool
-    frac: np.ndarray
-    active_days: np.ndarray
-    xs: np.ndarray  # event columns summed over the window times frac (zeros for closures)
+class OccGroup:
+    """The occurrences of one event in a span, padded to one length (k occurrences × L periods)."""
+
+    pos: np.ndarray  # positions in the span's occurrence table
+    cols: list[str]  # the event's design columns (the event itself for a closure)
+    zero: bool  # a closure (effect: zero)
+    idx: np.ndarray  # period positions (padding repeats a valid one)
+    mask: np.ndarray  # 1 on the occurrence's periods, 0 on padding
     own: np.ndarray  # the occurrence's own days in each period times its strength
+    days: np.ndarray  # days in each period
+    wdays: np.ndarray  # the occurrence's days / the period's days
+    frac: np.ndarray  # its share of the period's event intensity (others may share the period)
+    xs: np.ndarray  # event columns summed over the window times frac (zeros for closures)
 
 
 @dataclass
@@ -75,21 +77,18 @@ class SpanContext:
     raw: pd.DataFrame  # unmerged design columns (like-events apart), as build_tables uses
     share: np.ndarray
     closures: pd.DataFrame
-    days: np.ndarray
     in_fit: np.ndarray
-    occs: list[_Occ]
+    occs: pd.DataFrame = field(default_factory=pd.DataFrame)  # event, start, end (ISO dates) in order
+    occ_groups: list[OccGroup] = field(default_factory=list)
     # the arrays every block of the span reads, taken out of the frames once
-    columns: dict[str, np.ndarray] = field(default_factory=dict)  # raw design column -> (n,)
-    closure_matrix: np.ndarray | None = None  # (n, closures): each closure's share of the period
+    columns: dict[str, np.ndarray] = field(init=False)  # raw design column -> (n,)
+    closure_matrix: np.ndarray = field(init=False)  # (n, closures): each closure's share of the period
     _base: dict[tuple[str, ...], np.ndarray] = field(default_factory=dict, repr=False)
-    _occ_groups: list[Any] | None = field(default=None, repr=False)
     _support: dict[str, np.ndarray | None] = field(default_factory=dict, repr=False)
 
     def __post_init__(self) -> None:
-        if not self.columns:
-            self.columns = column_arrays(self.raw)
-        if self.closure_matrix is None:
-            self.closure_matrix = self.closures.reindex(self.periods).fillna(0.0).to_numpy(dtype=float)
+        self.columns = column_arrays(self.raw)
+        self.closure_matrix = self.closures.reindex(self.periods).fillna(0.0).to_numpy(dtype=float)
 
     def support(self, col: str) -> np.ndarray | None:
         """The periods where the design column ``col`` is not zero, or None when that is most of them.
@@ -112,54 +111,55 @@ class SpanContext:
     @classmethod
     def build(cls, raw: pd.DataFrame, share: np.ndarray, calendar: Any, periods: pd.PeriodIndex,
               dates: pd.DatetimeIndex, in_fit: np.ndarray, status: dict[str, Any]) -> SpanContext:
-        closures = closure_shares(calendar, periods)
-        days = period_days(periods)
-        parts_cols = set(c for c in status if c in raw.columns) | set(closures.columns)
-        occs = _occurrence_windows(calendar, periods, raw, days, parts_cols)
-        return cls(periods, dates, raw, share, closures, days, in_fit, occs)
+        ctx = cls(periods, dates, raw, share, closure_shares(calendar, periods), in_fit)
+        parts_cols = {c for c in status if c in ctx.columns} | set(ctx.closures.columns)
+        ctx.occs, ctx.occ_groups = _occurrence_windows(calendar, ctx, parts_cols)
+        return ctx
 
 
-def _occurrence_windows(calendar: Any, periods: pd.PeriodIndex, X: pd.DataFrame, days: np.ndarray,
-                        parts_cols: set[str]) -> list[_Occ]:
-    """The series-independent part of :func:`evcal.effects.tables.occurrences_table`."""
-    start, end = periods[0].start_time.normalize(), periods[-1].end_time.normalize()
-    occ = calendar.occurrences(start, end)
-    if occ.empty:
-        return []
-    cols_of = columns_by_event(calendar)
+def _occurrence_windows(calendar: Any, ctx: SpanContext, parts_cols: set[str]) -> tuple[pd.DataFrame,
+                                                                                         list[OccGroup]]:
+    """The occurrences whose window touches the span and has a column, grouped by event."""
+    periods = ctx.periods
+    occ = calendar.occurrences(*day_span(periods))
+    cols_of: dict[str, list[str]] = {}
+    for c, name in calendar.event_columns().items():
+        cols_of.setdefault(name, []).append(c)
+    events = {name: calendar.event(name) for name in occ["event"].unique()}
+    zero = {name: ev.effect.kind == "zero" for name, ev in events.items()}
+    cols = {name: ([name] if name in parts_cols else []) if zero[name]
+            else [c for c in cols_of.get(name, []) if c in parts_cols] for name in events}
+    ev = [events[name] for name in occ["event"]]
+    w0 = occ["start"].to_numpy("datetime64[ns]") - np.array([e.before for e in ev], dtype="timedelta64[D]")
+    w1 = occ["end"].to_numpy("datetime64[ns]") + np.array([e.after for e in ev], dtype="timedelta64[D]")
     p_start = periods.start_time.normalize().to_numpy()
     p_end = periods.end_time.normalize().to_numpy()
-    x_np = column_arrays(X)
-    out = []
-    for r in occ.itertuples(index=False):
-        ev = calendar.event(r.event)
-        w0 = pd.Timestamp(r.start) - pd.Timedelta(days=ev.before)
-        w1 = pd.Timestamp(r.end) + pd.Timedelta(days=ev.after)
-        i0 = int(np.searchsorted(p_end, np.datetime64(w0), side="left"))
-        i1 = int(np.searchsorted(p_start, np.datetime64(w1), side="right"))
-        if i1 <= i0:
-            continue
-        touch = slice(i0, i1)
-        zero = ev.effect.kind == "zero"
-        cols = [c for c in cols_of.get(r.event, []) if c in parts_cols]
-        if zero:
-            cols = [r.event] if r.event in parts_cols else []
-        if not cols:
-            continue
-        ov0 = np.maximum(p_start[touch], np.datetime64(w0, "ns"))
-        ov1 = np.minimum(p_end[touch], np.datetime64(w1, "ns"))
+    i0 = np.searchsorted(p_end, w0, side="left")
+    i1 = np.searchsorted(p_start, w1, side="right")
+    keep = (i1 > i0) & np.array([bool(cols[e.name]) for e in ev], dtype=bool)
+    occ, w0, w1, i0, i1 = occ[keep].reset_index(drop=True), w0[keep], w1[keep], i0[keep], i1[keep]
+    days = period_days(periods)
+    groups = []
+    for name, pos in occ.groupby("event", sort=False).indices.items():
+        width = i1[pos] - i0[pos]
+        offsets = np.arange(width.max())
+        inside = offsets[None, :] < width[:, None]
+        idx = np.where(inside, i0[pos, None] + offsets, i0[pos, None])
+        mask = inside.astype(float)
+        ov0 = np.maximum(p_start[idx], w0[pos, None])
+        ov1 = np.minimum(p_end[idx], w1[pos, None])
         ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
-        n_t = i1 - i0
-        own = ov_days * float(r.strength)
-        frac = np.ones(n_t)
-        xs = np.zeros(n_t)
-        if not zero:
-            x_sum = sum(x_np[c][touch] for c in cols)
-            frac, xs = window_share(x_sum, days[touch], own)
-        out.append(_Occ(r.event, pd.Timestamp(r.start).date().isoformat(),
-                        pd.Timestamp(r.end).date().isoformat(), touch, cols, zero, frac,
-                        np.maximum(ov_days, 1.0), xs, own))
-    return out
+        own = ov_days * occ["strength"].to_numpy(dtype=float)[pos, None] * mask
+        p_days = days[idx]
+        if zero[name]:
+            frac, xs = mask, np.zeros_like(mask)
+        else:
+            frac, xs = window_share(sum(ctx.columns[c][idx] for c in cols[name]) * mask, p_days, own)
+        groups.append(OccGroup(pos, cols[name], zero[name], idx, mask, own, p_days,
+                               np.maximum(ov_days, 1.0) / p_days * mask, frac, xs))
+    table = pd.DataFrame({"event": occ["event"], "start": occ["start"].dt.strftime("%Y-%m-%d"),
+                          "end": occ["end"].dt.strftime("%Y-%m-%d")})
+    return table, groups
 
 
 def window_share(x_sum: np.ndarray, days: np.ndarray, own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -203,10 +203,3 @@ def closure_shares(calendar: Any, periods: pd.PeriodIndex) -> pd.DataFrame:
     colmap = calendar.event_columns()
     return out.T.groupby(lambda c: colmap.get(c, c)).sum().T.clip(upper=1.0)
 
-
-def columns_by_event(calendar: Any) -> dict[str, list[str]]:
-    """Each event's design columns, in the order the calendar names them."""
-    cols_of: dict[str, list[str]] = {}
-    for c, ev in calendar.event_columns().items():
-        cols_of.setdefault(ev, []).append(c)
-    return cols_of

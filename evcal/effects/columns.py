@@ -18,13 +18,12 @@ def column_arrays(frame: pd.DataFrame) -> dict[str, np.ndarray]:
     return {c: values[:, j] for j, c in enumerate(frame.columns)}
 
 
-def sparse_support(nz: np.ndarray | None, n: int) -> np.ndarray | None:
-    """``nz`` (a column's non-zero periods) when it is under half of the ``n`` periods, else None.
+def sparse_support(nz: np.ndarray | None, n: int) -> np.ndarray | slice:
+    """``nz`` (a column's non-zero periods) when it is under half of the ``n`` periods, else all of them.
 
-    Worth working on the support only when it saves most of the work; a column
-    with None is handled on all its periods.
+    Worth working on the support only when it saves most of the work.
     """
-    return nz if nz is not None and 2 * len(nz) < n else None
+    return nz if nz is not None and 2 * len(nz) < n else slice(None)
 
 
 class Columns(dict[str, Any]):

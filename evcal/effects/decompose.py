@@ -86,54 +86,35 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
     share = ctx.share[None, :]
     n = len(ctx.periods)
     # each term's coefficient times its column, on the periods where the column is not zero (an
-    # event's windows: a few of the span's periods) or on all of them (support None)
-    support: dict[str, np.ndarray | None] = {}
+    # event's windows: a few of the span's periods) or on all of them
+    support: dict[str, np.ndarray | slice] = {}
     tmat: dict[str, np.ndarray] = {}
+    total = np.zeros_like(eta_base)
     for c in terms:
         if c in curved:
             support[c] = sparse_support((curved_support or {}).get(c), n)
-            x = curved[c] if support[c] is None else curved[c][:, support[c]]
+            x = curved[c][:, support[c]]
         else:
             support[c] = ctx.support(c)
-            x = ctx.columns[c][None, :] if support[c] is None else ctx.columns[c][None, support[c]]
+            x = ctx.columns[c][None, support[c]]
         tmat[c] = coefs[c][:, None] * x
         if group.transform == "none" and group.status[c].status == "assumed":
-            # an assumed lift is a fraction of base, not a number of units (as decompose has it)
-            tmat[c] *= eta_base if support[c] is None else eta_base[:, support[c]]
-    total = np.zeros_like(eta_base)
-    for c in terms:
-        if support[c] is None:
-            total += tmat[c]
-        else:
-            total[:, support[c]] += tmat[c]
-
-    def spread(c: str, values: np.ndarray) -> np.ndarray:
-        """A term's (m, n) contribution from its values on its support."""
-        if support[c] is None:
-            return values
-        out = np.zeros((m, n))
-        out[:, support[c]] = values
-        return out
-
-    def on_support(c: str, a: np.ndarray) -> np.ndarray:
-        return a if support[c] is None else a[:, support[c]]
-
-    parts: dict[str, np.ndarray] = {}
+            # an assumed lift is a fraction of base, not a number of units
+            tmat[c] *= eta_base[:, support[c]]
+        total[:, support[c]] += tmat[c]
     if group.transform == "none":
         base = eta_base
-        with_events = base + total
-        for c in terms:
-            parts[c] = spread(c, tmat[c] * on_support(c, share))
-        fitted = with_events * share
+        fitted = (base + total) * share
+        factor = share
     else:
         # (series × periods) arrays, a dozen per block: made in place where they can be
         base = np.exp(eta_base, out=eta_base)
         base *= smear[:, None]
         big = np.abs(total) > 1e-12
         denom = np.where(big, total, 1.0)
-        with_events = np.exp(total, out=total)
-        with_events *= base
-        ratio = with_events - base
+        fitted = np.exp(total, out=total)
+        fitted *= base
+        ratio = fitted - base
         ratio *= share
         ratio /= denom
         # each term's part of the gap: its share of the summed log-effect, or (where the
@@ -141,11 +122,15 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
         factor = np.multiply(base, share, out=denom)
         np.copyto(factor, ratio, where=big)
         del ratio, denom
-        for c in terms:
-            tmat[c] *= on_support(c, factor)
-            parts[c] = spread(c, tmat[c])
-        fitted = with_events
         fitted *= share
+    parts: dict[str, np.ndarray] = {}
+    for c in terms:
+        tmat[c] *= factor[:, support[c]]
+        if isinstance(support[c], slice):
+            parts[c] = tmat[c]
+        else:
+            parts[c] = np.zeros((m, n))
+            parts[c][:, support[c]] = tmat[c]
     if len(ctx.closures.columns):
         cl = ctx.closure_matrix
         tot = cl.sum(axis=1)

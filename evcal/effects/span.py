@@ -84,14 +84,14 @@ class SpanContext:
     columns: dict[str, np.ndarray] = field(init=False)  # raw design column -> (n,)
     closure_matrix: np.ndarray = field(init=False)  # (n, closures): each closure's share of the period
     _base: dict[tuple[str, ...], np.ndarray] = field(default_factory=dict, repr=False)
-    _support: dict[str, np.ndarray | None] = field(default_factory=dict, repr=False)
+    _support: dict[str, np.ndarray | slice] = field(default_factory=dict, repr=False)
 
     def __post_init__(self) -> None:
         self.columns = column_arrays(self.raw)
         self.closure_matrix = self.closures.reindex(self.periods).fillna(0.0).to_numpy(dtype=float)
 
-    def support(self, col: str) -> np.ndarray | None:
-        """The periods where the design column ``col`` is not zero, or None when that is most of them.
+    def support(self, col: str) -> np.ndarray | slice:
+        """The periods where the design column ``col`` is not zero, or all of them when that is most.
 
         An event column is zero outside its windows, so its products with the
         coefficients are needed on these periods only (kept for later blocks).

@@ -1,17 +1,16 @@
 """Effects step: fitted coefficients -> base, contributions, lifts, occurrences, seasonal index.
 
-One table builder for a single series and for a panel: every function works
-on a block of m series that share their design rows (a single series is a
-block of one), see :func:`evcal.effects.block.block_tables`.
+One table builder for a single series (a block of one) and for a panel:
+:func:`evcal.effects.block.block_tables`.
 """
 
 from __future__ import annotations
 
 from evcal.effects.block import BlockTables, block_tables
-from evcal.effects.decompose import decompose, decompose_block, term_coefficients
+from evcal.effects.decompose import decompose
 from evcal.effects.lifts import LIFT_COLUMNS
 from evcal.effects.occurrences import OCC_COLUMNS, Z95
 from evcal.effects.span import GroupInfo, SpanContext, closure_shares
 
-__all__ = ["BlockTables", "block_tables", "decompose", "decompose_block", "term_coefficients", "LIFT_COLUMNS",
-           "OCC_COLUMNS", "Z95", "GroupInfo", "SpanContext", "closure_shares"]
+__all__ = ["BlockTables", "block_tables", "decompose", "LIFT_COLUMNS", "OCC_COLUMNS", "Z95", "GroupInfo",
+           "SpanContext", "closure_shares"]

@@ -1,10 +1,7 @@
 """The contract tables of a block of series that share a design, computed for all at once.
 
-One builder for a single series (a block of one) and for a panel: the
-decomposition (:mod:`evcal.effects.decompose`), the occurrences
-(:mod:`evcal.effects.occurrences`), the lifts and the seasonal index
-(:mod:`evcal.effects.lifts`) and the fit-quality numbers, with the series as
-the first axis of every array.
+The decomposition, occurrences, lifts, seasonal index and fit quality, with the
+series as the first axis of every array.
 """
 
 from __future__ import annotations
@@ -32,7 +29,6 @@ class BlockTables:
     profile: pd.DataFrame | Columns
     fitted: list[FittedBlock | pd.DataFrame]
     quality: pd.DataFrame | Columns  # _sid, periods_fitted, wape_pct, resid_sd, mean_base
-
 
 
 def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.ndarray,
@@ -76,32 +72,17 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     fitted_block = FittedBlock(sids, ctx.dates.to_numpy(),
                                {"actual": actual, "fitted": fitted, "base": base, **parts}, ctx.in_fit)
 
-    rows = ctx.in_fit[None, :]
-    scale_resid = np.where(rows, actual, np.nan)
     with np.errstate(divide="ignore", invalid="ignore"):
-        if group.transform == "log":
-            np.log(scale_resid, out=scale_resid)
-            model = np.divide(fitted, smear[:, None])
-            scale_resid -= np.log(model, out=model)
-            del model
-        else:
-            scale_resid -= fitted
-    ok = rows & np.isfinite(scale_resid)
-    n_ok = ok.sum(axis=1)
-    err = np.subtract(actual, fitted)
-    np.abs(err, out=err)
-    abs_err = np.sum(err, axis=1, where=ok)
-    np.abs(actual, out=err)
-    abs_act = np.sum(err, axis=1, where=ok)
-    del err
-    with np.errstate(divide="ignore", invalid="ignore"):
-        wape = np.where(n_ok > 0, 100 * abs_err / abs_act, np.nan)
-        scale_resid[~ok] = 0.0
-        mu = scale_resid.sum(axis=1) / n_ok
-        scale_resid -= mu[:, None]
-        scale_resid[~ok] = 0.0
-        np.square(scale_resid, out=scale_resid)
-        sd = np.sqrt(scale_resid.sum(axis=1) / n_ok)
+        log = group.transform == "log"
+        resid = np.log(actual) - np.log(fitted / smear[:, None]) if log else actual - fitted
+        ok = ctx.in_fit[None, :] & np.isfinite(resid)
+        n_ok = ok.sum(axis=1)
+        wape = np.where(n_ok > 0, 100 * np.sum(np.abs(actual - fitted), axis=1, where=ok)
+                        / np.sum(np.abs(actual), axis=1, where=ok), np.nan)
+        resid[~ok] = 0.0
+        resid -= (resid.sum(axis=1) / n_ok)[:, None]
+        resid[~ok] = 0.0
+        sd = np.sqrt(np.square(resid).sum(axis=1) / n_ok)
     quality = Columns({"_sid": sids, "periods_fitted": n_ok.astype(int), "wape_pct": wape,
                        "resid_sd": sd, "mean_base": mean_base})
     return BlockTables(lifts, occ, profile, [fitted_block], quality)

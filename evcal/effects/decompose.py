@@ -32,15 +32,11 @@ def term_coefficients(group: GroupInfo, params: dict[str, np.ndarray], m: int) -
     """
     out: dict[str, np.ndarray] = {}
     for col, st in group.status.items():
-        if st.status == "fitted":
-            out[col] = params.get(col, np.zeros(m))
-        elif st.status == "like":
-            out[col] = params.get(group.like_map.get(col, ""), np.zeros(m))
-        elif st.status == "assumed":
+        if st.status == "assumed":
             a = group.assumed[col]
             out[col] = np.full(m, float(np.log1p(a)) if group.transform != "none" else a)
         else:
-            out[col] = np.zeros(m)
+            out[col] = params.get(group.source(col), np.zeros(m))
     return out
 
 
@@ -61,11 +57,8 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
         Coefficient name -> (m,) values.
     smear : ndarray, shape (m,)
         Smearing factor of the log model (ones for the additive model).
-    curved : dict, optional
-        Event columns that differ by series (each series' own exact aggregation,
-        :mod:`evcal.engine.refine`): column -> (m, n) on the span.
-    curved_support : dict, optional
-        For each curved column, the span's periods outside which it is zero.
+    curved, curved_support : dict, optional
+        Event columns that differ by series, as for :func:`evcal.effects.block.block_tables`.
     terms : list of str, optional
         Term columns to include; every event and intervention column by default.
 
@@ -168,7 +161,5 @@ def decompose(result: Any, X: pd.DataFrame, open_share: pd.Series, closures: pd.
     ctx = SpanContext(X.index, None, X, open_share.to_numpy(dtype=float), closures, in_fit)
     pmap = {c: np.array([float(v)]) for c, v in params.items()}
     base, fitted, parts = decompose_block(ctx, group, pmap, np.array([float(result.smear)]), terms=terms)
-    cols: dict[str, np.ndarray] = {"base": base[0], "fitted": fitted[0]}
-    for c, v in parts.items():
-        cols[c] = v[0]
-    return pd.DataFrame(cols, index=X.index)
+    return pd.DataFrame({"base": base[0], "fitted": fitted[0], **{c: v[0] for c, v in parts.items()}},
+                        index=X.index)

@@ -53,22 +53,17 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
             active = ctx.columns[col] > 0
             scale = base[:, active].mean(axis=1) if active.any() else nan
         lift = low = high = nan
-        if st.status in ("fitted", "like"):
-            src = col if st.status == "fitted" else group.like_map.get(col, "")
-            if src in pmap:
-                b, s = pmap[src], se_map[src]
-                lift = _pct(b, group.transform, scale)
-                low = _pct(b - Z95 * s, group.transform, scale)
-                high = _pct(b + Z95 * s, group.transform, scale)
+        if (src := group.source(col)) in pmap:
+            b, s = pmap[src], se_map[src]
+            lift = _pct(b, group.transform, scale)
+            low = _pct(b - Z95 * s, group.transform, scale)
+            high = _pct(b + Z95 * s, group.transform, scale)
         elif st.status == "assumed":
             lift = low = high = np.full(m, 100.0 * group.assumed[col])
-        ev_name = info.get("event", col)
         if kind == "event":
-            units = units_of(ev_name)
-        elif col in parts and st.status == "fitted":
-            units = parts[col].sum(axis=1)
+            units = units_of(info.get("event", col))
         else:
-            units = nan
+            units = parts[col].sum(axis=1) if col in parts and st.status == "fitted" else nan
         rows.append({"event": col, "lift_pct": lift, "low_pct": low, "high_pct": high,
                      "units_per_occurrence": units,
                      "identifiable": st.status in ("fitted", "like", "assumed"),
@@ -79,17 +74,15 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
                      "high_pct": np.full(m, -100.0), "units_per_occurrence": units_of(ev),
                      "identifiable": True, "note": "closure (effect: zero): known zero, kept out of the fit",
                      "kind": "event", "label": group.event_labels.get(ev, ev), "_fitted": False})
-    r = len(rows)
-    out: dict[str, Any] = {"_sid": np.repeat(sids, r)}
+    out: dict[str, Any] = {"_sid": np.repeat(sids, len(rows))}
     for c in LIFT_COLUMNS + ["kind", "label", "_fitted"]:
-        if not rows:
-            out[c] = []
-        elif isinstance(rows[0][c], np.ndarray):
-            out[c] = np.column_stack([row[c] for row in rows]).ravel()
-        elif c in ("identifiable", "_fitted"):
-            out[c] = np.tile(np.array([row[c] for row in rows], dtype=bool), m)
+        values = [row[c] for row in rows]
+        if c in ("identifiable", "_fitted"):
+            out[c] = np.tile(np.array(values, dtype=bool), m)
+        elif c in ("event", "note", "kind", "label"):
+            out[c] = tiled_text(values, m)
         else:
-            out[c] = tiled_text([row[c] for row in rows], m)
+            out[c] = np.column_stack(values).ravel() if rows else np.zeros(0)
     return Columns(out)
 
 

@@ -101,11 +101,7 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
             pct[:, og.pos] = np.where(base_win != 0, 100.0 * add / base_win, np.nan)
         added[:, og.pos] = add
         lo = hi = add
-        src = og.cols[0]
-        st = group.status.get(src)
-        pcol = ""
-        if st is not None and st.status in ("fitted", "like"):
-            pcol = src if st.status == "fitted" else group.like_map.get(src, "")
+        pcol = group.source(og.cols[0])
         if pcol in pmap and not og.zero and group.transform != "none":
             b, s = pmap[pcol], se_map[pcol]
             base_t = base_g * share[idx]

@@ -50,6 +50,10 @@ class GroupInfo:
         """Fitted event and intervention columns: the ones whose intervals are reported."""
         return [c for c in self.fitted_cols if c not in set(self.base_columns)]
 
+    def source(self, col: str) -> str:
+        """The coefficient behind ``col``: its own when fitted, its target's when borrowed, else ""."""
+        status = getattr(self.status.get(col), "status", "")
+        return col if status == "fitted" else self.like_map.get(col, "") if status == "like" else ""
 
 
 @dataclass

@@ -16,7 +16,7 @@ import functools
 import numpy as np
 
 from evcal.effects.columns import Columns, tiled_text
-from evcal.effects.span import GroupInfo, SpanContext, window_share
+from evcal.effects.span import GroupInfo, SpanContext
 
 __all__ = ["occurrences_columns", "OCC_COLUMNS", "Z95"]
 
@@ -65,6 +65,13 @@ def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
     return b - diff * (1 - t) if t >= 0.5 else a + diff * t
 
 
+def _window_share(x_sum: np.ndarray, days: np.ndarray, own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The occurrence's share of each period's event intensity (others may share the period), and its x."""
+    x_tot = x_sum * days
+    frac = np.where(x_tot > own + 1e-9, own / np.maximum(x_tot, 1e-12), 1.0)
+    return frac, x_sum * frac
+
+
 @functools.cache
 def _sorted_draws() -> np.ndarray:
     """The single-series table's standard normal draws (fixed seed), sorted; made once."""
@@ -80,20 +87,16 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
     if not len(ctx.occs):
         return Columns({"_sid": np.zeros(0, dtype=int), **{c: np.zeros(0) for c in cols_out}})
     z_sorted = _sorted_draws()
-    share = ctx.share
     n_occ = len(ctx.occs)
-    added = np.empty((m, n_occ))
-    pct = np.empty((m, n_occ))
-    low = np.empty((m, n_occ))
-    high = np.empty((m, n_occ))
+    added, pct, low, high = (np.empty((m, n_occ)) for _ in range(4))
     for og in ctx.occ_groups:
         idx, mask = og.idx, og.mask
         contrib = sum(parts[c][:, idx] for c in og.cols) * mask  # (m, k, L)
-        frac, xs = og.frac, og.xs
-        if not og.zero and any(c in curved for c in og.cols):
-            x_sum = sum(curved[c][:, idx] if c in curved else ctx.columns[c][idx][None, :, :]
-                        for c in og.cols) * mask
-            frac, xs = window_share(x_sum, og.days, og.own)
+        frac: np.ndarray | float = 1.0  # a closure's part is all its own
+        if not og.zero:
+            # the event's column summed (each series' own where it is curved), the occurrence's share of it
+            x_sum = sum(curved[c][:, idx] if c in curved else ctx.columns[c][idx] for c in og.cols) * mask
+            frac, xs = _window_share(x_sum, og.days, og.own)
         add = (contrib * frac).sum(axis=-1)  # (m, k)
         base_g = base[:, idx] * mask
         base_win = (base_g * og.wdays).sum(axis=-1)
@@ -101,17 +104,16 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
             pct[:, og.pos] = np.where(base_win != 0, 100.0 * add / base_win, np.nan)
         added[:, og.pos] = add
         lo = hi = add
-        pcol = group.source(og.cols[0])
-        if pcol in pmap and not og.zero and group.transform != "none":
+        if (pcol := group.source(og.cols[0])) in pmap and not og.zero:
             b, s = pmap[pcol], se_map[pcol]
-            base_t = base_g * share[idx]
-            point = (base_t * np.expm1(b[:, None, None] * xs)).sum(axis=-1)
-            ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
-            lo, hi = _sim_bounds(b, s, xs, base_t, ratio, z_sorted)
-        elif pcol in pmap and not og.zero:
-            s = se_map[pcol]
-            xs_sum = np.abs(np.sum(xs, axis=-1))
-            lo, hi = add - Z95 * s[:, None] * xs_sum, add + Z95 * s[:, None] * xs_sum
+            if group.transform == "none":
+                half = Z95 * s[:, None] * np.abs(np.sum(xs, axis=-1))
+                lo, hi = add - half, add + half
+            else:
+                base_t = base_g * ctx.share[idx]
+                point = (base_t * np.expm1(b[:, None, None] * xs)).sum(axis=-1)
+                ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
+                lo, hi = _sim_bounds(b, s, xs, base_t, ratio, z_sorted)
         low[:, og.pos], high[:, og.pos] = lo, hi
     return Columns({
         "_sid": np.repeat(sids, n_occ),

@@ -17,7 +17,7 @@ from evcal.design.base import day_span, period_days
 from evcal.design.dayweights import aggregate_day_weights
 from evcal.effects.columns import column_arrays, sparse_support
 
-__all__ = ["GroupInfo", "SpanContext", "OccGroup", "FittedBlock", "closure_shares", "window_share"]
+__all__ = ["GroupInfo", "SpanContext", "OccGroup", "FittedBlock", "closure_shares"]
 
 
 @dataclass
@@ -68,8 +68,6 @@ class OccGroup:
     own: np.ndarray  # the occurrence's own days in each period times its strength
     days: np.ndarray  # days in each period
     wdays: np.ndarray  # the occurrence's days / the period's days
-    frac: np.ndarray  # its share of the period's event intensity (others may share the period)
-    xs: np.ndarray  # event columns summed over the window times frac (zeros for closures)
 
 
 @dataclass
@@ -154,23 +152,11 @@ def _occurrence_windows(calendar: Any, ctx: SpanContext, parts_cols: set[str]) -
         ov1 = np.minimum(p_end[idx], w1[pos, None])
         ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
         own = ov_days * occ["strength"].to_numpy(dtype=float)[pos, None] * mask
-        p_days = days[idx]
-        if zero[name]:
-            frac, xs = mask, np.zeros_like(mask)
-        else:
-            frac, xs = window_share(sum(ctx.columns[c][idx] for c in cols[name]) * mask, p_days, own)
-        groups.append(OccGroup(pos, cols[name], zero[name], idx, mask, own, p_days,
-                               np.maximum(ov_days, 1.0) / p_days * mask, frac, xs))
+        groups.append(OccGroup(pos, cols[name], zero[name], idx, mask, own, days[idx],
+                               np.maximum(ov_days, 1.0) / days[idx] * mask))
     table = pd.DataFrame({"event": occ["event"], "start": occ["start"].dt.strftime("%Y-%m-%d"),
                           "end": occ["end"].dt.strftime("%Y-%m-%d")})
     return table, groups
-
-
-def window_share(x_sum: np.ndarray, days: np.ndarray, own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The occurrence's share of each period's event intensity (others may share the period)."""
-    x_tot = x_sum * days
-    frac = np.where(x_tot > own + 1e-9, own / np.maximum(x_tot, 1e-12), 1.0)
-    return frac, x_sum * frac
 
 
 @dataclass

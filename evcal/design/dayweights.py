@@ -1,12 +1,8 @@
-"""Aggregate daily event weights to the series' periods (share of window).
+"""Aggregate daily event weights to the series' periods (the Bell–Hillmer share of window).
 
-Events are laid out day by day first (:meth:`evcal.calendar.Calendar.day_weights`).
-Summing the day weights that fall in each period turns them into period
-columns; with ``normalize="window"`` day weights this is the Bell–Hillmer
-share-of-window regressor: the fraction of an occurrence's window that falls
-in the period (times its strength). A 10-day run-up to Easter that starts in
-March and ends in April is split between the two months in proportion to its
-days.
+With ``normalize="window"`` day weights (:meth:`evcal.calendar.Calendar.day_weights`)
+the sum over a period's days is the fraction of an occurrence's window that
+falls in the period, times its strength.
 """
 
 from __future__ import annotations
@@ -37,11 +33,9 @@ def aggregate_day_weights(day_weights: pd.DataFrame, periods: pd.PeriodIndex) ->
 
     Examples
     --------
-    >>> days = pd.DataFrame({"x": 1.0}, index=pd.date_range("2024-03-30", "2024-04-02"))
-    >>> months = pd.period_range("2024-03", "2024-04", freq="M")
     >>> full = pd.DataFrame({"x": 0.0}, index=pd.date_range("2024-03-01", "2024-04-30"))
-    >>> full.loc[days.index, "x"] = 1.0
-    >>> aggregate_day_weights(full, months)["x"].tolist()
+    >>> full.loc["2024-03-30":"2024-04-02", "x"] = 1.0
+    >>> aggregate_day_weights(full, pd.period_range("2024-03", "2024-04", freq="M"))["x"].tolist()
     [2.0, 2.0]
     """
     values = day_weights.to_numpy(dtype=float)

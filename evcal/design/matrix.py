@@ -16,13 +16,7 @@ import pandas as pd
 from evcal.design.base import Block
 from evcal.design.events import EventColumns, OpenShare
 from evcal.design.interventions import Interventions, InterventionTerm
-from evcal.design.seasonal import (
-    AnnualFourier,
-    SeasonalDummies,
-    TradingDays,
-    WeekdayDummies,
-    base_freq,
-)
+from evcal.design.seasonal import AnnualFourier, SeasonalDummies, TradingDays, WeekdayDummies, base_freq
 from evcal.design.trend import Trend
 
 

@@ -8,22 +8,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-__all__ = ["Columns", "column_arrays", "sparse_support", "n_rows", "join_columns", "join_tables",
-           "text_dtype", "tiled_text"]
-
-
-def column_arrays(frame: pd.DataFrame) -> dict[str, np.ndarray]:
-    """Each column of a numeric frame as a contiguous float array (one conversion for all of them)."""
-    values = np.asfortranarray(frame.to_numpy(dtype=float))
-    return {c: values[:, j] for j, c in enumerate(frame.columns)}
-
-
-def sparse_support(nz: np.ndarray | None, n: int) -> np.ndarray | slice:
-    """``nz`` (a column's non-zero periods) when it is under half of the ``n`` periods, else all of them.
-
-    Worth working on the support only when it saves most of the work.
-    """
-    return nz if nz is not None and 2 * len(nz) < n else slice(None)
+__all__ = ["Columns", "n_rows", "join_columns", "join_tables", "text_dtype", "tiled_text"]
 
 
 class Columns(dict[str, Any]):

@@ -17,7 +17,6 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.effects.columns import sparse_support
 from evcal.effects.span import GroupInfo, SpanContext
 
 __all__ = ["term_coefficients", "decompose_block", "decompose"]
@@ -68,28 +67,25 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
     parts : dict
         Term or closure name -> (m, n) contribution; base + parts add up to fitted.
     """
-    m = len(smear)
+    m, n = len(smear), len(ctx.periods)
     curved = curved or {}
     coefs = term_coefficients(group, pmap, m)
     base_cols = [c for c in group.base_columns if c in ctx.columns]
-    Xb = ctx.base_matrix(base_cols)
+    Xb = np.column_stack([ctx.columns[c] for c in base_cols]) if base_cols else np.zeros((n, 0))
     Bb = np.vstack([pmap.get(c, np.zeros(m)) for c in base_cols]) if base_cols else np.zeros((0, m))
     eta_base = Bb.T @ Xb.T  # (m, n)
     terms = [c for c in (terms if terms is not None else list(coefs)) if c in ctx.columns]
     share = ctx.share[None, :]
-    n = len(ctx.periods)
     # each term's coefficient times its column, on the periods where the column is not zero (an
     # event's windows: a few of the span's periods) or on all of them
     support: dict[str, np.ndarray | slice] = {}
     tmat: dict[str, np.ndarray] = {}
     total = np.zeros_like(eta_base)
     for c in terms:
-        if c in curved:
-            support[c] = sparse_support((curved_support or {}).get(c), n)
-            x = curved[c][:, support[c]]
-        else:
-            support[c] = ctx.support(c)
-            x = ctx.columns[c][None, support[c]]
+        nz = (curved_support or {}).get(c) if c in curved else np.flatnonzero(ctx.columns[c])
+        # worth working on the support only when it saves most of the work
+        support[c] = nz if nz is not None and 2 * len(nz) < n else slice(None)
+        x = (curved[c] if c in curved else ctx.columns[c][None, :])[:, support[c]]
         tmat[c] = coefs[c][:, None] * x
         if group.transform == "none" and group.status[c].status == "assumed":
             # an assumed lift is a fraction of base, not a number of units
@@ -125,7 +121,7 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
             parts[c] = np.zeros((m, n))
             parts[c][:, support[c]] = tmat[c]
     if len(ctx.closures.columns):
-        cl = ctx.closure_matrix
+        cl = ctx.closures.reindex(ctx.periods).fillna(0.0).to_numpy(dtype=float)
         tot = cl.sum(axis=1)
         safe_tot = np.where(tot > 0, tot, 1.0)
         for j, c in enumerate(ctx.closures.columns):

@@ -7,7 +7,7 @@ only the coefficients differ. :class:`SpanContext` holds them once.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import InitVar, dataclass, field
 from typing import Any
 
 import numpy as np
@@ -15,7 +15,6 @@ import pandas as pd
 
 from evcal.design.base import day_span, period_days
 from evcal.design.dayweights import aggregate_day_weights
-from evcal.effects.columns import column_arrays, sparse_support
 
 __all__ = ["GroupInfo", "SpanContext", "OccGroup", "FittedBlock", "closure_shares"]
 
@@ -76,39 +75,17 @@ class SpanContext:
 
     periods: pd.PeriodIndex
     dates: pd.DatetimeIndex
-    raw: pd.DataFrame  # unmerged design columns (like-events apart), as build_tables uses
+    raw: InitVar[pd.DataFrame]  # unmerged design columns (like-events apart)
     share: np.ndarray
     closures: pd.DataFrame
     in_fit: np.ndarray
     occs: pd.DataFrame = field(default_factory=pd.DataFrame)  # event, start, end (ISO dates) in order
     occ_groups: list[OccGroup] = field(default_factory=list)
-    # the arrays every block of the span reads, taken out of the frames once
-    columns: dict[str, np.ndarray] = field(init=False)  # raw design column -> (n,)
-    closure_matrix: np.ndarray = field(init=False)  # (n, closures): each closure's share of the period
-    _base: dict[tuple[str, ...], np.ndarray] = field(default_factory=dict, repr=False)
-    _support: dict[str, np.ndarray | slice] = field(default_factory=dict, repr=False)
+    columns: dict[str, np.ndarray] = field(init=False)  # design column -> (n,), taken out of the frame once
 
-    def __post_init__(self) -> None:
-        self.columns = column_arrays(self.raw)
-        self.closure_matrix = self.closures.reindex(self.periods).fillna(0.0).to_numpy(dtype=float)
-
-    def support(self, col: str) -> np.ndarray | slice:
-        """The periods where the design column ``col`` is not zero, or all of them when that is most.
-
-        An event column is zero outside its windows, so its products with the
-        coefficients are needed on these periods only (kept for later blocks).
-        """
-        if col not in self._support:
-            self._support[col] = sparse_support(np.flatnonzero(self.columns[col]), len(self.periods))
-        return self._support[col]
-
-    def base_matrix(self, cols: list[str]) -> np.ndarray:
-        """The (n, len(cols)) block of the design's trend and seasonal columns (kept for later blocks)."""
-        key = tuple(cols)
-        if key not in self._base:
-            self._base[key] = np.column_stack([self.columns[c] for c in cols]) if cols \
-                else np.zeros((len(self.periods), 0))
-        return self._base[key]
+    def __post_init__(self, raw: pd.DataFrame) -> None:
+        values = np.asfortranarray(raw.to_numpy(dtype=float))  # one conversion, each column contiguous
+        self.columns = {c: values[:, j] for j, c in enumerate(raw.columns)}
 
     @classmethod
     def build(cls, raw: pd.DataFrame, share: np.ndarray, calendar: Any, periods: pd.PeriodIndex,
@@ -170,26 +147,18 @@ class FittedBlock:
 
     def frame(self) -> pd.DataFrame:
         m, n = len(self.sids), len(self.dates)
-        cols: dict[str, Any] = {"_sid": np.repeat(self.sids, n), "date": np.tile(self.dates, m)}
-        for c, v in self.columns.items():
-            cols[c] = v.ravel()
-        cols["in_fit"] = np.tile(self.in_fit, m)
-        return pd.DataFrame(cols)
-
+        columns = {c: v.ravel() for c, v in self.columns.items()}
+        return pd.DataFrame({"_sid": np.repeat(self.sids, n), "date": np.tile(self.dates, m), **columns,
+                             "in_fit": np.tile(self.in_fit, m)})
 
 
 def closure_shares(calendar: Any, periods: pd.PeriodIndex) -> pd.DataFrame:
     """Share of each period's days closed by each ``effect: zero`` event."""
-    zero = [e.name for e in calendar.events if e.effect.kind == "zero"]
+    zero = [e.name for e in calendar.closures()]
     if not zero:
         return pd.DataFrame(index=periods)
-    start, end = day_span(periods)
-    daily = calendar.day_weights(start, end, normalize="none", events=zero)
-    daily = (daily > 0).astype(float)
-    agg = aggregate_day_weights(daily, periods)
-    days = period_days(periods)
-    out = pd.DataFrame({c: agg[c].to_numpy() / days for c in agg.columns}, index=periods)
+    daily = calendar.day_weights(*day_span(periods), normalize="none", events=zero)
+    out = aggregate_day_weights((daily > 0).astype(float), periods).div(period_days(periods), axis=0)
     # the event columns of a `daily` closure collapse to the event
     colmap = calendar.event_columns()
     return out.T.groupby(lambda c: colmap.get(c, c)).sum().T.clip(upper=1.0)
-

@@ -1,12 +1,13 @@
 """What each past occurrence added, in units and in % of base, with its interval, for m series.
 
 Per-occurrence intervals are the 2.5 % and 97.5 % quantiles of 1,000
-simulated draws (fixed seed) of ``Σₜ baseₜ (exp((b + s z) xₜ) − 1)``. With
-``xₜ ≥ 0`` and ``baseₜ ≥ 0`` (every event column and base) each draw is a
-non-decreasing function of its ``z``, so the sorted draws are that function at
-the sorted ``z``: the same quantiles come from evaluating it at the four order
-statistics next to each quantile (the linear interpolation numpy uses), not at
-all 1,000 draws.
+simulated draws (fixed seed) of ``Σₜ baseₜ (exp((b + s z) xₜ) − 1)``. Every
+event column is ``xₜ ≥ 0`` (the calendar's strengths are above 0 and its shape
+factors are not negative), ``baseₜ = exp(…) ≥ 0`` and ``s ≥ 0``, so each draw
+is a non-decreasing function of its ``z`` and the sorted draws are that
+function at the sorted ``z``: the same quantiles come from evaluating it at the
+four order statistics next to each quantile (the linear interpolation numpy
+uses), not at all 1,000 draws.
 """
 
 from __future__ import annotations
@@ -28,8 +29,8 @@ _H_LOW = (N_DRAWS - 1) * 0.025
 _H_HIGH = (N_DRAWS - 1) * 0.975
 
 
-def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray, ratio: np.ndarray,
-                z_sorted: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray,
+                ratio: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """2.5 % and 97.5 % quantiles of the simulated draws (see the module notes), m series at once.
 
     For k occurrences of one event, padded to L periods: ``base_t`` is
@@ -37,26 +38,17 @@ def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray
     (m,), ``ratio`` (m, k). Returns two (m, k) arrays.
     """
     lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
-    t_lo, t_hi = _H_LOW - lo_i, _H_HIGH - hi_i
-    if (xs >= 0).all() and (base_t >= 0).all() and (s >= 0).all():
-        def g(order: list[int]) -> np.ndarray:
-            """The draws at these order statistics, (len(order), m, k), in one expression."""
-            z = z_sorted[order]
-            slope = (b + s * z[:, None])[:, :, None, None]
-            return ratio * (base_t * np.expm1(slope * xs)).sum(axis=-1)
+    need = [lo_i, lo_i + 1, hi_i, hi_i + 1]
 
-        last = N_DRAWS - 1
-        need = [lo_i, lo_i + 1, hi_i, hi_i + 1]
-        up = g(need)
-        # a negative ratio turns the order of the draws around
-        pick = up if (ratio >= 0).all() else np.where(ratio >= 0, up, g([last - i for i in need]))
-        return _lerp(pick[0], pick[1], t_lo), _lerp(pick[2], pick[3], t_hi)
-    # general case: the draws themselves, (draws, m, k)
-    xs_b = np.broadcast_to(xs, base_t.shape)[None]
-    slope = (b[None, :] + s[None, :] * z_sorted[:, None])[:, :, None, None]
-    draws = (base_t[None] * np.expm1(slope * xs_b)).sum(axis=-1) * ratio[None]
-    low, high = np.quantile(draws, [0.025, 0.975], axis=0)
-    return low, high
+    def draws(order: list[int]) -> np.ndarray:
+        """The draws at these order statistics, (len(order), m, k), in one expression."""
+        slope = (b + s * _sorted_draws()[order][:, None])[:, :, None, None]
+        return ratio * (base_t * np.expm1(slope * xs)).sum(axis=-1)
+
+    up = draws(need)
+    # a negative ratio turns the order of the draws around
+    pick = up if (ratio >= 0).all() else np.where(ratio >= 0, up, draws([N_DRAWS - 1 - i for i in need]))
+    return _lerp(pick[0], pick[1], _H_LOW - lo_i), _lerp(pick[2], pick[3], _H_HIGH - hi_i)
 
 
 def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
@@ -86,7 +78,6 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
     cols_out = OCC_COLUMNS + ["low_units", "high_units"]
     if not len(ctx.occs):
         return Columns({"_sid": np.zeros(0, dtype=int), **{c: np.zeros(0) for c in cols_out}})
-    z_sorted = _sorted_draws()
     n_occ = len(ctx.occs)
     added, pct, low, high = (np.empty((m, n_occ)) for _ in range(4))
     for og in ctx.occ_groups:
@@ -113,7 +104,7 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
                 base_t = base_g * ctx.share[idx]
                 point = (base_t * np.expm1(b[:, None, None] * xs)).sum(axis=-1)
                 ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
-                lo, hi = _sim_bounds(b, s, xs, base_t, ratio, z_sorted)
+                lo, hi = _sim_bounds(b, s, xs, base_t, ratio)
         low[:, og.pos], high[:, og.pos] = lo, hi
     return Columns({
         "_sid": np.repeat(sids, n_occ),

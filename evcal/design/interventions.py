@@ -20,24 +20,18 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.calendar.spec import InterventionSpec
 from evcal.design.base import period_days
 
 PERSISTENT = ("level_shift", "ramp")
 
 
 @dataclass(frozen=True)
-class InterventionTerm:
-    """Settings of one intervention (plain data, JSON-able)."""
-
-    name: str
-    type: str
-    start: pd.Timestamp
-    end: pd.Timestamp | None = None
-    decay: float | None = None
+class InterventionTerm(InterventionSpec):
+    """A calendar's intervention as the design uses it: its column, its settings in ``model.json``."""
 
     @classmethod
-    def from_spec(cls, spec: Any) -> InterventionTerm:
-        """The settings of a calendar's intervention (its dates are already timestamps)."""
+    def from_spec(cls, spec: InterventionSpec) -> InterventionTerm:
         return cls(spec.name, spec.type, spec.start, spec.end, spec.decay)
 
     def to_dict(self) -> dict[str, Any]:

@@ -128,18 +128,12 @@ class TradingDays:
     effect instead of having it read as seasonality.
     """
 
-
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         start = periods.start_time.normalize().to_numpy().astype("datetime64[D]")
-        days = period_days(periods).astype(int)
-        # Count weekdays in [start, start+days) without a loop over days:
-        # full weeks give days//7 of each, the remainder adds one to the
-        # weekdays that follow the start weekday.
-        first_dow = (start.astype("int64") + 3) % 7  # 1970-01-01 was a Thursday (3)
-        full, rem = np.divmod(days, 7)
-        counts = np.repeat(full[:, None], 7, axis=1).astype(float)
-        offs = (np.arange(7)[None, :] - first_dow[:, None]) % 7
-        counts += (offs < rem[:, None]).astype(float)
+        end = start + period_days(periods).astype(int)
+        # the count of each weekday (Monday first) in [start, end)
+        counts = np.column_stack([np.busday_count(start, end, weekmask=[d == k for k in range(7)])
+                                  for d in range(7)]).astype(float)
         contrasts = counts[:, :6] - counts[:, 6:7]
         names = [f"trading[{d}]" for d in ("mon", "tue", "wed", "thu", "fri", "sat")]
         return pd.DataFrame(contrasts, index=periods, columns=names)

@@ -10,7 +10,6 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-import numpy as np
 import pandas as pd
 
 from evcal.design.base import Block
@@ -22,42 +21,18 @@ from evcal.design.trend import Trend
 
 @dataclass
 class DesignSpec:
-    """Everything needed to rebuild the regressors (JSON-able).
+    """Everything needed to rebuild the regressors (JSON-able, saved in ``model.json``)."""
 
-    Parameters
-    ----------
-    freq : str
-        Pandas period frequency of the series ("D", "W-SUN", "M", "Q-DEC").
-    trend_origin : float
-        Fractional year where trend time is zero.
-    trend_order : int
-        Polynomial order of the trend (1 = linear).
-    constant : bool
-        Whether the design has a constant (False for differenced errors).
-    seasonal : str
-        "dummies" (one per period of the year) or "fourier".
-    fourier_order : int
-        Harmonics when ``seasonal == "fourier"`` (and for daily data).
-    trading_days : bool
-        Add weekday-composition columns (monthly/quarterly data only).
-    event_columns : list of str
-        Event columns, as named by the calendar.
-    interventions : list of dict
-        Intervention settings (:class:`InterventionTerm` as dicts).
-    event_theta : dict
-        Fitted log-lift per event column, for the exact aggregation of
-        multiplicative daily lifts into longer periods (see :mod:`evcal.design.events`).
-    """
-
-    freq: str
-    trend_origin: float
-    trend_order: int = 1
-    constant: bool = True
-    seasonal: str = "dummies"
-    fourier_order: int = 10
-    trading_days: bool = False
-    event_columns: list[str] = field(default_factory=list)
-    interventions: list[dict[str, Any]] = field(default_factory=list)
+    freq: str  # pandas period frequency of the series ("D", "W-SUN", "M", "Q-DEC")
+    trend_origin: float  # fractional year where trend time is zero
+    trend_order: int = 1  # polynomial order of the trend (1 = linear)
+    constant: bool = True  # False for differenced errors
+    seasonal: str = "dummies"  # "dummies" (one per period of the year) or "fourier"
+    fourier_order: int = 10  # harmonics when seasonal == "fourier" (and for daily data)
+    trading_days: bool = False  # weekday-composition columns (monthly/quarterly data only)
+    event_columns: list[str] = field(default_factory=list)  # as the calendar names them
+    interventions: list[dict[str, Any]] = field(default_factory=list)  # InterventionTerm.to_dict()s
+    # fitted log-lift per event column, for the exact aggregation of daily lifts (evcal.design.curved)
     event_theta: dict[str, float] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
@@ -106,15 +81,13 @@ def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> De
     >>> round(float(d.X.loc[pd.Period("2024-03", "M"), "e"]), 4)  # 1 day of 31
     0.0323
     """
-    trend = Trend(spec.trend_origin, spec.trend_order, spec.constant)
-    parts: list[tuple[str, pd.DataFrame]] = [("trend", trend.columns(periods))]
-    for block in spec.seasonal_blocks():
-        parts.append(("seasonal", block.columns(periods)))
-    parts.append(("event", EventColumns(calendar, list(spec.event_columns),
-                                        dict(spec.event_theta)).columns(periods)))
-    parts.append(("intervention", Interventions(spec.intervention_terms()).columns(periods)))
+    blocks: list[tuple[str, Block]] = [
+        ("trend", Trend(spec.trend_origin, spec.trend_order, spec.constant)),
+        *[("seasonal", block) for block in spec.seasonal_blocks()],
+        ("event", EventColumns(calendar, list(spec.event_columns), dict(spec.event_theta))),
+        ("intervention", Interventions(spec.intervention_terms())),
+    ]
+    parts = [(role, block.columns(periods)) for role, block in blocks]
     roles = {c: role for role, frame in parts for c in frame.columns}
     X = pd.concat([frame for _, frame in parts], axis=1).astype(float)
-    share = OpenShare(calendar).values(periods) if calendar is not None else pd.Series(
-        np.ones(len(periods)), index=periods, name="open_share")
-    return Design(X=X, open_share=share, roles=roles)
+    return Design(X=X, open_share=OpenShare(calendar).values(periods), roles=roles)

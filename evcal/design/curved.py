@@ -1,20 +1,14 @@
 """Event columns as functions of the fitted log-lift θ: the exact share-of-window aggregation.
 
-An event's column in a period is the mean daily intensity over the period's
-open days (:mod:`evcal.design.events`). That linear form is exact for daily
-data; for a period only partly covered it treats the lift as additive in logs,
-while a lift multiplies each window day. Given θ the period's column is
-``log(1 + mean over its open days of (exp(θ w_d) − 1)) / θ`` for day
-intensities ``w_d``, so column × θ is the exact log-effect and θ keeps its
-meaning "log-lift on the window days" at every frequency. θ = 0 gives the
-linear column.
-
-A period's column depends only on the *distinct* day intensities in it and on
-how many open days carry each: :class:`CurvedEvents` keeps those counts, so
-the columns of a thousand θ values (the series of a panel, or one series'
-fixed-point passes) are one small matrix product per event. This is the only
-place the aggregation with a lift is computed: the design (history and plan)
-and the fit's passes all call it.
+The linear column (:mod:`evcal.design.events`) treats a lift as additive in
+logs over a partly covered period, while a lift multiplies each window day.
+Given θ a period's column is ``log(1 + mean over its open days of (exp(θ w_d) − 1)) / θ``
+for day intensities ``w_d``: column × θ is the exact log-effect, θ keeps its
+meaning "log-lift on the window days" at every frequency, and θ = 0 gives the
+linear column. That depends only on the *distinct* day intensities of a period
+and how many open days carry each, so the columns of a thousand θ values (a
+panel's series, or one series' passes) are one small matrix product per event.
+This is the only place the aggregation with a lift is computed.
 """
 
 from __future__ import annotations

@@ -101,13 +101,10 @@ def _occurrence_windows(calendar: Any, ctx: SpanContext, parts_cols: set[str]) -
     """The occurrences whose window touches the span and has a column, grouped by event."""
     periods = ctx.periods
     occ = calendar.occurrences(*day_span(periods))
-    cols_of: dict[str, list[str]] = {}
-    for c, name in calendar.event_columns().items():
-        cols_of.setdefault(name, []).append(c)
     events = {name: calendar.event(name) for name in occ["event"].unique()}
-    zero = {name: ev.effect.kind == "zero" for name, ev in events.items()}
-    cols = {name: ([name] if name in parts_cols else []) if zero[name]
-            else [c for c in cols_of.get(name, []) if c in parts_cols] for name in events}
+    # a closure's part is its own column of the decomposition
+    cols = {name: [c for c in ([name] if ev.is_closure else ev.columns()) if c in parts_cols]
+            for name, ev in events.items()}
     ev = [events[name] for name in occ["event"]]
     w0 = occ["start"].to_numpy("datetime64[ns]") - np.array([e.before for e in ev], dtype="timedelta64[D]")
     w1 = occ["end"].to_numpy("datetime64[ns]") + np.array([e.after for e in ev], dtype="timedelta64[D]")
@@ -129,7 +126,7 @@ def _occurrence_windows(calendar: Any, ctx: SpanContext, parts_cols: set[str]) -
         ov1 = np.minimum(p_end[idx], w1[pos, None])
         ov_days = ((ov1 - ov0).astype("timedelta64[D]").astype(int) + 1).astype(float)
         own = ov_days * occ["strength"].to_numpy(dtype=float)[pos, None] * mask
-        groups.append(OccGroup(pos, cols[name], zero[name], idx, mask, own, days[idx],
+        groups.append(OccGroup(pos, cols[name], events[name].is_closure, idx, mask, own, days[idx],
                                np.maximum(ov_days, 1.0) / days[idx] * mask))
     table = pd.DataFrame({"event": occ["event"], "start": occ["start"].dt.strftime("%Y-%m-%d"),
                           "end": occ["end"].dt.strftime("%Y-%m-%d")})

@@ -45,31 +45,22 @@ class InterventionTerm(InterventionSpec):
         return cls(d["name"], d["type"], pd.Timestamp(d["start"]), end, d.get("decay"))
 
     def column(self, periods: pd.PeriodIndex) -> np.ndarray:
-        start = periods.start_time.normalize()
+        start, end = periods.start_time.normalize(), periods.end_time.normalize()
         days = period_days(periods)
         if self.type == "pulse":
             last = self.end if self.end is not None else self.start
-            p_end = periods.end_time.normalize()
-            return np.asarray((start <= last) & (p_end >= self.start), dtype=float)
+            return np.asarray((start <= last) & (end >= self.start), dtype=float)
         if self.type == "level_shift":
             # days on/after the change within each period, as a share
-            after = (start + pd.to_timedelta(days - 1, unit="D") - self.start).days + 1
+            after = (end - self.start).days + 1
             return np.clip(after.to_numpy(dtype=float), 0.0, days) / days
         if self.type == "temporary":
+            # k counts periods from the one holding the change (k = 0), also one before the grid (a plan)
+            k = (periods.asi8 - self.start.to_period(periods.freq).ordinal).astype(float)
             decay = 0.7 if self.decay is None else float(self.decay)
-            ends = periods.end_time.normalize()
-            if start[0] <= self.start <= ends[-1]:
-                # k counts periods from the one holding the change (k = 0)
-                holding = int(np.searchsorted(ends.to_numpy(), np.datetime64(self.start), side="left"))
-                k = np.arange(len(periods), dtype=float) - holding
-            else:
-                # the change happened outside this grid (a plan after the history): count from it
-                first = self.start.to_period(periods.freq)
-                k = np.array([(p - first).n for p in periods], dtype=float)
             return np.where(k >= 0, decay ** np.clip(k, 0, None), 0.0)
         if self.type == "ramp":
-            end = self.end if self.end is not None else self.start
-            total = max((end - self.start).days, 1)
+            total = max(((self.end if self.end is not None else self.start) - self.start).days, 1)
             # mean over each period's days of clip((day - start)/total, 0, 1)
             d0 = (start - self.start).days.to_numpy(dtype=float)
             offsets = np.arange(int(days.max()))[None, :]

@@ -83,28 +83,24 @@ class AnnualFourier:
 
     order: int
 
-    def _at(self, stamps: pd.DatetimeIndex) -> pd.DataFrame:
+    def _at(self, stamps: pd.DatetimeIndex, index: pd.Index) -> pd.DataFrame:
         from statsmodels.tsa.deterministic import CalendarFourier  # slow import: when used
 
         with warnings.catch_warnings():  # statsmodels' frequency inference warns; the frequency is known here
             warnings.simplefilter("ignore")
             raw = CalendarFourier("YE", self.order).in_sample(stamps)
         raw.columns = [c.replace(",freq=YE-DEC", "").replace(" ", "") for c in raw.columns]
+        raw.index = index
         return raw
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
-        mid = periods.start_time.normalize() + pd.to_timedelta(
-            (period_days(periods) - 1) / 2.0, unit="D")
-        out = self._at(pd.DatetimeIndex(mid))
-        out.index = periods
-        return out
+        mid = periods.start_time.normalize() + pd.to_timedelta((period_days(periods) - 1) / 2.0, unit="D")
+        return self._at(pd.DatetimeIndex(mid), periods)
 
     def cycle(self) -> pd.DataFrame:
         """Columns for a reference non-leap year, rows = day of year 1..365."""
         days = pd.date_range("2023-01-01", "2023-12-31", freq="D")
-        out = self._at(days)
-        out.index = pd.RangeIndex(1, 366, name="period")
-        return out
+        return self._at(days, pd.RangeIndex(1, 366, name="period"))
 
 
 @dataclass(frozen=True)

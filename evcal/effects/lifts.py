@@ -55,9 +55,7 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
         lift = low = high = nan
         if (src := group.source(col)) in pmap:
             b, s = pmap[src], se_map[src]
-            lift = _pct(b, group.transform, scale)
-            low = _pct(b - Z95 * s, group.transform, scale)
-            high = _pct(b + Z95 * s, group.transform, scale)
+            lift, low, high = (_pct(v, group.transform, scale) for v in (b, b - Z95 * s, b + Z95 * s))
         elif st.status == "assumed":
             lift = low = high = np.full(m, 100.0 * group.assumed[col])
         if kind == "event":

@@ -19,24 +19,7 @@ import pandas as pd
 
 from evcal.effects.span import GroupInfo, SpanContext
 
-__all__ = ["term_coefficients", "decompose_block", "decompose"]
-
-
-def term_coefficients(group: GroupInfo, params: dict[str, np.ndarray], m: int) -> dict[str, np.ndarray]:
-    """Model-scale coefficient of every event and intervention column for m series (0 when not estimated).
-
-    Borrowed lifts (``like``) take their target's coefficient; assumed lifts
-    are ``log(1 + a)`` on the log scale and the fraction ``a`` of base in the
-    additive model.
-    """
-    out: dict[str, np.ndarray] = {}
-    for col, st in group.status.items():
-        if st.status == "assumed":
-            a = group.assumed[col]
-            out[col] = np.full(m, float(np.log1p(a)) if group.transform != "none" else a)
-        else:
-            out[col] = params.get(group.source(col), np.zeros(m))
-    return out
+__all__ = ["decompose_block", "decompose"]
 
 
 def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
@@ -69,12 +52,11 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
     """
     m, n = len(smear), len(ctx.periods)
     curved = curved or {}
-    coefs = term_coefficients(group, pmap, m)
     base_cols = [c for c in group.base_columns if c in ctx.columns]
     Xb = np.column_stack([ctx.columns[c] for c in base_cols]) if base_cols else np.zeros((n, 0))
     Bb = np.vstack([pmap.get(c, np.zeros(m)) for c in base_cols]) if base_cols else np.zeros((0, m))
     eta_base = Bb.T @ Xb.T  # (m, n)
-    terms = [c for c in (terms if terms is not None else list(coefs)) if c in ctx.columns]
+    terms = [c for c in (terms if terms is not None else group.status) if c in ctx.columns]
     share = ctx.share[None, :]
     # each term's coefficient times its column, on the periods where the column is not zero (an
     # event's windows: a few of the span's periods) or on all of them
@@ -86,9 +68,14 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
         # worth working on the support only when it saves most of the work
         support[c] = nz if nz is not None and 2 * len(nz) < n else slice(None)
         x = (curved[c] if c in curved else ctx.columns[c][None, :])[:, support[c]]
-        tmat[c] = coefs[c][:, None] * x
-        if group.transform == "none" and group.status[c].status == "assumed":
-            # an assumed lift is a fraction of base, not a number of units
+        assumed = group.status[c].status == "assumed"
+        if assumed:  # log(1 + a) on the log scale; in the additive model the fraction a of base
+            a = group.assumed[c]
+            coef = np.full(m, float(np.log1p(a)) if group.transform != "none" else a)
+        else:  # a borrowed lift takes its target's coefficient; 0 when not estimated
+            coef = pmap.get(group.source(c), np.zeros(m))
+        tmat[c] = coef[:, None] * x
+        if group.transform == "none" and assumed:
             tmat[c] *= eta_base[:, support[c]]
         total[:, support[c]] += tmat[c]
     if group.transform == "none":

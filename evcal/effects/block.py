@@ -42,10 +42,6 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
 
     Parameters
     ----------
-    ctx : SpanContext
-        The span's shared rows.
-    group : GroupInfo
-        Statuses and columns of the fit group.
     params : ndarray, shape (len(group.fitted_cols), m)
     se : ndarray, shape (len(group.term_cols), m)
         HAC standard errors of the event and intervention coefficients.

@@ -19,16 +19,14 @@ class Columns(dict[str, Any]):
     the numbers in them.
     """
 
-    @property
-    def n_rows(self) -> int:
-        return len(next(iter(self.values()))) if self else 0
-
     def frame(self) -> pd.DataFrame:
         return pd.DataFrame(dict(self))
 
 
 def n_rows(table: pd.DataFrame | Columns) -> int:
-    return table.n_rows if isinstance(table, Columns) else len(table)
+    if isinstance(table, Columns):
+        return len(next(iter(table.values()))) if table else 0
+    return len(table)
 
 
 def join_columns(parts: list[pd.DataFrame | Columns]) -> Columns | None:

@@ -31,10 +31,6 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
 
     Parameters
     ----------
-    ctx : SpanContext
-        The span's shared design rows, open share and closures.
-    group : GroupInfo
-        Transform, column statuses, base columns.
     pmap : dict
         Coefficient name -> (m,) values.
     smear : ndarray, shape (m,)

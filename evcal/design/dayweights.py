@@ -17,19 +17,15 @@ def aggregate_day_weights(day_weights: pd.DataFrame, periods: pd.PeriodIndex) ->
     Parameters
     ----------
     day_weights : DataFrame
-        Daily DatetimeIndex (every day), one float column per regressor, as
-        returned by ``Calendar.day_weights``.
+        One float column per regressor on every day (``Calendar.day_weights``).
     periods : PeriodIndex
-        The target periods, e.g. ``pd.period_range("2024-01", "2024-12", freq="M")``
-        or weeks ending on any day (``freq="W-SAT"``). Every day of every
-        period must be inside ``day_weights``' index, so that no part of a
-        window is silently dropped.
+        Every day of every period must be in ``day_weights``, so that no part of
+        a window is silently dropped.
 
     Returns
     -------
     DataFrame
-        Index ``periods``, the same columns, each value the sum of the day
-        weights inside that period.
+        Index ``periods``, the same columns: the sums of the day weights in each period.
 
     Examples
     --------

@@ -1,16 +1,12 @@
 """Event and closure blocks, built from the calendar's daily weights.
 
-An event's column in a period is the *mean daily intensity* over the
-period's open days: the calendar's per-day intensity (strength × shape factor)
-summed over the days that fall in the period (the Bell–Hillmer share-of-window
-aggregation, :func:`evcal.design.dayweights.aggregate_day_weights`) and
-divided by the period's length. With that scaling one coefficient means the
-same thing at every frequency: on the log scale, the lift on the event's
-window days. A 10-day run-up to Easter that puts 3 days in March and 7 in
-April puts 3/31 of a full-intensity month into March and 7/30 into April.
-Given the fitted log-lift θ the columns aggregate the multiplicative daily
-lifts exactly (:mod:`evcal.design.curved`; without it, a +60 % Easter window
-in monthly data reads as about +77 %).
+An event's column in a period is the *mean daily intensity* (strength × shape
+factor) over the period's open days, so one coefficient means the same thing at
+every frequency: on the log scale, the lift on the event's window days. A
+10-day run-up to Easter with 3 days in March and 7 in April puts 3/31 of a
+full-intensity month into March and 7/30 into April. Given the fitted log-lift
+θ the columns aggregate the daily lifts exactly (:mod:`evcal.design.curved`;
+without it, a +60 % Easter window in monthly data reads as about +77 %).
 """
 
 from __future__ import annotations

@@ -121,18 +121,14 @@ def decompose(result: Any, X: pd.DataFrame, open_share: pd.Series, closures: pd.
 
     Parameters
     ----------
-    result : FitResult
-        Supplies the transform, the smearing factor and the column statuses.
     X : DataFrame
-        Unmerged design columns (as built by :func:`evcal.design.matrix.build_design`).
-    open_share : Series
-        Share of each period open.
+        Unmerged design columns (:func:`evcal.design.matrix.build_design`).
     closures : DataFrame
-        Closed share per closure event (from :func:`evcal.effects.span.closure_shares`).
+        Closed share per closure event (:func:`evcal.effects.span.closure_shares`).
     params : Series, optional
-        Coefficients to use; the fitted ones by default.
+        Coefficients to use instead of the fitted ones.
     terms : list of str, optional
-        Term columns to include; all event and intervention columns by default.
+        Term columns to include (every event and intervention column by default).
     """
     params = result.params if params is None else params
     group = GroupInfo.of_result(result)

@@ -103,15 +103,14 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
         else:
             parts[c] = np.zeros((m, n))
             parts[c][:, support[c]] = tmat[c]
-    if len(ctx.closures.columns):
-        cl = ctx.closures.reindex(ctx.periods).fillna(0.0).to_numpy(dtype=float)
-        tot = cl.sum(axis=1)
-        safe_tot = np.where(tot > 0, tot, 1.0)
-        for j, c in enumerate(ctx.closures.columns):
-            # a closure's part (the base lost to closed days) is zero outside the periods it closes
-            nz = np.flatnonzero((cl[:, j] > 0) & (tot > 0))
-            parts[c] = np.zeros((m, n))
-            parts[c][:, nz] = base[:, nz] * (share[:, nz] - 1.0) * (cl[nz, j] / safe_tot[nz])[None, :]
+    cl = ctx.closures.reindex(ctx.periods).fillna(0.0).to_numpy(dtype=float)
+    tot = cl.sum(axis=1)
+    for j, c in enumerate(ctx.closures.columns):
+        # a closure's part (the base lost to closed days, shared among the period's closures) is
+        # zero outside the periods it closes
+        nz = np.flatnonzero(cl[:, j] > 0)
+        parts[c] = np.zeros((m, n))
+        parts[c][:, nz] = base[:, nz] * (share[:, nz] - 1.0) * (cl[nz, j] / tot[nz])[None, :]
     return base, fitted, parts
 
 

@@ -75,9 +75,9 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
                  curved: dict[str, np.ndarray]) -> Columns:
     """The occurrences table for m series, all occurrences of an event at once."""
     m = len(sids)
-    cols_out = OCC_COLUMNS + ["low_units", "high_units"]
     if not len(ctx.occs):
-        return Columns({"_sid": np.zeros(0, dtype=int), **{c: np.zeros(0) for c in cols_out}})
+        empty = {c: np.zeros(0) for c in OCC_COLUMNS + ["low_units", "high_units"]}
+        return Columns({"_sid": np.zeros(0, dtype=int), **empty})
     n_occ = len(ctx.occs)
     added, pct, low, high = (np.empty((m, n_occ)) for _ in range(4))
     for og in ctx.occ_groups:

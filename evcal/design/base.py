@@ -9,13 +9,12 @@ did not (the idea of ``statsmodels.tsa.deterministic``, extended to events).
 from __future__ import annotations
 
 import functools
-from typing import Any, Protocol, runtime_checkable
+from typing import Any, Protocol
 
 import numpy as np
 import pandas as pd
 
 
-@runtime_checkable
 class Block(Protocol):
     """A block of named regressor columns."""
 

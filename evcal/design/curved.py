@@ -27,12 +27,7 @@ __all__ = ["CurvedEvents"]
 class CurvedEvents:
     """Event columns on ``periods`` as functions of θ, from the calendar's daily intensities.
 
-    Parameters
-    ----------
-    calendar : Calendar
-    names : list of str
-        Event columns (as ``calendar.event_columns()`` names them).
-    periods : PeriodIndex
+    ``names`` are event columns as ``calendar.event_columns()`` names them.
     """
 
     def __init__(self, calendar: Any, names: list[str], periods: pd.PeriodIndex) -> None:

@@ -1,10 +1,8 @@
-"""Seasonal blocks: period dummies, annual Fourier terms, weekday terms.
+"""Seasonal blocks: period dummies, annual Fourier terms (statsmodels' ``CalendarFourier``), weekday terms.
 
-Annual Fourier terms come from ``statsmodels.tsa.deterministic.CalendarFourier``.
-The dummies are built here from each period's position in the year for every
-frequency (statsmodels has no week-of-year seasonality): a week's position comes
-from its midpoint, and week 53, when a year has one, shares week 52's dummy so
-the profile always has 52 positions.
+The dummies come from each period's position in the year (statsmodels has no
+week-of-year seasonality): a week's is its midpoint's, and week 53 shares week
+52's so the profile always has 52 positions.
 """
 
 from __future__ import annotations

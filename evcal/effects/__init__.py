@@ -6,9 +6,8 @@ One table builder for a single series (a block of one) and for a panel:
 
 from __future__ import annotations
 
-from evcal.effects.block import BlockTables, block_tables
+from evcal.effects.block import LIFT_COLUMNS, BlockTables, block_tables
 from evcal.effects.decompose import decompose
-from evcal.effects.lifts import LIFT_COLUMNS
 from evcal.effects.occurrences import OCC_COLUMNS, Z95
 from evcal.effects.span import GroupInfo, SpanContext, closure_shares
 

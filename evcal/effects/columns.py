@@ -1,4 +1,7 @@
-"""Tables as named columns: the blocks' tables are joined column by column, one frame at the end."""
+"""Tables as named columns: the blocks' tables are joined column by column, one frame at the end.
+
+A frame per block and a ``pandas.concat`` of them cost more than the numbers in them.
+"""
 
 from __future__ import annotations
 
@@ -12,12 +15,7 @@ __all__ = ["Columns", "n_rows", "join_columns", "join_tables", "text_dtype", "ti
 
 
 class Columns(dict[str, Any]):
-    """A table as named columns of equal length (arrays or categoricals).
-
-    The blocks' tables are joined column by column and made into one frame at
-    the end: a frame per block and a ``pandas.concat`` of them cost more than
-    the numbers in them.
-    """
+    """A table as named columns of equal length (arrays or categoricals)."""
 
     def frame(self) -> pd.DataFrame:
         return pd.DataFrame(dict(self))

@@ -74,8 +74,6 @@ class OpenShare:
     calendar: Any
 
     def values(self, periods: pd.PeriodIndex) -> pd.Series:
-        start, end = day_span(periods)
-        closed = self.calendar.closed_days(start, end).astype(float).to_frame("closed")
-        agg = aggregate_day_weights(closed, periods)["closed"].to_numpy(dtype=float)
-        share = 1.0 - agg / period_days(periods)
+        closed = self.calendar.closed_days(*day_span(periods)).astype(float).to_frame("closed")
+        share = 1.0 - aggregate_day_weights(closed, periods)["closed"].to_numpy() / period_days(periods)
         return pd.Series(np.clip(share, 0.0, 1.0), index=periods, name="open_share")

@@ -41,9 +41,6 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
                  curved_support: dict[str, np.ndarray] | None = None) -> BlockTables:
     """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
 
-    Arrays are series-major (one row per series), so the long tables are
-    plain reshapes.
-
     Parameters
     ----------
     params : ndarray, shape (len(group.fitted_cols), m)

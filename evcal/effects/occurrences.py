@@ -106,13 +106,8 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
                 ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
                 lo, hi = _sim_bounds(b, s, xs, base_t, ratio)
         low[:, og.pos], high[:, og.pos] = lo, hi
-    return Columns({
-        "_sid": np.repeat(sids, n_occ),
-        "event": tiled_text(ctx.occs["event"].tolist(), m),
-        "start": tiled_text(ctx.occs["start"].tolist(), m),
-        "end": tiled_text(ctx.occs["end"].tolist(), m),
-        "added_units": added.ravel(), "added_pct": pct.ravel(),
-        "low_units": low.ravel(), "high_units": high.ravel(),
-    })
+    text = {c: tiled_text(ctx.occs[c].tolist(), m) for c in ("event", "start", "end")}
+    return Columns({"_sid": np.repeat(sids, n_occ), **text, "added_units": added.ravel(),
+                    "added_pct": pct.ravel(), "low_units": low.ravel(), "high_units": high.ravel()})
 
 

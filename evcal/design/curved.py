@@ -75,8 +75,7 @@ class CurvedEvents:
         touched = np.flatnonzero(share.any(axis=1)) if at is not None else self.touched[name]
         share = share[touched]
         out = np.zeros((len(theta), n_out))
-        linear = share @ vals
-        sub = np.broadcast_to(linear, (len(theta), len(touched))).copy()
+        sub = np.tile(share @ vals, (len(theta), 1))
         bent = np.abs(theta) > 1e-9
         if bent.any():
             t = theta[bent]

@@ -54,8 +54,6 @@ class EventColumns:
         return 0.0
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
-        if not self.names:
-            return pd.DataFrame(index=periods)
         # closed days carry no lift and the mean is over the period's open days (the closure
         # itself enters as the open-share offset): CurvedEvents counts open days only
         curve = CurvedEvents(self.calendar, self.names, periods)

@@ -4,10 +4,8 @@ On the log scale the terms add; in units they interact. The split used here
 adds up exactly: the closures' share is taken first (the open share of the
 period times everything else), then the remaining gap between "with events"
 and base is divided among the terms in proportion to their log-scale size.
-For the additive model the terms already add up in units.
-
-The m columns are the series of a block (the fit) or the draws of a
-simulation (the plan): the design rows are shared, the coefficients differ.
+For the additive model the terms already add up in units. The m series of a
+block share the design rows; the coefficients differ.
 """
 
 from __future__ import annotations

@@ -1,7 +1,7 @@
 """What the tables of a span of periods share: design rows, open share, closures, occurrence windows.
 
-They are the same for every series of a block (and every simulation draw of a
-plan); only the coefficients differ. :class:`SpanContext` holds them once.
+They are the same for every series of a block; only the coefficients differ.
+:class:`SpanContext` holds them once.
 """
 
 from __future__ import annotations

@@ -62,28 +62,44 @@ def calendar_text(calendar: Any, given: Any) -> str:
 
 
 def choose_transform(values: pd.Series, options: FitOptions, source: str, known_zero: np.ndarray) -> str:
+    """The series' transform (:func:`transforms`), or one line when the values rule the option out."""
     v = values.dropna()
     open_v = values[~known_zero].dropna()
     if len(open_v) and not (open_v != 0).any():
         raise HistoryError(f"{source}: every value of the history's open periods is zero; there is no "
                            "level or season to fit: check that the value column is the one meant")
-    if options.allow_negative and (v < 0).any():
-        if options.transform in ("log", "count"):
-            raise HistoryError(f"{source}: column value has negative values; transform "
-                               f"{options.transform} needs values >= 0; use --transform none")
-        return "none"
-    if options.transform == "auto":
-        if (open_v > 0).all():
-            return "log"
-        is_int = np.allclose(v, np.round(v))
-        return "count" if is_int else "none"
+    if options.allow_negative and (v < 0).any() and options.transform in ("log", "count"):
+        raise HistoryError(f"{source}: column value has negative values; transform "
+                           f"{options.transform} needs values >= 0; use --transform none")
     if options.transform == "log" and (open_v <= 0).any():
         first = open_v[open_v <= 0].index[0]
         raise HistoryError(
             f"{source}: period {first}: value {open_v[first]:g} is zero and --transform log needs "
             "positive values; use --transform count for series with zeros (or mark closures "
             "with effect: zero)")
-    return options.transform
+    values_2d = values.to_numpy(dtype=float)[:, None]
+    return str(transforms(values_2d, ~known_zero, options.transform, options.allow_negative)[0])
+
+
+def transforms(values: np.ndarray, open_rows: np.ndarray, transform: str, allow_negative: bool) -> np.ndarray:
+    """Each series' transform (columns of ``values``, NaN where empty): the one rule of a series and a panel.
+
+    ``auto`` is ``log`` when every value on an open period is positive, ``count``
+    for whole numbers with zeros, ``none`` (additive) otherwise; negative values
+    (with ``allow_negative``) force ``none``.
+    """
+    # comparisons with NaN are False, so empty cells drop out without a filled copy of the matrix
+    nonpos_open = (values <= 0).any(axis=0) if open_rows.all() else (values[open_rows] <= 0).any(axis=0)
+    chosen = np.full(values.shape[1], transform, dtype=object)
+    if transform == "auto":
+        chosen[:] = "log"
+        zero_cols = np.flatnonzero(nonpos_open)  # whole numbers matter only for these (the count model)
+        sub = values[:, zero_cols]
+        whole = (np.isclose(sub, np.round(sub)) | np.isnan(sub)).all(axis=0)
+        chosen[zero_cols] = np.where(whole, "count", "none")
+    if allow_negative:
+        chosen[(values < 0).any(axis=0)] = "none"
+    return chosen
 
 
 def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, freq: str,
@@ -203,6 +219,7 @@ def model_scale_response(inp: ModelInputs) -> pd.Series:
 
 
 def min_periods(freq: str) -> int:
+    """Periods with values a fit needs: two seasonal cycles."""
     return 2 * cycle_length(freq)
 
 

@@ -4,14 +4,8 @@ The work is cut into *units* that depend only on their inputs: a block of at
 most :data:`BLOCK_SERIES` series of one design group (batched OLS), or a few
 series for the per-series path (ARIMA errors, count models). The same units
 run in this process or on a Dask cluster (:mod:`evcal.panel.distributed`),
-so the results do not depend on where they ran.
-
-Grouping. Series share a design when they have the same transform, the same
-trend origin (the year their history starts) and the same *fit-row pattern*
-(which periods have a value; exclusions and closures are shared through the
-calendar). Each group gets its own identifiability check, exactly as a single
-series would (:func:`evcal.model.identify.check_columns` on its rows), and one
-QR factorisation.
+so the results do not depend on where they ran. Which series share a
+design: :mod:`evcal.engine.groups`.
 """
 
 from __future__ import annotations
@@ -125,7 +119,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
                       offset=tpl.inp.offset.to_numpy()[rows],
                       share=tpl.inp.design.open_share.to_numpy()[rows], curve=tpl.curve())
             groups.append(g)
-            raw = tpl.with_origin(tpl.raw, origin)
+            raw = tpl.with_origin(tpl.inp.raw_X, origin)
             share_all = tpl.inp.design.open_share.to_numpy()
             spans = np.column_stack([panel.first[members], panel.last[members]])
             contexts: dict[tuple[int, int], SpanContext] = {}

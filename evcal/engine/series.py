@@ -90,7 +90,6 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         mean_base=0.0,
         warnings=list(inp.notes),
         **calendar_terms(calendar),
-        _open_share=inp.design.open_share.to_numpy(),
         _calendar=calendar,
     )
 

@@ -27,7 +27,6 @@ class Estimate:
     resid: pd.Series
     llf: float
     aic: float
-    nobs: int
     error_model: dict[str, Any] = field(default_factory=dict)
     cov_note: str = ""
 
@@ -130,16 +129,13 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
         resid=resid,
         llf=float(llf),
         aic=float(-2 * llf + 2 * rank),
-        nobs=n,
         error_model={"kind": "iid"},
         cov_note=hac_note(lags),
     )
 
 
 def fit_arima(
-    y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int],
-    start: Any = None,
-) -> Estimate:
+    y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int]) -> Estimate:
     """Regression with ARIMA(p, d, q) errors by iterated feasible GLS.
 
     Two steps, repeated until the coefficients settle (at most 4 rounds):
@@ -171,7 +167,7 @@ def fit_arima(
     ar = np.zeros(p)
     ma = np.zeros(q)
     long = n > 3000
-    arma_start = None if start is None else np.asarray(start, dtype=float)
+    arma_start = None
     for _ in range(3):
         u = yy - XX @ beta
         if p or q:
@@ -227,7 +223,6 @@ def fit_arima(
         resid=innov,
         llf=llf,
         aic=float(-2 * llf + 2 * n_par),
-        nobs=n,
         error_model={
             "kind": "arima",
             "order": [p, d, q],
@@ -295,7 +290,6 @@ def fit_count(y_units: pd.Series, X: pd.DataFrame, log_offset: pd.Series) -> Est
         resid=resid,
         llf=llf,
         aic=aic,
-        nobs=int(rows.sum()),
         error_model=error_model,
         cov_note=note,
     )

@@ -1,26 +1,18 @@
 """Which event and intervention columns the history can actually estimate.
 
-Three reasons a column is not fitted, each reported with a note instead of a
-number:
+A column is not fitted, with a note instead of a number, when it has no
+occurrence in the fitted periods; when it always falls in the same seasonal
+period (it is a combination of the seasonal and trend columns, so its effect
+stays in the seasonal index); or when it always shares its days with another
+event (only their sum is estimable: the first carries it). The test is
+numerical rank: a column's relative residual on the columns kept before it.
 
-* no occurrence inside the fitted periods;
-* it always falls in the same seasonal period (a fixed-date holiday in
-  monthly data): the column is a linear combination of the seasonal and trend
-  columns, so its effect stays inside the seasonal index;
-* it always shares its days with another event: only their sum is estimable,
-  so the first one carries the estimate and the note suggests merging them.
-
-The test is numerical rank: the relative residual of a column regressed on
-the columns kept before it (least squares), below a tolerance.
-
-A column can pass that test and still carry no usable information: a
-Father's Day window in quarterly data is in the second quarter every year and
-moves only when a closed Easter day changes the quarter's count of open days
-(7/91 against 7/90). Such a fit does not fail; it returns a coefficient that
-no event could have (``+1e21 %``), or an interval bound that overflows. After
-the fit, :func:`degenerate_terms` flags those coefficients, and the fit
-leaves the column out (its effect stays inside the seasonal index), with a
-note from :func:`degenerate_note` that says why and what to do.
+A column can pass that test and still carry no usable information (a
+Father's Day window in quarterly data moves only when a closed Easter day
+changes the quarter's count of open days): the fit then gives a lift no event
+has (``+1e21 %``) or an interval that overflows. :func:`degenerate_terms`
+flags those after the fit, which leaves the column out with a note from
+:func:`degenerate_note`.
 """
 
 from __future__ import annotations

@@ -100,6 +100,14 @@ def flag_degenerate(inp: ModelInputs, est: Estimate, freq: str) -> dict[str, str
             for c, what in seen.items()}
 
 
+def exact_passes(transform: str, freq: str) -> bool:
+    """Whether the event columns aggregate the fitted daily lifts exactly: log-link models of longer periods.
+
+    Daily data need no second pass (each period is one day); additive models keep the linear columns.
+    """
+    return transform != "none" and base_freq(freq) != "D"
+
+
 def theta_sources(status: dict[str, ColumnStatus], roles: dict[str, str], like_map: dict[str, str],
                   fitted: Any) -> dict[str, str]:
     """Event column -> fitted column whose coefficient is its log-lift θ (its own, the borrowed, its twin).
@@ -143,8 +151,7 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
                    ) -> tuple[ModelInputs, Estimate, dict]:
     """Fit, then refit with event columns that aggregate the fitted daily lifts exactly.
 
-    Daily data need no second pass (each period is one day). For longer
-    periods the log-lifts from one pass set the columns of the next, until
+    Where :func:`exact_passes` says so, the log-lifts from one pass set the columns of the next, until
     they settle (:func:`theta_moved` below :data:`THETA_TOL`, at most
     :data:`MAX_PASSES`; the batched passes of :mod:`evcal.engine.refine` stop
     by the same rule).
@@ -160,7 +167,7 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
         check_fit_rows(inp, calendar, history)
     dropped: dict[str, str] = {}
     inp, est, choice = _fit_flagged(history, calendar, options, None, dropped, inp)
-    if inp.transform == "none" or base_freq(history.freq) == "D":
+    if not exact_passes(inp.transform, history.freq):
         return inp, est, choice
     theta = fitted_theta(inp, est)
     # later passes keep the error model the first pass chose (and its reasons)

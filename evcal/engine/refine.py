@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 from evcal.design.curved import CurvedEvents
-from evcal.model.estimators import bartlett_weights
+from evcal.model.estimators import hac_meat
 from evcal.model.passes import MAX_PASSES, THETA_TOL, theta_moved, theta_sources
 
 __all__ = ["refine"]
@@ -235,20 +235,8 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
     Ginv = spd_solve(G, np.broadcast_to(np.eye(n_t), G.shape).copy())
-    # Σₜ Vxᵢ,ₜ (½Vxⱼ,ₜ + Σₗ wₗ Vxⱼ,ₜ₋ₗ), one term j at a time (two (n, m) buffers in all)
-    w = bartlett_weights(lags)
-    meat = np.empty((m, n_t, n_t))
-    W = np.empty((n, m))
-    lagged = np.empty((n, m))
-    for j in range(n_t):
-        np.multiply(Vx[j], 0.5, out=W)
-        for lag in range(1, min(lags, n - 1) + 1):
-            np.multiply(Vx[j, :-lag], w[lag], out=lagged[lag:])
-            W[lag:] += lagged[lag:]
-        for i in range(n_t):
-            meat[:, i, j] = np.einsum("nm,nm->m", Vx[i], W)
-    del Vx, W, lagged
-    meat += meat.transpose(0, 2, 1)
+    meat = hac_meat(Vx.transpose(2, 1, 0), lags)
+    del Vx
     cov = Ginv @ meat @ Ginv
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
     order = [term.index(c) for c in group.term_cols]

@@ -45,16 +45,16 @@ class ColumnStatus:
     twin: str = ""  # for a duplicate: the column that carries the joint estimate
 
 
+def _project_out(q: np.ndarray, a: np.ndarray) -> np.ndarray:
+    """``a`` less its projection on orthonormal ``q`` (twice: Gram-Schmidt loses orthogonality once)."""
+    r = a - q @ (q.T @ a)
+    return r - q @ (q.T @ r)
+
+
 def _relative_residual(col: np.ndarray, q: np.ndarray) -> float:
     """||col - proj(col)|| / ||col|| for the projection on orthonormal columns ``q``."""
     norm = float(np.linalg.norm(col))
-    if norm == 0.0:
-        return 0.0
-    if q.shape[1] == 0:
-        return 1.0
-    r = col - q @ (q.T @ col)
-    r = r - q @ (q.T @ r)  # second pass: classical Gram-Schmidt loses orthogonality once
-    return float(np.linalg.norm(r)) / norm
+    return float(np.linalg.norm(_project_out(q, col))) / norm if norm else 0.0
 
 
 def _orthonormal(basis: np.ndarray) -> np.ndarray:
@@ -67,8 +67,7 @@ def _orthonormal(basis: np.ndarray) -> np.ndarray:
 
 
 def _extend(q: np.ndarray, col: np.ndarray) -> np.ndarray:
-    r = col - q @ (q.T @ col)
-    r = r - q @ (q.T @ r)
+    r = _project_out(q, col)
     return np.column_stack([q, r / np.linalg.norm(r)])
 
 
@@ -119,8 +118,7 @@ def check_columns(
     Xc = X.loc[rows, candidate_cols].to_numpy(dtype=float)
     q_base = _orthonormal(X.loc[rows, base_cols].to_numpy(dtype=float))
     norms = np.linalg.norm(Xc, axis=0)
-    resid = Xc - q_base @ (q_base.T @ Xc)
-    resid = resid - q_base @ (q_base.T @ resid)
+    resid = _project_out(q_base, Xc)
     rel_base = np.linalg.norm(resid, axis=0) / np.where(norms > 0, norms, 1.0)
     # Event columns are day counts divided by the period's length, so a February event
     # (always one day in February) still varies with leap years (1/28 vs 1/29) and would
@@ -130,8 +128,7 @@ def check_columns(
     days = period_days(X.index[rows]) if isinstance(X.index, pd.PeriodIndex) else np.ones(len(Xc))
     counts = Xc * days[:, None]
     c_norms = np.linalg.norm(counts, axis=0)
-    c_resid = counts - q_base @ (q_base.T @ counts)
-    c_resid = c_resid - q_base @ (q_base.T @ c_resid)
+    c_resid = _project_out(q_base, counts)
     rel_counts = np.linalg.norm(c_resid, axis=0) / np.where(c_norms > 0, c_norms, 1.0)
     is_event = np.array([kind_of.get(c) == "event" for c in candidate_cols])
     rel_base = np.where(is_event, np.minimum(rel_base, rel_counts), rel_base)

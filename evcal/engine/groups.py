@@ -132,7 +132,7 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
         base_cols = independent_base_columns(X, rows, all_base)
         fixed = {c: st for c, st in inp.status.items() if st.status in ("assumed", "like")}
         candidates = [c for c in inp.status if c not in fixed]
-        status = check_columns(X, rows, base_cols, candidates, {c: roles[c] for c in X.columns})
+        status = check_columns(X, rows, base_cols, candidates, roles)
         status.update(fixed)
         fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
     terms = calendar_terms(calendar)
@@ -145,7 +145,7 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
     fit_X = X.loc[rows, fitted_cols]
     if template.transform == "none":
         fit_X = additive_design(X[fitted_cols], inp).loc[rows]
-    return info, rows, fit_X.to_numpy(dtype=float), list(inp.notes) + status_notes(status)
+    return info, rows, fit_X.to_numpy(dtype=float), status_notes(status)
 
 
 def distinct_spans(spans: np.ndarray, n_periods: int) -> list[tuple[int, int]]:

@@ -95,31 +95,15 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
 
     Each pass solves, for every series still moving, the event and intervention
     coefficients after the shared trend and seasonal columns are projected out
-    (Frisch–Waugh–Lovell, with ``X̃ᵀX̃ = XᵀX − PᵀP`` and ``P = QᵀX`` for the
-    orthonormal basis ``Q`` of the shared columns). An event column is zero
-    outside its windows whatever θ is, so ``P`` needs only the few rows the
-    windows touch. A series stops when its θ moves less than :data:`THETA_TOL`
-    (as the single-series fit does), so every series gets the passes it would
-    get alone.
+    (``X̃ᵀX̃ = XᵀX − PᵀP``, ``P = QᵀX`` for the orthonormal basis ``Q`` of the
+    shared columns); an event column is zero outside its windows whatever θ is,
+    so ``P`` needs only the rows the windows touch. Each series stops by the
+    single-series rule, so it gets the passes it would get alone.
 
-    Parameters
-    ----------
-    group : GroupInfo
-        With ``roles`` (column -> role).
-    curve : CurvedEvents
-        On the panel's periods.
-    rows : bool array
-        Fit rows on the panel's periods.
-    X_fit : ndarray (n_rows, k)
-        The first-pass design on the fit rows (group.fitted_cols).
-    Y : ndarray (n_rows, m)
-        Model-scale responses (offset taken off).
-    B0 : ndarray (k, m)
-        First-pass coefficients.
-    cache : dict, optional
-        Kept by the caller for the blocks of one design group: what depends on
-        the group alone (the basis of its shared columns, the rows the event
-        windows touch) is computed once and kept there.
+    ``X_fit`` (n_rows, k) is the first-pass design on the fit ``rows``, ``Y``
+    (n_rows, m) the model-scale responses (offset taken off), ``B0`` (k, m) the
+    first-pass coefficients; ``cache`` keeps what depends on the design group
+    alone for its other blocks.
     """
     cols = list(group.fitted_cols)
     idx = {c: i for i, c in enumerate(cols)}

@@ -9,6 +9,7 @@ from the one table builder (:func:`evcal.effects.block_tables`).
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -16,13 +17,14 @@ import pandas as pd
 
 from evcal.design.seasonal import cycle_length
 from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
+from evcal.model.estimators import hac_note
 from evcal.model.identify import status_notes
 from evcal.model.inputs import ModelInputs, average_share_profile, calendar_terms, calendar_text
 from evcal.model.options import FitOptions
-from evcal.model.passes import estimate_exact
+from evcal.model.passes import estimate_exact, ols_choice
 from evcal.model.result import FitResult
 
-__all__ = ["fit_series", "new_result", "adopt_tables"]
+__all__ = ["fit_series", "block_result"]
 
 
 def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None,
@@ -54,6 +56,19 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
     tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]))
     adopt_tables(result, tables, inp)
     return result, tables
+
+
+def block_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, model: Any) -> FitResult:
+    """The :class:`FitResult` of a series solved in a block of one (``model``: its ``BlockModel``)."""
+    note = hac_note(model.lags)
+    choice = {**ols_choice(model.aic, note, options, len(inp.periods)), "covariance": note,
+              "transform": inp.transform}
+    result = new_result(history, calendar, options, inp, params=model.params, cov=model.cov,
+                        sigma2=model.sigma2, smear=model.smear, error_model={"kind": "iid"},
+                        model_choice=choice, spec=replace(model.group.info.spec, event_theta=model.theta),
+                        status=model.group.info.status)
+    adopt_tables(result, model.tables, inp)
+    return result
 
 
 def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, *, params: pd.Series,
@@ -88,7 +103,6 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         average_share={int(k): float(v) for k, v in average_share_profile(
             history.values.where(inp.rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
         mean_base=0.0,
-        warnings=list(inp.notes),
         **calendar_terms(calendar),
         _calendar=calendar,
     )

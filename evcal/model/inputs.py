@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -35,7 +35,6 @@ class ModelInputs:
     assumed: dict[str, float]  # assumed-event column -> lift fraction
     spec: DesignSpec  # the settings that rebuild ``design`` for any periods
     raw_X: pd.DataFrame  # the design before like-events were added into their targets
-    notes: list[str] = field(default_factory=list)
 
 
 def load_calendar_any(calendar: Any) -> Any:
@@ -139,18 +138,13 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     """
     periods = history.values.index
     actual = history.values.astype(float)
-    freq = history.freq
-    spec = design_spec(calendar, options, periods, freq, theta)
-    event_cols = list(spec.event_columns)
-    interventions = list(spec.interventions)
+    spec = design_spec(calendar, options, periods, history.freq, theta)
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()
     closed_full = share <= 1e-9
     excluded = np.zeros(len(periods), dtype=bool)
-    p_start = periods.start_time.normalize()
-    p_end = periods.end_time.normalize()
     for ex in calendar.exclusions:
-        excluded |= np.asarray((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start)))
+        excluded |= _overlaps(periods, ex)
     transform = choose_transform(actual, options, history.source, closed_full)
     rows = actual.notna().to_numpy() & ~excluded & ~closed_full
 
@@ -160,7 +154,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     assumed: dict[str, float] = {}
     colmap = calendar.event_columns()
     candidates: list[str] = []
-    for c in event_cols:
+    for c in spec.event_columns:
         eff = calendar.event(colmap[c]).effect
         if eff.kind == "assume":
             assumed[c] = float(eff.assume or 0.0)
@@ -169,8 +163,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             like_map[c] = target_cols[0] if target_cols else ""
         else:
             candidates.append(c)
-    candidates += [t["name"] for t in interventions]
-    kind_of = {c: design.roles[c] for c in X.columns}
+    candidates += [t["name"] for t in spec.interventions]
 
     # `like` events share their target's coefficient: add their column to it.
     X = X.copy()
@@ -178,7 +171,6 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         if target in X.columns:
             X[target] = X[target] + X[c]
     offset = pd.Series(0.0, index=periods)
-    notes: list[str] = []
     if transform in ("log", "count"):
         with np.errstate(divide="ignore"):
             offset += np.log(np.where(closed_full, 1.0, share))
@@ -186,7 +178,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             offset += np.log1p(a) * X[c]
     if identify:
         base_cols = independent_base_columns(X, rows, base_cols)
-        status = check_columns(X, rows, base_cols, candidates, kind_of)
+        status = check_columns(X, rows, base_cols, candidates, design.roles)
     else:
         status = {c: ColumnStatus("unchecked", "identifiability not checked") for c in candidates}
     for c in assumed:
@@ -205,7 +197,13 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
     merged = Design(X=X, open_share=design.open_share, roles=design.roles)
     return ModelInputs(periods, actual, merged, rows, excluded, offset, transform, status,
-                       fitted_cols, like_map, assumed, spec, design.X, notes)
+                       fitted_cols, like_map, assumed, spec, design.X)
+
+
+def _overlaps(periods: pd.PeriodIndex, ex: Any) -> np.ndarray:
+    """Periods with a day inside the exclusion ``ex``."""
+    return np.asarray((periods.start_time.normalize() <= pd.Timestamp(ex.end))
+                      & (periods.end_time.normalize() >= pd.Timestamp(ex.start)))
 
 
 def model_scale_response(inp: ModelInputs) -> pd.Series:
@@ -249,11 +247,9 @@ def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
     else:
         need = len(inp.fitted_cols) + 1
         why = f"one more than the {need - 1} terms"
-    p_start = inp.periods.start_time.normalize()
-    p_end = inp.periods.end_time.normalize()
     causes = []
     for ex in calendar.exclusions:
-        hit = int(np.sum((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start))))
+        hit = int(np.sum(_overlaps(inp.periods, ex)))
         if hit:
             where = f"line {ex.line}: " if ex.line else ""
             causes.append(f"{where}exclude {pd.Timestamp(ex.start).date()} .. {pd.Timestamp(ex.end).date()} "

@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.effects import LIFT_COLUMNS, OCC_COLUMNS, BlockTables, SpanContext, block_tables
-from evcal.effects.columns import Columns, join_columns, join_tables, text_dtype
+from evcal.effects.columns import Columns, join_columns, join_tables, tiled_text
 from evcal.engine.batched import SharedSolve
 from evcal.engine.groups import Group
 from evcal.engine.series import fit_series
@@ -153,14 +153,10 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     sids = unit.sids[keep]
     m = len(sids)
 
-    def text(value: str) -> pd.Categorical:
-        return pd.Categorical.from_codes(np.zeros(m, dtype=np.int8), dtype=text_dtype((value,)),
-                                         validate=False)
-
-    series = Columns({"_sid": sids, "engine": text("batched"), "group": np.full(m, g.gid),
-                      "transform": text(g.transform), "method": text("ols"), "sigma2": sigma2[keep],
-                      "smear": smear[keep], "hac_lags": np.full(m, g.solve.lags),
-                      "trend_origin": np.full(m, g.origin), "note": text("; ".join(g.notes))})
+    series = Columns({"_sid": sids, "engine": tiled_text(["batched"], m), "group": np.full(m, g.gid),
+                      "transform": tiled_text([g.transform], m), "method": tiled_text(["ols"], m),
+                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": np.full(m, g.solve.lags),
+                      "trend_origin": np.full(m, g.origin), "note": tiled_text(["; ".join(g.notes)], m)})
     params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
     out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
     if unit.keep_models and m:

@@ -144,11 +144,10 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
     )
 
 
-def fit_arima(
-    y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int]) -> Estimate:
+def fit_arima(y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int]) -> Estimate:
     """Regression with ARIMA(p, d, q) errors by iterated feasible GLS.
 
-    Two steps, repeated until the coefficients settle (at most 4 rounds):
+    Two steps, repeated until the coefficients settle (at most 3 rounds):
     the ARMA(p, q) error model is fitted by exact likelihood (statsmodels
     SARIMAX, which skips missing periods) to the regression error of the
     (d-times differenced) series; then the regression is re-estimated by GLS

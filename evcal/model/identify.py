@@ -92,25 +92,13 @@ def check_columns(
     X: pd.DataFrame, rows: np.ndarray, base_cols: list[str], candidate_cols: list[str],
     kind_of: dict[str, str],
 ) -> dict[str, ColumnStatus]:
-    """Classify each candidate column on the fitted rows.
+    """Classify each candidate (event and intervention) column, in priority order, on the fit ``rows``.
 
     The base (trend and seasonal) columns are projected out once; the
     candidates' remainders are then tested in order on their small Gram
     matrix (an incremental Cholesky that skips dependent columns), so the
     cost is one pass over the data however many events there are.
-
-    Parameters
-    ----------
-    X : DataFrame
-        The full design.
-    rows : bool array
-        Periods used by the fit.
-    base_cols : list of str
-        Trend and seasonal columns (always kept).
-    candidate_cols : list of str
-        Event and intervention columns, in priority order.
-    kind_of : dict
-        Column -> "event" or "intervention", for the wording of notes.
+    ``kind_of`` (column -> role) words the notes.
     """
     out: dict[str, ColumnStatus] = {}
     if not candidate_cols:

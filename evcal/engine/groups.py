@@ -25,24 +25,9 @@ from evcal.io.panel import Panel
 from evcal.model.identify import check_columns, independent_base_columns, status_notes
 from evcal.model.inputs import additive_design, calendar_terms, prepare
 from evcal.model.options import FitOptions
-from evcal.model.passes import LONG_SERIES, exact_passes
+from evcal.model.passes import exact_passes
 
-__all__ = ["Template", "Group", "group_info", "distinct_spans", "pattern_ids", "batched_route"]
-
-
-def batched_route(options: FitOptions, n_series: int, n_periods: int) -> bool:
-    """Whether series with a log or additive model are solved in blocks (OLS + HAC) or one by one.
-
-    ``--errors ols`` is always solved in blocks. ``--errors auto`` chooses the
-    error model by AIC among OLS and ARIMA(1,0,0)/(1,0,1) errors series by
-    series (:func:`evcal.model.passes.estimate`), except for a panel (one
-    choice per series would cost a state-space fit each) and for a series
-    longer than :data:`~evcal.model.passes.LONG_SERIES` periods, which keep
-    OLS with HAC intervals. ARIMA errors and count models are per series.
-    """
-    if options.errors == "ols":
-        return True
-    return options.errors == "auto" and (n_series > 1 or n_periods > LONG_SERIES)
+__all__ = ["Template", "Group", "group_info", "distinct_spans", "pattern_ids"]
 
 
 @dataclass
@@ -135,13 +120,10 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
         status = check_columns(X, rows, base_cols, candidates, roles)
         status.update(fixed)
         fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
-    terms = calendar_terms(calendar)
-    info = GroupInfo(
-        transform=template.transform, status=status, fitted_cols=fitted_cols, base_columns=all_base,
-        like_map=dict(inp.like_map), assumed=dict(inp.assumed),
-        intervention_names=terms["intervention_names"], closure_events=terms["closure_events"],
-        event_info=terms["event_info"], event_labels=terms["event_labels"],
-        spec=replace(inp.spec, trend_origin=origin), roles=dict(roles))
+    terms = {k: v for k, v in calendar_terms(calendar).items() if k != "exclusions"}
+    info = GroupInfo(transform=template.transform, status=status, fitted_cols=fitted_cols,
+                     base_columns=all_base, like_map=dict(inp.like_map), assumed=dict(inp.assumed), **terms,
+                     spec=replace(inp.spec, trend_origin=origin), roles=dict(roles))
     fit_X = X.loc[rows, fitted_cols]
     if template.transform == "none":
         fit_X = additive_design(X[fitted_cols], inp).loc[rows]

@@ -20,13 +20,14 @@ import pandas as pd
 from evcal.effects import SpanContext
 from evcal.effects.columns import join_tables
 from evcal.engine.batched import SharedSolve
-from evcal.engine.groups import Group, Template, batched_route, distinct_spans, group_info, pattern_ids
+from evcal.engine.groups import Group, Template, distinct_spans, group_info, pattern_ids
 from evcal.engine.memory import release_freed_memory
 from evcal.engine.screen import Screen, screen_series
 from evcal.engine.units import BatchShared, BatchUnit, LoopUnit, UnitResult, concat_tables, run_unit
 from evcal.io.panel import Panel
 from evcal.model.inputs import ModelInputs, calendar_text, load_calendar_any
 from evcal.model.options import FitOptions
+from evcal.model.passes import ols_by_rule
 
 __all__ = ["PanelFit", "fit_long_panel", "BLOCK_SERIES", "LOOP_SERIES"]
 
@@ -89,7 +90,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
         screen = Screen(np.array([single.transform], dtype=object), np.array([""], dtype=object),
                         np.array([""], dtype=object))
     batched = (screen.transform != "") & np.isin(screen.transform, ["log", "none"]) \
-        & batched_route(options, panel.n_series, len(panel.periods))
+        & ols_by_rule(options, panel.n_series, len(panel.periods))
     loop = (screen.transform != "") & ~batched
     keep = single is not None
 

@@ -50,7 +50,7 @@ def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str,
             return est, {"chosen": est.method, "reason": "asked for (--errors arima); " + est.cov_note,
                          "candidates": [{"name": est.method, "criterion": "aic", "value": est.aic}]}
         ols = fit_ols(y, X, offset)
-        if options.errors == "ols" or len(inp.periods) > LONG_SERIES:
+        if ols_by_rule(options, 1, len(inp.periods)):
             return ols, ols_choice(ols.aic, ols.cov_note, options, len(inp.periods))
         cands: list[Estimate] = [ols]
         for order in ((1, 0, 0), (1, 0, 1)):
@@ -63,6 +63,17 @@ def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str,
         reason = (f"lowest AIC among {', '.join(e.method for e in cands)} (same response, "
                   f"comparable Gaussian likelihoods); {best.cov_note}")
         return best, {"chosen": best.method, "reason": reason, "candidates": table}
+
+
+def ols_by_rule(options: FitOptions, n_series: int, n_periods: int) -> bool:
+    """Whether the error model is OLS + HAC with no choice among error models (then solved in blocks).
+
+    ``--errors ols`` asks for it. ``--errors auto`` chooses by AIC among OLS and
+    ARIMA(1,0,0)/(1,0,1) errors, except for a panel (a state-space fit per series)
+    and for a series longer than :data:`LONG_SERIES` periods. ARIMA errors and
+    count models are fitted one series at a time.
+    """
+    return options.errors == "ols" or (options.errors == "auto" and (n_series > 1 or n_periods > LONG_SERIES))
 
 
 def ols_choice(aic: float, cov_note: str, options: FitOptions, n_periods: int) -> dict[str, Any]:

@@ -53,23 +53,12 @@ def bartlett_weights(lags: int) -> np.ndarray:
 
 
 def hac_covariances(Z: np.ndarray, E: np.ndarray, lags: int, block: int = BLOCK) -> np.ndarray:
-    """Newey–West sandwich covariances for many residual columns at once.
+    """Newey–West sandwich covariances ``Zᵀ Ωₛ Z`` (m, j, j) for many residual columns at once.
 
-    Parameters
-    ----------
-    Z : ndarray, shape (n, j)
-        ``X (XᵀX)⁻¹`` restricted to the coefficients wanted.
-    E : ndarray, shape (n, m)
-        Residuals of m series on the same n rows (consecutive periods).
-    lags : int
-        Highest lag L of the Bartlett window.
-
-    Returns
-    -------
-    ndarray, shape (m, j, j)
-        ``Zᵀ Ωₛ Z`` for each series s, equal to statsmodels'
-        ``OLS(y, X).fit(cov_type="HAC", cov_kwds={"maxlags": L}).cov_params()``
-        restricted to those rows and columns.
+    ``Z`` (n, j) is ``X (XᵀX)⁻¹`` for the coefficients wanted, ``E`` (n, m) the
+    residuals of m series on the same consecutive rows, ``lags`` the Bartlett
+    window: statsmodels' ``OLS(y, X).fit(cov_type="HAC", cov_kwds={"maxlags": lags})``
+    ``.cov_params()`` on those rows and columns.
     """
     n, j = Z.shape
     m = E.shape[1]

@@ -280,10 +280,8 @@ _PERIOD_WORDS = {"D": ("daily", "a longer history"), "W": ("weekly", "daily data
 def degenerate_note(seen: str, share: float, freq_base: str, kind: str, nil: bool = False) -> str:
     """The note of a flagged column: why it cannot be estimated and what to do.
 
-    ``seen`` is from :func:`degenerate_terms`, ``share`` from
-    :func:`seasonal_share`, ``freq_base`` one of D, W, M, Q, ``kind`` "event"
-    or "intervention"; ``nil`` (the fit pushed the lift towards -100 %) adds the
-    advice to mark a closure as one.
+    ``seen`` is from :func:`degenerate_terms`, ``share`` from :func:`seasonal_share`;
+    ``nil`` (the lift went towards -100 %) adds the advice to mark a closure as one.
 
     Examples
     --------

@@ -222,16 +222,11 @@ def min_periods(freq: str) -> int:
 
 
 def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
-    """Stop with one line when exclusions and closures leave fewer periods than the fit needs.
+    """Stop with one line (:class:`CalendarError` or :class:`HistoryError`) when too few periods are left.
 
-    The fit needs two seasonal cycles (the rule of :func:`check_history_length`)
-    and more periods than terms. The line names the calendar's exclusions (file,
-    line, dates, reason) and closures, and the count of periods left and needed.
-
-    Raises
-    ------
-    CalendarError
-        The calendar's exclusions or closures leave too few periods.
+    The fit needs two seasonal cycles and more periods than terms; the line names
+    the calendar's exclusions (file, line, dates, reason) and closures that took
+    periods away, and the count of periods left and needed.
     """
     n = int(inp.rows.sum())
     p = cycle_length(history.freq)
@@ -323,11 +318,7 @@ def average_share_profile(values: pd.Series, closed: Any = None) -> pd.Series:
 
 
 def calendar_terms(calendar: Any) -> dict[str, Any]:
-    """What a fitted model says of its calendar: each term's names, closures, interventions, exclusions.
-
-    The fields of the same names of :class:`~evcal.model.FitResult` (and of a
-    panel series' report), built in one place.
-    """
+    """The :class:`~evcal.model.FitResult` fields of the same names: what a model says of its calendar."""
     return {
         "event_info": term_info(calendar),
         "event_labels": {e.name: e.label for e in calendar.events},
@@ -342,11 +333,9 @@ def calendar_terms(calendar: Any) -> dict[str, Any]:
 def additive_design(X: pd.DataFrame, inp: ModelInputs) -> pd.DataFrame:
     """The additive model's regressors: base columns carry the assumed lifts, rows scaled by the open share.
 
-    An assumed lift is a share of the base (as the plan applies it,
-    :mod:`evcal.effects.decompose`), so the base columns carry
-    ``1 + Σ lift × column`` in each period; the periods stay in the fit
-    (leaving them out could leave none at all). The open share then scales the
-    whole period (the response is scaled alike by the caller).
+    An assumed lift is a share of the base (as the plan applies it), so the base
+    columns carry ``1 + Σ lift × column`` and the periods stay in the fit (leaving
+    them out could leave none at all). The caller scales the response alike.
     """
     roles = inp.design.roles
     if inp.assumed:

@@ -10,6 +10,7 @@ design: :mod:`evcal.engine.groups`.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -73,12 +74,10 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
     single-series API): that series needs no screen, its inputs are the
     shared ones, and its units keep the whole fitted model.
     """
-    templates: dict[str, Template] = {}
 
+    @functools.cache
     def template(tr: str) -> Template:
-        if tr not in templates:
-            templates[tr] = Template.build(panel, calendar, options, tr, single)
-        return templates[tr]
+        return Template.build(panel, calendar, options, tr, single)
 
     if single is None:
         from evcal.design.events import OpenShare
@@ -87,10 +86,9 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
         screen = screen_series(panel.values, panel.periods, panel.freq, options.transform,
                                options.allow_negative, closed_full)
     else:
-        screen = Screen(np.array([single.transform], dtype=object), np.array([""], dtype=object),
-                        np.array([""], dtype=object))
-    batched = (screen.transform != "") & np.isin(screen.transform, ["log", "none"]) \
-        & ols_by_rule(options, panel.n_series, len(panel.periods))
+        screen = Screen(*(np.array([text], dtype=object) for text in (single.transform, "", "")))
+    batched = np.isin(screen.transform, ["log", "none"]) & ols_by_rule(options, panel.n_series,
+                                                                       len(panel.periods))
     loop = (screen.transform != "") & ~batched
     keep = single is not None
 

@@ -36,20 +36,17 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
     panel keeps as they are.
     """
     inp, est, choice = estimate_exact(history, calendar, options, inp)
-    rows = inp.rows
-    if inp.transform != "none" and est.error_model.get("kind") != "arima":
-        smear = float(np.nanmean(np.exp(est.resid[rows]))) if inp.transform == "log" else 1.0
-    elif inp.transform == "log":
-        smear = float(np.exp(est.sigma2 / 2.0))
-    else:
-        smear = 1.0
+    smear = 1.0
+    if inp.transform == "log":  # the mean of exp(residuals), or the normal factor for ARIMA innovations
+        arima = est.error_model.get("kind") == "arima"
+        smear = float(np.exp(est.sigma2 / 2.0)) if arima else float(np.nanmean(np.exp(est.resid[inp.rows])))
     result = new_result(history, calendar, options, inp, params=est.params, cov=est.cov, sigma2=est.sigma2,
                         smear=smear, error_model=est.error_model,
                         model_choice={**choice, "covariance": est.cov_note, "transform": inp.transform})
     group = GroupInfo.of_result(result)
     ctx = SpanContext.build(inp.raw_X, inp.design.open_share.to_numpy(dtype=float), calendar, inp.periods,
-                            history.dates(inp.periods), rows, result.status)
-    params = result.params.reindex(group.fitted_cols).to_numpy(dtype=float)[:, None]
+                            history.dates(inp.periods), inp.rows, result.status)
+    params = result.params.to_numpy(dtype=float)[:, None]  # in group.fitted_cols' order
     term_cov = result.cov.reindex(index=group.term_cols, columns=group.term_cols).to_numpy(dtype=float)
     se = np.sqrt(np.clip(np.diag(term_cov), 0, None))[:, None]
     actual = inp.actual.to_numpy(dtype=float)[None, :]

@@ -103,7 +103,7 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
     >>> import numpy as np, pandas as pd
     >>> X = pd.DataFrame({"const": np.ones(50), "x": np.arange(50.0)})
     >>> y = pd.Series(1.0 + 0.5 * X["x"] + np.sin(np.arange(50)))
-    >>> round(fit_ols(y, X, pd.Series(np.zeros(50))).params["x"], 2)
+    >>> round(float(fit_ols(y, X, pd.Series(np.zeros(50))).params["x"]), 2)
     0.5
     """
     rows = y.notna().to_numpy()

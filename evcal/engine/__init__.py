@@ -10,16 +10,12 @@ Examples
 
 from __future__ import annotations
 
-from dataclasses import replace
 from typing import Any
 
 from evcal.engine.run import PanelFit, fit_long_panel
-from evcal.engine.series import adopt_tables, new_result
-from evcal.engine.units import BlockModel
-from evcal.model.estimators import hac_note
-from evcal.model.inputs import ModelInputs, check_fit_rows, check_history_length, load_calendar_any, prepare
+from evcal.engine.series import block_result
+from evcal.model.inputs import check_fit_rows, check_history_length, load_calendar_any, prepare
 from evcal.model.options import FitOptions
-from evcal.model.passes import ols_choice
 from evcal.model.result import FitResult
 
 __all__ = ["fit", "fit_long_panel", "PanelFit"]
@@ -62,20 +58,4 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
     check_fit_rows(inp, cal, hist)
     block = fit_long_panel(Panel.of_history(hist), cal, opts, single=inp)
     model = block.models[0]
-    if isinstance(model, FitResult):
-        return model
-    return _from_block(hist, cal, opts, inp, model)
-
-
-def _from_block(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, model: BlockModel
-                ) -> FitResult:
-    """The :class:`FitResult` of a series solved in a block of one."""
-    note = hac_note(model.lags)
-    choice = {**ols_choice(model.aic, note, options, len(inp.periods)), "covariance": note,
-              "transform": inp.transform}
-    spec = replace(model.group.info.spec, event_theta=model.theta)
-    result = new_result(history, calendar, options, inp, params=model.params, cov=model.cov,
-                        sigma2=model.sigma2, smear=model.smear, error_model={"kind": "iid"},
-                        model_choice=choice, spec=spec, status=model.group.info.status)
-    adopt_tables(result, model.tables, inp)
-    return result
+    return model if isinstance(model, FitResult) else block_result(hist, cal, opts, inp, model)

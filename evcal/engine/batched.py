@@ -27,7 +27,6 @@ from evcal.model.estimators import hac_covariances, newey_west_lags
 __all__ = ["SharedSolve"]
 
 
-
 @dataclass
 class SharedSolve:
     """The factorised design shared by a block of series.
@@ -63,27 +62,16 @@ class SharedSolve:
         Z = Q @ Rinv.T
         return cls(X=X, Q=Q, R=R, Z=Z, lags=newey_west_lags(X.shape[0]))
 
-    @property
-    def n(self) -> int:
-        return int(self.X.shape[0])
-
-    @property
-    def k(self) -> int:
-        return int(self.X.shape[1])
-
     def coefficients(self, Y: np.ndarray) -> np.ndarray:
-        """Coefficients (k, m) only: ``(XᵀX)⁻¹XᵀY = R⁻¹QᵀY = ZᵀY``, one product for all series.
-
-        ``R⁻¹`` is formed once per design (triangular, from the QR factors), so
-        each block costs a matrix product instead of a solve.
-        """
+        """Coefficients (k, m) only: ``(XᵀX)⁻¹XᵀY = ZᵀY``, a product (``R⁻¹`` is formed once per design)."""
         return self.Z.T @ Y
 
     def solve(self, Y: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Coefficients (k, m), residuals (n, m) and residual variances ``ssr / (n - k)`` (m,)."""
         B = self.coefficients(Y)
         E = Y - self.X @ B
-        sigma2 = np.einsum("ij,ij->j", E, E) / max(self.n - self.k, 1)
+        n, k = self.X.shape
+        sigma2 = np.einsum("ij,ij->j", E, E) / max(n - k, 1)
         return B, E, sigma2
 
     def covariances(self, E: np.ndarray, cols: np.ndarray | None = None) -> np.ndarray:

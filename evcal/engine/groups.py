@@ -17,7 +17,6 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.base import period_mid_years
-from evcal.design.seasonal import base_freq
 from evcal.design.trend import Trend
 from evcal.effects import GroupInfo
 from evcal.engine.batched import SharedSolve
@@ -26,24 +25,9 @@ from evcal.io.panel import Panel
 from evcal.model.identify import check_columns, independent_base_columns, status_notes
 from evcal.model.inputs import additive_design, calendar_terms, prepare
 from evcal.model.options import FitOptions
-from evcal.model.passes import LONG_SERIES
+from evcal.model.passes import exact_passes
 
-__all__ = ["Template", "Group", "group_info", "distinct_spans", "pattern_ids", "batched_route"]
-
-
-def batched_route(options: FitOptions, n_series: int, n_periods: int) -> bool:
-    """Whether series with a log or additive model are solved in blocks (OLS + HAC) or one by one.
-
-    ``--errors ols`` is always solved in blocks. ``--errors auto`` chooses the
-    error model by AIC among OLS and ARIMA(1,0,0)/(1,0,1) errors series by
-    series (:func:`evcal.model.passes.estimate`), except for a panel (one
-    choice per series would cost a state-space fit each) and for a series
-    longer than :data:`~evcal.model.passes.LONG_SERIES` periods, which keep
-    OLS with HAC intervals. ARIMA errors and count models are per series.
-    """
-    if options.errors == "ols":
-        return True
-    return options.errors == "auto" and (n_series > 1 or n_periods > LONG_SERIES)
+__all__ = ["Template", "Group", "group_info", "distinct_spans", "pattern_ids"]
 
 
 @dataclass
@@ -56,10 +40,8 @@ class Template:
 
     transform: str
     inp: Any  # ModelInputs
-    raw: pd.DataFrame  # unmerged design (like-events apart), for the tables
-    mid_years: np.ndarray
-    calendar: Any = None
-    periods: Any = None
+    calendar: Any
+    periods: pd.PeriodIndex
     identified: bool = False  # inp's statuses were checked on its own rows (a panel of one's inputs)
     _curve: Any = None
 
@@ -67,36 +49,27 @@ class Template:
     def build(cls, panel: Panel, calendar: Any, options: FitOptions, transform: str,
               inputs: Any = None) -> Template:
         """The shared inputs of ``panel``'s series with ``transform`` (``inputs``: a panel of one's own)."""
-        if inputs is not None:
-            inp = inputs
-        else:
+        inp = inputs
+        if inp is None:
             placeholder = History(pd.Series(1.0, index=panel.periods, name="value"), panel.freq, panel.label,
                                   panel.source, [])
             # each design group is checked on its own rows (group_info): not the placeholder's
             inp = prepare(placeholder, calendar, replace(options, transform=transform), identify=False)
-        raw = inp.raw_X
-        return cls(transform, inp, raw, period_mid_years(panel.periods), calendar, panel.periods,
-                   identified=inputs is not None)
+        return cls(transform, inp, calendar, panel.periods, identified=inputs is not None)
 
     def curve(self) -> Any:
-        """Event columns as functions of θ, when the single-series fit aggregates lifts exactly.
-
-        :func:`evcal.model.passes.estimate_exact` refits weekly, monthly and quarterly
-        log-link models with each event column built from the series' own lift;
-        additive models and daily data keep the linear columns.
-        """
-        if self.transform == "none" or base_freq(self.inp.spec.freq) == "D":
+        """Event columns as functions of θ, when the fit aggregates lifts exactly (:func:`exact_passes`)."""
+        if not exact_passes(self.transform, self.inp.spec.freq):
             return None
         if self._curve is None:
             from evcal.design.curved import CurvedEvents
 
-            spec = self.inp.spec
-            self._curve = CurvedEvents(self.calendar, list(spec.event_columns), self.periods)
+            self._curve = CurvedEvents(self.calendar, list(self.inp.spec.event_columns), self.periods)
         return self._curve
 
     def origins(self, first: np.ndarray) -> np.ndarray:
         """Trend origins of series whose histories start at periods ``first`` (as prepare sets them)."""
-        return np.floor(self.mid_years[np.asarray(first, dtype=int)]).astype(float)
+        return np.floor(period_mid_years(self.periods)[np.asarray(first, dtype=int)]).astype(float)
 
     def with_origin(self, frame: pd.DataFrame, origin: float) -> pd.DataFrame:
         spec = self.inp.spec
@@ -144,20 +117,17 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
         base_cols = independent_base_columns(X, rows, all_base)
         fixed = {c: st for c, st in inp.status.items() if st.status in ("assumed", "like")}
         candidates = [c for c in inp.status if c not in fixed]
-        status = check_columns(X, rows, base_cols, candidates, {c: roles[c] for c in X.columns})
+        status = check_columns(X, rows, base_cols, candidates, roles)
         status.update(fixed)
         fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
-    terms = calendar_terms(calendar)
-    info = GroupInfo(
-        transform=template.transform, status=status, fitted_cols=fitted_cols, base_columns=all_base,
-        like_map=dict(inp.like_map), assumed=dict(inp.assumed),
-        intervention_names=terms["intervention_names"], closure_events=terms["closure_events"],
-        event_info=terms["event_info"], event_labels=terms["event_labels"],
-        spec=replace(inp.spec, trend_origin=origin), roles=dict(roles))
+    terms = {k: v for k, v in calendar_terms(calendar).items() if k != "exclusions"}
+    info = GroupInfo(transform=template.transform, status=status, fitted_cols=fitted_cols,
+                     base_columns=all_base, like_map=dict(inp.like_map), assumed=dict(inp.assumed), **terms,
+                     spec=replace(inp.spec, trend_origin=origin), roles=dict(roles))
     fit_X = X.loc[rows, fitted_cols]
     if template.transform == "none":
         fit_X = additive_design(X[fitted_cols], inp).loc[rows]
-    return info, rows, fit_X.to_numpy(dtype=float), list(inp.notes) + status_notes(status)
+    return info, rows, fit_X.to_numpy(dtype=float), status_notes(status)
 
 
 def distinct_spans(spans: np.ndarray, n_periods: int) -> list[tuple[int, int]]:

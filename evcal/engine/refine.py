@@ -1,19 +1,11 @@
-"""Event columns that aggregate each series' own daily lift exactly, for many series at once.
+"""The exact-aggregation passes of :func:`evcal.model.passes.estimate_exact` for a block of OLS series.
 
-For weekly, monthly and quarterly data the single-series fit builds an event
-column from the fitted log-lift θ of that series (:mod:`evcal.design.events`):
-the period's column is ``log(1 + mean over its open days of (exp(θ w_d) − 1)) / θ``
-for day intensities ``w_d``, and the fit is repeated until θ settles. The
-columns then differ from series to series, but only through θ: a period's
-column depends on the *distinct* day intensities in it and how many open days
-carry each. :class:`CurvedEvents` keeps those counts, so the columns of a
-thousand series are one small matrix product per event.
-
-:func:`refine` then runs the fit's fixed-point passes for a block of series:
-the shared trend and seasonal columns are projected out once
-(Frisch–Waugh–Lovell), and each series solves only its few event and
-intervention columns. The HAC covariance of those coefficients comes from the
-same projected columns (their rows of ``(XᵀX)⁻¹Xᵀ`` are ``(X̃ᵀX̃)⁻¹X̃ᵀ``).
+The event columns of a series depend on it only through its log-lifts θ
+(:class:`~evcal.design.curved.CurvedEvents`), so each pass projects the
+shared trend and seasonal columns out once (Frisch–Waugh–Lovell) and every
+series solves only its few event and intervention columns. The HAC
+covariance of those coefficients comes from the same projected columns
+(their rows of ``(XᵀX)⁻¹Xᵀ`` are ``(X̃ᵀX̃)⁻¹X̃ᵀ``).
 """
 
 from __future__ import annotations
@@ -24,10 +16,10 @@ from typing import Any
 import numpy as np
 
 from evcal.design.curved import CurvedEvents
-from evcal.model.estimators import bartlett_weights
-from evcal.model.passes import MAX_PASSES, THETA_TOL  # the per-series passes' stopping rule
+from evcal.model.estimators import hac_meat
+from evcal.model.passes import MAX_PASSES, THETA_TOL, theta_moved, theta_sources
 
-__all__ = ["curved_columns", "design_with_theta", "refine"]
+__all__ = ["refine"]
 
 
 def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
@@ -62,49 +54,6 @@ def spd_solve(G: np.ndarray, B: np.ndarray) -> np.ndarray:
     return X
 
 
-def _theta_sources(group: Any) -> dict[str, str]:
-    """Event column -> fitted column whose coefficient is its θ (fitted, borrowed, duplicate)."""
-    src: dict[str, str] = {}
-    for col, st in group.status.items():
-        if group.roles.get(col) != "event":
-            continue
-        if st.status == "fitted":
-            src[col] = col
-        elif st.status == "like" and group.like_map.get(col) in group.fitted_cols:
-            src[col] = group.like_map[col]
-        elif st.status == "duplicate" and getattr(st, "twin", "") in group.fitted_cols:
-            src[col] = st.twin
-    return src
-
-
-def curved_columns(curve: CurvedEvents, group: Any, theta: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
-    """Each series' raw (unmerged) event columns for its θ: {column: (m, n)}."""
-    return {col: curve.column(col, theta[src]) for col, src in _theta_sources(group).items() if src in theta}
-
-
-def design_with_theta(curve: CurvedEvents, group: Any, rows: np.ndarray, X_fit: np.ndarray,
-                      theta: dict[str, np.ndarray]) -> tuple[np.ndarray, dict[str, float]]:
-    """One series' final design on the fit rows, and the θ of every event column it was built with.
-
-    The event columns of ``X_fit`` (the first pass's, linear) are replaced by
-    the curved columns for the series' θ (``theta``: source column -> (1,)),
-    with borrowed (``like``) columns added into their target, as the fit's
-    last pass built them; assumed lifts aggregate with their own lift.
-    """
-    X = X_fit.copy()
-    idx = {c: i for i, c in enumerate(group.fitted_cols)}
-    cols = curved_columns(curve, group, theta)
-    for c, v in cols.items():  # fitted columns first: a borrowed column adds onto its target
-        if group.status[c].status == "fitted" and c in idx:
-            X[:, idx[c]] = v[0, rows]
-    for c, v in cols.items():
-        if group.status[c].status == "like" and group.like_map.get(c) in idx:
-            X[:, idx[group.like_map[c]]] += v[0, rows]
-    used = {c: float(theta[src][0]) for c, src in _theta_sources(group).items() if src in theta}
-    used.update({c: float(np.log1p(a)) for c, a in group.assumed.items()})
-    return X, used
-
-
 @dataclass
 class Refined:
     """A block after the fixed-point passes."""
@@ -114,7 +63,7 @@ class Refined:
     sigma2: np.ndarray  # (m,)
     se_terms: np.ndarray  # (len(term_cols), m)
     theta_in: dict[str, np.ndarray]  # θ the final design was built with, per source column
-    passes: np.ndarray  # (m,)
+    curved: dict[str, np.ndarray]  # each series' raw (unmerged) event columns for that θ: (m, n_periods)
 
 
 def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, idx: dict[str, int],
@@ -146,31 +95,15 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
 
     Each pass solves, for every series still moving, the event and intervention
     coefficients after the shared trend and seasonal columns are projected out
-    (Frisch–Waugh–Lovell, with ``X̃ᵀX̃ = XᵀX − PᵀP`` and ``P = QᵀX`` for the
-    orthonormal basis ``Q`` of the shared columns). An event column is zero
-    outside its windows whatever θ is, so ``P`` needs only the few rows the
-    windows touch. A series stops when its θ moves less than :data:`THETA_TOL`
-    (as the single-series fit does), so every series gets the passes it would
-    get alone.
+    (``X̃ᵀX̃ = XᵀX − PᵀP``, ``P = QᵀX`` for the orthonormal basis ``Q`` of the
+    shared columns); an event column is zero outside its windows whatever θ is,
+    so ``P`` needs only the rows the windows touch. Each series stops by the
+    single-series rule, so it gets the passes it would get alone.
 
-    Parameters
-    ----------
-    group : GroupInfo
-        With ``roles`` (column -> role).
-    curve : CurvedEvents
-        On the panel's periods.
-    rows : bool array
-        Fit rows on the panel's periods.
-    X_fit : ndarray (n_rows, k)
-        The first-pass design on the fit rows (group.fitted_cols).
-    Y : ndarray (n_rows, m)
-        Model-scale responses (offset taken off).
-    B0 : ndarray (k, m)
-        First-pass coefficients.
-    cache : dict, optional
-        Kept by the caller for the blocks of one design group: what depends on
-        the group alone (the basis of its shared columns, the rows the event
-        windows touch) is computed once and kept there.
+    ``X_fit`` (n_rows, k) is the first-pass design on the fit ``rows``, ``Y``
+    (n_rows, m) the model-scale responses (offset taken off), ``B0`` (k, m) the
+    first-pass coefficients; ``cache`` keeps what depends on the design group
+    alone for its other blocks.
     """
     cols = list(group.fitted_cols)
     idx = {c: i for i, c in enumerate(cols)}
@@ -246,7 +179,6 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
     theta_in = {c: np.zeros(m) for c in curved_cols}
     active = np.ones(m, dtype=bool)
-    passes = np.ones(m, dtype=int)
     for _ in range(MAX_PASSES):
         sel = np.flatnonzero(active)
         if not len(sel):
@@ -257,10 +189,9 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         for c in curved_cols:
             theta_in[c][sel] = theta[c][sel]
         new = {c: params[idx[c], sel] for c in curved_cols}
-        moved = np.max(np.abs(np.vstack([new[c] - theta[c][sel] for c in curved_cols])), axis=0)
+        moved = theta_moved(new, {c: theta[c][sel] for c in curved_cols})
         for c in curved_cols:
             theta[c][sel] = new[c]
-        passes[sel] += 1
         active[sel[moved < THETA_TOL]] = False
 
     # the final designs: residuals and the HAC covariance of the term coefficients
@@ -288,21 +219,11 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
     Ginv = spd_solve(G, np.broadcast_to(np.eye(n_t), G.shape).copy())
-    # Σₜ Vxᵢ,ₜ (½Vxⱼ,ₜ + Σₗ wₗ Vxⱼ,ₜ₋ₗ), one term j at a time (two (n, m) buffers in all)
-    w = bartlett_weights(lags)
-    meat = np.empty((m, n_t, n_t))
-    W = np.empty((n, m))
-    lagged = np.empty((n, m))
-    for j in range(n_t):
-        np.multiply(Vx[j], 0.5, out=W)
-        for lag in range(1, min(lags, n - 1) + 1):
-            np.multiply(Vx[j, :-lag], w[lag], out=lagged[lag:])
-            W[lag:] += lagged[lag:]
-        for i in range(n_t):
-            meat[:, i, j] = np.einsum("nm,nm->m", Vx[i], W)
-    del Vx, W, lagged
-    meat += meat.transpose(0, 2, 1)
+    meat = hac_meat(Vx.transpose(2, 1, 0), lags)
+    del Vx
     cov = Ginv @ meat @ Ginv
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
     order = [term.index(c) for c in group.term_cols]
-    return Refined(params, resid, sigma2, se[order], theta_in, passes)
+    sources = theta_sources(group.status, group.roles, group.like_map, cols)
+    curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
+    return Refined(params, resid, sigma2, se[order], theta_in, curved)

@@ -4,18 +4,13 @@ The work is cut into *units* that depend only on their inputs: a block of at
 most :data:`BLOCK_SERIES` series of one design group (batched OLS), or a few
 series for the per-series path (ARIMA errors, count models). The same units
 run in this process or on a Dask cluster (:mod:`evcal.panel.distributed`),
-so the results do not depend on where they ran.
-
-Grouping. Series share a design when they have the same transform, the same
-trend origin (the year their history starts) and the same *fit-row pattern*
-(which periods have a value; exclusions and closures are shared through the
-calendar). Each group gets its own identifiability check, exactly as a single
-series would (:func:`evcal.model.identify.check_columns` on its rows), and one
-QR factorisation.
+so the results do not depend on where they ran. Which series share a
+design: :mod:`evcal.engine.groups`.
 """
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -26,13 +21,14 @@ import pandas as pd
 from evcal.effects import SpanContext
 from evcal.effects.columns import join_tables
 from evcal.engine.batched import SharedSolve
-from evcal.engine.groups import Group, Template, batched_route, distinct_spans, group_info, pattern_ids
+from evcal.engine.groups import Group, Template, distinct_spans, group_info, pattern_ids
 from evcal.engine.memory import release_freed_memory
 from evcal.engine.screen import Screen, screen_series
 from evcal.engine.units import BatchShared, BatchUnit, LoopUnit, UnitResult, concat_tables, run_unit
 from evcal.io.panel import Panel
 from evcal.model.inputs import ModelInputs, calendar_text, load_calendar_any
 from evcal.model.options import FitOptions
+from evcal.model.passes import ols_by_rule
 
 __all__ = ["PanelFit", "fit_long_panel", "BLOCK_SERIES", "LOOP_SERIES"]
 
@@ -78,12 +74,10 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
     single-series API): that series needs no screen, its inputs are the
     shared ones, and its units keep the whole fitted model.
     """
-    templates: dict[str, Template] = {}
 
+    @functools.cache
     def template(tr: str) -> Template:
-        if tr not in templates:
-            templates[tr] = Template.build(panel, calendar, options, tr, single)
-        return templates[tr]
+        return Template.build(panel, calendar, options, tr, single)
 
     if single is None:
         from evcal.design.events import OpenShare
@@ -92,10 +86,9 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
         screen = screen_series(panel.values, panel.periods, panel.freq, options.transform,
                                options.allow_negative, closed_full)
     else:
-        screen = Screen(np.array([single.transform], dtype=object), np.array([""], dtype=object),
-                        np.array([""], dtype=object))
-    batched = (screen.transform != "") & np.isin(screen.transform, ["log", "none"]) \
-        & batched_route(options, panel.n_series, len(panel.periods))
+        screen = Screen(*(np.array([text], dtype=object) for text in (single.transform, "", "")))
+    batched = np.isin(screen.transform, ["log", "none"]) & ols_by_rule(options, panel.n_series,
+                                                                       len(panel.periods))
     loop = (screen.transform != "") & ~batched
     keep = single is not None
 
@@ -125,7 +118,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
                       offset=tpl.inp.offset.to_numpy()[rows],
                       share=tpl.inp.design.open_share.to_numpy()[rows], curve=tpl.curve())
             groups.append(g)
-            raw = tpl.with_origin(tpl.raw, origin)
+            raw = tpl.with_origin(tpl.inp.raw_X, origin)
             share_all = tpl.inp.design.open_share.to_numpy()
             spans = np.column_stack([panel.first[members], panel.last[members]])
             contexts: dict[tuple[int, int], SpanContext] = {}

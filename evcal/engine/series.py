@@ -9,6 +9,7 @@ from the one table builder (:func:`evcal.effects.block_tables`).
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -16,13 +17,14 @@ import pandas as pd
 
 from evcal.design.seasonal import cycle_length
 from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
+from evcal.model.estimators import hac_note
 from evcal.model.identify import status_notes
 from evcal.model.inputs import ModelInputs, average_share_profile, calendar_terms, calendar_text
 from evcal.model.options import FitOptions
-from evcal.model.passes import estimate_exact
+from evcal.model.passes import estimate_exact, ols_choice
 from evcal.model.result import FitResult
 
-__all__ = ["fit_series", "new_result", "adopt_tables"]
+__all__ = ["fit_series", "block_result"]
 
 
 def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None,
@@ -34,26 +36,36 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
     panel keeps as they are.
     """
     inp, est, choice = estimate_exact(history, calendar, options, inp)
-    rows = inp.rows
-    if inp.transform != "none" and est.error_model.get("kind") != "arima":
-        smear = float(np.nanmean(np.exp(est.resid[rows]))) if inp.transform == "log" else 1.0
-    elif inp.transform == "log":
-        smear = float(np.exp(est.sigma2 / 2.0))
-    else:
-        smear = 1.0
+    smear = 1.0
+    if inp.transform == "log":  # the mean of exp(residuals), or the normal factor for ARIMA innovations
+        arima = est.error_model.get("kind") == "arima"
+        smear = float(np.exp(est.sigma2 / 2.0)) if arima else float(np.nanmean(np.exp(est.resid[inp.rows])))
     result = new_result(history, calendar, options, inp, params=est.params, cov=est.cov, sigma2=est.sigma2,
                         smear=smear, error_model=est.error_model,
                         model_choice={**choice, "covariance": est.cov_note, "transform": inp.transform})
     group = GroupInfo.of_result(result)
     ctx = SpanContext.build(inp.raw_X, inp.design.open_share.to_numpy(dtype=float), calendar, inp.periods,
-                            history.dates(inp.periods), rows, result.status)
-    params = result.params.reindex(group.fitted_cols).to_numpy(dtype=float)[:, None]
+                            history.dates(inp.periods), inp.rows, result.status)
+    params = result.params.to_numpy(dtype=float)[:, None]  # in group.fitted_cols' order
     term_cov = result.cov.reindex(index=group.term_cols, columns=group.term_cols).to_numpy(dtype=float)
     se = np.sqrt(np.clip(np.diag(term_cov), 0, None))[:, None]
     actual = inp.actual.to_numpy(dtype=float)[None, :]
     tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]))
     adopt_tables(result, tables, inp)
     return result, tables
+
+
+def block_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, model: Any) -> FitResult:
+    """The :class:`FitResult` of a series solved in a block of one (``model``: its ``BlockModel``)."""
+    note = hac_note(model.lags)
+    choice = {**ols_choice(model.aic, note, options, len(inp.periods)), "covariance": note,
+              "transform": inp.transform}
+    result = new_result(history, calendar, options, inp, params=model.params, cov=model.cov,
+                        sigma2=model.sigma2, smear=model.smear, error_model={"kind": "iid"},
+                        model_choice=choice, spec=replace(model.group.info.spec, event_theta=model.theta),
+                        status=model.group.info.status)
+    adopt_tables(result, model.tables, inp)
+    return result
 
 
 def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, *, params: pd.Series,
@@ -88,9 +100,7 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         average_share={int(k): float(v) for k, v in average_share_profile(
             history.values.where(inp.rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
         mean_base=0.0,
-        warnings=list(inp.notes),
         **calendar_terms(calendar),
-        _open_share=inp.design.open_share.to_numpy(),
         _calendar=calendar,
     )
 

@@ -7,14 +7,14 @@ on a Dask cluster (:mod:`evcal.panel.distributed`) with the same results.
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass, field, fields, replace
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from evcal.effects import LIFT_COLUMNS, OCC_COLUMNS, BlockTables, SpanContext, block_tables
-from evcal.effects.columns import Columns, join_columns, join_tables, text_dtype
+from evcal.effects.columns import Columns, join_columns, join_tables, tiled_text
 from evcal.engine.batched import SharedSolve
 from evcal.engine.groups import Group
 from evcal.engine.series import fit_series
@@ -22,6 +22,7 @@ from evcal.io.history import History
 from evcal.model.identify import breakdown
 from evcal.model.inputs import load_calendar_any
 from evcal.model.options import FitOptions
+from evcal.model.passes import theta_sources
 
 __all__ = ["BatchShared", "BatchUnit", "LoopUnit", "UnitResult", "BlockModel", "run_unit", "concat_tables",
            "EMPTY_TABLES"]
@@ -112,8 +113,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         # the single-series path divides by the open share, then scales rows by it
         share = g.share[:, None]
         Y = (y / share) * np.where(share > 0, share, 1.0)
-    refined = None
-    first = None
+    refined = first = None
     if g.curve is not None:
         from evcal.engine.refine import refine
 
@@ -131,11 +131,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         else:
             se = np.zeros((0, len(unit.sids)))
     smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
-    curved_all: dict[str, np.ndarray] = {}
-    if refined is not None:
-        from evcal.engine.refine import curved_columns
-
-        curved_all = curved_columns(g.curve, g.info, refined.theta_in)
+    curved_all = refined.curved if refined is not None else {}
     # a series whose fit breaks down (a lift past any real event's, or an interval that does not
     # say even its order of magnitude) is fitted again on its own, where the degenerate-fit rule
     # leaves the broken columns out (evcal.model.passes.estimate_exact)
@@ -153,18 +149,14 @@ def run_batch(unit: BatchUnit) -> UnitResult:
                    if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
                                   unit.actual[pick, f:last + 1], unit.sids[pick], curved, support))
-    tables = _join_blocks(parts) if parts else concat_tables([])
+    tables = concat_tables(parts, columns=True)
     sids = unit.sids[keep]
     m = len(sids)
 
-    def text(value: str) -> pd.Categorical:
-        return pd.Categorical.from_codes(np.zeros(m, dtype=np.int8), dtype=text_dtype((value,)),
-                                         validate=False)
-
-    series = Columns({"_sid": sids, "engine": text("batched"), "group": np.full(m, g.gid),
-                      "transform": text(g.transform), "method": text("ols"), "sigma2": sigma2[keep],
-                      "smear": smear[keep], "hac_lags": np.full(m, g.solve.lags),
-                      "trend_origin": np.full(m, g.origin), "note": text("; ".join(g.notes))})
+    series = Columns({"_sid": sids, "engine": tiled_text(["batched"], m), "group": np.full(m, g.gid),
+                      "transform": tiled_text([g.transform], m), "method": tiled_text(["ols"], m),
+                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": np.full(m, g.solve.lags),
+                      "trend_origin": np.full(m, g.origin), "note": tiled_text(["; ".join(g.notes)], m)})
     params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
     out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
     if unit.keep_models and m:
@@ -194,15 +186,23 @@ def _block_model(g: Group, refined: Any, B: np.ndarray, E: np.ndarray, E0: np.nd
                  smear: np.ndarray, tables: BlockTables) -> BlockModel:
     """The whole fitted state of the block's one series: every coefficient's HAC covariance too."""
     cols = g.info.fitted_cols
-    X = g.solve.X
-    theta: dict[str, float] = {}
+    solve, theta = g.solve, {}
     if refined is not None:
-        from evcal.engine.refine import design_with_theta
-
-        X, theta = design_with_theta(g.curve, g.info, g.rows, X, refined.theta_in)
-    solve = SharedSolve.of(X) if refined is not None else g.solve
+        # the last pass's design: the event columns for the series' θ
+        X = g.solve.X.copy()
+        idx = {c: i for i, c in enumerate(cols)}
+        for c, v in refined.curved.items():  # fitted columns first: a borrowed column adds onto its target
+            if g.info.status[c].status == "fitted" and c in idx:
+                X[:, idx[c]] = v[0, g.rows]
+        for c, v in refined.curved.items():
+            if g.info.status[c].status == "like" and g.info.like_map.get(c) in idx:
+                X[:, idx[g.info.like_map[c]]] += v[0, g.rows]
+        sources = theta_sources(g.info.status, g.info.roles, g.info.like_map, cols)
+        theta = {c: float(refined.theta_in[s][0]) for c, s in sources.items() if s in refined.theta_in}
+        theta.update({c: float(np.log1p(a)) for c, a in g.info.assumed.items()})
+        solve = SharedSolve.of(X)
     cov = solve.covariances(E[:, :1])[0]
-    n, k = X.shape
+    n, k = solve.X.shape
     ssr = float(E0[:, 0] @ E0[:, 0])
     llf = -0.5 * n * (np.log(2 * np.pi * ssr / n) + 1.0)
     return BlockModel(pd.Series(B[:, 0], index=cols), pd.DataFrame(cov, index=cols, columns=cols),
@@ -216,28 +216,9 @@ def _no_skips() -> pd.DataFrame:
     return pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
 
 
-def _join_blocks(parts: list[BlockTables]) -> BlockTables:
-    """A unit's tables from its spans' blocks, kept as columns (one frame is made at the end)."""
-    if len(parts) == 1:
-        return parts[0]
-
-    def cat(name: str) -> Any:
-        joined = join_columns([getattr(p, name) for p in parts])
-        if joined is not None:
-            return joined
-        return join_tables([getattr(p, name) for p in parts], EMPTY_TABLES[name])
-
-    return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), [f for p in parts for f in p.fitted],
-                       cat("quality"))
-
-
-_CAL_CACHE: dict[str, Any] = {}
-
-
+@functools.cache
 def _calendar(text: str) -> Any:
-    if text not in _CAL_CACHE:
-        _CAL_CACHE[text] = load_calendar_any(text)
-    return _CAL_CACHE[text]
+    return load_calendar_any(text)
 
 
 def run_loop(unit: LoopUnit) -> UnitResult:
@@ -252,8 +233,7 @@ def run_loop(unit: LoopUnit) -> UnitResult:
     for sid, hist, tr, inp in zip(unit.sids, unit.histories, unit.transforms, inputs, strict=True):
         try:
             # a series prepared by the caller keeps the caller's options (its transform is chosen)
-            opts = unit.options if inp is not None else \
-                FitOptions(**{**_option_dict(unit.options), "transform": tr})
+            opts = unit.options if inp is not None else replace(unit.options, transform=tr)
             res, tables = fit_series(hist, cal, opts, inp, int(sid))
         except (EvcalError, np.linalg.LinAlgError, ValueError) as err:
             if unit.keep_models and isinstance(err, EvcalError):
@@ -274,10 +254,6 @@ def run_loop(unit: LoopUnit) -> UnitResult:
                       models=models)
 
 
-def _option_dict(options: FitOptions) -> dict[str, Any]:
-    return {f.name: getattr(options, f.name) for f in fields(options)}
-
-
 EMPTY_TABLES = {  # the columns of each table when no series produced a row
     "lifts": ["_sid", *LIFT_COLUMNS, "kind", "label", "_fitted"],
     "occurrences": ["_sid", *OCC_COLUMNS, "low_units", "high_units"],
@@ -286,9 +262,13 @@ EMPTY_TABLES = {  # the columns of each table when no series produced a row
 }
 
 
-def concat_tables(parts: list[BlockTables]) -> BlockTables:
-    def cat(name: str) -> pd.DataFrame:
-        return join_tables([getattr(p, name) for p in parts], EMPTY_TABLES[name])
+def concat_tables(parts: list[BlockTables], columns: bool = False) -> BlockTables:
+    """The tables of ``parts`` joined in order: as frames, or kept as columns where they are (``columns``)."""
+
+    def cat(name: str) -> Any:
+        tables = [getattr(p, name) for p in parts]
+        joined = join_columns(tables) if columns else None
+        return joined if joined is not None else join_tables(tables, EMPTY_TABLES[name])
 
     fitted = [f for p in parts for f in p.fitted]
     return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), fitted, cat("quality"))

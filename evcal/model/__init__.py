@@ -1,9 +1,4 @@
-"""The fitted model: its inputs, its estimators, the result and its folder.
-
-The fit itself runs in :mod:`evcal.engine` (``evcal.fit(...)``), which uses
-this step for one series' inputs (:mod:`evcal.model.inputs`), its estimators
-and passes (:mod:`evcal.model.passes`) and the result (:class:`FitResult`).
-"""
+"""One series' model: inputs, estimators, passes, the result and its folder (fitted by evcal.engine)."""
 
 from __future__ import annotations
 

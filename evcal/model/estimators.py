@@ -27,7 +27,6 @@ class Estimate:
     resid: pd.Series
     llf: float
     aic: float
-    nobs: int
     error_model: dict[str, Any] = field(default_factory=dict)
     cov_note: str = ""
 
@@ -54,23 +53,12 @@ def bartlett_weights(lags: int) -> np.ndarray:
 
 
 def hac_covariances(Z: np.ndarray, E: np.ndarray, lags: int, block: int = BLOCK) -> np.ndarray:
-    """Newey–West sandwich covariances for many residual columns at once.
+    """Newey–West sandwich covariances ``Zᵀ Ωₛ Z`` (m, j, j) for many residual columns at once.
 
-    Parameters
-    ----------
-    Z : ndarray, shape (n, j)
-        ``X (XᵀX)⁻¹`` restricted to the coefficients wanted.
-    E : ndarray, shape (n, m)
-        Residuals of m series on the same n rows (consecutive periods).
-    lags : int
-        Highest lag L of the Bartlett window.
-
-    Returns
-    -------
-    ndarray, shape (m, j, j)
-        ``Zᵀ Ωₛ Z`` for each series s, equal to statsmodels'
-        ``OLS(y, X).fit(cov_type="HAC", cov_kwds={"maxlags": L}).cov_params()``
-        restricted to those rows and columns.
+    ``Z`` (n, j) is ``X (XᵀX)⁻¹`` for the coefficients wanted, ``E`` (n, m) the
+    residuals of m series on the same consecutive rows, ``lags`` the Bartlett
+    window: statsmodels' ``OLS(y, X).fit(cov_type="HAC", cov_kwds={"maxlags": lags})``
+    ``.cov_params()`` on those rows and columns.
     """
     n, j = Z.shape
     m = E.shape[1]
@@ -87,13 +75,23 @@ def hac_covariances(Z: np.ndarray, E: np.ndarray, lags: int, block: int = BLOCK)
         return G + G.transpose(0, 2, 1)
     out = np.empty((m, j, j))
     for a in range(0, m, block):
-        b = min(a + block, m)
-        V = E[:, a:b].T[:, :, None] * Z[None, :, :]  # (series, n, j)
-        W = 0.5 * V
-        for lag in range(1, min(lags, n - 1) + 1):
-            W[:, lag:, :] += w[lag] * V[:, :-lag, :]
-        A = np.matmul(V.transpose(0, 2, 1), W)
-        out[a:b] = A + A.transpose(0, 2, 1)
+        out[a:a + block] = hac_meat(E[:, a:a + block].T[:, :, None] * Z[None, :, :], lags)
+    return out
+
+
+def hac_meat(V: np.ndarray, lags: int, chunk: int = 64) -> np.ndarray:
+    """``A + Aᵀ`` with ``A = Σₜ Vₜ (½ Vₜ + Σₗ wₗ Vₜ₋ₗ)ᵀ`` for each series' rows ``V`` (m, n, j): (m, j, j).
+
+    A few series at a time, so the lagged sums need only a small buffer.
+    """
+    w = bartlett_weights(lags)
+    out = np.empty((V.shape[0], V.shape[2], V.shape[2]))
+    for a in range(0, len(V), chunk):
+        W = 0.5 * V[a:a + chunk]
+        for lag in range(1, min(lags, V.shape[1] - 1) + 1):
+            W[:, lag:, :] += w[lag] * V[a:a + chunk, :-lag, :]
+        A = np.matmul(V[a:a + chunk].transpose(0, 2, 1), W)
+        out[a:a + chunk] = A + A.transpose(0, 2, 1)
     return out
 
 
@@ -105,7 +103,7 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
     >>> import numpy as np, pandas as pd
     >>> X = pd.DataFrame({"const": np.ones(50), "x": np.arange(50.0)})
     >>> y = pd.Series(1.0 + 0.5 * X["x"] + np.sin(np.arange(50)))
-    >>> round(fit_ols(y, X, pd.Series(np.zeros(50))).params["x"], 2)
+    >>> round(float(fit_ols(y, X, pd.Series(np.zeros(50))).params["x"]), 2)
     0.5
     """
     rows = y.notna().to_numpy()
@@ -130,19 +128,15 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
         resid=resid,
         llf=float(llf),
         aic=float(-2 * llf + 2 * rank),
-        nobs=n,
         error_model={"kind": "iid"},
         cov_note=hac_note(lags),
     )
 
 
-def fit_arima(
-    y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int],
-    start: Any = None,
-) -> Estimate:
+def fit_arima(y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int, int, int]) -> Estimate:
     """Regression with ARIMA(p, d, q) errors by iterated feasible GLS.
 
-    Two steps, repeated until the coefficients settle (at most 4 rounds):
+    Two steps, repeated until the coefficients settle (at most 3 rounds):
     the ARMA(p, q) error model is fitted by exact likelihood (statsmodels
     SARIMAX, which skips missing periods) to the regression error of the
     (d-times differenced) series; then the regression is re-estimated by GLS
@@ -171,7 +165,7 @@ def fit_arima(
     ar = np.zeros(p)
     ma = np.zeros(q)
     long = n > 3000
-    arma_start = None if start is None else np.asarray(start, dtype=float)
+    arma_start = None
     for _ in range(3):
         u = yy - XX @ beta
         if p or q:
@@ -227,7 +221,6 @@ def fit_arima(
         resid=innov,
         llf=llf,
         aic=float(-2 * llf + 2 * n_par),
-        nobs=n,
         error_model={
             "kind": "arima",
             "order": [p, d, q],
@@ -295,7 +288,6 @@ def fit_count(y_units: pd.Series, X: pd.DataFrame, log_offset: pd.Series) -> Est
         resid=resid,
         llf=llf,
         aic=aic,
-        nobs=int(rows.sum()),
         error_model=error_model,
         cov_note=note,
     )

@@ -1,26 +1,18 @@
 """Which event and intervention columns the history can actually estimate.
 
-Three reasons a column is not fitted, each reported with a note instead of a
-number:
+A column is not fitted, with a note instead of a number, when it has no
+occurrence in the fitted periods; when it always falls in the same seasonal
+period (it is a combination of the seasonal and trend columns, so its effect
+stays in the seasonal index); or when it always shares its days with another
+event (only their sum is estimable: the first carries it). The test is
+numerical rank: a column's relative residual on the columns kept before it.
 
-* no occurrence inside the fitted periods;
-* it always falls in the same seasonal period (a fixed-date holiday in
-  monthly data): the column is a linear combination of the seasonal and trend
-  columns, so its effect stays inside the seasonal index;
-* it always shares its days with another event: only their sum is estimable,
-  so the first one carries the estimate and the note suggests merging them.
-
-The test is numerical rank: the relative residual of a column regressed on
-the columns kept before it (least squares), below a tolerance.
-
-A column can pass that test and still carry no usable information: a
-Father's Day window in quarterly data is in the second quarter every year and
-moves only when a closed Easter day changes the quarter's count of open days
-(7/91 against 7/90). Such a fit does not fail; it returns a coefficient that
-no event could have (``+1e21 %``), or an interval bound that overflows. After
-the fit, :func:`degenerate_terms` flags those coefficients, and the fit
-leaves the column out (its effect stays inside the seasonal index), with a
-note from :func:`degenerate_note` that says why and what to do.
+A column can pass that test and still carry no usable information (a
+Father's Day window in quarterly data moves only when a closed Easter day
+changes the quarter's count of open days): the fit then gives a lift no event
+has (``+1e21 %``) or an interval that overflows. :func:`degenerate_terms`
+flags those after the fit, which leaves the column out with a note from
+:func:`degenerate_note`.
 """
 
 from __future__ import annotations
@@ -53,16 +45,16 @@ class ColumnStatus:
     twin: str = ""  # for a duplicate: the column that carries the joint estimate
 
 
+def _project_out(q: np.ndarray, a: np.ndarray) -> np.ndarray:
+    """``a`` less its projection on orthonormal ``q`` (twice: Gram-Schmidt loses orthogonality once)."""
+    r = a - q @ (q.T @ a)
+    return r - q @ (q.T @ r)
+
+
 def _relative_residual(col: np.ndarray, q: np.ndarray) -> float:
     """||col - proj(col)|| / ||col|| for the projection on orthonormal columns ``q``."""
     norm = float(np.linalg.norm(col))
-    if norm == 0.0:
-        return 0.0
-    if q.shape[1] == 0:
-        return 1.0
-    r = col - q @ (q.T @ col)
-    r = r - q @ (q.T @ r)  # second pass: classical Gram-Schmidt loses orthogonality once
-    return float(np.linalg.norm(r)) / norm
+    return float(np.linalg.norm(_project_out(q, col))) / norm if norm else 0.0
 
 
 def _orthonormal(basis: np.ndarray) -> np.ndarray:
@@ -75,8 +67,7 @@ def _orthonormal(basis: np.ndarray) -> np.ndarray:
 
 
 def _extend(q: np.ndarray, col: np.ndarray) -> np.ndarray:
-    r = col - q @ (q.T @ col)
-    r = r - q @ (q.T @ r)
+    r = _project_out(q, col)
     return np.column_stack([q, r / np.linalg.norm(r)])
 
 
@@ -101,25 +92,13 @@ def check_columns(
     X: pd.DataFrame, rows: np.ndarray, base_cols: list[str], candidate_cols: list[str],
     kind_of: dict[str, str],
 ) -> dict[str, ColumnStatus]:
-    """Classify each candidate column on the fitted rows.
+    """Classify each candidate (event and intervention) column, in priority order, on the fit ``rows``.
 
     The base (trend and seasonal) columns are projected out once; the
     candidates' remainders are then tested in order on their small Gram
     matrix (an incremental Cholesky that skips dependent columns), so the
     cost is one pass over the data however many events there are.
-
-    Parameters
-    ----------
-    X : DataFrame
-        The full design.
-    rows : bool array
-        Periods used by the fit.
-    base_cols : list of str
-        Trend and seasonal columns (always kept).
-    candidate_cols : list of str
-        Event and intervention columns, in priority order.
-    kind_of : dict
-        Column -> "event" or "intervention", for the wording of notes.
+    ``kind_of`` (column -> role) words the notes.
     """
     out: dict[str, ColumnStatus] = {}
     if not candidate_cols:
@@ -127,8 +106,7 @@ def check_columns(
     Xc = X.loc[rows, candidate_cols].to_numpy(dtype=float)
     q_base = _orthonormal(X.loc[rows, base_cols].to_numpy(dtype=float))
     norms = np.linalg.norm(Xc, axis=0)
-    resid = Xc - q_base @ (q_base.T @ Xc)
-    resid = resid - q_base @ (q_base.T @ resid)
+    resid = _project_out(q_base, Xc)
     rel_base = np.linalg.norm(resid, axis=0) / np.where(norms > 0, norms, 1.0)
     # Event columns are day counts divided by the period's length, so a February event
     # (always one day in February) still varies with leap years (1/28 vs 1/29) and would
@@ -138,8 +116,7 @@ def check_columns(
     days = period_days(X.index[rows]) if isinstance(X.index, pd.PeriodIndex) else np.ones(len(Xc))
     counts = Xc * days[:, None]
     c_norms = np.linalg.norm(counts, axis=0)
-    c_resid = counts - q_base @ (q_base.T @ counts)
-    c_resid = c_resid - q_base @ (q_base.T @ c_resid)
+    c_resid = _project_out(q_base, counts)
     rel_counts = np.linalg.norm(c_resid, axis=0) / np.where(c_norms > 0, c_norms, 1.0)
     is_event = np.array([kind_of.get(c) == "event" for c in candidate_cols])
     rel_base = np.where(is_event, np.minimum(rel_base, rel_counts), rel_base)
@@ -303,10 +280,8 @@ _PERIOD_WORDS = {"D": ("daily", "a longer history"), "W": ("weekly", "daily data
 def degenerate_note(seen: str, share: float, freq_base: str, kind: str, nil: bool = False) -> str:
     """The note of a flagged column: why it cannot be estimated and what to do.
 
-    ``seen`` is from :func:`degenerate_terms`, ``share`` from
-    :func:`seasonal_share`, ``freq_base`` one of D, W, M, Q, ``kind`` "event"
-    or "intervention"; ``nil`` (the fit pushed the lift towards -100 %) adds the
-    advice to mark a closure as one.
+    ``seen`` is from :func:`degenerate_terms`, ``share`` from :func:`seasonal_share`;
+    ``nil`` (the lift went towards -100 %) adds the advice to mark a closure as one.
 
     Examples
     --------

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -35,7 +35,6 @@ class ModelInputs:
     assumed: dict[str, float]  # assumed-event column -> lift fraction
     spec: DesignSpec  # the settings that rebuild ``design`` for any periods
     raw_X: pd.DataFrame  # the design before like-events were added into their targets
-    notes: list[str] = field(default_factory=list)
 
 
 def load_calendar_any(calendar: Any) -> Any:
@@ -62,28 +61,44 @@ def calendar_text(calendar: Any, given: Any) -> str:
 
 
 def choose_transform(values: pd.Series, options: FitOptions, source: str, known_zero: np.ndarray) -> str:
+    """The series' transform (:func:`transforms`), or one line when the values rule the option out."""
     v = values.dropna()
     open_v = values[~known_zero].dropna()
     if len(open_v) and not (open_v != 0).any():
         raise HistoryError(f"{source}: every value of the history's open periods is zero; there is no "
                            "level or season to fit: check that the value column is the one meant")
-    if options.allow_negative and (v < 0).any():
-        if options.transform in ("log", "count"):
-            raise HistoryError(f"{source}: column value has negative values; transform "
-                               f"{options.transform} needs values >= 0; use --transform none")
-        return "none"
-    if options.transform == "auto":
-        if (open_v > 0).all():
-            return "log"
-        is_int = np.allclose(v, np.round(v))
-        return "count" if is_int else "none"
+    if options.allow_negative and (v < 0).any() and options.transform in ("log", "count"):
+        raise HistoryError(f"{source}: column value has negative values; transform "
+                           f"{options.transform} needs values >= 0; use --transform none")
     if options.transform == "log" and (open_v <= 0).any():
         first = open_v[open_v <= 0].index[0]
         raise HistoryError(
             f"{source}: period {first}: value {open_v[first]:g} is zero and --transform log needs "
             "positive values; use --transform count for series with zeros (or mark closures "
             "with effect: zero)")
-    return options.transform
+    values_2d = values.to_numpy(dtype=float)[:, None]
+    return str(transforms(values_2d, ~known_zero, options.transform, options.allow_negative)[0])
+
+
+def transforms(values: np.ndarray, open_rows: np.ndarray, transform: str, allow_negative: bool) -> np.ndarray:
+    """Each series' transform (columns of ``values``, NaN where empty): the one rule of a series and a panel.
+
+    ``auto`` is ``log`` when every value on an open period is positive, ``count``
+    for whole numbers with zeros, ``none`` (additive) otherwise; negative values
+    (with ``allow_negative``) force ``none``.
+    """
+    # comparisons with NaN are False, so empty cells drop out without a filled copy of the matrix
+    nonpos_open = (values <= 0).any(axis=0) if open_rows.all() else (values[open_rows] <= 0).any(axis=0)
+    chosen = np.full(values.shape[1], transform, dtype=object)
+    if transform == "auto":
+        chosen[:] = "log"
+        zero_cols = np.flatnonzero(nonpos_open)  # whole numbers matter only for these (the count model)
+        sub = values[:, zero_cols]
+        whole = (np.isclose(sub, np.round(sub)) | np.isnan(sub)).all(axis=0)
+        chosen[zero_cols] = np.where(whole, "count", "none")
+    if allow_negative:
+        chosen[(values < 0).any(axis=0)] = "none"
+    return chosen
 
 
 def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, freq: str,
@@ -123,18 +138,13 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     """
     periods = history.values.index
     actual = history.values.astype(float)
-    freq = history.freq
-    spec = design_spec(calendar, options, periods, freq, theta)
-    event_cols = list(spec.event_columns)
-    interventions = list(spec.interventions)
+    spec = design_spec(calendar, options, periods, history.freq, theta)
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()
     closed_full = share <= 1e-9
     excluded = np.zeros(len(periods), dtype=bool)
-    p_start = periods.start_time.normalize()
-    p_end = periods.end_time.normalize()
     for ex in calendar.exclusions:
-        excluded |= np.asarray((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start)))
+        excluded |= _overlaps(periods, ex)
     transform = choose_transform(actual, options, history.source, closed_full)
     rows = actual.notna().to_numpy() & ~excluded & ~closed_full
 
@@ -144,7 +154,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     assumed: dict[str, float] = {}
     colmap = calendar.event_columns()
     candidates: list[str] = []
-    for c in event_cols:
+    for c in spec.event_columns:
         eff = calendar.event(colmap[c]).effect
         if eff.kind == "assume":
             assumed[c] = float(eff.assume or 0.0)
@@ -153,8 +163,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             like_map[c] = target_cols[0] if target_cols else ""
         else:
             candidates.append(c)
-    candidates += [t["name"] for t in interventions]
-    kind_of = {c: design.roles[c] for c in X.columns}
+    candidates += [t["name"] for t in spec.interventions]
 
     # `like` events share their target's coefficient: add their column to it.
     X = X.copy()
@@ -162,7 +171,6 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         if target in X.columns:
             X[target] = X[target] + X[c]
     offset = pd.Series(0.0, index=periods)
-    notes: list[str] = []
     if transform in ("log", "count"):
         with np.errstate(divide="ignore"):
             offset += np.log(np.where(closed_full, 1.0, share))
@@ -170,7 +178,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             offset += np.log1p(a) * X[c]
     if identify:
         base_cols = independent_base_columns(X, rows, base_cols)
-        status = check_columns(X, rows, base_cols, candidates, kind_of)
+        status = check_columns(X, rows, base_cols, candidates, design.roles)
     else:
         status = {c: ColumnStatus("unchecked", "identifiability not checked") for c in candidates}
     for c in assumed:
@@ -189,7 +197,13 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
     merged = Design(X=X, open_share=design.open_share, roles=design.roles)
     return ModelInputs(periods, actual, merged, rows, excluded, offset, transform, status,
-                       fitted_cols, like_map, assumed, spec, design.X, notes)
+                       fitted_cols, like_map, assumed, spec, design.X)
+
+
+def _overlaps(periods: pd.PeriodIndex, ex: Any) -> np.ndarray:
+    """Periods with a day inside the exclusion ``ex``."""
+    return np.asarray((periods.start_time.normalize() <= pd.Timestamp(ex.end))
+                      & (periods.end_time.normalize() >= pd.Timestamp(ex.start)))
 
 
 def model_scale_response(inp: ModelInputs) -> pd.Series:
@@ -203,20 +217,16 @@ def model_scale_response(inp: ModelInputs) -> pd.Series:
 
 
 def min_periods(freq: str) -> int:
+    """Periods with values a fit needs: two seasonal cycles."""
     return 2 * cycle_length(freq)
 
 
 def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
-    """Stop with one line when exclusions and closures leave fewer periods than the fit needs.
+    """Stop with one line (:class:`CalendarError` or :class:`HistoryError`) when too few periods are left.
 
-    The fit needs two seasonal cycles (the rule of :func:`check_history_length`)
-    and more periods than terms. The line names the calendar's exclusions (file,
-    line, dates, reason) and closures, and the count of periods left and needed.
-
-    Raises
-    ------
-    CalendarError
-        The calendar's exclusions or closures leave too few periods.
+    The fit needs two seasonal cycles and more periods than terms; the line names
+    the calendar's exclusions (file, line, dates, reason) and closures that took
+    periods away, and the count of periods left and needed.
     """
     n = int(inp.rows.sum())
     p = cycle_length(history.freq)
@@ -232,11 +242,9 @@ def check_fit_rows(inp: ModelInputs, calendar: Any, history: Any) -> None:
     else:
         need = len(inp.fitted_cols) + 1
         why = f"one more than the {need - 1} terms"
-    p_start = inp.periods.start_time.normalize()
-    p_end = inp.periods.end_time.normalize()
     causes = []
     for ex in calendar.exclusions:
-        hit = int(np.sum((p_start <= pd.Timestamp(ex.end)) & (p_end >= pd.Timestamp(ex.start))))
+        hit = int(np.sum(_overlaps(inp.periods, ex)))
         if hit:
             where = f"line {ex.line}: " if ex.line else ""
             causes.append(f"{where}exclude {pd.Timestamp(ex.start).date()} .. {pd.Timestamp(ex.end).date()} "
@@ -310,11 +318,7 @@ def average_share_profile(values: pd.Series, closed: Any = None) -> pd.Series:
 
 
 def calendar_terms(calendar: Any) -> dict[str, Any]:
-    """What a fitted model says of its calendar: each term's names, closures, interventions, exclusions.
-
-    The fields of the same names of :class:`~evcal.model.FitResult` (and of a
-    panel series' report), built in one place.
-    """
+    """The :class:`~evcal.model.FitResult` fields of the same names: what a model says of its calendar."""
     return {
         "event_info": term_info(calendar),
         "event_labels": {e.name: e.label for e in calendar.events},
@@ -329,11 +333,9 @@ def calendar_terms(calendar: Any) -> dict[str, Any]:
 def additive_design(X: pd.DataFrame, inp: ModelInputs) -> pd.DataFrame:
     """The additive model's regressors: base columns carry the assumed lifts, rows scaled by the open share.
 
-    An assumed lift is a share of the base (as the plan applies it,
-    :mod:`evcal.effects.decompose`), so the base columns carry
-    ``1 + Σ lift × column`` in each period; the periods stay in the fit
-    (leaving them out could leave none at all). The open share then scales the
-    whole period (the response is scaled alike by the caller).
+    An assumed lift is a share of the base (as the plan applies it), so the base
+    columns carry ``1 + Σ lift × column`` and the periods stay in the fit (leaving
+    them out could leave none at all). The caller scales the response alike.
     """
     roles = inp.design.roles
     if inp.assumed:

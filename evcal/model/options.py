@@ -51,13 +51,10 @@ class FitOptions:
     allow_negative: bool = False
 
     def __post_init__(self) -> None:
-        problems = []
-        if self.transform not in TRANSFORMS:
-            problems.append(f"option transform: {self.transform!r} is not one of {', '.join(TRANSFORMS)}")
-        if self.errors not in ERRORS:
-            problems.append(f"option errors: {self.errors!r} is not one of {', '.join(ERRORS)}")
-        if self.seasonal not in SEASONAL:
-            problems.append(f"option seasonal: {self.seasonal!r} is not one of {', '.join(SEASONAL)}")
+        choices = (("transform", self.transform, TRANSFORMS), ("errors", self.errors, ERRORS),
+                   ("seasonal", self.seasonal, SEASONAL))
+        problems = [f"option {name}: {value!r} is not one of {', '.join(allowed)}"
+                    for name, value, allowed in choices if value not in allowed]
         if not 0 <= int(self.trend_order) <= 2:
             problems.append(f"option trend-order: {self.trend_order} must be 0, 1 or 2")
         if not 1 <= int(self.fourier_order) <= 60:

@@ -22,7 +22,7 @@ THETA_TOL = 1e-4
 MAX_PASSES = 8
 
 
-def estimate(inp: ModelInputs, options: FitOptions, freq: str) -> tuple[Estimate, dict[str, Any]]:
+def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str, Any]]:
     """Fit the chosen (or automatically selected) error model.
 
     Numerical warnings (overflow, division by zero) are not passed on: a
@@ -31,44 +31,49 @@ def estimate(inp: ModelInputs, options: FitOptions, freq: str) -> tuple[Estimate
     """
     with warnings.catch_warnings(), np.errstate(over="ignore", divide="ignore", invalid="ignore"):
         warnings.simplefilter("ignore", RuntimeWarning)
-        return _estimate(inp, options)
+        X = inp.design.X[inp.fitted_cols]
+        y = model_scale_response(inp)
+        if inp.transform == "count":
+            est = fit_count(y, X, inp.offset)
+            return est, {"chosen": est.method, "reason": est.cov_note, "candidates": [
+                {"name": est.method, "criterion": "aic", "value": est.aic}]}
+        if inp.transform == "none":
+            X = additive_design(X, inp)
+            share = inp.design.open_share.to_numpy()
+            y = y * np.where(share > 0, share, 1.0)  # the open share scales the response as the rows
+        offset = inp.offset if inp.transform == "log" else pd.Series(0.0, index=inp.periods)
+        if options.errors == "arima":
+            order = options.arima_order or (1, 0, 0)
+            if order[1] >= 1 and "const" in X.columns:
+                X = X.drop(columns=["const"])  # differenced errors leave the constant unidentified
+            est = fit_arima(y, X, offset, order)
+            return est, {"chosen": est.method, "reason": "asked for (--errors arima); " + est.cov_note,
+                         "candidates": [{"name": est.method, "criterion": "aic", "value": est.aic}]}
+        ols = fit_ols(y, X, offset)
+        if ols_by_rule(options, 1, len(inp.periods)):
+            return ols, ols_choice(ols.aic, ols.cov_note, options, len(inp.periods))
+        cands: list[Estimate] = [ols]
+        for order in ((1, 0, 0), (1, 0, 1)):
+            try:
+                cands.append(fit_arima(y, X, offset, order))
+            except (np.linalg.LinAlgError, ValueError):
+                continue
+        best = min(cands, key=lambda e: e.aic)
+        table = [{"name": e.method, "criterion": "aic", "value": e.aic} for e in cands]
+        reason = (f"lowest AIC among {', '.join(e.method for e in cands)} (same response, "
+                  f"comparable Gaussian likelihoods); {best.cov_note}")
+        return best, {"chosen": best.method, "reason": reason, "candidates": table}
 
 
-def _estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str, Any]]:
-    X = inp.design.X[inp.fitted_cols]
-    y = model_scale_response(inp)
-    if inp.transform == "count":
-        est = fit_count(y, X, inp.offset)
-        return est, {"chosen": est.method, "reason": est.cov_note, "candidates": [
-            {"name": est.method, "criterion": "aic", "value": est.aic}]}
-    if inp.transform == "none":
-        X = additive_design(X, inp)
-        share = inp.design.open_share.to_numpy()
-        y = y * np.where(share > 0, share, 1.0)  # the open share scales the response as the rows
-    offset = inp.offset if inp.transform == "log" else pd.Series(0.0, index=inp.periods)
-    if options.errors == "ols":
-        est = fit_ols(y, X, offset)
-        return est, ols_choice(est.aic, est.cov_note, options, len(inp.periods))
-    if options.errors == "arima":
-        order = options.arima_order or (1, 0, 0)
-        est = fit_arima(y, _drop_const(X, order), offset, order)
-        return est, {"chosen": est.method, "reason": "asked for (--errors arima); " + est.cov_note,
-                     "candidates": [{"name": est.method, "criterion": "aic", "value": est.aic}]}
-    # auto
-    ols = fit_ols(y, X, offset)
-    if len(inp.periods) > LONG_SERIES:
-        return ols, ols_choice(ols.aic, ols.cov_note, options, len(inp.periods))
-    cands: list[Estimate] = [ols]
-    for order in ((1, 0, 0), (1, 0, 1)):
-        try:
-            cands.append(fit_arima(y, X, offset, order))
-        except (np.linalg.LinAlgError, ValueError):
-            continue
-    best = min(cands, key=lambda e: e.aic)
-    table = [{"name": e.method, "criterion": "aic", "value": e.aic} for e in cands]
-    reason = (f"lowest AIC among {', '.join(e.method for e in cands)} (same response, "
-              f"comparable Gaussian likelihoods); {best.cov_note}")
-    return best, {"chosen": best.method, "reason": reason, "candidates": table}
+def ols_by_rule(options: FitOptions, n_series: int, n_periods: int) -> bool:
+    """Whether the error model is OLS + HAC with no choice among error models (then solved in blocks).
+
+    ``--errors ols`` asks for it. ``--errors auto`` chooses by AIC among OLS and
+    ARIMA(1,0,0)/(1,0,1) errors, except for a panel (a state-space fit per series)
+    and for a series longer than :data:`LONG_SERIES` periods. ARIMA errors and
+    count models are fitted one series at a time.
+    """
+    return options.errors == "ols" or (options.errors == "auto" and (n_series > 1 or n_periods > LONG_SERIES))
 
 
 def ols_choice(aic: float, cov_note: str, options: FitOptions, n_periods: int) -> dict[str, Any]:
@@ -82,18 +87,12 @@ def ols_choice(aic: float, cov_note: str, options: FitOptions, n_periods: int) -
             "candidates": [{"name": "ols", "criterion": "aic", "value": aic}]}
 
 
-def _drop_const(X: pd.DataFrame, order: tuple[int, int, int]) -> pd.DataFrame:
-    if order[1] >= 1 and "const" in X.columns:
-        return X.drop(columns=["const"])
-    return X
-
-
 def flag_degenerate(inp: ModelInputs, est: Estimate, freq: str) -> dict[str, str]:
     """Fitted event and intervention columns whose estimate is a breakdown; column -> note.
 
-    The rule is :func:`evcal.model.identify.degenerate_terms` (a bound on the
-    log-lift, finite estimates); the note says why (the event sits in the same
-    period every year, or the history cannot pin it down) and what to do.
+    The rule is :func:`evcal.model.identify.degenerate_terms`; the note says
+    why (the event sits in the same period every year, or the history cannot
+    pin it down) and what to do.
     """
     roles = inp.design.roles
     terms = [c for c in inp.fitted_cols if roles.get(c) in ("event", "intervention")]
@@ -112,46 +111,74 @@ def flag_degenerate(inp: ModelInputs, est: Estimate, freq: str) -> dict[str, str
             for c, what in seen.items()}
 
 
+def exact_passes(transform: str, freq: str) -> bool:
+    """Whether the event columns aggregate the fitted daily lifts exactly: log-link models of longer periods.
+
+    Daily data need no second pass (each period is one day); additive models keep the linear columns.
+    """
+    return transform != "none" and base_freq(freq) != "D"
+
+
+def theta_sources(status: dict[str, ColumnStatus], roles: dict[str, str], like_map: dict[str, str],
+                  fitted: Any) -> dict[str, str]:
+    """Event column -> fitted column whose coefficient is its log-lift θ (its own, the borrowed, its twin).
+
+    A duplicate is shaped like its twin, so the two stay recognisably the same column.
+    """
+    sources: dict[str, str] = {}
+    for col, st in status.items():
+        source = {"fitted": col, "like": like_map.get(col), "duplicate": st.twin}.get(st.status)
+        if roles.get(col) == "event" and source in fitted:
+            sources[col] = source
+    return sources
+
+
+def theta_moved(new: dict[str, Any], old: dict[str, Any]) -> Any:
+    """How far the log-lifts moved in a pass (a column missing from one side counts as 0)."""
+    return np.max([np.abs(np.asarray(new.get(k, 0.0)) - old.get(k, 0.0)) for k in new | old], axis=0,
+                  initial=0.0)
+
+
 def fitted_theta(inp: ModelInputs, est: Estimate) -> dict[str, float]:
-    """Log-lift of each event column after a pass: fitted, borrowed (like) and assumed."""
+    """Log-lift of each event column after a pass: fitted, borrowed (like), duplicate and assumed."""
+    sources = theta_sources(inp.status, inp.design.roles, inp.like_map, est.params.index)
     theta: dict[str, float] = {}
     for col, st in inp.status.items():
-        if inp.design.roles.get(col) != "event":
-            continue
-        if st.status == "fitted" and col in est.params.index:
-            theta[col] = float(est.params[col])
-        elif st.status == "like" and inp.like_map.get(col) in est.params.index:
-            theta[col] = float(est.params[inp.like_map[col]])
+        if col in sources:
+            theta[col] = float(est.params[sources[col]])
         elif st.status == "assumed":
             theta[col] = float(np.log1p(inp.assumed[col]))
-        elif st.status == "duplicate" and st.twin in est.params.index:
-            # shaped like its twin, so the two stay recognisably the same column
-            theta[col] = float(est.params[st.twin])
     return theta
+
+
+#: the note on a lift whose exact refit ran away (see :func:`estimate_exact`)
+APPROXIMATE_NOTE = (
+    "approximate: the periods around this event moved more than its own days can explain (its window "
+    "may be too short, e.g. the days after a holiday fall too), so the lift could not be refitted to "
+    "the exact days and is the share-of-window estimate; widen before/after, or fit daily data")
 
 
 def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None
                    ) -> tuple[ModelInputs, Estimate, dict]:
     """Fit, then refit with event columns that aggregate the fitted daily lifts exactly.
 
-    Daily data need no second pass (each period is one day). For longer
-    periods the log-lifts from one pass set the columns of the next, until
-    they settle (at most ``MAX_PASSES``; typically 2 or 3).
+    Where :func:`exact_passes` says so, the log-lifts from one pass set the columns of the next, until
+    they settle (:func:`theta_moved` below :data:`THETA_TOL`, at most
+    :data:`MAX_PASSES`; the batched passes of :mod:`evcal.engine.refine` stop
+    by the same rule).
 
     After every pass, columns whose estimate is a breakdown rather than a lift
     (:func:`flag_degenerate`) are left out and the pass is fitted again
     without them; a pass whose lifts run away (a period asking for a bigger
     change than the event's days can make) is caught the same way.
-
-    ``inp`` is the first pass's inputs when the caller has prepared (and
-    checked) them already.
+    ``inp`` is the first pass's inputs when the caller has prepared (and checked) them.
     """
     if inp is None:
         inp = prepare(history, calendar, options)
         check_fit_rows(inp, calendar, history)
     dropped: dict[str, str] = {}
     inp, est, choice = _fit_flagged(history, calendar, options, None, dropped, inp)
-    if inp.transform == "none" or base_freq(history.freq) == "D":
+    if not exact_passes(inp.transform, history.freq):
         return inp, est, choice
     theta = fitted_theta(inp, est)
     # later passes keep the error model the first pass chose (and its reasons)
@@ -174,46 +201,31 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
             # the previous pass, whose share-of-window estimate is finite and fits the periods
             # (dropping the event would push a moving holiday into the seasonal index), and say so.
             for c in ran_away:
-                _mark_approximate(inp, c)
+                if c in inp.status and inp.status[c].status == "fitted":
+                    inp.status[c] = ColumnStatus("fitted", APPROXIMATE_NOTE)
             break
         inp, est = inp_next, est_next
         new = fitted_theta(inp, est)
-        moved = max((abs(new.get(k, 0.0) - theta.get(k, 0.0)) for k in set(new) | set(theta)), default=0.0)
+        moved = theta_moved(new, theta)
         theta = new
         if moved < THETA_TOL:
             break
     return inp, est, choice
 
 
-#: the note on a lift whose exact refit ran away (see :func:`estimate_exact`)
-APPROXIMATE_NOTE = (
-    "approximate: the periods around this event moved more than its own days can explain (its window "
-    "may be too short, e.g. the days after a holiday fall too), so the lift could not be refitted to "
-    "the exact days and is the share-of-window estimate; widen before/after, or fit daily data")
-
-
-def _mark_approximate(inp: ModelInputs, column: str) -> None:
-    st = inp.status.get(column)
-    if st is not None and st.status == "fitted":
-        inp.status[column] = ColumnStatus("fitted", APPROXIMATE_NOTE)
-
-
 def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[str, float] | None,
                  dropped: dict[str, str], inp: ModelInputs | None = None,
                  ) -> tuple[ModelInputs, Estimate, dict[str, Any]]:
-    """One pass: fit, leave out the columns :func:`flag_degenerate` flags, refit until none is.
+    """One pass: fit, leave out the columns :func:`flag_degenerate` flags (collected in ``dropped``), refit.
 
-    ``dropped`` collects the flagged columns and their notes across passes.
     Each round leaves out at least one more column, so it ends.
     """
     while True:
         if inp is None:
             inp = prepare(history, calendar, options, theta=theta, degenerate=dropped)
-        est, choice = estimate(inp, options, history.freq)
+        est, choice = estimate(inp, options)
         flagged = flag_degenerate(inp, est, history.freq)
         if not flagged:
             return inp, est, choice
         dropped.update(flagged)
         inp = None
-
-

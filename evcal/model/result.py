@@ -63,7 +63,6 @@ class FitResult:
     profile: pd.DataFrame = field(default_factory=pd.DataFrame)
     fitted: pd.DataFrame = field(default_factory=pd.DataFrame)
     residuals: pd.Series = field(default_factory=lambda: pd.Series(dtype=float))
-    _open_share: np.ndarray | None = field(default=None, repr=False)
     _calendar: Any = field(default=None, repr=False)
 
     # ------------------------------------------------------------ helpers
@@ -79,13 +78,6 @@ class FitResult:
 
             self._calendar = load_calendar(self.calendar_text)
         return self._calendar
-
-    def open_share_at(self, where: np.ndarray | slice) -> np.ndarray:
-        """Open share of the history periods selected by a mask or slice."""
-        if self._open_share is None:
-            n = len(range(*where.indices(10**9))) if isinstance(where, slice) else int(np.sum(where))
-            return np.ones(n)
-        return self._open_share[where]
 
     # ------------------------------------------------------------ persistence
     def to_json(self) -> dict[str, Any]:

@@ -143,8 +143,10 @@ def _describe(err: dict[str, Any], model: type[BaseModel], loc: tuple[Any, ...])
         near = suggest(key, keys, n=1)
         if near:
             return f"unknown key `{key}`; did you mean `{near[0]}`?"
-        return f"unknown key `{key}`; valid keys here: {', '.join(keys)}" if keys else (
-            f"unknown key `{key}`; remove it"
+        return (
+            f"unknown key `{key}`; valid keys here: {', '.join(keys)}"
+            if keys
+            else (f"unknown key `{key}`; remove it")
         )
     if kind == "missing":
         return f"`{key}` is missing; add `{key}: ...`"
@@ -162,9 +164,10 @@ def _describe(err: dict[str, Any], model: type[BaseModel], loc: tuple[Any, ...])
     if kind == "string_type":
         return f"{shown} is not text; write text (put it in quotes if it looks like a number)"
     if kind in ("model_type", "dict_type"):
-        return f"expected a block of `key: value` lines here, got {shown}; write the keys " \
+        return (
+            f"expected a block of `key: value` lines here, got {shown}; write the keys "
             "one per line under it (or {key: value, ...})"
+        )
     if kind in ("list_type", "tuple_type"):
-        return f"expected a list, got {shown}; write one item per line starting with '- '" \
-            ", or [a, b]"
+        return f"expected a list, got {shown}; write one item per line starting with '- ', or [a, b]"
     return f"{err['msg']}; check the value"

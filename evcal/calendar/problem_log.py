@@ -152,6 +152,8 @@ def _describe(err: dict[str, Any], model: type[BaseModel], loc: tuple[Any, ...])
         return f"`{key}` is missing; add `{key}: ...`"
     if kind == "value_error":
         return str(ctx.get("error", err["msg"])).removeprefix("Value error, ")
+    if kind == "finite_number":
+        return f"{shown} is not a finite number; write a plain number such as 3 or 1.5"
     if kind == "literal_error":
         choices = re.findall(r"'([^']*)'", str(ctx.get("expected", "")))
         near = suggest(str(value), choices, n=1) if isinstance(value, str) else []

@@ -12,11 +12,11 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any
 
 from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, model_validator
 
-from evcal.calendar.spec import EffectSpec, YearsSpec
+from evcal.calendar.spec import EffectSpec, InterventionType, Shape, YearsSpec
 from evcal.calendar.value_parsers import (
     check_year,
     parse_date,
@@ -87,7 +87,6 @@ Length = Annotated[int, _bounded(1, MAX_DAYS, "a length in days")]
 Year = Annotated[int, AfterValidator(check_year)]
 Strength = Annotated[float, AfterValidator(_check_strength)]
 Decay = Annotated[float | None, AfterValidator(_check_decay)]
-Shape = Literal["flat", "ramp", "decay", "daily"]
 
 # ------------------------------------------------------------------ models
 
@@ -206,7 +205,7 @@ class PublicHolidaysModel(_Section):
 
 class InterventionModel(_Section):
     name: str
-    type: Literal["pulse", "level_shift", "temporary", "ramp"]
+    type: InterventionType
     start: Date
     end: Date | None = None
     decay: Decay = None

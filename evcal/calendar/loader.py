@@ -134,7 +134,7 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
     _check_names(log, raw_events, holiday_names)
     events: list[EventSpec] = []
     for i, raw in enumerate(raw_events):
-        ev = log.validate(EventModel, raw, ("events", i)) or log.without_bad_keys(EventModel, raw)
+        ev = log.validate(EventModel, raw, ("events", i), partial=True)
         spec = build_event(log, ev, i, holidays) if ev is not None else None
         if spec is not None:
             events.append(spec)

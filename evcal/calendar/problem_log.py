@@ -79,29 +79,24 @@ class ProblemLog:
         """Record one problem at key path ``loc``."""
         self.problems.append(Problem(self.line(loc), self.path(loc), message))
 
-    def validate(self, model: type[BaseModel], raw: Any, prefix: tuple[Any, ...]) -> Any:
-        """``model`` validated from ``raw``, or None with every error recorded under ``prefix``."""
+    def validate(
+        self, model: type[BaseModel], raw: Any, prefix: tuple[Any, ...], partial: bool = False
+    ) -> Any:
+        """``model`` validated from ``raw``, or None with every error recorded under ``prefix``.
+
+        With ``partial``, an item that fails is validated again without its failing keys (unless
+        ``name`` or ``when`` failed), so the checks that need the whole item still run.
+        """
         try:
             return model.model_validate(raw)
         except ValidationError as exc:
-            for err in exc.errors(include_url=False):
-                # pydantic names dict-key branches; keep the file's own keys.
-                loc = tuple(p for p in err["loc"] if p != "[key]")
-                self.add(prefix + loc, _describe(err, model, loc))
-            return None
-
-    @staticmethod
-    def without_bad_keys(model: type[BaseModel], raw: Any) -> Any:
-        """Validate again without the keys that failed, so later checks still run (reports nothing)."""
-        if not isinstance(raw, dict):
-            return None
-        try:
-            model.model_validate(raw)
-        except ValidationError as exc:
-            bad = {str(e["loc"][0]) for e in exc.errors() if e["loc"]}
-        else:  # pragma: no cover - only called after a failure
-            return None
-        if bad & {"name", "when"}:
+            errors = exc.errors(include_url=False)
+        for err in errors:
+            # pydantic names dict-key branches; keep the file's own keys.
+            loc = tuple(p for p in err["loc"] if p != "[key]")
+            self.add(prefix + loc, _describe(err, model, loc))
+        bad = {str(e["loc"][0]) for e in errors if e["loc"]}
+        if not partial or not isinstance(raw, dict) or bad & {"name", "when"}:
             return None
         try:
             return model.model_validate({k: v for k, v in raw.items() if str(k) not in bad})

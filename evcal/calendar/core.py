@@ -9,9 +9,16 @@ import pandas as pd
 
 from evcal.calendar import rules as R
 from evcal.calendar.holidays_source import HolidaySource, suggest
-from evcal.calendar.occurrences import as_day, day_number, expand, to_frame
+from evcal.calendar.occurrences import (
+    as_day,
+    column_layout,
+    coverage,
+    day_number,
+    expand,
+    to_frame,
+    weight_matrix,
+)
 from evcal.calendar.spec import EventSpec, ExclusionSpec, InterventionSpec
-from evcal.calendar.weights import column_layout, covered_days, weight_matrix
 from evcal.errors import CalendarError
 
 
@@ -65,8 +72,10 @@ class Calendar:
             if ev.name == name:
                 return ev
         near = suggest(name, [e.name for e in self.events])
-        hint = f"did you mean {', '.join(repr(n) for n in near)}?" if near else (
-            "check the event names with `evcal calendar check`"
+        hint = (
+            f"did you mean {', '.join(repr(n) for n in near)}?"
+            if near
+            else ("check the event names with `evcal calendar check`")
         )
         raise CalendarError(f"{self.source}: no event called '{name}'; {hint}")
 
@@ -149,9 +158,9 @@ class Calendar:
     def closed_days(self, start: object, end: object) -> pd.Series:
         """True on days inside the window of any ``effect: zero`` event (closures)."""
         first, last = self._range(start, end)
-        closures = [e for e in self.events if e.is_closure]
+        closures = self.closures()
         n_days = (last - first).days + 1
-        mask = covered_days(expand(closures, first, last), closures, day_number(first), n_days)
+        mask = coverage(closures, expand(closures, first, last), day_number(first), n_days).any(axis=1)
         index = pd.date_range(first, last, freq="D", name="date")
         return pd.Series(mask, index=index, name="closed")
 

@@ -1,10 +1,8 @@
 """One validated ``events:`` item -> an :class:`~evcal.calendar.spec.EventSpec` with its date rule.
 
-The pydantic pass has checked each key on its own; here the keys are checked
-against each other (a span sets its own length, a ``dates`` rule lists its own
-years, a ``daily`` shape needs occurrences of one length, a ``moved`` year must
-be a year the event occurs in) and the ``when`` block becomes a rule of
-:mod:`evcal.calendar.rules`.
+The pydantic pass has checked each key on its own; here the keys are checked against each
+other (a span sets its own length, a ``dates`` rule lists its own years, a ``daily`` shape
+needs occurrences of one length, a ``moved`` year must be a year the event occurs in).
 """
 
 from __future__ import annotations
@@ -26,6 +24,17 @@ __all__ = ["DEFAULT_HOLIDAY_YEARS", "build_event", "build_rule"]
 # `years` bounds. Wide enough for any history or plan we expect; a choice, documented.
 DEFAULT_HOLIDAY_YEARS = (2000, 2035)
 
+# Each `when:` key's validated value -> its date rule (`holiday` and `dates` need more).
+_RULES = {
+    "easter": R.EasterRule,
+    "orthodox_easter": R.OrthodoxEasterRule,
+    "fixed": lambda month_day: R.FixedRule(*month_day),
+    "weekday": lambda w: R.WeekdayRule(month=w.month, weekday=w.day, nth=w.nth),
+    "span": lambda s: R.SpanRule(*s.start, *s.end),
+    "every_weekday": R.EveryWeekdayRule,
+    "dates": lambda dates: R.DatesRule(tuple(R.Hit(d.start, d.end, d.strength) for d in dates)),
+}
+
 
 def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource | None) -> EventSpec | None:
     """The spec of event number ``i`` (0-based), or None when its rule cannot be built.
@@ -34,7 +43,6 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
 
     Examples
     --------
-    >>> from evcal.calendar.schema import EventModel
     >>> log = ProblemLog({})
     >>> ev = EventModel.model_validate({"name": "sale", "when": {"fixed": "05-01"}, "length": 3})
     >>> spec = build_event(log, ev, 0, None)
@@ -44,22 +52,26 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
     loc: tuple[Any, ...] = ("events", i)
     name = ev.name.strip()
     if not name or any(c in name for c in "[]\n"):
-        log.add((*loc, "name"), f"'{ev.name}' cannot be an event name; use letters, "
-                "digits, spaces or dashes (no square brackets)")
+        log.add(
+            (*loc, "name"),
+            f"'{ev.name}' cannot be an event name; use letters, digits, spaces or dashes "
+            "(no square brackets)",
+        )
     rule = build_rule(log, ev.when, (*loc, "when"), source)
     if rule is None:
         return None
     kind = ev.when.kind
-    length = ev.length if ev.length is not None else 1
-    if kind == "span":
+    length = ev.length or 1
+    if isinstance(rule, R.SpanRule):
         if ev.length is not None:
-            log.add((*loc, "length"), "a span sets its own length from start to end; "
-                    "remove `length`")
-        assert isinstance(rule, R.SpanRule)
+            log.add((*loc, "length"), "a span sets its own length from start to end; remove `length`")
         length = rule.max_length()
     if kind == "every_weekday" and ev.moved:
-        log.add((*loc, "moved"), "every_weekday occurs on many days a year, so it cannot "
-                "be moved; use skip and a `dates` event instead")
+        log.add(
+            (*loc, "moved"),
+            "every_weekday occurs on many days a year, so it cannot be moved; use skip and a `dates` "
+            "event instead",
+        )
     if kind == "dates" and ev.years.kind != "all":
         log.add((*loc, "years"), "a `dates` rule lists its own years; remove `years`")
     if ev.shape == "daily":
@@ -77,82 +89,64 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
         effect=ev.effect,
         years=ev.years,
         skip=tuple(sorted(set(ev.skip))),
-        moved={},
         offset=ev.when.offset,
         line=log.line(loc),
     )
-    moved: dict[int, MovedSpec] = {}
     for year, item in ev.moved.items():
         where = (*loc, "moved", year)
         if year in spec.skip:
             log.add(where, f"{year} is both skipped and moved; keep one of them")
-            continue
-        if kind != "every_weekday" and not spec.occurs_in(year):
-            log.add(where, f"{year} is not a year this event occurs in ({_years_text(spec)});"
-                    " move one of its years, or add the year to `years`")
-            continue
-        end = item.end if item.end is not None else item.start + dt.timedelta(days=length - 1)
-        moved[year] = MovedSpec(pd.Timestamp(item.start), pd.Timestamp(end), item.strength)
-    object.__setattr__(spec, "moved", moved)
+        elif kind != "every_weekday" and not spec.occurs_in(year):
+            log.add(
+                where,
+                f"{year} is not a year this event occurs in ({_years_text(spec)}); move one of its "
+                "years, or add the year to `years`",
+            )
+        else:
+            end = item.end or item.start + dt.timedelta(days=length - 1)
+            spec.moved[year] = MovedSpec(pd.Timestamp(item.start), pd.Timestamp(end), item.strength)
     return spec
 
 
 def _check_daily(log: ProblemLog, ev: EventModel, loc: tuple[Any, ...], rule: R.Rule, length: int) -> None:
-    items: list[tuple[tuple[Any, ...], dt.date, dt.date | None]] = []
-    if isinstance(rule, R.DatesRule):
-        items += [((*loc, "when", "dates", j), h.start, h.end) for j, h in enumerate(rule.items)]
-    items += [((*loc, "moved", y), m.start, m.end) for y, m in ev.moved.items()]
-    for where, start, end in items:
-        days = (end - start).days + 1 if end is not None else length
+    items = [((*loc, "when", "dates", j), h) for j, h in enumerate(getattr(rule, "items", ()))]
+    items += [((*loc, "moved", y), m) for y, m in ev.moved.items()]
+    for where, item in items:
+        days = (item.end - item.start).days + 1 if item.end is not None else length
         if days != length:
-            log.add(where, f"lasts {days} days but shape daily needs every occurrence to last"
-                    f" `length` = {length} days; make them the same length")
+            log.add(
+                where,
+                f"lasts {days} days but shape daily needs every occurrence to last `length` = {length} "
+                "days; make them the same length",
+            )
 
 
-def build_rule(log: ProblemLog, when: WhenModel, loc: tuple[Any, ...], source: HolidaySource | None
-               ) -> R.Rule | None:
+def build_rule(
+    log: ProblemLog, when: WhenModel, loc: tuple[Any, ...], source: HolidaySource | None
+) -> R.Rule | None:
     """The date rule of a ``when`` block at ``loc``, or None (with the problem in ``log``).
 
     Examples
     --------
-    >>> from evcal.calendar.schema import WhenModel
     >>> build_rule(ProblemLog({}), WhenModel.model_validate({"easter": -2}), ("when",), None)
     EasterRule(days=-2, kind='easter', method=3)
     """
     kind = when.kind
-    if kind == "easter":
-        return R.EasterRule(when.easter or 0)
-    if kind == "orthodox_easter":
-        return R.OrthodoxEasterRule(when.orthodox_easter or 0)
-    if kind == "fixed":
-        assert when.fixed is not None
-        return R.FixedRule(*when.fixed)
-    if kind == "weekday":
-        w = when.weekday
-        assert w is not None
-        return R.WeekdayRule(month=w.month, weekday=w.day, nth=w.nth)
-    if kind == "span":
-        s = when.span
-        assert s is not None
-        return R.SpanRule(*s.start, *s.end)
-    if kind == "every_weekday":
-        assert when.every_weekday is not None
-        return R.EveryWeekdayRule(when.every_weekday)
-    if kind == "dates":
-        assert when.dates is not None
-        if not when.dates:
-            log.add((*loc, "dates"), "the list of dates is empty; list at least one date")
-            return None
-        return R.DatesRule(tuple(R.Hit(d.start, d.end, d.strength) for d in when.dates))
-    # holiday
+    if kind == "dates" and not when.dates:
+        log.add((*loc, "dates"), "the list of dates is empty; list at least one date")
+        return None
+    if kind != "holiday":
+        return _RULES[kind](getattr(when, kind))
     name = (when.holiday or "").strip()
     if source is None:
-        log.add((*loc, "holiday"), f"there is no public_holidays block to look '{name}' up in;"
-                " add one, e.g. public_holidays: {country: GB, subdivision: ENG}")
+        log.add(
+            (*loc, "holiday"),
+            f"there is no public_holidays block to look '{name}' up in; add one, e.g. public_holidays: "
+            "{country: GB, subdivision: ENG}",
+        )
         return None
     try:
-        lo, hi = DEFAULT_HOLIDAY_YEARS
-        source.check_name(name, range(lo, hi + 1))
+        source.check_name(name, range(DEFAULT_HOLIDAY_YEARS[0], DEFAULT_HOLIDAY_YEARS[1] + 1))
     except HolidaySourceError as err:
         log.add((*loc, "holiday"), str(err))
         return None
@@ -162,10 +156,10 @@ def build_rule(log: ProblemLog, when: WhenModel, loc: tuple[Any, ...], source: H
 def _years_text(spec: EventSpec) -> str:
     if isinstance(spec.when, R.DatesRule):
         return "its dates are in " + ", ".join(str(y) for y in spec.when.years())
-    text = spec.years.describe()
-    if spec.years.kind == "every" and spec.years.start is not None and spec.years.every:
-        first = spec.years.start
-        text += ": " + ", ".join(str(first + k * spec.years.every) for k in range(3)) + ", ..."
-    elif spec.years.kind == "all":
-        text = "every year"
-    return text
+    years = spec.years
+    if years.kind == "all":
+        return "every year"
+    if years.kind == "every" and years.start is not None and years.every:
+        steps = ", ".join(str(years.start + k * years.every) for k in range(3))
+        return f"{years.describe()}: {steps}, ..."
+    return years.describe()

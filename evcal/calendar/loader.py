@@ -1,30 +1,43 @@
 """Read a calendar file into a :class:`~evcal.calendar.Calendar`, or list every problem.
 
-Checking happens in three passes, each collecting problems instead of
-stopping at the first:
+Checking happens in three passes, each collecting problems instead of stopping at the first:
 
-1. YAML (syntax, tags, duplicate keys) in :mod:`evcal.calendar.yamlread`;
-2. keys and value types, section by section and event by event, with the
-   pydantic models of :mod:`evcal.calendar.schema` (values parsed in
-   :mod:`evcal.calendar.value_parsers`), read into specs by
-   :mod:`evcal.calendar.spec_reader` and :mod:`evcal.calendar.event_builder`;
-3. what only the whole file can tell: duplicate names and ``like:`` targets
-   (:mod:`evcal.calendar.cross_checks`), ``moved`` years (checked as each
-   event is built), public-holiday countries and names.
+1. YAML (syntax, tags, duplicate keys, bounds) in :mod:`evcal.calendar.yamlread`;
+2. keys and value types, section by section and event by event, with the pydantic models of
+   :mod:`evcal.calendar.schema`; events become specs in :mod:`evcal.calendar.event_builder`;
+3. what only the whole file can tell: duplicate names and ``like:`` targets (read from the raw
+   ``events:`` list, so an event with another problem still takes part), ``moved`` years,
+   public-holiday countries and names.
 
-Every problem becomes one line ``<file>:<line>: <key path>: <what is wrong>;
-<what would be right>`` in a :class:`~evcal.errors.CalendarError`.
+Every problem becomes one line ``<file>:<line>: <key path>: <what is wrong>; <what would be
+right>`` in a :class:`~evcal.errors.CalendarError`.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any
 
-from evcal.calendar.core import Calendar
+import pandas as pd
+
+from evcal.calendar import rules as R
+from evcal.calendar.core import Calendar, PublicHolidays
+from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event
+from evcal.calendar.holidays_source import HolidaySource, HolidaySourceError, suggest
 from evcal.calendar.problem_log import ProblemLog
-from evcal.calendar.spec_reader import read_calendar_spec
+from evcal.calendar.schema import (
+    CalendarModel,
+    EventModel,
+    ExclusionModel,
+    InterventionModel,
+    PublicHolidaysModel,
+)
+from evcal.calendar.spec import EventSpec, ExclusionSpec, InterventionSpec
+from evcal.calendar.value_parsers import parse_effect, show
 from evcal.calendar.yamlread import Problem, read_yaml
 from evcal.errors import CalendarError
+
+__all__ = ["load_calendar"]
 
 
 def load_calendar(path_or_text: str | Path) -> Calendar:
@@ -57,37 +70,30 @@ def load_calendar(path_or_text: str | Path) -> Calendar:
     """
     text, source = _read_source(path_or_text)
     data, lines, problems = read_yaml(text)
-    if problems:
-        raise CalendarError([p.format(source) for p in sorted(problems, key=_order)])
     log = ProblemLog(lines)
-    cal = read_calendar_spec(data, source, log)
-    if log.problems:
-        raise CalendarError([p.format(source) for p in sorted(log.problems, key=_order)])
+    cal = None if problems else _read_calendar(data, source, log)
+    problems = problems or log.problems
+    if problems:
+        raise CalendarError([p.format(source) for p in sorted(problems, key=lambda p: (p.line or 0, p.path))])
     assert cal is not None
     cal.text = text
     return cal
 
 
-def _order(p: Problem) -> tuple[int, str]:
-    return (p.line or 0, p.path)
-
-
 def _read_source(path_or_text: str | Path) -> tuple[str, str]:
     if isinstance(path_or_text, Path):
-        path: Path | None = path_or_text
+        path = path_or_text
     else:
         text = str(path_or_text)
-        path = None
-        if "\n" not in text and text.strip():
-            looks_like_file = text.lower().endswith((".yaml", ".yml"))
-            try:
-                is_file = Path(text).is_file()
-            except OSError:
-                is_file = False
-            if looks_like_file or is_file:
-                path = Path(text)
-        if path is None:
+        if "\n" in text or not text.strip():
             return text, "<text>"
+        try:
+            is_file = Path(text).is_file()
+        except OSError:
+            is_file = False
+        if not (is_file or text.lower().endswith((".yaml", ".yml"))):
+            return text, "<text>"
+        path = Path(text)
     source = str(path)
     if not path.exists():
         raise CalendarError(f"{source}: no such file; check the path")
@@ -96,11 +102,182 @@ def _read_source(path_or_text: str | Path) -> tuple[str, str]:
     try:
         return path.read_bytes().decode("utf-8-sig"), source
     except UnicodeDecodeError as err:
-        raise CalendarError(
-            f"{source}: not UTF-8 text (byte {err.start}); save the file as UTF-8"
-        ) from None
+        raise CalendarError(f"{source}: not UTF-8 text (byte {err.start}); save the file as UTF-8") from None
     except OSError as err:
         raise CalendarError(f"{source}: cannot be read ({err.strerror}); check permissions") from None
 
 
-__all__ = ["load_calendar"]
+def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
+    """The calendar that ``data`` (the file's YAML, parsed) describes, or None when ``log`` has problems."""
+    if data is None:
+        log.problems.append(
+            Problem(1, "(top level)", "the file is empty; write at least `name:` and `events:`")
+        )
+        return None
+    if not isinstance(data, dict):
+        kind = "a list" if isinstance(data, list) else f"{type(data).__name__} {show(data)}"
+        log.add((), f"the top level is {kind}, not a block of keys; start with `name:` and `events:`")
+        return None
+    log.raw = data
+    top = log.validate(CalendarModel, data, ())
+    name = top.name if top is not None else str(data.get("name", ""))
+
+    holidays: HolidaySource | None = None
+    public: PublicHolidays | None = None
+    if data.get("public_holidays") is not None:
+        block = log.validate(PublicHolidaysModel, data["public_holidays"], ("public_holidays",))
+        if block is not None:
+            holidays, public = _public_holidays(log, block)
+
+    raw_events = _items(data, "events")
+    holiday_names = [e.name for e in public.events] if public is not None else []
+    _check_names(log, raw_events, holiday_names)
+    events: list[EventSpec] = []
+    for i, raw in enumerate(raw_events):
+        ev = log.validate(EventModel, raw, ("events", i), partial=True)
+        spec = build_event(log, ev, i, holidays) if ev is not None else None
+        if spec is not None:
+            events.append(spec)
+    if public is not None:
+        events += [e for e in public.events if e.name not in {x.name for x in events}]
+    _check_like(log, raw_events, holiday_names)
+
+    interventions: list[InterventionSpec] = []
+    for i, raw in enumerate(_items(data, "interventions")):
+        iv = log.validate(InterventionModel, raw, ("interventions", i))
+        if iv is None:
+            continue
+        if any(x.name == iv.name for x in [*events, *interventions]):
+            log.add(
+                ("interventions", i, "name"),
+                f"name '{iv.name}' is already used by an event or intervention; give each its own name",
+            )
+            continue
+        decay = (0.7 if iv.decay is None else iv.decay) if iv.type == "temporary" else None
+        end = pd.Timestamp(iv.end) if iv.end is not None else None
+        interventions.append(
+            InterventionSpec(
+                iv.name,
+                iv.type,
+                pd.Timestamp(iv.start),
+                end,
+                decay,
+                iv.label or iv.name,
+                log.line(("interventions", i)),
+            )
+        )
+    exclusions = [
+        ExclusionSpec(pd.Timestamp(ex.start), pd.Timestamp(ex.end), ex.reason, log.line(("exclude", i)))
+        for i, raw in enumerate(_items(data, "exclude"))
+        if (ex := log.validate(ExclusionModel, raw, ("exclude", i))) is not None
+    ]
+    if log.problems:
+        return None
+    return Calendar(name, source, events, interventions, exclusions, public)
+
+
+def _items(data: dict[str, Any], section: str) -> list[Any]:
+    """The items of a list section (not a list: reported by the top-level model)."""
+    items = data.get(section)
+    return items if isinstance(items, list) else []
+
+
+def _public_holidays(
+    log: ProblemLog, block: PublicHolidaysModel
+) -> tuple[HolidaySource | None, PublicHolidays | None]:
+    loc = ("public_holidays",)
+    try:
+        source = HolidaySource.create(block.country, block.subdivision, block.language)
+    except HolidaySourceError as err:
+        log.add((*loc, err.key), str(err))
+        return None, None
+    lo, hi = block.years.bounds()
+    name_years = range(lo or DEFAULT_HOLIDAY_YEARS[0], (hi or DEFAULT_HOLIDAY_YEARS[1]) + 1)
+    names = source.names(name_years) if block.only is None else []
+    for j, wanted in enumerate(block.only or []):
+        try:
+            source.check_name(wanted, name_years)
+        except HolidaySourceError as err:
+            log.add((*loc, "only", j), str(err))
+            continue
+        if wanted not in names:
+            names.append(wanted)
+    line = log.line(loc)
+    events = tuple(
+        EventSpec(
+            n,
+            "holiday",
+            R.HolidayRule(n, source),
+            label=n,
+            group="public_holiday",
+            before=block.before,
+            after=block.after,
+            shape=block.shape,
+            years=block.years,
+            line=line,
+        )
+        for n in names
+    )
+    return source, PublicHolidays(source, tuple(name_years), events)
+
+
+def _check_names(log: ProblemLog, raw_events: list[Any], holiday_names: list[str]) -> None:
+    """Duplicate event names, also against the public-holiday events."""
+    first: dict[str, int | None] = {}
+    for i, raw in enumerate(raw_events):
+        name = raw.get("name") if isinstance(raw, dict) else None
+        if not isinstance(name, str) or not name.strip():
+            continue
+        name = name.strip()
+        where = ("events", i, "name")
+        if name in first:
+            log.add(
+                where,
+                f"event name '{name}' is used twice (first at line "
+                f"{first[name]}); give each event its own name",
+            )
+        elif name in holiday_names:
+            log.add(
+                where,
+                f"'{name}' is also a public holiday from public_holidays; "
+                "rename this event, or leave the holiday out with `only`",
+            )
+        first.setdefault(name, log.line(where))
+
+
+def _check_like(log: ProblemLog, raw_events: list[Any], holiday_names: list[str]) -> None:
+    """``like:`` must name another event, and must not go round in a circle."""
+    likes: dict[str, tuple[int, str | None]] = {}
+    names = list(holiday_names)
+    for i, raw in enumerate(raw_events):
+        if not isinstance(raw, dict) or not isinstance(raw.get("name"), str):
+            continue
+        name = raw["name"].strip()
+        names.append(name)
+        try:
+            effect = parse_effect(raw.get("effect"))
+        except ValueError:
+            continue  # already reported by the schema pass
+        likes.setdefault(name, (i, effect.like))
+    for name, (i, target) in likes.items():
+        where = ("events", i, "effect", "like")
+        if target is None:
+            continue
+        if target == name:
+            log.add(where, "an event cannot borrow its own lift; name another event")
+        elif target not in names:
+            near = suggest(target, names, n=1)
+            hint = f"did you mean '{near[0]}'?" if near else "name an event of this calendar"
+            log.add(where, f"'{target}' is not an event of this calendar; {hint}")
+        else:
+            chain = [name]
+            cur: str | None = target
+            while cur is not None and cur not in chain:
+                chain.append(cur)
+                cur = likes.get(cur, (0, None))[1]
+            if cur == name:
+                log.add(
+                    where,
+                    f"`like` goes round in a circle ({' -> '.join(chain)} -> "
+                    f"{name}); one of them needs its own effect",
+                )

@@ -102,27 +102,6 @@ class FixedRule:
         return f"fixed {self.month:02d}-{self.day:02d}"
 
 
-def nth_weekday(year: int, month: int, weekday: int, nth: int) -> dt.date | None:
-    """The ``nth`` ``weekday`` (0 = Monday) of a month; negative counts from the end.
-
-    Returns ``None`` when the month has no such day (a 5th Monday in a short month).
-
-    Examples
-    --------
-    >>> nth_weekday(2024, 5, 0, -1)   # last Monday of May 2024
-    datetime.date(2024, 5, 27)
-    """
-    days = [
-        d
-        for d in _stdcal.Calendar().itermonthdates(year, month)
-        if d.month == month and d.weekday() == weekday
-    ]
-    index = nth - 1 if nth > 0 else nth
-    if -len(days) <= index < len(days):
-        return days[index]
-    return None
-
-
 @dataclass(frozen=True)
 class WeekdayRule:
     """The nth weekday of a month (``nth: -1`` is the last one)."""
@@ -133,8 +112,10 @@ class WeekdayRule:
     kind: str = "weekday"
 
     def hits(self, year: int) -> list[Hit]:
-        day = nth_weekday(year, self.month, self.weekday, self.nth)
-        return [] if day is None else [Hit(day)]
+        weeks = _stdcal.Calendar().monthdayscalendar(year, self.month)  # Monday first; 0 = not this month
+        days = [week[self.weekday] for week in weeks if week[self.weekday]]
+        index = self.nth - 1 if self.nth > 0 else self.nth
+        return [Hit(dt.date(year, self.month, days[index]))] if -len(days) <= index < len(days) else []
 
     def describe(self) -> str:
         return f"weekday nth {self.nth} {WEEKDAY_ABBR[self.weekday]} of month {self.month}"
@@ -164,10 +145,7 @@ class SpanRule:
         return max((h.end - h.start).days + 1 for y in (2023, 2024) for h in self.hits(y) if h.end)
 
     def describe(self) -> str:
-        return (
-            f"span {self.start_month:02d}-{self.start_day:02d} to "
-            f"{self.end_month:02d}-{self.end_day:02d}"
-        )
+        return f"span {self.start_month:02d}-{self.start_day:02d} to {self.end_month:02d}-{self.end_day:02d}"
 
 
 @dataclass(frozen=True)
@@ -182,9 +160,7 @@ class EveryWeekdayRule:
         n_days = 366 if _stdcal.isleap(year) else 365
         wanted = set(self.weekdays)
         return [
-            Hit(first + dt.timedelta(days=i))
-            for i in range(n_days)
-            if (first.weekday() + i) % 7 in wanted
+            Hit(first + dt.timedelta(days=i)) for i in range(n_days) if (first.weekday() + i) % 7 in wanted
         ]
 
     def describe(self) -> str:

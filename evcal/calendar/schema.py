@@ -12,11 +12,11 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from typing import Annotated, Any, Literal
+from typing import Annotated, Any
 
 from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, model_validator
 
-from evcal.calendar.spec import EffectSpec, YearsSpec
+from evcal.calendar.spec import EffectSpec, InterventionType, Shape, YearsSpec
 from evcal.calendar.value_parsers import (
     check_year,
     parse_date,
@@ -27,24 +27,11 @@ from evcal.calendar.value_parsers import (
     show,
 )
 
-RULE_KEYS = (
-    "easter",
-    "orthodox_easter",
-    "fixed",
-    "weekday",
-    "holiday",
-    "span",
-    "every_weekday",
-    "dates",
-)
+RULE_KEYS = ("easter", "orthodox_easter", "fixed", "weekday", "holiday", "span", "every_weekday", "dates")
 MAX_DAYS = 366  # longest occurrence, run-up, run-down or offset, in days
 # The bounds are choices, not sources (see also :mod:`evcal.calendar.value_parsers`):
 #: an occurrence's strength (1 = a normal occurrence): above 0, at most 100
 MAX_STRENGTH = 100.0
-
-
-def _range_text(lo: float, hi: float) -> str:
-    return f"from {lo:g} to {hi:g}"
 
 
 def _check_strength(value: float) -> float:
@@ -70,10 +57,15 @@ def _bounded(lo: int, hi: int, what: str) -> AfterValidator:
 
     def check(value: int) -> int:
         if not lo <= value <= hi:
-            raise ValueError(f"{show(value)} is out of range; {what} must be {_range_text(lo, hi)}")
+            raise ValueError(f"{show(value)} is out of range; {what} must be from {lo:g} to {hi:g}")
         return value
 
     return AfterValidator(check)
+
+
+def _check_order(start: dt.date, end: dt.date | None) -> None:
+    if end is not None and end < start:
+        raise ValueError(f"end {end} is before start {start}; end must be on or after start")
 
 
 def _weekday_list(value: Any) -> tuple[int, ...]:
@@ -95,7 +87,6 @@ Length = Annotated[int, _bounded(1, MAX_DAYS, "a length in days")]
 Year = Annotated[int, AfterValidator(check_year)]
 Strength = Annotated[float, AfterValidator(_check_strength)]
 Decay = Annotated[float | None, AfterValidator(_check_decay)]
-Shape = Literal["flat", "ramp", "decay", "daily"]
 
 # ------------------------------------------------------------------ models
 
@@ -111,10 +102,7 @@ class _Span(_Section):
 
     @model_validator(mode="after")
     def _order(self) -> _Span:
-        if self.end is not None and self.end < self.start:
-            raise ValueError(
-                f"end {self.end} is before start {self.start}; end must be on or after start"
-            )
+        _check_order(self.start, self.end)
         if self.end is not None and (self.end - self.start).days + 1 > MAX_DAYS:
             raise ValueError(
                 f"{self.start} to {self.end} is longer than {MAX_DAYS} days; split it into "
@@ -138,9 +126,7 @@ class MovedItem(_Span):
 
 def _check_nth(nth: int) -> int:
     if nth == 0 or not -5 <= nth <= 5:
-        raise ValueError(
-            f"{nth} is not a position in a month; use 1..5 (1 = first) or -1..-5 (-1 = last)"
-        )
+        raise ValueError(f"{nth} is not a position in a month; use 1..5 (1 = first) or -1..-5 (-1 = last)")
     return nth
 
 
@@ -173,8 +159,7 @@ class WhenModel(_Section):
     def _one_rule(cls, value: Any) -> Any:
         if not isinstance(value, dict):
             raise ValueError(
-                f"{show(value)} is not a rule; write a mapping such as {{easter: -2}} or "
-                "{fixed: \"12-24\"}"
+                f'{show(value)} is not a rule; write a mapping such as {{easter: -2}} or {{fixed: "12-24"}}'
             )
         rules = [k for k in value if k in RULE_KEYS]
         unknown = [k for k in value if k not in RULE_KEYS and k != "offset"]
@@ -220,7 +205,7 @@ class PublicHolidaysModel(_Section):
 
 class InterventionModel(_Section):
     name: str
-    type: Literal["pulse", "level_shift", "temporary", "ramp"]
+    type: InterventionType
     start: Date
     end: Date | None = None
     decay: Decay = None
@@ -228,10 +213,7 @@ class InterventionModel(_Section):
 
     @model_validator(mode="after")
     def _consistent(self) -> InterventionModel:
-        if self.end is not None and self.end < self.start:
-            raise ValueError(
-                f"end {self.end} is before start {self.start}; end must be on or after start"
-            )
+        _check_order(self.start, self.end)
         if self.type == "ramp" and self.end is None:
             raise ValueError("a ramp needs `end` (the day the ramp is complete); add end: YYYY-MM-DD")
         if self.type == "level_shift" and self.end is not None:
@@ -251,10 +233,7 @@ class ExclusionModel(_Section):
 
     @model_validator(mode="after")
     def _order(self) -> ExclusionModel:
-        if self.end < self.start:
-            raise ValueError(
-                f"end {self.end} is before start {self.start}; end must be on or after start"
-            )
+        _check_order(self.start, self.end)
         return self
 
 

@@ -107,9 +107,10 @@ class MovedSpec:
 class EventSpec:
     """One event of the calendar, validated.
 
-    ``rule`` is the ``when:`` kind ("easter", "weekday", ...); ``when`` is the
-    rule object that dates it. ``length`` is the occurrence length in days for
-    rules that give single days; ``span`` and ``dates`` carry their own ends.
+    ``rule`` is the ``when:`` kind ("easter", "weekday", ...); ``when`` is the rule object that
+    dates it; ``label`` is the name unless the file gives one (the loader fills it in).
+    ``length`` is the occurrence length in days for rules that give single days; ``span`` and
+    ``dates`` carry their own ends.
     """
 
     name: str
@@ -127,10 +128,6 @@ class EventSpec:
     moved: dict[int, MovedSpec] = field(default_factory=dict)
     offset: int = 0
     line: int | None = None
-
-    def __post_init__(self) -> None:
-        if not self.label:
-            object.__setattr__(self, "label", self.name)
 
     @property
     def window_offsets(self) -> list[int]:
@@ -182,10 +179,6 @@ class InterventionSpec:
     decay: float | None = None
     label: str = ""
     line: int | None = None
-
-    def __post_init__(self) -> None:
-        if not self.label:
-            object.__setattr__(self, "label", self.name)
 
 
 @dataclass(frozen=True)

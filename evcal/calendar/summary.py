@@ -22,9 +22,7 @@ import numpy as np
 
 from evcal.calendar import rules as R
 from evcal.calendar.core import Calendar
-from evcal.calendar.occurrences import EPOCH_ORDINAL, as_day, day_number, expand
-from evcal.calendar.spec import EventSpec
-from evcal.calendar.weights import window_days
+from evcal.calendar.occurrences import EPOCH_ORDINAL, as_day, coverage, day_number, expand
 
 
 @dataclass(frozen=True)
@@ -54,23 +52,6 @@ def _year_list(years: Sequence[int]) -> str:
     if len(years) > 6:
         return f"{', '.join(map(str, years[:3]))}, ... {years[-1]} ({len(years)} years)"
     return ", ".join(map(str, years))
-
-
-def _coverage(events: Sequence[EventSpec], first: int, n_days: int, window: bool,
-              lo_ts: object, hi_ts: object) -> np.ndarray:
-    """Boolean day × event: day inside an occurrence (or its window)."""
-    occ = expand(events, lo_ts, hi_ts)  # type: ignore[arg-type]
-    grid = np.zeros((n_days, len(events)), dtype=bool)
-    if len(occ) == 0:
-        return grid
-    row, day, k, _ = window_days(events, occ)
-    if not window:
-        length = (occ.end - occ.start + 1)[row]
-        inside = (k >= 0) & (k < length)
-        row, day = row[inside], day[inside]
-    ok = (day >= first) & (day < first + n_days)
-    grid[day[ok] - first, occ.event[row[ok]]] = True
-    return grid
 
 
 def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckReport:
@@ -157,8 +138,9 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
     # Pairs of events: overlapping occurrences, and identical windows in every year.
     pairable = [e for e in events if e.rule != "every_weekday"]
     if len(pairable) > 1:
-        days = _coverage(pairable, first, n_days, False, lo, hi)
-        wins = _coverage(pairable, first, n_days, True, lo, hi)
+        pair_occ = expand(pairable, lo, hi)
+        days = coverage(pairable, pair_occ, first, n_days, window=False)
+        wins = coverage(pairable, pair_occ, first, n_days)
         shared = days.T.astype(np.int64) @ days.astype(np.int64)
         for i in range(len(pairable)):
             for j in range(i + 1, len(pairable)):

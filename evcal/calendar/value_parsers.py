@@ -1,10 +1,8 @@
-"""The calendar file's values that a person writes in several forms, parsed one by one.
+"""The calendar file's values that a person writes in several forms: ``years``, ``effect``, ``15%``,
+dates, month-days, weekday names.
 
-``years``, ``effect``, ``15%``, dates, month-days and weekday names are parsed
-by small functions that raise ``ValueError`` with a message of the form "what
-is wrong; what would be right"; the pydantic models of
-:mod:`evcal.calendar.schema` call them, and the loader adds the file, line and
-key path in front. :func:`show` quotes a user's value in any such message.
+Each parser raises ``ValueError`` with "what is wrong; what would be right"; the pydantic models
+of :mod:`evcal.calendar.schema` call them. :func:`show` quotes a user's value in any message.
 """
 
 from __future__ import annotations
@@ -111,13 +109,10 @@ _MD = re.compile(r"^(\d{1,2})-(\d{1,2})$")
 
 
 def _days_in_month_text(year: int | None, month: int) -> str:
-    if year is None:
-        n = 29 if month == 2 else _stdcal.monthrange(2023, month)[1]
-        return f"{MONTHS[month - 1]} has at most {n} days" if month == 2 else (
-            f"{MONTHS[month - 1]} has {n} days"
-        )
-    n = _stdcal.monthrange(year, month)[1]
-    return f"{MONTHS[month - 1]} {year} has {n} days"
+    if year is not None:
+        return f"{MONTHS[month - 1]} {year} has {_stdcal.monthrange(year, month)[1]} days"
+    at_most = "at most " if month == 2 else ""
+    return f"{MONTHS[month - 1]} has {at_most}{_stdcal.monthrange(2024, month)[1]} days"  # a leap year
 
 
 def parse_date(value: Any) -> dt.date:
@@ -150,8 +145,7 @@ def parse_date(value: Any) -> dt.date:
         raise ValueError(f"{text} is not a date (there is no month {month}); write YYYY-MM-DD")
     if not 1 <= day <= _stdcal.monthrange(year, month)[1]:
         raise ValueError(
-            f"{text} is not a date ({_days_in_month_text(year, month)}); "
-            "write a real date as YYYY-MM-DD"
+            f"{text} is not a date ({_days_in_month_text(year, month)}); write a real date as YYYY-MM-DD"
         )
     return dt.date(year, month, day)
 
@@ -161,18 +155,16 @@ def parse_month_day(value: Any, allow_feb29: bool = True) -> tuple[int, int]:
     text = str(value).strip()
     m = _MD.match(text)
     if not m or isinstance(value, bool | int | float):
-        raise ValueError(f"{show(value)} is not a month-day; write it as \"MM-DD\", e.g. \"12-24\"")
+        raise ValueError(f'{show(value)} is not a month-day; write it as "MM-DD", e.g. "12-24"')
     month, day = int(m.group(1)), int(m.group(2))
     if not 1 <= month <= 12:
-        raise ValueError(f"\"{text}\" has no month {month}; write \"MM-DD\" with MM from 01 to 12")
-    top = 29 if month == 2 else _stdcal.monthrange(2023, month)[1]
-    if not 1 <= day <= top:
+        raise ValueError(f'"{text}" has no month {month}; write "MM-DD" with MM from 01 to 12')
+    if not 1 <= day <= _stdcal.monthrange(2024, month)[1]:  # a leap year: 02-29 exists
         raise ValueError(
-            f"\"{text}\" is not a day of the year ({_days_in_month_text(None, month)}); "
-            "write a real \"MM-DD\""
+            f'"{text}" is not a day of the year ({_days_in_month_text(None, month)}); write a real "MM-DD"'
         )
     if month == 2 and day == 29 and not allow_feb29:
-        raise ValueError("\"02-29\" exists in leap years only; use \"02-28\" or \"03-01\" here")
+        raise ValueError('"02-29" exists in leap years only; use "02-28" or "03-01" here')
     return month, day
 
 
@@ -257,9 +249,7 @@ def parse_years(value: Any) -> YearsSpec:
             first = _int(value["from"], "from") if "from" in value else None
             last = _int(value["to"], "to") if "to" in value else None
             if first is not None and last is not None and last < first:
-                raise ValueError(
-                    f"to: {last} is before from: {first}; `to` must be the same year or later"
-                )
+                raise ValueError(f"to: {last} is before from: {first}; `to` must be the same year or later")
             return YearsSpec("range", first=first, last=last)
         unknown = sorted(keys - {"every", "start", "from", "to"})
         if unknown:

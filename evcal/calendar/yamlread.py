@@ -1,21 +1,17 @@
 """Safe YAML reading that keeps the line of every key.
 
-The calendar file is read with a subclass of PyYAML's ``SafeLoader`` that
+The calendar file is read with PyYAML's ``SafeLoader`` (on libyaml when PyYAML has it), changed to
 
-* never builds Python objects: any tag other than the plain YAML types
-  (``!!python/object``, ``!custom``) is reported, and nothing is constructed;
-* leaves dates as text, so that an impossible date (``2023-02-30``) becomes a
-  clear message from the validator instead of a crash inside the parser;
-* reads only ``true``/``false`` as booleans (YAML 1.2), so the country code
-  ``NO`` (Norway) or a weekday written ``on`` stays text;
-* is bounded: before anything is composed, the parser's events are read once
-  to refuse nesting deeper than :data:`MAX_DEPTH` and aliases that would
-  expand to more than :data:`MAX_ALIAS_NODES` values (a "billion laughs"
-  file) or into themselves. That pass stops at the first breach, so a hostile
-  file costs a few dozen events, whatever its size.
-
-:func:`read_yaml` returns the data and a map from key path (a tuple of
-strings) to the 1-based line where that key or list item starts.
+* build no Python objects: any tag other than the plain YAML types (``!!python/object``,
+  ``!custom``) is reported, and nothing is constructed;
+* leave dates as text, so an impossible date (``2023-02-30``) gets the validator's clear
+  message instead of a crash inside the parser;
+* read only ``true``/``false`` as booleans (YAML 1.2), so the country code ``NO`` (Norway) or a
+  weekday written ``on`` stays text;
+* be bounded: before anything is composed, the parser's events are read once to refuse nesting
+  deeper than :data:`MAX_DEPTH` and aliases that would expand to more than
+  :data:`MAX_ALIAS_NODES` values (a "billion laughs" file) or into themselves. That pass stops
+  at the first breach, so a hostile file costs a few dozen events, whatever its size.
 """
 
 from __future__ import annotations
@@ -28,54 +24,37 @@ import yaml
 
 from evcal.errors import clip
 
-#: Deepest nesting of blocks and lists accepted. A real calendar is at most 6
-#: deep (top level > events > an event > when > dates > a date; `moved` is as
-#: deep), so 32 leaves room for any hand-written style while staying far below
-#: Python's recursion limit (1000), which the pure-Python composer, the
-#: key-line walk and the validator each spend a few frames of per level.
+#: Deepest nesting of blocks and lists accepted. A real calendar is at most 6 deep (top level >
+#: events > an event > when > dates > a date; `moved` is as deep), so 32 leaves room for any
+#: hand-written style while staying far below Python's recursion limit (1000), which the
+#: pure-Python composer, the key-line walk and the validator each spend a few frames of per level.
 MAX_DEPTH = 32
-#: Most values that aliases (``*name``, ``<<: *name``) may add to the data.
-#: Calendars use an alias to repeat a `when` block or a list of dates for a
-#: few events: hundreds of values. 100,000 is far above that and still
-#: validates in a fraction of a second; a billion-laughs file (nine aliases of
-#: nine aliases ...) passes it within a few dozen events and is refused there.
+#: Most values that aliases (``*name``, ``<<: *name``) may add to the data. Calendars use an
+#: alias to repeat a `when` block or a list of dates for a few events: hundreds of values.
+#: 100,000 is far above that and still validates in a fraction of a second; a billion-laughs
+#: file (nine aliases of nine aliases ...) passes it within a few dozen events and is refused.
 MAX_ALIAS_NODES = 100_000
-# A file that libyaml cannot parse is parsed again by the pure-Python parser
-# for its clearer message; that parser is ~100x slower, so very large files
-# keep libyaml's message instead.
+# A file that libyaml cannot parse is parsed again by the pure-Python parser for its clearer
+# message; that parser is ~100x slower, so very large files keep libyaml's message instead.
 _FALLBACK_MAX_CHARS = 1_000_000
+_TAG = "tag:yaml.org,2002:"
+_PLAIN_TAGS = {_TAG + t for t in ("str", "int", "float", "bool", "null", "map", "seq", "merge")}
+_MAX_INT_CHARS = 30
 
-_PLAIN_TAGS = {
-    "tag:yaml.org,2002:" + t for t in ("str", "int", "float", "bool", "null", "map", "seq", "merge")
-}
-
-
-class _CalendarLoader(yaml.SafeLoader):
-    """SafeLoader without timestamps and with YAML 1.2 booleans."""
-
-
-# libyaml's parser (when PyYAML was built with it) composes the node tree about
-# 10x faster. Its error messages are terser, so a file that fails to parse is
-# parsed again with the pure-Python loader for the message.
-_FastBase: type = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
-
-
-class _FastCalendarLoader(_FastBase):  # type: ignore[misc, valid-type]
-    """The same loader on libyaml's parser."""
-
-
-_CalendarLoader.yaml_implicit_resolvers = {
-    first: [
-        (tag, rx)
-        for tag, rx in resolvers
-        if tag not in ("tag:yaml.org,2002:timestamp", "tag:yaml.org,2002:bool")
-    ]
+# SafeLoader's resolvers without timestamps, and with YAML 1.2 booleans only.
+_RESOLVERS = {
+    first: [(tag, rx) for tag, rx in resolvers if tag not in (_TAG + "timestamp", _TAG + "bool")]
     for first, resolvers in yaml.SafeLoader.yaml_implicit_resolvers.items()
 }
-_CalendarLoader.add_implicit_resolver(
-    "tag:yaml.org,2002:bool", re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$"), list("tTfF")
+for _first in "tTfF":
+    _RESOLVERS[_first].append((_TAG + "bool", re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$")))
+_CalendarLoader = type("_CalendarLoader", (yaml.SafeLoader,), {"yaml_implicit_resolvers": _RESOLVERS})
+# libyaml's parser composes the node tree about 10x faster; its error messages are terser.
+_FastCalendarLoader = type(
+    "_FastCalendarLoader",
+    (getattr(yaml, "CSafeLoader", yaml.SafeLoader),),
+    {"yaml_implicit_resolvers": _RESOLVERS},
 )
-_FastCalendarLoader.yaml_implicit_resolvers = _CalendarLoader.yaml_implicit_resolvers
 
 
 @dataclass(frozen=True)
@@ -94,28 +73,15 @@ class Problem:
 
 Lines = dict[tuple[str, ...], int]
 
-_INT_TAG = "tag:yaml.org,2002:int"
-_MAX_INT_CHARS = 30
-
-
-def _short_tag(tag: str) -> str:
-    short = "!!" + tag.removeprefix("tag:yaml.org,2002:") if tag.startswith("tag:yaml.org") else tag
-    return clip(short)
-
-
-_OPEN = (yaml.SequenceStartEvent, yaml.MappingStartEvent)
-_CLOSE = (yaml.SequenceEndEvent, yaml.MappingEndEvent)
-
 
 def check_bounds(loader: yaml.SafeLoader) -> Problem | None:
     """Read ``loader``'s parser events and return the first breach of the bounds, or None.
 
-    Counts, before any node is composed: the nesting depth (against
-    :data:`MAX_DEPTH`) and the number of values the aliases would add when the
-    data is built (against :data:`MAX_ALIAS_NODES`), from the size of each
-    anchored block as it closes. An alias used inside the block it names would
-    repeat forever and is refused too. Stops at the first breach; syntax
-    errors are raised as PyYAML raises them.
+    Counts, before any node is composed: the nesting depth (against :data:`MAX_DEPTH`) and the
+    number of values the aliases would add when the data is built (against
+    :data:`MAX_ALIAS_NODES`), from the size of each anchored block as it closes. An alias used
+    inside the block it names would repeat forever and is refused too. Syntax errors are raised
+    as PyYAML raises them.
 
     Examples
     --------
@@ -127,35 +93,30 @@ def check_bounds(loader: yaml.SafeLoader) -> Problem | None:
     frames: list[list[Any]] = []  # per open block: [anchor, values so far]
     sizes: dict[str, int] = {}  # anchor -> values in its block
     added = 0
-    while True:
-        event = loader.get_event()
-        if event is None or isinstance(event, yaml.StreamEndEvent):
-            return None
+    while (event := loader.get_event()) is not None and not isinstance(event, yaml.StreamEndEvent):
         line = event.start_mark.line + 1 if event.start_mark is not None else None
         size = 0
-        if isinstance(event, _OPEN):
+        if isinstance(event, yaml.SequenceStartEvent | yaml.MappingStartEvent):
             frames.append([event.anchor, 1])
             if len(frames) > MAX_DEPTH:
                 return Problem(
-                    line, "YAML",
+                    line,
+                    "YAML",
                     f"the data is nested more than {MAX_DEPTH} levels deep here; a calendar needs "
                     "at most 6 (top level, events, an event, when, dates, a date): check for "
                     "unclosed brackets",
                 )
             continue
-        if isinstance(event, _CLOSE):
+        if isinstance(event, yaml.SequenceEndEvent | yaml.MappingEndEvent):
             anchor, size = frames.pop()
-            if anchor is not None:
-                sizes[anchor] = size
         elif isinstance(event, yaml.ScalarEvent):
-            size = 1
-            if event.anchor is not None:
-                sizes[event.anchor] = 1
+            anchor, size = event.anchor, 1
         elif isinstance(event, yaml.AliasEvent):
-            name = event.anchor
+            name, anchor = event.anchor, None
             if any(anchor == name for anchor, _ in frames):
                 return Problem(
-                    line, "YAML",
+                    line,
+                    "YAML",
                     f"alias *{clip(name, 60)} is used inside the block it names "
                     f"(&{clip(name, 60)}), so it would repeat forever; refer only to a block "
                     "that is complete",
@@ -164,43 +125,49 @@ def check_bounds(loader: yaml.SafeLoader) -> Problem | None:
             added += size
             if added > MAX_ALIAS_NODES:
                 return Problem(
-                    line, "YAML",
+                    line,
+                    "YAML",
                     f"the aliases (*name) up to here would expand to more than "
                     f"{MAX_ALIAS_NODES:,} values; a calendar repeats a block a few times at "
                     "most: write the values out, or use fewer aliases of aliases",
                 )
+        else:
+            anchor = None
+        if anchor is not None:
+            sizes[anchor] = size
         if frames:
             frames[-1][1] += size
+    return None
 
 
-def _walk(node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[Problem],
-          seen: set[int]) -> None:
+def _walk(
+    node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[Problem], seen: set[int]
+) -> None:
+    """Record the line of every key under ``node``; report tags, huge ints and duplicate keys."""
     if id(node) in seen:  # an alias used again: already walked
         return
     seen.add(id(node))
+    where = (node.start_mark.line + 1, ".".join(path) or "(top level)")
     if node.tag not in _PLAIN_TAGS:
+        tag = clip("!!" + node.tag.removeprefix(_TAG) if node.tag.startswith(_TAG) else node.tag)
         problems.append(
             Problem(
-                node.start_mark.line + 1,
-                ".".join(path) or "(top level)",
-                f"YAML tag '{_short_tag(node.tag)}' is not allowed (the calendar is read as plain data, "
-                "never as code); write a plain value",
+                *where,
+                f"YAML tag '{tag}' is not allowed (the calendar is read as plain data, never as code); "
+                "write a plain value",
             )
         )
-        return
-    if node.tag == _INT_TAG and len(str(node.value)) > _MAX_INT_CHARS:
-        # Python refuses to turn more than 4300 digits into an int (a ValueError deep in
-        # the constructor); no setting of a calendar needs more than a few digits.
+    elif node.tag == _TAG + "int" and len(str(node.value)) > _MAX_INT_CHARS:
+        # Python refuses to turn more than 4300 digits into an int (a ValueError deep in the
+        # constructor); no setting of a calendar needs more than a few digits.
         problems.append(
             Problem(
-                node.start_mark.line + 1,
-                ".".join(path) or "(top level)",
+                *where,
                 f"a whole number of {len(str(node.value))} characters is far too long for any "
                 "setting here; write a number of a few digits",
             )
         )
-        return
-    if isinstance(node, yaml.MappingNode):
+    elif isinstance(node, yaml.MappingNode):
         first_line: dict[str, int] = {}
         for key_node, value_node in node.value:
             key = str(key_node.value) if isinstance(key_node, yaml.ScalarNode) else "?"
@@ -210,8 +177,8 @@ def _walk(node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[P
                     Problem(
                         line,
                         ".".join((*path, key)),
-                        f"key `{key}` appears twice in this block (first at line "
-                        f"{first_line[key]}); keep one",
+                        f"key `{key}` appears twice in this block (first at line {first_line[key]}); "
+                        "keep one",
                     )
                 )
             first_line.setdefault(key, line)
@@ -227,10 +194,9 @@ def _walk(node: yaml.Node, path: tuple[str, ...], lines: Lines, problems: list[P
 def _compose(cls: type, text: str) -> tuple[Any, yaml.Node | None, Problem | None]:
     """(loader, node, None) once the bounds hold, else (None, None, the breach).
 
-    The bounds pass reads the parser's events with its own loader, then a fresh
-    loader composes the tree: composing is where depth and aliases would cost
-    recursion and memory (libyaml's composer is compiled code and cannot be
-    interrupted part-way).
+    The bounds pass reads the parser's events with its own loader, then a fresh loader composes
+    the tree: composing is where depth and aliases would cost recursion and memory (libyaml's
+    composer is compiled code and cannot be interrupted part-way).
     """
     scan = cls(text)
     try:
@@ -241,17 +207,17 @@ def _compose(cls: type, text: str) -> tuple[Any, yaml.Node | None, Problem | Non
         return None, None, bound
     loader = cls(text)
     try:
-        node = loader.get_single_node()
+        return loader, loader.get_single_node(), None
     except BaseException:
         loader.dispose()
         raise
-    return loader, node, None
 
 
 def read_yaml(text: str) -> tuple[Any, Lines, list[Problem]]:
     """Parse ``text``; return (data, lines, problems).
 
-    When ``problems`` is not empty, ``data`` is ``None`` and nothing was
+    ``lines`` maps each key path (a tuple of strings) to the 1-based line where that key or list
+    item starts. When ``problems`` is not empty, ``data`` is ``None`` and nothing was
     constructed. An empty document gives ``data=None`` and no problems.
 
     Examples
@@ -269,20 +235,17 @@ def read_yaml(text: str) -> tuple[Any, Lines, list[Problem]]:
             loader, node, bound = _compose(_CalendarLoader, text)
     except yaml.MarkedYAMLError as err:
         mark = err.problem_mark or err.context_mark
-        line = mark.line + 1 if mark is not None else None
         what = clip((err.problem or err.context or "not valid YAML").strip())
         ctx = err.context_mark
-        if err.problem and err.context and ctx is not None and mark is not None and (
-            ctx.line != mark.line
-        ):
+        if err.problem and err.context and ctx is not None and mark is not None and ctx.line != mark.line:
             # e.g. an unclosed '{': say where it was opened, not only where it was noticed
             what += f" ({clip(err.context.strip())} started at line {ctx.line + 1})"
+        line = mark.line + 1 if mark is not None else None
         return None, {}, [Problem(line, "YAML syntax", f"{what}; {_syntax_hint(what)}")]
     except yaml.YAMLError as err:
         return None, {}, [Problem(None, "YAML syntax", f"{clip(str(err))}; check the file is YAML")]
     if bound is not None:
         return None, {}, [bound]
-    assert loader is not None
     try:
         if node is None:
             return None, {}, []
@@ -292,27 +255,27 @@ def read_yaml(text: str) -> tuple[Any, Lines, list[Problem]]:
         if problems:
             return None, lines, problems
         try:
-            data = loader.construct_document(node)
+            return loader.construct_document(node), lines, []
         except yaml.MarkedYAMLError as err:
-            mark = err.problem_mark
-            line = mark.line + 1 if mark is not None else None
+            line = err.problem_mark.line + 1 if err.problem_mark is not None else None
             return None, lines, [Problem(line, "YAML", f"{clip(str(err.problem))}; write plain values")]
-        return data, lines, []
     finally:
         loader.dispose()
 
 
+_SYNTAX_HINTS = {
+    "mapping values are not allowed": "check the indentation, and put quotes around text that contains ': '",
+    "found character '\\t'": "indent with spaces, not tabs",
+    "tab": "indent with spaces, not tabs",
+    "expected <block end>": "check that keys of one block start in the same column",
+    "indentation": "check that keys of one block start in the same column",
+    "found undefined alias": "define the anchor (&name) before using it (*name)",
+    "expected a single document": "keep one calendar per file (remove the extra '---')",
+    "could not find expected ':'": "write each key as `key: value`",
+}
+
+
 def _syntax_hint(what: str) -> str:
-    if "mapping values are not allowed" in what:
-        return "check the indentation, and put quotes around text that contains ': '"
-    if "found character '\\t'" in what or "tab" in what:
-        return "indent with spaces, not tabs"
-    if "expected <block end>" in what or "indentation" in what:
-        return "check that keys of one block start in the same column"
-    if "found undefined alias" in what:
-        return "define the anchor (&name) before using it (*name)"
-    if "expected a single document" in what:
-        return "keep one calendar per file (remove the extra '---')"
-    if "could not find expected ':'" in what:
-        return "write each key as `key: value`"
-    return "fix the YAML syntax at this line"
+    return next(
+        (hint for words, hint in _SYNTAX_HINTS.items() if words in what), "fix the YAML syntax at this line"
+    )

@@ -105,20 +105,8 @@ def _as_ns(stamps: pd.Series) -> pd.Series:
     return stamps.astype("datetime64[ns]")
 
 
-def is_empty(cell: object) -> bool:
-    """True for NaN/None/NaT and for blank or NA-like text."""
-    if cell is None:
-        return True
-    if isinstance(cell, str):
-        return cell.strip().lower() in EMPTY_TOKENS
-    try:
-        return bool(pd.isna(cell))
-    except (TypeError, ValueError):
-        return False
-
-
 def empty_mask(cells: pd.Series) -> np.ndarray:
-    """Vectorised :func:`is_empty` over a column."""
+    """Mask of the cells that are NaN/None/NaT or blank or NA-like text (:data:`EMPTY_TOKENS`)."""
     missing = cells.isna().to_numpy()
     if cells.dtype.kind in "biufcmM":
         return missing
@@ -132,6 +120,12 @@ def quote(cell: object) -> str:
     if len(text) > 40:
         text = text[:37] + "..."
     return repr(text)
+
+
+def key_text(keys: pd.DataFrame, j: int) -> str:
+    """``product='P1', store='S2'``: how messages name series ``j`` of the key rows ``keys``."""
+    row = keys.iloc[int(j)]
+    return ", ".join(f"{c}={quote(row[c])}" for c in keys.columns)
 
 
 def _naive(ts: pd.Timestamp) -> pd.Timestamp:

@@ -25,24 +25,12 @@ _WEEKDAY_NAMES = ("Monday", "Tuesday", "Wednesday", "Thursday", "Friday", "Satur
 
 # What the user may type for --freq -> the period string (None: week end from the data).
 _FREQ_WORDS: dict[str, str | None] = {
-    "D": "D",
-    "DAILY": "D",
-    "DAY": "D",
-    "W": None,
-    "WEEKLY": None,
-    "WEEK": None,
-    "M": "M",
-    "MS": "M",
-    "ME": "M",
-    "MONTHLY": "M",
-    "MONTH": "M",
-    "Q": "Q-DEC",
-    "QS": "Q-DEC",
-    "QE": "Q-DEC",
-    "Q-DEC": "Q-DEC",
-    "QUARTERLY": "Q-DEC",
-    "QUARTER": "Q-DEC",
-} | {f"W-{day}": f"W-{day}" for day in WEEKDAYS}
+    **dict.fromkeys(("D", "DAILY", "DAY"), "D"),
+    **dict.fromkeys(("W", "WEEKLY", "WEEK"), None),
+    **dict.fromkeys(("M", "MS", "ME", "MONTHLY", "MONTH"), "M"),
+    **dict.fromkeys(("Q", "QS", "QE", "Q-DEC", "QUARTERLY", "QUARTER"), "Q-DEC"),
+    **{f"W-{day}": f"W-{day}" for day in WEEKDAYS},
+}
 
 # A run of this many equal steps larger than one period is read as a second
 # frequency inside the file (common practice, no source: 5 evenly spaced rows
@@ -239,10 +227,25 @@ def _longest_run_above_one(steps: np.ndarray) -> tuple[int, int, int] | None:
     return None
 
 
+def resolve_freq(stamps: pd.DatetimeIndex, rows: Sequence[int] | None, name: str, option: str | None) -> str:
+    """The frequency of ``stamps``: detected (``option`` None), or the user's ``--freq`` checked against them.
+
+    Plain weekly (``--freq W``) takes the week end from the day every date falls on.
+    """
+    if option is None:
+        return detect_freq(stamps, source=name, rows=rows)
+    forced = parse_freq_option(option)
+    if forced is not None:
+        check_forced_freq(stamps, rows, name, option, forced)  # never a silent misread
+        return forced
+    weekdays = stamps.day_of_week
+    modal = int(np.bincount(weekdays, minlength=7).argmax())
+    if not (weekdays == modal).all():
+        raise HistoryError(weekday_problem(stamps, rows, name, modal))
+    return weekly_freq(modal)
+
+
 _UNITS = {"D": "days", "W": "weeks", "M": "months", "Q": "quarters"}
-def _freq_code(freq: str) -> str:
-    """What to type for ``freq`` after --freq: D, W-SUN, M or Q."""
-    return "Q" if freq.startswith("Q") else freq
 
 
 def check_forced_freq(
@@ -317,10 +320,8 @@ def _instead(stamps: pd.DatetimeIndex, rows: Sequence[int] | None, name: str) ->
         found = detect_freq(stamps, source=name, rows=rows)
     except HistoryError:
         return "give the frequency the dates have, or leave --freq out to detect it"
-    return (
-        f"the dates are {describe_freq(found)}: pass --freq {_freq_code(found)}, or leave --freq "
-        "out to detect it"
-    )
+    code = "Q" if found.startswith("Q") else found  # what to type after --freq
+    return f"the dates are {describe_freq(found)}: pass --freq {code}, or leave --freq out to detect it"
 
 
 def detect_label(dates: pd.DatetimeIndex, freq: str) -> str:

@@ -23,13 +23,13 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import HistoryError
-from evcal.io.cells import MAX_VALUE, count_problems, empty_mask, parse_dates, parse_values, quote
+from evcal.io.cells import MAX_VALUE, count_problems, empty_mask, key_text, parse_dates, parse_values, quote
 from evcal.io.frequency import (
     describe_freq,
     detect_label,
 )
 from evcal.io.panel import Panel
-from evcal.io.series_freq import key_text, series_frequency
+from evcal.io.series_freq import series_frequency
 from evcal.io.tables import PARQUET_SUFFIXES, RawTable, find_column, load_table
 
 __all__ = ["Panel", "read_panel", "panel_from_frame", "split_key_option"]

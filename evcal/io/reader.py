@@ -18,15 +18,7 @@ from evcal.io.cells import (
     parse_values,
     quote,
 )
-from evcal.io.frequency import (
-    check_forced_freq,
-    describe_freq,
-    detect_freq,
-    detect_label,
-    parse_freq_option,
-    weekday_problem,
-    weekly_freq,
-)
+from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_freq_option, resolve_freq
 from evcal.io.history import History
 from evcal.io.tables import find_column, load_table
 
@@ -92,7 +84,8 @@ def read_history(
     >>> h.freq, h.label, [str(p) for p in h.values.index], [str(p) for p in h.missing]
     ('M', 'end', ['2024-01', '2024-02', '2024-03', '2024-04'], ['2024-03'])
     """
-    forced = parse_freq_option(freq) if freq is not None else None
+    if freq is not None:
+        parse_freq_option(freq)  # a bad --freq is one line before the file is read
     table = load_table(source, sheet=sheet, date_col=date_col)
     name = table.source
     dcol = find_column(table, date_col, "date", "--date-col")
@@ -128,7 +121,7 @@ def read_history(
         raise HistoryError(f"{name}: column {vcol!r} has no values; every cell is empty")
 
     stamps = pd.DatetimeIndex(dates)
-    freq_used = _resolve_freq(stamps, rows, name, freq, forced)
+    freq_used = resolve_freq(stamps, rows, name, freq)
     periods = stamps.to_period(freq_used)
     _check_one_row_per_period(periods, stamps, rows, name, freq_used)
 
@@ -143,26 +136,6 @@ def read_history(
         source=name,
         missing=missing,
     )
-
-
-def _resolve_freq(
-    stamps: pd.DatetimeIndex,
-    rows: list[int],
-    name: str,
-    option: str | None,
-    forced: str | None,
-) -> str:
-    if option is None:
-        return detect_freq(stamps, source=name, rows=rows)
-    if forced is not None:
-        check_forced_freq(stamps, rows, name, option, forced)
-        return forced
-    # Plain "weekly": the week ends on the day every date falls on.
-    weekdays = stamps.day_of_week
-    modal = int(np.bincount(weekdays, minlength=7).argmax())
-    if not (weekdays == modal).all():
-        raise HistoryError(weekday_problem(stamps, rows, name, modal))
-    return weekly_freq(modal)
 
 
 def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:

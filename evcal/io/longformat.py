@@ -189,45 +189,40 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
 
     # dates: parsed once per distinct cell
     dcells = frame[dcol]
+
+    def no_date(i: int) -> HistoryError:
+        return HistoryError(f"{name} row {_row_number(table, i)}, column {dcol!r}: empty date; every row "
+                            "needs a date")
+
     if pd.api.types.is_datetime64_any_dtype(dcells.dtype):
         stamps = dcells.dt.tz_localize(None) if isinstance(dcells.dtype, pd.DatetimeTZDtype) else dcells
         raw = stamps.to_numpy(dtype="datetime64[ns]")
-        nat = np.isnat(raw)
-        if nat.any():
-            i = int(np.flatnonzero(nat)[0])
-            raise HistoryError(f"{name} row {_row_number(table, i)}, column {dcol!r}: empty date; every "
-                               "row needs a date")
-        del nat
+        if np.isnat(raw).any():
+            raise no_date(int(np.flatnonzero(np.isnat(raw))[0]))
         day = raw.view(np.int64) // NS_PER_DAY
         del raw
         d0 = int(day.min())
         day -= d0
-        present = np.bincount(day)
-        udays = np.flatnonzero(present) + d0
-        dcode = (np.cumsum(present > 0) - 1).astype(np.int32)[day]
+        udays, dcode = _dense_codes(day)
+        udays += d0
         del day
-        u_stamps = pd.DatetimeIndex((udays * NS_PER_DAY).astype("datetime64[ns]"))
         u_rows = None
     else:
         dcode, ucells = pd.factorize(dcells, use_na_sentinel=True)
         if (dcode < 0).any():
-            i = int(np.flatnonzero(dcode < 0)[0])
-            raise HistoryError(f"{name} row {_row_number(table, i)}, column {dcol!r}: empty date; every "
-                               "row needs a date")
+            raise no_date(int(np.flatnonzero(dcode < 0)[0]))
         # factorize numbers cells in order of first appearance: the first row of each
         _, first_pos = np.unique(dcode, return_index=True)
         u_rows = [_row_number(table, int(p)) for p in first_pos]
         parsed, problems = parse_dates(pd.Series(ucells), u_rows, dcol, name)
-        blank = parsed.isna().to_numpy()
-        if problems or blank.any():
-            if problems:
-                raise HistoryError(sorted(problems)[0].line(name))
-            i = int(np.flatnonzero(blank)[0])
-            raise HistoryError(f"{name} row {u_rows[i]}, column {dcol!r}: empty date; every row needs a date")
+        if problems:
+            raise HistoryError(sorted(problems)[0].line(name))
+        if parsed.isna().any():
+            raise no_date(int(first_pos[np.flatnonzero(parsed.isna().to_numpy())[0]]))
         day_u = parsed.dt.normalize().to_numpy(dtype="datetime64[ns]").astype(np.int64) // NS_PER_DAY
         udays, inv = np.unique(day_u, return_inverse=True)
         dcode = inv[dcode]
-        u_stamps = pd.DatetimeIndex((udays * NS_PER_DAY).astype("datetime64[ns]"))
+    u_stamps = pd.DatetimeIndex((udays * NS_PER_DAY).astype("datetime64[ns]"))
 
     # values
     vcells = frame[vcol]

@@ -8,7 +8,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.io.cells import key_text
-from evcal.io.history import History
+from evcal.io.history import History, period_dates
 
 __all__ = ["Panel"]
 
@@ -78,9 +78,7 @@ class Panel:
 
     def dates(self, periods: pd.PeriodIndex | None = None) -> pd.DatetimeIndex:
         """Date stamps of ``periods`` as the file writes them."""
-        periods = self.periods if periods is None else periods
-        stamps = periods.end_time.normalize() if self.label == "end" else periods.start_time
-        return pd.DatetimeIndex(stamps, name="date").as_unit("ns")
+        return period_dates(self.periods if periods is None else periods, self.label)
 
     def column(self, name: str) -> pd.Series:
         """A key or attribute column, one value per series."""

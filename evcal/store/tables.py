@@ -17,6 +17,7 @@ import pandas as pd
 from evcal.design.seasonal import cycle_length
 from evcal.errors import ModelError, clip
 from evcal.formula_safe import formula_safe_frame, unguard_frame
+from evcal.io.history import period_dates
 from evcal.store.values import AGAIN, fail, shown
 
 
@@ -268,7 +269,7 @@ def check_fitted(path: Path, periods: pd.PeriodIndex, label: str, history: str) 
         raise ModelError(f"{path}: {len(fitted)} rows; the history {history} has {len(periods)} periods; "
                          f"{AGAIN}")
     fitted = typed(path, fitted, FITTED, [])
-    want = (periods.end_time if label == "end" else periods.start_time).normalize()
+    want = period_dates(periods, label)
     _bad_row(path, fitted["date"].to_numpy() != want.to_numpy(), "date", lambda i: (
         f"{fitted['date'].iloc[i].date()} is not the {periods.freqstr} period dated {want[i].date()} (freq "
         f"{periods.freqstr}, label {label} in model.json)"))

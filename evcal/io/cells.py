@@ -12,6 +12,7 @@ import re
 import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -133,41 +134,30 @@ def _naive(ts: pd.Timestamp) -> pd.Timestamp:
     return ts.tz_localize(None) if ts.tzinfo is not None else ts
 
 
-def _parse_iso(texts: pd.Series) -> pd.Series:
-    """ISO 8601 parse with NaT for failures; mixed UTC offsets parsed one by one.
+def _parse(texts: pd.Series, **how: Any) -> pd.Series:
+    """``pd.to_datetime(texts, **how)`` with NaT for failures, timezone-free, in microseconds (dates outside
+    the nanosecond range stay readable, so the caller can name them).
 
-    The result keeps pandas' own unit (dates outside the nanosecond range stay
-    readable, so the caller can name them).
+    An ISO parse (``format``) that meets mixed UTC offsets goes one cell at a
+    time; pandas' inference reads one format for the column or none.
     """
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
-            parsed = pd.to_datetime(texts, format="ISO8601", errors="coerce")
+            parsed = pd.to_datetime(texts, errors="coerce", **how)
             if isinstance(parsed.dtype, pd.DatetimeTZDtype):
                 parsed = parsed.dt.tz_localize(None)
             return parsed.astype("datetime64[us]")
-        except (ValueError, TypeError):
-            pass
+        except (ValueError, TypeError, OverflowError):
+            if "format" not in how:
+                return pd.Series(pd.NaT, index=texts.index, dtype="datetime64[us]")
         out = []
         for text in texts:
             try:
-                out.append(_naive(pd.Timestamp(pd.to_datetime(text, format="ISO8601"))))
+                out.append(_naive(pd.Timestamp(pd.to_datetime(text, **how))))
             except (ValueError, TypeError):
                 out.append(pd.NaT)
         return pd.Series(out, index=texts.index, dtype="datetime64[us]")
-
-
-def _parse_inferred(texts: pd.Series, dayfirst: bool) -> pd.Series:
-    """pandas' own format inference (one format for the column), NaT for failures."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        try:
-            parsed = pd.to_datetime(texts, errors="coerce", dayfirst=dayfirst)
-        except (ValueError, TypeError, OverflowError):
-            return pd.Series(pd.NaT, index=texts.index, dtype="datetime64[us]")
-    if isinstance(parsed.dtype, pd.DatetimeTZDtype):
-        parsed = parsed.dt.tz_localize(None)
-    return parsed.astype("datetime64[us]")
 
 
 _BARE_NUMBER = re.compile(r"^[+-]?\d+(\.\d*)?$")
@@ -237,18 +227,18 @@ def parse_dates(
         return out, problems
 
     texts = pd.Series([str(cells_array[i]).strip() for i in text_pos], index=text_pos)
-    iso = _parse_iso(texts)
+    iso = _parse(texts, format="ISO8601")
     # Year-first text is only ever year-month-day: 2024/01/31 is read, 2024-13-01 is
     # a mistake (pandas' inference would quietly read it as 13 January).
     year_first = texts.str.match(_YEAR_FIRST)
     retry = year_first & iso.isna()
     if retry.any():
-        iso.loc[retry] = _parse_iso(texts[retry].str.replace(r"[/.]", "-", regex=True))
+        iso.loc[retry] = _parse(texts[retry].str.replace(r"[/.]", "-", regex=True), format="ISO8601")
     rest = texts[iso.isna() & ~year_first]
     parsed = iso
     if len(rest):
-        month_first = _parse_inferred(rest, dayfirst=False)
-        day_first = _parse_inferred(rest, dayfirst=True)
+        month_first = _parse(rest, dayfirst=False)
+        day_first = _parse(rest, dayfirst=True)
         both = month_first.notna() & day_first.notna()
         if both.all() and not month_first.equals(day_first):
             differ = rest[month_first != day_first]

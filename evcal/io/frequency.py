@@ -48,14 +48,8 @@ def periods_per_year(freq: str) -> int:
     >>> periods_per_year("W-WED"), periods_per_year("M")
     (52, 12)
     """
-    if freq == "D":
-        return 365
-    if freq.startswith("W-"):
-        return 52
-    if freq == "M":
-        return 12
-    if freq.startswith("Q-"):
-        return 4
+    if freq in ("D", "M") or freq[:2] in ("W-", "Q-"):
+        return {"D": 365, "W": 52, "M": 12, "Q": 4}[freq[0]]
     raise ValueError(f"unsupported frequency {freq!r}")
 
 
@@ -166,10 +160,7 @@ def detect_freq(
     idx = pd.DatetimeIndex(pd.to_datetime(dates)).normalize()
     order = np.argsort(idx.asi8, kind="stable")
     idx = idx[order]
-    row_list = None
-    if rows is not None:
-        given = list(rows)
-        row_list = [given[i] for i in order]
+    row_list = None if rows is None else list(np.asarray(rows)[order])
     if len(idx) < 2:
         raise HistoryError(
             f"{source}: only {len(idx)} date; the frequency cannot be detected from fewer "

@@ -45,14 +45,8 @@ def split_key_option(values: str | list[str] | tuple[str, ...] | None) -> list[s
     >>> split_key_option(["product, store", "region"])
     ['product', 'store', 'region']
     """
-    if values is None:
-        return []
-    if isinstance(values, str):
-        values = [values]
-    out: list[str] = []
-    for v in values:
-        out += [p.strip() for p in str(v).split(",") if p.strip()]
-    return out
+    values = [values] if isinstance(values, str) else values or []
+    return [p.strip() for v in values for p in str(v).split(",") if p.strip()]
 
 
 def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_col: str = "date",

@@ -22,7 +22,6 @@ from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_f
 from evcal.io.history import History
 from evcal.io.tables import find_column, load_table
 
-MAX_PROBLEM_LINES = KEEP_PROBLEMS
 _MAX_CLASHES = 3
 # Rows named for one repeated date or period; the others are counted.
 _MAX_ROWS_NAMED = 3
@@ -212,7 +211,7 @@ def _check_one_row_per_period(
 
 def _problem_lines(problems: list[RowProblem], name: str) -> list[str]:
     ordered = sorted(problems)
-    lines = [p.line(name) for p in ordered[:MAX_PROBLEM_LINES]]
+    lines = [p.line(name) for p in ordered[:KEEP_PROBLEMS]]
     rest = count_problems(problems) - len(lines)
     if rest > 0:
         lines.append(

@@ -55,13 +55,9 @@ def periods_per_year(freq: str) -> int:
 
 def describe_freq(freq: str) -> str:
     """A planner's name for a frequency: ``"weekly (week ending Sunday)"``."""
-    if freq == "D":
-        return "daily"
     if freq.startswith("W-"):
         return f"weekly (week ending {_WEEKDAY_NAMES[WEEKDAYS.index(freq[2:])]})"
-    if freq == "M":
-        return "monthly"
-    return "quarterly"
+    return {"D": "daily", "M": "monthly"}.get(freq, "quarterly")
 
 
 def weekly_freq(weekday: int) -> str:
@@ -113,13 +109,8 @@ def weekday_problem(dates: pd.DatetimeIndex, rows: Sequence[int] | None, source:
     return (
         f"{source}: dates look weekly with weeks ending on {_WEEKDAY_NAMES[weekday]}, but "
         f"{shown}{more} {'falls' if len(off) == 1 else 'fall'} on another day; weekly dates "
-        "must all be the same "
-        f"week-ending day (or give --freq D if the data are daily)"
+        "must all be the same week-ending day (or give --freq D if the data are daily)"
     )
-
-
-def _unique_at(dates: pd.DatetimeIndex, freq: str) -> bool:
-    return bool(dates.to_period(freq).is_unique)
 
 
 def detect_freq(
@@ -175,14 +166,13 @@ def detect_freq(
     if (weekdays == weekdays[0]).all():
         candidates.append(weekly_freq(int(weekdays[0])))
     candidates.append("D")
-    freq = next(f for f in candidates if _unique_at(idx, f))
+    freq = next(f for f in candidates if idx.to_period(f).is_unique)
 
     steps = np.diff(idx.to_period(freq).asi8)
     values, counts = np.unique(steps, return_counts=True)
     modal = int(values[np.argmax(counts)])
     if modal != 1:
-        day_steps = np.diff(_days(idx))
-        typical = int(np.median(day_steps))
+        typical = int(np.median((idx[1:] - idx[:-1]).days))
         modal_weekday = int(np.bincount(weekdays, minlength=7).argmax())
         if freq == "D" and typical % 7 == 0:
             raise HistoryError(weekday_problem(idx, row_list, source, modal_weekday))
@@ -201,10 +191,6 @@ def detect_freq(
             "--freq to force one (the skipped periods then count as missing)"
         )
     return freq
-
-
-def _days(idx: pd.DatetimeIndex) -> np.ndarray:
-    return idx.as_unit("s").asi8 // 86_400
 
 
 def _longest_run_above_one(steps: np.ndarray) -> tuple[int, int, int] | None:
@@ -278,8 +264,7 @@ pass --freq W-SUN, or leave --freq out to detect it
             shown = ", ".join(f"{label} ({stamps[i].date()})" for label, i in zip(labels, first, strict=True))
             if len(off) > 3:
                 shown += f" and {len(off) - 3:,} more"
-            days = set(weekdays.tolist())
-            if len(days) == 1:
+            if len(set(weekdays.tolist())) == 1:
                 day = int(weekdays[0])
                 raise HistoryError(
                     f"{name}: --freq {option} reads weeks ending {_WEEKDAY_NAMES[want]}, but the dates "
@@ -326,8 +311,5 @@ def detect_label(dates: pd.DatetimeIndex, freq: str) -> str:
         return "end"
     if freq == "D":
         return "start"
-    periods = dates.to_period(freq)
-    ends = periods.end_time.normalize()
-    if len(dates) and (dates.normalize() == ends).all():
-        return "end"
-    return "start"
+    ends = dates.to_period(freq).end_time.normalize()
+    return "end" if len(dates) and (dates.normalize() == ends).all() else "start"

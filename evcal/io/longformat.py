@@ -6,12 +6,8 @@ dates, and the values are placed into a ``periods × series`` matrix by
 integer codes: no per-series reading, no per-series date parsing. Dates
 written as text are parsed once per distinct text.
 
-Bad input stops the run with one line (:class:`~evcal.errors.HistoryError`):
-a key column that is not there (the columns found are listed), an empty key
-cell, two rows for the same series and period (both rows and the series are
-quoted), a cell that is not a date or a number, and series at different
-frequencies (two of them are named with their frequencies: evcal fits one
-frequency per run).
+Bad input stops the run with one line (:class:`~evcal.errors.HistoryError`) naming the row, the
+column and, where there is one, the series.
 """
 
 from __future__ import annotations
@@ -24,10 +20,7 @@ import pandas as pd
 
 from evcal.errors import HistoryError
 from evcal.io.cells import MAX_VALUE, count_problems, empty_mask, key_text, parse_dates, parse_values, quote
-from evcal.io.frequency import (
-    describe_freq,
-    detect_label,
-)
+from evcal.io.frequency import describe_freq, detect_label
 from evcal.io.panel import Panel
 from evcal.io.series_freq import series_frequency
 from evcal.io.tables import PARQUET_SUFFIXES, RawTable, find_column, load_table
@@ -248,8 +241,7 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     cell = sid.astype(np.int64) * n_per + pcode
     counts = np.bincount(cell, minlength=n_series * n_per)
     if counts.max() > 1:
-        _raise_duplicates(table, cell, counts, sid, pcode, periods, key_frame, dcells, used, u_stamps,
-                          dcode)
+        _raise_duplicates(table, cell, counts, sid, pcode, periods, key_frame, used, u_stamps, dcode)
     del cell
     has_row = counts.reshape(n_series, n_per).T > 0
     del counts
@@ -323,8 +315,8 @@ def _dense_codes(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _raise_duplicates(table: RawTable, cell: np.ndarray, counts: np.ndarray, sid: np.ndarray,
-                      pcode: np.ndarray, periods: pd.PeriodIndex, keys: pd.DataFrame, dcells: pd.Series,
-                      freq: str, u_stamps: pd.DatetimeIndex, dcode: np.ndarray) -> None:
+                      pcode: np.ndarray, periods: pd.PeriodIndex, keys: pd.DataFrame, freq: str,
+                      u_stamps: pd.DatetimeIndex, dcode: np.ndarray) -> None:
     dup_cells = np.flatnonzero(counts > 1)
     rows = np.flatnonzero(np.isin(cell, dup_cells[:1]))
     j = int(sid[rows[0]])

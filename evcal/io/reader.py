@@ -128,13 +128,7 @@ def read_history(
     series = pd.Series(np.nan, index=index, dtype="float64", name=value_col)
     series.loc[periods] = values.to_numpy(dtype="float64")
     missing = list(index[series.isna().to_numpy()])
-    return History(
-        values=series,
-        freq=freq_used,
-        label=detect_label(stamps, freq_used),
-        source=name,
-        missing=missing,
-    )
+    return History(series, freq_used, detect_label(stamps, freq_used), name, missing)
 
 
 def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:
@@ -153,13 +147,10 @@ def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:
     return np.split(repeated[order], bounds)
 
 
-def _rows_text(rows: list[int], positions: np.ndarray, show: object = None) -> str:
+def _rows_text(rows: list[int], positions: np.ndarray, cells: pd.Series) -> str:
     """``row 3 ('2024-01-07'), row 4 (...) and 1,999,997 more rows``: a few named, the rest counted."""
     named = positions[:_MAX_ROWS_NAMED]
-    text = ", ".join(
-        f"row {rows[i]}" + (f" ({quote(show.iloc[i])})" if show is not None else "")  # type: ignore[attr-defined]
-        for i in named
-    )
+    text = ", ".join(f"row {rows[i]} ({quote(cells.iloc[i])})" for i in named)
     if len(positions) > len(named):
         text += f" and {len(positions) - len(named):,} more rows"
     return text
@@ -214,7 +205,5 @@ def _problem_lines(problems: list[RowProblem], name: str) -> list[str]:
     lines = [p.line(name) for p in ordered[:KEEP_PROBLEMS]]
     rest = count_problems(problems) - len(lines)
     if rest > 0:
-        lines.append(
-            f"{name}: and {rest:,} more problems like these (first {len(lines)} shown)"
-        )
+        lines.append(f"{name}: and {rest:,} more problems like these (first {len(lines)} shown)")
     return lines

@@ -99,13 +99,6 @@ def _unreadable(row: int, column: str, cell: object) -> RowProblem:
     return RowProblem(row, column, f"cannot read {quote(cell)} as a date; write YYYY-MM-DD")
 
 
-def _as_ns(stamps: pd.Series) -> pd.Series:
-    """Timezone-free datetime64[ns]; dates outside the range must be NaT already."""
-    if isinstance(stamps.dtype, pd.DatetimeTZDtype):
-        stamps = stamps.dt.tz_localize(None)
-    return stamps.astype("datetime64[ns]")
-
-
 def empty_mask(cells: pd.Series) -> np.ndarray:
     """Mask of the cells that are NaN/None/NaT or blank or NA-like text (:data:`EMPTY_TOKENS`)."""
     missing = cells.isna().to_numpy()
@@ -192,7 +185,7 @@ def parse_dates(
         stamps = values.dt.tz_localize(None) if isinstance(values.dtype, pd.DatetimeTZDtype) else values
         far = outside_days(stamps)
         problems += capped(np.flatnonzero(far), lambda i: _range_problem(rows[i], column, stamps.iloc[i]))
-        return _as_ns(stamps.where(~far)), problems
+        return stamps.where(~far).astype("datetime64[ns]"), problems
 
     cells_array = values.to_numpy(dtype=object)
     empty = empty_mask(values)
@@ -222,7 +215,7 @@ def parse_dates(
         problems += capped(
             np.flatnonzero(far), lambda j: _range_problem(rows[stamp_pos[j]], column, given.iloc[j])
         )
-        out.iloc[stamp_pos] = _as_ns(given.where(~far)).to_numpy()
+        out.iloc[stamp_pos] = given.where(~far).to_numpy(dtype="datetime64[ns]")
     if not text_pos:
         return out, problems
 
@@ -256,7 +249,7 @@ def parse_dates(
         parsed.index[far].to_numpy(dtype=int), lambda i: _range_problem(rows[i], column, texts.loc[i])
     )
     good = parsed.notna() & ~far
-    out.iloc[parsed.index[good].to_numpy(dtype=int)] = _as_ns(parsed[good]).to_numpy()
+    out.iloc[parsed.index[good].to_numpy(dtype=int)] = parsed[good].to_numpy(dtype="datetime64[ns]")
     problems += capped(
         parsed.index[~good & ~far].to_numpy(dtype=int),
         lambda i: _unreadable(rows[i], column, texts.loc[i]),

@@ -65,7 +65,7 @@ def weekly_freq(weekday: int) -> str:
     return f"W-{WEEKDAYS[weekday]}"
 
 
-def parse_freq_option(text: str, *, source: str = "--freq") -> str | None:
+def parse_freq_option(text: str) -> str | None:
     """Turn a ``--freq`` value into a period string.
 
     Returns ``None`` for plain weekly (``"W"``, ``"weekly"``): the week-ending
@@ -79,7 +79,7 @@ def parse_freq_option(text: str, *, source: str = "--freq") -> str | None:
     key = text.strip().upper()
     if key not in _FREQ_WORDS:
         raise HistoryError(
-            f"{source}: unknown frequency {text!r}; use D (daily), W (weekly, week end "
+            f"--freq: unknown frequency {text!r}; use D (daily), W (weekly, week end "
             "taken from the dates) or W-MON .. W-SUN, M (monthly) or Q (quarterly)"
         )
     return _FREQ_WORDS[key]

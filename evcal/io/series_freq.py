@@ -41,8 +41,8 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
     duplicate check reports it later.
     """
     starts = np.flatnonzero(np.r_[True, sid[1:] != sid[:-1]])
-    # days since 1970 fit in 4 bytes (the arrays here hold a value per row)
-    day = _day_numbers(u_stamps).astype(np.int32)[dcode]
+    # days since 1970 whatever pandas' resolution, in 4 bytes (the arrays here hold a value per row)
+    day = u_stamps.to_numpy().astype("datetime64[D]").astype(np.int32)[dcode]
     gap = np.empty(len(day), dtype=np.int32)
     gap[0] = big = np.iinfo(np.int32).max  # "no gap" (a series of one row): no frequency class
     np.subtract(day[1:], day[:-1], out=gap[1:])
@@ -61,11 +61,6 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
     has = np.zeros((n_series, 7), dtype=bool)
     has.reshape(-1)[sid.astype(np.int64) * 7 + wd[dcode]] = True
     return _frequency_classes(min_gap, has.sum(axis=1), np.argmax(has, axis=1))
-
-
-def _day_numbers(stamps: pd.DatetimeIndex) -> np.ndarray:
-    """Days since 1970 whatever the index's resolution (pandas may hold dates in s, ms, us or ns)."""
-    return stamps.to_numpy().astype("datetime64[D]").astype(np.int64)
 
 
 def _frequency_classes(min_gap: np.ndarray, n_weekdays: np.ndarray, wd_first: np.ndarray) -> list[str]:

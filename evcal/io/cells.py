@@ -12,6 +12,7 @@ import re
 import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -98,27 +99,8 @@ def _unreadable(row: int, column: str, cell: object) -> RowProblem:
     return RowProblem(row, column, f"cannot read {quote(cell)} as a date; write YYYY-MM-DD")
 
 
-def _as_ns(stamps: pd.Series) -> pd.Series:
-    """Timezone-free datetime64[ns]; dates outside the range must be NaT already."""
-    if isinstance(stamps.dtype, pd.DatetimeTZDtype):
-        stamps = stamps.dt.tz_localize(None)
-    return stamps.astype("datetime64[ns]")
-
-
-def is_empty(cell: object) -> bool:
-    """True for NaN/None/NaT and for blank or NA-like text."""
-    if cell is None:
-        return True
-    if isinstance(cell, str):
-        return cell.strip().lower() in EMPTY_TOKENS
-    try:
-        return bool(pd.isna(cell))
-    except (TypeError, ValueError):
-        return False
-
-
 def empty_mask(cells: pd.Series) -> np.ndarray:
-    """Vectorised :func:`is_empty` over a column."""
+    """Mask of the cells that are NaN/None/NaT or blank or NA-like text (:data:`EMPTY_TOKENS`)."""
     missing = cells.isna().to_numpy()
     if cells.dtype.kind in "biufcmM":
         return missing
@@ -134,46 +116,41 @@ def quote(cell: object) -> str:
     return repr(text)
 
 
+def key_text(keys: pd.DataFrame, j: int) -> str:
+    """``product='P1', store='S2'``: how messages name series ``j`` of the key rows ``keys``."""
+    row = keys.iloc[int(j)]
+    return ", ".join(f"{c}={quote(row[c])}" for c in keys.columns)
+
+
 def _naive(ts: pd.Timestamp) -> pd.Timestamp:
     # A timestamp with a UTC offset keeps its local wall-clock day.
     return ts.tz_localize(None) if ts.tzinfo is not None else ts
 
 
-def _parse_iso(texts: pd.Series) -> pd.Series:
-    """ISO 8601 parse with NaT for failures; mixed UTC offsets parsed one by one.
+def _parse(texts: pd.Series, **how: Any) -> pd.Series:
+    """``pd.to_datetime(texts, **how)`` with NaT for failures, timezone-free, in microseconds (dates outside
+    the nanosecond range stay readable, so the caller can name them).
 
-    The result keeps pandas' own unit (dates outside the nanosecond range stay
-    readable, so the caller can name them).
+    An ISO parse (``format``) that meets mixed UTC offsets goes one cell at a
+    time; pandas' inference reads one format for the column or none.
     """
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
-            parsed = pd.to_datetime(texts, format="ISO8601", errors="coerce")
+            parsed = pd.to_datetime(texts, errors="coerce", **how)
             if isinstance(parsed.dtype, pd.DatetimeTZDtype):
                 parsed = parsed.dt.tz_localize(None)
             return parsed.astype("datetime64[us]")
-        except (ValueError, TypeError):
-            pass
+        except (ValueError, TypeError, OverflowError):
+            if "format" not in how:
+                return pd.Series(pd.NaT, index=texts.index, dtype="datetime64[us]")
         out = []
         for text in texts:
             try:
-                out.append(_naive(pd.Timestamp(pd.to_datetime(text, format="ISO8601"))))
+                out.append(_naive(pd.Timestamp(pd.to_datetime(text, **how))))
             except (ValueError, TypeError):
                 out.append(pd.NaT)
         return pd.Series(out, index=texts.index, dtype="datetime64[us]")
-
-
-def _parse_inferred(texts: pd.Series, dayfirst: bool) -> pd.Series:
-    """pandas' own format inference (one format for the column), NaT for failures."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        try:
-            parsed = pd.to_datetime(texts, errors="coerce", dayfirst=dayfirst)
-        except (ValueError, TypeError, OverflowError):
-            return pd.Series(pd.NaT, index=texts.index, dtype="datetime64[us]")
-    if isinstance(parsed.dtype, pd.DatetimeTZDtype):
-        parsed = parsed.dt.tz_localize(None)
-    return parsed.astype("datetime64[us]")
 
 
 _BARE_NUMBER = re.compile(r"^[+-]?\d+(\.\d*)?$")
@@ -208,7 +185,7 @@ def parse_dates(
         stamps = values.dt.tz_localize(None) if isinstance(values.dtype, pd.DatetimeTZDtype) else values
         far = outside_days(stamps)
         problems += capped(np.flatnonzero(far), lambda i: _range_problem(rows[i], column, stamps.iloc[i]))
-        return _as_ns(stamps.where(~far)), problems
+        return stamps.where(~far).astype("datetime64[ns]"), problems
 
     cells_array = values.to_numpy(dtype=object)
     empty = empty_mask(values)
@@ -238,23 +215,23 @@ def parse_dates(
         problems += capped(
             np.flatnonzero(far), lambda j: _range_problem(rows[stamp_pos[j]], column, given.iloc[j])
         )
-        out.iloc[stamp_pos] = _as_ns(given.where(~far)).to_numpy()
+        out.iloc[stamp_pos] = given.where(~far).to_numpy(dtype="datetime64[ns]")
     if not text_pos:
         return out, problems
 
     texts = pd.Series([str(cells_array[i]).strip() for i in text_pos], index=text_pos)
-    iso = _parse_iso(texts)
+    iso = _parse(texts, format="ISO8601")
     # Year-first text is only ever year-month-day: 2024/01/31 is read, 2024-13-01 is
     # a mistake (pandas' inference would quietly read it as 13 January).
     year_first = texts.str.match(_YEAR_FIRST)
     retry = year_first & iso.isna()
     if retry.any():
-        iso.loc[retry] = _parse_iso(texts[retry].str.replace(r"[/.]", "-", regex=True))
+        iso.loc[retry] = _parse(texts[retry].str.replace(r"[/.]", "-", regex=True), format="ISO8601")
     rest = texts[iso.isna() & ~year_first]
     parsed = iso
     if len(rest):
-        month_first = _parse_inferred(rest, dayfirst=False)
-        day_first = _parse_inferred(rest, dayfirst=True)
+        month_first = _parse(rest, dayfirst=False)
+        day_first = _parse(rest, dayfirst=True)
         both = month_first.notna() & day_first.notna()
         if both.all() and not month_first.equals(day_first):
             differ = rest[month_first != day_first]
@@ -272,7 +249,7 @@ def parse_dates(
         parsed.index[far].to_numpy(dtype=int), lambda i: _range_problem(rows[i], column, texts.loc[i])
     )
     good = parsed.notna() & ~far
-    out.iloc[parsed.index[good].to_numpy(dtype=int)] = _as_ns(parsed[good]).to_numpy()
+    out.iloc[parsed.index[good].to_numpy(dtype=int)] = parsed[good].to_numpy(dtype="datetime64[ns]")
     problems += capped(
         parsed.index[~good & ~far].to_numpy(dtype=int),
         lambda i: _unreadable(rows[i], column, texts.loc[i]),

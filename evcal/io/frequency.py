@@ -25,24 +25,12 @@ _WEEKDAY_NAMES = ("Monday", "Tuesday", "Wednesday", "Thursday", "Friday", "Satur
 
 # What the user may type for --freq -> the period string (None: week end from the data).
 _FREQ_WORDS: dict[str, str | None] = {
-    "D": "D",
-    "DAILY": "D",
-    "DAY": "D",
-    "W": None,
-    "WEEKLY": None,
-    "WEEK": None,
-    "M": "M",
-    "MS": "M",
-    "ME": "M",
-    "MONTHLY": "M",
-    "MONTH": "M",
-    "Q": "Q-DEC",
-    "QS": "Q-DEC",
-    "QE": "Q-DEC",
-    "Q-DEC": "Q-DEC",
-    "QUARTERLY": "Q-DEC",
-    "QUARTER": "Q-DEC",
-} | {f"W-{day}": f"W-{day}" for day in WEEKDAYS}
+    **dict.fromkeys(("D", "DAILY", "DAY"), "D"),
+    **dict.fromkeys(("W", "WEEKLY", "WEEK"), None),
+    **dict.fromkeys(("M", "MS", "ME", "MONTHLY", "MONTH"), "M"),
+    **dict.fromkeys(("Q", "QS", "QE", "Q-DEC", "QUARTERLY", "QUARTER"), "Q-DEC"),
+    **{f"W-{day}": f"W-{day}" for day in WEEKDAYS},
+}
 
 # A run of this many equal steps larger than one period is read as a second
 # frequency inside the file (common practice, no source: 5 evenly spaced rows
@@ -60,26 +48,16 @@ def periods_per_year(freq: str) -> int:
     >>> periods_per_year("W-WED"), periods_per_year("M")
     (52, 12)
     """
-    if freq == "D":
-        return 365
-    if freq.startswith("W-"):
-        return 52
-    if freq == "M":
-        return 12
-    if freq.startswith("Q-"):
-        return 4
+    if freq in ("D", "M") or freq[:2] in ("W-", "Q-"):
+        return {"D": 365, "W": 52, "M": 12, "Q": 4}[freq[0]]
     raise ValueError(f"unsupported frequency {freq!r}")
 
 
 def describe_freq(freq: str) -> str:
     """A planner's name for a frequency: ``"weekly (week ending Sunday)"``."""
-    if freq == "D":
-        return "daily"
     if freq.startswith("W-"):
         return f"weekly (week ending {_WEEKDAY_NAMES[WEEKDAYS.index(freq[2:])]})"
-    if freq == "M":
-        return "monthly"
-    return "quarterly"
+    return {"D": "daily", "M": "monthly"}.get(freq, "quarterly")
 
 
 def weekly_freq(weekday: int) -> str:
@@ -87,7 +65,7 @@ def weekly_freq(weekday: int) -> str:
     return f"W-{WEEKDAYS[weekday]}"
 
 
-def parse_freq_option(text: str, *, source: str = "--freq") -> str | None:
+def parse_freq_option(text: str) -> str | None:
     """Turn a ``--freq`` value into a period string.
 
     Returns ``None`` for plain weekly (``"W"``, ``"weekly"``): the week-ending
@@ -101,7 +79,7 @@ def parse_freq_option(text: str, *, source: str = "--freq") -> str | None:
     key = text.strip().upper()
     if key not in _FREQ_WORDS:
         raise HistoryError(
-            f"{source}: unknown frequency {text!r}; use D (daily), W (weekly, week end "
+            f"--freq: unknown frequency {text!r}; use D (daily), W (weekly, week end "
             "taken from the dates) or W-MON .. W-SUN, M (monthly) or Q (quarterly)"
         )
     return _FREQ_WORDS[key]
@@ -131,13 +109,8 @@ def weekday_problem(dates: pd.DatetimeIndex, rows: Sequence[int] | None, source:
     return (
         f"{source}: dates look weekly with weeks ending on {_WEEKDAY_NAMES[weekday]}, but "
         f"{shown}{more} {'falls' if len(off) == 1 else 'fall'} on another day; weekly dates "
-        "must all be the same "
-        f"week-ending day (or give --freq D if the data are daily)"
+        "must all be the same week-ending day (or give --freq D if the data are daily)"
     )
-
-
-def _unique_at(dates: pd.DatetimeIndex, freq: str) -> bool:
-    return bool(dates.to_period(freq).is_unique)
 
 
 def detect_freq(
@@ -178,10 +151,7 @@ def detect_freq(
     idx = pd.DatetimeIndex(pd.to_datetime(dates)).normalize()
     order = np.argsort(idx.asi8, kind="stable")
     idx = idx[order]
-    row_list = None
-    if rows is not None:
-        given = list(rows)
-        row_list = [given[i] for i in order]
+    row_list = None if rows is None else list(np.asarray(rows)[order])
     if len(idx) < 2:
         raise HistoryError(
             f"{source}: only {len(idx)} date; the frequency cannot be detected from fewer "
@@ -196,14 +166,13 @@ def detect_freq(
     if (weekdays == weekdays[0]).all():
         candidates.append(weekly_freq(int(weekdays[0])))
     candidates.append("D")
-    freq = next(f for f in candidates if _unique_at(idx, f))
+    freq = next(f for f in candidates if idx.to_period(f).is_unique)
 
     steps = np.diff(idx.to_period(freq).asi8)
     values, counts = np.unique(steps, return_counts=True)
     modal = int(values[np.argmax(counts)])
     if modal != 1:
-        day_steps = np.diff(_days(idx))
-        typical = int(np.median(day_steps))
+        typical = int(np.median((idx[1:] - idx[:-1]).days))
         modal_weekday = int(np.bincount(weekdays, minlength=7).argmax())
         if freq == "D" and typical % 7 == 0:
             raise HistoryError(weekday_problem(idx, row_list, source, modal_weekday))
@@ -224,10 +193,6 @@ def detect_freq(
     return freq
 
 
-def _days(idx: pd.DatetimeIndex) -> np.ndarray:
-    return idx.as_unit("s").asi8 // 86_400
-
-
 def _longest_run_above_one(steps: np.ndarray) -> tuple[int, int, int] | None:
     """(first, last, step) of the first run of >= _MIXED_RUN equal steps > 1, by position."""
     start = 0
@@ -239,10 +204,25 @@ def _longest_run_above_one(steps: np.ndarray) -> tuple[int, int, int] | None:
     return None
 
 
+def resolve_freq(stamps: pd.DatetimeIndex, rows: Sequence[int] | None, name: str, option: str | None) -> str:
+    """The frequency of ``stamps``: detected (``option`` None), or the user's ``--freq`` checked against them.
+
+    Plain weekly (``--freq W``) takes the week end from the day every date falls on.
+    """
+    if option is None:
+        return detect_freq(stamps, source=name, rows=rows)
+    forced = parse_freq_option(option)
+    if forced is not None:
+        check_forced_freq(stamps, rows, name, option, forced)  # never a silent misread
+        return forced
+    weekdays = stamps.day_of_week
+    modal = int(np.bincount(weekdays, minlength=7).argmax())
+    if not (weekdays == modal).all():
+        raise HistoryError(weekday_problem(stamps, rows, name, modal))
+    return weekly_freq(modal)
+
+
 _UNITS = {"D": "days", "W": "weeks", "M": "months", "Q": "quarters"}
-def _freq_code(freq: str) -> str:
-    """What to type for ``freq`` after --freq: D, W-SUN, M or Q."""
-    return "Q" if freq.startswith("Q") else freq
 
 
 def check_forced_freq(
@@ -284,8 +264,7 @@ pass --freq W-SUN, or leave --freq out to detect it
             shown = ", ".join(f"{label} ({stamps[i].date()})" for label, i in zip(labels, first, strict=True))
             if len(off) > 3:
                 shown += f" and {len(off) - 3:,} more"
-            days = set(weekdays.tolist())
-            if len(days) == 1:
+            if len(set(weekdays.tolist())) == 1:
                 day = int(weekdays[0])
                 raise HistoryError(
                     f"{name}: --freq {option} reads weeks ending {_WEEKDAY_NAMES[want]}, but the dates "
@@ -317,10 +296,8 @@ def _instead(stamps: pd.DatetimeIndex, rows: Sequence[int] | None, name: str) ->
         found = detect_freq(stamps, source=name, rows=rows)
     except HistoryError:
         return "give the frequency the dates have, or leave --freq out to detect it"
-    return (
-        f"the dates are {describe_freq(found)}: pass --freq {_freq_code(found)}, or leave --freq "
-        "out to detect it"
-    )
+    code = "Q" if found.startswith("Q") else found  # what to type after --freq
+    return f"the dates are {describe_freq(found)}: pass --freq {code}, or leave --freq out to detect it"
 
 
 def detect_label(dates: pd.DatetimeIndex, freq: str) -> str:
@@ -334,8 +311,5 @@ def detect_label(dates: pd.DatetimeIndex, freq: str) -> str:
         return "end"
     if freq == "D":
         return "start"
-    periods = dates.to_period(freq)
-    ends = periods.end_time.normalize()
-    if len(dates) and (dates.normalize() == ends).all():
-        return "end"
-    return "start"
+    ends = dates.to_period(freq).end_time.normalize()
+    return "end" if len(dates) and (dates.normalize() == ends).all() else "start"

@@ -57,8 +57,7 @@ class History:
         periods = self.values.index if index is None else index
         if not isinstance(periods, pd.PeriodIndex):
             periods = pd.PeriodIndex(periods, freq=self.freq)
-        stamps = periods.end_time.normalize() if self.label == "end" else periods.start_time
-        return pd.DatetimeIndex(stamps, name="date").as_unit("ns")
+        return period_dates(periods, self.label)
 
     @property
     def periods_per_year(self) -> int:
@@ -73,6 +72,12 @@ class History:
     def missing_summary(self, limit: int = 6) -> str:
         """One line naming the gaps, runs collapsed: ``"2 missing periods: 2024-02, ..."``."""
         return summarise_periods(self.missing, limit=limit)
+
+
+def period_dates(periods: pd.PeriodIndex, label: str) -> pd.DatetimeIndex:
+    """The date that names each period: its last day (``label`` ``"end"``) or its first, at midnight."""
+    stamps = periods.end_time.normalize() if label == "end" else periods.start_time
+    return pd.DatetimeIndex(stamps, name="date").as_unit("ns")
 
 
 def summarise_periods(periods: list[pd.Period], limit: int = 6) -> str:
@@ -133,4 +138,4 @@ seasonal cycles of 12 periods) are needed
         )
 
 
-__all__ = ["History", "check_length", "summarise_periods"]
+__all__ = ["History", "check_length", "period_dates", "summarise_periods"]

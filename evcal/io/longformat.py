@@ -6,12 +6,8 @@ dates, and the values are placed into a ``periods × series`` matrix by
 integer codes: no per-series reading, no per-series date parsing. Dates
 written as text are parsed once per distinct text.
 
-Bad input stops the run with one line (:class:`~evcal.errors.HistoryError`):
-a key column that is not there (the columns found are listed), an empty key
-cell, two rows for the same series and period (both rows and the series are
-quoted), a cell that is not a date or a number, and series at different
-frequencies (two of them are named with their frequencies: evcal fits one
-frequency per run).
+Bad input stops the run with one line (:class:`~evcal.errors.HistoryError`) naming the row, the
+column and, where there is one, the series.
 """
 
 from __future__ import annotations
@@ -23,13 +19,10 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import HistoryError
-from evcal.io.cells import MAX_VALUE, count_problems, empty_mask, parse_dates, parse_values, quote
-from evcal.io.frequency import (
-    describe_freq,
-    detect_label,
-)
+from evcal.io.cells import MAX_VALUE, count_problems, empty_mask, key_text, parse_dates, parse_values, quote
+from evcal.io.frequency import describe_freq, detect_label
 from evcal.io.panel import Panel
-from evcal.io.series_freq import key_text, series_frequency
+from evcal.io.series_freq import series_frequency
 from evcal.io.tables import PARQUET_SUFFIXES, RawTable, find_column, load_table
 
 __all__ = ["Panel", "read_panel", "panel_from_frame", "split_key_option"]
@@ -45,14 +38,8 @@ def split_key_option(values: str | list[str] | tuple[str, ...] | None) -> list[s
     >>> split_key_option(["product, store", "region"])
     ['product', 'store', 'region']
     """
-    if values is None:
-        return []
-    if isinstance(values, str):
-        values = [values]
-    out: list[str] = []
-    for v in values:
-        out += [p.strip() for p in str(v).split(",") if p.strip()]
-    return out
+    values = [values] if isinstance(values, str) else values or []
+    return [p.strip() for v in values for p in str(v).split(",") if p.strip()]
 
 
 def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_col: str = "date",
@@ -189,45 +176,40 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
 
     # dates: parsed once per distinct cell
     dcells = frame[dcol]
+
+    def no_date(i: int) -> HistoryError:
+        return HistoryError(f"{name} row {_row_number(table, i)}, column {dcol!r}: empty date; every row "
+                            "needs a date")
+
     if pd.api.types.is_datetime64_any_dtype(dcells.dtype):
         stamps = dcells.dt.tz_localize(None) if isinstance(dcells.dtype, pd.DatetimeTZDtype) else dcells
         raw = stamps.to_numpy(dtype="datetime64[ns]")
-        nat = np.isnat(raw)
-        if nat.any():
-            i = int(np.flatnonzero(nat)[0])
-            raise HistoryError(f"{name} row {_row_number(table, i)}, column {dcol!r}: empty date; every "
-                               "row needs a date")
-        del nat
+        if np.isnat(raw).any():
+            raise no_date(int(np.flatnonzero(np.isnat(raw))[0]))
         day = raw.view(np.int64) // NS_PER_DAY
         del raw
         d0 = int(day.min())
         day -= d0
-        present = np.bincount(day)
-        udays = np.flatnonzero(present) + d0
-        dcode = (np.cumsum(present > 0) - 1).astype(np.int32)[day]
+        udays, dcode = _dense_codes(day)
+        udays += d0
         del day
-        u_stamps = pd.DatetimeIndex((udays * NS_PER_DAY).astype("datetime64[ns]"))
         u_rows = None
     else:
         dcode, ucells = pd.factorize(dcells, use_na_sentinel=True)
         if (dcode < 0).any():
-            i = int(np.flatnonzero(dcode < 0)[0])
-            raise HistoryError(f"{name} row {_row_number(table, i)}, column {dcol!r}: empty date; every "
-                               "row needs a date")
+            raise no_date(int(np.flatnonzero(dcode < 0)[0]))
         # factorize numbers cells in order of first appearance: the first row of each
         _, first_pos = np.unique(dcode, return_index=True)
         u_rows = [_row_number(table, int(p)) for p in first_pos]
         parsed, problems = parse_dates(pd.Series(ucells), u_rows, dcol, name)
-        blank = parsed.isna().to_numpy()
-        if problems or blank.any():
-            if problems:
-                raise HistoryError(sorted(problems)[0].line(name))
-            i = int(np.flatnonzero(blank)[0])
-            raise HistoryError(f"{name} row {u_rows[i]}, column {dcol!r}: empty date; every row needs a date")
+        if problems:
+            raise HistoryError(sorted(problems)[0].line(name))
+        if parsed.isna().any():
+            raise no_date(int(first_pos[np.flatnonzero(parsed.isna().to_numpy())[0]]))
         day_u = parsed.dt.normalize().to_numpy(dtype="datetime64[ns]").astype(np.int64) // NS_PER_DAY
         udays, inv = np.unique(day_u, return_inverse=True)
         dcode = inv[dcode]
-        u_stamps = pd.DatetimeIndex((udays * NS_PER_DAY).astype("datetime64[ns]"))
+    u_stamps = pd.DatetimeIndex((udays * NS_PER_DAY).astype("datetime64[ns]"))
 
     # values
     vcells = frame[vcol]
@@ -259,8 +241,7 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     cell = sid.astype(np.int64) * n_per + pcode
     counts = np.bincount(cell, minlength=n_series * n_per)
     if counts.max() > 1:
-        _raise_duplicates(table, cell, counts, sid, pcode, periods, key_frame, dcells, used, u_stamps,
-                          dcode)
+        _raise_duplicates(table, cell, counts, sid, pcode, periods, key_frame, used, u_stamps, dcode)
     del cell
     has_row = counts.reshape(n_series, n_per).T > 0
     del counts
@@ -334,8 +315,8 @@ def _dense_codes(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _raise_duplicates(table: RawTable, cell: np.ndarray, counts: np.ndarray, sid: np.ndarray,
-                      pcode: np.ndarray, periods: pd.PeriodIndex, keys: pd.DataFrame, dcells: pd.Series,
-                      freq: str, u_stamps: pd.DatetimeIndex, dcode: np.ndarray) -> None:
+                      pcode: np.ndarray, periods: pd.PeriodIndex, keys: pd.DataFrame, freq: str,
+                      u_stamps: pd.DatetimeIndex, dcode: np.ndarray) -> None:
     dup_cells = np.flatnonzero(counts > 1)
     rows = np.flatnonzero(np.isin(cell, dup_cells[:1]))
     j = int(sid[rows[0]])

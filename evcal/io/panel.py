@@ -7,8 +7,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from evcal.io.cells import quote
-from evcal.io.history import History
+from evcal.io.cells import key_text
+from evcal.io.history import History, period_dates
 
 __all__ = ["Panel"]
 
@@ -61,8 +61,7 @@ class Panel:
 
     def key_text(self, j: int) -> str:
         """``product='P1', store='S2'``: how messages name series ``j``."""
-        row = self.keys.iloc[j]
-        return ", ".join(f"{c}={quote(row[c])}" for c in self.key_cols)
+        return key_text(self.keys, j)
 
     def span(self, j: int) -> slice:
         return slice(int(self.first[j]), int(self.last[j]) + 1)
@@ -79,17 +78,7 @@ class Panel:
 
     def dates(self, periods: pd.PeriodIndex | None = None) -> pd.DatetimeIndex:
         """Date stamps of ``periods`` as the file writes them."""
-        periods = self.periods if periods is None else periods
-        stamps = periods.end_time.normalize() if self.label == "end" else periods.start_time
-        return pd.DatetimeIndex(stamps, name="date").as_unit("ns")
-
-    def subset(self, cols: np.ndarray) -> Panel:
-        """The panel restricted to the series at positions ``cols``."""
-        cols = np.asarray(cols, dtype=int)
-        attrs = None if self.attrs is None else self.attrs.iloc[cols].reset_index(drop=True)
-        return Panel(self.keys.iloc[cols].reset_index(drop=True), self.values[:, cols],
-                     self.periods, self.first[cols], self.last[cols], self.freq, self.label,
-                     self.source, self.value_col, attrs)
+        return period_dates(self.periods if periods is None else periods, self.label)
 
     def column(self, name: str) -> pd.Series:
         """A key or attribute column, one value per series."""
@@ -99,5 +88,3 @@ class Panel:
             return self.attrs[name]
         raise KeyError(name)
 
-
-# ---------------------------------------------------------------- reading

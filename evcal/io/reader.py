@@ -18,19 +18,10 @@ from evcal.io.cells import (
     parse_values,
     quote,
 )
-from evcal.io.frequency import (
-    check_forced_freq,
-    describe_freq,
-    detect_freq,
-    detect_label,
-    parse_freq_option,
-    weekday_problem,
-    weekly_freq,
-)
+from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_freq_option, resolve_freq
 from evcal.io.history import History
 from evcal.io.tables import find_column, load_table
 
-MAX_PROBLEM_LINES = KEEP_PROBLEMS
 _MAX_CLASHES = 3
 # Rows named for one repeated date or period; the others are counted.
 _MAX_ROWS_NAMED = 3
@@ -92,7 +83,8 @@ def read_history(
     >>> h.freq, h.label, [str(p) for p in h.values.index], [str(p) for p in h.missing]
     ('M', 'end', ['2024-01', '2024-02', '2024-03', '2024-04'], ['2024-03'])
     """
-    forced = parse_freq_option(freq) if freq is not None else None
+    if freq is not None:
+        parse_freq_option(freq)  # a bad --freq is one line before the file is read
     table = load_table(source, sheet=sheet, date_col=date_col)
     name = table.source
     dcol = find_column(table, date_col, "date", "--date-col")
@@ -128,7 +120,7 @@ def read_history(
         raise HistoryError(f"{name}: column {vcol!r} has no values; every cell is empty")
 
     stamps = pd.DatetimeIndex(dates)
-    freq_used = _resolve_freq(stamps, rows, name, freq, forced)
+    freq_used = resolve_freq(stamps, rows, name, freq)
     periods = stamps.to_period(freq_used)
     _check_one_row_per_period(periods, stamps, rows, name, freq_used)
 
@@ -136,33 +128,7 @@ def read_history(
     series = pd.Series(np.nan, index=index, dtype="float64", name=value_col)
     series.loc[periods] = values.to_numpy(dtype="float64")
     missing = list(index[series.isna().to_numpy()])
-    return History(
-        values=series,
-        freq=freq_used,
-        label=detect_label(stamps, freq_used),
-        source=name,
-        missing=missing,
-    )
-
-
-def _resolve_freq(
-    stamps: pd.DatetimeIndex,
-    rows: list[int],
-    name: str,
-    option: str | None,
-    forced: str | None,
-) -> str:
-    if option is None:
-        return detect_freq(stamps, source=name, rows=rows)
-    if forced is not None:
-        check_forced_freq(stamps, rows, name, option, forced)
-        return forced
-    # Plain "weekly": the week ends on the day every date falls on.
-    weekdays = stamps.day_of_week
-    modal = int(np.bincount(weekdays, minlength=7).argmax())
-    if not (weekdays == modal).all():
-        raise HistoryError(weekday_problem(stamps, rows, name, modal))
-    return weekly_freq(modal)
+    return History(series, freq_used, detect_label(stamps, freq_used), name, missing)
 
 
 def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:
@@ -181,13 +147,10 @@ def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:
     return np.split(repeated[order], bounds)
 
 
-def _rows_text(rows: list[int], positions: np.ndarray, show: object = None) -> str:
+def _rows_text(rows: list[int], positions: np.ndarray, cells: pd.Series) -> str:
     """``row 3 ('2024-01-07'), row 4 (...) and 1,999,997 more rows``: a few named, the rest counted."""
     named = positions[:_MAX_ROWS_NAMED]
-    text = ", ".join(
-        f"row {rows[i]}" + (f" ({quote(show.iloc[i])})" if show is not None else "")  # type: ignore[attr-defined]
-        for i in named
-    )
+    text = ", ".join(f"row {rows[i]} ({quote(cells.iloc[i])})" for i in named)
     if len(positions) > len(named):
         text += f" and {len(positions) - len(named):,} more rows"
     return text
@@ -239,10 +202,8 @@ def _check_one_row_per_period(
 
 def _problem_lines(problems: list[RowProblem], name: str) -> list[str]:
     ordered = sorted(problems)
-    lines = [p.line(name) for p in ordered[:MAX_PROBLEM_LINES]]
+    lines = [p.line(name) for p in ordered[:KEEP_PROBLEMS]]
     rest = count_problems(problems) - len(lines)
     if rest > 0:
-        lines.append(
-            f"{name}: and {rest:,} more problems like these (first {len(lines)} shown)"
-        )
+        lines.append(f"{name}: and {rest:,} more problems like these (first {len(lines)} shown)")
     return lines

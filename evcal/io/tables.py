@@ -14,10 +14,12 @@ from pathlib import Path
 import pandas as pd
 
 from evcal.errors import HistoryError
+from evcal.io.history import period_dates
 
 CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
 PARQUET_SUFFIXES = {".parquet", ".pq"}
 EXCEL_SUFFIXES = {".xlsx", ".xlsm"}
+_EMPTY = "the file is empty; expected a header row (e.g. date,value) and one row per period"
 
 
 @dataclass(frozen=True)
@@ -41,55 +43,42 @@ def load_table(
     column. The caller's frame is never modified.
     """
     if isinstance(source, pd.DataFrame):
-        frame = source.copy()
+        frame, name = source.copy(), "<frame>"
         frame.columns = [str(c) for c in frame.columns]
-        dated_index = isinstance(frame.index, pd.DatetimeIndex | pd.PeriodIndex)
-        if date_col not in frame.columns and dated_index:
+        if date_col not in frame.columns and isinstance(frame.index, pd.DatetimeIndex | pd.PeriodIndex):
             index = frame.index
-            if isinstance(index, pd.PeriodIndex):
-                # Weekly dates name the week's last day; other periods their first.
-                weekly = index.freqstr.startswith("W")
-                index = index.end_time.normalize() if weekly else index.start_time
+            if isinstance(index, pd.PeriodIndex):  # weekly dates name the week's last day, others the first
+                index = period_dates(index, "end" if index.freqstr.startswith("W") else "start")
             frame.index = pd.RangeIndex(len(frame))
             frame.insert(0, date_col, index)
         frame = frame.reset_index(drop=True)
-        return _checked(RawTable(frame, list(range(2, len(frame) + 2)), "<frame>"))
-    path = Path(source)
-    name = path.name
+    else:
+        frame, name = _read_file(Path(source), sheet), Path(source).name
+    frame.columns = [str(c) for c in frame.columns]
+    if frame.shape[1] == 0:
+        raise HistoryError(f"{name}: {_EMPTY}")
+    if len(frame) == 0 or bool(frame.apply(_is_blank_column).all(axis=1).all()):
+        raise HistoryError(f"{name}: no data rows below the header; expected one row per period")
+    return RawTable(frame, list(range(2, len(frame) + 2)), name)
+
+
+def _read_file(path: Path, sheet: str | int | None) -> pd.DataFrame:
     if not path.exists():
         raise HistoryError(f"{path}: no such file")
     if path.is_dir():
         raise HistoryError(f"{path}: is a folder; give the history file inside it")
     suffix = path.suffix.lower()
     if path.stat().st_size == 0:
-        raise HistoryError(
-            f"{name}: the file is empty; expected a header row (e.g. date,value) and one row per period"
-        )
+        raise HistoryError(f"{path.name}: {_EMPTY}")
     if suffix in CSV_SUFFIXES:
-        frame = _read_csv(path)
-    elif suffix in PARQUET_SUFFIXES:
-        frame = _read_parquet(path)
-    elif suffix in EXCEL_SUFFIXES:
-        frame = _read_excel(path, sheet)
-    else:
-        raise HistoryError(
-            f"{name}: unsupported file type {suffix or '(none)'!r}; use .csv, .parquet or .xlsx"
-        )
-    frame.columns = [str(c) for c in frame.columns]
-    return _checked(RawTable(frame, list(range(2, len(frame) + 2)), name))
-
-
-def _checked(table: RawTable) -> RawTable:
-    frame = table.frame
-    if frame.shape[1] == 0:
-        raise HistoryError(
-            f"{table.source}: the file is empty; expected a header row (e.g. date,value) "
-            "and one row per period"
-        )
-    blank = frame.apply(_is_blank_column).all(axis=1) if len(frame) else pd.Series(dtype=bool)
-    if len(frame) == 0 or bool(blank.all()):
-        raise HistoryError(f"{table.source}: no data rows below the header; expected one row per period")
-    return table
+        return _read_csv(path)
+    if suffix in PARQUET_SUFFIXES:
+        return _read_parquet(path)
+    if suffix in EXCEL_SUFFIXES:
+        return _read_excel(path, sheet)
+    raise HistoryError(
+        f"{path.name}: unsupported file type {suffix or '(none)'!r}; use .csv, .parquet or .xlsx"
+    )
 
 
 def _is_blank_column(col: pd.Series) -> pd.Series:
@@ -113,10 +102,7 @@ def _read_csv(path: Path) -> pd.DataFrame:
         except UnicodeDecodeError:
             continue
         except pd.errors.EmptyDataError:
-            raise HistoryError(
-                f"{path.name}: the file is empty; expected a header row (e.g. date,value) "
-                "and one row per period"
-            ) from None
+            raise HistoryError(f"{path.name}: {_EMPTY}") from None
         except pd.errors.ParserError as err:
             detail = str(err).strip().splitlines()[-1]
             raise HistoryError(
@@ -155,19 +141,13 @@ def _read_excel(path: Path, sheet: str | int | None) -> pd.DataFrame:
         raise HistoryError(f"{path.name}: not a readable .xlsx workbook ({type(err).__name__})") from None
     with book:
         names = list(book.sheet_names)
-        if sheet is None:
-            chosen: str | int = 0
-        elif isinstance(sheet, int) or (isinstance(sheet, str) and sheet in names):
-            chosen = sheet
-        else:
-            raise HistoryError(
-                f"{path.name}: no sheet named {sheet!r}; sheets: " + ", ".join(repr(n) for n in names)
-            )
+        listed = ", ".join(repr(n) for n in names)
+        chosen = 0 if sheet is None else sheet
+        if not isinstance(chosen, int) and chosen not in names:
+            raise HistoryError(f"{path.name}: no sheet named {sheet!r}; sheets: {listed}")
         if isinstance(chosen, int) and not 0 <= chosen < len(names):
-            raise HistoryError(
-                f"{path.name}: sheet number {chosen} does not exist; the workbook has "
-                f"{len(names)} sheet(s): " + ", ".join(repr(n) for n in names)
-            )
+            raise HistoryError(f"{path.name}: sheet number {chosen} does not exist; the workbook has "
+                               f"{len(names)} sheet(s): {listed}")
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # openpyxl style warnings are not the user's problem
             try:

@@ -15,7 +15,6 @@ from typing import Any
 import pandas as pd
 
 from evcal._files import atomic_dir, read_marker
-from evcal.design.seasonal import cycle_length
 from evcal.errors import ModelError, clip
 from evcal.store import tables as t
 from evcal.store.documents import plain, validate_document
@@ -119,7 +118,7 @@ def read_folder(directory: str | Path, kind: str | None = None) -> Folder:
     Examples
     --------
     >>> folder = read_folder("models/garden")                 # doctest: +SKIP
-    >>> folder.kind, folder.document["freq"], folder.tables["fitted"].shape
+    >>> folder.kind, folder.document["freq"], folder.tables["fitted"].shape  # doctest: +SKIP
     ('model', 'W-SUN', (260, 14))
     """
     directory = Path(directory)
@@ -139,7 +138,11 @@ def read_folder(directory: str | Path, kind: str | None = None) -> Folder:
     doc = validate_document(kind, path, raw)
     if kind == "model":
         cal, periods = check_model(path, doc)
-        tables = _model_tables(directory, doc, periods)
+        events = [*doc.status, *doc.closure_events]
+        tables = _tables(directory, doc.freq, t.Rows([]), set(events), len(events),
+                         {info.event for info in doc.event_info.values()} | set(doc.closure_events))
+        tables["fitted"] = t.check_fitted(directory / "fitted.csv", periods, doc.label,
+                                          f"{doc.history.start} .. {doc.history.end} in model.json")
     else:
         columns = {*t.SERIES.columns, *t.LIFTS.columns, *t.OCCURRENCES.columns, *t.FITTED.columns,
                    *PANEL_EXTRA["lifts"], *PANEL_EXTRA["occurrences"]}
@@ -148,41 +151,23 @@ def read_folder(directory: str | Path, kind: str | None = None) -> Folder:
     return Folder(directory, kind, plain(doc, raw), raw, cal, periods, tables)
 
 
-def _model_tables(directory: Path, m: Any, periods: pd.PeriodIndex) -> dict[str, pd.DataFrame]:
-    rows, events = t.Rows([]), [*m.status, *m.closure_events]
-    path = directory / "lifts.csv"
-    lifts = t.check_lifts(path, t.read_table(path, t.LIFTS, []), rows, set(events), len(events))
-    path = directory / "occurrences.csv"
-    occ = t.check_occurrences(path, t.read_table(path, t.OCCURRENCES, []), rows,
-                              {info.event for info in m.event_info.values()} | set(m.closure_events))
-    path = directory / "profile.csv"
-    profile = t.check_profile(path, t.read_table(path, t.PROFILE, []), rows, m.freq, cycle_length(m.freq))
-    path = directory / "fitted.csv"
-    fitted = t.check_fitted(path, t.read_table(path, t.FITTED, []), periods, m.label,
-                            f"{m.history.start} .. {m.history.end} in model.json")
-    return {"lifts": lifts, "occurrences": occ, "profile": profile, "fitted": fitted}
+def _tables(directory: Path, freq: str, rows: t.Rows, terms: set[str], each: int, occurrence_events: set[str]
+            ) -> dict[str, pd.DataFrame]:
+    """The tables both kinds of folder hold (a panel's with its extra columns)."""
+    extra = PANEL_EXTRA if rows.keys else {}
+    return {"lifts": t.check_lifts(directory / "lifts.csv", rows, terms, each, extra.get("lifts", ())),
+            "occurrences": t.check_occurrences(directory / "occurrences.csv", rows, occurrence_events,
+                                               extra.get("occurrences", ())),
+            "profile": t.check_profile(directory / "profile.csv", rows, freq)}
 
 
 def _panel_tables(directory: Path, m: Any, cal: Any) -> dict[str, pd.DataFrame]:
     rows = t.check_series(directory / "series.csv", m)
     terms = set(m.events) | set(m.design.event_columns) | {i.name for i in m.design.interventions} | {
         e.name for e in cal.events}
-    path = directory / "lifts.csv"
-    lifts = t.check_lifts(path, t.read_table(path, t.LIFTS, rows.keys, PANEL_EXTRA["lifts"]), rows, terms,
-                          len(m.events))
-    path = directory / "pooling.csv"
-    pooling = t.read_table(path, t.POOLING, [])
-    t.names(path, pooling, "group")
-    t.names(path, pooling, "event", terms)
-    pooling = t.typed(path, pooling, t.POOLING, [])
-    path = directory / "occurrences.csv"
-    occ = t.check_occurrences(path, t.read_table(path, t.OCCURRENCES, rows.keys, PANEL_EXTRA["occurrences"]),
-                              rows, terms)
-    path = directory / "profile.csv"
-    profile = t.check_profile(path, t.read_table(path, t.PROFILE, rows.keys), rows, m.freq,
-                              cycle_length(m.freq))
-    path = directory / "skipped.csv"
-    skipped = t.check_skipped(path, t.read_table(path, t.SKIPPED, rows.keys), rows)
+    tables = _tables(directory, m.freq, rows, terms, len(m.events), terms)
+    tables["pooling"] = t.check_pooling(directory / "pooling.csv", terms)
+    tables["skipped"] = t.check_skipped(directory / "skipped.csv", rows)
     t.read_parquet(directory / "fitted.parquet", (*rows.keys, *t.FITTED.columns))
     coefficients = t.read_parquet(directory / "coefficients.parquet", tuple(rows.keys), rows)
     for gi, g in enumerate(m.groups):
@@ -190,5 +175,4 @@ def _panel_tables(directory: Path, m: Any, cal: Any) -> dict[str, pd.DataFrame]:
         if absent:
             raise fail(directory / "panel.json", f"groups[{gi}].fitted_columns",
                        f"{clip(absent[0], 60)} is not a column of coefficients.parquet")
-    return {"series": rows.series, "lifts": lifts, "pooling": pooling,
-            "occurrences": occ, "profile": profile, "coefficients": coefficients, "skipped": skipped}
+    return {"series": rows.series, **tables, "coefficients": coefficients}

@@ -14,8 +14,10 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.design.seasonal import cycle_length
 from evcal.errors import ModelError, clip
 from evcal.formula_safe import formula_safe_frame, unguard_frame
+from evcal.io.history import period_dates
 from evcal.store.values import AGAIN, fail, shown
 
 
@@ -219,8 +221,10 @@ def key_index(frame: pd.DataFrame, keys: list[str]) -> pd.Index:
     return pd.MultiIndex.from_arrays([frame[k].astype(str).to_numpy() for k in keys])
 
 
-def check_lifts(path: Path, lifts: pd.DataFrame, rows: Rows, events: set[str], each: int) -> pd.DataFrame:
+def check_lifts(path: Path, rows: Rows, events: set[str], each: int, required: tuple[str, ...] = ()
+                ) -> pd.DataFrame:
     """One row per event and intervention (``each`` of them, named in ``events``) per fitted series."""
+    lifts = read_table(path, LIFTS, rows.keys, required)
     pos = rows.positions(path, lifts)
     _bad_row(path, ~rows.fitted[pos], rows.keys[0] if rows.keys else "event",
              lambda i: "a series that series.csv marks skipped")
@@ -233,15 +237,19 @@ def check_lifts(path: Path, lifts: pd.DataFrame, rows: Rows, events: set[str], e
     return typed(path, lifts, LIFTS, rows.keys)
 
 
-def check_occurrences(path: Path, occ: pd.DataFrame, rows: Rows, events: set[str]) -> pd.DataFrame:
+def check_occurrences(path: Path, rows: Rows, events: set[str], required: tuple[str, ...] = ()
+                      ) -> pd.DataFrame:
     """Past occurrences: a known series and event, ISO dates, numbers."""
+    occ = read_table(path, OCCURRENCES, rows.keys, required)
     rows.positions(path, occ)
     names(path, occ, "event", events)
     return typed(path, occ, OCCURRENCES, rows.keys)
 
 
-def check_profile(path: Path, profile: pd.DataFrame, rows: Rows, freq: str, p: int) -> pd.DataFrame:
-    """The seasonal index: positions 1..p of the year, once each, for every fitted series."""
+def check_profile(path: Path, rows: Rows, freq: str) -> pd.DataFrame:
+    """The seasonal index: positions 1..p of the year (p: ``freq``'s cycle), once each, for every fitted
+    series."""
+    profile, p = read_table(path, PROFILE, rows.keys), cycle_length(freq)
     pos = rows.positions(path, profile)
     rows.counted(path, pos, np.where(rows.fitted, p, 0), f"a {freq} seasonal index has {p} positions" + (
         ", for each fitted series" if rows.keys else ""))
@@ -254,14 +262,14 @@ def check_profile(path: Path, profile: pd.DataFrame, rows: Rows, freq: str, p: i
     return profile
 
 
-def check_fitted(path: Path, fitted: pd.DataFrame, periods: pd.PeriodIndex, label: str, history: str
-                 ) -> pd.DataFrame:
+def check_fitted(path: Path, periods: pd.PeriodIndex, label: str, history: str) -> pd.DataFrame:
     """One row per period of the stored history (``history`` names it), dated as it was."""
+    fitted = read_table(path, FITTED, [])
     if len(fitted) != len(periods):
         raise ModelError(f"{path}: {len(fitted)} rows; the history {history} has {len(periods)} periods; "
                          f"{AGAIN}")
     fitted = typed(path, fitted, FITTED, [])
-    want = (periods.end_time if label == "end" else periods.start_time).normalize()
+    want = period_dates(periods, label)
     _bad_row(path, fitted["date"].to_numpy() != want.to_numpy(), "date", lambda i: (
         f"{fitted['date'].iloc[i].date()} is not the {periods.freqstr} period dated {want[i].date()} (freq "
         f"{periods.freqstr}, label {label} in model.json)"))
@@ -305,8 +313,17 @@ def check_series(path: Path, m: Any) -> Rows:
     return rows
 
 
-def check_skipped(path: Path, skipped: pd.DataFrame, rows: Rows) -> pd.DataFrame:
+def check_pooling(path: Path, terms: set[str]) -> pd.DataFrame:
+    """A panel's pooled lifts: a group and a known event on every row, numbers."""
+    pooling = read_table(path, POOLING, [])
+    names(path, pooling, "group")
+    names(path, pooling, "event", terms)
+    return typed(path, pooling, POOLING, [])
+
+
+def check_skipped(path: Path, rows: Rows) -> pd.DataFrame:
     """One row per series that ``series.csv`` marks skipped, with a reason."""
+    skipped = read_table(path, SKIPPED, rows.keys)
     rows.counted(path, rows.positions(path, skipped), np.where(rows.fitted, 0, 1), "one row per series "
                  "that series.csv marks skipped")
     names(path, skipped, "reason")

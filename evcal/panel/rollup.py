@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.errors import HistoryError, PlanError
+from evcal.errors import PlanError
 from evcal.io.panel import Panel
 
 __all__ = ["aggregate", "allocate", "child_base"]
@@ -86,11 +86,6 @@ def aggregate(panel: Panel, level: list[str]) -> Panel:
         attrs = pd.DataFrame(keep) if keep else None
     return Panel(out_keys, values, panel.periods, first, last, panel.freq, panel.label,
                  f"{panel.source} (added up to {', '.join(level)})", panel.value_col, attrs)
-
-
-def check_level(level: list[str], series_cols: list[str]) -> None:
-    if level and not series_cols:
-        raise HistoryError("--level needs --series-col: the child series to add up")
 
 
 def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> pd.DataFrame:

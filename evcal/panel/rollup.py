@@ -101,6 +101,7 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
     from evcal.design.interventions import PERSISTENT
     from evcal.design.matrix import DesignSpec, build_design
     from evcal.model.inputs import load_calendar_any
+    from evcal.plan.horizon import period_dates
 
     cal = load_calendar_any(calendar if calendar is not None else children.settings["calendar_text"])
     spec0 = DesignSpec.from_dict(children.settings["design"])
@@ -109,7 +110,7 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
     coef = children.coefficients.set_index(keys).reindex(pd.MultiIndex.from_frame(series[keys])) \
         if len(keys) > 1 else children.coefficients.set_index(keys[0]).reindex(series[keys[0]])
     out = []
-    dates = _dates(periods, children.settings["label"])
+    dates = period_dates(periods, children.settings["label"]).to_numpy()
     for origin, idx in series.groupby("trend_origin").groups.items():
         spec = replace(spec0, trend_origin=float(origin), event_columns=[])
         design = build_design(spec, cal, periods)
@@ -128,11 +129,6 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
         frame["base"] = base.ravel()
         out.append(frame)
     return pd.concat(out, ignore_index=True) if out else pd.DataFrame(columns=keys + ["date", "base"])
-
-
-def _dates(periods: pd.PeriodIndex, label: str) -> np.ndarray:
-    stamps = periods.end_time.normalize() if label == "end" else periods.start_time
-    return pd.DatetimeIndex(stamps).as_unit("ns").to_numpy()
 
 
 def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,

@@ -32,7 +32,7 @@ from evcal.plan.horizon import full_years, horizon_periods, period_dates, period
 from evcal.plan.result import Plan
 from evcal.plan.schedule import resolve_schedule
 from evcal.plan.simulate import check_sims, error_forecast, simulate_interval
-from evcal.plan.spread import apply_spread, check_total, read_totals, spread_factors
+from evcal.plan.spread import check_total, read_totals, spread
 
 ERROR_COLUMN = "__error_forecast__"
 
@@ -198,20 +198,7 @@ def plan_periods(
 
     years = period_years(periods, result.label)
     model_totals = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
-    factors: dict[int, float] = {}
-    target: dict[int, float] | None = None
-    if total is not None:
-        whole = float(table["plan"].sum())
-        if not np.isfinite(whole) or whole <= 0:
-            raise PlanError(f"--total: the plan adds up to {whole:g}, so it cannot be spread to a total; "
-                            "check that the horizon is not wholly closed")
-        factors = dict.fromkeys(model_totals, total / whole)
-        table = apply_spread(table, years, factors)
-        target = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
-    elif totals is not None:
-        factors = spread_factors(table["plan"].to_numpy(), years, totals, source="--totals")
-        table = apply_spread(table, years, factors)
-        target = {int(y): float(totals[int(y)]) for y in np.unique(years)}
+    table, factors, target = spread(table, years, total, totals)
 
     notes = []
     dropped = [t.name for t in spec.intervention_terms() if t.type not in PERSISTENT]

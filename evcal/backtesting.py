@@ -30,7 +30,6 @@ scored (they say nothing about normal demand).
 
 from __future__ import annotations
 
-import sys
 from typing import Any
 
 import numpy as np
@@ -38,7 +37,7 @@ import pandas as pd
 
 from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.errors import PlanError
-from evcal.plan.horizon import period_dates
+from evcal.plan.horizon import full_years, period_years
 
 COLUMNS = ["year", "method", "spread", "wape", "bias", "peak_error"]
 METHODS = ("evcal", "average_share", "seasonal_naive")
@@ -69,20 +68,6 @@ def _excluded(periods: pd.PeriodIndex, calendar: Any) -> np.ndarray:
     return out
 
 
-def _full_years(periods: pd.PeriodIndex, years: np.ndarray, label: str) -> list[int]:
-    """Years whose every period (by date label) lies inside the history."""
-    out = []
-    freq = periods.freq
-    for y in np.unique(years):
-        y = int(y)
-        span = pd.period_range(pd.Timestamp(y, 1, 1).to_period(freq),
-                               pd.Timestamp(y, 12, 31).to_period(freq), freq=freq)
-        need = span[period_dates(span, label).year == y]
-        if len(need) and need[0] >= periods[0] and need[-1] <= periods[-1]:
-            out.append(y)
-    return out
-
-
 def _average_share(res: Any, train_values: pd.Series) -> dict[int, float]:
     if res.average_share:
         return dict(res.average_share)
@@ -103,22 +88,6 @@ def _seasonal_naive(values: pd.Series, test: pd.PeriodIndex, prev_mask: np.ndarr
             level=0).mean()
         lagged = by_pos.reindex(season_position(test)).to_numpy(dtype=float)
     return np.where(np.isfinite(lagged), lagged, fallback)
-
-
-def _progress(total: int, show: bool | None) -> Any:
-    if show is None:
-        show = sys.stderr.isatty()
-    if not show:
-        return None
-    from rich.console import Console
-    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
-
-    progress = Progress(TextColumn("backtest {task.description}"), BarColumn(),
-                        TextColumn("{task.completed}/{task.total} years"), TimeElapsedColumn(),
-                        console=Console(stderr=True), transient=True)
-    progress.start()
-    progress.add_task("", total=total)
-    return progress
 
 
 def backtest(
@@ -171,6 +140,7 @@ def backtest(
     from evcal.engine import fit
     from evcal.io import History, read_history
     from evcal.model.inputs import load_calendar_any
+    from evcal.panel.distributed import progress_bar, progress_enabled
     from evcal.plan.build import plan_periods
 
     if isinstance(holdout_years, bool) or not isinstance(holdout_years, int | np.integer) \
@@ -182,8 +152,8 @@ def backtest(
     cal = load_calendar_any(calendar)
     values = hist.values.astype(float)
     periods = values.index
-    years = period_dates(periods, hist.label).year.to_numpy()
-    full = _full_years(periods, years, hist.label)
+    years = period_years(periods, hist.label)
+    full = full_years(periods, hist.label)
     p = cycle_length(hist.freq)
     if len(full) < int(holdout_years):
         raise PlanError(f"{hist.source}: --holdout-years {holdout_years} but the history has only "
@@ -192,11 +162,8 @@ def backtest(
     excluded = _excluded(periods, cal)
     rows: list[dict[str, Any]] = []
     notes: list[str] = []
-    bar = _progress(len(holdout), progress)
-    try:
+    with progress_bar(len(holdout), progress_enabled(progress), "backtest: held-out years") as advance:
         for y in holdout:
-            if bar is not None:
-                bar.update(bar.task_ids[0], description=f"fitting before {y}")
             train = years < y
             n_train = int(values[train].notna().sum())
             if n_train < 2 * p:
@@ -207,6 +174,7 @@ def backtest(
                                  source=f"{hist.source} (before {y})",
                                  missing=[m for m in hist.missing if m < periods[train][-1] + 1])
             res = fit(train_hist, cal, **fit_options)
+            advance(1)
             test_mask = years == y
             test = periods[test_mask]
             plan = plan_periods(res, test, calendar=cal, new_events="zero", n_sims=0)
@@ -217,13 +185,10 @@ def backtest(
                              "(excluded in the calendar or without a value)")
             if not scored.any():
                 notes.append(f"{y}: no period to score; skipped")
-                if bar is not None:
-                    bar.update(bar.task_ids[0], advance=1)
                 continue
             a = actual[scored]
             share = _average_share(res, values[train])
-            pos = season_position(test)
-            s = np.array([share.get(int(k), np.nan) for k in pos], dtype=float)
+            s = np.array([share.get(int(k), np.nan) for k in season_position(test)], dtype=float)
             s = np.where(np.isfinite(s), s, 0.0)
             prev_mask = years == (y - 1)
             prev = values[prev_mask]
@@ -244,11 +209,6 @@ def backtest(
                         tot = float(np.nansum(raw))
                         f = raw * (a.sum() / tot) if tot > 0 else np.full(len(raw), np.nan)
                     rows.append({"year": int(y), "method": method, "spread": how, **score(f, a)})
-            if bar is not None:
-                bar.update(bar.task_ids[0], advance=1)
-    finally:
-        if bar is not None:
-            bar.stop()
     out = pd.DataFrame(rows, columns=COLUMNS)
     out["peak_error"] = out["peak_error"].astype(int)
     out.attrs["notes"] = notes

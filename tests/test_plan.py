@@ -20,7 +20,7 @@ import pytest
 import evcal
 from evcal.errors import PlanError
 from evcal.plan import make_plan
-from evcal.plan.noise import error_forecast
+from evcal.plan.simulate import error_forecast
 
 # ------------------------------------------------------------------ invented histories
 

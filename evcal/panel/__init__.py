@@ -25,6 +25,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
+from evcal.panel.planning import plan_panel
 from evcal.panel.result import PanelResult, is_panel_dir, load_panel
 
 __all__ = ["fit_panel", "PanelResult", "load_panel", "is_panel_dir", "plan_panel"]
@@ -69,8 +70,10 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     """
     from threadpoolctl import threadpool_limits
 
+    from evcal._files import atomic_dir
     from evcal.engine.memory import arrow_on_system_heap
     from evcal.model.options import FitOptions
+    from evcal.panel.build import FittedWriter, build_result, read_for_panel
     from evcal.panel.distributed import make_runner
 
     opts = FitOptions(**options)
@@ -78,37 +81,25 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     # the matrices are small: one BLAS thread each, the cores go to the units instead; pyarrow
     # and numpy share one heap, so the pages one frees the other reuses (evcal.engine.memory)
     with threadpool_limits(limits=1), arrow_on_system_heap():
-        return _fit(history, calendar, series_cols, date_col, value_col, freq, level, group_col, opts,
-                    runner, out)
+        panel, keys, levels, cal = read_for_panel(history, series_cols, date_col, value_col, freq, level,
+                                                  group_col, meanwhile=lambda: _ready_to_fit(calendar))
+        from evcal.engine.run import fit_long_panel  # imported by _ready_to_fit while the file was read
 
-
-def _fit(history: Any, calendar: Any, series_cols: Any, date_col: str, value_col: str, freq: str | None,
-         level: Any, group_col: str | None, opts: Any, runner: Any, out: str | Path | None) -> PanelResult:
-    from evcal.panel.build import build_result, read_for_panel
-
-    panel, keys, levels, cal = read_for_panel(history, series_cols, date_col, value_col, freq, level,
-                                              group_col, meanwhile=lambda: _ready_to_fit(calendar))
-    from evcal.engine.run import fit_long_panel  # imported by _ready_to_fit while the file was read
-
-    if out is None:
-        fitted = fit_long_panel(panel, cal, opts, runner=runner)
-        return build_result(fitted, keys, levels, group_col, date_col, value_col, None)
-
-    from evcal._files import atomic_dir
-    from evcal.panel.build import FittedWriter
-
-    out = Path(out)
-    with atomic_dir(out, kind="panel") as tmp:
-        writer = FittedWriter(tmp / "fitted.parquet", panel)
-        try:
-            fitted = fit_long_panel(panel, cal, opts, runner=runner, on_fitted=writer.write)
-            # the writer's thread finishes the fitted rows while the other tables are built and
-            # written (none of them reads fitted.parquet)
-            result = build_result(fitted, keys, levels, group_col, date_col, value_col,
-                                  tmp / "fitted.parquet")
-            result.write_into(tmp)
-        finally:
-            writer.close()
+        if out is None:
+            fitted = fit_long_panel(panel, cal, opts, runner=runner)
+            return build_result(fitted, keys, levels, group_col, date_col, value_col, None)
+        out = Path(out)
+        with atomic_dir(out, kind="panel") as tmp:
+            writer = FittedWriter(tmp / "fitted.parquet", panel)
+            try:
+                fitted = fit_long_panel(panel, cal, opts, runner=runner, on_fitted=writer.write)
+                # the writer's thread finishes the fitted rows while the other tables are built and
+                # written (none of them reads fitted.parquet)
+                result = build_result(fitted, keys, levels, group_col, date_col, value_col,
+                                      tmp / "fitted.parquet")
+                result.write_into(tmp)
+            finally:
+                writer.close()
     result.fitted_path = out / "fitted.parquet"
     return result
 
@@ -122,10 +113,3 @@ def _ready_to_fit(calendar: Any) -> Any:
     for name in ("evcal.engine.run", "evcal.engine.refine", "evcal.panel.pooling"):
         importlib.import_module(name)
     return load_calendar_any(calendar)
-
-
-def plan_panel(model: Any, start: Any, end: Any, series: list[str] | None = None, **kwargs: Any) -> Any:
-    """Plan each series of a panel model (see :func:`evcal.panel.planning.plan_panel`)."""
-    from evcal.panel.planning import plan_panel as _plan
-
-    return _plan(model, start, end, series=series, **kwargs)

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+from collections import deque
 from collections.abc import Callable
+from concurrent.futures import Future, ThreadPoolExecutor
 from pathlib import Path
 from typing import Any
 
@@ -13,10 +15,26 @@ from evcal import __version__
 from evcal.errors import HistoryError
 from evcal.io.longformat import read_panel, split_key_option
 from evcal.io.panel import Panel
-from evcal.panel.result import PanelResult, key_codes_of, keyed
+from evcal.panel.result import PanelResult
 from evcal.store import PANEL_FORMAT, PANEL_VERSION
 
 __all__ = ["read_for_panel", "build_result", "FittedWriter"]
+
+
+def keyed(frame: pd.DataFrame, keys: pd.DataFrame) -> pd.DataFrame:
+    """Replace the ``_sid`` column by the key columns (categorical: one copy of each key)."""
+    if "_sid" not in frame.columns:
+        return frame
+    sid = frame["_sid"].to_numpy(dtype=np.int64)
+    cols: dict[str, Any] = {}
+    for c in keys.columns:
+        codes, cats = pd.factorize(keys[c], sort=False)
+        cols[c] = pd.Categorical.from_codes(codes[sid], categories=cats) if len(cats) else keys[c].iloc[sid]
+    for c in frame.columns:
+        if c != "_sid":  # one frame built at once: adding columns one by one copies the block each time
+            col = frame[c]
+            cols[c] = col.array if isinstance(col.dtype, pd.CategoricalDtype) else col.to_numpy()
+    return pd.DataFrame(cols)
 
 
 def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str, freq: str | None,
@@ -34,15 +52,14 @@ def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str
         is reported before one that ``meanwhile`` raises, as if the file had
         been read first.
     """
-    from concurrent.futures import ThreadPoolExecutor
-
     import pyarrow.parquet  # noqa: F401 -- imported here, not by both threads at once
 
-    from evcal.panel.rollup import aggregate, check_level
+    from evcal.panel.rollup import aggregate
 
     keys = split_key_option(series_cols)
     levels = split_key_option(level)
-    check_level(levels, keys)
+    if levels and not keys:
+        raise HistoryError("--level needs --series-col: the child series to add up")
     if not keys:
         raise HistoryError("--series-col: give at least one key column (e.g. --series-col product)")
     attr_cols = [c for c in levels + ([group_col] if group_col else []) if c not in keys]
@@ -76,19 +93,14 @@ class FittedWriter:
     """Streams the fitted rows to one Parquet file, a row group per unit, keys first.
 
     The writing runs on a background thread (pyarrow releases the GIL), so the
-    file fills while the next units are being fitted.
+    file fills while the next units are being fitted; at most two units wait for it.
     """
 
     def __init__(self, path: Path, panel: Panel) -> None:
-        import queue
-        import threading
-
         import pyarrow as pa
 
-        self._queue: queue.Queue[Any] = queue.Queue(maxsize=2)
-        self._error: BaseException | None = None
-        self._thread = threading.Thread(target=self._drain, name="evcal-fitted-writer", daemon=True)
-        self._thread.start()
+        self._thread = ThreadPoolExecutor(max_workers=1, thread_name_prefix="evcal-fitted-writer")
+        self._pending: deque[Future[None]] = deque()
         self.path = path
         self.keys = {c: pa.array(panel.keys[c].to_numpy(dtype=object), type=pa.string())
                      for c in panel.key_cols}
@@ -117,21 +129,10 @@ class FittedWriter:
         return pa.table(arrays)
 
     def write(self, blocks: list[Any]) -> None:
-        """Queue a unit's fitted blocks (raises here if the writer thread failed)."""
-        if self._error is not None:
-            raise self._error
-        self._queue.put(blocks)
-
-    def _drain(self) -> None:
-        while True:
-            blocks = self._queue.get()
-            if blocks is None:
-                return
-            if self._error is None:
-                try:
-                    self._write_now(blocks)
-                except BaseException as err:  # handed to the caller by write/close
-                    self._error = err
+        """Queue a unit's fitted blocks (raises here if an earlier write failed)."""
+        while len(self._pending) >= 2:
+            self._pending.popleft().result()
+        self._pending.append(self._thread.submit(self._write_now, blocks))
 
     def _write_now(self, blocks: list[Any]) -> None:
         import pyarrow as pa
@@ -159,10 +160,11 @@ class FittedWriter:
         import pyarrow as pa
         import pyarrow.parquet as pq
 
-        self._queue.put(None)
-        self._thread.join()
-        if self._error is not None:
-            raise self._error
+        try:
+            while self._pending:
+                self._pending.popleft().result()
+        finally:
+            self._thread.shutdown(cancel_futures=True)
         if self.writer is not None:
             self.writer.close()
             self.writer = None
@@ -175,51 +177,39 @@ class FittedWriter:
 def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | None, date_col: str,
                  value_col: str, fitted_path: Path | None) -> PanelResult:
     """Attach the keys, pool the lifts and assemble the series table and settings."""
-    from evcal.model.inputs import calendar_text
-    from evcal.panel.pooling import POOLED_COLUMNS, pool_lifts
+    from evcal.model.inputs import calendar_text, design_spec
+    from evcal.panel.pooling import pool_lifts
 
     panel = fit.panel
-    kc = key_codes_of(panel.keys)
     n = panel.n_series
     sids = np.arange(n)
     pool_groups = panel.column(group_col).astype(str) if group_col else pd.Series(["all"] * n)
     pool_groups.index = sids
 
     series = pd.DataFrame({"_sid": sids})
-    fitted_ids = set(fit.series["_sid"].tolist()) if len(fit.series) else set()
-    series["status"] = np.where(np.isin(sids, list(fitted_ids)), "fitted", "skipped")
+    series["status"] = np.where(np.isin(sids, fit.series["_sid"].to_numpy()), "fitted", "skipped")
     reason = pd.Series("", index=sids, dtype=object)
-    if len(fit.skipped):
-        reason[fit.skipped["_sid"].to_numpy()] = fit.skipped["reason"].to_numpy()
+    reason[fit.skipped["_sid"].to_numpy()] = fit.skipped["reason"].to_numpy()
     series["reason"] = reason.to_numpy()
     info = fit.series.set_index("_sid") if len(fit.series) else pd.DataFrame()
-    for c in ("engine", "group", "transform", "method", "sigma2", "smear", "hac_lags", "trend_origin"):
-        series[c] = info[c].reindex(sids).to_numpy() if c in info.columns else np.nan
-    series["group"] = pd.array(series["group"], dtype="Int64")
-    series["hac_lags"] = pd.array(series["hac_lags"], dtype="Int64")
-    q = fit.quality.set_index("_sid") if len(fit.quality) else pd.DataFrame()
-    for c in ("periods_fitted", "wape_pct", "resid_sd", "mean_base"):
-        series[c] = q[c].reindex(sids).to_numpy() if c in q.columns else np.nan
-    series["periods_fitted"] = pd.array(series["periods_fitted"], dtype="Int64")
+    quality = fit.quality.set_index("_sid") if len(fit.quality) else pd.DataFrame()
+    for table, cols in ((info, ("engine", "group", "transform", "method", "sigma2", "smear", "hac_lags",
+                                "trend_origin")),
+                        (quality, ("periods_fitted", "wape_pct", "resid_sd", "mean_base"))):
+        for c in cols:
+            series[c] = table[c].reindex(sids).to_numpy() if c in table.columns else np.nan
+    for c in ("group", "hac_lags", "periods_fitted"):
+        series[c] = pd.array(series[c], dtype="Int64")
     series["start"] = panel.dates(panel.periods[panel.first]).strftime("%Y-%m-%d")
     series["end"] = panel.dates(panel.periods[panel.last]).strftime("%Y-%m-%d")
     series["pool_group"] = pool_groups.to_numpy()
     series["note"] = info["note"].reindex(sids).fillna("").to_numpy() if "note" in info.columns else ""
-    transforms = pd.Series(series["transform"].to_numpy(), index=sids)
-
-    lifts = fit.lifts
-    pooling = pd.DataFrame(columns=["group", "event", "series", "mean_pct", "mean_low_pct", "mean_high_pct",
-                                    "tau", "q", "i2_pct"])
-    if len(lifts):
-        lifts, pooling = pool_lifts(lifts, pool_groups, transforms)
-    else:
-        lifts = lifts.assign(**{c: pd.Series(dtype=float) for c in POOLED_COLUMNS})
+    lifts, pooling = pool_lifts(fit.lifts, pool_groups, pd.Series(series["transform"].to_numpy(), index=sids))
     skipped = fit.skipped[["_sid", "reason", "detail"]]
     labels: dict[str, dict[str, str]] = {}
     if len(lifts):
         first = lifts.drop_duplicates("event")
         labels = {str(r.event): {"kind": str(r.kind), "label": str(r.label)} for r in first.itertuples()}
-    coefficients = fit.params
     settings = {
         "format": PANEL_FORMAT, "format_version": PANEL_VERSION, "evcal_version": __version__,
         "keys": keys, "level": levels or None, "group_col": group_col, "freq": panel.freq,
@@ -230,8 +220,9 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
         "errors": ("OLS with HAC (Newey-West) intervals, solved in blocks of series that share a design"
                    if fit.options.errors in ("auto", "ols") else f"errors {fit.options.errors}, per series"),
         "calendar_name": fit.calendar.name, "calendar_text": calendar_text(fit.calendar, None),
-        "design": _template_spec(fit),
-        "counts": {"series": int(n), "fitted": int((series["status"] == "fitted").sum()),
+        # the shared design settings (each series' own trend origin is in series.csv)
+        "design": design_spec(fit.calendar, fit.options, panel.periods, panel.freq).to_dict(),
+        "counts": {"series": n, "fitted": int((series["status"] == "fitted").sum()),
                    "skipped": int((series["status"] == "skipped").sum()),
                    "batched": int((series["engine"] == "batched").sum()),
                    "per_series": int((series["engine"] == "per-series").sum())},
@@ -241,21 +232,15 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
     fitted_frame = None if fitted_path is not None else fit.fitted
     return PanelResult(
         settings=settings,
-        series=keyed(series, panel.keys, kc),
-        lifts=keyed(lifts, panel.keys, kc),
+        series=keyed(series, panel.keys),
+        lifts=keyed(lifts, panel.keys),
         pooling=pooling,
-        occurrences=keyed(fit.occurrences, panel.keys, kc),
-        profile=keyed(fit.profile, panel.keys, kc),
-        coefficients=keyed(coefficients, panel.keys, kc),
-        skipped=keyed(skipped, panel.keys, kc),
+        occurrences=keyed(fit.occurrences, panel.keys),
+        profile=keyed(fit.profile, panel.keys),
+        coefficients=keyed(fit.params, panel.keys),
+        skipped=keyed(skipped, panel.keys),
         fitted_path=fitted_path,
-        _fitted=keyed(fitted_frame, panel.keys, kc) if fitted_frame is not None and len(fitted_frame)
+        _fitted=keyed(fitted_frame, panel.keys) if fitted_frame is not None and len(fitted_frame)
         else None,
     )
 
-
-def _template_spec(fit: Any) -> dict[str, Any]:
-    """The shared design settings (each series' own trend origin is in series.csv)."""
-    from evcal.model.inputs import design_spec
-
-    return design_spec(fit.calendar, fit.options, fit.panel.periods, fit.panel.freq).to_dict()

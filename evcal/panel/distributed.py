@@ -20,7 +20,7 @@ from typing import Any
 
 from evcal.errors import EvcalError
 
-__all__ = ["make_runner", "progress_enabled"]
+__all__ = ["make_runner", "progress_enabled", "progress_bar"]
 
 
 def progress_enabled(flag: bool | None = None) -> bool:
@@ -30,12 +30,9 @@ def progress_enabled(flag: bool | None = None) -> bool:
     return bool(getattr(sys.stderr, "isatty", lambda: False)())
 
 
-def _units_size(unit: Any) -> int:
-    return int(len(unit.sids))
-
-
 @contextlib.contextmanager
-def _progress(total: int, enabled: bool, label: str) -> Iterator[Callable[[int], None]]:
+def progress_bar(total: int, enabled: bool, label: str) -> Iterator[Callable[[int], None]]:
+    """A transient progress bar on stderr; yields ``advance(n)`` (which does nothing when not enabled)."""
     if not enabled:
         yield lambda n: None
         return
@@ -61,7 +58,7 @@ def local_threads() -> int:
     return max(1, min(4, cores))
 
 
-def local_runner(progress: bool = False, threads: int | None = None
+def local_runner(progress: bool = False, threads: int | None = None, label: str = "fitting series"
                  ) -> Callable[[list[Any], Callable[[Any], Any]], Iterator[Any]]:
     """Run the units in this process, on a few threads (numpy releases the GIL in the heavy steps).
 
@@ -75,12 +72,12 @@ def local_runner(progress: bool = False, threads: int | None = None
 
         from threadpoolctl import threadpool_limits
 
-        total = sum(_units_size(u) for u in units)
-        with _progress(total, progress, "fitting series") as advance, threadpool_limits(limits=1):
+        total = sum(len(u.sids) for u in units)
+        with progress_bar(total, progress, label) as advance, threadpool_limits(limits=1):
             if n_threads == 1 or len(units) <= 1:
                 for u in units:
                     yield fn(u)
-                    advance(_units_size(u))
+                    advance(len(u.sids))
                 return
             # a few units ahead of the threads, not all of them: when the caller is slower than
             # the threads (writing the fitted rows), finished units wait here in bounded number
@@ -102,13 +99,13 @@ def local_runner(progress: bool = False, threads: int | None = None
                         u = running.pop(fut)
                         submit_next()
                         yield fut.result()
-                        advance(_units_size(u))
+                        advance(len(u.sids))
 
     return run
 
 
-def dask_runner(workers: int | None = None, scheduler: str | None = None, progress: bool = False
-                ) -> Callable[[list[Any], Callable[[Any], Any]], Iterator[Any]]:
+def dask_runner(workers: int | None = None, scheduler: str | None = None, progress: bool = False,
+                label: str = "fitting series") -> Callable[[list[Any], Callable[[Any], Any]], Iterator[Any]]:
     """Run the units as Dask tasks on a local cluster (``workers``) or an existing one (``scheduler``)."""
     try:
         from dask.distributed import Client, LocalCluster, as_completed
@@ -116,7 +113,6 @@ def dask_runner(workers: int | None = None, scheduler: str | None = None, progre
         raise EvcalError("--workers/--scheduler need dask.distributed: pip install 'evcal[dask]'") from None
 
     def run(units: list[Any], fn: Callable[[Any], Any]) -> Iterator[Any]:
-        total = sum(_units_size(u) for u in units)
         with contextlib.ExitStack() as stack:
             if scheduler:
                 try:
@@ -145,10 +141,10 @@ def dask_runner(workers: int | None = None, scheduler: str | None = None, progre
                     scattered[id(shared)] = client.scatter(shared, broadcast=True, hash=False)
                 futures.append(client.submit(_with_shared, fn, u.without_shared(), scattered[id(shared)],
                                              pure=False))
-            with _progress(total, progress, "fitting series") as advance:
+            with progress_bar(sum(len(u.sids) for u in units), progress, label) as advance:
                 for fut in as_completed(futures):
                     result = fut.result()
-                    advance(_units_size(units[result.index]) if result.index < len(units) else 0)
+                    advance(len(units[result.index].sids))
                     yield result
                     fut.release()
 

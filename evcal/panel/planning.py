@@ -31,29 +31,31 @@ __all__ = ["plan_panel", "plan_panel_cmd"]
 PLAN_CHUNK = 8
 
 
-def _selected(model: PanelResult, series: list[str] | None) -> list[dict[str, Any]]:
-    if series:
-        return [model.find(s) for s in series]
-    fitted = model.series[model.series["status"] == "fitted"]
-    return [{c: row[c] for c in model.key_cols} for _, row in fitted.iterrows()]
+@dataclass
+class PlanChunk:
+    """A few series to plan: a unit for the runners of :mod:`evcal.panel.distributed`.
+
+    ``model`` is the panel, or its folder when the chunk is planned in a worker
+    (which reads the folder itself); ``frame`` holds the plans once made.
+    """
+
+    index: int
+    model: PanelResult | str
+    sids: list[dict[str, Any]]  # the series' keys
+    options: dict[str, Any]
+    frame: pd.DataFrame | None = None
 
 
-def _plan_chunk(task: tuple[str, list[dict[str, Any]], dict[str, Any]]) -> pd.DataFrame:
-    """Plan a few series of the panel folder at ``path`` (runs in a worker, or here)."""
-    path, keys, kwargs = task
-    model = load_panel(path)
-    return _plan_keys(model, keys, **kwargs)
-
-
-def _plan_keys(model: PanelResult, keys: list[dict[str, Any]], start: Any, end: Any, **kwargs: Any
-               ) -> pd.DataFrame:
+def _plan_chunk(chunk: PlanChunk) -> PlanChunk:
+    """Plan each series of ``chunk`` with the single-series plan; keys first in its table."""
     from evcal.plan import make_plan
 
+    model = chunk.model if isinstance(chunk.model, PanelResult) else load_panel(chunk.model)
     frames = []
-    for key in keys:
+    for key in chunk.sids:
         res = model.series_result(key)
         try:
-            plan = make_plan(res, start, end, **kwargs)
+            plan = make_plan(res, **chunk.options)
         except EvcalError as err:
             shown = ", ".join(f"{c}={key[c]!r}" for c in model.key_cols)
             raise PlanError([f"series {shown}: {p}" for p in err.problems]) from None
@@ -61,7 +63,8 @@ def _plan_keys(model: PanelResult, keys: list[dict[str, Any]], start: Any, end: 
         for i, c in enumerate(model.key_cols):
             table.insert(i, c, key[c])
         frames.append(table)
-    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+    chunk.frame = pd.concat(frames, ignore_index=True)
+    return chunk
 
 
 def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: list[str] | None = None,
@@ -84,26 +87,33 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         ``total``/``totals`` with more than one series (a target is per plan:
         plan one series, or fit the level the target belongs to and allocate).
     """
+    from evcal.panel.distributed import dask_runner, local_runner, progress_enabled
     from evcal.plan.simulate import check_sims
 
     check_sims(n_sims)  # before any series is loaded or planned
-    path = Path(model) if not isinstance(model, PanelResult) else None
-    model = load_panel(model) if path is not None else model
-    keys = _selected(model, series)
+    path = None if isinstance(model, PanelResult) else str(model)
+    model = load_panel(path) if path is not None else model
+    if series:
+        keys = [model.find(s) for s in series]
+    else:
+        fitted = model.series[model.series["status"] == "fitted"]
+        keys = [{c: row[c] for c in model.key_cols} for _, row in fitted.iterrows()]
     if not keys:
         raise PlanError("the panel model has no fitted series to plan")
     if (total is not None or totals is not None) and len(keys) > 1:
         raise PlanError(f"--total/--totals: the panel has {len(keys)} series and a target belongs to one "
                         "plan; name one series with --series, or fit the level the target is set for "
                         "(--level) and spread it down with --allocate")
-    kwargs: dict[str, Any] = {"start": start, "end": end, "calendar": calendar, "new_events": new_events,
-                              "n_sims": n_sims, "seed": seed, "total": total, "totals": totals}
-    chunks = [keys[a:a + PLAN_CHUNK] for a in range(0, len(keys), PLAN_CHUNK)]
-    if workers and path is not None:
-        frames = _run_dask([(str(path), c, kwargs) for c in chunks], workers, progress)
-    else:
-        frames = _run_here(model, chunks, kwargs, progress)
-    table = pd.concat([f for f in frames if len(f)], ignore_index=True)
+    options = {"start": start, "end": end, "calendar": calendar, "new_events": new_events,
+               "n_sims": n_sims, "seed": seed, "total": total, "totals": totals}
+    in_workers = bool(workers) and path is not None
+    chunks = [PlanChunk(i, path if in_workers else model, keys[a:a + PLAN_CHUNK], options)
+              for i, a in enumerate(range(0, len(keys), PLAN_CHUNK))]
+    show = progress_enabled(progress)
+    run = dask_runner(workers, None, show, "planning series") if in_workers \
+        else local_runner(show, threads=1, label="planning series")
+    done = sorted(run(chunks, _plan_chunk), key=lambda c: c.index)
+    table = pd.concat([c.frame for c in done], ignore_index=True)
     lift_cols = [c for c in table.columns if str(c).startswith("lift:")]
     table[lift_cols] = table[lift_cols].fillna(0.0)
     order = model.key_cols + ["date", "base", "plan", "low", "high"] + lift_cols + ["assumptions"]
@@ -116,48 +126,6 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         table["note"] = ("allocated from the parent plan by each child's share of the parents' base; "
                          "low/high are the parent's interval times the share, not the child's own interval")
     return table
-
-
-def _run_here(model: PanelResult, chunks: list[list[dict[str, Any]]], kwargs: dict[str, Any],
-              progress: bool | None) -> list[pd.DataFrame]:
-    from evcal.panel.distributed import _progress, progress_enabled
-
-    out = []
-    with _progress(sum(len(c) for c in chunks), progress_enabled(progress), "planning series") as advance:
-        for c in chunks:
-            out.append(_plan_keys(model, c, **kwargs))
-            advance(len(c))
-    return out
-
-
-@dataclass
-class PlanTask:
-    """A few series to plan in a worker (which reads the panel folder itself)."""
-
-    index: int
-    task: tuple[str, list[dict[str, Any]], dict[str, Any]]
-
-    @property
-    def sids(self) -> list[dict[str, Any]]:
-        return self.task[1]
-
-
-@dataclass
-class PlanDone:
-    index: int
-    frame: pd.DataFrame
-
-
-def _run_task(t: PlanTask) -> PlanDone:
-    return PlanDone(t.index, _plan_chunk(t.task))
-
-
-def _run_dask(tasks: list[Any], workers: int, progress: bool | None) -> list[pd.DataFrame]:
-    from evcal.panel.distributed import dask_runner, progress_enabled
-
-    run = dask_runner(workers, None, progress_enabled(progress))
-    done = list(run([PlanTask(i, t) for i, t in enumerate(tasks)], _run_task))
-    return [d.frame for d in sorted(done, key=lambda d: d.index)]
 
 
 def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callable[[str], None],

@@ -34,9 +34,7 @@ import pandas as pd
 
 from evcal.effects import Z95
 
-__all__ = ["dersimonian_laird", "pool_lifts", "POOLED_COLUMNS"]
-
-POOLED_COLUMNS = ["pooled_pct", "pooled_low_pct", "pooled_high_pct", "shrinkage"]
+__all__ = ["dersimonian_laird", "pool_lifts"]
 
 
 def dersimonian_laird(b: np.ndarray, se: np.ndarray) -> tuple[float, float, float, float]:

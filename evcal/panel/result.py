@@ -1,24 +1,8 @@
 """The panel model folder: long tables with the key columns first, written and read back.
 
 A panel folder holds, for every series, what a single-series model folder
-holds, as long tables whose first columns are the series keys:
-
-============================  ==================================================================
-file                          columns
-============================  ==================================================================
-``panel.json``                settings (keys, frequency, options, calendar text), design groups
-``series.csv``                keys, ``status`` (fitted / skipped), engine, group, transform, method,
-                              fit quality, ``start``, ``end``
-``lifts.csv``                 keys, the ``lifts.csv`` contract columns, ``kind, label``, then
-                              ``pooled_pct, pooled_low_pct, pooled_high_pct, shrinkage``
-``pooling.csv``               one row per pooling group and event: group mean, ``tau``, ``Q``, I²
-``occurrences.csv``           keys, the ``occurrences.csv`` contract columns, ``low_units, high_units``
-``profile.csv``               keys, ``period, index``
-``fitted.parquet``            keys, ``date, actual, fitted, base``, one column per term, ``in_fit``
-``coefficients.parquet``      keys, one column per coefficient (empty where not fitted)
-``skipped.csv``               keys, ``reason, detail``: every series not fitted, and why
-============================  ==================================================================
-
+holds, as long tables whose first columns are the series keys (the files and
+their columns: ``docs/scale.md``; one writer and reader: :mod:`evcal.store`).
 The fitted table is Parquet because it has a row per series and period (2.6
 million rows for 10,000 weekly series over five years), which CSV writes and
 reads many times slower. Any one series' single model can be rebuilt from the
@@ -36,34 +20,17 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import ModelError
-from evcal.store import PANEL_FILES, PANEL_FORMAT, PANEL_VERSION, folder_kind, read_folder, write_folder
+from evcal.store import folder_kind, read_folder, write_folder
 
-__all__ = ["PanelResult", "load_panel", "is_panel_dir", "PANEL_FILES", "PANEL_FORMAT", "PANEL_VERSION"]
-
-
-def keyed(frame: pd.DataFrame, keys: pd.DataFrame, key_codes: dict[str, tuple[np.ndarray, Any]]
-          ) -> pd.DataFrame:
-    """Replace the ``_sid`` column by the key columns (categorical: one copy of each key)."""
-    if "_sid" not in frame.columns:
-        return frame
-    sid = frame["_sid"].to_numpy(dtype=np.int64)
-    cols: dict[str, Any] = {}
-    for c in keys.columns:
-        codes, cats = key_codes[c]
-        cols[c] = pd.Categorical.from_codes(codes[sid], categories=cats) if len(cats) else keys[c].iloc[sid]
-    for c in frame.columns:
-        if c != "_sid":  # one frame built at once: adding columns one by one copies the block each time
-            col = frame[c]
-            cols[c] = col.array if isinstance(col.dtype, pd.CategoricalDtype) else col.to_numpy()
-    return pd.DataFrame(cols)
+__all__ = ["PanelResult", "load_panel", "is_panel_dir"]
 
 
-def key_codes_of(keys: pd.DataFrame) -> dict[str, tuple[np.ndarray, Any]]:
-    out = {}
-    for c in keys.columns:
-        codes, cats = pd.factorize(keys[c], sort=False)
-        out[c] = (codes.astype(np.int64), cats)
-    return out
+def key_mask(frame: pd.DataFrame, key: dict[str, Any]) -> np.ndarray:
+    """Rows of ``frame`` whose key columns equal ``key`` (compared as text)."""
+    mask = np.ones(len(frame), dtype=bool)
+    for c, v in key.items():
+        mask &= frame[c].astype(str).to_numpy() == str(v)
+    return mask
 
 
 @dataclass
@@ -96,7 +63,6 @@ class PanelResult:
             self._fitted = pd.read_parquet(self.fitted_path)
         return self._fitted if self._fitted is not None else pd.DataFrame()
 
-    # ------------------------------------------------------------ one series
     def find(self, key: dict[str, Any] | str | tuple[Any, ...]) -> dict[str, Any]:
         """The full key of one series from ``{"product": "P1"}``, ``"P1"`` or ``("F1", "P1")``.
 
@@ -119,10 +85,7 @@ class PanelResult:
         unknown = [k for k in key if k not in cols]
         if unknown:
             raise ModelError(f"--series: {unknown[0]!r} is not a key column; the keys are {', '.join(cols)}")
-        mask = np.ones(len(self.series), dtype=bool)
-        for c, v in key.items():
-            mask &= self.series[c].astype(str).to_numpy() == str(v)
-        hits = np.flatnonzero(mask)
+        hits = np.flatnonzero(key_mask(self.series, key))
         shown = ", ".join(f"{c}={v}" for c, v in key.items())
         if len(hits) == 0:
             raise ModelError(f"--series {shown}: no such series in the model; see series.csv for the keys")
@@ -135,7 +98,13 @@ class PanelResult:
         """The series' history as a single-series :class:`~evcal.io.History` (from the fitted rows)."""
         from evcal.io.history import History
 
-        rows = self._series_rows(key)
+        if self._fitted is not None:
+            rows = self._fitted[key_mask(self._fitted, {c: key[c] for c in self.key_cols})]
+        elif self.fitted_path is not None:
+            filters = [(c, "==", key[c]) for c in self.key_cols]
+            rows = pd.read_parquet(self.fitted_path, columns=["date", "actual"], filters=filters)
+        else:
+            raise ModelError("this panel result has no fitted rows to rebuild a series from")
         freq = self.settings["freq"]
         periods = pd.PeriodIndex(pd.DatetimeIndex(rows["date"]).to_period(freq), name="period")
         values = pd.Series(rows["actual"].to_numpy(dtype=float), index=periods,
@@ -144,18 +113,6 @@ class PanelResult:
         return History(values=values, freq=freq, label=self.settings["label"],
                        source=f"{self.settings['source']} [{label}]",
                        missing=list(periods[values.isna().to_numpy()]))
-
-    def _series_rows(self, key: dict[str, Any]) -> pd.DataFrame:
-        if self._fitted is not None:
-            frame = self._fitted
-            mask = np.ones(len(frame), dtype=bool)
-            for c in self.key_cols:
-                mask &= frame[c].astype(str).to_numpy() == str(key[c])
-            return frame[mask]
-        if self.fitted_path is None:
-            raise ModelError("this panel result has no fitted rows to rebuild a series from")
-        filters = [(c, "==", key[c]) for c in self.key_cols]
-        return pd.read_parquet(self.fitted_path, columns=["date", "actual"], filters=filters)
 
     def series_result(self, key: dict[str, Any] | str | tuple[Any, ...]) -> Any:
         """The single-series :class:`~evcal.model.FitResult` of one series.
@@ -168,10 +125,10 @@ class PanelResult:
         from evcal.model.options import FitOptions
 
         full = self.find(key)
-        row = self.series.loc[self._mask(full)].iloc[0]
+        row = self.series.loc[key_mask(self.series, full)].iloc[0]
         if row["status"] != "fitted":
-            raise ModelError(f"series {self._text(full)} was not fitted ({row.get('reason', '')}); "
-                             "see skipped.csv")
+            shown = ", ".join(f"{c}={full[c]!r}" for c in self.key_cols)
+            raise ModelError(f"series {shown} was not fitted ({row.get('reason', '')}); see skipped.csv")
         opts = FitOptions.from_dict(self.settings["options"]).to_dict()
         opts["transform"] = row["transform"]
         if row["engine"] == "batched":
@@ -179,16 +136,6 @@ class PanelResult:
         opts["arima_order"] = tuple(opts["arima_order"]) if opts.get("arima_order") else None
         return fit(self.history(full), self.settings["calendar_text"], **opts)
 
-    def _mask(self, key: dict[str, Any]) -> np.ndarray:
-        mask = np.ones(len(self.series), dtype=bool)
-        for c in self.key_cols:
-            mask &= self.series[c].astype(str).to_numpy() == str(key[c])
-        return mask
-
-    def _text(self, key: dict[str, Any]) -> str:
-        return ", ".join(f"{c}={key[c]!r}" for c in self.key_cols)
-
-    # ------------------------------------------------------------ persistence
     def write_into(self, directory: Path) -> None:
         """Write every file into ``directory`` (:func:`evcal.store.write_folder`), except ``fitted.parquet``
         when it is there already (streamed while fitting) or the fitted rows are not in memory."""

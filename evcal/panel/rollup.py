@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.errors import HistoryError, PlanError
+from evcal.errors import PlanError
 from evcal.io.panel import Panel
 
 __all__ = ["aggregate", "allocate", "child_base"]
@@ -88,11 +88,6 @@ def aggregate(panel: Panel, level: list[str]) -> Panel:
                  f"{panel.source} (added up to {', '.join(level)})", panel.value_col, attrs)
 
 
-def check_level(level: list[str], series_cols: list[str]) -> None:
-    if level and not series_cols:
-        raise HistoryError("--level needs --series-col: the child series to add up")
-
-
 def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> pd.DataFrame:
     """Each fitted child's base over ``periods`` from its coefficients: ``keys..., date, base``.
 
@@ -106,6 +101,7 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
     from evcal.design.interventions import PERSISTENT
     from evcal.design.matrix import DesignSpec, build_design
     from evcal.model.inputs import load_calendar_any
+    from evcal.plan.horizon import period_dates
 
     cal = load_calendar_any(calendar if calendar is not None else children.settings["calendar_text"])
     spec0 = DesignSpec.from_dict(children.settings["design"])
@@ -114,7 +110,7 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
     coef = children.coefficients.set_index(keys).reindex(pd.MultiIndex.from_frame(series[keys])) \
         if len(keys) > 1 else children.coefficients.set_index(keys[0]).reindex(series[keys[0]])
     out = []
-    dates = _dates(periods, children.settings["label"])
+    dates = period_dates(periods, children.settings["label"]).to_numpy()
     for origin, idx in series.groupby("trend_origin").groups.items():
         spec = replace(spec0, trend_origin=float(origin), event_columns=[])
         design = build_design(spec, cal, periods)
@@ -133,11 +129,6 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
         frame["base"] = base.ravel()
         out.append(frame)
     return pd.concat(out, ignore_index=True) if out else pd.DataFrame(columns=keys + ["date", "base"])
-
-
-def _dates(periods: pd.PeriodIndex, label: str) -> np.ndarray:
-    stamps = periods.end_time.normalize() if label == "end" else periods.start_time
-    return pd.DatetimeIndex(stamps).as_unit("ns").to_numpy()
 
 
 def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,

@@ -33,26 +33,19 @@ def lift_distribution(lifts: pd.DataFrame) -> pd.DataFrame:
                                        "above_zero_pct", "below_zero_pct", "pooled_median_pct"])
 
 
-def _freq_text(freq: str) -> str:
-    from evcal.io.frequency import describe_freq
-
-    try:
-        return describe_freq(freq)
-    except (ValueError, IndexError):
-        return freq
-
-
 def describe_panel(result: Any) -> str:
     """Series fitted and skipped, fit quality, each event's lift across series, pooling."""
+    from evcal.io.frequency import describe_freq
+
     s = result.settings
     series = result.series
     counts = s.get("counts", {})
     keys = ", ".join(s["keys"])
     level = f", added up to {', '.join(s['level'])}" if s.get("level") else ""
+    freq = describe_freq(s["freq"])  # one evcal fits: evcal.store checks panel.json's freq
     lines = [
         f"panel   : {s.get('calendar_name', '')} | {counts.get('series', len(series))} series "
-        f"(keys: {keys}{level}) | {_freq_text(s['freq'])} {s['periods']['start']} .. {s['periods']['end']} "
-        f"from {s['source']}",
+        f"(keys: {keys}{level}) | {freq} {s['periods']['start']} .. {s['periods']['end']} from {s['source']}",
         f"fitted  : {counts.get('fitted', 0)} series: {counts.get('batched', 0)} by the batched OLS+HAC "
         f"solver in {len(s.get('groups', []))} design group(s), {counts.get('per_series', 0)} one by one",
     ]
@@ -83,15 +76,13 @@ def describe_panel(result: Any) -> str:
     pooling = result.pooling
     if len(pooling):
         by = s.get("group_col") or "one group of all series"
-        lines.append("")
-        lines.append("pooling : empirical-Bayes shrinkage toward the group mean (DerSimonian-Laird "
+        lines.append("\npooling : empirical-Bayes shrinkage toward the group mean (DerSimonian-Laird "
                      f"tau^2) by {by}; {pooling['group'].nunique()} group(s)")
         sh = result.lifts["shrinkage"].to_numpy(dtype=float) if "shrinkage" in result.lifts else np.array([])
         sh = sh[np.isfinite(sh)]
         if len(sh):
             lines.append(f"          shrinkage median {_q(sh, 0.5):.2f} "
                          "(0: own estimate kept, 1: group mean)")
-    lines.append("")
-    lines.append("Lifts are estimates from past data; intervals are 95 %. Decisions stay with the people "
+    lines.append("\nLifts are estimates from past data; intervals are 95 %. Decisions stay with the people "
                  "who own them.")
     return "\n".join(lines)

@@ -26,32 +26,15 @@ import pandas as pd
 
 from evcal.design.interventions import PERSISTENT
 from evcal.design.matrix import build_design
-from evcal.design.seasonal import cycle_length
 from evcal.effects import closure_shares, decompose
 from evcal.errors import PlanError
-from evcal.plan.horizon import (
-    history_end_period,
-    horizon_periods,
-    period_dates,
-    period_years,
-    steps_after,
-)
-from evcal.plan.noise import error_forecast
+from evcal.plan.horizon import full_years, horizon_periods, period_dates, period_years
 from evcal.plan.result import Plan
 from evcal.plan.schedule import resolve_schedule
-from evcal.plan.simulate import check_sims, simulate_interval
-from evcal.plan.spread import apply_spread, check_total, read_totals, spread_factors
+from evcal.plan.simulate import check_sims, error_forecast, simulate_interval
+from evcal.plan.spread import check_total, read_totals, spread
 
 ERROR_COLUMN = "__error_forecast__"
-
-
-def load_plan_calendar(result: Any, calendar: Any) -> Any:
-    """The calendar to plan with: the fitted one by default, else a path, YAML text or Calendar."""
-    if calendar is None:
-        return result.calendar
-    from evcal.model.inputs import load_calendar_any
-
-    return load_calendar_any(calendar)
 
 
 def make_plan(
@@ -147,8 +130,10 @@ def plan_periods(
     seed: int = 0,
 ) -> Plan:
     """:func:`make_plan` for periods already checked (used by the backtest and scenarios)."""
+    from evcal.model.inputs import load_calendar_any
+
     n_sims = check_sims(n_sims, len(periods))
-    cal = load_plan_calendar(result, calendar)
+    cal = result.calendar if calendar is None else load_calendar_any(calendar)
     colmap = cal.event_columns()
     event_cols = [c for c, ev in colmap.items() if cal.event(ev).effect.kind != "zero"]
     spec = replace(result.spec, event_columns=event_cols)
@@ -159,10 +144,9 @@ def plan_periods(
 
     persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
     base_cols = [c for c in list(result.base_columns) + persistent if c in X.columns]
-    hist_end = history_end_period(result)
-    err = error_forecast(result.error_model, result.sigma2, steps_after(periods, hist_end))
-    transform = result.transform
-    if transform == "log":
+    steps = periods.asi8 - pd.Period(result.history_end, freq=result.freq).ordinal
+    err = error_forecast(result.error_model, result.sigma2, steps)
+    if result.transform == "log":
         # mean of a lognormal: exp(sigma^2 / 2) on the forecast variance (ARIMA),
         # the fit's smearing factor (Duan 1983) for iid errors
         smear = np.exp(err.var / 2.0) if err.kind == "arima" else np.full(len(periods), result.smear)
@@ -181,28 +165,20 @@ def plan_periods(
         parts = decompose(view, Xd, share, closures, terms=event_cols)
     parts = parts.mul(smear, axis=0)
 
-    # one lift column per event that touches the horizon, in order of first appearance
-    touched: dict[str, int] = {}
-    for c in event_cols:
-        hit = np.flatnonzero(np.abs(X[c].to_numpy()) > 0)
-        if len(hit):
-            ev = colmap[c]
-            touched[ev] = min(touched.get(ev, len(periods)), int(hit[0]))
-    for ev in closures.columns:
-        hit = np.flatnonzero(closures[ev].to_numpy() > 0)
-        if len(hit):
-            touched[ev] = min(touched.get(ev, len(periods)), int(hit[0]))
-    events = sorted(touched, key=lambda e: (touched[e], e))
+    # which periods each event touches (its own columns, then its closures too)
+    on_own = X[event_cols].abs().gt(0).T.groupby(colmap).any().T
+    on = pd.concat([on_own, closures.gt(0)], axis=1).T.groupby(level=0).any().T
+    first = {ev: int(np.argmax(hit)) for ev, hit in on.items() if hit.any()}
+    events = sorted(first, key=lambda e: (first[e], e))  # in order of first appearance
     # events whose effect the fit left inside the seasonal index: no lift of their own
     in_season = [ev for ev in events if ev not in closures.columns and all(
         schedule.status[c].status == "unidentifiable"
         for c in event_cols if colmap[c] == ev)]
 
-    dates = period_dates(periods, result.label)
-    table = pd.DataFrame({"date": dates, "base": parts["base"].to_numpy(),
+    table = pd.DataFrame({"date": period_dates(periods, result.label), "base": parts["base"].to_numpy(),
                           "plan": parts["fitted"].to_numpy()})
     _check_finite(table, result)
-    if n_sims and n_sims > 0:
+    if n_sims > 0:
         low, high = simulate_interval(result, X, share.to_numpy(), base_cols, schedule, err,
                                       n_sims=n_sims, seed=seed)
         table["low"], table["high"] = low, high
@@ -216,40 +192,14 @@ def plan_periods(
         table[f"lift:{ev}"] = parts[cols].sum(axis=1).to_numpy() if cols else 0.0
 
     # assumptions active in each period
-    active_notes: dict[str, str] = {}
-    text = [[] for _ in range(len(periods))]
-    for ev, note in schedule.notes.items():
-        cols = [c for c in event_cols if colmap[c] == ev]
-        on = np.zeros(len(periods), dtype=bool)
-        for c in cols:
-            on |= np.abs(X[c].to_numpy()) > 0
-        if on.any():
-            active_notes[ev] = note
-            for i in np.flatnonzero(on):
-                text[i].append(note)
-    table["assumptions"] = ["; ".join(t) for t in text]
+    active = {ev: note for ev, note in schedule.notes.items() if on_own[ev].any()}
+    table["assumptions"] = ["; ".join(note for ev, note in active.items() if on_own[ev].iat[i])
+                            for i in range(len(periods))]
 
     years = period_years(periods, result.label)
     model_totals = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
-    factors: dict[int, float] = {}
-    target: dict[int, float] | None = None
-    if total is not None:
-        whole = float(table["plan"].sum())
-        if not np.isfinite(whole) or whole <= 0:
-            raise PlanError(f"--total: the plan adds up to {whole:g}, so it cannot be spread to a total; "
-                            "check that the horizon is not wholly closed")
-        f = total / whole
-        factors = {int(y): f for y in np.unique(years)}
-        table = apply_spread(table, years, factors)
-        target = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
-    elif totals is not None:
-        factors = spread_factors(table["plan"].to_numpy(), years, totals, source="--totals")
-        table = apply_spread(table, years, factors)
-        target = {int(y): float(totals[int(y)]) for y in np.unique(years)}
+    table, factors, target = spread(table, years, total, totals)
 
-    p = cycle_length(result.freq)
-    full_years = [int(y) for y in np.unique(years) if _is_full_year(periods[years == y], int(y), p,
-                                                                    result.label)]
     notes = []
     dropped = [t.name for t in spec.intervention_terms() if t.type not in PERSISTENT]
     if dropped:
@@ -258,20 +208,9 @@ def plan_periods(
         notes.append("the base includes the forecast of the ARIMA error from the end of the history")
     return Plan(
         table=table, periods=periods, freq=result.freq, label=result.label, events=events,
-        assumptions=active_notes, model_totals=model_totals, target=target, factors=factors,
-        full_years=full_years, last_year=dict(result.last_year or {}),
+        assumptions=active, model_totals=model_totals, target=target, factors=factors,
+        full_years=full_years(periods, result.label), last_year=dict(result.last_year or {}),
         average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
         interval_note=interval_note, notes=notes, target_total=total, in_season=in_season,
         result=result,
     )
-
-
-def _is_full_year(year_periods: pd.PeriodIndex, year: int, p: int, label: str) -> bool:
-    """Whether the horizon holds every period labelled with ``year``."""
-    if len(year_periods) < p:
-        return False
-    freq = year_periods.freq
-    all_periods = pd.period_range(pd.Timestamp(year, 1, 1).to_period(freq),
-                                  pd.Timestamp(year, 12, 31).to_period(freq), freq=freq)
-    all_years = period_years(all_periods, label)
-    return set(all_periods[all_years == year]) <= set(year_periods)

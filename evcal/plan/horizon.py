@@ -14,27 +14,20 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.calendar import YEAR_RANGE
+from evcal.calendar.occurrences import as_day
 from evcal.design.seasonal import base_freq
-from evcal.errors import PlanError, clip
+from evcal.errors import CalendarError, PlanError, clip
 
 _YEAR = re.compile(r"^\s*(\d{4})\s*$")
 
 
 def _as_day(value: Any, *, end: bool, what: str) -> pd.Timestamp:
-    """A day from a date-like value; a bare year is 1 January (or 31 December for ``end``).
-
-    The calendar's :func:`~evcal.calendar.occurrences.as_day` does the parsing; here a
-    period and a year written as text are accepted too, and the error is a plan error.
-    """
-    from evcal.calendar.occurrences import as_day
-    from evcal.errors import CalendarError
-
+    """A day from a date-like value, a period, or a year (1 January; 31 December for ``end``)."""
     if isinstance(value, pd.Period):
         return value.end_time.normalize() if end else value.start_time.normalize()
     if isinstance(value, str) and _YEAR.match(value):
         value = int(value)
-    from evcal.calendar import YEAR_RANGE
-
     try:
         day = as_day(value, end=end, what=what)
     except (CalendarError, ValueError, OverflowError):  # OutOfBoundsDatetime is a ValueError
@@ -44,11 +37,6 @@ def _as_day(value: Any, *, end: bool, what: str) -> pd.Timestamp:
         raise PlanError(f"{what} {day.date()}: outside the years a plan can cover; give a date from "
                         f"{YEAR_RANGE[0]} to {YEAR_RANGE[1]}")
     return day
-
-
-def history_end_period(result: Any) -> pd.Period:
-    """The last period of the fitted history, at the model's frequency."""
-    return pd.Period(result.history_end, freq=result.freq)
 
 
 def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
@@ -84,8 +72,6 @@ def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
     freq = result.freq
     first, last = first_day.to_period(freq), last_day.to_period(freq)
     if base_freq(freq) == "W" and last >= first:
-        # a week is named by its date label (its last or first day, as in the history),
-        # so the horizon holds the weeks whose label falls between the two days
         label = getattr(result, "label", "end")
         around = pd.period_range(first - 1, last + 1, freq=freq)
         stamps = period_dates(around, label)
@@ -95,7 +81,7 @@ def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
                 f"--from {first_day.date()} --to {last_day.date()}: no week is dated between these days "
                 f"(weeks are dated by their {'last' if label == 'end' else 'first'} day); widen the horizon")
         first, last = inside[0], inside[-1]
-    hist_end = history_end_period(result)
+    hist_end = pd.Period(result.history_end, freq=freq)
     if first <= hist_end:
         raise PlanError(
             f"--from {first_day.date()}: the plan must start after the history, which ends with "
@@ -118,6 +104,13 @@ def period_years(periods: pd.PeriodIndex, label: str) -> np.ndarray:
     return period_dates(periods, label).year.to_numpy()
 
 
-def steps_after(periods: pd.PeriodIndex, hist_end: pd.Period) -> np.ndarray:
-    """How many periods after the history's last each horizon period is (1 = the next one)."""
-    return np.array([(p - hist_end).n for p in periods], dtype=int)
+def full_years(periods: pd.PeriodIndex, label: str) -> list[int]:
+    """The years whose every period (by date label) lies inside ``periods`` (a contiguous range)."""
+    out = []
+    for year in np.unique(period_years(periods, label)):
+        span = pd.period_range(pd.Timestamp(year, 1, 1).to_period(periods.freq),
+                               pd.Timestamp(year, 12, 31).to_period(periods.freq))
+        need = span[period_years(span, label) == year]
+        if len(need) and need[0] >= periods[0] and need[-1] <= periods[-1]:
+            out.append(int(year))
+    return out

@@ -12,8 +12,6 @@ from evcal._files import atomic_path
 from evcal.errors import PlanError
 from evcal.formula_safe import write_csv
 
-OUTPUT_SUFFIXES = (".csv", ".xlsx")
-
 
 @dataclass
 class Plan:
@@ -77,30 +75,26 @@ class Plan:
     def save(self, path: str | Path) -> Path:
         """Write the plan as ``.csv`` or ``.xlsx`` (atomically: the whole file or nothing).
 
-        Text cells are formula-safe (:mod:`evcal.formula_safe`): quoted in the
-        CSV when they begin like a formula, text cells in the workbook.
-
-        The workbook adds the model's lifts, seasonal index and past occurrences
-        when :mod:`evcal.report` is available.
+        Text cells are formula-safe (:mod:`evcal.formula_safe`). The workbook
+        adds the model's lifts, seasonal index and past occurrences.
         """
-        path = Path(path)
-        suffix = path.suffix.lower()
-        if suffix not in OUTPUT_SUFFIXES:
-            raise PlanError(f"--out {path}: unknown file type {suffix or '(none)'}; "
-                            "write plan.csv or plan.xlsx")
-        if suffix == ".csv":
+        from evcal.plan.workbook import write_workbook
+
+        path = output_path(path, "plan")
+        if path.suffix.lower() == ".csv":
             with atomic_path(path) as tmp:
                 write_csv(self.table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
             return path
-        return write_xlsx(path, self.table, self.result)
+        empty = pd.DataFrame()
+        model_tables = [getattr(self.result, name, empty) for name in ("lifts", "profile", "occurrences")]
+        return write_workbook(path, self.table, *model_tables)
 
 
-def write_xlsx(path: Path, table: pd.DataFrame, result: Any = None) -> Path:
-    """A workbook of ``table`` with the model's lifts, seasonal index and past occurrences (when given)."""
-    from evcal.plan.workbook import write_workbook
-
-    empty = pd.DataFrame()
-    lifts = getattr(result, "lifts", empty) if result is not None else empty
-    profile = getattr(result, "profile", empty) if result is not None else empty
-    occ = getattr(result, "occurrences", empty) if result is not None else empty
-    return write_workbook(path, table, lifts, profile, occ)
+def output_path(path: str | Path, stem: str) -> Path:
+    """``path`` if it names a ``.csv`` or ``.xlsx`` file, else a one-line :class:`PlanError`."""
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix not in (".csv", ".xlsx"):
+        raise PlanError(f"--out {path}: unknown file type {suffix or '(none)'}; "
+                        f"write {stem}.csv or {stem}.xlsx")
+    return path

@@ -17,10 +17,9 @@ import numpy as np
 import pandas as pd
 
 from evcal._files import atomic_path
-from evcal.errors import PlanError
 from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.plan.build import make_plan
-from evcal.plan.result import OUTPUT_SUFFIXES, Plan
+from evcal.plan.result import Plan, output_path
 from evcal.plan.summary import period_name
 
 
@@ -41,11 +40,6 @@ class Comparison:
     plan_b: Plan
     name_a: str = "A"
     name_b: str = "B"
-
-    @property
-    def difference(self) -> float:
-        """Total of plan B minus total of plan A."""
-        return self.plan_b.total - self.plan_a.total
 
     def summary(self, top: int = 3) -> str:
         """Totals of both plans, their difference, and the periods that differ most."""
@@ -77,13 +71,9 @@ class Comparison:
 
     def save(self, path: str | Path) -> Path:
         """Write the side-by-side table as ``.csv`` or ``.xlsx`` (atomically; text formula-safe)."""
-        path = Path(path)
-        suffix = path.suffix.lower()
-        if suffix not in OUTPUT_SUFFIXES:
-            raise PlanError(f"--out {path}: unknown file type {suffix or '(none)'}; "
-                            "write compare.csv or compare.xlsx")
+        path = output_path(path, "compare")
         out = self.table.copy()
-        if suffix == ".csv":
+        if path.suffix.lower() == ".csv":
             out["date"] = [d.strftime("%Y-%m-%d") if isinstance(d, pd.Timestamp) else d for d in out["date"]]
             with atomic_path(path) as tmp:
                 write_csv(out, tmp, index=False, float_format="%.6f")

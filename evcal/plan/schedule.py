@@ -13,7 +13,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-import numpy as np
 import pandas as pd
 
 from evcal.errors import PlanError
@@ -30,8 +29,6 @@ class Schedule:
     ----------
     columns : list of str
         Event columns of the plan calendar (closures excluded: they act through the open share).
-    event_of : dict
-        Column -> event name.
     status : dict
         Column -> :class:`ColumnStatus` in the vocabulary of the fit
         (``fitted``, ``like``, ``assumed``; anything else plans no lift).
@@ -44,11 +41,16 @@ class Schedule:
     """
 
     columns: list[str]
-    event_of: dict[str, str]
-    status: dict[str, ColumnStatus]
-    like_map: dict[str, str]
-    assumed: dict[str, float]
+    status: dict[str, ColumnStatus] = field(default_factory=dict)
+    like_map: dict[str, str] = field(default_factory=dict)
+    assumed: dict[str, float] = field(default_factory=dict)
     notes: dict[str, str] = field(default_factory=dict)
+
+    def plan_as(self, col: str, event: str, status: ColumnStatus, note: str = "") -> None:
+        """Plan ``col`` of ``event`` with ``status``; ``note`` goes into the assumptions column."""
+        self.status[col] = status
+        if note:
+            self.notes[event] = f"{event}: {note}"
 
 
 def _pct(a: float) -> str:
@@ -67,18 +69,11 @@ def _target_column(col: str, source_cols: list[str]) -> str:
 
 def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
                      new_events: str = "error") -> Schedule:
-    """Decide each plan-calendar event column's lift.
+    """Decide the lift of each event column of the plan calendar (the columns of ``X_events``).
 
-    Parameters
-    ----------
-    result : FitResult
-        The fitted model (its ``status``, ``params``, ``like_map``, ``assumed``).
-    calendar : Calendar
-        The plan calendar.
-    X_events : DataFrame
-        The plan calendar's event columns over the horizon (to know which events touch it).
-    new_events : {"error", "zero"}
-        What to do with an event the model never saw and that has no assumed or borrowed lift.
+    ``X_events`` holds the columns over the horizon (to know which events touch
+    it); ``new_events`` says what to do with an event the model never saw and
+    that has no assumed or borrowed lift: ``"error"`` or ``"zero"``.
 
     Raises
     ------
@@ -88,59 +83,53 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
     if new_events not in NEW_EVENTS:
         raise PlanError(f"--new-events {new_events!r}: must be one of {', '.join(NEW_EVENTS)}")
     colmap = calendar.event_columns()
-    cols = [c for c, ev in colmap.items() if calendar.event(ev).effect.kind != "zero"]
+    cols = list(X_events.columns)
     cols_of: dict[str, list[str]] = {}
     for c in cols:
         cols_of.setdefault(colmap[c], []).append(c)
-    touches = {c: bool(np.any(np.abs(X_events[c].to_numpy()) > 0)) if c in X_events.columns else False
-               for c in cols}
-    event_touches = {ev: any(touches[c] for c in cs) for ev, cs in cols_of.items()}
-
-    status: dict[str, ColumnStatus] = {}
-    like_map: dict[str, str] = {}
-    assumed: dict[str, float] = {}
-    notes: dict[str, str] = {}
+    event_touches = X_events.abs().gt(0).any().groupby(colmap).any()
+    plan = Schedule(columns=cols)
     unseen: dict[str, str] = {}
 
     def known(c: str) -> bool:
         st = result.status.get(c)
         return st is not None and st.status == "fitted" and c in result.params.index
 
+    def no_lift(c: str, ev: str, why: str, zero_status: str, zero_note: str) -> None:
+        """An event with nothing to plan with: out of the horizon, planned at zero, or an error."""
+        if not event_touches[ev]:
+            plan.plan_as(c, ev, ColumnStatus("no_history", "not in the horizon"))
+        elif new_events == "zero":
+            plan.plan_as(c, ev, ColumnStatus("new_zero", zero_status), zero_note)
+        else:
+            unseen[ev] = why
+
     # first pass: everything but borrowed lifts
     for c in cols:
         ev = colmap[c]
         eff = calendar.event(ev).effect
+        st = result.status.get(c)
         if eff.kind == "assume":
-            assumed[c] = float(eff.assume or 0.0)
-            status[c] = ColumnStatus("assumed", f"lift assumed at {_pct(assumed[c])}")
-            notes[ev] = f"{ev}: assumed {_pct(assumed[c])}"
+            plan.assumed[c] = float(eff.assume or 0.0)
+            plan.plan_as(c, ev, ColumnStatus("assumed", f"lift assumed at {_pct(plan.assumed[c])}"),
+                         f"assumed {_pct(plan.assumed[c])}")
         elif eff.kind == "like":
             continue
-        elif known(c):
-            status[c] = result.status[c]
+        elif known(c) or (st is not None and st.status in ("unidentifiable", "duplicate")):
+            # an unidentifiable or duplicate effect lives in the season or in its twin's estimate
+            plan.plan_as(c, ev, st)
+        elif st is not None and st.status == "like" and known(result.like_map.get(c, "")):
+            plan.like_map[c] = result.like_map[c]
+            src_event = result.event_info.get(plan.like_map[c], {}).get("event", plan.like_map[c])
+            plan.plan_as(c, ev, st, f"borrows the lift of {src_event}")
+        elif st is not None and st.status == "assumed":
+            plan.assumed[c] = float(result.assumed[c])
+            plan.plan_as(c, ev, ColumnStatus("assumed", st.note),
+                         f"assumed {_pct(plan.assumed[c])} (as fitted)")
         else:
-            st = result.status.get(c)
-            if st is not None and st.status in ("unidentifiable", "duplicate"):
-                # the model saw it but its effect lives in the season or in its twin's estimate
-                status[c] = st
-            elif st is not None and st.status == "like" and known(result.like_map.get(c, "")):
-                like_map[c] = result.like_map[c]
-                status[c] = st
-                src_event = result.event_info.get(like_map[c], {}).get("event", like_map[c])
-                notes[ev] = f"{ev}: borrows the lift of {src_event}"
-            elif st is not None and st.status == "assumed":
-                assumed[c] = float(result.assumed[c])
-                status[c] = ColumnStatus("assumed", st.note)
-                notes[ev] = f"{ev}: assumed {_pct(assumed[c])} (as fitted)"
-            elif not event_touches[ev]:
-                status[c] = ColumnStatus("no_history", "not in the horizon")
-            elif new_events == "zero":
-                status[c] = ColumnStatus("new_zero", "new event planned with no lift (--new-events zero)")
-                notes[ev] = f"{ev}: new event, no lift (--new-events zero)"
-            else:
-                why = "is new in the plan calendar" if st is None else \
-                    "has no occurrence in the fitted history"
-                unseen[ev] = why
+            why = "is new in the plan calendar" if st is None else "has no occurrence in the fitted history"
+            no_lift(c, ev, why, "new event planned with no lift (--new-events zero)",
+                    "new event, no lift (--new-events zero)")
 
     # second pass: borrowed lifts follow whatever their source event got
     for c in cols:
@@ -150,26 +139,19 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
             continue
         src_event = eff.like or ""
         src = _target_column(c, cols_of.get(src_event, []))
-        src_status = status.get(src)
-        if src_status is not None and src_status.status == "fitted":
-            like_map[c] = src
-            status[c] = ColumnStatus("like", f"borrows the lift of {src_event}")
-            notes[ev] = f"{ev}: borrows the lift of {src_event}"
-        elif src_status is not None and src_status.status == "like" and src in like_map:
-            like_map[c] = like_map[src]
-            status[c] = ColumnStatus("like", f"borrows the lift of {src_event}")
-            notes[ev] = f"{ev}: borrows the lift of {src_event}"
-        elif src in assumed:
-            assumed[c] = assumed[src]
-            status[c] = ColumnStatus("assumed", f"borrows the assumed lift of {src_event}")
-            notes[ev] = f"{ev}: borrows the assumed lift of {src_event} ({_pct(assumed[c])})"
-        elif not event_touches[ev]:
-            status[c] = ColumnStatus("no_history", "not in the horizon")
-        elif new_events == "zero":
-            status[c] = ColumnStatus("new_zero", f"{src_event} has no fitted lift to borrow")
-            notes[ev] = f"{ev}: {src_event} has no fitted lift to borrow; no lift (--new-events zero)"
+        src_status = plan.status[src].status if src in plan.status else ""
+        if src_status == "fitted" or (src_status == "like" and src in plan.like_map):
+            plan.like_map[c] = plan.like_map.get(src, src)
+            plan.plan_as(c, ev, ColumnStatus("like", f"borrows the lift of {src_event}"),
+                         f"borrows the lift of {src_event}")
+        elif src in plan.assumed:
+            plan.assumed[c] = plan.assumed[src]
+            plan.plan_as(c, ev, ColumnStatus("assumed", f"borrows the assumed lift of {src_event}"),
+                         f"borrows the assumed lift of {src_event} ({_pct(plan.assumed[c])})")
         else:
-            unseen[ev] = f"borrows from {src_event}, which the model has no lift for"
+            no_lift(c, ev, f"borrows from {src_event}, which the model has no lift for",
+                    f"{src_event} has no fitted lift to borrow",
+                    f"{src_event} has no fitted lift to borrow; no lift (--new-events zero)")
 
     if unseen:
         raise PlanError([
@@ -178,5 +160,4 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
             "plan it with no lift"
             for ev, why in unseen.items()
         ])
-    return Schedule(columns=cols, event_of={c: colmap[c] for c in cols}, status=status,
-                    like_map=like_map, assumed=assumed, notes=notes)
+    return plan

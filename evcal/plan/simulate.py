@@ -1,4 +1,11 @@
-"""Prediction intervals for the plan by simulation.
+"""The plan's uncertainty: the regression error carried forward, and the interval by simulation.
+
+With ARIMA errors the fit keeps the tail of the regression error (actual
+minus the regressors, on the model scale). The plan puts that tail through
+statsmodels' state-space filter with the fitted ARMA parameters held fixed
+(``SARIMAX.smooth(params)``) and asks for the forecast ``h`` steps on: its mean
+is added to the base, its variance goes into the interval. With iid errors
+the mean is zero and the variance the residual variance of the fit.
 
 Each draw takes a coefficient vector from the normal distribution of the
 estimates, N(params, cov) (the fit's covariance: HAC for OLS, GLS for ARIMA
@@ -31,13 +38,14 @@ share by an overflow.
 
 from __future__ import annotations
 
+import warnings
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from evcal.errors import PlanError
-from evcal.plan.noise import ErrorForecast
 from evcal.plan.schedule import Schedule
 
 #: a coefficient of a count model whose standard error on the log scale is above this is not
@@ -84,6 +92,54 @@ def check_sims(n_sims: Any, n_periods: int | None = None) -> int:
                         f"(draws x periods x 8 bytes, at most {MAX_DRAW_CELLS * 8 // 10**6} MB per array); "
                         "use fewer draws or a shorter horizon")
     return n
+
+
+@dataclass
+class ErrorForecast:
+    """Mean and variance of the regression error at each horizon step (model scale)."""
+
+    mean: np.ndarray
+    var: np.ndarray
+    kind: str
+
+
+def error_forecast(error_model: dict[str, Any], sigma2: float, steps: np.ndarray) -> ErrorForecast:
+    """The error's forecast at ``steps`` periods after the history end.
+
+    Parameters
+    ----------
+    error_model : dict
+        ``FitResult.error_model``: ``{"kind": "arima", "order": [p, d, q], "ar": [...],
+        "ma": [...], "sigma2": s2, "tail": [...]}``, or ``{"kind": "iid"}`` (and count models).
+    sigma2 : float
+        Residual variance of the fit (used for iid errors).
+    steps : array of int
+        Steps after the history's last period (1 = the next period).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> em = {"kind": "arima", "order": [1, 0, 0], "ar": [0.5], "ma": [], "sigma2": 1.0,
+    ...       "tail": [0.0] * 59 + [2.0]}
+    >>> fc = error_forecast(em, 1.0, np.array([1, 2]))
+    >>> [round(float(v), 3) for v in fc.mean], [round(float(v), 3) for v in fc.var]
+    ([1.0, 0.5], [1.0, 1.25])
+    """
+    steps = np.asarray(steps, dtype=int)
+    if error_model.get("kind") != "arima":
+        return ErrorForecast(np.zeros(len(steps)), np.full(len(steps), float(sigma2)), "iid")
+    from statsmodels.tsa.statespace.sarimax import SARIMAX
+
+    p, d, q = (int(v) for v in error_model["order"])
+    tail = np.array(error_model["tail"], dtype=float)  # None (a gap) becomes NaN
+    params = np.r_[error_model.get("ar", []), error_model.get("ma", []), error_model["sigma2"]]
+    # the horizon starts after the history (horizon_periods), so every step is 1 or more
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fc = SARIMAX(tail, order=(p, d, q), trend="n").smooth(params).get_forecast(int(steps.max()))
+    mean = np.asarray(fc.predicted_mean, dtype=float)
+    var = np.asarray(fc.var_pred_mean, dtype=float)
+    return ErrorForecast(mean[steps - 1], var[steps - 1], "arima")
 
 
 def separated(cov: pd.DataFrame) -> list[str]:
@@ -141,37 +197,14 @@ def _coef_draws(name: str, draws: pd.DataFrame, params: pd.Series, n: int) -> np
     return np.full(n, float(params.get(name, 0.0)))
 
 
-def simulate_interval(
-    result: Any,
-    X: pd.DataFrame,
-    open_share: np.ndarray,
-    base_cols: list[str],
-    schedule: Schedule,
-    err: ErrorForecast,
-    n_sims: int = 1000,
-    seed: int = 0,
-    level: float = 0.95,
-) -> tuple[np.ndarray, np.ndarray]:
+def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base_cols: list[str],
+                      schedule: Schedule, err: ErrorForecast, n_sims: int = 1000, seed: int = 0,
+                      level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
     """Low and high ends of the plan's prediction interval in each period.
 
-    Parameters
-    ----------
-    result : FitResult
-        Coefficients, covariance, transform, error model.
-    X : DataFrame
-        Horizon design (unmerged event columns), without the error column.
-    open_share : array
-        Share of each period open.
-    base_cols : list of str
-        Columns that make the base (trend, seasonal, persistent interventions).
-    schedule : Schedule
-        How each event column is planned.
-    err : ErrorForecast
-        Mean and variance of the regression error at each period.
-    n_sims, seed
-        Number of draws and the random seed (the same seed gives the same interval).
-    level : float
-        Interval coverage (0.95: the 2.5 % and 97.5 % quantiles).
+    ``X`` is the horizon's design (unmerged event columns, no error column),
+    ``base_cols`` its columns that make the base, ``err`` the error's forecast;
+    the same ``seed`` gives the same interval.
     """
     rng = np.random.default_rng(seed)
     n = int(n_sims)
@@ -187,34 +220,25 @@ def simulate_interval(
     terms = np.zeros_like(eta_base)
     assumed_units = np.zeros_like(eta_base)
     for c in schedule.columns:
-        if c not in X.columns:
-            continue
         x = X[c].to_numpy(dtype=float)
-        if not np.any(x):
+        kind = schedule.status[c].status
+        if not np.any(x) or kind not in ("fitted", "like", "assumed"):
             continue
-        st = schedule.status.get(c)
-        kind = st.status if st is not None else ""
-        if kind == "fitted":
-            b = _coef_draws(c, draws, params, n)
-        elif kind == "like":
-            b = _coef_draws(schedule.like_map[c], draws, params, n)
-        elif kind == "assumed":
-            a = schedule.assumed[c]
-            if transform == "none":
-                # an assumed lift is a share of the base, in units
-                assumed_units += a * eta_base * x[None, :]
-                continue
-            b = np.full(n, float(np.log1p(a)))
+        if kind == "assumed" and transform == "none":
+            # an assumed lift is a share of the base, in units
+            assumed_units += schedule.assumed[c] * eta_base * x[None, :]
+            continue
+        if kind == "assumed":
+            b = np.full(n, float(np.log1p(schedule.assumed[c])))
         else:
-            continue
+            b = _coef_draws(schedule.like_map[c] if kind == "like" else c, draws, params, n)
         terms += b[:, None] * x[None, :]
     share = np.asarray(open_share, dtype=float)
-    open_ = (share > 0).astype(float)
     z = rng.standard_normal(eta_base.shape)
     sd = np.sqrt(np.clip(err.var, 0.0, None))
     if transform == "none":
         level_units = eta_base + terms + assumed_units + err.mean[None, :]
-        y = share[None, :] * level_units + open_[None, :] * sd[None, :] * z
+        y = share[None, :] * level_units + (share > 0).astype(float)[None, :] * sd[None, :] * z
     elif transform == "count":
         # the mean on the log scale: closed periods are exactly zero (no 0 x overflow)
         with np.errstate(divide="ignore", over="ignore"):
@@ -225,10 +249,8 @@ def simulate_interval(
             raise PlanError("the count model's coefficients give a mean beyond any count in some "
                             "simulation draws, so no interval can be simulated; plan with --sims 0 "
                             "(no low/high), or refit on a longer history")
-        kind = result.error_model.get("kind")
-        if kind == "negative_binomial":
-            alpha = max(float(result.error_model.get("alpha", 0.0)), 1e-12)
-            r = 1.0 / alpha
+        if result.error_model.get("kind") == "negative_binomial":
+            r = 1.0 / max(float(result.error_model.get("alpha", 0.0)), 1e-12)
             y = rng.negative_binomial(r, r / (r + mu)).astype(float)
         else:
             y = rng.poisson(mu).astype(float)

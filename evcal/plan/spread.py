@@ -103,30 +103,43 @@ def read_totals(source: str | Path | dict[Any, Any]) -> dict[int, float]:
     return out
 
 
-def spread_factors(plan: np.ndarray, years: np.ndarray, totals: dict[int, float],
-                   source: str = "totals") -> dict[int, float]:
-    """One factor per horizon year so that the year's planned periods add up to its target."""
+def spread(table: pd.DataFrame, years: np.ndarray, total: float | None, totals: dict[int, float] | None
+           ) -> tuple[pd.DataFrame, dict[int, float], dict[int, float] | None]:
+    """Scale every amount column (``base, plan, low, high, lift:*``) so the plan meets its target.
+
+    ``total``: one factor for the whole horizon; ``totals``: one factor per year
+    (a year's periods add up to its target). Returns the scaled table, the
+    factor of each year and each year's target (empty and None without a target).
+    """
+    plan = table["plan"].to_numpy()
     needed = sorted({int(y) for y in years})
-    missing = [y for y in needed if y not in totals]
-    if missing:
-        have = ", ".join(str(y) for y in sorted(totals)) or "none"
-        raise PlanError(f"{source}: no total for {', '.join(map(str, missing))}; the horizon covers "
-                        f"{', '.join(map(str, needed))} (totals given for {have}); add a row per year")
-    factors: dict[int, float] = {}
-    for y in needed:
-        s = float(plan[years == y].sum())
-        if not np.isfinite(s) or s <= 0:
-            raise PlanError(f"{source}: the plan for {y} adds up to {s:g}, so it cannot be spread to a "
-                            "total; check that the horizon is not wholly closed")
-        factors[y] = totals[y] / s
-    return factors
-
-
-def apply_spread(table: pd.DataFrame, years: np.ndarray, factors: dict[int, float]) -> pd.DataFrame:
-    """Scale every amount column (``base, plan, low, high, lift:*``) by its year's factor."""
+    if total is not None:
+        whole = float(plan.sum())
+        if not np.isfinite(whole) or whole <= 0:
+            raise PlanError(f"--total: the plan adds up to {whole:g}, so it cannot be spread to a total; "
+                            "check that the horizon is not wholly closed")
+        factors = dict.fromkeys(needed, total / whole)
+    elif totals is not None:
+        missing = [y for y in needed if y not in totals]
+        if missing:
+            have = ", ".join(str(y) for y in sorted(totals)) or "none"
+            raise PlanError(f"--totals: no total for {', '.join(map(str, missing))}; the horizon covers "
+                            f"{', '.join(map(str, needed))} (totals given for {have}); add a row per year")
+        factors = {}
+        for y in needed:
+            s = float(plan[years == y].sum())
+            if not np.isfinite(s) or s <= 0:
+                raise PlanError(f"--totals: the plan for {y} adds up to {s:g}, so it cannot be spread to "
+                                "a total; check that the horizon is not wholly closed")
+            factors[y] = totals[y] / s
+    else:
+        return table, {}, None
     out = table.copy()
     f = np.array([factors[int(y)] for y in years], dtype=float)
-    cols = [c for c in out.columns if c in AMOUNT_COLUMNS or str(c).startswith("lift:")]
-    for c in cols:
-        out[c] = out[c].to_numpy(dtype=float) * f
-    return out
+    for c in out.columns:
+        if c in AMOUNT_COLUMNS or str(c).startswith("lift:"):
+            out[c] = out[c].to_numpy(dtype=float) * f
+    scaled = out["plan"].to_numpy()
+    target = {y: float(scaled[years == y].sum()) for y in needed} if totals is None \
+        else {y: float(totals[y]) for y in needed}
+    return out, factors, target

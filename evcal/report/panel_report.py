@@ -31,24 +31,16 @@ import pandas as pd
 from evcal.model.inputs import calendar_terms
 from evcal.panel import PanelResult, load_panel
 from evcal.panel.summary import lift_distribution
-from evcal.report.common import page_frame
 from evcal.report.context import ReportContext
 from evcal.report.formatting import freq_words, num, pct
 from evcal.report.model_folder import ModelFolder
-from evcal.report.model_sections import history_section, lifts_section, past_section, season_section, table
-from evcal.report.templating import render
+from evcal.report.model_sections import MODEL_SECTIONS, build_sections, table
+from evcal.report.templating import render_page
 
 #: how many fitted series the report shows when none are named (each adds four charts)
 SHOWN_BY_DEFAULT = 12
 #: rows of skipped.csv listed in the overview (the file has them all)
 SKIPPED_LISTED = 50
-
-SERIES_PARTS = (
-    ("history", "History, fitted and base", "history.html", history_section),
-    ("season", "Seasonal index", "season.html", season_section),
-    ("lifts", "Event lifts", "lifts.html", lifts_section),
-    ("past", "What each event added", "past.html", past_section),
-)
 
 
 def render_panel_report(model_dir: str | Path, series: Sequence[str] | None = None,
@@ -69,11 +61,18 @@ def render_panel_report(model_dir: str | Path, series: Sequence[str] | None = No
     name = settings.get("calendar_name") or folder.name
     heading = title or f"Calendar effects by series: {name}"
     fitted = int((panel.series["status"] == "fitted").sum())
-    shown = [series_part(panel, key, folder, i) for i, key in enumerate(keys, 2)]
+    model = series_model(panel)
+    shown = [series_part(panel, key, folder, i, model) for i, key in enumerate(keys, 2)]
     overview = panel_overview(panel, shown=len(keys), fitted=fitted, named=series is not None)
-    return render("panel.html", heading=heading, subtitle=panel_subtitle(panel, folder),
-                  overview=overview, series=shown,
-                  **page_frame(settings, [f"panel model folder {folder}"]))
+    return render_page(
+        "panel.html",
+        settings,
+        [f"panel model folder {folder}"],
+        heading=heading,
+        subtitle=panel_subtitle(panel, folder),
+        overview=overview,
+        series=shown,
+    )
 
 
 def key_text(panel: PanelResult, key: dict[str, Any]) -> str:
@@ -121,7 +120,9 @@ def panel_overview(panel: PanelResult, shown: int, fitted: int, named: bool) -> 
     return {"lines": lines, "lifts": _lift_table(panel), "skipped": _skipped_table(panel)}
 
 
-def series_part(panel: PanelResult, key: dict[str, Any], folder: Path, number: int) -> dict[str, Any]:
+def series_part(
+    panel: PanelResult, key: dict[str, Any], folder: Path, number: int, model: dict[str, Any]
+) -> dict[str, Any]:
     """One series' section: its line of facts and the single-model sections, from the panel's tables."""
     row = panel.series.loc[_mask(panel.series, panel, key)].iloc[0]
     name = key_text(panel, key)
@@ -136,50 +137,49 @@ def series_part(panel: PanelResult, key: dict[str, Any], folder: Path, number: i
                        f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
                        f"in-sample WAPE {num(row['wape_pct'], 1)} %."
                        + (f" Note: {note}" if (note := row["note"]) and isinstance(note, str) else ""))
-    ctx = ReportContext(series_folder(panel, key, folder))
-    part["parts"] = [{"key": k, "title": t, "template": tpl, "data": build(ctx)}
-                     for k, t, tpl, build in SERIES_PARTS]
+    part["parts"] = build_sections(ReportContext(series_folder(panel, key, folder, model)), MODEL_SECTIONS)
     return part
 
 
-def series_folder(panel: PanelResult, key: dict[str, Any], folder: Path) -> ModelFolder:
-    """One series' tables from the panel folder (filtered by its key), shaped as a single model folder."""
+def series_model(panel: PanelResult) -> dict[str, Any]:
+    """What the single-model sections read of ``model.json``, for every series of a panel."""
     from evcal.calendar import load_calendar
 
     s = panel.settings
     cal = load_calendar(s["calendar_text"])  # the saved calendar: the reader checked that it loads
-    labels = _event_labels(panel)
-    drop = panel.key_cols
-    lifts = panel.lifts.loc[_mask(panel.lifts, panel, key)].drop(columns=drop)
-    lifts["identifiable"] = lifts["identifiable"].astype(str).str.lower().isin(["true", "1"])
-    lifts["note"] = lifts["note"].fillna("")
-    lifts["label"] = [labels.get(e, e) for e in lifts["event"]]
-    occ = panel.occurrences.loc[_mask(panel.occurrences, panel, key)].drop(columns=drop)
-    for col in ("start", "end"):
-        occ[col] = pd.to_datetime(occ[col], format="ISO8601")
-    profile = panel.profile.loc[_mask(panel.profile, panel, key)].drop(columns=drop)
-    model = {
+    terms = calendar_terms(cal)
+    return {
         "freq": s["freq"],
-        "calendar_name": s.get("calendar_name") or "",
-        "evcal_version": s.get("evcal_version"),
+        "calendar_name": s["calendar_name"],
+        "evcal_version": s["evcal_version"],
         "events": [{"name": e.name, "label": e.label, "effect": e.effect.describe()} for e in cal.events],
-        **{k: v for k, v in calendar_terms(cal).items()
-           if k in ("closure_events", "intervention_names", "exclusions")},
+        **{k: terms[k] for k in ("closure_events", "intervention_names", "exclusions")},
     }
+
+
+def series_folder(
+    panel: PanelResult, key: dict[str, Any], folder: Path, model: dict[str, Any]
+) -> ModelFolder:
+    """One series' tables from the panel folder (filtered by its key), shaped as a single model folder.
+
+    The store's reader typed the panel's tables as it types a single model's.
+    """
+    labels = _event_labels(panel)
+    lifts = _rows(panel.lifts, panel, key)
+    lifts["label"] = [labels.get(e, e) for e in lifts["event"]]
     return ModelFolder(
         path=folder,
         model=model,
-        lifts=lifts.reset_index(drop=True),
-        occurrences=occ.sort_values(["start", "event"]).reset_index(drop=True),
-        profile=profile.sort_values("period").reset_index(drop=True),
+        lifts=lifts,
+        occurrences=_rows(panel.occurrences, panel, key),
+        profile=_rows(panel.profile, panel, key),
         fitted=_fitted_rows(panel, key),
     )
 
 
 def _event_labels(panel: PanelResult) -> dict[str, str]:
     """Event name -> label, from ``panel.json`` (the long lifts table does not repeat them)."""
-    events = panel.settings.get("events") or {}
-    return {name: str(info.get("label") or name) for name, info in events.items()}
+    return {name: info["label"] or name for name, info in panel.settings["events"].items()}
 
 
 def _first_fitted(panel: PanelResult) -> list[dict[str, Any]]:
@@ -195,15 +195,17 @@ def _mask(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> np.nd
     return mask
 
 
+def _rows(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> pd.DataFrame:
+    """One series' rows of a long table, without the key columns."""
+    return frame.loc[_mask(frame, panel, key)].drop(columns=panel.key_cols)
+
+
 def _fitted_rows(panel: PanelResult, key: dict[str, Any]) -> pd.DataFrame:
-    """One series' rows of the fitted table; read from ``fitted.parquet`` for that key only."""
-    if panel.fitted_path is not None and panel.fitted_path.is_file():
-        rows = pd.read_parquet(panel.fitted_path, filters=[(c, "==", key[c]) for c in panel.key_cols])
-    else:
-        rows = panel.fitted.loc[_mask(panel.fitted, panel, key)]
+    """One series' rows of ``fitted.parquet``, read for that key only (load_panel found the file)."""
+    rows = pd.read_parquet(panel.fitted_path, filters=[(c, "==", key[c]) for c in panel.key_cols])
     rows = rows.drop(columns=panel.key_cols)
     rows["date"] = pd.to_datetime(rows["date"])
-    return rows.sort_values("date").reset_index(drop=True)
+    return rows
 
 
 def _lift_table(panel: PanelResult) -> dict[str, Any] | None:

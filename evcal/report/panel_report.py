@@ -1,16 +1,10 @@
 """The report of a panel model folder: an overview, then one section per series shown.
 
-The overview says how many series were fitted and skipped (and why), the fit
-quality across series and each event's lift across series with its pooled
-lift (the ``pooled_pct`` column of ``lifts.csv``, summarised by
-:func:`evcal.panel.summary.lift_distribution`, as ``evcal show`` does). Each
-series shown then gets the single-model sections (history, seasonal index,
-lifts, past occurrences) built from the panel folder's own long tables
-filtered by the series' key: nothing is fitted again.
-
-Which series: those named (each as :meth:`evcal.panel.PanelResult.find` reads
-a key), else the first :data:`SHOWN_BY_DEFAULT` fitted ones; the report says
-how many are left out and how to pick them.
+The overview says how many series were fitted and skipped (and why), the fit quality across series
+and each event's lift across series with its pooled lift (:func:`evcal.panel.summary.lift_distribution`,
+as ``evcal show`` does). Each series shown (those named, as :meth:`evcal.panel.PanelResult.find` reads
+a key, else the first :data:`SHOWN_BY_DEFAULT` fitted ones) gets the single-model sections, built from
+the panel folder's long tables filtered by the series' key: nothing is fitted again.
 
 Examples
 --------
@@ -43,8 +37,9 @@ SHOWN_BY_DEFAULT = 12
 SKIPPED_LISTED = 50
 
 
-def render_panel_report(model_dir: str | Path, series: Sequence[str] | None = None,
-                        title: str | None = None) -> str:
+def render_panel_report(
+    model_dir: str | Path, series: Sequence[str] | None = None, title: str | None = None
+) -> str:
     """The panel report as one HTML string (see :func:`evcal.report.write_report`).
 
     Raises
@@ -58,8 +53,7 @@ def render_panel_report(model_dir: str | Path, series: Sequence[str] | None = No
     keys = [panel.find(s) for s in series] if series is not None else _first_fitted(panel)
     keys = list({key_text(panel, k): k for k in keys}.values())  # a series named twice is shown once
     settings = panel.settings
-    name = settings.get("calendar_name") or folder.name
-    heading = title or f"Calendar effects by series: {name}"
+    heading = title or f"Calendar effects by series: {settings['calendar_name'] or folder.name}"
     fitted = int((panel.series["status"] == "fitted").sum())
     model = series_model(panel)
     shown = [series_part(panel, key, folder, i, model) for i, key in enumerate(keys, 2)]
@@ -82,11 +76,9 @@ def key_text(panel: PanelResult, key: dict[str, Any]) -> str:
 
 def panel_subtitle(panel: PanelResult, folder: Path) -> str:
     s = panel.settings
-    parts = []
-    if s.get("calendar_name"):
-        parts.append(f"Calendar: {s['calendar_name']}")
-    parts.append(f"{freq_words(s['freq'])} history {pd.Timestamp(s['periods']['start']):%d %b %Y} to "
-                 f"{pd.Timestamp(s['periods']['end']):%d %b %Y}")
+    start, end = pd.Timestamp(s["periods"]["start"]), pd.Timestamp(s["periods"]["end"])
+    parts = [f"Calendar: {s['calendar_name']}"] if s["calendar_name"] else []
+    parts.append(f"{freq_words(s['freq'])} history {start:%d %b %Y} to {end:%d %b %Y}")
     parts.append(f"{len(panel.series)} series (keys: {', '.join(panel.key_cols)})")
     parts.append(f"model folder: {folder.name}")
     return " · ".join(parts)
@@ -95,26 +87,29 @@ def panel_subtitle(panel: PanelResult, folder: Path) -> str:
 def panel_overview(panel: PanelResult, shown: int, fitted: int, named: bool) -> dict[str, Any]:
     """Series fitted and skipped, fit quality, each event's lift across series, which series follow."""
     s = panel.settings
-    counts = s.get("counts", {})
-    level = f", added up to {', '.join(s['level'])}" if s.get("level") else ""
+    level = f", added up to {', '.join(s['level'])}" if s["level"] else ""
     lines = [
         f"{len(panel.series)} series (keys: {', '.join(panel.key_cols)}{level}) from {s['source']}: "
-        f"{fitted} fitted ({counts.get('batched', 0)} by the batched least-squares solver, "
-        f"{counts.get('per_series', 0)} one by one), {len(panel.skipped)} skipped.",
+        f"{fitted} fitted ({s['counts']['batched']} by the batched least-squares solver, "
+        f"{s['counts']['per_series']} one by one), {len(panel.skipped)} skipped."
     ]
     wape = panel.series.loc[panel.series["status"] == "fitted", "wape_pct"].to_numpy(dtype=float)
     wape = wape[np.isfinite(wape)]
     if len(wape):
-        lines.append(f"In-sample fit: WAPE median {np.median(wape):.1f} % (10–90 % of series: "
-                     f"{np.quantile(wape, 0.1):.1f} to {np.quantile(wape, 0.9):.1f} %).")
+        low, mid, high = np.quantile(wape, [0.1, 0.5, 0.9])
+        lines.append(
+            f"In-sample fit: WAPE median {mid:.1f} % (10–90 % of series: {low:.1f} to {high:.1f} %)."
+        )
+    left = fitted - shown
     if named:
         lines.append(f"Shown below: the {shown} series named with --series.")
-    elif shown < fitted:
-        left = fitted - shown
-        lines.append(f"Shown below: the first {shown} of {fitted} fitted series; {left} "
-                     f"{'is' if left == 1 else 'are'} not shown. Pick the series to show with --series, "
-                     "once per series (e.g. --series "
-                     f"\"{key_text(panel, _first_fitted(panel)[0])}\").")
+    elif left > 0:
+        lines.append(
+            f"Shown below: the first {shown} of {fitted} fitted series; {left} "
+            f"{'is' if left == 1 else 'are'} not shown. Pick the series to show with --series, once per "
+            "series (e.g. --series "
+            f'"{key_text(panel, _first_fitted(panel)[0])}").'
+        )
     else:
         lines.append(f"Shown below: all {shown} fitted series.")
     return {"lines": lines, "lifts": _lift_table(panel), "skipped": _skipped_table(panel)}
@@ -125,18 +120,16 @@ def series_part(
 ) -> dict[str, Any]:
     """One series' section: its line of facts and the single-model sections, from the panel's tables."""
     row = panel.series.loc[_mask(panel.series, panel, key)].iloc[0]
-    name = key_text(panel, key)
-    part: dict[str, Any] = {"key": f"series-{number - 1}", "number": number, "title": f"Series {name}",
-                            "parts": []}
+    part = {"key": f"series-{number - 1}", "number": number, "title": f"Series {key_text(panel, key)}"}
     if row["status"] != "fitted":
         skipped = panel.skipped.loc[_mask(panel.skipped, panel, key)]
         why = f"{skipped['reason'].iloc[0]} ({skipped['detail'].iloc[0]})" if len(skipped) else ""
-        part["summary"] = f"Not fitted: {why or row.get('reason', '')}. See skipped.csv."
-        return part
-    part["summary"] = (f"{int(row['periods_fitted'])} periods fitted, {row['start']} to {row['end']}; "
-                       f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
-                       f"in-sample WAPE {num(row['wape_pct'], 1)} %."
-                       + (f" Note: {note}" if (note := row["note"]) and isinstance(note, str) else ""))
+        return part | {"summary": f"Not fitted: {why or row['reason']}. See skipped.csv.", "parts": []}
+    part["summary"] = (
+        f"{int(row['periods_fitted'])} periods fitted, {row['start']} to {row['end']}; "
+        f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
+        f"in-sample WAPE {num(row['wape_pct'], 1)} %." + (f" Note: {row['note']}" if row["note"] else "")
+    )
     part["parts"] = build_sections(ReportContext(series_folder(panel, key, folder, model)), MODEL_SECTIONS)
     return part
 
@@ -184,7 +177,7 @@ def _event_labels(panel: PanelResult) -> dict[str, str]:
 
 def _first_fitted(panel: PanelResult) -> list[dict[str, Any]]:
     fitted = panel.series[panel.series["status"] == "fitted"].head(SHOWN_BY_DEFAULT)
-    return [{c: fitted[c].iloc[i] for c in panel.key_cols} for i in range(len(fitted))]
+    return fitted[panel.key_cols].to_dict("records")
 
 
 def _mask(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> np.ndarray:
@@ -214,13 +207,26 @@ def _lift_table(panel: PanelResult) -> dict[str, Any] | None:
         return None
     labels = _event_labels(panel)
     rows = [
-        [labels.get(r.event, r.event), str(r.series), pct(r.median_pct),
-         f"{pct(r.p10_pct)} to {pct(r.p90_pct)}", pct(r.above_zero_pct, 0, sign=False),
-         pct(r.below_zero_pct, 0, sign=False), pct(r.pooled_median_pct)]
+        [
+            labels.get(r.event, r.event),
+            r.series,
+            pct(r.median_pct),
+            f"{pct(r.p10_pct)} to {pct(r.p90_pct)}",
+            pct(r.above_zero_pct, 0, sign=False),
+            pct(r.below_zero_pct, 0, sign=False),
+            pct(r.pooled_median_pct),
+        ]
         for r in dist.itertuples(index=False)
     ]
-    headers = ["event", "series", "median lift", "10–90 % of series", "above zero", "below zero",
-               "pooled lift"]
+    headers = [
+        "event",
+        "series",
+        "median lift",
+        "10–90 % of series",
+        "above zero",
+        "below zero",
+        "pooled lift",
+    ]
     return table(headers, rows, numeric=range(1, 7))
 
 
@@ -228,8 +234,9 @@ def _skipped_table(panel: PanelResult) -> dict[str, Any] | None:
     skipped = panel.skipped
     if skipped.empty:
         return None
-    rows = [[key_text(panel, {c: r[c] for c in panel.key_cols}), r["reason"], r["detail"]]
-            for _, r in skipped.head(SKIPPED_LISTED).iterrows()]
-    out = table(["series", "reason", "detail"], rows)
-    out["more"] = max(len(skipped) - SKIPPED_LISTED, 0)
-    return out
+    listed = skipped.head(SKIPPED_LISTED)
+    keys = listed[panel.key_cols].to_dict("records")
+    rows = [
+        [key_text(panel, k), r, d] for k, r, d in zip(keys, listed["reason"], listed["detail"], strict=True)
+    ]
+    return table(["series", "reason", "detail"], rows) | {"more": max(len(skipped) - SKIPPED_LISTED, 0)}

@@ -94,12 +94,9 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
     fig = charts.lifts_chart(lifts, ctx.colours, closures=ctx.closures, assumed=ctx.assumed)
     rows, row_cls = [], []
     for _, r in lifts.iterrows():
-        kind = r["kind"]
-        if r["event"] in ctx.closures:
-            kind = "closure"
-        elif r["event"] in ctx.assumed:
-            kind = "assumed"
-        if r["event"] in ctx.closures:
+        closed = r["event"] in ctx.closures
+        kind = "closure" if closed else "assumed" if r["event"] in ctx.assumed else r["kind"]
+        if closed:
             lift, interval, units = "closed (zero)", "–", num(r["units_per_occurrence"])
         elif r["identifiable"] and pd.notna(r["lift_pct"]):
             lift, interval = pct(r["lift_pct"]), f"{pct(r['low_pct'])} to {pct(r['high_pct'])}"
@@ -110,16 +107,15 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
         rows.append([r["label"], r["event"], kind, lift, interval, units, identifiable, r["note"]])
         row_cls.append("" if r["identifiable"] else "unident")
     not_ident = lifts[~lifts["identifiable"]]
-    closed = lifts[lifts["event"].isin(ctx.closures)]
     headers = ["event", "name in files", "kind", "lift", "95 % interval", "units / occurrence",
                "identifiable", "note"]
     return {
         "figure": charts.figure(fig, "Event lifts with 95 % interval bars"),
         "not_estimated": [
-            {"label": str(r["label"]), "note": str(r["note"] or "not identifiable")}
-            for _, r in not_ident.iterrows()
+            {"label": label, "note": note or "not identifiable"}
+            for label, note in zip(not_ident["label"], not_ident["note"], strict=True)
         ],
-        "closures": ", ".join(str(x) for x in closed["label"]),
+        "closures": ", ".join(lifts.loc[lifts["event"].isin(ctx.closures), "label"]),
         "table": table(headers, rows, numeric=(3, 4, 5), row_classes=row_cls),
     }
 

@@ -28,11 +28,12 @@ from evcal.cli import app
 from evcal.errors import ModelError
 from evcal.formula_safe import formula_safe_frame, unguard_frame
 from evcal.report import write_report
-from evcal.report.calendar_view import calendar_view, event_of_column, weights_from_plan
+from evcal.report.calendar_view import calendar_data, event_of_column, weights_from_plan
 from evcal.report.headlines import average_share_plan, headlines
 from evcal.report.model_folder import read_model_folder
 from evcal.report.model_sections import added_by_year
 from evcal.report.review_sections import ratio_as_percent
+from evcal.report.templating import render
 
 XSS = "<script>alert(1)</script>"
 
@@ -367,14 +368,14 @@ def test_dollar_in_label_does_not_break_the_charts(tmp_path: Path) -> None:
 
 def test_calendar_view_marks_the_right_days() -> None:
     w = invented_day_weights()
-    page = calendar_view(
+    page = render("calendar_view.html", view=calendar_data(
         w,
         pd.Timestamp("2026-01-01"),
         pd.Timestamp("2026-12-31"),
         {"seed-promo": "Seed promo"},
         {"seed-promo": "#123456", "spring-weekend": "#654321", "christmas-closed": "#abcdef"},
         closures={"christmas-closed"},
-    )
+    ))
     assert page.count('class="cal-month"') == 12
     # 7 promo days with a stripe of its colour, 14 run-up days for the spring weekend
     assert page.count("background:#123456") == 7

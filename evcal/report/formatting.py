@@ -1,4 +1,8 @@
-"""How the report writes numbers: thousands separators, a true minus sign, "–" for no value.
+"""How the report writes numbers and periods: thousands separators, a true minus sign, "–" for no value.
+
+A series' rows are dated by one day (a week's end, a month's first or last day); the
+:class:`pandas.Period` of the series' frequency gives the days it covers whichever convention the
+file used.
 
 Examples
 --------
@@ -8,13 +12,20 @@ Examples
 '+12.3 %'
 >>> pct(float("nan"))
 '–'
+>>> period_days(pd.Timestamp("2027-04-04"), "W-SUN")
+(Timestamp('2027-03-29 00:00:00'), Timestamp('2027-04-04 00:00:00'))
+>>> period_label(pd.Timestamp("2027-04-30"), "M")
+'Apr 2027'
 """
 
 from __future__ import annotations
 
 import math
 
-from evcal.report.periods import kind_of
+import pandas as pd
+from pandas.tseries.frequencies import get_period_alias
+
+from evcal.design.seasonal import base_freq
 
 NO_VALUE = "–"
 
@@ -27,15 +38,10 @@ def _finite(x: object) -> float | None:
     return v if math.isfinite(v) else None
 
 
-def num(x: object, digits: int = 0) -> str:
-    """A number with thousands separators and ``digits`` decimals."""
+def num(x: object, digits: int = 0, sign: bool = False) -> str:
+    """A number with thousands separators and ``digits`` decimals (``sign=True``: ``+1,234``)."""
     v = _finite(x)
-    return NO_VALUE if v is None else f"{v:,.{digits}f}".replace("-", "−")
-
-
-def signed(x: float) -> str:
-    """A whole number with its sign: ``+1,234``, ``−56``."""
-    return f"{x:+,.0f}".replace("-", "−") if math.isfinite(x) else NO_VALUE
+    return NO_VALUE if v is None else f"{v:{'+' if sign else ''},.{digits}f}".replace("-", "−")
 
 
 def sig(x: object, digits: int = 4) -> str:
@@ -56,8 +62,41 @@ def pct(x: object, digits: int = 1, sign: bool = True) -> str:
     return text.replace("-", "−") + " %"
 
 
+def period_freq(freq: str) -> str:
+    """The :class:`pandas.Period` frequency of a series frequency ("MS" and "ME" are "M")."""
+    return get_period_alias(freq) or freq
+
+
+def freq_base(freq: str) -> str:
+    """ "D", "W", "M" or "Q": the kind of period of a series frequency."""
+    return base_freq(period_freq(freq))
+
+
 def freq_words(freq: str) -> str:
     """ "weekly", "monthly", ... for a series frequency."""
-    return {"week": "weekly", "month": "monthly", "quarter": "quarterly", "day": "daily"}.get(
-        kind_of(freq), f"{freq or 'unknown frequency'}"
-    )
+    return {"D": "daily", "W": "weekly", "M": "monthly", "Q": "quarterly"}[freq_base(freq)]
+
+
+def cycle_name(freq: str) -> str:
+    """What one step of the seasonal index is called."""
+    return {"D": "day of year", "W": "week of year", "M": "month", "Q": "quarter"}[freq_base(freq)]
+
+
+def period_days(date: pd.Timestamp, freq: str) -> tuple[pd.Timestamp, pd.Timestamp]:
+    """First and last day of the period that ``date`` stands for."""
+    period = pd.Period(date, freq=period_freq(freq))
+    return period.start_time.normalize(), period.end_time.normalize()
+
+
+def period_label(date: pd.Timestamp, freq: str) -> str:
+    """A short human label: "week to 4 Apr 2027", "Apr 2027", "Q2 2027", "4 Apr 2027"."""
+    date = pd.Timestamp(date)
+    base = freq_base(freq)
+    if base == "M":
+        return f"{date:%b %Y}"
+    if base == "Q":
+        return f"Q{date.quarter} {date.year}"
+    if base == "W":
+        end = period_days(date, freq)[1]
+        return f"week to {end.day} {end:%b %Y}"
+    return f"{date.day} {date:%b %Y}"

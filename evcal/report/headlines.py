@@ -9,7 +9,6 @@
 
 Examples
 --------
->>> from evcal.report import read_model_folder                     # doctest: +SKIP
 >>> for line in headlines(read_model_folder("model", plan_csv="plan.csv")):  # doctest: +SKIP
 ...     print(line)
 """
@@ -23,8 +22,8 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.seasonal import season_position
+from evcal.report.formatting import num, pct, period_freq, period_label
 from evcal.report.model_folder import ModelFolder
-from evcal.report.periods import period_freq, period_label
 
 
 def average_share_plan(
@@ -45,10 +44,9 @@ def average_share_plan(
     """
     n = len(plan)
     shares = {int(k): float(v) for k, v in (average_share or {}).items()}
-    pf = period_freq(freq)
-    if not shares or pf is None or n == 0:
+    if not shares or n == 0:
         return np.full(n, np.nan)
-    periods = pd.PeriodIndex([pd.Period(d, freq=pf) for d in plan["date"]], freq=pf)
+    periods = pd.PeriodIndex(plan["date"].dt.to_period(period_freq(freq)))
     share = np.array([shares.get(int(p), np.nan) for p in season_position(periods)], dtype=float)
     values = plan["plan"].to_numpy(dtype=float)
     years = plan["date"].dt.year.to_numpy()
@@ -61,10 +59,15 @@ def average_share_plan(
     return out
 
 
-def biggest_event(folder: ModelFolder, skip: set[str] | None = None) -> pd.Series | None:
-    """The estimated event (not a closure, not assumed) that adds the most units per occurrence."""
+def departure(plan: pd.DataFrame, avg: np.ndarray) -> tuple[np.ndarray, float, int]:
+    """The plan minus its average-share spread, the units in other periods, where the two differ most."""
+    diff = plan["plan"].to_numpy(dtype=float) - avg
+    return diff, float(np.nansum(np.abs(diff)) / 2.0), int(np.nanargmax(np.abs(np.nan_to_num(diff))))
+
+
+def biggest_event(folder: ModelFolder, skip: set[str]) -> pd.Series | None:
+    """The estimated event (not in ``skip``: closures, assumed) that adds the most units per occurrence."""
     lifts = folder.lifts
-    skip = skip or set()
     rows = lifts[
         (lifts["kind"] == "event")
         & lifts["identifiable"]
@@ -72,47 +75,37 @@ def biggest_event(folder: ModelFolder, skip: set[str] | None = None) -> pd.Serie
         & lifts["units_per_occurrence"].notna()
         & ~lifts["event"].isin(skip)
     ]
-    if rows.empty:
-        return None
-    return rows.loc[rows["units_per_occurrence"].idxmax()]
+    return None if rows.empty else rows.loc[rows["units_per_occurrence"].idxmax()]
 
 
 def headlines(folder: ModelFolder) -> list[str]:
     """Up to three plain sentences: biggest event, where the peak lands, plan vs average share."""
-    model = folder.model
-    events = [e for e in model.get("events", []) or [] if isinstance(e, dict)]
-    skip = {str(e.get("name")) for e in events if str(e.get("effect", "estimate")) != "estimate"}
-    skip |= {str(n) for n in model.get("closure_events", []) or []}
     lines: list[str] = []
-    top = biggest_event(folder, skip)
+    top = biggest_event(folder, folder.closures() | set(folder.assumed()))
     if top is not None:
         lines.append(
-            f"{top['label']} adds the most: about {_units(top['units_per_occurrence'])} units each "
-            f"time, {_pct(top['lift_pct'])} over base (95 % interval {_pct(top['low_pct'])} to "
-            f"{_pct(top['high_pct'])})."
+            f"{top['label']} adds the most: about {num(top['units_per_occurrence'])} units each "
+            f"time, {pct(top['lift_pct'])} over base (95 % interval {pct(top['low_pct'])} to "
+            f"{pct(top['high_pct'])})."
         )
     plan = folder.plan
     if plan is None or plan.empty:
         return lines
-    i = int(np.nanargmax(plan["plan"].to_numpy(dtype=float)))
-    peak = plan.iloc[i]
+    peak = plan.loc[plan["plan"].idxmax()]
     lines.append(
         f"The plan's peak lands {in_period(peak['date'], folder.freq)}: "
-        f"{_units(peak['plan'])} units (low {_units(peak['low'])}, high {_units(peak['high'])})."
+        f"{num(peak['plan'])} units (low {num(peak['low'])}, high {num(peak['high'])})."
     )
-    avg = average_share_plan(plan, folder.freq, model.get("average_share"))
+    avg = average_share_plan(plan, folder.freq, folder.model["average_share"])
     if np.isfinite(avg).any():
-        values = plan["plan"].to_numpy(dtype=float)
-        diff = values - avg
-        moved = float(np.nansum(np.abs(diff)) / 2.0)
-        total = float(np.nansum(values))
-        k = int(np.nanargmax(np.abs(np.nan_to_num(diff))))
+        diff, moved, k = departure(plan, avg)
+        total = float(np.nansum(plan["plan"].to_numpy(dtype=float)))
         change = 100.0 * diff[k] / avg[k] if avg[k] else float("nan")
         lines.append(
             f"Against an average-share profile spread to the same total, "
-            f"{_units(moved)} units ({moved / total * 100:.1f} % of the total) sit in different "
+            f"{num(moved)} units ({moved / total * 100:.1f} % of the total) sit in different "
             f"periods; the biggest change is {in_period(plan['date'].iloc[k], folder.freq, 'the')}: "
-            f"{'+' if diff[k] >= 0 else '−'}{_units(abs(diff[k]))} units ({_pct(change)})."
+            f"{num(diff[k], sign=True)} units ({pct(change)})."
         )
     return lines
 
@@ -120,16 +113,5 @@ def headlines(folder: ModelFolder) -> list[str]:
 def in_period(date: pd.Timestamp, freq: str, word: str = "in") -> str:
     """ "in the week to 9 May 2027", "in May 2027" (``word="the"``: "the week to ...", "May 2027")."""
     label = period_label(date, freq)
-    if label.startswith("week"):
-        return f"in the {label}" if word == "in" else f"the {label}"
-    return f"in {label}" if word == "in" else label
-
-
-def _units(x: object) -> str:
-    v = float(x)  # type: ignore[arg-type]
-    return f"{v:,.0f}".replace("-", "−") if np.isfinite(v) else "–"
-
-
-def _pct(x: object) -> str:
-    v = float(x)  # type: ignore[arg-type]
-    return f"{v:+.1f} %".replace("-", "−") if np.isfinite(v) else "–"
+    named = f"the {label}" if label.startswith("week") else label
+    return f"in {named}" if word == "in" else named

@@ -1,20 +1,13 @@
 """One self-contained HTML report from a model folder (and optionally a plan and backtest).
 
-The file has no scripts and loads nothing: charts are PNG data URIs, the CSS
-is inline, and a Content-Security-Policy forbids scripts and any fetch, so it
-opens the same from a disk, a share or an e-mail attachment. The page is
-rendered from the Jinja2 templates in ``evcal/report/templates`` with
-autoescape on (:mod:`evcal.report.templating`): the Python side passes plain
-data, so every piece of user text (event names and labels, notes, file names,
-the calendar's name, warnings, series keys) reaches the page as text.
-
-A panel model folder (``panel.json``, written by ``evcal fit --series-cols``)
-gets a panel overview and a section per series shown
-(:mod:`evcal.report.panel_report`).
+The file has no scripts and loads nothing: charts are PNG data URIs, the CSS is inline, and a
+Content-Security-Policy forbids scripts and any fetch, so it opens the same from a disk, a share or
+an e-mail attachment. The page is rendered from the Jinja2 templates with autoescape on
+(:mod:`evcal.report.templating`). A panel model folder gets a panel overview and a section per series
+shown (:mod:`evcal.report.panel_report`).
 
 Examples
 --------
->>> from evcal.report import write_report                      # doctest: +SKIP
 >>> write_report("models/garden", "report.html", plan_csv="plan.csv")  # doctest: +SKIP
 PosixPath('report.html')
 >>> write_report("models/stores", "stores.html", series=["north"])   # doctest: +SKIP
@@ -23,29 +16,23 @@ PosixPath('stores.html')
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-import pandas as pd
-
 from evcal._files import atomic_path, readable
 from evcal.errors import ModelError
-from evcal.report.common import page_frame
-from evcal.report.context import ReportContext, calendar_weights
+from evcal.report.context import ReportContext
 from evcal.report.formatting import freq_words
 from evcal.report.model_folder import ModelFolder, read_model_folder
-from evcal.report.model_sections import history_section, lifts_section, past_section, season_section
+from evcal.report.model_sections import MODEL_SECTIONS, build_sections
 from evcal.report.plan_sections import calendar_section, glance, plan_section
 from evcal.report.review_sections import backtest_section, notes_section
-from evcal.report.templating import render
+from evcal.report.templating import render_page
 
 #: the sections of a single model's report: (element id, heading, template, data builder)
 SECTIONS = (
-    ("history", "History, fitted and base", "history.html", history_section),
-    ("season", "Seasonal index", "season.html", season_section),
-    ("lifts", "Event lifts", "lifts.html", lifts_section),
-    ("past", "What each event added", "past.html", past_section),
+    *MODEL_SECTIONS,
     ("plan", "The plan", "plan.html", plan_section),
     ("calendar", "Calendar of the plan", "calendar.html", calendar_section),
     ("backtest", "Backtest", "backtest.html", backtest_section),
@@ -111,9 +98,7 @@ def write_report(
             raise ModelError(f"{model_dir}: --series picks series of a panel model folder; this is a "
                              "single-series model folder (leave --series out)")
         folder = read_model_folder(model_dir, plan_csv=plan_csv, backtest_csv=backtest_csv)
-        cal = calendar_weights(calendar, folder)
-        page = render_report(folder, weights=cal.weights, calendar_name=cal.name, title=title,
-                             closures=cal.closures, labels=cal.labels)
+        page = render_report(folder, calendar=calendar, title=title)
     out = Path(out_html)
     with atomic_path(out) as tmp:
         tmp.write_text(page, encoding="utf-8")
@@ -121,29 +106,19 @@ def write_report(
     return out
 
 
-def render_report(
-    folder: ModelFolder,
-    weights: pd.DataFrame | None = None,
-    calendar_name: str | None = None,
-    title: str | None = None,
-    closures: Iterable[str] = (),
-    labels: Mapping[str, str] | None = None,
-) -> str:
-    """The report as one HTML string (see :func:`write_report`).
-
-    ``weights`` are day weights with one column per event; ``closures`` names
-    events whose days are known zeros (added to those ``model.json`` marks);
-    ``labels`` name events the model does not know (a newer plan calendar).
-    """
-    ctx = ReportContext(folder, weights, calendar_name)
-    ctx.closures |= set(closures)
-    for name, label in (labels or {}).items():
-        ctx.labels.setdefault(name, label)
+def render_report(folder: ModelFolder, calendar: Any = None, title: str | None = None) -> str:
+    """The report as one HTML string (see :func:`write_report`)."""
+    ctx = ReportContext(folder, calendar)
     heading = title or f"Calendar effects and plan: {ctx.calendar_name or folder.path.name}"
-    sections = [{"key": key, "title": name, "template": template, "data": build(ctx)}
-                for key, name, template, build in SECTIONS]
-    return render("report.html", heading=heading, subtitle=subtitle(ctx), cards=glance(ctx),
-                  sections=sections, **page_frame(ctx.model, _files(folder)))
+    return render_page(
+        "report.html",
+        ctx.model,
+        _files(folder),
+        heading=heading,
+        subtitle=subtitle(ctx),
+        cards=glance(ctx),
+        sections=build_sections(ctx, SECTIONS),
+    )
 
 
 def subtitle(ctx: ReportContext) -> str:
@@ -163,11 +138,6 @@ def subtitle(ctx: ReportContext) -> str:
 
 def _files(folder: ModelFolder) -> list[str]:
     files = [f"model folder {folder.path}"]
-    source = (folder.model.get("history") or {}).get("source")
-    if source:
-        files.append(f"history {source}")
-    if "plan" in folder.sources:
-        files.append(f"plan {folder.sources['plan']}")
-    if "backtest" in folder.sources:
-        files.append(f"backtest {folder.sources['backtest']}")
-    return files
+    if folder.model["history"]["source"]:
+        files.append(f"history {folder.model['history']['source']}")
+    return files + [f"{name} {path}" for name, path in folder.sources.items()]

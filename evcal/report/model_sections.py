@@ -23,8 +23,7 @@ import pandas as pd
 
 from evcal.report import charts
 from evcal.report.context import ReportContext
-from evcal.report.formatting import num, pct
-from evcal.report.periods import cycle_name
+from evcal.report.formatting import cycle_name, num, pct
 
 
 def table(
@@ -49,19 +48,12 @@ def table(
     }
 
 
-def figure(fig: Any, alt: str, caption: str | None = None) -> dict[str, str] | None:
-    """A chart as a PNG data URI with its alternative text, or None when there is no chart."""
-    if fig is None:
-        return None
-    return {"uri": charts.to_data_uri(fig), "alt": alt, "caption": caption or ""}
-
-
 def history_section(ctx: ReportContext) -> dict[str, Any]:
     fitted = ctx.folder.fitted
     if fitted.empty:
         return {"muted": "fitted.csv has no rows."}
-    exclusions = [e for e in ctx.model.get("exclusions", []) or [] if isinstance(e, dict)]
-    fig = charts.history_chart(fitted, exclusions, ctx.freq)
+    exclusions = ctx.model["exclusions"]
+    fig = charts.history_chart(fitted, exclusions)
     a = fitted["actual"].to_numpy(float)
     f = fitted["fitted"].to_numpy(float)
     ok = np.isfinite(a) & np.isfinite(f)
@@ -74,7 +66,8 @@ def history_section(ctx: ReportContext) -> dict[str, Any]:
         text += f" In-sample, fitted values are off by {wape:.1f} % of actual sales (WAPE)."
     if exclusions:
         text += " Shaded spans were left out of the fit (see Warnings)."
-    return {"text": text, "figure": figure(fig, "Line chart of actual, fitted and base over the history")}
+    alt = "Line chart of actual, fitted and base over the history"
+    return {"text": text, "figure": charts.figure(fig, alt)}
 
 
 def season_section(ctx: ReportContext) -> dict[str, Any]:
@@ -91,7 +84,7 @@ def season_section(ctx: ReportContext) -> dict[str, Any]:
         f"{name} {int(lo['period'])} at {lo['index']:.0f}. Events that always fall in the "
         "same period cannot be told apart from the season and stay inside this index."
     )
-    return {"text": text, "figure": figure(fig, "Bar chart of the seasonal index around 100")}
+    return {"text": text, "figure": charts.figure(fig, "Bar chart of the seasonal index around 100")}
 
 
 def lifts_section(ctx: ReportContext) -> dict[str, Any]:
@@ -101,12 +94,9 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
     fig = charts.lifts_chart(lifts, ctx.colours, closures=ctx.closures, assumed=ctx.assumed)
     rows, row_cls = [], []
     for _, r in lifts.iterrows():
-        kind = r["kind"]
-        if r["event"] in ctx.closures:
-            kind = "closure"
-        elif r["event"] in ctx.assumed:
-            kind = "assumed"
-        if r["event"] in ctx.closures:
+        closed = r["event"] in ctx.closures
+        kind = "closure" if closed else "assumed" if r["event"] in ctx.assumed else r["kind"]
+        if closed:
             lift, interval, units = "closed (zero)", "–", num(r["units_per_occurrence"])
         elif r["identifiable"] and pd.notna(r["lift_pct"]):
             lift, interval = pct(r["lift_pct"]), f"{pct(r['low_pct'])} to {pct(r['high_pct'])}"
@@ -117,16 +107,15 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
         rows.append([r["label"], r["event"], kind, lift, interval, units, identifiable, r["note"]])
         row_cls.append("" if r["identifiable"] else "unident")
     not_ident = lifts[~lifts["identifiable"]]
-    closed = lifts[lifts["event"].isin(ctx.closures)]
     headers = ["event", "name in files", "kind", "lift", "95 % interval", "units / occurrence",
                "identifiable", "note"]
     return {
-        "figure": figure(fig, "Event lifts with 95 % interval bars"),
+        "figure": charts.figure(fig, "Event lifts with 95 % interval bars"),
         "not_estimated": [
-            {"label": str(r["label"]), "note": str(r["note"] or "not identifiable")}
-            for _, r in not_ident.iterrows()
+            {"label": label, "note": note or "not identifiable"}
+            for label, note in zip(not_ident["label"], not_ident["note"], strict=True)
         ],
-        "closures": ", ".join(str(x) for x in closed["label"]),
+        "closures": ", ".join(lifts.loc[lifts["event"].isin(ctx.closures), "label"]),
         "table": table(headers, rows, numeric=(3, 4, 5), row_classes=row_cls),
     }
 
@@ -198,8 +187,23 @@ def past_section(ctx: ReportContext) -> dict[str, Any]:
     headers += ["95 % interval (units)"] if has_interval else []
     headers += ["added %"]
     return {
-        "figure": figure(fig, "Stacked bars of units each event added per year"),
+        "figure": charts.figure(fig, "Stacked bars of units each event added per year"),
         "by_year": by_year,
         "count": len(occ),
         "every": table(headers, detail_rows, numeric=range(3, len(headers))),
     }
+
+
+#: the sections drawn from one fitted model (a single model's report and each series of a panel's):
+#: element id, heading, template, data builder
+MODEL_SECTIONS = (
+    ("history", "History, fitted and base", "text_chart.html", history_section),
+    ("season", "Seasonal index", "text_chart.html", season_section),
+    ("lifts", "Event lifts", "lifts.html", lifts_section),
+    ("past", "What each event added", "past.html", past_section),
+)
+
+
+def build_sections(ctx: ReportContext, sections: Iterable[tuple[str, str, str, Any]]) -> list[dict[str, Any]]:
+    """Each section's id, heading, template and data for one model."""
+    return [{"key": k, "title": t, "template": tpl, "data": build(ctx)} for k, t, tpl, build in sections]

@@ -1,16 +1,10 @@
 """The report of a panel model folder: an overview, then one section per series shown.
 
-The overview says how many series were fitted and skipped (and why), the fit
-quality across series and each event's lift across series with its pooled
-lift (the ``pooled_pct`` column of ``lifts.csv``, summarised by
-:func:`evcal.panel.summary.lift_distribution`, as ``evcal show`` does). Each
-series shown then gets the single-model sections (history, seasonal index,
-lifts, past occurrences) built from the panel folder's own long tables
-filtered by the series' key: nothing is fitted again.
-
-Which series: those named (each as :meth:`evcal.panel.PanelResult.find` reads
-a key), else the first :data:`SHOWN_BY_DEFAULT` fitted ones; the report says
-how many are left out and how to pick them.
+The overview says how many series were fitted and skipped (and why), the fit quality across series
+and each event's lift across series with its pooled lift (:func:`evcal.panel.summary.lift_distribution`,
+as ``evcal show`` does). Each series shown (those named, as :meth:`evcal.panel.PanelResult.find` reads
+a key, else the first :data:`SHOWN_BY_DEFAULT` fitted ones) gets the single-model sections, built from
+the panel folder's long tables filtered by the series' key: nothing is fitted again.
 
 Examples
 --------
@@ -31,28 +25,21 @@ import pandas as pd
 from evcal.model.inputs import calendar_terms
 from evcal.panel import PanelResult, load_panel
 from evcal.panel.summary import lift_distribution
-from evcal.report.common import page_frame
 from evcal.report.context import ReportContext
 from evcal.report.formatting import freq_words, num, pct
 from evcal.report.model_folder import ModelFolder
-from evcal.report.model_sections import history_section, lifts_section, past_section, season_section, table
-from evcal.report.templating import render
+from evcal.report.model_sections import MODEL_SECTIONS, build_sections, table
+from evcal.report.templating import render_page
 
 #: how many fitted series the report shows when none are named (each adds four charts)
 SHOWN_BY_DEFAULT = 12
 #: rows of skipped.csv listed in the overview (the file has them all)
 SKIPPED_LISTED = 50
 
-SERIES_PARTS = (
-    ("history", "History, fitted and base", "history.html", history_section),
-    ("season", "Seasonal index", "season.html", season_section),
-    ("lifts", "Event lifts", "lifts.html", lifts_section),
-    ("past", "What each event added", "past.html", past_section),
-)
 
-
-def render_panel_report(model_dir: str | Path, series: Sequence[str] | None = None,
-                        title: str | None = None) -> str:
+def render_panel_report(
+    model_dir: str | Path, series: Sequence[str] | None = None, title: str | None = None
+) -> str:
     """The panel report as one HTML string (see :func:`evcal.report.write_report`).
 
     Raises
@@ -66,14 +53,20 @@ def render_panel_report(model_dir: str | Path, series: Sequence[str] | None = No
     keys = [panel.find(s) for s in series] if series is not None else _first_fitted(panel)
     keys = list({key_text(panel, k): k for k in keys}.values())  # a series named twice is shown once
     settings = panel.settings
-    name = settings.get("calendar_name") or folder.name
-    heading = title or f"Calendar effects by series: {name}"
+    heading = title or f"Calendar effects by series: {settings['calendar_name'] or folder.name}"
     fitted = int((panel.series["status"] == "fitted").sum())
-    shown = [series_part(panel, key, folder, i) for i, key in enumerate(keys, 2)]
+    model = series_model(panel)
+    shown = [series_part(panel, key, folder, i, model) for i, key in enumerate(keys, 2)]
     overview = panel_overview(panel, shown=len(keys), fitted=fitted, named=series is not None)
-    return render("panel.html", heading=heading, subtitle=panel_subtitle(panel, folder),
-                  overview=overview, series=shown,
-                  **page_frame(settings, [f"panel model folder {folder}"]))
+    return render_page(
+        "panel.html",
+        settings,
+        [f"panel model folder {folder}"],
+        heading=heading,
+        subtitle=panel_subtitle(panel, folder),
+        overview=overview,
+        series=shown,
+    )
 
 
 def key_text(panel: PanelResult, key: dict[str, Any]) -> str:
@@ -83,11 +76,9 @@ def key_text(panel: PanelResult, key: dict[str, Any]) -> str:
 
 def panel_subtitle(panel: PanelResult, folder: Path) -> str:
     s = panel.settings
-    parts = []
-    if s.get("calendar_name"):
-        parts.append(f"Calendar: {s['calendar_name']}")
-    parts.append(f"{freq_words(s['freq'])} history {pd.Timestamp(s['periods']['start']):%d %b %Y} to "
-                 f"{pd.Timestamp(s['periods']['end']):%d %b %Y}")
+    start, end = pd.Timestamp(s["periods"]["start"]), pd.Timestamp(s["periods"]["end"])
+    parts = [f"Calendar: {s['calendar_name']}"] if s["calendar_name"] else []
+    parts.append(f"{freq_words(s['freq'])} history {start:%d %b %Y} to {end:%d %b %Y}")
     parts.append(f"{len(panel.series)} series (keys: {', '.join(panel.key_cols)})")
     parts.append(f"model folder: {folder.name}")
     return " · ".join(parts)
@@ -96,95 +87,97 @@ def panel_subtitle(panel: PanelResult, folder: Path) -> str:
 def panel_overview(panel: PanelResult, shown: int, fitted: int, named: bool) -> dict[str, Any]:
     """Series fitted and skipped, fit quality, each event's lift across series, which series follow."""
     s = panel.settings
-    counts = s.get("counts", {})
-    level = f", added up to {', '.join(s['level'])}" if s.get("level") else ""
+    level = f", added up to {', '.join(s['level'])}" if s["level"] else ""
     lines = [
         f"{len(panel.series)} series (keys: {', '.join(panel.key_cols)}{level}) from {s['source']}: "
-        f"{fitted} fitted ({counts.get('batched', 0)} by the batched least-squares solver, "
-        f"{counts.get('per_series', 0)} one by one), {len(panel.skipped)} skipped.",
+        f"{fitted} fitted ({s['counts']['batched']} by the batched least-squares solver, "
+        f"{s['counts']['per_series']} one by one), {len(panel.skipped)} skipped."
     ]
     wape = panel.series.loc[panel.series["status"] == "fitted", "wape_pct"].to_numpy(dtype=float)
     wape = wape[np.isfinite(wape)]
     if len(wape):
-        lines.append(f"In-sample fit: WAPE median {np.median(wape):.1f} % (10–90 % of series: "
-                     f"{np.quantile(wape, 0.1):.1f} to {np.quantile(wape, 0.9):.1f} %).")
+        low, mid, high = np.quantile(wape, [0.1, 0.5, 0.9])
+        lines.append(
+            f"In-sample fit: WAPE median {mid:.1f} % (10–90 % of series: {low:.1f} to {high:.1f} %)."
+        )
+    left = fitted - shown
     if named:
         lines.append(f"Shown below: the {shown} series named with --series.")
-    elif shown < fitted:
-        left = fitted - shown
-        lines.append(f"Shown below: the first {shown} of {fitted} fitted series; {left} "
-                     f"{'is' if left == 1 else 'are'} not shown. Pick the series to show with --series, "
-                     "once per series (e.g. --series "
-                     f"\"{key_text(panel, _first_fitted(panel)[0])}\").")
+    elif left > 0:
+        lines.append(
+            f"Shown below: the first {shown} of {fitted} fitted series; {left} "
+            f"{'is' if left == 1 else 'are'} not shown. Pick the series to show with --series, once per "
+            "series (e.g. --series "
+            f'"{key_text(panel, _first_fitted(panel)[0])}").'
+        )
     else:
         lines.append(f"Shown below: all {shown} fitted series.")
     return {"lines": lines, "lifts": _lift_table(panel), "skipped": _skipped_table(panel)}
 
 
-def series_part(panel: PanelResult, key: dict[str, Any], folder: Path, number: int) -> dict[str, Any]:
+def series_part(
+    panel: PanelResult, key: dict[str, Any], folder: Path, number: int, model: dict[str, Any]
+) -> dict[str, Any]:
     """One series' section: its line of facts and the single-model sections, from the panel's tables."""
     row = panel.series.loc[_mask(panel.series, panel, key)].iloc[0]
-    name = key_text(panel, key)
-    part: dict[str, Any] = {"key": f"series-{number - 1}", "number": number, "title": f"Series {name}",
-                            "parts": []}
+    part = {"key": f"series-{number - 1}", "number": number, "title": f"Series {key_text(panel, key)}"}
     if row["status"] != "fitted":
         skipped = panel.skipped.loc[_mask(panel.skipped, panel, key)]
         why = f"{skipped['reason'].iloc[0]} ({skipped['detail'].iloc[0]})" if len(skipped) else ""
-        part["summary"] = f"Not fitted: {why or row.get('reason', '')}. See skipped.csv."
-        return part
-    part["summary"] = (f"{int(row['periods_fitted'])} periods fitted, {row['start']} to {row['end']}; "
-                       f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
-                       f"in-sample WAPE {num(row['wape_pct'], 1)} %."
-                       + (f" Note: {note}" if (note := row["note"]) and isinstance(note, str) else ""))
-    ctx = ReportContext(series_folder(panel, key, folder))
-    part["parts"] = [{"key": k, "title": t, "template": tpl, "data": build(ctx)}
-                     for k, t, tpl, build in SERIES_PARTS]
+        return part | {"summary": f"Not fitted: {why or row['reason']}. See skipped.csv.", "parts": []}
+    part["summary"] = (
+        f"{int(row['periods_fitted'])} periods fitted, {row['start']} to {row['end']}; "
+        f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
+        f"in-sample WAPE {num(row['wape_pct'], 1)} %." + (f" Note: {row['note']}" if row["note"] else "")
+    )
+    part["parts"] = build_sections(ReportContext(series_folder(panel, key, folder, model)), MODEL_SECTIONS)
     return part
 
 
-def series_folder(panel: PanelResult, key: dict[str, Any], folder: Path) -> ModelFolder:
-    """One series' tables from the panel folder (filtered by its key), shaped as a single model folder."""
+def series_model(panel: PanelResult) -> dict[str, Any]:
+    """What the single-model sections read of ``model.json``, for every series of a panel."""
     from evcal.calendar import load_calendar
 
     s = panel.settings
     cal = load_calendar(s["calendar_text"])  # the saved calendar: the reader checked that it loads
-    labels = _event_labels(panel)
-    drop = panel.key_cols
-    lifts = panel.lifts.loc[_mask(panel.lifts, panel, key)].drop(columns=drop)
-    lifts["identifiable"] = lifts["identifiable"].astype(str).str.lower().isin(["true", "1"])
-    lifts["note"] = lifts["note"].fillna("")
-    lifts["label"] = [labels.get(e, e) for e in lifts["event"]]
-    occ = panel.occurrences.loc[_mask(panel.occurrences, panel, key)].drop(columns=drop)
-    for col in ("start", "end"):
-        occ[col] = pd.to_datetime(occ[col], format="ISO8601")
-    profile = panel.profile.loc[_mask(panel.profile, panel, key)].drop(columns=drop)
-    model = {
+    terms = calendar_terms(cal)
+    return {
         "freq": s["freq"],
-        "calendar_name": s.get("calendar_name") or "",
-        "evcal_version": s.get("evcal_version"),
+        "calendar_name": s["calendar_name"],
+        "evcal_version": s["evcal_version"],
         "events": [{"name": e.name, "label": e.label, "effect": e.effect.describe()} for e in cal.events],
-        **{k: v for k, v in calendar_terms(cal).items()
-           if k in ("closure_events", "intervention_names", "exclusions")},
+        **{k: terms[k] for k in ("closure_events", "intervention_names", "exclusions")},
     }
+
+
+def series_folder(
+    panel: PanelResult, key: dict[str, Any], folder: Path, model: dict[str, Any]
+) -> ModelFolder:
+    """One series' tables from the panel folder (filtered by its key), shaped as a single model folder.
+
+    The store's reader typed the panel's tables as it types a single model's.
+    """
+    labels = _event_labels(panel)
+    lifts = _rows(panel.lifts, panel, key)
+    lifts["label"] = [labels.get(e, e) for e in lifts["event"]]
     return ModelFolder(
         path=folder,
         model=model,
-        lifts=lifts.reset_index(drop=True),
-        occurrences=occ.sort_values(["start", "event"]).reset_index(drop=True),
-        profile=profile.sort_values("period").reset_index(drop=True),
+        lifts=lifts,
+        occurrences=_rows(panel.occurrences, panel, key),
+        profile=_rows(panel.profile, panel, key),
         fitted=_fitted_rows(panel, key),
     )
 
 
 def _event_labels(panel: PanelResult) -> dict[str, str]:
     """Event name -> label, from ``panel.json`` (the long lifts table does not repeat them)."""
-    events = panel.settings.get("events") or {}
-    return {name: str(info.get("label") or name) for name, info in events.items()}
+    return {name: info["label"] or name for name, info in panel.settings["events"].items()}
 
 
 def _first_fitted(panel: PanelResult) -> list[dict[str, Any]]:
     fitted = panel.series[panel.series["status"] == "fitted"].head(SHOWN_BY_DEFAULT)
-    return [{c: fitted[c].iloc[i] for c in panel.key_cols} for i in range(len(fitted))]
+    return fitted[panel.key_cols].to_dict("records")
 
 
 def _mask(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> np.ndarray:
@@ -195,15 +188,17 @@ def _mask(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> np.nd
     return mask
 
 
+def _rows(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> pd.DataFrame:
+    """One series' rows of a long table, without the key columns."""
+    return frame.loc[_mask(frame, panel, key)].drop(columns=panel.key_cols)
+
+
 def _fitted_rows(panel: PanelResult, key: dict[str, Any]) -> pd.DataFrame:
-    """One series' rows of the fitted table; read from ``fitted.parquet`` for that key only."""
-    if panel.fitted_path is not None and panel.fitted_path.is_file():
-        rows = pd.read_parquet(panel.fitted_path, filters=[(c, "==", key[c]) for c in panel.key_cols])
-    else:
-        rows = panel.fitted.loc[_mask(panel.fitted, panel, key)]
+    """One series' rows of ``fitted.parquet``, read for that key only (load_panel found the file)."""
+    rows = pd.read_parquet(panel.fitted_path, filters=[(c, "==", key[c]) for c in panel.key_cols])
     rows = rows.drop(columns=panel.key_cols)
     rows["date"] = pd.to_datetime(rows["date"])
-    return rows.sort_values("date").reset_index(drop=True)
+    return rows
 
 
 def _lift_table(panel: PanelResult) -> dict[str, Any] | None:
@@ -212,13 +207,26 @@ def _lift_table(panel: PanelResult) -> dict[str, Any] | None:
         return None
     labels = _event_labels(panel)
     rows = [
-        [labels.get(r.event, r.event), str(r.series), pct(r.median_pct),
-         f"{pct(r.p10_pct)} to {pct(r.p90_pct)}", pct(r.above_zero_pct, 0, sign=False),
-         pct(r.below_zero_pct, 0, sign=False), pct(r.pooled_median_pct)]
+        [
+            labels.get(r.event, r.event),
+            r.series,
+            pct(r.median_pct),
+            f"{pct(r.p10_pct)} to {pct(r.p90_pct)}",
+            pct(r.above_zero_pct, 0, sign=False),
+            pct(r.below_zero_pct, 0, sign=False),
+            pct(r.pooled_median_pct),
+        ]
         for r in dist.itertuples(index=False)
     ]
-    headers = ["event", "series", "median lift", "10–90 % of series", "above zero", "below zero",
-               "pooled lift"]
+    headers = [
+        "event",
+        "series",
+        "median lift",
+        "10–90 % of series",
+        "above zero",
+        "below zero",
+        "pooled lift",
+    ]
     return table(headers, rows, numeric=range(1, 7))
 
 
@@ -226,8 +234,9 @@ def _skipped_table(panel: PanelResult) -> dict[str, Any] | None:
     skipped = panel.skipped
     if skipped.empty:
         return None
-    rows = [[key_text(panel, {c: r[c] for c in panel.key_cols}), r["reason"], r["detail"]]
-            for _, r in skipped.head(SKIPPED_LISTED).iterrows()]
-    out = table(["series", "reason", "detail"], rows)
-    out["more"] = max(len(skipped) - SKIPPED_LISTED, 0)
-    return out
+    listed = skipped.head(SKIPPED_LISTED)
+    keys = listed[panel.key_cols].to_dict("records")
+    rows = [
+        [key_text(panel, k), r, d] for k, r, d in zip(keys, listed["reason"], listed["detail"], strict=True)
+    ]
+    return table(["series", "reason", "detail"], rows) | {"more": max(len(skipped) - SKIPPED_LISTED, 0)}

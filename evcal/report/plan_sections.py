@@ -19,11 +19,10 @@ import pandas as pd
 from evcal.report import charts
 from evcal.report.calendar_view import calendar_data, weights_from_plan
 from evcal.report.context import ReportContext, view_span
-from evcal.report.formatting import num, pct, signed
-from evcal.report.headlines import average_share_plan, biggest_event
+from evcal.report.formatting import num, pct, period_days, period_label
+from evcal.report.headlines import average_share_plan, biggest_event, departure
 from evcal.report.model_folder import lift_columns
-from evcal.report.model_sections import figure, table
-from evcal.report.periods import period_days, period_label
+from evcal.report.model_sections import table
 
 
 def glance(ctx: ReportContext) -> list[dict[str, str]]:
@@ -51,24 +50,22 @@ def glance(ctx: ReportContext) -> list[dict[str, str]]:
             "v": period_label(peak["date"], ctx.freq),
             "d": f"{num(peak['plan'])} units planned (low {num(peak['low'])}, high {num(peak['high'])})",
         })
-        avg = average_share_plan(plan, ctx.freq, ctx.model.get("average_share"))
+        avg = average_share_plan(plan, ctx.freq, ctx.model["average_share"])
         if np.isfinite(avg).any():
-            values = plan["plan"].to_numpy(dtype=float)
-            diff = values - avg
-            moved = float(np.nansum(np.abs(diff)) / 2.0)
-            k = int(np.nanargmax(np.abs(np.nan_to_num(diff))))
+            diff, moved, k = departure(plan, avg)
+            share = moved / plan["plan"].to_numpy().sum() * 100
             cards.append({
                 "k": "Against average share",
                 "v": f"{num(moved)} units move",
-                "d": f"{moved / values.sum() * 100:.1f} % of the total sits in other periods; most in "
-                f"{period_label(plan['date'].iloc[k], ctx.freq)} ({signed(diff[k])})",
+                "d": f"{share:.1f} % of the total sits in other periods; most in "
+                f"{period_label(plan['date'].iloc[k], ctx.freq)} ({num(diff[k], sign=True)})",
             })
-    chosen = (ctx.model.get("model") or {}).get("chosen")
-    if chosen:
-        reason = str((ctx.model.get("model") or {}).get("reason", ""))
+    choice = ctx.model["model"]
+    if choice["chosen"]:
+        reason = choice["reason"]
         if len(reason) > 90:
             reason = reason[:88].rsplit(" ", 1)[0] + " … (see Warnings and model)"
-        cards.append({"k": "Model", "v": str(chosen), "d": reason})
+        cards.append({"k": "Model", "v": choice["chosen"], "d": reason})
     return cards
 
 
@@ -79,8 +76,8 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
     if plan.empty:
         return {"muted": "The plan file has no rows."}
     events = lift_columns(plan)
-    avg = average_share_plan(plan, ctx.freq, ctx.model.get("average_share"))
-    fig = charts.plan_chart(plan, events, ctx.labels, ctx.colours, ctx.freq, compare=avg)
+    avg = average_share_plan(plan, ctx.freq, ctx.model["average_share"])
+    fig = charts.plan_chart(plan, events, ctx.labels, ctx.colours, avg)
     total = float(plan["plan"].sum())
     base_total = float(plan["base"].sum())
     share_rows = []
@@ -103,7 +100,7 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
                 period_label(plan["date"].iloc[k], ctx.freq),
                 num(plan["plan"].iloc[k]),
                 num(avg[k]),
-                signed(diff[k]),
+                num(diff[k], sign=True),
                 pct(100.0 * diff[k] / avg[k] if avg[k] else np.nan),
             ]
             for k in order
@@ -130,7 +127,7 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
     if has_assump:
         headers.append("assumptions")
     return {
-        "figure": figure(fig, "Plan: base with stacked event contributions and interval"),
+        "figure": charts.figure(fig, "Plan: base with stacked event contributions and interval"),
         "shares": table(["part of the plan", "units", "share of total", ""], share_rows, numeric=(1, 2)),
         "moved": moved,
         "count": len(plan),

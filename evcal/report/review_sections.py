@@ -11,7 +11,6 @@ Examples
 
 from __future__ import annotations
 
-from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
@@ -19,9 +18,8 @@ import pandas as pd
 
 from evcal.report import charts
 from evcal.report.context import ReportContext
-from evcal.report.formatting import num, pct, sig
-from evcal.report.model_sections import figure, table
-from evcal.report.periods import period_label
+from evcal.report.formatting import num, pct, period_label, sig
+from evcal.report.model_sections import table
 
 METHOD_NAMES = {
     "evcal": "evcal (base + scheduled events)",
@@ -83,37 +81,30 @@ def backtest_section(ctx: ReportContext) -> dict[str, Any]:
     return {
         "summary": summary,
         "table": table(headers, rows, numeric=range(2, len(years) + 5), row_classes=row_cls),
-        "figure": figure(fig, "WAPE per held-out year and method",
+        "figure": charts.figure(fig, "WAPE per held-out year and method",
                          "WAPE % per held-out year (plans spread to the actual total)"),
     }
 
 
 def notes_section(ctx: ReportContext) -> dict[str, Any]:
     """Model chosen, warnings, events not estimated, assumptions, exclusions (each may be empty)."""
-    out: dict[str, Any] = {"chosen": None}
-    model = ctx.model.get("model") or {}
-    if isinstance(model, Mapping) and model.get("chosen"):
-        transform = ctx.model.get("transform")
-        cands = [c for c in model.get("candidates", []) or [] if isinstance(c, Mapping)]
-        out["chosen"] = {
-            "name": str(model.get("chosen")),
-            "reason": str(model.get("reason", "")),
-            "transform": TRANSFORM_WORDS.get(str(transform), str(transform)) if transform else "",
-            "candidates": table(
-                ["candidate", "criterion", "value"],
-                [
-                    [str(c.get("name", "")) + (" (chosen)" if c.get("name") == model.get("chosen") else ""),
-                     c.get("criterion", ""), sig(c.get("value"))]
-                    for c in cands
-                ],
-                numeric=(2,),
-            ) if cands else None,
+    choice = ctx.model["model"]
+    chosen = None
+    if choice["chosen"]:
+        best = choice["chosen"]
+        rows = [
+            [c["name"] + (" (chosen)" if c["name"] == best else ""), c["criterion"], sig(c["value"])]
+            for c in choice["candidates"]
+        ]
+        chosen = {
+            "name": choice["chosen"],
+            "reason": choice["reason"],
+            "transform": TRANSFORM_WORDS[ctx.model["transform"]],
+            "candidates": table(["candidate", "criterion", "value"], rows, numeric=(2,)) if rows else None,
         }
-    out["warnings"] = [str(w) for w in ctx.model.get("warnings", []) or []]
     lifts = ctx.folder.lifts
-    out["not_estimated"] = [
-        {"label": str(r["label"]), "event": str(r["event"]),
-         "note": str(r["note"] or "not identifiable from this history")}
+    not_estimated = [
+        {"label": r["label"], "event": r["event"], "note": r["note"] or "not identifiable from this history"}
         for _, r in lifts[~lifts["identifiable"]].iterrows()
     ]
     assumptions = [f"{ctx.label(name)} ({name}): {text}" for name, text in ctx.assumed.items()]
@@ -124,9 +115,12 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
             periods = ", ".join(period_label(d, ctx.freq) for d in grp["date"].head(6))
             more = f" and {len(grp) - 6} more" if len(grp) > 6 else ""
             assumptions.append(f"{text} — in {periods}{more}")
-    out["assumptions"] = assumptions
-    exclusions = [e for e in ctx.model.get("exclusions", []) or [] if isinstance(e, Mapping)]
-    spans = [[e.get("start", ""), e.get("end", ""), e.get("reason", "")] for e in exclusions]
-    out["exclusions"] = table(["start", "end", "reason"], spans) if exclusions else None
-    out["empty"] = not (out["chosen"] or out["warnings"] or out["not_estimated"] or assumptions or exclusions)
-    return out
+    spans = [[e["start"], e["end"], e["reason"]] for e in ctx.model["exclusions"]]
+    return {
+        "chosen": chosen,
+        "warnings": ctx.model["warnings"],
+        "not_estimated": not_estimated,
+        "assumptions": assumptions,
+        "exclusions": table(["start", "end", "reason"], spans) if spans else None,
+        "empty": not (chosen or ctx.model["warnings"] or not_estimated or assumptions or spans),
+    }

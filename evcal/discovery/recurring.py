@@ -256,16 +256,14 @@ def find_recurring(
                     scored.append((rule, seen, available, hit))
             if not scored:
                 break
-            best_hits = max(len(s[1]) for s in scored)
-            top = [s for s in scored if len(s[1]) == best_hits]
-            fewest_misses = min(len(s[2]) - len(s[1]) for s in top)
-            top = [s for s in top if len(s[2]) - len(s[1]) == fewest_misses]
-            simplest = min(_simplicity(s[0]) for s in top)
-            top = sorted((s for s in top if _simplicity(s[0]) == simplest), key=lambda s: s[0].value)
-            kind = top[0][0].kind
+            # most hits, then fewest misses, then the simplest kind
+            ranks = [(-len(seen), len(available) - len(seen), _simplicity(rule))
+                     for rule, seen, available, _ in scored]
+            best = min(ranks)
+            top = sorted((s for s, r in zip(scored, ranks, strict=True) if r == best), key=lambda s: s[0].value)
             rule, seen, available, hit = top[(len(top) - 1) // 2]
             length = 1
-            if kind in ("easter", "fixed"):
+            if rule.kind in ("easter", "fixed"):
                 rule, length = _tied_run(rule, [s[0] for s in top if s[1] == seen])
             results.append(Recurring(rule, sign, seen, available, hit, length))
             used = {f.period for f in hit}

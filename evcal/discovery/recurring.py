@@ -260,7 +260,8 @@ def find_recurring(
             ranks = [(-len(seen), len(available) - len(seen), _simplicity(rule))
                      for rule, seen, available, _ in scored]
             best = min(ranks)
-            top = sorted((s for s, r in zip(scored, ranks, strict=True) if r == best), key=lambda s: s[0].value)
+            top = sorted((s for s, r in zip(scored, ranks, strict=True) if r == best),
+                         key=lambda s: s[0].value)
             rule, seen, available, hit = top[(len(top) - 1) // 2]
             length = 1
             if rule.kind in ("easter", "fixed"):

@@ -12,23 +12,20 @@ outlier effects ``w * xi(B) I_t(t0)`` of three types:
 
 The three stages, iterated until no new effect is found:
 
-1. **Detection** on the residuals ``e = pi(B) u`` (``pi = phi``, the AR
-   polynomial): for each type and date ``t0`` the least-squares effect is
-   ``w = sum x e / sum x^2`` with ``x = pi(B) xi(B) I(t0)`` taken net of the
-   regressors (the added-variable form; Chen & Liu have no regressors), its statistic
-   ``tau = w sqrt(sum x^2) / sigma``, ``sigma = 1.4826 * MAD(e)`` (robust, as
-   Chen & Liu use). The largest ``|tau|`` above the critical value is taken,
-   its effect is removed from ``e``, and the search repeats.
+1. **Detection** on the residuals ``e = phi(B) u``: for each type and date
+   ``t0`` the least-squares effect ``w = sum x e / sum x^2`` of
+   ``x = phi(B) xi(B) I(t0)`` taken net of the regressors (Chen & Liu have
+   none), and ``tau = w sqrt(sum x^2) / sigma``, ``sigma = 1.4826 MAD(e)``.
+   The largest ``|tau|`` above the critical value is taken, its effect
+   removed from ``e``, and the search repeats (Chen & Liu locate all
+   exceeding dates, then thin them: one at a time is the more conservative
+   reading).
 2. **Joint estimation** of ``b`` and every found effect by least squares
    (``statsmodels`` OLS; with AR errors on the ``phi(B)``-filtered data, a
    feasible GLS in the manner of Cochrane & Orcutt 1949). The effect with the
    smallest ``|t|`` below the critical value is dropped, and again, until all
    are above it.
 3. Re-estimate the AR part from the new residuals and go back to 1.
-
-This is the procedure with one simplification: a single outlier is taken per
-detection pass (Chen & Liu locate all exceeding dates, then thin them);
-taking the largest first is the more conservative reading.
 
 The critical value depends on the series length ``n``: 3 for ``n <= 50``, 4
 for ``n >= 450``, linear in between (``3 + 0.0025 (n - 50)``). This is common
@@ -163,11 +160,10 @@ def detection_statistics(
     sigma : float, optional
         Residual scale; default :func:`robust_sigma` of ``resid``.
     exog : array, optional
-        The model's regressors, filtered like ``resid``. Each pattern is then
-        taken net of them (``x* = (I - H) x``, the added-variable form), so
-        ``w`` equals the coefficient of ``x`` in the OLS of ``y`` on ``[X, x]``
-        (Frisch–Waugh–Lovell). Without it a level shift in a model with a
-        trend is half absorbed by the trend before it is tested.
+        The model's regressors, filtered like ``resid``; each pattern is taken
+        net of them, so ``w`` is the coefficient of ``x`` in the OLS of ``y``
+        on ``[X, x]`` (Frisch–Waugh–Lovell). Without it a level shift in a
+        model with a trend is half absorbed by the trend before it is tested.
     basis : array, optional
         :func:`_orthonormal_basis` of ``exog``, when already computed.
 
@@ -221,12 +217,10 @@ def _suffix_filter(a: np.ndarray, decay: float) -> np.ndarray:
 def _white_noise_sums(
     kind: str, e0: np.ndarray, ok: np.ndarray, basis: np.ndarray | None
 ) -> tuple[np.ndarray, np.ndarray]:
-    """``x*.e`` and ``x*.x*`` at every date at once, for white-noise errors.
+    """``x*.e`` and ``x*.x*`` at every date at once, for white-noise errors, building no pattern.
 
-    With ``x* = (I - Q Q') x``: ``x*.e = x.e - (Q'x).(Q'e)`` and
-    ``x*.x* = x.x - |Q'x|^2``; for the three patterns ``x.e``, ``x.x`` and
-    ``Q'x`` are suffix sums (LS) or decaying suffix sums (TC) of ``e``, the
-    observed-row indicator and the rows of ``Q``, so no pattern is built.
+    With ``x* = (I - Q Q') x``: ``x*.e = x.e - (Q'x).(Q'e)``, ``x*.x* = x.x - |Q'x|^2``,
+    and ``x.e``, ``x.x``, ``Q'x`` are (decaying) suffix sums for LS (TC).
     """
     w = ok.astype(float)
     if kind == "AO":

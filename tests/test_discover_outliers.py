@@ -9,8 +9,13 @@ import statsmodels.api as sm
 import statsmodels.datasets as smd
 from scipy.stats import norm
 
-from evcal.discovery.outlier_detection import detection_statistics, outlier_pattern, robust_sigma
-from evcal.discovery.outliers import chen_liu, critical_value
+from evcal.discovery.outliers import (
+    chen_liu,
+    critical_value,
+    detection_statistics,
+    outlier_pattern,
+    robust_sigma,
+)
 
 
 def _seasonal_design(n: int, period: int = 12) -> np.ndarray:

@@ -19,14 +19,11 @@ variance ratio against Fisher's F, with the other years' (effective)
 degrees of freedom.
 
 A year is flagged when a p-value is below ``0.01 / years`` (Bonferroni: about
-a 1 % chance per test that a series with no abnormal year shows one). The
-statistics are reported as normal quantiles (``z``). This replaces a robust
-z-score across the yearly means, which with the 5 to 10 years of a typical
-history flagged a year in about one noise series in five (measured).
-
-A year flagged on ``level`` suggests an exclusion or a ``pulse``
-intervention over the year; a year flagged on ``spread`` only suggests an
-exclusion (a level term cannot absorb erratic periods).
+a 1 % chance per test that a series with no abnormal year shows one), and
+reported as a normal quantile (``z``). A robust z-score across the yearly
+means flagged a year in about one noise series in five with the 5 to 10
+years of a typical history (measured). A ``spread`` year only suggests an
+exclusion: a level term cannot absorb erratic periods.
 """
 
 from __future__ import annotations
@@ -44,6 +41,8 @@ __all__ = ["AbnormalYear", "abnormal_years", "FAMILY_ALPHA", "MIN_YEARS"]
 #: family-wise false-alarm rate per test and series (Bonferroni over years)
 FAMILY_ALPHA = 0.01
 MIN_YEARS = 3
+#: a year counts when at least this share of its periods are in the fit
+MIN_SHARE = 0.5
 
 
 @dataclass(frozen=True)
@@ -58,22 +57,13 @@ class AbnormalYear:
     end: pd.Timestamp
 
 
-def abnormal_years(
-    residuals: pd.Series,
-    *,
-    alpha: float = FAMILY_ALPHA,
-    min_share: float = 0.5,
-) -> list[AbnormalYear]:
+def abnormal_years(residuals: pd.Series) -> list[AbnormalYear]:
     """Flag years whose residual level or spread departs from the model.
 
     Parameters
     ----------
     residuals : Series
         Model-scale residuals on a PeriodIndex; NaN for periods not in the fit.
-    alpha : float
-        Family-wise false-alarm rate of each test (Bonferroni over years).
-    min_share : float
-        A year counts when at least this share of its periods are in the fit.
 
     Returns
     -------
@@ -96,7 +86,7 @@ def abnormal_years(
     frame = pd.DataFrame({"r": r, "year": years})
     counts = frame.groupby("year")["r"].count()
     full = int(pd.Series(years).value_counts().max())
-    ok = [int(y) for y, c in counts.items() if c >= max(3, min_share * full)]
+    ok = [int(y) for y, c in counts.items() if c >= max(3, MIN_SHARE * full)]
     if len(ok) < MIN_YEARS:
         return []
     dev = r - frame.groupby("year")["r"].transform("mean").to_numpy()
@@ -105,7 +95,7 @@ def abnormal_years(
     # Bartlett's approximation: under AR(1) a sample variance has the spread of
     # one from (1 - rho^2) / (1 + rho^2) times as many independent values
     df_factor = (1 - rho**2) / (1 + rho**2)
-    cut = alpha / len(ok)
+    cut = FAMILY_ALPHA / len(ok)
     found: list[AbnormalYear] = []
     for y in ok:
         mask = (years == y) & np.isfinite(r)

@@ -27,13 +27,10 @@ Method (each step a published one):
    red-noise spectrum (e.g. a random walk) has a large low-frequency
    periodogram but no such ACF peak, so this step removes false cycles.
 
-``strength`` is the R² of a least-squares fit of Fourier terms at the
-cycle's period (harmonics 1..10) to the detrended series: the share of its
-variance the cycle explains. After a cycle is accepted its Fourier fit is
-subtracted and the search repeats on what is left, so multiples of the first
-cycle are not reported as cycles of their own. No significant peak is
-an answer too: :func:`detect_cycles` returns an empty list and
-:func:`describe_cycles` says "no clear cycle".
+``strength`` is the R² of the cycle's Fourier fit (harmonics 1..10) to the
+detrended series. After a cycle is accepted its fit is subtracted and the
+search repeats on what is left, so multiples of the first cycle are not
+reported as cycles of their own. No cycle is an answer too ("no clear cycle").
 """
 
 from __future__ import annotations
@@ -52,6 +49,9 @@ __all__ = ["Cycle", "detect_cycles", "describe_cycles", "fisher_g_pvalue"]
 MAX_HARMONIC = 10
 #: peaks closer than this (relative, in period) are one cycle
 MERGE_TOLERANCE = 0.15
+MAX_CYCLES = 3
+#: 2 %: significant on a long series, but too small to matter for a seasonal index
+MIN_STRENGTH = 0.02
 
 
 @dataclass(frozen=True)
@@ -92,33 +92,22 @@ def fisher_g_pvalue(g: float, m: int) -> float:
     >>> round(fisher_g_pvalue(0.5, 10), 6)  # only j = 1 contributes: 10 * 0.5**9
     0.019531
     """
-    if m < 2:
-        return 1.0
-    if g <= 0:
+    if m < 2 or g <= 0:
         return 1.0
     if g >= 1:
         return 0.0
     terms = math.floor(1.0 / g)
     if terms > 30:
         return min(1.0, m * (1.0 - g) ** (m - 1))
-    total = 0.0
-    for j in range(1, terms + 1):
-        base = 1.0 - j * g
-        if base <= 0:
-            break
-        total += (-1) ** (j - 1) * math.comb(m, j) * base ** (m - 1)
+    total = sum((-1) ** (j - 1) * math.comb(m, j) * (1.0 - j * g) ** (m - 1) for j in range(1, terms + 1))
     return float(min(1.0, max(0.0, total)))
 
 
 def _prepare(series: pd.Series | np.ndarray) -> np.ndarray:
     """Fill gaps by linear interpolation (cycles need an unbroken grid) and detrend."""
-    values = pd.Series(np.asarray(series, dtype=float)).interpolate(limit_direction="both")
-    x = values.to_numpy(dtype=float)
+    x = pd.Series(np.asarray(series, dtype=float)).interpolate(limit_direction="both").to_numpy(dtype=float)
     t = np.arange(len(x), dtype=float)
-    if len(x) >= 3:
-        trend = np.polyval(np.polyfit(t, x, 2), t)
-        x = x - trend
-    return x
+    return x - np.polyval(np.polyfit(t, x, 2), t) if len(x) >= 3 else x
 
 
 def _significant_ordinates(
@@ -142,16 +131,13 @@ def _significant_ordinates(
 
 def _merge_peaks(ordinates: list[tuple[float, float, float]]) -> list[tuple[float, float, float]]:
     """Merge ordinates within MERGE_TOLERANCE in period: (period, power, best p)."""
-    by_period = sorted(ordinates, key=lambda o: 1.0 / o[0])
     groups: list[list[tuple[float, float, float]]] = []
-    for o in by_period:
-        period = 1.0 / o[0]
-        if groups:
-            anchor = 1.0 / max(groups[-1], key=lambda g: g[1])[0]
-            if abs(period - anchor) <= MERGE_TOLERANCE * anchor:
-                groups[-1].append(o)
-                continue
-        groups.append([o])
+    for o in sorted(ordinates, key=lambda o: 1.0 / o[0]):
+        anchor = 1.0 / max(groups[-1], key=lambda g: g[1])[0] if groups else None
+        if anchor is not None and abs(1.0 / o[0] - anchor) <= MERGE_TOLERANCE * anchor:
+            groups[-1].append(o)
+        else:
+            groups.append([o])
     peaks = []
     for g in groups:
         w = np.array([o[1] for o in g])
@@ -198,15 +184,13 @@ def _acf_peak(r: np.ndarray, near: float, n: int) -> tuple[int, float] | None:
     return best
 
 
-def detect_cycles(
-    series: pd.Series | np.ndarray,
-    *,
-    alpha: float = 0.01,
-    max_period: float | None = None,
-    max_cycles: int = 3,
-    min_strength: float = 0.02,
-) -> list[Cycle]:
+def detect_cycles(series: pd.Series | np.ndarray, *, alpha: float = 0.01) -> list[Cycle]:
     """Detect the seasonal cycle(s) of a regularly spaced series.
+
+    Cycles up to half the series long (two full cycles are the least that
+    shows one) are considered; at most :data:`MAX_CYCLES` are returned, in the
+    order found (each round takes the strongest remaining peak), and none that
+    explains less than :data:`MIN_STRENGTH` of the detrended variance.
 
     Parameters
     ----------
@@ -214,16 +198,6 @@ def detect_cycles(
         Values on a regular grid (gaps are interpolated for this step only).
     alpha : float
         Significance level of each successive Fisher g test (default 0.01).
-    max_period : float, optional
-        Longest cycle considered; default half the series length (two full
-        cycles are the least that shows one).
-    max_cycles : int
-        At most this many cycles are returned, in the order found (strongest
-        first: each round takes the strongest remaining peak).
-    min_strength : float
-        Cycles explaining less than this share of the detrended variance are
-        not reported (default 2 %: significant on a long series, but too
-        small to matter for a seasonal index).
 
     Returns
     -------
@@ -242,11 +216,11 @@ def detect_cycles(
     n = len(r)
     if n < 12 or not np.isfinite(r).all() or np.allclose(r, 0):
         return []
-    max_period = float(max_period) if max_period else n / 2.0
+    max_period = n / 2.0
     base_var = float(np.var(r))
     cycles: list[Cycle] = []
     rejected: list[float] = []
-    while len(cycles) < max_cycles:
+    while len(cycles) < MAX_CYCLES:
         freq, power = periodogram(r, detrend=False, scaling="spectrum")
         band = (freq >= 1.0 / max_period) & (freq > 0) & (freq < 0.5)
         if band.sum() < 3:
@@ -271,17 +245,9 @@ def detect_cycles(
             continue
         harmonics = _harmonic_fit(r, period)
         strength = float(min(1.0, np.var(harmonics) / base_var))
-        if strength < min_strength:
+        if strength < MIN_STRENGTH:
             break
-        cycles.append(
-            Cycle(
-                period=float(period),
-                lag=int(lag),
-                strength=strength,
-                acf=float(rho),
-                p_value=float(min(p[2] for p in members)),
-            )
-        )
+        cycles.append(Cycle(float(period), int(lag), strength, float(rho), float(min(p[2] for p in members))))
         r = r - harmonics  # look for the next cycle in what this one leaves
     return cycles
 
@@ -300,23 +266,13 @@ def _choose_fundamental(
     least 90 % of the best is taken (a multiple of a cycle explains the same
     power and a little noise), and it must be confirmed by the ACF.
     """
-    candidates: list[tuple[float, float]] = []
-    for mult in range(1, 7):
-        q = strongest[0] * mult
-        if q > max_period:
-            break
-        explained = sum(pw for pp, pw, _ in peaks if _is_harmonic(pp, q, n))
-        candidates.append((q, explained))
-    if not candidates:
+    multiples = [q for q in (strongest[0] * m for m in range(1, 7)) if q <= max_period]
+    if not multiples:
         return None
-    best = max(c[1] for c in candidates)
-    for q, explained in candidates:
-        if explained >= 0.9 * best:
-            peak = _acf_peak(r, q, n)
-            if peak is not None:
-                return q, peak[0], peak[1]
-            return None
-    return None
+    explained = [sum(pw for pp, pw, _ in peaks if _is_harmonic(pp, q, n)) for q in multiples]
+    q = next(q for q, e in zip(multiples, explained, strict=True) if e >= 0.9 * max(explained))
+    peak = _acf_peak(r, q, n)
+    return None if peak is None else (q, peak[0], peak[1])
 
 
 def _refine_period(r: np.ndarray, period: float) -> float:
@@ -347,7 +303,7 @@ def _harmonic_fit(r: np.ndarray, period: float) -> np.ndarray:
     return x @ beta
 
 
-def describe_cycles(cycles: list[Cycle], freq: str | None = None) -> str:
+def describe_cycles(cycles: list[Cycle]) -> str:
     """One readable line per cycle, or "no clear cycle".
 
     Examples
@@ -357,11 +313,5 @@ def describe_cycles(cycles: list[Cycle], freq: str | None = None) -> str:
     """
     if not cycles:
         return "no clear cycle (no significant periodogram peak confirmed by the autocorrelation)"
-    lines = []
-    for c in cycles:
-        unit = f" {freq} periods" if freq else " periods"
-        lines.append(
-            f"cycle of {c.period:.1f}{unit} (lag {c.lag}); strength {c.strength:.2f}, "
-            f"ACF {c.acf:.2f}, Fisher p {c.p_value:.1g}"
-        )
-    return "; ".join(lines)
+    return "; ".join(f"cycle of {c.period:.1f} periods (lag {c.lag}); strength {c.strength:.2f}, "
+                     f"ACF {c.acf:.2f}, Fisher p {c.p_value:.1g}" for c in cycles)

@@ -1,11 +1,4 @@
-"""What :func:`~evcal.discovery.discover` found, and how it is saved.
-
-:class:`Findings` holds the suggestions table and calendar fragment, each
-method's own findings and the model they come from; :meth:`Findings.save`
-writes the findings folder all or nothing, :meth:`Findings.summary` gives the
-short account printed by ``evcal discover``
-(:mod:`evcal.discovery.summary_text`).
-"""
+"""What :func:`~evcal.discovery.discover` found, how it is saved and the account ``evcal discover`` prints."""
 
 from __future__ import annotations
 
@@ -17,11 +10,11 @@ import pandas as pd
 
 from evcal._files import atomic_dir
 from evcal.discovery.abnormal import AbnormalYear
-from evcal.discovery.cycles import Cycle
+from evcal.discovery.cycles import Cycle, describe_cycles
 from evcal.discovery.lost_demand import LostDemand
 from evcal.discovery.outliers import OutlierSearch
 from evcal.discovery.recurring import Recurring
-from evcal.discovery.summary_text import findings_summary
+from evcal.discovery.suggestions import OUTLIER_KINDS, describe_pattern, period_day
 from evcal.formula_safe import write_csv
 
 __all__ = ["Findings"]
@@ -59,10 +52,47 @@ class Findings:
     freq: str = ""
     n_periods: int = 0
     notes: list[str] = field(default_factory=list)
-    def summary(self) -> str:
-        """A short readable account of the findings."""
-        return findings_summary(self)
 
+    def summary(self) -> str:
+        """A short readable account of the findings, one finding a line.
+
+        The series and model, the cycle, the Chen–Liu effects counted, then a line
+        per recurring pattern, abnormal year and stock-out window, and the notes.
+
+        Examples
+        --------
+        >>> import evcal                                       # doctest: +SKIP
+        >>> print(evcal.discover("sales.csv").summary())       # doctest: +SKIP
+        """
+        f = self.fit
+        periods = f.residuals.index
+        lines = [f"{self.source}: {self.n_periods} periods ({self.freq}), "
+                 f"{period_day(periods[0])} to {period_day(periods[-1], end=True)}; model on the "
+                 f"{f.transform} scale, errors {f.model_choice.get('chosen', '?')}",
+                 "cycle: " + describe_cycles(self.cycles)]
+        if self.outliers is not None:
+            counts = {k: sum(o.type == t for o in self.outliers.outliers) for t, k in OUTLIER_KINDS.items()}
+            lines.append(
+                f"unexplained (Chen-Liu, critical |tau| {self.outliers.cval:.2f}): "
+                f"{counts['outlier']} one-period peaks/dips, {counts['level_shift']} level shifts, "
+                f"{counts['temporary']} temporary changes")
+        for r in self.recurring:
+            what = "peak" if r.sign > 0 else "dip"
+            lines.append(f"recurring {what}: {describe_pattern(r)}, {r.mean_size_pct:+.0f}% on average, "
+                         f"seen {len(r.years_seen)} of {len(r.years_available)} years "
+                         f"({', '.join(map(str, r.years_seen))})")
+        lines += [f"abnormal year: {text}"
+                  for text in self.table.loc[self.table["kind"] == "abnormal_year", "suggestion"]]
+        for lo in self.lost:
+            lines.append(
+                f"lost demand {lo.start.date()}..{lo.end.date()} ({lo.reason}): expected "
+                f"{lo.expected:,.0f} (95% {lo.expected_low:,.0f}-{lo.expected_high:,.0f}), "
+                f"sold {lo.actual:,.0f}: about {lo.lost:,.0f} units lost")
+        if len(self.table) == 1 and not self.recurring and not self.abnormal and not self.lost and (
+                self.outliers is None or not self.outliers.outliers):
+            lines.append("nothing unexplained beyond the expected false-alarm rate")
+        lines += [f"note: {n}" for n in self.notes]
+        return "\n".join(lines)
 
     def save(self, directory: str | Path, *, chart: bool = True) -> Path:
         """Write ``suggestions.csv``, ``suggestions.yaml`` and ``findings.png`` (and,

@@ -1,13 +1,11 @@
 """What ``discover`` reads: a history (file, frame, series or model folder) and a calendar.
 
 A model folder written by ``evcal fit`` stands in for the history it was
-fitted from: a single-series folder (``model.json``) gives the ``date`` and
-``actual`` columns of its fitted table at the model's frequency, a panel folder
-(``panel.json``) the history of the one series named by ``series``. The
-folders are read by their own readers (:func:`evcal.model.load_model`,
-:func:`evcal.panel.load_panel`), so a damaged folder is refused the same way
-as by ``plan`` or ``show``. Without a calendar of its own, the model's
-calendar is used.
+fitted from: a single-series folder gives the ``date`` and ``actual`` columns
+of its fitted table, a panel folder the history of the series named by
+``series``. The folders are read by their own readers, so a damaged folder is
+refused the same way as by ``plan`` or ``show``; without a calendar of its
+own, the model's calendar is used.
 """
 
 from __future__ import annotations
@@ -21,37 +19,18 @@ import yaml
 
 from evcal.errors import CalendarError, HistoryError, ModelError
 
-__all__ = ["MODEL_SERIES_SHOWN", "calendar_text", "read_discover_inputs", "read_history_input",
-           "with_entries"]
+__all__ = ["calendar_text", "read_discover_inputs", "read_history_input", "with_entries"]
 
 #: most series keys named in the line asking for ``series`` on a panel folder
 MODEL_SERIES_SHOWN = 5
-#: the calendar of a history with none: trend and seasonal terms only
-NO_EVENTS = "name: no events\n"
 
 
 def read_discover_inputs(history: Any, calendar: Any, *, series: Any = None, date_col: str = "date",
                          value_col: str = "value", freq: str | None = None) -> tuple[Any, str]:
     """The history to search and the YAML text of the calendar it is fitted with.
 
-    Parameters
-    ----------
-    history : path, DataFrame, Series, evcal.io.History or model folder
-        A history file or frame (read by :func:`evcal.io.read_history`), or a
-        folder written by ``evcal fit``.
-    calendar : path, YAML text, Calendar or None
-        None: the model folder's own calendar, or no events for a history.
-    series : str, tuple or dict, optional
-        One series of a panel model folder, in any form
-        :meth:`evcal.panel.PanelResult.find` accepts (``"P1"``,
-        ``"store=S1,product=P1"``, ``("S1", "P1")``, ``{"product": "P1"}``).
-    date_col, value_col, freq
-        As for :func:`evcal.io.read_history`; a model folder has its own
-        columns and frequency (``freq``, when given, must be the model's).
-
-    Returns
-    -------
-    (History, str)
+    The arguments are those of :func:`evcal.discover`; a calendar of None is
+    the model folder's own, or no events for a history.
 
     Raises
     ------
@@ -62,7 +41,6 @@ def read_discover_inputs(history: Any, calendar: Any, *, series: Any = None, dat
 
     Examples
     --------
-    >>> hist, text = read_discover_inputs("models/garden", None)          # doctest: +SKIP
     >>> hist, text = read_discover_inputs("models/all", None, series="P1")  # doctest: +SKIP
     """
     folder = _model_folder(history)
@@ -89,8 +67,7 @@ def _shown(history: Any) -> str:
 def _model_folder(history: Any) -> Path | None:
     """``history`` as a path when it names a folder written by ``evcal fit``, else None.
 
-    A folder with neither ``model.json`` nor ``panel.json`` is left to the
-    history reader, whose message says to name the file inside it.
+    Any other folder is left to the history reader, whose message says to name the file inside it.
     """
     if not isinstance(history, str | Path) or (isinstance(history, str) and "\n" in history):
         return None
@@ -132,12 +109,8 @@ def _some_keys(panel: Any) -> str:
     table = panel.series
     if "status" in table.columns:
         table = table[table["status"] == "fitted"]
-    keys = []
-    for row in table[cols].head(MODEL_SERIES_SHOWN).itertuples(index=False):
-        if len(cols) == 1:
-            keys.append(str(row[0]))
-        else:
-            keys.append(",".join(f"{c}={v}" for c, v in zip(cols, row, strict=True)))
+    keys = [str(row[0]) if len(cols) == 1 else ",".join(f"{c}={v}" for c, v in zip(cols, row, strict=True))
+            for row in table[cols].head(MODEL_SERIES_SHOWN).itertuples(index=False)]
     more = len(table) - len(keys)
     return "; ".join(keys) + (f"; ... ({more} more)" if more > 0 else "")
 
@@ -190,20 +163,13 @@ def calendar_text(calendar: Any) -> str:
     >>> calendar_text(None)
     'name: no events\\n'
     """
-    from evcal.calendar import Calendar, load_calendar
+    from evcal.model.inputs import load_calendar_any
 
-    if calendar is None:
-        return NO_EVENTS
-    if isinstance(calendar, Calendar):
-        text = getattr(calendar, "text", None)
-        if isinstance(text, str):
-            return text
+    text = load_calendar_any(calendar).text  # raises CalendarError with file, line and key
+    if not text:
         raise CalendarError("calendar: this Calendar object has no YAML text; pass the calendar "
                             "file path or its YAML text to discover")
-    load_calendar(calendar)  # raises CalendarError with file, line and key
-    if isinstance(calendar, Path) or (isinstance(calendar, str) and "\n" not in calendar):
-        return Path(calendar).read_text(encoding="utf-8")
-    return str(calendar)
+    return text
 
 
 def with_entries(text: str, **sections: list[dict[str, Any]]) -> str:

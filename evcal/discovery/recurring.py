@@ -38,15 +38,18 @@ import numpy as np
 import pandas as pd
 from dateutil.easter import easter
 
+from evcal.calendar.rules import WEEKDAY_ABBR, nth_weekday
+
 __all__ = ["Finding", "Rule", "Recurring", "find_recurring", "MIN_SHARE"]
 
 #: share of available years a rule must hit ("most years")
 MIN_SHARE = 0.6
+#: fewest years a rule must hit (a rule whose date exists in few years, such as
+#: a 5th Wednesday, must not pass on two coincidences)
 MIN_HITS = 2
 EASTER_RANGE = 70
 WEEKDAY_OFFSETS = 3
 _KIND_ORDER = {"fixed": 0, "weekday": 1, "easter": 2, "week": 3}
-DAY_NAMES = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
 
 
 @dataclass(frozen=True)
@@ -68,25 +71,18 @@ class Rule:
 
     def date(self, year: int) -> dt.date | None:
         """This rule's date in ``year`` (None when it has none)."""
-        if self.kind == "fixed":
-            month, day = self.value
-            if day > _stdcal.monthrange(year, month)[1]:
-                return None
-            return dt.date(year, month, day)
         if self.kind == "easter":
             return easter(year) + dt.timedelta(days=self.value[0])
         if self.kind == "weekday":
             month, weekday, nth, offset = self.value
-            days = [d for d in _month_days(year, month) if d.weekday() == weekday]
-            if nth == -1:
-                return days[-1] + dt.timedelta(days=offset)
-            return days[nth - 1] + dt.timedelta(days=offset) if nth <= len(days) else None
-        if self.kind == "week":
-            try:
-                return dt.date.fromisocalendar(year, self.value[0], 1)
-            except ValueError:
-                return None
-        raise ValueError(f"unknown rule kind {self.kind!r}")
+            day = nth_weekday(year, month, weekday, nth)
+            return None if day is None else day + dt.timedelta(days=offset)
+        try:  # Feb 29 and ISO week 53 are missing in some years
+            if self.kind == "fixed":
+                return dt.date(year, *self.value)
+            return dt.date.fromisocalendar(year, self.value[0], 1)
+        except ValueError:
+            return None
 
     def when(self, middle_year: int) -> dict[str, Any]:
         """The ``when:`` mapping of the calendar contract."""
@@ -96,7 +92,7 @@ class Rule:
             return {"easter": int(self.value[0])}
         if self.kind == "weekday":
             month, weekday, nth, offset = self.value
-            when: dict[str, Any] = {"weekday": {"month": month, "day": DAY_NAMES[weekday], "nth": nth}}
+            when: dict[str, Any] = {"weekday": {"month": month, "day": WEEKDAY_ABBR[weekday], "nth": nth}}
             if offset:
                 when["offset"] = offset
             return when
@@ -105,6 +101,7 @@ class Rule:
         return {"span": {"start": monday.strftime("%m-%d"), "end": sunday.strftime("%m-%d")}}
 
     def describe(self) -> str:
+        """The rule in words (``every Dec 24``, ``2 days after Easter``)."""
         if self.kind == "fixed":
             return f"every {_stdcal.month_abbr[self.value[0]]} {self.value[1]}"
         if self.kind == "easter":
@@ -150,26 +147,20 @@ def _simplicity(rule: Rule) -> int:
 
 def _tied_run(rule: Rule, tied: list[Rule]) -> tuple[Rule, int]:
     """The first rule of the run of consecutive days around ``rule``, and its length."""
+
+    def day(r: Rule) -> int:  # easter offset, or day number in a non-leap year
+        return r.value[0] if r.kind == "easter" else dt.date(2001, *r.value).toordinal()
+
+    days = {day(r) for r in tied}
+    lo = hi = day(rule)
+    while lo - 1 in days:
+        lo -= 1
+    while hi + 1 in days:
+        hi += 1
     if rule.kind == "easter":
-        values = {r.value[0] for r in tied}
-        lo = hi = rule.value[0]
-        while lo - 1 in values:
-            lo -= 1
-        while hi + 1 in values:
-            hi += 1
         return Rule("easter", (lo,)), hi - lo + 1
-    days = {dt.date(2001, *r.value) for r in tied}  # a non-leap year to walk the days
-    day = dt.date(2001, *rule.value)
-    lo = hi = day
-    while lo - dt.timedelta(days=1) in days:
-        lo -= dt.timedelta(days=1)
-    while hi + dt.timedelta(days=1) in days:
-        hi += dt.timedelta(days=1)
-    return Rule("fixed", (lo.month, lo.day)), (hi - lo).days + 1
-
-
-def _month_days(year: int, month: int) -> list[dt.date]:
-    return [dt.date(year, month, d) for d in range(1, _stdcal.monthrange(year, month)[1] + 1)]
+    first = dt.date.fromordinal(lo)
+    return Rule("fixed", (first.month, first.day)), hi - lo + 1
 
 
 def _rules_for_day(day: dt.date) -> list[Rule]:
@@ -190,18 +181,13 @@ def _rules_for_day(day: dt.date) -> list[Rule]:
 
 
 def _period_days(p: pd.Period) -> list[dt.date]:
-    start = p.start_time.normalize().date()
-    end = p.end_time.normalize().date()
-    return [start + dt.timedelta(days=i) for i in range((end - start).days + 1)]
+    return list(pd.date_range(p.start_time.normalize(), p.end_time.normalize(), freq="D").date)
 
 
 def find_recurring(
     findings: Sequence[Finding],
     periods: pd.PeriodIndex,
     in_fit: np.ndarray | None = None,
-    *,
-    min_share: float = MIN_SHARE,
-    min_hits: int | None = None,
 ) -> list[Recurring]:
     """Rules that put unexplained findings of one sign in the same place in most years.
 
@@ -214,12 +200,6 @@ def find_recurring(
         The history's periods.
     in_fit : array of bool, optional
         Periods that were in the fit (others cannot show a finding).
-    min_share : float
-        Share of available years a rule must hit (default 60 %).
-    min_hits : int, optional
-        Years a rule must hit; default half the years of the history, and at
-        least :data:`MIN_HITS` (a rule whose date exists in few years, such as
-        a 5th Wednesday, must not pass on two coincidences).
 
     Returns
     -------
@@ -238,11 +218,10 @@ def find_recurring(
     first_day = periods[0].start_time.normalize().date()
     last_day = periods[-1].end_time.normalize().date()
     years = list(range(first_day.year, last_day.year + 1))
-    if min_hits is None:
-        min_hits = max(MIN_HITS, math.ceil(len(years) / 2))
+    min_hits = max(MIN_HITS, math.ceil(len(years) / 2))
     freq = periods.freq
     position = {p: i for i, p in enumerate(periods)}
-    weekly_or_longer = _period_days(periods[0]).__len__() >= 7
+    weekly_or_longer = len(_period_days(periods[0])) >= 7
 
     results: list[Recurring] = []
     for sign in (+1, -1):
@@ -273,20 +252,19 @@ def find_recurring(
                     if p in by_period:
                         seen.append(y)
                         hit.append(by_period[p])
-                if len(seen) >= min_hits and len(seen) >= min_share * len(available):
+                if len(seen) >= min_hits and len(seen) >= MIN_SHARE * len(available):
                     scored.append((rule, seen, available, hit))
             if not scored:
                 break
-            best_hits = max(len(s[1]) for s in scored)
-            top = [s for s in scored if len(s[1]) == best_hits]
-            fewest_misses = min(len(s[2]) - len(s[1]) for s in top)
-            top = [s for s in top if len(s[2]) - len(s[1]) == fewest_misses]
-            simplest = min(_simplicity(s[0]) for s in top)
-            top = sorted((s for s in top if _simplicity(s[0]) == simplest), key=lambda s: s[0].value)
-            kind = top[0][0].kind
+            # most hits, then fewest misses, then the simplest kind
+            ranks = [(-len(seen), len(available) - len(seen), _simplicity(rule))
+                     for rule, seen, available, _ in scored]
+            best = min(ranks)
+            top = sorted((s for s, r in zip(scored, ranks, strict=True) if r == best),
+                         key=lambda s: s[0].value)
             rule, seen, available, hit = top[(len(top) - 1) // 2]
             length = 1
-            if kind in ("easter", "fixed"):
+            if rule.kind in ("easter", "fixed"):
                 rule, length = _tied_run(rule, [s[0] for s in top if s[1] == seen])
             results.append(Recurring(rule, sign, seen, available, hit, length))
             used = {f.period for f in hit}

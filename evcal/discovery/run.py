@@ -9,7 +9,6 @@ years), and the expected demand with its covariance (for lost demand).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -27,21 +26,19 @@ from evcal.discovery.lost_demand import (
     read_stockouts,
     simulate_lost_demand,
 )
-from evcal.discovery.outliers import OutlierSearch, chen_liu
+from evcal.discovery.outliers import Outlier, OutlierSearch, chen_liu
 from evcal.discovery.recurring import Finding, find_recurring
-from evcal.discovery.suggestion_rows import (
-    abnormal_entries,
-    abnormal_row,
-    cycle_row,
+from evcal.discovery.suggestions import (
+    Entry,
+    abnormal_suggestion,
+    cycle_rows,
     lost_row,
-    no_cycle_row,
-    outlier_entry,
-    outlier_row,
+    outlier_suggestion,
     period_day,
-    recurring_entry,
-    recurring_row,
+    recurring_suggestion,
+    render_yaml,
+    table,
 )
-from evcal.discovery.suggestions import Entry, Row, render_yaml, table
 
 __all__ = ["discover"]
 
@@ -126,71 +123,59 @@ def discover(
     periods: pd.PeriodIndex = result.residuals.index
     in_fit = result.fitted["in_fit"].to_numpy(dtype=bool)
     base = result.fitted["base"].to_numpy(dtype=float)
-    notes: list[str] = []
 
     # cycles: on the values that were fitted (log when multiplicative)
     values = hist.values.where(in_fit)
     cycles = detect_cycles(np.log(values) if result.transform != "none" and (values > 0).all()
                            else values, alpha=alpha)
-
-    search, x_fit, inp = _search(hist, cal, result, cval)
-    rows: list[Row] = [cycle_row(c, hist.freq) for c in cycles] or [no_cycle_row(hist.freq)]
+    rows = cycle_rows(cycles, hist.freq)
     entries: list[Entry] = []
 
-    def size_pct(effect: float, position: int) -> float:
-        if result.transform in ("log", "count") and search is not None and search.scale == "log":
-            return 100.0 * math.expm1(effect)
-        return 100.0 * effect / base[position] if base[position] else float("nan")
+    search, x_fit = _search(hist, cal, result, cval)
+    found = search.outliers if search is not None else []
+
+    def size_pct(o: Outlier) -> float:
+        if result.transform in ("log", "count"):  # the search ran on the log scale
+            return 100.0 * math.expm1(o.effect)
+        return 100.0 * o.effect / base[o.position] if base[o.position] else float("nan")
 
     # one-period findings feed the recurring search
-    findings: list[Finding] = []
-    if search is not None:
-        for o in search.result.outliers:
-            if o.type in ("AO", "TC"):
-                findings.append(Finding(periods[o.position], 1 if o.effect > 0 else -1,
-                                        size_pct(o.effect, o.position), key=o.position))
-    recurring = find_recurring(findings, periods, in_fit)
+    recurring = find_recurring([Finding(periods[o.position], 1 if o.effect > 0 else -1, size_pct(o),
+                                        key=o.position) for o in found if o.type in ("AO", "TC")],
+                               periods, in_fit)
     in_pattern = {f.key: r for r in recurring for f in r.findings}
     middle_year = int(periods[len(periods) // 2].start_time.year)
     for r in recurring:
-        rows.append(recurring_row(r, middle_year))
-        entries.append(recurring_entry(r, middle_year))
+        row, entry = recurring_suggestion(r, middle_year)
+        rows.append(row)
+        entries.append(entry)
 
     # a level shift is a lasting break, not a year's departure: read the years
     # with the shifts found taken out of the residuals
     resid = result.residuals.copy()
-    if search is not None:
-        for o in search.result.outliers:
-            if o.type == "LS":
-                resid.iloc[o.position:] -= o.effect
+    for o in found:
+        if o.type == "LS":
+            resid.iloc[o.position:] -= o.effect
     abnormal = abnormal_years(resid)
     abnormal_set = {a.year for a in abnormal}
-    if search is not None:
-        for o in search.result.outliers:
-            p = periods[o.position]
-            pct = size_pct(o.effect, o.position)
-            r = in_pattern.get(o.position)
-            row = outlier_row(o.type, p, periods, pct, abs(o.tau), r)
-            year = int(p.start_time.year)
-            if r is None and year in abnormal_set:
-                # one abnormal year shows up as a run of breaks; the year row says what to do
-                row = Row(row.kind, row.start, row.end, row.size_pct, row.score, None,
-                          f"within abnormal year {year}: see that row")
-            rows.append(row)
-            if r is None and year not in abnormal_set:
-                entries.append(outlier_entry(o.type, p, pct, abs(o.tau)))
+    for o in found:
+        row, outlier_entry = outlier_suggestion(o, periods, size_pct(o), in_pattern.get(o.position),
+                                                abnormal_set)
+        rows.append(row)
+        entries += [outlier_entry] if outlier_entry is not None else []
 
     effects = pd.DataFrame()
-    if abnormal:
-        effects = _index_effects(hist, text, result, abnormal, fit_options) if index_effects else effects
-        for year in sorted(abnormal_set):
-            flagged = [a for a in abnormal if a.year == year]
-            rows.append(abnormal_row(flagged, result.transform, effects))
-            entries += abnormal_entries(flagged)
+    if abnormal and index_effects:
+        effects = _index_effects(hist, text, result, abnormal, fit_options)
+    for year in sorted(abnormal_set):
+        row, year_entries = abnormal_suggestion([a for a in abnormal if a.year == year], result.transform,
+                                                effects)
+        rows.append(row)
+        entries += year_entries
 
-    lost = _lost_demand(hist, cal, result, x_fit, inp, extra_stockouts)
-    for lo in lost:
-        rows.append(lost_row(lo))
+    lost = _lost_demand(hist, cal, result, x_fit, extra_stockouts)
+    rows += [lost_row(lo) for lo in lost]
+    notes = []
     if any(not is_stockout(e.reason) for e in cal.exclusions) and not lost:
         notes.append("exclusions whose reason does not say stock-out are not counted as lost demand")
 
@@ -200,53 +185,27 @@ def discover(
         "Review each entry, keep what you recognise, and paste it into the calendar's",
         "matching section. Names are placeholders: rename them to what they are.",
     ]
-    return Findings(
-        table=table(rows),
-        yaml=render_yaml(entries, header),
-        cycles=cycles,
-        outliers=search.result if search is not None else None,
-        recurring=recurring,
-        abnormal=abnormal,
-        lost=lost,
-        index_effects=effects,
-        fit=result,
-        source=hist.source,
-        freq=hist.freq,
-        n_periods=len(periods),
-        notes=notes,
-    )
+    return Findings(table=table(rows), yaml=render_yaml(entries, header), cycles=cycles, outliers=search,
+                    recurring=recurring, abnormal=abnormal, lost=lost, index_effects=effects, fit=result,
+                    source=hist.source, freq=hist.freq, n_periods=len(periods), notes=notes)
 
 
-@dataclass
-class _Search:
-    result: OutlierSearch
-    scale: str  # "log" or "units"
-
-
-def _search(hist: Any, cal: Any, result: Any, cval: float | None) -> tuple[_Search | None, Any, Any]:
-    """Chen–Liu on the model scale with the fit's own regressors."""
+def _search(hist: Any, cal: Any, result: Any, cval: float | None) -> tuple[OutlierSearch | None, Any]:
+    """Chen–Liu on the model scale with the fit's own regressors; also the regressors (None for counts)."""
     from evcal.model.inputs import model_scale_response, prepare
 
     inp = prepare(hist, cal, result.options)
-    cols = [c for c in inp.fitted_cols if c in result.params.index]
-    x = inp.design.X[cols]
+    x = inp.design.X[[c for c in inp.fitted_cols if c in result.params.index]]
     order = result.error_model.get("order") or [0, 0, 0]
     ar_order = int(order[0]) if result.error_model.get("kind") == "arima" else 0
-    if result.transform == "log":
-        y = model_scale_response(inp) - inp.offset
-        scale = "log"
-    elif result.transform == "none":
-        y = model_scale_response(inp)
-        scale = "units"
+    if result.transform == "count":
+        # residuals on the log scale where sales are positive
+        y, x = result.residuals.where(np.isfinite(result.residuals)), None
     else:
-        # count model: residuals on the log scale where sales are positive
-        y = result.residuals.where(np.isfinite(result.residuals))
-        x = None
-        scale = "log" if np.isfinite(y).sum() else "units"
+        y = model_scale_response(inp) - inp.offset  # the offset is zero on the units scale
     if int(np.isfinite(np.asarray(y, dtype=float)).sum()) < 12:
-        return None, x, inp
-    found = chen_liu(y, x, cval=cval, ar_order=ar_order)
-    return _Search(found, scale), x, inp
+        return None, x
+    return chen_liu(y, x, cval=cval, ar_order=ar_order), x
 
 
 def _index_effects(hist: Any, text: str, result: Any, abnormal: list[AbnormalYear],
@@ -269,30 +228,23 @@ def _index_effects(hist: Any, text: str, result: Any, abnormal: list[AbnormalYea
     return frame
 
 
-def _lost_demand(hist: Any, cal: Any, result: Any, x_fit: Any, inp: Any,
-                 extra: list[StockOut]) -> list[LostDemand]:
-    windows = [StockOut(pd.Timestamp(e.start), pd.Timestamp(e.end), e.reason)
-               for e in cal.exclusions if is_stockout(e.reason)]
-    windows += [s for s in extra if s not in windows]
-    if not windows:
-        return []
+def _lost_demand(hist: Any, cal: Any, result: Any, x_fit: Any, extra: list[StockOut]) -> list[LostDemand]:
+    """Expected demand against sales in each stock-out window (the calendar's, then ``extra``; once each)."""
+    windows: dict[tuple[pd.Timestamp, pd.Timestamp], StockOut] = {}
+    for w in [StockOut(pd.Timestamp(e.start), pd.Timestamp(e.end), e.reason)
+              for e in cal.exclusions if is_stockout(e.reason)] + extra:
+        windows.setdefault((w.start, w.end), w)
     periods = result.residuals.index
-    p_start = periods.start_time.normalize()
-    p_end = periods.end_time.normalize()
-    expected_all = result.fitted["fitted"].to_numpy(dtype=float)
-    actual_all = hist.values.to_numpy(dtype=float)
+    p_start, p_end = periods.start_time.normalize(), periods.end_time.normalize()
+    expected = result.fitted["fitted"].to_numpy(dtype=float)
+    actual = hist.values.to_numpy(dtype=float)
     cols = list(x_fit.columns) if x_fit is not None else []
     cov = result.cov.reindex(index=cols, columns=cols).to_numpy(dtype=float)
-    x_all = x_fit.to_numpy(dtype=float) if x_fit is not None else np.zeros((len(periods), 0))
+    x = x_fit.to_numpy(dtype=float) if x_fit is not None else np.zeros((len(periods), 0))
     out = []
-    seen: set[tuple[pd.Timestamp, pd.Timestamp]] = set()
-    for w in windows:
-        if (w.start, w.end) in seen:
-            continue
-        seen.add((w.start, w.end))
+    for w in windows.values():
         touched = np.asarray((p_start <= w.end) & (p_end >= w.start))
-        if not touched.any():
-            continue
-        out.append(simulate_lost_demand(w, expected_all[touched], actual_all[touched],
-                                        x_all[touched], cov, float(result.sigma2), result.transform))
+        if touched.any():
+            out.append(simulate_lost_demand(w, expected[touched], actual[touched], x[touched], cov,
+                                            float(result.sigma2), result.transform))
     return out

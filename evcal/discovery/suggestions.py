@@ -1,28 +1,54 @@
 """Findings as a table (``suggestions.csv``) and a calendar fragment (``suggestions.yaml``).
 
-The table has one row per finding, columns exactly :data:`COLUMNS`. The YAML
-fragment holds the same findings in the calendar contract's vocabulary
-(``events``, ``interventions``, ``exclude``), each entry under a comment that
-says what was seen, so a planner can review it and paste what they agree with.
+Each kind of finding (cycle, Chen–Liu effect, recurring pattern, abnormal
+year, lost demand) gets its row of the table, one per finding with columns
+exactly :data:`COLUMNS`, saying in words what a planner can do, and, where
+there is one, the entry to paste: the fragment uses the calendar contract's
+vocabulary (``events``, ``interventions``, ``exclude``), each entry under a
+comment that says what was seen.
 """
 
 from __future__ import annotations
 
 import datetime as dt
+import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, NamedTuple
 
 import pandas as pd
 import yaml
 
-__all__ = ["COLUMNS", "KINDS", "Row", "Entry", "flow_yaml", "render_yaml", "table"]
+from evcal.calendar.rules import WEEKDAY_ABBR
+from evcal.discovery.abnormal import AbnormalYear
+from evcal.discovery.cycles import Cycle
+from evcal.discovery.lost_demand import LostDemand
+from evcal.discovery.outliers import TC_DELTA, Outlier
+from evcal.discovery.recurring import Recurring, Rule
 
-COLUMNS = ["kind", "start", "end", "size_pct", "score", "period", "suggestion"]
+__all__ = [
+    "COLUMNS",
+    "KINDS",
+    "OUTLIER_KINDS",
+    "Entry",
+    "Row",
+    "abnormal_suggestion",
+    "cycle_rows",
+    "describe_pattern",
+    "flow_yaml",
+    "lost_row",
+    "outlier_suggestion",
+    "period_day",
+    "recurring_suggestion",
+    "render_yaml",
+    "table",
+]
+
 KINDS = ("cycle", "outlier", "level_shift", "temporary", "recurring", "abnormal_year", "lost_demand")
+#: the kind of finding each Chen–Liu outlier type is reported as
+OUTLIER_KINDS = {"AO": "outlier", "LS": "level_shift", "TC": "temporary"}
 
 
-@dataclass(frozen=True)
-class Row:
+class Row(NamedTuple):
     """One line of ``suggestions.csv``."""
 
     kind: str
@@ -33,9 +59,8 @@ class Row:
     period: float | None
     suggestion: str
 
-    def __post_init__(self) -> None:
-        if self.kind not in KINDS:
-            raise ValueError(f"unknown finding kind {self.kind!r}")
+
+COLUMNS = list(Row._fields)
 
 
 @dataclass
@@ -50,13 +75,8 @@ class Entry:
 
 def table(rows: list[Row]) -> pd.DataFrame:
     """The suggestions table, columns in contract order."""
-    frame = pd.DataFrame(
-        [(r.kind, r.start, r.end, r.size_pct, r.score, r.period, r.suggestion) for r in rows],
-        columns=COLUMNS,
-    )
-    frame["period"] = frame["period"].astype("Float64")
-    frame["size_pct"] = frame["size_pct"].astype("Float64")
-    return frame
+    frame = pd.DataFrame(rows, columns=COLUMNS)
+    return frame.astype({"period": "Float64", "size_pct": "Float64"})
 
 
 def flow_yaml(mapping: dict[str, Any]) -> str:
@@ -88,3 +108,172 @@ def render_yaml(entries: list[Entry], header: list[str]) -> str:
     if not entries:
         lines.append("# nothing to suggest: no finding beyond what the calendar explains")
     return "\n".join(lines) + "\n"
+
+
+def period_day(p: pd.Period, end: bool = False) -> dt.date:
+    """The first (or, with ``end``, the last) day of period ``p``.
+
+    Examples
+    --------
+    >>> period_day(pd.Period("2024-02", "M"), end=True)
+    datetime.date(2024, 2, 29)
+    """
+    return (p.end_time if end else p.start_time).normalize().date()
+
+
+def cycle_rows(cycles: list[Cycle], freq: str) -> list[Row]:
+    """A row per cycle found, compared with the cycle the fit assumes for ``freq``, or one saying none."""
+    from evcal.design.seasonal import cycle_length
+
+    if not cycles:
+        return [Row("cycle", None, None, None, 0.0, None,
+                    "no clear cycle: no periodogram peak passed Fisher's g test and the ACF check; "
+                    "the seasonal index may be mostly noise")]
+    assumed = cycle_length(freq)
+    rows = []
+    for c in cycles:
+        note = (f"seasonal cycle of {c.period:.1f} periods (ACF {c.acf:.2f} at lag {c.lag}, "
+                f"Fisher p {c.p_value:.1g}); explains {100 * c.strength:.0f}% of the detrended variance")
+        if abs(c.period - assumed) <= 0.05 * assumed:
+            note += f"; the fit's seasonal terms use {assumed}"
+        elif any(abs(c.period * h - assumed) <= 0.05 * assumed for h in range(2, 8)):
+            note += f"; a sub-cycle of the {assumed}-period year the fit uses"
+        else:
+            note += f"; the fit assumes {assumed} periods a year: check the frequency or the data"
+        rows.append(Row("cycle", None, None, None, round(c.strength, 4), round(c.period, 2), note))
+    return rows
+
+
+def _rule_slug(rule: Rule) -> str:
+    if rule.kind == "easter":
+        k = rule.value[0]
+        return "easter" if k == 0 else f"easter-{'plus' if k > 0 else 'minus'}-{abs(k)}"
+    if rule.kind == "fixed":
+        return f"{rule.value[0]:02d}-{rule.value[1]:02d}"
+    if rule.kind == "weekday":
+        m, w, n, offset = rule.value
+        slug = (f"{dt.date(2000, m, 1).strftime('%b').lower()}-"
+                f"{WEEKDAY_ABBR[w]}-{'last' if n == -1 else n}")
+        return slug + (f"-{'plus' if offset > 0 else 'minus'}-{abs(offset)}" if offset else "")
+    return f"week-{rule.value[0]}"
+
+
+def describe_pattern(r: Recurring) -> str:
+    """A recurring pattern's date rule in words (``every Dec 24``, ``from ..., 3 days``)."""
+    if r.length > 1:
+        return f"from {r.rule.describe()}, {r.length} days"
+    return r.rule.describe()
+
+
+def recurring_suggestion(r: Recurring, middle_year: int) -> tuple[Row, Entry]:
+    """The row of a recurring pattern and the event to paste (its rule dated as in ``middle_year``)."""
+    what = "peak" if r.sign > 0 else "dip"
+    years = f"{len(r.years_seen)} of {len(r.years_available)} years"
+    seen = ", ".join(map(str, r.years_seen))
+    when = r.rule.when(middle_year)
+    row = Row(
+        "recurring", period_day(min(f.period for f in r.findings)),
+        period_day(max(f.period for f in r.findings), end=True), round(r.mean_size_pct, 2),
+        round(r.share, 3), None,
+        f"unexplained {what} {describe_pattern(r)} in {years} ({seen}): add an event "
+        f"with when: {flow_yaml(when)}" + (f", length: {r.length}" if r.length > 1 else ""))
+    mapping: dict[str, Any] = {"name": f"unexplained-{what}-{_rule_slug(r.rule)}", "when": when}
+    if r.length > 1:
+        mapping["length"] = r.length
+    return row, Entry("events", mapping, [f"{what} of {r.mean_size_pct:+.0f}% on average, "
+                                          f"{describe_pattern(r)}, seen in {years}: {seen}"])
+
+
+def outlier_suggestion(o: Outlier, periods: pd.PeriodIndex, pct: float, pattern: Recurring | None,
+                       abnormal: set[int]) -> tuple[Row, Entry | None]:
+    """The row of one Chen–Liu effect of ``pct`` percent, and the intervention to paste.
+
+    No intervention when a recurring ``pattern`` or an ``abnormal`` year
+    explains the effect: the row then points there.
+    """
+    p = periods[o.position]
+    score = abs(o.tau)
+    start, end = period_day(p), period_day(p, end=True)
+    tau = f"Chen-Liu |tau| {score:.1f}"
+    if o.type == "LS":
+        end = None
+        text = (f"level shift of {pct:+.1f}% from {start}: add intervention type level_shift "
+                "(a refit, a new competitor, a price change?)")
+        entry = Entry("interventions", {"name": f"shift-{start}", "type": "level_shift", "start": start},
+                      [f"level shift of {pct:+.1f}% from {start} ({tau})"])
+    elif o.type == "TC":
+        # the period by which the change has faded below 10 % (0.7^7 < 0.1)
+        end = period_day(periods[min(o.position + 6, len(periods) - 1)], end=True)
+        text = (f"temporary change of {pct:+.1f}% at {start}, fading 30% a period: "
+                "add intervention type temporary, decay 0.7")
+        entry = Entry("interventions", {"name": f"change-{start}", "type": "temporary", "start": start,
+                                        "decay": TC_DELTA},
+                      [f"temporary change of {pct:+.1f}% at {start}, fading 30% a period ({tau})"])
+    else:
+        what = "peak" if pct > 0 else "dip"
+        text = (f"one-period {what} of {pct:+.1f}%: if it was a known one-off (promotion, "
+                "closure, data error), add it to the calendar; otherwise a pulse intervention")
+        entry = Entry("interventions", {"name": f"{what}-{start}", "type": "pulse", "start": start,
+                                        "end": end},
+                      [f"one-period {what} of {pct:+.1f}% ({tau}); if it was an "
+                       "event (a promotion, a closure), put it under events instead"])
+    year = int(p.start_time.year)
+    if pattern is not None:
+        text, entry = f"part of the recurring pattern {describe_pattern(pattern)}", None
+    elif year in abnormal:
+        # one abnormal year shows up as a run of breaks; the year row says what to do
+        text, entry = f"within abnormal year {year}: see that row", None
+    return Row(OUTLIER_KINDS[o.type], start, end, round(pct, 2), round(score, 2), None, text), entry
+
+
+def abnormal_suggestion(flagged: list[AbnormalYear], transform: str,
+                        effects: pd.DataFrame) -> tuple[Row, list[Entry]]:
+    """The row of one abnormal year (flagged on level, spread or both) and its exclusion to paste.
+
+    A level departure also gets a pulse over the year, written commented out
+    as the alternative to the exclusion.
+    """
+    a = flagged[0]
+    level = next((x for x in flagged if x.kind == "level"), None)
+    spread = next((x for x in flagged if x.kind == "spread"), None)
+    parts = []
+    size = None
+    if level is not None and transform != "none":
+        size = round(100.0 * math.expm1(level.value), 2)
+        parts.append(f"sits {size:+.1f}% off the other years (z {level.z:+.1f})")
+    elif level is not None:
+        parts.append(f"sits {level.value:+.3g} units off the other years (z {level.z:+.1f})")
+    if spread is not None:
+        parts.append(f"is erratic (residual sd {spread.value:.1f} times the other years', "
+                     f"z {spread.z:+.1f})")
+    text = f"{a.year} " + " and ".join(parts) + ": exclude the year"
+    if level is not None:
+        text += " or add a pulse over it"
+    shifts = {f"excluded {a.year}": "; excluding it moves the seasonal index by up to {:.1f} points",
+              f"pulse {a.year}": ", a pulse by up to {:.1f}"}
+    for label, words in shifts.items():
+        if label in effects.columns:
+            text += words.format((effects[label] - effects["index"]).abs().max())
+    score = max(abs(x.z) for x in flagged)
+    row = Row("abnormal_year", a.start.date(), a.end.date(), size, round(score, 2), None, text)
+
+    span = {"start": a.start.date(), "end": a.end.date()}
+    seen = (f"{a.year}: residual {' and '.join(x.kind for x in flagged)} departs from the other "
+            f"years (z {', '.join(f'{x.z:+.1f}' for x in flagged)})")
+    entries = [Entry("exclude", {**span, "reason": f"abnormal year {a.year}"},
+                     [seen] + (["choose one: this exclusion or the pulse under interventions"]
+                               if level is not None else []))]
+    if level is not None:
+        entries.append(Entry("interventions", {"name": f"year-{a.year}", "type": "pulse", **span},
+                             [f"{seen}; alternative to excluding it"], active=False))
+    return row, entries
+
+
+def lost_row(lo: LostDemand) -> Row:
+    """The row of the demand lost in one stock-out window."""
+    return Row(
+        "lost_demand", lo.start.date(), lo.end.date(), round(-lo.lost_pct, 2),
+        round(lo.lost / max((lo.expected_high - lo.expected_low) / 3.92, 1e-9), 2), None,
+        f"{lo.reason}: expected {lo.expected:,.0f} units (95% {lo.expected_low:,.0f} to "
+        f"{lo.expected_high:,.0f}) over {lo.periods} periods, sold {lo.actual:,.0f}: about "
+        f"{lo.lost:,.0f} units lost ({lo.lost_low:,.0f} to {lo.lost_high:,.0f})")

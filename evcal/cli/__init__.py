@@ -2,8 +2,7 @@
 
 :mod:`evcal.cli.console` holds the typer ``app``, the error handling
 (:func:`guarded`) and the console entry point (:func:`main`);
-:mod:`evcal.cli.options` the options several commands share;
-:mod:`evcal.cli.commands` the commands, registered on the app when imported here.
+:mod:`evcal.cli.commands` the commands and their shared options, registered on the app when imported here.
 
 Examples
 --------

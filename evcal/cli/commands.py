@@ -6,17 +6,67 @@ Registered on the app in the order ``evcal --help`` lists them.
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Annotated, Any
 
 import typer
 
 from evcal._files import atomic_path
-from evcal.cli import options as opt
 from evcal.cli.console import calendar_app, command
 from evcal.errors import CalendarError, EvcalError, PlanError
 from evcal.outputs import check_output
 
 __all__ = ["backtest_cmd", "calendar_check", "calendar_dates", "demo_cmd", "discover_cmd", "fit_cmd",
-           "plan_cmd", "report_command", "show_cmd"]
+           "fit_options", "parse_order", "plan_cmd", "report_command", "show_cmd"]
+
+
+# the options several commands share: one definition each, so names, defaults and help never drift apart
+DateCol = Annotated[str, typer.Option("--date-col", help="Column with the period dates.")]
+ValueCol = Annotated[str, typer.Option("--value-col", help="Column with the values.")]
+Freq = Annotated[str | None, typer.Option("--freq", help="daily, weekly, W-SAT, monthly, quarterly.")]
+Transform = Annotated[str, typer.Option("--transform", help="auto | log | none | count")]
+Errors = Annotated[str, typer.Option("--errors", help="auto | ols | arima")]
+ArimaOrder = Annotated[str | None, typer.Option("--arima-order", help="p,d,q for errors arima, e.g. 0,1,1")]
+Seasonal = Annotated[str, typer.Option("--seasonal", help="auto | dummies | fourier")]
+FourierOrder = Annotated[int, typer.Option("--fourier-order", help="Harmonics of annual Fourier terms.")]
+TrendOrder = Annotated[int, typer.Option("--trend-order", help="0 flat, 1 linear, 2 quadratic.")]
+TradingDays = Annotated[bool, typer.Option("--trading-days", help="Weekday-composition terms (monthly).")]
+AllowNegative = Annotated[bool, typer.Option("--allow-negative", help="Accept negative values.")]
+Force = Annotated[bool, typer.Option(
+    "--force", help="Replace evcal's own output of another kind or version at --out (never a file or "
+    "folder evcal did not write, never an input).")]
+
+
+def parse_order(text: str | None) -> tuple[int, int, int] | None:
+    """The ``--arima-order`` text ``p,d,q`` as three integers (None when not given).
+
+    Examples
+    --------
+    >>> parse_order("1,0,1")
+    (1, 0, 1)
+    """
+    if text is None:
+        return None
+    try:
+        parts = tuple(int(v) for v in text.split(","))
+    except ValueError:
+        parts = ()
+    if len(parts) != 3:
+        raise EvcalError(f"option --arima-order: {text!r} is not three integers p,d,q (e.g. 1,0,0)")
+    return parts  # type: ignore[return-value]
+
+
+def fit_options(transform: str, errors: str, arima_order: str | None, seasonal: str, fourier_order: int,
+                trend_order: int, trading_days: bool, allow_negative: bool) -> dict[str, Any]:
+    """The fit options of a command line, as keyword arguments of :func:`evcal.fit`.
+
+    Examples
+    --------
+    >>> fit_options("auto", "ols", None, "auto", 10, 1, False, False)["errors"]
+    'ols'
+    """
+    return {"transform": transform, "errors": errors, "arima_order": parse_order(arima_order),
+            "seasonal": seasonal, "fourier_order": fourier_order, "trend_order": trend_order,
+            "trading_days": trading_days, "allow_negative": allow_negative}
 
 
 @command("fit")
@@ -24,29 +74,29 @@ def fit_cmd(
     history: str = typer.Argument(..., help="History file: CSV, Parquet or .xlsx."),
     calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML)."),
     out: str = typer.Option(..., "--out", "-o", help="Output folder for the model."),
-    date_col: opt.DateCol = "date",
-    value_col: opt.ValueCol = "value",
-    freq: opt.Freq = None,
-    transform: opt.Transform = "auto",
-    errors: opt.Errors = "auto",
-    arima_order: opt.ArimaOrder = None,
-    seasonal: opt.Seasonal = "auto",
-    fourier_order: opt.FourierOrder = 10,
-    trend_order: opt.TrendOrder = 1,
-    trading_days: opt.TradingDays = False,
-    allow_negative: opt.AllowNegative = False,
+    date_col: DateCol = "date",
+    value_col: ValueCol = "value",
+    freq: Freq = None,
+    transform: Transform = "auto",
+    errors: Errors = "auto",
+    arima_order: ArimaOrder = None,
+    seasonal: Seasonal = "auto",
+    fourier_order: FourierOrder = 10,
+    trend_order: TrendOrder = 1,
+    trading_days: TradingDays = False,
+    allow_negative: AllowNegative = False,
     series_col: list[str] = typer.Option(
         None, "--series-col", help="Key column(s) of a long file, one series per key (repeat, or a,b)."),
     level: str = typer.Option(None, "--level", help="Add the series up to these key columns first (a,b)."),
     group_col: str = typer.Option(None, "--group-col", help="Column grouping series for pooled lifts."),
     workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
-    force: opt.Force = False,
+    force: Force = False,
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
     panel = bool(series_col or level or group_col or workers or scheduler)
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
-    options = opt.fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
+    options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                               trading_days, allow_negative)
     if panel:  # many series: evcal.panel
         from evcal.panel.cli_support import fit_panel_cmd
@@ -101,7 +151,7 @@ def plan_cmd(
     allocate: str | None = typer.Option(
         None, "--allocate", help="Panel models: spread the plan over this child panel model."),
     workers: int | None = typer.Option(None, "--workers", help="Panel models: plan on N processes."),
-    force: opt.Force = False,
+    force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
     from evcal.panel.result import is_panel_dir
@@ -142,18 +192,18 @@ def backtest_cmd(
     calendar: str = typer.Option(..., "--calendar", "-c", help="Event calendar (YAML)."),
     out: str = typer.Option(..., "--out", "-o", help="backtest.csv to write."),
     holdout_years: int = typer.Option(2, "--holdout-years", help="Last full years to hold out, one each."),
-    date_col: opt.DateCol = "date",
-    value_col: opt.ValueCol = "value",
-    freq: opt.Freq = None,
-    transform: opt.Transform = "auto",
-    errors: opt.Errors = "auto",
-    arima_order: opt.ArimaOrder = None,
-    seasonal: opt.Seasonal = "auto",
-    fourier_order: opt.FourierOrder = 10,
-    trend_order: opt.TrendOrder = 1,
-    trading_days: opt.TradingDays = False,
-    allow_negative: opt.AllowNegative = False,
-    force: opt.Force = False,
+    date_col: DateCol = "date",
+    value_col: ValueCol = "value",
+    freq: Freq = None,
+    transform: Transform = "auto",
+    errors: Errors = "auto",
+    arima_order: ArimaOrder = None,
+    seasonal: Seasonal = "auto",
+    fourier_order: FourierOrder = 10,
+    trend_order: TrendOrder = 1,
+    trading_days: TradingDays = False,
+    allow_negative: AllowNegative = False,
+    force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
     from evcal.formula_safe import write_csv
@@ -164,7 +214,7 @@ def backtest_cmd(
 
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
                   value_col=value_col, freq=freq,
-                  **opt.fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
+                  **fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                                     trading_days, allow_negative))
     with atomic_path(out) as tmp:
         write_csv(bt, tmp, index=False, float_format="%.6f")
@@ -180,7 +230,7 @@ def backtest_cmd(
 def demo_cmd(
     out: str = typer.Option("demo-output", "--out", "-o", help="Folder for every demo output."),
     data: str = typer.Option(None, "--data", help="Folder with the demo history and calendar."),
-    force: opt.Force = False,
+    force: Force = False,
 ) -> None:
     """Run the whole job on the bundled, invented demo data (Fernhollow Garden Centres)."""
     from evcal.demo import run_demo
@@ -199,7 +249,7 @@ def report_command(
     title: str | None = typer.Option(None, "--title", help="Heading of the report."),
     series: list[str] = typer.Option(
         None, "--series", help="Panel models: a section for these series (repeat; the first 12 by default)."),
-    force: opt.Force = False,
+    force: Force = False,
 ) -> None:
     """Write one HTML report: history, seasonal index, lifts, plan, calendar, backtest."""
     check_output(out, "report", inputs=[model_dir, plan, backtest, calendar], force=force)
@@ -217,14 +267,14 @@ def discover_cmd(
     calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML), if any."),
     out: str = typer.Option(..., "--out", "-o", help="Output folder for the suggestions."),
     stockouts: str = typer.Option(None, "--stockouts", help="CSV of stock-outs: start,end[,reason]."),
-    date_col: opt.DateCol = "date",
-    value_col: opt.ValueCol = "value",
-    freq: opt.Freq = None,
-    transform: opt.Transform = "auto",
-    errors: opt.Errors = "auto",
+    date_col: DateCol = "date",
+    value_col: ValueCol = "value",
+    freq: Freq = None,
+    transform: Transform = "auto",
+    errors: Errors = "auto",
     critical: float = typer.Option(None, "--critical", help="Chen-Liu critical |tau| (default by length)."),
     series: str = typer.Option(None, "--series", help="Panel model folders: the one series to look into."),
-    force: opt.Force = False,
+    force: Force = False,
 ) -> None:
     """Find cycles, unexplained peaks, dips and breaks, abnormal years and lost demand."""
     check_output(out, "findings", inputs=[history, calendar, stockouts], force=force)
@@ -276,7 +326,7 @@ def calendar_dates(
     from_year: int = typer.Option(..., "--from", help="First year (inclusive)."),
     to_year: int = typer.Option(..., "--to", help="Last year (inclusive)."),
     out: str | None = typer.Option(None, "--out", help="CSV file to write (default: print to stdout)."),
-    force: opt.Force = False,
+    force: Force = False,
 ) -> None:
     """List every occurrence (event, start, end, strength) between two years, as CSV."""
     from evcal.calendar import load_calendar

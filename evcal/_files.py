@@ -1,22 +1,16 @@
-"""Atomic output: write to a temporary sibling, then rename into place.
+"""Atomic output: write to a temporary sibling, then rename into place (atomic on one filesystem).
 
-A failed run must leave nothing half written, so every output goes through
-these helpers. The rename is atomic on the same filesystem. The temporary
-file or folder is made private (as ``tempfile`` makes it); the finished one
-gets the permissions a plain ``open`` or ``mkdir`` would have given it (the
-process umask), so a plan written to a shared folder can be read there.
+A failed run leaves nothing half written. The temporary file or folder is
+private while written (as ``tempfile`` makes it); the finished one gets the
+permissions a plain ``open`` or ``mkdir`` would give under the process umask.
 
-Every folder evcal writes carries a marker file, :data:`MARKER`
-(``evcal-output.json``): who wrote it, what kind of output it is, the format
-version and every file evcal put there. That is how evcal knows a folder is
-its own before it replaces it; a folder that is not evcal's, or that holds a
-file evcal did not write, is never replaced (:class:`~evcal.errors.OutputError`).
-
-Temporary siblings are named ``.evcal-tmp.<name>.<pid>.<random>`` (and a
-folder being swapped out ``.evcal-old.<name>.<pid>.<random>``), so the
-leftovers of a save that was killed (SIGKILL, power cut) are recognisably
-evcal's: the next write to the same target removes those whose process is no
-longer alive and leaves everything else alone.
+Every folder evcal writes carries :data:`MARKER` (``evcal-output.json``): its
+kind, format version and every file evcal put there. A folder that is not
+evcal's, or holds a file evcal did not write, is never replaced
+(:class:`~evcal.errors.OutputError`). Temporary siblings are named
+``.evcal-tmp.<name>.<pid>.<random>`` (a folder being swapped out
+``.evcal-old.``...), so the next write to the same target can remove those
+of a killed save whose process is gone, and nothing else.
 """
 
 from __future__ import annotations

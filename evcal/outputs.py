@@ -21,6 +21,7 @@ is wrong and what to do instead.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import re
 import zipfile
@@ -28,7 +29,7 @@ from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
-from evcal._files import FOLDER_KINDS, MARKER_VERSION, folder_owner, foreign_problem
+from evcal._files import FOLDER_KINDS, MARKER_VERSION, _temp_name, folder_owner, foreign_problem
 from evcal.errors import OutputError
 
 __all__ = ["FILE_KINDS", "FOLDER_KINDS", "KINDS", "check_output", "file_kind"]
@@ -47,10 +48,11 @@ _WHAT = {"model": "model folder", "panel": "panel model folder", "findings": "fi
 
 # Header rows of the CSV files evcal writes (DESIGN.md "Outputs — contract", evcal.backtesting.COLUMNS,
 # evcal.plan.scenarios); kept here as text so this check imports nothing heavy.
-_DATES_HEADER = ["event", "start", "end", "strength"]
-_BACKTEST_HEADER = ["year", "method", "spread", "wape", "bias", "peak_error"]
-_COMPARE_HEADER = ["date", "plan_a", "plan_b", "difference"]
-_PLAN_RUNS = (["date", "base", "plan", "low", "high"], ["date", "share", "base", "plan", "low", "high"])
+_CSV_HEADERS = {("event", "start", "end", "strength"): "dates",
+                ("year", "method", "spread", "wape", "bias", "peak_error"): "backtest",
+                ("date", "plan_a", "plan_b", "difference"): "compare"}
+#: a plan's columns (a panel plan puts its key columns first)
+_PLAN_RUNS = (("date", "base", "plan", "low", "high"), ("date", "share", "base", "plan", "low", "high"))
 #: sheet names of evcal's workbooks (evcal.plan.workbook.SHEETS + Notes; a compare; a plain plan)
 _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Notes"): "plan",
                     ("Plan",): "plan", ("Scenarios",): "compare"}
@@ -61,18 +63,10 @@ _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Not
 
 def _csv_kind(head: str) -> str | None:
     line = head.lstrip("\ufeff").split("\n", 1)[0].rstrip("\r")
-    cols = [c.strip().strip('"') for c in line.split(",")]
-    if cols == _DATES_HEADER:
-        return "dates"
-    if cols == _BACKTEST_HEADER:
-        return "backtest"
-    if cols == _COMPARE_HEADER:
-        return "compare"
-    for run in _PLAN_RUNS:  # a panel plan puts its key columns first
-        for i in range(len(cols) - len(run) + 1):
-            if cols[i:i + len(run)] == run:
-                return "plan"
-    return None
+    cols = tuple(c.strip().strip('"') for c in line.split(","))
+    if any(cols[i:i + len(run)] == run for run in _PLAN_RUNS for i in range(len(cols))):
+        return "plan"
+    return _CSV_HEADERS.get(cols)
 
 
 def _workbook_kind(path: Path) -> str | None:
@@ -136,26 +130,17 @@ def _suggest(near: Path, kind: str) -> str:
     return str(near / name)
 
 
-def _paths(inputs: Iterable[Any]) -> list[Path]:
-    found = []
-    for item in inputs:
-        if isinstance(item, str | os.PathLike) and str(item) and "://" not in str(item):
-            found.append(Path(item))
-    return found
-
-
 def _same(a: Path, b: Path) -> bool:
     if a.exists() and b.exists():
-        try:
+        with contextlib.suppress(OSError):
             return os.path.samefile(a, b)
-        except OSError:
-            pass
     return a.resolve() == b.resolve()
 
 
-def _check_inputs(out: Path, inputs: list[Path], kind: str) -> None:
+def _check_inputs(out: Path, inputs: Iterable[Any], kind: str) -> None:
     real_out = out.resolve()
-    for inp in inputs:
+    paths = [Path(i) for i in inputs if isinstance(i, str | os.PathLike) and str(i) and "://" not in str(i)]
+    for inp in paths:
         real_in = inp.resolve()
         if _same(out, inp):
             raise OutputError(f"--out {out}: is an input of this command ({inp}); evcal never writes over "
@@ -168,15 +153,13 @@ def _check_inputs(out: Path, inputs: list[Path], kind: str) -> None:
                               f"{_WHAT[kind]} outside it, e.g. {_suggest(inp.parent, kind)}")
 
 
-def _check_parent(out: Path, kind: str) -> None:
+def _check_parent(out: Path) -> None:
     parent = out.parent
     if not parent.exists():
         raise OutputError(f"--out {out}: the folder {parent} does not exist; create it first or choose "
                           "an existing folder")
     if not parent.is_dir():
         raise OutputError(f"--out {out}: {parent} is a file, not a folder; choose a path in a folder")
-    from evcal._files import _temp_name
-
     probe = _temp_name(out, suffix=out.suffix)
     try:  # really write: os.access says yes to root on a read-only share, and on /sys
         fd = os.open(probe, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
@@ -229,9 +212,7 @@ def check_output(out: str | Path, kind: str, inputs: Iterable[Any] = (), force: 
     out : path
         The ``--out`` the user gave.
     kind : str
-        What the command writes: a folder (``model``, ``panel``, ``findings``,
-        ``demo``) or a file (``plan``, ``compare``, ``backtest``, ``dates``,
-        ``report``).
+        What the command writes: a folder (:data:`FOLDER_KINDS`) or a file (:data:`FILE_KINDS`).
     inputs : paths
         Every file or folder the command reads (None and non-paths are skipped).
     force : bool
@@ -264,8 +245,8 @@ def check_output(out: str | Path, kind: str, inputs: Iterable[Any] = (), force: 
     if out is None or not str(out).strip():
         raise OutputError(f"--out: empty; name a new {_WHAT[kind]} such as {_DEFAULT_NAME[kind]}")
     out = Path(out)
-    _check_inputs(out, _paths(inputs), kind)
+    _check_inputs(out, inputs, kind)
     if out.exists() or out.is_symlink():
         (_check_folder if kind in FOLDER_KINDS else _check_file)(out, kind, force)
-    _check_parent(out, kind)
+    _check_parent(out)
     return out

@@ -1,11 +1,9 @@
 """The typer app, its error handling and the console entry point.
 
-Every command is wrapped in :func:`guarded`: an
-:class:`~evcal.errors.EvcalError` becomes one line per problem on stderr and
-exit code 2; any other exception one line naming the command and its inputs,
-exit code 1. No traceback reaches the user unless asked for
-(``evcal --debug ...`` or ``EVCAL_DEBUG=1``). The commands themselves live in
-the sibling modules, one per group.
+Every command is registered with :func:`command`, which wraps it in :func:`guarded`: an
+:class:`~evcal.errors.EvcalError` becomes one line per problem on stderr and exit code 2; any
+other exception one line naming the command and its inputs, exit code 1. No traceback reaches
+the user unless asked for (``evcal --debug ...`` or ``EVCAL_DEBUG=1``).
 """
 
 from __future__ import annotations
@@ -23,7 +21,7 @@ import typer
 
 from evcal.errors import EvcalError, clip
 
-__all__ = ["app", "calendar_app", "guarded", "last_resort_line", "main"]
+__all__ = ["app", "calendar_app", "command", "guarded", "last_resort_line", "main"]
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -50,21 +48,11 @@ def _root(
     debug: bool = typer.Option(
         False, "--debug", help="Show the traceback of an unexpected problem (as EVCAL_DEBUG=1 does)."),
 ) -> None:
-    """Calendar-effect models: event lifts, a clean seasonal base, forward plans."""
     _DEBUG["on"] = debug
 
 
 def _debug() -> bool:
     return _DEBUG["on"] or bool(os.environ.get("EVCAL_DEBUG"))
-
-
-def _command_name(callback: Callable[..., Any]) -> str:
-    """``evcal fit``, ``evcal calendar dates``: the command registered with ``callback``."""
-    for prefix, group in (("evcal", app), ("evcal calendar", calendar_app)):
-        for info in group.registered_commands:
-            if info.callback is callback:
-                return f"{prefix} {info.name or callback.__name__}"
-    return "evcal"
 
 
 def last_resort_line(err: BaseException, command: str, inputs: list[str]) -> str:
@@ -93,17 +81,9 @@ please report this with the command line and the input files (add --debug to see
     return f"{command}: unexpected problem ({detail}){shown}; {_REPORT} ({debug})"
 
 
-def guarded(fn: F) -> F:
+def guarded(fn: F, name: str = "evcal") -> F:
     """Turn user-fixable errors into one line each on stderr and exit code 2; anything else into one
-    line naming the command and its inputs and exit code 1 (the last-resort handler).
-
-    Examples
-    --------
-    >>> @app.command("hello")                                   # doctest: +SKIP
-    ... @guarded
-    ... def hello_cmd(name: str) -> None:
-    ...     typer.echo(f"hello {name}")
-    """
+    line naming the command ``name`` and its inputs and exit code 1 (the last-resort handler)."""
 
     @functools.wraps(fn)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
@@ -122,10 +102,23 @@ def guarded(fn: F) -> F:
             if _debug():
                 typer.echo(traceback.format_exc(), err=True, nl=False)
             inputs = [str(kwargs[k]) for k in _INPUT_PARAMS if isinstance(kwargs.get(k), str) and kwargs[k]]
-            typer.echo(f"error: {last_resort_line(err, _command_name(wrapper), inputs)}", err=True)
+            typer.echo(f"error: {last_resort_line(err, name, inputs)}", err=True)
             raise typer.Exit(code=1) from None
 
     return wrapper  # type: ignore[return-value]
+
+
+def command(name: str, group: typer.Typer = app) -> Callable[[F], F]:
+    """Register a command ``evcal NAME`` (or ``evcal calendar NAME``), :func:`guarded`.
+
+    Examples
+    --------
+    >>> @command("hello")                                       # doctest: +SKIP
+    ... def hello_cmd(name: str) -> None:
+    ...     typer.echo(f"hello {name}")
+    """
+    prefix = "evcal calendar" if group is calendar_app else "evcal"
+    return lambda fn: group.command(name)(guarded(fn, f"{prefix} {name}"))
 
 
 def main() -> None:
@@ -135,11 +128,6 @@ def main() -> None:
     :func:`guarded`) still ends in one line and exit code 1; with ``--debug``
     or ``EVCAL_DEBUG=1`` its traceback is shown first. A reader that stops
     early (``evcal calendar dates ... | head``) ends the output quietly.
-
-    Examples
-    --------
-    >>> sys.argv = ["evcal", "calendar", "check", "cal.yaml"]  # doctest: +SKIP
-    >>> main()                                                  # doctest: +SKIP
     """
     try:
         app()

@@ -38,7 +38,7 @@ import numpy as np
 import pandas as pd
 from dateutil.easter import easter
 
-from evcal.calendar.rules import WEEKDAY_ABBR, nth_weekday
+from evcal.calendar.rules import WEEKDAY_ABBR, WeekdayRule
 
 __all__ = ["Finding", "Rule", "Recurring", "find_recurring", "MIN_SHARE"]
 
@@ -75,8 +75,8 @@ class Rule:
             return easter(year) + dt.timedelta(days=self.value[0])
         if self.kind == "weekday":
             month, weekday, nth, offset = self.value
-            day = nth_weekday(year, month, weekday, nth)
-            return None if day is None else day + dt.timedelta(days=offset)
+            hits = WeekdayRule(month, weekday, nth).hits(year)
+            return hits[0].start + dt.timedelta(days=offset) if hits else None
         try:  # Feb 29 and ISO week 53 are missing in some years
             if self.kind == "fixed":
                 return dt.date(year, *self.value)

@@ -353,8 +353,3 @@ def atomic_dir(target: str | Path, kind: str | None = None) -> Iterator[Path]:
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
-
-
-def readable(path: Path) -> None:
-    """Give a temporary file the permissions of a plain write (:func:`atomic_path` does it on rename)."""
-    _as_created(path, 0o666)

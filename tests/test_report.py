@@ -27,9 +27,10 @@ from evcal.calendar import load_calendar
 from evcal.cli import app
 from evcal.errors import ModelError
 from evcal.formula_safe import formula_safe_frame, unguard_frame
+from evcal.plan.summary import average_share_plan
 from evcal.report import write_report
 from evcal.report.calendar_view import calendar_data, event_of_column, weights_from_plan
-from evcal.report.headlines import average_share_plan, headlines
+from evcal.report.headlines import headlines
 from evcal.report.model_folder import read_model_folder
 from evcal.report.model_sections import added_by_year
 from evcal.report.review_sections import ratio_as_percent
@@ -549,15 +550,12 @@ def test_other_frequencies(tmp_path: Path, freq: str, periods: int, cycle: int, 
 
 def test_average_share_plan_by_hand() -> None:
     # Worked by hand: 2027 total 300 spread 0.2/0.3/0.5 -> 60/90/150; 2028's one month keeps its 40.
-    plan = pd.DataFrame(
-        {
-            "date": pd.to_datetime(["2027-01-01", "2027-02-01", "2027-03-01", "2028-01-01"]),
-            "plan": [100.0, 100.0, 100.0, 40.0],
-        }
-    )
-    got = average_share_plan(plan, "MS", {"1": 0.2, "2": 0.3, "3": 0.5})
+    periods = pd.PeriodIndex(["2027-01", "2027-02", "2027-03", "2028-01"], freq="M")
+    years = periods.year.to_numpy()
+    plan = np.array([100.0, 100.0, 100.0, 40.0])
+    got = average_share_plan(periods, years, plan, {1: 0.2, 2: 0.3, 3: 0.5})
     assert got.tolist() == pytest.approx([60.0, 90.0, 150.0, 40.0])
-    assert np.isnan(average_share_plan(plan, "MS", {})).all()
+    assert np.isnan(average_share_plan(periods, years, plan, {})).all()
 
 
 def test_headlines_by_hand(tmp_path: Path) -> None:

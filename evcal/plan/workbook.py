@@ -31,7 +31,7 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
-from evcal._files import atomic_path, readable
+from evcal._files import atomic_path
 from evcal.formula_safe import formula_safe_sheet, workbook_text
 
 CAUTION = (
@@ -84,7 +84,6 @@ def write_workbook(
     out = Path(out_xlsx)
     with atomic_path(out) as tmp:
         wb.save(tmp)
-        readable(tmp)
     return out
 
 

@@ -15,48 +15,21 @@ Examples
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-from typing import Any
-
 import numpy as np
 import pandas as pd
 
-from evcal.design.seasonal import season_position
+from evcal.plan.summary import average_share_plan
 from evcal.report.formatting import num, pct, period_freq, period_label
 from evcal.report.model_folder import ModelFolder
 
 
-def average_share_plan(
-    plan: pd.DataFrame, freq: str, average_share: Mapping[Any, float] | None
-) -> np.ndarray:
-    """The plan's own yearly totals spread by the average-share profile.
-
-    Each calendar year's periods get ``total_year * share[pos] / sum(share over
-    that year's periods)``, so both add up to the same total per year. NaN
-    everywhere when the model has no average-share profile.
-
-    Examples
-    --------
-    >>> plan = pd.DataFrame({"date": pd.to_datetime(["2027-01-31", "2027-02-28"]),
-    ...                      "plan": [150.0, 50.0]})
-    >>> average_share_plan(plan, "M", {"1": 0.5, "2": 0.5}).tolist()
-    [100.0, 100.0]
-    """
-    n = len(plan)
-    shares = {int(k): float(v) for k, v in (average_share or {}).items()}
-    if not shares or n == 0:
-        return np.full(n, np.nan)
-    periods = pd.PeriodIndex(plan["date"].dt.to_period(period_freq(freq)))
-    share = np.array([shares.get(int(p), np.nan) for p in season_position(periods)], dtype=float)
-    values = plan["plan"].to_numpy(dtype=float)
-    years = plan["date"].dt.year.to_numpy()
-    out = np.full(n, np.nan)
-    for year in np.unique(years):
-        m = years == year
-        denom = np.nansum(share[m])
-        if denom > 0:
-            out[m] = values[m].sum() * share[m] / denom
-    return out
+def average_share_spread(folder: ModelFolder) -> np.ndarray:
+    """The plan's own yearly totals spread by the model's average-share profile (NaN without one)."""
+    dates = folder.plan["date"]
+    periods = pd.PeriodIndex(dates.dt.to_period(period_freq(folder.freq)))
+    shares = {int(k): float(v) for k, v in folder.model["average_share"].items()}
+    values = folder.plan["plan"].to_numpy(dtype=float)
+    return average_share_plan(periods, dates.dt.year.to_numpy(), values, shares)
 
 
 def departure(plan: pd.DataFrame, avg: np.ndarray) -> tuple[np.ndarray, float, int]:
@@ -96,7 +69,7 @@ def headlines(folder: ModelFolder) -> list[str]:
         f"The plan's peak lands {in_period(peak['date'], folder.freq)}: "
         f"{num(peak['plan'])} units (low {num(peak['low'])}, high {num(peak['high'])})."
     )
-    avg = average_share_plan(plan, folder.freq, folder.model["average_share"])
+    avg = average_share_spread(folder)
     if np.isfinite(avg).any():
         diff, moved, k = departure(plan, avg)
         total = float(np.nansum(plan["plan"].to_numpy(dtype=float)))

@@ -20,7 +20,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-from evcal._files import atomic_path, readable
+from evcal._files import atomic_path
 from evcal.errors import ModelError
 from evcal.report.context import ReportContext
 from evcal.report.formatting import freq_words
@@ -102,7 +102,6 @@ def write_report(
     out = Path(out_html)
     with atomic_path(out) as tmp:
         tmp.write_text(page, encoding="utf-8")
-        readable(tmp)
     return out
 
 

@@ -24,6 +24,7 @@ import pandas as pd
 
 from evcal.model.inputs import calendar_terms
 from evcal.panel import PanelResult, load_panel
+from evcal.panel.result import key_mask
 from evcal.panel.summary import lift_distribution
 from evcal.report.context import ReportContext
 from evcal.report.formatting import freq_words, num, pct
@@ -119,10 +120,10 @@ def series_part(
     panel: PanelResult, key: dict[str, Any], folder: Path, number: int, model: dict[str, Any]
 ) -> dict[str, Any]:
     """One series' section: its line of facts and the single-model sections, from the panel's tables."""
-    row = panel.series.loc[_mask(panel.series, panel, key)].iloc[0]
+    row = panel.series.loc[key_mask(panel.series, key)].iloc[0]
     part = {"key": f"series-{number - 1}", "number": number, "title": f"Series {key_text(panel, key)}"}
     if row["status"] != "fitted":
-        skipped = panel.skipped.loc[_mask(panel.skipped, panel, key)]
+        skipped = panel.skipped.loc[key_mask(panel.skipped, key)]
         why = f"{skipped['reason'].iloc[0]} ({skipped['detail'].iloc[0]})" if len(skipped) else ""
         return part | {"summary": f"Not fitted: {why or row['reason']}. See skipped.csv.", "parts": []}
     part["summary"] = (
@@ -180,17 +181,9 @@ def _first_fitted(panel: PanelResult) -> list[dict[str, Any]]:
     return fitted[panel.key_cols].to_dict("records")
 
 
-def _mask(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> np.ndarray:
-    """Rows of a long table that belong to one series (keys compared as text, as ``find`` does)."""
-    mask = np.ones(len(frame), dtype=bool)
-    for c in panel.key_cols:
-        mask &= frame[c].astype(str).to_numpy() == str(key[c])
-    return mask
-
-
 def _rows(frame: pd.DataFrame, panel: PanelResult, key: dict[str, Any]) -> pd.DataFrame:
-    """One series' rows of a long table, without the key columns."""
-    return frame.loc[_mask(frame, panel, key)].drop(columns=panel.key_cols)
+    """One series' rows of a long table (keys compared as text, as ``find`` does), without the key columns."""
+    return frame.loc[key_mask(frame, key)].drop(columns=panel.key_cols)
 
 
 def _fitted_rows(panel: PanelResult, key: dict[str, Any]) -> pd.DataFrame:

@@ -20,7 +20,7 @@ from evcal.report import charts
 from evcal.report.calendar_view import calendar_data, weights_from_plan
 from evcal.report.context import ReportContext, view_span
 from evcal.report.formatting import num, pct, period_days, period_label
-from evcal.report.headlines import average_share_plan, biggest_event, departure
+from evcal.report.headlines import average_share_spread, biggest_event, departure
 from evcal.report.model_folder import lift_columns
 from evcal.report.model_sections import table
 
@@ -50,7 +50,7 @@ def glance(ctx: ReportContext) -> list[dict[str, str]]:
             "v": period_label(peak["date"], ctx.freq),
             "d": f"{num(peak['plan'])} units planned (low {num(peak['low'])}, high {num(peak['high'])})",
         })
-        avg = average_share_plan(plan, ctx.freq, ctx.model["average_share"])
+        avg = average_share_spread(ctx.folder)
         if np.isfinite(avg).any():
             diff, moved, k = departure(plan, avg)
             share = moved / plan["plan"].to_numpy().sum() * 100
@@ -76,7 +76,7 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
     if plan.empty:
         return {"muted": "The plan file has no rows."}
     events = lift_columns(plan)
-    avg = average_share_plan(plan, ctx.freq, ctx.model["average_share"])
+    avg = average_share_spread(ctx.folder)
     fig = charts.plan_chart(plan, events, ctx.labels, ctx.colours, avg)
     total = float(plan["plan"].sum())
     base_total = float(plan["base"].sum())

@@ -30,6 +30,7 @@ scored (they say nothing about normal demand).
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -213,6 +214,15 @@ def backtest(
     out["peak_error"] = out["peak_error"].astype(int)
     out.attrs["notes"] = notes
     return out
+
+
+def save_backtest(bt: pd.DataFrame, path: str | Path) -> None:
+    """Write the :func:`backtest` table to ``path`` as CSV (replaced in one step)."""
+    from evcal._files import atomic_path
+    from evcal.formula_safe import write_csv
+
+    with atomic_path(path) as tmp:
+        write_csv(bt, tmp, index=False, float_format="%.6f")
 
 
 def format_table(bt: pd.DataFrame) -> str:

@@ -210,18 +210,16 @@ def backtest_cmd(
     force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
-    from evcal.formula_safe import write_csv
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
     check_output(out, "backtest", inputs=[history, calendar], force=force)
-    from evcal.backtesting import backtest, format_table
+    from evcal.backtesting import backtest, format_table, save_backtest
 
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
                   value_col=value_col, freq=freq,
                   **fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                                     trading_days, allow_negative))
-    with atomic_path(out) as tmp:
-        write_csv(bt, tmp, index=False, float_format="%.6f")
+    save_backtest(bt, out)
     typer.echo(format_table(bt))
     typer.echo("spread: scaled to each year's actual total (compares the profile); unspread: as planned.")
     typer.echo("Periods excluded in the calendar, and periods without a value, are not scored.")

@@ -60,15 +60,6 @@ def score(plan: np.ndarray, actual: np.ndarray) -> dict[str, float]:
     return {"wape": wape, "bias": bias, "peak_error": peak}
 
 
-def _excluded(periods: pd.PeriodIndex, calendar: Any) -> np.ndarray:
-    out = np.zeros(len(periods), dtype=bool)
-    p0 = periods.start_time.normalize()
-    p1 = periods.end_time.normalize()
-    for ex in calendar.exclusions:
-        out |= np.asarray((p0 <= pd.Timestamp(ex.end)) & (p1 >= pd.Timestamp(ex.start)))
-    return out
-
-
 def _average_share(res: Any, train_values: pd.Series) -> dict[int, float]:
     if res.average_share:
         return dict(res.average_share)
@@ -140,7 +131,7 @@ def backtest(
     """
     from evcal.engine import fit
     from evcal.io import History, read_history
-    from evcal.model.inputs import load_calendar_any
+    from evcal.model.inputs import excluded_periods, load_calendar_any
     from evcal.panel.distributed import progress_bar, progress_enabled
     from evcal.plan.build import plan_periods
 
@@ -160,7 +151,7 @@ def backtest(
         raise PlanError(f"{hist.source}: --holdout-years {holdout_years} but the history has only "
                         f"{len(full)} full calendar year(s) ({', '.join(map(str, full)) or 'none'})")
     holdout = full[-int(holdout_years):]
-    excluded = _excluded(periods, cal)
+    excluded = excluded_periods(cal, periods)
     rows: list[dict[str, Any]] = []
     notes: list[str] = []
     with progress_bar(len(holdout), progress_enabled(progress), "backtest: held-out years") as advance:

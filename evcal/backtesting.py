@@ -30,6 +30,7 @@ scored (they say nothing about normal demand).
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -57,15 +58,6 @@ def score(plan: np.ndarray, actual: np.ndarray) -> dict[str, float]:
     bias = float((plan - actual).sum()) / float(actual.sum()) if actual.sum() else float("nan")
     peak = int(abs(int(np.argmax(plan)) - int(np.argmax(actual)))) if len(plan) else 0
     return {"wape": wape, "bias": bias, "peak_error": peak}
-
-
-def _excluded(periods: pd.PeriodIndex, calendar: Any) -> np.ndarray:
-    out = np.zeros(len(periods), dtype=bool)
-    p0 = periods.start_time.normalize()
-    p1 = periods.end_time.normalize()
-    for ex in calendar.exclusions:
-        out |= np.asarray((p0 <= pd.Timestamp(ex.end)) & (p1 >= pd.Timestamp(ex.start)))
-    return out
 
 
 def _average_share(res: Any, train_values: pd.Series) -> dict[int, float]:
@@ -139,7 +131,7 @@ def backtest(
     """
     from evcal.engine import fit
     from evcal.io import History, read_history
-    from evcal.model.inputs import load_calendar_any
+    from evcal.model.inputs import excluded_periods, load_calendar_any
     from evcal.panel.distributed import progress_bar, progress_enabled
     from evcal.plan.build import plan_periods
 
@@ -159,7 +151,7 @@ def backtest(
         raise PlanError(f"{hist.source}: --holdout-years {holdout_years} but the history has only "
                         f"{len(full)} full calendar year(s) ({', '.join(map(str, full)) or 'none'})")
     holdout = full[-int(holdout_years):]
-    excluded = _excluded(periods, cal)
+    excluded = excluded_periods(cal, periods)
     rows: list[dict[str, Any]] = []
     notes: list[str] = []
     with progress_bar(len(holdout), progress_enabled(progress), "backtest: held-out years") as advance:
@@ -213,6 +205,15 @@ def backtest(
     out["peak_error"] = out["peak_error"].astype(int)
     out.attrs["notes"] = notes
     return out
+
+
+def save_backtest(bt: pd.DataFrame, path: str | Path) -> None:
+    """Write the :func:`backtest` table to ``path`` as CSV (replaced in one step)."""
+    from evcal._files import atomic_path
+    from evcal.formula_safe import write_csv
+
+    with atomic_path(path) as tmp:
+        write_csv(bt, tmp, index=False, float_format="%.6f")
 
 
 def format_table(bt: pd.DataFrame) -> str:

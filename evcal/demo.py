@@ -61,12 +61,11 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     >>> run_demo("demo-output")  # doctest: +SKIP
     PosixPath('demo-output')
     """
-    from evcal._files import atomic_path, folder_owner, write_marker
-    from evcal.backtesting import backtest, format_table
+    from evcal._files import folder_owner, write_marker
+    from evcal.backtesting import backtest, format_table, save_backtest
     from evcal.calendar import load_calendar
     from evcal.calendar.summary import check_calendar
     from evcal.engine import fit
-    from evcal.formula_safe import write_csv
     from evcal.model.summary import describe
     from evcal.outputs import check_output
     from evcal.plan import make_plan
@@ -108,8 +107,7 @@ def run_demo(out: str | Path, data: str | Path | None = None,
 
     echo("\n[4/6] backtest: hold out 2024 and 2025 in turn, fit on the years before")
     bt = backtest(history, cal, holdout_years=2, progress=False)
-    with atomic_path(out / "backtest.csv") as tmp:
-        write_csv(bt, tmp, index=False, float_format="%.6f")
+    save_backtest(bt, out / "backtest.csv")
     echo("  " + format_table(bt).replace("\n", "\n  "))
 
     echo("\n[5/6] report")

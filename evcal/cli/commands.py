@@ -99,11 +99,15 @@ def fit_cmd(
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                               trading_days, allow_negative)
     if panel:  # many series: evcal.panel
-        from evcal.panel.cli_support import fit_panel_cmd
+        from evcal.panel import fit_panel
 
-        return fit_panel_cmd(history, calendar, out, series_col, echo=typer.echo, level=level,
-                             group_col=group_col, workers=workers, scheduler=scheduler, date_col=date_col,
-                             value_col=value_col, freq=freq, **options)
+        result = fit_panel(history, calendar, series_col, level=level, group_col=group_col, workers=workers,
+                           scheduler=scheduler, out=out, date_col=date_col, value_col=value_col, freq=freq,
+                           **options)
+        typer.echo(result.summary())
+        typer.echo(f"\nwrote {out}/ (panel.json, series.csv, lifts.csv, pooling.csv, occurrences.csv, "
+                   "profile.csv, fitted.parquet, coefficients.parquet, skipped.csv)")
+        return
     from evcal.engine import fit
     from evcal.model.summary import describe
 
@@ -119,16 +123,16 @@ def show_cmd(
     series: str = typer.Option(None, "--series", help="Panel models: one series, e.g. product=P1,store=S2."),
 ) -> None:
     """Print a readable summary of a fitted model."""
-    from evcal.panel.result import is_panel_dir
-
-    if is_panel_dir(model_dir):
-        from evcal.panel.cli_support import show_panel_cmd
-
-        return show_panel_cmd(model_dir, series, typer.echo)
     from evcal.model import load_model
     from evcal.model.summary import describe
+    from evcal.panel import is_panel_dir, load_panel
 
-    typer.echo(describe(load_model(model_dir)))
+    if not is_panel_dir(model_dir):
+        typer.echo(describe(load_model(model_dir)))
+    elif series is None:
+        typer.echo(load_panel(model_dir).summary())
+    else:
+        typer.echo(describe(load_panel(model_dir).series_result(series)))
 
 
 @command("plan")
@@ -206,18 +210,16 @@ def backtest_cmd(
     force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
-    from evcal.formula_safe import write_csv
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
     check_output(out, "backtest", inputs=[history, calendar], force=force)
-    from evcal.backtesting import backtest, format_table
+    from evcal.backtesting import backtest, format_table, save_backtest
 
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
                   value_col=value_col, freq=freq,
                   **fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                                     trading_days, allow_negative))
-    with atomic_path(out) as tmp:
-        write_csv(bt, tmp, index=False, float_format="%.6f")
+    save_backtest(bt, out)
     typer.echo(format_table(bt))
     typer.echo("spread: scaled to each year's actual total (compares the profile); unspread: as planned.")
     typer.echo("Periods excluded in the calendar, and periods without a value, are not scored.")

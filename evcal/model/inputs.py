@@ -142,9 +142,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()
     closed_full = share <= 1e-9
-    excluded = np.zeros(len(periods), dtype=bool)
-    for ex in calendar.exclusions:
-        excluded |= _overlaps(periods, ex)
+    excluded = excluded_periods(calendar, periods)
     transform = choose_transform(actual, options, history.source, closed_full)
     rows = actual.notna().to_numpy() & ~excluded & ~closed_full
 
@@ -198,6 +196,14 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     merged = Design(X=X, open_share=design.open_share, roles=design.roles)
     return ModelInputs(periods, actual, merged, rows, excluded, offset, transform, status,
                        fitted_cols, like_map, assumed, spec, design.X)
+
+
+def excluded_periods(calendar: Any, periods: pd.PeriodIndex) -> np.ndarray:
+    """Mask of the periods with a day inside one of the calendar's ``exclude`` entries."""
+    excluded = np.zeros(len(periods), dtype=bool)
+    for ex in calendar.exclusions:
+        excluded |= _overlaps(periods, ex)
+    return excluded
 
 
 def _overlaps(periods: pd.PeriodIndex, ex: Any) -> np.ndarray:

@@ -14,7 +14,15 @@ import datetime as dt
 import math
 from typing import Annotated, Any
 
-from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, model_validator
+from pydantic import (
+    AfterValidator,
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    ValidationInfo,
+    field_validator,
+    model_validator,
+)
 
 from evcal.calendar.spec import EffectSpec, InterventionType, Shape, YearsSpec
 from evcal.calendar.value_parsers import (
@@ -27,7 +35,18 @@ from evcal.calendar.value_parsers import (
     show,
 )
 
-RULE_KEYS = ("easter", "orthodox_easter", "fixed", "weekday", "holiday", "span", "every_weekday", "dates")
+#: Each rule key of ``when``, and what its value must be (for ``easter:`` left empty or null).
+RULE_VALUES = {
+    "easter": "the days from Easter Sunday, e.g. easter: -2",
+    "orthodox_easter": "the days from Orthodox Easter Sunday, e.g. orthodox_easter: 0",
+    "fixed": 'a month-day, e.g. fixed: "12-24"',
+    "weekday": "a month, weekday and position, e.g. weekday: {month: 5, day: mon, nth: -1}",
+    "holiday": "the name of a public holiday, e.g. holiday: Christmas Day",
+    "span": 'the first and last month-day, e.g. span: {start: "12-24", end: "01-01"}',
+    "every_weekday": "one or more weekdays, e.g. every_weekday: [sun]",
+    "dates": "at least one date, e.g. dates: [2024-03-29]",
+}
+RULE_KEYS = tuple(RULE_VALUES)
 MAX_DAYS = 366  # longest occurrence, run-up, run-down or offset, in days
 # The bounds are choices, not sources (see also :mod:`evcal.calendar.value_parsers`):
 #: an occurrence's strength (1 = a normal occurrence): above 0, at most 100
@@ -170,6 +189,14 @@ class WhenModel(_Section):
             )
         if not rules and not unknown:
             raise ValueError(f"`when` has no rule; use exactly one of {', '.join(RULE_KEYS)}")
+        return value
+
+    @field_validator(*RULE_KEYS, mode="before")
+    @classmethod
+    def _has_value(cls, value: Any, info: ValidationInfo) -> Any:
+        if value is None:
+            key = info.field_name
+            raise ValueError(f"`{key}` has no value; write {RULE_VALUES[str(key)]}")
         return value
 
     @property

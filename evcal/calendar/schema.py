@@ -14,6 +14,7 @@ import datetime as dt
 import math
 from typing import Annotated, Any
 
+import pandas as pd
 from pydantic import (
     AfterValidator,
     BaseModel,
@@ -84,7 +85,9 @@ def _bounded(lo: int, hi: int, what: str) -> AfterValidator:
 
 def _check_order(start: dt.date, end: dt.date | None) -> None:
     if end is not None and end < start:
-        raise ValueError(f"end {end} is before start {start}; end must be on or after start")
+        raise ValueError(
+            f"end {end:%Y-%m-%d} is before start {start:%Y-%m-%d}; end must be on or after start"
+        )
 
 
 def _weekday_list(value: Any) -> tuple[int, ...]:
@@ -95,6 +98,8 @@ def _weekday_list(value: Any) -> tuple[int, ...]:
 
 
 Date = Annotated[dt.date, BeforeValidator(parse_date)]
+#: a date as the specs keep it (interventions, exclusions)
+Stamp = Annotated[pd.Timestamp, BeforeValidator(lambda v: pd.Timestamp(parse_date(v)))]
 MonthDay = Annotated[tuple[int, int], BeforeValidator(parse_month_day)]
 SpanDay = Annotated[tuple[int, int], BeforeValidator(lambda v: parse_month_day(v, False))]
 Weekday = Annotated[int, BeforeValidator(parse_weekday)]
@@ -233,8 +238,8 @@ class PublicHolidaysModel(_Section):
 class InterventionModel(_Section):
     name: str
     type: InterventionType
-    start: Date
-    end: Date | None = None
+    start: Stamp
+    end: Stamp | None = None
     decay: Decay = None
     label: str | None = None
 
@@ -254,8 +259,8 @@ class InterventionModel(_Section):
 
 
 class ExclusionModel(_Section):
-    start: Date
-    end: Date
+    start: Stamp
+    end: Stamp
     reason: str
 
     @model_validator(mode="after")

@@ -279,3 +279,35 @@ def test_real_process_prints_no_traceback(tmp_path: Path) -> None:
         f"error: {path}:3: events[a].when.fixed: \"02-30\" is not a day of the year "
         "(February has at most 29 days); write a real \"MM-DD\""
     ]
+
+
+NULL_RULES = [
+    ("easter", "the days from Easter Sunday, e.g. easter: -2"),
+    ("orthodox_easter", "the days from Orthodox Easter Sunday, e.g. orthodox_easter: 0"),
+    ("fixed", 'a month-day, e.g. fixed: "12-24"'),
+    ("weekday", "a month, weekday and position, e.g. weekday: {month: 5, day: mon, nth: -1}"),
+    ("holiday", "the name of a public holiday, e.g. holiday: Christmas Day"),
+    ("span", 'the first and last month-day, e.g. span: {start: "12-24", end: "01-01"}'),
+    ("every_weekday", "one or more weekdays, e.g. every_weekday: [sun]"),
+    ("dates", "at least one date, e.g. dates: [2024-03-29]"),
+]
+
+
+@pytest.mark.parametrize(("key", "right"), NULL_RULES, ids=[k for k, _ in NULL_RULES])
+def test_rule_key_with_null_value(tmp_path: Path, key: str, right: str) -> None:
+    path, result = _run(tmp_path, key, f"name: t\nevents:\n  - name: a\n    when: {{{key}: null}}\n")
+    assert result.exit_code == 2, result.output
+    assert result.exception is None or isinstance(result.exception, SystemExit)
+    assert "Traceback" not in result.output
+    assert result.stderr.splitlines() == [
+        f"error: {path}:4: events[a].when.{key}: `{key}` has no value; write {right}"
+    ]
+
+
+def test_rule_key_left_empty_in_block_style(tmp_path: Path) -> None:
+    path, result = _run(tmp_path, "empty", "name: t\nevents:\n  - name: a\n    when:\n      easter:\n")
+    assert result.exit_code == 2
+    assert result.stderr.splitlines() == [
+        f"error: {path}:5: events[a].when.easter: `easter` has no value; "
+        "write the days from Easter Sunday, e.g. easter: -2"
+    ]

@@ -18,8 +18,6 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-import pandas as pd
-
 from evcal.calendar import rules as R
 from evcal.calendar.core import Calendar, PublicHolidays
 from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event
@@ -154,20 +152,11 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
             )
             continue
         decay = (0.7 if iv.decay is None else iv.decay) if iv.type == "temporary" else None
-        end = pd.Timestamp(iv.end) if iv.end is not None else None
-        interventions.append(
-            InterventionSpec(
-                iv.name,
-                iv.type,
-                pd.Timestamp(iv.start),
-                end,
-                decay,
-                iv.label or iv.name,
-                log.line(("interventions", i)),
-            )
-        )
+        fields = iv.model_dump(exclude={"decay", "label"})
+        line = log.line(("interventions", i))
+        interventions.append(InterventionSpec(**fields, decay=decay, label=iv.label or iv.name, line=line))
     exclusions = [
-        ExclusionSpec(pd.Timestamp(ex.start), pd.Timestamp(ex.end), ex.reason, log.line(("exclude", i)))
+        ExclusionSpec(**ex.model_dump(), line=log.line(("exclude", i)))
         for i, raw in enumerate(_items(data, "exclude"))
         if (ex := log.validate(ExclusionModel, raw, ("exclude", i))) is not None
     ]

@@ -14,7 +14,16 @@ import datetime as dt
 import math
 from typing import Annotated, Any
 
-from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, model_validator
+import pandas as pd
+from pydantic import (
+    AfterValidator,
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    ValidationInfo,
+    field_validator,
+    model_validator,
+)
 
 from evcal.calendar.spec import EffectSpec, InterventionType, Shape, YearsSpec
 from evcal.calendar.value_parsers import (
@@ -27,7 +36,18 @@ from evcal.calendar.value_parsers import (
     show,
 )
 
-RULE_KEYS = ("easter", "orthodox_easter", "fixed", "weekday", "holiday", "span", "every_weekday", "dates")
+#: Each rule key of ``when``, and what its value must be (for ``easter:`` left empty or null).
+RULE_VALUES = {
+    "easter": "the days from Easter Sunday, e.g. easter: -2",
+    "orthodox_easter": "the days from Orthodox Easter Sunday, e.g. orthodox_easter: 0",
+    "fixed": 'a month-day, e.g. fixed: "12-24"',
+    "weekday": "a month, weekday and position, e.g. weekday: {month: 5, day: mon, nth: -1}",
+    "holiday": "the name of a public holiday, e.g. holiday: Christmas Day",
+    "span": 'the first and last month-day, e.g. span: {start: "12-24", end: "01-01"}',
+    "every_weekday": "one or more weekdays, e.g. every_weekday: [sun]",
+    "dates": "at least one date, e.g. dates: [2024-03-29]",
+}
+RULE_KEYS = tuple(RULE_VALUES)
 MAX_DAYS = 366  # longest occurrence, run-up, run-down or offset, in days
 # The bounds are choices, not sources (see also :mod:`evcal.calendar.value_parsers`):
 #: an occurrence's strength (1 = a normal occurrence): above 0, at most 100
@@ -65,7 +85,9 @@ def _bounded(lo: int, hi: int, what: str) -> AfterValidator:
 
 def _check_order(start: dt.date, end: dt.date | None) -> None:
     if end is not None and end < start:
-        raise ValueError(f"end {end} is before start {start}; end must be on or after start")
+        raise ValueError(
+            f"end {end:%Y-%m-%d} is before start {start:%Y-%m-%d}; end must be on or after start"
+        )
 
 
 def _weekday_list(value: Any) -> tuple[int, ...]:
@@ -76,6 +98,8 @@ def _weekday_list(value: Any) -> tuple[int, ...]:
 
 
 Date = Annotated[dt.date, BeforeValidator(parse_date)]
+#: a date as the specs keep it (interventions, exclusions)
+Stamp = Annotated[pd.Timestamp, BeforeValidator(lambda v: pd.Timestamp(parse_date(v)))]
 MonthDay = Annotated[tuple[int, int], BeforeValidator(parse_month_day)]
 SpanDay = Annotated[tuple[int, int], BeforeValidator(lambda v: parse_month_day(v, False))]
 Weekday = Annotated[int, BeforeValidator(parse_weekday)]
@@ -172,6 +196,14 @@ class WhenModel(_Section):
             raise ValueError(f"`when` has no rule; use exactly one of {', '.join(RULE_KEYS)}")
         return value
 
+    @field_validator(*RULE_KEYS, mode="before")
+    @classmethod
+    def _has_value(cls, value: Any, info: ValidationInfo) -> Any:
+        if value is None:
+            key = info.field_name
+            raise ValueError(f"`{key}` has no value; write {RULE_VALUES[str(key)]}")
+        return value
+
     @property
     def kind(self) -> str:
         return next(k for k in RULE_KEYS if getattr(self, k) is not None)
@@ -206,8 +238,8 @@ class PublicHolidaysModel(_Section):
 class InterventionModel(_Section):
     name: str
     type: InterventionType
-    start: Date
-    end: Date | None = None
+    start: Stamp
+    end: Stamp | None = None
     decay: Decay = None
     label: str | None = None
 
@@ -227,8 +259,8 @@ class InterventionModel(_Section):
 
 
 class ExclusionModel(_Section):
-    start: Date
-    end: Date
+    start: Stamp
+    end: Stamp
     reason: str
 
     @model_validator(mode="after")

@@ -174,14 +174,11 @@ def check_columns(
     return out
 
 
-NO_COEF, NO_SE, TOO_LARGE, TOO_WIDE = 1, 2, 3, 4
-
-
 def _breaks(params: np.ndarray, se: np.ndarray, bound: Any) -> np.ndarray:
-    """The breakdown rule, per coefficient: 0 (a sound estimate) or the first reason it is a breakdown."""
+    """The breakdown rule, per coefficient: 0 (a sound estimate), else 1 + which test it failed first."""
     with np.errstate(invalid="ignore"):
         broken = [~np.isfinite(params), ~np.isfinite(se), np.abs(params) > bound, Z95 * se > bound]
-    return np.select(broken, [NO_COEF, NO_SE, TOO_LARGE, TOO_WIDE], 0)
+    return np.select(broken, [1, 2, 3, 4], 0)
 
 
 def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], transform: str,
@@ -207,11 +204,11 @@ def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], trans
     b = params[cols].to_numpy(dtype=float)
     s = se.reindex(cols).to_numpy(dtype=float)
     scale = "x100 either way" if transform != "none" else f"{MAX_LEVEL_RATIO:g} times the level"
-    words = {  # how each of _breaks' reasons reads in the note
-        NO_COEF: "the fit gave no finite coefficient",
-        NO_SE: "the fit gave {size} with no finite standard error",
-        TOO_LARGE: "the fit gave {size}, beyond what any event does",
-        TOO_WIDE: "the fit gave {size} with a 95 % interval wider than {scale} (standard error {se:.3g})",
+    words = {  # how each of _breaks' tests reads in the note
+        1: "the fit gave no finite coefficient",
+        2: "the fit gave {size} with no finite standard error",
+        3: "the fit gave {size}, beyond what any event does",
+        4: "the fit gave {size} with a 95 % interval wider than {scale} (standard error {se:.3g})",
     }
     reasons = _breaks(b, s, _bound(transform, level))
     return {c: words[r].format(size=_size(bc, transform), se=sc, scale=scale)

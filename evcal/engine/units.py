@@ -168,7 +168,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
 
 
 def _broken(g: Group, B: np.ndarray, se: np.ndarray, first: np.ndarray | None, y: np.ndarray) -> np.ndarray:
-    """Series whose fit breaks down by :func:`evcal.model.identify.degenerate_terms`' rule (m,)."""
+    """Series whose fit breaks down by :func:`evcal.model.identify.breakdown` (m,)."""
     term_idx = [g.info.fitted_cols.index(c) for c in g.info.term_cols]
     if not term_idx:
         return np.zeros(B.shape[1], dtype=bool)

@@ -174,6 +174,13 @@ def check_columns(
     return out
 
 
+def _breaks(params: np.ndarray, se: np.ndarray, bound: Any) -> np.ndarray:
+    """The breakdown rule, per coefficient: 0 (a sound estimate), else 1 + which test it failed first."""
+    with np.errstate(invalid="ignore"):
+        broken = [~np.isfinite(params), ~np.isfinite(se), np.abs(params) > bound, Z95 * se > bound]
+    return np.select(broken, [1, 2, 3, 4], 0)
+
+
 def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], transform: str,
                      level: float = 1.0) -> dict[str, str]:
     """Fitted columns whose coefficient is a breakdown of the fit, not a lift; column -> what was seen.
@@ -193,24 +200,19 @@ def degenerate_terms(params: pd.Series, se: pd.Series, columns: list[str], trans
     >>> sorted(degenerate_terms(p, s, ["a", "b", "c"], "log"))
     ['b', 'c']
     """
-    bound = _bound(transform, level)
-    out: dict[str, str] = {}
-    for c in columns:
-        if c not in params.index:
-            continue
-        b = float(params[c])
-        s = float(se.get(c, np.nan))
-        if not np.isfinite(b):
-            out[c] = "the fit gave no finite coefficient"
-        elif not np.isfinite(s):
-            out[c] = f"the fit gave {_size(b, transform)} with no finite standard error"
-        elif abs(b) > bound:
-            out[c] = f"the fit gave {_size(b, transform)}, beyond what any event does"
-        elif Z95 * s > bound:
-            scale = "x100 either way" if transform != "none" else f"{MAX_LEVEL_RATIO:g} times the level"
-            out[c] = (f"the fit gave {_size(b, transform)} with a 95 % interval wider than {scale} "
-                      f"(standard error {s:.3g})")
-    return out
+    cols = [c for c in columns if c in params.index]
+    b = params[cols].to_numpy(dtype=float)
+    s = se.reindex(cols).to_numpy(dtype=float)
+    scale = "x100 either way" if transform != "none" else f"{MAX_LEVEL_RATIO:g} times the level"
+    words = {  # how each of _breaks' tests reads in the note
+        1: "the fit gave no finite coefficient",
+        2: "the fit gave {size} with no finite standard error",
+        3: "the fit gave {size}, beyond what any event does",
+        4: "the fit gave {size} with a 95 % interval wider than {scale} (standard error {se:.3g})",
+    }
+    reasons = _breaks(b, s, _bound(transform, level))
+    return {c: words[r].format(size=_size(bc, transform), se=sc, scale=scale)
+            for c, bc, sc, r in zip(cols, b, s, reasons, strict=True) if r}
 
 
 def status_notes(status: dict[str, ColumnStatus]) -> list[str]:
@@ -244,12 +246,8 @@ def breakdown(params: np.ndarray, se: np.ndarray | None, transform: str, level: 
     >>> breakdown(b, np.full((2, 2), 0.05), "log").tolist()
     [False, True]
     """
-    bound = _bound(transform, level)
-    with np.errstate(invalid="ignore"):
-        bad = ~np.isfinite(params) | (np.abs(params) > bound)
-        if se is not None:
-            bad |= ~np.isfinite(se) | (Z95 * se > bound)
-    return bad.any(axis=0)
+    se = np.zeros_like(params) if se is None else se
+    return (_breaks(params, se, _bound(transform, level)) > 0).any(axis=0)
 
 
 def _size(b: float, transform: str) -> str:

@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 from evcal.design.curved import CurvedEvents
-from evcal.model.estimators import hac_meat
+from evcal.model.estimators import bartlett_weights
 from evcal.model.passes import MAX_PASSES, THETA_TOL, theta_moved, theta_sources
 
 __all__ = ["refine"]
@@ -219,8 +219,23 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
     Ginv = spd_solve(G, np.broadcast_to(np.eye(n_t), G.shape).copy())
-    meat = hac_meat(Vx.transpose(2, 1, 0), lags)
-    del Vx
+    # Σₜ Vxᵢ,ₜ (½Vxⱼ,ₜ + Σₗ wₗ Vxⱼ,ₜ₋ₗ), one term j at a time on the (terms, periods, series) layout
+    # the block already has (two (n, m) buffers in all): the same sums as estimators.hac_meat, which
+    # wants (series, periods, terms); transposing the block to call it made the fit of
+    # benchmarks/panel.py's 10,000 series ~8 % slower (best of 5: 0.395 s against 0.36-0.37 s)
+    w = bartlett_weights(lags)
+    meat = np.empty((m, n_t, n_t))
+    W = np.empty((n, m))
+    lagged = np.empty((n, m))
+    for j in range(n_t):
+        np.multiply(Vx[j], 0.5, out=W)
+        for lag in range(1, min(lags, n - 1) + 1):
+            np.multiply(Vx[j, :-lag], w[lag], out=lagged[lag:])
+            W[lag:] += lagged[lag:]
+        for i in range(n_t):
+            meat[:, i, j] = np.einsum("nm,nm->m", Vx[i], W)
+    del Vx, W, lagged
+    meat += meat.transpose(0, 2, 1)
     cov = Ginv @ meat @ Ginv
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
     order = [term.index(c) for c in group.term_cols]

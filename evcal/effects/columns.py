@@ -58,8 +58,9 @@ def join_tables(parts: list[pd.DataFrame | Columns], columns: list[str]) -> pd.D
 
 def tiled_text(values: list[Any], m: int) -> pd.Categorical:
     """``values`` repeated for m series, as a categorical (one copy of each text)."""
-    cats = tuple(dict.fromkeys(values))
-    codes = np.array([cats.index(v) for v in values], dtype=np.int32)
+    position = {v: i for i, v in enumerate(dict.fromkeys(values))}
+    cats = tuple(position)
+    codes = np.fromiter((position[v] for v in values), dtype=np.int32, count=len(values))
     # the codes are made here, in range by construction: no need to check them again
     return pd.Categorical.from_codes(np.tile(codes, m), dtype=text_dtype(cats), validate=False)
 

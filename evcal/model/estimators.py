@@ -75,23 +75,13 @@ def hac_covariances(Z: np.ndarray, E: np.ndarray, lags: int, block: int = BLOCK)
         return G + G.transpose(0, 2, 1)
     out = np.empty((m, j, j))
     for a in range(0, m, block):
-        out[a:a + block] = hac_meat(E[:, a:a + block].T[:, :, None] * Z[None, :, :], lags)
-    return out
-
-
-def hac_meat(V: np.ndarray, lags: int, chunk: int = 64) -> np.ndarray:
-    """``A + Aᵀ`` with ``A = Σₜ Vₜ (½ Vₜ + Σₗ wₗ Vₜ₋ₗ)ᵀ`` for each series' rows ``V`` (m, n, j): (m, j, j).
-
-    A few series at a time, so the lagged sums need only a small buffer.
-    """
-    w = bartlett_weights(lags)
-    out = np.empty((V.shape[0], V.shape[2], V.shape[2]))
-    for a in range(0, len(V), chunk):
-        W = 0.5 * V[a:a + chunk]
-        for lag in range(1, min(lags, V.shape[1] - 1) + 1):
-            W[:, lag:, :] += w[lag] * V[a:a + chunk, :-lag, :]
-        A = np.matmul(V[a:a + chunk].transpose(0, 2, 1), W)
-        out[a:a + chunk] = A + A.transpose(0, 2, 1)
+        b = min(a + block, m)
+        V = E[:, a:b].T[:, :, None] * Z[None, :, :]  # (series, n, j)
+        W = 0.5 * V
+        for lag in range(1, min(lags, n - 1) + 1):
+            W[:, lag:, :] += w[lag] * V[:, :-lag, :]
+        A = np.matmul(V.transpose(0, 2, 1), W)
+        out[a:b] = A + A.transpose(0, 2, 1)
     return out
 
 

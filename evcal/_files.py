@@ -181,13 +181,17 @@ def folder_owner(folder: str | Path) -> Owner | None:
     return _legacy_owner(folder, set(folder_files(folder)))
 
 
+def _check_kind(kind: str) -> None:
+    if kind not in FOLDER_KINDS:
+        raise ValueError(f"kind {kind!r}: not one of {', '.join(FOLDER_KINDS)}")
+
+
 def write_marker(folder: str | Path, kind: str, files: list[str] | None = None) -> Owner:
     """Write ``folder``'s :data:`MARKER` naming ``files`` (default: every file now in it)."""
     from evcal import __version__
 
     folder = Path(folder)
-    if kind not in FOLDER_KINDS:
-        raise ValueError(f"kind {kind!r}: not one of {', '.join(FOLDER_KINDS)}")
+    _check_kind(kind)
     listed = sorted(f for f in (folder_files(folder) if files is None else files) if f != MARKER)
     body = {"written_by": "evcal", "kind": kind, "format_version": MARKER_VERSION,
             "evcal_version": __version__, "files": listed}
@@ -330,6 +334,8 @@ def atomic_dir(target: str | Path, kind: str | None = None) -> Iterator[Path]:
     >>> sorted(p.name for p in (d / "model").iterdir())
     ['evcal-output.json', 'lifts.csv']
     """
+    if kind is not None:
+        _check_kind(kind)  # before anything is written, not after the folder is filled
     target = Path(target)
     if target.exists() or target.is_symlink():
         refuse_foreign_folder(target)

@@ -189,7 +189,9 @@ def formula_safe_cell(cell: Any) -> Any:
     ('f', 's')
     """
     if isinstance(cell.value, str):
-        cell.value = workbook_text(cell.value)
+        clean = workbook_text(cell.value)
+        if clean != cell.value:  # openpyxl's value setter is the slow part of a large sheet
+            cell.value = clean
         cell.data_type = "s"
     return cell
 

@@ -76,6 +76,8 @@ class Entry:
 def table(rows: list[Row]) -> pd.DataFrame:
     """The suggestions table, columns in contract order."""
     frame = pd.DataFrame(rows, columns=COLUMNS)
+    if unknown := set(frame["kind"]) - set(KINDS):  # a programming slip, not a user's input
+        raise ValueError(f"unknown finding kind(s) {sorted(unknown)}; one of {', '.join(KINDS)}")
     return frame.astype({"period": "Float64", "size_pct": "Float64"})
 
 

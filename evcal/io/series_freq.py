@@ -40,6 +40,8 @@ def series_frequencies(u_stamps: pd.DatetimeIndex, dcode: np.ndarray, sid: np.nd
     date order (as in most long files). A repeated row (gap 0) is not a gap: the
     duplicate check reports it later.
     """
+    if not len(sid):  # no rows at all: no series has a class
+        return [""] * n_series
     starts = np.flatnonzero(np.r_[True, sid[1:] != sid[:-1]])
     # days since 1970 whatever pandas' resolution, in 4 bytes (the arrays here hold a value per row)
     day = u_stamps.to_numpy().astype("datetime64[D]").astype(np.int32)[dcode]

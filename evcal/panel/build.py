@@ -130,7 +130,8 @@ class FittedWriter:
 
     def write(self, blocks: list[Any]) -> None:
         """Queue a unit's fitted blocks (raises here if an earlier write failed)."""
-        while len(self._pending) >= 2:
+        # a finished write's error is raised now, not after two more units have queued behind it
+        while self._pending and (len(self._pending) >= 2 or self._pending[0].done()):
             self._pending.popleft().result()
         self._pending.append(self._thread.submit(self._write_now, blocks))
 

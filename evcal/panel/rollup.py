@@ -100,8 +100,8 @@ def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> 
 
     from evcal.design.interventions import PERSISTENT
     from evcal.design.matrix import DesignSpec, build_design
+    from evcal.io.history import period_dates
     from evcal.model.inputs import load_calendar_any
-    from evcal.plan.horizon import period_dates
 
     cal = load_calendar_any(calendar if calendar is not None else children.settings["calendar_text"])
     spec0 = DesignSpec.from_dict(children.settings["design"])

@@ -18,6 +18,7 @@ from evcal.calendar import YEAR_RANGE
 from evcal.calendar.occurrences import as_day
 from evcal.design.seasonal import base_freq
 from evcal.errors import CalendarError, PlanError, clip
+from evcal.io.history import period_dates
 
 _YEAR = re.compile(r"^\s*(\d{4})\s*$")
 
@@ -91,12 +92,6 @@ def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
             f"--to {last_day.date()} is before --from {first_day.date()}; the horizon must end on or "
             "after the day it starts")
     return pd.period_range(first, last, freq=freq)
-
-
-def period_dates(periods: pd.PeriodIndex, label: str) -> pd.DatetimeIndex:
-    """Each period's date as the history writes it: its first day (``start``) or last (``end``)."""
-    stamps = periods.end_time.normalize() if label == "end" else periods.start_time.normalize()
-    return pd.DatetimeIndex(stamps, name="date").as_unit("ns")
 
 
 def period_years(periods: pd.PeriodIndex, label: str) -> np.ndarray:

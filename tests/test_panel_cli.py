@@ -216,3 +216,15 @@ def test_streamed_fitted_rows_equal_the_in_memory_ones(tmp_path, monkeypatch):
     np.testing.assert_array_equal(a[num].to_numpy(float), b[num].to_numpy(float))
     assert (a["date"].to_numpy() == b["date"].to_numpy()).all()
     assert (a["in_fit"].to_numpy() == b["in_fit"].to_numpy()).all()
+
+
+def test_missing_grouping_column_names_the_option_that_asked_for_it(tmp_path):
+    # a --group-col or --level column that is not in the file points back at those options, not at
+    # --series-col (which the user got right)
+    hist, cal = _files(tmp_path, _long(2))
+    out = tmp_path / "model"
+    for option in ("--group-col", "--level"):
+        res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(out), "--series-col",
+                                  "product", option, "region"])
+        _bad(res, out, "long.parquet", "no grouping column 'region'", "name the grouping column with "
+             "--level or --group-col")

@@ -72,18 +72,25 @@ def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_c
     if not series_cols:
         raise HistoryError("--series-col: give at least one key column (e.g. --series-col product)")
     attr_cols = [c for c in (attr_cols or []) if c not in series_cols]
-    table = _load(source, series_cols + attr_cols, date_col, value_col)
+    table = _load(source, series_cols, attr_cols, date_col, value_col)
     return panel_from_frame(table, series_cols, date_col, value_col, freq, attr_cols)
 
 
-def _load(source: Any, series_cols: list[str], date_col: str, value_col: str) -> RawTable:
+def _grouping_column(table: RawTable, wanted: str) -> str:
+    # a column asked for by --level or --group-col (the message points back at those options)
+    return find_column(table, wanted, "grouping", "--level or --group-col")
+
+
+def _load(source: Any, series_cols: list[str], attr_cols: list[str], date_col: str, value_col: str
+          ) -> RawTable:
     if isinstance(source, str | Path) and Path(source).suffix.lower() in PARQUET_SUFFIXES \
             and Path(source).is_file() and Path(source).stat().st_size > 0:
-        return _load_parquet(Path(source), series_cols, date_col, value_col)
+        return _load_parquet(Path(source), series_cols, attr_cols, date_col, value_col)
     return load_table(source, date_col=date_col)
 
 
-def _load_parquet(path: Path, series_cols: list[str], date_col: str, value_col: str) -> RawTable:
+def _load_parquet(path: Path, series_cols: list[str], attr_cols: list[str], date_col: str, value_col: str
+                  ) -> RawTable:
     """Read only the needed columns (the fast path: no text conversion of the whole table)."""
     import pyarrow.parquet as pq
 
@@ -93,6 +100,7 @@ def _load_parquet(path: Path, series_cols: list[str], date_col: str, value_col: 
         raise HistoryError(f"{path.name}: not a readable Parquet file ({type(err).__name__})") from None
     probe = RawTable(pd.DataFrame(columns=names), [], path.name)
     wanted = [find_column(probe, c, "key", "--series-col") for c in series_cols]
+    wanted += [_grouping_column(probe, c) for c in attr_cols]
     wanted += [find_column(probe, date_col, "date", "--date-col"),
                find_column(probe, value_col, "value", "--value-col")]
     keys = list(dict.fromkeys(wanted[:-2]))
@@ -171,7 +179,7 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
         rem //= len(uu)
     # keys are text in every output (sorted by their original values)
     key_frame = pd.DataFrame({c: pd.Series(keys[c]).astype(str).to_numpy(dtype=object) for c in kcols})
-    attr_names = [find_column(table, c, "key", "--series-col") for c in (attr_cols or [])]
+    attr_names = [_grouping_column(table, c) for c in (attr_cols or [])]
     attrs = _attributes(table, attr_names, sid, n_series, key_frame) if attr_cols else None
 
     # dates: parsed once per distinct cell

@@ -1,9 +1,58 @@
-"""A readable terminal summary of a fitted model (``evcal fit`` and ``evcal show``)."""
+"""A readable terminal summary of a fitted model (``evcal fit`` and ``evcal show``), and the last
+full year of history that a plan's summary compares with."""
 
 from __future__ import annotations
 
 import math
 from typing import Any
+
+import pandas as pd
+
+from evcal.io.history import period_dates
+
+
+def last_full_year(values: pd.Series, label: str) -> dict[str, Any]:
+    """The last calendar year the history holds whole, and its total.
+
+    A period belongs to the year of its date label (its last day with ``label``
+    ``"end"``, its first with ``"start"``): the rule by which a plan's yearly
+    totals count periods, so the change a plan's summary gives is like for like.
+    A week dated by its Sunday that starts on Monday 30 December belongs to the
+    new year, whose other days it covers. A year is full when every period dated
+    in it lies in the history with a value.
+
+    Parameters
+    ----------
+    values : Series
+        Sales per period (PeriodIndex, contiguous); NaN where not known.
+    label : {"end", "start"}
+        The history's date convention.
+
+    Returns
+    -------
+    dict
+        ``{"year": int, "total": float}``; empty when no year is full.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> idx = pd.period_range("2024-01-07", "2025-12-28", freq="W-SUN")
+    >>> last_full_year(pd.Series(1.0, index=idx), "end")
+    {'year': 2025, 'total': 52.0}
+    """
+    periods = values.index
+    if len(periods) == 0:
+        return {}
+    years = period_dates(periods, label).year.to_numpy()
+    known = values.notna().to_numpy()
+    for year in sorted(set(years.tolist()), reverse=True):
+        span = pd.period_range(pd.Timestamp(year, 1, 1).to_period(periods.freq),
+                               pd.Timestamp(year, 12, 31).to_period(periods.freq))
+        need = span[period_dates(span, label).year == year]
+        inside = years == year
+        if len(need) and need[0] >= periods[0] and need[-1] <= periods[-1] and known[inside].all():
+            return {"year": int(year), "total": float(values.to_numpy()[inside].sum())}
+    return {}
 
 
 def _fmt(v: Any) -> str:

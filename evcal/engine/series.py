@@ -15,7 +15,6 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.design.seasonal import cycle_length
 from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
 from evcal.model.estimators import hac_note
 from evcal.model.identify import status_notes
@@ -23,6 +22,7 @@ from evcal.model.inputs import ModelInputs, average_share_profile, calendar_term
 from evcal.model.options import FitOptions
 from evcal.model.passes import estimate_exact, ols_choice
 from evcal.model.result import FitResult
+from evcal.model.summary import last_full_year
 
 __all__ = ["fit_series", "block_result"]
 
@@ -96,7 +96,7 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         history_start=str(periods[0]),
         history_end=str(periods[-1]),
         history_source=history.source,
-        last_year=_last_full_year(history.values),
+        last_year=last_full_year(history.values, history.label),
         average_share={int(k): float(v) for k, v in average_share_profile(
             history.values.where(inp.rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
         mean_base=0.0,
@@ -130,15 +130,3 @@ def _plain(table: Any) -> pd.DataFrame:
     frame = frame.drop(columns=["_sid"])
     text = [c for c in frame.columns if isinstance(frame[c].dtype, pd.CategoricalDtype)]
     return frame.astype({c: object for c in text}) if text else frame
-
-
-def _last_full_year(values: pd.Series) -> dict[str, Any]:
-    periods = values.index
-    p = cycle_length(periods.freqstr)
-    years = periods.start_time.year
-    counts = pd.Series(values.notna().to_numpy(), index=years).groupby(level=0).sum()
-    full = [int(y) for y, n in counts.items() if n >= p]
-    if not full:
-        return {}
-    y = max(full)
-    return {"year": y, "total": float(values[years == y].sum())}

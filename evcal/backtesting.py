@@ -10,7 +10,11 @@ year, and score three methods against what happened:
 * ``average_share``: each position's mean share of its year over the past
   full years (the profile :func:`evcal.model.inputs.average_share_profile`
   computes from the periods the fit uses), spread over a total: common
-  practice, no source;
+  practice, no source. For daily data a day-of-year share ignores weekdays
+  (its biggest misses are whole weekdays), so the daily comparison is
+  weekday-aware (:func:`weekday_share`): each month's mean share of its year,
+  spread over the month's days by the day-of-week pattern of that month in
+  the history (day of week within month);
 * ``seasonal_naive``: last year's value at the same position (for daily data
   the day 364 days earlier, which keeps the weekday), filled from the
   average-share profile where last year has no value.
@@ -42,6 +46,86 @@ from evcal.plan.horizon import full_years, period_years
 
 COLUMNS = ["year", "method", "spread", "wape", "bias", "peak_error"]
 METHODS = ("evcal", "average_share", "seasonal_naive")
+#: What ``average_share`` is, by the history's base frequency (printed with the table and in the report).
+AVERAGE_SHARE_KIND = {
+    "D": "average share, weekday-aware: each month's mean share of its year over the past full years, "
+         "spread over the month's days by that month's day-of-week pattern in the history "
+         "(day of week within month)",
+    "W": "average share: each week's (by its number in the year) mean share of its year over the past "
+         "full years",
+    "M": "average share: each month's mean share of its year over the past full years",
+    "Q": "average share: each quarter's mean share of its year over the past full years",
+}
+
+
+def average_share_kind(freq: str) -> str:
+    """The one-line description of the ``average_share`` method for a history of frequency ``freq``."""
+    return AVERAGE_SHARE_KIND.get(base_freq(freq), AVERAGE_SHARE_KIND["M"])
+
+
+def weekday_share(history: pd.Series, days: pd.PeriodIndex, closed_history: np.ndarray | None = None,
+                  closed_days: np.ndarray | None = None) -> np.ndarray:
+    """Each day's average share of its year, weekday-aware (day of week within month).
+
+    A day gets its month's mean share of the year (the average-share profile of
+    the history's monthly totals, over its full years) times the mean ratio of
+    that weekday to the month's daily mean in the same month of the history
+    years, normalised over the month's open days. Common practice, no source:
+    it is the plain profile a planner of daily sales would use, so the
+    comparison with evcal is not won on weekdays alone.
+
+    Parameters
+    ----------
+    history : Series
+        Daily sales (daily PeriodIndex); NaN where not known (gaps, exclusions).
+    days : PeriodIndex
+        The daily periods to give shares for (whole months give shares that add
+        up to the month's share).
+    closed_history, closed_days : array of bool, optional
+        Days known to be closed (a calendar closure): left out of the weekday
+        ratios, and given a share of zero in ``days``.
+
+    Returns
+    -------
+    ndarray
+        One share per day of ``days``; 0 where the history gives no month share.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> idx = pd.period_range("2021-01-01", "2022-12-31", freq="D")
+    >>> h = pd.Series(np.where(idx.day_of_week == 6, 2.0, 1.0), index=idx)  # invented: Sundays sell double
+    >>> jan = pd.period_range("2023-01-01", "2023-01-31", freq="D")
+    >>> s = weekday_share(h, jan)
+    >>> round(float(s[0] / s[1]), 6), round(float(s.sum()), 4)   # 1 January 2023 is a Sunday
+    (2.0, 0.0863)
+    """
+    from evcal.model.inputs import average_share_profile
+
+    v = history.to_numpy(dtype=float).copy()
+    if closed_history is not None:
+        v[np.asarray(closed_history, dtype=bool)] = np.nan
+    idx = history.index
+    frame = pd.DataFrame({"v": v, "ym": idx.asfreq("M"), "month": idx.month, "dow": idx.day_of_week})
+    sums = frame.groupby("ym")["v"].agg(["sum", "count"])
+    whole = sums["count"].to_numpy() == sums.index.days_in_month  # months with every day known
+    monthly = pd.Series(np.where(whole, sums["sum"].to_numpy(), np.nan), index=sums.index)
+    month_share = average_share_profile(monthly.reindex(pd.period_range(
+        monthly.index[0], monthly.index[-1], freq="M")))
+    ratio = frame["v"] / frame.groupby("ym")["v"].transform("mean")
+    factor = ratio.groupby([frame["month"], frame["dow"]]).mean()
+    w = np.array([factor.get((m, d), np.nan) for m, d in zip(days.month, days.day_of_week, strict=True)])
+    w = np.where(np.isfinite(w) & (w > 0), w, 1.0)
+    if closed_days is not None:
+        w = np.where(np.asarray(closed_days, dtype=bool), 0.0, w)
+    out = np.zeros(len(days))
+    months = days.asfreq("M")
+    for ym in months.unique():
+        m = np.asarray(months == ym)
+        total_w = w[m].sum()
+        if total_w > 0:
+            out[m] = float(month_share.get(ym.month, 0.0)) * w[m] / total_w
+    return out
 
 
 def score(plan: np.ndarray, actual: np.ndarray) -> dict[str, float]:
@@ -116,7 +200,8 @@ def backtest(
         ``year, method, spread, wape, bias, peak_error``: one row per held-out
         year, method (``evcal``, ``average_share``, ``seasonal_naive``) and
         spread (``spread``, ``unspread``). ``attrs["notes"]`` lists the periods
-        left out of the scoring.
+        left out of the scoring; ``attrs["average_share"]`` says which
+        average-share profile was used (:func:`average_share_kind`).
 
     Raises
     ------
@@ -152,6 +237,8 @@ def backtest(
                         f"{len(full)} full calendar year(s) ({', '.join(map(str, full)) or 'none'})")
     holdout = full[-int(holdout_years):]
     excluded = excluded_periods(cal, periods)
+    daily = base_freq(hist.freq) == "D"
+    closed = cal.closed_days(periods[0].start_time, periods[-1].start_time).to_numpy() if daily else None
     rows: list[dict[str, Any]] = []
     notes: list[str] = []
     with progress_bar(len(holdout), progress_enabled(progress), "backtest: held-out years") as advance:
@@ -179,13 +266,18 @@ def backtest(
                 notes.append(f"{y}: no period to score; skipped")
                 continue
             a = actual[scored]
-            share = _average_share(res, values[train])
-            s = np.array([share.get(int(k), np.nan) for k in season_position(test)], dtype=float)
-            s = np.where(np.isfinite(s), s, 0.0)
             prev_mask = years == (y - 1)
+            if daily:
+                train_v = values[train].where(~excluded[train])
+                s = weekday_share(train_v, test, closed[train], closed[test_mask])
+                prev_s = weekday_share(train_v, periods[prev_mask], closed[train], closed[prev_mask])
+            else:
+                share = _average_share(res, values[train])
+                s = np.array([share.get(int(k), np.nan) for k in season_position(test)], dtype=float)
+                s = np.where(np.isfinite(s), s, 0.0)
+                prev_s = np.array([share.get(int(k), 0.0) for k in season_position(periods[prev_mask])])
             prev = values[prev_mask]
             prev_ok = prev.notna().to_numpy() & ~excluded[prev_mask]
-            prev_s = np.array([share.get(int(k), 0.0) for k in season_position(prev.index)])
             covered = float(prev_s[prev_ok].sum())
             prev_total = float(prev.to_numpy()[prev_ok].sum()) / covered if covered > 0 else float("nan")
             avg_unspread = prev_total * s / s.sum() if s.sum() > 0 else np.full(len(s), np.nan)
@@ -204,6 +296,7 @@ def backtest(
     out = pd.DataFrame(rows, columns=COLUMNS)
     out["peak_error"] = out["peak_error"].astype(int)
     out.attrs["notes"] = notes
+    out.attrs["average_share"] = average_share_kind(hist.freq)
     return out
 
 
@@ -226,4 +319,6 @@ def format_table(bt: pd.DataFrame) -> str:
         mean = bt.groupby(["spread", "method"], sort=False)["wape"].mean()
         lines.append("")
         lines.append("mean WAPE: " + "; ".join(f"{m} ({s}) {100 * v:.1f}%" for (s, m), v in mean.items()))
+    if bt.attrs.get("average_share"):
+        lines.append(f"average_share: {bt.attrs['average_share']}")
     return "\n".join(lines)

@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.backtesting import average_share_kind
 from evcal.report import charts
 from evcal.report.context import ReportContext
 from evcal.report.formatting import num, pct, period_label, sig
@@ -79,6 +80,7 @@ def backtest_section(ctx: ReportContext) -> dict[str, Any]:
                + ["mean WAPE", "mean bias", "peak off by (periods)"])
     fig = charts.backtest_chart(bt.copy(), METHOD_NAMES)
     return {
+        "average_share": f"Average share of year here: {average_share_kind(ctx.freq)}.",
         "summary": summary,
         "table": table(headers, rows, numeric=range(2, len(years) + 5), row_classes=row_cls),
         "figure": charts.figure(fig, "WAPE per held-out year and method",

@@ -7,6 +7,7 @@ series as the first axis of every array.
 from __future__ import annotations
 
 import functools
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
@@ -20,6 +21,9 @@ from evcal.effects.occurrences import Z95, occurrences_columns
 from evcal.effects.span import FittedBlock, GroupInfo, SpanContext
 
 __all__ = ["BlockTables", "block_tables", "LIFT_COLUMNS"]
+
+#: (names of seasonal coefficients, contrasts (r, len(names))) -> their variances (m, r)
+SeasonVariance = Callable[[tuple[str, ...], np.ndarray], np.ndarray]
 
 LIFT_COLUMNS = ["event", "lift_pct", "low_pct", "high_pct", "units_per_occurrence", "identifiable", "note"]
 
@@ -38,7 +42,8 @@ class BlockTables:
 def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.ndarray,
                  smear: np.ndarray, actual: np.ndarray, sids: np.ndarray,
                  curved: dict[str, np.ndarray] | None = None,
-                 curved_support: dict[str, np.ndarray] | None = None) -> BlockTables:
+                 curved_support: dict[str, np.ndarray] | None = None,
+                 season_var: SeasonVariance | None = None) -> BlockTables:
     """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
 
     Parameters
@@ -56,6 +61,10 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     curved_support : dict, optional
         For each curved column, the span's periods outside which it is zero
         (its windows); the products of a sparse column are formed there only.
+    season_var : callable, optional
+        ``season_var(names, C)``: the variances (m, r) of the contrasts ``C`` (r, len(names))
+        of the seasonal coefficients ``names``, from the fit's covariance (the seasonal
+        index's interval; NaN without it).
     """
     curved = curved or {}
     pmap = {c: params[i] for i, c in enumerate(group.fitted_cols)}
@@ -65,7 +74,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
 
     occ = occurrences_columns(ctx, group, parts, base, pmap, se_map, sids, curved)
     lifts = lifts_columns(ctx, group, parts, base, pmap, se_map, occ, sids)
-    profile = profile_columns(group, pmap, mean_base, sids)
+    profile = profile_columns(group, pmap, mean_base, sids, season_var)
     fitted_block = FittedBlock(sids, ctx.dates.to_numpy(),
                                {"actual": actual, "fitted": fitted, "base": base, **parts}, ctx.in_fit)
 
@@ -151,23 +160,42 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
 
 
 def profile_columns(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarray,
-             sids: np.ndarray) -> Columns:
-    """The seasonal index over one annual cycle (mean 100, free of events) for m series."""
+                    sids: np.ndarray, season_var: SeasonVariance | None = None) -> Columns:
+    """The seasonal index over one annual cycle (mean 100, free of events) for m series, with its interval.
+
+    The interval is the delta method on the seasonal coefficients' covariance:
+    the log seasonal factor of period p, ``sₚ = cₚᵀβ`` (``cₚ`` the seasonal
+    columns' values at p), is compared with the mean log factor over the cycle,
+    ``sₚ − s̄``, whose variance is ``(cₚ − c̄)ᵀ Cov(β) (cₚ − c̄)``; the 95 % interval
+    ``sₚ − s̄ ± 1.96 sd`` is carried to the index through the same monotone map
+    (``index · exp(± 1.96 sd)`` on the log scale, ``index ± 1.96 sd · 100 / level``
+    in the additive model). The normalising mean is taken as the mean log factor
+    (the index divides by the mean factor instead: a second-order difference).
+    """
     spec = group.spec
     m = len(sids)
     names, cycle = _season_cycle(spec.annual_block())
     beta = np.vstack([pmap.get(c, np.zeros(m)) for c in names])
     s = cycle @ beta
+    p = cycle_length(spec.freq)
+    fitted = [i for i, c in enumerate(names) if c in pmap]
+    sd = np.full((p, m), np.nan)
+    if season_var is not None:
+        contrasts = (cycle - cycle.mean(axis=0))[:p][:, fitted]
+        sd = np.sqrt(np.clip(season_var(tuple(names[i] for i in fitted), contrasts), 0, None)).T
     if group.transform == "none":
         level = np.where(mean_base != 0, mean_base, 1.0)
         vals = level[None, :] + s - s.mean(axis=0)
-        idx = 100.0 * vals / vals.mean(axis=0)
+        scale = 100.0 / vals.mean(axis=0)
+        idx = vals * scale
+        low, high = idx[:p] - Z95 * sd * scale, idx[:p] + Z95 * sd * scale
     else:
         e = np.exp(s - s.max(axis=0))
         idx = 100.0 * e / e.mean(axis=0)
-    p = cycle_length(spec.freq)
+        with np.errstate(over="ignore"):  # an undetermined season: an unbounded interval, said as such
+            low, high = idx[:p] * np.exp(-Z95 * sd), idx[:p] * np.exp(Z95 * sd)
     return Columns({"_sid": np.repeat(sids, p), "period": np.tile(np.arange(1, p + 1), m),
-                    "index": idx[:p].T.ravel()})
+                    "index": idx[:p].T.ravel(), "low_index": low.T.ravel(), "high_index": high.T.ravel()})
 
 
 @functools.lru_cache(maxsize=16)

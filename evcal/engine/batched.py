@@ -1,19 +1,15 @@
-"""One factorisation, many right-hand sides: OLS with HAC covariances for a block of series.
+"""One factorisation, many right-hand sides: OLS and its covariances for a block of series.
 
 Series that share a design (the same periods and the same fit rows) share
 ``X``. Least squares is then one QR factorisation ``X = QR`` and one solve
 ``B = R⁻¹ Qᵀ Y`` for every column of ``Y`` at once, which is what
 statsmodels' ``OLS(...).fit(method="qr")`` does for one column.
 
-The HAC (Newey–West 1987, Bartlett kernel) covariance of series ``s`` is the
-sandwich ``H Sₛ H`` with ``H = (XᵀX)⁻¹`` and the "meat"
-``Sₛ = Γ₀ + Σₗ wₗ (Γₗ + Γₗᵀ)``, ``Γₗ = Σₜ xₜ eₜ eₜ₋ₗ xₜ₋ₗᵀ``,
-``wₗ = 1 − l/(L+1)`` (statsmodels' ``cov_hac_simple`` without small-sample
-correction, which :func:`evcal.model.estimators.fit_ols` uses). Writing
-``Z = X H`` and ``Vₜ = Zₜ eₜ`` the whole sandwich is ``A + Aᵀ`` with
-``A = Σₜ Vₜ (½ Vₜ + Σₗ wₗ Vₜ₋ₗ)ᵀ``: one batched matrix product per block of
-series instead of a sandwich per series. The lag window is the Newey–West
-(1994) plug-in ``floor(4 (n/100)^(2/9))`` of the single-series fit.
+The covariance of series ``s`` is ``Zᵀ Σₛ Z`` with ``Z = X (XᵀX)⁻¹`` and ``Σₛ``
+the autocovariance of an AR(p) model of its residuals
+(:func:`evcal.model.estimators.error_spectrum`, the estimator
+:func:`evcal.model.estimators.fit_ols` uses): ``Z``'s FFT is taken once per
+design, and every series' covariance is one weighted sum over the frequencies.
 """
 
 from __future__ import annotations
@@ -22,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from evcal.model.estimators import hac_covariances, newey_west_lags
+from evcal.model.estimators import ErrorSpectrum, ar_covariances, contrast_variances, error_spectrum
 
 __all__ = ["SharedSolve"]
 
@@ -52,7 +48,6 @@ class SharedSolve:
     Q: np.ndarray
     R: np.ndarray
     Z: np.ndarray  # X (X'X)^-1 = Q R^-T
-    lags: int
 
     @classmethod
     def of(cls, X: np.ndarray) -> SharedSolve:
@@ -60,7 +55,7 @@ class SharedSolve:
         Q, R = np.linalg.qr(X)
         Rinv = np.linalg.solve(R, np.eye(R.shape[0]))
         Z = Q @ Rinv.T
-        return cls(X=X, Q=Q, R=R, Z=Z, lags=newey_west_lags(X.shape[0]))
+        return cls(X=X, Q=Q, R=R, Z=Z)
 
     def coefficients(self, Y: np.ndarray) -> np.ndarray:
         """Coefficients (k, m) only: ``(XᵀX)⁻¹XᵀY = ZᵀY``, a product (``R⁻¹`` is formed once per design)."""
@@ -74,7 +69,15 @@ class SharedSolve:
         sigma2 = np.einsum("ij,ij->j", E, E) / max(n - k, 1)
         return B, E, sigma2
 
-    def covariances(self, E: np.ndarray, cols: np.ndarray | None = None) -> np.ndarray:
-        """HAC covariance of each series' coefficients (m, j, j), for columns ``cols`` (all by default)."""
+    def spectrum(self, E: np.ndarray) -> ErrorSpectrum:
+        """The AR error model of each residual column of ``E`` (n, m)."""
+        return error_spectrum(E, self.X.shape[1])
+
+    def covariances(self, spectrum: ErrorSpectrum, cols: np.ndarray | None = None) -> np.ndarray:
+        """Covariance of each series' coefficients (m, j, j), for columns ``cols`` (all by default)."""
         Z = self.Z if cols is None else self.Z[:, cols]
-        return hac_covariances(Z, E, self.lags)
+        return ar_covariances(Z, spectrum)
+
+    def contrast_variances(self, spectrum: ErrorSpectrum, cols: np.ndarray, C: np.ndarray) -> np.ndarray:
+        """Variances (m, r) of the contrasts ``C`` (r, len(cols)) of the coefficients ``cols``."""
+        return contrast_variances(self.Z[:, cols], spectrum, C)

@@ -3,9 +3,10 @@
 The event columns of a series depend on it only through its log-lifts θ
 (:class:`~evcal.design.curved.CurvedEvents`), so each pass projects the
 shared trend and seasonal columns out once (Frisch–Waugh–Lovell) and every
-series solves only its few event and intervention columns. The HAC
-covariance of those coefficients comes from the same projected columns
-(their rows of ``(XᵀX)⁻¹Xᵀ`` are ``(X̃ᵀX̃)⁻¹X̃ᵀ``).
+series solves only its few event and intervention columns. The covariance
+of those coefficients (under the AR model of each series' residuals,
+:func:`evcal.model.estimators.error_spectrum`) comes from the same projected
+columns (their rows of ``(XᵀX)⁻¹Xᵀ`` are ``(X̃ᵀX̃)⁻¹X̃ᵀ``).
 """
 
 from __future__ import annotations
@@ -16,7 +17,7 @@ from typing import Any
 import numpy as np
 
 from evcal.design.curved import CurvedEvents
-from evcal.model.estimators import bartlett_weights
+from evcal.model.estimators import ErrorSpectrum, error_spectrum
 from evcal.model.passes import MAX_PASSES, THETA_TOL, theta_moved, theta_sources
 
 __all__ = ["refine"]
@@ -64,6 +65,7 @@ class Refined:
     se_terms: np.ndarray  # (len(term_cols), m)
     theta_in: dict[str, np.ndarray]  # θ the final design was built with, per source column
     curved: dict[str, np.ndarray]  # each series' raw (unmerged) event columns for that θ: (m, n_periods)
+    spectrum: ErrorSpectrum  # each series' AR error model, from its final residuals
 
 
 def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, idx: dict[str, int],
@@ -90,7 +92,7 @@ def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.nd
 
 
 def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, Y: np.ndarray,
-           B0: np.ndarray, lags: int, cache: dict[str, Any] | None = None) -> Refined | None:
+           B0: np.ndarray, cache: dict[str, Any] | None = None) -> Refined | None:
     """The single-series fit's θ passes for a block of series (None when nothing is curved).
 
     Each pass solves, for every series still moving, the event and intervention
@@ -194,7 +196,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
             theta[c][sel] = new[c]
         active[sel[moved < THETA_TOL]] = False
 
-    # the final designs: residuals and the HAC covariance of the term coefficients
+    # the final designs: residuals and the covariance of the term coefficients
     V, P, G = V_last, P_last, G_last  # built with theta_in
     bt = np.stack([params[idx[c]] for c in term], axis=1)  # (m, j)
     # the shared columns' coefficients, once, from each series' final pass
@@ -204,41 +206,34 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     # an event column is zero off the rows U, so its part of the residual is added there only
     resid = Y - A @ ba - xs @ bt[:, js].T
     resid[U] -= np.einsum("mcu,mc->um", V, bt[:, jc])
-    # each term column with the shared columns projected out, times the residual: one contiguous
-    # (n, m) array per term. The HAC "meat" of the projected columns equals the meat of the full
-    # design's (XᵀX)⁻¹Xᵀ rows once multiplied by the inverse of their Gram matrix on both sides.
-    n_t = len(term)
-    Vx = np.empty((n_t, n, m))
-    for b, j in enumerate(js):
-        np.multiply((xs[:, b] - Qa @ ps[:, b])[:, None], resid, out=Vx[j])
-    for k, j in enumerate(jc):
-        np.matmul(Qa, P[:, j, :].T, out=Vx[j])
-        np.negative(Vx[j], out=Vx[j])
-        Vx[j, U] += V[:, k, :].T
-        Vx[j] *= resid
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
-    Ginv = spd_solve(G, np.broadcast_to(np.eye(n_t), G.shape).copy())
-    # Σₜ Vxᵢ,ₜ (½Vxⱼ,ₜ + Σₗ wₗ Vxⱼ,ₜ₋ₗ), one term j at a time on the (terms, periods, series) layout
-    # the block already has (two (n, m) buffers in all): the same sums as estimators.hac_covariances
-    # forms on a (series, periods, terms) layout; transposing the block to share that code made the fit of
-    # benchmarks/panel.py's 10,000 series ~8 % slower (best of 5: 0.395 s against 0.36-0.37 s)
-    w = bartlett_weights(lags)
+    spectrum = error_spectrum(resid, k_all)
+    # each term column with the shared columns projected out, one (n, m) array per term, and its FFT.
+    # X̃ᵀ Σ X̃ of the projected columns equals the full design's (XᵀX)⁻¹Xᵀ Σ X(XᵀX)⁻¹ rows once
+    # multiplied by the inverse of their Gram matrix on both sides (the estimator of
+    # estimators.ar_covariances, on this block's (terms, periods, series) layout).
+    n_t = len(term)
     meat = np.empty((m, n_t, n_t))
-    W = np.empty((n, m))
-    lagged = np.empty((n, m))
+    F = []
+    col = np.empty((n, m))
     for j in range(n_t):
-        np.multiply(Vx[j], 0.5, out=W)
-        for lag in range(1, min(lags, n - 1) + 1):
-            np.multiply(Vx[j, :-lag], w[lag], out=lagged[lag:])
-            W[lag:] += lagged[lag:]
-        for i in range(n_t):
-            meat[:, i, j] = np.einsum("nm,nm->m", Vx[i], W)
-    del Vx, W, lagged
-    meat += meat.transpose(0, 2, 1)
+        if j in js:  # a shared column: one FFT for every series
+            F.append(spectrum.columns((xs[:, js.index(j)] - Qa @ ps[:, js.index(j)])[:, None]))
+        else:
+            np.matmul(Qa, P[:, j, :].T, out=col)
+            np.negative(col, out=col)
+            col[U] += V[:, jc.index(j), :].T
+            F.append(spectrum.columns(col))
+    for i in range(n_t):
+        for j in range(i, n_t):
+            meat[:, i, j] = meat[:, j, i] = np.einsum("km,km->m", spectrum.weights,
+                                                      (F[i] * F[j].conj()).real)
+    del F, col
+    Ginv = spd_solve(G, np.broadcast_to(np.eye(n_t), G.shape).copy())
     cov = Ginv @ meat @ Ginv
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
     order = [term.index(c) for c in group.term_cols]
     sources = theta_sources(group.status, group.roles, group.like_map, cols)
     curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
-    return Refined(params, resid, sigma2, se[order], theta_in, curved)
+    return Refined(params, resid, sigma2, se[order], theta_in, curved, spectrum)

@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
-from evcal.model.estimators import hac_note
+from evcal.model.estimators import interval_note
 from evcal.model.identify import status_notes
 from evcal.model.inputs import ModelInputs, average_share_profile, calendar_terms, calendar_text
 from evcal.model.options import FitOptions
@@ -50,14 +50,21 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
     term_cov = result.cov.reindex(index=group.term_cols, columns=group.term_cols).to_numpy(dtype=float)
     se = np.sqrt(np.clip(np.diag(term_cov), 0, None))[:, None]
     actual = inp.actual.to_numpy(dtype=float)[None, :]
-    tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]))
+    cov = result.cov
+
+    def season_var(names: tuple[str, ...], C: np.ndarray) -> np.ndarray:
+        sub = cov.reindex(index=list(names), columns=list(names)).fillna(0.0).to_numpy(dtype=float)
+        return np.einsum("ri,ij,rj->r", C, sub, C)[None, :]
+
+    tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]),
+                          season_var=season_var)
     adopt_tables(result, tables, inp)
     return result, tables
 
 
 def block_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs, model: Any) -> FitResult:
     """The :class:`FitResult` of a series solved in a block of one (``model``: its ``BlockModel``)."""
-    note = hac_note(model.lags)
+    note = interval_note(model.ar_order)
     choice = {**ols_choice(model.aic, note, options, len(inp.periods)), "covariance": note,
               "transform": inp.transform}
     result = new_result(history, calendar, options, inp, params=model.params, cov=model.cov,

@@ -91,7 +91,7 @@ class BlockModel:
     sigma2: float
     smear: float
     aic: float
-    lags: int
+    ar_order: int  # order of the residuals' autoregression behind the covariance
     theta: dict[str, float]  # log-lift each event column was aggregated with (empty: linear columns)
     group: Group
     tables: BlockTables
@@ -119,14 +119,16 @@ def run_batch(unit: BatchUnit) -> UnitResult:
 
         # the first pass's coefficients start the passes; its residuals are not needed
         first = g.solve.coefficients(Y)
-        refined = refine(g.info, g.curve, rows, g.solve.X, Y, first, g.solve.lags, cache=g.refine_cache)
+        refined = refine(g.info, g.curve, rows, g.solve.X, Y, first, cache=g.refine_cache)
     if refined is not None:
         B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
+        spectrum = refined.spectrum
     else:
         B, E, sigma2 = g.solve.solve(Y)
+        spectrum = g.solve.spectrum(E)
         term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
         if len(term_idx):
-            cov = g.solve.covariances(E, term_idx)
+            cov = g.solve.covariances(spectrum, term_idx)
             se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
         else:
             se = np.zeros((0, len(unit.sids)))
@@ -137,6 +139,17 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     # leaves the broken columns out (evcal.model.passes.estimate_exact)
     broken = _broken(g, B, se, first, y)
     keep = ~broken
+    col_of = {c: i for i, c in enumerate(g.info.fitted_cols)}
+
+    def season_var(pick: Any) -> Any:
+        """The seasonal contrasts' variances of the series ``pick``, from the block's first-pass design
+        (the seasonal columns' covariance hardly depends on each series' exact event columns)."""
+        sub = replace(spectrum, weights=spectrum.weights[:, pick], order=spectrum.order[pick])
+        def variances(names: tuple[str, ...], C: np.ndarray) -> np.ndarray:
+            return g.solve.contrast_variances(sub, np.array([col_of[c] for c in names], dtype=int), C)
+
+        return variances
+
     parts: list[BlockTables] = []
     for (f, last), ctx in unit.shared.contexts.items():
         pick: Any = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last) & keep)
@@ -148,14 +161,15 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         support = {c: t[(t >= f) & (t <= last)] - f for c in curved
                    if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
-                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved, support))
+                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved, support,
+                                  season_var(pick)))
     tables = concat_tables(parts, columns=True)
     sids = unit.sids[keep]
     m = len(sids)
 
     series = Columns({"_sid": sids, "engine": tiled_text(["batched"], m), "group": np.full(m, g.gid),
                       "transform": tiled_text([g.transform], m), "method": tiled_text(["ols"], m),
-                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": np.full(m, g.solve.lags),
+                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": spectrum.order[keep],
                       "trend_origin": np.full(m, g.origin), "note": tiled_text(["; ".join(g.notes)], m)})
     params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
     out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
@@ -184,7 +198,7 @@ def _broken(g: Group, B: np.ndarray, se: np.ndarray, first: np.ndarray | None, y
 
 def _block_model(g: Group, refined: Any, B: np.ndarray, E: np.ndarray, E0: np.ndarray, sigma2: np.ndarray,
                  smear: np.ndarray, tables: BlockTables) -> BlockModel:
-    """The whole fitted state of the block's one series: every coefficient's HAC covariance too."""
+    """The whole fitted state of the block's one series: every coefficient's covariance too."""
     cols = g.info.fitted_cols
     solve, theta = g.solve, {}
     if refined is not None:
@@ -201,13 +215,14 @@ def _block_model(g: Group, refined: Any, B: np.ndarray, E: np.ndarray, E0: np.nd
         theta = {c: float(refined.theta_in[s][0]) for c, s in sources.items() if s in refined.theta_in}
         theta.update({c: float(np.log1p(a)) for c, a in g.info.assumed.items()})
         solve = SharedSolve.of(X)
-    cov = solve.covariances(E[:, :1])[0]
+    spectrum = solve.spectrum(E[:, :1])
+    cov = solve.covariances(spectrum)[0]
     n, k = solve.X.shape
     ssr = float(E0[:, 0] @ E0[:, 0])
     llf = -0.5 * n * (np.log(2 * np.pi * ssr / n) + 1.0)
     return BlockModel(pd.Series(B[:, 0], index=cols), pd.DataFrame(cov, index=cols, columns=cols),
-                      float(sigma2[0]), float(smear[0]), float(-2 * llf + 2 * k), solve.lags, theta, g,
-                      tables)
+                      float(sigma2[0]), float(smear[0]), float(-2 * llf + 2 * k), int(spectrum.order[0]),
+                      theta, g, tables)
 
 
 @functools.lru_cache(maxsize=1)
@@ -257,7 +272,7 @@ def run_loop(unit: LoopUnit) -> UnitResult:
 EMPTY_TABLES = {  # the columns of each table when no series produced a row
     "lifts": ["_sid", *LIFT_COLUMNS, "kind", "label", "_fitted"],
     "occurrences": ["_sid", *OCC_COLUMNS, "low_units", "high_units"],
-    "profile": ["_sid", "period", "index"],
+    "profile": ["_sid", "period", "index", "low_index", "high_index"],
     "quality": ["_sid", "periods_fitted", "wape_pct", "resid_sd", "mean_base"],
 }
 

@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.design.level import LEVEL_COLUMN
 from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
 from evcal.model.estimators import interval_note
 from evcal.model.identify import status_notes
@@ -44,9 +45,15 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
                         smear=smear, error_model=est.error_model,
                         model_choice={**choice, "covariance": est.cov_note, "transform": inp.transform})
     group = GroupInfo.of_result(result)
-    ctx = SpanContext.build(inp.raw_X, inp.design.open_share.to_numpy(dtype=float), calendar, inp.periods,
+    raw_X, coefs = inp.raw_X, result.params
+    if est.level is not None:  # differenced errors: the error's level is a base column with coefficient 1
+        raw_X = raw_X.assign(**{LEVEL_COLUMN: est.level.to_numpy(dtype=float)})
+        coefs = pd.concat([coefs, pd.Series({LEVEL_COLUMN: 1.0})])
+        group = replace(group, fitted_cols=list(coefs.index),
+                        base_columns=[*group.base_columns, LEVEL_COLUMN])
+    ctx = SpanContext.build(raw_X, inp.design.open_share.to_numpy(dtype=float), calendar, inp.periods,
                             history.dates(inp.periods), inp.rows, result.status)
-    params = result.params.to_numpy(dtype=float)[:, None]  # in group.fitted_cols' order
+    params = coefs.to_numpy(dtype=float)[:, None]  # in group.fitted_cols' order
     term_cov = result.cov.reindex(index=group.term_cols, columns=group.term_cols).to_numpy(dtype=float)
     se = np.sqrt(np.clip(np.diag(term_cov), 0, None))[:, None]
     actual = inp.actual.to_numpy(dtype=float)[None, :]

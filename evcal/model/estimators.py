@@ -29,6 +29,8 @@ class Estimate:
     aic: float
     error_model: dict[str, Any] = field(default_factory=dict)
     cov_note: str = ""
+    #: differenced errors only: the error's level on every period (:class:`evcal.design.level.ErrorLevel`)
+    level: pd.Series | None = None
 
 
 def ar_max_order(n: int) -> int:
@@ -257,6 +259,24 @@ def fit_arima(y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int
     innov.iloc[d:] = u_full
     innov[~y.notna().to_numpy()] = np.nan
     tail_len = max(4 * (p + d + q) + 20, 60)
+    error_model = {
+        "kind": "arima",
+        "order": [p, d, q],
+        "ar": [float(v) for v in ar],
+        "ma": [float(v) for v in ma],
+        # the innovation variance as the likelihood estimates it (ssr / n, as statsmodels' SARIMAX):
+        # the plan's forecast variance; the coefficients' own uncertainty is drawn from ``cov``
+        "sigma2": ssr / max(m, 1),
+        "tail": [None if not np.isfinite(v) else float(v) for v in eta[-tail_len:]],
+        "arma_params": [float(v) for v in (arma_start if arma_start is not None else [])],
+    }
+    level = None
+    if d:
+        # the constant is not in X: the series' level is the error's (evcal.design.level)
+        from evcal.design.level import ErrorLevel
+
+        level = pd.Series(ErrorLevel.of_error_model(error_model, pd.Series(eta, index=y.index)).in_sample(),
+                          index=y.index)
     return Estimate(
         method=f"arima({p},{d},{q})",
         params=params,
@@ -265,16 +285,9 @@ def fit_arima(y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int
         resid=innov,
         llf=llf,
         aic=float(-2 * llf + 2 * n_par),
-        error_model={
-            "kind": "arima",
-            "order": [p, d, q],
-            "ar": [float(v) for v in ar],
-            "ma": [float(v) for v in ma],
-            "sigma2": sigma2,
-            "tail": [None if not np.isfinite(v) else float(v) for v in eta[-tail_len:]],
-            "arma_params": [float(v) for v in (arma_start if arma_start is not None else [])],
-        },
+        error_model=error_model,
         cov_note=f"regression with ARIMA({p},{d},{q}) errors (iterated feasible GLS), GLS covariance",
+        level=level,
     )
 
 

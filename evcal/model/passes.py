@@ -61,8 +61,64 @@ def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str,
         best = min(cands, key=lambda e: e.aic)
         table = [{"name": e.method, "criterion": "aic", "value": e.aic} for e in cands]
         reason = (f"lowest AIC among {', '.join(e.method for e in cands)} (same response, "
-                  f"comparable Gaussian likelihoods); {best.cov_note}")
-        return best, {"chosen": best.method, "reason": reason, "candidates": table}
+                  f"comparable Gaussian likelihoods)")
+        p_unit = unit_root_p(y - offset - X @ best.params, len(inp.periods), inp.periods.freqstr)
+        if p_unit is None or p_unit < UNIT_ROOT_P:
+            if p_unit is not None:
+                reason += (f"; its regression error is stationary (ADF with constant and trend: unit root "
+                           f"rejected, p = {p_unit:.3f}), so the level is the trend's")
+            return best, {"chosen": best.method, "reason": f"{reason}; {best.cov_note}", "candidates": table}
+        # a drifting level: differenced errors (the level is then the error's, evcal.design.level)
+        Xd = X.drop(columns=["const"]) if "const" in X.columns else X
+        diffed: list[Estimate] = []
+        for order in DIFFERENCED:
+            try:
+                diffed.append(fit_arima(y, Xd, offset, order))
+            except (np.linalg.LinAlgError, ValueError):
+                continue
+        if not diffed:
+            return best, {"chosen": best.method, "reason": f"{reason}; {best.cov_note}", "candidates": table}
+        chosen = min(diffed, key=lambda e: e.aic)
+        table += [{"name": e.method, "criterion": "aic (differenced)", "value": e.aic} for e in diffed]
+        reason = (f"differenced errors: the regression error of {best.method} ({reason}) drifts (ADF with "
+                  f"constant and trend: a unit root not rejected, p = {p_unit:.3f} >= {UNIT_ROOT_P}), and a "
+                  "drifting level left to a straight trend biases level shifts; AIC does not compare "
+                  "models with and without differencing (different likelihood bases), so the test decides; "
+                  f"then lowest AIC among {', '.join(e.method for e in diffed)}; {chosen.cov_note}")
+        return chosen, {"chosen": chosen.method, "reason": reason, "candidates": table}
+
+
+#: differenced error models ``auto`` compares (by AIC, on the same differenced likelihood)
+DIFFERENCED = ((0, 1, 1), (1, 1, 1))
+#: ADF p-value at or above which the regression error is taken to drift (a unit root not rejected)
+UNIT_ROOT_P = 0.05
+
+
+def unit_root_p(eta: pd.Series, n_periods: int, freq: str) -> float | None:
+    """ADF p-value of a unit root in the regression error ``eta`` (None when too short to test).
+
+    statsmodels' ``adfuller`` with a constant and a linear trend in the test
+    regression: its alternative is the model without differencing itself (a
+    linear trend plus stationary errors); lags by AIC. Gaps are closed up (the
+    test needs consecutive values; a few gaps barely move it). Histories of
+    fewer than four seasonal cycles are not tested (the test has little power
+    there, so it would difference nearly every short series): common practice,
+    no source.
+    """
+    from statsmodels.tsa.stattools import adfuller
+
+    from evcal.design.seasonal import cycle_length
+
+    values = eta.to_numpy(dtype=float)
+    values = values[np.isfinite(values)]
+    if n_periods < 4 * cycle_length(freq) or len(values) < 40:
+        return None
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # the future change of adfuller's return type
+            return float(adfuller(values, regression="ct", autolag="AIC")[1])
+    except (ValueError, np.linalg.LinAlgError):
+        return None
 
 
 def ols_by_rule(options: FitOptions, n_series: int, n_periods: int) -> bool:

@@ -38,13 +38,13 @@ share by an overflow.
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from evcal.design.level import ErrorLevel
 from evcal.errors import PlanError
 from evcal.plan.schedule import Schedule
 
@@ -101,6 +101,7 @@ class ErrorForecast:
     mean: np.ndarray
     var: np.ndarray
     kind: str
+    steps: np.ndarray | None = None  # periods after the history's end (ARIMA errors)
 
 
 def error_forecast(error_model: dict[str, Any], sigma2: float, steps: np.ndarray) -> ErrorForecast:
@@ -128,18 +129,46 @@ def error_forecast(error_model: dict[str, Any], sigma2: float, steps: np.ndarray
     steps = np.asarray(steps, dtype=int)
     if error_model.get("kind") != "arima":
         return ErrorForecast(np.zeros(len(steps)), np.full(len(steps), float(sigma2)), "iid")
-    from statsmodels.tsa.statespace.sarimax import SARIMAX
-
-    p, d, q = (int(v) for v in error_model["order"])
-    tail = np.array(error_model["tail"], dtype=float)  # None (a gap) becomes NaN
-    params = np.r_[error_model.get("ar", []), error_model.get("ma", []), error_model["sigma2"]]
+    tail = pd.Series(np.array(error_model["tail"], dtype=float))  # None (a gap) becomes NaN
     # the horizon starts after the history (horizon_periods), so every step is 1 or more
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        fc = SARIMAX(tail, order=(p, d, q), trend="n").smooth(params).get_forecast(int(steps.max()))
-    mean = np.asarray(fc.predicted_mean, dtype=float)
-    var = np.asarray(fc.var_pred_mean, dtype=float)
-    return ErrorForecast(mean[steps - 1], var[steps - 1], "arima")
+    mean, var = ErrorLevel.of_error_model(error_model, tail).forecast(steps)
+    return ErrorForecast(mean, var, "arima", steps)
+
+
+def tail_forecast_weights(result: Any, columns: list[str], steps: np.ndarray) -> pd.DataFrame:
+    """How the error's forecast moves with each coefficient: ``F[h, j]`` = the forecast of column j's tail.
+
+    The plan's error forecast is the filter's forecast of the tail of
+    ``η = y − X β`` (model scale). The filter is linear in its data, so with
+    other coefficients ``β'`` the forecast is ``forecast(η) − F (β' − β)``,
+    ``F`` holding, for each regressor, the same forecast of that regressor's
+    values on the tail's periods (gaps where the tail has gaps). Without this a
+    drawn coefficient moves the plan's mean by ``x_h (β' − β)`` where it really
+    moves it by ``(x_h − F_h)(β' − β)``: with differenced errors the level at
+    the end of the history is pinned by the data, and only the change since then
+    is uncertain (far less, for the first periods, than a trend drawn over the
+    whole history).
+    """
+    from evcal.design.matrix import build_design  # the fitted design's own code, on the tail's periods
+
+    em = result.error_model
+    tail = np.array(em["tail"], dtype=float)
+    end = pd.Period(result.history_end, freq=result.freq)
+    periods = pd.period_range(end - (len(tail) - 1), end, freq=result.freq)
+    design = build_design(result.spec, result.calendar, periods)
+    X = design.X.copy()
+    for c, target in (result.like_map or {}).items():  # like-events share their target's coefficient
+        if target in X.columns and c in X.columns:
+            X[target] = X[target] + X[c]
+    if result.transform == "none":  # the additive model's rows are scaled by the open share
+        X = X.mul(design.open_share.to_numpy(dtype=float), axis=0)
+    out = {}
+    for c in columns:
+        x = X[c].to_numpy(dtype=float) if c in X.columns else np.zeros(len(tail))
+        x = np.where(np.isfinite(tail), x, np.nan)
+        out[c] = ErrorLevel.of_error_model(em, pd.Series(x)).forecast(steps)[0] if np.any(x) \
+            else np.zeros(len(steps))
+    return pd.DataFrame(out)
 
 
 def separated(cov: pd.DataFrame) -> list[str]:
@@ -233,6 +262,13 @@ def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base
         else:
             b = _coef_draws(schedule.like_map[c] if kind == "like" else c, draws, params, n)
         terms += b[:, None] * x[None, :]
+    if err.kind == "arima" and err.steps is not None:
+        # the error forecast moves with the drawn coefficients (tail_forecast_weights)
+        moving = [c for c in draws.columns if np.ptp(draws[c].to_numpy()) > 0]
+        if moving:
+            F = tail_forecast_weights(result, moving, err.steps).to_numpy()  # periods x moving
+            dev = draws[moving].to_numpy() - params.reindex(moving).fillna(0.0).to_numpy()[None, :]
+            terms -= dev @ F.T
     share = np.asarray(open_share, dtype=float)
     z = rng.standard_normal(eta_base.shape)
     sd = np.sqrt(np.clip(err.var, 0.0, None))

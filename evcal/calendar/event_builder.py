@@ -84,10 +84,10 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
     if ev.shape == "daily":
         _check_daily(log, ev, loc, rule, length)
     auto = ev.before == "auto"
-    if auto and (kind not in AUTO_RULES or ev.shape == "daily" or ev.effect.kind == "zero"):
+    if auto and (kind not in AUTO_RULES or ev.shape == "daily" or ev.effect.kind != "estimate"):
         log.add((*loc, "before"), "before: auto is for Easter-relative events with an estimated lift and "
-                "one column (when: {easter: ...}, not shape daily nor effect zero); give the days, e.g. "
-                "before: 7")
+                "one column (when: {easter: ...}; not shape daily, not effect zero, assume or like); give "
+                "the days, e.g. before: 7")
     spec = EventSpec(
         name=name,
         rule=kind,

@@ -28,7 +28,7 @@ fit rows, far less than the fit itself.
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -48,6 +48,7 @@ __all__ = [
     "auto_events",
     "choose",
     "given",
+    "panel_settings",
 ]
 
 #: candidate numbers of annual Fourier pairs (daily data)
@@ -338,3 +339,23 @@ class _Likelihood:
             f"same response and {len(self.keep)} consecutive fit periods, Gaussian errors with AR(1) "
             f"coefficient {self.phi:.2f} fixed from the fullest candidate's residuals"
         )
+
+
+def panel_settings(options: FitOptions, calendar: Any) -> tuple[FitOptions, Any]:
+    """A panel's options and calendar with the stand-ins for every setting left open (nothing is chosen).
+
+    The series of a panel are solved in blocks that share one design; choosing
+    per series would split the blocks, and choosing once on the panel's total
+    would apply one series' (the total's) choice to series it may not fit.
+    Until a per-group choice exists, a panel keeps the stand-ins of
+    :func:`given` (10 Fourier pairs, no trading-day or leap-year columns, the
+    8-day run-up of ``before: auto``) and says so in its options; fit one
+    series alone to have them chosen.
+    """
+    from evcal.calendar.event_builder import AUTO_RUN_UP
+    from evcal.design.matrix import with_windows
+
+    fixed = given(options)
+    concrete = replace(options, fourier_order=fixed.fourier_order, trading_days=fixed.trading_days,
+                       leap_year=fixed.leap_year)
+    return concrete, with_windows(calendar, {ev: AUTO_RUN_UP for ev in auto_events(calendar)})

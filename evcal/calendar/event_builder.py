@@ -24,6 +24,13 @@ __all__ = ["DEFAULT_HOLIDAY_YEARS", "build_event", "build_rule"]
 # `years` bounds. Wide enough for any history or plan we expect; a choice, documented.
 DEFAULT_HOLIDAY_YEARS = (2000, 2035)
 
+#: the run-up an event with `before: auto` has until a fit chooses one (the 8 days of the usual
+#: Easter regressor of regression practice, as recalled from memory); evcal.model.choose picks among
+#: several lengths
+AUTO_RUN_UP = 8
+#: rules whose events may leave their run-up to the fit
+AUTO_RULES = ("easter", "orthodox_easter")
+
 # Each `when:` key's validated value -> its date rule (`holiday` and `dates` need more).
 _RULES = {
     "easter": R.EasterRule,
@@ -76,6 +83,11 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
         log.add((*loc, "years"), "a `dates` rule lists its own years; remove `years`")
     if ev.shape == "daily":
         _check_daily(log, ev, loc, rule, length)
+    auto = ev.before == "auto"
+    if auto and (kind not in AUTO_RULES or ev.shape == "daily" or ev.effect.kind != "estimate"):
+        log.add((*loc, "before"), "before: auto is for Easter-relative events with an estimated lift and "
+                "one column (when: {easter: ...}; not shape daily, not effect zero, assume or like); give "
+                "the days, e.g. before: 7")
     spec = EventSpec(
         name=name,
         rule=kind,
@@ -83,7 +95,8 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
         label=(ev.label or name).strip(),
         group=ev.group,
         length=length,
-        before=ev.before,
+        before=AUTO_RUN_UP if auto else int(ev.before),
+        before_auto=auto,
         after=ev.after,
         shape=ev.shape,
         effect=ev.effect,

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from typing import Annotated, Any
+from typing import Annotated, Any, Literal
 
 import pandas as pd
 from pydantic import (
@@ -106,6 +106,20 @@ Weekday = Annotated[int, BeforeValidator(parse_weekday)]
 Years = Annotated[YearsSpec, BeforeValidator(parse_years)]
 Effect = Annotated[EffectSpec, BeforeValidator(parse_effect)]
 Days = Annotated[int, _bounded(0, MAX_DAYS, "a number of days")]
+#: run-up days, or `auto`: chosen by the fit (Easter-relative events; evcal.model.choose)
+def _run_up(value: Any) -> int | str:
+    if isinstance(value, str) and value.strip().lower() == "auto":
+        return "auto"
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise ValueError(f"{show(value)} is not a number of days; write e.g. before: 10, or before: auto "
+                         "for an Easter-relative event (the fit chooses)")
+    if not 0 <= value <= MAX_DAYS:
+        raise ValueError(f"{show(value)} is out of range; a number of days must be from 0 to {MAX_DAYS:g}")
+    return value
+
+
+#: run-up days, or ``auto`` (Easter-relative events: the fit chooses, see evcal.model.choose)
+RunUp = Annotated[int | Literal["auto"], BeforeValidator(_run_up)]
 Offset = Annotated[int, _bounded(-MAX_DAYS, MAX_DAYS, "an offset in days")]
 Length = Annotated[int, _bounded(1, MAX_DAYS, "a length in days")]
 Year = Annotated[int, AfterValidator(check_year)]
@@ -215,7 +229,7 @@ class EventModel(_Section):
     group: str | None = None
     when: WhenModel
     length: Length | None = None
-    before: Days = 0
+    before: RunUp = 0
     after: Days = 0
     shape: Shape = "flat"
     years: Years = YearsSpec()

@@ -128,6 +128,7 @@ class EventSpec:
     moved: dict[int, MovedSpec] = field(default_factory=dict)
     offset: int = 0
     line: int | None = None
+    before_auto: bool = False  # `before: auto`: the fit chooses the run-up (``before`` is a stand-in)
 
     @property
     def window_offsets(self) -> list[int]:

@@ -27,9 +27,14 @@ Transform = Annotated[str, typer.Option("--transform", help="auto | log | none |
 Errors = Annotated[str, typer.Option("--errors", help="auto | ols | arima")]
 ArimaOrder = Annotated[str | None, typer.Option("--arima-order", help="p,d,q for errors arima, e.g. 0,1,1")]
 Seasonal = Annotated[str, typer.Option("--seasonal", help="auto | dummies | fourier")]
-FourierOrder = Annotated[int, typer.Option("--fourier-order", help="Harmonics of annual Fourier terms.")]
+FourierOrder = Annotated[str, typer.Option(
+    "--fourier-order", help="Harmonics of annual Fourier terms (1..60), or auto: chosen by AICc.")]
 TrendOrder = Annotated[int, typer.Option("--trend-order", help="0 flat, 1 linear, 2 quadratic.")]
-TradingDays = Annotated[bool, typer.Option("--trading-days", help="Weekday-composition terms (monthly).")]
+TradingDays = Annotated[bool | None, typer.Option(
+    "--trading-days/--no-trading-days",
+    help="Weekday-composition terms (monthly, quarterly); neither given: chosen by AICc.")]
+LeapYear = Annotated[bool | None, typer.Option(
+    "--leap-year/--no-leap-year", help="Leap-year term (monthly, quarterly); neither given: chosen by AICc.")]
 AllowNegative = Annotated[bool, typer.Option("--allow-negative", help="Accept negative values.")]
 Force = Annotated[bool, typer.Option(
     "--force", help="Replace evcal's own output of another kind or version at --out (never a file or "
@@ -55,18 +60,36 @@ def parse_order(text: str | None) -> tuple[int, int, int] | None:
     return parts  # type: ignore[return-value]
 
 
-def fit_options(transform: str, errors: str, arima_order: str | None, seasonal: str, fourier_order: int,
-                trend_order: int, trading_days: bool, allow_negative: bool) -> dict[str, Any]:
+def fit_options(transform: str, errors: str, arima_order: str | None, seasonal: str, fourier_order: int | str,
+                trend_order: int, trading_days: bool | None, allow_negative: bool,
+                leap_year: bool | None = None) -> dict[str, Any]:
     """The fit options of a command line, as keyword arguments of :func:`evcal.fit`.
 
     Examples
     --------
+    ``None`` for ``trading_days``/``leap_year`` (neither flag given) and ``auto`` for
+    ``fourier_order`` leave the setting to the data (:mod:`evcal.model.choose`).
+
     >>> fit_options("auto", "ols", None, "auto", 10, 1, False, False)["errors"]
     'ols'
+    >>> fit_options("auto", "ols", None, "auto", "auto", 1, None, False)["trading_days"]
+    'auto'
     """
     return {"transform": transform, "errors": errors, "arima_order": parse_order(arima_order),
-            "seasonal": seasonal, "fourier_order": fourier_order, "trend_order": trend_order,
-            "trading_days": trading_days, "allow_negative": allow_negative}
+            "seasonal": seasonal, "fourier_order": parse_fourier_order(fourier_order),
+            "trend_order": trend_order, "trading_days": "auto" if trading_days is None else trading_days,
+            "allow_negative": allow_negative, "leap_year": "auto" if leap_year is None else leap_year}
+
+
+def parse_fourier_order(text: int | str) -> int | str:
+    """``--fourier-order``: a whole number, or ``auto``."""
+    if isinstance(text, int) or str(text).strip().lower() == "auto":
+        return text if isinstance(text, int) else "auto"
+    try:
+        return int(text)
+    except ValueError:
+        raise EvcalError(f"option --fourier-order: {text!r} is not a whole number or auto (e.g. 10, or "
+                         "auto: chosen by AICc)") from None
 
 
 @command("fit")
@@ -81,10 +104,11 @@ def fit_cmd(
     errors: Errors = "auto",
     arima_order: ArimaOrder = None,
     seasonal: Seasonal = "auto",
-    fourier_order: FourierOrder = 10,
+    fourier_order: FourierOrder = "auto",
     trend_order: TrendOrder = 1,
-    trading_days: TradingDays = False,
+    trading_days: TradingDays = None,
     allow_negative: AllowNegative = False,
+    leap_year: LeapYear = None,
     series_col: list[str] = typer.Option(
         None, "--series-col", help="Key column(s) of a long file, one series per key (repeat, or a,b)."),
     level: str = typer.Option(None, "--level", help="Add the series up to these key columns first (a,b)."),
@@ -97,7 +121,7 @@ def fit_cmd(
     panel = bool(series_col or level or group_col or workers or scheduler)
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
-                              trading_days, allow_negative)
+                          trading_days, allow_negative, leap_year)
     if panel:  # many series: evcal.panel
         from evcal.panel import fit_panel
 
@@ -203,10 +227,11 @@ def backtest_cmd(
     errors: Errors = "auto",
     arima_order: ArimaOrder = None,
     seasonal: Seasonal = "auto",
-    fourier_order: FourierOrder = 10,
+    fourier_order: FourierOrder = "auto",
     trend_order: TrendOrder = 1,
-    trading_days: TradingDays = False,
+    trading_days: TradingDays = None,
     allow_negative: AllowNegative = False,
+    leap_year: LeapYear = None,
     force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
@@ -218,7 +243,7 @@ def backtest_cmd(
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
                   value_col=value_col, freq=freq,
                   **fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
-                                    trading_days, allow_negative))
+                                    trading_days, allow_negative, leap_year))
     save_backtest(bt, out)
     typer.echo(format_table(bt))
     typer.echo("spread: scaled to each year's actual total (compares the profile); unspread: as planned.")

@@ -7,7 +7,8 @@ columns for any periods, past or future, with the same code.
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass, field
+import re
+from dataclasses import asdict, dataclass, field, replace
 from typing import Any
 
 import pandas as pd
@@ -15,7 +16,14 @@ import pandas as pd
 from evcal.design.base import Block
 from evcal.design.events import EventColumns, OpenShare
 from evcal.design.interventions import Interventions, InterventionTerm
-from evcal.design.seasonal import AnnualFourier, SeasonalDummies, TradingDays, WeekdayDummies, base_freq
+from evcal.design.seasonal import (
+    AnnualFourier,
+    LeapYear,
+    SeasonalDummies,
+    TradingDays,
+    WeekdayDummies,
+    base_freq,
+)
 from evcal.design.trend import Trend
 
 
@@ -34,13 +42,27 @@ class DesignSpec:
     interventions: list[dict[str, Any]] = field(default_factory=list)  # InterventionTerm.to_dict()s
     # fitted log-lift per event column, for the exact aggregation of daily lifts (evcal.design.curved)
     event_theta: dict[str, float] = field(default_factory=dict)
+    leap_year: bool = False  # the leap-year column (monthly/quarterly data only)
+    # run-up days chosen for events whose calendar says `before: auto` (event name -> days)
+    event_windows: dict[str, int] = field(default_factory=dict)
+    # what the data chose and why (evcal.model.choose): one record per setting left open
+    choices: list[dict[str, Any]] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
+        d = asdict(self)
+        # settings at their old values are left out, as folders written before they existed have them
+        for key, old in (("leap_year", False), ("event_windows", {}), ("choices", [])):
+            if d[key] == old:
+                del d[key]
+        return d
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> DesignSpec:
         return cls(**d)
+
+    def calendar(self, calendar: Any) -> Any:
+        """``calendar`` with the run-up windows this design chose (itself when it chose none)."""
+        return with_windows(calendar, self.event_windows)
 
     def intervention_terms(self) -> tuple[InterventionTerm, ...]:
         return tuple(InterventionTerm.from_dict(t) for t in self.interventions)
@@ -56,6 +78,8 @@ class DesignSpec:
         blocks: list[Block] = [WeekdayDummies(), self.annual_block()] if b == "D" else [self.annual_block()]
         if self.trading_days and b in ("M", "Q"):
             blocks.append(TradingDays())
+        if self.leap_year and b in ("M", "Q"):
+            blocks.append(LeapYear())
         return blocks
 
 
@@ -81,6 +105,7 @@ def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> De
     >>> round(float(d.X.loc[pd.Period("2024-03", "M"), "e"]), 4)  # 1 day of 31
     0.0323
     """
+    calendar = spec.calendar(calendar)
     blocks: list[tuple[str, Block]] = [
         ("trend", Trend(spec.trend_origin, spec.trend_order, spec.constant)),
         *[("seasonal", block) for block in spec.seasonal_blocks()],
@@ -91,3 +116,56 @@ def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> De
     roles = {c: role for role, frame in parts for c in frame.columns}
     X = pd.concat([frame for _, frame in parts], axis=1).astype(float)
     return Design(X=X, open_share=OpenShare(calendar).values(periods), roles=roles)
+
+
+def with_windows(calendar: Any, windows: dict[str, int]) -> Any:
+    """``calendar`` with the ``before`` days of the named events set (events with ``before: auto``).
+
+    A new calendar (the given one is not changed); the same one when no named
+    event is left open. Its text says the chosen days in place of ``auto``, so a
+    calendar loaded again from it (a model folder's ``calendar_text``, a
+    per-series unit) has the same windows.
+
+    Examples
+    --------
+    >>> from evcal.calendar import load_calendar
+    >>> cal = load_calendar("name: x\\nevents:\\n  - {name: easter, when: {easter: 0}, before: auto}\\n")
+    >>> chosen = with_windows(cal, {"easter": 10})
+    >>> chosen.event("easter").before, load_calendar(chosen.text).event("easter").before
+    (10, 10)
+    """
+    open_events = {ev.name for ev in calendar.events if getattr(ev, "before_auto", False)}
+    windows = {k: int(v) for k, v in windows.items() if k in open_events}
+    if not windows:
+        return calendar
+    events = [replace(ev, before=windows[ev.name], before_auto=False) if ev.name in windows else ev
+              for ev in calendar.events]
+    return replace(calendar, events=events, text=_text_with_windows(calendar, windows))
+
+
+_AUTO_RUN_UP = re.compile(r"(\bbefore\s*:\s*)([\"']?)auto\2", re.IGNORECASE)
+
+
+def _text_with_windows(calendar: Any, windows: dict[str, int]) -> str:
+    """The calendar's YAML with ``before: auto`` of each named event replaced by its days.
+
+    The first ``before: auto`` at or after an event's line (outside comments)
+    is its own: the key belongs to the event's mapping and ``auto`` is valid
+    nowhere else.
+    """
+    lines = calendar.text.splitlines(keepends=True)
+    for ev in calendar.events:
+        if ev.name not in windows or not ev.line:
+            continue
+        for i in range(ev.line - 1, len(lines)):
+            code, hash_, comment = lines[i].partition("#")
+            found = _AUTO_RUN_UP.search(code)
+            if found is None:
+                continue
+            days = windows[ev.name]
+            new = code[:found.start()] + f"{found.group(1)}{days}" + code[found.end():]
+            if not new.strip().endswith(("}", ",", "]")) and not hash_:
+                new = new.rstrip("\n") + "  # before: auto, chosen by the fit (AICc)\n"
+            lines[i] = new + hash_ + comment
+            break
+    return "".join(lines)

@@ -131,3 +131,27 @@ class TradingDays:
         contrasts = counts[:, :6] - counts[:, 6:7]
         names = [f"trading[{d}]" for d in ("mon", "tue", "wed", "thu", "fri", "sat")]
         return pd.DataFrame(contrasts, index=periods, columns=names)
+
+
+@dataclass(frozen=True)
+class LeapYear:
+    """The leap-year column of monthly and quarterly data.
+
+    0.75 in a February (or first quarter) of a leap year, -0.25 in one of a
+    common year, 0 elsewhere: the mean-corrected leap-year regressor of the
+    Eurostat handbook on seasonal adjustment (2018 edition, chapter 5). Over a
+    four-year cycle it sums to zero, so it moves no level into or out of the
+    seasonal profile; it carries only the 29th of February.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> LeapYear().columns(pd.period_range("2023-12", periods=3, freq="M"))["leap_year"].tolist()
+    [0.0, 0.0, -0.25]
+    """
+
+    def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
+        start = periods.start_time
+        holds_feb = (start.month <= 2) & (periods.end_time.month >= 2)  # February, or the quarter holding it
+        values = np.where(holds_feb, np.where(start.is_leap_year, 0.75, -0.25), 0.0)
+        return pd.DataFrame({"leap_year": values}, index=periods)

@@ -55,6 +55,7 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
     cal = load_calendar_any(calendar)
     check_history_length(hist)
     inp = prepare(hist, cal, opts)
+    cal = inp.spec.calendar(cal)  # with the run-ups the data chose for `before: auto` events
     check_fit_rows(inp, cal, hist)
     block = fit_long_panel(Panel.of_history(hist), cal, opts, single=inp)
     model = block.models[0]

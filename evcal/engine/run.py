@@ -170,6 +170,10 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
         result's ``models`` then holds its whole fitted model.
     """
     cal = load_calendar_any(calendar)
+    if single is None:  # a panel keeps the stand-ins of the settings left open (see panel_settings)
+        from evcal.model.choose import panel_settings
+
+        options, cal = panel_settings(options, cal)
     units, screen, groups = plan_units(panel, cal, options, single)
     results = _run(units, runner, on_fitted)
     # series whose block fit broke down, fitted again one by one with the block's error model

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import hashlib
+from collections import OrderedDict
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -14,6 +16,7 @@ from evcal.design.interventions import InterventionTerm
 from evcal.design.matrix import Design, DesignSpec, build_design
 from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.errors import CalendarError, HistoryError
+from evcal.model.choose import Chosen, given
 from evcal.model.identify import ColumnStatus, check_columns, independent_base_columns
 from evcal.model.options import FitOptions
 
@@ -101,30 +104,77 @@ def transforms(values: np.ndarray, open_rows: np.ndarray, transform: str, allow_
     return chosen
 
 
+def seasonal_kind(options: FitOptions, freq: str) -> str:
+    """The seasonal block: ``fourier`` for daily data (and weekday dummies), else ``dummies``, or as asked."""
+    if options.seasonal == "auto":
+        return "fourier" if base_freq(freq) == "D" else "dummies"
+    return options.seasonal
+
+
 def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, freq: str,
-                theta: dict[str, float] | None = None) -> DesignSpec:
-    """The design settings of a history on ``periods`` (the trend's origin is the year it starts)."""
-    seasonal = options.seasonal
-    if seasonal == "auto":
-        seasonal = "fourier" if base_freq(freq) == "D" else "dummies"
+                theta: dict[str, float] | None = None, chosen: Chosen | None = None) -> DesignSpec:
+    """The design settings of a history on ``periods`` (the trend's origin is the year it starts).
+
+    ``chosen`` holds the settings the data chose for the options left open
+    (:func:`evcal.model.choose.choose`); without it those take their stand-ins
+    (:func:`evcal.model.choose.given`).
+    """
+    chosen = given(options) if chosen is None else chosen
     return DesignSpec(
         freq=freq,
         trend_origin=float(np.floor(period_mid_years(periods[:1])[0])),
         trend_order=options.trend_order,
         constant=True,
-        seasonal=seasonal,
-        fourier_order=options.fourier_order,
-        trading_days=options.trading_days,
+        seasonal=seasonal_kind(options, freq),
+        fourier_order=chosen.fourier_order,
+        trading_days=chosen.trading_days,
         event_columns=[c for c, ev in calendar.event_columns().items()
                        if calendar.event(ev).effect.kind != "zero"],
         interventions=[InterventionTerm.from_spec(s).to_dict() for s in calendar.interventions],
         event_theta=dict(theta or {}),
+        leap_year=chosen.leap_year,
+        event_windows=dict(chosen.event_windows),
+        choices=list(chosen.choices),
     )
+
+
+#: the last few choices made, by the content they were made on (a fit prepares its inputs once per
+#: pass, and a per-series unit reloads the calendar: the choice is made once)
+_CHOSEN: OrderedDict[tuple[Any, ...], Chosen] = OrderedDict()
+_CHOSEN_KEEP = 8
+
+
+def chosen_settings(history: Any, calendar: Any, options: FitOptions, values: pd.Series | None = None
+                    ) -> Chosen:
+    """The settings the data choose for ``history`` (:func:`evcal.model.choose.choose`), once per content.
+
+    ``values`` (a panel's total) are chosen on instead of the history's own.
+    """
+    from evcal.design.matrix import with_windows
+    from evcal.model.choose import choose
+
+    data = history.values if values is None else values
+    # (the error model does not enter: every candidate is scored on the same likelihood of its own)
+    content = (replace(options, errors="auto", arima_order=None), history.freq, str(data.index[0]), len(data),
+               hashlib.sha1(np.ascontiguousarray(data.to_numpy(dtype=float))).hexdigest())
+
+    def key(cal: Any) -> tuple[Any, ...]:
+        return (*content, cal.text or id(cal), tuple((e.name, e.before, e.before_auto) for e in cal.events))
+
+    found = _CHOSEN.get(key(calendar))
+    if found is None:
+        found = choose(history, calendar, options, seasonal_kind(options, history.freq), values)
+        # the calendar with the chosen run-ups (what the fit goes on with) has made the same choice
+        for cal in (calendar, with_windows(calendar, found.event_windows)):
+            _CHOSEN[key(cal)] = found
+        while len(_CHOSEN) > _CHOSEN_KEEP:
+            _CHOSEN.popitem(last=False)
+    return found
 
 
 def prepare(history: Any, calendar: Any, options: FitOptions,
             theta: dict[str, float] | None = None, identify: bool = True,
-            degenerate: dict[str, str] | None = None) -> ModelInputs:
+            degenerate: dict[str, str] | None = None, chosen: Chosen | None = None) -> ModelInputs:
     """Build the design and decide which columns enter the fit.
 
     ``theta`` (log-lift per event column from a previous pass) makes the event
@@ -134,11 +184,15 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     own rows instead). ``degenerate`` (column -> note) lists columns an earlier
     fit flagged with :func:`evcal.model.identify.degenerate_terms`: they are
     marked ``unidentifiable`` with that note and left out, and so are the
-    events that borrow their lift or share their days.
+    events that borrow their lift or share their days. ``chosen`` gives the
+    settings of the options left open (``auto``); without it the data choose
+    them (:func:`chosen_settings`).
     """
     periods = history.values.index
     actual = history.values.astype(float)
-    spec = design_spec(calendar, options, periods, history.freq, theta)
+    if chosen is None:
+        chosen = chosen_settings(history, calendar, options)
+    spec = design_spec(calendar, options, periods, history.freq, theta, chosen)
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()
     closed_full = share <= 1e-9

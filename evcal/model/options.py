@@ -10,6 +10,8 @@ from evcal.errors import EvcalError
 TRANSFORMS = ("auto", "log", "none", "count")
 ERRORS = ("auto", "ols", "arima")
 SEASONAL = ("auto", "dummies", "fourier")
+#: the value of a setting the data choose (:mod:`evcal.model.choose`)
+AUTO = "auto"
 
 
 @dataclass(frozen=True)
@@ -31,12 +33,17 @@ class FitOptions:
     seasonal : {"auto", "dummies", "fourier"}
         Seasonal terms; ``auto`` = dummies for weekly/monthly/quarterly data,
         weekday dummies plus annual Fourier terms for daily data.
-    fourier_order : int
-        Harmonics of the annual Fourier terms.
+    fourier_order : int or "auto"
+        Harmonics of the annual Fourier terms; ``auto`` (default): chosen by AICc
+        (:mod:`evcal.model.choose`).
     trend_order : int
         0 = flat level, 1 = linear trend (default), 2 = quadratic.
-    trading_days : bool
-        Weekday-composition columns for monthly and quarterly data.
+    trading_days : bool or "auto"
+        Weekday-composition columns for monthly and quarterly data; ``auto``
+        (default): kept when AICc prefers them.
+    leap_year : bool or "auto"
+        The leap-year column of monthly and quarterly data (0.75 in a leap February,
+        -0.25 in other Februaries); ``auto`` (default): kept when AICc prefers it.
     allow_negative : bool
         Accept negative values (forces an additive model).
     """
@@ -45,10 +52,11 @@ class FitOptions:
     errors: str = "auto"
     arima_order: tuple[int, int, int] | None = None
     seasonal: str = "auto"
-    fourier_order: int = 10
+    fourier_order: int | str = AUTO
     trend_order: int = 1
-    trading_days: bool = False
+    trading_days: bool | str = AUTO
     allow_negative: bool = False
+    leap_year: bool | str = AUTO
 
     def __post_init__(self) -> None:
         choices = (("transform", self.transform, TRANSFORMS), ("errors", self.errors, ERRORS),
@@ -57,8 +65,13 @@ class FitOptions:
                     for name, value, allowed in choices if value not in allowed]
         if not 0 <= int(self.trend_order) <= 2:
             problems.append(f"option trend-order: {self.trend_order} must be 0, 1 or 2")
-        if not 1 <= int(self.fourier_order) <= 60:
-            problems.append(f"option fourier-order: {self.fourier_order} must be between 1 and 60")
+        if self.fourier_order != AUTO and (isinstance(self.fourier_order, bool | str)
+                                           or not 1 <= int(self.fourier_order) <= 60):
+            problems.append(f"option fourier-order: {self.fourier_order!r} must be a whole number between 1 "
+                            "and 60, or auto (chosen by AICc)")
+        for name, value in (("trading-days", self.trading_days), ("leap-year", self.leap_year)):
+            if value != AUTO and not isinstance(value, bool):
+                problems.append(f"option {name}: {value!r} must be true, false or auto (chosen by AICc)")
         if self.arima_order is not None and (
             len(self.arima_order) != 3 or min(self.arima_order) < 0 or max(self.arima_order) > 3
         ):
@@ -69,6 +82,8 @@ class FitOptions:
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
         d["arima_order"] = None if self.arima_order is None else list(self.arima_order)
+        if d["leap_year"] is False:  # as folders written before the leap-year column have it (absent)
+            del d["leap_year"]
         return d
 
     @classmethod
@@ -76,4 +91,5 @@ class FitOptions:
         d = dict(d)
         if d.get("arima_order") is not None:
             d["arima_order"] = tuple(d["arima_order"])
+        d.setdefault("leap_year", False)  # written before the leap-year column existed
         return cls(**d)

@@ -71,6 +71,8 @@ def describe(result: Any) -> str:
         f"chosen  : transform {result.transform}, errors {result.model_choice.get('chosen')}: "
         f"{result.model_choice.get('reason', '')}",
     ]
+    # settings the data chose (evcal.model.choose): what, among which candidates, and why
+    lines += [f"chosen  : {c['reason']}" for c in getattr(result.spec, "choices", None) or []]
     q = result.quality or {}
     if q:
         wape, sd = q.get("wape_pct", float("nan")), q.get("resid_sd", float("nan"))

@@ -31,10 +31,11 @@ class Options(Strict):
     errors: Literal["auto", "ols", "arima"]
     arima_order: list[Whole] | None = Field(min_length=3, max_length=3)
     seasonal: Literal["auto", "dummies", "fourier"]
-    fourier_order: Whole
+    fourier_order: Whole | Literal["auto"]
     trend_order: Whole
-    trading_days: bool
+    trading_days: bool | Literal["auto"]
     allow_negative: bool
+    leap_year: bool | Literal["auto"] = False  # (absent from folders written before it existed)
 
 
 class Intervention(Strict):
@@ -43,6 +44,18 @@ class Intervention(Strict):
     start: Day
     end: Day | None
     decay: Finite | None
+
+
+class ChoiceCandidate(Strict):
+    value: str
+    aicc: Num  # AICc above the chosen candidate's
+
+
+class SettingChoice(Strict):  # one setting the data chose (evcal.model.choose)
+    setting: str
+    chosen: str
+    reason: str
+    candidates: list[ChoiceCandidate]
 
 
 class Design(Strict):
@@ -56,6 +69,10 @@ class Design(Strict):
     event_columns: list[str]
     interventions: list[Intervention]
     event_theta: dict[str, Finite]
+    # what the data chose (evcal.model.choose); absent from folders written before the choice existed
+    leap_year: bool = False
+    event_windows: dict[str, Whole] = {}
+    choices: list[SettingChoice] = []
 
 
 class ColumnNote(Strict):  # what identification said of an event column

@@ -12,6 +12,7 @@ from evcal._files import atomic_dir
 from evcal.discovery.abnormal import AbnormalYear
 from evcal.discovery.cycles import Cycle, describe_cycles
 from evcal.discovery.lost_demand import LostDemand
+from evcal.discovery.moving import EasterCluster
 from evcal.discovery.outliers import OutlierSearch
 from evcal.discovery.recurring import Recurring
 from evcal.discovery.suggestions import OUTLIER_KINDS, describe_pattern, period_day
@@ -52,6 +53,10 @@ class Findings:
     freq: str = ""
     n_periods: int = 0
     notes: list[str] = field(default_factory=list)
+    #: the Easter-relative effect found in monthly or quarterly data, if any
+    easter: EasterCluster | None = None
+    #: per abnormal year: "" when excluding it is suggested, else why not
+    exclusion_advice: dict[int, str] = field(default_factory=dict)
 
     def summary(self) -> str:
         """A short readable account of the findings, one finding a line.
@@ -76,6 +81,10 @@ class Findings:
                 f"unexplained (Chen-Liu, critical |tau| {self.outliers.cval:.2f}): "
                 f"{counts['outlier']} one-period peaks/dips, {counts['level_shift']} level shifts, "
                 f"{counts['temporary']} temporary changes")
+        if self.easter is not None:
+            e = self.easter
+            lines.append(f"moving with Easter: the {e.window} days before Easter Sunday, "
+                         f"{e.size_pct:+.1f}% (t {e.t:+.1f})")
         for r in self.recurring:
             what = "peak" if r.sign > 0 else "dip"
             lines.append(f"recurring {what}: {describe_pattern(r)}, {r.mean_size_pct:+.0f}% on average, "
@@ -89,6 +98,7 @@ class Findings:
                 f"{lo.expected:,.0f} (95% {lo.expected_low:,.0f}-{lo.expected_high:,.0f}), "
                 f"sold {lo.actual:,.0f}: about {lo.lost:,.0f} units lost")
         if len(self.table) == 1 and not self.recurring and not self.abnormal and not self.lost and (
+                self.easter is None) and (
                 self.outliers is None or not self.outliers.outliers):
             lines.append("nothing unexplained beyond the expected false-alarm rate")
         lines += [f"note: {n}" for n in self.notes]

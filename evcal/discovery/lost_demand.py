@@ -20,13 +20,14 @@ import csv
 import re
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from evcal.errors import CalendarError
 
-__all__ = ["StockOut", "LostDemand", "is_stockout", "read_stockouts", "simulate_lost_demand"]
+__all__ = ["StockOut", "LostDemand", "is_stockout", "lost_demand", "read_stockouts", "simulate_lost_demand"]
 
 _STOCKOUT = re.compile(r"stock[\s-]*outs?|out[\s-]+of[\s-]+stock", re.IGNORECASE)
 
@@ -200,3 +201,46 @@ def simulate_lost_demand(
         expected_high=float(high),
         actual=float(a.sum()),
     )
+
+
+def lost_demand(result: Any, actual: np.ndarray, x_fit: pd.DataFrame | None, exclusions: list[Any],
+                extra: list[StockOut]) -> list[LostDemand]:
+    """Expected demand against sales in each stock-out window of a fit (each window once).
+
+    Parameters
+    ----------
+    result : FitResult
+        The fit: its ``fitted`` table, coefficient covariance, ``sigma2`` and transform.
+    actual : array
+        Sales per period of the fit.
+    x_fit : DataFrame, optional
+        The fitted regressors (None for a count model: coefficient uncertainty is then not drawn).
+    exclusions : list
+        The calendar's exclusions (``start``, ``end``, ``reason``); those whose
+        reason says stock-out (:func:`is_stockout`) are windows.
+    extra : list of StockOut
+        Windows from a ``--stockouts`` file, after the calendar's.
+
+    Returns
+    -------
+    list of LostDemand
+        One per window that touches the history, in the order given.
+    """
+    windows: dict[tuple[pd.Timestamp, pd.Timestamp], StockOut] = {}
+    for w in [StockOut(pd.Timestamp(e.start), pd.Timestamp(e.end), e.reason)
+              for e in exclusions if is_stockout(e.reason)] + list(extra):
+        windows.setdefault((w.start, w.end), w)
+    periods = result.residuals.index
+    p_start, p_end = periods.start_time.normalize(), periods.end_time.normalize()
+    expected = result.fitted["fitted"].to_numpy(dtype=float)
+    actual = np.asarray(actual, dtype=float)
+    cols = list(x_fit.columns) if x_fit is not None else []
+    cov = result.cov.reindex(index=cols, columns=cols).to_numpy(dtype=float)
+    x = x_fit.to_numpy(dtype=float) if x_fit is not None else np.zeros((len(periods), 0))
+    out = []
+    for w in windows.values():
+        touched = np.asarray((p_start <= w.end) & (p_end >= w.start))
+        if touched.any():
+            out.append(simulate_lost_demand(w, expected[touched], actual[touched], x[touched], cov,
+                                            float(result.sigma2), result.transform))
+    return out

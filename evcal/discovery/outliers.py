@@ -44,7 +44,7 @@ import statsmodels.api as sm
 from scipy.signal import lfilter
 
 __all__ = ["Outlier", "OutlierSearch", "TC_DELTA", "chen_liu", "critical_value", "detection_statistics",
-           "outlier_pattern", "robust_sigma"]
+           "joint_residuals", "lasting_shifts", "outlier_pattern", "robust_sigma"]
 
 TYPES = ("AO", "LS", "TC")
 #: Chen & Liu (1993) recommend delta = 0.7 for a temporary change
@@ -319,6 +319,59 @@ def chen_liu(
     outliers = [Outlier(kind, t0, labels[t0], float(params[k + i]), float(tvalues[k + i]))
                 for i, (kind, t0) in enumerate(found)]
     return OutlierSearch(sorted(outliers, key=lambda o: o.position), cval)
+
+
+def joint_residuals(y: pd.Series | np.ndarray, exog: pd.DataFrame | np.ndarray | None,
+                    effects: Sequence[Outlier]) -> np.ndarray:
+    """Residuals of ``y`` on the regressors and ``effects`` estimated jointly (Chen–Liu's stage 2).
+
+    The trend and every other regressor are re-estimated with the effects in
+    the model, so a level shift is not half absorbed by a straight line; the
+    effects themselves are part of the fit (nothing is dropped).
+
+    Examples
+    --------
+    >>> y = np.r_[np.zeros(50), np.ones(50)] + np.random.default_rng(0).normal(0, 0.1, 100)
+    >>> shift = Outlier("LS", 50, 50, 1.0, 10.0)
+    >>> bool(abs(np.nanmean(joint_residuals(y, None, [shift])[50:])) < 1e-9)
+    True
+    """
+    yv = np.asarray(y, dtype=float)
+    n = len(yv)
+    x = np.ones((n, 1)) if exog is None else np.asarray(exog, dtype=float).reshape(n, -1)
+    if exog is not None and not (np.ptp(x[np.isfinite(x).all(axis=1)], axis=0) == 0).any():
+        x = np.hstack([np.ones((n, 1)), x])
+    observed = np.isfinite(yv) & np.isfinite(x).all(axis=1)
+    yv = np.where(observed, yv, np.nan)
+    x = np.where(observed[:, None], x, np.nan)
+    # a critical value of 0 keeps every effect: none is dropped, all are re-estimated
+    _, _, _, u = _thin(yv, x, [(o.type, o.position) for o in effects], np.zeros(0), 0.0)
+    return u
+
+
+def lasting_shifts(effects: Sequence[Outlier], periods_per_year: int) -> list[Outlier]:
+    """The level shifts that last: not undone by a shift of the opposite sign within a year and a half.
+
+    A shift that is reversed (the later one at least half its size, opposite
+    sign) within ``1.5 * periods_per_year`` periods is a temporary level, such
+    as a disrupted year, not a new level: both are left out.
+
+    Examples
+    --------
+    >>> down, up = Outlier("LS", 24, 24, -0.3, -9.0), Outlier("LS", 36, 36, 0.3, 9.0)
+    >>> [o.position for o in lasting_shifts([down, up, Outlier("LS", 70, 70, 0.2, 6.0)], 12)]
+    [70]
+    """
+    shifts = sorted((o for o in effects if o.type == "LS"), key=lambda o: o.position)
+    reach = int(round(1.5 * periods_per_year))
+    undone: set[int] = set()
+    for i, a in enumerate(shifts):
+        for b in shifts[i + 1:]:
+            if b.position - a.position > reach:
+                break
+            if np.sign(b.effect) != np.sign(a.effect) and abs(b.effect) >= 0.5 * abs(a.effect):
+                undone |= {a.position, b.position}
+    return [o for o in shifts if o.position not in undone]
 
 
 def _detect(e: np.ndarray, phi: np.ndarray, sigma: float, cval: float, taken: set[int], room: int,

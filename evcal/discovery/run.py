@@ -9,29 +9,38 @@ years), and the expected demand with its covariance (for lost demand).
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from evcal.discovery.abnormal import AbnormalYear, abnormal_years
+from evcal.discovery.abnormal import AbnormalYear, abnormal_years, exclusion_advice
 from evcal.discovery.cycles import detect_cycles
 from evcal.discovery.findings import Findings
 from evcal.discovery.inputs import read_discover_inputs, with_entries
 from evcal.discovery.lost_demand import (
-    LostDemand,
     StockOut,
     is_stockout,
+    lost_demand,
     read_stockouts,
-    simulate_lost_demand,
 )
-from evcal.discovery.outliers import Outlier, OutlierSearch, chen_liu
+from evcal.discovery.moving import easter_cluster, easter_shares
+from evcal.discovery.outliers import (
+    Outlier,
+    OutlierSearch,
+    chen_liu,
+    joint_residuals,
+    lasting_shifts,
+    outlier_pattern,
+)
 from evcal.discovery.recurring import Finding, find_recurring
 from evcal.discovery.suggestions import (
     Entry,
     abnormal_suggestion,
     cycle_rows,
+    easter_suggestion,
     lost_row,
     outlier_suggestion,
     period_day,
@@ -55,6 +64,7 @@ def discover(
     cval: float | None = None,
     alpha: float = 0.01,
     index_effects: bool = True,
+    progress: bool | None = None,
     **fit_options: Any,
 ) -> Findings:
     """Find cycles, unexplained peaks, dips and breaks, abnormal years and lost demand.
@@ -88,6 +98,9 @@ def discover(
     index_effects : bool
         Refit once per abnormal year to show the effect of excluding it or
         giving it a pulse on the seasonal index.
+    progress : bool, optional
+        A progress bar over the steps on stderr (default: when stderr is a
+        terminal, as for the panel commands and the backtest).
     **fit_options
         Passed to :func:`evcal.fit` (``transform``, ``errors``, ...).
         Weekly histories default to ``seasonal="fourier"`` here (a smooth
@@ -105,7 +118,9 @@ def discover(
     >>> print(found.summary())                                         # doctest: +SKIP
     """
     from evcal.calendar import load_calendar
+    from evcal.design.seasonal import cycle_length
     from evcal.engine import fit
+    from evcal.panel.distributed import progress_bar, progress_enabled
 
     hist, base_text = read_discover_inputs(history, calendar, series=series, date_col=date_col,
                                            value_col=value_col, freq=freq)
@@ -119,93 +134,153 @@ def discover(
         # 52 weekly dummies take up part of any event that falls in the same
         # week in several years; a smooth annual profile leaves it to be found
         fit_options = {**fit_options, "seasonal": "fourier"}
-    result = fit(hist, cal, **fit_options)
-    periods: pd.PeriodIndex = result.residuals.index
-    in_fit = result.fitted["in_fit"].to_numpy(dtype=bool)
-    base = result.fitted["base"].to_numpy(dtype=float)
+    with progress_bar(len(STEPS), progress_enabled(progress), "discover") as advance:
+        result = fit(hist, cal, **fit_options)
+        advance(1)
+        periods: pd.PeriodIndex = result.residuals.index
+        in_fit = result.fitted["in_fit"].to_numpy(dtype=bool)
+        base = result.fitted["base"].to_numpy(dtype=float)
 
-    # cycles: on the values that were fitted (log when multiplicative)
-    values = hist.values.where(in_fit)
-    cycles = detect_cycles(np.log(values) if result.transform != "none" and (values > 0).all()
-                           else values, alpha=alpha)
-    rows = cycle_rows(cycles, hist.freq)
-    entries: list[Entry] = []
+        # cycles: on the values that were fitted (log when multiplicative)
+        values = hist.values.where(in_fit)
+        cycles = detect_cycles(np.log(values) if result.transform != "none" and (values > 0).all()
+                               else values, alpha=alpha)
+        weekdays = any(str(c).startswith("weekday") for c in result.params.index)
+        rows = cycle_rows(cycles, hist.freq, weekdays=weekdays)
+        entries: list[Entry] = []
+        advance(1)
 
-    search, x_fit = _search(hist, cal, result, cval)
-    found = search.outliers if search is not None else []
+        search, x_fit, y = _search(hist, cal, result, cval)
+        x_search = x_fit  # the regressors the findings are net of
+        found = search.outliers if search is not None else []
+        # a level shift is a lasting break: it is taken out (jointly with the
+        # trend) before anything is read as a moving event or an abnormal year
+        lasting = lasting_shifts(found, cycle_length(hist.freq))
+        advance(1)
 
-    def size_pct(o: Outlier) -> float:
-        if result.transform in ("log", "count"):  # the search ran on the log scale
-            return 100.0 * math.expm1(o.effect)
-        return 100.0 * o.effect / base[o.position] if base[o.position] else float("nan")
+        def size_pct(o: Outlier) -> float:
+            if result.transform in ("log", "count"):  # the search ran on the log scale
+                return 100.0 * math.expm1(o.effect)
+            return 100.0 * o.effect / base[o.position] if base[o.position] else float("nan")
 
-    # one-period findings feed the recurring search
-    recurring = find_recurring([Finding(periods[o.position], 1 if o.effect > 0 else -1, size_pct(o),
-                                        key=o.position) for o in found if o.type in ("AO", "TC")],
-                               periods, in_fit)
-    in_pattern = {f.key: r for r in recurring for f in r.findings}
-    middle_year = int(periods[len(periods) // 2].start_time.year)
-    for r in recurring:
-        row, entry = recurring_suggestion(r, middle_year)
-        rows.append(row)
-        entries.append(entry)
+        moving = None
+        if search is not None:
+            moving = easter_cluster(y, _with_shifts(x_fit, lasting, len(periods)), periods, search.cval)
+        shares = easter_shares(periods, moving.window) if moving is not None else np.zeros(len(periods))
+        on_easter: list[Outlier] = []
+        if moving is not None and search is not None:
+            # search again with the Easter window in the model: the one-period findings it
+            # explains (March or April, as Easter moved, and the other month's opposite
+            # departure from the month's average) go, and are that event
+            window = pd.DataFrame({"easter window": shares}, index=y.index)
+            x_search = window if x_fit is None else pd.concat([x_fit, window], axis=1)
+            search = chen_liu(y, x_search, cval=search.cval, ar_order=_ar_order(result))
+            kept = {(o.type, o.position) for o in search.outliers}
+            on_easter = [o for o in found if o.type in ("AO", "TC") and (o.type, o.position) not in kept]
+            found = search.outliers
+            lasting = lasting_shifts(found, cycle_length(hist.freq))
+        one_period = [Finding(periods[o.position], 1 if o.effect > 0 else -1, size_pct(o), key=o.position)
+                      for o in found if o.type in ("AO", "TC")]
+        recurring = find_recurring(one_period, periods, in_fit)
+        in_pattern = {f.key: r for r in recurring for f in r.findings}
+        middle_year = int(periods[len(periods) // 2].start_time.year)
+        if moving is not None:
+            row, entry = easter_suggestion(moving, periods, shares, result.transform,
+                                           float(np.nanmean(base)), on_easter)
+            moving = replace(moving, size_pct=float(row.size_pct))
+            rows.append(row)
+            entries.append(entry)
+        for r in recurring:
+            row, entry = recurring_suggestion(r, middle_year)
+            rows.append(row)
+            entries.append(entry)
+        advance(1)
 
-    # a level shift is a lasting break, not a year's departure: read the years
-    # with the shifts found taken out of the residuals
-    resid = result.residuals.copy()
-    for o in found:
-        if o.type == "LS":
-            resid.iloc[o.position:] -= o.effect
-    abnormal = abnormal_years(resid)
-    abnormal_set = {a.year for a in abnormal}
-    for o in found:
-        row, outlier_entry = outlier_suggestion(o, periods, size_pct(o), in_pattern.get(o.position),
-                                                abnormal_set)
-        rows.append(row)
-        entries += [outlier_entry] if outlier_entry is not None else []
+        # years are judged against the model with its trend and the lasting
+        # level shifts re-estimated jointly, not against the fit's straight line
+        resid = result.residuals.copy()
+        if search is not None:
+            resid[:] = joint_residuals(y, x_search, lasting)
+        abnormal = abnormal_years(resid)
+        years = sorted({int(p.start_time.year) for p in periods})
+        advice = exclusion_advice(abnormal, years)
+        abnormal_set = {a.year for a in abnormal}
+        for o in found:
+            # a lasting shift is suggested in its own right, even inside a flagged year
+            row, outlier_entry = outlier_suggestion(o, periods, size_pct(o), in_pattern.get(o.position),
+                                                    set() if o in lasting else abnormal_set)
+            rows.append(row)
+            entries += [outlier_entry] if outlier_entry is not None else []
 
-    effects = pd.DataFrame()
-    if abnormal and index_effects:
-        effects = _index_effects(hist, text, result, abnormal, fit_options)
-    for year in sorted(abnormal_set):
-        row, year_entries = abnormal_suggestion([a for a in abnormal if a.year == year], result.transform,
-                                                effects)
-        rows.append(row)
-        entries += year_entries
+        effects = pd.DataFrame()
+        if abnormal and index_effects:
+            effects = _index_effects(hist, text, result, abnormal, fit_options)
+        advance(1)
+        year_of = np.asarray(periods.start_time.year)
+        for year in sorted(abnormal_set):
+            share = 100.0 * float((year_of == year).sum()) / len(periods)
+            row, year_entries = abnormal_suggestion([a for a in abnormal if a.year == year], result.transform,
+                                                    effects, advice[year], share)
+            rows.append(row)
+            entries += year_entries
 
-    lost = _lost_demand(hist, cal, result, x_fit, extra_stockouts)
-    rows += [lost_row(lo) for lo in lost]
+        lost = lost_demand(result, hist.values.to_numpy(dtype=float), x_fit, cal.exclusions, extra_stockouts)
+        rows += [lost_row(lo) for lo in lost]
+        advance(1)
     notes = []
     if any(not is_stockout(e.reason) for e in cal.exclusions) and not lost:
         notes.append("exclusions whose reason does not say stock-out are not counted as lost demand")
+    if any(not advice[y] for y in abnormal_set):
+        notes.append("exclusions are written commented out in suggestions.yaml: uncomment the ones you "
+                      "recognise")
 
     header = [
         f"evcal discover suggestions for {hist.source} ({len(periods)} periods, "
         f"{period_day(periods[0])} to {period_day(periods[-1], end=True)})",
         "Review each entry, keep what you recognise, and paste it into the calendar's",
         "matching section. Names are placeholders: rename them to what they are.",
+        "Entries that remove data (exclude) are commented out, with the evidence beside them.",
     ]
     return Findings(table=table(rows), yaml=render_yaml(entries, header), cycles=cycles, outliers=search,
                     recurring=recurring, abnormal=abnormal, lost=lost, index_effects=effects, fit=result,
-                    source=hist.source, freq=hist.freq, n_periods=len(periods), notes=notes)
+                    source=hist.source, freq=hist.freq, n_periods=len(periods), notes=notes,
+                    easter=moving, exclusion_advice=advice)
 
 
-def _search(hist: Any, cal: Any, result: Any, cval: float | None) -> tuple[OutlierSearch | None, Any]:
-    """Chen–Liu on the model scale with the fit's own regressors; also the regressors (None for counts)."""
+#: the steps of a run, one tick of the progress bar each
+STEPS = ("fitting the model", "cycles", "peaks, dips and breaks (Chen-Liu)", "recurring and moving events",
+         "abnormal years", "lost demand")
+
+
+def _with_shifts(x: pd.DataFrame | None, shifts: list[Outlier], n: int) -> np.ndarray | None:
+    """The regressors with a step column per level shift (None when there are neither)."""
+    cols = [outlier_pattern("LS", o.position, n)[:, None] for o in shifts]
+    if x is not None:
+        cols.insert(0, x.to_numpy(dtype=float))
+    return np.hstack(cols) if cols else None
+
+
+def _search(hist: Any, cal: Any, result: Any, cval: float | None) -> tuple[OutlierSearch | None, Any, Any]:
+    """Chen–Liu on the model scale with the fit's own regressors; also the regressors (None for
+    counts) and the model-scale series searched."""
     from evcal.model.inputs import model_scale_response, prepare
 
     inp = prepare(hist, cal, result.options)
     x = inp.design.X[[c for c in inp.fitted_cols if c in result.params.index]]
-    order = result.error_model.get("order") or [0, 0, 0]
-    ar_order = int(order[0]) if result.error_model.get("kind") == "arima" else 0
     if result.transform == "count":
         # residuals on the log scale where sales are positive
         y, x = result.residuals.where(np.isfinite(result.residuals)), None
     else:
         y = model_scale_response(inp) - inp.offset  # the offset is zero on the units scale
     if int(np.isfinite(np.asarray(y, dtype=float)).sum()) < 12:
-        return None, x
-    return chen_liu(y, x, cval=cval, ar_order=ar_order), x
+        return None, x, y
+    return chen_liu(y, x, cval=cval, ar_order=_ar_order(result)), x, y
+
+
+def _ar_order(result: Any) -> int:
+    """The AR order of the fit's errors (0 unless ARIMA errors were chosen)."""
+    order = result.error_model.get("order") or [0, 0, 0]
+    return int(order[0]) if result.error_model.get("kind") == "arima" else 0
 
 
 def _index_effects(hist: Any, text: str, result: Any, abnormal: list[AbnormalYear],
@@ -226,25 +301,3 @@ def _index_effects(hist: Any, text: str, result: Any, abnormal: list[AbnormalYea
             refit = fit(hist, load_calendar(with_entries(text, **extra)), **fit_options)
             frame[label] = refit.profile["index"].to_numpy()
     return frame
-
-
-def _lost_demand(hist: Any, cal: Any, result: Any, x_fit: Any, extra: list[StockOut]) -> list[LostDemand]:
-    """Expected demand against sales in each stock-out window (the calendar's, then ``extra``; once each)."""
-    windows: dict[tuple[pd.Timestamp, pd.Timestamp], StockOut] = {}
-    for w in [StockOut(pd.Timestamp(e.start), pd.Timestamp(e.end), e.reason)
-              for e in cal.exclusions if is_stockout(e.reason)] + extra:
-        windows.setdefault((w.start, w.end), w)
-    periods = result.residuals.index
-    p_start, p_end = periods.start_time.normalize(), periods.end_time.normalize()
-    expected = result.fitted["fitted"].to_numpy(dtype=float)
-    actual = hist.values.to_numpy(dtype=float)
-    cols = list(x_fit.columns) if x_fit is not None else []
-    cov = result.cov.reindex(index=cols, columns=cols).to_numpy(dtype=float)
-    x = x_fit.to_numpy(dtype=float) if x_fit is not None else np.zeros((len(periods), 0))
-    out = []
-    for w in windows.values():
-        touched = np.asarray((p_start <= w.end) & (p_end >= w.start))
-        if touched.any():
-            out.append(simulate_lost_demand(w, expected[touched], actual[touched], x[touched], cov,
-                                            float(result.sigma2), result.transform))
-    return out

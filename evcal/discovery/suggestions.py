@@ -22,6 +22,7 @@ from evcal.calendar.rules import WEEKDAY_ABBR
 from evcal.discovery.abnormal import AbnormalYear
 from evcal.discovery.cycles import Cycle
 from evcal.discovery.lost_demand import LostDemand
+from evcal.discovery.moving import EasterCluster
 from evcal.discovery.outliers import TC_DELTA, Outlier
 from evcal.discovery.recurring import Recurring, Rule
 
@@ -34,6 +35,7 @@ __all__ = [
     "abnormal_suggestion",
     "cycle_rows",
     "describe_pattern",
+    "easter_suggestion",
     "flow_yaml",
     "lost_row",
     "outlier_suggestion",
@@ -123,8 +125,12 @@ def period_day(p: pd.Period, end: bool = False) -> dt.date:
     return (p.end_time if end else p.start_time).normalize().date()
 
 
-def cycle_rows(cycles: list[Cycle], freq: str) -> list[Row]:
-    """A row per cycle found, compared with the cycle the fit assumes for ``freq``, or one saying none."""
+def cycle_rows(cycles: list[Cycle], freq: str, weekdays: bool = False) -> list[Row]:
+    """A row per cycle found, compared with the cycle the fit assumes for ``freq``, or one saying none.
+
+    In daily data a 7-day cycle is the week: with ``weekdays`` (the model has
+    weekday terms) it is modelled, not a doubt about the frequency.
+    """
     from evcal.design.seasonal import cycle_length
 
     if not cycles:
@@ -138,6 +144,9 @@ def cycle_rows(cycles: list[Cycle], freq: str) -> list[Row]:
                 f"Fisher p {c.p_value:.1g}); explains {100 * c.strength:.0f}% of the detrended variance")
         if abs(c.period - assumed) <= 0.05 * assumed:
             note += f"; the fit's seasonal terms use {assumed}"
+        elif freq == "D" and abs(c.period - 7) <= 0.05 * 7:
+            note += ("; the weekly cycle, which the fit's weekday terms model" if weekdays else
+                     "; the weekly cycle, which this fit has no weekday terms for")
         elif any(abs(c.period * h - assumed) <= 0.05 * assumed for h in range(2, 8)):
             note += f"; a sub-cycle of the {assumed}-period year the fit uses"
         else:
@@ -186,6 +195,34 @@ def recurring_suggestion(r: Recurring, middle_year: int) -> tuple[Row, Entry]:
                                           f"{describe_pattern(r)}, seen in {years}: {seen}"])
 
 
+def easter_suggestion(cluster: EasterCluster, periods: pd.PeriodIndex, shares: Any, transform: str,
+                      mean_base: float, explained: list[Outlier]) -> tuple[Row, Entry]:
+    """The Easter-relative effect found in monthly or quarterly data: its row and the event to paste.
+
+    ``explained`` are the one-period findings of a search without it that a
+    search with it no longer makes; they are named in the row instead of
+    being suggested as pulses. ``shares`` is the window's share in each period.
+    """
+    w = cluster.window
+    size = 100.0 * math.expm1(cluster.effect) if transform != "none" else \
+        100.0 * cluster.effect / mean_base if mean_base else float("nan")
+    what = "peak" if cluster.effect > 0 else "dip"
+    months = "/".join(dt.date(2000, m, 1).strftime("%b") for m in cluster.months)
+    named = ", ".join(str(periods[o.position]) for o in explained)
+    seen = f"; it accounts for the one-period findings of {named}" if explained else ""
+    held = [p for p, sh in zip(periods, shares, strict=True) if sh > 0]
+    row = Row("recurring", period_day(held[0]), period_day(held[-1], end=True), round(size, 2),
+              round(abs(cluster.t), 2), None,
+              f"unexplained {what} of {size:+.1f}% over the {w} days before Easter, which fall in "
+              f"{months} as Easter moves (t {cluster.t:+.1f}){seen}: add an event with when: "
+              f"{{easter: {-w}}}, length: {w}")
+    entry = Entry("events", {"name": f"unexplained-{what}-before-easter", "when": {"easter": -w},
+                             "length": w},
+                  [f"{what} of {size:+.1f}% over the {w} days before Easter Sunday (Bell-Hillmer "
+                   f"regressor, t {cluster.t:+.1f}), in {months} as Easter moves"])
+    return row, entry
+
+
 def outlier_suggestion(o: Outlier, periods: pd.PeriodIndex, pct: float, pattern: Recurring | None,
                        abnormal: set[int]) -> tuple[Row, Entry | None]:
     """The row of one Chen–Liu effect of ``pct`` percent, and the intervention to paste.
@@ -228,12 +265,16 @@ def outlier_suggestion(o: Outlier, periods: pd.PeriodIndex, pct: float, pattern:
     return Row(OUTLIER_KINDS[o.type], start, end, round(pct, 2), round(score, 2), None, text), entry
 
 
-def abnormal_suggestion(flagged: list[AbnormalYear], transform: str,
-                        effects: pd.DataFrame) -> tuple[Row, list[Entry]]:
-    """The row of one abnormal year (flagged on level, spread or both) and its exclusion to paste.
+def abnormal_suggestion(flagged: list[AbnormalYear], transform: str, effects: pd.DataFrame,
+                        advice: str = "", share_pct: float | None = None) -> tuple[Row, list[Entry]]:
+    """The row of one abnormal year (flagged on level, spread or both) and its exclusion.
 
-    A level departure also gets a pulse over the year, written commented out
-    as the alternative to the exclusion.
+    Excluding a year removes data, so the exclusion is always written
+    commented out, with the evidence beside it; ``advice`` (from
+    :func:`~evcal.discovery.abnormal.exclusion_advice`) is empty when the
+    exclusion is suggested, else the reason it is not. A level departure also
+    gets a pulse over the year, commented out as the alternative.
+    ``share_pct`` is the share of the history's periods the year holds.
     """
     a = flagged[0]
     level = next((x for x in flagged if x.kind == "level"), None)
@@ -242,15 +283,23 @@ def abnormal_suggestion(flagged: list[AbnormalYear], transform: str,
     size = None
     if level is not None and transform != "none":
         size = round(100.0 * math.expm1(level.value), 2)
-        parts.append(f"sits {size:+.1f}% off the other years (z {level.z:+.1f})")
+        parts.append(f"sits {size:+.1f}% off the other years (z {level.z:+.1f}, "
+                     f"between-year p {level.p_value:.1g})")
     elif level is not None:
-        parts.append(f"sits {level.value:+.3g} units off the other years (z {level.z:+.1f})")
+        parts.append(f"sits {level.value:+.3g} units off the other years (z {level.z:+.1f}, "
+                     f"between-year p {level.p_value:.1g})")
     if spread is not None:
         parts.append(f"is erratic (residual sd {spread.value:.1f} times the other years', "
                      f"z {spread.z:+.1f})")
-    text = f"{a.year} " + " and ".join(parts) + ": exclude the year"
-    if level is not None:
-        text += " or add a pulse over it"
+    evidence = f"{a.year} " + " and ".join(parts)
+    share = f" ({share_pct:.0f}% of the history)" if share_pct is not None else ""
+    if advice:
+        text = f"{evidence}; not suggested for exclusion: {advice}"
+    else:
+        text = f"{evidence}: exclude the year{share}"
+        if level is not None:
+            text += " or add a pulse over it"
+        text += " (written commented out in suggestions.yaml: uncomment after checking what happened)"
     shifts = {f"excluded {a.year}": "; excluding it moves the seasonal index by up to {:.1f} points",
               f"pulse {a.year}": ", a pulse by up to {:.1f}"}
     for label, words in shifts.items():
@@ -260,14 +309,15 @@ def abnormal_suggestion(flagged: list[AbnormalYear], transform: str,
     row = Row("abnormal_year", a.start.date(), a.end.date(), size, round(score, 2), None, text)
 
     span = {"start": a.start.date(), "end": a.end.date()}
-    seen = (f"{a.year}: residual {' and '.join(x.kind for x in flagged)} departs from the other "
-            f"years (z {', '.join(f'{x.z:+.1f}' for x in flagged)})")
+    verdict = (f"suggested: uncomment to exclude it{share}; it removes data" if not advice
+               else f"not suggested: {advice}")
     entries = [Entry("exclude", {**span, "reason": f"abnormal year {a.year}"},
-                     [seen] + (["choose one: this exclusion or the pulse under interventions"]
-                               if level is not None else []))]
+                     [evidence, verdict]
+                     + (["choose one: this exclusion or the pulse under interventions"]
+                        if level is not None and not advice else []), active=False)]
     if level is not None:
         entries.append(Entry("interventions", {"name": f"year-{a.year}", "type": "pulse", **span},
-                             [f"{seen}; alternative to excluding it"], active=False))
+                             [f"{evidence}; alternative to excluding it"], active=False))
     return row, entries
 
 

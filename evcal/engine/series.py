@@ -50,7 +50,8 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
     term_cov = result.cov.reindex(index=group.term_cols, columns=group.term_cols).to_numpy(dtype=float)
     se = np.sqrt(np.clip(np.diag(term_cov), 0, None))[:, None]
     actual = inp.actual.to_numpy(dtype=float)[None, :]
-    tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]))
+    tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]),
+                          cov=term_cov[None])
     adopt_tables(result, tables, inp)
     return result, tables
 

@@ -113,7 +113,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         # the single-series path divides by the open share, then scales rows by it
         share = g.share[:, None]
         Y = (y / share) * np.where(share > 0, share, 1.0)
-    refined = first = None
+    refined = first = cov = None
     if g.curve is not None:
         from evcal.engine.refine import refine
 
@@ -148,7 +148,8 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         support = {c: t[(t >= f) & (t <= last)] - f for c in curved
                    if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
-                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved, support))
+                                  unit.actual[pick, f:last + 1], unit.sids[pick], curved, support,
+                                  cov=None if cov is None else cov[pick]))
     tables = concat_tables(parts, columns=True)
     sids = unit.sids[keep]
     m = len(sids)

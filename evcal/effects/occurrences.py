@@ -205,13 +205,12 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
     level = open_base + sum(parts[c] for c in ints) if ints else open_base
     # how many players (events, interventions) are present in each period: where one coefficient
     # alone enters, the order-statistic shortcut gives the interval
-    present = np.zeros(len(ctx.periods), dtype=np.int64)
-    for p in {player_of(group, c) for c in terms}:
-        on = np.zeros(len(ctx.periods), dtype=bool)
-        for c in terms:
-            if player_of(group, c) == p:
-                on |= (curved[c] != 0).any(axis=0) if c in curved else ctx.columns[c] != 0
-        present += on
+    on: dict[str, np.ndarray] = {}
+    for c in terms:
+        hit = (curved[c] != 0).any(axis=0) if c in curved else ctx.columns[c] != 0
+        p = player_of(group, c)
+        on[p] = on[p] | hit if p in on else hit
+    present = sum(on.values()) if on else np.zeros(len(ctx.periods), dtype=np.int64)
     draws: _Draws | None = None
     for og in ctx.occ_groups:
         idx, mask = og.idx, og.mask

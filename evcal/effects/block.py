@@ -43,7 +43,8 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
                  smear: np.ndarray, actual: np.ndarray, sids: np.ndarray,
                  curved: dict[str, np.ndarray] | None = None,
                  curved_support: dict[str, np.ndarray] | None = None,
-                 season_var: SeasonVariance | None = None) -> BlockTables:
+                 season_var: SeasonVariance | None = None,
+                 cov: np.ndarray | None = None) -> BlockTables:
     """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
 
     Parameters
@@ -65,6 +66,9 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
         ``season_var(names, C)``: the variances (m, r) of the contrasts ``C`` (r, len(names))
         of the seasonal coefficients ``names``, from the fit's covariance (the seasonal
         index's interval; NaN without it).
+    cov : ndarray, shape (m, len(group.term_cols), len(group.term_cols)), optional
+        Covariance of the event and intervention coefficients, for the occurrences'
+        joint draws; without it each coefficient is drawn alone from its ``se``.
     """
     curved = curved or {}
     pmap = {c: params[i] for i, c in enumerate(group.fitted_cols)}
@@ -72,7 +76,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     base, fitted, parts = decompose_block(ctx, group, pmap, smear, curved, curved_support)
     mean_base = base.mean(axis=1)
 
-    occ = occurrences_columns(ctx, group, parts, base, pmap, se_map, sids, curved)
+    occ = occurrences_columns(ctx, group, parts, base, pmap, se_map, sids, curved, cov)
     lifts = lifts_columns(ctx, group, parts, base, pmap, se_map, occ, sids)
     profile = profile_columns(group, pmap, mean_base, sids, season_var)
     fitted_block = FittedBlock(sids, ctx.dates.to_numpy(),
@@ -133,10 +137,11 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
             lift, low, high = (_pct(v, group.transform, scale) for v in (b, b - Z95 * s, b + Z95 * s))
         elif st.status == "assumed":
             lift = low = high = np.full(m, 100.0 * group.assumed[col])
+        # an intervention's rows in the occurrences are its calendar years: units per year in force
         if kind == "event":
             units = units_of(info.get("event", col))
         else:
-            units = parts[col].sum(axis=1) if col in parts and st.status == "fitted" else nan
+            units = units_of(col) if st.status == "fitted" else nan
         rows.append({"event": col, "lift_pct": lift, "low_pct": low, "high_pct": high,
                      "units_per_occurrence": units,
                      "identifiable": st.status in ("fitted", "like", "assumed"),

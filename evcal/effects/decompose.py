@@ -1,11 +1,23 @@
 """Split a fitted (or planned) series into base and one contribution per term, for m series at once.
 
-On the log scale the terms add; in units they interact. The split used here
-adds up exactly: the closures' share is taken first (the open share of the
-period times everything else), then the remaining gap between "with events"
-and base is divided among the terms in proportion to their log-scale size.
-For the additive model the terms already add up in units. The m series of a
-block share the design rows; the coefficients differ.
+On the log scale the terms add; in units they interact. A term's part is
+counterfactual: what the fitted sales lose when the term is taken out. Where
+terms overlap in a period the overlap is shared by the Shapley value, in three
+steps that add up exactly to fitted − base:
+
+1. closures take base × (open share − 1) (the base lost to closed days);
+2. interventions (level shifts, ramps, temporary changes, pulses) take the
+   Shapley value among the interventions present of
+   ``v(S) = open base × (exp(Σ_S iᵢ) − 1)``: they change the level that the
+   events act on, so they come before the events;
+3. events take the Shapley value among the events present of
+   ``v(S) = level × (exp(Σ_S eⱼ) − 1)``, with level = open base × exp(Σ i).
+
+An event alone in its periods thus gets fitted − fitted without it, exactly.
+An event with several columns (a ``daily`` shape) is one player; its part is
+shared among its columns in proportion to their log-scale size. For the
+additive model the terms already add up in units (each term's part is its own).
+The m series of a block share the design rows; the coefficients differ.
 """
 
 from __future__ import annotations
@@ -17,7 +29,117 @@ import pandas as pd
 
 from evcal.effects.span import GroupInfo, SpanContext
 
-__all__ = ["decompose_block", "decompose"]
+__all__ = ["decompose_block", "decompose", "shapley_exp", "player_of"]
+
+
+def shapley_exp(level: np.ndarray, logs: np.ndarray) -> np.ndarray:
+    """Shapley values of the game ``v(S) = level (exp(Σ_{j∈S} logs_j) − 1)``, exact for any number of players.
+
+    Parameters
+    ----------
+    level : ndarray
+        The level the players act on, broadcastable against ``logs[0]``.
+    logs : ndarray, shape (k, ...)
+        Each player's log-scale effect (0 where a player is absent: a null player gets 0).
+
+    Returns
+    -------
+    ndarray, shape of ``logs``
+        Player j's value; the values add up to ``level (exp(Σ logs) − 1)``.
+
+    Notes
+    -----
+    The game's multilinear extension is ``level (∏ⱼ (1 + xⱼ (aⱼ − 1)) − 1)`` with
+    ``aⱼ = exp(logsⱼ)``, and a player's Shapley value is the integral over t in
+    [0, 1] of its partial derivative on the diagonal (Owen 1972):
+    ``level (aⱼ − 1) ∫₀¹ ∏_{i≠j} (1 + t (aᵢ − 1)) dt``. The integrand is a
+    polynomial of degree k − 1, so Gauss–Legendre with ⌈k/2⌉ nodes gives it
+    exactly: no sum over the 2ᵏ subsets, no cap on the players present.
+    """
+    k = logs.shape[0]
+    gain = np.expm1(logs)  # aⱼ − 1
+    nodes, weights = np.polynomial.legendre.leggauss(max((k + 1) // 2, 1))
+    out = np.zeros_like(gain)
+    for x, w in zip(nodes, weights, strict=True):
+        t = 0.5 * (x + 1.0)  # nodes on (0, 1): every factor 1 + t (a − 1) >= 1 − t > 0
+        f = 1.0 + t * gain
+        # the product of the other players' factors, from the products before and after each player
+        before = np.ones_like(f)
+        after = np.ones_like(f)
+        if k > 1:
+            np.cumprod(f[:-1], axis=0, out=before[1:])
+            np.cumprod(f[:0:-1], axis=0, out=after[-2::-1])
+        out += 0.5 * w * before * after
+    return level * gain * out
+
+
+def player_of(group: GroupInfo, col: str) -> str:
+    """The player a term column belongs to: its event (one player for a ``daily`` shape's columns)."""
+    if col in group.intervention_names:
+        return col
+    return str(group.event_info.get(col, {}).get("event", col))
+
+
+def _shared_parts(level: np.ndarray, terms: dict[str, tuple[np.ndarray, np.ndarray]],
+                  players: dict[str, list[str]]) -> dict[str, np.ndarray]:
+    """Each column's part of ``level (exp(Σ terms) − 1)``: Shapley among the players, log-share within one.
+
+    ``terms``: column -> (periods, (m, len(periods)) log-scale values); ``level`` (m, n).
+    Returns column -> (m, n) parts.
+    """
+    m, n = level.shape
+    plog: dict[str, np.ndarray] = {}
+    present = np.zeros(n, dtype=np.int64)
+    on: dict[str, np.ndarray] = {}
+    for p, cols in players.items():
+        plog[p] = np.zeros((m, n)) if len(cols) > 1 else None  # type: ignore[assignment]
+        hit = np.zeros(n, dtype=bool)
+        for c in cols:
+            idx, val = terms[c]
+            hit[idx] = True
+            if plog[p] is not None:
+                plog[p][:, idx] += val
+        on[p] = hit
+        present += hit
+    parts: dict[str, np.ndarray] = {}
+    value: dict[str, np.ndarray] = {p: np.zeros((m, n)) for p in players}
+    # a player alone in a period: fitted with it minus fitted without it
+    for p, cols in players.items():
+        alone = np.flatnonzero(on[p] & (present == 1))
+        if not len(alone):
+            continue
+        if plog[p] is None:
+            idx, val = terms[cols[0]]
+            pos = np.searchsorted(idx, alone)
+            value[p][:, alone] = level[:, alone] * np.expm1(val[:, pos])
+        else:
+            value[p][:, alone] = level[:, alone] * np.expm1(plog[p][:, alone])
+    shared = np.flatnonzero(present > 1)
+    if len(shared):
+        names = [p for p in players if on[p][shared].any()]
+        logs = np.zeros((len(names), m, len(shared)))
+        for i, p in enumerate(names):
+            if plog[p] is not None:
+                logs[i] = plog[p][:, shared]
+            else:
+                idx, val = terms[players[p][0]]
+                inside = on[p][shared]
+                logs[i][:, inside] = val[:, np.searchsorted(idx, shared[inside])]
+        phi = shapley_exp(level[:, shared], logs)
+        for i, p in enumerate(names):
+            value[p][:, shared] = phi[i]
+    for p, cols in players.items():
+        if len(cols) == 1:
+            parts[cols[0]] = value[p]
+            continue
+        # several columns of one event: its part shared in proportion to each column's log-scale size
+        big = np.abs(plog[p]) > 1e-12
+        scale = np.where(big, value[p] / np.where(big, plog[p], 1.0), level)
+        for c in cols:
+            idx, val = terms[c]
+            parts[c] = np.zeros((m, n))
+            parts[c][:, idx] = val * scale[:, idx]
+    return parts
 
 
 def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
@@ -42,7 +164,8 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
     -------
     base, fitted : ndarray, shape (m, n)
     parts : dict
-        Term or closure name -> (m, n) contribution; base + parts add up to fitted.
+        Term or closure name -> (m, n) contribution; base + parts add up to fitted
+        (see the module notes for how overlapping terms share).
     """
     m, n = len(smear), len(ctx.periods)
     curved = curved or {}
@@ -53,54 +176,46 @@ def decompose_block(ctx: SpanContext, group: GroupInfo, pmap: dict[str, np.ndarr
     terms = [c for c in (terms if terms is not None else group.status) if c in ctx.columns]
     share = ctx.share[None, :]
     # each term's coefficient times its column, on the periods where the column is not zero (an
-    # event's windows: a few of the span's periods) or on all of them
-    support: dict[str, np.ndarray | slice] = {}
-    tmat: dict[str, np.ndarray] = {}
+    # event's windows: a few of the span's periods)
+    tmat: dict[str, tuple[np.ndarray, np.ndarray]] = {}
     total = np.zeros_like(eta_base)
     for c in terms:
-        nz = (curved_support or {}).get(c) if c in curved else np.flatnonzero(ctx.columns[c])
-        # worth working on the support only when it saves most of the work
-        support[c] = nz if nz is not None and 2 * len(nz) < n else slice(None)
-        x = (curved[c] if c in curved else ctx.columns[c][None, :])[:, support[c]]
+        nz = (curved_support or {}).get(c) if c in curved else None
+        idx = np.flatnonzero(ctx.columns[c]) if nz is None else np.unique(np.asarray(nz, dtype=np.int64))
+        x = (curved[c] if c in curved else ctx.columns[c][None, :])[:, idx]
         assumed = group.status[c].status == "assumed"
         if assumed:  # log(1 + a) on the log scale; in the additive model the fraction a of base
             a = group.assumed[c]
             coef = np.full(m, float(np.log1p(a)) if group.transform != "none" else a)
         else:  # a borrowed lift takes its target's coefficient; 0 when not estimated
             coef = pmap.get(group.source(c), np.zeros(m))
-        tmat[c] = coef[:, None] * x
+        val = coef[:, None] * x
         if group.transform == "none" and assumed:
-            tmat[c] *= eta_base[:, support[c]]
-        total[:, support[c]] += tmat[c]
+            val = val * eta_base[:, idx]
+        tmat[c] = (idx, val)
+        total[:, idx] += val
+    parts: dict[str, np.ndarray] = {}
     if group.transform == "none":
         base = eta_base
         fitted = (base + total) * share
-        factor = share
+        for c, (idx, val) in tmat.items():
+            parts[c] = np.zeros((m, n))
+            parts[c][:, idx] = val * share[:, idx]
     else:
-        # (series × periods) arrays, a dozen per block: made in place where they can be
         base = np.exp(eta_base, out=eta_base)
         base *= smear[:, None]
-        big = np.abs(total) > 1e-12
-        denom = np.where(big, total, 1.0)
-        fitted = np.exp(total, out=total)
-        fitted *= base
-        ratio = fitted - base
-        ratio *= share
-        ratio /= denom
-        # each term's part of the gap: its share of the summed log-effect, or (where the
-        # effects are all zero) its own first-order size
-        factor = np.multiply(base, share, out=denom)
-        np.copyto(factor, ratio, where=big)
-        del ratio, denom
-        fitted *= share
-    parts: dict[str, np.ndarray] = {}
-    for c in terms:
-        tmat[c] *= factor[:, support[c]]
-        if isinstance(support[c], slice):
-            parts[c] = tmat[c]
-        else:
-            parts[c] = np.zeros((m, n))
-            parts[c][:, support[c]] = tmat[c]
+        level = base * share
+        fitted = level * np.exp(total)
+        interventions = [c for c in terms if c in group.intervention_names]
+        events = [c for c in terms if c not in group.intervention_names]
+        for cols in (interventions, events):
+            players: dict[str, list[str]] = {}
+            for c in cols:
+                players.setdefault(player_of(group, c), []).append(c)
+            parts.update(_shared_parts(level, {c: tmat[c] for c in cols}, players))
+            if cols is interventions and cols:
+                # the events act on the level with the interventions in it: open base × exp(Σ i)
+                level = level + sum(parts[c] for c in cols)
     cl = ctx.closures.reindex(ctx.periods).fillna(0.0).to_numpy(dtype=float)
     tot = cl.sum(axis=1)
     for j, c in enumerate(ctx.closures.columns):

@@ -1,13 +1,26 @@
 """What each past occurrence added, in units and in % of base, with its interval, for m series.
 
-Per-occurrence intervals are the 2.5 % and 97.5 % quantiles of 1,000
-simulated draws (fixed seed) of ``Σₜ baseₜ (exp((b + s z) xₜ) − 1)``. Every
-event column is ``xₜ ≥ 0`` (the calendar's strengths are above 0 and its shape
-factors are not negative), ``baseₜ = exp(…) ≥ 0`` and ``s ≥ 0``, so each draw
-is a non-decreasing function of its ``z`` and the sorted draws are that
-function at the sorted ``z``: the same quantiles come from evaluating it at the
-four order statistics next to each quantile (the linear interpolation numpy
-uses), not at all 1,000 draws.
+An occurrence's added units are its event's parts (:mod:`evcal.effects.decompose`:
+fitted with every term minus fitted without the event's term, overlaps shared
+by the Shapley value) over the periods its window touches, shared pro rata by
+days when two occurrences of the event share a period. ``added_pct`` is that
+over the level the event acted on: base × open share × the interventions in
+force (a promotion after a +20 % level shift reads its own lift, not lift ×
+1.2). An intervention gets one row per calendar year it is in force (the
+periods where its column is not zero), with its parts of those periods, so a
+level shift's row is what it added that year, never a running total.
+
+Intervals are the 2.5 % and 97.5 % quantiles of 1,000 simulated draws (fixed
+seed) of the same computation under the coefficients drawn from their
+covariance: jointly for every coefficient that enters (the event's own, the
+other events present and the interventions in force). The base's coefficients
+are held at their estimates. Where one coefficient alone enters (an event with
+no other term in its periods) each draw is ``Σₜ levelₜ (exp((b + s z) xₜ) − 1)``:
+every event column is ``xₜ ≥ 0``, ``levelₜ ≥ 0`` and ``s ≥ 0``, so each draw is
+a non-decreasing function of its ``z`` and the sorted draws are that function
+at the sorted ``z``: the quantiles come from evaluating it at the four order
+statistics next to each quantile (the linear interpolation numpy uses), not at
+all 1,000 draws.
 """
 
 from __future__ import annotations
@@ -17,7 +30,8 @@ import functools
 import numpy as np
 
 from evcal.effects.columns import Columns, tiled_text
-from evcal.effects.span import GroupInfo, SpanContext
+from evcal.effects.decompose import player_of, shapley_exp
+from evcal.effects.span import GroupInfo, OccGroup, SpanContext
 
 __all__ = ["occurrences_columns", "OCC_COLUMNS", "Z95"]
 
@@ -27,6 +41,8 @@ N_DRAWS = 1000
 OCC_SEED = 7
 _H_LOW = (N_DRAWS - 1) * 0.025
 _H_HIGH = (N_DRAWS - 1) * 0.975
+# elements of one chunk of the joint draws (draws × series × players × periods)
+_CHUNK = 4_000_000
 
 
 def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray,
@@ -70,44 +86,175 @@ def _sorted_draws() -> np.ndarray:
     return np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
 
 
+@functools.cache
+def _joint_normals(k: int) -> np.ndarray:
+    """(N_DRAWS, k) standard normal draws for the joint simulation (fixed seed), made once per k."""
+    z = np.random.default_rng(OCC_SEED).standard_normal((N_DRAWS, k))
+    z.setflags(write=False)
+    return z
+
+
+class _Draws:
+    """Coefficient draws of the term columns, (N_DRAWS, m) each, from their covariance (m, K, K)."""
+
+    def __init__(self, group: GroupInfo, pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray],
+                 cov: np.ndarray | None) -> None:
+        self.group, self.pmap = group, pmap
+        names = list(group.term_cols)
+        m = len(next(iter(pmap.values()))) if pmap else 0
+        if cov is None:  # only the standard errors: independent draws
+            root = np.zeros((m, len(names), len(names)))
+            for i, c in enumerate(names):
+                root[:, i, i] = se_map[c]
+        else:
+            # a symmetric square root that takes a singular covariance too
+            vals, vecs = np.linalg.eigh(0.5 * (cov + np.swapaxes(cov, 1, 2)))
+            root = vecs * np.sqrt(np.clip(vals, 0.0, None))[:, None, :]
+        self.names = {c: i for i, c in enumerate(names)}
+        self.root = root  # (m, K, K)
+
+    def of(self, col: str, sl: slice) -> np.ndarray:
+        """Draws of the coefficient behind a term column for series ``sl``: (N_DRAWS, m) or (1, m)."""
+        group = self.group
+        if getattr(group.status.get(col), "status", "") == "assumed":
+            a = group.assumed[col]
+            return np.array([[float(np.log1p(a))]])
+        src = group.source(col)
+        if src not in self.pmap:
+            return np.zeros((1, 1))
+        b = self.pmap[src][sl]
+        if src not in self.names:
+            return b[None, :]
+        z = _joint_normals(len(self.names))
+        return b[None, :] + np.einsum("dj,mj->dm", z, self.root[sl, self.names[src], :])
+
+
+def _player_logs(ctx: SpanContext, group: GroupInfo, draws: _Draws, curved: dict[str, np.ndarray],
+                 cols: list[str], cols_in: list[str], idx: np.ndarray, sl: slice) -> dict[str, np.ndarray]:
+    """Each player's drawn log-scale effect on the periods ``idx`` for series ``sl``: (D, m, k, L)."""
+    out: dict[str, np.ndarray] = {}
+    for c in cols:
+        if c not in cols_in:
+            continue
+        x = curved[c][sl][:, idx] if c in curved else ctx.columns[c][idx][None]
+        val = draws.of(c, sl)[:, :, None, None] * x[None]
+        p = player_of(group, c)
+        out[p] = out[p] + val if p in out else val
+    return out
+
+
+def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.ndarray, level0: np.ndarray,
+                  frac: np.ndarray | float, draws: _Draws, curved: dict[str, np.ndarray],
+                  terms: list[str]) -> tuple[np.ndarray, np.ndarray]:
+    """2.5 % and 97.5 % quantiles of the occurrences ``pick`` of ``og`` over joint coefficient draws.
+
+    ``level0`` is base × open share on the group's periods (m, k, L). Returns two (m, len(pick)).
+    """
+    idx, mask, level0 = og.idx[pick], og.mask[pick], level0[:, pick]
+    own = player_of(group, og.cols[0])
+    steps = ([c for c in terms if c in group.intervention_names],
+             [c for c in terms if c not in group.intervention_names])
+    cols_in = [c for c in terms if np.any((curved[c][:, idx] if c in curved else ctx.columns[c][idx]) != 0)]
+    m = level0.shape[0]
+    frac_p = frac[:, pick] if isinstance(frac, np.ndarray) and frac.ndim == 3 else (
+        frac[pick] if isinstance(frac, np.ndarray) else frac)
+    lo, hi = np.empty((m, len(pick))), np.empty((m, len(pick)))
+    width = max(len(cols_in), 1) * N_DRAWS * idx.size
+    step = max(1, _CHUNK // width)
+    for s0 in range(0, m, step):
+        sl = slice(s0, min(m, s0 + step))
+
+        level = np.broadcast_to(level0[sl][None], (N_DRAWS, *level0[sl].shape))
+        ints = _player_logs(ctx, group, draws, curved, steps[0], cols_in, idx, sl)
+        if og.kind == "intervention":
+            players = ints
+        else:
+            if ints:
+                level = level * np.exp(sum(ints.values()))
+            players = _player_logs(ctx, group, draws, curved, steps[1], cols_in, idx, sl)
+        names = list(players)
+        if own not in players:
+            lo[sl], hi[sl] = 0.0, 0.0
+            continue
+        shape = np.broadcast_shapes(level.shape, *(v.shape for v in players.values()))
+        logs = np.stack([np.broadcast_to(players[p], shape) for p in names])
+        part = shapley_exp(level, logs)[names.index(own)]
+        sims = (part * frac_p * mask).sum(axis=-1)  # (D, m_chunk, k')
+        lo[sl], hi[sl] = np.quantile(sims, [0.025, 0.975], axis=0)
+    return lo, hi
+
+
 def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
-                 pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], sids: np.ndarray,
-                 curved: dict[str, np.ndarray]) -> Columns:
-    """The occurrences table for m series, all occurrences of an event at once."""
+                        pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], sids: np.ndarray,
+                        curved: dict[str, np.ndarray], cov: np.ndarray | None = None) -> Columns:
+    """The occurrences table for m series, all occurrences of an event at once.
+
+    ``cov`` (m, K, K) is the covariance of the coefficients of ``group.term_cols``;
+    without it the draws take each coefficient's standard error alone.
+    """
     m = len(sids)
     if not len(ctx.occs):
         empty = {c: np.zeros(0) for c in OCC_COLUMNS + ["low_units", "high_units"]}
         return Columns({"_sid": np.zeros(0, dtype=int), **empty})
     n_occ = len(ctx.occs)
     added, pct, low, high = (np.empty((m, n_occ)) for _ in range(4))
+    terms = [c for c in group.status if c in ctx.columns and c in parts]
+    ints = [c for c in terms if c in group.intervention_names]
+    open_base = base * ctx.share[None, :]
+    # the level an event acts on: open base with the interventions in force
+    level = open_base + sum(parts[c] for c in ints) if ints else open_base
+    # how many players (events, interventions) are present in each period: where one coefficient
+    # alone enters, the order-statistic shortcut gives the interval
+    on: dict[str, np.ndarray] = {}
+    for c in terms:
+        hit = (curved[c] != 0).any(axis=0) if c in curved else ctx.columns[c] != 0
+        p = player_of(group, c)
+        on[p] = on[p] | hit if p in on else hit
+    present = sum(on.values()) if on else np.zeros(len(ctx.periods), dtype=np.int64)
+    draws: _Draws | None = None
     for og in ctx.occ_groups:
         idx, mask = og.idx, og.mask
         contrib = sum(parts[c][:, idx] for c in og.cols) * mask  # (m, k, L)
-        frac: np.ndarray | float = 1.0  # a closure's part is all its own
+        frac: np.ndarray | float = 1.0  # a closure's part is all its own, an intervention's year too
         if not og.zero:
-            # the event's column summed (each series' own where it is curved), the occurrence's share of it
             x_sum = sum(curved[c][:, idx] if c in curved else ctx.columns[c][idx] for c in og.cols) * mask
-            frac, xs = _window_share(x_sum, og.days, og.own)
+            if og.kind == "event":
+                # the occurrence's share of the event's column (each series' own where it is curved)
+                frac, xs = _window_share(x_sum, og.days, og.own)
+            else:
+                xs = x_sum
         add = (contrib * frac).sum(axis=-1)  # (m, k)
-        base_g = base[:, idx] * mask
-        base_win = (base_g * og.wdays).sum(axis=-1)
+        on_level = (open_base if og.kind == "intervention" else level)[:, idx] * mask
+        base_win = (on_level * og.wdays).sum(axis=-1)
         with np.errstate(divide="ignore", invalid="ignore"):
             pct[:, og.pos] = np.where(base_win != 0, 100.0 * add / base_win, np.nan)
         added[:, og.pos] = add
         lo = hi = add
-        if (pcol := group.source(og.cols[0])) in pmap and not og.zero:
-            b, s = pmap[pcol], se_map[pcol]
-            if group.transform == "none":
-                half = Z95 * s[:, None] * np.abs(np.sum(xs, axis=-1))
+        sources = {group.source(c) for c in og.cols}
+        if og.zero:
+            pass
+        elif group.transform == "none":
+            if (pcol := group.source(og.cols[0])) in pmap:
+                half = Z95 * se_map[pcol][:, None] * np.abs(np.sum(xs, axis=-1))
                 lo, hi = add - half, add + half
-            else:
-                base_t = base_g * ctx.share[idx]
-                point = (base_t * np.expm1(b[:, None, None] * xs)).sum(axis=-1)
-                ratio = np.where(point != 0, add / np.where(point != 0, point, 1.0), 1.0)
-                lo, hi = _sim_bounds(b, s, xs, base_t, ratio)
+        else:
+            alone = ((present[idx] <= 1) | (mask == 0)).all(axis=-1) & (len(sources) == 1)
+            lo, hi = add.copy(), add.copy()
+            pcol = next(iter(sources))
+            if alone.any() and pcol in pmap:
+                a = np.flatnonzero(alone)
+                b, s = pmap[pcol], se_map[pcol]
+                base_t = open_base[:, idx[a]] * mask[a]
+                xa = xs[..., a, :]
+                point = (base_t * np.expm1(b[:, None, None] * xa)).sum(axis=-1)
+                ratio = np.where(point != 0, add[:, a] / np.where(point != 0, point, 1.0), 1.0)
+                lo[:, a], hi[:, a] = _sim_bounds(b, s, xa, base_t, ratio)
+            if (~alone).any():
+                draws = draws or _Draws(group, pmap, se_map, cov)
+                j = np.flatnonzero(~alone)
+                lo[:, j], hi[:, j] = _joint_bounds(ctx, group, og, j, open_base[:, idx] * mask, frac, draws,
+                                                   curved, terms)
         low[:, og.pos], high[:, og.pos] = lo, hi
     text = {c: tiled_text(ctx.occs[c].tolist(), m) for c in ("event", "start", "end")}
     return Columns({"_sid": np.repeat(sids, n_occ), **text, "added_units": added.ravel(),
                     "added_pct": pct.ravel(), "low_units": low.ravel(), "high_units": high.ravel()})
-
-

@@ -66,6 +66,7 @@ class OccGroup:
     own: np.ndarray  # the occurrence's own days in each period times its strength
     days: np.ndarray  # days in each period
     wdays: np.ndarray  # the occurrence's days / the period's days
+    kind: str = "event"  # or "intervention": one row per calendar year of an intervention
 
 
 @dataclass
@@ -92,7 +93,48 @@ class SpanContext:
         ctx = cls(periods, dates, raw, share, closure_shares(calendar, periods), in_fit)
         parts_cols = {c for c in status if c in ctx.columns} | set(ctx.closures.columns)
         ctx.occs, ctx.occ_groups = _occurrence_windows(calendar, ctx, parts_cols)
+        starts = {t.name: pd.Timestamp(t.start) for t in getattr(calendar, "interventions", [])
+                  if t.name in status and t.name in ctx.columns}
+        if starts:
+            rows, groups = _intervention_years(ctx, starts, len(ctx.occs))
+            ctx.occs = pd.concat([ctx.occs, rows], ignore_index=True)
+            ctx.occ_groups += groups
         return ctx
+
+
+def _intervention_years(ctx: SpanContext, starts: dict[str, pd.Timestamp],
+                        first: int) -> tuple[pd.DataFrame, list[OccGroup]]:
+    """One row per intervention and calendar year: the periods of the year where its column is not zero.
+
+    A period belongs to the year that holds its middle day (a week across New Year goes where most
+    of its days are). ``start``/``end`` are the first and last day of those periods (the change's
+    own date when it falls inside the first one). Rows follow the events' occurrences, from ``first``.
+    """
+    periods = ctx.periods
+    p_start = periods.start_time.normalize()
+    p_end = periods.end_time.normalize()
+    year = (p_start + (p_end - p_start) / 2).year.to_numpy()
+    days = period_days(periods)
+    rows: list[dict[str, str]] = []
+    groups = []
+    for name, begin in starts.items():
+        col = ctx.columns[name]
+        nz = np.flatnonzero(col != 0)
+        if not len(nz):
+            continue
+        years = np.unique(year[nz])
+        spans = [nz[year[nz] == y] for y in years]
+        width = max(len(sp) for sp in spans)
+        idx = np.array([np.pad(sp, (0, width - len(sp)), mode="edge") for sp in spans])
+        mask = (np.arange(width)[None, :] < np.array([len(sp) for sp in spans])[:, None]).astype(float)
+        pos = np.arange(first + len(rows), first + len(rows) + len(spans))
+        for sp in spans:
+            start = max(p_start[sp[0]], begin)
+            rows.append({"event": name, "start": start.strftime("%Y-%m-%d"),
+                         "end": p_end[sp[-1]].strftime("%Y-%m-%d")})
+        groups.append(OccGroup(pos, [name], False, idx, mask, mask.copy(), days[idx], mask.copy(),
+                               "intervention"))
+    return pd.DataFrame(rows, columns=["event", "start", "end"]), groups
 
 
 def _occurrence_windows(calendar: Any, ctx: SpanContext, parts_cols: set[str]) -> tuple[pd.DataFrame,

@@ -64,7 +64,7 @@ def fit_series(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         return np.einsum("ri,ij,rj->r", C, sub, C)[None, :]
 
     tables = block_tables(ctx, group, params, se, np.array([smear]), actual, np.array([sid]),
-                          season_var=season_var)
+                          season_var=season_var, cov=term_cov[None])
     adopt_tables(result, tables, inp)
     return result, tables
 

@@ -113,7 +113,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         # the single-series path divides by the open share, then scales rows by it
         share = g.share[:, None]
         Y = (y / share) * np.where(share > 0, share, 1.0)
-    refined = first = None
+    refined = first = cov = None
     if g.curve is not None:
         from evcal.engine.refine import refine
 
@@ -162,7 +162,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
                    if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}
         parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
                                   unit.actual[pick, f:last + 1], unit.sids[pick], curved, support,
-                                  season_var(pick)))
+                                  season_var(pick), cov=None if cov is None else cov[pick]))
     tables = concat_tables(parts, columns=True)
     sids = unit.sids[keep]
     m = len(sids)

@@ -65,6 +65,20 @@ class CurvedEvents:
             self.basis[n] = (vals, counts / days[:, None])
             self.touched[n] = np.flatnonzero(counts.any(axis=1))
 
+    def floor(self, name: str) -> np.ndarray:
+        """The lowest log-effect ``name`` can have on each period: ``log(1 − s)``, every event day removed.
+
+        ``s`` is the weekday-weighted share of the period's open days that the event's
+        window covers (0 where it covers none; −inf where it covers the whole period).
+        However far its lift goes towards −100 %, a period cannot fall by more than
+        the share of its sales that falls on those days.
+        """
+        if name not in self.basis:
+            return np.zeros(len(self.periods))
+        covered = np.clip(self.basis[name][1].sum(axis=1), 0.0, 1.0)
+        with np.errstate(divide="ignore"):
+            return np.log1p(-covered)
+
     def column(self, name: str, theta: np.ndarray, at: np.ndarray | None = None) -> np.ndarray:
         """Column ``name`` for each θ: shape (len(theta), periods); zeros if the calendar has none.
 

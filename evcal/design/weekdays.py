@@ -41,7 +41,7 @@ def day_levels(profile: Sequence[float] | None, days: pd.DatetimeIndex) -> np.nd
     """
     if profile is None:
         return np.ones(len(days))
-    return np.asarray(profile, dtype=float)[days.dayofweek.to_numpy()]
+    return np.asarray(profile, dtype=float)[days.day_of_week.to_numpy()]
 
 
 def weekday_note(calendar: Any, freq: str) -> str:
@@ -68,3 +68,19 @@ def profile_line(levels: Sequence[float]) -> str:
     v = np.asarray(levels, dtype=float)
     v = v / v.mean()
     return "weekday_profile: [" + ", ".join(f"{x:.3g}" for x in v) + "]"
+
+
+def fitted_profile(params: Any) -> list[float] | None:
+    """The weekday levels a daily log-scale fit found: ``exp`` of its ``weekday[...]`` coefficients.
+
+    Monday is the reference level (1.0); None when ``params`` has no weekday terms.
+
+    Examples
+    --------
+    >>> fitted_profile({"weekday[sat]": np.log(0.5), "weekday[sun]": np.log(0.4)})
+    [1.0, 1.0, 1.0, 1.0, 1.0, 0.5, 0.4]
+    """
+    names = [f"weekday[{d.lower()}]" for d in ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")]
+    if not any(n in params for n in names):
+        return None
+    return [round(float(np.exp(float(params[n]))), 12) if n in params else 1.0 for n in names]

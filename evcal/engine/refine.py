@@ -17,7 +17,7 @@ import numpy as np
 
 from evcal.design.curved import CurvedEvents
 from evcal.model.estimators import bartlett_weights
-from evcal.model.passes import MAX_PASSES, THETA_TOL, theta_moved, theta_sources
+from evcal.model.passes import MAX_PASSES, THETA_TOL, beyond_days, theta_moved, theta_sources
 
 __all__ = ["refine"]
 
@@ -64,6 +64,9 @@ class Refined:
     se_terms: np.ndarray  # (len(term_cols), m)
     theta_in: dict[str, np.ndarray]  # θ the final design was built with, per source column
     curved: dict[str, np.ndarray]  # each series' raw (unmerged) event columns for that θ: (m, n_periods)
+    #: (m,) series whose first pass asks an event for a bigger dip than its days hold
+    #: (:func:`evcal.model.passes.beyond_days`): the caller fits them on their own, where the rule notes it
+    beyond: np.ndarray | None = None
 
 
 def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, idx: dict[str, int],
@@ -175,6 +178,10 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         V_last[sel], P_last[sel], G_last[sel] = V, P, G
         return spd_solve(G, rhs[:, :, None])[:, :, 0]
 
+    fit_rows = np.flatnonzero(rows)
+    beyond = np.zeros(m, dtype=bool)
+    for c in curved_cols:
+        beyond |= beyond_days(B0[idx[c]], X_fit[:, idx[c]], curve.floor(c)[fit_rows])
     params = B0.copy()
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
     theta_in = {c: np.zeros(m) for c in curved_cols}
@@ -241,4 +248,4 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     order = [term.index(c) for c in group.term_cols]
     sources = theta_sources(group.status, group.roles, group.like_map, cols)
     curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
-    return Refined(params, resid, sigma2, se[order], theta_in, curved)
+    return Refined(params, resid, sigma2, se[order], theta_in, curved, beyond)

@@ -186,6 +186,8 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
     theta_in = {c: np.zeros(m) for c in curved_cols}
     active = np.ones(m, dtype=bool)
+    for c in curved_cols:  # a flagged series keeps its linear columns (it is fitted again on its own)
+        theta[c][beyond] = 0.0
     for _ in range(MAX_PASSES):
         sel = np.flatnonzero(active)
         if not len(sel):
@@ -195,7 +197,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
             params[idx[c], sel] = bt[:, j]
         for c in curved_cols:
             theta_in[c][sel] = theta[c][sel]
-        new = {c: params[idx[c], sel] for c in curved_cols}
+        new = {c: np.where(beyond[sel], 0.0, params[idx[c], sel]) for c in curved_cols}
         moved = theta_moved(new, {c: theta[c][sel] for c in curved_cols})
         for c in curved_cols:
             theta[c][sel] = new[c]

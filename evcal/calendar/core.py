@@ -62,6 +62,8 @@ class Calendar:
     interventions: list[InterventionSpec] = field(default_factory=list)
     exclusions: list[ExclusionSpec] = field(default_factory=list)
     public_holidays: PublicHolidays | None = None
+    #: relative sales level of each weekday, Monday..Sunday (``weekday_profile:``), or None (flat)
+    weekday_profile: tuple[float, ...] | None = None
     text: str = field(default="", repr=False)  # the YAML as read, e.g. to keep with a model
 
     # ------------------------------------------------------------ look-up

@@ -29,6 +29,7 @@ from evcal.calendar.schema import (
     ExclusionModel,
     InterventionModel,
     PublicHolidaysModel,
+    check_weekday_profile,
 )
 from evcal.calendar.spec import EventSpec, ExclusionSpec, InterventionSpec
 from evcal.calendar.value_parsers import parse_effect, show
@@ -127,6 +128,13 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
         if block is not None:
             holidays, public = _public_holidays(log, block)
 
+    profile: tuple[float, ...] | None = None
+    if data.get("weekday_profile") is not None:
+        try:
+            profile = check_weekday_profile(data["weekday_profile"])
+        except ValueError as err:
+            log.add(("weekday_profile",), str(err))
+
     raw_events = _items(data, "events")
     holiday_names = [e.name for e in public.events] if public is not None else []
     _check_names(log, raw_events, holiday_names)
@@ -162,7 +170,7 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
     ]
     if log.problems:
         return None
-    return Calendar(name, source, events, interventions, exclusions, public)
+    return Calendar(name, source, events, interventions, exclusions, public, weekday_profile=profile)
 
 
 def _items(data: dict[str, Any], section: str) -> list[Any]:

@@ -283,11 +283,38 @@ class ExclusionModel(_Section):
         return self
 
 
+#: the weekday names of ``weekday_profile:`` in its order (Monday first, as Python's weekday numbers)
+PROFILE_DAYS = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
+
+
+def check_weekday_profile(value: Any) -> tuple[float, ...]:
+    """``weekday_profile:`` as seven relative levels, Monday..Sunday; ValueError saying what would be right.
+
+    Examples
+    --------
+    >>> check_weekday_profile([1.2, 1.2, 1.2, 1.2, 1.1, 0.5, 0.4])[5]
+    0.5
+    """
+    right = ("write seven relative sales levels, Monday to Sunday, each above 0, "
+             "e.g. weekday_profile: [1.2, 1.2, 1.2, 1.2, 1.1, 0.6, 0.5]")
+    if not isinstance(value, (list, tuple)):
+        raise ValueError(f"{show(value)} is not a list; {right}")
+    if len(value) != 7:
+        raise ValueError(f"has {len(value)} values, not 7; {right}")
+    levels = []
+    for day, v in zip(PROFILE_DAYS, value, strict=True):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v <= 0:
+            raise ValueError(f"{day} is {show(v)}; {right}")
+        levels.append(float(v))
+    return tuple(levels)
+
+
 class CalendarModel(_Section):
     """The top level; the lists are validated item by item by the loader."""
 
     name: str
     public_holidays: Any = None
+    weekday_profile: Any = None  # checked by evcal.design.weekdays.check_profile (one line per problem)
     events: list[Any] | None = None
     interventions: list[Any] | None = None
     exclude: list[Any] | None = None

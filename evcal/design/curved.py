@@ -3,10 +3,12 @@
 The linear column (:mod:`evcal.design.events`) treats a lift as additive in
 logs over a partly covered period, while a lift multiplies each window day.
 Given θ a period's column is ``log(1 + mean over its open days of (exp(θ w_d) − 1)) / θ``
-for day intensities ``w_d``: column × θ is the exact log-effect, θ keeps its
+for day intensities ``w_d``, the mean weighting each day by the series' weekday level ω_d
+(``Σ ω_d (exp(θ w_d) − 1) / Σ ω_d``, :mod:`evcal.design.weekdays`; equal weights without a
+profile): column × θ is the exact log-effect, θ keeps its
 meaning "log-lift on the window days" at every frequency, and θ = 0 gives the
 linear column. That depends only on the *distinct* day intensities of a period
-and how many open days carry each, so the columns of a thousand θ values (a
+and the weekday weight of the open days that carry each, so the columns of a thousand θ values (a
 panel's series, or one series' passes) are one small matrix product per event.
 This is the only place the aggregation with a lift is computed.
 """
@@ -19,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.base import day_span, period_days
-from evcal.design.dayweights import aggregate_day_weights
+from evcal.design.weekdays import calendar_profile, day_levels
 
 __all__ = ["CurvedEvents"]
 
@@ -40,14 +42,18 @@ class CurvedEvents:
             return
         start, end = day_span(periods)
         daily = calendar.day_weights(start, end, normalize="none", events=wanted)
-        days = period_days(periods)
-        closed = calendar.closed_days(start, end).reindex(daily.index, fill_value=False)
-        if closed.any():  # closed days carry no lift; the mean is over the open days
-            daily = daily.mul(~closed.to_numpy(), axis=0)
-            shut = aggregate_day_weights(closed.astype(float).to_frame("closed"), periods)
-            days = np.maximum(days - shut["closed"].to_numpy(dtype=float), 1.0)
         codes = periods.get_indexer(daily.index.to_period(periods.freq))
         inside = codes >= 0
+        omega = day_levels(calendar_profile(calendar), daily.index)
+        closed = calendar.closed_days(start, end).reindex(daily.index, fill_value=False).to_numpy()
+        # closed days carry no lift; the mean is over the open days, each weighted by its weekday level
+        open_level = np.where(closed, 0.0, omega)
+        days = np.zeros(len(periods))
+        np.add.at(days, codes[inside], open_level[inside])
+        if closed.any():
+            daily = daily.mul(~closed, axis=0)
+        # a wholly closed period is not fitted: any positive divisor keeps its (zero) column finite
+        days = np.where(days > 0, days, np.maximum(period_days(periods), 1.0))
         for n in names:
             if n not in daily.columns:
                 continue
@@ -55,9 +61,23 @@ class CurvedEvents:
             nz = inside & (w != 0)
             vals, inv = np.unique(w[nz], return_inverse=True)
             counts = np.zeros((len(periods), len(vals)))
-            np.add.at(counts, (codes[nz], inv), 1.0)
+            np.add.at(counts, (codes[nz], inv), omega[nz])
             self.basis[n] = (vals, counts / days[:, None])
             self.touched[n] = np.flatnonzero(counts.any(axis=1))
+
+    def floor(self, name: str) -> np.ndarray:
+        """The lowest log-effect ``name`` can have on each period: ``log(1 − s)``, every event day removed.
+
+        ``s`` is the weekday-weighted share of the period's open days that the event's
+        window covers (0 where it covers none; −inf where it covers the whole period).
+        However far its lift goes towards −100 %, a period cannot fall by more than
+        the share of its sales that falls on those days.
+        """
+        if name not in self.basis:
+            return np.zeros(len(self.periods))
+        covered = np.clip(self.basis[name][1].sum(axis=1), 0.0, 1.0)
+        with np.errstate(divide="ignore"):
+            return np.log1p(-covered)
 
     def column(self, name: str, theta: np.ndarray, at: np.ndarray | None = None) -> np.ndarray:
         """Column ``name`` for each θ: shape (len(theta), periods); zeros if the calendar has none.

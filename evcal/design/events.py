@@ -17,9 +17,10 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.design.base import day_span, period_days
+from evcal.design.base import day_span
 from evcal.design.curved import CurvedEvents
 from evcal.design.dayweights import aggregate_day_weights
+from evcal.design.weekdays import calendar_profile, day_levels
 
 
 @dataclass
@@ -67,11 +68,19 @@ class OpenShare:
 
     Not a regressor: it enters the model as an offset (``log`` of it on the
     log scale), so a week with three closed days is not read as a dip in demand.
+    With a weekday profile (:mod:`evcal.design.weekdays`) each day counts by its
+    weekday level: a closed Saturday of a shop that sells mostly at weekends
+    removes more of the week than 1/7.
     """
 
     calendar: Any
 
     def values(self, periods: pd.PeriodIndex) -> pd.Series:
-        closed = self.calendar.closed_days(*day_span(periods)).astype(float).to_frame("closed")
-        share = 1.0 - aggregate_day_weights(closed, periods)["closed"].to_numpy() / period_days(periods)
-        return pd.Series(np.clip(share, 0.0, 1.0), index=periods, name="open_share")
+        closed = self.calendar.closed_days(*day_span(periods))
+        omega = day_levels(calendar_profile(self.calendar), closed.index)
+        levels = pd.DataFrame({"closed": closed.to_numpy(dtype=float) * omega, "all": omega},
+                              index=closed.index)
+        sums = aggregate_day_weights(levels, periods)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            share = 1.0 - sums["closed"].to_numpy() / sums["all"].to_numpy()
+        return pd.Series(np.clip(np.nan_to_num(share, nan=1.0), 0.0, 1.0), index=periods, name="open_share")

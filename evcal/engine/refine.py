@@ -18,7 +18,7 @@ import numpy as np
 
 from evcal.design.curved import CurvedEvents
 from evcal.model.estimators import ErrorSpectrum, error_spectrum
-from evcal.model.passes import MAX_PASSES, THETA_TOL, theta_moved, theta_sources
+from evcal.model.passes import MAX_PASSES, THETA_TOL, beyond_days, theta_moved, theta_sources
 
 __all__ = ["refine"]
 
@@ -66,6 +66,9 @@ class Refined:
     theta_in: dict[str, np.ndarray]  # θ the final design was built with, per source column
     curved: dict[str, np.ndarray]  # each series' raw (unmerged) event columns for that θ: (m, n_periods)
     spectrum: ErrorSpectrum  # each series' AR error model, from its final residuals
+    #: (m,) series whose first pass asks an event for a bigger dip than its days hold
+    #: (:func:`evcal.model.passes.beyond_days`): the caller fits them on their own, where the rule notes it
+    beyond: np.ndarray | None = None
 
 
 def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, idx: dict[str, int],
@@ -177,10 +180,16 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
         V_last[sel], P_last[sel], G_last[sel] = V, P, G
         return spd_solve(G, rhs[:, :, None])[:, :, 0]
 
+    fit_rows = np.flatnonzero(rows)
+    beyond = np.zeros(m, dtype=bool)
+    for c in curved_cols:
+        beyond |= beyond_days(B0[idx[c]], X_fit[:, idx[c]], curve.floor(c)[fit_rows])
     params = B0.copy()
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
     theta_in = {c: np.zeros(m) for c in curved_cols}
     active = np.ones(m, dtype=bool)
+    for c in curved_cols:  # a flagged series keeps its linear columns (it is fitted again on its own)
+        theta[c][beyond] = 0.0
     for _ in range(MAX_PASSES):
         sel = np.flatnonzero(active)
         if not len(sel):
@@ -190,7 +199,7 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
             params[idx[c], sel] = bt[:, j]
         for c in curved_cols:
             theta_in[c][sel] = theta[c][sel]
-        new = {c: params[idx[c], sel] for c in curved_cols}
+        new = {c: np.where(beyond[sel], 0.0, params[idx[c], sel]) for c in curved_cols}
         moved = theta_moved(new, {c: theta[c][sel] for c in curved_cols})
         for c in curved_cols:
             theta[c][sel] = new[c]
@@ -236,4 +245,4 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     order = [term.index(c) for c in group.term_cols]
     sources = theta_sources(group.status, group.roles, group.like_map, cols)
     curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
-    return Refined(params, resid, sigma2, se[order], theta_in, curved, spectrum)
+    return Refined(params, resid, sigma2, se[order], theta_in, curved, spectrum, beyond)

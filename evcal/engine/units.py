@@ -138,6 +138,8 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     # say even its order of magnitude) is fitted again on its own, where the degenerate-fit rule
     # leaves the broken columns out (evcal.model.passes.estimate_exact)
     broken = _broken(g, B, se, first, y)
+    if refined is not None and refined.beyond is not None:
+        broken |= refined.beyond  # a dip beyond the event's days: the per-series passes note it
     keep = ~broken
     col_of = {c: i for i, c in enumerate(g.info.fitted_cols)}
 

@@ -207,11 +207,68 @@ def fitted_theta(inp: ModelInputs, est: Estimate) -> dict[str, float]:
     return theta
 
 
-#: the note on a lift whose exact refit ran away (see :func:`estimate_exact`)
-APPROXIMATE_NOTE = (
-    "approximate: the periods around this event moved more than its own days can explain (its window "
-    "may be too short, e.g. the days after a holiday fall too), so the lift could not be refitted to "
-    "the exact days and is the share-of-window estimate; widen before/after, or fit daily data")
+def beyond_days(theta0: np.ndarray, linear: np.ndarray, floor: np.ndarray) -> np.ndarray:
+    """Series whose first (share-of-window) pass asks an event's periods for a bigger dip than its days hold.
+
+    ``theta0`` (m,) are the first-pass log-lifts, ``linear`` (n,) the event's
+    column at θ = 0 on the fit rows and ``floor`` (n,) the lowest log-effect each
+    of those periods can have (:meth:`evcal.design.curved.CurvedEvents.floor`).
+    The first pass says the periods the event touches fall by ``θ0 Σ x_p`` on
+    the log scale in all; removing every one of the event's days would take
+    ``Σ log(1 − s_p)``. When the first is lower, no lift on the event's days
+    explains the dip (the days around it fall too), and the exact passes would
+    run towards −100 % with an interval of no width: the rule stops them first.
+    A window that covers a whole period can explain any dip.
+
+    Examples
+    --------
+    >>> s = np.array([1 / 7, 1 / 7])  # a one-day event in two weeks (flat weekdays)
+    >>> beyond_days(np.array([-0.9, -1.2, 0.5]), s, np.log1p(-s)).tolist()
+    [False, True, False]
+    """
+    theta0 = np.atleast_1d(np.asarray(theta0, dtype=float))
+    touched = np.asarray(linear) != 0
+    most = float(np.sum(np.asarray(floor)[touched]))
+    if not touched.any() or not np.isfinite(most):
+        return np.zeros(theta0.shape, dtype=bool)
+    asked = theta0 * float(np.sum(np.asarray(linear)[touched]))
+    return (theta0 < 0) & (asked < most)
+
+
+def beyond_days_note(calendar: Any, col: str, asked: float | None = None, most: float | None = None) -> str:
+    """The note of a lift stopped by :func:`beyond_days`: what was seen and the window that would fit."""
+    ev = calendar.event(calendar.event_columns().get(col, col))
+    before, after = int(getattr(ev, "before", 0)), int(getattr(ev, "after", 0))
+    days = int(getattr(ev, "length", 1)) + before + after
+    window = "one-day window" if days == 1 else f"{days}-day window"
+    seen = ""
+    if asked is not None and most is not None:
+        seen = (f" (the periods that hold it fall by {100 * -np.expm1(asked):.0f} % on average; removing "
+                f"every day of its window would take {100 * -np.expm1(most):.0f} %)")
+    return (f"the dip is larger than a {window} explains{seen}: this is the share-of-window figure, not a "
+            f"lift on the event's days, and is weakly identified; widen the window, e.g. before: "
+            f"{before + 1} / after: {after + 2}, or fit daily data")
+
+
+def _stopped_events(inp: ModelInputs, est: Estimate, calendar: Any) -> dict[str, str]:
+    """Fitted event columns of the first pass that :func:`beyond_days` stops; column -> note."""
+    from evcal.design.curved import CurvedEvents
+
+    cols = [c for c in inp.fitted_cols if inp.design.roles.get(c) == "event"
+            and inp.status.get(c, ColumnStatus("")).status == "fitted" and float(est.params[c]) < 0]
+    if not cols:
+        return {}
+    curve = CurvedEvents(calendar, cols, inp.periods)
+    out = {}
+    for c in cols:
+        linear = inp.design.X[c].to_numpy(dtype=float)[inp.rows]
+        floor = curve.floor(c)[inp.rows]
+        theta0 = float(est.params[c])
+        if beyond_days(np.array([theta0]), linear, floor)[0]:
+            touched = linear != 0  # per period that holds some of the window, on average
+            out[c] = beyond_days_note(calendar, c, theta0 * float(linear[touched].mean()),
+                                      float(floor[touched].mean()))
+    return out
 
 
 def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None
@@ -236,7 +293,9 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
     inp, est, choice = _fit_flagged(history, calendar, options, None, dropped, inp)
     if not exact_passes(inp.transform, history.freq):
         return inp, est, choice
-    theta = fitted_theta(inp, est)
+    # a lift whose periods fall by more than its days hold keeps its share-of-window column (θ = 0)
+    stopped = _stopped_events(inp, est, calendar)
+    theta = _free(fitted_theta(inp, est), inp, stopped)
     # later passes keep the error model the first pass chose (and its reasons)
     if est.method == "ols":
         fixed = replace(options, errors="ols")
@@ -256,17 +315,26 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
             # can make them move (a window too short for what happens around the event). Keep
             # the previous pass, whose share-of-window estimate is finite and fits the periods
             # (dropping the event would push a moving holiday into the seasonal index), and say so.
-            for c in ran_away:
-                if c in inp.status and inp.status[c].status == "fitted":
-                    inp.status[c] = ColumnStatus("fitted", APPROXIMATE_NOTE)
+            stopped.update({c: beyond_days_note(calendar, c) for c in ran_away if c not in stopped})
             break
         inp, est = inp_next, est_next
-        new = fitted_theta(inp, est)
+        new = _free(fitted_theta(inp, est), inp, stopped)
         moved = theta_moved(new, theta)
         theta = new
         if moved < THETA_TOL:
             break
+    for c, note in stopped.items():
+        if c in inp.status and inp.status[c].status == "fitted":
+            inp.status[c] = ColumnStatus("fitted", note)
     return inp, est, choice
+
+
+def _free(theta: dict[str, float], inp: ModelInputs, stopped: dict[str, str]) -> dict[str, float]:
+    """``theta`` without the stopped lifts and the columns that take theirs (like, duplicate)."""
+    if not stopped:
+        return theta
+    sources = theta_sources(inp.status, inp.design.roles, inp.like_map, inp.fitted_cols)
+    return {c: v for c, v in theta.items() if c not in stopped and sources.get(c) not in stopped}
 
 
 def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[str, float] | None,

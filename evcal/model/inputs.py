@@ -176,7 +176,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             offset += np.log1p(a) * X[c]
     if identify:
         base_cols = independent_base_columns(X, rows, base_cols)
-        status = check_columns(X, rows, base_cols, candidates, design.roles)
+        status = check_columns(X, rows, base_cols, candidates, design.roles, calendar, set(degenerate or ()))
     else:
         status = {c: ColumnStatus("unchecked", "identifiability not checked") for c in candidates}
     for c in assumed:

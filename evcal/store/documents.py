@@ -61,6 +61,7 @@ class Design(Strict):
 class ColumnNote(Strict):  # what identification said of an event column
     status: STATUSES
     note: str
+    weak: bool = False  # fitted but weakly identified (absent in folders written before: False)
 
 
 class Status(ColumnNote):  # ... and the column it duplicates

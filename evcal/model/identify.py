@@ -44,7 +44,7 @@ class ColumnStatus:
     note: str = ""
     twin: str = ""  # for a duplicate: the column that carries the joint estimate
     weak: bool = False  # fitted, but weakly identified (evcal.model.strength): the note says why
-    checks: dict[str, Any] = field(default_factory=dict)  # evcal.model.strength's numbers, for the lifts table
+    checks: dict[str, Any] = field(default_factory=dict)  # evcal.model.strength's numbers (lifts table)
 
     @property
     def identifiable(self) -> str:
@@ -99,7 +99,7 @@ def independent_base_columns(X: pd.DataFrame, rows: np.ndarray, base_cols: list[
 
 def check_columns(
     X: pd.DataFrame, rows: np.ndarray, base_cols: list[str], candidate_cols: list[str],
-    kind_of: dict[str, str], calendar: Any = None, leave_out: Any = (),
+    kind_of: dict[str, str], calendar: Any = None, leave_out: Any = (), graded_on: pd.DataFrame | None = None,
 ) -> dict[str, ColumnStatus]:
     """Classify each candidate (event and intervention) column, in priority order, on the fit ``rows``.
 
@@ -112,7 +112,7 @@ def check_columns(
     With the ``calendar``, the fitted columns are then graded ``yes`` or ``weak``
     (:func:`evcal.model.strength.grade`) on the design of the base columns and
     the fitted candidates, less the ``leave_out`` columns (an earlier pass's
-    breakdowns, which the caller marks unidentifiable).
+    breakdowns, which the caller marks unidentifiable), on ``graded_on`` (default ``X``).
     """
     out: dict[str, ColumnStatus] = {}
     if not candidate_cols:
@@ -189,7 +189,7 @@ def check_columns(
         from evcal.model.strength import grade
 
         fitted = base_cols + [c for c in candidate_cols if out[c].status == "fitted" and c not in leave_out]
-        out = grade(X, rows, fitted, out, kind_of, calendar)
+        out = grade(X if graded_on is None else graded_on, rows, fitted, out, kind_of, calendar)
     return out
 
 

@@ -95,7 +95,8 @@ class FitResult:
             "smear": self.smear,
             "error_model": self.error_model,
             "model": self.model_choice,
-            "status": {k: {"status": v.status, "note": v.note, "twin": v.twin, "weak": v.weak}
+            "status": {k: {"status": v.status, "note": v.note, "twin": v.twin,
+                           **({"weak": True} if v.weak else {})}
                        for k, v in self.status.items()},
             "like_map": self.like_map,
             "assumed": self.assumed,

@@ -35,6 +35,9 @@ from evcal.model.identify import ColumnStatus
 #: fewer occurrences than this in the fitted history make an event weak: with one or two, the lift
 #: cannot be told from whatever else happened in those periods (common practice, no source)
 MIN_OCCURRENCES = 3
+#: ... unless its occurrences cover at least this many fitted periods (a tournament of several weeks seen
+#: twice in weekly data rests on many periods, not two; common practice, no source)
+MIN_PERIODS = 6
 #: more than this share of a term's estimate resting on one period makes it weak; the bound is Huber's
 #: h > 0.5 for a high-leverage point (Huber, Robust Statistics, 1981; from memory), applied to the
 #: term's own (partial) leverage
@@ -56,6 +59,7 @@ class Strength:
     """What :func:`assess` measured for one fitted term, and its grade."""
 
     occurrences: float  # occurrences with a fitted period in their window (NaN for an intervention)
+    periods: int  # fitted periods the column touches
     leverage: float  # hat-matrix diagonal at the period carrying most of the estimate
     period_share: float  # that period's share of the estimate (the term's largest partial leverage)
     period: str  # that period
@@ -132,8 +136,9 @@ def assess(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], terms: lis
             if kind == "event" else (np.nan, "", 0)
         vs = float(vif_season[n]) if np.isfinite(vif_season[n]) else np.inf
         ve = float(vif_full[n] / vif_season[n]) if vs > 0 and np.isfinite(vs) else np.nan
-        s = Strength(float(occurrences), float(hat[best]), float(share[n, best]), str(periods[best]), vs,
-                     ve, partner, within, ())
+        touched = int((Z[:, idx[c]] != 0).sum())
+        s = Strength(float(occurrences), touched, float(hat[best]), float(share[n, best]), str(periods[best]),
+                     vs, ve, partner, within, ())
         reasons = _reasons(s, kind, types.get(c, ""), float(vif_full[n]), held, windows.freq_word, daily)
         out[c] = Strength(**{**s.__dict__, "reasons": tuple(reasons)})
     if not daily:  # the event holding a nested one shares its estimate with it: weak as well
@@ -154,10 +159,10 @@ def _reasons(s: Strength, kind: str, iv_type: str, vif_full: float, held: int, f
     what = "event" if kind == "event" else "intervention"
     assume = "give effect: {assume: ...}"
     out = []
-    if kind == "event" and s.occurrences < MIN_OCCURRENCES:
-        out.append(f"weakly identified: rests on {s.occurrences:.0f} occurrence(s) in the fitted history "
-                   f"(fewer than {MIN_OCCURRENCES}), too few to tell the event from whatever else happened "
-                   f"then; {assume}, drop the event, or fit a longer history")
+    if kind == "event" and s.occurrences < MIN_OCCURRENCES and s.periods < MIN_PERIODS:
+        out.append(f"weakly identified: rests on {s.occurrences:.0f} occurrence(s) in {s.periods} period(s) "
+                   f"of the fitted history (fewer than {MIN_OCCURRENCES}), too few to tell the event from "
+                   f"whatever else happened then; {assume}, drop the event, or fit a longer history")
     if s.within and not daily:
         out.append(f"weakly identified: {s.within}'s window holds this event's days in {held} of "
                    f"{s.occurrences:.0f} occurrences, so {freq_word} periods cannot tell the two apart; "
@@ -203,7 +208,9 @@ class _Windows:
         after = {e.name: e.after for e in calendar.events}
         w0 = (pd.to_datetime(occ["start"]) - first).dt.days.to_numpy() - occ["event"].map(before).to_numpy()
         w1 = (pd.to_datetime(occ["end"]) - first).dt.days.to_numpy() + occ["event"].map(after).to_numpy()
-        w0, w1 = np.clip(w0, 0, n_days - 1), np.clip(w1, 0, n_days - 1)
+        # (int: a calendar with no occurrence in the span gives empty float columns)
+        w0 = np.clip(w0, 0, n_days - 1).astype(np.int64)
+        w1 = np.clip(w1, 0, n_days - 1).astype(np.int64)
         cum = np.concatenate([[0], np.cumsum(self.fitted_days)])
         touched = cum[w1 + 1] - cum[w0] > 0
         self.occ = pd.DataFrame({"event": occ["event"].to_numpy(), "w0": w0, "w1": w1})[touched]

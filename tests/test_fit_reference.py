@@ -140,10 +140,14 @@ events:
 """
     res = evcal.fit(hist, cal, errors="ols")
     row = res.lifts.set_index("event").loc["christmas-eve"]
-    assert not bool(row["identifiable"])
+    assert row["identifiable"] == "no"
     assert np.isnan(row["lift_pct"])
     assert "seasonal index" in row["note"]
-    assert bool(res.lifts.set_index("event").loc["easter-weekend", "identifiable"])
+    # Easter's Friday-to-Monday falls wholly in April in 5 of these 6 years (only 2018 reaches into
+    # March): its variance is inflated ~12-fold by the month dummies, past the VIF > 10 rule
+    # (evcal.model.strength): weak, with the note saying why, no longer "yes" as before issue 15
+    easter_row = res.lifts.set_index("event").loc["easter-weekend"]
+    assert easter_row["identifiable"] == "weak" and "seasonal terms" in easter_row["note"]
 
 
 def test_events_sharing_days_are_reported_as_duplicates():
@@ -154,7 +158,7 @@ def test_events_sharing_days_are_reported_as_duplicates():
 """
     res = evcal.fit(hist, cal, errors="ols")
     lifts = res.lifts.set_index("event")
-    assert not bool(lifts.loc["promo-copy", "identifiable"])
+    assert lifts.loc["promo-copy", "identifiable"] == "no"
     assert "merging" in lifts.loc["promo-copy", "note"]
     # the pair's joint effect is carried by the first: 20 % true lift
     assert lifts.loc["promo", "lift_pct"] == pytest.approx(20, abs=4)

@@ -153,7 +153,7 @@ def test_folder_written_by_0_1_loads_plans_and_is_written_back_the_same(tmp_path
     old = load_model(V01 / "model")
     assert old.freq == "M" and list(old.lifts["event"]) == ["spring-fair", "xmas"]
     assert old.lifts["label"].iloc[0] == "=Spring fair, 3 days"  # the formula-safe quote taken off
-    assert np.isnan(old.lifts["lift_pct"].iloc[0]) and not old.lifts["identifiable"].iloc[0]
+    assert np.isnan(old.lifts["lift_pct"].iloc[0]) and old.lifts["identifiable"].iloc[0] == "no"
     res = runner.invoke(app, ["plan", str(V01 / "model"), "--from", "2024-01-01", "--to", "2024-12-31",
                               "--sims", "0", "--out", str(tmp_path / "plan.csv")])
     assert res.exit_code == 0, res.output

@@ -26,6 +26,9 @@ __all__ = ["BlockTables", "block_tables", "LIFT_COLUMNS"]
 SeasonVariance = Callable[[tuple[str, ...], np.ndarray], np.ndarray]
 
 LIFT_COLUMNS = ["event", "lift_pct", "low_pct", "high_pct", "units_per_occurrence", "identifiable", "note"]
+#: what the lifts table adds after the contract columns: how well the history pins each lift down
+#: (evcal.model.strength; NaN or empty where not measured: unfitted, assumed, closures)
+STRENGTH_COLUMNS = ["occurrences_fitted", "leverage", "vif_season", "vif_events", "within"]
 
 
 @dataclass
@@ -113,6 +116,8 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
     A lift's 95 % interval is the coefficient's (beta ± 1.96 se, from the fit's
     covariance: HAC for OLS) through the monotone 100 (exp(b) - 1); in the
     additive model, divided by the mean base of the event's periods.
+    ``identifiable`` is ``yes``, ``weak`` or ``no`` (:attr:`ColumnStatus.identifiable`); a
+    borrowed lift is as weak as the lift it borrows.
     """
     m = len(sids)
     nan = np.full(m, np.nan)
@@ -142,26 +147,43 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
             units = units_of(info.get("event", col))
         else:
             units = units_of(col) if st.status == "fitted" else nan
+        ident, note = _identifiable(group, col, st)
+        checks = getattr(st, "checks", {}) or {}
         rows.append({"event": col, "lift_pct": lift, "low_pct": low, "high_pct": high,
-                     "units_per_occurrence": units,
-                     "identifiable": st.status in ("fitted", "like", "assumed"),
-                     "note": st.note, "kind": kind, "label": info.get("label", col),
-                     "_fitted": st.status == "fitted"})
+                     "units_per_occurrence": units, "identifiable": ident, "note": note, "kind": kind,
+                     "label": info.get("label", col), "_fitted": st.status == "fitted",
+                     **{c: checks.get(c, "" if c == "within" else np.nan) for c in STRENGTH_COLUMNS}})
     for ev in group.closure_events:
         rows.append({"event": ev, "lift_pct": np.full(m, -100.0), "low_pct": np.full(m, -100.0),
                      "high_pct": np.full(m, -100.0), "units_per_occurrence": units_of(ev),
-                     "identifiable": True, "note": "closure (effect: zero): known zero, kept out of the fit",
-                     "kind": "event", "label": group.event_labels.get(ev, ev), "_fitted": False})
+                     "identifiable": "yes", "note": "closure (effect: zero): known zero, kept out of the fit",
+                     "kind": "event", "label": group.event_labels.get(ev, ev), "_fitted": False,
+                     **{c: "" if c == "within" else np.nan for c in STRENGTH_COLUMNS}})
     out: dict[str, Any] = {"_sid": np.repeat(sids, len(rows))}
-    for c in LIFT_COLUMNS + ["kind", "label", "_fitted"]:
+    for c in LIFT_COLUMNS + ["kind", "label", "_fitted"] + STRENGTH_COLUMNS:
         values = [row[c] for row in rows]
-        if c in ("identifiable", "_fitted"):
+        if c == "_fitted":
             out[c] = np.tile(np.array(values, dtype=bool), m)
-        elif c in ("event", "note", "kind", "label"):
+        elif c in STRENGTH_COLUMNS and c != "within":
+            out[c] = np.tile(np.array(values, dtype=float), m)
+        elif c in ("event", "note", "kind", "label", "identifiable", "within"):
             out[c] = tiled_text(values, m)
         else:
             out[c] = np.column_stack(values).ravel() if rows else np.zeros(0)
     return Columns(out)
+
+
+def _identifiable(group: GroupInfo, col: str, st: Any) -> tuple[str, str]:
+    """``yes``/``weak``/``no`` and the note of one column; a borrowed lift is as weak as its source."""
+    ident = st.identifiable
+    note = st.note
+    if st.status == "like":
+        source = group.status.get(group.like_map.get(col, ""))
+        if source is not None and source.identifiable == "weak":
+            ident = "weak"
+            note = f"{note}; that lift is weakly identified (see its note)" if note else \
+                "borrows a weakly identified lift (see its note)"
+    return ident, note
 
 
 def profile_columns(group: GroupInfo, pmap: dict[str, np.ndarray], mean_base: np.ndarray,

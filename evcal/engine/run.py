@@ -195,7 +195,8 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
     group_rows = [{"group": g.gid, "transform": g.transform, "trend_origin": g.origin,
                    "series": int(len(g.members)), "periods_fitted": int(g.rows.sum()),
                    "coefficients": len(g.info.fitted_cols), "hac_lags": None,
-                   "status": {c: {"status": st.status, "note": st.note} for c, st in g.info.status.items()},
+                   "status": {c: {"status": st.status, "note": st.note, **({"weak": True} if st.weak else {})}
+                              for c, st in g.info.status.items()},
                    "fitted_columns": g.info.fitted_cols, "notes": g.notes} for g in groups]
     models = {k: v for r in results for k, v in r.models.items()}
     return PanelFit(panel, options, cal, tables.lifts, tables.occurrences, tables.profile, tables.fitted,

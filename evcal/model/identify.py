@@ -17,7 +17,7 @@ flags those after the fit, which leaves the column out with a note from
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -43,6 +43,15 @@ class ColumnStatus:
     status: str  # fitted | no_history | unidentifiable | duplicate | assumed | like | unchecked
     note: str = ""
     twin: str = ""  # for a duplicate: the column that carries the joint estimate
+    weak: bool = False  # fitted, but weakly identified (evcal.model.strength): the note says why
+    checks: dict[str, Any] = field(default_factory=dict)  # evcal.model.strength's numbers (lifts table)
+
+    @property
+    def identifiable(self) -> str:
+        """``yes``, ``weak`` or ``no``: whether the history (or an assumption) gives this column a lift."""
+        if self.status in ("fitted", "like", "assumed"):
+            return "weak" if self.weak else "yes"
+        return "no"
 
 
 def _project_out(q: np.ndarray, a: np.ndarray) -> np.ndarray:
@@ -90,7 +99,7 @@ def independent_base_columns(X: pd.DataFrame, rows: np.ndarray, base_cols: list[
 
 def check_columns(
     X: pd.DataFrame, rows: np.ndarray, base_cols: list[str], candidate_cols: list[str],
-    kind_of: dict[str, str],
+    kind_of: dict[str, str], calendar: Any = None, leave_out: Any = (), graded_on: pd.DataFrame | None = None,
 ) -> dict[str, ColumnStatus]:
     """Classify each candidate (event and intervention) column, in priority order, on the fit ``rows``.
 
@@ -99,6 +108,11 @@ def check_columns(
     matrix (an incremental Cholesky that skips dependent columns), so the
     cost is one pass over the data however many events there are.
     ``kind_of`` (column -> role) words the notes.
+
+    With the ``calendar``, the fitted columns are then graded ``yes`` or ``weak``
+    (:func:`evcal.model.strength.grade`) on the design of the base columns and
+    the fitted candidates, less the ``leave_out`` columns (an earlier pass's
+    breakdowns, which the caller marks unidentifiable), on ``graded_on`` (default ``X``).
     """
     out: dict[str, ColumnStatus] = {}
     if not candidate_cols:
@@ -171,6 +185,11 @@ def check_columns(
         chol = new
         kept.append(j)
         out.setdefault(c, ColumnStatus("fitted"))
+    if calendar is not None:
+        from evcal.model.strength import grade
+
+        fitted = base_cols + [c for c in candidate_cols if out[c].status == "fitted" and c not in leave_out]
+        out = grade(X if graded_on is None else graded_on, rows, fitted, out, kind_of, calendar)
     return out
 
 

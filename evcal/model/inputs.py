@@ -218,10 +218,14 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     candidates += [t["name"] for t in spec.interventions]
 
     # `like` events share their target's coefficient: add their column to it.
-    X = X.copy()
-    for c, target in like_map.items():
-        if target in X.columns:
-            X[target] = X[target] + X[c]
+    def merged(frame: pd.DataFrame) -> pd.DataFrame:
+        frame = frame.copy()
+        for c, target in like_map.items():
+            if target in frame.columns:
+                frame[target] = frame[target] + frame[c]
+        return frame
+
+    X = merged(X)
     offset = pd.Series(0.0, index=periods)
     if transform in ("log", "count"):
         with np.errstate(divide="ignore"):
@@ -230,7 +234,12 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
             offset += np.log1p(a) * X[c]
     if identify:
         base_cols = independent_base_columns(X, rows, base_cols)
-        status = check_columns(X, rows, base_cols, candidates, design.roles)
+        # weak identification is graded on the share-of-window design of the first pass, as the
+        # panel engine's design groups grade it (evcal.engine.groups), whatever the pass
+        graded = merged(build_design(design_spec(calendar, options, periods, history.freq), calendar,
+                                     periods).X) if theta else X
+        status = check_columns(X, rows, base_cols, candidates, design.roles, calendar,
+                               set(degenerate or ()), graded)
     else:
         status = {c: ColumnStatus("unchecked", "identifiability not checked") for c in candidates}
     for c in assumed:

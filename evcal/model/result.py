@@ -95,7 +95,8 @@ class FitResult:
             "smear": self.smear,
             "error_model": self.error_model,
             "model": self.model_choice,
-            "status": {k: {"status": v.status, "note": v.note, "twin": v.twin}
+            "status": {k: {"status": v.status, "note": v.note, "twin": v.twin,
+                           **({"weak": True} if v.weak else {})}
                        for k, v in self.status.items()},
             "like_map": self.like_map,
             "assumed": self.assumed,
@@ -152,7 +153,8 @@ class FitResult:
             cov=pd.DataFrame(np.array(d["cov"]["values"], dtype=float).reshape(len(cols), len(cols)),
                              index=cols, columns=cols),
             model_choice=d["model"],
-            status={k: ColumnStatus(v["status"], v["note"], v["twin"]) for k, v in d["status"].items()},
+            status={k: ColumnStatus(v["status"], v["note"], v["twin"], bool(v.get("weak", False)))
+                    for k, v in d["status"].items()},
             history_start=history["start"], history_end=history["end"], history_source=history["source"],
             average_share={int(k): v for k, v in d["average_share"].items()},
         )

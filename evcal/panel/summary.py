@@ -19,7 +19,7 @@ def lift_distribution(lifts: pd.DataFrame) -> pd.DataFrame:
     series whose whole 95 % interval is above zero), ``below_zero_pct``, ``pooled_median_pct``.
     """
     rows = []
-    est = lifts[lifts["identifiable"].astype(str).str.lower().isin(["true", "1"])
+    est = lifts[lifts["identifiable"].astype(str).str.lower().isin(["yes", "true", "1"])
                 & lifts["lift_pct"].notna() & (lifts["low_pct"] < lifts["high_pct"])]
     for ev, g in est.groupby("event", sort=False):
         lift = g["lift_pct"].to_numpy(dtype=float)

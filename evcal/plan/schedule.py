@@ -19,6 +19,8 @@ from evcal.errors import PlanError
 from evcal.model.identify import ColumnStatus
 
 NEW_EVENTS = ("error", "zero")
+#: the plan's ``assumptions`` text for an event whose fitted lift is weakly identified (lifts.csv says why)
+WEAK_NOTE = "lift weakly identified (identifiable: weak in lifts.csv; its note says why and what to do)"
 
 
 @dataclass
@@ -116,12 +118,14 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
         elif eff.kind == "like":
             continue
         elif known(c) or (st is not None and st.status in ("unidentifiable", "duplicate")):
-            # an unidentifiable or duplicate effect lives in the season or in its twin's estimate
-            plan.plan_as(c, ev, st)
+            # an unidentifiable or duplicate effect lives in the season or in its twin's estimate;
+            # a weakly identified lift is planned, and marked so (never silently)
+            plan.plan_as(c, ev, st, WEAK_NOTE if known(c) and st.weak else "")
         elif st is not None and st.status == "like" and known(result.like_map.get(c, "")):
             plan.like_map[c] = result.like_map[c]
             src_event = result.event_info.get(plan.like_map[c], {}).get("event", plan.like_map[c])
-            plan.plan_as(c, ev, st, f"borrows the lift of {src_event}")
+            weak = getattr(result.status.get(plan.like_map[c]), "weak", False)
+            plan.plan_as(c, ev, st, f"borrows the {'weakly identified ' if weak else ''}lift of {src_event}")
         elif st is not None and st.status == "assumed":
             plan.assumed[c] = float(result.assumed[c])
             plan.plan_as(c, ev, ColumnStatus("assumed", st.note),
@@ -142,8 +146,9 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
         src_status = plan.status[src].status if src in plan.status else ""
         if src_status == "fitted" or (src_status == "like" and src in plan.like_map):
             plan.like_map[c] = plan.like_map.get(src, src)
+            weak = "weakly identified " if getattr(result.status.get(plan.like_map[c]), "weak", False) else ""
             plan.plan_as(c, ev, ColumnStatus("like", f"borrows the lift of {src_event}"),
-                         f"borrows the lift of {src_event}")
+                         f"borrows the {weak}lift of {src_event}")
         elif src in plan.assumed:
             plan.assumed[c] = plan.assumed[src]
             plan.plan_as(c, ev, ColumnStatus("assumed", f"borrows the assumed lift of {src_event}"),

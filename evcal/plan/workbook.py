@@ -193,7 +193,8 @@ def _notes_sheet(ws: Worksheet) -> None:
         "Plan: base is the trend and regular season with no event; each lift:<event> column "
         "is that event's contribution in units; low and high bound the plan's interval.",
         "Lifts: % over base across the event's window with a 95 % interval; "
-        "identifiable = FALSE means the history cannot separate the event from the season.",
+        "identifiable = no means the history cannot separate the event from the season; weak means "
+        "the lift rests on too little to trust (its note says why).",
         "Seasonal index: the base profile over one cycle, mean 100.",
         "Past occurrences: what each past occurrence of an event added, in units and %.",
     ):

@@ -140,16 +140,38 @@ def index_chart(profile: pd.DataFrame, freq: str) -> Figure:
     return fig
 
 
+#: the lift chart's axis reaches at most this far right (% over base): past x4 a point is a fit that
+#: cannot tell, not a lift to read off a chart (common practice, no source); -100 % is the left end of
+#: any lift
+AXIS_MAX_PCT = 300.0
+
+
+def lift_axis(rows: pd.DataFrame) -> tuple[float, float]:
+    """The x-range of the lift chart: the ``yes`` lifts' intervals (all rows' if none), within -100..300 %."""
+    core = rows[rows["identifiable"] == "yes"]
+    core = core if not core.empty else rows
+    vals = [core[c].to_numpy(float) for c in ("low_pct", "lift_pct", "high_pct")]
+    finite = np.concatenate([v[np.isfinite(v)] for v in vals] + [np.zeros(1)])
+    lo = max(float(finite.min()), -100.0)
+    hi = min(float(finite.max()), AXIS_MAX_PCT)
+    pad = max((hi - lo) * 0.12, 2.0)
+    return lo - pad, hi + pad * 1.6
+
+
 def lifts_chart(
     lifts: pd.DataFrame, colours: Mapping[str, str], closures: Iterable[str] = (), assumed: Iterable[str] = ()
 ) -> Figure | None:
-    """Each identifiable lift as a point with its 95 % interval; None when there is none.
+    """Each identifiable lift (``yes`` or ``weak``) as a point with its 95 % interval; None if there is none.
 
     Closures (known zero days, always −100 %) are left out: they are not
     estimates and would squash the scale. Assumed lifts (set in the calendar,
-    not learned) are drawn hollow and say so.
+    not learned) are drawn hollow and say so. The axis is set by the ``yes``
+    lifts (:func:`lift_axis`); a weak lift is drawn dashed, and a point or
+    interval beyond the axis is cut at its edge with an arrow and its value written.
     """
-    rows = lifts[lifts["identifiable"] & lifts["lift_pct"].notna() & ~lifts["event"].isin(set(closures))]
+    ident = lifts["identifiable"].astype(str)
+    shown = ident.isin(["yes", "weak"]) & lifts["lift_pct"].notna()
+    rows = lifts[shown & ~lifts["event"].isin(set(closures))]
     if rows.empty:
         return None
     rows = rows.iloc[::-1]  # first row at the top
@@ -157,42 +179,39 @@ def lifts_chart(
     fig, ax = _figure(0.9 + 0.36 * len(rows))
     ax.grid(True, axis="x", color=pal.GRID, linewidth=0.8)
     ax.grid(False, axis="y")
+    x0, x1 = lift_axis(rows)
     labels = []
     for y, r in enumerate(rows.itertuples()):
         colour = colours.get(r.event, pal.INK)
+        weak = r.identifiable == "weak"
         if pd.notna(r.low_pct) and pd.notna(r.high_pct):
-            ax.hlines(y, r.low_pct, r.high_pct, color=colour, linewidth=3.2, alpha=0.45)
-        marker = "D" if r.kind == "intervention" else "o"
-        face = "white" if r.event in assumed else colour
-        ax.plot(
-            [r.lift_pct],
-            [y],
-            marker=marker,
-            color=colour,
-            markerfacecolor=face,
-            markeredgewidth=1.6,
-            markersize=7,
-        )
+            ax.hlines(y, np.clip(r.low_pct, x0, x1), np.clip(r.high_pct, x0, x1), color=colour,
+                      linewidth=3.2, alpha=0.45, linestyles="dashed" if weak else "solid")
+        beyond = r.lift_pct > x1 or r.lift_pct < x0
+        marker = (">" if r.lift_pct > x1 else "<") if beyond else "D" if r.kind == "intervention" else "o"
+        face = "white" if r.event in assumed or weak else colour
+        ax.plot([float(np.clip(r.lift_pct, x0, x1))], [y], marker=marker, color=colour, markerfacecolor=face,
+                markeredgewidth=1.6, markersize=7)
+        text = f"{r.lift_pct:+,.1f} %"
+        cut = [f"{v:+,.0f} %" for v in (r.low_pct, r.high_pct) if pd.notna(v) and (v < x0 or v > x1)]
+        if cut and not beyond:
+            text += f" (interval to {' / '.join(cut)})"
+        if weak:
+            text += " weak"
         right = r.high_pct if pd.notna(r.high_pct) else r.lift_pct
-        ax.annotate(
-            f"{r.lift_pct:+.1f} %",
-            (right, y),
-            xytext=(6, 0),
-            textcoords="offset points",
-            va="center",
-            fontsize=8.5,
-            color=pal.INK,
-        )
+        at_edge = beyond or right > x1
+        ax.annotate(text, (float(np.clip(right, x0, x1)), y), xytext=(-10 if at_edge else 6, 0),
+                    textcoords="offset points", va="center", ha="right" if at_edge else "left", fontsize=8.5,
+                    color=pal.INK)
         suffix = " (assumed)" if r.event in assumed else " (intervention)" if r.kind == "intervention" else ""
+        suffix += " (weak)" if weak else ""
         labels.append(plain(r.label, 46 - len(suffix)) + suffix)
     ax.axvline(0.0, color=pal.INK, linewidth=1.0)
     ax.set_yticks(range(len(rows)), labels)
     ax.set_ylim(-0.7, len(rows) - 0.3)
-    lo_all = np.nanmin(np.r_[rows["low_pct"].to_numpy(float), rows["lift_pct"].to_numpy(float), 0])
-    hi_all = np.nanmax(np.r_[rows["high_pct"].to_numpy(float), rows["lift_pct"].to_numpy(float), 0])
-    pad = max((hi_all - lo_all) * 0.12, 2.0)
-    ax.set_xlim(lo_all - pad, hi_all + pad * 1.6)
-    ax.set_xlabel("% over base across the event's window (95 % interval)", color=pal.MUTED, fontsize=9)
+    ax.set_xlim(x0, x1)
+    ax.set_xlabel("% over base across the event's window (95 % interval; weak lifts dashed, arrows: beyond "
+                  "the axis)", color=pal.MUTED, fontsize=9)
     return fig
 
 

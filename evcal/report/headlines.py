@@ -43,7 +43,7 @@ def biggest_event(folder: ModelFolder, skip: set[str]) -> pd.Series | None:
     lifts = folder.lifts
     rows = lifts[
         (lifts["kind"] == "event")
-        & lifts["identifiable"]
+        & (lifts["identifiable"] == "yes")  # a weak lift is no headline
         & lifts["lift_pct"].notna()
         & lifts["units_per_occurrence"].notna()
         & ~lifts["event"].isin(skip)

@@ -98,15 +98,14 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
         kind = "closure" if closed else "assumed" if r["event"] in ctx.assumed else r["kind"]
         if closed:
             lift, interval, units = "closed (zero)", "–", num(r["units_per_occurrence"])
-        elif r["identifiable"] and pd.notna(r["lift_pct"]):
+        elif r["identifiable"] != "no" and pd.notna(r["lift_pct"]):
             lift, interval = pct(r["lift_pct"]), f"{pct(r['low_pct'])} to {pct(r['high_pct'])}"
             units = num(r["units_per_occurrence"])
         else:
             lift, interval, units = "not estimated", "–", "–"
-        identifiable = "yes" if r["identifiable"] else "no"
-        rows.append([r["label"], r["event"], kind, lift, interval, units, identifiable, r["note"]])
-        row_cls.append("" if r["identifiable"] else "unident")
-    not_ident = lifts[~lifts["identifiable"]]
+        rows.append([r["label"], r["event"], kind, lift, interval, units, r["identifiable"], r["note"]])
+        row_cls.append({"no": "unident", "weak": "weak"}.get(r["identifiable"], ""))
+    not_ident = lifts[lifts["identifiable"] == "no"]
     headers = ["event", "name in files", "kind", "lift", "95 % interval", "units / occurrence",
                "identifiable", "note"]
     return {

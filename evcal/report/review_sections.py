@@ -107,7 +107,7 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
     lifts = ctx.folder.lifts
     not_estimated = [
         {"label": r["label"], "event": r["event"], "note": r["note"] or "not identifiable from this history"}
-        for _, r in lifts[~lifts["identifiable"]].iterrows()
+        for _, r in lifts[lifts["identifiable"] == "no"].iterrows()
     ]
     assumptions = [f"{ctx.label(name)} ({name}): {text}" for name, text in ctx.assumed.items()]
     plan = ctx.folder.plan

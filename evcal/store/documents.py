@@ -78,6 +78,7 @@ class Design(Strict):
 class ColumnNote(Strict):  # what identification said of an event column
     status: STATUSES
     note: str
+    weak: bool = False  # fitted but weakly identified (absent in folders written before: False)
 
 
 class Status(ColumnNote):  # ... and the column it duplicates
@@ -286,10 +287,22 @@ def validate_document(kind: str, path: Path, data: dict[str, Any]) -> Any:
 def plain(doc: Any, raw: dict[str, Any]) -> dict[str, Any]:
     """A validated document as plain Python values (the non-finite strings back to floats), its keys in
     the order of the file ``raw`` was read from (so a panel saved again writes them in that order)."""
-    dumped = doc.model_dump()
+    dumped = _weak_when_true(doc.model_dump())
     d = {k: dumped[k] for k in raw if k in dumped} | dumped
     if isinstance(doc, ModelJson):
         if d["last_year"]["year"] is None:
             d["last_year"] = {}
         d["error_model"] = doc.error_model.model_dump()
     return d
+
+
+def _weak_when_true(value: Any) -> Any:
+    """``value`` with every column note's ``weak: false`` left out (it is written only when true, so a
+    folder written before weak identification is written back as it was)."""
+    if isinstance(value, dict):
+        if value.get("weak") is False and "status" in value and "note" in value:
+            value = {k: v for k, v in value.items() if k != "weak"}
+        return {k: _weak_when_true(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_weak_when_true(v) for v in value]
+    return value

@@ -32,7 +32,7 @@ class Table:
 
 
 LIFTS = Table(("event", "lift_pct", "low_pct", "high_pct", "units_per_occurrence", "identifiable", "note"),
-              ("event", "identifiable", "note", "kind", "label"))
+              ("event", "identifiable", "note", "kind", "label", "within"))
 OCCURRENCES = Table(("event", "start", "end", "added_units", "added_pct"), ("event",), ("start", "end"))
 PROFILE = Table(("period", "index"), finite=("period", "index"))
 FITTED = Table(("date", "actual", "fitted", "base"), dates=("date",), finite=("fitted", "base"))
@@ -43,7 +43,8 @@ SERIES = Table(("status", "reason", "engine", "group", "transform", "method", "s
 POOLING = Table(("group", "event", "series", "mean_pct", "mean_low_pct", "mean_high_pct", "tau", "q",
                  "i2_pct"), ("group", "event"), finite=("series",))
 SKIPPED = Table(("reason", "detail"), ("reason", "detail"))
-_TRUE, _FALSE = {"true", "yes", "weak"}, {"false", "no"}
+#: ``identifiable`` as written (folders written before it had three values held True/False) -> its value
+IDENTIFIABLE = {"yes": "yes", "weak": "weak", "no": "no", "true": "yes", "false": "no"}
 
 
 def write_table(frame: pd.DataFrame, path: Path, digits: int | None = None) -> None:
@@ -162,15 +163,15 @@ def typed(path: Path, frame: pd.DataFrame, table: Table, keys: list[str]) -> pd.
     """Flags as booleans, dates as datetimes, every other column not a key or text as numbers."""
     for col in ("identifiable",) if "identifiable" in frame.columns else ():
         text = frame[col].fillna("").astype(str).str.strip().str.lower()
-        _bad_row(path, ~text.isin(_TRUE | _FALSE).to_numpy(), col,
-                 lambda i, c=col: f"{shown(frame[c].iloc[i])} is not True/False")
-        frame[col] = text.isin(_TRUE)
+        _bad_row(path, ~text.isin(list(IDENTIFIABLE)).to_numpy(), col,
+                 lambda i, c=col: f"{shown(frame[c].iloc[i])} is not yes, weak or no")
+        frame[col] = text.map(IDENTIFIABLE).astype(object)
     for col in table.dates:
         frame[col] = days(path, frame, col)
     for col in frame.columns:
         if col not in keys and col not in table.text and col not in table.dates and frame[col].dtype != bool:
             frame[col] = _numbers(path, frame, col, col in table.finite)
-    for col in ("note", "label", "detail", "reason"):  # free text: an empty cell is an empty text
+    for col in ("note", "label", "detail", "reason", "within"):  # free text: an empty cell is an empty text
         if col in frame.columns and col in table.text:
             frame[col] = frame[col].fillna("").astype(str)
     return frame

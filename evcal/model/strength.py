@@ -1,0 +1,264 @@
+"""How well the history pins down each fitted event and intervention: ``yes`` or ``weak``.
+
+:func:`evcal.model.identify.check_columns` finds the columns the history
+cannot estimate at all (exact aliasing: ``no``). A column can pass it and
+still rest on almost nothing: a festival held every March from the second
+year on is told apart from the March season by the one March without it; a
+holiday nested in another event's window moves with it in monthly periods;
+a holiday kept in two years only. :func:`assess` measures, once for a design
+(a panel's design group shares one), on the fitted rows:
+
+* the number of occurrences whose window falls in a fitted period;
+* the largest share of the estimate that rests on one period (the term's
+  partial leverage ``r_i^2 / sum(r^2)``, ``r`` its column's residual on the
+  other fitted columns: the share of the coefficient's variance from period
+  ``i``) and the hat-matrix diagonal (leverage) of the fitted design there;
+* the variance inflation factor against the trend and seasonal terms, and the
+  further factor the other events and interventions add;
+* another event whose window holds this one's days in most occurrences.
+
+Each rule that trips makes the term ``weak`` with a note that names the reason
+and the fix (merge, widen, drop, assume). The thresholds are the named
+constants below, each with where it comes from.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.model.identify import ColumnStatus
+
+#: fewer occurrences than this in the fitted history make an event weak: with one or two, the lift
+#: cannot be told from whatever else happened in those periods (common practice, no source)
+MIN_OCCURRENCES = 3
+#: ... unless its occurrences cover at least this many fitted periods (a tournament of several weeks seen
+#: twice in weekly data rests on many periods, not two; common practice, no source)
+MIN_PERIODS = 6
+#: more than this share of a term's estimate resting on one period makes it weak; the bound is Huber's
+#: h > 0.5 for a high-leverage point (Huber, Robust Statistics, 1981; from memory), applied to the
+#: term's own (partial) leverage
+MAX_PERIOD_SHARE = 0.5
+#: a variance inflation factor above 10 makes a term weak: the rule of thumb of regression textbooks
+#: (Kutner, Nachtsheim, Neter & Li, Applied Linear Statistical Models, 5th ed., 2005, sec. 10.5;
+#: from memory)
+MAX_VIF = 10.0
+#: another event's window holding this one's days in more than this share of its occurrences makes
+#: it nested (the majority; common practice, no source); only in periods longer than a day, where
+#: both columns count days of the same periods
+NESTED_SHARE = 0.5
+#: interventions that rest on their first period by construction: the period-share rule is not applied
+ONE_PERIOD_TYPES = ("pulse", "temporary")
+
+
+@dataclass(frozen=True)
+class Strength:
+    """What :func:`assess` measured for one fitted term, and its grade."""
+
+    occurrences: float  # occurrences with a fitted period in their window (NaN for an intervention)
+    periods: int  # fitted periods the column touches
+    leverage: float  # hat-matrix diagonal at the period carrying most of the estimate
+    period_share: float  # that period's share of the estimate (the term's largest partial leverage)
+    period: str  # that period
+    vif_season: float  # variance inflation by the trend and seasonal terms
+    vif_events: float  # the further inflation by the other events and interventions
+    partner: str  # the other term it moves with most (largest partial correlation)
+    within: str  # an event whose window holds this one's days in most occurrences
+    reasons: tuple[str, ...]  # empty: identified; else why it is weak, and the fix
+
+    @property
+    def weak(self) -> bool:
+        return bool(self.reasons)
+
+    def checks(self) -> dict[str, Any]:
+        """The numbers of the lifts table."""
+        return {"occurrences_fitted": self.occurrences, "leverage": self.leverage,
+                "vif_season": self.vif_season, "vif_events": self.vif_events, "within": self.within}
+
+
+def assess(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], terms: list[str],
+           roles: dict[str, str], calendar: Any) -> dict[str, Strength]:
+    """Measure and grade each fitted event and intervention column in ``terms``.
+
+    Parameters
+    ----------
+    X : DataFrame
+        The design on every period (like-events already added onto their target).
+    rows : ndarray of bool
+        The fitted rows.
+    fitted_cols : list of str
+        The columns of the fit (trend, seasonal and the fitted terms), independent on ``rows``.
+    terms : list of str
+        The fitted event and intervention columns to grade.
+    roles : dict
+        Column -> ``trend``, ``seasonal``, ``event`` or ``intervention``.
+    calendar : Calendar
+        For the occurrences, windows and intervention types.
+    """
+    if not terms:
+        return {}
+    Z = X.loc[rows, fitted_cols].to_numpy(dtype=float)
+    periods = X.index[rows]
+    q, r = np.linalg.qr(Z)
+    r_inv = np.linalg.solve(r, np.eye(r.shape[0]))
+    p_inv = r_inv @ r_inv.T  # (Z'Z)^-1
+    hat = np.einsum("ij,ij->i", q, q)
+    idx = {c: i for i, c in enumerate(fitted_cols)}
+    base = [i for c, i in idx.items() if roles.get(c) in ("trend", "seasonal")]
+    qb, _ = np.linalg.qr(Z[:, base]) if base else (np.zeros((len(Z), 0)), None)
+    term_idx = np.array([idx[c] for c in terms])
+    weights = r_inv[term_idx] @ q.T  # each term's coefficient as weights on the periods
+    share = np.square(weights)
+    share /= share.sum(axis=1, keepdims=True)
+    centred = Z[:, term_idx] - Z[:, term_idx].mean(axis=0)
+    ss = np.square(centred).sum(axis=0)
+    resid_base = Z[:, term_idx] - qb @ (qb.T @ Z[:, term_idx])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        vif_full = ss * np.diag(p_inv)[term_idx]
+        vif_season = ss / np.square(resid_base).sum(axis=0)
+        sd = np.sqrt(np.diag(p_inv))
+        pcorr = -p_inv / np.outer(sd, sd)
+    daily = isinstance(X.index, pd.PeriodIndex) and X.index.freqstr.startswith("D")
+    windows = _Windows(calendar, X.index, rows)
+    types = {iv.name: str(iv.type) for iv in calendar.interventions}
+    col_event = calendar.event_columns()
+    out: dict[str, Strength] = {}
+    for n, c in enumerate(terms):
+        kind = roles.get(c, "event")
+        best = int(np.argmax(share[n]))
+        others = [k for k in term_idx if k != idx[c]]
+        partner = fitted_cols[max(others, key=lambda k: abs(pcorr[idx[c], k]))] if others else ""
+        ev = col_event.get(c, c)
+        occurrences, within, held = (windows.count(ev), *windows.within(ev, terms, col_event)) \
+            if kind == "event" else (np.nan, "", 0)
+        vs = float(vif_season[n]) if np.isfinite(vif_season[n]) else np.inf
+        ve = float(vif_full[n] / vif_season[n]) if vs > 0 and np.isfinite(vs) else np.nan
+        touched = int((Z[:, idx[c]] != 0).sum())
+        s = Strength(float(occurrences), touched, float(hat[best]), float(share[n, best]), str(periods[best]),
+                     vs, ve, partner, within, ())
+        reasons = _reasons(s, kind, types.get(c, ""), float(vif_full[n]), held, windows.freq_word, daily)
+        out[c] = Strength(**{**s.__dict__, "reasons": tuple(reasons)})
+    if not daily:  # the event holding a nested one shares its estimate with it: weak as well
+        for c, s in list(out.items()):
+            holder = next((k for k in terms if col_event.get(k, k) == s.within), None) if s.within else None
+            if holder in out:
+                why = (f"weakly identified: its window holds the days of {col_event.get(c, c)} in most "
+                       f"occurrences, so {windows.freq_word} periods share the estimate between the two; "
+                       f"merge {col_event.get(c, c)} into this event, or drop it")
+                h = out[holder]
+                out[holder] = Strength(**{**h.__dict__, "reasons": (*h.reasons, why)})
+    return out
+
+
+def _reasons(s: Strength, kind: str, iv_type: str, vif_full: float, held: int, freq_word: str,
+             daily: bool) -> list[str]:
+    """Why a term is weak, each with its fix (empty: identified)."""
+    what = "event" if kind == "event" else "intervention"
+    assume = "give effect: {assume: ...}"
+    out = []
+    if kind == "event" and s.occurrences < MIN_OCCURRENCES and s.periods < MIN_PERIODS:
+        out.append(f"weakly identified: rests on {s.occurrences:.0f} occurrence(s) in {s.periods} period(s) "
+                   f"of the fitted history (fewer than {MIN_OCCURRENCES}), too few to tell the event from "
+                   f"whatever else happened then; {assume}, drop the event, or fit a longer history")
+    if s.within and not daily:
+        out.append(f"weakly identified: {s.within}'s window holds this event's days in {held} of "
+                   f"{s.occurrences:.0f} occurrences, so {freq_word} periods cannot tell the two apart; "
+                   f"merge it into {s.within} (widen that window), or drop it")
+    if s.period_share > MAX_PERIOD_SHARE and iv_type not in ONE_PERIOD_TYPES:
+        out.append(f"weakly identified: {100 * s.period_share:.0f} % of the estimate rests on one period "
+                   f"({s.period}, leverage {s.leverage:.2f}); merge this {what} with the season or another "
+                   f"{what}, {assume}, or drop it")
+    if vif_full > MAX_VIF and not out:
+        if s.vif_season > MAX_VIF:
+            out.append(f"weakly identified: its variance is inflated {s.vif_season:.0f}-fold by the seasonal "
+                       f"terms (it falls in nearly the same periods every year); widen its window so it "
+                       f"moves between periods, fit finer data, or {assume}")
+        else:
+            out.append(f"weakly identified: its variance is inflated {vif_full:.0f}-fold, mostly by "
+                       f"{s.partner}, which moves with it; merge the two, widen one window, or drop one")
+    return out
+
+
+class _Windows:
+    """The occurrence windows of the calendar's events, in days, restricted to the fitted periods."""
+
+    def __init__(self, calendar: Any, index: pd.Index, rows: np.ndarray) -> None:
+        self.freq_word = "these"
+        if not isinstance(index, pd.PeriodIndex) or not len(index):
+            self.occ = pd.DataFrame(columns=["event", "w0", "w1"])
+            self.fitted_days = np.zeros(0, dtype=bool)
+            return
+        self.freq_word = {"D": "daily", "W": "weekly", "M": "monthly", "Q": "quarterly"}.get(
+            index.freqstr[0], "these")
+        first = index[0].start_time.normalize()
+        last = index[-1].end_time.normalize()
+        self.day0 = first
+        n_days = (last - first).days + 1
+        p0 = (index.start_time.normalize() - first).days.to_numpy()
+        p1 = (index.end_time.normalize() - first).days.to_numpy()
+        marks = np.zeros(n_days + 1, dtype=int)
+        np.add.at(marks, p0[rows], 1)
+        np.add.at(marks, p1[rows] + 1, -1)
+        self.fitted_days = np.cumsum(marks)[:n_days] > 0
+        occ = calendar.occurrences(first, last)
+        before = {e.name: e.before for e in calendar.events}
+        after = {e.name: e.after for e in calendar.events}
+        w0 = (pd.to_datetime(occ["start"]) - first).dt.days.to_numpy() - occ["event"].map(before).to_numpy()
+        w1 = (pd.to_datetime(occ["end"]) - first).dt.days.to_numpy() + occ["event"].map(after).to_numpy()
+        # (int: a calendar with no occurrence in the span gives empty float columns)
+        w0 = np.clip(w0, 0, n_days - 1).astype(np.int64)
+        w1 = np.clip(w1, 0, n_days - 1).astype(np.int64)
+        cum = np.concatenate([[0], np.cumsum(self.fitted_days)])
+        touched = cum[w1 + 1] - cum[w0] > 0
+        self.occ = pd.DataFrame({"event": occ["event"].to_numpy(), "w0": w0, "w1": w1})[touched]
+        self._cum: dict[str, np.ndarray] = {}
+
+    def count(self, event: str) -> int:
+        """Occurrences of ``event`` whose window has a day in a fitted period."""
+        return int((self.occ["event"] == event).sum())
+
+    def _days(self, event: str) -> np.ndarray:
+        """Cumulative count of the days inside ``event``'s windows (for range sums)."""
+        if event not in self._cum:
+            mine = self.occ[self.occ["event"] == event]
+            marks = np.zeros(len(self.fitted_days) + 1, dtype=int)
+            np.add.at(marks, mine["w0"].to_numpy(), 1)
+            np.add.at(marks, mine["w1"].to_numpy() + 1, -1)
+            self._cum[event] = np.concatenate([[0], np.cumsum(np.cumsum(marks)[:-1] > 0)])
+        return self._cum[event]
+
+    def within(self, event: str, terms: list[str], col_event: dict[str, str]) -> tuple[str, int]:
+        """The fitted event whose windows hold ``event``'s window days in most occurrences, and how many."""
+        mine = self.occ[self.occ["event"] == event]
+        if not len(mine):
+            return "", 0
+        w0, w1 = mine["w0"].to_numpy(), mine["w1"].to_numpy()
+        best, held_best = "", 0
+        for other in dict.fromkeys(col_event.get(t, t) for t in terms):
+            if other == event or other not in set(self.occ["event"]):
+                continue
+            cum = self._days(other)
+            held = int(((cum[w1 + 1] - cum[w0]) == (w1 - w0 + 1)).sum())
+            if held > NESTED_SHARE * len(mine) and held > held_best:
+                best, held_best = other, held
+        return best, held_best
+
+
+def grade(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], status: dict[str, Any],
+          roles: dict[str, str], calendar: Any) -> dict[str, Any]:
+    """``status`` with each fitted term's :func:`assess` numbers, and the weak ones marked with their note.
+
+    (A borrowed ``like`` lift is as weak as the lift it borrows: the lifts table says so.)
+    """
+    terms = [c for c in fitted_cols if roles.get(c) in ("event", "intervention")
+             and getattr(status.get(c), "status", "") == "fitted"]
+    found = assess(X, rows, fitted_cols, terms, roles, calendar)
+    out = dict(status)
+    for c, s in found.items():
+        st = out[c]
+        note = "; ".join([n for n in (st.note, *s.reasons) if n])
+        out[c] = ColumnStatus(st.status, note, st.twin, weak=s.weak, checks=s.checks())
+    return out

@@ -199,7 +199,8 @@ def backtest(
             prev_mask = years == (y - 1)
             if daily:
                 train_v = values[train].where(~excluded[train])
-                prof = weekday_share_profile(train_v, closed[train])
+                # the fold's fit stores the profile; a model without one (an older fit) gets it here
+                prof = res.weekday_share or weekday_share_profile(train_v, closed[train])
                 s = spread_weekday_share(test, prof, closed[test_mask])
                 prev_s = spread_weekday_share(periods[prev_mask], prof, closed[prev_mask])
             else:

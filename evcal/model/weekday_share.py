@@ -46,6 +46,29 @@ def average_share_kind(freq: str) -> str:
     return AVERAGE_SHARE_KIND.get(base_freq(freq), AVERAGE_SHARE_KIND["M"])
 
 
+def average_share_basis(freq: str, weekday_share: dict[str, Any] | None) -> str:
+    """Which average-share profile a plan of frequency ``freq`` is compared with (one line).
+
+    Daily: weekday-aware when the model stores ``weekday_share``, else (a
+    folder fitted before it was stored) by day of year, with what to do about it.
+    """
+    if base_freq(freq) == "D" and not weekday_share:
+        return DAY_OF_YEAR_KIND
+    return average_share_kind(freq)
+
+
+def average_share_phrase(freq: str, weekday_share: dict[str, Any] | None) -> str:
+    """The profile as a short noun phrase for a sentence ("an average-share profile", daily: which one)."""
+    if base_freq(freq) != "D":
+        return "an average-share profile"
+    if weekday_share:
+        return "a weekday-aware average-share profile (day of week within month)"
+    return (
+        "an average-share profile by day of year (the model was fitted before the weekday-aware one was "
+        "stored: fit it again to compare by day of week)"
+    )
+
+
 def weekday_share_profile(history: pd.Series, closed: np.ndarray | None = None) -> dict[str, Any]:
     """What the weekday-aware average share needs: month shares and 12 x 7 weekday factors.
 

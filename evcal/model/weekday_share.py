@@ -89,7 +89,7 @@ def weekday_share_profile(history: pd.Series, closed: np.ndarray | None = None) 
         ``weekday``: 12 lists (January first) of 7 factors (Monday first), each
         the mean ratio of that weekday's sales to its month's mean open day in
         that month of the history years; 1.0 where the history has none. Empty
-        when no month share can be computed.
+        when the history is not daily or no month share can be computed.
 
     Examples
     --------
@@ -100,6 +100,8 @@ def weekday_share_profile(history: pd.Series, closed: np.ndarray | None = None) 
     >>> [round(f, 3) for f in prof["weekday"][0]]   # January: a Sunday twice a weekday
     [0.861, 0.861, 0.861, 0.861, 0.861, 0.861, 1.722]
     """
+    if len(history) == 0 or base_freq(history.index.freqstr) != "D":
+        return {}
     v = history.to_numpy(dtype=float).copy()
     shut = np.zeros(len(v), dtype=bool) if closed is None else np.asarray(closed, dtype=bool)
     idx = history.index

@@ -15,7 +15,6 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.design.seasonal import base_freq
 from evcal.effects import BlockTables, GroupInfo, SpanContext, block_tables
 from evcal.model.estimators import hac_note
 from evcal.model.identify import status_notes
@@ -101,9 +100,8 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         last_year=last_full_year(history.values, history.label),
         average_share={int(k): float(v) for k, v in average_share_profile(
             history.values.where(inp.rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
-        weekday_share=weekday_share_profile(history.values.where(inp.rows),
-                                            closed=inp.design.open_share.to_numpy() <= 1e-9)
-        if base_freq(history.freq) == "D" else {},
+        weekday_share=weekday_share_profile(history.values.where(inp.rows),  # {} unless daily
+                                            closed=inp.design.open_share.to_numpy() <= 1e-9),
         mean_base=0.0,
         **calendar_terms(calendar),
         _calendar=calendar,

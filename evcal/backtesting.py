@@ -42,90 +42,20 @@ import pandas as pd
 
 from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.errors import PlanError
+from evcal.model.weekday_share import (
+    AVERAGE_SHARE_KIND,
+    average_share_kind,
+    spread_weekday_share,
+    weekday_share,
+    weekday_share_profile,
+)
 from evcal.plan.horizon import full_years, period_years
+
+__all__ = ["AVERAGE_SHARE_KIND", "COLUMNS", "METHODS", "average_share_kind", "backtest", "format_table",
+           "save_backtest", "score", "weekday_share"]
 
 COLUMNS = ["year", "method", "spread", "wape", "bias", "peak_error"]
 METHODS = ("evcal", "average_share", "seasonal_naive")
-#: What ``average_share`` is, by the history's base frequency (printed with the table and in the report).
-AVERAGE_SHARE_KIND = {
-    "D": "average share, weekday-aware: each month's mean share of its year over the past full years, "
-         "spread over the month's days by that month's day-of-week pattern in the history "
-         "(day of week within month)",
-    "W": "average share: each week's (by its number in the year) mean share of its year over the past "
-         "full years",
-    "M": "average share: each month's mean share of its year over the past full years",
-    "Q": "average share: each quarter's mean share of its year over the past full years",
-}
-
-
-def average_share_kind(freq: str) -> str:
-    """The one-line description of the ``average_share`` method for a history of frequency ``freq``."""
-    return AVERAGE_SHARE_KIND.get(base_freq(freq), AVERAGE_SHARE_KIND["M"])
-
-
-def weekday_share(history: pd.Series, days: pd.PeriodIndex, closed_history: np.ndarray | None = None,
-                  closed_days: np.ndarray | None = None) -> np.ndarray:
-    """Each day's average share of its year, weekday-aware (day of week within month).
-
-    A day gets its month's mean share of the year (the average-share profile of
-    the history's monthly totals, over its full years) times the mean ratio of
-    that weekday to the month's daily mean in the same month of the history
-    years, normalised over the month's open days. Common practice, no source:
-    it is the plain profile a planner of daily sales would use, so the
-    comparison with evcal is not won on weekdays alone.
-
-    Parameters
-    ----------
-    history : Series
-        Daily sales (daily PeriodIndex); NaN where not known (gaps, exclusions).
-    days : PeriodIndex
-        The daily periods to give shares for (whole months give shares that add
-        up to the month's share).
-    closed_history, closed_days : array of bool, optional
-        Days known to be closed (a calendar closure): left out of the weekday
-        ratios, and given a share of zero in ``days``.
-
-    Returns
-    -------
-    ndarray
-        One share per day of ``days``; 0 where the history gives no month share.
-
-    Examples
-    --------
-    >>> import numpy as np, pandas as pd
-    >>> idx = pd.period_range("2021-01-01", "2022-12-31", freq="D")
-    >>> h = pd.Series(np.where(idx.day_of_week == 6, 2.0, 1.0), index=idx)  # invented: Sundays sell double
-    >>> jan = pd.period_range("2023-01-01", "2023-01-31", freq="D")
-    >>> s = weekday_share(h, jan)
-    >>> round(float(s[0] / s[1]), 6), round(float(s.sum()), 4)   # 1 January 2023 is a Sunday
-    (2.0, 0.0863)
-    """
-    from evcal.model.inputs import average_share_profile
-
-    v = history.to_numpy(dtype=float).copy()
-    if closed_history is not None:
-        v[np.asarray(closed_history, dtype=bool)] = np.nan
-    idx = history.index
-    frame = pd.DataFrame({"v": v, "ym": idx.asfreq("M"), "month": idx.month, "dow": idx.day_of_week})
-    sums = frame.groupby("ym")["v"].agg(["sum", "count"])
-    whole = sums["count"].to_numpy() == sums.index.days_in_month  # months with every day known
-    monthly = pd.Series(np.where(whole, sums["sum"].to_numpy(), np.nan), index=sums.index)
-    month_share = average_share_profile(monthly.reindex(pd.period_range(
-        monthly.index[0], monthly.index[-1], freq="M")))
-    ratio = frame["v"] / frame.groupby("ym")["v"].transform("mean")
-    factor = ratio.groupby([frame["month"], frame["dow"]]).mean()
-    w = np.array([factor.get((m, d), np.nan) for m, d in zip(days.month, days.day_of_week, strict=True)])
-    w = np.where(np.isfinite(w) & (w > 0), w, 1.0)
-    if closed_days is not None:
-        w = np.where(np.asarray(closed_days, dtype=bool), 0.0, w)
-    out = np.zeros(len(days))
-    months = days.asfreq("M")
-    for ym in months.unique():
-        m = np.asarray(months == ym)
-        total_w = w[m].sum()
-        if total_w > 0:
-            out[m] = float(month_share.get(ym.month, 0.0)) * w[m] / total_w
-    return out
 
 
 def score(plan: np.ndarray, actual: np.ndarray) -> dict[str, float]:
@@ -269,8 +199,10 @@ def backtest(
             prev_mask = years == (y - 1)
             if daily:
                 train_v = values[train].where(~excluded[train])
-                s = weekday_share(train_v, test, closed[train], closed[test_mask])
-                prev_s = weekday_share(train_v, periods[prev_mask], closed[train], closed[prev_mask])
+                # the fold's fit stores the profile; a model without one (an older fit) gets it here
+                prof = res.weekday_share or weekday_share_profile(train_v, closed[train])
+                s = spread_weekday_share(test, prof, closed[test_mask])
+                prev_s = spread_weekday_share(periods[prev_mask], prof, closed[prev_mask])
             else:
                 share = _average_share(res, values[train])
                 s = np.array([share.get(int(k), np.nan) for k in season_position(test)], dtype=float)

@@ -24,6 +24,7 @@ from evcal.model.options import FitOptions
 from evcal.model.passes import estimate_exact, ols_choice
 from evcal.model.result import FitResult
 from evcal.model.summary import last_full_year
+from evcal.model.weekday_share import weekday_share_profile
 
 __all__ = ["fit_series", "block_result"]
 
@@ -113,6 +114,8 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
         last_year=last_full_year(history.values, history.label),
         average_share={int(k): float(v) for k, v in average_share_profile(
             history.values.where(inp.rows), closed=inp.design.open_share.to_numpy() <= 1e-9).items()},
+        weekday_share=weekday_share_profile(history.values.where(inp.rows),  # {} unless daily
+                                            closed=inp.design.open_share.to_numpy() <= 1e-9),
         mean_base=0.0,
         **calendar_terms(calendar),
         _calendar=calendar,

@@ -63,6 +63,8 @@ class FitResult:
     profile: pd.DataFrame = field(default_factory=pd.DataFrame)
     fitted: pd.DataFrame = field(default_factory=pd.DataFrame)
     residuals: pd.Series = field(default_factory=lambda: pd.Series(dtype=float))
+    #: daily models: the weekday-aware average share (:func:`evcal.model.weekday_share.weekday_share_profile`)
+    weekday_share: dict[str, Any] = field(default_factory=dict)
     _calendar: Any = field(default=None, repr=False)
 
     # ------------------------------------------------------------ helpers
@@ -112,11 +114,19 @@ class FitResult:
                         "source": self.history_source},
             "last_year": self.last_year,
             "average_share": {str(k): v for k, v in self.average_share.items()},
+            **self._weekday_share_json(),
             "mean_base": self.mean_base,
             "exclusions": self.exclusions,
             "warnings": self.warnings,
             "quality": self.quality,
         }
+
+    def _weekday_share_json(self) -> dict[str, Any]:
+        # written for daily models only, so a folder without it (older, or not daily) is written back the same
+        if not self.weekday_share:
+            return {}
+        return {"weekday_share": {"month": {str(k): v for k, v in self.weekday_share["month"].items()},
+                                  "weekday": self.weekday_share["weekday"]}}
 
     def save(self, directory: str | Path) -> Path:
         """Write the output folder of the contract (atomically: all files or none; :mod:`evcal.store`)."""
@@ -157,6 +167,9 @@ class FitResult:
                     for k, v in d["status"].items()},
             history_start=history["start"], history_end=history["end"], history_source=history["source"],
             average_share={int(k): v for k, v in d["average_share"].items()},
+            # absent (None) in folders fitted before it was stored, and for non-daily models
+            weekday_share={"month": {int(k): v for k, v in d["weekday_share"]["month"].items()},
+                           "weekday": d["weekday_share"]["weekday"]} if d.get("weekday_share") else {},
         )
 
 

@@ -2,8 +2,10 @@
 
 "What moved" compares the plan with the same total spread by the plain
 average-share profile (each position's mean share of its year over the
-history's full years: common practice, no source): the periods where the two
-differ most are where the events, and the base cleaned of them, change the plan.
+history's full years; for daily models weekday-aware, each month's share spread
+by its day-of-week pattern: :mod:`evcal.model.weekday_share`; common practice,
+no source): the periods where the two differ most are where the events, and the
+base cleaned of them, change the plan. The summary says which profile it used.
 """
 
 from __future__ import annotations
@@ -14,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.seasonal import base_freq, season_position
+from evcal.model.weekday_share import average_share_basis, spread_weekday_share
 
 
 def period_name(period: pd.Period, date: pd.Timestamp, label: str) -> str:
@@ -27,16 +30,24 @@ def period_name(period: pd.Period, date: pd.Timestamp, label: str) -> str:
 
 
 def average_share_plan(periods: pd.PeriodIndex, years: np.ndarray, plan: np.ndarray,
-                       average_share: dict[int, float]) -> np.ndarray:
+                       average_share: dict[int, float],
+                       weekday_share: dict[str, Any] | None = None) -> np.ndarray:
     """The plan's own yearly totals spread by the average-share profile.
 
     Each year's periods get ``total_year * share[pos] / sum(share over that year's periods)``.
-    Returns NaN everywhere when the history gave no profile.
+    Daily periods with ``weekday_share`` (the model's weekday-aware profile,
+    :mod:`evcal.model.weekday_share`) get their month's share spread by the
+    month's weekday factors instead, and a day the plan puts at exactly zero (a
+    calendar closure) gets no share. Returns NaN everywhere when the history
+    gave no profile.
     """
-    if not average_share:
+    if base_freq(periods.freqstr) == "D" and weekday_share:
+        s = spread_weekday_share(periods, weekday_share, closed_days=np.asarray(plan) == 0)
+    elif average_share:
+        pos = season_position(periods)
+        s = np.array([average_share.get(int(p), np.nan) for p in pos], dtype=float)
+    else:
         return np.full(len(periods), np.nan)
-    pos = season_position(periods)
-    s = np.array([average_share.get(int(p), np.nan) for p in pos], dtype=float)
     out = np.full(len(periods), np.nan)
     for y in np.unique(years):
         m = years == y
@@ -97,7 +108,8 @@ def plan_summary(plan: Any, top: int = 3) -> str:
         lines.append("In the seasonal index (always in the same period, so not separable from the "
                      "season; no lift of their own): " + ", ".join(plan.in_season) + ".")
     years = t["date"].dt.year.to_numpy()
-    avg = average_share_plan(periods, years, values, plan.average_share)
+    weekday_share = getattr(plan.result, "weekday_share", None) or {}
+    avg = average_share_plan(periods, years, values, plan.average_share, weekday_share)
     if np.isfinite(avg).any():
         diff = values - avg
         order = np.argsort(-np.abs(np.nan_to_num(diff)))[:top]
@@ -105,7 +117,8 @@ def plan_summary(plan: Any, top: int = 3) -> str:
                  f"({_pct(100.0 * diff[k] / avg[k] if avg[k] else float('nan'))})" for k in order
                  if np.isfinite(diff[k])]
         lines.append("Against the average-share profile spread to the same total, the periods that "
-                     "change most: " + "; ".join(moved) + ".")
+                     "change most: " + "; ".join(moved) + f". Average-share profile here: "
+                     f"{average_share_basis(plan.freq, weekday_share)}.")
     if plan.assumptions:
         lines.append("Assumptions: " + "; ".join(plan.assumptions.values()) + ".")
     lines.append(plan.interval_note)

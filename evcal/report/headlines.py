@@ -4,8 +4,9 @@
 2. where the plan's peak lands, with its low and high;
 3. how far the plan differs from the plain average-share profile spread to the
    same total (each position's mean share of its year over the history's full
-   years, as ``model.json`` records it under ``average_share``: common
-   practice, no source).
+   years, as ``model.json`` records it under ``average_share``; for daily
+   models weekday-aware, from ``weekday_share``: :mod:`evcal.model.weekday_share`;
+   common practice, no source).
 
 Examples
 --------
@@ -18,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from evcal.model.weekday_share import average_share_phrase
 from evcal.plan.summary import average_share_plan
 from evcal.report.formatting import num, pct, period_freq, period_label
 from evcal.report.model_folder import ModelFolder
@@ -29,7 +31,8 @@ def average_share_spread(folder: ModelFolder) -> np.ndarray:
     periods = pd.PeriodIndex(dates.dt.to_period(period_freq(folder.freq)))
     shares = {int(k): float(v) for k, v in folder.model["average_share"].items()}
     values = folder.plan["plan"].to_numpy(dtype=float)
-    return average_share_plan(periods, dates.dt.year.to_numpy(), values, shares)
+    return average_share_plan(periods, dates.dt.year.to_numpy(), values, shares,
+                              folder.model.get("weekday_share"))
 
 
 def departure(plan: pd.DataFrame, avg: np.ndarray) -> tuple[np.ndarray, float, int]:
@@ -75,7 +78,8 @@ def headlines(folder: ModelFolder) -> list[str]:
         total = float(np.nansum(plan["plan"].to_numpy(dtype=float)))
         change = 100.0 * diff[k] / avg[k] if avg[k] else float("nan")
         lines.append(
-            f"Against an average-share profile spread to the same total, "
+            f"Against {average_share_phrase(folder.freq, folder.model.get('weekday_share'))} spread to "
+            f"the same total, "
             f"{num(moved)} units ({moved / total * 100:.1f} % of the total) sit in different "
             f"periods; the biggest change is {in_period(plan['date'].iloc[k], folder.freq, 'the')}: "
             f"{num(diff[k], sign=True)} units ({pct(change)})."

@@ -170,6 +170,12 @@ class Exclusion(Span):
     reason: str
 
 
+class WeekdayShare(Strict):  # daily models: the weekday-aware average share (evcal.model.weekday_share)
+    month: dict[Annotated[str, Field(pattern=r"^(1[0-2]|[1-9])$")], NonNeg]
+    weekday: Annotated[list[Annotated[list[NonNeg], Field(min_length=7, max_length=7)]],
+                       Field(min_length=12, max_length=12)]
+
+
 class ModelJson(Settings):
     """Every key of ``model.json`` (format version 1) and its type."""
 
@@ -193,6 +199,7 @@ class ModelJson(Settings):
     history: History
     last_year: LastYear
     average_share: dict[str, NonNeg]
+    weekday_share: WeekdayShare | None = None  # absent in folders fitted before it was stored
     mean_base: Finite
     exclusions: list[Exclusion]
     warnings: list[str]

@@ -324,8 +324,10 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
         if moved < THETA_TOL:
             break
     for c, note in stopped.items():
-        if c in inp.status and inp.status[c].status == "fitted":
-            inp.status[c] = ColumnStatus("fitted", note)
+        st = inp.status.get(c)
+        if st is not None and st.status == "fitted":
+            # a share-of-window figure, not a lift on the event's days: weak, keeping the strength checks
+            inp.status[c] = replace(st, note=f"{note}; {st.note}" if st.note else note, weak=True)
     return inp, est, choice
 
 

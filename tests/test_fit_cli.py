@@ -58,7 +58,7 @@ def test_fit_and_show_on_demo(tmp_path):
     assert list(fitted.columns[:4]) == ["date", "actual", "fitted", "base"]
     assert "spring-sale" in fitted.columns and "new-store-opening" in fitted.columns
     prof = pd.read_csv(out / "profile.csv")
-    assert list(prof.columns) == ["period", "index"] and len(prof) == 52
+    assert list(prof.columns) == ["period", "index", "low_index", "high_index"] and len(prof) == 52
     shown = runner.invoke(app, ["show", str(out)])
     assert shown.exit_code == 0
     assert "spring-sale" in shown.output and "95 %" in shown.output

@@ -293,8 +293,11 @@ def validate_document(kind: str, path: Path, data: dict[str, Any]) -> Any:
 
 def plain(doc: Any, raw: dict[str, Any]) -> dict[str, Any]:
     """A validated document as plain Python values (the non-finite strings back to floats), its keys in
-    the order of the file ``raw`` was read from (so a panel saved again writes them in that order)."""
-    dumped = _weak_when_true(doc.model_dump())
+    the order of the file ``raw`` was read from (so a panel saved again writes them in that order).
+
+    Keys the file did not have are not added (a folder written before a setting existed, such as
+    ``leap_year``, is written back as it was)."""
+    dumped = _weak_when_true(doc.model_dump(exclude_unset=True))
     d = {k: dumped[k] for k in raw if k in dumped} | dumped
     if isinstance(doc, ModelJson):
         if d["last_year"]["year"] is None:

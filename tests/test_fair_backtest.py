@@ -121,13 +121,10 @@ def test_chicago_monthly_with_trading_days_beats_average_share() -> None:
     assert n >= 2, w
 
 
-CHICAGO_WHY = ("without trading-day terms a commuter line's month profile is the weekday count: evcal "
-               "2.2 / 2.6 / 2.9 % against 2.9 / 2.2 / 2.7 % (wins 1 of 3); with them it wins 3 of 3. "
-               "Fixed when trading days are chosen by AICc (issue 15 build 7, 'aicc')")
-
-
-@pytest.mark.xfail(strict=True, reason=CHICAGO_WHY)
 def test_chicago_monthly_default_beats_average_share() -> None:
+    # Without trading-day terms a commuter line's month profile is its weekday count: evcal lost 2 of 3
+    # (2.2 / 2.6 / 2.9 % against 2.9 / 2.2 / 2.7 %). AICc now chooses the trading-day and leap-year
+    # columns by default: 1.8 / 0.9 / 2.1 % against 2.8 / 2.2 / 2.7 % (wins 3 of 3).
     n, w = wins(evcal.backtest(chicago_monthly(), CHICAGO_CAL, holdout_years=3, progress=False))
     assert n >= 2, w
 

@@ -236,8 +236,8 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         base_cols = independent_base_columns(X, rows, base_cols)
         # weak identification is graded on the share-of-window design of the first pass, as the
         # panel engine's design groups grade it (evcal.engine.groups), whatever the pass
-        graded = merged(build_design(design_spec(calendar, options, periods, history.freq), calendar,
-                                     periods).X) if theta else X
+        first_spec = design_spec(calendar, options, periods, history.freq, chosen=chosen)
+        graded = merged(build_design(first_spec, calendar, periods).X) if theta else X
         status = check_columns(X, rows, base_cols, candidates, design.roles, calendar,
                                set(degenerate or ()), graded)
     else:

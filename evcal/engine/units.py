@@ -128,8 +128,9 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         spectrum = g.solve.spectrum(E)
         term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
         if len(term_idx):
-            cov = g.solve.covariances(spectrum, term_idx)
-            se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
+            # the variances only (the diagonal), not the full covariance matrices
+            var = g.solve.contrast_variances(spectrum, term_idx, np.eye(len(term_idx)))
+            se = np.sqrt(np.clip(var, 0, None)).T
         else:
             se = np.zeros((0, len(unit.sids)))
     smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))

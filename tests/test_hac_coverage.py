@@ -67,6 +67,10 @@ def test_ols_covariance_equals_statsmodels_reference():
     solve = SharedSolve.of(X)
     _, E, _ = solve.solve(y.to_numpy()[:, None])
     np.testing.assert_allclose(solve.covariances(solve.spectrum(E))[0], ref, rtol=1e-6, atol=1e-12)
+    # and the variances alone (the batched path's standard errors) are its diagonal
+    k = X.shape[1]
+    np.testing.assert_allclose(solve.contrast_variances(solve.spectrum(E), np.arange(k), np.eye(k))[0],
+                               np.diag(ref), rtol=1e-6)
 
 
 def test_spectrum_orders_follow_the_errors():
@@ -121,12 +125,24 @@ def test_single_series_profile_interval():
     assert 1.0 < float(((prof["high_index"] - prof["low_index"]) / prof["index"]).median() * 100) < 40.0
 
 
+#: Replications per case: the OLS cases go through the batched engine (about a second for 1,000); the
+#: default fits each replication alone (about 1-2 s each on this machine), so 200 keep a case to minutes.
+SLOW_REPS = {"ols": 1000, "default": 200}
+#: The band a correct 95 % interval's coverage falls in, about +-3 binomial standard errors
+#: (sqrt(0.95 * 0.05 / reps): 0.69 points at 1,000 replications, 1.54 at 200): a false alarm in ~0.3 % of
+#: the assertions. 1,000 replications: 93-97 %; 200 replications: 90.5-99.5 %.
+SLOW_BAND = {"ols": (93.0, 97.0), "default": (90.5, 99.5)}
+
+
 @pytest.mark.slow
 @pytest.mark.parametrize("phi", [0.0, 0.3, 0.6, 0.8])
 @pytest.mark.parametrize("option", ["ols", "default"])
 def test_coverage_93_to_97(phi, option):
-    # Invented known truth, 200 replications per case (benchmarks/coverage.py; the measured table is in
-    # docs/fit.md). The default fits each replication alone (~4 minutes a case).
-    c = cov_bench.coverage(cov_bench.Case("W", phi), option, 200)
+    # Invented known truth (benchmarks/coverage.py; the measured table is in docs/fit-hac.md).
+    # Coverage of a correct interval scatters by one binomial standard error around 95 %, so the band
+    # is set by the replications (SLOW_BAND); the default fits each replication alone.
+    c = cov_bench.coverage(cov_bench.Case("W", phi), option, SLOW_REPS[option])
+    lo, hi = SLOW_BAND[option]
+    print(f"coverage {option} phi={phi:g}: " + ", ".join(f"{k} {v:.1f}" for k, v in c.items()))
     for ev in cov_bench.TRUE_LIFT:
-        assert 93.0 <= c[ev] <= 97.0, (phi, option, c)
+        assert lo <= c[ev] <= hi, (phi, option, c)

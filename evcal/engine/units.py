@@ -128,8 +128,9 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         spectrum = g.solve.spectrum(E)
         term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
         if len(term_idx):
-            cov = g.solve.covariances(spectrum, term_idx)
-            se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
+            # the variances only (the diagonal), not the full covariance matrices
+            var = g.solve.contrast_variances(spectrum, term_idx, np.eye(len(term_idx)))
+            se = np.sqrt(np.clip(var, 0, None)).T
         else:
             se = np.zeros((0, len(unit.sids)))
     smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
@@ -171,7 +172,8 @@ def run_batch(unit: BatchUnit) -> UnitResult:
 
     series = Columns({"_sid": sids, "engine": tiled_text(["batched"], m), "group": np.full(m, g.gid),
                       "transform": tiled_text([g.transform], m), "method": tiled_text(["ols"], m),
-                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": spectrum.order[keep],
+                      "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": np.full(m, np.nan),
+                      "error_ar_order": spectrum.order[keep],
                       "trend_origin": np.full(m, g.origin), "note": tiled_text(["; ".join(g.notes)], m)})
     params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
     out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
@@ -263,7 +265,8 @@ def run_loop(unit: LoopUnit) -> UnitResult:
         parts.append(tables)
         series_rows.append({"_sid": sid, "engine": "per-series", "group": -1, "transform": res.transform,
                             "method": res.model_choice.get("chosen", ""), "sigma2": res.sigma2,
-                            "smear": res.smear, "hac_lags": np.nan, "trend_origin": res.spec.trend_origin,
+                            "smear": res.smear, "hac_lags": np.nan, "error_ar_order": np.nan,
+                            "trend_origin": res.spec.trend_origin,
                             "note": "; ".join(res.warnings)})
         param_rows.append({"_sid": sid, **{k: float(v) for k, v in res.params.items()}})
     return UnitResult(unit.index, concat_tables(parts), pd.DataFrame(series_rows),

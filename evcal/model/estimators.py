@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+import scipy.fft
 
 
 @dataclass
@@ -63,7 +64,7 @@ class ErrorSpectrum:
 
     def columns(self, a: np.ndarray) -> np.ndarray:
         """The real FFT (K, ...) of columns ``a`` (n, ...), zero-padded to ``n_fft``."""
-        return np.fft.rfft(a, n=self.n_fft, axis=0)
+        return np.fft.rfft(a, n=self.n_fft, axis=0)  # numpy's is faster than scipy's along axis 0 here
 
 
 def error_spectrum(E: np.ndarray, n_coef: int) -> ErrorSpectrum:
@@ -94,15 +95,18 @@ def error_spectrum(E: np.ndarray, n_coef: int) -> ErrorSpectrum:
         better = aic < best_aic
         best_aic = np.where(better, aic, best_aic)
         best_sig = np.where(better, sig, best_sig)
-        best_phi[:, better] = phi[:, better]
+        np.copyto(best_phi, phi, where=better[None, :])
         order[better] = p
     best_sig = np.where(g[0] > 0, best_sig, 0.0)
-    N = int(2 * n)  # zero-padded to twice the length: the circular lags alias only past n (γ(N - l), l < n)
+    # zero-padded to at least twice the length, so the circular lags alias only past n (γ(N - l), l < n),
+    # and to a length of small prime factors, for which the FFT is fastest
+    N = scipy.fft.next_fast_len(2 * n, real=True)
     K = N // 2 + 1
     w = 2.0 * np.pi * np.arange(K) / N
-    # 1 - Σ φⱼ e^{-iωj} for every series at once
-    poly = 1.0 - np.exp(-1j * np.outer(w, np.arange(1, P + 1))) @ best_phi
-    f = best_sig[None, :] / np.abs(poly) ** 2
+    # |1 - Σ φⱼ e^{-iωj}|² for every series at once, as two real products (a complex one is slower)
+    q = int(order.max(initial=0))  # the coefficients past every series' order are zero
+    wj = np.outer(w, np.arange(1, q + 1))
+    f = best_sig[None, :] / ((1.0 - np.cos(wj) @ best_phi[:q]) ** 2 + (np.sin(wj) @ best_phi[:q]) ** 2)
     c = np.full(K, 2.0)
     c[0] = 1.0
     if N % 2 == 0:

@@ -205,6 +205,9 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
     series["end"] = panel.dates(panel.periods[panel.last]).strftime("%Y-%m-%d")
     series["pool_group"] = pool_groups.to_numpy()
     series["note"] = info["note"].reindex(sids).fillna("").to_numpy() if "note" in info.columns else ""
+    # appended (the columns before keep their places): the order of the batched fits' residual AR model
+    order = info["error_ar_order"].reindex(sids).to_numpy() if "error_ar_order" in info.columns else np.nan
+    series["error_ar_order"] = pd.array(np.broadcast_to(order, n).astype(float), dtype="Int64")
     lifts, pooling = pool_lifts(fit.lifts, pool_groups, pd.Series(series["transform"].to_numpy(), index=sids))
     skipped = fit.skipped[["_sid", "reason", "detail"]]
     labels: dict[str, dict[str, str]] = {}

@@ -144,8 +144,8 @@ def read_folder(directory: str | Path, kind: str | None = None) -> Folder:
         tables["fitted"] = t.check_fitted(directory / "fitted.csv", periods, doc.label,
                                           f"{doc.history.start} .. {doc.history.end} in model.json")
     else:
-        columns = {*t.SERIES.columns, *t.LIFTS.columns, *t.OCCURRENCES.columns, *t.FITTED.columns,
-                   *PANEL_EXTRA["lifts"], *PANEL_EXTRA["occurrences"]}
+        columns = {*t.SERIES.columns, *t.SERIES_ADDED, *t.LIFTS.columns, *t.OCCURRENCES.columns,
+                   *t.FITTED.columns, *PANEL_EXTRA["lifts"], *PANEL_EXTRA["occurrences"]}
         cal, periods = check_panel(path, doc, columns), None
         tables = _panel_tables(directory, doc, cal)
     return Folder(directory, kind, plain(doc, raw), raw, cal, periods, tables)

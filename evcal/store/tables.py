@@ -40,6 +40,8 @@ SERIES = Table(("status", "reason", "engine", "group", "transform", "method", "s
                 "trend_origin", "periods_fitted", "wape_pct", "resid_sd", "mean_base", "start", "end",
                 "pool_group", "note"),
                ("status", "reason", "engine", "transform", "method", "start", "end", "pool_group", "note"))
+#: series.csv columns added later: read when present, not required (folders written before them still read)
+SERIES_ADDED = ("error_ar_order",)
 POOLING = Table(("group", "event", "series", "mean_pct", "mean_low_pct", "mean_high_pct", "tau", "q",
                  "i2_pct"), ("group", "event"), finite=("series",))
 SKIPPED = Table(("reason", "detail"), ("reason", "detail"))
@@ -309,7 +311,7 @@ def check_series(path: Path, m: Any) -> Rows:
                          f"says {m.counts.fitted}; {AGAIN}")
     _bad_row(path, fitted & (series["engine"] == "batched").to_numpy() & ~series["group"].isin(
         {g.group for g in m.groups}).to_numpy(), "group", lambda i: "not a design group of panel.json")
-    for col in ("group", "hac_lags", "periods_fitted"):
+    for col in ("group", "hac_lags", "periods_fitted", *(c for c in SERIES_ADDED if c in series.columns)):
         series[col] = pd.array(series[col].round().where(series[col].notna()), dtype="Int64")
     return rows
 

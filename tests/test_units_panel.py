@@ -92,3 +92,16 @@ def test_block_of_one_equals_the_panel(fits):
     ref = alone.occurrences.reset_index(drop=True)
     occ = pf.occurrences[pf.occurrences["_sid"] == 1].reset_index(drop=True)
     np.testing.assert_allclose(occ[COLS].to_numpy(float), ref[COLS].to_numpy(float), rtol=1e-8)
+
+
+def test_joint_draws_do_not_depend_on_how_the_series_are_chunked(fits, monkeypatch):
+    # the joint draws run over chunks of series (memory); a block larger than one chunk (e.g. 2,000
+    # weekly series of benchmarks/panel.py, 333 series a chunk) broke on main: ValueError, operands
+    # could not be broadcast together with shapes (1000,333,3,2) (500,3,2); passes: equal results
+    import evcal.effects.occurrences as occurrences
+
+    cal, panel, pf = fits
+    monkeypatch.setattr(occurrences, "_CHUNK", 1)  # one series a chunk
+    small = fit_long_panel(panel, cal, FitOptions(errors="ols"))
+    np.testing.assert_array_equal(small.occurrences[COLS].to_numpy(float),
+                                  pf.occurrences[COLS].to_numpy(float))

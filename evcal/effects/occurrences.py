@@ -73,6 +73,15 @@ def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
     return b - diff * (1 - t) if t >= 0.5 else a + diff * t
 
 
+def _quantiles(sims: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``np.quantile(sims, [0.025, 0.975], axis=0)`` from the four order statistics it uses (same numbers)."""
+    lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
+    flat = np.ascontiguousarray(sims.reshape(N_DRAWS, -1).T)
+    flat.partition([lo_i, lo_i + 1, hi_i, hi_i + 1], axis=-1)
+    at = flat[:, [lo_i, lo_i + 1, hi_i, hi_i + 1]].T.reshape(4, *sims.shape[1:])
+    return _lerp(at[0], at[1], _H_LOW - lo_i), _lerp(at[2], at[3], _H_HIGH - hi_i)
+
+
 def _window_share(x_sum: np.ndarray, days: np.ndarray, own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The occurrence's share of each period's event intensity (others may share the period), and its x."""
     x_tot = x_sum * days
@@ -156,8 +165,9 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
              [c for c in terms if c not in group.intervention_names])
     cols_in = [c for c in terms if np.any((curved[c][:, idx] if c in curved else ctx.columns[c][idx]) != 0)]
     m = level0.shape[0]
-    frac_p = frac[:, pick] if isinstance(frac, np.ndarray) and frac.ndim == 3 else (
-        frac[pick] if isinstance(frac, np.ndarray) else frac)
+    # the occurrence's share of each period: per series (m, k, L) where its column is curved
+    per_series = isinstance(frac, np.ndarray) and frac.ndim == 3
+    frac_p = frac[:, pick] if per_series else (frac[pick] if isinstance(frac, np.ndarray) else frac)
     lo, hi = np.empty((m, len(pick))), np.empty((m, len(pick)))
     width = max(len(cols_in), 1) * N_DRAWS * idx.size
     step = max(1, _CHUNK // width)
@@ -176,11 +186,14 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
         if own not in players:
             lo[sl], hi[sl] = 0.0, 0.0
             continue
-        shape = np.broadcast_shapes(level.shape, *(v.shape for v in players.values()))
-        logs = np.stack([np.broadcast_to(players[p], shape) for p in names])
-        part = shapley_exp(level, logs)[names.index(own)]
-        sims = (part * frac_p * mask).sum(axis=-1)  # (D, m_chunk, k')
-        lo[sl], hi[sl] = np.quantile(sims, [0.025, 0.975], axis=0)
+        if len(names) == 1:  # no other player in these periods: the Shapley value is the whole gain
+            part = level * np.expm1(players[own])
+        else:
+            shape = np.broadcast_shapes(level.shape, *(v.shape for v in players.values()))
+            logs = np.stack([np.broadcast_to(players[p], shape) for p in names])
+            part = shapley_exp(level, logs)[names.index(own)]
+        sims = (part * (frac_p[sl] if per_series else frac_p) * mask).sum(axis=-1)  # (D, m_chunk, k')
+        lo[sl], hi[sl] = _quantiles(sims)
     return lo, hi
 
 
@@ -210,7 +223,10 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
         hit = (curved[c] != 0).any(axis=0) if c in curved else ctx.columns[c] != 0
         p = player_of(group, c)
         on[p] = on[p] | hit if p in on else hit
-    present = sum(on.values()) if on else np.zeros(len(ctx.periods), dtype=np.int64)
+    none = np.zeros(len(ctx.periods), dtype=np.int64)
+    present = sum(on.values()) if on else none
+    # an intervention's part is shared among the interventions only (the events act on top of them)
+    present_int = sum((v for p, v in on.items() if p in group.intervention_names), none)
     draws: _Draws | None = None
     for og in ctx.occ_groups:
         idx, mask = og.idx, og.mask
@@ -238,7 +254,10 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
                 half = Z95 * se_map[pcol][:, None] * np.abs(np.sum(xs, axis=-1))
                 lo, hi = add - half, add + half
         else:
-            alone = ((present[idx] <= 1) | (mask == 0)).all(axis=-1) & (len(sources) == 1)
+            # one coefficient enters the occurrence's part: the event's own (no other term present)
+            # or the intervention's own (no other intervention present; the events do not enter it)
+            players_in = (present_int if og.kind == "intervention" else present)[idx]
+            alone = ((players_in <= 1) | (mask == 0)).all(axis=-1) & (len(sources) == 1)
             lo, hi = add.copy(), add.copy()
             pcol = next(iter(sources))
             if alone.any() and pcol in pmap:

@@ -63,6 +63,7 @@ class Refined:
     resid: np.ndarray  # (n_rows, m)
     sigma2: np.ndarray  # (m,)
     se_terms: np.ndarray  # (len(term_cols), m)
+    cov_terms: np.ndarray  # (m, len(term_cols), len(term_cols)): the covariance behind se_terms
     theta_in: dict[str, np.ndarray]  # θ the final design was built with, per source column
     curved: dict[str, np.ndarray]  # each series' raw (unmerged) event columns for that θ: (m, n_periods)
     spectrum: ErrorSpectrum  # each series' AR error model, from its final residuals
@@ -245,4 +246,5 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     order = [term.index(c) for c in group.term_cols]
     sources = theta_sources(group.status, group.roles, group.like_map, cols)
     curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
-    return Refined(params, resid, sigma2, se[order], theta_in, curved, spectrum, beyond)
+    return Refined(params, resid, sigma2, se[order], cov[:, order][:, :, order], theta_in, curved, spectrum,
+                   beyond)

@@ -122,6 +122,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         refined = refine(g.info, g.curve, rows, g.solve.X, Y, first, cache=g.refine_cache)
     if refined is not None:
         B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
+        cov = refined.cov_terms  # the occurrences' joint draws, as the single-series path's
         spectrum = refined.spectrum
     else:
         B, E, sigma2 = g.solve.solve(Y)

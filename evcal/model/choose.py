@@ -18,11 +18,12 @@ fixed (a coordinate-wise search, not every combination):
 2. trading-day and leap-year columns of monthly and quarterly data, on or off
    (up to 4 fits; Eurostat's handbook tests them together);
 3. the number of annual Fourier pairs of daily data (and of weekly data fitted
-   with ``--seasonal fourier``), among :data:`FOURIER_ORDERS` (11 fits).
+   with ``--seasonal fourier``), among :func:`fourier_candidates` (up to 15 fits;
+   a pick at the largest candidate says so in its reason).
 
 So a monthly fit with one ``before: auto`` event makes at most 8 least-squares
-fits, a daily one at most 11 plus 4 per such event: each a single solve on the
-fit rows, far less than the fit itself.
+fits, a daily one at most 15 plus 4 per such event: each a single solve on the
+fit rows.
 """
 
 from __future__ import annotations
@@ -36,7 +37,7 @@ import pandas as pd
 
 from evcal.design.events import EventColumns
 from evcal.design.matrix import with_windows
-from evcal.design.seasonal import base_freq
+from evcal.design.seasonal import base_freq, cycle_length
 from evcal.errors import CalendarError, HistoryError
 from evcal.model.options import AUTO, FitOptions
 
@@ -48,12 +49,13 @@ __all__ = [
     "aicc",
     "auto_events",
     "choose",
+    "fourier_candidates",
     "given",
     "panel_settings",
 ]
 
 #: candidate numbers of annual Fourier pairs (daily data)
-FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25, 30)
+FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25, 30, 40, 50, 60, 80)
 #: candidate run-ups (days before) of an Easter-relative event with ``before: auto``
 RUN_UPS = (1, 8, 10, 15)
 #: the Fourier order while the other settings are chosen, and when nothing is chosen (the old default)
@@ -87,6 +89,24 @@ def open_settings(options: FitOptions, freq: str, seasonal: str) -> list[str]:
     if options.fourier_order == AUTO and (b == "D" or seasonal == "fourier"):
         out.append("fourier_order")
     return out
+
+
+def fourier_candidates(freq: str, n_periods: int) -> tuple[int, ...]:
+    """The numbers of annual Fourier pairs tried on ``n_periods`` of ``freq``.
+
+    :data:`FOURIER_ORDERS` up to half the periods of a year (more pairs repeat
+    the same columns: a weekly year has 26 distinct harmonics) and up to a
+    tenth of the periods (at least five periods per Fourier column, common
+    practice, no source); never fewer than the two smallest.
+
+    Examples
+    --------
+    >>> [fourier_candidates(freq, n)[-1] for freq, n in (("D", 5698), ("W-SUN", 520), ("D", 730))]
+    [80, 25, 60]
+    """
+    half_year = cycle_length(freq) // 2
+    fit = [k for k in FOURIER_ORDERS if k <= half_year and 2 * k <= n_periods // 5]
+    return tuple(fit) if len(fit) >= 2 else FOURIER_ORDERS[:2]
 
 
 def given(options: FitOptions) -> Chosen:
@@ -146,7 +166,8 @@ def choose(
         history = type(history)(values.rename("value"), history.freq, history.label, history.source, [])
     # the fullest design: every open column in (trading days, leap year, the largest Fourier order)
     full = Chosen(
-        fourier_order=max(FOURIER_ORDERS) if "fourier_order" in settings else start.fourier_order,
+        fourier_order=max(fourier_candidates(history.freq, int(history.values.notna().sum())))
+        if "fourier_order" in settings else start.fourier_order,
         trading_days=start.trading_days or "trading_days" in settings,
         leap_year=start.leap_year or "leap_year" in settings,
     )
@@ -212,7 +233,7 @@ def choose(
     order = full.fourier_order
     if "fourier_order" in settings:
         scores = {}
-        for k in FOURIER_ORDERS:
+        for k in fourier_candidates(history.freq, int(history.values.notna().sum())):
             cols = [c for c in base if _harmonic(c) <= k]
             scores[k] = score(X, cols + terms)
         order = min(scores, key=lambda k: scores[k])
@@ -259,6 +280,12 @@ def _record(setting: str, scores: dict[Any, float], best: Any, lik: _Likelihood,
     runner = ranked[1] if len(ranked) > 1 else None
     gap = f"; next {runner}: AICc {scores[runner] - scores[best]:+.1f}" if runner is not None else ""
     reason = f"{what}: {best}, lowest AICc of {', '.join(str(v) for v in scores)}{gap} ({lik.describe()})"
+    if setting == "fourier_order" and best == max(scores) and len(scores) > 2:
+        reason += (
+            f"; {best} is the largest candidate tried, so more pairs might fit better still: the annual "
+            "shape has sharper features than the pairs draw, often days of the year that are not in the "
+            "calendar (e.g. the weeks around Christmas that are not public holidays): add them as events"
+        )
     if setting == "fourier_order" and best != STAND_IN_FOURIER and STAND_IN_FOURIER in scores:
         reason += (
             f"; the former fixed {STAND_IN_FOURIER}: AICc {scores[STAND_IN_FOURIER] - scores[best]:+.1f}"

@@ -17,6 +17,7 @@ from __future__ import annotations
 import datetime as dt
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -77,7 +78,9 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
         window = "days as listed" if isinstance(e.when, R.DatesRule) else (
             f"{e.length} day{'s' if e.length > 1 else ''}" if not listed or e.length > 1
             else "1 day")
-        if e.before or e.after:
+        if getattr(e, "before_auto", False):
+            window += f" (before: {auto_run_up_text(e)}, {e.after} after)"
+        elif e.before or e.after:
             window += f" ({e.before} days before, {e.after} after)"
         years = "" if e.years.kind == "all" else f", years {e.years.describe()}"
         extra = "".join(
@@ -154,3 +157,8 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
                     warnings.append(f"{a.name} and {b.name} overlap on {int(shared[i, j])} days"
                                     f" (in {_year_list(_years_of(both))})")
     return CheckReport(lines, warnings, first_year, last_year)
+
+
+def auto_run_up_text(event: Any) -> str:
+    """How a ``before: auto`` run-up reads: left to the fit, and the stand-in days used until then."""
+    return f"auto (chosen by the fit; {event.before} days until then)"

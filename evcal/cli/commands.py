@@ -357,6 +357,7 @@ def calendar_dates(
 ) -> None:
     """List every occurrence (event, start, end, strength) between two years, as CSV."""
     from evcal.calendar import load_calendar
+    from evcal.calendar.summary import auto_run_up_text
     from evcal.formula_safe import formula_safe_frame
 
     if out is not None:
@@ -364,6 +365,9 @@ def calendar_dates(
     _check_year_range(from_year, to_year)
     cal = load_calendar(Path(file))
     table = cal.occurrences(from_year, to_year)
+    for ev in (e for e in cal.events if getattr(e, "before_auto", False)):  # the rows hold no run-up
+        typer.echo(f"note: {ev.name}: before: {auto_run_up_text(ev)}; the rows are the event's own days",
+                   err=True)
     table["start"] = table["start"].dt.strftime("%Y-%m-%d")
     table["end"] = table["end"].dt.strftime("%Y-%m-%d")
     text = formula_safe_frame(table).to_csv(index=False, float_format="%g", lineterminator="\n")

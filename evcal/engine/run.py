@@ -58,6 +58,7 @@ class PanelFit:
     skipped: pd.DataFrame
     groups: list[dict[str, Any]]
     models: dict[int, Any] = field(default_factory=dict)  # sid -> whole model (a panel of one only)
+    chosen: Any = None  # the settings chosen once for the panel (evcal.model.choose.panel_settings)
 
     @property
     def fitted(self) -> pd.DataFrame:
@@ -170,10 +171,11 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
         result's ``models`` then holds its whole fitted model.
     """
     cal = load_calendar_any(calendar)
-    if single is None:  # a panel keeps the stand-ins of the settings left open (see panel_settings)
+    chosen = None
+    if single is None:  # a panel chooses the settings left open once, for every series (panel_settings)
         from evcal.model.choose import panel_settings
 
-        options, cal = panel_settings(options, cal)
+        options, cal, chosen = panel_settings(options, cal, panel)
     units, screen, groups = plan_units(panel, cal, options, single)
     results = _run(units, runner, on_fitted)
     # series whose block fit broke down, fitted again one by one with the block's error model
@@ -202,7 +204,7 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
     return PanelFit(panel, options, cal, tables.lifts, tables.occurrences, tables.profile, tables.fitted,
                     tables.quality, series.sort_values("_sid", kind="stable").reset_index(drop=True),
                     params.sort_values("_sid", kind="stable").reset_index(drop=True), skipped, group_rows,
-                    models)
+                    models, chosen)
 
 
 def _run(units: list[Any], runner: Runner | None, on_fitted: Callable[[list[Any]], None] | None

@@ -18,11 +18,12 @@ fixed (a coordinate-wise search, not every combination):
 2. trading-day and leap-year columns of monthly and quarterly data, on or off
    (up to 4 fits; Eurostat's handbook tests them together);
 3. the number of annual Fourier pairs of daily data (and of weekly data fitted
-   with ``--seasonal fourier``), among :data:`FOURIER_ORDERS` (11 fits).
+   with ``--seasonal fourier``), among :func:`fourier_candidates` (up to 15 fits;
+   a pick at the largest candidate says so in its reason).
 
 So a monthly fit with one ``before: auto`` event makes at most 8 least-squares
-fits, a daily one at most 11 plus 4 per such event: each a single solve on the
-fit rows, far less than the fit itself.
+fits, a daily one at most 15 plus 4 per such event: each a single solve on the
+fit rows.
 """
 
 from __future__ import annotations
@@ -36,7 +37,8 @@ import pandas as pd
 
 from evcal.design.events import EventColumns
 from evcal.design.matrix import with_windows
-from evcal.design.seasonal import base_freq
+from evcal.design.seasonal import base_freq, cycle_length
+from evcal.errors import CalendarError, HistoryError
 from evcal.model.options import AUTO, FitOptions
 
 __all__ = [
@@ -47,12 +49,13 @@ __all__ = [
     "aicc",
     "auto_events",
     "choose",
+    "fourier_candidates",
     "given",
     "panel_settings",
 ]
 
 #: candidate numbers of annual Fourier pairs (daily data)
-FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25, 30)
+FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25, 30, 40, 50, 60, 80)
 #: candidate run-ups (days before) of an Easter-relative event with ``before: auto``
 RUN_UPS = (1, 8, 10, 15)
 #: the Fourier order while the other settings are chosen, and when nothing is chosen (the old default)
@@ -86,6 +89,24 @@ def open_settings(options: FitOptions, freq: str, seasonal: str) -> list[str]:
     if options.fourier_order == AUTO and (b == "D" or seasonal == "fourier"):
         out.append("fourier_order")
     return out
+
+
+def fourier_candidates(freq: str, n_periods: int) -> tuple[int, ...]:
+    """The numbers of annual Fourier pairs tried on ``n_periods`` of ``freq``.
+
+    :data:`FOURIER_ORDERS` up to half the periods of a year (more pairs repeat
+    the same columns: a weekly year has 26 distinct harmonics) and up to a
+    tenth of the periods (at least five periods per Fourier column, common
+    practice, no source); never fewer than the two smallest.
+
+    Examples
+    --------
+    >>> [fourier_candidates(freq, n)[-1] for freq, n in (("D", 5698), ("W-SUN", 520), ("D", 730))]
+    [80, 25, 60]
+    """
+    half_year = cycle_length(freq) // 2
+    fit = [k for k in FOURIER_ORDERS if k <= half_year and 2 * k <= n_periods // 5]
+    return tuple(fit) if len(fit) >= 2 else FOURIER_ORDERS[:2]
 
 
 def given(options: FitOptions) -> Chosen:
@@ -145,7 +166,8 @@ def choose(
         history = type(history)(values.rename("value"), history.freq, history.label, history.source, [])
     # the fullest design: every open column in (trading days, leap year, the largest Fourier order)
     full = Chosen(
-        fourier_order=max(FOURIER_ORDERS) if "fourier_order" in settings else start.fourier_order,
+        fourier_order=max(fourier_candidates(history.freq, int(history.values.notna().sum())))
+        if "fourier_order" in settings else start.fourier_order,
         trading_days=start.trading_days or "trading_days" in settings,
         leap_year=start.leap_year or "leap_year" in settings,
     )
@@ -211,7 +233,7 @@ def choose(
     order = full.fourier_order
     if "fourier_order" in settings:
         scores = {}
-        for k in FOURIER_ORDERS:
+        for k in fourier_candidates(history.freq, int(history.values.notna().sum())):
             cols = [c for c in base if _harmonic(c) <= k]
             scores[k] = score(X, cols + terms)
         order = min(scores, key=lambda k: scores[k])
@@ -258,6 +280,12 @@ def _record(setting: str, scores: dict[Any, float], best: Any, lik: _Likelihood,
     runner = ranked[1] if len(ranked) > 1 else None
     gap = f"; next {runner}: AICc {scores[runner] - scores[best]:+.1f}" if runner is not None else ""
     reason = f"{what}: {best}, lowest AICc of {', '.join(str(v) for v in scores)}{gap} ({lik.describe()})"
+    if setting == "fourier_order" and best == max(scores) and len(scores) > 2:
+        reason += (
+            f"; {best} is the largest candidate tried, so more pairs might fit better still: the annual "
+            "shape has sharper features than the pairs draw, often days of the year that are not in the "
+            "calendar (e.g. the weeks around Christmas that are not public holidays): add them as events"
+        )
     if setting == "fourier_order" and best != STAND_IN_FOURIER and STAND_IN_FOURIER in scores:
         reason += (
             f"; the former fixed {STAND_IN_FOURIER}: AICc {scores[STAND_IN_FOURIER] - scores[best]:+.1f}"
@@ -341,21 +369,71 @@ class _Likelihood:
         )
 
 
-def panel_settings(options: FitOptions, calendar: Any) -> tuple[FitOptions, Any]:
-    """A panel's options and calendar with the stand-ins for every setting left open (nothing is chosen).
+def panel_settings(options: FitOptions, calendar: Any, panel: Any = None) -> tuple[FitOptions, Any, Chosen]:
+    """A panel's options and calendar with the settings left open chosen once, for every series.
 
-    The series of a panel are solved in blocks that share one design; choosing
-    per series would split the blocks, and choosing once on the panel's total
-    would apply one series' (the total's) choice to series it may not fit.
-    Until a per-group choice exists, a panel keeps the stand-ins of
-    :func:`given` (10 Fourier pairs, no trading-day or leap-year columns, the
-    8-day run-up of ``before: auto``) and says so in its options; fit one
-    series alone to have them chosen.
+    The series of a panel are solved in blocks that share one design, and its
+    lifts are compared and pooled across series: an event must mean the same
+    window, and the seasonal terms the same columns, in every series. So the
+    open settings are chosen **once**, by :func:`choose` on the summed series
+    of the panel's largest set of series with the same periods observed (the
+    largest fit-row pattern: a sum with no step where a series starts, stops or
+    has a gap). The sum carries the calendar pattern the series share, with
+    less noise than any one of them (so it can afford as many columns as the
+    richest series, never fewer); the cost is one choice (at most 11 fits plus
+    4 per ``before: auto`` event, on one series) whatever the panel's size.
+
+    Without ``panel``, or when the sum cannot be fitted (too short, not
+    positive where the log is needed...), the stand-ins of :func:`given` are
+    kept (10 Fourier pairs, no trading-day or leap-year columns, the 8-day
+    run-up of ``before: auto``) and the record says why.
+
+    Returns
+    -------
+    options : FitOptions
+        With every open setting made concrete (what the series are fitted with).
+    calendar
+        With the chosen run-ups in place of ``auto``.
+    Chosen
+        What was chosen, with one record per choice (``panel.json``'s ``design.choices``).
     """
     from evcal.calendar.event_builder import AUTO_RUN_UP
-    from evcal.design.matrix import with_windows
+    from evcal.model.inputs import chosen_settings, seasonal_kind
 
-    fixed = given(options)
-    concrete = replace(options, fourier_order=fixed.fourier_order, trading_days=fixed.trading_days,
-                       leap_year=fixed.leap_year)
-    return concrete, with_windows(calendar, {ev: AUTO_RUN_UP for ev in auto_events(calendar)})
+    chosen = given(options)
+    open_now = open_settings(options, panel.freq, seasonal_kind(options, panel.freq)) if panel else []
+    if panel is not None and (open_now or auto_events(calendar)):
+        total, members = _largest_pattern_total(panel)
+        note = f"the panel's {members} series with the same periods observed, summed"
+        try:
+            found = chosen_settings(panel.history(0), calendar, options, values=total)
+        except (HistoryError, CalendarError, ValueError, np.linalg.LinAlgError) as err:
+            chosen = replace(chosen, choices=[{
+                "setting": "panel", "chosen": "stand-ins", "candidates": [],
+                "reason": f"the stand-ins were kept: the sum of {note} could not be fitted ({err})"}])
+        else:
+            chosen = replace(found, choices=[{**c, "reason": f"{c['reason']}; chosen once on {note}"}
+                                             for c in found.choices])
+    windows = {ev: chosen.event_windows.get(ev, AUTO_RUN_UP) for ev in auto_events(calendar)}
+    concrete = replace(options, fourier_order=chosen.fourier_order, trading_days=chosen.trading_days,
+                       leap_year=chosen.leap_year)
+    return concrete, with_windows(calendar, windows), replace(chosen, event_windows=windows)
+
+
+def _largest_pattern_total(panel: Any) -> tuple[pd.Series, int]:
+    """The sum over the panel's largest set of series with the same periods observed, and its size."""
+    obs = ~np.isnan(panel.values)
+    packed = np.packbits(obs, axis=0).T  # one row of bytes per series
+    keys = pd.Series([row.tobytes() for row in packed])
+    counts = keys.value_counts(sort=True)
+    pattern = counts.index[0]
+    if not obs[:, int(np.flatnonzero(keys.to_numpy() == pattern)[0])].any() and len(counts) > 1:
+        pattern = counts.index[1]  # (series with no value at all are not a pattern)
+    members = np.flatnonzero(keys.to_numpy() == pattern)
+    seen = obs[:, members[0]]
+    first, last = int(np.argmax(seen)), len(seen) - 1 - int(np.argmax(seen[::-1]))
+    total = panel.values[first:last + 1, members].sum(axis=1)
+    total[~seen[first:last + 1]] = np.nan
+    index = panel.periods[first:last + 1]
+    index.name = "period"
+    return pd.Series(total, index=index, name="value"), len(members)

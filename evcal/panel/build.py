@@ -225,7 +225,8 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
                    if fit.options.errors in ("auto", "ols") else f"errors {fit.options.errors}, per series"),
         "calendar_name": fit.calendar.name, "calendar_text": calendar_text(fit.calendar, None),
         # the shared design settings (each series' own trend origin is in series.csv)
-        "design": design_spec(fit.calendar, fit.options, panel.periods, panel.freq).to_dict(),
+        "design": design_spec(fit.calendar, fit.options, panel.periods, panel.freq,
+                              chosen=getattr(fit, "chosen", None)).to_dict(),
         "counts": {"series": n, "fitted": int((series["status"] == "fitted").sum()),
                    "skipped": int((series["status"] == "skipped").sum()),
                    "batched": int((series["engine"] == "batched").sum()),

@@ -52,5 +52,5 @@ def test_good_friday_in_a_ten_day_easter_window_is_weak_with_a_readable_note(tmp
     assert "monthly periods cannot tell the two apart" in gf["note"]
     assert "merge it into easter" in gf["note"] and "drop it" in gf["note"]
     assert "merge good-friday into this event, or drop it" in ea["note"], ea["note"]
-    # still a number with a finite interval (the report draws it dashed, beside an axis set by the sound lifts)
+    # still a number with a finite interval (the report draws it dashed; the axis follows the sound lifts)
     assert np.isfinite([gf["lift_pct"], gf["low_pct"], gf["high_pct"]]).all()

@@ -117,7 +117,9 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
         base_cols = independent_base_columns(X, rows, all_base)
         fixed = {c: st for c, st in inp.status.items() if st.status in ("assumed", "like")}
         candidates = [c for c in inp.status if c not in fixed]
-        status = check_columns(X, rows, base_cols, candidates, roles, calendar)
+        # graded on the rows the fit solves (the additive model's are scaled by the open share)
+        graded = additive_design(X, inp) if template.transform == "none" else None
+        status = check_columns(X, rows, base_cols, candidates, roles, calendar, graded_on=graded)
         status.update(fixed)
         fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
     terms = {k: v for k, v in calendar_terms(calendar).items() if k != "exclusions"}

@@ -152,7 +152,7 @@ def check_columns(
         if twin is not None:
             out[c] = ColumnStatus(
                 "duplicate",
-                f"always falls on the same days as {twin}: only their joint effect can be "
+                f"always falls {_together(X.index, twin)}: only their joint effect can be "
                 f"estimated (reported under {twin}); consider merging the two events",
                 twin=twin,
             )
@@ -191,6 +191,13 @@ def check_columns(
         fitted = base_cols + [c for c in candidate_cols if out[c].status == "fitted" and c not in leave_out]
         out = grade(X if graded_on is None else graded_on, rows, fitted, out, kind_of, calendar)
     return out
+
+
+def _together(index: pd.Index, twin: str) -> str:
+    """How a duplicate goes with its twin: on the same days, or (longer periods) in the same periods."""
+    word = {"W": "weeks", "M": "months", "Q": "quarters"}.get(index.freqstr[0], "") \
+        if isinstance(index, pd.PeriodIndex) else ""
+    return f"in the same {word} as {twin}, in step with it" if word else f"on the same days as {twin}"
 
 
 def _breaks(params: np.ndarray, se: np.ndarray, bound: Any) -> np.ndarray:

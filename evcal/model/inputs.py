@@ -238,6 +238,8 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         # panel engine's design groups grade it (evcal.engine.groups), whatever the pass
         first_spec = design_spec(calendar, options, periods, history.freq, chosen=chosen)
         graded = merged(build_design(first_spec, calendar, periods).X) if theta else X
+        if transform == "none":  # on the rows the additive fit solves: scaled by the open share
+            graded = _additive(graded, design.roles, X, assumed, design.open_share)
         status = check_columns(X, rows, base_cols, candidates, design.roles, calendar,
                                set(degenerate or ()), graded)
     else:
@@ -406,13 +408,18 @@ def additive_design(X: pd.DataFrame, inp: ModelInputs) -> pd.DataFrame:
     columns carry ``1 + Σ lift × column`` and the periods stay in the fit (leaving
     them out could leave none at all). The caller scales the response alike.
     """
-    roles = inp.design.roles
-    if inp.assumed:
-        scale = 1.0 + sum(a * inp.design.X[c].to_numpy() for c, a in inp.assumed.items())
+    return _additive(X, inp.design.roles, inp.design.X, inp.assumed, inp.design.open_share)
+
+
+def _additive(X: pd.DataFrame, roles: dict[str, str], events: pd.DataFrame, assumed: dict[str, float],
+              open_share: pd.Series) -> pd.DataFrame:
+    """:func:`additive_design` from its parts (``prepare`` grades the columns before its inputs exist)."""
+    if assumed:
+        scale = 1.0 + sum(a * events[c].to_numpy() for c, a in assumed.items())
         base = [c for c in X.columns if roles.get(c) in ("trend", "seasonal")]
         X = X.copy()
         X[base] = X[base].mul(scale, axis=0)
-    share = inp.design.open_share.to_numpy()
+    share = open_share.to_numpy()
     return X.mul(np.where(share > 0, share, 1.0), axis=0)
 
 

@@ -113,8 +113,7 @@ def assess(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], terms: lis
     weights = r_inv[term_idx] @ q.T  # each term's coefficient as weights on the periods
     share = np.square(weights)
     share /= share.sum(axis=1, keepdims=True)
-    centred = Z[:, term_idx] - Z[:, term_idx].mean(axis=0)
-    ss = np.square(centred).sum(axis=0)
+    ss = np.square(_centred(Z[:, term_idx], Z[:, idx["const"]] if "const" in idx else None)).sum(axis=0)
     resid_base = Z[:, term_idx] - qb @ (qb.T @ Z[:, term_idx])
     with np.errstate(divide="ignore", invalid="ignore"):
         vif_full = ss * np.diag(p_inv)[term_idx]
@@ -151,6 +150,18 @@ def assess(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], terms: lis
                 h = out[holder]
                 out[holder] = Strength(**{**h.__dict__, "reasons": (*h.reasons, why)})
     return out
+
+
+def _centred(cols: np.ndarray, const: np.ndarray | None) -> np.ndarray:
+    """``cols`` less their projection on the design's constant column (its mean when there is none).
+
+    The variance inflation factors compare with a design where the term is orthogonal to every
+    column but the constant; in the additive model's design the constant is scaled by each period's
+    open share like every other column, so centring means projecting on that column, not the mean.
+    """
+    if const is None or not np.any(const):
+        return cols - cols.mean(axis=0)
+    return cols - np.outer(const, const @ cols) / float(const @ const)
 
 
 def _reasons(s: Strength, kind: str, iv_type: str, vif_full: float, held: int, freq_word: str,

@@ -55,6 +55,11 @@ def last_full_year(values: pd.Series, label: str) -> dict[str, Any]:
     return {}
 
 
+#: the legend line under a lifts table (evcal.model.identify.ColumnStatus.identifiable's three values)
+IDENT_LEGEND = ("ident.: yes = the history pins the lift down; weak = estimated on too little to trust "
+                "(the note says why and what to do); no = not estimated")
+
+
 def _fmt(v: Any) -> str:
     try:
         f = float(v)
@@ -79,12 +84,15 @@ def describe(result: Any) -> str:
         lines.append(f"fit     : {q.get('periods_fitted', '?')} periods fitted, WAPE {wape:.1f} %, "
                      f"residual sd {sd:.3f}")
     lines.append("")
-    lines.append(f"{'event':<28} {'lift %':>8} {'95 % interval':>19} {'units/occ.':>11}  note")
+    lines.append(f"{'event':<28} {'ident.':<6} {'lift %':>8} {'95 % interval':>19} {'units/occ.':>11}  note")
     for r in result.lifts.itertuples(index=False):
         interval = "" if _fmt(r.low_pct) == "" else f"[{_fmt(r.low_pct)}, {_fmt(r.high_pct)}]"
         units = "" if _fmt(r.units_per_occurrence) == "" else f"{float(r.units_per_occurrence):,.0f}"
         note = "" if not isinstance(r.note, str) else r.note
-        lines.append(f"{str(r.event)[:28]:<28} {_fmt(r.lift_pct):>8} {interval:>19} {units:>11}  {note}")
+        ident = str(getattr(r, "identifiable", ""))
+        lines.append(f"{str(r.event)[:28]:<28} {ident:<6} {_fmt(r.lift_pct):>8} {interval:>19} {units:>11}  "
+                     f"{note}")
+    lines.append(IDENT_LEGEND)
     if result.exclusions:
         lines.append("")
         for ex in result.exclusions:

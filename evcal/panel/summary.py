@@ -16,21 +16,28 @@ def lift_distribution(lifts: pd.DataFrame) -> pd.DataFrame:
     """Per event: how many series estimate it, and the spread of their raw and pooled lifts.
 
     Columns: ``event, series, median_pct, p10_pct, p90_pct, above_zero_pct`` (share of
-    series whose whole 95 % interval is above zero), ``below_zero_pct``, ``pooled_median_pct``.
+    series whose whole 95 % interval is above zero), ``below_zero_pct``, ``pooled_median_pct``,
+    ``weak_series`` (series whose lift is weakly identified: counted there, not in the others;
+    an event weak in every series has a row with ``series`` 0).
     """
     rows = []
-    est = lifts[lifts["identifiable"].astype(str).str.lower().isin(["yes", "true", "1"])
-                & lifts["lift_pct"].notna() & (lifts["low_pct"] < lifts["high_pct"])]
-    for ev, g in est.groupby("event", sort=False):
+    ident = lifts["identifiable"].astype(str).str.lower()
+    sound = lifts["lift_pct"].notna() & (lifts["low_pct"] < lifts["high_pct"])
+    est = lifts[ident.isin(["yes", "true", "1"]) & sound]
+    weak = lifts[(ident == "weak") & lifts["lift_pct"].notna()]["event"].value_counts()
+    for ev in dict.fromkeys([*est["event"], *weak.index]):
+        g = est[est["event"] == ev]
         lift = g["lift_pct"].to_numpy(dtype=float)
         pooled = g["pooled_pct"].to_numpy(dtype=float) if "pooled_pct" in g else np.full(len(g), np.nan)
         rows.append({"event": ev, "series": len(g), "median_pct": _q(lift, 0.5), "p10_pct": _q(lift, 0.1),
                      "p90_pct": _q(lift, 0.9),
-                     "above_zero_pct": 100.0 * float((g["low_pct"] > 0).mean()),
-                     "below_zero_pct": 100.0 * float((g["high_pct"] < 0).mean()),
-                     "pooled_median_pct": _q(pooled[np.isfinite(pooled)], 0.5)})
-    return pd.DataFrame(rows, columns=["event", "series", "median_pct", "p10_pct", "p90_pct",
-                                       "above_zero_pct", "below_zero_pct", "pooled_median_pct"])
+                     "above_zero_pct": 100.0 * float((g["low_pct"] > 0).mean()) if len(g) else np.nan,
+                     "below_zero_pct": 100.0 * float((g["high_pct"] < 0).mean()) if len(g) else np.nan,
+                     "pooled_median_pct": _q(pooled[np.isfinite(pooled)], 0.5),
+                     "weak_series": int(weak.get(ev, 0))})
+    columns = ["event", "series", "median_pct", "p10_pct", "p90_pct", "above_zero_pct", "below_zero_pct",
+               "pooled_median_pct", "weak_series"]
+    return pd.DataFrame(rows, columns=columns)
 
 
 def describe_panel(result: Any) -> str:
@@ -67,14 +74,19 @@ def describe_panel(result: Any) -> str:
     lines.append("")
     dist = lift_distribution(result.lifts) if len(result.lifts) else pd.DataFrame()
     if len(dist):
-        lines.append(f"{'event':<26} {'series':>7} {'median %':>9} {'10-90 % of series':>20} "
+        lines.append(f"{'event':<26} {'series':>7} {'weak':>5} {'median %':>9} {'10-90 % of series':>20} "
                      f"{'>0':>6} {'<0':>6} {'pooled':>8}")
         for r in dist.itertuples(index=False):
-            spread = f"{r.p10_pct:+.1f} .. {r.p90_pct:+.1f}"
+            spread = f"{r.p10_pct:+.1f} .. {r.p90_pct:+.1f}" if r.series else ""
+            median = f"{r.median_pct:+.1f}" if r.series else ""
+            above, below = (f"{r.above_zero_pct:.0f}%", f"{r.below_zero_pct:.0f}%") if r.series else ("", "")
             pooled = "" if not np.isfinite(r.pooled_median_pct) else f"{r.pooled_median_pct:+.1f}"
-            lines.append(f"{str(r.event)[:26]:<26} {r.series:>7} {r.median_pct:>+9.1f} {spread:>20} "
-                         f"{r.above_zero_pct:>5.0f}% {r.below_zero_pct:>5.0f}% {pooled:>8}")
-        lines.append("(>0 / <0: share of series whose 95 % interval lies wholly above / below zero)")
+            lines.append(f"{str(r.event)[:26]:<26} {r.series:>7} {r.weak_series:>5} {median:>9} {spread:>20} "
+                         f"{above:>6} {below:>6} {pooled:>8}")
+        lines.append("(series: series whose lift the history pins down, which the figures describe; weak: "
+                     "series whose lift is weakly identified, left out of the figures (lifts.csv's note says "
+                     "why and what to do); >0 / <0: share of series whose 95 % interval lies wholly above / "
+                     "below zero)")
     pooling = result.pooling
     if len(pooling):
         by = s.get("group_col") or "one group of all series"

@@ -203,6 +203,7 @@ def _lift_table(panel: PanelResult) -> dict[str, Any] | None:
         [
             labels.get(r.event, r.event),
             r.series,
+            r.weak_series,
             pct(r.median_pct),
             f"{pct(r.p10_pct)} to {pct(r.p90_pct)}",
             pct(r.above_zero_pct, 0, sign=False),
@@ -214,13 +215,15 @@ def _lift_table(panel: PanelResult) -> dict[str, Any] | None:
     headers = [
         "event",
         "series",
+        "weak",
         "median lift",
         "10–90 % of series",
         "above zero",
         "below zero",
         "pooled lift",
     ]
-    return table(headers, rows, numeric=range(1, 7))
+    weak = ["weak" if r.weak_series else "" for r in dist.itertuples(index=False)]
+    return table(headers, rows, numeric=range(1, 8), row_classes=weak)
 
 
 def _skipped_table(panel: PanelResult) -> dict[str, Any] | None:

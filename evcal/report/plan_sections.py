@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.model.weekday_share import average_share_phrase
 from evcal.report import charts
 from evcal.report.calendar_view import calendar_data, weights_from_plan
 from evcal.report.context import ReportContext, view_span
@@ -54,10 +55,11 @@ def glance(ctx: ReportContext) -> list[dict[str, str]]:
         if np.isfinite(avg).any():
             diff, moved, k = departure(plan, avg)
             share = moved / plan["plan"].to_numpy().sum() * 100
+            profile = average_share_phrase(ctx.freq, ctx.model.get("weekday_share"))
             cards.append({
                 "k": "Against average share",
                 "v": f"{num(moved)} units move",
-                "d": f"{share:.1f} % of the total sits in other periods; most in "
+                "d": f"{share:.1f} % of the total sits in other periods than {profile} puts it; most in "
                 f"{period_label(plan['date'].iloc[k], ctx.freq)} ({num(diff[k], sign=True)})",
             })
     choice = ctx.model["model"]

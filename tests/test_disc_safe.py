@@ -219,7 +219,7 @@ def test_discover_reports_progress_over_its_steps(monkeypatch) -> None:
     # Long runs show progress the way the panel commands and the backtest do (a bar on stderr).
     import contextlib
 
-    import evcal.panel.distributed as dist
+    import evcal.progress as bars
     from evcal.discovery.run import STEPS
 
     ticks: list[int] = []
@@ -229,6 +229,6 @@ def test_discover_reports_progress_over_its_steps(monkeypatch) -> None:
         assert enabled and total == len(STEPS) and label == "discover"
         yield ticks.append
 
-    monkeypatch.setattr(dist, "progress_bar", bar)
+    monkeypatch.setattr(bars, "progress_bar", bar)
     evcal.discover(_shifted_history(), errors="ols", index_effects=False, progress=True)
     assert sum(ticks) == len(STEPS)

@@ -120,7 +120,7 @@ def discover(
     from evcal.calendar import load_calendar
     from evcal.design.seasonal import cycle_length
     from evcal.engine import fit
-    from evcal.panel.distributed import progress_bar, progress_enabled
+    from evcal.progress import progress_bar, progress_enabled
 
     hist, base_text = read_discover_inputs(history, calendar, series=series, date_col=date_col,
                                            value_col=value_col, freq=freq)

@@ -147,8 +147,8 @@ def backtest(
     from evcal.engine import fit
     from evcal.io import History, read_history
     from evcal.model.inputs import excluded_periods, load_calendar_any
-    from evcal.panel.distributed import progress_bar, progress_enabled
     from evcal.plan.build import plan_periods
+    from evcal.progress import progress_bar, progress_enabled
 
     if isinstance(holdout_years, bool) or not isinstance(holdout_years, int | np.integer) \
             or holdout_years < 1:

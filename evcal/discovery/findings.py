@@ -83,7 +83,8 @@ class Findings:
                 f"{counts['temporary']} temporary changes")
         if self.easter is not None:
             e = self.easter
-            lines.append(f"moving with Easter: the {e.window} days before Easter Sunday, "
+            days = "the day" if e.window == 1 else f"the {e.window} days"
+            lines.append(f"moving with Easter: {days} before Easter Sunday, "
                          f"{e.size_pct:+.1f}% (t {e.t:+.1f})")
         for r in self.recurring:
             what = "peak" if r.sign > 0 else "dip"

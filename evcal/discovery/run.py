@@ -26,7 +26,7 @@ from evcal.discovery.lost_demand import (
     lost_demand,
     read_stockouts,
 )
-from evcal.discovery.moving import easter_cluster, easter_shares
+from evcal.discovery.moving import easter_cluster, easter_months, easter_shares
 from evcal.discovery.outliers import (
     Outlier,
     OutlierSearch,
@@ -94,7 +94,9 @@ def discover(
         Chen–Liu critical value (default: by series length, see
         :func:`evcal.discovery.outliers.critical_value`).
     alpha : float
-        Significance of the cycle test (Fisher's g).
+        Significance of the cycle test (Fisher's g) and of the Easter test
+        in monthly and quarterly data (over its four windows, see
+        :mod:`evcal.discovery.moving`).
     index_effects : bool
         Refit once per abnormal year to show the effect of excluding it or
         giving it a pulse on the seasonal index.
@@ -120,7 +122,7 @@ def discover(
     from evcal.calendar import load_calendar
     from evcal.design.seasonal import cycle_length
     from evcal.engine import fit
-    from evcal.panel.distributed import progress_bar, progress_enabled
+    from evcal.progress import progress_bar, progress_enabled
 
     hist, base_text = read_discover_inputs(history, calendar, series=series, date_col=date_col,
                                            value_col=value_col, freq=freq)
@@ -165,7 +167,10 @@ def discover(
 
         moving = None
         if search is not None:
-            moving = easter_cluster(y, _with_shifts(x_fit, lasting, len(periods)), periods, search.cval)
+            # net of every effect found, except one-period ones in the months Easter moves between
+            movable = easter_months(periods)
+            known = lasting + [o for o in found if o not in lasting and not movable[o.position]]
+            moving = easter_cluster(y, _with_effects(x_fit, known, len(periods)), periods, alpha)
         shares = easter_shares(periods, moving.window) if moving is not None else np.zeros(len(periods))
         on_easter: list[Outlier] = []
         if moving is not None and search is not None:
@@ -252,9 +257,9 @@ STEPS = ("fitting the model", "cycles", "peaks, dips and breaks (Chen-Liu)", "re
          "abnormal years", "lost demand")
 
 
-def _with_shifts(x: pd.DataFrame | None, shifts: list[Outlier], n: int) -> np.ndarray | None:
-    """The regressors with a step column per level shift (None when there are neither)."""
-    cols = [outlier_pattern("LS", o.position, n)[:, None] for o in shifts]
+def _with_effects(x: pd.DataFrame | None, effects: list[Outlier], n: int) -> np.ndarray | None:
+    """The regressors with a column per effect found (None when there are neither)."""
+    cols = [outlier_pattern(o.type, o.position, n)[:, None] for o in effects]
     if x is not None:
         cols.insert(0, x.to_numpy(dtype=float))
     return np.hstack(cols) if cols else None

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, NamedTuple
 
 import pandas as pd
@@ -211,15 +211,20 @@ def easter_suggestion(cluster: EasterCluster, periods: pd.PeriodIndex, shares: A
     named = ", ".join(str(periods[o.position]) for o in explained)
     seen = f"; it accounts for the one-period findings of {named}" if explained else ""
     held = [p for p, sh in zip(periods, shares, strict=True) if sh > 0]
+    days = "the day" if w == 1 else f"the {w} days"
+    # sums over a month or quarter cannot place an effect within the days around Easter: the window
+    # is the best of four lengths, not a finding about which days (a Good Friday closure fits as well)
+    which = ("monthly" if periods.freqstr.startswith("M") else "quarterly") + " sums cannot tell which " \
+        "days around Easter: name the ones you know (e.g. closed on Good Friday: easter: -2)"
     row = Row("recurring", period_day(held[0]), period_day(held[-1], end=True), round(size, 2),
               round(abs(cluster.t), 2), None,
-              f"unexplained {what} of {size:+.1f}% over the {w} days before Easter, which fall in "
+              f"unexplained {what} of {size:+.1f}% over {days} before Easter, which fall in "
               f"{months} as Easter moves (t {cluster.t:+.1f}){seen}: add an event with when: "
-              f"{{easter: {-w}}}, length: {w}")
+              f"{{easter: {-w}}}, length: {w}; {which}")
     entry = Entry("events", {"name": f"unexplained-{what}-before-easter", "when": {"easter": -w},
                              "length": w},
-                  [f"{what} of {size:+.1f}% over the {w} days before Easter Sunday (Bell-Hillmer "
-                   f"regressor, t {cluster.t:+.1f}), in {months} as Easter moves"])
+                  [f"{what} of {size:+.1f}% over {days} before Easter Sunday (Bell-Hillmer "
+                   f"regressor, t {cluster.t:+.1f}), in {months} as Easter moves; {which}"])
     return row, entry
 
 
@@ -255,7 +260,12 @@ def outlier_suggestion(o: Outlier, periods: pd.PeriodIndex, pct: float, pattern:
         entry = Entry("interventions", {"name": f"{what}-{start}", "type": "pulse", "start": start,
                                         "end": end},
                       [f"one-period {what} of {pct:+.1f}% ({tau}); if it was an "
-                       "event (a promotion, a closure), put it under events instead"])
+                       "event (a promotion, a closure, a storm), put it under events instead"])
+    if o.position == len(periods) - 1 and entry is not None:
+        # the latest period is often not complete yet, and a part period reads as a dip
+        latest = "the latest period of the history: check that it holds all its days before adding this"
+        text = f"{text}; {latest}"
+        entry = replace(entry, comment=[*entry.comment, latest])
     year = int(p.start_time.year)
     if pattern is not None:
         text, entry = f"part of the recurring pattern {describe_pattern(pattern)}", None

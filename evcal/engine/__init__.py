@@ -56,7 +56,10 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
     check_history_length(hist)
     inp = prepare(hist, cal, opts)
     cal = inp.spec.calendar(cal)  # with the run-ups the data chose for `before: auto` events
-    check_fit_rows(inp, cal, hist)
+    short = check_fit_rows(inp, cal, hist)  # the warning line when exclusions leave under two full cycles
     block = fit_long_panel(Panel.of_history(hist), cal, opts, single=inp)
     model = block.models[0]
-    return model if isinstance(model, FitResult) else block_result(hist, cal, opts, inp, model)
+    result = model if isinstance(model, FitResult) else block_result(hist, cal, opts, inp, model)
+    if short:
+        result.warnings.insert(0, short)
+    return result

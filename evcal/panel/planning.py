@@ -87,8 +87,9 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         ``total``/``totals`` with more than one series (a target is per plan:
         plan one series, or fit the level the target belongs to and allocate).
     """
-    from evcal.panel.distributed import dask_runner, local_runner, progress_enabled
+    from evcal.panel.distributed import dask_runner, local_runner
     from evcal.plan.simulate import check_sims
+    from evcal.progress import progress_enabled
 
     check_sims(n_sims)  # before any series is loaded or planned
     path = None if isinstance(model, PanelResult) else str(model)

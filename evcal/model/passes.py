@@ -301,6 +301,12 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
     # without a calendar profile, the trading-day coefficients weigh the days (a fixed point with θ)
     levels = trading_weights(inp, est, calendar)
     used = None  # the weekday levels the current pass's design was built with (None: the calendar's)
+    if levels is not None:
+        # Identification is judged on the first pass's (flat) columns: weights move a fixed-date
+        # holiday's monthly column only by the weekday it falls on, which would make an event that
+        # is always in the same month look identified. An event left to the season stays there.
+        dropped.update({c: st.note for c, st in inp.status.items()
+                        if inp.design.roles.get(c) == "event" and st.status == "unidentifiable"})
     # later passes keep the error model the first pass chose (and its reasons)
     if est.method == "ols":
         fixed = replace(options, errors="ols")

@@ -279,6 +279,8 @@ def _apply_parquet(folder: Path, name: str, edit: Any) -> None:
 
 # keys where null is a legitimate value (absent), so a null there is not damage
 NULL_OK = ("level", "group_col", "options.arima_order", "hac_lags", ".end", ".decay")
+# keys a folder written before they existed lacks: dropping one leaves a valid older folder
+OPTIONAL = ("design.weekday_weights",)
 # free-form lists and maps: their length and entries say nothing the reader can check
 FREE = ("groups.0.notes", "groups.0.status", "groups.0.fitted_columns", "events", "design.event_theta",
         "calendar_text", "design.interventions")
@@ -325,7 +327,7 @@ def _json_mutations(d: dict) -> list[tuple[str, tuple, Any]]:
                 muts.append(("grow", path, "grow"))
         elif isinstance(value, dict):
             muts.append(("wrong type", path, []))
-        if isinstance(path[-1], str) and not parent_free:
+        if isinstance(path[-1], str) and not parent_free and key not in OPTIONAL:
             muts.append(("drop key", path, "drop"))
     for freq in ("D", "M", "W-SAT", "Q-DEC", "W-XYZ"):
         muts.append(("swap freq", ("freq",), freq))

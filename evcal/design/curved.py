@@ -36,6 +36,8 @@ class CurvedEvents:
         self.periods = periods
         self.basis: dict[str, tuple[np.ndarray, np.ndarray]] = {}
         self.touched: dict[str, np.ndarray] = {}  # periods that hold some of the event's days
+        #: whether the calendar weighs the weekdays (else flat, or a fit's trading-day levels do)
+        self.profiled = calendar_profile(calendar) is not None
         colmap = calendar.event_columns()
         wanted = sorted({colmap[c] for c in names if c in colmap})
         if not wanted:

@@ -25,6 +25,7 @@ from evcal.design.seasonal import (
     base_freq,
 )
 from evcal.design.trend import Trend
+from evcal.design.weekdays import weighted
 
 
 @dataclass
@@ -47,11 +48,15 @@ class DesignSpec:
     event_windows: dict[str, int] = field(default_factory=dict)
     # what the data chose and why (evcal.model.choose): one record per setting left open
     choices: list[dict[str, Any]] = field(default_factory=list)
+    # the weekday weights of the event columns and the open share (evcal.design.weekdays.weights_record):
+    # {"source": "calendar" | "trading_days" | "flat", "levels": [Monday..Sunday]}; {} for daily data
+    weekday_weights: dict[str, Any] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
         # settings at their old values are left out, as folders written before they existed have them
-        for key, old in (("leap_year", False), ("event_windows", {}), ("choices", [])):
+        olds = (("leap_year", False), ("event_windows", {}), ("choices", []), ("weekday_weights", {}))
+        for key, old in olds:
             if d[key] == old:
                 del d[key]
         return d
@@ -61,8 +66,9 @@ class DesignSpec:
         return cls(**d)
 
     def calendar(self, calendar: Any) -> Any:
-        """``calendar`` with the run-up windows this design chose (itself when it chose none)."""
-        return with_windows(calendar, self.event_windows)
+        """``calendar`` with the run-up windows this design chose and the weekday weights its fit used
+        (itself when it chose none)."""
+        return weighted(with_windows(calendar, self.event_windows), self.weekday_weights)
 
     def intervention_terms(self) -> tuple[InterventionTerm, ...]:
         return tuple(InterventionTerm.from_dict(t) for t in self.interventions)

@@ -185,6 +185,10 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     beyond = np.zeros(m, dtype=bool)
     for c in curved_cols:
         beyond |= beyond_days(B0[idx[c]], X_fit[:, idx[c]], curve.floor(c)[fit_rows])
+    if not curve.profiled and any(c.startswith("trading[") for c in cols):
+        # each series' trading-day coefficients weigh its days (evcal.model.passes.trading_weights):
+        # its own columns, so every series takes the per-series passes (the same fixed point)
+        beyond[:] = True
     params = B0.copy()
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
     theta_in = {c: np.zeros(m) for c in curved_cols}

@@ -15,6 +15,7 @@ from evcal.design.base import period_mid_years
 from evcal.design.interventions import InterventionTerm
 from evcal.design.matrix import Design, DesignSpec, build_design
 from evcal.design.seasonal import base_freq, cycle_length, season_position
+from evcal.design.weekdays import weights_record
 from evcal.errors import CalendarError, HistoryError
 from evcal.model.choose import Chosen, given
 from evcal.model.identify import ColumnStatus, check_columns, independent_base_columns
@@ -135,6 +136,7 @@ def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, fre
         leap_year=chosen.leap_year,
         event_windows=dict(chosen.event_windows),
         choices=list(chosen.choices),
+        weekday_weights=weights_record(calendar, freq),
     )
 
 

@@ -9,7 +9,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.design.base import period_days
 from evcal.design.seasonal import base_freq
+from evcal.design.weekdays import calendar_profile, trading_levels, weighted
 from evcal.model.estimators import Estimate, fit_arima, fit_count, fit_ols
 from evcal.model.identify import MAX_LOG_LIFT, ColumnStatus, degenerate_note, degenerate_terms, seasonal_share
 from evcal.model.inputs import ModelInputs, additive_design, check_fit_rows, model_scale_response, prepare
@@ -326,6 +328,15 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
     # a lift whose periods fall by more than its days hold keeps its share-of-window column (θ = 0)
     stopped = _stopped_events(inp, est, calendar)
     theta = _free(fitted_theta(inp, est), inp, stopped)
+    # without a calendar profile, the trading-day coefficients weigh the days (a fixed point with θ)
+    levels = trading_weights(inp, est, calendar)
+    used = None  # the weekday levels the current pass's design was built with (None: the calendar's)
+    if levels is not None:
+        # Identification is judged on the first pass's (flat) columns: weights move a fixed-date
+        # holiday's monthly column only by the weekday it falls on, which would make an event that
+        # is always in the same month look identified. An event left to the season stays there.
+        dropped.update({c: st.note for c, st in inp.status.items()
+                        if inp.design.roles.get(c) == "event" and st.status == "unidentifiable"})
     # later passes keep the error model the first pass chose (and its reasons)
     if est.method == "ols":
         fixed = replace(options, errors="ols")
@@ -334,11 +345,15 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
     else:
         fixed = options
     for _ in range(MAX_PASSES):
-        if not theta:
+        if not theta and levels is None:
             break
         trial = dict(dropped)
-        inp_next, est_next, _ = _fit_flagged(history, calendar, fixed, theta, trial)
-        ran_away = [c for c in trial if c not in dropped]
+        pass_calendar = calendar if levels is None else weighted(calendar, {"levels": levels})
+        inp_next, est_next, _ = _fit_flagged(history, pass_calendar, fixed, theta, trial)
+        # a column the previous pass did not fit (left to the season there) can break down once the
+        # weekday weights move its periods' values a little off the season's: it stays out, the pass holds
+        ran_away = [c for c in trial if c not in dropped and c in theta]
+        dropped.update({c: note for c, note in trial.items() if c not in theta})
         if ran_away:
             # A lift that was sound in the previous pass breaks down once its column follows
             # the fitted daily lift exactly: its periods moved more than the event's days alone
@@ -347,18 +362,36 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
             # (dropping the event would push a moving holiday into the seasonal index), and say so.
             stopped.update({c: beyond_days_note(calendar, c) for c in ran_away if c not in stopped})
             break
-        inp, est = inp_next, est_next
+        inp, est, used = inp_next, est_next, levels
         new = _free(fitted_theta(inp, est), inp, stopped)
         moved = theta_moved(new, theta)
         theta = new
+        if levels is not None:
+            new_levels = trading_weights(inp, est, calendar) or levels
+            moved = max(float(moved), float(np.max(np.abs(np.subtract(new_levels, levels)))))
+            levels = new_levels
         if moved < THETA_TOL:
             break
+    if used is not None:
+        inp.spec = replace(inp.spec, weekday_weights={"source": "trading_days", "levels": list(used)})
     for c, note in stopped.items():
         st = inp.status.get(c)
         if st is not None and st.status == "fitted":
             # a share-of-window figure, not a lift on the event's days: weak, keeping the strength checks
             inp.status[c] = replace(st, note=f"{note}; {st.note}" if st.note else note, weak=True)
     return inp, est, choice
+
+
+def trading_weights(inp: ModelInputs, est: Estimate, calendar: Any) -> list[float] | None:
+    """Weekday levels from a pass's trading-day coefficients, when they weigh the days (else None).
+
+    They do for a log-scale (or count) fit of monthly or quarterly data with
+    trading-day columns, when the calendar gives no ``weekday_profile`` (a
+    profile given wins: :func:`evcal.design.weekdays.trading_levels`).
+    """
+    if calendar_profile(calendar) is not None or inp.transform == "none":
+        return None
+    return trading_levels(est.params, float(np.mean(period_days(inp.periods[inp.rows]))))
 
 
 def _free(theta: dict[str, float], inp: ModelInputs, stopped: dict[str, str]) -> dict[str, float]:

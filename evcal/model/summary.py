@@ -8,6 +8,7 @@ from typing import Any
 
 import pandas as pd
 
+from evcal.design.weekdays import fitted_profile, profile_line, weekday_note
 from evcal.io.history import period_dates
 
 
@@ -68,6 +69,22 @@ def _fmt(v: Any) -> str:
     return "" if math.isnan(f) else f"{f:+.1f}"
 
 
+def weekday_lines(result: Any) -> list[str]:
+    """What weighs each day of a longer period; for a daily model, its weekday pattern as a calendar line.
+
+    A daily log-scale model's ``weekday[...]`` coefficients are the pattern a
+    weekly or monthly fit of the same sales needs (``weekday_profile:``,
+    :mod:`evcal.design.weekdays`); the line is ready to paste into its calendar.
+    """
+    freq = str(result.freq)
+    if freq.upper().startswith("D"):
+        levels = fitted_profile(result.params) if result.transform != "none" else None
+        if levels is None:
+            return []
+        return [f"weekdays: fitted pattern, for a weekly or monthly fit's calendar: {profile_line(levels)}"]
+    return [f"weekdays: {weekday_note(getattr(result.spec, 'weekday_weights', None), freq)}"]
+
+
 def describe(result: Any) -> str:
     """Model chosen, fit quality, lifts with 95 % intervals, warnings."""
     lines = [
@@ -78,6 +95,7 @@ def describe(result: Any) -> str:
     ]
     # settings the data chose (evcal.model.choose): what, among which candidates, and why
     lines += [f"chosen  : {c['reason']}" for c in getattr(result.spec, "choices", None) or []]
+    lines += weekday_lines(result)
     q = result.quality or {}
     if q:
         wape, sd = q.get("wape_pct", float("nan")), q.get("resid_sd", float("nan"))

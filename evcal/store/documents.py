@@ -58,6 +58,12 @@ class SettingChoice(Strict):  # one setting the data chose (evcal.model.choose)
     candidates: list[ChoiceCandidate]
 
 
+class WeekdayWeights(Strict):  # the weekday weights of a weekly/monthly/quarterly design (design.weekdays)
+    source: Literal["calendar", "trading_days", "flat"]
+    # absent for flat weights (a default is not validated: a null written in its place is refused)
+    levels: Annotated[list[Positive], Field(min_length=7, max_length=7)] = None  # type: ignore[assignment]
+
+
 class Design(Strict):
     freq: str
     trend_origin: Finite
@@ -73,6 +79,8 @@ class Design(Strict):
     leap_year: bool = False
     event_windows: dict[str, Whole] = {}
     choices: list[SettingChoice] = []
+    # absent in folders fitted before it was recorded (and daily ones); a null in its place is refused
+    weekday_weights: WeekdayWeights = None  # type: ignore[assignment]
 
 
 class ColumnNote(Strict):  # what identification said of an event column

@@ -146,7 +146,8 @@ def backtest(
     """
     from evcal.engine import fit
     from evcal.io import History, read_history
-    from evcal.model.inputs import excluded_periods, load_calendar_any
+    from evcal.model.fit_rows import excluded_periods
+    from evcal.model.inputs import load_calendar_any
     from evcal.plan.build import plan_periods
     from evcal.progress import progress_bar, progress_enabled
 

@@ -4,7 +4,7 @@ The panel is invented data with a known truth (named as such): daily sales of 30
 years, a weekday pattern, an annual wave of harmonics 1 and 3 only (so 3 Fourier pairs draw it), a
 +30 % lift on Easter Sunday and the 10 days before it (Easter dates of ``dateutil.easter``), 8 %
 noise. The choice is made on the sum of the series that share their observed periods (see
-``evcal.model.choose.panel_settings``).
+``evcal.engine.panel_choice.panel_settings``).
 """
 
 from __future__ import annotations

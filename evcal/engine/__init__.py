@@ -14,7 +14,8 @@ from typing import Any
 
 from evcal.engine.run import PanelFit, fit_long_panel
 from evcal.engine.series import block_result
-from evcal.model.inputs import check_fit_rows, check_history_length, load_calendar_any, prepare
+from evcal.model.fit_rows import check_fit_rows, check_history_length
+from evcal.model.inputs import load_calendar_any, prepare
 from evcal.model.options import FitOptions
 from evcal.model.result import FitResult
 

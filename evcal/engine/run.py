@@ -58,7 +58,7 @@ class PanelFit:
     skipped: pd.DataFrame
     groups: list[dict[str, Any]]
     models: dict[int, Any] = field(default_factory=dict)  # sid -> whole model (a panel of one only)
-    chosen: Any = None  # the settings chosen once for the panel (evcal.model.choose.panel_settings)
+    chosen: Any = None  # the settings chosen once for the panel (evcal.engine.panel_choice.panel_settings)
 
     @property
     def fitted(self) -> pd.DataFrame:
@@ -173,7 +173,7 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
     cal = load_calendar_any(calendar)
     chosen = None
     if single is None:  # a panel chooses the settings left open once, for every series (panel_settings)
-        from evcal.model.choose import panel_settings
+        from evcal.engine.panel_choice import panel_settings
 
         options, cal, chosen = panel_settings(options, cal, panel)
     units, screen, groups = plan_units(panel, cal, options, single)

@@ -4,7 +4,7 @@ Every series of the panel ends up either fitted or in ``skipped.csv`` with a
 reason a planner can act on; none is dropped silently. The reasons, in the
 order they are tested: ``no values``; ``negative values`` (without
 ``--allow-negative``: a panel skips the series instead of stopping the run);
-``too short`` (the single-series rule, :func:`evcal.model.inputs.min_periods`);
+``too short`` (the single-series rule, :func:`evcal.model.fit_rows.min_periods`);
 ``all zeros`` and ``constant``; ``zeros with --transform log``. The transforms
 are the single-series rule too (:func:`evcal.model.inputs.transforms`).
 """
@@ -16,7 +16,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from evcal.model.inputs import min_periods, transforms
+from evcal.model.fit_rows import min_periods
+from evcal.model.inputs import transforms
 
 __all__ = ["Screen", "screen_series", "SKIPPED_COLUMNS"]
 

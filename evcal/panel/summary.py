@@ -56,7 +56,7 @@ def describe_panel(result: Any) -> str:
         f"fitted  : {counts.get('fitted', 0)} series: {counts.get('batched', 0)} by the batched OLS+HAC "
         f"solver in {len(s.get('groups', []))} design group(s), {counts.get('per_series', 0)} one by one",
     ]
-    # settings the data chose once for the panel (evcal.model.choose.panel_settings)
+    # settings the data chose once for the panel (evcal.engine.panel_choice.panel_settings)
     lines += [f"chosen  : {c['reason']}" for c in s.get("design", {}).get("choices", [])]
     skipped = result.skipped
     if len(skipped):

@@ -53,7 +53,13 @@ __all__ = [
 ]
 
 #: candidate numbers of annual Fourier pairs (daily data)
-FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25, 30, 40, 50, 60, 80)
+FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25)
+#: the season's shortest wave, in days: the pairs stop where a wave would be shorter than two weeks.
+#: Shorter features are days, which the calendar carries as events; more pairs take part of the
+#: fixed-date holidays' lifts (daily modeldata::Chicago 2009-2015, US holidays, --errors ols:
+#: New Year's Day -58 % at 25 pairs, -48 % at 60; Christmas Day -81 % and -72 %; the moving
+#: holidays stay within a point). Common practice, no source, for the two weeks.
+SHORTEST_WAVE_DAYS = 14
 #: candidate run-ups (days before) of an Easter-relative event with ``before: auto``
 RUN_UPS = (1, 8, 10, 15)
 #: the Fourier order while the other settings are chosen, and when nothing is chosen (the old default)
@@ -93,17 +99,19 @@ def fourier_candidates(freq: str, n_periods: int) -> tuple[int, ...]:
     """The numbers of annual Fourier pairs tried on ``n_periods`` of ``freq``.
 
     :data:`FOURIER_ORDERS` up to half the periods of a year (more pairs repeat
-    the same columns: a weekly year has 26 distinct harmonics) and up to a
-    tenth of the periods (at least five periods per Fourier column, common
-    practice, no source); never fewer than the two smallest.
+    the same columns: a weekly year has 26 distinct harmonics), with no wave
+    shorter than :data:`SHORTEST_WAVE_DAYS` (the season, not single days), and
+    up to a tenth of the periods (at least five periods per Fourier column,
+    common practice, no source); never fewer than the two smallest.
 
     Examples
     --------
-    >>> [fourier_candidates(freq, n)[-1] for freq, n in (("D", 5698), ("W-SUN", 520), ("D", 730))]
-    [80, 25, 60]
+    >>> [fourier_candidates(freq, n)[-1] for freq, n in (("D", 5698), ("W-SUN", 520), ("D", 200))]
+    [25, 25, 20]
     """
     half_year = cycle_length(freq) // 2
-    fit = [k for k in FOURIER_ORDERS if k <= half_year and 2 * k <= n_periods // 5]
+    season = 365.25 / SHORTEST_WAVE_DAYS
+    fit = [k for k in FOURIER_ORDERS if k <= min(half_year, season) and 2 * k <= n_periods // 5]
     return tuple(fit) if len(fit) >= 2 else FOURIER_ORDERS[:2]
 
 
@@ -280,9 +288,10 @@ def _record(setting: str, scores: dict[Any, float], best: Any, lik: _Likelihood,
     reason = f"{what}: {best}, lowest AICc of {', '.join(str(v) for v in scores)}{gap} ({lik.describe()})"
     if setting == "fourier_order" and best == max(scores) and len(scores) > 2:
         reason += (
-            f"; {best} is the largest candidate tried, so more pairs might fit better still: the annual "
-            "shape has sharper features than the pairs draw, often days of the year that are not in the "
-            "calendar (e.g. the weeks around Christmas that are not public holidays): add them as events"
+            f"; {best} is the largest candidate tried (no shorter wave than {SHORTEST_WAVE_DAYS} days: "
+            "the pairs draw the season, not single days), so the annual shape has sharper features than "
+            "the pairs draw, often days of the year that are not in the calendar (e.g. the weeks around "
+            "Christmas that are not public holidays): add them as events"
         )
     if setting == "fourier_order" and best != STAND_IN_FOURIER and STAND_IN_FOURIER in scores:
         reason += (

@@ -1,9 +1,9 @@
 """Weak identification where people read it: `evcal fit`/`evcal show`'s lift table (single and panel
 models), the report's panel overview, the "Against average share" card, and the additive model's grade.
 
-Data: the invented monthly histories of :mod:`test_weak_identification` (a holiday held in two years
+Data: the invented monthly histories of :mod:`test_identification` (a holiday held in two years
 only: weak; a sale seen every year: identified) and the invented daily shop of
-:mod:`test_fair_weekday_share`; one invented additive series with closures (named below).
+:mod:`test_weekday_share`; one invented additive series with closures (named below).
 """
 
 from __future__ import annotations
@@ -14,8 +14,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from test_fair_weekday_share import SALE_CAL, sale_shop
-from test_weak_identification import JUBILEE, _fit, invented_monthly
+from test_identification import JUBILEE, _fit, invented_monthly
+from test_weekday_share import SALE_CAL, sale_shop
 from typer.testing import CliRunner
 
 import evcal

@@ -149,9 +149,23 @@ def ar_covariances(Z: np.ndarray, errors: PrewhitenedErrors) -> np.ndarray:
 
 
 def contrast_variances(Z: np.ndarray, errors: PrewhitenedErrors, C: np.ndarray) -> np.ndarray:
-    """Variances (m, r) of contrasts ``C`` (r, j) of the coefficients of ``Z`` (n, j) (see ar_covariances)."""
-    W = errors.unwhiten(Z @ C.T)  # (n, r, m)
-    return np.einsum("trm,tm->mr", W * W, errors.weights)
+    """Variances (m, r) of contrasts ``C`` (r, j) of the coefficients of ``Z`` (n, j) (see ar_covariances).
+
+    The contrasts are taken a few at a time: all at once, a daily seasonal index (hundreds of contrasts,
+    2,000 days, 500 series) would need gigabytes.
+    """
+    n, m = errors.weights.shape
+    ZC = Z @ C.T  # (n, r)
+    out = np.empty((m, ZC.shape[1]))
+    step = max(1, _WHITENED_ELEMENTS // max(n * m, 1))
+    for a in range(0, ZC.shape[1], step):
+        W = errors.unwhiten(ZC[:, a:a + step])  # (n, step, m)
+        out[:, a:a + step] = np.einsum("trm,tm->mr", W * W, errors.weights)
+    return out
+
+
+#: whitened columns formed at once by contrast_variances (2 ** 22 numbers: 32 MB)
+_WHITENED_ELEMENTS = 2**22
 
 
 def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:

@@ -17,10 +17,9 @@ import pandas as pd
 import pytest
 import statsmodels.api as sm
 from scipy.linalg import toeplitz
-from statsmodels.tsa.arima_process import arma_acovf
 
 from evcal.engine.batched import SharedSolve
-from evcal.model.estimators import ar_max_order, error_spectrum, fit_ols
+from evcal.model.estimators import ar_max_order, fit_ols, prewhitened_errors
 
 _spec = importlib.util.spec_from_file_location(
     "coverage_bench", Path(__file__).resolve().parents[1] / "benchmarks" / "coverage.py")
@@ -30,7 +29,9 @@ _spec.loader.exec_module(cov_bench)
 
 
 def _reference_cov(X: np.ndarray, e: np.ndarray) -> tuple[np.ndarray, int]:
-    """OLS covariance under the residuals' AR(p), p by AIC, from statsmodels' Yule-Walker and arma_acovf."""
+    """The prewhitened HC2 covariance, written out: statsmodels' Yule-Walker AR(p) (p by AIC), its whitening
+    filter as an explicit lower-triangular matrix A (zero before the first period), D = diag(ε² / (1 - h))
+    and the sandwich (X'X)^-1 X' A^-1 D A^-T X (X'X)^-1 as dense products."""
     n, k = X.shape
     best = None
     for p in range(ar_max_order(n) + 1):
@@ -43,43 +44,65 @@ def _reference_cov(X: np.ndarray, e: np.ndarray) -> tuple[np.ndarray, int]:
         if best is None or aic < best[0]:
             best = (aic, p, rho)
     _, p, rho = best
-    acov = arma_acovf(np.r_[1.0, -rho], np.r_[1.0], nobs=n, sigma2=1.0)
-    acov *= (e @ e / (n - k)) / acov[0]  # the error variance with the residuals' degrees of freedom
+    A = toeplitz(np.r_[1.0, -rho, np.zeros(n - p - 1)], np.zeros(n))
     Z = X @ np.linalg.inv(X.T @ X)
-    return Z.T @ toeplitz(acov) @ Z, p
+    h = np.diag(X @ np.linalg.inv(X.T @ X) @ X.T)
+    D = np.diag((A @ e) ** 2 / (1 - h))
+    Ainv = np.linalg.inv(A)
+    return Z.T @ Ainv @ D @ Ainv.T @ Z, p
 
 
-def test_ols_covariance_equals_statsmodels_reference():
-    # Reference library: statsmodels (regression.yule_walker for the AR(p) of the residuals,
-    # tsa.arima_process.arma_acovf for its autocovariances), assembled as (X'X)^-1 X' Σ X (X'X)^-1.
-    # On main fit_ols gave the Newey-West HAC covariance (4 lags): differs by 20-40 %.
-    rng = np.random.default_rng(5)
+@pytest.mark.parametrize("seed", [5, 6])
+def test_ols_covariance_equals_statsmodels_reference(seed):
+    # Reference library: statsmodels (regression.yule_walker for the AR(p) of the residuals), with the
+    # prewhitened HC2 sandwich written out as dense matrices (_reference_cov). Invented data: AR(1) errors,
+    # phi 0.6, whose variance doubles in the second half (heteroskedastic). On main (round 2) fit_ols gave the
+    # homoskedastic AR(p) covariance, which differs from this by 10-40 %.
+    rng = np.random.default_rng(seed)
     n = 200
     X = np.column_stack([np.ones(n), np.arange(n) / n, rng.standard_normal((n, 3))])
-    u = cov_bench.ar1(rng, 0.6, n, 1)[:, 0]
+    u = cov_bench.ar1(rng, 0.6, n, 1)[:, 0] * np.where(np.arange(n) < n // 2, 1.0, np.sqrt(2.0))
     y = pd.Series(X @ np.array([1.0, 0.5, 0.2, -0.1, 0.0]) + u)
     est = fit_ols(y, pd.DataFrame(X), pd.Series(np.zeros(n)))
     ref, p = _reference_cov(X, est.resid.to_numpy())
     assert p >= 1  # the AR(1) errors are seen
     assert f"p = {p}" in est.cov_note
-    np.testing.assert_allclose(est.cov.to_numpy(), ref, rtol=1e-6, atol=1e-12)
+    np.testing.assert_allclose(est.cov.to_numpy(), ref, rtol=1e-8, atol=1e-14)
     # the batched solver's covariance is the same estimator
     solve = SharedSolve.of(X)
     _, E, _ = solve.solve(y.to_numpy()[:, None])
-    np.testing.assert_allclose(solve.covariances(solve.spectrum(E))[0], ref, rtol=1e-6, atol=1e-12)
+    np.testing.assert_allclose(solve.covariances(solve.errors(E))[0], ref, rtol=1e-8, atol=1e-14)
     # and the variances alone (the batched path's standard errors) are its diagonal
     k = X.shape[1]
-    np.testing.assert_allclose(solve.contrast_variances(solve.spectrum(E), np.arange(k), np.eye(k))[0],
-                               np.diag(ref), rtol=1e-6)
+    np.testing.assert_allclose(solve.contrast_variances(solve.errors(E), np.arange(k), np.eye(k))[0],
+                               np.diag(ref), rtol=1e-8)
 
 
-def test_spectrum_orders_follow_the_errors():
+def test_batched_errors_are_each_series_own():
+    # Invented: three series with different AR orders solved as one block give each the covariance it
+    # gets alone (the vectorised recursion takes each series' own filter and weights).
+    rng = np.random.default_rng(3)
+    n = 150
+    X = np.column_stack([np.ones(n), np.sin(np.arange(n) / 5), rng.standard_normal(n)])
+    Y = np.column_stack([rng.standard_normal(n), cov_bench.ar1(rng, 0.8, n, 1)[:, 0],
+                         cov_bench.ar1(rng, 0.3, n, 1)[:, 0] * np.linspace(0.5, 2, n)])
+    solve = SharedSolve.of(X)
+    _, E, _ = solve.solve(Y)
+    together = solve.covariances(solve.errors(E))
+    for s in range(3):
+        alone = solve.covariances(solve.errors(E[:, s:s + 1]))[0]
+        np.testing.assert_allclose(together[s], alone, rtol=1e-10)
+        np.testing.assert_allclose(alone, _reference_cov(X, E[:, s])[0], rtol=1e-8)
+
+
+def test_orders_follow_the_errors():
     # Invented: white noise gets order 0 mostly, AR(1) with phi 0.8 an order >= 1 (n = 300, 50 series).
     rng = np.random.default_rng(9)
     white = rng.standard_normal((300, 50))
     ar = cov_bench.ar1(rng, 0.8, 300, 50)
-    assert np.mean(error_spectrum(white, 1).order == 0) > 0.6
-    assert np.all(error_spectrum(ar, 1).order >= 1)
+    lev = np.full(300, 1 / 300)
+    assert np.mean(prewhitened_errors(white, lev).order == 0) > 0.6
+    assert np.all(prewhitened_errors(ar, lev).order >= 1)
 
 
 @pytest.mark.parametrize("phi", [0.0, 0.6, 0.8])

@@ -105,8 +105,8 @@ def test_batched_ols_and_covariance_equal_single_fits(k):
     Y = X @ rng.standard_normal((k, m)) + ar
     solve = SharedSolve.of(X)
     B, E, sigma2 = solve.solve(Y)
-    spectrum = solve.spectrum(E)
-    cov = solve.covariances(spectrum)
+    errors = solve.errors(E)
+    cov = solve.covariances(errors)
     for j in range(m):
         ref = sm.OLS(Y[:, j], X).fit()
         np.testing.assert_allclose(B[:, j], ref.params, rtol=1e-8, atol=1e-10)
@@ -114,7 +114,7 @@ def test_batched_ols_and_covariance_equal_single_fits(k):
         single = fit_ols(pd.Series(Y[:, j]), pd.DataFrame(X), pd.Series(np.zeros(n)))
         np.testing.assert_allclose(cov[j], single.cov.to_numpy(), rtol=1e-8, atol=1e-14)
     # a column subset gives the same block of the covariance
-    sub = solve.covariances(spectrum, np.array([1, 3]))
+    sub = solve.covariances(errors, np.array([1, 3]))
     np.testing.assert_allclose(sub, cov[:, [1, 3]][:, :, [1, 3]], rtol=1e-10, atol=1e-14)
 
 

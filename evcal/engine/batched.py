@@ -6,10 +6,10 @@ Series that share a design (the same periods and the same fit rows) share
 statsmodels' ``OLS(...).fit(method="qr")`` does for one column.
 
 The covariance of series ``s`` is ``Zᵀ Σₛ Z`` with ``Z = X (XᵀX)⁻¹`` and ``Σₛ``
-the autocovariance of an AR(p) model of its residuals
-(:func:`evcal.model.estimators.error_spectrum`, the estimator
-:func:`evcal.model.estimators.fit_ols` uses): ``Z``'s FFT is taken once per
-design, and every series' covariance is one weighted sum over the frequencies.
+its errors' covariance: an AR(p) model of its residuals for the autocorrelation,
+each period's own whitened residual for the variance
+(:func:`evcal.model.estimators.prewhitened_errors`, the estimator
+:func:`evcal.model.estimators.fit_ols` uses), every series of the block at once.
 """
 
 from __future__ import annotations
@@ -18,7 +18,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from evcal.model.estimators import ErrorSpectrum, ar_covariances, contrast_variances, error_spectrum
+from evcal.model.estimators import (
+    PrewhitenedErrors,
+    ar_covariances,
+    contrast_variances,
+    leverage,
+    prewhitened_errors,
+)
 
 __all__ = ["SharedSolve"]
 
@@ -48,6 +54,7 @@ class SharedSolve:
     Q: np.ndarray
     R: np.ndarray
     Z: np.ndarray  # X (X'X)^-1 = Q R^-T
+    leverage: np.ndarray  # (n,) each period's leverage, diag X (X'X)^-1 X'
 
     @classmethod
     def of(cls, X: np.ndarray) -> SharedSolve:
@@ -55,7 +62,7 @@ class SharedSolve:
         Q, R = np.linalg.qr(X)
         Rinv = np.linalg.solve(R, np.eye(R.shape[0]))
         Z = Q @ Rinv.T
-        return cls(X=X, Q=Q, R=R, Z=Z)
+        return cls(X=X, Q=Q, R=R, Z=Z, leverage=leverage(X, Z))
 
     def coefficients(self, Y: np.ndarray) -> np.ndarray:
         """Coefficients (k, m) only: ``(XᵀX)⁻¹XᵀY = ZᵀY``, a product (``R⁻¹`` is formed once per design)."""
@@ -69,15 +76,15 @@ class SharedSolve:
         sigma2 = np.einsum("ij,ij->j", E, E) / max(n - k, 1)
         return B, E, sigma2
 
-    def spectrum(self, E: np.ndarray) -> ErrorSpectrum:
-        """The AR error model of each residual column of ``E`` (n, m)."""
-        return error_spectrum(E, self.X.shape[1])
+    def errors(self, E: np.ndarray) -> PrewhitenedErrors:
+        """The AR error model and the periods' weights of each residual column of ``E`` (n, m)."""
+        return prewhitened_errors(E, self.leverage)
 
-    def covariances(self, spectrum: ErrorSpectrum, cols: np.ndarray | None = None) -> np.ndarray:
+    def covariances(self, errors: PrewhitenedErrors, cols: np.ndarray | None = None) -> np.ndarray:
         """Covariance of each series' coefficients (m, j, j), for columns ``cols`` (all by default)."""
         Z = self.Z if cols is None else self.Z[:, cols]
-        return ar_covariances(Z, spectrum)
+        return ar_covariances(Z, errors)
 
-    def contrast_variances(self, spectrum: ErrorSpectrum, cols: np.ndarray, C: np.ndarray) -> np.ndarray:
+    def contrast_variances(self, errors: PrewhitenedErrors, cols: np.ndarray, C: np.ndarray) -> np.ndarray:
         """Variances (m, r) of the contrasts ``C`` (r, len(cols)) of the coefficients ``cols``."""
-        return contrast_variances(self.Z[:, cols], spectrum, C)
+        return contrast_variances(self.Z[:, cols], errors, C)

@@ -4,8 +4,9 @@ The event columns of a series depend on it only through its log-lifts θ
 (:class:`~evcal.design.curved.CurvedEvents`), so each pass projects the
 shared trend and seasonal columns out once (Frisch–Waugh–Lovell) and every
 series solves only its few event and intervention columns. The covariance
-of those coefficients (under the AR model of each series' residuals,
-:func:`evcal.model.estimators.error_spectrum`) comes from the same projected
+of those coefficients (prewhitened by the AR model of each series' residuals
+and weighted by each period's own whitened residual,
+:func:`evcal.model.estimators.prewhitened_errors`) comes from the same projected
 columns (their rows of ``(XᵀX)⁻¹Xᵀ`` are ``(X̃ᵀX̃)⁻¹X̃ᵀ``).
 """
 
@@ -17,7 +18,7 @@ from typing import Any
 import numpy as np
 
 from evcal.design.curved import CurvedEvents
-from evcal.model.estimators import ErrorSpectrum, error_spectrum
+from evcal.model.estimators import PrewhitenedErrors, ar_covariances, prewhitened_errors
 from evcal.model.passes import MAX_PASSES, THETA_TOL, beyond_days, theta_moved, theta_sources
 
 __all__ = ["refine"]
@@ -66,7 +67,7 @@ class Refined:
     cov_terms: np.ndarray  # (m, len(term_cols), len(term_cols)): the covariance behind se_terms
     theta_in: dict[str, np.ndarray]  # θ the final design was built with, per source column
     curved: dict[str, np.ndarray]  # each series' raw (unmerged) event columns for that θ: (m, n_periods)
-    spectrum: ErrorSpectrum  # each series' AR error model, from its final residuals
+    errors: PrewhitenedErrors  # each series' AR error model and periods' weights, from its final residuals
     #: (m,) series whose first pass asks an event for a bigger dip than its days hold
     #: (:func:`evcal.model.passes.beyond_days`): the caller fits them on their own, where the rule notes it
     beyond: np.ndarray | None = None
@@ -222,33 +223,28 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     resid[U] -= np.einsum("mcu,mc->um", V, bt[:, jc])
     k_all = len(cols)
     sigma2 = np.einsum("nm,nm->m", resid, resid) / max(n - k_all, 1)
-    spectrum = error_spectrum(resid, k_all)
-    # each term column with the shared columns projected out, one (n, m) array per term, and its FFT.
-    # X̃ᵀ Σ X̃ of the projected columns equals the full design's (XᵀX)⁻¹Xᵀ Σ X(XᵀX)⁻¹ rows once
-    # multiplied by the inverse of their Gram matrix on both sides (the estimator of
-    # estimators.ar_covariances, on this block's (terms, periods, series) layout).
+    # each term column with the shared columns projected out, (n, terms, m): by Frisch-Waugh-Lovell the
+    # term coefficients' rows of (XᵀX)⁻¹Xᵀ are G⁻¹X̃ᵀ, and a period's leverage in the full design is its
+    # leverage in the shared columns plus x̃ₜᵀ G⁻¹ x̃ₜ (the estimator of estimators.ar_covariances, on this
+    # block's (periods, terms, series) layout)
     n_t = len(term)
-    meat = np.empty((m, n_t, n_t))
-    F = []
-    col = np.empty((n, m))
+    Xt = np.empty((n, n_t, m))
     for j in range(n_t):
-        if j in js:  # a shared column: one FFT for every series
-            F.append(spectrum.columns((xs[:, js.index(j)] - Qa @ ps[:, js.index(j)])[:, None]))
+        if j in js:  # a shared column: the same for every series
+            Xt[:, j, :] = (xs[:, js.index(j)] - Qa @ ps[:, js.index(j)])[:, None]
         else:
-            np.matmul(Qa, P[:, j, :].T, out=col)
-            np.negative(col, out=col)
-            col[U] += V[:, jc.index(j), :].T
-            F.append(spectrum.columns(col))
-    for i in range(n_t):
-        for j in range(i, n_t):
-            meat[:, i, j] = meat[:, j, i] = np.einsum("km,km->m", spectrum.weights,
-                                                      (F[i] * F[j].conj()).real)
-    del F, col
+            np.matmul(Qa, P[:, j, :].T, out=Xt[:, j, :])
+            np.negative(Xt[:, j, :], out=Xt[:, j, :])
+            Xt[U, j, :] += V[:, jc.index(j), :].T
     Ginv = spd_solve(G, np.broadcast_to(np.eye(n_t), G.shape).copy())
+    lev = np.einsum("tim,mij,tjm->tm", Xt, Ginv, Xt, optimize=True) + np.einsum("nk,nk->n", Qa, Qa)[:, None]
+    errors = prewhitened_errors(resid, lev)
+    meat = ar_covariances(Xt, errors)
+    del Xt
     cov = Ginv @ meat @ Ginv
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
     order = [term.index(c) for c in group.term_cols]
     sources = theta_sources(group.status, group.roles, group.like_map, cols)
     curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
-    return Refined(params, resid, sigma2, se[order], cov[:, order][:, :, order], theta_in, curved, spectrum,
+    return Refined(params, resid, sigma2, se[order], cov[:, order][:, :, order], theta_in, curved, errors,
                    beyond)

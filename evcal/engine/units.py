@@ -123,14 +123,14 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     if refined is not None:
         B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
         cov = refined.cov_terms  # the occurrences' joint draws, as the single-series path's
-        spectrum = refined.spectrum
+        errors = refined.errors
     else:
         B, E, sigma2 = g.solve.solve(Y)
-        spectrum = g.solve.spectrum(E)
+        errors = g.solve.errors(E)
         term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
         if len(term_idx):
             # the variances only (the diagonal), not the full covariance matrices
-            var = g.solve.contrast_variances(spectrum, term_idx, np.eye(len(term_idx)))
+            var = g.solve.contrast_variances(errors, term_idx, np.eye(len(term_idx)))
             se = np.sqrt(np.clip(var, 0, None)).T
         else:
             se = np.zeros((0, len(unit.sids)))
@@ -148,7 +148,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     def season_var(pick: Any) -> Any:
         """The seasonal contrasts' variances of the series ``pick``, from the block's first-pass design
         (the seasonal columns' covariance hardly depends on each series' exact event columns)."""
-        sub = replace(spectrum, weights=spectrum.weights[:, pick], order=spectrum.order[pick])
+        sub = errors.take(pick)
         def variances(names: tuple[str, ...], C: np.ndarray) -> np.ndarray:
             return g.solve.contrast_variances(sub, np.array([col_of[c] for c in names], dtype=int), C)
 
@@ -174,7 +174,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     series = Columns({"_sid": sids, "engine": tiled_text(["batched"], m), "group": np.full(m, g.gid),
                       "transform": tiled_text([g.transform], m), "method": tiled_text(["ols"], m),
                       "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": np.full(m, np.nan),
-                      "error_ar_order": spectrum.order[keep],
+                      "error_ar_order": errors.order[keep],
                       "trend_origin": np.full(m, g.origin), "note": tiled_text(["; ".join(g.notes)], m)})
     params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
     out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
@@ -220,13 +220,13 @@ def _block_model(g: Group, refined: Any, B: np.ndarray, E: np.ndarray, E0: np.nd
         theta = {c: float(refined.theta_in[s][0]) for c, s in sources.items() if s in refined.theta_in}
         theta.update({c: float(np.log1p(a)) for c, a in g.info.assumed.items()})
         solve = SharedSolve.of(X)
-    spectrum = solve.spectrum(E[:, :1])
-    cov = solve.covariances(spectrum)[0]
+    errors = solve.errors(E[:, :1])
+    cov = solve.covariances(errors)[0]
     n, k = solve.X.shape
     ssr = float(E0[:, 0] @ E0[:, 0])
     llf = -0.5 * n * (np.log(2 * np.pi * ssr / n) + 1.0)
     return BlockModel(pd.Series(B[:, 0], index=cols), pd.DataFrame(cov, index=cols, columns=cols),
-                      float(sigma2[0]), float(smear[0]), float(-2 * llf + 2 * k), int(spectrum.order[0]),
+                      float(sigma2[0]), float(smear[0]), float(-2 * llf + 2 * k), int(errors.order[0]),
                       theta, g, tables)
 
 

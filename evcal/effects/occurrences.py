@@ -84,8 +84,9 @@ def _quantiles(sims: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     flat = sims.reshape(-1, N_DRAWS)
     flat.partition(lo_i + 1, axis=-1)  # the lo_i + 1 smallest first: order statistic lo_i is their largest
     lo0, lo1 = flat[:, : lo_i + 1].max(axis=-1), flat[:, lo_i + 1].copy()
-    flat.partition(hi_i, axis=-1)  # order statistic hi_i + 1 is the smallest after it
-    hi0, hi1 = flat[:, hi_i].copy(), flat[:, hi_i + 1 :].min(axis=-1)
+    upper = flat[:, lo_i + 1 :]
+    upper.partition(hi_i - lo_i - 1, axis=-1)  # order statistic hi_i + 1 is the smallest after hi_i
+    hi0, hi1 = upper[:, hi_i - lo_i - 1].copy(), upper[:, hi_i - lo_i :].min(axis=-1)
     shape = sims.shape[:-1]
     return (_lerp(lo0, lo1, _H_LOW - lo_i).reshape(shape), _lerp(hi0, hi1, _H_HIGH - hi_i).reshape(shape))
 
@@ -143,7 +144,13 @@ class _Draws:
         if src not in self.names:
             return b[:, None]
         z = _joint_normals(len(self.names))
-        return b[:, None] + np.einsum("dj,mj->md", z, self.root[sl, self.names[src], :])
+        rows = self.root[sl, self.names[src], :]
+        # b + Σⱼ rootⱼ zⱼ: a few columns, so a plain loop (einsum and a K-deep matmul are slower here)
+        out = rows[:, :1] * z[None, :, 0]
+        for j in range(1, rows.shape[1]):
+            out += rows[:, j, None] * z[None, :, j]
+        out += b[:, None]
+        return out
 
 
 def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.ndarray, level0: np.ndarray,
@@ -175,44 +182,56 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
         return lo, hi
     used = factor_cols + player_cols
     flat = {c: xs[c].reshape(xs[c].shape[0], k * width) for c in used}
-    # the distinct (occurrence, period) positions: equal columns for every series give equal draws
-    _, first, which = np.unique(np.concatenate([flat[c] for c in used]), axis=1, return_index=True,
-                                return_inverse=True)
-    which = which.reshape(k, width)
+
+    def distinct(cols: list[str]) -> tuple[np.ndarray, np.ndarray]:
+        """The distinct (occurrence, period) positions of these columns (equal for every series)."""
+        if not cols:
+            return np.zeros(1, dtype=np.int64), np.zeros((k, width), dtype=np.int64)
+        key = np.concatenate([flat[c] for c in cols]).T.copy()
+        seen: dict[bytes, int] = {}
+        which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in key])
+        return np.unique(which, return_index=True)[1], which.reshape(k, width)
+
+    # the interventions' factor and the events' gain are drawn once per distinct column values
+    f_first, f_which = distinct(factor_cols)
+    g_first, g_which = distinct(player_cols)
     per_series = isinstance(frac, np.ndarray) and frac.ndim == 3
     frac_p = frac[:, pick] if per_series else (frac[pick] if isinstance(frac, np.ndarray) else frac)
     names = list(players)
-    step = max(1, _CHUNK // (N_DRAWS * (2 * len(first) + k + 2)))
+    step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + len(g_first) + k + 2)))
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))
+        ms = sl.stop - s0
         beta = {c: draws.of(c, sl) for c in used}
 
         def log_of(cols: list[str], p: int, sl: slice = sl, beta: dict = beta) -> np.ndarray | float:
             x = {c: flat[c][sl if flat[c].shape[0] > 1 else slice(None), p, None] for c in cols}
             return sum((beta[c] * x[c] for c in cols), 0.0)
 
-        unit: list[tuple[np.ndarray | None, np.ndarray]] = []  # per distinct position: (factor, gain)
-        for p in first:
-            fac = np.exp(log_of(factor_cols, p)) if factor_cols else None
-            if len(names) == 1:  # no other player in these periods: the Shapley value is the whole gain
-                unit.append((fac, np.expm1(log_of(player_cols, p))))
-            else:
+        facs = [np.exp(log_of(factor_cols, p)) for p in f_first] if factor_cols else None
+        if len(names) == 1:  # no other player in these periods: the Shapley value is the whole gain
+            gains = [np.expm1(log_of(player_cols, p)) for p in g_first]
+        else:  # the Shapley value per unit of level0, the factor inside
+            gains, facs = [], None
+            for p in g_first:
                 logs = [log_of(players[q], p) for q in names]
                 shape = np.broadcast_shapes(*(np.shape(v) for v in logs))
-                phi = shapley_exp(1.0 if fac is None else fac,
-                                  np.stack([np.broadcast_to(v, shape) for v in logs]))[names.index(own)]
-                unit.append((None, phi))
-        sims = np.zeros((sl.stop - s0, k, N_DRAWS))
+                fac = np.exp(log_of(factor_cols, p)) if factor_cols else 1.0
+                gains.append(shapley_exp(fac, np.stack([np.broadcast_to(v, shape) for v in logs]))[
+                    names.index(own)])
+        # sims = Σₜ (level0 × frac × mask)ₜ × (factor × gain)ₜ, the product once per distinct pair
+        weight = level0[sl] * (frac_p[sl] if per_series else frac_p) * mask
+        unit: dict[tuple[int, int], np.ndarray] = {}
+        sims = np.empty((ms, k, N_DRAWS))
+        part = np.empty((ms, N_DRAWS))
         for j in range(k):
             for t in range(width):
-                fac, gain = unit[which[j, t]]
-                lv = level0[sl, j, t, None]
-                part = lv * fac if fac is not None else np.broadcast_to(lv, gain.shape)
-                part = part * gain
-                part *= frac_p[sl, j, t, None] if per_series else (
-                    frac_p[j, t] if isinstance(frac_p, np.ndarray) else frac_p)
-                part *= mask[j, t]
-                sims[:, j] += part
+                f, g = int(f_which[j, t]), int(g_which[j, t])
+                if (f, g) not in unit:
+                    unit[f, g] = gains[g] * facs[f] if facs is not None else gains[g]
+                np.multiply(unit[f, g], weight[:, j, t, None], out=sims[:, j] if t == 0 else part)
+                if t:
+                    sims[:, j] += part
         lo[sl], hi[sl] = _quantiles(sims)
     return lo, hi
 

@@ -41,8 +41,8 @@ N_DRAWS = 1000
 OCC_SEED = 7
 _H_LOW = (N_DRAWS - 1) * 0.025
 _H_HIGH = (N_DRAWS - 1) * 0.975
-# elements of one chunk of the joint draws (draws × series × players × periods)
-_CHUNK = 4_000_000
+# elements of one chunk's working set of the joint draws (series × draws × arrays)
+_CHUNK = 1 << 19
 
 
 def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray,
@@ -74,12 +74,21 @@ def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
 
 
 def _quantiles(sims: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """``np.quantile(sims, [0.025, 0.975], axis=0)`` from the four order statistics it uses (same numbers)."""
+    """``np.quantile(sims, [0.025, 0.975], axis=-1)`` for draws on the last axis (same numbers).
+
+    ``sims`` (..., N_DRAWS) is partitioned in place. The four order statistics numpy interpolates
+    come from two single-index partitions: numpy selects one index with a vectorised routine, while
+    several indices at once take a scalar path about ten times slower.
+    """
     lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
-    flat = np.ascontiguousarray(sims.reshape(N_DRAWS, -1).T)
-    flat.partition([lo_i, lo_i + 1, hi_i, hi_i + 1], axis=-1)
-    at = flat[:, [lo_i, lo_i + 1, hi_i, hi_i + 1]].T.reshape(4, *sims.shape[1:])
-    return _lerp(at[0], at[1], _H_LOW - lo_i), _lerp(at[2], at[3], _H_HIGH - hi_i)
+    flat = sims.reshape(-1, N_DRAWS)
+    flat.partition(lo_i + 1, axis=-1)  # the lo_i + 1 smallest first: order statistic lo_i is their largest
+    lo0, lo1 = flat[:, : lo_i + 1].max(axis=-1), flat[:, lo_i + 1].copy()
+    upper = flat[:, lo_i + 1 :]
+    upper.partition(hi_i - lo_i - 1, axis=-1)  # order statistic hi_i + 1 is the smallest after hi_i
+    hi0, hi1 = upper[:, hi_i - lo_i - 1].copy(), upper[:, hi_i - lo_i :].min(axis=-1)
+    shape = sims.shape[:-1]
+    return (_lerp(lo0, lo1, _H_LOW - lo_i).reshape(shape), _lerp(hi0, hi1, _H_HIGH - hi_i).reshape(shape))
 
 
 def _window_share(x_sum: np.ndarray, days: np.ndarray, own: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -123,7 +132,7 @@ class _Draws:
         self.root = root  # (m, K, K)
 
     def of(self, col: str, sl: slice) -> np.ndarray:
-        """Draws of the coefficient behind a term column for series ``sl``: (N_DRAWS, m) or (1, m)."""
+        """The coefficient draws behind a term column for series ``sl``, draws last: (m, D) or (m, 1)."""
         group = self.group
         if getattr(group.status.get(col), "status", "") == "assumed":
             a = group.assumed[col]
@@ -133,23 +142,15 @@ class _Draws:
             return np.zeros((1, 1))
         b = self.pmap[src][sl]
         if src not in self.names:
-            return b[None, :]
+            return b[:, None]
         z = _joint_normals(len(self.names))
-        return b[None, :] + np.einsum("dj,mj->dm", z, self.root[sl, self.names[src], :])
-
-
-def _player_logs(ctx: SpanContext, group: GroupInfo, draws: _Draws, curved: dict[str, np.ndarray],
-                 cols: list[str], cols_in: list[str], idx: np.ndarray, sl: slice) -> dict[str, np.ndarray]:
-    """Each player's drawn log-scale effect on the periods ``idx`` for series ``sl``: (D, m, k, L)."""
-    out: dict[str, np.ndarray] = {}
-    for c in cols:
-        if c not in cols_in:
-            continue
-        x = curved[c][sl][:, idx] if c in curved else ctx.columns[c][idx][None]
-        val = draws.of(c, sl)[:, :, None, None] * x[None]
-        p = player_of(group, c)
-        out[p] = out[p] + val if p in out else val
-    return out
+        rows = self.root[sl, self.names[src], :]
+        # b + Σⱼ rootⱼ zⱼ: a few columns, so a plain loop (einsum and a K-deep matmul are slower here)
+        out = rows[:, :1] * z[None, :, 0]
+        for j in range(1, rows.shape[1]):
+            out += rows[:, j, None] * z[None, :, j]
+        out += b[:, None]
+        return out
 
 
 def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.ndarray, level0: np.ndarray,
@@ -158,41 +159,79 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     """2.5 % and 97.5 % quantiles of the occurrences ``pick`` of ``og`` over joint coefficient draws.
 
     ``level0`` is base × open share on the group's periods (m, k, L). Returns two (m, len(pick)).
+    Each draw of a period's part is ``level0 × frac × g`` where ``g`` (the drawn
+    factor of the interventions in force times the event's gain, or its Shapley
+    value) depends on the period only through its columns' values: ``g`` is drawn
+    once per distinct set of values (the periods of a weekly event's occurrences
+    repeat a few), series by series in chunks with a small working set, draws last.
     """
     idx, mask, level0 = og.idx[pick], og.mask[pick], level0[:, pick]
+    m, k, width = level0.shape
+    lo, hi = np.zeros((m, k)), np.zeros((m, k))
     own = player_of(group, og.cols[0])
-    steps = ([c for c in terms if c in group.intervention_names],
-             [c for c in terms if c not in group.intervention_names])
-    cols_in = [c for c in terms if np.any((curved[c][:, idx] if c in curved else ctx.columns[c][idx]) != 0)]
-    m = level0.shape[0]
-    # the occurrence's share of each period: per series (m, k, L) where its column is curved
+    xs = {c: curved[c][:, idx] if c in curved else ctx.columns[c][idx][None] for c in terms}
+    cols_in = [c for c in terms if np.any(xs[c] != 0)]
+    ints = [c for c in cols_in if c in group.intervention_names]
+    # an intervention's part is shared among the interventions; an event's acts on the level they set
+    factor_cols, player_cols = ([], ints) if og.kind == "intervention" else (ints, [c for c in cols_in
+                                                                                  if c not in ints])
+    players: dict[str, list[str]] = {}
+    for c in player_cols:
+        players.setdefault(player_of(group, c), []).append(c)
+    if own not in players:
+        return lo, hi
+    used = factor_cols + player_cols
+    flat = {c: xs[c].reshape(xs[c].shape[0], k * width) for c in used}
+
+    def distinct(cols: list[str]) -> tuple[np.ndarray, np.ndarray]:
+        """The distinct (occurrence, period) positions of these columns (equal for every series)."""
+        if not cols:
+            return np.zeros(1, dtype=np.int64), np.zeros((k, width), dtype=np.int64)
+        key = np.concatenate([flat[c] for c in cols]).T.copy()
+        seen: dict[bytes, int] = {}
+        which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in key])
+        return np.unique(which, return_index=True)[1], which.reshape(k, width)
+
+    # the interventions' factor and the events' gain are drawn once per distinct column values
+    f_first, f_which = distinct(factor_cols)
+    g_first, g_which = distinct(player_cols)
     per_series = isinstance(frac, np.ndarray) and frac.ndim == 3
     frac_p = frac[:, pick] if per_series else (frac[pick] if isinstance(frac, np.ndarray) else frac)
-    lo, hi = np.empty((m, len(pick))), np.empty((m, len(pick)))
-    width = max(len(cols_in), 1) * N_DRAWS * idx.size
-    step = max(1, _CHUNK // width)
+    names = list(players)
+    step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + len(g_first) + k + 2)))
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))
+        ms = sl.stop - s0
+        beta = {c: draws.of(c, sl) for c in used}
 
-        level = np.broadcast_to(level0[sl][None], (N_DRAWS, *level0[sl].shape))
-        ints = _player_logs(ctx, group, draws, curved, steps[0], cols_in, idx, sl)
-        if og.kind == "intervention":
-            players = ints
-        else:
-            if ints:
-                level = level * np.exp(sum(ints.values()))
-            players = _player_logs(ctx, group, draws, curved, steps[1], cols_in, idx, sl)
-        names = list(players)
-        if own not in players:
-            lo[sl], hi[sl] = 0.0, 0.0
-            continue
+        def log_of(cols: list[str], p: int, sl: slice = sl, beta: dict = beta) -> np.ndarray | float:
+            x = {c: flat[c][sl if flat[c].shape[0] > 1 else slice(None), p, None] for c in cols}
+            return sum((beta[c] * x[c] for c in cols), 0.0)
+
+        facs = [np.exp(log_of(factor_cols, p)) for p in f_first] if factor_cols else None
         if len(names) == 1:  # no other player in these periods: the Shapley value is the whole gain
-            part = level * np.expm1(players[own])
-        else:
-            shape = np.broadcast_shapes(level.shape, *(v.shape for v in players.values()))
-            logs = np.stack([np.broadcast_to(players[p], shape) for p in names])
-            part = shapley_exp(level, logs)[names.index(own)]
-        sims = (part * (frac_p[sl] if per_series else frac_p) * mask).sum(axis=-1)  # (D, m_chunk, k')
+            gains = [np.expm1(log_of(player_cols, p)) for p in g_first]
+        else:  # the Shapley value per unit of level0, the factor inside
+            gains, facs = [], None
+            for p in g_first:
+                logs = [log_of(players[q], p) for q in names]
+                shape = np.broadcast_shapes(*(np.shape(v) for v in logs))
+                fac = np.exp(log_of(factor_cols, p)) if factor_cols else 1.0
+                gains.append(shapley_exp(fac, np.stack([np.broadcast_to(v, shape) for v in logs]))[
+                    names.index(own)])
+        # sims = Σₜ (level0 × frac × mask)ₜ × (factor × gain)ₜ, the product once per distinct pair
+        weight = level0[sl] * (frac_p[sl] if per_series else frac_p) * mask
+        unit: dict[tuple[int, int], np.ndarray] = {}
+        sims = np.empty((ms, k, N_DRAWS))
+        part = np.empty((ms, N_DRAWS))
+        for j in range(k):
+            for t in range(width):
+                f, g = int(f_which[j, t]), int(g_which[j, t])
+                if (f, g) not in unit:
+                    unit[f, g] = gains[g] * facs[f] if facs is not None else gains[g]
+                np.multiply(unit[f, g], weight[:, j, t, None], out=sims[:, j] if t == 0 else part)
+                if t:
+                    sims[:, j] += part
         lo[sl], hi[sl] = _quantiles(sims)
     return lo, hi
 

@@ -58,7 +58,7 @@ def _inputs(transform: str = "auto"):
 def test_ols_equals_statsmodels_on_same_design():
     # Reference library: statsmodels OLS on the same matrix (coefficients, likelihood, AIC). The
     # covariance (an AR model of the residuals) is checked against statsmodels' Yule-Walker and
-    # arma_acovf in tests/test_hac_coverage.py.
+    # arma_acovf in tests/test_interval_coverage.py.
     _, _, inp = _inputs()
     X = inp.design.X[inp.fitted_cols]
     y = model_scale_response(inp)

@@ -94,7 +94,7 @@ def cal():
 def test_batched_ols_and_covariance_equal_single_fits(k):
     # Reference library: statsmodels OLS(...).fit() series by series for the coefficients; the
     # covariance equals the single-series estimator's (fit_ols: an AR model of the residuals,
-    # itself checked against statsmodels in tests/test_hac_coverage.py).
+    # itself checked against statsmodels in tests/test_interval_coverage.py).
     rng = np.random.default_rng(11)
     n, m = 150, 7
     X = np.column_stack([np.ones(n), rng.standard_normal((n, k - 1))])

@@ -161,7 +161,7 @@ SLOW_BAND = {"ols": (93.0, 97.0), "default": (90.5, 99.5)}
 @pytest.mark.parametrize("phi", [0.0, 0.3, 0.6, 0.8])
 @pytest.mark.parametrize("option", ["ols", "default"])
 def test_coverage_93_to_97(phi, option):
-    # Invented known truth (benchmarks/coverage.py; the measured table is in docs/fit-hac.md).
+    # Invented known truth (benchmarks/coverage.py; the measured table is in docs/intervals.md).
     # Coverage of a correct interval scatters by one binomial standard error around 95 %, so the band
     # is set by the replications (SLOW_BAND); the default fits each replication alone.
     c = cov_bench.coverage(cov_bench.Case("W", phi), option, SLOW_REPS[option])

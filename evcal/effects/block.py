@@ -54,7 +54,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     ----------
     params : ndarray, shape (len(group.fitted_cols), m)
     se : ndarray, shape (len(group.term_cols), m)
-        HAC standard errors of the event and intervention coefficients.
+        Standard errors of the event and intervention coefficients (the fit's covariance).
     smear : ndarray, shape (m,)
     actual : ndarray, shape (m, len(ctx.periods))
     sids : ndarray of int, shape (m,)
@@ -114,7 +114,7 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
     """The lifts table for m series: one row per series and column.
 
     A lift's 95 % interval is the coefficient's (beta ± 1.96 se, from the fit's
-    covariance: HAC for OLS) through the monotone 100 (exp(b) - 1); in the
+    covariance: AR-prewhitened HC2 for OLS) through the monotone 100 (exp(b) - 1); in the
     additive model, divided by the mean base of the event's periods.
     ``identifiable`` is ``yes``, ``weak`` or ``no`` (:attr:`ColumnStatus.identifiable`); a
     borrowed lift is as weak as the lift it borrows.

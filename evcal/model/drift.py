@@ -28,7 +28,7 @@ def stationarity_tests(eta: pd.Series, n_periods: int, freq: str) -> tuple[float
     a straight trend through a drifting level biases level shifts, so doubt goes
     to differencing. One test alone flips with a year of data on the seat-belt
     series (ADF p = 0.067 on 1969-1984, 0.000 without 1969, 0.001 without
-    1983-1984); the pair does not (docs/fit.md).
+    1983-1984); the pair does not (docs/trend-and-level.md).
 
     Gaps are closed up (the tests need consecutive values; a few gaps barely
     move them). Histories of fewer than four seasonal cycles are not tested (the

@@ -180,9 +180,9 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
     the weights let a period whose errors are larger count for more (an
     erratic holiday gets a wide interval, a steady one a narrow interval).
     Measured by simulation (benchmarks/coverage.py) and on modeldata::Chicago:
-    docs/fit.md. Event columns are nonzero on a few rows only, so a kernel
+    docs/intervals.md. Event columns are nonzero on a few rows only, so a kernel
     (Newey–West) estimator, which sees the autocorrelation only on those rows,
-    with their leverage, under-covered (82-88 %).
+    with their leverage, under-covered (86.7-90.2 % at AR(1) φ up to 0.6, 1,000 replications).
 
     Examples
     --------

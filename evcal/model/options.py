@@ -25,7 +25,7 @@ class FitOptions:
         ``none``: additive; ``count``: Poisson / negative-binomial GLM with a
         log link, for series with zeros. ``auto`` picks ``log`` or ``count``.
     errors : {"auto", "ols", "arima"}
-        ``ols``: least squares with HAC (Newey–West) intervals; ``arima``:
+        ``ols``: least squares with intervals robust to autocorrelation and heteroskedasticity; ``arima``:
         regression with ARIMA errors (statsmodels SARIMAX); ``auto`` compares
         a few candidates and reports its choice.
     arima_order : tuple of int, optional

@@ -19,7 +19,7 @@ from evcal.model.identify import MAX_LOG_LIFT, ColumnStatus, degenerate_note, de
 from evcal.model.inputs import ModelInputs, additive_design, model_scale_response, prepare
 from evcal.model.options import FitOptions
 
-LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS+HAC for speed
+LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS (robust intervals) for speed
 #: passes of the exact-aggregation refit stop when no log-lift moves more than this
 #: (1e-4 on the log scale is a hundredth of a percentage point: far inside any interval)
 THETA_TOL = 1e-4
@@ -94,7 +94,7 @@ def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str,
 
 
 def ols_by_rule(options: FitOptions, n_series: int, n_periods: int) -> bool:
-    """Whether the error model is OLS + HAC with no choice among error models (then solved in blocks).
+    """Whether the error model is OLS (robust intervals) with no choice of error model (then solved in blocks).
 
     ``--errors ols`` asks for it. ``--errors auto`` chooses by AIC among OLS and
     ARIMA(1,0,0)/(1,0,1) errors, except for a panel (a state-space fit per series)
@@ -105,12 +105,12 @@ def ols_by_rule(options: FitOptions, n_series: int, n_periods: int) -> bool:
 
 
 def ols_choice(aic: float, cov_note: str, options: FitOptions, n_periods: int) -> dict[str, Any]:
-    """Why OLS with HAC intervals was the error model: asked for, or ``auto`` on a long series."""
+    """Why OLS with robust intervals was the error model: asked for, or ``auto`` on a long series."""
     if options.errors == "ols":
         reason = "asked for (--errors ols); " + cov_note
     else:
-        reason = (f"long series ({n_periods} periods): OLS with HAC intervals, which stay valid "
-                  "under autocorrelated errors and keep the fit fast")
+        reason = (f"long series ({n_periods} periods): OLS, whose intervals stay valid under "
+                  f"autocorrelated errors and keep the fit fast; {cov_note}")
     return {"chosen": "ols", "reason": reason,
             "candidates": [{"name": "ols", "criterion": "aic", "value": aic}]}
 

@@ -2,7 +2,7 @@
 
 ``evcal fit history.parquet --series-col product,store --calendar cal.yaml --out m``
 fits every series of a long file. Series that share a design are solved
-together (one QR factorisation, every series a right-hand side, HAC standard
+together (one QR factorisation, every series a right-hand side, robust standard
 errors for all at once: :mod:`evcal.engine.batched`); ARIMA errors and count
 models run the single-series fit per series. Each event's lift is also
 partially pooled across the series of a group (:mod:`evcal.panel.pooling`),
@@ -61,7 +61,7 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
         to ``fitted.parquet`` instead of being kept in memory).
     **options
         :class:`evcal.model.FitOptions` fields. ``errors="auto"`` means OLS with
-        HAC intervals for a panel (the batched solver); ``errors="arima"``
+        robust intervals for a panel (the batched solver); ``errors="arima"``
         fits regression with ARIMA errors series by series.
 
     Returns

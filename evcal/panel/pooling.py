@@ -2,7 +2,7 @@
 
 For one event and one group of series (a product family, say) each series
 ``i`` has an estimated log-lift ``bᵢ`` (the model-scale coefficient) with
-standard error ``sᵢ`` (HAC for OLS). The lifts are treated as draws around a
+standard error ``sᵢ`` (AR-prewhitened HC2 for OLS). The lifts are treated as draws around a
 group mean ``μ`` with between-series variance ``τ²``:
 
 * ``τ²`` by the method of moments of DerSimonian & Laird (1986, "Meta-analysis

@@ -53,7 +53,7 @@ def describe_panel(result: Any) -> str:
     lines = [
         f"panel   : {s.get('calendar_name', '')} | {counts.get('series', len(series))} series "
         f"(keys: {keys}{level}) | {freq} {s['periods']['start']} .. {s['periods']['end']} from {s['source']}",
-        f"fitted  : {counts.get('fitted', 0)} series: {counts.get('batched', 0)} by the batched OLS+HAC "
+        f"fitted  : {counts.get('fitted', 0)} series: {counts.get('batched', 0)} by the batched OLS "
         f"solver in {len(s.get('groups', []))} design group(s), {counts.get('per_series', 0)} one by one",
     ]
     # settings the data chose once for the panel (evcal.engine.panel_choice.panel_settings)

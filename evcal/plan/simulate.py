@@ -8,7 +8,7 @@ is added to the base, its variance goes into the interval. With iid errors
 the mean is zero and the variance the residual variance of the fit.
 
 Each draw takes a coefficient vector from the normal distribution of the
-estimates, N(params, cov) (the fit's covariance: HAC for OLS, GLS for ARIMA
+estimates, N(params, cov) (the fit's covariance: AR-prewhitened HC2 for OLS, GLS for ARIMA
 errors, the GLM's for count models), rebuilds base and event lifts with it,
 and adds one period's noise:
 

@@ -94,7 +94,7 @@ def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str,
 
 
 def ols_by_rule(options: FitOptions, n_series: int, n_periods: int) -> bool:
-    """Whether the error model is OLS (robust intervals) with no choice of error model (then solved in blocks).
+    """Whether the error model is OLS (robust intervals), with no choice of error model (solved in blocks).
 
     ``--errors ols`` asks for it. ``--errors auto`` chooses by AIC among OLS and
     ARIMA(1,0,0)/(1,0,1) errors, except for a panel (a state-space fit per series)

@@ -656,3 +656,22 @@ def test_cli_report_on_a_damaged_panel_folder_is_one_line(tmp_path: Path) -> Non
     lines = [ln for ln in res.output.splitlines() if ln.strip()]
     assert len(lines) == 1 and "panel folder is missing series.csv" in lines[0], res.output
     assert not (tmp_path / "r.html").exists()
+
+
+def test_headline_event_is_the_biggest_move_up_or_down() -> None:
+    # When every event is a dip (a transit line's holidays), the event that "adds the most" was the
+    # smallest dip: Independence Day at about -0 units on weekly modeldata::Chicago. The headline names
+    # the biggest move in size and says which way it goes (invented lifts table).
+    from types import SimpleNamespace
+
+    from evcal.report.headlines import biggest_event, moves_the_most
+
+    lifts = pd.DataFrame({
+        "event": ["a", "b", "c", "d"], "kind": "event", "identifiable": ["yes", "yes", "yes", "weak"],
+        "lift_pct": [-1.5, -84.2, -32.3, -92.9], "units_per_occurrence": [-0.2, -13.0, -5.0, -35.0],
+    })
+    top = biggest_event(SimpleNamespace(lifts=lifts), skip=set())
+    assert top["event"] == "b" and moves_the_most(top) == "takes the most away"  # the weak d is no headline
+    lifts.loc[2, ["lift_pct", "units_per_occurrence"]] = [40.0, 20.0]
+    top = biggest_event(SimpleNamespace(lifts=lifts), skip=set())
+    assert top["event"] == "c" and moves_the_most(top) == "adds the most"

@@ -1,6 +1,6 @@
 """Three lines a planner would quote, from the model folder and the plan alone.
 
-1. the event that adds the most units each time it happens, with its lift and interval;
+1. the event that moves the most units each time it happens (up or down), with its lift and interval;
 2. where the plan's peak lands, with its low and high;
 3. how far the plan differs from the plain average-share profile spread to the
    same total (each position's mean share of its year over the history's full
@@ -42,7 +42,11 @@ def departure(plan: pd.DataFrame, avg: np.ndarray) -> tuple[np.ndarray, float, i
 
 
 def biggest_event(folder: ModelFolder, skip: set[str]) -> pd.Series | None:
-    """The estimated event (not in ``skip``: closures, assumed) that adds the most units per occurrence."""
+    """The estimated event (not in ``skip``: closures, assumed) that moves the most units per occurrence.
+
+    The largest in size, up or down: when every event is a dip, the one that adds the most would be the
+    smallest dip (about 0 units), no headline.
+    """
     lifts = folder.lifts
     rows = lifts[
         (lifts["kind"] == "event")
@@ -51,7 +55,12 @@ def biggest_event(folder: ModelFolder, skip: set[str]) -> pd.Series | None:
         & lifts["units_per_occurrence"].notna()
         & ~lifts["event"].isin(skip)
     ]
-    return None if rows.empty else rows.loc[rows["units_per_occurrence"].idxmax()]
+    return None if rows.empty else rows.loc[rows["units_per_occurrence"].abs().idxmax()]
+
+
+def moves_the_most(top: pd.Series) -> str:
+    """How the headline says the biggest event's sign: it adds, or it takes away."""
+    return "adds the most" if top["units_per_occurrence"] >= 0 else "takes the most away"
 
 
 def headlines(folder: ModelFolder) -> list[str]:
@@ -60,7 +69,7 @@ def headlines(folder: ModelFolder) -> list[str]:
     top = biggest_event(folder, folder.closures() | set(folder.assumed()))
     if top is not None:
         lines.append(
-            f"{top['label']} adds the most: about {num(top['units_per_occurrence'])} units each "
+            f"{top['label']} {moves_the_most(top)}: about {num(top['units_per_occurrence'])} units each "
             f"time, {pct(top['lift_pct'])} over base (95 % interval {pct(top['low_pct'])} to "
             f"{pct(top['high_pct'])})."
         )

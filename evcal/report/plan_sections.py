@@ -6,7 +6,7 @@ Plain data for the templates ``glance.html``, ``plan.html`` and
 Examples
 --------
 >>> [card["k"] for card in glance(ctx)]                         # doctest: +SKIP
-['Adds the most', 'Plan total', 'Peak period', 'Against average share', 'Model']
+['Takes the most away', 'Plan total', 'Peak period', 'Against average share', 'Model']
 """
 
 from __future__ import annotations
@@ -21,7 +21,7 @@ from evcal.report import charts
 from evcal.report.calendar_view import calendar_data, weights_from_plan
 from evcal.report.context import ReportContext, view_span
 from evcal.report.formatting import num, pct, period_days, period_label
-from evcal.report.headlines import average_share_spread, biggest_event, departure
+from evcal.report.headlines import average_share_spread, biggest_event, departure, moves_the_most
 from evcal.report.model_folder import lift_columns
 from evcal.report.model_sections import table
 
@@ -32,7 +32,7 @@ def glance(ctx: ReportContext) -> list[dict[str, str]]:
     top = biggest_event(ctx.folder, skip=ctx.closures | set(ctx.assumed))
     if top is not None:
         cards.append({
-            "k": "Adds the most",
+            "k": moves_the_most(top).capitalize(),
             "v": f"{top['label']}",
             "d": f"about {num(top['units_per_occurrence'])} units each time, "
             f"{pct(top['lift_pct'])} over base ({pct(top['low_pct'])} to {pct(top['high_pct'])})",

@@ -268,9 +268,10 @@ def _with_effects(x: pd.DataFrame | None, effects: list[Outlier], n: int) -> np.
 def _search(hist: Any, cal: Any, result: Any, cval: float | None) -> tuple[OutlierSearch | None, Any, Any]:
     """Chen–Liu on the model scale with the fit's own regressors; also the regressors (None for
     counts) and the model-scale series searched."""
+    from evcal.model.choose import chosen_settings
     from evcal.model.inputs import model_scale_response, prepare
 
-    inp = prepare(hist, cal, result.options)
+    inp = prepare(hist, cal, result.options, chosen=chosen_settings(hist, cal, result.options))
     x = inp.design.X[[c for c in inp.fitted_cols if c in result.params.index]]
     if result.transform == "count":
         # residuals on the log scale where sales are positive

@@ -14,6 +14,7 @@ from typing import Any
 
 from evcal.engine.run import PanelFit, fit_long_panel
 from evcal.engine.series import block_result
+from evcal.model.choose import chosen_settings
 from evcal.model.fit_rows import check_fit_rows, check_history_length
 from evcal.model.inputs import load_calendar_any, prepare
 from evcal.model.options import FitOptions
@@ -55,7 +56,7 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         history, date_col=date_col, value_col=value_col, freq=freq, allow_negative=opts.allow_negative)
     cal = load_calendar_any(calendar)
     check_history_length(hist)
-    inp = prepare(hist, cal, opts)
+    inp = prepare(hist, cal, opts, chosen=chosen_settings(hist, cal, opts))
     cal = inp.spec.calendar(cal)  # with the run-ups the data chose for `before: auto` events
     short = check_fit_rows(inp, cal, hist)  # the warning line when exclusions leave under two full cycles
     block = fit_long_panel(Panel.of_history(hist), cal, opts, single=inp)

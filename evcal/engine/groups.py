@@ -22,6 +22,7 @@ from evcal.effects import GroupInfo
 from evcal.engine.batched import SharedSolve
 from evcal.io.history import History
 from evcal.io.panel import Panel
+from evcal.model.choose import chosen_settings
 from evcal.model.identify import check_columns, independent_base_columns, status_notes
 from evcal.model.inputs import additive_design, calendar_terms, prepare
 from evcal.model.options import FitOptions
@@ -54,7 +55,9 @@ class Template:
             placeholder = History(pd.Series(1.0, index=panel.periods, name="value"), panel.freq, panel.label,
                                   panel.source, [])
             # each design group is checked on its own rows (group_info): not the placeholder's
-            inp = prepare(placeholder, calendar, replace(options, transform=transform), identify=False)
+            opts = replace(options, transform=transform)
+            inp = prepare(placeholder, calendar, opts, identify=False,
+                          chosen=chosen_settings(placeholder, calendar, opts))
         return cls(transform, inp, calendar, panel.periods, identified=inputs is not None)
 
     def curve(self) -> Any:

@@ -14,9 +14,10 @@ import pandas as pd
 from evcal.calendar.event_builder import AUTO_RUN_UP
 from evcal.design.matrix import with_windows
 from evcal.errors import CalendarError, HistoryError
-from evcal.model.choose import Chosen, auto_events, given, open_settings
-from evcal.model.inputs import chosen_settings, seasonal_kind
+from evcal.model.choose import chosen_settings
+from evcal.model.inputs import seasonal_kind
 from evcal.model.options import FitOptions
+from evcal.model.settings import Chosen, auto_events, given, open_settings
 
 
 def panel_settings(options: FitOptions, calendar: Any, panel: Any = None) -> tuple[FitOptions, Any, Chosen]:

@@ -28,8 +28,10 @@ fit rows.
 
 from __future__ import annotations
 
+import hashlib
 import warnings
-from dataclasses import dataclass, field
+from collections import OrderedDict
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -37,8 +39,10 @@ import pandas as pd
 
 from evcal.design.events import EventColumns
 from evcal.design.matrix import with_windows
-from evcal.design.seasonal import base_freq, cycle_length
-from evcal.model.options import AUTO, FitOptions
+from evcal.design.seasonal import cycle_length
+from evcal.model.inputs import additive_design, model_scale_response, prepare, seasonal_kind
+from evcal.model.options import FitOptions
+from evcal.model.settings import STAND_IN_FOURIER, Chosen, auto_events, given, open_settings
 
 __all__ = [
     "Chosen",
@@ -62,37 +66,8 @@ FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25)
 SHORTEST_WAVE_DAYS = 14
 #: candidate run-ups (days before) of an Easter-relative event with ``before: auto``
 RUN_UPS = (1, 8, 10, 15)
-#: the Fourier order while the other settings are chosen, and when nothing is chosen (the old default)
-STAND_IN_FOURIER = 10
 #: largest AR(1) coefficient the common error model takes (keeps the GLS transform well away from a unit root)
 MAX_PHI = 0.95
-
-
-@dataclass(frozen=True)
-class Chosen:
-    """The concrete settings of a design, and the record of how the open ones were chosen."""
-
-    fourier_order: int
-    trading_days: bool
-    leap_year: bool
-    event_windows: dict[str, int] = field(default_factory=dict)
-    choices: list[dict[str, Any]] = field(default_factory=list)
-
-
-def auto_events(calendar: Any) -> list[str]:
-    """Names of the calendar's events whose run-up the fit chooses (``before: auto``)."""
-    return [ev.name for ev in calendar.events if getattr(ev, "before_auto", False)]
-
-
-def open_settings(options: FitOptions, freq: str, seasonal: str) -> list[str]:
-    """The options left open that apply to this frequency (trading days and leap year: monthly, quarterly)."""
-    b = base_freq(freq)
-    out = []
-    if b in ("M", "Q"):
-        out += [s for s in ("trading_days", "leap_year") if getattr(options, s) == AUTO]
-    if options.fourier_order == AUTO and (b == "D" or seasonal == "fourier"):
-        out.append("fourier_order")
-    return out
 
 
 def fourier_candidates(freq: str, n_periods: int) -> tuple[int, ...]:
@@ -113,19 +88,6 @@ def fourier_candidates(freq: str, n_periods: int) -> tuple[int, ...]:
     season = 365.25 / SHORTEST_WAVE_DAYS
     fit = [k for k in FOURIER_ORDERS if k <= min(half_year, season) and 2 * k <= n_periods // 5]
     return tuple(fit) if len(fit) >= 2 else FOURIER_ORDERS[:2]
-
-
-def given(options: FitOptions) -> Chosen:
-    """The settings as given, with stand-ins for the open ones (10 Fourier pairs; no trading days, leap year).
-
-    Used where nothing is chosen: a setting that does not apply to the
-    frequency, or a design built before the data are known.
-    """
-    return Chosen(
-        fourier_order=STAND_IN_FOURIER if options.fourier_order == AUTO else int(options.fourier_order),
-        trading_days=options.trading_days is True,
-        leap_year=options.leap_year is True,
-    )
 
 
 def aicc(loglik: float, k: int, n: int) -> float:
@@ -161,7 +123,6 @@ def choose(
     Chosen
         Concrete settings, with one record per choice made in ``choices``.
     """
-    from evcal.model.inputs import prepare  # (inputs calls this module when it prepares)
 
     start = given(options)
     settings = open_settings(options, history.freq, seasonal)
@@ -320,7 +281,6 @@ class _Likelihood:
 
     @classmethod
     def of(cls, inp: Any) -> _Likelihood:
-        from evcal.model.inputs import model_scale_response
 
         rows = inp.rows.copy()
         y_all = model_scale_response(inp).to_numpy(dtype=float)
@@ -344,7 +304,6 @@ class _Likelihood:
 
     def _matrix(self, frame: pd.DataFrame, cols: list[str]) -> np.ndarray:
         if self.additive is not None:
-            from evcal.model.inputs import additive_design
 
             frame = additive_design(frame[cols], self.additive)
         return frame.loc[self.rows, cols].to_numpy(dtype=float)
@@ -374,3 +333,34 @@ class _Likelihood:
             f"same response and {len(self.keep)} consecutive fit periods, Gaussian errors with AR(1) "
             f"coefficient {self.phi:.2f} fixed from the fullest candidate's residuals"
         )
+
+
+#: the last few choices made, by the content they were made on (a fit prepares its inputs once per
+#: pass, and a per-series unit reloads the calendar: the choice is made once)
+_CHOSEN: OrderedDict[tuple[Any, ...], Chosen] = OrderedDict()
+_CHOSEN_KEEP = 8
+
+
+def chosen_settings(history: Any, calendar: Any, options: FitOptions, values: pd.Series | None = None
+                    ) -> Chosen:
+    """The settings the data choose for ``history`` (:func:`choose`), once per content.
+
+    ``values`` (a panel's total) are chosen on instead of the history's own.
+    """
+    data = history.values if values is None else values
+    # (the error model does not enter: every candidate is scored on the same likelihood of its own)
+    content = (replace(options, errors="auto", arima_order=None), history.freq, str(data.index[0]), len(data),
+               hashlib.sha1(np.ascontiguousarray(data.to_numpy(dtype=float))).hexdigest())
+
+    def key(cal: Any) -> tuple[Any, ...]:
+        return (*content, cal.text or id(cal), tuple((e.name, e.before, e.before_auto) for e in cal.events))
+
+    found = _CHOSEN.get(key(calendar))
+    if found is None:
+        found = choose(history, calendar, options, seasonal_kind(options, history.freq), values)
+        # the calendar with the chosen run-ups (what the fit goes on with) has made the same choice
+        for cal in (calendar, with_windows(calendar, found.event_windows)):
+            _CHOSEN[key(cal)] = found
+        while len(_CHOSEN) > _CHOSEN_KEEP:
+            _CHOSEN.popitem(last=False)
+    return found

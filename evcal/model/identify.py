@@ -23,6 +23,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.design.base import period_days
+from evcal.model.strength import grade
+
 REL_TOL = 1e-6
 #: a log-lift no real event reaches: more than x100, or less than 1/100, of base on every day
 #: of its window (+9,900 % / -99 %). Past it a fitted lift is a breakdown of the fit, not a
@@ -125,8 +128,6 @@ def check_columns(
     # Event columns are day counts divided by the period's length, so a February event
     # (always one day in February) still varies with leap years (1/28 vs 1/29) and would
     # pass the test above with a meaningless estimate. Test the day counts as well.
-    from evcal.design.base import period_days
-
     days = period_days(X.index[rows]) if isinstance(X.index, pd.PeriodIndex) else np.ones(len(Xc))
     counts = Xc * days[:, None]
     c_norms = np.linalg.norm(counts, axis=0)
@@ -186,8 +187,6 @@ def check_columns(
         kept.append(j)
         out.setdefault(c, ColumnStatus("fitted"))
     if calendar is not None:
-        from evcal.model.strength import grade
-
         fitted = base_cols + [c for c in candidate_cols if out[c].status == "fitted" and c not in leave_out]
         out = grade(X if graded_on is None else graded_on, rows, fitted, out, kind_of, calendar)
     return out

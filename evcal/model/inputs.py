@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import hashlib
-from collections import OrderedDict
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -17,10 +15,10 @@ from evcal.design.matrix import Design, DesignSpec, build_design
 from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.design.weekdays import weights_record
 from evcal.errors import HistoryError
-from evcal.model.choose import Chosen, given
 from evcal.model.fit_rows import excluded_periods
 from evcal.model.identify import ColumnStatus, check_columns, independent_base_columns
 from evcal.model.options import FitOptions
+from evcal.model.settings import Chosen, given
 
 
 @dataclass
@@ -141,40 +139,6 @@ def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, fre
     )
 
 
-#: the last few choices made, by the content they were made on (a fit prepares its inputs once per
-#: pass, and a per-series unit reloads the calendar: the choice is made once)
-_CHOSEN: OrderedDict[tuple[Any, ...], Chosen] = OrderedDict()
-_CHOSEN_KEEP = 8
-
-
-def chosen_settings(history: Any, calendar: Any, options: FitOptions, values: pd.Series | None = None
-                    ) -> Chosen:
-    """The settings the data choose for ``history`` (:func:`evcal.model.choose.choose`), once per content.
-
-    ``values`` (a panel's total) are chosen on instead of the history's own.
-    """
-    from evcal.design.matrix import with_windows
-    from evcal.model.choose import choose
-
-    data = history.values if values is None else values
-    # (the error model does not enter: every candidate is scored on the same likelihood of its own)
-    content = (replace(options, errors="auto", arima_order=None), history.freq, str(data.index[0]), len(data),
-               hashlib.sha1(np.ascontiguousarray(data.to_numpy(dtype=float))).hexdigest())
-
-    def key(cal: Any) -> tuple[Any, ...]:
-        return (*content, cal.text or id(cal), tuple((e.name, e.before, e.before_auto) for e in cal.events))
-
-    found = _CHOSEN.get(key(calendar))
-    if found is None:
-        found = choose(history, calendar, options, seasonal_kind(options, history.freq), values)
-        # the calendar with the chosen run-ups (what the fit goes on with) has made the same choice
-        for cal in (calendar, with_windows(calendar, found.event_windows)):
-            _CHOSEN[key(cal)] = found
-        while len(_CHOSEN) > _CHOSEN_KEEP:
-            _CHOSEN.popitem(last=False)
-    return found
-
-
 def prepare(history: Any, calendar: Any, options: FitOptions,
             theta: dict[str, float] | None = None, identify: bool = True,
             degenerate: dict[str, str] | None = None, chosen: Chosen | None = None) -> ModelInputs:
@@ -188,13 +152,14 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     fit flagged with :func:`evcal.model.identify.degenerate_terms`: they are
     marked ``unidentifiable`` with that note and left out, and so are the
     events that borrow their lift or share their days. ``chosen`` gives the
-    settings of the options left open (``auto``); without it the data choose
-    them (:func:`chosen_settings`).
+    settings of the options left open (``auto``): what
+    :func:`evcal.model.choose.chosen_settings` chose; without it the stand-ins of
+    :func:`evcal.model.settings.given`.
     """
     periods = history.values.index
     actual = history.values.astype(float)
     if chosen is None:
-        chosen = chosen_settings(history, calendar, options)
+        chosen = given(options)
     spec = design_spec(calendar, options, periods, history.freq, theta, chosen)
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()

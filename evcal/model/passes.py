@@ -12,12 +12,14 @@ import pandas as pd
 from evcal.design.base import period_days
 from evcal.design.seasonal import base_freq
 from evcal.design.weekdays import calendar_profile, trading_levels, weighted
+from evcal.model.choose import chosen_settings
 from evcal.model.drift import DIFFERENCED, UNIT_ROOT_P, drift_evidence, kpss_p_text, stationarity_tests
 from evcal.model.estimators import Estimate, fit_arima, fit_count, fit_ols
 from evcal.model.fit_rows import check_fit_rows
 from evcal.model.identify import MAX_LOG_LIFT, ColumnStatus, degenerate_note, degenerate_terms, seasonal_share
 from evcal.model.inputs import ModelInputs, additive_design, model_scale_response, prepare
 from evcal.model.options import FitOptions
+from evcal.model.settings import Chosen
 
 LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS (robust intervals) for speed
 #: passes of the exact-aggregation refit stop when no log-lift moves more than this
@@ -258,11 +260,12 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
     change than the event's days can make) is caught the same way.
     ``inp`` is the first pass's inputs when the caller has prepared (and checked) them.
     """
+    chosen = chosen_settings(history, calendar, options)  # made once per content (cached)
     if inp is None:
-        inp = prepare(history, calendar, options)
+        inp = prepare(history, calendar, options, chosen=chosen)
         check_fit_rows(inp, calendar, history)
     dropped: dict[str, str] = {}
-    inp, est, choice = _fit_flagged(history, calendar, options, None, dropped, inp)
+    inp, est, choice = _fit_flagged(history, calendar, options, None, dropped, chosen, inp)
     if not exact_passes(inp.transform, history.freq):
         return inp, est, choice
     # a lift whose periods fall by more than its days hold keeps its share-of-window column (θ = 0)
@@ -289,7 +292,7 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
             break
         trial = dict(dropped)
         pass_calendar = calendar if levels is None else weighted(calendar, {"levels": levels})
-        inp_next, est_next, _ = _fit_flagged(history, pass_calendar, fixed, theta, trial)
+        inp_next, est_next, _ = _fit_flagged(history, pass_calendar, fixed, theta, trial, chosen)
         # a column the previous pass did not fit (left to the season there) can break down once the
         # weekday weights move its periods' values a little off the season's: it stays out, the pass holds
         ran_away = [c for c in trial if c not in dropped and c in theta]
@@ -343,7 +346,7 @@ def _free(theta: dict[str, float], inp: ModelInputs, stopped: dict[str, str]) ->
 
 
 def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[str, float] | None,
-                 dropped: dict[str, str], inp: ModelInputs | None = None,
+                 dropped: dict[str, str], chosen: Chosen, inp: ModelInputs | None = None,
                  ) -> tuple[ModelInputs, Estimate, dict[str, Any]]:
     """One pass: fit, leave out the columns :func:`flag_degenerate` flags (collected in ``dropped``), refit.
 
@@ -351,7 +354,7 @@ def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[s
     """
     while True:
         if inp is None:
-            inp = prepare(history, calendar, options, theta=theta, degenerate=dropped)
+            inp = prepare(history, calendar, options, theta=theta, degenerate=dropped, chosen=chosen)
         est, choice = estimate(inp, options)
         flagged = flag_degenerate(inp, est, history.freq)
         if not flagged:

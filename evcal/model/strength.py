@@ -24,13 +24,11 @@ constants below, each with where it comes from.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
 import pandas as pd
-
-from evcal.model.identify import ColumnStatus
 
 #: fewer occurrences than this in the fitted history make an event weak: with one or two, the lift
 #: cannot be told from whatever else happened in those periods (common practice, no source)
@@ -271,5 +269,5 @@ def grade(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], status: dic
     for c, s in found.items():
         st = out[c]
         note = "; ".join([n for n in (st.note, *s.reasons) if n])
-        out[c] = ColumnStatus(st.status, note, st.twin, weak=s.weak, checks=s.checks())
+        out[c] = replace(st, note=note, weak=s.weak, checks=s.checks())  # a ColumnStatus
     return out

@@ -12,7 +12,7 @@ year, and score three methods against what happened:
   computes from the periods the fit uses), spread over a total: common
   practice, no source. For daily data a day-of-year share ignores weekdays
   (its biggest misses are whole weekdays), so the daily comparison is
-  weekday-aware (:func:`weekday_share`): each month's mean share of its year,
+  weekday-aware (:func:`evcal.model.weekday_share.weekday_share`): each month's mean share of its year,
   spread over the month's days by the day-of-week pattern of that month in
   the history (day of week within month);
 * ``seasonal_naive``: last year's value at the same position (for daily data
@@ -42,17 +42,10 @@ import pandas as pd
 
 from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.errors import PlanError
-from evcal.model.weekday_share import (
-    AVERAGE_SHARE_KIND,
-    average_share_kind,
-    spread_weekday_share,
-    weekday_share,
-    weekday_share_profile,
-)
+from evcal.model.weekday_share import average_share_kind, spread_weekday_share, weekday_share_profile
 from evcal.plan.horizon import full_years, period_years
 
-__all__ = ["AVERAGE_SHARE_KIND", "COLUMNS", "METHODS", "average_share_kind", "backtest", "format_table",
-           "save_backtest", "score", "weekday_share"]
+__all__ = ["COLUMNS", "METHODS", "backtest", "format_table", "save_backtest", "score"]
 
 COLUMNS = ["year", "method", "spread", "wape", "bias", "peak_error"]
 METHODS = ("evcal", "average_share", "seasonal_naive")
@@ -131,7 +124,7 @@ def backtest(
         year, method (``evcal``, ``average_share``, ``seasonal_naive``) and
         spread (``spread``, ``unspread``). ``attrs["notes"]`` lists the periods
         left out of the scoring; ``attrs["average_share"]`` says which
-        average-share profile was used (:func:`average_share_kind`).
+        average-share profile was used (:func:`evcal.model.weekday_share.average_share_kind`).
 
     Raises
     ------

@@ -18,7 +18,8 @@ import pandas as pd
 import pytest
 
 import evcal
-from evcal.backtesting import format_table, weekday_share
+from evcal.backtesting import format_table
+from evcal.model.weekday_share import weekday_share
 
 EASTER_CAL = """name: Easter only
 events:

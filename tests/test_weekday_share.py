@@ -17,8 +17,8 @@ import pytest
 from test_report import write_invented_model
 
 import evcal
-from evcal.backtesting import weekday_share
 from evcal.model import load_model
+from evcal.model.weekday_share import weekday_share
 from evcal.plan import make_plan
 from evcal.plan.summary import average_share_plan
 from evcal.report import write_report

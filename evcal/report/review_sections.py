@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.backtesting import average_share_kind
+from evcal.model.weekday_share import average_share_kind
 from evcal.report import charts
 from evcal.report.context import ReportContext
 from evcal.report.formatting import num, pct, period_label, sig

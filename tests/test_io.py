@@ -485,3 +485,26 @@ def test_history_is_frozen() -> None:
     assert isinstance(h, History)
     with pytest.raises(AttributeError):
         h.freq = "M"  # type: ignore[misc]
+
+
+def test_values_under_the_date_header_are_one_line(tmp_path: Path) -> None:
+    # invented weekly rows written value-first under a "date,value" header: one line naming the swap,
+    # not a row problem for every cell
+    weeks = pd.date_range("2020-01-05", periods=120, freq="W-SUN")
+    lines = ["date,value", *[f"{1000 + i},{d.date()}" for i, d in enumerate(weeks)]]
+    path = tmp_path / "sales.csv"
+    path.write_text("\n".join(lines) + "\n")
+    with pytest.raises(HistoryError) as err:
+        read_history(path)
+    text = str(err.value)
+    assert "\n" not in text and "look swapped" in text and "--date-col 'value' --value-col 'date'" in text
+
+
+def test_columns_in_the_other_order_are_read_by_name(tmp_path: Path) -> None:
+    # the same invented rows with the header moved along with its column: a valid file
+    weeks = pd.date_range("2020-01-05", periods=120, freq="W-SUN")
+    path = tmp_path / "sales.csv"
+    rows = [f"{1000 + i},{d.date()}" for i, d in enumerate(weeks)]
+    path.write_text("\n".join(["value,date", *rows]) + "\n")
+    h = read_history(path)
+    assert h.freq == "W-SUN" and float(h.values.iloc[0]) == 1000.0 and len(h.values) == 120

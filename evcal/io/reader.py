@@ -108,6 +108,12 @@ def read_history(
 
     dates, problems = parse_dates(date_cells, rows, dcol, name)
     values, value_problems = parse_values(value_cells, rows, vcol, allow_negative)
+    if problems and value_problems and _swapped(date_cells, value_cells):
+        raise HistoryError(
+            f"{name}: column {dcol!r} holds numbers and column {vcol!r} holds dates, so the two look "
+            f"swapped; put the dates under {dcol!r} and the values under {vcol!r}, or pass "
+            f"--date-col {vcol!r} --value-col {dcol!r}"
+        )
     problems += value_problems
     dates = dates.dt.normalize()
     no_date = np.flatnonzero(dates.isna().to_numpy() & empty_mask(date_cells))
@@ -129,6 +135,14 @@ def read_history(
     series.loc[periods] = values.to_numpy(dtype="float64")
     missing = list(index[series.isna().to_numpy()])
     return History(series, freq_used, detect_label(stamps, freq_used), name, missing)
+
+
+def _swapped(date_cells: pd.Series, value_cells: pd.Series) -> bool:
+    """Whether nearly every date cell is a number and nearly every value cell a date (90 %: a few
+    blank or odd cells should not hide the one-line answer behind hundreds of row problems)."""
+    as_number = pd.to_numeric(date_cells.astype(str).str.strip(), errors="coerce").notna().mean()
+    as_date = pd.to_datetime(value_cells.astype(str).str.strip(), errors="coerce", format="mixed").notna()
+    return bool(as_number >= 0.9 and as_date.mean() >= 0.9)
 
 
 def _repeats(keys: pd.Series | pd.Index) -> list[np.ndarray]:

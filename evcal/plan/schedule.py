@@ -153,6 +153,10 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
             plan.assumed[c] = plan.assumed[src]
             plan.plan_as(c, ev, ColumnStatus("assumed", f"borrows the assumed lift of {src_event}"),
                          f"borrows the assumed lift of {src_event} ({_pct(plan.assumed[c])})")
+        elif getattr(result.status.get(c), "status", "") == "unidentifiable":
+            # its source could not be estimated from the history, so neither could it: its effect
+            # lives in the season, as any unidentifiable event's does
+            plan.plan_as(c, ev, result.status[c], "")
         else:
             no_lift(c, ev, f"borrows from {src_event}, which the model has no lift for",
                     f"{src_event} has no fitted lift to borrow",

@@ -127,7 +127,10 @@ def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
         if name not in m.event_info:
             raise fail(path, f"event_info.{name}", "missing")
     for name, target in m.like_map.items():
-        if name not in m.status or (target and target not in m.params):
+        # a borrowing event whose source could not be estimated is written as unidentifiable (its
+        # note says so); only one that still borrows needs its source's coefficient
+        borrows = getattr(m.status.get(name), "status", "") == "like"
+        if name not in m.status or (borrows and target and target not in m.params):
             raise fail(path, f"like_map.{name}", "not a borrowing event with a fitted source")
     for name in m.assumed:
         if name not in m.status:

@@ -19,7 +19,7 @@ import numpy as np
 
 from evcal.design.curved import CurvedEvents
 from evcal.model.estimators import PrewhitenedErrors, ar_covariances, prewhitened_errors
-from evcal.model.passes import MAX_PASSES, THETA_TOL, beyond_days, theta_moved, theta_sources
+from evcal.model.passes import MAX_PASSES, THETA_TOL, beyond_days, joint_twins, theta_moved, theta_sources
 
 __all__ = ["refine"]
 
@@ -186,6 +186,8 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     beyond = np.zeros(m, dtype=bool)
     for c in curved_cols:
         beyond |= beyond_days(B0[idx[c]], X_fit[:, idx[c]], curve.floor(c)[fit_rows])
+    if joint_twins(group.status, group.roles, lambda c: curve.column(c, np.zeros(1))[0, fit_rows]):
+        beyond[:] = True  # a lift that carries a twin on other days keeps its first pass (fitted alone)
     if not curve.profiled and any(c.startswith("trading[") for c in cols):
         # each series' trading-day coefficients weigh its days (evcal.model.passes.trading_weights):
         # its own columns, so every series takes the per-series passes (the same fixed point)

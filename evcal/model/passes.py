@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import warnings
+from collections.abc import Callable
 from dataclasses import replace
 from typing import Any
 
@@ -245,6 +246,34 @@ def _stopped_events(inp: ModelInputs, est: Estimate, calendar: Any) -> dict[str,
     return out
 
 
+def joint_twins(status: dict[str, ColumnStatus], roles: dict[str, str],
+                column: Callable[[str], np.ndarray]) -> dict[str, list[str]]:
+    """Fitted event column -> its duplicates on other days of the same periods (``column``: at θ = 0).
+
+    Such a coefficient is the joint effect of both events read on one event's days (a 2-day Easter
+    weekend carrying Good Friday in monthly data): the exact passes would ask those days alone for
+    the joint dip and run away, so the share-of-window figure is kept (:func:`joint_note`). A
+    duplicate on the same days (an equal column) has nothing to add: its twin's lift is exact.
+    """
+    joint: dict[str, list[str]] = {}
+    for d, st in status.items():
+        twin = st.twin if st.status == "duplicate" else ""
+        if getattr(status.get(twin), "status", "") != "fitted" or roles.get(twin) != "event":
+            continue
+        if not np.allclose(column(twin), column(d), rtol=1e-9, atol=1e-12):
+            joint.setdefault(twin, []).append(d)
+    return joint
+
+
+def joint_note(calendar: Any, col: str, others: list[str]) -> str:
+    """The note of a lift that carries a duplicate on other days (:func:`joint_twins`)."""
+    names = calendar.event_columns()
+    return (f"the estimate carries {', '.join(names.get(d, d) for d in others)} too (always in the same "
+            f"periods, on other days): it is the share-of-window figure of their joint effect read on "
+            f"{names.get(col, col)}'s days, not a lift on those days, and is weakly identified; merge the "
+            "events into one window to get a lift on their days, or fit daily data")
+
+
 def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelInputs | None = None
                    ) -> tuple[ModelInputs, Estimate, dict]:
     """Fit, then refit with event columns that aggregate the fitted daily lifts exactly.
@@ -270,6 +299,9 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
         return inp, est, choice
     # a lift whose periods fall by more than its days hold keeps its share-of-window column (θ = 0)
     stopped = _stopped_events(inp, est, calendar)
+    joint = joint_twins(inp.status, inp.design.roles,
+                        lambda c: inp.design.X[c].to_numpy(dtype=float)[inp.rows])
+    stopped.update({c: joint_note(calendar, c, d) for c, d in joint.items() if c not in stopped})
     theta = _free(fitted_theta(inp, est), inp, stopped)
     # without a calendar profile, the trading-day coefficients weigh the days (a fixed point with θ)
     levels = trading_weights(inp, est, calendar)

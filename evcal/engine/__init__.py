@@ -19,6 +19,7 @@ from evcal.model.fit_rows import check_fit_rows, check_history_length
 from evcal.model.inputs import load_calendar_any, prepare
 from evcal.model.options import FitOptions
 from evcal.model.result import FitResult
+from evcal.threads import held_blas
 
 __all__ = ["fit", "fit_long_panel", "PanelFit"]
 
@@ -56,12 +57,16 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         history, date_col=date_col, value_col=value_col, freq=freq, allow_negative=opts.allow_negative)
     cal = load_calendar_any(calendar)
     check_history_length(hist)
-    inp = prepare(hist, cal, opts, chosen=chosen_settings(hist, cal, opts))
-    cal = inp.spec.calendar(cal)  # with the run-ups the data chose for `before: auto` events
-    short = check_fit_rows(inp, cal, hist)  # the warning line when exclusions leave under two full cycles
-    block = fit_long_panel(Panel.of_history(hist), cal, opts, single=inp)
-    model = block.models[0]
-    result = model if isinstance(model, FitResult) else block_result(hist, cal, opts, inp, model)
+    # the design's width before it is built, at most: a seasonal term per period of the year (daily
+    # data: Fourier pairs and weekdays), the calendar's columns, trend and trading days
+    width = min(hist.periods_per_year, 60) + len(cal.event_columns()) + 12
+    with held_blas(len(hist.values), width):
+        inp = prepare(hist, cal, opts, chosen=chosen_settings(hist, cal, opts))
+        cal = inp.spec.calendar(cal)  # with the run-ups the data chose for `before: auto` events
+        short = check_fit_rows(inp, cal, hist)  # the warning line when exclusions leave under two full cycles
+        block = fit_long_panel(Panel.of_history(hist), cal, opts, single=inp)
+        model = block.models[0]
+        result = model if isinstance(model, FitResult) else block_result(hist, cal, opts, inp, model)
     if short:
         result.warnings.insert(0, short)
     return result

@@ -33,6 +33,7 @@ from evcal.plan.result import Plan
 from evcal.plan.schedule import resolve_schedule
 from evcal.plan.simulate import check_sims, error_forecast, simulate_interval
 from evcal.plan.spread import check_total, read_totals, spread
+from evcal.threads import held_blas
 
 ERROR_COLUMN = "__error_forecast__"
 
@@ -179,8 +180,9 @@ def plan_periods(
                           "plan": parts["fitted"].to_numpy()})
     _check_finite(table, result)
     if n_sims > 0:
-        low, high = simulate_interval(result, X, share.to_numpy(), base_cols, schedule, err,
-                                      n_sims=n_sims, seed=seed)
+        with held_blas(n_sims, len(result.params)):  # draws x coefficients: small, one thread
+            low, high = simulate_interval(result, X, share.to_numpy(), base_cols, schedule, err,
+                                          n_sims=n_sims, seed=seed)
         table["low"], table["high"] = low, high
         interval_note = (f"low/high: 95% prediction interval from {n_sims} simulation draws of the "
                          "coefficients (normal, with the fit's covariance) and of each period's noise.")

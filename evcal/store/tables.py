@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.seasonal import cycle_length
+from evcal.effects.block import STRENGTH_COLUMNS
 from evcal.errors import ModelError, clip
 from evcal.formula_safe import formula_safe_frame, unguard_frame
 from evcal.io.history import period_dates
@@ -228,6 +229,12 @@ def check_lifts(path: Path, rows: Rows, events: set[str], each: int, required: t
                 ) -> pd.DataFrame:
     """One row per event and intervention (``each`` of them, named in ``events``) per fitted series."""
     lifts = read_table(path, LIFTS, rows.keys, required)
+    # the identification columns were added together: a folder has all of them (written since) or none
+    present = [c for c in STRENGTH_COLUMNS if c in lifts.columns]
+    if present and len(present) < len(STRENGTH_COLUMNS):
+        absent = ", ".join(c for c in STRENGTH_COLUMNS if c not in present)
+        raise ModelError(f"{path}: line 1: missing column(s) {absent}; the identification columns "
+                         f"({', '.join(STRENGTH_COLUMNS)}) are written together; {AGAIN}")
     pos = rows.positions(path, lifts)
     _bad_row(path, ~rows.fitted[pos], rows.keys[0] if rows.keys else "event",
              lambda i: "a series that series.csv marks skipped")

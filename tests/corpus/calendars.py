@@ -224,7 +224,13 @@ def _dup_name(cal: dict[str, Any]) -> dict[str, Any]:
 
 def _formula(field: str, text: str):
     def apply(cal: dict[str, Any]) -> dict[str, Any]:
+        old = _first(cal).get(field)
         _first(cal)[field] = text
+        if field == "name":  # a renamed event keeps the events that borrow its lift (a valid calendar)
+            for ev in cal["events"][1:]:
+                effect = ev.get("effect")
+                if isinstance(effect, dict) and effect.get("like") == old:
+                    effect["like"] = text
         return cal
 
     return apply
@@ -384,7 +390,13 @@ def text_damages() -> list[TextDamage]:
         (
             "anchor and merge key",
             "ok",
-            lambda t: t.replace("events:", "x-common: &common {before: 1}\nevents:", 1),
+            # an anchored event and one merged from it (an unknown top-level key would be refused)
+            lambda t: t.replace(
+                "events:",
+                "events:\n- &anchored {name: anchored-event, when: {fixed: '12-24'}, before: 1}\n"
+                "- {<<: *anchored, name: merged-event}",
+                1,
+            ),
         ),
         (
             "YAML tag !!python/object/apply",

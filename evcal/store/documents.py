@@ -36,6 +36,7 @@ class Options(Strict):
     trading_days: bool | Literal["auto"]
     allow_negative: bool
     leap_year: bool | Literal["auto"] = False  # (absent from folders written before it existed)
+    season_drift: bool | Literal["auto"] = False  # (absent from folders written before it existed)
 
 
 class Intervention(Strict):

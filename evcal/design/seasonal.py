@@ -181,7 +181,8 @@ class LeapYear:
     Examples
     --------
     >>> import pandas as pd
-    >>> LeapYear().columns(pd.period_range("2023-12", periods=3, freq="M"))["leap_year"].tolist()  # February 2024: a leap year
+    >>> # February 2024 is a leap February
+    >>> LeapYear().columns(pd.period_range("2023-12", periods=3, freq="M"))["leap_year"].tolist()
     [0.0, 0.0, 0.75]
     """
 

@@ -53,7 +53,7 @@ def open_settings(options: FitOptions, freq: str, seasonal: str) -> list[str]:
 
 
 def given(options: FitOptions) -> Chosen:
-    """The settings as given, with stand-ins for the open ones (10 Fourier pairs; no trading days, leap year, drift).
+    """The settings as given, with stand-ins for the open ones (10 Fourier pairs; the rest off).
 
     Used where nothing is chosen: a setting that does not apply to the
     frequency, or a design built before the data are known.

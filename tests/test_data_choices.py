@@ -148,7 +148,9 @@ def test_chicago_monthly_easter_window_trading_days_and_leap_year_chosen(chicago
 def test_given_trading_days_win_over_the_choice(chicago: pd.DataFrame) -> None:
     monthly = chicago.set_index("date")["value"].resample("MS").sum().iloc[1:-1]
     res = evcal.fit(monthly.reset_index(), None, freq="M", errors="ols", trading_days=False, leap_year=True)
-    assert not res.spec.trading_days and res.spec.leap_year and res.spec.choices == []
+    assert not res.spec.trading_days and res.spec.leap_year
+    # the only choice left is the season's drift (no option given for it)
+    assert [c["setting"] for c in res.spec.choices] == ["season_drift"]
     assert "trading[mon]" not in res.params.index and "leap_year" in res.params.index
 
 

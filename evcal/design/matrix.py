@@ -20,6 +20,7 @@ from evcal.design.seasonal import (
     AnnualFourier,
     LeapYear,
     SeasonalDummies,
+    SeasonDrift,
     TradingDays,
     WeekdayDummies,
     base_freq,
@@ -51,11 +52,14 @@ class DesignSpec:
     # the weekday weights of the event columns and the open share (evcal.design.weekdays.weights_record):
     # {"source": "calendar" | "trading_days" | "flat", "levels": [Monday..Sunday]}; {} for daily data
     weekday_weights: dict[str, Any] = field(default_factory=dict)
+    # a season that drifts (evcal.design.seasonal.SeasonDrift): the year its lines start from; None: fixed
+    season_drift_origin: float | None = None
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
         # settings at their old values are left out, as folders written before they existed have them
-        olds = (("leap_year", False), ("event_windows", {}), ("choices", []), ("weekday_weights", {}))
+        olds = (("leap_year", False), ("event_windows", {}), ("choices", []), ("weekday_weights", {}),
+                ("season_drift_origin", None))
         for key, old in olds:
             if d[key] == old:
                 del d[key]
@@ -86,6 +90,8 @@ class DesignSpec:
             blocks.append(TradingDays())
         if self.leap_year and b in ("M", "Q"):
             blocks.append(LeapYear())
+        if self.season_drift_origin is not None and isinstance(self.annual_block(), SeasonalDummies):
+            blocks.append(SeasonDrift(self.freq, float(self.season_drift_origin)))
         return blocks
 
 

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from evcal.design.base import period_days
+from evcal.design.base import period_days, period_mid_years
 
 
 def base_freq(freq: str) -> str:
@@ -69,6 +69,41 @@ class SeasonalDummies:
         """Columns for one reference cycle, rows = positions 1..P."""
         p = cycle_length(self.freq)
         return self._at(np.arange(1, p + 1), pd.RangeIndex(1, p + 1, name="period"))
+
+
+@dataclass(frozen=True)
+class SeasonDrift:
+    """A season that drifts: each seasonal dummy times the years from ``origin`` (an evolving season).
+
+    Column ``season_drift[k]`` is ``season[k] × (t − origin)``, ``t`` the
+    period's midpoint in calendar years: position ``k``'s departure from the
+    reference position changes by its coefficient each year, in a straight
+    line. With ``origin`` in the history's last year the seasonal dummies are
+    the season of that year (what the seasonal index shows and the plan starts
+    from), and the plan extends the same lines into the future with this code.
+    It is the deterministic form of the slowly changing seasonal of a
+    structural time-series model (Harvey 1989, *Forecasting, structural time
+    series models and the Kalman filter*, ch. 2, from memory): a straight line
+    per position instead of a random walk, so it stays one block of columns
+    on the same regression.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> cols = SeasonDrift("Q", origin=2021.5).columns(pd.period_range("2020Q1", periods=5, freq="Q"))
+    >>> list(cols.columns), (cols["season_drift[2]"].round(2) + 0.0).tolist()
+    (['season_drift[2]', 'season_drift[3]', 'season_drift[4]'], [0.0, -1.13, 0.0, 0.0, 0.0])
+    """
+
+    freq: str
+    origin: float
+
+    def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
+        dummies = SeasonalDummies(self.freq).columns(periods).to_numpy()
+        t = period_mid_years(periods) - self.origin
+        p = cycle_length(self.freq)
+        return pd.DataFrame(dummies * t[:, None], index=periods,
+                            columns=[f"season_drift[{k}]" for k in range(2, p + 1)])
 
 
 @dataclass(frozen=True)
@@ -146,8 +181,9 @@ class LeapYear:
     Examples
     --------
     >>> import pandas as pd
+    >>> # February 2024 is a leap February
     >>> LeapYear().columns(pd.period_range("2023-12", periods=3, freq="M"))["leap_year"].tolist()
-    [0.0, 0.0, -0.25]
+    [0.0, 0.0, 0.75]
     """
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:

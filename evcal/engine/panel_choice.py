@@ -64,7 +64,7 @@ def panel_settings(options: FitOptions, calendar: Any, panel: Any = None) -> tup
                                              for c in found.choices])
     windows = {ev: chosen.event_windows.get(ev, AUTO_RUN_UP) for ev in auto_events(calendar)}
     concrete = replace(options, fourier_order=chosen.fourier_order, trading_days=chosen.trading_days,
-                       leap_year=chosen.leap_year)
+                       leap_year=chosen.leap_year, season_drift=chosen.season_drift)
     return concrete, with_windows(calendar, windows), replace(chosen, event_windows=windows)
 
 

@@ -17,11 +17,14 @@ fixed (a coordinate-wise search, not every combination):
    regression practice and 10, as the issue names them);
 2. trading-day and leap-year columns of monthly and quarterly data, on or off
    (up to 4 fits; Eurostat's handbook tests them together);
-3. the number of annual Fourier pairs of daily data (and of weekly data fitted
+3. a drifting season of monthly and quarterly seasonal dummies
+   (:class:`evcal.design.seasonal.SeasonDrift`), on or off, on histories of
+   :data:`MIN_DRIFT_YEARS` years or more (2 fits);
+4. the number of annual Fourier pairs of daily data (and of weekly data fitted
    with ``--seasonal fourier``), among :func:`fourier_candidates` (up to 15 fits;
    a pick at the largest candidate says so in its reason).
 
-So a monthly fit with one ``before: auto`` event makes at most 8 least-squares
+So a monthly fit with one ``before: auto`` event makes at most 10 least-squares
 fits, a daily one at most 15 plus 4 per such event: each a single solve on the
 fit rows.
 """
@@ -66,6 +69,9 @@ FOURIER_ORDERS = (2, 3, 4, 6, 8, 10, 12, 15, 20, 25)
 SHORTEST_WAVE_DAYS = 14
 #: candidate run-ups (days before) of an Easter-relative event with ``before: auto``
 RUN_UPS = (1, 8, 10, 15)
+#: the shortest history (in years of values) on which a drifting season is tried: its lines are
+#: extrapolated a year or more, so they need several years to rest on (common practice, no source)
+MIN_DRIFT_YEARS = 6
 #: largest AR(1) coefficient the common error model takes (keeps the GLS transform well away from a unit root)
 MAX_PHI = 0.95
 
@@ -137,6 +143,7 @@ def choose(
         if "fourier_order" in settings else start.fourier_order,
         trading_days=start.trading_days or "trading_days" in settings,
         leap_year=start.leap_year or "leap_year" in settings,
+        season_drift=start.season_drift or ("season_drift" in settings and _long_enough(history)),
     )
     inp = prepare(history, calendar, options, chosen=full)
     lik = _Likelihood.of(inp)
@@ -196,7 +203,22 @@ def choose(
         )
     base = [c for c in base if (trading or c not in td_cols) and (leap or c not in ly_cols)]
 
-    # 3. annual Fourier pairs
+    # 3. a drifting season (monthly, quarterly), with the chosen calendar columns
+    drift_cols = [c for c in base if c.startswith("season_drift[")]
+    drift = full.season_drift
+    if "season_drift" in settings and drift_cols:
+        fixed = [c for c in base if c not in drift_cols]
+        scores = {"fixed": score(X, fixed + terms), "drifting": score(X, base + terms)}
+        drift = min(scores, key=lambda k: scores[k]) == "drifting"
+        records.append(_record("season_drift", scores, "drifting" if drift else "fixed", lik,
+                               "seasonal pattern"))
+        base = base if drift else fixed
+    elif "season_drift" in settings:
+        records.append({"setting": "season_drift", "chosen": "fixed", "candidates": [],
+                        "reason": f"seasonal pattern: fixed; a drifting one is tried on {MIN_DRIFT_YEARS} "
+                                  "years of history or more"})
+
+    # 4. annual Fourier pairs
     order = full.fourier_order
     if "fourier_order" in settings:
         scores = {}
@@ -211,7 +233,13 @@ def choose(
         leap_year=bool(leap),
         event_windows=windows,
         choices=records,
+        season_drift=bool(drift),
     )
+
+
+def _long_enough(history: Any) -> bool:
+    """Whether the history has the values of :data:`MIN_DRIFT_YEARS` cycles (a drifting season is tried)."""
+    return int(history.values.notna().sum()) >= MIN_DRIFT_YEARS * cycle_length(history.freq)
 
 
 def _calendar_terms_name(trading: bool, leap: bool) -> str:

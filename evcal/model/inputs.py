@@ -120,6 +120,9 @@ def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, fre
     (:func:`evcal.model.choose.given`).
     """
     chosen = given(options) if chosen is None else chosen
+    # a drifting season's lines start from the middle of the history's last year: the seasonal dummies
+    # are then that year's season (the seasonal index, and where the plan starts)
+    drift_origin = float(np.floor(period_mid_years(periods[-1:])[0])) + 0.5 if chosen.season_drift else None
     return DesignSpec(
         freq=freq,
         trend_origin=float(np.floor(period_mid_years(periods[:1])[0])),
@@ -136,6 +139,7 @@ def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, fre
         event_windows=dict(chosen.event_windows),
         choices=list(chosen.choices),
         weekday_weights=weights_record(calendar, freq),
+        season_drift_origin=drift_origin,
     )
 
 

@@ -44,6 +44,10 @@ class FitOptions:
     leap_year : bool or "auto"
         The leap-year column of monthly and quarterly data (0.75 in a leap February,
         -0.25 in other Februaries); ``auto`` (default): kept when AICc prefers it.
+    season_drift : bool or "auto"
+        A season that drifts (each seasonal dummy of monthly or quarterly data times the
+        years, :class:`evcal.design.seasonal.SeasonDrift`); ``auto`` (default): kept when
+        AICc prefers it on a long enough history.
     allow_negative : bool
         Accept negative values (forces an additive model).
     """
@@ -57,6 +61,7 @@ class FitOptions:
     trading_days: bool | str = AUTO
     allow_negative: bool = False
     leap_year: bool | str = AUTO
+    season_drift: bool | str = AUTO
 
     def __post_init__(self) -> None:
         choices = (("transform", self.transform, TRANSFORMS), ("errors", self.errors, ERRORS),
@@ -69,7 +74,8 @@ class FitOptions:
                                            or not 1 <= int(self.fourier_order) <= 60):
             problems.append(f"option fourier-order: {self.fourier_order!r} must be a whole number between 1 "
                             "and 60, or auto (chosen by AICc)")
-        for name, value in (("trading-days", self.trading_days), ("leap-year", self.leap_year)):
+        for name, value in (("trading-days", self.trading_days), ("leap-year", self.leap_year),
+                            ("season-drift", self.season_drift)):
             if value != AUTO and not isinstance(value, bool):
                 problems.append(f"option {name}: {value!r} must be true, false or auto (chosen by AICc)")
         if self.arima_order is not None and (
@@ -84,6 +90,8 @@ class FitOptions:
         d["arima_order"] = None if self.arima_order is None else list(self.arima_order)
         if d["leap_year"] is False:  # as folders written before the leap-year column have it (absent)
             del d["leap_year"]
+        if d["season_drift"] is False:  # as folders written before the drifting season have it (absent)
+            del d["season_drift"]
         return d
 
     @classmethod
@@ -92,4 +100,5 @@ class FitOptions:
         if d.get("arima_order") is not None:
             d["arima_order"] = tuple(d["arima_order"])
         d.setdefault("leap_year", False)  # written before the leap-year column existed
+        d.setdefault("season_drift", False)  # written before the drifting season existed
         return cls(**d)

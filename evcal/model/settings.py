@@ -27,6 +27,7 @@ class Chosen:
     leap_year: bool
     event_windows: dict[str, int] = field(default_factory=dict)
     choices: list[dict[str, Any]] = field(default_factory=list)
+    season_drift: bool = False  # the seasonal dummies times the years (evcal.design.seasonal.SeasonDrift)
 
 
 def auto_events(calendar: Any) -> list[str]:
@@ -35,18 +36,24 @@ def auto_events(calendar: Any) -> list[str]:
 
 
 def open_settings(options: FitOptions, freq: str, seasonal: str) -> list[str]:
-    """The options left open that apply to this frequency (trading days and leap year: monthly, quarterly)."""
+    """The options left open that apply to this frequency.
+
+    Trading days and leap year: monthly and quarterly; a drifting season: monthly and quarterly
+    seasonal dummies; Fourier pairs: daily, or as asked.
+    """
     b = base_freq(freq)
     out = []
     if b in ("M", "Q"):
         out += [s for s in ("trading_days", "leap_year") if getattr(options, s) == AUTO]
+        if seasonal == "dummies" and options.season_drift == AUTO:
+            out.append("season_drift")
     if options.fourier_order == AUTO and (b == "D" or seasonal == "fourier"):
         out.append("fourier_order")
     return out
 
 
 def given(options: FitOptions) -> Chosen:
-    """The settings as given, with stand-ins for the open ones (10 Fourier pairs; no trading days, leap year).
+    """The settings as given, with stand-ins for the open ones (10 Fourier pairs; the rest off).
 
     Used where nothing is chosen: a setting that does not apply to the
     frequency, or a design built before the data are known.
@@ -55,4 +62,5 @@ def given(options: FitOptions) -> Chosen:
         fourier_order=STAND_IN_FOURIER if options.fourier_order == AUTO else int(options.fourier_order),
         trading_days=options.trading_days is True,
         leap_year=options.leap_year is True,
+        season_drift=options.season_drift is True,
     )

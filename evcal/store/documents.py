@@ -36,6 +36,7 @@ class Options(Strict):
     trading_days: bool | Literal["auto"]
     allow_negative: bool
     leap_year: bool | Literal["auto"] = False  # (absent from folders written before it existed)
+    season_drift: bool | Literal["auto"] = False  # (absent from folders written before it existed)
 
 
 class Intervention(Strict):
@@ -81,6 +82,8 @@ class Design(Strict):
     choices: list[SettingChoice] = []
     # absent in folders fitted before it was recorded (and daily ones); a null in its place is refused
     weekday_weights: WeekdayWeights = None  # type: ignore[assignment]
+    # the year a drifting season's lines start from (design.seasonal.SeasonDrift); absent: a fixed season
+    season_drift_origin: Finite = None  # type: ignore[assignment]
 
 
 class ColumnNote(Strict):  # what identification said of an event column

@@ -40,8 +40,8 @@ import pandas as pd
 import yaml
 from scipy import stats
 
-__all__ = ["MIN_YEARS", "REACH", "REFERENCE_LAGS", "Neighbour", "neighbour_days", "neighbour_entry",
-           "with_neighbours"]
+__all__ = ["MIN_YEARS", "REACH", "REFERENCE_LAGS", "Neighbour", "neighbour_dates", "neighbour_days",
+           "neighbour_entry", "neighbour_suggestion", "with_neighbours"]
 
 #: days examined on each side of an event's window (a long weekend and its bridge days;
 #: common practice, no source)
@@ -165,6 +165,15 @@ def neighbour_days(values: pd.Series, calendar: Any, alpha: float = 0.01) -> lis
     return sorted(found, key=lambda f: -abs(f.t))
 
 
+def neighbour_dates(found: list[Neighbour], calendar: Any, periods: pd.PeriodIndex) -> set[Any]:
+    """Every date (``datetime.date``) a neighbour day found falls on within ``periods``."""
+    if not found:
+        return set()
+    occ = calendar.occurrences(periods[0].start_time, periods[-1].end_time)
+    return {(start + pd.Timedelta(days=n.offset)).date() for n in found
+            for start in pd.DatetimeIndex(occ.loc[occ["event"] == n.event, "start"])}
+
+
 def neighbour_entry(n: Neighbour, calendar_text: str) -> dict[str, Any]:
     """The calendar event for a neighbour day: the event's own rule moved by ``n.offset`` days.
 
@@ -193,3 +202,21 @@ def with_neighbours(calendar_text: str, found: list[Neighbour]) -> str:
     from evcal.discovery.inputs import with_entries
 
     return with_entries(calendar_text, events=[neighbour_entry(d, calendar_text) for d in found])
+
+
+def neighbour_suggestion(n: Neighbour, calendar_text: str, transform: str) -> tuple[Any, Any]:
+    """The ``suggestions.csv`` row of a neighbour day and the event to paste, with its evidence."""
+    from evcal.discovery.suggestions import Entry, Row, flow_yaml
+
+    side = f"{abs(n.offset)} day{'s' if abs(n.offset) > 1 else ''} {'after' if n.offset > 0 else 'before'}"
+    size = n.size_pct if transform != "none" else n.mean
+    unit = "%" if transform != "none" else " units"
+    evidence = (f"{side} {n.event} (offset {n.offset:+d}) moves {size:+.1f}{unit} against the same weekday "
+                f"one and two weeks away, {100 * n.same_sign:.0f}% of {n.years} years the same way "
+                f"(t {n.t:+.1f}, p {n.p_value:.1g}, Bonferroni over the days examined)")
+    entry = neighbour_entry(n, calendar_text)
+    text = (f"{evidence}: add an event with when: {flow_yaml(entry['when'])}, so that {n.event}'s "
+            "window holds only days that move together (its lift then means the same in weekly and "
+            "monthly sums)")
+    row = Row("neighbour_day", None, None, round(size, 2), round(abs(n.t), 2), None, text)
+    return row, Entry("events", entry, [evidence])

@@ -140,3 +140,16 @@ def test_chicago_weekly_within_three_points_of_daily(chicago_gaps):
                         & (chicago_gaps[("weekly", "identifiable")] == "yes")]
     assert len(both) >= 3
     assert (both[("gap", "weekly")] <= 3.0).all(), both[("gap", "weekly")].round(1).to_dict()
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_no_neighbour_on_invented_noise(seed):
+    """Invented: holidays at −50 %, a weekday mix, a season and 5 % noise, no neighbour that moves. The
+    Bonferroni bar allows a false finding in at most 1 % of such series."""
+    rng = np.random.default_rng(seed)
+    days = pd.date_range("2008-01-01", "2019-12-31")
+    occ = load_calendar(US).occurrences(days[0], days[-1])
+    factor = np.where(days.isin(pd.to_datetime(occ["start"])), 0.5, 1.0)
+    season = 0.1 * np.sin(2 * np.pi * days.day_of_year / 365.25)
+    y = np.log(1000 * np.array(MIX)[days.day_of_week] * factor) + season
+    assert neighbour_days(pd.Series(y + rng.normal(0, 0.05, len(days)), index=days), load_calendar(US)) == []

@@ -119,8 +119,9 @@ def test_chicago_weekly_with_the_daily_profile_is_closer_to_daily(chicago):
     10 points against 20 flat (Independence Day -1 % flat, -48 % with the profile, -64 % daily). Not
     every holiday comes nearer (measured after the Fourier order became the data's choice: Columbus Day
     1.0 -> 4.5 points, Veterans Day 9.2 -> 14.9), and none is within 3 (only the invented truth is).
-    The gaps left are the days around a holiday (a one-day window in weekly data takes the whole week's
-    dip) and the error model, not the day weights."""
+    The gaps left are not the day weights: the days around a holiday for Thanksgiving, Christmas, New
+    Year's Day, Columbus Day and Memorial Day (tests/test_aggregation_footprint.py finds them), and the
+    weekly base and the error model for the others (docs/aggregation.md, "Not met")."""
     daily = evcal.fit(_history(chicago, "D"), US, errors="ols")
     line = profile_line(fitted_profile(daily.params))
     d = daily.lifts.set_index("event")["lift_pct"]

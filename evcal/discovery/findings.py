@@ -13,6 +13,7 @@ from evcal.discovery.abnormal import AbnormalYear
 from evcal.discovery.cycles import Cycle, describe_cycles
 from evcal.discovery.lost_demand import LostDemand
 from evcal.discovery.moving import EasterCluster
+from evcal.discovery.neighbours import Neighbour
 from evcal.discovery.outliers import OutlierSearch
 from evcal.discovery.recurring import Recurring
 from evcal.discovery.suggestions import OUTLIER_KINDS, describe_pattern, period_day
@@ -57,6 +58,8 @@ class Findings:
     easter: EasterCluster | None = None
     #: per abnormal year: "" when excluding it is suggested, else why not
     exclusion_advice: dict[int, str] = field(default_factory=dict)
+    #: days next to a calendar event that move every year (daily data only), strongest first
+    neighbours: list[Neighbour] = field(default_factory=list)
 
     def summary(self) -> str:
         """A short readable account of the findings, one finding a line.
@@ -91,6 +94,8 @@ class Findings:
             lines.append(f"recurring {what}: {describe_pattern(r)}, {r.mean_size_pct:+.0f}% on average, "
                          f"seen {len(r.years_seen)} of {len(r.years_available)} years "
                          f"({', '.join(map(str, r.years_seen))})")
+        lines += [f"moves with {n.event}: offset {n.offset:+d}, {n.size_pct:+.0f}% (t {n.t:+.1f})"
+                  for n in self.neighbours]
         lines += [f"abnormal year: {text}"
                   for text in self.table.loc[self.table["kind"] == "abnormal_year", "suggestion"]]
         for lo in self.lost:
@@ -99,7 +104,7 @@ class Findings:
                 f"{lo.expected:,.0f} (95% {lo.expected_low:,.0f}-{lo.expected_high:,.0f}), "
                 f"sold {lo.actual:,.0f}: about {lo.lost:,.0f} units lost")
         if len(self.table) == 1 and not self.recurring and not self.abnormal and not self.lost and (
-                self.easter is None) and (
+                self.easter is None) and not self.neighbours and (
                 self.outliers is None or not self.outliers.outliers):
             lines.append("nothing unexplained beyond the expected false-alarm rate")
         lines += [f"note: {n}" for n in self.notes]

@@ -27,6 +27,7 @@ from evcal.discovery.lost_demand import (
     read_stockouts,
 )
 from evcal.discovery.moving import easter_cluster, easter_months, easter_shares
+from evcal.discovery.neighbours import neighbour_dates, neighbour_days, neighbour_suggestion
 from evcal.discovery.outliers import (
     Outlier,
     OutlierSearch,
@@ -145,8 +146,8 @@ def discover(
 
         # cycles: on the values that were fitted (log when multiplicative)
         values = hist.values.where(in_fit)
-        cycles = detect_cycles(np.log(values) if result.transform != "none" and (values > 0).all()
-                               else values, alpha=alpha)
+        scaled = np.log(values) if result.transform != "none" and (values > 0).all() else values
+        cycles = detect_cycles(scaled, alpha=alpha)
         weekdays = any(str(c).startswith("weekday") for c in result.params.index)
         rows = cycle_rows(cycles, hist.freq, weekdays=weekdays)
         entries: list[Entry] = []
@@ -195,8 +196,16 @@ def discover(
             moving = replace(moving, size_pct=float(row.size_pct))
             rows.append(row)
             entries.append(entry)
+        neighbours = neighbour_days(scaled, cal, alpha) if str(hist.freq) == "D" else []
+        on_neighbours = neighbour_dates(neighbours, cal, periods)
         for r in recurring:
+            if {r.rule.date(y) for y in r.years_seen} <= on_neighbours:
+                continue  # the same days as a neighbour found next to a calendar event: suggested there
             row, entry = recurring_suggestion(r, middle_year)
+            rows.append(row)
+            entries.append(entry)
+        for n in neighbours:
+            row, entry = neighbour_suggestion(n, text, result.transform)
             rows.append(row)
             entries.append(entry)
         advance(1)
@@ -249,7 +258,7 @@ def discover(
     return Findings(table=table(rows), yaml=render_yaml(entries, header), cycles=cycles, outliers=search,
                     recurring=recurring, abnormal=abnormal, lost=lost, index_effects=effects, fit=result,
                     source=hist.source, freq=hist.freq, n_periods=len(periods), notes=notes,
-                    easter=moving, exclusion_advice=advice)
+                    easter=moving, exclusion_advice=advice, neighbours=neighbours)
 
 
 #: the steps of a run, one tick of the progress bar each

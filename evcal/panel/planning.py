@@ -16,7 +16,7 @@ Planning a series rebuilds its single model first (a fraction of a second);
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -44,6 +44,7 @@ class PlanChunk:
     sids: list[dict[str, Any]]  # the series' keys
     options: dict[str, Any]
     frame: pd.DataFrame | None = None
+    positions: list[int] | None = None  # the series' places in the plan's order
 
 
 def _plan_chunk(chunk: PlanChunk) -> PlanChunk:
@@ -52,7 +53,7 @@ def _plan_chunk(chunk: PlanChunk) -> PlanChunk:
 
     model = chunk.model if isinstance(chunk.model, PanelResult) else load_panel(chunk.model)
     frames = []
-    for key in chunk.sids:
+    for pos, key in zip(chunk.positions or range(len(chunk.sids)), chunk.sids, strict=True):
         res = model.series_result(key)
         try:
             plan = make_plan(res, **chunk.options)
@@ -62,15 +63,114 @@ def _plan_chunk(chunk: PlanChunk) -> PlanChunk:
         table = plan.table.copy()
         for i, c in enumerate(model.key_cols):
             table.insert(i, c, key[c])
+        table["_pos"] = pos
         frames.append(table)
     chunk.frame = pd.concat(frames, ignore_index=True)
     return chunk
 
 
+def _stored_panel(model: PanelResult, keys: list[dict[str, Any]]) -> Any:
+    """The selected series' stored histories as a :class:`~evcal.io.panel.Panel`, in ``keys``' order."""
+    from evcal.io.panel import Panel
+
+    cols = model.key_cols
+    rows = model.fitted[cols + ["date", "actual"]] if model._fitted is not None else \
+        pd.read_parquet(model.fitted_path, columns=cols + ["date", "actual"])
+    wanted = pd.DataFrame(keys, columns=cols).astype(str)
+    wanted["_pos"] = np.arange(len(keys))
+    rows = rows.assign(**{c: rows[c].astype(str) for c in cols}).merge(wanted, on=cols)
+    freq = model.settings["freq"]
+    per = pd.DatetimeIndex(rows["date"]).to_period(freq)
+    periods = pd.period_range(per.min(), per.max(), freq=freq)
+    t = (per.asi8 - periods[0].ordinal).astype(int)
+    pos = rows["_pos"].to_numpy()
+    values = np.full((len(periods), len(keys)), np.nan)
+    values[t, pos] = rows["actual"].to_numpy(dtype=float)
+    first = np.full(len(keys), len(periods), dtype=int)
+    last = np.full(len(keys), -1, dtype=int)
+    np.minimum.at(first, pos, t)
+    np.maximum.at(last, pos, t)
+    return Panel(pd.DataFrame(keys, columns=cols), values, periods, first, last, freq,
+                 model.settings["label"], str(model.settings["source"]),
+                 str(model.settings.get("value_col", "value")))
+
+
+def _fitted_options(model: PanelResult) -> tuple[Any, Any]:
+    """The options and calendar the panel's series were fitted with (the data's choices made concrete)."""
+    from evcal.design.matrix import with_windows
+    from evcal.model.inputs import load_calendar_any
+    from evcal.model.options import FitOptions
+
+    opts = FitOptions.from_dict(model.settings["options"])
+    design = model.settings["design"]
+    opts = replace(opts, errors="ols" if opts.errors in ("auto", "ols") else opts.errors,
+                   seasonal=design["seasonal"], fourier_order=design["fourier_order"],
+                   trading_days=design["trading_days"], leap_year=design.get("leap_year", False),
+                   season_drift=design.get("season_drift_origin") is not None)
+    cal = with_windows(load_calendar_any(model.settings["calendar_text"]), design.get("event_windows") or {})
+    return opts, cal
+
+
+def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[str, Any]
+                ) -> tuple[list[pd.DataFrame], list[int]]:
+    """Plan the series that the engine solves in blocks, a block at a time (:mod:`evcal.plan.batched`).
+
+    Returns the blocks' tables (keys first, ``_pos`` the series' place in
+    ``keys``) and the places of the series left to the single-series plan.
+    """
+    from types import SimpleNamespace
+
+    from evcal.engine.run import plan_units
+    from evcal.engine.units import BatchUnit
+    from evcal.model.inputs import load_calendar_any
+    from evcal.plan.batched import block_frame, group_horizon, plan_block, solve_block
+    from evcal.plan.horizon import horizon_periods
+    from evcal.plan.simulate import check_sims
+    from evcal.threads import held_blas
+
+    opts, cal = _fitted_options(model)
+    panel = _stored_panel(model, keys)
+    plan_cal = cal if options["calendar"] is None else load_calendar_any(options["calendar"])
+    end = panel.periods[int(panel.last.max())]
+    periods = horizon_periods(SimpleNamespace(freq=panel.freq, history_end=str(end), label=panel.label),
+                              options["start"], options["end"])
+    n_sims = check_sims(options["n_sims"], len(periods))
+    frames, alone = [], []
+    horizons: dict[int, Any] = {}
+    with held_blas(10**9, 10**3):  # blocks of many series: one BLAS thread, as the panel fit holds it
+        units, _, _ = plan_units(panel, cal, opts)
+        for unit in units:
+            if not isinstance(unit, BatchUnit):
+                alone.extend(int(s) for s in unit.sids)
+                continue
+            fit = solve_block(unit, covariance=n_sims > 0)
+            alone.extend(int(s) for s in fit.broken)
+            if not len(fit.sids):
+                continue
+            gid = fit.group.gid
+            if gid not in horizons:
+                horizons[gid] = group_horizon(fit, plan_cal, periods, options["new_events"])
+            h = horizons[gid]
+            parts = plan_block(fit, h, plan_cal, n_sims, options["seed"])
+            frame = block_frame(fit, h, parts, panel.label)
+            # a base or plan that is not a finite number: the single-series plan says so in one line
+            bad = ~np.isfinite(frame[["base", "plan"]].to_numpy()).all(axis=1)
+            if bad.any():
+                lost = np.unique(frame["_sid"].to_numpy()[bad])
+                alone.extend(int(s) for s in lost)
+                frame = frame[~frame["_sid"].isin(lost)]
+            sid = frame["_sid"].to_numpy()
+            for i, c in enumerate(model.key_cols):
+                frame.insert(i, c, panel.keys[c].to_numpy()[sid])
+            frames.append(frame.rename(columns={"_sid": "_pos"}))
+    return frames, sorted(alone)
+
+
 def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: list[str] | None = None,
                calendar: Any = None, new_events: str = "error", n_sims: int = 1000, seed: int = 0,
                total: Any = None, totals: Any = None, allocate: PanelResult | str | Path | None = None,
-               workers: int | None = None, progress: bool | None = None) -> pd.DataFrame:
+               workers: int | None = None, progress: bool | None = None, batched: bool = True,
+               fallback: list[dict[str, Any]] | None = None) -> pd.DataFrame:
     """Plan each selected series of a panel; optionally allocate the plans to a child panel.
 
     Returns
@@ -80,6 +180,14 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         (a ``lift:`` column is 0 for series whose horizon does not touch the
         event). With ``allocate``: the child keys, ``date, share`` and the
         allocated amounts.
+
+    Parameters
+    ----------
+    batched : bool
+        Plan the series that share a design in blocks (:mod:`evcal.plan.batched`); False plans
+        every series with the single-series plan.
+    fallback : list, optional
+        Receives the keys of the series planned one by one (the blocks do not handle them).
 
     Raises
     ------
@@ -92,6 +200,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
     from evcal.progress import progress_enabled
 
     check_sims(n_sims)  # before any series is loaded or planned
+    fallback = [] if fallback is None else fallback
     path = None if isinstance(model, PanelResult) else str(model)
     model = load_panel(path) if path is not None else model
     if series:
@@ -108,13 +217,21 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
     options = {"start": start, "end": end, "calendar": calendar, "new_events": new_events,
                "n_sims": n_sims, "seed": seed, "total": total, "totals": totals}
     in_workers = bool(workers) and path is not None
-    chunks = [PlanChunk(i, path if in_workers else model, keys[a:a + PLAN_CHUNK], options)
-              for i, a in enumerate(range(0, len(keys), PLAN_CHUNK))]
     show = progress_enabled(progress)
-    run = dask_runner(workers, None, show, "planning series") if in_workers \
-        else local_runner(show, threads=1, label="planning series")
-    done = sorted(run(chunks, _plan_chunk), key=lambda c: c.index)
-    table = pd.concat([c.frame for c in done], ignore_index=True)
+    frames: list[pd.DataFrame] = []
+    alone = list(range(len(keys)))
+    if total is None and totals is None and batched:
+        frames, alone = plan_blocks(model, keys, options)
+    fallback.extend(keys[i] for i in alone)
+    if alone:
+        chunks = [PlanChunk(i, path if in_workers else model, [keys[j] for j in alone[a:a + PLAN_CHUNK]],
+                            options, positions=alone[a:a + PLAN_CHUNK])
+                  for i, a in enumerate(range(0, len(alone), PLAN_CHUNK))]
+        run = dask_runner(workers, None, show, "planning series") if in_workers \
+            else local_runner(show, threads=1, label="planning series")
+        frames += [c.frame for c in run(chunks, _plan_chunk)]
+    table = pd.concat(frames, ignore_index=True).sort_values("_pos", kind="stable").drop(columns="_pos")
+    table = table.reset_index(drop=True)
     lift_cols = [c for c in table.columns if str(c).startswith("lift:")]
     table[lift_cols] = table[lift_cols].fillna(0.0)
     order = model.key_cols + ["date", "base", "plan", "low", "high"] + lift_cols + ["assumptions"]
@@ -146,7 +263,8 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
         raise PlanError(f"--out {out}: a panel plan is one long table; write it as CSV (e.g. plan.csv)")
     check_output(out, "plan", inputs=[model_dir, kwargs.get("calendar"), kwargs.get("totals"),
                                       kwargs.get("allocate")], force=force)
-    table = plan_panel(model_dir, start, end, **kwargs)
+    alone: list[dict[str, Any]] = []
+    table = plan_panel(model_dir, start, end, fallback=alone, **kwargs)
     with atomic_path(out) as tmp:
         write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
     keys = [c for c in table.columns if c not in ("date", "share", "base", "plan", "low", "high",
@@ -154,6 +272,10 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
     n_series = len(table[keys].drop_duplicates()) if keys else 1
     echo(f"planned {n_series} series, {table['date'].nunique()} periods each; total "
          f"{np.nansum(table['plan'].to_numpy(dtype=float)):,.0f}")
+    if alone:
+        shown = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
+        echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series error "
+             f"models, or a block fit that broke down): {shown}{' ...' if len(alone) > 5 else ''}")
     if kwargs.get("allocate"):
         echo("allocated top-down: each parent's plan spread over its children by their own base profiles")
     echo("Plans are estimates; the decisions stay with the people who own them.")

@@ -18,7 +18,7 @@ model's trend, seasonal and intervention terms. What goes into the plan:
 
 from __future__ import annotations
 
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -26,11 +26,12 @@ import pandas as pd
 
 from evcal.design.interventions import PERSISTENT
 from evcal.design.matrix import build_design
-from evcal.effects import closure_shares, decompose
+from evcal.effects import GroupInfo, SpanContext, closure_shares
+from evcal.effects.decompose import decompose_block
 from evcal.errors import PlanError
 from evcal.plan.horizon import full_years, horizon_periods, period_dates, period_years
 from evcal.plan.result import Plan
-from evcal.plan.schedule import resolve_schedule
+from evcal.plan.schedule import Schedule, resolve_schedule
 from evcal.plan.simulate import check_sims, error_forecast, simulate_interval
 from evcal.plan.spread import check_total, read_totals, spread
 from evcal.threads import held_blas
@@ -135,16 +136,7 @@ def plan_periods(
 
     n_sims = check_sims(n_sims, len(periods))
     cal = result.calendar if calendar is None else load_calendar_any(calendar)
-    colmap = cal.event_columns()
-    event_cols = [c for c, ev in colmap.items() if cal.event(ev).effect.kind != "zero"]
-    spec = replace(result.spec, event_columns=event_cols)
-    design = build_design(spec, cal, periods)
-    X = design.X.copy()
-    share = design.open_share
-    schedule = resolve_schedule(result, cal, X[event_cols], new_events)
-
-    persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
-    base_cols = [c for c in list(result.base_columns) + persistent if c in X.columns]
+    h = horizon(result, cal, periods, new_events)
     steps = periods.asi8 - pd.Period(result.history_end, freq=result.freq).ordinal
     err = error_forecast(result.error_model, result.sigma2, steps)
     if result.transform == "log":
@@ -153,19 +145,88 @@ def plan_periods(
         smear = np.exp(err.var / 2.0) if err.kind == "arima" else np.full(len(periods), result.smear)
     else:
         smear = np.ones(len(periods))
+    pmap = {c: np.array([float(v)]) for c, v in result.params.items()}
+    base, fitted, lifts = plan_parts(h, plan_group(result, h), pmap, smear[None, :], err.mean[None, :])
 
-    params = result.params.copy()
-    params[ERROR_COLUMN] = 1.0
-    Xd = X.copy()
-    Xd[ERROR_COLUMN] = err.mean
-    # (additive model: an assumed lift is a share of the base; decompose multiplies it by the base)
-    view = replace(result, params=params, status=schedule.status, like_map=schedule.like_map,
-                   assumed=schedule.assumed, base_columns=base_cols + [ERROR_COLUMN], smear=1.0)
+    table = pd.DataFrame({"date": period_dates(periods, result.label), "base": base[0], "plan": fitted[0]})
+    _check_finite(table, result)
+    if n_sims > 0:
+        with held_blas(n_sims, len(result.params)):  # draws x coefficients: small, one thread
+            low, high = simulate_interval(result, h.X, h.share.to_numpy(), h.base_cols, h.schedule, err,
+                                          n_sims=n_sims, seed=seed)
+        table["low"], table["high"] = low, high
+    else:
+        table["low"] = table["high"] = np.nan
+    for ev in h.events:
+        table[f"lift:{ev}"] = lifts[ev][0]
+    table["assumptions"] = h.assumption_texts()
+    years = period_years(periods, result.label)
+    model_totals = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
+    table, factors, target = spread(table, years, total, totals)
+
+    notes = []
+    dropped = [t.name for t in result.spec.intervention_terms() if t.type not in PERSISTENT]
+    if dropped:
+        notes.append(f"not planned (over before the horizon): {', '.join(dropped)}")
+    if err.kind == "arima":
+        notes.append("the base includes the forecast of the ARIMA error from the end of the history")
+    return Plan(
+        table=table, periods=periods, freq=result.freq, label=result.label, events=h.events,
+        assumptions=h.active, model_totals=model_totals, target=target, factors=factors,
+        full_years=full_years(periods, result.label), last_year=dict(result.last_year or {}),
+        average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
+        interval_note=interval_note(n_sims), notes=notes, target_total=total, in_season=h.in_season,
+        result=result,
+    )
+
+
+def interval_note(n_sims: int) -> str:
+    """The plan's sentence on how its low/high were made."""
+    if n_sims > 0:
+        return (f"low/high: 95% prediction interval from {n_sims} simulation draws of the "
+                "coefficients (normal, with the fit's covariance) and of each period's noise.")
+    return "No interval was simulated (n_sims=0)."
+
+
+@dataclass
+class Horizon:
+    """What every model of one design plans with over a horizon: one design, one schedule of lifts.
+
+    ``X`` holds the horizon's columns (event columns at the model's θ; the
+    batched plan bends them per series), ``base_cols`` the columns that make the
+    base, ``events`` the events touching the horizon in order of first appearance.
+    """
+
+    periods: pd.PeriodIndex
+    X: pd.DataFrame
+    share: pd.Series
+    closures: pd.DataFrame
+    colmap: dict[str, str]
+    event_cols: list[str]
+    schedule: Schedule
+    base_cols: list[str]
+    on_own: pd.DataFrame
+    events: list[str]
+    in_season: list[str]
+    active: dict[str, str]
+
+    def assumption_texts(self) -> list[str]:
+        """The assumptions active in each period (the plan's ``assumptions`` column)."""
+        return ["; ".join(note for ev, note in self.active.items() if self.on_own[ev].iat[i])
+                for i in range(len(self.periods))]
+
+
+def horizon(result: Any, cal: Any, periods: pd.PeriodIndex, new_events: str = "error") -> Horizon:
+    """The horizon's design, schedule and events for ``result`` (a model, or a design group's view of one)."""
+    colmap = cal.event_columns()
+    event_cols = [c for c, ev in colmap.items() if cal.event(ev).effect.kind != "zero"]
+    spec = replace(result.spec, event_columns=event_cols)
+    design = build_design(spec, cal, periods)
+    X = design.X.copy()
+    schedule = resolve_schedule(result, cal, X[event_cols], new_events)
+    persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
+    base_cols = [c for c in list(result.base_columns) + persistent if c in X.columns]
     closures = closure_shares(cal, periods)
-    with np.errstate(over="ignore", invalid="ignore"):  # a non-finite plan is one line below
-        parts = decompose(view, Xd, share, closures, terms=event_cols)
-    parts = parts.mul(smear, axis=0)
-
     # which periods each event touches (its own columns, then its closures too)
     on_own = X[event_cols].abs().gt(0).T.groupby(colmap).any().T
     on = pd.concat([on_own, closures.gt(0)], axis=1).T.groupby(level=0).any().T
@@ -175,44 +236,43 @@ def plan_periods(
     in_season = [ev for ev in events if ev not in closures.columns and all(
         schedule.status[c].status == "unidentifiable"
         for c in event_cols if colmap[c] == ev)]
-
-    table = pd.DataFrame({"date": period_dates(periods, result.label), "base": parts["base"].to_numpy(),
-                          "plan": parts["fitted"].to_numpy()})
-    _check_finite(table, result)
-    if n_sims > 0:
-        with held_blas(n_sims, len(result.params)):  # draws x coefficients: small, one thread
-            low, high = simulate_interval(result, X, share.to_numpy(), base_cols, schedule, err,
-                                          n_sims=n_sims, seed=seed)
-        table["low"], table["high"] = low, high
-        interval_note = (f"low/high: 95% prediction interval from {n_sims} simulation draws of the "
-                         "coefficients (normal, with the fit's covariance) and of each period's noise.")
-    else:
-        table["low"] = table["high"] = np.nan
-        interval_note = "No interval was simulated (n_sims=0)."
-    for ev in events:
-        cols = [c for c in parts.columns if c not in ("base", "fitted") and colmap.get(c, c) == ev]
-        table[f"lift:{ev}"] = parts[cols].sum(axis=1).to_numpy() if cols else 0.0
-
-    # assumptions active in each period
     active = {ev: note for ev, note in schedule.notes.items() if on_own[ev].any()}
-    table["assumptions"] = ["; ".join(note for ev, note in active.items() if on_own[ev].iat[i])
-                            for i in range(len(periods))]
+    return Horizon(periods, X, design.open_share, closures, colmap, event_cols, schedule, base_cols, on_own,
+                   events, in_season, active)
 
-    years = period_years(periods, result.label)
-    model_totals = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
-    table, factors, target = spread(table, years, total, totals)
 
-    notes = []
-    dropped = [t.name for t in spec.intervention_terms() if t.type not in PERSISTENT]
-    if dropped:
-        notes.append(f"not planned (over before the horizon): {', '.join(dropped)}")
-    if err.kind == "arima":
-        notes.append("the base includes the forecast of the ARIMA error from the end of the history")
-    return Plan(
-        table=table, periods=periods, freq=result.freq, label=result.label, events=events,
-        assumptions=active, model_totals=model_totals, target=target, factors=factors,
-        full_years=full_years(periods, result.label), last_year=dict(result.last_year or {}),
-        average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
-        interval_note=interval_note, notes=notes, target_total=total, in_season=in_season,
-        result=result,
-    )
+def plan_group(result: Any, h: Horizon) -> GroupInfo:
+    """The decomposition's view of ``result`` on the horizon: the schedule's statuses, the plan's base."""
+    info = GroupInfo.of_result(result)
+    return replace(info, status=h.schedule.status, like_map=h.schedule.like_map, assumed=h.schedule.assumed,
+                   base_columns=h.base_cols + [ERROR_COLUMN])
+
+
+def plan_parts(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
+               err_mean: np.ndarray | None = None, curved: dict[str, np.ndarray] | None = None,
+               ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+    """Base, plan and each event's lift (m, n) for m coefficient vectors on one horizon.
+
+    ``pmap`` maps each coefficient to its (m,) values, ``smear`` (m, n) the
+    mean correction, ``err_mean`` (m, n) the error's forecast on the model scale
+    (zero when None), ``curved`` event columns that differ by series (m, n).
+    One decomposition (:func:`evcal.effects.decompose_block`) for one model and many.
+    """
+    m, n = smear.shape
+    columns = dict(h.X.items())
+    columns[ERROR_COLUMN] = np.zeros(n) if err_mean is None else err_mean[0]
+    if err_mean is not None and m > 1 and np.any(err_mean != err_mean[:1]):
+        raise ValueError("plan_parts: an error forecast that differs by series is not batched")
+    ctx = SpanContext(h.periods, None, pd.DataFrame(columns, index=h.periods), h.share.to_numpy(dtype=float),
+                      h.closures, np.ones(n, dtype=bool))
+    pmap = {**pmap, ERROR_COLUMN: np.ones(m)}
+    support = {c: np.flatnonzero(np.any(v != 0, axis=0)) for c, v in (curved or {}).items()}
+    with np.errstate(over="ignore", invalid="ignore"):  # a non-finite plan is one line in the caller
+        base, fitted, parts = decompose_block(ctx, group, pmap, np.ones(m), curved=curved,
+                                              curved_support=support, terms=h.event_cols)
+    base, fitted = base * smear, fitted * smear
+    lifts = {}
+    for ev in h.events:
+        cols = [c for c in parts if h.colmap.get(c, c) == ev]
+        lifts[ev] = sum(parts[c] for c in cols) * smear if cols else np.zeros((m, n))
+    return base, fitted, lifts

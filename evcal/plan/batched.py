@@ -1,0 +1,225 @@
+"""Plans for the series of a panel in blocks: one horizon design per design group, m coefficient vectors.
+
+The series of a panel that share a design (same fit rows, transform and
+trend origin: :mod:`evcal.engine.groups`) are solved again in their blocks
+from the folder's stored histories, exactly as the engine fitted them and as
+the single-series plan refits each one (:meth:`evcal.panel.result.PanelResult.series_result`):
+coefficients, the θ their event columns were aggregated with, the smearing
+factor and each series' whole covariance. The horizon's design and schedule
+are built once per group (:func:`evcal.plan.build.horizon`); base, plan and
+every lift come from the one decomposition for all the block's series
+(:func:`evcal.plan.build.plan_parts`); the intervals from one simulation of
+the block (:func:`evcal.plan.simulate.simulate_block`), with the same random
+numbers per series as the single-series plan.
+
+What the blocks do not handle goes to the single-series plan, series by
+series: the per-series estimators' series (ARIMA errors, count models) and
+series whose block fit broke down (the engine refits those on their own).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from types import SimpleNamespace
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.design.curved import CurvedEvents
+from evcal.design.events import EventColumns
+from evcal.model.estimators import ar_covariances, prewhitened_errors
+from evcal.model.passes import theta_sources
+from evcal.plan.build import Horizon, horizon, plan_group, plan_parts
+from evcal.plan.horizon import period_dates
+from evcal.plan.simulate import simulate_block
+
+__all__ = ["BlockFit", "solve_block", "plan_block"]
+
+#: series whose (periods x coefficients) designs are factorised at once for their covariances
+COV_CHUNK = 64
+
+
+@dataclass
+class BlockFit:
+    """The fitted state a plan needs of a block's series (those not broken), in fitted-column order."""
+
+    group: Any  # evcal.engine.groups.Group
+    sids: np.ndarray  # series positions in the panel
+    params: np.ndarray  # (k, m)
+    theta: dict[str, np.ndarray]  # column -> (m,) log-lift its event column was aggregated with
+    smear: np.ndarray  # (m,)
+    sigma2: np.ndarray  # (m,)
+    cov: np.ndarray | None  # (m, k, k), None when no interval is wanted
+    broken: np.ndarray  # positions of the unit's series that go to the single-series plan
+
+
+def solve_block(unit: Any, covariance: bool = True) -> BlockFit:
+    """Solve a batched unit of the engine (:func:`evcal.engine.run.plan_units`) as the engine does.
+
+    The solve and the exact-aggregation passes are the engine's
+    (:func:`evcal.engine.units.run_batch`, without the output tables); each
+    series' covariance is its whole final design's, as
+    :func:`evcal.engine.units._block_model` makes it for a block of one.
+    """
+    from evcal.engine.refine import refine
+    from evcal.engine.units import _broken
+
+    g = unit.shared.group
+    rows = g.rows
+    y = unit.actual.T if rows.all() else unit.actual[:, rows].T
+    if g.transform == "log":
+        with np.errstate(divide="ignore"):
+            Y = np.log(y)
+        Y -= g.offset[:, None]
+    else:
+        share = g.share[:, None]
+        Y = (y / share) * np.where(share > 0, share, 1.0)
+    refined = first = None
+    if g.curve is not None:
+        first = g.solve.coefficients(Y)
+        refined = refine(g.info, g.curve, rows, g.solve.X, Y, first, cache=g.refine_cache)
+    if refined is not None:
+        B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
+    else:
+        B, E, sigma2 = g.solve.solve(Y)
+        errors = g.solve.errors(E)
+        term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
+        var = g.solve.contrast_variances(errors, term_idx, np.eye(len(term_idx))) if len(term_idx) \
+            else np.zeros((len(unit.sids), 0))
+        se = np.sqrt(np.clip(var, 0, None)).T
+    smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
+    broken = _broken(g, B, se, first, y)
+    if refined is not None and refined.beyond is not None:
+        broken |= refined.beyond
+    keep = ~broken
+    cols = g.info.fitted_cols
+    theta: dict[str, np.ndarray] = {}
+    X = np.broadcast_to(g.solve.X, (int(keep.sum()), *g.solve.X.shape))
+    if refined is not None:
+        sources = theta_sources(g.info.status, g.info.roles, g.info.like_map, cols)
+        theta = {c: refined.theta_in[s][keep] for c, s in sources.items() if s in refined.theta_in}
+        theta.update({c: np.full(int(keep.sum()), float(np.log1p(a))) for c, a in g.info.assumed.items()})
+        if covariance:
+            # the last pass's design of each series: its event columns for its own θ
+            X = X.copy()
+            idx = {c: i for i, c in enumerate(cols)}
+            for c, v in refined.curved.items():  # fitted columns first: a borrowed one adds onto its target
+                if g.info.status[c].status == "fitted" and c in idx:
+                    X[:, :, idx[c]] = v[keep][:, rows]
+            for c, v in refined.curved.items():
+                if g.info.status[c].status == "like" and g.info.like_map.get(c) in idx:
+                    X[:, :, idx[g.info.like_map[c]]] += v[keep][:, rows]
+    cov = _covariances(X, E[:, keep]) if covariance else None
+    return BlockFit(g, unit.sids[keep], B[:, keep], theta, smear[keep], sigma2[keep], cov,
+                    unit.sids[broken])
+
+
+def _covariances(X: np.ndarray, E: np.ndarray) -> np.ndarray:
+    """Each series' coefficient covariance (m, k, k) under its own design ``X`` (m, n, k), residuals (n, m).
+
+    The prewhitened HC2 sandwich of :class:`evcal.engine.batched.SharedSolve`, a few series at a time."""
+    m, _, k = X.shape
+    out = np.empty((m, k, k))
+    for a in range(0, m, COV_CHUNK):
+        Xc = X[a:a + COV_CHUNK]
+        Q, R = np.linalg.qr(Xc)
+        Z = np.matmul(Q, np.swapaxes(np.linalg.inv(R), 1, 2))  # X (X'X)^-1 = Q R^-T
+        lev = np.einsum("mnk,mnk->nm", Xc, Z)
+        errors = prewhitened_errors(E[:, a:a + COV_CHUNK], lev)
+        out[a:a + COV_CHUNK] = ar_covariances(np.moveaxis(Z, 0, 2), errors)
+    return out
+
+
+def group_view(g: Any) -> SimpleNamespace:
+    """What the plan reads of a model, for a design group (θ apart: the plan bends the columns per series)."""
+    info = g.info
+    return SimpleNamespace(spec=replace(info.spec, event_theta={}), base_columns=info.base_columns,
+                           status=info.status, params=pd.Series(0.0, index=info.fitted_cols),
+                           like_map=info.like_map, assumed=info.assumed, event_info=info.event_info,
+                           transform=info.transform, intervention_names=info.intervention_names,
+                           closure_events=info.closure_events, event_labels=info.event_labels)
+
+
+def plan_block(fit: BlockFit, h: Horizon, cal: Any, n_sims: int, seed: int) -> dict[str, Any]:
+    """Base, plan, low, high (m, n), each lift (m, n) and the assumptions of a block's series on ``h``."""
+    g = fit.group
+    view = group_view(g)
+    m, n = len(fit.sids), len(h.periods)
+    cols = g.info.fitted_cols
+    pmap = {c: fit.params[i] for i, c in enumerate(cols)}
+    # the horizon's event columns for each series' θ (EventColumns' rule for where θ comes from)
+    ev = EventColumns(view.spec.calendar(cal), h.event_cols, {c: 0.0 for c in fit.theta})
+    curve = CurvedEvents(ev.calendar, h.event_cols, h.periods)
+    curved = {}
+    for c in h.event_cols:
+        source, fixed = ev.theta_source(c)
+        th = fit.theta[source] if source in fit.theta else np.full(m, fixed)
+        curved[c] = curve.column(c, th)
+    smear = np.broadcast_to((fit.smear if g.transform == "log" else np.ones(m))[:, None], (m, n))
+    base, fitted, lifts = plan_parts(h, plan_group(view, h), pmap, smear, curved=curved)
+    out = {"base": base, "plan": fitted, "lifts": lifts}
+    if n_sims > 0 and fit.cov is not None:
+        M, const = _level_map(fit, h, curved)
+        out["low"], out["high"] = simulate_block(g.transform, fit.params.T, fit.cov, M, const,
+                                                 np.sqrt(np.clip(fit.sigma2, 0.0, None)),
+                                                 h.share.to_numpy(dtype=float), n_sims, seed)
+    else:
+        out["low"] = out["high"] = np.full((m, n), np.nan)
+    return out
+
+
+def _level_map(fit: BlockFit, h: Horizon, curved: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    """``M`` (m, n, k) and ``const`` (m, n): the model-scale level of each period as ``M β + const``.
+
+    The terms :func:`evcal.plan.simulate.simulate_interval` draws: the base
+    columns, each scheduled event column on its own or borrowed coefficient,
+    assumed lifts fixed (on the log scale ``log(1 + a)``; in the additive model a
+    share ``a`` of the base).
+    """
+    g = fit.group
+    cols = g.info.fitted_cols
+    idx = {c: i for i, c in enumerate(cols)}
+    m, n, k = len(fit.sids), len(h.periods), len(cols)
+    M = np.zeros((m, n, k))
+    const = np.zeros((m, n))
+    for c in h.base_cols:
+        if c in idx:
+            M[:, :, idx[c]] = h.X[c].to_numpy(dtype=float)
+    scale = np.ones((m, n))
+    sched = h.schedule
+    for c in sched.columns:
+        x = curved[c]
+        kind = sched.status[c].status
+        if not np.any(x) or kind not in ("fitted", "like", "assumed"):
+            continue
+        if kind == "assumed":
+            if g.transform == "none":
+                scale += sched.assumed[c] * x
+            else:
+                const += float(np.log1p(sched.assumed[c])) * x
+            continue
+        src = sched.like_map[c] if kind == "like" else c
+        if src in idx:
+            M[:, :, idx[src]] += x
+    if g.transform == "none":
+        base_idx = [idx[c] for c in h.base_cols if c in idx]
+        M[:, :, base_idx] *= scale[:, :, None]
+    return M, const
+
+
+def block_frame(fit: BlockFit, h: Horizon, parts: dict[str, Any], label: str) -> pd.DataFrame:
+    """The long plan table of a block: ``_sid, date, base, plan, low, high, lift:<event>..., assumptions``."""
+    m, n = len(fit.sids), len(h.periods)
+    frame = {"_sid": np.repeat(fit.sids, n), "date": np.tile(period_dates(h.periods, label), m)}
+    for c in ("base", "plan", "low", "high"):
+        frame[c] = parts[c].ravel()
+    for ev in h.events:
+        frame[f"lift:{ev}"] = parts["lifts"][ev].ravel()
+    frame["assumptions"] = np.tile(np.array(h.assumption_texts(), dtype=object), m)
+    return pd.DataFrame(frame)
+
+
+def group_horizon(fit: BlockFit, cal: Any, periods: pd.PeriodIndex, new_events: str) -> Horizon:
+    """The horizon of a block's design group."""
+    return horizon(group_view(fit.group), cal, periods, new_events)

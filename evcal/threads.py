@@ -18,8 +18,10 @@ from contextlib import contextmanager
 __all__ = ["ONE_THREAD_BELOW", "blas_threads_for", "held_blas"]
 
 #: multiply-adds of the largest product (rows x columns²) below which one BLAS thread is as fast as
-#: more: measured with ``python benchmarks/blas_threads.py`` (see the figure in docs/scale.md)
-ONE_THREAD_BELOW = 2e9
+#: more. Measured with ``python benchmarks/blas_threads.py --repeat 3`` on the 2-core development
+#: machine (OpenBLAS, load 1.1-2.3): two threads were 0.27x as fast at 1.9e8 and 8.0e8, 0.12x at
+#: 4.5e9, and first faster at 1.6e10 (1.45x) and 5.0e10 (1.49x)
+ONE_THREAD_BELOW = 1e10
 
 
 def blas_threads_for(rows: int, cols: int) -> int | None:

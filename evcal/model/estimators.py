@@ -137,6 +137,7 @@ class PrewhitenedErrors:
                 w *= w
                 w *= d[:, None, :]
                 out[idx, c:c + step] = w.sum(axis=0).T
+                del w  # before the next chunk's array is made: one chunk alive at a time
         return out
 
 

@@ -115,7 +115,8 @@ class PrewhitenedErrors:
         w = np.empty((n,) + a.shape[1:2] + (m,))
         w[...] = a if a.ndim == 3 else a[:, :, None]
         for idx in self.bands(w.shape[1]):
-            w[:, :, idx] = _ar_backward(w[:, :, idx], self._band_phi(idx))
+            # the band's series gathered last-axis contiguous (fancy indexing alone puts them outermost)
+            w[:, :, idx] = _ar_backward(np.ascontiguousarray(w[:, :, idx]), self._band_phi(idx))
         return w
 
     def weighted_squares(self, a: np.ndarray) -> np.ndarray:

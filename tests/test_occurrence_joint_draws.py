@@ -103,3 +103,24 @@ def test_chunks_of_one_series_give_the_same_bounds(monkeypatch) -> None:
     whole = _joint_bounds(*args)
     monkeypatch.setattr(occurrences, "_CHUNK", 1)
     np.testing.assert_array_equal(_joint_bounds(*args), whole)
+
+
+def test_two_players_before_and_after_an_intervention_take_each_period_factor() -> None:
+    # the promo and the fair share a period before the shift (period 1) and one after it (period 4),
+    # with the same values in both: the gain was drawn once for the two and took the first period's
+    # factor, so the occurrence after the shift read as if the shift were not in force (found while
+    # measuring issue 15's cost; fails on main: series 0 high 15.05 against the simulation's 28.02)
+    rng, ctx, group, curved, pmap, cov = _setup(1)
+    curved["promo"][:, 1] = curved["promo"][:, 4] = 0.5
+    ctx.columns["fair"][[1, 4]] = 0.6
+    idx = np.array([[1], [4]])
+    mask = np.ones((2, 1))
+    og = OccGroup(np.arange(2), ["promo"], False, idx, mask, mask.copy(), np.full((2, 1), 7.0), mask.copy())
+    level0 = rng.uniform(10.0, 50.0, (M, 2, 1))
+    frac = np.ones((M, 2, 1))
+    draws = _Draws(group, pmap, {}, cov)
+    got = _joint_bounds(ctx, group, og, np.arange(2), level0, frac, draws, curved, NAMES)
+    xs = {"promo": curved["promo"][:, idx], **{c: np.broadcast_to(ctx.columns[c][idx], (M, 2, 1))
+                                               for c in ("shift", "pulse", "fair")}}
+    want = _reference(pmap, cov, xs, level0, frac, mask, "promo", ["fair"], ["shift", "pulse"])
+    np.testing.assert_allclose(got, want, rtol=1e-12, atol=1e-9)

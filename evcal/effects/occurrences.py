@@ -192,12 +192,14 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
         which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in key])
         return np.unique(which, return_index=True)[1], which.reshape(k, width)
 
-    # the interventions' factor and the events' gain are drawn once per distinct column values
+    # the interventions' factor and the events' gain are drawn once per distinct column values; with
+    # several players the factor is inside each gain (the Shapley value), so a gain is drawn per
+    # distinct value of the players' and the factor's columns together
+    names = list(players)
     f_first, f_which = distinct(factor_cols)
-    g_first, g_which = distinct(player_cols)
+    g_first, g_which = distinct(player_cols if len(names) == 1 else factor_cols + player_cols)
     per_series = isinstance(frac, np.ndarray) and frac.ndim == 3
     frac_p = frac[:, pick] if per_series else (frac[pick] if isinstance(frac, np.ndarray) else frac)
-    names = list(players)
     step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + len(g_first) + k + 2)))
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))

@@ -18,6 +18,7 @@ import pandas as pd
 
 from evcal.discovery.abnormal import AbnormalYear, abnormal_years, exclusion_advice
 from evcal.discovery.cycles import detect_cycles
+from evcal.discovery.detection import outlier_pattern
 from evcal.discovery.findings import Findings
 from evcal.discovery.inputs import read_discover_inputs, with_entries
 from evcal.discovery.lost_demand import (
@@ -34,7 +35,6 @@ from evcal.discovery.outliers import (
     chen_liu,
     joint_residuals,
     lasting_shifts,
-    outlier_pattern,
 )
 from evcal.discovery.recurring import Finding, find_recurring
 from evcal.discovery.suggestions import (

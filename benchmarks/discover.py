@@ -25,15 +25,20 @@ tree holding this script.
 
 from __future__ import annotations
 
-import argparse
-import filecmp
 import os
-import statistics
-import subprocess
 import sys
-import tempfile
-import time
-from pathlib import Path
+
+# benchmarks/calendar.py would shadow the standard library's calendar module (pandas imports it)
+if sys.path and os.path.abspath(sys.path[0]) == os.path.dirname(os.path.abspath(__file__)):
+    sys.path.pop(0)
+
+import argparse  # noqa: E402
+import filecmp  # noqa: E402
+import statistics  # noqa: E402
+import subprocess  # noqa: E402
+import tempfile  # noqa: E402
+import time  # noqa: E402
+from pathlib import Path  # noqa: E402
 
 HERE = Path(__file__).resolve().parent.parent
 US = "name: Chicago L, Clark/Lake (modeldata::Chicago)\npublic_holidays:\n  country: US\n"

@@ -83,12 +83,22 @@ def _run(tree: Path, history: Path, calendar: Path, out: Path, threads: int) -> 
     env = {**os.environ, "PYTHONPATH": str(tree), "OPENBLAS_NUM_THREADS": str(threads),
            "OMP_NUM_THREADS": str(threads), "MKL_NUM_THREADS": str(threads)}
     start = time.perf_counter()
+    # run outside both trees: ``python -m`` puts the working folder first on the path
     done = subprocess.run([sys.executable, "-m", "evcal.cli", "discover", str(history), "-c", str(calendar),
-                           "--out", str(out), "--force"], env=env, capture_output=True, text=True)
+                           "--out", str(out), "--force"], env=env, capture_output=True, text=True,
+                          cwd=out.parent)
     took = time.perf_counter() - start
     if done.returncode:
         raise SystemExit(f"discover failed with {tree}:\n{done.stderr}")
     return took
+
+
+def _check_tree(side: str, tree: Path, folder: Path) -> None:
+    """Stop unless a process with ``PYTHONPATH=tree`` imports evcal from ``tree``."""
+    where = subprocess.run([sys.executable, "-c", "import evcal; print(evcal.__file__)"], cwd=folder,
+                           env={**os.environ, "PYTHONPATH": str(tree)}, capture_output=True, text=True).stdout
+    if not where.startswith(str(tree)):
+        raise SystemExit(f"{side}: evcal is imported from {where.strip()}, not from {tree}")
 
 
 def _load() -> str:
@@ -112,6 +122,8 @@ def main() -> None:
             (tmp_path / "before").mkdir()
             before = _export(args.before_ref, tmp_path / "before")
         sides = {"before": before.resolve(), "after": args.after.resolve()}
+        for side, tree in sides.items():
+            _check_tree(side, tree, tmp_path)
         print(f"before: {sides['before']}{'' if args.before else f' (git {args.before_ref})'}")
         print(f"after:  {sides['after']}")
         print(f"BLAS threads (OPENBLAS/OMP/MKL_NUM_THREADS) on both sides: {args.threads}; "

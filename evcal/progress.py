@@ -21,10 +21,11 @@ def progress_enabled(flag: bool | None = None) -> bool:
 
 
 @contextlib.contextmanager
-def progress_bar(total: int, enabled: bool, label: str) -> Iterator[Callable[[int], None]]:
-    """A transient progress bar on stderr; yields ``advance(n)`` (which does nothing when not enabled)."""
+def progress_bar(total: int, enabled: bool, label: str) -> Iterator[Callable[..., None]]:
+    """A transient progress bar on stderr; yields ``advance(n, stage=None)`` (which does nothing when not
+    enabled); ``stage``, when given, names what runs next beside the label."""
     if not enabled:
-        yield lambda n: None
+        yield lambda n, stage=None: None
         return
     from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
@@ -32,4 +33,12 @@ def progress_bar(total: int, enabled: bool, label: str) -> Iterator[Callable[[in
     with Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
                   TimeRemainingColumn(), console=Console(stderr=True), transient=True) as bar:
         task = bar.add_task(label, total=total)
-        yield lambda n: bar.advance(task, n)
+
+        def advance(n: int, stage: str | None = None) -> None:
+            if stage is None:
+                bar.advance(task, n)
+                return
+            bar.update(task, advance=n, description=f"{label}: {stage}")
+            bar.refresh()  # a new stage is shown at once, not at the refresh thread's next tick
+
+        yield advance

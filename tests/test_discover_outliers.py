@@ -9,13 +9,8 @@ import statsmodels.api as sm
 import statsmodels.datasets as smd
 from scipy.stats import norm
 
-from evcal.discovery.outliers import (
-    chen_liu,
-    critical_value,
-    detection_statistics,
-    outlier_pattern,
-    robust_sigma,
-)
+from evcal.discovery.detection import detection_statistics, outlier_pattern, robust_sigma
+from evcal.discovery.outliers import chen_liu, critical_value
 
 
 def _seasonal_design(n: int, period: int = 12) -> np.ndarray:

@@ -227,12 +227,18 @@ def test_discover_reports_progress_over_its_steps(monkeypatch) -> None:
     from evcal.discovery.run import STEPS
 
     ticks: list[int] = []
+    stages: list[str] = []
+
+    def advance(n: int, stage: str | None = None) -> None:
+        ticks.append(n)
+        stages.extend([stage] if stage else [])
 
     @contextlib.contextmanager
     def bar(total, enabled, label):
         assert enabled and total == len(STEPS) and label == "discover"
-        yield ticks.append
+        yield advance
 
     monkeypatch.setattr(bars, "progress_bar", bar)
     evcal.discover(_shifted_history(), errors="ols", index_effects=False, progress=True)
     assert sum(ticks) == len(STEPS)
+    assert stages == list(STEPS)  # each stage named as it starts

@@ -33,9 +33,9 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import statsmodels.api as sm
 from dateutil.easter import easter
 from scipy import stats
+from statsmodels.regression.linear_model import OLS  # not statsmodels.api: half a second to import
 
 __all__ = ["EasterCluster", "WINDOWS", "easter_cluster", "easter_critical", "easter_months", "easter_shares"]
 
@@ -138,7 +138,7 @@ def easter_cluster(y: pd.Series | np.ndarray, exog: pd.DataFrame | np.ndarray | 
         # a regressor the model already spans (an Easter event in the calendar) adds no rank
         if np.linalg.matrix_rank(design) <= rank or rows.sum() <= rank + 2:
             continue
-        res = sm.OLS(yv[rows], design).fit()
+        res = OLS(yv[rows], design).fit()
         t = float(np.asarray(res.tvalues)[-1])
         if np.isfinite(t) and (best is None or abs(t) > abs(best.t)):
             months = tuple(sorted({int(p.start_time.month) for p, s in zip(periods, share, strict=True)

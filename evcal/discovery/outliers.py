@@ -1,4 +1,4 @@
-"""Additive outliers, level shifts and temporary changes by the Chen–Liu procedure.
+"""The Chen–Liu search: additive outliers, level shifts and temporary changes.
 
 Chen, C. and Liu, L.-M. (1993), "Joint estimation of model parameters and
 outlier effects in time series", JASA 88(421), 284–297. The model is a
@@ -15,16 +15,21 @@ The three stages, iterated until no new effect is found:
 1. **Detection** on the residuals ``e = phi(B) u``: for each type and date
    ``t0`` the least-squares effect ``w = sum x e / sum x^2`` of
    ``x = phi(B) xi(B) I(t0)`` taken net of the regressors (Chen & Liu have
-   none), and ``tau = w sqrt(sum x^2) / sigma``, ``sigma = 1.4826 MAD(e)``.
+   none), and ``tau = w sqrt(sum x^2) / sigma``, ``sigma = 1.4826 MAD(e)``,
+   for every date and type at once (:mod:`evcal.discovery.detection`).
    The largest ``|tau|`` above the critical value is taken, its effect
    removed from ``e``, and the search repeats (Chen & Liu locate all
    exceeding dates, then thin them: one at a time is the more conservative
    reading).
 2. **Joint estimation** of ``b`` and every found effect by least squares
-   (``statsmodels`` OLS; with AR errors on the ``phi(B)``-filtered data, a
-   feasible GLS in the manner of Cochrane & Orcutt 1949). The effect with the
-   smallest ``|t|`` below the critical value is dropped, and again, until all
-   are above it.
+   (with AR errors on the ``phi(B)``-filtered data, a feasible GLS in the
+   manner of Cochrane & Orcutt 1949). The regressors are factorised once
+   (SVD) and projected out of the effects' patterns (Frisch–Waugh–Lovell), so
+   each effect dropped costs a solve of the small system of the effects
+   left, not a new regression; the numbers are those of OLS on all columns
+   (``statsmodels``, by pseudo-inverse), which the tests check. The effect
+   with the smallest ``|t|`` below the critical value is dropped, and again,
+   until all are above it.
 3. Re-estimate the AR part from the new residuals and go back to 1.
 
 The critical value depends on the series length ``n``: 3 for ``n <= 50``, 4
@@ -40,19 +45,28 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import statsmodels.api as sm
-from scipy.signal import lfilter
+from scipy.linalg import qr_delete, solve_triangular
 
-__all__ = ["Outlier", "OutlierSearch", "TC_DELTA", "chen_liu", "critical_value", "detection_statistics",
-           "joint_residuals", "lasting_shifts", "outlier_pattern", "robust_sigma"]
+from evcal.discovery.detection import (
+    TYPES,
+    all_statistics,
+    ar_filter,
+    candidates,
+    net_pattern,
+    orthonormal_basis,
+    outlier_pattern,
+    pattern_sums,
+    robust_sigma,
+)
 
-TYPES = ("AO", "LS", "TC")
-#: Chen & Liu (1993) recommend delta = 0.7 for a temporary change
-TC_DELTA = 0.7
+__all__ = ["Outlier", "OutlierSearch", "chen_liu", "critical_value", "joint_residuals", "lasting_shifts"]
+
 #: rounds of detection and joint estimation
 MAX_ROUNDS = 5
-#: dates whose AR-filtered patterns are built at once (bounds an n x CHUNK array)
-CHUNK = 256
+#: singular values of the regressors below this share of the largest are zero (statsmodels' ``pinv``)
+PINV_RCOND = 1e-15
+#: an effect whose pattern keeps less than this share of its norm net of the other columns is not estimable
+ESTIMABLE = 1e-7
 
 
 @dataclass(frozen=True)
@@ -83,156 +97,6 @@ def critical_value(n: int) -> float:
     (3.0, 3.5, 4.0)
     """
     return float(np.clip(3.0 + 0.0025 * (n - 50), 3.0, 4.0))
-
-
-def outlier_pattern(kind: str, t0: int, n: int) -> np.ndarray:
-    """``xi(B) I_t(t0)`` on positions ``0..n-1``.
-
-    Examples
-    --------
-    >>> outlier_pattern("TC", 1, 4).round(2).tolist()
-    [0.0, 1.0, 0.7, 0.49]
-    """
-    t = np.arange(n)
-    if kind == "AO":
-        return (t == t0).astype(float)
-    if kind == "LS":
-        return (t >= t0).astype(float)
-    if kind == "TC":
-        return np.where(t >= t0, TC_DELTA ** np.clip(t - t0, 0, None), 0.0)
-    raise ValueError(f"unknown outlier type {kind!r}; use one of {', '.join(TYPES)}")
-
-
-def robust_sigma(e: np.ndarray) -> float:
-    """``1.4826 * median |e - median e|`` (consistent for the normal sd)."""
-    e = e[np.isfinite(e)]
-    return float(1.4826 * np.median(np.abs(e - np.median(e))))
-
-
-def ar_filter(a: np.ndarray, phi: np.ndarray) -> np.ndarray:
-    """``phi(B) a`` along axis 0; the first ``p`` rows are NaN (no past to filter with)."""
-    p = len(phi)
-    if p == 0:
-        return a.astype(float, copy=True)
-    out = np.full(a.shape, np.nan)
-    out[p:] = a[p:]
-    for i, coef in enumerate(phi, start=1):
-        out[p:] -= coef * a[p - i : len(a) - i]
-    return out
-
-
-def _candidates(kind: str, observed: np.ndarray) -> np.ndarray:
-    """Observed dates where an effect of ``kind`` can be told apart from the model.
-
-    A level shift at the first date is the constant, and at the last date an
-    AO; a TC at the last date is an AO too.
-    """
-    t = np.flatnonzero(observed)
-    if kind == "LS" and len(t):
-        return t[(t > t.min()) & (t < t.max())]
-    if kind == "TC" and len(t):
-        return t[t < t.max()]
-    return t
-
-
-def detection_statistics(
-    resid: np.ndarray,
-    kind: str,
-    *,
-    positions: np.ndarray,
-    phi: Sequence[float] = (),
-    sigma: float | None = None,
-    exog: np.ndarray | None = None,
-    basis: np.ndarray | None = None,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Detection-stage effects and tau statistics of one type at many dates.
-
-    Parameters
-    ----------
-    resid : array
-        Filtered residuals ``e`` on the full grid (NaN where not observed or
-        lost to the AR filter).
-    kind : {"AO", "LS", "TC"}
-    positions : array of int
-        Dates ``t0`` to test.
-    phi : sequence of float
-        AR coefficients (empty for white-noise errors).
-    sigma : float, optional
-        Residual scale; default :func:`robust_sigma` of ``resid``.
-    exog : array, optional
-        The model's regressors, filtered like ``resid``; each pattern is taken
-        net of them, so ``w`` is the coefficient of ``x`` in the OLS of ``y``
-        on ``[X, x]`` (Frisch–Waugh–Lovell). Without it a level shift in a
-        model with a trend is half absorbed by the trend before it is tested.
-    basis : array, optional
-        :func:`_orthonormal_basis` of ``exog``, when already computed.
-
-    Returns
-    -------
-    positions, effects, taus : arrays
-    """
-    e = np.asarray(resid, dtype=float)
-    n = len(e)
-    phi = np.asarray(phi, dtype=float)
-    ok = np.isfinite(e)
-    sigma = robust_sigma(e) if sigma is None else sigma
-    positions = np.asarray(positions, dtype=int)
-    e0 = np.where(ok, e, 0.0)
-    basis = _orthonormal_basis(exog, ok) if basis is None else basis
-    if len(phi) == 0:
-        num, ss = _white_noise_sums(kind, e0, ok, basis)
-        num, ss = num[positions], ss[positions]
-    else:
-        num = np.zeros(len(positions))
-        ss = np.zeros(len(positions))
-        for lo in range(0, len(positions), CHUNK):
-            xi = np.column_stack([outlier_pattern(kind, int(t0), n) for t0 in positions[lo : lo + CHUNK]])
-            x = np.where(ok[:, None], np.nan_to_num(ar_filter(xi, phi)), 0.0)
-            if basis is not None:
-                x = x - basis @ (basis.T @ x)
-            ss[lo : lo + CHUNK] = (x * x).sum(axis=0)
-            num[lo : lo + CHUNK] = x.T @ e0
-    ss = np.where(ss > 1e-12, ss, 0.0)  # a pattern the regressors already span
-    with np.errstate(divide="ignore", invalid="ignore"):
-        effects = np.where(ss > 0, num / ss, 0.0)
-        scale = np.sqrt(ss) / sigma if sigma > 0 else np.zeros_like(ss)
-        taus = np.where(ss > 0, effects * scale, 0.0)
-    return positions, effects, taus
-
-
-def _orthonormal_basis(exog: np.ndarray | None, ok: np.ndarray) -> np.ndarray | None:
-    """Orthonormal basis (QR) of the regressors on the observed rows; zero elsewhere."""
-    if exog is None:
-        return None
-    xo = np.where(ok[:, None], np.nan_to_num(np.asarray(exog, dtype=float)), 0.0)
-    q, r = np.linalg.qr(xo)
-    return q[:, np.abs(np.diag(r)) > 1e-10 * max(1.0, np.abs(r).max())]
-
-
-def _suffix_filter(a: np.ndarray, decay: float) -> np.ndarray:
-    """``out[t] = sum_{s >= t} decay^(s-t) a[s]`` along axis 0 (decay 1: suffix sums)."""
-    return lfilter([1.0], [1.0, -decay], a[::-1], axis=0)[::-1]
-
-
-def _white_noise_sums(
-    kind: str, e0: np.ndarray, ok: np.ndarray, basis: np.ndarray | None
-) -> tuple[np.ndarray, np.ndarray]:
-    """``x*.e`` and ``x*.x*`` at every date at once, for white-noise errors, building no pattern.
-
-    With ``x* = (I - Q Q') x``: ``x*.e = x.e - (Q'x).(Q'e)``, ``x*.x* = x.x - |Q'x|^2``,
-    and ``x.e``, ``x.x``, ``Q'x`` are (decaying) suffix sums for LS (TC).
-    """
-    w = ok.astype(float)
-    if kind == "AO":
-        xe, xx, qx = e0, w, basis
-    else:
-        decay = 1.0 if kind == "LS" else TC_DELTA
-        xe, xx = _suffix_filter(e0, decay), _suffix_filter(w, decay * decay)
-        qx = None if basis is None else _suffix_filter(basis, decay)
-    if basis is None:
-        return xe, xx
-    qe = basis.T @ e0
-    return xe - qx @ qe, xx - (qx * qx).sum(axis=1)
 
 
 def _fit_ar(u: np.ndarray, p: int) -> np.ndarray:
@@ -314,9 +178,8 @@ def chen_liu(
         phi = _fit_ar(u, ar_order)
         if not any(f in found for f in new):
             break
-    found, params, tvalues, _ = _thin(yv, x, found, phi, cval)
-    k = x.shape[1]
-    outliers = [Outlier(kind, t0, labels[t0], float(params[k + i]), float(tvalues[k + i]))
+    found, effects, taus, _ = _thin(yv, x, found, phi, cval)
+    outliers = [Outlier(kind, t0, labels[t0], float(effects[i]), float(taus[i]))
                 for i, (kind, t0) in enumerate(found)]
     return OutlierSearch(sorted(outliers, key=lambda o: o.position), cval)
 
@@ -379,51 +242,88 @@ def _detect(e: np.ndarray, phi: np.ndarray, sigma: float, cval: float, taken: se
     """Stage 1: take the largest |tau| above ``cval``, remove its effect, repeat.
 
     ``exog`` are the filtered regressors; effects are measured net of them.
+    The statistics of every date and type come from a few filters per pass
+    (:func:`evcal.discovery.detection.all_statistics`); what does not depend
+    on the residuals is computed once.
     """
     e = e.copy()
-    n = len(e)
-    new: list[tuple[str, int]] = []
     ok = np.isfinite(e)
-    basis = _orthonormal_basis(exog, ok)
+    basis = orthonormal_basis(exog, ok)
+    sums = [pattern_sums(kind, ok, phi, basis) for kind in TYPES]
+    free = {}
+    for kind in TYPES:
+        free[kind] = np.zeros(len(e), dtype=bool)
+        free[kind][candidates(kind, ok)] = True
+        free[kind][sorted(taken)] = False
+    new: list[tuple[str, int]] = []
     while len(new) < room:
+        e0 = np.where(ok, e, 0.0)
         best: tuple[float, str, int, float] | None = None
-        for kind in TYPES:
-            pos = np.array([t for t in _candidates(kind, ok) if int(t) not in taken], dtype=int)
+        for s in sums:
+            pos = np.flatnonzero(free[s.kind])
             if len(pos) == 0:
                 continue
-            pos, w, tau = detection_statistics(e, kind, phi=phi, sigma=sigma, positions=pos, basis=basis)
-            i = int(np.argmax(np.abs(tau)))
+            w, tau = all_statistics(e0, s, basis, sigma)
+            i = int(pos[np.argmax(np.abs(tau[pos]))])
             if best is None or abs(tau[i]) > abs(best[0]):
-                best = (float(tau[i]), kind, int(pos[i]), float(w[i]))
+                best = (float(tau[i]), s.kind, i, float(w[i]))
         if best is None or abs(best[0]) < cval:
             break
         _, kind, t0, w = best
-        xf = np.where(ok, np.nan_to_num(ar_filter(outlier_pattern(kind, t0, n), phi)), 0.0)
-        if basis is not None:
-            xf = xf - basis @ (basis.T @ xf)
-        e = e - w * np.where(ok, xf, 0.0)
+        e = e - w * net_pattern(kind, t0, ok, phi, basis)
         new.append((kind, t0))
-        taken = taken | {t0}
+        for mask in free.values():
+            mask[t0] = False
     return new
 
 
 def _thin(y: np.ndarray, x: np.ndarray, found: list[tuple[str, int]], phi: np.ndarray,
           cval: float) -> tuple[list[tuple[str, int]], np.ndarray, np.ndarray, np.ndarray]:
     """Stage 2: joint OLS of ``phi(B) y`` on ``phi(B) [X, xi_1, ...]``; drop the weakest
-    effect below ``cval`` until none is. Returns the effects kept, params, t values and
-    the residual on the original (unfiltered) scale."""
+    effect below ``cval`` until none is. Returns the effects kept, their sizes and t values
+    and the residual on the original (unfiltered) scale.
+
+    The regressors are factorised once (SVD) and projected out of the effects'
+    patterns and the response (Frisch–Waugh–Lovell); the effects' part is one QR
+    of ``[patterns, response]`` whose triangle loses a column per effect dropped
+    (``scipy.linalg.qr_delete``). Sizes, t values (``df = rows - rank``) and the
+    regressors' coefficients (minimum norm, as a pseudo-inverse gives them)
+    are those of OLS on all columns at once.
+    """
     found = list(found)
-    k = x.shape[1]
+    n = len(y)
+    patterns = np.zeros((n, 0))
+    if found:
+        patterns = np.column_stack([outlier_pattern(kind, t0, n) for kind, t0 in found])
+    yf, xf, ef = ar_filter(y, phi), ar_filter(x, phi), ar_filter(patterns, phi)
+    rows = np.isfinite(yf) & np.isfinite(xf).all(axis=1) & np.isfinite(ef).all(axis=1)
+    yr, xr, er = yf[rows], xf[rows], ef[rows]
+    left, sv, right = np.linalg.svd(xr, full_matrices=False)
+    keep = sv > PINV_RCOND * sv.max()
+    left, sv, right = left[:, keep], sv[keep], right[keep]
+    rank_x = int((sv > sv.max() * (xr.shape[1] + len(found)) * np.finfo(float).eps).sum())
+    net = np.column_stack([er, yr])
+    net = net - left @ (left.T @ net)
+    tri = np.linalg.qr(net, mode="r")
+    norms = np.sqrt((er * er).sum(axis=0))
+    active = list(range(len(found)))
     while True:
-        design = np.hstack([x] + [outlier_pattern(kind, t0, len(y))[:, None] for kind, t0 in found])
-        yf, xf = ar_filter(y, phi), ar_filter(design, phi)
-        rows = np.isfinite(yf) & np.isfinite(xf).all(axis=1)
-        res = sm.OLS(yf[rows], xf[rows]).fit()
-        params = np.asarray(res.params)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            tvalues = np.asarray(res.tvalues)
-        u = y - design @ params
-        t_eff = np.abs(np.nan_to_num(tvalues[k:], nan=0.0))
-        if not found or t_eff.min() >= cval:
-            return found, params, tvalues, u
-        found.pop(int(np.argmin(t_eff)))
+        m = len(active)
+        diag = np.abs(np.diag(tri)[:m])
+        spanned = np.flatnonzero(diag <= ESTIMABLE * np.maximum(norms[active], 1.0))
+        if len(spanned):  # not estimable beside the others (t = 0): dropped first
+            drop = int(spanned[0])
+        else:
+            effects = solve_triangular(tri[:m, :m], tri[:m, m]) if m else np.zeros(0)
+            inv = solve_triangular(tri[:m, :m], np.eye(m)) if m else np.zeros((0, 0))
+            with np.errstate(divide="ignore", invalid="ignore"):
+                scale = tri[m, m] ** 2 / (len(yr) - rank_x - m) if tri.shape[0] > m else np.nan
+                taus = np.nan_to_num(effects / np.sqrt(scale * (inv * inv).sum(axis=1)), nan=0.0)
+            if not m or np.abs(taus).min() >= cval:
+                break
+            drop = int(np.argmin(np.abs(taus)))
+        tri = qr_delete(np.eye(tri.shape[0]), tri, drop, which="col")[1][: tri.shape[1] - 1]
+        active.pop(drop)
+    coef = right.T @ ((left.T @ (yr - er[:, active] @ effects)) / sv)
+    u = y - x @ coef - patterns[:, active] @ effects
+    return [found[i] for i in active], effects, taus, u

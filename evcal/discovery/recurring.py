@@ -219,39 +219,44 @@ def find_recurring(
     last_day = periods[-1].end_time.normalize().date()
     years = list(range(first_day.year, last_day.year + 1))
     min_hits = max(MIN_HITS, math.ceil(len(years) / 2))
-    freq = periods.freq
     position = {p: i for i, p in enumerate(periods)}
+    # the period of every day of the history (-1: none), so a rule's date finds its period by a subtraction
+    day_period = periods.get_indexer(pd.date_range(first_day, last_day, freq="D").to_period(periods.freq))
     weekly_or_longer = len(_period_days(periods[0])) >= 7
+    placed: dict[Rule, list[tuple[int, int]]] = {}
+    proposed: dict[pd.Period, set[Rule]] = {}
+
+    def places(rule: Rule) -> list[tuple[int, int]]:
+        """The (year, period) pairs where ``rule`` falls on a fitted period; once per rule."""
+        if rule not in placed:
+            pairs = []
+            for y in years:
+                d = rule.date(y)
+                i = -1 if d is None or not (first_day <= d <= last_day) else day_period[(d - first_day).days]
+                if i >= 0 and in_fit[i]:
+                    pairs.append((y, int(i)))
+            placed[rule] = pairs
+        return placed[rule]
 
     results: list[Recurring] = []
     for sign in (+1, -1):
         remaining = [f for f in findings if f.sign == sign and f.period in position]
         while remaining:
-            by_period = {f.period: f for f in remaining}
+            by_position = {position[f.period]: f for f in remaining}
             candidates: set[Rule] = set()
             for f in remaining:
-                days = _period_days(f.period)
-                for day in days:
-                    candidates.update(_rules_for_day(day))
-                if weekly_or_longer:
-                    candidates.add(Rule("week", (days[len(days) // 2].isocalendar()[1],)))
+                if f.period not in proposed:
+                    days = _period_days(f.period)
+                    proposed[f.period] = {rule for day in days for rule in _rules_for_day(day)}
+                    if weekly_or_longer:
+                        proposed[f.period].add(Rule("week", (days[len(days) // 2].isocalendar()[1],)))
+                candidates |= proposed[f.period]
             scored = []
             for rule in candidates:
-                seen: list[int] = []
-                available: list[int] = []
-                hit: list[Finding] = []
-                for y in years:
-                    d = rule.date(y)
-                    if d is None or not (first_day <= d <= last_day):
-                        continue
-                    p = pd.Timestamp(d).to_period(freq)
-                    i = position.get(p)
-                    if i is None or not in_fit[i]:
-                        continue
-                    available.append(y)
-                    if p in by_period:
-                        seen.append(y)
-                        hit.append(by_period[p])
+                pairs = places(rule)
+                available = [y for y, _ in pairs]
+                seen = [y for y, i in pairs if i in by_position]
+                hit = [by_position[i] for _, i in pairs if i in by_position]
                 if len(seen) >= min_hits and len(seen) >= MIN_SHARE * len(available):
                     scored.append((rule, seen, available, hit))
             if not scored:

@@ -18,6 +18,7 @@ import pandas as pd
 
 from evcal.discovery.abnormal import AbnormalYear, abnormal_years, exclusion_advice
 from evcal.discovery.cycles import detect_cycles
+from evcal.discovery.detection import outlier_pattern
 from evcal.discovery.findings import Findings
 from evcal.discovery.inputs import read_discover_inputs, with_entries
 from evcal.discovery.lost_demand import (
@@ -34,7 +35,6 @@ from evcal.discovery.outliers import (
     chen_liu,
     joint_residuals,
     lasting_shifts,
-    outlier_pattern,
 )
 from evcal.discovery.recurring import Finding, find_recurring
 from evcal.discovery.suggestions import (
@@ -138,8 +138,9 @@ def discover(
         # week in several years; a smooth annual profile leaves it to be found
         fit_options = {**fit_options, "seasonal": "fourier"}
     with progress_bar(len(STEPS), progress_enabled(progress), "discover") as advance:
+        advance(0, STEPS[0])
         result = fit(hist, cal, **fit_options)
-        advance(1)
+        advance(1, STEPS[1])
         periods: pd.PeriodIndex = result.residuals.index
         in_fit = result.fitted["in_fit"].to_numpy(dtype=bool)
         base = result.fitted["base"].to_numpy(dtype=float)
@@ -151,7 +152,7 @@ def discover(
         weekdays = any(str(c).startswith("weekday") for c in result.params.index)
         rows = cycle_rows(cycles, hist.freq, weekdays=weekdays)
         entries: list[Entry] = []
-        advance(1)
+        advance(1, STEPS[2])
 
         search, x_fit, y = _search(hist, cal, result, cval)
         x_search = x_fit  # the regressors the findings are net of
@@ -159,7 +160,7 @@ def discover(
         # a level shift is a lasting break: it is taken out (jointly with the
         # trend) before anything is read as a moving event or an abnormal year
         lasting = lasting_shifts(found, cycle_length(hist.freq))
-        advance(1)
+        advance(1, STEPS[3])
 
         def size_pct(o: Outlier) -> float:
             if result.transform in ("log", "count"):  # the search ran on the log scale
@@ -208,7 +209,7 @@ def discover(
             row, entry = neighbour_suggestion(n, text, result.transform)
             rows.append(row)
             entries.append(entry)
-        advance(1)
+        advance(1, STEPS[4])
 
         # years are judged against the model with its trend and the lasting
         # level shifts re-estimated jointly, not against the fit's straight line
@@ -229,7 +230,7 @@ def discover(
         effects = pd.DataFrame()
         if abnormal and index_effects:
             effects = _index_effects(hist, text, result, abnormal, fit_options)
-        advance(1)
+        advance(1, STEPS[5])
         year_of = np.asarray(periods.start_time.year)
         for year in sorted(abnormal_set):
             share = 100.0 * float((year_of == year).sum()) / len(periods)
@@ -261,9 +262,9 @@ def discover(
                     easter=moving, exclusion_advice=advice, neighbours=neighbours)
 
 
-#: the steps of a run, one tick of the progress bar each
-STEPS = ("fitting the model", "cycles", "peaks, dips and breaks (Chen-Liu)", "recurring and moving events",
-         "abnormal years", "lost demand")
+#: the stages of a run, one tick of the progress bar each, named on the bar while they run
+STEPS = ("fitting the model", "cycles", "peaks, dips and breaks (Chen-Liu)",
+         "recurring patterns, Easter, neighbour days", "abnormal years and their refits", "lost demand")
 
 
 def _with_effects(x: pd.DataFrame | None, effects: list[Outlier], n: int) -> np.ndarray | None:

@@ -21,9 +21,10 @@ import yaml
 from evcal.calendar.rules import WEEKDAY_ABBR
 from evcal.discovery.abnormal import AbnormalYear
 from evcal.discovery.cycles import Cycle
+from evcal.discovery.detection import TC_DELTA
 from evcal.discovery.lost_demand import LostDemand
 from evcal.discovery.moving import EasterCluster
-from evcal.discovery.outliers import TC_DELTA, Outlier
+from evcal.discovery.outliers import Outlier
 from evcal.discovery.recurring import Recurring, Rule
 
 __all__ = [

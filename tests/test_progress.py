@@ -55,7 +55,11 @@ def test_every_user_takes_the_one_progress_bar(monkeypatch) -> None:
     def bar(total, enabled, label):
         assert enabled
         ticks: list[int] = []
-        yield ticks.append
+
+        def advance(n: int = 1, stage: str | None = None) -> None:  # the bar's signature (stage: its name)
+            ticks.append(n)
+
+        yield advance
         labels.append((label, sum(ticks) - total))  # every step ticked once
 
     monkeypatch.setattr(bars, "progress_bar", bar)

@@ -95,22 +95,6 @@ def _stored_panel(model: PanelResult, keys: list[dict[str, Any]]) -> Any:
                  str(model.settings.get("value_col", "value")))
 
 
-def _fitted_options(model: PanelResult) -> tuple[Any, Any]:
-    """The options and calendar the panel's series were fitted with (the data's choices made concrete)."""
-    from evcal.design.matrix import with_windows
-    from evcal.model.inputs import load_calendar_any
-    from evcal.model.options import FitOptions
-
-    opts = FitOptions.from_dict(model.settings["options"])
-    design = model.settings["design"]
-    opts = replace(opts, errors="ols" if opts.errors in ("auto", "ols") else opts.errors,
-                   seasonal=design["seasonal"], fourier_order=design["fourier_order"],
-                   trading_days=design["trading_days"], leap_year=design.get("leap_year", False),
-                   season_drift=design.get("season_drift_origin") is not None)
-    cal = with_windows(load_calendar_any(model.settings["calendar_text"]), design.get("event_windows") or {})
-    return opts, cal
-
-
 def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[str, Any]
                 ) -> tuple[list[pd.DataFrame], list[int]]:
     """Plan the series that the engine solves in blocks, a block at a time (:mod:`evcal.plan.batched`).
@@ -128,7 +112,8 @@ def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[st
     from evcal.plan.simulate import check_sims
     from evcal.threads import held_blas
 
-    opts, cal = _fitted_options(model)
+    opts, cal = model.fitted_options()
+    opts = replace(opts, errors="ols" if opts.errors in ("auto", "ols") else opts.errors)
     panel = _stored_panel(model, keys)
     plan_cal = cal if options["calendar"] is None else load_calendar_any(options["calendar"])
     end = panel.periods[int(panel.last.max())]

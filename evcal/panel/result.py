@@ -121,20 +121,40 @@ class PanelResult:
         the panel's options: the batched solver gives the same numbers (the
         tests check it to 1e-8), so this is the same model.
         """
+        from dataclasses import asdict, replace
+
         from evcal.engine import fit
-        from evcal.model.options import FitOptions
 
         full = self.find(key)
         row = self.series.loc[key_mask(self.series, full)].iloc[0]
         if row["status"] != "fitted":
             shown = ", ".join(f"{c}={full[c]!r}" for c in self.key_cols)
             raise ModelError(f"series {shown} was not fitted ({row.get('reason', '')}); see skipped.csv")
-        opts = FitOptions.from_dict(self.settings["options"]).to_dict()
-        opts["transform"] = row["transform"]
-        if row["engine"] == "batched":
-            opts["errors"] = "ols"
-        opts["arima_order"] = tuple(opts["arima_order"]) if opts.get("arima_order") else None
-        return fit(self.history(full), self.settings["calendar_text"], **opts)
+        options, calendar = self.fitted_options()
+        options = replace(options, transform=row["transform"],
+                          errors="ols" if row["engine"] == "batched" else options.errors)
+        # every field as given (to_dict is the stored form: it leaves out a False leap year or drift,
+        # which fit would then read as "auto" and choose again on this series' rows)
+        return fit(self.history(full), calendar, **asdict(options))
+
+    def fitted_options(self) -> tuple[Any, Any]:
+        """The options and calendar the series were fitted with: the settings the data chose once for
+        the panel (seasonal form, Fourier order, trading days, leap year, drift, Easter run-ups) given
+        as settings, so a series fitted again alone is the same model, not a new choice on its own rows.
+        """
+        from dataclasses import replace
+
+        from evcal.design.matrix import with_windows
+        from evcal.model.inputs import load_calendar_any
+        from evcal.model.options import FitOptions
+
+        opts = FitOptions.from_dict(self.settings["options"])
+        design = self.settings["design"]
+        opts = replace(opts, seasonal=design["seasonal"], fourier_order=design["fourier_order"],
+                       trading_days=design["trading_days"], leap_year=design.get("leap_year", False),
+                       season_drift=design.get("season_drift_origin") is not None)
+        calendar = load_calendar_any(self.settings["calendar_text"])
+        return opts, with_windows(calendar, design.get("event_windows") or {})
 
     def write_into(self, directory: Path) -> None:
         """Write every file into ``directory`` (:func:`evcal.store.write_folder`), except ``fitted.parquet``

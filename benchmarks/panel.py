@@ -37,7 +37,7 @@ The runs alternate (evcal whole process, loop, evcal compute, then again) so
 a slow spell of the machine falls on both; every run is printed with the
 load average beside it, the ratio of each pair, and the best and median.
 
-    python benchmarks/panel.py [--series 10000] [--loop-series 300] [--full-loop] [--repeat 3]
+    python benchmarks/panel.py [--series 10000] [--loop-series 300] [--full-loop] [--repeat 3] [--gaps N]
 """
 
 from __future__ import annotations
@@ -103,9 +103,15 @@ def event_days(days: pd.DatetimeIndex) -> tuple[pd.DataFrame, np.ndarray]:
     return on.reindex(days, fill_value=False).astype(float), closed
 
 
-def make_data(n_series: int, path: Path, seed: int = 20261201) -> None:
-    """Invented daily demand summed to weeks: season by family, event lifts, a closure, a refit, noise."""
+def make_data(n_series: int, path: Path, seed: int = 20261201, gaps: int = 0) -> None:
+    """Invented daily demand summed to weeks: season by family, event lifts, a closure, a refit, noise.
+
+    ``gaps``: each series loses that many weeks (its rows are left out of the file), drawn at random
+    (fixed seed) among the weeks inside its history, so the first and last week stay and every
+    series keeps its span: a missing week, not a shorter history.
+    """
     rng = np.random.default_rng(seed)
+    gap_rng = np.random.default_rng(seed + 1)  # the values do not depend on the gaps
     days = pd.date_range(START, periods=WEEKS * 7, freq="D")
     doy = days.day_of_year.to_numpy()
     on, closed = event_days(days)
@@ -125,11 +131,18 @@ def make_data(n_series: int, path: Path, seed: int = 20261201) -> None:
             log_d += on[name].to_numpy()[:, None] * (lift + rng.normal(0, 0.05, m))[None, :]
         daily = np.exp(log_d) * ~closed[:, None]
         weekly = daily.reshape(WEEKS, 7, m).sum(axis=1) * np.exp(rng.normal(0, 0.05, (WEEKS, m)))
-        frames.append(pd.DataFrame({
+        frame = pd.DataFrame({
             "family": np.repeat([f"F{i:02d}" for i in f], WEEKS),
             "product": np.repeat([f"P{i:05d}" for i in range(a, a + m)], WEEKS),
             "date": np.tile(weeks.to_numpy(), m),
-            "value": weekly.T.ravel().round(2)}))
+            "value": weekly.T.ravel().round(2)})
+        if gaps:
+            # each series' own missing weeks: `gaps` distinct weeks among 1 .. WEEKS - 2
+            missing = np.argsort(gap_rng.random((m, WEEKS - 2)), axis=1)[:, :gaps] + 1
+            drop = np.zeros((m, WEEKS), dtype=bool)
+            np.put_along_axis(drop, missing, True, axis=1)
+            frame = frame[~drop.ravel()]
+        frames.append(frame)
     pd.concat(frames, ignore_index=True).to_parquet(path, index=False)
 
 
@@ -283,16 +296,19 @@ def main() -> None:
     ap.add_argument("--loop-threads", type=int, default=1, help="BLAS threads for the loop (evcal holds 1)")
     ap.add_argument("--no-dask", action="store_true")
     ap.add_argument("--repeat", type=int, default=3, help="alternating runs of each side")
+    ap.add_argument("--gaps", type=int, default=0,
+                    help="weeks each series loses at random (fixed seed; the loop drops the same rows)")
     args = ap.parse_args()
     with tempfile.TemporaryDirectory() as d:
         tmp = Path(d)
         path, cal = tmp / "long.parquet", tmp / "calendar.yaml"
         cal.write_text(CALENDAR, encoding="utf-8")
-        make_data(args.series, path)
+        make_data(args.series, path, gaps=args.gaps)
         frame_mb = pd.read_parquet(path).memory_usage(deep=True).sum() / 2**20
-        rows = args.series * WEEKS
+        rows = args.series * (WEEKS - args.gaps)
         print(f"data: {args.series:,} weekly series x {WEEKS} weeks ({rows:,} rows, invented), "
-              f"{len(TRUE_LOG_LIFT)} events, a closure and a level shift; Parquet "
+              f"{len(TRUE_LOG_LIFT)} events, a closure and a level shift; "
+              f"{args.gaps} missing weeks per series; Parquet "
               f"{path.stat().st_size / 2**20:.0f} MB, pandas frame {frame_mb:.0f} MB; {os.cpu_count()} cores")
         print(f"BLAS threads: evcal holds 1 per worker (panels); the loop runs with {args.loop_threads} "
               f"(threadpoolctl); this process's default: {_blas()}")

@@ -6,6 +6,7 @@ They are the same for every series of a block; only the coefficients differ.
 
 from __future__ import annotations
 
+import copy
 from dataclasses import InitVar, dataclass, field
 from typing import Any
 
@@ -86,6 +87,19 @@ class SpanContext:
     def __post_init__(self, raw: pd.DataFrame) -> None:
         values = np.asfortranarray(raw.to_numpy(dtype=float))  # one conversion, each column contiguous
         self.columns = {c: values[:, j] for j, c in enumerate(raw.columns)}
+
+    def with_fit_rows(self, in_fit: np.ndarray) -> SpanContext:
+        """The same context for series fitted on ``in_fit``: everything else is shared, not copied.
+
+        Nothing here but ``in_fit`` depends on which periods a series has (the columns, open share,
+        closures and occurrence windows are the span's), so the design groups that differ only by
+        their missing periods share one build.
+        """
+        if np.array_equal(in_fit, self.in_fit):
+            return self
+        out = copy.copy(self)
+        out.in_fit = np.asarray(in_fit, dtype=bool)
+        return out
 
     @classmethod
     def build(cls, raw: pd.DataFrame, share: np.ndarray, calendar: Any, periods: pd.PeriodIndex,

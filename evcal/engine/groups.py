@@ -23,7 +23,7 @@ from evcal.engine.batched import SharedSolve
 from evcal.io.history import History
 from evcal.io.panel import Panel
 from evcal.model.choose import chosen_settings
-from evcal.model.identify import check_columns, independent_base_columns, status_notes
+from evcal.model.identify import REL_TOL, check_columns, independent_base_columns, rows_values, status_notes
 from evcal.model.inputs import additive_design, calendar_terms, prepare
 from evcal.model.options import FitOptions
 from evcal.model.passes import exact_passes
@@ -45,6 +45,10 @@ class Template:
     periods: pd.PeriodIndex
     identified: bool = False  # inp's statuses were checked on its own rows (a panel of one's inputs)
     _curve: Any = None
+    #: what every fit-row pattern of a trend origin shares (the design, its independent base columns on
+    #: the template's rows, the calendar's terms): made once, not once per design group
+    _at_origin: dict[float, tuple[pd.DataFrame, list[str], list[str]]] = field(default_factory=dict)
+    _terms: dict[str, Any] | None = None
 
     @classmethod
     def build(cls, panel: Panel, calendar: Any, options: FitOptions, transform: str,
@@ -73,6 +77,22 @@ class Template:
     def origins(self, first: np.ndarray) -> np.ndarray:
         """Trend origins of series whose histories start at periods ``first`` (as prepare sets them)."""
         return np.floor(period_mid_years(self.periods)[np.asarray(first, dtype=int)]).astype(float)
+
+    def at_origin(self, origin: float) -> tuple[pd.DataFrame, list[str], list[str]]:
+        """The design with trend ``origin``, its trend and seasonal columns, and those independent on
+        the template's rows (every period a series could fit)."""
+        if origin not in self._at_origin:
+            X = self.with_origin(self.inp.design.X, origin)
+            roles = self.inp.design.roles
+            all_base = [c for c in X.columns if roles[c] in ("trend", "seasonal")]
+            self._at_origin[origin] = (X, all_base, independent_base_columns(X, self.inp.rows, all_base))
+        return self._at_origin[origin]
+
+    def terms(self) -> dict[str, Any]:
+        """The calendar's names of events, closures and interventions (:func:`calendar_terms`)."""
+        if self._terms is None:
+            self._terms = {k: v for k, v in calendar_terms(self.calendar).items() if k != "exclusions"}
+        return self._terms
 
     def with_origin(self, frame: pd.DataFrame, origin: float) -> pd.DataFrame:
         spec = self.inp.spec
@@ -109,15 +129,14 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
     inp = template.inp
     rows = observed & inp.rows
     roles = inp.design.roles
-    X = template.with_origin(inp.design.X, origin)
-    all_base = [c for c in X.columns if roles[c] in ("trend", "seasonal")]
+    X, all_base, base_full = template.at_origin(origin)
     if template.identified and origin == inp.spec.trend_origin and np.array_equal(rows, inp.rows):
         # a panel of one whose inputs were identified on these very rows (evcal.fit): checking the
         # columns again would give the same statuses (measured: a daily 20-year fit with 100 events,
         # benchmarks/fit.py's case, went from a median 0.56 s to 0.50 s over 5 runs without it)
         status, fitted_cols = dict(inp.status), list(inp.fitted_cols)
     else:
-        base_cols = independent_base_columns(X, rows, all_base)
+        base_cols = _independent_base(X, rows, all_base, base_full, np.array_equal(rows, inp.rows))
         fixed = {c: st for c, st in inp.status.items() if st.status in ("assumed", "like")}
         candidates = [c for c in inp.status if c not in fixed]
         # graded on the rows the fit solves (the additive model's are scaled by the open share)
@@ -125,7 +144,8 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
         status = check_columns(X, rows, base_cols, candidates, roles, calendar, graded_on=graded)
         status.update(fixed)
         fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
-    terms = {k: v for k, v in calendar_terms(calendar).items() if k != "exclusions"}
+    terms = template.terms() if calendar is template.calendar else \
+        {k: v for k, v in calendar_terms(calendar).items() if k != "exclusions"}
     info = GroupInfo(transform=template.transform, status=status, fitted_cols=fitted_cols,
                      base_columns=all_base, like_map=dict(inp.like_map), assumed=dict(inp.assumed), **terms,
                      spec=replace(inp.spec, trend_origin=origin), roles=dict(roles))
@@ -133,6 +153,46 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
     if template.transform == "none":
         fit_X = additive_design(X[fitted_cols], inp).loc[rows]
     return info, rows, fit_X.to_numpy(dtype=float), status_notes(status)
+
+
+#: a column's relative residual on the columns before it, above this, is independent without a doubt:
+#: 100 times :data:`evcal.model.identify.REL_TOL`, the threshold of the full check (below it, that check runs)
+_CLEAR = 100 * REL_TOL
+
+
+def _independent_base(X: pd.DataFrame, rows: np.ndarray, all_base: list[str], base_full: list[str],
+                      same_rows: bool) -> list[str]:
+    """:func:`independent_base_columns` on ``rows``, from its answer on a superset of them (``base_full``).
+
+    Leaving out a few periods keeps a dependent column dependent (exactly: its residual is rounding);
+    an independent one stays independent unless the periods that told it apart are gone. One QR of
+    the ``base_full`` columns on ``rows`` shows which: when each keeps a relative residual on the
+    columns before it (``|Rⱼⱼ| / ‖xⱼ‖``) far above the threshold and each left-out column stays far below
+    it, the answer is ``base_full``; otherwise the column-by-column check decides.
+    """
+    if same_rows:
+        return base_full
+    if len(base_full):
+        Xk = rows_values(X, rows, base_full)
+        q, r = np.linalg.qr(Xk)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            rel = np.abs(np.diagonal(r)) / np.linalg.norm(Xk, axis=0)
+        dropped = [c for c in all_base if c not in set(base_full)]
+        if np.all(rel > _CLEAR):
+            if not dropped:
+                return base_full
+            # each left-out column against the kept columns before it, as the full check tests it
+            pos = {c: i for i, c in enumerate(all_base)}
+            Xd = rows_values(X, rows, dropped)
+            clear = True
+            for j, c in enumerate(dropped):
+                q_before = q[:, :sum(pos[k] < pos[c] for k in base_full)]
+                norm = float(np.linalg.norm(Xd[:, j]))
+                res = Xd[:, j] - q_before @ (q_before.T @ Xd[:, j])
+                clear &= norm == 0 or float(np.linalg.norm(res)) / norm < REL_TOL / 100
+            if clear:
+                return base_full
+    return independent_base_columns(X, rows, all_base)
 
 
 def distinct_spans(spans: np.ndarray, n_periods: int) -> list[tuple[int, int]]:

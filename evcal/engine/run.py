@@ -80,6 +80,17 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
     def template(tr: str) -> Template:
         return Template.build(panel, calendar, options, tr, single)
 
+    @functools.cache
+    def span_context(tr: str, origin: float, f: int, last: int) -> SpanContext:
+        # what the tables of a span share does not depend on which of its periods a series has (its
+        # fit rows are set per group): one build for every design group of that origin and span
+        tpl = template(tr)
+        sl = slice(f, last + 1)
+        periods = panel.periods[sl]
+        raw = tpl.with_origin(tpl.inp.raw_X, origin)
+        return SpanContext.build(raw.iloc[sl], tpl.inp.design.open_share.to_numpy()[sl], calendar, periods,
+                                 panel.dates(periods), tpl.inp.rows[sl], tpl.inp.status)
+
     if single is None:
         from evcal.design.events import OpenShare
 
@@ -119,15 +130,10 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
                       offset=tpl.inp.offset.to_numpy()[rows],
                       share=tpl.inp.design.open_share.to_numpy()[rows], curve=tpl.curve())
             groups.append(g)
-            raw = tpl.with_origin(tpl.inp.raw_X, origin)
-            share_all = tpl.inp.design.open_share.to_numpy()
             spans = np.column_stack([panel.first[members], panel.last[members]])
             contexts: dict[tuple[int, int], SpanContext] = {}
             for f, last in distinct_spans(spans, len(panel.periods)):
-                sl = slice(f, last + 1)
-                periods = panel.periods[sl]
-                contexts[(f, last)] = SpanContext.build(raw.iloc[sl], share_all[sl], calendar, periods,
-                                                        panel.dates(periods), rows[sl], info.status)
+                contexts[(f, last)] = span_context(tr, origin, f, last).with_fit_rows(rows[f:last + 1])
             shared = BatchShared(g, contexts)
             for a in range(0, len(members), BLOCK_SERIES):
                 sids = members[a:a + BLOCK_SERIES]

@@ -57,6 +57,15 @@ class ColumnStatus:
         return "no"
 
 
+def rows_values(X: pd.DataFrame, rows: np.ndarray, cols: list[str]) -> np.ndarray:
+    """``X.loc[rows, cols]`` as floats, without pandas' label indexing (a panel checks one design on
+    many fit-row patterns: the indexing cost more than the arithmetic)."""
+    idx = X.columns.get_indexer(cols)
+    if (idx < 0).any():
+        raise KeyError(f"not in the design: {[c for c, i in zip(cols, idx, strict=True) if i < 0]}")
+    return X.to_numpy(dtype=float)[np.ix_(np.asarray(rows, dtype=bool), idx)]
+
+
 def _project_out(q: np.ndarray, a: np.ndarray) -> np.ndarray:
     """``a`` less its projection on orthonormal ``q`` (twice: Gram-Schmidt loses orthogonality once)."""
     r = a - q @ (q.T @ a)
@@ -90,7 +99,7 @@ def independent_base_columns(X: pd.DataFrame, rows: np.ndarray, base_cols: list[
     week that is always excluded, carries no information; it is left out (its
     coefficient is zero) rather than making the design rank-deficient.
     """
-    Xf = X.loc[rows, base_cols].to_numpy()
+    Xf = rows_values(X, rows, base_cols)
     q = np.zeros((Xf.shape[0], 0))
     keep = []
     for j, c in enumerate(base_cols):
@@ -120,15 +129,16 @@ def check_columns(
     out: dict[str, ColumnStatus] = {}
     if not candidate_cols:
         return out
-    Xc = X.loc[rows, candidate_cols].to_numpy(dtype=float)
-    q_base = _orthonormal(X.loc[rows, base_cols].to_numpy(dtype=float))
+    Xc = rows_values(X, rows, candidate_cols)
+    q_base = _orthonormal(rows_values(X, rows, base_cols))
     norms = np.linalg.norm(Xc, axis=0)
     resid = _project_out(q_base, Xc)
     rel_base = np.linalg.norm(resid, axis=0) / np.where(norms > 0, norms, 1.0)
     # Event columns are day counts divided by the period's length, so a February event
     # (always one day in February) still varies with leap years (1/28 vs 1/29) and would
     # pass the test above with a meaningless estimate. Test the day counts as well.
-    days = period_days(X.index[rows]) if isinstance(X.index, pd.PeriodIndex) else np.ones(len(Xc))
+    # (the whole index's days, cached for its run of periods, then the rows: one computation per design)
+    days = period_days(X.index)[rows] if isinstance(X.index, pd.PeriodIndex) else np.ones(len(Xc))
     counts = Xc * days[:, None]
     c_norms = np.linalg.norm(counts, axis=0)
     c_resid = _project_out(q_base, counts)

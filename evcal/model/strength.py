@@ -98,7 +98,9 @@ def assess(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], terms: lis
     """
     if not terms:
         return {}
-    Z = X.loc[rows, fitted_cols].to_numpy(dtype=float)
+    from evcal.model.identify import rows_values  # (identify imports this module)
+
+    Z = rows_values(X, rows, fitted_cols)
     periods = X.index[rows]
     q, r = np.linalg.qr(Z)
     r_inv = np.linalg.solve(r, np.eye(r.shape[0]))
@@ -196,8 +198,10 @@ class _Windows:
 
     def __init__(self, calendar: Any, index: pd.Index, rows: np.ndarray) -> None:
         self.freq_word = "these"
+        self._cum: dict[str, np.ndarray] = {}
         if not isinstance(index, pd.PeriodIndex) or not len(index):
-            self.occ = pd.DataFrame(columns=["event", "w0", "w1"])
+            self.events, self.w0, self.w1 = np.zeros(0, dtype=object), np.zeros(0, int), np.zeros(0, int)
+            self.present: set[str] = set()
             self.fitted_days = np.zeros(0, dtype=bool)
             return
         self.freq_word = {"D": "daily", "W": "weekly", "M": "monthly", "Q": "quarterly"}.get(
@@ -212,48 +216,71 @@ class _Windows:
         np.add.at(marks, p0[rows], 1)
         np.add.at(marks, p1[rows] + 1, -1)
         self.fitted_days = np.cumsum(marks)[:n_days] > 0
-        occ = calendar.occurrences(first, last)
-        before = {e.name: e.before for e in calendar.events}
-        after = {e.name: e.after for e in calendar.events}
-        w0 = (pd.to_datetime(occ["start"]) - first).dt.days.to_numpy() - occ["event"].map(before).to_numpy()
-        w1 = (pd.to_datetime(occ["end"]) - first).dt.days.to_numpy() + occ["event"].map(after).to_numpy()
-        # (int: a calendar with no occurrence in the span gives empty float columns)
-        w0 = np.clip(w0, 0, n_days - 1).astype(np.int64)
-        w1 = np.clip(w1, 0, n_days - 1).astype(np.int64)
+        events, w0, w1 = _calendar_windows(calendar, first, last)
         cum = np.concatenate([[0], np.cumsum(self.fitted_days)])
         touched = cum[w1 + 1] - cum[w0] > 0
-        self.occ = pd.DataFrame({"event": occ["event"].to_numpy(), "w0": w0, "w1": w1})[touched]
-        self._cum: dict[str, np.ndarray] = {}
+        self.events, self.w0, self.w1 = events[touched], w0[touched], w1[touched]
+        self.present = set(self.events.tolist())
 
     def count(self, event: str) -> int:
         """Occurrences of ``event`` whose window has a day in a fitted period."""
-        return int((self.occ["event"] == event).sum())
+        return int((self.events == event).sum())
 
     def _days(self, event: str) -> np.ndarray:
         """Cumulative count of the days inside ``event``'s windows (for range sums)."""
         if event not in self._cum:
-            mine = self.occ[self.occ["event"] == event]
+            mine = self.events == event
             marks = np.zeros(len(self.fitted_days) + 1, dtype=int)
-            np.add.at(marks, mine["w0"].to_numpy(), 1)
-            np.add.at(marks, mine["w1"].to_numpy() + 1, -1)
+            np.add.at(marks, self.w0[mine], 1)
+            np.add.at(marks, self.w1[mine] + 1, -1)
             self._cum[event] = np.concatenate([[0], np.cumsum(np.cumsum(marks)[:-1] > 0)])
         return self._cum[event]
 
     def within(self, event: str, terms: list[str], col_event: dict[str, str]) -> tuple[str, int]:
         """The fitted event whose windows hold ``event``'s window days in most occurrences, and how many."""
-        mine = self.occ[self.occ["event"] == event]
-        if not len(mine):
+        mine = self.events == event
+        if not mine.any():
             return "", 0
-        w0, w1 = mine["w0"].to_numpy(), mine["w1"].to_numpy()
+        w0, w1 = self.w0[mine], self.w1[mine]
         best, held_best = "", 0
         for other in dict.fromkeys(col_event.get(t, t) for t in terms):
-            if other == event or other not in set(self.occ["event"]):
+            if other == event or other not in self.present:
                 continue
             cum = self._days(other)
             held = int(((cum[w1 + 1] - cum[w0]) == (w1 - w0 + 1)).sum())
-            if held > NESTED_SHARE * len(mine) and held > held_best:
+            if held > NESTED_SHARE * int(mine.sum()) and held > held_best:
                 best, held_best = other, held
         return best, held_best
+
+
+#: the calendar's windows of the spans graded last (a panel grades one span for many fit-row patterns)
+_WINDOWS_CACHE: dict[tuple[int, pd.Timestamp, pd.Timestamp], tuple[Any, tuple[np.ndarray, ...]]] = {}
+
+
+def _calendar_windows(calendar: Any, first: pd.Timestamp, last: pd.Timestamp) -> tuple[np.ndarray, ...]:
+    """Each occurrence's event and window (first and last day, as days from ``first``, clipped to the span).
+
+    They depend on the calendar and the span only, not on which periods are fitted: computed once per
+    span and kept (with the calendar, so its id cannot be reused while kept).
+    """
+    key = (id(calendar), first, last)
+    hit = _WINDOWS_CACHE.get(key)
+    if hit is not None and hit[0] is calendar:
+        return hit[1]
+    n_days = (last - first).days + 1
+    occ = calendar.occurrences(first, last)
+    before = {e.name: e.before for e in calendar.events}
+    after = {e.name: e.after for e in calendar.events}
+    w0 = (pd.to_datetime(occ["start"]) - first).dt.days.to_numpy() - occ["event"].map(before).to_numpy()
+    w1 = (pd.to_datetime(occ["end"]) - first).dt.days.to_numpy() + occ["event"].map(after).to_numpy()
+    # (int: a calendar with no occurrence in the span gives empty float columns)
+    w0 = np.clip(w0, 0, n_days - 1).astype(np.int64)
+    w1 = np.clip(w1, 0, n_days - 1).astype(np.int64)
+    out = (np.asarray(occ["event"].to_numpy(), dtype=object), w0, w1)
+    if len(_WINDOWS_CACHE) >= 8:
+        _WINDOWS_CACHE.clear()
+    _WINDOWS_CACHE[key] = (calendar, out)
+    return out
 
 
 def grade(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], status: dict[str, Any],

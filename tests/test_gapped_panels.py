@@ -1,0 +1,146 @@
+"""Series with missing periods of their own: the panel gives each the results it gets alone.
+
+Invented weekly data (made here, seeded): daily sales with a two-week promotion
+most years, a one-off gala held once, and a level shift, summed to weeks. Each
+series loses two weeks of its own (a fixed seed); one loses the gala's only week,
+so the gala has no occurrence in its history (``no``), while the others see it
+once (``weak``: fewer than three occurrences, evcal.model.strength, common
+practice, no source). The panel fits every fit-row pattern on its own rows:
+each series' lifts, occurrences, seasonal index and fitted rows must equal
+``evcal.fit`` on that series' own rows, whatever the other series' gaps.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import evcal
+from evcal.calendar import load_calendar
+from evcal.engine.run import fit_long_panel
+from evcal.io.longformat import read_panel
+from evcal.model.options import FitOptions
+
+PROMO = [("2019-03-04", "2019-03-17"), ("2020-03-02", "2020-03-15"), ("2021-03-01", "2021-03-14"),
+         ("2022-03-07", "2022-03-20"), ("2019-09-02", "2019-09-08"), ("2021-09-06", "2021-09-12")]
+GALA = ("2020-06-10", "2020-06-12")  # Wednesday to Friday of the week ending 2020-06-14
+CAL = f"""
+name: promotion and a one-off gala (invented)
+events:
+  - name: promo
+    when: {{dates: [{", ".join(f"{{start: {a}, end: {b}}}" for a, b in PROMO)}]}}
+  - name: gala
+    when: {{dates: [{{start: {GALA[0]}, end: {GALA[1]}}}]}}
+interventions:
+  - {{name: refit, type: level_shift, start: 2021-01-04}}
+"""
+N_SERIES = 5
+GALA_WEEK = pd.Timestamp("2020-06-14")
+LOSES_GALA = 3  # the series whose gaps take the gala's only week
+
+
+def _frame(seed: int = 11) -> pd.DataFrame:
+    """Invented weekly sums: +35 % promotion, +40 % gala, +10 % shift, noise sd 3 %; two weeks missing."""
+    rng = np.random.default_rng(seed)
+    days = pd.date_range("2018-01-01", "2023-12-31", freq="D")
+    doy = days.day_of_year.to_numpy()
+    promo = sum(((days >= a) & (days <= b)).astype(float) for a, b in PROMO)
+    gala = ((days >= GALA[0]) & (days <= GALA[1])).astype(float)
+    frames = []
+    for i in range(N_SERIES):
+        log_daily = (np.log(100.0 * (1 + i)) + 0.2 * np.sin(2 * np.pi * doy / 365.25) + 0.3 * promo
+                     + 0.34 * gala + 0.1 * (days >= "2021-01-04"))
+        weekly = pd.Series(np.exp(log_daily), index=days).resample("W-SUN").sum()
+        weekly = weekly * np.exp(rng.normal(0, 0.03, len(weekly)))
+        # two weeks of its own inside the history (never the first or last week, nor the gala's)
+        inner = np.flatnonzero((weekly.index > weekly.index[0]) & (weekly.index < weekly.index[-1])
+                               & (weekly.index != GALA_WEEK))
+        drop = rng.choice(inner, 2, replace=False)
+        keep = np.ones(len(weekly), dtype=bool)
+        keep[drop] = False
+        if i == LOSES_GALA:
+            keep[weekly.index == GALA_WEEK] = False
+        frames.append(pd.DataFrame({"product": f"P{i}", "date": weekly.index[keep],
+                                    "value": weekly.round(2).to_numpy()[keep]}))
+    return pd.concat(frames, ignore_index=True)
+
+
+@pytest.fixture(scope="module")
+def fits():
+    cal = load_calendar(CAL)
+    frame = _frame()
+    panel = read_panel(frame, ["product"])
+    return cal, frame, panel, fit_long_panel(panel, cal, FitOptions(errors="ols"))
+
+
+def _own(table: pd.DataFrame, j: int) -> pd.DataFrame:
+    out = table[table["_sid"] == j].drop(columns="_sid").reset_index(drop=True)
+    # (text columns are categorical when the block's rows share a few values: compare the text)
+    return out.astype({c: object for c in out.columns if isinstance(out[c].dtype, pd.CategoricalDtype)})
+
+
+def test_every_series_has_its_own_missing_weeks(fits):
+    _, frame, panel, pf = fits
+    counts = frame.groupby("product").size()
+    assert (counts == counts.max() - np.where(counts.index == f"P{LOSES_GALA}", 1, 0)).all()
+    patterns = {tuple(np.isnan(panel.values[:, j])) for j in range(N_SERIES)}
+    assert len(patterns) == N_SERIES
+    assert set(pf.series["engine"]) == {"batched"}
+
+
+@pytest.mark.parametrize("j", range(N_SERIES))
+def test_gapped_series_equal_their_fit_alone(fits, j):
+    # each series alone: evcal.fit on its own rows (the missing weeks are gaps of its history)
+    cal, _, panel, pf = fits
+    alone = evcal.fit(panel.history(j), cal, errors="ols")
+    lifts = _own(pf.lifts, j)
+    ref = alone.lifts.reset_index(drop=True)
+    assert list(lifts["event"]) == list(ref["event"])
+    assert list(lifts["identifiable"]) == list(ref["identifiable"])
+    assert list(lifts["note"].fillna("")) == list(ref["note"].fillna(""))
+    num = ["lift_pct", "low_pct", "high_pct", "units_per_occurrence", "leverage", "vif_season", "vif_events"]
+    np.testing.assert_allclose(lifts[num].to_numpy(float), ref[num].to_numpy(float), rtol=1e-9)
+    occ, ref_occ = _own(pf.occurrences, j), alone.occurrences.reset_index(drop=True)
+    assert list(occ["start"].astype(str)) == list(ref_occ["start"].astype(str))
+    cols = ["added_units", "added_pct", "low_units", "high_units"]
+    np.testing.assert_allclose(occ[cols].to_numpy(float), ref_occ[cols].to_numpy(float), rtol=1e-9)
+    prof, ref_prof = _own(pf.profile, j), alone.profile.reset_index(drop=True)
+    np.testing.assert_allclose(prof[["index", "low_index", "high_index"]].to_numpy(float),
+                               ref_prof[["index", "low_index", "high_index"]].to_numpy(float), rtol=1e-9)
+    fitted = pf.fitted[pf.fitted["_sid"] == j].reset_index(drop=True)
+    ref_fit = alone.fitted.reset_index(drop=True)
+    np.testing.assert_allclose(fitted["fitted"].to_numpy(float), ref_fit["fitted"].to_numpy(float), rtol=1e-9)
+    # the missing weeks are not fitted, as alone
+    assert fitted["in_fit"].sum() == ref_fit["in_fit"].sum() == np.isfinite(panel.values[:, j]).sum()
+
+
+def test_a_gap_on_an_events_only_occurrence_is_reported_as_alone(fits):
+    # the gala's only week is missing in one series: no occurrence in its history ("no"); the
+    # others see it once: a lift resting on one occurrence is weak
+    cal, _, panel, pf = fits
+    gala = pf.lifts[pf.lifts["event"] == "gala"].set_index("_sid")
+    assert gala.loc[LOSES_GALA, "identifiable"] == "no"
+    assert np.isnan(gala.loc[LOSES_GALA, "lift_pct"])
+    others = [j for j in range(N_SERIES) if j != LOSES_GALA]
+    assert (gala.loc[others, "identifiable"] == "weak").all()
+    assert np.isfinite(gala.loc[others, "lift_pct"]).all()
+    alone = evcal.fit(panel.history(LOSES_GALA), cal, errors="ols")
+    ref = alone.lifts.set_index("event").loc["gala"]
+    assert ref["identifiable"] == "no" and gala.loc[LOSES_GALA, "note"] == ref["note"]
+    occ = pf.occurrences[(pf.occurrences["event"] == "gala")]
+    assert LOSES_GALA not in set(occ["_sid"]) or np.isnan(
+        occ.loc[occ["_sid"] == LOSES_GALA, "added_units"]).all() or (
+        occ.loc[occ["_sid"] == LOSES_GALA, "added_units"] == 0).all()
+
+
+def test_a_series_gives_the_same_results_whatever_the_other_series_gaps(fits):
+    # the panel of all five against each series in a panel of its own (the other patterns gone)
+    cal, frame, _, pf = fits
+    for j in (0, LOSES_GALA):
+        own = read_panel(frame[frame["product"] == f"P{j}"], ["product"])
+        one = fit_long_panel(own, cal, FitOptions(errors="ols"))
+        for name in ("lifts", "occurrences", "profile"):
+            a = _own(getattr(pf, name), j)
+            b = _own(getattr(one, name), 0)
+            pd.testing.assert_frame_equal(a, b, check_exact=False, rtol=1e-12)

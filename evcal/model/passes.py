@@ -66,10 +66,9 @@ def estimate(inp: ModelInputs, options: FitOptions, start: Any = None) -> tuple[
         ols = fit_ols(y, X, offset)
         if ols_by_rule(options, 1, len(inp.periods)):
             return ols, ols_choice(ols.aic, ols.cov_note, options, len(inp.periods))
-        best, table = _ranked_choice(y, X, offset, STATIONARY, "aic", ols)
-        reason = (f"lowest AIC among {', '.join(c['name'] for c in table)} (same response, "
+        best, table = ranked_choice(y, X, offset, STATIONARY, "aic", ols)
+        reason = (f"lowest AIC among {', '.join(dict.fromkeys(c['name'] for c in table))} (same response, "
                   f"comparable Gaussian likelihoods; {RANKED})")
-        table = _with_exact(table, best)
         tests = stationarity_tests(y - offset - X @ best.params, len(inp.periods), inp.periods.freqstr)
         if tests is None or (tests[0] < UNIT_ROOT_P and tests[1] >= UNIT_ROOT_P):
             if tests is not None:
@@ -79,16 +78,16 @@ def estimate(inp: ModelInputs, options: FitOptions, start: Any = None) -> tuple[
             return best, {"chosen": best.method, "reason": f"{reason}; {best.cov_note}", "candidates": table}
         # a drifting level: differenced errors (the level is then the error's, evcal.design.level)
         Xd = X.drop(columns=["const"]) if "const" in X.columns else X
-        chosen, diffed = _ranked_choice(y, Xd, offset, DIFFERENCED, "aic (differenced)")
+        chosen, diffed = ranked_choice(y, Xd, offset, DIFFERENCED, "aic (differenced)")
         if chosen is None:
             return best, {"chosen": best.method, "reason": f"{reason}; {best.cov_note}", "candidates": table}
-        table += _with_exact(diffed, chosen)
+        table += diffed
         reason = (f"differenced errors: the regression error of {best.method} ({reason}) is not shown to be "
                   f"stationary around the trend ({drift_evidence(*tests)}), and a "
                   "drifting level left to a straight trend biases level shifts; AIC does not compare "
                   "models with and without differencing (different likelihood bases), so the tests decide; "
-                  f"then lowest AIC among {', '.join(c['name'] for c in diffed)} (ranked the same way); "
-                  f"{chosen.cov_note}")
+                  f"then lowest AIC among {', '.join(dict.fromkeys(c['name'] for c in diffed))} (ranked the "
+                  f"same way); {chosen.cov_note}")
         return chosen, {"chosen": chosen.method, "reason": reason, "candidates": table}
 
 
@@ -99,42 +98,48 @@ RANKED = ("ARIMA candidates ranked at Hannan-Rissanen and conditional least-squa
           "ARMA part on the OLS residuals, one GLS step each; only the chosen one fitted by exact likelihood")
 
 
-def _ranked_choice(y: pd.Series, X: pd.DataFrame, offset: pd.Series, orders: Any, criterion: str,
+def ranked_choice(y: pd.Series, X: pd.DataFrame, offset: pd.Series, orders: Any, criterion: str,
                    ols: Estimate | None = None) -> tuple[Estimate | None, list[dict[str, Any]]]:
     """The lowest-AIC model of ``orders`` (and ``ols``), fitted exactly; the table it was chosen on.
 
     ARIMA orders are ranked by :func:`evcal.model.arima.rank_arima`; an order it cannot rank
-    (estimates not stationary or invertible) is fitted exactly and enters with its exact AIC.
+    (estimates not stationary or invertible) is fitted exactly and enters with its exact AIC. The
+    lowest is fitted exactly and its exact AIC replaces its ranking's; should another candidate then
+    be lower, that one is fitted (or taken) in turn, until the lowest is an exact fit. A ranking's
+    AIC is at most a little above the exact one, so this is one exact fit unless the two disagree
+    (a white-noise error, whose ARMA(1,1) likelihood is flat along cancelling roots, can rank an
+    ARMA(1,1) on a ridge the likelihood search does not reach). The table has every ranking's AIC
+    and the exact AIC of every model fitted exactly.
     """
-    scored: list[tuple[float, str, str, Any]] = []  # (aic, name, criterion, Estimate or Ranked)
+    pool: list[tuple[float, str, Any]] = []  # (aic, name, Estimate or Ranked)
+    table: list[dict[str, Any]] = []
     if ols is not None:
-        scored.append((ols.aic, ols.method, "aic", ols))
+        pool.append((ols.aic, ols.method, ols))
+        table.append({"name": ols.method, "criterion": "aic", "value": ols.aic})
     for r in rank_arima(y, X, offset, orders):
         if isinstance(r, Ranked):
-            scored.append((r.aic, _name(r.order), f"{criterion}, ranking", r))
+            pool.append((r.aic, _name(r.order), r))
+            table.append({"name": _name(r.order), "criterion": f"{criterion}, ranking", "value": r.aic})
             continue
         try:
             est = fit_arima(y, X, offset, r)
         except (np.linalg.LinAlgError, ValueError):
             continue
-        scored.append((est.aic, est.method, criterion, est))
-    table = [{"name": name, "criterion": crit, "value": aic} for aic, name, crit, _ in scored]
-    for _, _, _, top in sorted(scored, key=lambda s: s[0]):
+        pool.append((est.aic, est.method, est))
+        table.append({"name": est.method, "criterion": criterion, "value": est.aic})
+    while pool:
+        i = min(range(len(pool)), key=lambda j: pool[j][0])
+        _, name, top = pool[i]
         if isinstance(top, Estimate):
             return top, table
-        try:  # the lowest ranked, fitted exactly; should that fail, the next one
-            return fit_arima(y, X, offset, top.order, start=top.start), table
+        try:
+            est = fit_arima(y, X, offset, top.order, start=top.start)
         except (np.linalg.LinAlgError, ValueError):
+            pool.pop(i)
             continue
+        pool[i] = (est.aic, name, est)
+        table.append({"name": name, "criterion": f"{criterion}, exact fit", "value": est.aic})
     return None, table
-
-
-def _with_exact(table: list[dict[str, Any]], est: Estimate | None) -> list[dict[str, Any]]:
-    """``table`` with the chosen model's exact AIC added when it was chosen on a ranking's."""
-    if est is None or not any(c["name"] == est.method and c["criterion"] != "aic" for c in table):
-        return table
-    crit = next(c["criterion"] for c in table if c["name"] == est.method).split(",")[0]
-    return table + [{"name": est.method, "criterion": f"{crit}, exact fit of the chosen", "value": est.aic}]
 
 
 def _name(order: tuple[int, int, int]) -> str:

@@ -95,7 +95,8 @@ def estimate(inp: ModelInputs, options: FitOptions, start: Any = None) -> tuple[
 STATIONARY = ((1, 0, 0), (1, 0, 1))
 #: how the ARIMA candidates are ranked, as the reason says it
 RANKED = ("ARIMA candidates ranked at Hannan-Rissanen and conditional least-squares estimates of their "
-          "ARMA part on the OLS residuals, one GLS step each; only the chosen one fitted by exact likelihood")
+          "ARMA part on the OLS residuals, one GLS step each; the lowest fitted by exact likelihood, and the "
+          "next in turn should it then fall behind")
 
 
 def ranked_choice(y: pd.Series, X: pd.DataFrame, offset: pd.Series, orders: Any, criterion: str,

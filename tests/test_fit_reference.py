@@ -11,7 +11,8 @@ import evcal
 from evcal.design.interventions import Interventions, InterventionTerm
 from evcal.design.trend import Trend
 from evcal.io import read_history
-from evcal.model.estimators import fit_arima, fit_count, fit_ols
+from evcal.model.arima import fit_arima
+from evcal.model.estimators import fit_count, fit_ols
 from evcal.model.inputs import model_scale_response, prepare
 from evcal.model.options import FitOptions
 

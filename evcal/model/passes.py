@@ -13,9 +13,10 @@ import pandas as pd
 from evcal.design.base import period_days
 from evcal.design.seasonal import base_freq
 from evcal.design.weekdays import calendar_profile, trading_levels, weighted
+from evcal.model.arima import Ranked, fit_arima, rank_arima
 from evcal.model.choose import chosen_settings
 from evcal.model.drift import DIFFERENCED, UNIT_ROOT_P, drift_evidence, kpss_p_text, stationarity_tests
-from evcal.model.estimators import Estimate, fit_arima, fit_count, fit_ols
+from evcal.model.estimators import Estimate, fit_count, fit_ols
 from evcal.model.fit_rows import check_fit_rows
 from evcal.model.identify import MAX_LOG_LIFT, ColumnStatus, degenerate_note, degenerate_terms, seasonal_share
 from evcal.model.inputs import ModelInputs, additive_design, model_scale_response, prepare
@@ -29,12 +30,18 @@ THETA_TOL = 1e-4
 MAX_PASSES = 8
 
 
-def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str, Any]]:
+def estimate(inp: ModelInputs, options: FitOptions, start: Any = None) -> tuple[Estimate, dict[str, Any]]:
     """Fit the chosen (or automatically selected) error model.
 
-    Numerical warnings (overflow, division by zero) are not passed on: a
-    degenerate fit is found from its numbers afterwards
-    (:func:`flag_degenerate`) and reported as a note on the event.
+    ``--errors auto`` ranks OLS, ARIMA(1,0,0) and ARIMA(1,0,1) by AIC without a
+    likelihood search (:func:`evcal.model.arima.rank_arima`: Hannan–Rissanen
+    estimates on the OLS residuals, one GLS step, the exact Gaussian
+    likelihood) and fits only the chosen one exactly; the differenced
+    candidates, when the drift tests call for them, the same way. ``start``
+    (the ARMA parameters of an earlier pass with the same order) starts the
+    exact fit of ``--errors arima``. Numerical warnings (overflow, division by
+    zero) are not passed on: a degenerate fit is found from its numbers
+    afterwards (:func:`flag_degenerate`) and reported as a note on the event.
     """
     with warnings.catch_warnings(), np.errstate(over="ignore", divide="ignore", invalid="ignore"):
         warnings.simplefilter("ignore", RuntimeWarning)
@@ -53,22 +60,15 @@ def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str,
             order = options.arima_order or (1, 0, 0)
             if order[1] >= 1 and "const" in X.columns:
                 X = X.drop(columns=["const"])  # differenced errors leave the constant unidentified
-            est = fit_arima(y, X, offset, order)
+            est = fit_arima(y, X, offset, order, start=start)
             return est, {"chosen": est.method, "reason": "asked for (--errors arima); " + est.cov_note,
                          "candidates": [{"name": est.method, "criterion": "aic", "value": est.aic}]}
         ols = fit_ols(y, X, offset)
         if ols_by_rule(options, 1, len(inp.periods)):
             return ols, ols_choice(ols.aic, ols.cov_note, options, len(inp.periods))
-        cands: list[Estimate] = [ols]
-        for order in ((1, 0, 0), (1, 0, 1)):
-            try:
-                cands.append(fit_arima(y, X, offset, order))
-            except (np.linalg.LinAlgError, ValueError):
-                continue
-        best = min(cands, key=lambda e: e.aic)
-        table = [{"name": e.method, "criterion": "aic", "value": e.aic} for e in cands]
-        reason = (f"lowest AIC among {', '.join(e.method for e in cands)} (same response, "
-                  f"comparable Gaussian likelihoods)")
+        best, table = ranked_choice(y, X, offset, STATIONARY, "aic", ols)
+        reason = (f"lowest AIC among {', '.join(dict.fromkeys(c['name'] for c in table))} (same response, "
+                  f"comparable Gaussian likelihoods; {RANKED})")
         tests = stationarity_tests(y - offset - X @ best.params, len(inp.periods), inp.periods.freqstr)
         if tests is None or (tests[0] < UNIT_ROOT_P and tests[1] >= UNIT_ROOT_P):
             if tests is not None:
@@ -78,22 +78,73 @@ def estimate(inp: ModelInputs, options: FitOptions) -> tuple[Estimate, dict[str,
             return best, {"chosen": best.method, "reason": f"{reason}; {best.cov_note}", "candidates": table}
         # a drifting level: differenced errors (the level is then the error's, evcal.design.level)
         Xd = X.drop(columns=["const"]) if "const" in X.columns else X
-        diffed: list[Estimate] = []
-        for order in DIFFERENCED:
-            try:
-                diffed.append(fit_arima(y, Xd, offset, order))
-            except (np.linalg.LinAlgError, ValueError):
-                continue
-        if not diffed:
+        chosen, diffed = ranked_choice(y, Xd, offset, DIFFERENCED, "aic (differenced)")
+        if chosen is None:
             return best, {"chosen": best.method, "reason": f"{reason}; {best.cov_note}", "candidates": table}
-        chosen = min(diffed, key=lambda e: e.aic)
-        table += [{"name": e.method, "criterion": "aic (differenced)", "value": e.aic} for e in diffed]
+        table += diffed
         reason = (f"differenced errors: the regression error of {best.method} ({reason}) is not shown to be "
                   f"stationary around the trend ({drift_evidence(*tests)}), and a "
                   "drifting level left to a straight trend biases level shifts; AIC does not compare "
                   "models with and without differencing (different likelihood bases), so the tests decide; "
-                  f"then lowest AIC among {', '.join(e.method for e in diffed)}; {chosen.cov_note}")
+                  f"then lowest AIC among {', '.join(dict.fromkeys(c['name'] for c in diffed))} (ranked the "
+                  f"same way); {chosen.cov_note}")
         return chosen, {"chosen": chosen.method, "reason": reason, "candidates": table}
+
+
+#: the stationary error models ``--errors auto`` compares with OLS
+STATIONARY = ((1, 0, 0), (1, 0, 1))
+#: how the ARIMA candidates are ranked, as the reason says it
+RANKED = ("ARIMA candidates ranked at Hannan-Rissanen and conditional least-squares estimates of their "
+          "ARMA part on the OLS residuals, one GLS step each; the lowest fitted by exact likelihood, and the "
+          "next in turn should it then fall behind")
+
+
+def ranked_choice(y: pd.Series, X: pd.DataFrame, offset: pd.Series, orders: Any, criterion: str,
+                   ols: Estimate | None = None) -> tuple[Estimate | None, list[dict[str, Any]]]:
+    """The lowest-AIC model of ``orders`` (and ``ols``), fitted exactly; the table it was chosen on.
+
+    ARIMA orders are ranked by :func:`evcal.model.arima.rank_arima`; an order it cannot rank
+    (estimates not stationary or invertible) is fitted exactly and enters with its exact AIC. The
+    lowest is fitted exactly and its exact AIC replaces its ranking's; should another candidate then
+    be lower, that one is fitted (or taken) in turn, until the lowest is an exact fit. A ranking's
+    AIC is at most a little above the exact one, so this is one exact fit unless the two disagree
+    (a white-noise error, whose ARMA(1,1) likelihood is flat along cancelling roots, can rank an
+    ARMA(1,1) on a ridge the likelihood search does not reach). The table has every ranking's AIC
+    and the exact AIC of every model fitted exactly.
+    """
+    pool: list[tuple[float, str, Any]] = []  # (aic, name, Estimate or Ranked)
+    table: list[dict[str, Any]] = []
+    if ols is not None:
+        pool.append((ols.aic, ols.method, ols))
+        table.append({"name": ols.method, "criterion": "aic", "value": ols.aic})
+    for r in rank_arima(y, X, offset, orders):
+        if isinstance(r, Ranked):
+            pool.append((r.aic, _name(r.order), r))
+            table.append({"name": _name(r.order), "criterion": f"{criterion}, ranking", "value": r.aic})
+            continue
+        try:
+            est = fit_arima(y, X, offset, r)
+        except (np.linalg.LinAlgError, ValueError):
+            continue
+        pool.append((est.aic, est.method, est))
+        table.append({"name": est.method, "criterion": criterion, "value": est.aic})
+    while pool:
+        i = min(range(len(pool)), key=lambda j: pool[j][0])
+        _, name, top = pool[i]
+        if isinstance(top, Estimate):
+            return top, table
+        try:
+            est = fit_arima(y, X, offset, top.order, start=top.start)
+        except (np.linalg.LinAlgError, ValueError):
+            pool.pop(i)
+            continue
+        pool[i] = (est.aic, name, est)
+        table.append({"name": name, "criterion": f"{criterion}, exact fit", "value": est.aic})
+    return None, table
+
+
+def _name(order: tuple[int, int, int]) -> str:
+    return "arima({},{},{})".format(*order)
 
 
 def ols_by_rule(options: FitOptions, n_series: int, n_periods: int) -> bool:
@@ -324,7 +375,9 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
             break
         trial = dict(dropped)
         pass_calendar = calendar if levels is None else weighted(calendar, {"levels": levels})
-        inp_next, est_next, _ = _fit_flagged(history, pass_calendar, fixed, theta, trial, chosen)
+        # the error model's order is kept; its likelihood search starts where the last pass ended
+        start = est.error_model.get("arma_params") or None
+        inp_next, est_next, _ = _fit_flagged(history, pass_calendar, fixed, theta, trial, chosen, start=start)
         # a column the previous pass did not fit (left to the season there) can break down once the
         # weekday weights move its periods' values a little off the season's: it stays out, the pass holds
         ran_away = [c for c in trial if c not in dropped and c in theta]
@@ -378,16 +431,18 @@ def _free(theta: dict[str, float], inp: ModelInputs, stopped: dict[str, str]) ->
 
 
 def _fit_flagged(history: Any, calendar: Any, options: FitOptions, theta: dict[str, float] | None,
-                 dropped: dict[str, str], chosen: Chosen, inp: ModelInputs | None = None,
+                 dropped: dict[str, str], chosen: Chosen, inp: ModelInputs | None = None, start: Any = None,
                  ) -> tuple[ModelInputs, Estimate, dict[str, Any]]:
     """One pass: fit, leave out the columns :func:`flag_degenerate` flags (collected in ``dropped``), refit.
+
+    ``start``: the ARMA parameters the exact fit of ``--errors arima`` starts from (:func:`estimate`).
 
     Each round leaves out at least one more column, so it ends.
     """
     while True:
         if inp is None:
             inp = prepare(history, calendar, options, theta=theta, degenerate=dropped, chosen=chosen)
-        est, choice = estimate(inp, options)
+        est, choice = estimate(inp, options, start)
         flagged = flag_degenerate(inp, est, history.freq)
         if not flagged:
             return inp, est, choice

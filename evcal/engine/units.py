@@ -97,8 +97,29 @@ class BlockModel:
     tables: BlockTables
 
 
-def run_batch(unit: BatchUnit) -> UnitResult:
-    """Solve a block of series that share a design, then build their tables."""
+@dataclass
+class BlockSolve:
+    """A block's coefficients after the solve and the exact-aggregation passes, before any table."""
+
+    Y: np.ndarray  # (n_rows, m) model-scale responses on the fit rows (offset taken off)
+    y: np.ndarray  # (n_rows, m) the actuals on the fit rows
+    first: np.ndarray | None  # the first pass's coefficients (exact aggregation), else None
+    refined: Any  # evcal.engine.refine.Refined, or None when nothing is curved
+    B: np.ndarray  # (k, m) coefficients in group.info.fitted_cols order
+    E: np.ndarray  # (n_rows, m) residuals
+    sigma2: np.ndarray
+    se: np.ndarray  # (len(term_cols), m)
+    errors: Any  # each series' AR error model (PrewhitenedErrors)
+    smear: np.ndarray
+    broken: np.ndarray  # (m,) series to fit again on their own
+
+
+def solve_unit(unit: BatchUnit) -> BlockSolve:
+    """Solve a block of series that share a design, with the exact-aggregation passes; no tables.
+
+    The one solve of a block: :func:`run_batch` builds the tables from it, and the batched panel
+    plan (:func:`evcal.plan.batched.solve_block`) its coefficients' covariances.
+    """
     assert unit.shared is not None
     g = unit.shared.group
     assert g.solve is not None
@@ -113,7 +134,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         # the single-series path divides by the open share, then scales rows by it
         share = g.share[:, None]
         Y = (y / share) * np.where(share > 0, share, 1.0)
-    refined = first = cov = None
+    refined = first = None
     if g.curve is not None:
         from evcal.engine.refine import refine
 
@@ -122,7 +143,6 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         refined = refine(g.info, g.curve, rows, g.solve.X, Y, first, cache=g.refine_cache)
     if refined is not None:
         B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
-        cov = refined.cov_terms  # the occurrences' joint draws, as the single-series path's
         errors = refined.errors
     else:
         B, E, sigma2 = g.solve.solve(Y)
@@ -135,13 +155,25 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         else:
             se = np.zeros((0, len(unit.sids)))
     smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
-    curved_all = refined.curved if refined is not None else {}
     # a series whose fit breaks down (a lift past any real event's, or an interval that does not
     # say even its order of magnitude) is fitted again on its own, where the degenerate-fit rule
     # leaves the broken columns out (evcal.model.passes.estimate_exact)
     broken = _broken(g, B, se, first, y)
     if refined is not None and refined.beyond is not None:
         broken |= refined.beyond  # a dip beyond the event's days: the per-series passes note it
+    return BlockSolve(Y, y, first, refined, B, E, sigma2, se, errors, smear, broken)
+
+
+def run_batch(unit: BatchUnit) -> UnitResult:
+    """Solve a block of series that share a design, then build their tables."""
+    solved = solve_unit(unit)
+    g = unit.shared.group
+    Y, first, refined = solved.Y, solved.first, solved.refined
+    B, E, sigma2, se = solved.B, solved.E, solved.sigma2, solved.se
+    errors, smear = solved.errors, solved.smear
+    cov = refined.cov_terms if refined is not None else None  # the occurrences' joint draws
+    curved_all = refined.curved if refined is not None else {}
+    broken = solved.broken
     keep = ~broken
     col_of = {c: i for i, c in enumerate(g.info.fitted_cols)}
 

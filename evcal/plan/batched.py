@@ -62,36 +62,13 @@ def solve_block(unit: Any, covariance: bool = True) -> BlockFit:
     series' covariance is its whole final design's, as
     :func:`evcal.engine.units._block_model` makes it for a block of one.
     """
-    from evcal.engine.refine import refine
-    from evcal.engine.units import _broken
+    from evcal.engine.units import solve_unit
 
     g = unit.shared.group
     rows = g.rows
-    y = unit.actual.T if rows.all() else unit.actual[:, rows].T
-    if g.transform == "log":
-        with np.errstate(divide="ignore"):
-            Y = np.log(y)
-        Y -= g.offset[:, None]
-    else:
-        share = g.share[:, None]
-        Y = (y / share) * np.where(share > 0, share, 1.0)
-    refined = first = None
-    if g.curve is not None:
-        first = g.solve.coefficients(Y)
-        refined = refine(g.info, g.curve, rows, g.solve.X, Y, first, cache=g.refine_cache)
-    if refined is not None:
-        B, E, sigma2, se = refined.params, refined.resid, refined.sigma2, refined.se_terms
-    else:
-        B, E, sigma2 = g.solve.solve(Y)
-        errors = g.solve.errors(E)
-        term_idx = np.array([g.info.fitted_cols.index(c) for c in g.info.term_cols], dtype=int)
-        var = g.solve.contrast_variances(errors, term_idx, np.eye(len(term_idx))) if len(term_idx) \
-            else np.zeros((len(unit.sids), 0))
-        se = np.sqrt(np.clip(var, 0, None)).T
-    smear = np.exp(E).mean(axis=0) if g.transform == "log" else np.ones(len(unit.sids))
-    broken = _broken(g, B, se, first, y)
-    if refined is not None and refined.beyond is not None:
-        broken |= refined.beyond
+    solved = solve_unit(unit)
+    refined, B, E, smear, sigma2 = solved.refined, solved.B, solved.E, solved.smear, solved.sigma2
+    broken = solved.broken
     keep = ~broken
     cols = g.info.fitted_cols
     theta: dict[str, np.ndarray] = {}

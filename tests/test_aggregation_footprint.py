@@ -16,6 +16,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from test_weekday_true_aggregation import _history  # weekly sums of whole weeks, as there
 
 import evcal
 from evcal.calendar import load_calendar
@@ -93,22 +94,13 @@ def test_chicago_neighbours_are_the_known_days(chicago_found):
     assert not quiet & {n.event for n in chicago_found}, got
 
 
-def _sums(values: pd.Series, freq: str) -> pd.DataFrame:
-    if freq == "D":
-        s = values
-    else:
-        agg = values.resample(freq).agg(["sum", "count"])
-        s = agg.loc[agg["count"] == 7, "sum"]
-    return pd.DataFrame({"date": s.index, "value": s.to_numpy()})
-
-
 @pytest.fixture(scope="module")
 def chicago_gaps(chicago, chicago_found) -> pd.DataFrame:
     """Daily and weekly (W-SUN sums, the daily fit's weekday profile) lifts with the found calendar."""
     calendar = with_neighbours(US, chicago_found)
-    daily = evcal.fit(_sums(chicago, "D"), calendar, errors="ols")
+    daily = evcal.fit(_history(chicago, "D"), calendar, errors="ols")
     line = profile_line(fitted_profile(daily.params))
-    weekly = evcal.fit(_sums(chicago, "W-SUN"), calendar + line + "\n", errors="ols")
+    weekly = evcal.fit(_history(chicago, "W-SUN"), calendar + line + "\n", errors="ols")
     table = pd.concat({"daily": daily.lifts.set_index("event")[["lift_pct", "identifiable"]],
                        "weekly": weekly.lifts.set_index("event")[["lift_pct", "identifiable"]]}, axis=1)
     holidays = [e.name for e in load_calendar(US).events]
@@ -173,10 +165,11 @@ def test_births_weekly_christmas_is_no_longer_read_off_its_neighbours(births):
     found = neighbour_days(np.log(births), load_calendar(US))
     assert {("Christmas Day", -1), ("Christmas Day", 1)} <= {(n.event, n.offset) for n in found}
     calendar = with_neighbours(US, found)
-    fitted = evcal.fit(_sums(births, "D"), calendar, errors="ols")
+    fitted = evcal.fit(_history(births, "D"), calendar, errors="ols")
     daily = fitted.lifts.set_index("event")
     line = profile_line(fitted_profile(fitted.params))
-    weekly = evcal.fit(_sums(births, "W-SUN"), calendar + line + "\n", errors="ols").lifts.set_index("event")
+    weekly = evcal.fit(_history(births, "W-SUN"), calendar + line + "\n", errors="ols")
+    weekly = weekly.lifts.set_index("event")
     assert weekly.loc["Christmas Day", "identifiable"] != "yes"
     assert not weekly.loc["Christmas Day", "lift_pct"] < -40
     holidays = [e.name for e in load_calendar(US).events]

@@ -25,19 +25,12 @@ the coverage of a correct 95 % interval has a binomial standard error of
 
 from __future__ import annotations
 
-import os
-import sys
+import argparse
+import time
+from dataclasses import dataclass
 
-# benchmarks/calendar.py would shadow the standard library's calendar module (pandas imports it)
-if sys.path and os.path.abspath(sys.path[0]) == os.path.dirname(os.path.abspath(__file__)):
-    sys.path.pop(0)
-
-import argparse  # noqa: E402
-import time  # noqa: E402
-from dataclasses import dataclass  # noqa: E402
-
-import numpy as np  # noqa: E402
-import pandas as pd  # noqa: E402
+import numpy as np
+import pandas as pd
 
 TRUE_LIFT = {"easter-weekend": 30.0, "promotion": 20.0}
 SEED = 20250515

@@ -25,19 +25,11 @@ tree holding this script.
 
 from __future__ import annotations
 
-import os
-import sys
+import argparse
+import tempfile
+from pathlib import Path
 
-# benchmarks/calendar.py would shadow the standard library's calendar module (pandas imports it)
-if sys.path and os.path.abspath(sys.path[0]) == os.path.dirname(os.path.abspath(__file__)):
-    sys.path.pop(0)
-
-import argparse  # noqa: E402
-import statistics  # noqa: E402
-import subprocess  # noqa: E402
-import tempfile  # noqa: E402
-import time  # noqa: E402
-from pathlib import Path  # noqa: E402
+import tree_race
 
 HERE = Path(__file__).resolve().parent.parent
 DEMO = HERE / "demo"
@@ -76,84 +68,23 @@ def _argv(name: str, folder: Path, out: Path) -> list[str]:
     return ["fit", str(history), "-c", str(calendar), "--out", str(out), "--force"]
 
 
-def _run(tree: Path, argv: list[str], cwd: Path, threads: int) -> float:
-    env = {**os.environ, "PYTHONPATH": str(tree), "OPENBLAS_NUM_THREADS": str(threads),
-           "OMP_NUM_THREADS": str(threads), "MKL_NUM_THREADS": str(threads)}
-    start = time.perf_counter()
-    # run outside both trees: ``python -m`` puts the working folder first on the path
-    done = subprocess.run([sys.executable, "-m", "evcal.cli", *argv], env=env, capture_output=True, text=True,
-                          cwd=cwd)
-    took = time.perf_counter() - start
-    if done.returncode:
-        raise SystemExit(f"{' '.join(argv)} failed with {tree}:\n{done.stderr}")
-    return took
-
-
-def _export(ref: str, folder: Path) -> Path:
-    """The tree of git ``ref`` of this repository, exported to ``folder``."""
-    archive = subprocess.run(["git", "-C", str(HERE), "archive", ref], check=True, capture_output=True).stdout
-    subprocess.run(["tar", "-x", "-C", str(folder)], input=archive, check=True)
-    return folder
-
-
-def _check_tree(side: str, tree: Path, folder: Path) -> None:
-    """Stop unless a process with ``PYTHONPATH=tree`` imports evcal from ``tree``."""
-    where = subprocess.run([sys.executable, "-c", "import evcal; print(evcal.__file__)"], cwd=folder,
-                           env={**os.environ, "PYTHONPATH": str(tree)}, capture_output=True, text=True).stdout
-    if not where.startswith(str(tree)):
-        raise SystemExit(f"{side}: evcal is imported from {where.strip()}, not from {tree}")
-
-
-def _load() -> str:
-    return f"load {os.getloadavg()[0]:.2f}"
-
-
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--commands", nargs="+", choices=COMMANDS, default=list(COMMANDS))
-    parser.add_argument("--repeat", type=int, default=3)
-    parser.add_argument("--before", type=Path, help="source tree of the code before (holds evcal/)")
-    parser.add_argument("--before-ref", default="main", help="git ref exported when --before is not given")
-    parser.add_argument("--after", type=Path, default=HERE, help="source tree of the code after")
-    parser.add_argument("--threads", type=int, default=1, help="BLAS threads, the same on both sides")
+    tree_race.tree_options(parser)
     args = parser.parse_args()
 
     with tempfile.TemporaryDirectory(prefix="evcal-bench-default-fit-") as tmp:
         tmp_path = Path(tmp)
-        before = args.before
-        if before is None:
-            (tmp_path / "before").mkdir()
-            before = _export(args.before_ref, tmp_path / "before")
-        sides = {"before": before.resolve(), "after": args.after.resolve()}
-        for side, tree in sides.items():
-            _check_tree(side, tree, tmp_path)
-        print(f"before: {sides['before']}{'' if args.before else f' (git {args.before_ref})'}")
-        print(f"after:  {sides['after']}")
-        print(f"BLAS threads (OPENBLAS/OMP/MKL_NUM_THREADS) on both sides: {args.threads}; "
-              f"cores: {os.cpu_count()}; {_load()}")
-        summary = []
+        sides = tree_race.trees(args, tmp_path)
+        lines = []
         for name in args.commands:
             runs = {side: _argv(name, tmp_path, tmp_path / f"{name}-{side}") for side in sides}
             print(f"\n{name}: evcal {' '.join(Path(a).name for a in runs['after'])}")
-            times: dict[str, list[float]] = {"before": [], "after": []}
-            for r in range(args.repeat):
-                for side, tree in sides.items():
-                    load = _load()
-                    took = _run(tree, runs[side], tmp_path, args.threads)
-                    times[side].append(took)
-                    print(f"  run {r + 1} {side:6s} {took:7.2f} s  ({load} at start)", flush=True)
-                print(f"  run {r + 1} ratio before/after {times['before'][-1] / times['after'][-1]:.2f}")
-            ratios = [b / a for b, a in zip(times["before"], times["after"], strict=True)]
-            b, a = times["before"], times["after"]
-            line = (f"{name}: before min {min(b):.2f} s, median {statistics.median(b):.2f} s; "
-                    f"after min {min(a):.2f} s, median {statistics.median(a):.2f} s; "
-                    f"ratio of pairs median {statistics.median(ratios):.2f} "
-                    f"(range {min(ratios):.2f}-{max(ratios):.2f})")
+            line, _ = tree_race.race(name, sides, runs.__getitem__, tmp_path, args)
             print("  " + line)
-            summary.append(line)
-        print(f"\nsummary ({_load()} at the end)")
-        for line in summary:
-            print("  " + line)
+            lines.append(line)
+        tree_race.summary(lines)
 
 
 if __name__ == "__main__":

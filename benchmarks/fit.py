@@ -15,18 +15,10 @@ Run: ``python benchmarks/fit.py``
 
 from __future__ import annotations
 
-import os
-import sys
+import time
 
-# benchmarks/calendar.py would hide the standard library's `calendar` module
-# when this folder is first on sys.path (as it is for a script run from here).
-if sys.path and os.path.abspath(sys.path[0]) == os.path.dirname(os.path.abspath(__file__)):
-    sys.path.pop(0)
-
-import time  # noqa: E402
-
-import numpy as np  # noqa: E402
-import pandas as pd  # noqa: E402
+import numpy as np
+import pandas as pd
 
 
 def daily_case(n_events: int = 100):

@@ -42,21 +42,16 @@ load average beside it, the ratio of each pair, and the best and median.
 
 from __future__ import annotations
 
+import argparse
 import os
+import subprocess
 import sys
+import tempfile
+import time
+from pathlib import Path
 
-# benchmarks/calendar.py would shadow the standard library's calendar module (pandas imports it)
-if sys.path and os.path.abspath(sys.path[0]) == os.path.dirname(os.path.abspath(__file__)):
-    sys.path.pop(0)
-
-import argparse  # noqa: E402
-import subprocess  # noqa: E402
-import tempfile  # noqa: E402
-import time  # noqa: E402
-from pathlib import Path  # noqa: E402
-
-import numpy as np  # noqa: E402
-import pandas as pd  # noqa: E402
+import numpy as np
+import pandas as pd
 
 CALENDAR = """\
 name: Fernhollow Garden Centres, all products (invented benchmark)

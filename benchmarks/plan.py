@@ -20,20 +20,15 @@ Both sides with one BLAS thread (printed). Every run printed with the load avera
 
 from __future__ import annotations
 
+import argparse
 import os
+import subprocess
 import sys
+import tempfile
+import time
+from pathlib import Path
 
-if sys.path and os.path.abspath(sys.path[0]) == os.path.dirname(os.path.abspath(__file__)):
-    sys.path.pop(0)
-sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-
-import argparse  # noqa: E402
-import subprocess  # noqa: E402
-import tempfile  # noqa: E402
-import time  # noqa: E402
-from pathlib import Path  # noqa: E402
-
-from panel import CALENDAR, make_data  # noqa: E402
+from panel import CALENDAR, make_data
 
 
 def _per_series(folder: Path, sample: int) -> float:

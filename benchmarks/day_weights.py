@@ -5,25 +5,17 @@ summed with ``np.bincount``) with the obvious pandas loop (for each event,
 for each occurrence, add the window's weights into a DataFrame with
 ``.loc``), on the same calendar, and checks that both give the same numbers.
 
-Run: ``python benchmarks/calendar.py``. Aim: under 0.2 s for ``day_weights``.
+Run: ``python benchmarks/day_weights.py``. Aim: under 0.2 s for ``day_weights``.
 """
 
 from __future__ import annotations
 
-import os
-import sys
+import time
 
-# Run as a script, this file's folder comes first on sys.path, and its name would
-# hide the standard library's `calendar` module (pandas and holidays import it).
-if sys.path and os.path.abspath(sys.path[0]) == os.path.dirname(os.path.abspath(__file__)):
-    sys.path.pop(0)
+import numpy as np
+import pandas as pd
 
-import time  # noqa: E402
-
-import numpy as np  # noqa: E402
-import pandas as pd  # noqa: E402
-
-from evcal.calendar import Calendar, load_calendar  # noqa: E402
+from evcal.calendar import Calendar, load_calendar
 
 FIRST, LAST = 1995, 2024  # 30 years
 SHAPES = ("flat", "ramp", "decay", "flat", "ramp")

@@ -130,6 +130,9 @@ class _Draws:
             root = vecs * np.sqrt(np.clip(vals, 0.0, None))[:, None, :]
         self.names = {c: i for i, c in enumerate(names)}
         self.root = root  # (m, K, K)
+        # an intervention is in force in the periods of many events' occurrences: its draws are made
+        # once for all the block's series (m × N_DRAWS), an event's for each chunk that needs them
+        self.kept: dict[str, np.ndarray] = {}
 
     def of(self, col: str, sl: slice) -> np.ndarray:
         """The coefficient draws behind a term column for series ``sl``, draws last: (m, D) or (m, 1)."""
@@ -143,10 +146,17 @@ class _Draws:
         b = self.pmap[src][sl]
         if src not in self.names:
             return b[:, None]
+        if src in group.intervention_names:
+            if src not in self.kept:
+                self.kept[src] = self._drawn(src, slice(None))
+            return self.kept[src][sl]
+        return self._drawn(src, sl)
+
+    def _drawn(self, src: str, sl: slice) -> np.ndarray:
         # b + Σⱼ rootⱼ zⱼ, summed in j's order for each series and draw on its own (einsum's loop, not
         # BLAS, whose blocking would make the last bit depend on how the series are cut into chunks)
         out = np.einsum("mk,dk->md", self.root[sl, self.names[src], :], _joint_normals(len(self.names)))
-        out += b[:, None]
+        out += self.pmap[src][sl, None]
         return out
 
 
@@ -175,6 +185,23 @@ def _at(values: np.ndarray, which: np.ndarray) -> np.ndarray:
     if values.shape[1] == 1:
         return values  # broadcasts
     return values[:, which]
+
+
+def _coalitions(flat: dict[str, np.ndarray], players: dict[str, list[str]], own: str,
+                first: np.ndarray) -> list[tuple[np.ndarray, list[str]]]:
+    """The distinct positions ``first`` grouped by the players present there (own among them).
+
+    A player is present at a position where one of its columns is not zero for some series; an
+    absent player is a null player (its factor 1 + t (a − 1) is 1), so leaving it out changes no
+    value, and each group's Shapley values take one call with only its players.
+    """
+    names = list(players)
+    on = np.array([np.any([(flat[c][:, first] != 0).any(axis=0) for c in players[q]], axis=0)
+                   for q in names])  # (players, positions)
+    on &= on[names.index(own)][None, :]  # where the own player is absent its value is 0
+    keys, which = np.unique(on.T, axis=0, return_inverse=True)
+    return [(np.flatnonzero(which.ravel() == i), [q for q, o in zip(names, key, strict=True) if o])
+            for i, key in enumerate(keys) if key.any()]
 
 
 def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.ndarray, level0: np.ndarray,
@@ -214,6 +241,7 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     names = list(players)
     f_first, f_which = _distinct(flat, factor_cols, n_pos)
     g_first, g_which = _distinct(flat, player_cols if len(names) == 1 else factor_cols + player_cols, n_pos)
+    coalitions = _coalitions(flat, players, own, g_first) if len(names) > 1 else []
     per_series = isinstance(frac, np.ndarray) and frac.ndim == 3
     frac_p = frac[:, pick] if per_series else (frac[pick] if isinstance(frac, np.ndarray) else frac)
     # (level0 × frac × mask)ₜ: what a unit of factor × gain is worth in each period
@@ -229,21 +257,24 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
             out = np.empty((ms, len(first), N_DRAWS))
             for i, c in enumerate(cols):
                 x = flat[c][sl if flat[c].shape[0] > 1 else slice(None)][:, first, None]
-                term = draws.of(c, sl)[:, None, :] * x
                 if i:
-                    out += term
+                    out += draws.of(c, sl)[:, None, :] * x
                 else:
-                    out[...] = term
+                    np.multiply(draws.of(c, sl)[:, None, :], x, out=out)
             return out
 
         if len(names) == 1:  # no other player in these periods: the Shapley value is the whole gain
             unit = _at(np.expm1(log_of(player_cols, g_first)), g_which)
             if factor_cols:
                 unit = unit * _at(np.exp(log_of(factor_cols, f_first)), f_which)
-        else:  # the Shapley value per unit of level0, the factor inside
-            fac = np.exp(log_of(factor_cols, g_first)) if factor_cols else 1.0
-            logs = np.stack([log_of(players[q], g_first) for q in names])
-            unit = _at(shapley_exp(fac, logs, player=names.index(own)), g_which)
+        else:  # the Shapley value per unit of level0, the factor inside, a call per coalition
+            gains = np.zeros((ms, len(g_first), N_DRAWS))
+            for pos, inside in coalitions:
+                at = g_first[pos]
+                fac = np.exp(log_of(factor_cols, at)) if factor_cols else 1.0
+                logs = np.stack([log_of(players[q], at) for q in inside])
+                gains[:, pos] = shapley_exp(fac, logs, player=inside.index(own))
+            unit = _at(gains, g_which)
         # sims = Σₜ weightₜ × (factor × gain)ₜ over each occurrence's periods, t in order
         unit = np.broadcast_to(unit, (ms, n_pos, N_DRAWS)).reshape(ms, k, width, N_DRAWS)
         sims = np.einsum("mktd,mkt->mkd", unit, weight[sl])

@@ -246,8 +246,9 @@ class _Windows:
             return "", 0
         w0, w1 = mine["w0"].to_numpy(), mine["w1"].to_numpy()
         best, held_best = "", 0
+        present = set(self.occ["event"].unique())  # once: iterating the column costs a call per row
         for other in dict.fromkeys(col_event.get(t, t) for t in terms):
-            if other == event or other not in set(self.occ["event"]):
+            if other == event or other not in present:
                 continue
             cum = self._days(other)
             held = int(((cum[w1 + 1] - cum[w0]) == (w1 - w0 + 1)).sum())

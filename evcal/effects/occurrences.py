@@ -247,20 +247,22 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     # (level0 × frac × mask)ₜ: what a unit of factor × gain is worth in each period
     weight = np.broadcast_to(level0 * frac_p * mask, (m, k, width))
     n_g = len(g_first) * (len(names) + 2)
-    step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + n_g + n_pos + k)))
+    step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + n_g + n_pos + k + len(used))))
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))
         ms = sl.stop - s0
+        beta = {c: draws.of(c, sl) for c in used}
 
-        def log_of(cols: list[str], first: np.ndarray, sl: slice = sl, ms: int = ms) -> np.ndarray:
+        def log_of(cols: list[str], first: np.ndarray, sl: slice = sl, ms: int = ms,
+                   beta: dict[str, np.ndarray] = beta) -> np.ndarray:
             """Σ β x over these columns at the positions ``first``: (ms, len(first), N_DRAWS)."""
             out = np.empty((ms, len(first), N_DRAWS))
             for i, c in enumerate(cols):
                 x = flat[c][sl if flat[c].shape[0] > 1 else slice(None)][:, first, None]
                 if i:
-                    out += draws.of(c, sl)[:, None, :] * x
+                    out += beta[c][:, None, :] * x
                 else:
-                    np.multiply(draws.of(c, sl)[:, None, :], x, out=out)
+                    np.multiply(beta[c][:, None, :], x, out=out)
             return out
 
         if len(names) == 1:  # no other player in these periods: the Shapley value is the whole gain

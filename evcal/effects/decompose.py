@@ -22,6 +22,7 @@ The m series of a block share the design rows; the coefficients differ.
 
 from __future__ import annotations
 
+import functools
 from typing import Any
 
 import numpy as np
@@ -32,19 +33,29 @@ from evcal.effects.span import GroupInfo, SpanContext
 __all__ = ["decompose_block", "decompose", "shapley_exp", "player_of"]
 
 
-def shapley_exp(level: np.ndarray, logs: np.ndarray) -> np.ndarray:
+@functools.cache
+def _legendre(k: int) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Legendre nodes on (0, 1) and half their weights, exact for polynomials of degree k − 1."""
+    nodes, weights = np.polynomial.legendre.leggauss(max((k + 1) // 2, 1))
+    return 0.5 * (nodes + 1.0), 0.5 * weights
+
+
+def shapley_exp(level: np.ndarray | float, logs: np.ndarray, player: int | None = None) -> np.ndarray:
     """Shapley values of the game ``v(S) = level (exp(Σ_{j∈S} logs_j) − 1)``, exact for any number of players.
 
     Parameters
     ----------
-    level : ndarray
+    level : ndarray or float
         The level the players act on, broadcastable against ``logs[0]``.
     logs : ndarray, shape (k, ...)
         Each player's log-scale effect (0 where a player is absent: a null player gets 0).
+    player : int, optional
+        Only this player's value (what the occurrence intervals need): the other players'
+        values are not computed.
 
     Returns
     -------
-    ndarray, shape of ``logs``
+    ndarray, shape of ``logs`` (of ``logs[0]`` with ``player``)
         Player j's value; the values add up to ``level (exp(Σ logs) − 1)``.
 
     Notes
@@ -58,10 +69,18 @@ def shapley_exp(level: np.ndarray, logs: np.ndarray) -> np.ndarray:
     """
     k = logs.shape[0]
     gain = np.expm1(logs)  # aⱼ − 1
-    nodes, weights = np.polynomial.legendre.leggauss(max((k + 1) // 2, 1))
+    nodes, half_weights = _legendre(k)  # nodes on (0, 1): every factor 1 + t (a − 1) >= 1 − t > 0
+    if player is not None:
+        others = [gain[i] for i in range(k) if i != player]
+        one: np.ndarray | float = 0.0
+        for t, w in zip(nodes, half_weights, strict=True):
+            prod: np.ndarray | float = w
+            for g in others:
+                prod = prod * (1.0 + t * g)
+            one = one + prod
+        return level * gain[player] * one
     out = np.zeros_like(gain)
-    for x, w in zip(nodes, weights, strict=True):
-        t = 0.5 * (x + 1.0)  # nodes on (0, 1): every factor 1 + t (a − 1) >= 1 − t > 0
+    for t, w in zip(nodes, half_weights, strict=True):
         f = 1.0 + t * gain
         # the product of the other players' factors, from the products before and after each player
         before = np.ones_like(f)
@@ -69,7 +88,7 @@ def shapley_exp(level: np.ndarray, logs: np.ndarray) -> np.ndarray:
         if k > 1:
             np.cumprod(f[:-1], axis=0, out=before[1:])
             np.cumprod(f[:0:-1], axis=0, out=after[-2::-1])
-        out += 0.5 * w * before * after
+        out += w * before * after
     return level * gain * out
 
 

@@ -130,6 +130,9 @@ class _Draws:
             root = vecs * np.sqrt(np.clip(vals, 0.0, None))[:, None, :]
         self.names = {c: i for i, c in enumerate(names)}
         self.root = root  # (m, K, K)
+        # an intervention is in force in the periods of many events' occurrences: its draws are made
+        # once for all the block's series (m × N_DRAWS), an event's for each chunk that needs them
+        self.kept: dict[str, np.ndarray] = {}
 
     def of(self, col: str, sl: slice) -> np.ndarray:
         """The coefficient draws behind a term column for series ``sl``, draws last: (m, D) or (m, 1)."""
@@ -143,14 +146,62 @@ class _Draws:
         b = self.pmap[src][sl]
         if src not in self.names:
             return b[:, None]
-        z = _joint_normals(len(self.names))
-        rows = self.root[sl, self.names[src], :]
-        # b + Σⱼ rootⱼ zⱼ: a few columns, so a plain loop (einsum and a K-deep matmul are slower here)
-        out = rows[:, :1] * z[None, :, 0]
-        for j in range(1, rows.shape[1]):
-            out += rows[:, j, None] * z[None, :, j]
-        out += b[:, None]
+        if src in group.intervention_names:
+            if src not in self.kept:
+                self.kept[src] = self._drawn(src, slice(None))
+            return self.kept[src][sl]
+        return self._drawn(src, sl)
+
+    def _drawn(self, src: str, sl: slice) -> np.ndarray:
+        # b + Σⱼ rootⱼ zⱼ, summed in j's order for each series and draw on its own (einsum's loop, not
+        # BLAS, whose blocking would make the last bit depend on how the series are cut into chunks)
+        out = np.einsum("mk,dk->md", self.root[sl, self.names[src], :], _joint_normals(len(self.names)))
+        out += self.pmap[src][sl, None]
         return out
+
+
+def _distinct(flat: dict[str, np.ndarray], cols: list[str], n_pos: int) -> tuple[np.ndarray, np.ndarray]:
+    """The distinct positions of these columns' values (equal for every series), in order of appearance.
+
+    ``flat``: column -> (1 or m, positions). Returns the first position of each distinct set of
+    values and, for every position, the number of its set (``arange`` when all differ).
+    """
+    if not cols:
+        return np.zeros(1, dtype=np.int64), np.zeros(n_pos, dtype=np.int64)
+    key = np.ascontiguousarray(np.concatenate([flat[c] for c in cols]).T)
+    # each position's values as one byte string: equal bytes, equal values
+    rows = key.view(np.dtype((np.void, key.dtype.itemsize * key.shape[1]))).ravel()
+    _, first, which = np.unique(rows, return_index=True, return_inverse=True)
+    order = np.argsort(first)
+    rank = np.empty_like(order)
+    rank[order] = np.arange(len(order))
+    return first[order], rank[which.reshape(n_pos)]
+
+
+def _at(values: np.ndarray, which: np.ndarray) -> np.ndarray:
+    """``values[:, which]`` for (series, distinct positions, draws), without a copy where nothing repeats."""
+    if len(which) == values.shape[1] and (which == np.arange(len(which))).all():
+        return values
+    if values.shape[1] == 1:
+        return values  # broadcasts
+    return values[:, which]
+
+
+def _coalitions(flat: dict[str, np.ndarray], players: dict[str, list[str]], own: str,
+                first: np.ndarray) -> list[tuple[np.ndarray, list[str]]]:
+    """The distinct positions ``first`` grouped by the players present there (own among them).
+
+    A player is present at a position where one of its columns is not zero for some series; an
+    absent player is a null player (its factor 1 + t (a − 1) is 1), so leaving it out changes no
+    value, and each group's Shapley values take one call with only its players.
+    """
+    names = list(players)
+    on = np.array([np.any([(flat[c][:, first] != 0).any(axis=0) for c in players[q]], axis=0)
+                   for q in names])  # (players, positions)
+    on &= on[names.index(own)][None, :]  # where the own player is absent its value is 0
+    keys, which = np.unique(on.T, axis=0, return_inverse=True)
+    return [(np.flatnonzero(which.ravel() == i), [q for q, o in zip(names, key, strict=True) if o])
+            for i, key in enumerate(keys) if key.any()]
 
 
 def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.ndarray, level0: np.ndarray,
@@ -163,10 +214,12 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     factor of the interventions in force times the event's gain, or its Shapley
     value) depends on the period only through its columns' values: ``g`` is drawn
     once per distinct set of values (the periods of a weekly event's occurrences
-    repeat a few), series by series in chunks with a small working set, draws last.
+    repeat a few), for every occurrence and period of a chunk of series in one
+    array (series × positions × draws), the chunks small enough to stay in cache.
     """
     idx, mask, level0 = og.idx[pick], og.mask[pick], level0[:, pick]
     m, k, width = level0.shape
+    n_pos = k * width
     lo, hi = np.zeros((m, k)), np.zeros((m, k))
     own = player_of(group, og.cols[0])
     xs = {c: curved[c][:, idx] if c in curved else ctx.columns[c][idx][None] for c in terms}
@@ -181,59 +234,52 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     if own not in players:
         return lo, hi
     used = factor_cols + player_cols
-    flat = {c: xs[c].reshape(xs[c].shape[0], k * width) for c in used}
-
-    def distinct(cols: list[str]) -> tuple[np.ndarray, np.ndarray]:
-        """The distinct (occurrence, period) positions of these columns (equal for every series)."""
-        if not cols:
-            return np.zeros(1, dtype=np.int64), np.zeros((k, width), dtype=np.int64)
-        key = np.concatenate([flat[c] for c in cols]).T.copy()
-        seen: dict[bytes, int] = {}
-        which = np.array([seen.setdefault(row.tobytes(), len(seen)) for row in key])
-        return np.unique(which, return_index=True)[1], which.reshape(k, width)
-
+    flat = {c: xs[c].reshape(xs[c].shape[0], n_pos) for c in used}
     # the interventions' factor and the events' gain are drawn once per distinct column values; with
     # several players the factor is inside each gain (the Shapley value), so a gain is drawn per
     # distinct value of the players' and the factor's columns together
     names = list(players)
-    f_first, f_which = distinct(factor_cols)
-    g_first, g_which = distinct(player_cols if len(names) == 1 else factor_cols + player_cols)
+    f_first, f_which = _distinct(flat, factor_cols, n_pos)
+    g_first, g_which = _distinct(flat, player_cols if len(names) == 1 else factor_cols + player_cols, n_pos)
+    coalitions = _coalitions(flat, players, own, g_first) if len(names) > 1 else []
     per_series = isinstance(frac, np.ndarray) and frac.ndim == 3
     frac_p = frac[:, pick] if per_series else (frac[pick] if isinstance(frac, np.ndarray) else frac)
-    step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + len(g_first) + k + 2)))
+    # (level0 × frac × mask)ₜ: what a unit of factor × gain is worth in each period
+    weight = np.broadcast_to(level0 * frac_p * mask, (m, k, width))
+    n_g = len(g_first) * (len(names) + 2)
+    step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + n_g + n_pos + k + len(used))))
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))
         ms = sl.stop - s0
         beta = {c: draws.of(c, sl) for c in used}
 
-        def log_of(cols: list[str], p: int, sl: slice = sl, beta: dict = beta) -> np.ndarray | float:
-            x = {c: flat[c][sl if flat[c].shape[0] > 1 else slice(None), p, None] for c in cols}
-            return sum((beta[c] * x[c] for c in cols), 0.0)
+        def log_of(cols: list[str], first: np.ndarray, sl: slice = sl, ms: int = ms,
+                   beta: dict[str, np.ndarray] = beta) -> np.ndarray:
+            """Σ β x over these columns at the positions ``first``: (ms, len(first), N_DRAWS)."""
+            out = np.empty((ms, len(first), N_DRAWS))
+            for i, c in enumerate(cols):
+                x = flat[c][sl if flat[c].shape[0] > 1 else slice(None)][:, first, None]
+                if i:
+                    out += beta[c][:, None, :] * x
+                else:
+                    np.multiply(beta[c][:, None, :], x, out=out)
+            return out
 
-        facs = [np.exp(log_of(factor_cols, p)) for p in f_first] if factor_cols else None
         if len(names) == 1:  # no other player in these periods: the Shapley value is the whole gain
-            gains = [np.expm1(log_of(player_cols, p)) for p in g_first]
-        else:  # the Shapley value per unit of level0, the factor inside
-            gains, facs = [], None
-            for p in g_first:
-                logs = [log_of(players[q], p) for q in names]
-                shape = np.broadcast_shapes(*(np.shape(v) for v in logs))
-                fac = np.exp(log_of(factor_cols, p)) if factor_cols else 1.0
-                gains.append(shapley_exp(fac, np.stack([np.broadcast_to(v, shape) for v in logs]))[
-                    names.index(own)])
-        # sims = Σₜ (level0 × frac × mask)ₜ × (factor × gain)ₜ, the product once per distinct pair
-        weight = level0[sl] * (frac_p[sl] if per_series else frac_p) * mask
-        unit: dict[tuple[int, int], np.ndarray] = {}
-        sims = np.empty((ms, k, N_DRAWS))
-        part = np.empty((ms, N_DRAWS))
-        for j in range(k):
-            for t in range(width):
-                f, g = int(f_which[j, t]), int(g_which[j, t])
-                if (f, g) not in unit:
-                    unit[f, g] = gains[g] * facs[f] if facs is not None else gains[g]
-                np.multiply(unit[f, g], weight[:, j, t, None], out=sims[:, j] if t == 0 else part)
-                if t:
-                    sims[:, j] += part
+            unit = _at(np.expm1(log_of(player_cols, g_first)), g_which)
+            if factor_cols:
+                unit = unit * _at(np.exp(log_of(factor_cols, f_first)), f_which)
+        else:  # the Shapley value per unit of level0, the factor inside, a call per coalition
+            gains = np.zeros((ms, len(g_first), N_DRAWS))
+            for pos, inside in coalitions:
+                at = g_first[pos]
+                fac = np.exp(log_of(factor_cols, at)) if factor_cols else 1.0
+                logs = np.stack([log_of(players[q], at) for q in inside])
+                gains[:, pos] = shapley_exp(fac, logs, player=inside.index(own))
+            unit = _at(gains, g_which)
+        # sims = Σₜ weightₜ × (factor × gain)ₜ over each occurrence's periods, t in order
+        unit = np.broadcast_to(unit, (ms, n_pos, N_DRAWS)).reshape(ms, k, width, N_DRAWS)
+        sims = np.einsum("mktd,mkt->mkd", unit, weight[sl])
         lo[sl], hi[sl] = _quantiles(sims)
     return lo, hi
 

@@ -103,6 +103,13 @@ def test_fit_show_and_plan_a_panel(tmp_path):
     too_many = runner.invoke(app, ["plan", str(out), "--from", "2024-01-01", "--to", "2024-03-31", "--out",
                                    str(tmp_path / "p2.csv"), "--total", "1000"])
     _bad(too_many, tmp_path / "p2.csv", "--total", "4 series")
+    # one series with a target: planned alone, and not reported as a block fallback (a per-series
+    # error model or a broken block fit, which it is neither)
+    key = f"{table['store'].iloc[0]},{table['product'].iloc[0]}"
+    one_total = runner.invoke(app, ["plan", str(out), "--from", "2024-01-01", "--to", "2024-03-31", "--out",
+                                    str(tmp_path / "p3.csv"), "--total", "1000", "--series", key])
+    assert one_total.exit_code == 0, one_total.output
+    assert "one by one" not in one_total.output, one_total.output
 
 
 def test_comma_separated_keys_and_csv_input(tmp_path):

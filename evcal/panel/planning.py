@@ -158,14 +158,6 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
                fallback: list[dict[str, Any]] | None = None) -> pd.DataFrame:
     """Plan each selected series of a panel; optionally allocate the plans to a child panel.
 
-    Returns
-    -------
-    DataFrame
-        ``keys..., date, base, plan, low, high, lift:<event>..., assumptions``
-        (a ``lift:`` column is 0 for series whose horizon does not touch the
-        event). With ``allocate``: the child keys, ``date, share`` and the
-        allocated amounts.
-
     Parameters
     ----------
     batched : bool
@@ -173,6 +165,14 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         every series with the single-series plan.
     fallback : list, optional
         Receives the keys of the series planned one by one (the blocks do not handle them).
+
+    Returns
+    -------
+    DataFrame
+        ``keys..., date, base, plan, low, high, lift:<event>..., assumptions``
+        (a ``lift:`` column is 0 for series whose horizon does not touch the
+        event). With ``allocate``: the child keys, ``date, share`` and the
+        allocated amounts.
 
     Raises
     ------
@@ -257,7 +257,7 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
     n_series = len(table[keys].drop_duplicates()) if keys else 1
     echo(f"planned {n_series} series, {table['date'].nunique()} periods each; total "
          f"{np.nansum(table['plan'].to_numpy(dtype=float)):,.0f}")
-    if alone:
+    if alone and kwargs.get("total") is None and kwargs.get("totals") is None:  # a target: one series, alone
         shown = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
         echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series error "
              f"models, or a block fit that broke down): {shown}{' ...' if len(alone) > 5 else ''}")

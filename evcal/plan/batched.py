@@ -32,7 +32,7 @@ from evcal.model.estimators import ar_covariances, prewhitened_errors
 from evcal.model.passes import theta_sources
 from evcal.plan.build import Horizon, horizon, plan_group, plan_parts
 from evcal.plan.horizon import period_dates
-from evcal.plan.simulate import simulate_block
+from evcal.plan.simulate import scheduled_terms, simulate_block
 
 __all__ = ["BlockFit", "solve_block", "plan_block"]
 
@@ -164,21 +164,14 @@ def _level_map(fit: BlockFit, h: Horizon, curved: dict[str, np.ndarray]) -> tupl
         if c in idx:
             M[:, :, idx[c]] = h.X[c].to_numpy(dtype=float)
     scale = np.ones((m, n))
-    sched = h.schedule
-    for c in sched.columns:
-        x = curved[c]
-        kind = sched.status[c].status
-        if not np.any(x) or kind not in ("fitted", "like", "assumed"):
-            continue
-        if kind == "assumed":
-            if g.transform == "none":
-                scale += sched.assumed[c] * x
-            else:
-                const += float(np.log1p(sched.assumed[c])) * x
-            continue
-        src = sched.like_map[c] if kind == "like" else c
-        if src in idx:
-            M[:, :, idx[src]] += x
+    for x, source, assumed in scheduled_terms(h.schedule, curved.__getitem__):
+        if assumed is None:
+            if source in idx:
+                M[:, :, idx[source]] += x
+        elif g.transform == "none":
+            scale += assumed * x
+        else:
+            const += np.log1p(assumed) * x
     if g.transform == "none":
         base_idx = [idx[c] for c in h.base_cols if c in idx]
         M[:, :, base_idx] *= scale[:, :, None]

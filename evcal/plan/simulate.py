@@ -38,6 +38,7 @@ share by an overflow.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from typing import Any
 
@@ -226,6 +227,26 @@ def _coef_draws(name: str, draws: pd.DataFrame, params: pd.Series, n: int) -> np
     return np.full(n, float(params.get(name, 0.0)))
 
 
+def scheduled_terms(schedule: Schedule, column: Callable[[str], np.ndarray]
+                    ) -> Iterator[tuple[np.ndarray, str | None, float | None]]:
+    """The scheduled event columns a simulation draws: ``(values, source, assumed)`` for each.
+
+    ``values`` is ``column(c)`` (any shape); ``source`` the coefficient the column moves with (its
+    own, or the one it borrows), or ``assumed`` the lift it is held at (it carries no uncertainty of
+    its own). Columns with no value in the horizon, or planned with no lift, are left out. The one
+    rule of the single-series plan's simulation and the batched panel plan's level map.
+    """
+    for c in schedule.columns:
+        x = column(c)
+        kind = schedule.status[c].status
+        if not np.any(x) or kind not in ("fitted", "like", "assumed"):
+            continue
+        if kind == "assumed":
+            yield x, None, float(schedule.assumed[c])
+        else:
+            yield x, schedule.like_map[c] if kind == "like" else c, None
+
+
 def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base_cols: list[str],
                       schedule: Schedule, err: ErrorForecast, n_sims: int = 1000, seed: int = 0,
                       level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
@@ -248,19 +269,12 @@ def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base
     eta_base = Pb @ B.T  # draws x periods
     terms = np.zeros_like(eta_base)
     assumed_units = np.zeros_like(eta_base)
-    for c in schedule.columns:
-        x = X[c].to_numpy(dtype=float)
-        kind = schedule.status[c].status
-        if not np.any(x) or kind not in ("fitted", "like", "assumed"):
-            continue
-        if kind == "assumed" and transform == "none":
+    for x, source, assumed in scheduled_terms(schedule, lambda c: X[c].to_numpy(dtype=float)):
+        if assumed is not None and transform == "none":
             # an assumed lift is a share of the base, in units
-            assumed_units += schedule.assumed[c] * eta_base * x[None, :]
+            assumed_units += assumed * eta_base * x[None, :]
             continue
-        if kind == "assumed":
-            b = np.full(n, float(np.log1p(schedule.assumed[c])))
-        else:
-            b = _coef_draws(schedule.like_map[c] if kind == "like" else c, draws, params, n)
+        b = np.full(n, np.log1p(assumed)) if assumed is not None else _coef_draws(source, draws, params, n)
         terms += b[:, None] * x[None, :]
     if err.kind == "arima" and err.steps is not None:
         # the error forecast moves with the drawn coefficients (tail_forecast_weights)

@@ -87,6 +87,19 @@ def _day_offsets(ev: Any) -> tuple[list[int], list[int]]:
     return before, after
 
 
+def _covered(index: pd.DatetimeIndex, first: np.ndarray, last: np.ndarray) -> pd.Series:
+    """Whether each day of ``index`` lies in some span ``first[i]..last[i]`` (inclusive), by day."""
+    day0 = index[0]
+    n = len(pd.date_range(day0, index[-1]))
+    a = np.clip((pd.DatetimeIndex(first) - day0).days, 0, n)
+    b = np.clip((pd.DatetimeIndex(last) - day0).days + 1, 0, n)
+    count = np.zeros(n + 1, dtype=int)
+    np.add.at(count, a[a < b], 1)
+    np.add.at(count, b[a < b], -1)
+    days = pd.date_range(day0, periods=n)
+    return pd.Series(np.cumsum(count[:-1]) > 0, index=days).reindex(index, fill_value=False)
+
+
 def neighbour_days(values: pd.Series, calendar: Any, alpha: float = 0.01) -> list[Neighbour]:
     """The days next to each event that move, the same way, across the years.
 
@@ -123,22 +136,14 @@ def neighbour_days(values: pd.Series, calendar: Any, alpha: float = 0.01) -> lis
     if not events or r.dropna().empty:
         return []
     occ = calendar.occurrences(index[0], index[-1])
-    # every day some event's window covers: not a neighbour of another event that year
-    taken: set[pd.Timestamp] = set()
+    # every day some event's window covers: not a neighbour of another event that year; and, for the
+    # reference days (the same weekday one and two weeks away), every day within REACH of a window
     spec = {e.name: e for e in calendar.events}
-    for row in occ.itertuples(index=False):
-        ev = spec[row.event]
-        taken.update(pd.date_range(row.start - pd.Timedelta(days=ev.before),
-                                   row.end + pd.Timedelta(days=ev.after)))
-    # reference days: the same weekday one and two weeks away, where no event and no
-    # neighbour day examined is
-    near = set(taken)
-    for row in occ.itertuples(index=False):
-        ev = spec[row.event]
-        near.update(pd.date_range(row.start - pd.Timedelta(days=ev.before + REACH),
-                                  row.end + pd.Timedelta(days=ev.after + REACH)))
-    free = r.copy()
-    free[free.index.isin(list(near))] = np.nan
+    first = (occ["start"] - pd.to_timedelta([spec[e].before for e in occ["event"]], unit="D")).to_numpy()
+    last = (occ["end"] + pd.to_timedelta([spec[e].after for e in occ["event"]], unit="D")).to_numpy()
+    taken = _covered(index, first, last)
+    near = _covered(index, first - np.timedelta64(REACH, "D"), last + np.timedelta64(REACH, "D"))
+    free = r.where(~near.to_numpy())
     shifted = [free.shift(freq=pd.Timedelta(days=lag)).reindex(r.index) for lag in REFERENCE_LAGS]
     reference = pd.concat(shifted, axis=1).mean(axis=1)
     contrast = r - reference
@@ -150,7 +155,7 @@ def neighbour_days(values: pd.Series, calendar: Any, alpha: float = 0.01) -> lis
         for k in (o for side in _day_offsets(ev) for o in side):
             days = starts + pd.Timedelta(days=k)
             values = contrast.reindex(days).to_numpy()
-            keep = np.isfinite(values) & ~np.isin(days, list(taken))
+            keep = np.isfinite(values) & ~taken.reindex(days, fill_value=False).to_numpy()
             if keep.sum() >= MIN_YEARS:
                 tests.append((ev.name, k, values[keep]))
     found = []

@@ -20,7 +20,6 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 
 #: first characters that make a spreadsheet read a CSV cell as a formula (OWASP, CSV injection)
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
@@ -171,6 +170,8 @@ def workbook_text(text: str) -> str:
     >>> workbook_text("a\\x00b")
     'a�b'
     """
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE  # here: openpyxl takes 0.1 s to import
+
     return ILLEGAL_CHARACTERS_RE.sub(REPLACEMENT, text)
 
 

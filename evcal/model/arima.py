@@ -101,13 +101,14 @@ def fit_arima(y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int
         "tail": [None if not np.isfinite(v) else float(v) for v in eta[-tail_len:]],
         "arma_params": [float(v) for v in (arma_start if (p or q) and arma_start is not None else [])],
     }
-    level = None
+    level_of = None
     if d:
         # the constant is not in X: the series' level is the error's (evcal.design.level)
-        from evcal.design.level import ErrorLevel
+        def level_of() -> pd.Series:
+            from evcal.design.level import ErrorLevel
 
-        level = pd.Series(ErrorLevel.of_error_model(error_model, pd.Series(eta, index=y.index)).in_sample(),
-                          index=y.index)
+            error = pd.Series(eta, index=y.index)
+            return pd.Series(ErrorLevel.of_error_model(error_model, error).in_sample(), index=y.index)
     return Estimate(
         method=f"arima({p},{d},{q})",
         params=params,
@@ -118,7 +119,7 @@ def fit_arima(y: pd.Series, X: pd.DataFrame, offset: pd.Series, order: tuple[int
         aic=float(-2 * llf + 2 * n_par),
         error_model=error_model,
         cov_note=f"regression with ARIMA({p},{d},{q}) errors (iterated feasible GLS), GLS covariance",
-        level=level,
+        level_of=level_of,
     )
 
 

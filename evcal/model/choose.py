@@ -145,7 +145,7 @@ def choose(
         leap_year=start.leap_year or "leap_year" in settings,
         season_drift=start.season_drift or ("season_drift" in settings and _long_enough(history)),
     )
-    inp = prepare(history, calendar, options, chosen=full)
+    inp = prepare(history, calendar, options, chosen=full, grade=False)  # (the grades do not enter a choice)
     lik = _Likelihood.of(inp)
     windows: dict[str, int] = {}
     records: list[dict[str, Any]] = []

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 import warnings
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -29,8 +30,18 @@ class Estimate:
     aic: float
     error_model: dict[str, Any] = field(default_factory=dict)
     cov_note: str = ""
-    #: differenced errors only: the error's level on every period (:class:`evcal.design.level.ErrorLevel`)
-    level: pd.Series | None = None
+    #: differenced errors only: how to make :attr:`level` (a smoothing pass, run only when it is asked for:
+    #: the exact-aggregation passes fit many times and keep only the last)
+    level_of: Callable[[], pd.Series] | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def level(self) -> pd.Series | None:
+        """Differenced errors only: the error's level on every period (evcal.design.level.ErrorLevel)."""
+        if self.level_of is None:
+            return None
+        if not hasattr(self, "_level"):
+            self._level = self.level_of()
+        return self._level
 
 
 def ar_max_order(n: int) -> int:

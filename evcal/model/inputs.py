@@ -145,7 +145,8 @@ def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, fre
 
 def prepare(history: Any, calendar: Any, options: FitOptions,
             theta: dict[str, float] | None = None, identify: bool = True,
-            degenerate: dict[str, str] | None = None, chosen: Chosen | None = None) -> ModelInputs:
+            degenerate: dict[str, str] | None = None, chosen: Chosen | None = None,
+            grade: bool = True) -> ModelInputs:
     """Build the design and decide which columns enter the fit.
 
     ``theta`` (log-lift per event column from a previous pass) makes the event
@@ -158,7 +159,9 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     events that borrow their lift or share their days. ``chosen`` gives the
     settings of the options left open (``auto``): what
     :func:`evcal.model.choose.chosen_settings` chose; without it the stand-ins of
-    :func:`evcal.model.settings.given`.
+    :func:`evcal.model.settings.given`. ``grade=False`` leaves the fitted columns ungraded (no ``yes`` /
+    ``weak`` strength checks, :mod:`evcal.model.strength`): which columns enter the fit does not depend
+    on them, and choosing the settings needs only that.
     """
     periods = history.values.index
     actual = history.values.astype(float)
@@ -208,11 +211,13 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         base_cols = independent_base_columns(X, rows, base_cols)
         # weak identification is graded on the share-of-window design of the first pass, as the
         # panel engine's design groups grade it (evcal.engine.groups), whatever the pass
-        first_spec = design_spec(calendar, options, periods, history.freq, chosen=chosen)
-        graded = merged(build_design(first_spec, calendar, periods).X) if theta else X
-        if transform == "none":  # on the rows the additive fit solves: scaled by the open share
-            graded = _additive(graded, design.roles, X, assumed, design.open_share)
-        status = check_columns(X, rows, base_cols, candidates, design.roles, calendar,
+        graded = None
+        if grade:
+            first_spec = design_spec(calendar, options, periods, history.freq, chosen=chosen)
+            graded = merged(build_design(first_spec, calendar, periods).X) if theta else X
+            if transform == "none":  # on the rows the additive fit solves: scaled by the open share
+                graded = _additive(graded, design.roles, X, assumed, design.open_share)
+        status = check_columns(X, rows, base_cols, candidates, design.roles, calendar if grade else None,
                                set(degenerate or ()), graded)
     else:
         status = {c: ColumnStatus("unchecked", "identifiability not checked") for c in candidates}

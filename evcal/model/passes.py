@@ -21,6 +21,7 @@ from evcal.model.fit_rows import check_fit_rows
 from evcal.model.identify import MAX_LOG_LIFT, ColumnStatus, degenerate_note, degenerate_terms, seasonal_share
 from evcal.model.inputs import ModelInputs, additive_design, model_scale_response, prepare
 from evcal.model.options import FitOptions
+from evcal.model.secant import Secant
 from evcal.model.settings import Chosen
 
 LONG_SERIES = 2000  # periods; above this `auto` keeps to OLS (robust intervals) for speed
@@ -370,6 +371,10 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
         fixed = replace(options, errors="arima", arima_order=tuple(est.error_model["order"]))
     else:
         fixed = options
+    # passes of a model fitted alone (ARIMA errors, counts) are accelerated; OLS passes stay plain, as the
+    # batched passes of evcal.engine.refine run them, so a series gives the same fit on either path
+    mixer = Secant() if est.method != "ols" else None
+    plain: tuple[dict[str, float], list[float] | None] | None = None  # the last pass's own output
     for _ in range(MAX_PASSES):
         if not theta and levels is None:
             break
@@ -381,6 +386,11 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
         # a column the previous pass did not fit (left to the season there) can break down once the
         # weekday weights move its periods' values a little off the season's: it stays out, the pass holds
         ran_away = [c for c in trial if c not in dropped and c in theta]
+        if ran_away and plain is not None:
+            # the pass started from an accelerated point: go on from the last pass's own output instead,
+            # unaccelerated, so a lift is only stopped where the plain passes would stop it
+            (theta, levels), plain, mixer = plain, None, None
+            continue
         dropped.update({c: note for c, note in trial.items() if c not in theta})
         if ran_away:
             # A lift that was sound in the previous pass breaks down once its column follows
@@ -393,13 +403,18 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
         inp, est, used = inp_next, est_next, levels
         new = _free(fitted_theta(inp, est), inp, stopped)
         moved = theta_moved(new, theta)
-        theta = new
+        new_levels = None
         if levels is not None:
             new_levels = trading_weights(inp, est, calendar) or levels
             moved = max(float(moved), float(np.max(np.abs(np.subtract(new_levels, levels)))))
-            levels = new_levels
         if moved < THETA_TOL:
             break
+        if mixer is not None:
+            mixed = mixer.next(theta, levels, new, new_levels)
+            plain = (new, new_levels) if mixed is not None else None
+            theta, levels = mixed or (new, new_levels)
+        else:
+            theta, levels = new, new_levels
     if used is not None:
         inp.spec = replace(inp.spec, weekday_weights={"source": "trading_days", "levels": list(used)})
     for c, note in stopped.items():

@@ -198,7 +198,8 @@ class _Windows:
 
     def __init__(self, calendar: Any, index: pd.Index, rows: np.ndarray) -> None:
         self.freq_word = "these"
-        self._cum: dict[str, np.ndarray] = {}
+        self._order: dict[str, int] | None = None  # each present event's row of _cum_all (made when asked)
+        self._cum_all = np.zeros((0, 1), dtype=np.int32)
         if not isinstance(index, pd.PeriodIndex) or not len(index):
             self.events, self.w0, self.w1 = np.zeros(0, dtype=object), np.zeros(0, int), np.zeros(0, int)
             self.present: set[str] = set()
@@ -226,28 +227,34 @@ class _Windows:
         """Occurrences of ``event`` whose window has a day in a fitted period."""
         return int((self.events == event).sum())
 
-    def _days(self, event: str) -> np.ndarray:
-        """Cumulative count of the days inside ``event``'s windows (for range sums)."""
-        if event not in self._cum:
-            mine = self.events == event
-            marks = np.zeros(len(self.fitted_days) + 1, dtype=int)
-            np.add.at(marks, self.w0[mine], 1)
-            np.add.at(marks, self.w1[mine] + 1, -1)
-            self._cum[event] = np.concatenate([[0], np.cumsum(np.cumsum(marks)[:-1] > 0)])
-        return self._cum[event]
+    def _held(self, event: str) -> np.ndarray:
+        """Per present event (rows of ``_order``): in how many of ``event``'s windows it holds all days."""
+        if self._order is None:
+            # each present event's cumulative count of the days inside its windows (for range sums), all
+            # events in one array: a window's days held by another event are one difference per pair
+            self._order = {e: i for i, e in enumerate(sorted(self.present))}
+            which = np.array([self._order[e] for e in self.events.tolist()], dtype=np.int64)
+            marks = np.zeros((len(self._order), len(self.fitted_days) + 1), dtype=np.int32)
+            np.add.at(marks, (which, self.w0), 1)
+            np.add.at(marks, (which, self.w1 + 1), -1)
+            inside = np.cumsum(marks, axis=1)[:, :-1] > 0
+            self._cum_all = np.concatenate([np.zeros((len(self._order), 1), dtype=np.int32),
+                                            np.cumsum(inside, axis=1, dtype=np.int32)], axis=1)
+        mine = self.events == event
+        w0, w1 = self.w0[mine], self.w1[mine]
+        return ((self._cum_all[:, w1 + 1] - self._cum_all[:, w0]) == (w1 - w0 + 1)).sum(axis=1)
 
     def within(self, event: str, terms: list[str], col_event: dict[str, str]) -> tuple[str, int]:
         """The fitted event whose windows hold ``event``'s window days in most occurrences, and how many."""
         mine = self.events == event
         if not mine.any():
             return "", 0
-        w0, w1 = self.w0[mine], self.w1[mine]
+        held_by = self._held(event)
         best, held_best = "", 0
         for other in dict.fromkeys(col_event.get(t, t) for t in terms):
             if other == event or other not in self.present:
                 continue
-            cum = self._days(other)
-            held = int(((cum[w1 + 1] - cum[w0]) == (w1 - w0 + 1)).sum())
+            held = int(held_by[self._order[other]])  # type: ignore[index]  # set by _held
             if held > NESTED_SHARE * int(mine.sum()) and held > held_best:
                 best, held_best = other, held
         return best, held_best

@@ -144,3 +144,31 @@ def test_a_series_gives_the_same_results_whatever_the_other_series_gaps(fits):
             a = _own(getattr(pf, name), j)
             b = _own(getattr(one, name), 0)
             pd.testing.assert_frame_equal(a, b, check_exact=False, rtol=1e-12)
+
+
+def test_packed_groups_give_the_tables_of_their_own_units(fits):
+    # the five patterns are five design groups of one series; they are packed into one unit whose
+    # tables are built together (evcal.engine.packs): the same rows, in the same order, as the
+    # groups' own units, to the rounding of the block's matrix products
+    from evcal.engine.packs import PackUnit, pack_units
+    from evcal.engine.run import plan_units
+    from evcal.engine.units import concat_tables, run_batch, run_unit
+
+    cal, _, panel, pf = fits
+    units, _, groups = plan_units(panel, cal, pf.options)
+    assert len(groups) == N_SERIES
+    own = concat_tables([run_batch(u).tables for u in units])
+    packed = pack_units(list(units))
+    assert len(packed) == 1 and isinstance(packed[0], PackUnit)
+    together = concat_tables([run_unit(packed[0]).tables])
+    for name in ("lifts", "occurrences", "profile", "quality"):
+        a, b = (t.astype({c: object for c in t.columns if isinstance(t[c].dtype, pd.CategoricalDtype)})
+                for t in (getattr(own, name), getattr(together, name)))
+        pd.testing.assert_frame_equal(a, b, check_exact=False, rtol=1e-13)
+    # each series keeps its own strength numbers and its own fit rows
+    gala = together.lifts[together.lifts["event"] == "promo"]["leverage"].to_numpy(float)
+    assert len(set(gala.round(12))) == N_SERIES
+    f_own = pd.concat([b.frame() for b in own.fitted], ignore_index=True)
+    f_together = pd.concat([b.frame() for b in together.fitted], ignore_index=True)
+    pd.testing.assert_frame_equal(f_own, f_together, check_exact=False, rtol=1e-13)
+    assert (f_together["in_fit"] == np.isfinite(f_together["actual"])).all()

@@ -47,7 +47,7 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
                  curved: dict[str, np.ndarray] | None = None,
                  curved_support: dict[str, np.ndarray] | None = None,
                  season_var: SeasonVariance | None = None,
-                 cov: np.ndarray | None = None) -> BlockTables:
+                 cov: np.ndarray | None = None, in_fit: np.ndarray | None = None) -> BlockTables:
     """Fitted/base/contributions, occurrences, lifts, profile and quality for m series.
 
     Parameters
@@ -72,8 +72,12 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     cov : ndarray, shape (m, len(group.term_cols), len(group.term_cols)), optional
         Covariance of the event and intervention coefficients, for the occurrences'
         joint draws; without it each coefficient is drawn alone from its ``se``.
+    in_fit : ndarray of bool, shape (m, len(ctx.periods)), optional
+        Each series' own fit rows, when the block's series do not share them (series with
+        missing periods of their own, :mod:`evcal.engine.packs`); ``ctx.in_fit`` otherwise.
     """
     curved = curved or {}
+    in_fit = ctx.in_fit if in_fit is None else in_fit
     pmap = {c: params[i] for i, c in enumerate(group.fitted_cols)}
     se_map = {c: se[i] for i, c in enumerate(group.term_cols)}
     base, fitted, parts = decompose_block(ctx, group, pmap, smear, curved, curved_support)
@@ -83,12 +87,12 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     lifts = lifts_columns(ctx, group, parts, base, pmap, se_map, occ, sids)
     profile = profile_columns(group, pmap, mean_base, sids, season_var)
     fitted_block = FittedBlock(sids, ctx.dates.to_numpy(),
-                               {"actual": actual, "fitted": fitted, "base": base, **parts}, ctx.in_fit)
+                               {"actual": actual, "fitted": fitted, "base": base, **parts}, in_fit)
 
     with np.errstate(divide="ignore", invalid="ignore"):
         log = group.transform == "log"
         resid = np.log(actual) - np.log(fitted / smear[:, None]) if log else actual - fitted
-        ok = ctx.in_fit[None, :] & np.isfinite(resid)
+        ok = (in_fit[None, :] if in_fit.ndim == 1 else in_fit) & np.isfinite(resid)
         n_ok = ok.sum(axis=1)
         wape = np.where(n_ok > 0, 100 * np.sum(np.abs(actual - fitted), axis=1, where=ok)
                         / np.sum(np.abs(actual), axis=1, where=ok), np.nan)

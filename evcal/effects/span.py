@@ -195,13 +195,17 @@ class FittedBlock:
     sids: np.ndarray  # (m,)
     dates: np.ndarray  # (n,) datetime64
     columns: dict[str, np.ndarray]  # name -> (m, n): actual, fitted, base, then one per term
-    in_fit: np.ndarray  # (n,) bool
+    in_fit: np.ndarray  # (n,) bool, or (m, n) when the series have fit rows of their own
+
+    def in_fit_rows(self) -> np.ndarray:
+        """The ``in_fit`` column of the long table (m·n,), series-major."""
+        return np.tile(self.in_fit, len(self.sids)) if self.in_fit.ndim == 1 else self.in_fit.ravel()
 
     def frame(self) -> pd.DataFrame:
         m, n = len(self.sids), len(self.dates)
         columns = {c: v.ravel() for c, v in self.columns.items()}
         return pd.DataFrame({"_sid": np.repeat(self.sids, n), "date": np.tile(self.dates, m), **columns,
-                             "in_fit": np.tile(self.in_fit, m)})
+                             "in_fit": self.in_fit_rows()})
 
 
 def closure_shares(calendar: Any, periods: pd.PeriodIndex) -> pd.DataFrame:

@@ -23,6 +23,7 @@ from evcal.effects.columns import join_tables
 from evcal.engine.batched import SharedSolve
 from evcal.engine.groups import Group, Template, distinct_spans, group_info, pattern_ids
 from evcal.engine.memory import release_freed_memory
+from evcal.engine.packs import pack_units
 from evcal.engine.screen import Screen, screen_series
 from evcal.engine.units import BatchShared, BatchUnit, LoopUnit, UnitResult, concat_tables, run_unit
 from evcal.io.panel import Panel
@@ -183,6 +184,8 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
 
         options, cal, chosen = panel_settings(options, cal, panel)
     units, screen, groups = plan_units(panel, cal, options, single)
+    # the small groups (series with missing periods of their own) build their tables together
+    units = pack_units(units)
     results = _run(units, runner, on_fitted)
     # series whose block fit broke down, fitted again one by one with the block's error model
     again = np.concatenate([r.reroute for r in results]) if results else np.zeros(0, dtype=int)

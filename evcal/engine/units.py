@@ -25,7 +25,7 @@ from evcal.model.options import FitOptions
 from evcal.model.passes import theta_sources
 
 __all__ = ["BatchShared", "BatchUnit", "LoopUnit", "UnitResult", "BlockModel", "run_unit", "concat_tables",
-           "EMPTY_TABLES"]
+           "solved_inputs", "unit_result", "no_skips", "TablesInput", "EMPTY_TABLES"]
 
 
 @dataclass
@@ -164,17 +164,36 @@ def solve_unit(unit: BatchUnit) -> BlockSolve:
     return BlockSolve(Y, y, first, refined, B, E, sigma2, se, errors, smear, broken)
 
 
-def run_batch(unit: BatchUnit) -> UnitResult:
-    """Solve a block of series that share a design, then build their tables."""
+@dataclass
+class TablesInput:
+    """What :func:`evcal.effects.block_tables` takes for the series of one block that share a span."""
+
+    ctx: SpanContext
+    info: Any  # GroupInfo
+    B: np.ndarray  # (k, m)
+    se: np.ndarray
+    smear: np.ndarray
+    actual: np.ndarray  # (m, span)
+    sids: np.ndarray
+    curved: dict[str, np.ndarray]
+    support: dict[str, np.ndarray]
+    season_var: Any
+    cov: np.ndarray | None
+
+    def tables(self, in_fit: np.ndarray | None = None) -> BlockTables:
+        return block_tables(self.ctx, self.info, self.B, self.se, self.smear, self.actual, self.sids,
+                            self.curved, self.support, self.season_var, cov=self.cov, in_fit=in_fit)
+
+
+def solved_inputs(unit: BatchUnit) -> tuple[BlockSolve, list[TablesInput]]:
+    """Solve a block, and the inputs of its tables, one per span (the broken series left out)."""
     solved = solve_unit(unit)
     g = unit.shared.group
-    Y, first, refined = solved.Y, solved.first, solved.refined
-    B, E, sigma2, se = solved.B, solved.E, solved.sigma2, solved.se
-    errors, smear = solved.errors, solved.smear
+    refined = solved.refined
+    B, se, smear, errors = solved.B, solved.se, solved.smear, solved.errors
     cov = refined.cov_terms if refined is not None else None  # the occurrences' joint draws
     curved_all = refined.curved if refined is not None else {}
-    broken = solved.broken
-    keep = ~broken
+    keep = ~solved.broken
     col_of = {c: i for i, c in enumerate(g.info.fitted_cols)}
 
     def season_var(pick: Any) -> Any:
@@ -186,7 +205,7 @@ def run_batch(unit: BatchUnit) -> UnitResult:
 
         return variances
 
-    parts: list[BlockTables] = []
+    inputs: list[TablesInput] = []
     for (f, last), ctx in unit.shared.contexts.items():
         pick: Any = np.flatnonzero((unit.spans[:, 0] == f) & (unit.spans[:, 1] == last) & keep)
         if not len(pick):
@@ -196,26 +215,41 @@ def run_batch(unit: BatchUnit) -> UnitResult:
         curved = {c: v[pick, f:last + 1] for c, v in curved_all.items()}
         support = {c: t[(t >= f) & (t <= last)] - f for c in curved
                    if (t := g.curve.touched.get(c)) is not None} if g.curve is not None else {}
-        parts.append(block_tables(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
+        inputs.append(TablesInput(ctx, g.info, B[:, pick], se[:, pick], smear[pick],
                                   unit.actual[pick, f:last + 1], unit.sids[pick], curved, support,
-                                  season_var(pick), cov=None if cov is None else cov[pick]))
-    tables = concat_tables(parts, columns=True)
+                                  season_var(pick), None if cov is None else cov[pick]))
+    return solved, inputs
+
+
+def unit_result(unit: BatchUnit, solved: BlockSolve, tables: BlockTables) -> UnitResult:
+    """A solved block's result: its tables, series and coefficient rows, the series to refit alone."""
+    g = unit.shared.group
+    Y, first, refined = solved.Y, solved.first, solved.refined
+    B, E, sigma2, smear, errors = solved.B, solved.E, solved.sigma2, solved.smear, solved.errors
+    broken = solved.broken
+    keep = ~broken
     sids = unit.sids[keep]
     m = len(sids)
-
     series = Columns({"_sid": sids, "engine": tiled_text(["batched"], m), "group": np.full(m, g.gid),
                       "transform": tiled_text([g.transform], m), "method": tiled_text(["ols"], m),
                       "sigma2": sigma2[keep], "smear": smear[keep], "hac_lags": np.full(m, np.nan),
                       "error_ar_order": errors.order[keep],
                       "trend_origin": np.full(m, g.origin), "note": tiled_text(["; ".join(g.notes)], m)})
     params = Columns({"_sid": sids, **{c: B[i, keep] for i, c in enumerate(g.info.fitted_cols)}})
-    out = UnitResult(unit.index, tables, series, params, _no_skips(), reroute=unit.sids[broken])
+    out = UnitResult(unit.index, tables, series, params, no_skips(), reroute=unit.sids[broken])
     if unit.keep_models and m:
         # the error model's AIC is the first pass's, as the per-series fit reports it
         E0 = E if first is None else Y - g.solve.X @ first
         out.models = {int(sids[0]): _block_model(g, refined, B[:, keep], E[:, keep], E0[:, keep],
                                                  sigma2[keep], smear[keep], tables)}
     return out
+
+
+def run_batch(unit: BatchUnit) -> UnitResult:
+    """Solve a block of series that share a design, then build their tables."""
+    solved, inputs = solved_inputs(unit)
+    tables = concat_tables([t.tables() for t in inputs], columns=True)
+    return unit_result(unit, solved, tables)
 
 
 def _broken(g: Group, B: np.ndarray, se: np.ndarray, first: np.ndarray | None, y: np.ndarray) -> np.ndarray:
@@ -263,7 +297,7 @@ def _block_model(g: Group, refined: Any, B: np.ndarray, E: np.ndarray, E0: np.nd
 
 
 @functools.lru_cache(maxsize=1)
-def _no_skips() -> pd.DataFrame:
+def no_skips() -> pd.DataFrame:
     """The (shared, never changed) skipped table of a unit that skipped nothing."""
     return pd.DataFrame({"_sid": np.zeros(0, dtype=int), "reason": [], "detail": []})
 
@@ -327,6 +361,12 @@ def concat_tables(parts: list[BlockTables], columns: bool = False) -> BlockTable
     return BlockTables(cat("lifts"), cat("occurrences"), cat("profile"), fitted, cat("quality"))
 
 
-def run_unit(unit: BatchUnit | LoopUnit) -> UnitResult:
-    """Run one unit of either kind."""
-    return run_batch(unit) if isinstance(unit, BatchUnit) else run_loop(unit)
+def run_unit(unit: Any) -> UnitResult:
+    """Run one unit of any kind (a pack of small groups: :mod:`evcal.engine.packs`)."""
+    if isinstance(unit, BatchUnit):
+        return run_batch(unit)
+    if isinstance(unit, LoopUnit):
+        return run_loop(unit)
+    from evcal.engine.packs import run_pack
+
+    return run_pack(unit)

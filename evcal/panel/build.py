@@ -120,7 +120,7 @@ class FittedWriter:
             cols = {"date": np.tile(block.dates, len(block.sids))}
             for c, v in block.columns.items():
                 cols[c] = v.ravel()
-            cols["in_fit"] = np.tile(block.in_fit, len(block.sids))
+            cols["in_fit"] = block.in_fit_rows()
         idx = pa.array(sid.astype(np.int32))
         # keys as dictionary arrays: one copy of each key, an index per row
         arrays = {c: pa.DictionaryArray.from_arrays(idx, k) for c, k in self.keys.items()}

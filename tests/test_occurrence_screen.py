@@ -76,29 +76,23 @@ def _case(seed: int, scale: float, size: float, others: bool, zero: bool):
 def test_the_screen_changes_no_bound(seed: int, scale: float, size: float, others: bool, zero: bool) -> None:
     args = _case(seed, scale, size, others, zero)
     checked = []
-    real = screen.JointUnits.screened
+    real = screen.JointUnits.screen
 
-    def checking(self, draws, used, sl, ms, weight, ranks):
+    def checking(self, draws, used, sl, ms, weight, err, ranks):
         # the bound against the double-precision draws, and the recomputed draws against them
-        single, bounds = {}, {}
-        for c in used:
-            single[c], big, err = draws.screen_of(c, sl)
-            bounds[c] = (big, err)
-        err = self.error(bounds, sl, weight)
         s64 = self.sims(self.units({c: draws.of(c, sl) for c in used}, sl, ms), weight)
-        if err is not None:
-            s32 = self.screen_sims(single, sl, ms, weight)
-            assert (np.abs(s32 - s64) <= err[..., None]).all()
+        s32 = self.screen_sims({c: draws.screen_of(c, sl) for c in used}, sl, ms, weight)
+        assert (np.abs(s32 - s64) <= err[..., None]).all()
         s, j = np.meshgrid(np.arange(ms), np.arange(self.k), indexing="ij")
         d = np.random.default_rng(seed).integers(0, s64.shape[-1], s.shape)
         np.testing.assert_array_equal(self.exact(draws, sl, weight, s.ravel(), j.ravel(), d.ravel()),
                                       s64[s, j, d].ravel())
-        out = real(self, draws, used, sl, ms, weight, ranks)
+        out = real(self, draws, used, sl, ms, weight, err, ranks)
         checked.append(out is not None)
         return out
 
     with pytest.MonkeyPatch.context() as mp:
-        mp.setattr(screen.JointUnits, "screened", checking)
+        mp.setattr(screen.JointUnits, "screen", checking)
         got = np.array(_joint_bounds(*args))
         mp.setattr(occurrences, "_SCREEN", False)
         args[6].kept.clear()

@@ -163,32 +163,48 @@ class _Draws:
         return out
 
 
-    def screen_of(self, col: str, sl: slice) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """The draws of :meth:`of` in single precision, with bounds: (draws, max |draw|, |error|).
-
-        An event's draws come from one single-precision BLAS product; its error against
-        :meth:`of` is at most ``2 (K + 4) u (|b| + Σⱼ |rootⱼ| max |zⱼ|)`` (the sum of K + 1
-        rounded products in any order, twice for the double computation's own rounding).
-        The bounds are (series or 1, 1).
-        """
+    def _screened_event(self, col: str) -> str | None:
+        """The coefficient behind ``col`` when its draws are made per chunk (an event's), else None."""
         group = self.group
-        src = None if getattr(group.status.get(col), "status", "") == "assumed" else group.source(col)
-        if src is None or src not in self.names or src in group.intervention_names or src not in self.pmap:
-            exact = self.of(col, sl)  # made in double precision once (or a constant): rounded once
+        if getattr(group.status.get(col), "status", "") == "assumed":
+            return None
+        src = group.source(col)
+        if src not in self.names or src in group.intervention_names or src not in self.pmap:
+            return None
+        return src
+
+    def bound(self, col: str) -> tuple[np.ndarray, np.ndarray]:
+        """Bounds of every series' draws of ``col`` and of their single-precision error, (m or 1, 1) each.
+
+        An event's draws (:meth:`screen_of`) come from a single-precision BLAS product: the error
+        against :meth:`of` is at most ``2 (K + 4) u (|b| + Σⱼ |rootⱼ| max |zⱼ|)`` (a sum of K + 1
+        rounded products in any order, twice for the double computation's own rounding); other
+        columns' draws are made in double precision and rounded once.
+        """
+        src = self._screened_event(col)
+        if src is None:
+            exact = self.of(col, slice(None))
             big = np.abs(exact).max(axis=1, keepdims=True)
-            return exact.astype(np.float32), big, U32 * big
-        root, z = self.root[sl, self.names[src], :], _joint_normals(len(self.names))
-        b = self.pmap[src][sl]
+            return big, U32 * big
+        z = _joint_normals(len(self.names))
+        root = self.root[:, self.names[src], :]
+        big = (np.abs(self.pmap[src]) + np.abs(root) @ np.abs(z).max(axis=0))[:, None] * (1 + 1e-12)
+        return big, 2 * (len(self.names) + 4) * U32 * big
+
+    def screen_of(self, col: str, sl: slice) -> np.ndarray:
+        """The draws of :meth:`of` in single precision (within :meth:`bound` of them)."""
+        src = self._screened_event(col)
+        if src is None:
+            return self.of(col, sl).astype(np.float32)
+        root = self.root[sl, self.names[src], :]
         out = root.astype(np.float32) @ _joint_normals_single(len(self.names)).T
-        out += b.astype(np.float32)[:, None]
-        big = (np.abs(b) + np.abs(root) @ np.abs(z).max(axis=0))[:, None] * (1 + 1e-12)
-        return out, big, 2 * (len(self.names) + 4) * U32 * big
+        out += self.pmap[src][sl].astype(np.float32)[:, None]
+        return out
 
     def at(self, col: str, sl: slice, s: np.ndarray, d: np.ndarray) -> np.ndarray:
         """The draws of :meth:`of` for series ``s`` of the chunk ``sl`` at draws ``d`` only (same bits)."""
-        group = self.group
-        src = None if getattr(group.status.get(col), "status", "") == "assumed" else group.source(col)
-        if src is None or src not in self.names or src in group.intervention_names or src not in self.pmap:
+        src = self._screened_event(col)
+        if src is None:
             v = self.of(col, sl)
             return v[s if v.shape[0] > 1 else 0, d if v.shape[1] > 1 else 0]
         # einsum's dot product of each pair is the one it makes inside the (series × draws) product
@@ -286,18 +302,37 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     units = JointUnits({c: flat[c] for c in used}, factor_cols, players, own, f_first, f_which, g_first,
                        g_which, coalitions, k, width, N_DRAWS)
     lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
+    # the four order statistics from single-precision draws, the few near them recomputed exactly
+    # (evcal.effects.screen); in double precision throughout where the screen's bound does not hold
+    err = units.error({c: draws.bound(c) for c in used}, slice(None), weight) if _SCREEN else None
+    found = []
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))
         ms = sl.stop - s0
-        # the four order statistics from single-precision draws, the few near them recomputed exactly
-        # (evcal.effects.screen); in double precision throughout where the screen's bound does not hold
-        stats = units.screened(draws, used, sl, ms, weight[sl], (lo_i, hi_i)) if _SCREEN else None
-        if stats is None:
+        got = None if err is None else units.screen(draws, used, sl, ms, weight[sl], err[sl], (lo_i, hi_i))
+        if got is None:
             beta = {c: draws.of(c, sl) for c in used}
             lo[sl], hi[sl] = _quantiles(units.sims(units.units(beta, sl, ms), weight[sl]))
         else:
-            (lo0, lo1), (hi0, hi1) = stats
-            lo[sl], hi[sl] = _lerp(lo0, lo1, _H_LOW - lo_i), _lerp(hi0, hi1, _H_HIGH - hi_i)
+            found.append((s0 * k, ms * k, *got))
+    if found:
+        rows, picked = units.picked(draws, weight, found, (lo_i, hi_i))
+        if picked is None:  # (the bound rules this out) every chunk again in double precision
+            return _joint_bounds_double(units, draws, used, m, step, weight)
+        (lo0, lo1), (hi0, hi1) = picked
+        lo.reshape(-1)[rows] = _lerp(lo0, lo1, _H_LOW - lo_i)
+        hi.reshape(-1)[rows] = _lerp(hi0, hi1, _H_HIGH - hi_i)
+    return lo, hi
+
+
+def _joint_bounds_double(units: JointUnits, draws: _Draws, used: list[str], m: int, step: int,
+                         weight: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The joint bounds with every draw in double precision (what the screen reproduces)."""
+    lo, hi = np.zeros((m, units.k)), np.zeros((m, units.k))
+    for s0 in range(0, m, step):
+        sl = slice(s0, min(m, s0 + step))
+        beta = {c: draws.of(c, sl) for c in used}
+        lo[sl], hi[sl] = _quantiles(units.sims(units.units(beta, sl, sl.stop - s0), weight[sl]))
     return lo, hi
 
 

@@ -383,32 +383,39 @@ class JointUnits:
             return None
         return row
 
-    def screened(self, draws: Any, used: list[str], sl: slice, ms: int, weight: np.ndarray,
-                 ranks: tuple[int, int]) -> list[tuple[np.ndarray, np.ndarray]] | None:
-        """The order statistics (r, r + 1) for each lower rank r of ``ranks`` of every occurrence's
-        draws, (ms, k) each, exactly as the double-precision draws give them; None where the screen
-        cannot be used (then compute in double precision).
+    def screen(self, draws: Any, used: list[str], sl: slice, ms: int, weight: np.ndarray, err: np.ndarray,
+               ranks: tuple[int, int]) -> tuple[np.ndarray, np.ndarray, list] | None:
+        """The candidates for the order statistics (r, r + 1) of each lower rank r of ``ranks`` of the
+        chunk's draws (:func:`order_windows`, rows numbered from the chunk's first); None where the
+        screen cannot be used (then compute in double precision).
 
-        ``draws`` gives each column's coefficient draws in single precision with their bounds
-        (``screen_of``) and in double precision at chosen draws (``at``).
+        ``draws`` gives each column's coefficient draws in single precision (``screen_of``) and in
+        double precision at chosen draws (``at``); ``err`` (ms, k) bounds the screened draws' error.
         """
-        single, bounds = {}, {}
-        for c in used:
-            single[c], big, err = draws.screen_of(c, sl)
-            bounds[c] = (big, err)
-        err = self.error(bounds, sl, weight)
-        if err is None:
-            return None
-        s32 = self.screen_sims(single, sl, ms, weight)
+        s32 = self.screen_sims({c: draws.screen_of(c, sl) for c in used}, sl, ms, weight)
         if not np.isfinite(s32).all():
             return None
-        n_rows, n_draws = ms * self.k, s32.shape[-1]
-        rows, d, windows = order_windows(s32.reshape(n_rows, n_draws), err.reshape(n_rows), ranks)
-        values = self.exact(draws, sl, weight, rows // self.k, rows % self.k, d)
+        return order_windows(s32.reshape(ms * self.k, s32.shape[-1]), err.reshape(-1), ranks)
+
+    def picked(self, draws: Any, weight: np.ndarray, found: list, ranks: tuple[int, int]
+               ) -> tuple[np.ndarray, list[tuple[np.ndarray, np.ndarray]] | None]:
+        """The order statistics of every screened chunk's rows, their candidates recomputed at once.
+
+        ``found``: per chunk (its first row, its rows, and :meth:`screen`'s candidates). Returns the
+        rows (series × k + occurrence) and per rank pair the two order statistics of each.
+        """
+        offsets = np.cumsum([0] + [n for _, n, *_ in found])
+        rows = np.concatenate([first + np.arange(n) for first, n, *_ in found])
+        local = np.concatenate([off + r for off, (_, _, r, _, _) in zip(offsets, found, strict=False)])
+        glob = rows[local]
+        d = np.concatenate([f[3] for f in found])
+        values = self.exact(draws, slice(0, len(weight)), weight, glob // self.k, glob % self.k, d)
         out = []
-        for (side, under), rank in zip(windows, ranks, strict=True):
-            got = pick_rank(values[side], rows[side], n_rows, under, rank)
+        for i, rank in enumerate(ranks):
+            side = np.concatenate([f[4][i][0] for f in found])
+            below = np.concatenate([f[4][i][1] for f in found])
+            got = pick_rank(values[side], local[side], len(rows), below, rank)
             if got is None:
-                return None
-            out.append((got[0].reshape(ms, self.k), got[1].reshape(ms, self.k)))
-        return out
+                return rows, None
+            out.append(got)
+        return rows, out

@@ -298,13 +298,15 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     # (level0 × frac × mask)ₜ: what a unit of factor × gain is worth in each period
     weight = np.broadcast_to(level0 * frac_p * mask, (m, k, width))
     n_g = len(g_first) * (len(names) + 2)
-    step = max(1, _CHUNK // (N_DRAWS * (len(f_first) + n_g + n_pos + k + len(used))))
     units = JointUnits({c: flat[c] for c in used}, factor_cols, players, own, f_first, f_which, g_first,
                        g_which, coalitions, k, width, N_DRAWS)
     lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
     # the four order statistics from single-precision draws, the few near them recomputed exactly
     # (evcal.effects.screen); in double precision throughout where the screen's bound does not hold
     err = units.error({c: draws.bound(c) for c in used}, slice(None), weight) if _SCREEN else None
+    # single-precision chunks hold half the bytes of double-precision ones
+    per_series = N_DRAWS * (len(f_first) + n_g + n_pos + k + len(used))
+    step = max(1, (_CHUNK if err is None else 2 * _CHUNK) // per_series)
     found = []
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))

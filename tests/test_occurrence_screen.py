@@ -7,8 +7,8 @@
   draws recomputed for the candidates equal the double-precision draws bit for bit;
 * the joint bounds with the screen equal those without it exactly (``assert_array_equal``) for
   events alone with a level shift in force, in coalitions with other events, with curved columns,
-  an occurrence worth nothing (every draw equal), nearly certain coefficients (draws within the
-  bound of each other) and large effects (hypothesis);
+  an occurrence worth nothing (every draw equal), an event held at an assumed lift, nearly certain
+  coefficients (draws within the bound of each other) and large effects (hypothesis);
 * the order statistics picked from the candidates are those of all the draws, ties included.
 
 Inputs are invented (non-negative columns and base, as every fit has them).
@@ -42,9 +42,10 @@ def test_single_precision_exp_is_within_four_ulp() -> None:
     assert rel.max() <= 8 * screen.U32  # 4 ulp of single precision (an ulp is at most 2u relative)
 
 
-def _case(seed: int, scale: float, size: float, others: bool, zero: bool):
+def _case(seed: int, scale: float, size: float, others: bool, zero: bool, assumed: bool = False):
     """An event 'promo' (curved) with three occurrences, a level shift in force in some periods and,
-    if ``others``, two more events sharing some periods (coalitions)."""
+    if ``others``, two more events sharing some periods (coalitions); with ``assumed`` the 'gala'
+    is held at an assumed lift (one value for every series and draw)."""
     rng = np.random.default_rng(seed)
     cols = {"shift": (np.arange(N) >= 4).astype(float), "promo": np.zeros(N), "fair": np.zeros(N),
             "gala": np.zeros(N)}
@@ -54,7 +55,9 @@ def _case(seed: int, scale: float, size: float, others: bool, zero: bool):
     promo = np.zeros((M, N))
     promo[:, [1, 2, 3, 5, 6, 7]] = rng.uniform(0.1, 1.0, (M, 6))
     status = {c: SimpleNamespace(status="fitted") for c in NAMES}
-    group = GroupInfo("log", status, list(NAMES), [], {}, {}, ["shift"], [],
+    if assumed:
+        status["gala"] = SimpleNamespace(status="assumed")
+    group = GroupInfo("log", status, list(NAMES), [], {}, {"gala": 0.25} if assumed else {}, ["shift"], [],
                       {c: {"event": c} for c in NAMES[1:]}, {}, None)
     pmap = {c: rng.normal(0.2, 0.3, M) * size for c in NAMES}
     a = rng.normal(0.0, 0.1, (M, 4, 4))
@@ -72,9 +75,11 @@ def _case(seed: int, scale: float, size: float, others: bool, zero: bool):
 
 @hypothesis.settings(max_examples=40, deadline=None)
 @hypothesis.given(seed=st.integers(0, 10**6), scale=st.sampled_from([1.0, 1e-6, 1e-14, 30.0]),
-                  size=st.sampled_from([1.0, 0.01, 8.0]), others=st.booleans(), zero=st.booleans())
-def test_the_screen_changes_no_bound(seed: int, scale: float, size: float, others: bool, zero: bool) -> None:
-    args = _case(seed, scale, size, others, zero)
+                  size=st.sampled_from([1.0, 0.01, 8.0]), others=st.booleans(), zero=st.booleans(),
+                  assumed=st.booleans())
+def test_the_screen_changes_no_bound(seed: int, scale: float, size: float, others: bool, zero: bool,
+                                     assumed: bool) -> None:
+    args = _case(seed, scale, size, others, zero, assumed)
     checked = []
     real = screen.JointUnits.screen
 

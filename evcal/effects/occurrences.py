@@ -205,8 +205,8 @@ class _Draws:
         """The draws of :meth:`of` for series ``s`` of the chunk ``sl`` at draws ``d`` only (same bits)."""
         src = self._screened_event(col)
         if src is None:
-            v = self.of(col, sl)
-            return v[s if v.shape[0] > 1 else 0, d if v.shape[1] > 1 else 0]
+            v = self.of(col, sl)  # (series or 1, draws or 1): a constant column gives one value
+            return np.broadcast_to(v[s if v.shape[0] > 1 else 0, d if v.shape[1] > 1 else 0], s.shape)
         # einsum's dot product of each pair is the one it makes inside the (series × draws) product
         rows = np.arange(sl.start, sl.stop)[s]
         out = np.einsum("ck,ck->c", self.root[rows, self.names[src], :], _joint_normals(len(self.names))[d])

@@ -98,6 +98,8 @@ def test_the_screen_changes_no_bound(seed: int, scale: float, size: float, other
 
     with pytest.MonkeyPatch.context() as mp:
         mp.setattr(screen.JointUnits, "screen", checking)
+        mp.setattr(occurrences, "_SCREEN_MIN_SERIES", 1)  # a group of 7 series: screened all the same
+        mp.setattr(screen, "MAX_CANDIDATES", 10**6)  # rows of equal draws go through the screen too
         got = np.array(_joint_bounds(*args))
         mp.setattr(occurrences, "_SCREEN", False)
         args[6].kept.clear()

@@ -55,6 +55,8 @@ U32 = 2.0 ** -24
 EXP_REL = 16 * U32
 #: second-order terms of every first-order bound below
 ROW_SLACK = 1.1
+#: candidates per occurrence above which a chunk is computed in double precision (4 is the least)
+MAX_CANDIDATES = 16
 #: subnormal single-precision results lose absolute accuracy down to 2⁻¹⁴⁹ ≈ 1.4e-45 per operation
 ABS_FLOOR = 1e-43
 
@@ -395,7 +397,10 @@ class JointUnits:
         s32 = self.screen_sims({c: draws.screen_of(c, sl) for c in used}, sl, ms, weight)
         if not np.isfinite(s32).all():
             return None
-        return order_windows(s32.reshape(ms * self.k, s32.shape[-1]), err.reshape(-1), ranks)
+        found = order_windows(s32.reshape(ms * self.k, s32.shape[-1]), err.reshape(-1), ranks)
+        if len(found[0]) > MAX_CANDIDATES * ms * self.k:
+            return None  # a bound too wide for these draws' spacing: recomputing them would cost more
+        return found
 
     def picked(self, draws: Any, weight: np.ndarray, found: list, ranks: tuple[int, int]
                ) -> tuple[np.ndarray, list[tuple[np.ndarray, np.ndarray]] | None]:

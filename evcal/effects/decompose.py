@@ -23,6 +23,7 @@ The m series of a block share the design rows; the coefficients differ.
 from __future__ import annotations
 
 import functools
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -40,7 +41,8 @@ def _legendre(k: int) -> tuple[np.ndarray, np.ndarray]:
     return 0.5 * (nodes + 1.0), 0.5 * weights
 
 
-def shapley_exp(level: np.ndarray | float, logs: np.ndarray, player: int | None = None) -> np.ndarray:
+def shapley_exp(level: np.ndarray | float, logs: np.ndarray, player: int | None = None,
+                expm1: Callable[[np.ndarray], np.ndarray] = np.expm1) -> np.ndarray:
     """Shapley values of the game ``v(S) = level (exp(Σ_{j∈S} logs_j) − 1)``, exact for any number of players.
 
     Parameters
@@ -52,6 +54,9 @@ def shapley_exp(level: np.ndarray | float, logs: np.ndarray, player: int | None 
     player : int, optional
         Only this player's value (what the occurrence intervals need): the other players'
         values are not computed.
+    expm1 : callable, optional
+        ``exp(x) − 1`` elementwise; the occurrence tables' single-precision screen passes a
+        faster, less accurate one (the nodes and weights then take ``logs``' precision too).
 
     Returns
     -------
@@ -68,8 +73,10 @@ def shapley_exp(level: np.ndarray | float, logs: np.ndarray, player: int | None 
     exactly: no sum over the 2ᵏ subsets, no cap on the players present.
     """
     k = logs.shape[0]
-    gain = np.expm1(logs)  # aⱼ − 1
+    gain = expm1(logs)  # aⱼ − 1
     nodes, half_weights = _legendre(k)  # nodes on (0, 1): every factor 1 + t (a − 1) >= 1 − t > 0
+    if logs.dtype != nodes.dtype:  # numpy scalars of double precision would promote single-precision logs
+        nodes, half_weights = nodes.astype(logs.dtype), half_weights.astype(logs.dtype)
     if player is not None:
         others = [gain[i] for i in range(k) if i != player]
         one: np.ndarray | float = 0.0

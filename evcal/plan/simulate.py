@@ -315,6 +315,43 @@ def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base
 _BLOCK_CELLS = 2**23
 
 
+def _order_quantiles(draws: np.ndarray, qs: tuple[float, ...], scale: Callable[[np.ndarray], np.ndarray]
+                     ) -> list[np.ndarray]:
+    """``np.quantile(scale(draws), q, axis=-1)`` for each ``q``, with ``scale`` applied to a few values only.
+
+    ``scale`` must be non-decreasing (elementwise), so the order statistics of
+    ``scale(draws)`` are ``scale`` of those of ``draws``: only the two order
+    statistics each quantile interpolates between (and the largest, where a
+    NaN would sort) are scaled. The draws run along the last, contiguous axis,
+    which numpy partitions far faster than its first. The interpolation is
+    numpy's ``linear`` method, written as numpy writes it (``_get_indexes`` and
+    ``_lerp``), so the result is numpy's to the last bit. ``draws`` is
+    reordered in place.
+    """
+    n = draws.shape[-1]
+    virtual = (n - 1) * np.asarray(qs, dtype=float)
+    prev = np.floor(virtual)
+    nxt = prev + 1
+    above = virtual >= n - 1
+    prev[above] = nxt[above] = -1
+    below = virtual < 0
+    prev[below] = nxt[below] = 0
+    gamma = virtual - prev  # numpy's weight, from the indexes after the bounds
+    prev, nxt = prev.astype(np.intp), nxt.astype(np.intp)
+    draws.partition(np.unique(np.concatenate(([0, n - 1], prev % n, nxt % n))), axis=-1)
+    largest = scale(draws[..., -1])
+    out = []
+    for j in range(len(qs)):
+        a, b, t = scale(draws[..., prev[j]]), scale(draws[..., nxt[j]]), gamma[j]
+        diff_b_a = b - a
+        res = np.add(a, diff_b_a * t)
+        if t >= 0.5:
+            res = np.subtract(b, diff_b_a * (1 - t))
+        res = np.where(np.isnan(largest), largest, res)  # a NaN draw makes the quantile NaN, as in numpy
+        out.append(res)
+    return out
+
+
 def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarray, const: np.ndarray,
                    sd: np.ndarray, open_share: np.ndarray, n_sims: int = 1000, seed: int = 0,
                    level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
@@ -327,7 +364,9 @@ def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarra
     ``sd`` (m,) is the noise's standard deviation. Every series takes the same
     standard normal numbers from ``seed`` as its single-series plan does, in the
     same order, so its interval does not depend on the other series of the
-    block, and equals the single-series plan's up to rounding.
+    block, and equals the single-series plan's up to rounding. The draws are
+    laid out last (series, periods, draws); in the log model only the order
+    statistics that give the quantiles are exponentiated (``exp`` keeps the order).
     """
     rng = np.random.default_rng(seed)
     m, n_periods, k = M.shape
@@ -337,20 +376,23 @@ def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarra
     w, v = np.linalg.eigh(c)
     root = v * np.sqrt(np.clip(w, 0.0, None))[:, None, :]  # (m, k, k): draws are mu + zc root^T
     center = np.einsum("mk,mpk->mp", mu, M) + const
-    L = np.matmul(np.swapaxes(root, 1, 2), np.swapaxes(M, 1, 2))  # (m, k, periods)
+    Lt = np.matmul(M, root)  # (m, periods, k): the draws' level is center + Lt zc^T
+    zcT = np.ascontiguousarray(zc.T)
+    znT = np.ascontiguousarray(zn.T)  # (periods, draws)
     share = np.asarray(open_share, dtype=float)
     tail = (1.0 - level) / 2.0
     low, high = np.empty((m, n_periods)), np.empty((m, n_periods))
     step = max(1, _BLOCK_CELLS // max(n_sims * n_periods, 1))
     for a in range(0, m, step):
         b = min(a + step, m)
-        eta = (zc @ np.swapaxes(L[a:b], 0, 1).reshape(k, -1)).reshape(n_sims, b - a, n_periods)
-        eta += center[None, a:b]
-        noise = sd[None, a:b, None] * zn[:, None, :]
+        eta = (Lt[a:b].reshape(-1, k) @ zcT).reshape(b - a, n_periods, n_sims)
+        eta += center[a:b, :, None]
+        noise = sd[a:b, None, None] * znT[None, :, :]
         if transform == "none":
-            y = share * eta + (share > 0) * noise
+            y = share[:, None] * eta + (share > 0)[:, None] * noise
+            low[a:b], high[a:b] = _order_quantiles(y, (tail, 1.0 - tail), lambda x: x)
         else:
             eta += noise
-            y = share * np.exp(eta, out=eta)
-        low[a:b], high[a:b] = np.quantile(y, [tail, 1.0 - tail], axis=0)
+            low[a:b], high[a:b] = _order_quantiles(eta, (tail, 1.0 - tail),
+                                                   lambda x: share * np.exp(x))
     return low, high

@@ -189,10 +189,14 @@ def draw_coefficients(params: pd.Series, cov: pd.DataFrame, n: int,
                       rng: np.random.Generator, fixed: list[str] | None = None) -> pd.DataFrame:
     """``n`` draws of the estimated coefficients from N(params, cov).
 
-    The covariance is factored by its eigen-decomposition with negative
-    eigenvalues (rounding) set to zero, so a nearly singular covariance still
-    gives draws. Coefficients named in ``fixed`` stay at their estimate in every
-    draw and the others are drawn conditionally on them (covariance
+    The draws are ``params + z S`` with ``S`` the covariance's symmetric square
+    root (:func:`sqrt_psd`, negative eigenvalues from rounding set to zero, so a
+    nearly singular covariance still gives draws): unlike the eigenvectors
+    themselves, whose signs LAPACK may choose either way for two covariances
+    equal to the last bits, it moves continuously with the covariance, so the
+    batched panel plan draws what the single-series plan draws. Coefficients
+    named in ``fixed`` stay at their estimate in every draw and the others are
+    drawn conditionally on them (covariance
     ``S_oo - S_of S_ff^-1 S_fo``; the conditional mean is the estimate, since
     the fixed ones sit at theirs).
 
@@ -215,10 +219,22 @@ def draw_coefficients(params: pd.Series, cov: pd.DataFrame, n: int,
         cond = c[np.ix_(o, o)] - s_of @ np.linalg.pinv(c[np.ix_(f, f)]) @ s_of.T
         c = np.zeros_like(c)
         c[np.ix_(o, o)] = cond
-    w, v = np.linalg.eigh(c)
-    root = v * np.sqrt(np.clip(w, 0.0, None))[None, :]
     z = rng.standard_normal((n, len(names)))
-    return pd.DataFrame(mu[None, :] + z @ root.T, columns=names)
+    return pd.DataFrame(mu[None, :] + z @ sqrt_psd(c), columns=names)
+
+
+def sqrt_psd(cov: np.ndarray) -> np.ndarray:
+    """The symmetric square root ``V diag(√w) Vᵀ`` of symmetric ``cov`` (..., k, k), ``w < 0`` taken as 0.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> r = sqrt_psd(np.array([[4.0, 0.0], [0.0, 9.0]]))
+    >>> r.round(12).tolist()
+    [[2.0, 0.0], [0.0, 3.0]]
+    """
+    w, v = np.linalg.eigh(cov)
+    return np.matmul(v * np.sqrt(np.clip(w, 0.0, None))[..., None, :], np.swapaxes(v, -1, -2))
 
 
 def _coef_draws(name: str, draws: pd.DataFrame, params: pd.Series, n: int) -> np.ndarray:
@@ -373,8 +389,7 @@ def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarra
     zc = rng.standard_normal((n_sims, k))
     zn = rng.standard_normal((n_sims, n_periods))
     c = (cov + np.swapaxes(cov, 1, 2)) / 2.0
-    w, v = np.linalg.eigh(c)
-    root = v * np.sqrt(np.clip(w, 0.0, None))[:, None, :]  # (m, k, k): draws are mu + zc root^T
+    root = sqrt_psd(c)  # (m, k, k), symmetric: draws are mu + zc root
     center = np.einsum("mk,mpk->mp", mu, M) + const
     Lt = np.matmul(M, root)  # (m, periods, k): the draws' level is center + Lt zc^T
     zcT = np.ascontiguousarray(zc.T)

@@ -154,6 +154,15 @@ class DaskRunner:
         with contextlib.suppress(Exception):  # a start that failed has nothing to close; its error was raised
             self._client.result()
         self._stack.close()
+        if not self.scheduler:
+            # the worker processes were started through multiprocessing, whose resource tracker (a
+            # process of its own) would otherwise outlive the command and be left as a zombie until
+            # the system reaps it; stopping it here waits for it (multiprocessing restarts it if needed)
+            from multiprocessing import resource_tracker
+
+            stop = getattr(getattr(resource_tracker, "_resource_tracker", None), "_stop", None)
+            if stop is not None:
+                stop()
 
     def close(self) -> None:
         """Shut the cluster down; a local one's worker processes have ended when this returns."""

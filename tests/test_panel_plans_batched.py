@@ -118,18 +118,27 @@ def test_draws_do_not_depend_on_the_eigenvectors_signs(monkeypatch):
 
 
 def test_order_statistics_give_numpys_quantiles():
-    # the block simulation's quantiles (exp applied to the order statistics only) against np.quantile, to
-    # the last bit; ties, a NaN draw, a closed period (share 0) and draw counts around the two ends
+    # the block simulation's quantiles (exp applied to the order statistics only, found beyond a bound set
+    # by each lane's normal guide) against np.quantile, to the last bit: ties, a NaN draw, a closed period
+    # (share 0), draw counts around the two ends, and guides that are wrong (shifted, too wide, NaN, zero)
     from evcal.plan.simulate import _order_quantiles
 
     rng = np.random.default_rng(0)
-    for n in (1, 2, 3, 40, 1000, 1001):
-        x = rng.standard_normal((3, 5, n))
-        x[0, 0] = 1.0
-        x[1, 1, min(2, n - 1)] = np.nan
-        share = rng.uniform(0.0, 2.0, 5)
-        share[2] = 0.0
+    for n in (1, 2, 3, 40, 200, 1000, 1001):
+        lanes = 600
+        mean, sd = rng.normal(0.0, 3.0, lanes), rng.uniform(0.1, 2.0, lanes)
+        x = mean[:, None] + sd[:, None] * rng.standard_normal((lanes, n))
+        x[0] = 1.0
+        x[1, min(2, n - 1)] = np.nan
+        guide_mean, guide_sd = mean.copy(), sd.copy()
+        guide_mean[10:20] += 5.0
+        guide_sd[20:30] *= 10.0
+        guide_sd[30:40] = np.nan
+        guide_sd[40:50] = 0.0
+        share = rng.uniform(0.0, 2.0, lanes)
+        share[::7] = 0.0
         ref = np.quantile(share[:, None] * np.exp(x), [0.025, 0.975], axis=-1)
-        got = _order_quantiles(x.copy(), (0.025, 0.975), lambda v, s=share: s * np.exp(v))
-        for r, g in zip(ref, got, strict=True):
-            assert np.array_equal(r, g, equal_nan=True), n
+        for guide in ((None, None), (guide_mean, guide_sd)):
+            got = _order_quantiles(x.copy(), (0.025, 0.975), lambda v, s=share: s * np.exp(v), *guide)
+            for r, g in zip(ref, got, strict=True):
+                assert np.array_equal(r, g, equal_nan=True), n

@@ -456,16 +456,23 @@ def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarra
     share = np.asarray(open_share, dtype=float)
     tail = (1.0 - level) / 2.0
     low, high = np.empty((m, n_periods)), np.empty((m, n_periods))
-    step = max(1, _BLOCK_CELLS // max(n_sims * n_periods, 1))
+    step = min(m, max(1, _BLOCK_CELLS // max(n_sims * n_periods, 1)))
+    # two working arrays for every chunk: a fresh array per chunk paid its page faults each time
+    eta_buf, noise_buf = np.empty(step * n_periods * n_sims), np.empty(step * n_periods * n_sims)
     for a in range(0, m, step):
         b = min(a + step, m)
-        eta = (Lt[a:b].reshape(-1, k) @ zcT).reshape(b - a, n_periods, n_sims)
+        cells = (b - a) * n_periods * n_sims
+        eta = np.matmul(Lt[a:b].reshape(-1, k), zcT, out=eta_buf[:cells].reshape(-1, n_sims))
+        eta = eta.reshape(b - a, n_periods, n_sims)
         eta += center[a:b, :, None]
-        noise = sd[a:b, None, None] * znT[None, :, :]
+        noise = np.multiply(sd[a:b, None, None], znT[None, :, :],
+                            out=noise_buf[:cells].reshape(b - a, n_periods, n_sims))
         # each (series, period)'s draws are normal: their mean and sd guide the order statistics' search
         spread = np.einsum("cpk,cpk->cp", Lt[a:b], Lt[a:b])
         if transform == "none":
-            y = share[:, None] * eta + (share > 0)[:, None] * noise
+            eta *= share[:, None]
+            noise *= (share > 0)[:, None]
+            y = np.add(eta, noise, out=eta)
             guide_sd = np.sqrt(share**2 * spread + (share > 0) * sd[a:b, None] ** 2)
             low[a:b], high[a:b] = _order_quantiles(y, (tail, 1.0 - tail), lambda x: x,
                                                    share * center[a:b], guide_sd)

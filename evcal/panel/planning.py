@@ -192,7 +192,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         keys = [model.find(s) for s in series]
     else:
         fitted = model.series[model.series["status"] == "fitted"]
-        keys = [{c: row[c] for c in model.key_cols} for _, row in fitted.iterrows()]
+        keys = fitted[model.key_cols].to_dict("records")
     if not keys:
         raise PlanError("the panel model has no fitted series to plan")
     if (total is not None or totals is not None) and len(keys) > 1:

@@ -12,6 +12,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from test_panel import CAL, _panel_frame
 
 from evcal.panel import fit_panel
@@ -142,3 +144,21 @@ def test_order_statistics_give_numpys_quantiles():
             got = _order_quantiles(x.copy(), (0.025, 0.975), lambda v, s=share: s * np.exp(v), *guide)
             for r, g in zip(ref, got, strict=True):
                 assert np.array_equal(r, g, equal_nan=True), n
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.floats(allow_nan=True, allow_infinity=True, width=64), min_size=1, max_size=30),
+       st.sampled_from(["%.6f", "%.6g", "%.4f", "%g"]))
+def test_write_csv_formats_numbers_as_pandas_does(values, fmt):
+    # write_csv formats a float_format's numbers itself (a panel plan has millions); the text must be
+    # pandas' own, byte for byte (NaN empty, -0.0, inf, huge and tiny numbers), text cells still guarded
+    import io
+
+    from evcal.formula_safe import formula_safe_frame, write_csv
+
+    frame = pd.DataFrame({"key": ["=x", "a,b"] * (len(values) // 2) + ["q"] * (len(values) % 2),
+                          "value": np.array(values, dtype=float), "n": np.arange(len(values))})
+    ours, theirs = io.StringIO(), io.StringIO()
+    write_csv(frame, ours, index=False, float_format=fmt)
+    formula_safe_frame(frame).to_csv(theirs, index=False, float_format=fmt)
+    assert ours.getvalue() == theirs.getvalue()

@@ -283,6 +283,25 @@ def _blas() -> str:
     return ", ".join(libs) or "none found"
 
 
+def _dask_race(fit_args: list[str], tmp: Path, reps: int) -> None:
+    """The same fit on a local Dask cluster of 2 worker processes against the local run, in alternating pairs.
+
+    Both whole processes (the cluster's start-up and shut-down included); each pair printed with its
+    ratio and the load average, then the median and range of the ratios.
+    """
+    print("\ndask: local run vs --workers 2 (a LocalCluster of 2 processes, start-up included), alternating")
+    ratios = []
+    for r in range(reps):
+        local = run_evcal(fit_args, tmp)[0]
+        load = _load()
+        dask = run_evcal(fit_args + ["--workers", "2"], tmp)[0]
+        ratios.append(dask / local)
+        print(f"  pair {r + 1}: local {local:.2f} s ({load}), dask {dask:.2f} s ({_load()}): "
+              f"{ratios[-1]:.2f}x")
+    print(f"dask / local: median {np.median(ratios):.2f}x (range {min(ratios):.2f}-{max(ratios):.2f}; "
+          "aim at most 1.3x)")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--series", type=int, default=10_000)
@@ -290,6 +309,7 @@ def main() -> None:
     ap.add_argument("--full-loop", action="store_true", help="the loop on every series (nothing multiplied)")
     ap.add_argument("--loop-threads", type=int, default=1, help="BLAS threads for the loop (evcal holds 1)")
     ap.add_argument("--no-dask", action="store_true")
+    ap.add_argument("--dask-only", action="store_true", help="only the Dask comparison (no loop race)")
     ap.add_argument("--repeat", type=int, default=3, help="alternating runs of each side")
     ap.add_argument("--gaps", type=int, default=0,
                     help="weeks each series loses at random (fixed seed; the loop drops the same rows)")
@@ -311,6 +331,9 @@ def main() -> None:
         fit_args = ["fit", str(path), "--series-col", "family,product", "-c", str(cal), "--out",
                     str(tmp / "model")]
         reps = max(1, args.repeat)
+        if args.dask_only:
+            _dask_race(fit_args, tmp, reps)
+            return
         _, base_mb = run_evcal(["--imports-only"], tmp)
         n_loop = None if args.full_loop else min(args.loop_series, args.series)
         whole_ratios, compute_ratios, peaks = [], [], []
@@ -346,11 +369,7 @@ def main() -> None:
             except ImportError:
                 print("dask: not installed (pip install 'evcal[dask]'); skipped")
             else:
-                walls = [run_evcal(fit_args, tmp)[0] for _ in range(reps)]
-                dwalls = [run_evcal(fit_args + ["--workers", "2"], tmp)[0] for _ in range(reps)]
-                print(f"dask, local cluster of 2 worker processes (start-up included): median "
-                      f"{np.median(dwalls):.2f} s against {np.median(walls):.2f} s local "
-                      f"({np.median(dwalls) / np.median(walls):.2f}x; {_load()})")
+                _dask_race(fit_args, tmp, reps)
         check = pd.read_csv(tmp / "model" / "lifts.csv")
         easter_lift = check.loc[check["event"] == "easter-run", "lift_pct"].median()
         print(f"\ncheck: median Easter lift across series {easter_lift:.1f} % (the data were made with "

@@ -12,6 +12,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from test_panel import CAL, _panel_frame
 
 from evcal.panel import fit_panel
@@ -78,3 +80,85 @@ def test_intervals_agree_with_other_draws_within_monte_carlo_error(panel_dir):
     for c in ("low", "high"):
         rel = np.abs(a[c].to_numpy() / b[c].to_numpy() - 1.0)
         assert rel.max() < 0.03, (c, rel.max())  # 20,000 draws: the 2.5 % quantile within ~1 % (MC error)
+
+
+def _flipped_eigh(monkeypatch):
+    """np.linalg.eigh with every eigenvector's sign flipped: an equally valid decomposition."""
+    eigh = np.linalg.eigh
+
+    def flipped(a):
+        w, v = eigh(a)
+        return w, -v
+
+    monkeypatch.setattr(np.linalg, "eigh", flipped)
+
+
+def test_draws_do_not_depend_on_the_eigenvectors_signs(monkeypatch):
+    # LAPACK may return an eigenvector with either sign for two covariances equal to the last bits (the
+    # batched and single-series covariance of a series): on main the draws then differed, and 3 of 2,000
+    # series of benchmarks/panel.py's data had batched intervals 0.5-1.3 % off the single-series plan's.
+    # Invented covariance (a random 6 x 6 positive-definite matrix).
+    from evcal.plan.simulate import draw_coefficients, simulate_block
+
+    rng = np.random.default_rng(3)
+    A = rng.standard_normal((6, 6))
+    cov = A @ A.T / 10
+    names = list("abcdef")
+    params = pd.Series(rng.standard_normal(6), index=names)
+    M = rng.standard_normal((1, 4, 6))
+    before = draw_coefficients(params, pd.DataFrame(cov, index=names, columns=names), 50,
+                               np.random.default_rng(0)).to_numpy()
+    block = simulate_block("log", params.to_numpy()[None], cov[None], M, np.zeros((1, 4)), np.array([0.1]),
+                           np.ones(4), 200, 0)
+    _flipped_eigh(monkeypatch)
+    after = draw_coefficients(params, pd.DataFrame(cov, index=names, columns=names), 50,
+                              np.random.default_rng(0)).to_numpy()
+    np.testing.assert_allclose(after, before, rtol=1e-12, atol=1e-12)  # main: the draws change sign
+    flipped = simulate_block("log", params.to_numpy()[None], cov[None], M, np.zeros((1, 4)), np.array([0.1]),
+                             np.ones(4), 200, 0)
+    np.testing.assert_allclose(flipped, block, rtol=1e-12)
+
+
+def test_order_statistics_give_numpys_quantiles():
+    # the block simulation's quantiles (exp applied to the order statistics only, found beyond a bound set
+    # by each lane's normal guide) against np.quantile, to the last bit: ties, a NaN draw, a closed period
+    # (share 0), draw counts around the two ends, and guides that are wrong (shifted, too wide, NaN, zero)
+    from evcal.plan.simulate import _order_quantiles
+
+    rng = np.random.default_rng(0)
+    for n in (1, 2, 3, 40, 200, 1000, 1001):
+        lanes = 600
+        mean, sd = rng.normal(0.0, 3.0, lanes), rng.uniform(0.1, 2.0, lanes)
+        x = mean[:, None] + sd[:, None] * rng.standard_normal((lanes, n))
+        x[0] = 1.0
+        x[1, min(2, n - 1)] = np.nan
+        guide_mean, guide_sd = mean.copy(), sd.copy()
+        guide_mean[10:20] += 5.0
+        guide_sd[20:30] *= 10.0
+        guide_sd[30:40] = np.nan
+        guide_sd[40:50] = 0.0
+        share = rng.uniform(0.0, 2.0, lanes)
+        share[::7] = 0.0
+        ref = np.quantile(share[:, None] * np.exp(x), [0.025, 0.975], axis=-1)
+        for guide in ((None, None), (guide_mean, guide_sd)):
+            got = _order_quantiles(x.copy(), (0.025, 0.975), lambda v, s=share: s * np.exp(v), *guide)
+            for r, g in zip(ref, got, strict=True):
+                assert np.array_equal(r, g, equal_nan=True), n
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.floats(allow_nan=True, allow_infinity=True, width=64), min_size=1, max_size=30),
+       st.sampled_from(["%.6f", "%.6g", "%.4f", "%g"]))
+def test_write_csv_formats_numbers_as_pandas_does(values, fmt):
+    # write_csv formats a float_format's numbers itself (a panel plan has millions); the text must be
+    # pandas' own, byte for byte (NaN empty, -0.0, inf, huge and tiny numbers), text cells still guarded
+    import io
+
+    from evcal.formula_safe import formula_safe_frame, write_csv
+
+    frame = pd.DataFrame({"key": ["=x", "a,b"] * (len(values) // 2) + ["q"] * (len(values) % 2),
+                          "value": np.array(values, dtype=float), "n": np.arange(len(values))})
+    ours, theirs = io.StringIO(), io.StringIO()
+    write_csv(frame, ours, index=False, float_format=fmt)
+    formula_safe_frame(frame).to_csv(theirs, index=False, float_format=fmt)
+    assert ours.getvalue() == theirs.getvalue()

@@ -77,22 +77,25 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     from evcal.panel.distributed import make_runner
 
     opts = FitOptions(**options)
-    runner = make_runner(workers, scheduler, progress)
     # the matrices are small: one BLAS thread each, the cores go to the units instead; pyarrow
-    # and numpy share one heap, so the pages one frees the other reuses (evcal.engine.memory)
-    with threadpool_limits(limits=1), arrow_on_system_heap():
+    # and numpy share one heap, so the pages one frees the other reuses (evcal.engine.memory); a Dask
+    # cluster starts meanwhile and is shut down, its processes ended, when the block ends
+    with make_runner(workers, scheduler, progress) as runner, threadpool_limits(limits=1), \
+            arrow_on_system_heap():
         panel, keys, levels, cal = read_for_panel(history, series_cols, date_col, value_col, freq, level,
                                                   group_col, meanwhile=lambda: _ready_to_fit(calendar))
         from evcal.engine.run import fit_long_panel  # imported by _ready_to_fit while the file was read
 
         if out is None:
             fitted = fit_long_panel(panel, cal, opts, runner=runner)
+            runner.release()
             return build_result(fitted, keys, levels, group_col, date_col, value_col, None)
         out = Path(out)
         with atomic_dir(out, kind="panel") as tmp:
             writer = FittedWriter(tmp / "fitted.parquet", panel)
             try:
                 fitted = fit_long_panel(panel, cal, opts, runner=runner, on_fitted=writer.write)
+                runner.release()  # a Dask cluster shuts down while the tables are written
                 # the writer's thread finishes the fitted rows while the other tables are built and
                 # written (none of them reads fitted.parquet)
                 result = build_result(fitted, keys, levels, group_col, date_col, value_col,

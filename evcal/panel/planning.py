@@ -192,7 +192,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         keys = [model.find(s) for s in series]
     else:
         fitted = model.series[model.series["status"] == "fitted"]
-        keys = [{c: row[c] for c in model.key_cols} for _, row in fitted.iterrows()]
+        keys = fitted[model.key_cols].to_dict("records")
     if not keys:
         raise PlanError("the panel model has no fitted series to plan")
     if (total is not None or totals is not None) and len(keys) > 1:
@@ -212,9 +212,12 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         chunks = [PlanChunk(i, path if in_workers else model, [keys[j] for j in alone[a:a + PLAN_CHUNK]],
                             options, positions=alone[a:a + PLAN_CHUNK])
                   for i, a in enumerate(range(0, len(alone), PLAN_CHUNK))]
-        run = dask_runner(workers, None, show, "planning series") if in_workers \
-            else local_runner(show, threads=1, label="planning series")
-        frames += [c.frame for c in run(chunks, _plan_chunk)]
+        if in_workers:
+            with dask_runner(workers, None, show, "planning series") as run:
+                frames += [c.frame for c in run(chunks, _plan_chunk)]
+        else:
+            run = local_runner(show, threads=1, label="planning series")
+            frames += [c.frame for c in run(chunks, _plan_chunk)]
     table = pd.concat(frames, ignore_index=True).sort_values("_pos", kind="stable").drop(columns="_pos")
     table = table.reset_index(drop=True)
     lift_cols = [c for c in table.columns if str(c).startswith("lift:")]

@@ -72,39 +72,67 @@ def solve_block(unit: Any, covariance: bool = True) -> BlockFit:
     keep = ~broken
     cols = g.info.fitted_cols
     theta: dict[str, np.ndarray] = {}
-    X = np.broadcast_to(g.solve.X, (int(keep.sum()), *g.solve.X.shape))
+    m = int(keep.sum())
+    own: dict[int, np.ndarray] = {}  # column -> (m, n): the columns each series has its own values in
     if refined is not None:
         sources = theta_sources(g.info.status, g.info.roles, g.info.like_map, cols)
         theta = {c: refined.theta_in[s][keep] for c, s in sources.items() if s in refined.theta_in}
-        theta.update({c: np.full(int(keep.sum()), float(np.log1p(a))) for c, a in g.info.assumed.items()})
+        theta.update({c: np.full(m, float(np.log1p(a))) for c, a in g.info.assumed.items()})
         if covariance:
             # the last pass's design of each series: its event columns for its own θ
-            X = X.copy()
             idx = {c: i for i, c in enumerate(cols)}
             for c, v in refined.curved.items():  # fitted columns first: a borrowed one adds onto its target
                 if g.info.status[c].status == "fitted" and c in idx:
-                    X[:, :, idx[c]] = v[keep][:, rows]
+                    own[idx[c]] = v[keep][:, rows]
             for c, v in refined.curved.items():
-                if g.info.status[c].status == "like" and g.info.like_map.get(c) in idx:
-                    X[:, :, idx[g.info.like_map[c]]] += v[keep][:, rows]
-    cov = _covariances(X, E[:, keep]) if covariance else None
+                target = g.info.like_map.get(c)
+                if g.info.status[c].status == "like" and target in idx:
+                    j = idx[target]
+                    own[j] = (own[j] if j in own else np.broadcast_to(g.solve.X[:, j], (m, len(rows)))) \
+                        + v[keep][:, rows]
+    cov = _covariances(g.solve.X, own, E[:, keep]) if covariance else None
     return BlockFit(g, unit.sids[keep], B[:, keep], theta, smear[keep], sigma2[keep], cov,
                     unit.sids[broken])
 
 
-def _covariances(X: np.ndarray, E: np.ndarray) -> np.ndarray:
-    """Each series' coefficient covariance (m, k, k) under its own design ``X`` (m, n, k), residuals (n, m).
+def _covariances(X: np.ndarray, own: dict[int, np.ndarray], E: np.ndarray) -> np.ndarray:
+    """Each series' coefficient covariance (m, k, k): design ``X`` (n, k), whose columns ``own`` (j -> (m, n))
+    each series has its own values in; residuals ``E`` (n, m).
 
-    The prewhitened HC2 sandwich of :class:`evcal.engine.batched.SharedSolve`, a few series at a time."""
-    m, _, k = X.shape
+    The prewhitened HC2 sandwich of :class:`evcal.engine.batched.SharedSolve`, a
+    few series at a time, with ``Z = X (XᵀX)⁻¹`` by Frisch–Waugh–Lovell: the
+    shared columns ``S`` are factorised once (``S = QR``), each series' own
+    columns ``V`` projected off them (``Ṽ = V − QQᵀV``), and
+    ``Z = [S R⁻¹ Q-part − Z_V (R⁻¹QᵀV)ᵀ, Z_V]`` with ``Z_V = Ṽ (ṼᵀṼ)⁻¹``; the
+    leverage is ``Σ Q² + Σ Z_V Ṽ``. Only the few event columns are per series.
+    """
+    n, k = X.shape
+    m = E.shape[1]
+    var = sorted(own)
+    fixed = [j for j in range(k) if j not in own]
+    Q, R = np.linalg.qr(X[:, fixed])
+    Rinv = np.linalg.inv(R)
+    Z0 = Q @ Rinv.T  # the shared columns' Z when no column is per series
+    h0 = np.einsum("nk,nk->n", Q, Q)
     out = np.empty((m, k, k))
     for a in range(0, m, COV_CHUNK):
-        Xc = X[a:a + COV_CHUNK]
-        Q, R = np.linalg.qr(Xc)
-        Z = np.matmul(Q, np.swapaxes(np.linalg.inv(R), 1, 2))  # X (X'X)^-1 = Q R^-T
-        lev = np.einsum("mnk,mnk->nm", Xc, Z)
-        errors = prewhitened_errors(E[:, a:a + COV_CHUNK], lev)
-        out[a:a + COV_CHUNK] = ar_covariances(np.moveaxis(Z, 0, 2), errors)
+        b = min(a + COV_CHUNK, m)
+        Z = np.empty((n, k, b - a))
+        if var:
+            V = np.stack([own[j][a:b] for j in var], axis=2)  # (c, n, v)
+            C = np.matmul(Q.T, V)  # (c, kf, v)
+            Vt = V - np.matmul(Q, C)
+            ZV = np.matmul(Vt, np.linalg.inv(np.matmul(np.swapaxes(Vt, 1, 2), Vt)))  # (c, n, v)
+            D = np.matmul(Rinv, C)  # (c, kf, v): the shared coefficients' move per unit of V
+            ZS = Z0[None] - np.matmul(ZV, np.swapaxes(D, 1, 2))
+            Z[:, fixed] = np.moveaxis(ZS, 0, 2)
+            Z[:, var] = np.moveaxis(ZV, 0, 2)
+            lev = h0[:, None] + np.einsum("cnv,cnv->nc", ZV, Vt)
+        else:
+            Z[...] = Z0[:, :, None]
+            lev = np.broadcast_to(h0[:, None], (n, b - a))
+        errors = prewhitened_errors(E[:, a:b], lev)
+        out[a:b] = ar_covariances(Z, errors)
     return out
 
 

@@ -189,10 +189,14 @@ def draw_coefficients(params: pd.Series, cov: pd.DataFrame, n: int,
                       rng: np.random.Generator, fixed: list[str] | None = None) -> pd.DataFrame:
     """``n`` draws of the estimated coefficients from N(params, cov).
 
-    The covariance is factored by its eigen-decomposition with negative
-    eigenvalues (rounding) set to zero, so a nearly singular covariance still
-    gives draws. Coefficients named in ``fixed`` stay at their estimate in every
-    draw and the others are drawn conditionally on them (covariance
+    The draws are ``params + z S`` with ``S`` the covariance's symmetric square
+    root (:func:`sqrt_psd`, negative eigenvalues from rounding set to zero, so a
+    nearly singular covariance still gives draws): unlike the eigenvectors
+    themselves, whose signs LAPACK may choose either way for two covariances
+    equal to the last bits, it moves continuously with the covariance, so the
+    batched panel plan draws what the single-series plan draws. Coefficients
+    named in ``fixed`` stay at their estimate in every draw and the others are
+    drawn conditionally on them (covariance
     ``S_oo - S_of S_ff^-1 S_fo``; the conditional mean is the estimate, since
     the fixed ones sit at theirs).
 
@@ -215,10 +219,22 @@ def draw_coefficients(params: pd.Series, cov: pd.DataFrame, n: int,
         cond = c[np.ix_(o, o)] - s_of @ np.linalg.pinv(c[np.ix_(f, f)]) @ s_of.T
         c = np.zeros_like(c)
         c[np.ix_(o, o)] = cond
-    w, v = np.linalg.eigh(c)
-    root = v * np.sqrt(np.clip(w, 0.0, None))[None, :]
     z = rng.standard_normal((n, len(names)))
-    return pd.DataFrame(mu[None, :] + z @ root.T, columns=names)
+    return pd.DataFrame(mu[None, :] + z @ sqrt_psd(c), columns=names)
+
+
+def sqrt_psd(cov: np.ndarray) -> np.ndarray:
+    """The symmetric square root ``V diag(√w) Vᵀ`` of symmetric ``cov`` (..., k, k), ``w < 0`` taken as 0.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> r = sqrt_psd(np.array([[4.0, 0.0], [0.0, 9.0]]))
+    >>> r.round(12).tolist()
+    [[2.0, 0.0], [0.0, 3.0]]
+    """
+    w, v = np.linalg.eigh(cov)
+    return np.matmul(v * np.sqrt(np.clip(w, 0.0, None))[..., None, :], np.swapaxes(v, -1, -2))
 
 
 def _coef_draws(name: str, draws: pd.DataFrame, params: pd.Series, n: int) -> np.ndarray:
@@ -315,6 +331,102 @@ def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base
 _BLOCK_CELLS = 2**23
 
 
+def _order_quantiles(draws: np.ndarray, qs: tuple[float, ...], scale: Callable[[np.ndarray], np.ndarray],
+                     mean: np.ndarray | None = None, sd: np.ndarray | None = None) -> list[np.ndarray]:
+    """``np.quantile(scale(draws), q, axis=-1)`` for each ``q``, with ``scale`` applied to a few values only.
+
+    ``scale`` must be non-decreasing (elementwise), so the order statistics of
+    ``scale(draws)`` are ``scale`` of those of ``draws``: only the two order
+    statistics each quantile interpolates between (and the largest, where a
+    NaN would sort) are scaled. The order statistics come from
+    :func:`_order_stats` (``mean``, ``sd``: each lane's normal guide), the
+    interpolation is numpy's ``linear`` method, written as numpy writes it
+    (``_get_indexes`` and ``_lerp``), so the result is numpy's to the last bit.
+    ``draws`` may be reordered in place.
+    """
+    n = draws.shape[-1]
+    virtual = (n - 1) * np.asarray(qs, dtype=float)
+    prev = np.floor(virtual)
+    nxt = prev + 1
+    above = virtual >= n - 1
+    prev[above] = nxt[above] = -1
+    below = virtual < 0
+    prev[below] = nxt[below] = 0
+    gamma = virtual - prev  # numpy's weight, from the indexes after the bounds
+    prev, nxt = prev.astype(np.intp) % n, nxt.astype(np.intp) % n
+    ranks = np.unique(np.concatenate((prev, nxt)))
+    lanes = draws.reshape(-1, n)
+    stats, largest = _order_stats(lanes, ranks, None if mean is None else mean.ravel(),
+                                  None if sd is None else sd.ravel())
+    shape = draws.shape[:-1]
+    largest = scale(largest.reshape(shape))
+    out = []
+    for j in range(len(qs)):
+        a = scale(stats[:, np.searchsorted(ranks, prev[j])].reshape(shape))
+        b = scale(stats[:, np.searchsorted(ranks, nxt[j])].reshape(shape))
+        t = gamma[j]
+        diff_b_a = b - a
+        res = np.add(a, diff_b_a * t)
+        if t >= 0.5:
+            res = np.subtract(b, diff_b_a * (1 - t))
+        res = np.where(np.isnan(largest), largest, res)  # a NaN draw makes the quantile NaN, as in numpy
+        out.append(res)
+    return out
+
+
+#: how far (in binomial standard deviations) the bound of :func:`_order_stats` reaches past its ranks
+_BRACKET_SD = 4.0
+
+
+def _order_stats(x: np.ndarray, ranks: np.ndarray, mean: np.ndarray | None, sd: np.ndarray | None
+                 ) -> tuple[np.ndarray, np.ndarray]:
+    """The order statistics ``ranks`` of each row of ``x`` (L, n), exactly, and each row's largest value
+    (NaN where the row has a NaN; else any number).
+
+    With a guide (each row is draws of a normal of this ``mean`` and ``sd``), each
+    tail's ranks are found among the few values beyond a bound (chosen so that
+    they hold the ranks but for about 1e-4 of the rows): one comparison pass and
+    a sort of about 50 values a row, instead of selecting among all ``n``.
+    Rows where the bracket does not hold them (or with a NaN) are selected among
+    all their values (``np.partition``), as are all rows without a guide; the
+    result is the same either way.
+    """
+    from statistics import NormalDist
+
+    L, n = x.shape
+    out = np.empty((L, len(ranks)))
+    largest = np.zeros(L)
+    ok = np.zeros(L, dtype=bool)
+    if mean is not None and sd is not None and n >= 200:
+        ok = ~np.isnan(x).any(axis=-1)
+        for upper in (False, True):
+            which = ranks >= n / 2 if upper else ranks < n / 2
+            if not which.any():
+                continue
+            rt = (n - 1 - ranks[which]) if upper else ranks[which]  # ranks counted from this tail
+            r_max = int(rt.max())
+            p_in = min((r_max + 1 + _BRACKET_SD * np.sqrt(r_max + 1)) / n, 0.5)
+            bound = (mean + NormalDist().inv_cdf(p_in) * (-1 if upper else 1) * sd)[:, None]
+            near = x > bound if upper else x < bound  # the tail beyond the bound: its ranks if it holds them
+            n_near = near.sum(axis=-1)
+            ok &= n_near > r_max
+            vals = x[near]
+            width = max(int(n_near.max(initial=0)), 1)
+            pad = np.full((L, width), -np.inf if upper else np.inf)
+            starts = np.cumsum(n_near) - n_near
+            pad[np.repeat(np.arange(L), n_near), np.arange(len(vals)) - np.repeat(starts, n_near)] = vals
+            pad.sort(axis=-1)
+            pos = width - 1 - rt[None, :] if upper else rt[None, :]
+            out[:, which] = np.take_along_axis(pad, np.broadcast_to(pos, (L, len(rt))), axis=-1)
+    rest = np.flatnonzero(~ok)
+    if len(rest):
+        sub = x[rest]
+        sub.partition(np.unique(np.concatenate(([0, n - 1], ranks))), axis=-1)
+        out[rest] = sub[:, ranks]
+        largest[rest] = sub[:, -1]
+    return out, largest
+
+
 def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarray, const: np.ndarray,
                    sd: np.ndarray, open_share: np.ndarray, n_sims: int = 1000, seed: int = 0,
                    level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
@@ -327,30 +439,45 @@ def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarra
     ``sd`` (m,) is the noise's standard deviation. Every series takes the same
     standard normal numbers from ``seed`` as its single-series plan does, in the
     same order, so its interval does not depend on the other series of the
-    block, and equals the single-series plan's up to rounding.
+    block, and equals the single-series plan's up to rounding. The draws are
+    laid out last (series, periods, draws); in the log model only the order
+    statistics that give the quantiles are exponentiated (``exp`` keeps the order).
     """
     rng = np.random.default_rng(seed)
     m, n_periods, k = M.shape
     zc = rng.standard_normal((n_sims, k))
     zn = rng.standard_normal((n_sims, n_periods))
     c = (cov + np.swapaxes(cov, 1, 2)) / 2.0
-    w, v = np.linalg.eigh(c)
-    root = v * np.sqrt(np.clip(w, 0.0, None))[:, None, :]  # (m, k, k): draws are mu + zc root^T
+    root = sqrt_psd(c)  # (m, k, k), symmetric: draws are mu + zc root
     center = np.einsum("mk,mpk->mp", mu, M) + const
-    L = np.matmul(np.swapaxes(root, 1, 2), np.swapaxes(M, 1, 2))  # (m, k, periods)
+    Lt = np.matmul(M, root)  # (m, periods, k): the draws' level is center + Lt zc^T
+    zcT = np.ascontiguousarray(zc.T)
+    znT = np.ascontiguousarray(zn.T)  # (periods, draws)
     share = np.asarray(open_share, dtype=float)
     tail = (1.0 - level) / 2.0
     low, high = np.empty((m, n_periods)), np.empty((m, n_periods))
-    step = max(1, _BLOCK_CELLS // max(n_sims * n_periods, 1))
+    step = min(m, max(1, _BLOCK_CELLS // max(n_sims * n_periods, 1)))
+    # two working arrays for every chunk: a fresh array per chunk paid its page faults each time
+    eta_buf, noise_buf = np.empty(step * n_periods * n_sims), np.empty(step * n_periods * n_sims)
     for a in range(0, m, step):
         b = min(a + step, m)
-        eta = (zc @ np.swapaxes(L[a:b], 0, 1).reshape(k, -1)).reshape(n_sims, b - a, n_periods)
-        eta += center[None, a:b]
-        noise = sd[None, a:b, None] * zn[:, None, :]
+        cells = (b - a) * n_periods * n_sims
+        eta = np.matmul(Lt[a:b].reshape(-1, k), zcT, out=eta_buf[:cells].reshape(-1, n_sims))
+        eta = eta.reshape(b - a, n_periods, n_sims)
+        eta += center[a:b, :, None]
+        noise = np.multiply(sd[a:b, None, None], znT[None, :, :],
+                            out=noise_buf[:cells].reshape(b - a, n_periods, n_sims))
+        # each (series, period)'s draws are normal: their mean and sd guide the order statistics' search
+        spread = np.einsum("cpk,cpk->cp", Lt[a:b], Lt[a:b])
         if transform == "none":
-            y = share * eta + (share > 0) * noise
+            eta *= share[:, None]
+            noise *= (share > 0)[:, None]
+            y = np.add(eta, noise, out=eta)
+            guide_sd = np.sqrt(share**2 * spread + (share > 0) * sd[a:b, None] ** 2)
+            low[a:b], high[a:b] = _order_quantiles(y, (tail, 1.0 - tail), lambda x: x,
+                                                   share * center[a:b], guide_sd)
         else:
             eta += noise
-            y = share * np.exp(eta, out=eta)
-        low[a:b], high[a:b] = np.quantile(y, [tail, 1.0 - tail], axis=0)
+            low[a:b], high[a:b] = _order_quantiles(eta, (tail, 1.0 - tail), lambda x: share * np.exp(x),
+                                                   center[a:b], np.sqrt(spread + sd[a:b, None] ** 2))
     return low, high

@@ -28,7 +28,7 @@ from evcal.model.inputs import additive_design, calendar_terms, prepare
 from evcal.model.options import FitOptions
 from evcal.model.passes import exact_passes
 
-__all__ = ["Template", "Group", "group_info", "distinct_spans", "pattern_ids"]
+__all__ = ["Template", "Group", "group_info", "fit_matrix", "distinct_spans", "pattern_ids"]
 
 
 @dataclass
@@ -115,17 +115,37 @@ class Group:
     rows: np.ndarray  # bool over the panel's periods
     members: np.ndarray  # series positions
     info: GroupInfo
-    solve: SharedSolve | None
+    template: Template | None  # makes the fit matrix (fit_matrix) when the group is solved
     notes: list[str] = field(default_factory=list)
     offset: np.ndarray | None = None  # model-scale offset on the fit rows
     share: np.ndarray | None = None  # open share on the fit rows (additive model)
     curve: Any = None  # CurvedEvents on the panel's periods, when lifts are aggregated exactly
     refine_cache: dict[str, Any] = field(default_factory=dict)  # refine's group-level inputs, made once
+    _solve: SharedSolve | None = field(default=None, repr=False)
+
+    @property
+    def solve(self) -> SharedSolve:
+        """The factorised fit matrix, made when a unit first solves the group (not when the work is cut).
+
+        A gapped panel has a group per pattern of missing periods; made up front, every group's
+        factorisation (about 0.6 MB for 260 weeks x 65 columns) would be held before any unit ran.
+        """
+        if self._solve is None:
+            assert self.template is not None
+            self._solve = SharedSolve.of(fit_matrix(self.template, self.info, self.rows, self.origin))
+        return self._solve
+
+    def release(self) -> None:
+        """Drop the factorisation and refine's cache once every unit of the group has run (made again if
+        asked for)."""
+        self._solve = None
+        self.refine_cache = {}
 
 
 def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: float
-                ) -> tuple[GroupInfo, np.ndarray, np.ndarray, list[str]]:
-    """Fit rows, column statuses and the fit matrix for one observed pattern (prepare's last steps)."""
+                ) -> tuple[GroupInfo, np.ndarray, list[str]]:
+    """Fit rows and column statuses for one observed pattern (prepare's last steps; the fit matrix:
+    :func:`fit_matrix`)."""
     inp = template.inp
     rows = observed & inp.rows
     roles = inp.design.roles
@@ -149,10 +169,16 @@ def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: 
     info = GroupInfo(transform=template.transform, status=status, fitted_cols=fitted_cols,
                      base_columns=all_base, like_map=dict(inp.like_map), assumed=dict(inp.assumed), **terms,
                      spec=replace(inp.spec, trend_origin=origin), roles=dict(roles))
-    fit_X = X.loc[rows, fitted_cols]
+    return info, rows, status_notes(status)
+
+
+def fit_matrix(template: Template, info: GroupInfo, rows: np.ndarray, origin: float) -> np.ndarray:
+    """A group's regressors (``info.fitted_cols``) on its fit ``rows`` (additive: times the open share)."""
+    X = template.at_origin(origin)[0]
+    fit_X = X.loc[rows, info.fitted_cols]
     if template.transform == "none":
-        fit_X = additive_design(X[fitted_cols], inp).loc[rows]
-    return info, rows, fit_X.to_numpy(dtype=float), status_notes(status)
+        fit_X = additive_design(X[info.fitted_cols], template.inp).loc[rows]
+    return fit_X.to_numpy(dtype=float)
 
 
 #: a column's relative residual on the columns before it, above this, is independent without a doubt:

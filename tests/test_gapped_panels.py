@@ -172,3 +172,58 @@ def test_packed_groups_give_the_tables_of_their_own_units(fits):
     f_together = pd.concat([b.frame() for b in together.fitted], ignore_index=True)
     pd.testing.assert_frame_equal(f_own, f_together, check_exact=False, rtol=1e-13)
     assert (f_together["in_fit"] == np.isfinite(f_together["actual"])).all()
+
+
+def test_no_design_group_is_factorised_before_its_unit_runs_nor_kept_after(fits):
+    # a gapped panel has a design group per pattern of missing weeks: made when the work is cut, every
+    # group's factorisation (SharedSolve, about 0.6 MB for 260 weeks x 65 columns) was held before any
+    # unit ran and until the end, so the peak memory grew with the number of patterns. Now a group is
+    # factorised by the unit that solves it and released once its units have run.
+    import gc
+
+    from evcal.engine.batched import SharedSolve
+    from evcal.engine.packs import pack_units
+    from evcal.engine.run import plan_units
+    from evcal.engine.units import run_unit
+
+    def alive() -> int:
+        gc.collect()
+        return sum(isinstance(o, SharedSolve) for o in gc.get_objects())
+
+    cal, _, panel, pf = fits
+    held = alive()
+    units, _, groups = plan_units(panel, cal, pf.options)
+    assert len(groups) == N_SERIES
+    assert alive() - held == 0  # main: 5, one per pattern
+    packed = pack_units(list(units))
+    result = run_unit(packed[0])
+    assert alive() - held == 0  # main: 5 (the groups keep them)
+    assert all(not g.refine_cache for g in groups)
+    # asked again (a plan solving the block), a group makes its factorisation anew: the same numbers
+    assert len(result.params) == N_SERIES
+    assert groups[0].solve.X.shape == (int(groups[0].rows.sum()), len(groups[0].info.fitted_cols))
+
+
+def test_identification_from_the_designs_values_equals_the_frames(fits):
+    # the engine checks every pattern on the design's values taken out once (FrameValues) instead of the
+    # frame: every status, note and strength number must be the frame's, exactly
+    from evcal.engine.run import plan_units
+    from evcal.model.identify import FrameValues, check_columns, rows_values
+
+    cal, _, panel, pf = fits
+    _, _, groups = plan_units(panel, cal, pf.options)
+    for g in groups:
+        tpl = g.template
+        X = tpl.at_origin(g.origin)[0]
+        values = FrameValues.of(X)
+        cols = list(g.info.fitted_cols)
+        assert np.array_equal(rows_values(values, g.rows, cols), X.loc[g.rows, cols].to_numpy(dtype=float))
+        base = [c for c in cols if g.info.roles[c] in ("trend", "seasonal")]
+        candidates = [c for c in tpl.inp.status if tpl.inp.status[c].status not in ("assumed", "like")]
+        by_frame = check_columns(X, g.rows, base, candidates, g.info.roles, cal)
+        by_values = check_columns(values, g.rows, base, candidates, g.info.roles, cal)
+        assert repr(by_values) == repr(by_frame)
+        own = {c: st.status for c, st in g.info.status.items() if c in by_values}
+        assert {c: st.status for c, st in by_values.items()} == own
+    with pytest.raises(KeyError, match="not in the design"):
+        rows_values(FrameValues.of(X), g.rows, ["no such column"])

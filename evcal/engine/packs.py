@@ -164,6 +164,9 @@ def run_pack(pack: PackUnit) -> UnitResult:
             classes.setdefault((_info_key(t.info), id(t.ctx.columns)), []).append(t)
             order.append(np.asarray(t.sids))
         results.append(unit_result(u, solved, BlockTables(Columns(), Columns(), Columns(), [], Columns())))
+        # the group is wholly in this pack: its factorisation goes now, not with the pack (what the
+        # tables still need of it, the seasonal contrasts' Z, their inputs hold)
+        u.shared.group.release()
     parts = [_merged_tables(ts) for ts in classes.values()]
     # every series' rows in the order the groups' own units would give them
     first = np.concatenate(order) if order else np.zeros(0, dtype=int)

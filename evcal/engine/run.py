@@ -20,7 +20,6 @@ import pandas as pd
 
 from evcal.effects import SpanContext
 from evcal.effects.columns import join_tables
-from evcal.engine.batched import SharedSolve
 from evcal.engine.groups import Group, Template, distinct_spans, group_info, pattern_ids
 from evcal.engine.memory import release_freed_memory
 from evcal.engine.packs import pack_units
@@ -121,13 +120,13 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
             tpl = template(tr)
             origin = float(origins[gid_local == gl][0])
             observed = ~np.isnan(panel.values[:, members[0]])
-            info, rows, Xf, notes = group_info(tpl, calendar, observed, origin)
-            n_fit, k = Xf.shape
+            info, rows, notes = group_info(tpl, calendar, observed, origin)
+            n_fit, k = int(rows.sum()), len(info.fitted_cols)
             if n_fit <= k:
                 screen.skip(members, "too few periods for the model",
                             f"{n_fit} periods in the fit for {k} coefficients")
                 continue
-            g = Group(len(groups), tr, origin, rows, members, info, SharedSolve.of(Xf), notes,
+            g = Group(len(groups), tr, origin, rows, members, info, tpl, notes,
                       offset=tpl.inp.offset.to_numpy()[rows],
                       share=tpl.inp.design.open_share.to_numpy()[rows], curve=tpl.curve())
             groups.append(g)

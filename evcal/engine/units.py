@@ -19,6 +19,7 @@ from evcal.engine.batched import SharedSolve
 from evcal.engine.groups import Group
 from evcal.engine.series import fit_series
 from evcal.io.history import History
+from evcal.model.estimators import contrast_variances
 from evcal.model.identify import breakdown
 from evcal.model.inputs import load_calendar_any
 from evcal.model.options import FitOptions
@@ -195,13 +196,15 @@ def solved_inputs(unit: BatchUnit) -> tuple[BlockSolve, list[TablesInput]]:
     curved_all = refined.curved if refined is not None else {}
     keep = ~solved.broken
     col_of = {c: i for i, c in enumerate(g.info.fitted_cols)}
+    Z = g.solve.Z  # only this of the factorisation is kept for the tables (the group may be released)
 
     def season_var(pick: Any) -> Any:
         """The seasonal contrasts' variances of the series ``pick``, from the block's first-pass design
         (the seasonal columns' covariance hardly depends on each series' exact event columns)."""
         sub = errors.take(pick)
         def variances(names: tuple[str, ...], C: np.ndarray) -> np.ndarray:
-            return g.solve.contrast_variances(sub, np.array([col_of[c] for c in names], dtype=int), C)
+            # SharedSolve.contrast_variances
+            return contrast_variances(Z[:, np.array([col_of[c] for c in names], dtype=int)], sub, C)
 
         return variances
 
@@ -249,7 +252,11 @@ def run_batch(unit: BatchUnit) -> UnitResult:
     """Solve a block of series that share a design, then build their tables."""
     solved, inputs = solved_inputs(unit)
     tables = concat_tables([t.tables() for t in inputs], columns=True)
-    return unit_result(unit, solved, tables)
+    out = unit_result(unit, solved, tables)
+    g = unit.shared.group
+    if not unit.keep_models and len(unit.sids) == len(g.members):  # no other unit solves this group
+        g.release()
+    return out
 
 
 def _broken(g: Group, B: np.ndarray, se: np.ndarray, first: np.ndarray | None, y: np.ndarray) -> np.ndarray:

@@ -57,13 +57,38 @@ class ColumnStatus:
         return "no"
 
 
-def rows_values(X: pd.DataFrame, rows: np.ndarray, cols: list[str]) -> np.ndarray:
+@dataclass(frozen=True)
+class FrameValues:
+    """A design frame's float values, index and column positions, taken out of the frame once.
+
+    A panel checks one design on many fit-row patterns; the checks accept this in place of the frame,
+    so each pattern pays no label indexing and no conversion of the whole frame.
+    """
+
+    index: pd.Index
+    columns: pd.Index
+    values: np.ndarray
+    pos: dict[str, int]
+
+    @classmethod
+    def of(cls, X: pd.DataFrame) -> FrameValues:
+        return cls(X.index, X.columns, X.to_numpy(dtype=float), {c: i for i, c in enumerate(X.columns)})
+
+
+def rows_values(X: pd.DataFrame | FrameValues, rows: np.ndarray, cols: list[str]) -> np.ndarray:
     """``X.loc[rows, cols]`` as floats, without pandas' label indexing (a panel checks one design on
     many fit-row patterns: the indexing cost more than the arithmetic)."""
-    idx = X.columns.get_indexer(cols)
-    if (idx < 0).any():
-        raise KeyError(f"not in the design: {[c for c, i in zip(cols, idx, strict=True) if i < 0]}")
-    return X.to_numpy(dtype=float)[np.ix_(np.asarray(rows, dtype=bool), idx)]
+    if isinstance(X, FrameValues):
+        missing = [c for c in cols if c not in X.pos]
+        idx = np.array([X.pos[c] for c in cols if c in X.pos], dtype=np.intp)
+        values = X.values
+    else:
+        idx = X.columns.get_indexer(cols)
+        missing = [c for c, i in zip(cols, idx, strict=True) if i < 0]
+        values = X.to_numpy(dtype=float)
+    if missing:
+        raise KeyError(f"not in the design: {missing}")
+    return values[np.ix_(np.asarray(rows, dtype=bool), idx)]
 
 
 def _project_out(q: np.ndarray, a: np.ndarray) -> np.ndarray:
@@ -92,7 +117,8 @@ def _extend(q: np.ndarray, col: np.ndarray) -> np.ndarray:
     return np.column_stack([q, r / np.linalg.norm(r)])
 
 
-def independent_base_columns(X: pd.DataFrame, rows: np.ndarray, base_cols: list[str]) -> list[str]:
+def independent_base_columns(X: pd.DataFrame | FrameValues, rows: np.ndarray, base_cols: list[str]
+                             ) -> list[str]:
     """Trend/seasonal columns that are not constant-zero or collinear on the fitted rows.
 
     A weekday dummy for a day that is always closed, or a season dummy for a
@@ -110,8 +136,9 @@ def independent_base_columns(X: pd.DataFrame, rows: np.ndarray, base_cols: list[
 
 
 def check_columns(
-    X: pd.DataFrame, rows: np.ndarray, base_cols: list[str], candidate_cols: list[str],
-    kind_of: dict[str, str], calendar: Any = None, leave_out: Any = (), graded_on: pd.DataFrame | None = None,
+    X: pd.DataFrame | FrameValues, rows: np.ndarray, base_cols: list[str], candidate_cols: list[str],
+    kind_of: dict[str, str], calendar: Any = None, leave_out: Any = (),
+    graded_on: pd.DataFrame | FrameValues | None = None,
 ) -> dict[str, ColumnStatus]:
     """Classify each candidate (event and intervention) column, in priority order, on the fit ``rows``.
 

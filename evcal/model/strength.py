@@ -77,14 +77,15 @@ class Strength:
                 "vif_season": self.vif_season, "vif_events": self.vif_events, "within": self.within}
 
 
-def assess(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], terms: list[str],
+def assess(X: Any, rows: np.ndarray, fitted_cols: list[str], terms: list[str],
            roles: dict[str, str], calendar: Any) -> dict[str, Strength]:
     """Measure and grade each fitted event and intervention column in ``terms``.
 
     Parameters
     ----------
-    X : DataFrame
-        The design on every period (like-events already added onto their target).
+    X : DataFrame or FrameValues
+        The design on every period (like-events already added onto their target); or its values taken
+        out once (:class:`evcal.model.identify.FrameValues`).
     rows : ndarray of bool
         The fitted rows.
     fitted_cols : list of str
@@ -207,12 +208,9 @@ class _Windows:
             return
         self.freq_word = {"D": "daily", "W": "weekly", "M": "monthly", "Q": "quarterly"}.get(
             index.freqstr[0], "these")
-        first = index[0].start_time.normalize()
-        last = index[-1].end_time.normalize()
+        first, last, p0, p1 = _period_days(index)
         self.day0 = first
         n_days = (last - first).days + 1
-        p0 = (index.start_time.normalize() - first).days.to_numpy()
-        p1 = (index.end_time.normalize() - first).days.to_numpy()
         marks = np.zeros(n_days + 1, dtype=int)
         np.add.at(marks, p0[rows], 1)
         np.add.at(marks, p1[rows] + 1, -1)
@@ -260,6 +258,30 @@ class _Windows:
         return best, held_best
 
 
+#: the first and last day of the index graded last, and each period's first and last day from it
+_PERIOD_DAYS_CACHE: dict[int, tuple[pd.PeriodIndex, tuple[Any, ...]]] = {}
+
+
+def _period_days(index: pd.PeriodIndex) -> tuple[pd.Timestamp, pd.Timestamp, np.ndarray, np.ndarray]:
+    """The index's first and last day, and each period's first and last day as days from the first.
+
+    They depend on the index only (a panel grades one index for many fit-row patterns): computed once
+    per index and kept (with the index, so its id cannot be reused while kept).
+    """
+    hit = _PERIOD_DAYS_CACHE.get(id(index))
+    if hit is not None and hit[0] is index:
+        return hit[1]  # type: ignore[return-value]
+    first = index[0].start_time.normalize()
+    last = index[-1].end_time.normalize()
+    p0 = (index.start_time.normalize() - first).days.to_numpy()
+    p1 = (index.end_time.normalize() - first).days.to_numpy()
+    out = (first, last, p0, p1)
+    if len(_PERIOD_DAYS_CACHE) >= 8:
+        _PERIOD_DAYS_CACHE.clear()
+    _PERIOD_DAYS_CACHE[id(index)] = (index, out)
+    return out
+
+
 #: the calendar's windows of the spans graded last (a panel grades one span for many fit-row patterns)
 _WINDOWS_CACHE: dict[tuple[int, pd.Timestamp, pd.Timestamp], tuple[Any, tuple[np.ndarray, ...]]] = {}
 
@@ -290,7 +312,7 @@ def _calendar_windows(calendar: Any, first: pd.Timestamp, last: pd.Timestamp) ->
     return out
 
 
-def grade(X: pd.DataFrame, rows: np.ndarray, fitted_cols: list[str], status: dict[str, Any],
+def grade(X: Any, rows: np.ndarray, fitted_cols: list[str], status: dict[str, Any],
           roles: dict[str, str], calendar: Any) -> dict[str, Any]:
     """``status`` with each fitted term's :func:`assess` numbers, and the weak ones marked with their note.
 

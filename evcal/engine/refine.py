@@ -20,6 +20,7 @@ import numpy as np
 from evcal.design.curved import CurvedEvents
 from evcal.model.estimators import PrewhitenedErrors, ar_covariances, prewhitened_errors
 from evcal.model.passes import MAX_PASSES, THETA_TOL, beyond_days, joint_twins, theta_moved, theta_sources
+from evcal.model.secant import secant_step
 
 __all__ = ["refine"]
 
@@ -71,6 +72,8 @@ class Refined:
     #: (m,) series whose first pass asks an event for a bigger dip than its days hold
     #: (:func:`evcal.model.passes.beyond_days`): the caller fits them on their own, where the rule notes it
     beyond: np.ndarray | None = None
+    #: (m,) the passes each series took after the first (share-of-window) fit, at most MAX_PASSES
+    passes: np.ndarray | None = None
 
 
 def _group_basis(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray, idx: dict[str, int],
@@ -196,9 +199,12 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     theta = {c: B0[idx[c]].copy() for c in curved_cols}
     theta_in = {c: np.zeros(m) for c in curved_cols}
     active = np.ones(m, dtype=bool)
+    passes = np.zeros(m, dtype=int)
+    # each series' previous pass, input and output (n_curved, m), for its secant step (evcal.model.secant)
+    last_in, last_out = np.zeros((len(curved_cols), m)), np.zeros((len(curved_cols), m))
     for c in curved_cols:  # a flagged series keeps its linear columns (it is fitted again on its own)
         theta[c][beyond] = 0.0
-    for _ in range(MAX_PASSES):
+    for k in range(MAX_PASSES):
         sel = np.flatnonzero(active)
         if not len(sel):
             break
@@ -207,11 +213,19 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
             params[idx[c], sel] = bt[:, j]
         for c in curved_cols:
             theta_in[c][sel] = theta[c][sel]
+        passes[sel] += 1
         new = {c: np.where(beyond[sel], 0.0, params[idx[c], sel]) for c in curved_cols}
         moved = theta_moved(new, {c: theta[c][sel] for c in curved_cols})
-        for c in curved_cols:
-            theta[c][sel] = new[c]
         active[sel[moved < THETA_TOL]] = False
+        # the series still moving go on from the fixed point of each lift's line through its last two
+        # passes, as each would alone (evcal.model.passes.estimate_exact); after their first pass, from
+        # the pass's own output
+        x1 = np.stack([theta[c][sel] for c in curved_cols])
+        g1 = np.stack([new[c] for c in curved_cols])
+        nxt = g1 if k == 0 else secant_step(last_in[:, sel], last_out[:, sel], x1, g1)[0]
+        last_in[:, sel], last_out[:, sel] = x1, g1
+        for i, c in enumerate(curved_cols):
+            theta[c][sel] = nxt[i]
 
     # the final designs: residuals and the covariance of the term coefficients
     V, P, G = V_last, P_last, G_last  # built with theta_in
@@ -249,4 +263,4 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     sources = theta_sources(group.status, group.roles, group.like_map, cols)
     curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
     return Refined(params, resid, sigma2, se[order], cov[:, order][:, :, order], theta_in, curved, errors,
-                   beyond)
+                   beyond, passes)

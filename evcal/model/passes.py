@@ -371,9 +371,9 @@ def estimate_exact(history: Any, calendar: Any, options: FitOptions, inp: ModelI
         fixed = replace(options, errors="arima", arima_order=tuple(est.error_model["order"]))
     else:
         fixed = options
-    # passes of a model fitted alone (ARIMA errors, counts) are accelerated; OLS passes stay plain, as the
-    # batched passes of evcal.engine.refine run them, so a series gives the same fit on either path
-    mixer = Secant() if est.method != "ols" else None
+    # every model's passes take the secant step; OLS series take the same one in the batched passes of
+    # evcal.engine.refine (evcal.model.secant.secant_step), so a series gives the same fit on either path
+    mixer: Secant | None = Secant()
     plain: tuple[dict[str, float], list[float] | None] | None = None  # the last pass's own output
     for _ in range(MAX_PASSES):
         if not theta and levels is None:

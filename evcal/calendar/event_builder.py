@@ -7,6 +7,7 @@ needs occurrences of one length, a ``moved`` year must be a year the event occur
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 from typing import Any
 
@@ -17,8 +18,9 @@ from evcal.calendar.holidays_source import HolidaySource, HolidaySourceError
 from evcal.calendar.problem_log import ProblemLog
 from evcal.calendar.schema import EventModel, WhenModel
 from evcal.calendar.spec import EventSpec, MovedSpec
+from evcal.calendar.weekday_classes import SPLIT_RULES, class_event_name
 
-__all__ = ["DEFAULT_HOLIDAY_YEARS", "build_event", "build_rule"]
+__all__ = ["DEFAULT_HOLIDAY_YEARS", "build_event", "build_rule", "split_by_weekday"]
 
 # Years whose holiday names make up the public-holiday events when the block gives no
 # `years` bounds. Wide enough for any history or plan we expect; a choice, documented.
@@ -73,6 +75,13 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
         if ev.length is not None:
             log.add((*loc, "length"), "a span sets its own length from start to end; remove `length`")
         length = rule.max_length()
+    if kind == "bridge" and ev.length is not None:
+        log.add((*loc, "length"), "a bridge day is one day; remove `length`")
+        length = 1
+    if ev.by_weekday is not None and (kind not in SPLIT_RULES or ev.effect.kind != "estimate"):
+        log.add((*loc, "by_weekday"), "by_weekday is for estimated lifts of rules whose weekday changes "
+                f"from year to year ({', '.join(SPLIT_RULES)}), not a `{kind}` rule with effect "
+                f"{ev.effect.describe()}; remove it")
     if kind == "every_weekday" and ev.moved:
         log.add(
             (*loc, "moved"),
@@ -148,6 +157,8 @@ def build_rule(
     if kind == "dates" and not when.dates:
         log.add((*loc, "dates"), "the list of dates is empty; list at least one date")
         return None
+    if kind == "bridge":  # its target events are found once every event is built (loader.resolve_bridges)
+        return R.BridgeRule(str(when.bridge), source=source)
     if kind != "holiday":
         return _RULES[kind](getattr(when, kind))
     name = (when.holiday or "").strip()
@@ -176,3 +187,22 @@ def _years_text(spec: EventSpec) -> str:
         steps = ", ".join(str(years.start + k * years.every) for k in range(3))
         return f"{years.describe()}: {steps}, ..."
     return years.describe()
+
+
+def split_by_weekday(spec: EventSpec, ev: EventModel) -> list[EventSpec]:
+    """One event per ``by_weekday`` class (``xmas (weekend)``, ...), or ``[spec]`` without a split.
+
+    Examples
+    --------
+    >>> ev = EventModel.model_validate(
+    ...     {"name": "xmas", "when": {"fixed": "12-25"}, "by_weekday": ["weekend", "workday"]})
+    >>> [(e.name, e.on_weekdays) for e in split_by_weekday(build_event(ProblemLog({}), ev, 0, None), ev)]
+    [('xmas (weekend)', (5, 6)), ('xmas (workday)', (0, 1, 2, 3, 4))]
+    """
+    if ev.by_weekday is None:
+        return [spec]
+    return [
+        dataclasses.replace(spec, name=class_event_name(spec.name, cls), moved=dict(spec.moved),
+                            label=class_event_name(spec.label, cls), on_weekdays=days, split_of=spec.name)
+        for cls, days in ev.by_weekday
+    ]

@@ -183,8 +183,25 @@ class HolidaySource:
         """Days of ``name`` in ``year``, consecutive days merged into (start, end) runs."""
         return list(_runs(tuple(self._year(year).get(name, ()))))
 
+    def days(self, year: int) -> list[dt.date]:
+        """Every holiday of ``year``, substitute "(observed)" days included (they are days off too)."""
+        return sorted({d for days in self._year(year).values() for d in days})
+
+    def weekend(self) -> frozenset[int]:
+        """The country's weekend as the library has it (Python weekday numbers; Saturday and Sunday
+        unless the country rests on other days)."""
+        return _weekend(self.country, self.subdivision)
+
     def describe(self) -> str:
         return self.country + (f"/{self.subdivision}" if self.subdivision else "")
+
+
+@functools.lru_cache(maxsize=64)
+def _weekend(country: str, subdivision: str | None) -> frozenset[int]:
+    import holidays
+
+    table = holidays.country_holidays(country, subdiv=subdivision)
+    return frozenset(getattr(table, "weekend", None) or {5, 6})
 
 
 @functools.lru_cache(maxsize=8192)

@@ -15,12 +15,13 @@ right>`` in a :class:`~evcal.errors.CalendarError`.
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 from typing import Any
 
 from evcal.calendar import rules as R
 from evcal.calendar.core import Calendar, PublicHolidays
-from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event
+from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event, split_by_weekday
 from evcal.calendar.holidays_source import HolidaySource, HolidaySourceError, suggest
 from evcal.calendar.problem_log import ProblemLog
 from evcal.calendar.schema import (
@@ -33,6 +34,7 @@ from evcal.calendar.schema import (
 )
 from evcal.calendar.spec import EventSpec, ExclusionSpec, InterventionSpec
 from evcal.calendar.value_parsers import parse_effect, show
+from evcal.calendar.weekday_classes import class_event_name
 from evcal.calendar.yamlread import Problem, read_yaml
 from evcal.errors import CalendarError
 
@@ -139,14 +141,19 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
     holiday_names = [e.name for e in public.events] if public is not None else []
     _check_names(log, raw_events, holiday_names)
     events: list[EventSpec] = []
+    item_of: dict[str, int] = {}  # event name -> its item in `events:` (for the key of a problem)
     for i, raw in enumerate(raw_events):
         ev = log.validate(EventModel, raw, ("events", i), partial=True)
         spec = build_event(log, ev, i, holidays) if ev is not None else None
-        if spec is not None:
-            events.append(spec)
+        if spec is not None and ev is not None:
+            for part in split_by_weekday(spec, ev):
+                _check_class_name(log, part, i, raw_events, holiday_names, item_of)
+                events.append(part)
+                item_of[part.name] = i
     if public is not None:
         events += [e for e in public.events if e.name not in {x.name for x in events}]
-    _check_like(log, raw_events, holiday_names)
+    events = resolve_bridges(log, events, item_of, holidays)
+    _check_like(log, raw_events, holiday_names, {e.split_of for e in events if e.split_of})
 
     interventions: list[InterventionSpec] = []
     for i, raw in enumerate(_items(data, "interventions")):
@@ -218,6 +225,60 @@ def _public_holidays(
     return source, PublicHolidays(source, tuple(name_years), events)
 
 
+def _check_class_name(log: ProblemLog, part: EventSpec, i: int, raw_events: list[Any],
+                      holiday_names: list[str], item_of: dict[str, int]) -> None:
+    """A weekday class's event name (``xmas (weekend)``) must not be another event's name."""
+    if part.split_of is None:
+        return
+    others = {raw.get("name", "").strip() for raw in raw_events if isinstance(raw, dict)
+              and isinstance(raw.get("name"), str)} | set(holiday_names) | set(item_of)
+    if part.name in others:
+        log.add(("events", i, "by_weekday"), f"its class event '{part.name}' has the name of another event; "
+                "rename one of them")
+
+
+def resolve_bridges(log: ProblemLog, events: list[EventSpec], item_of: dict[str, int],
+                    source: HolidaySource | None) -> list[EventSpec]:
+    """``events`` with each ``bridge:`` rule pointed at its target events (problems go to ``log``).
+
+    The target is an event of the calendar (a file event, a public holiday, or an event split
+    ``by_weekday``: all its classes) or ``public_holidays``; not the bridge itself, not another bridge.
+    """
+    by_name: dict[str, list[EventSpec]] = {}
+    for e in events:
+        by_name.setdefault(e.name, []).append(e)
+        if e.split_of is not None:
+            by_name.setdefault(e.split_of, []).append(e)
+    out: list[EventSpec] = []
+    for spec in events:
+        rule = spec.when
+        if not isinstance(rule, R.BridgeRule):
+            out.append(spec)
+            continue
+        where = ("events", item_of.get(spec.name, 0), "when", "bridge")
+        target = rule.target
+        targets = by_name.get(target, [])
+        if target == R.PUBLIC_HOLIDAYS:
+            if source is None:
+                log.add(where, "there is no public_holidays block to take the holidays from; add one, e.g. "
+                        "public_holidays: {country: US}, or name an event of this calendar")
+                continue
+        elif target == spec.name:
+            log.add(where, "a bridge cannot point at itself; name the holiday it bridges, or public_holidays")
+            continue
+        elif not targets:
+            near = suggest(target, [*by_name, R.PUBLIC_HOLIDAYS], n=1)
+            hint = f"did you mean '{near[0]}'?" if near else "name an event of this file, or public_holidays"
+            log.add(where, f"'{target}' is not an event of this calendar; {hint}")
+            continue
+        elif any(isinstance(t.when, R.BridgeRule) for t in targets):
+            log.add(where, f"'{target}' is itself a bridge; point at the holiday it bridges, or at "
+                    "public_holidays")
+            continue
+        out.append(dataclasses.replace(spec, when=R.BridgeRule(target, tuple(targets), source)))
+    return out
+
+
 def _check_names(log: ProblemLog, raw_events: list[Any], holiday_names: list[str]) -> None:
     """Duplicate event names, also against the public-holiday events."""
     first: dict[str, int | None] = {}
@@ -242,7 +303,7 @@ def _check_names(log: ProblemLog, raw_events: list[Any], holiday_names: list[str
         first.setdefault(name, log.line(where))
 
 
-def _check_like(log: ProblemLog, raw_events: list[Any], holiday_names: list[str]) -> None:
+def _check_like(log: ProblemLog, raw_events: list[Any], holiday_names: list[str], split: set[str]) -> None:
     """``like:`` must name another event, and must not go round in a circle."""
     likes: dict[str, tuple[int, str | None]] = {}
     names = list(holiday_names)
@@ -262,6 +323,9 @@ def _check_like(log: ProblemLog, raw_events: list[Any], holiday_names: list[str]
             continue
         if target == name:
             log.add(where, "an event cannot borrow its own lift; name another event")
+        elif target in split:
+            log.add(where, f"'{target}' is split by_weekday, so it has one lift per weekday class; name one "
+                    f"of them, e.g. '{class_event_name(target, 'weekend')}'")
         elif target not in names:
             near = suggest(target, names, n=1)
             hint = f"did you mean '{near[0]}'?" if near else "name an event of this calendar"

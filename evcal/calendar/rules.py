@@ -22,8 +22,8 @@ from __future__ import annotations
 import calendar as _stdcal
 import datetime as dt
 import functools
-from dataclasses import dataclass
-from typing import TYPE_CHECKING, NamedTuple, Protocol
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any, NamedTuple, Protocol
 
 from dateutil.easter import EASTER_ORTHODOX, EASTER_WESTERN, easter
 
@@ -199,3 +199,81 @@ class HolidayRule:
 
     def describe(self) -> str:
         return f"holiday '{self.name}' ({self.source.describe()})"
+
+
+#: Saturday and Sunday: the weekend when no public-holiday source says otherwise
+SAT_SUN = frozenset({5, 6})
+
+
+@dataclass(frozen=True, eq=False)
+class BridgeRule:
+    """The lone working day between a holiday and a weekend (or another holiday): a bridge day.
+
+    A day is a bridge day when it is a working day (not a weekend day, not a holiday), both its
+    neighbours are days off, and at least one neighbour is a day of ``target``: the Friday
+    after a Thursday holiday, the Monday before a Tuesday holiday. ``target`` is the name of an
+    event of the calendar (``targets`` are its specs, filled in once every event is built) or
+    ``public_holidays`` (every holiday of ``source``, substitute days included). Holidays of
+    ``source`` are days off whichever the target; its ``weekend`` is the weekend (Saturday and
+    Sunday without a source).
+    """
+
+    target: str
+    targets: tuple[Any, ...] = ()
+    source: HolidaySource | None = None
+    kind: str = "bridge"
+    _cache: dict[int, tuple[frozenset[dt.date], frozenset[dt.date]]] = field(
+        default_factory=dict, repr=False
+    )
+
+    @property
+    def everything(self) -> bool:
+        """Whether the target is every public holiday of the source."""
+        return self.target == PUBLIC_HOLIDAYS
+
+    def _days(self, year: int) -> tuple[frozenset[dt.date], frozenset[dt.date]]:
+        """(target days, every day off that is not a weekend) in ``year``."""
+        got = self._cache.get(year)
+        if got is None:
+            public = frozenset(self.source.days(year)) if self.source is not None else frozenset()
+            target: set[dt.date] = set(public) if self.everything else set()
+            for spec in self.targets:
+                for y in (year - 1, year, year + 1):  # occurrences that start in a neighbouring year
+                    for s, e, _ in spec.dated(y):
+                        target.update(s + dt.timedelta(days=k) for k in range((e - s).days + 1))
+            got = (frozenset(d for d in target if d.year == year), public)
+            self._cache[year] = got
+        return got
+
+    def weekend(self) -> frozenset[int]:
+        return self.source.weekend() if self.source is not None else SAT_SUN
+
+    def hits(self, year: int) -> list[Hit]:
+        weekend = self.weekend()
+        target: set[dt.date] = set()
+        off: set[dt.date] = set()
+        for y in (year - 1, year, year + 1):
+            t, p = self._days(y)
+            target |= t
+            off |= t | p
+        one = dt.timedelta(days=1)
+
+        def is_off(day: dt.date) -> bool:
+            return day.weekday() in weekend or day in off
+
+        found = {
+            day + step
+            for day in target
+            for step in (one, -one)
+            if (day + step).year == year and not is_off(day + step) and is_off(day + 2 * step)
+        }
+        return [Hit(day, day) for day in sorted(found)]
+
+    def describe(self) -> str:
+        what = f"public holidays ({self.source.describe()})" if self.everything and self.source else (
+            f"'{self.target}'")
+        return f"bridge days of {what}"
+
+
+#: the ``bridge:`` value that means every public holiday of the calendar's source
+PUBLIC_HOLIDAYS = "public_holidays"

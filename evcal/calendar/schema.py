@@ -35,6 +35,7 @@ from evcal.calendar.value_parsers import (
     parse_years,
     show,
 )
+from evcal.calendar.weekday_classes import parse_classes
 
 #: Each rule key of ``when``, and what its value must be (for ``easter:`` left empty or null).
 RULE_VALUES = {
@@ -46,6 +47,7 @@ RULE_VALUES = {
     "span": 'the first and last month-day, e.g. span: {start: "12-24", end: "01-01"}',
     "every_weekday": "one or more weekdays, e.g. every_weekday: [sun]",
     "dates": "at least one date, e.g. dates: [2024-03-29]",
+    "bridge": "an event name or public_holidays, e.g. bridge: public_holidays",
 }
 RULE_KEYS = tuple(RULE_VALUES)
 MAX_DAYS = 366  # longest occurrence, run-up, run-down or offset, in days
@@ -97,6 +99,12 @@ def _weekday_list(value: Any) -> tuple[int, ...]:
     return tuple(sorted({parse_weekday(v) for v in items}))
 
 
+def _bridge_target(value: str) -> str:
+    if not value.strip():
+        raise ValueError("`bridge` names no event; write an event name or public_holidays")
+    return value.strip()
+
+
 Date = Annotated[dt.date, BeforeValidator(parse_date)]
 #: a date as the specs keep it (interventions, exclusions)
 Stamp = Annotated[pd.Timestamp, BeforeValidator(lambda v: pd.Timestamp(parse_date(v)))]
@@ -125,6 +133,8 @@ Length = Annotated[int, _bounded(1, MAX_DAYS, "a length in days")]
 Year = Annotated[int, AfterValidator(check_year)]
 Strength = Annotated[float, AfterValidator(_check_strength)]
 Decay = Annotated[float | None, AfterValidator(_check_decay)]
+#: ``by_weekday:`` as (class, weekdays) pairs (evcal.calendar.weekday_classes)
+WeekdayClasses = Annotated[tuple[tuple[str, tuple[int, ...]], ...], BeforeValidator(parse_classes)]
 
 # ------------------------------------------------------------------ models
 
@@ -190,6 +200,7 @@ class WhenModel(_Section):
     span: SpanModel | None = None
     every_weekday: Annotated[tuple[int, ...], BeforeValidator(_weekday_list)] | None = None
     dates: list[DateItem] | None = None
+    bridge: Annotated[str, AfterValidator(_bridge_target)] | None = None
     offset: Offset = 0
 
     @model_validator(mode="before")
@@ -236,6 +247,7 @@ class EventModel(_Section):
     skip: list[Year] = []
     moved: dict[Year, MovedItem] = {}
     effect: Effect = EffectSpec()
+    by_weekday: WeekdayClasses | None = None
 
 
 class PublicHolidaysModel(_Section):

@@ -129,6 +129,10 @@ class EventSpec:
     offset: int = 0
     line: int | None = None
     before_auto: bool = False  # `before: auto`: the fit chooses the run-up (``before`` is a stand-in)
+    #: ``by_weekday``: this event is one weekday class of the event ``split_of`` and keeps only the
+    #: occurrences that start on ``on_weekdays`` (Monday = 0)
+    on_weekdays: tuple[int, ...] | None = None
+    split_of: str | None = None
 
     @property
     def window_offsets(self) -> list[int]:
@@ -158,14 +162,16 @@ class EventSpec:
         """The occurrences of ``year`` as (start, end, strength), inclusive, without window."""
         if year in self.moved:
             m = self.moved[year]
-            return [(m.start.date(), m.end.date(), m.strength)]
+            out = [(m.start.date(), m.end.date(), m.strength)]
+            return out if self.on_weekdays is None or out[0][0].weekday() in self.on_weekdays else []
         shift = dt.timedelta(days=self.offset)
         span = dt.timedelta(days=self.length - 1)
         out = []
         for h in self._rule_hits(year):
             start = h.start + shift
             end = (h.end + shift) if h.end is not None else start + span
-            out.append((start, end, h.strength))
+            if self.on_weekdays is None or start.weekday() in self.on_weekdays:
+                out.append((start, end, h.strength))
         return out
 
 

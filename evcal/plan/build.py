@@ -184,7 +184,7 @@ def plan_periods(
         full_years=full_years(periods, result.label), last_year=dict(result.last_year or {}),
         average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
         interval_note=interval_note(n_sims), notes=notes, target_total=total, in_season=h.in_season,
-        result=result,
+        result=result, future={name: h.schedule.assumed[name] for name in h.future},
     )
 
 

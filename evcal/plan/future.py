@@ -86,8 +86,9 @@ def _pct(a: float) -> str:
     return f"{a * 100:+.4g}%"
 
 
-def future_changes(result: Any, cal: Any, periods: pd.PeriodIndex,
-                   last_day: pd.Timestamp | None = None) -> FutureChanges:
+def future_changes(
+    result: Any, cal: Any, periods: pd.PeriodIndex, last_day: pd.Timestamp | None = None
+) -> FutureChanges:
     """Sort the plan calendar's interventions into fitted, planned at an assumed size, and noted.
 
     ``last_day`` is the history's last day; None counts every intervention the fit has no
@@ -101,14 +102,18 @@ def future_changes(result: Any, cal: Any, periods: pd.PeriodIndex,
         if _fitted(result, iv.name):
             if assume:
                 size = _pct(iv.effect.assume or 0.0)
-                out.notes.append(f"intervention {iv.name}: effect {{assume: {size}}} is not used: "
-                                 "it starts inside the history, so the fit estimated it (its lift "
-                                 "and interval are in lifts.csv)")
+                out.notes.append(
+                    f"intervention {iv.name}: effect {{assume: {size}}} is not used: "
+                    "it starts inside the history, so the fit estimated it (its lift "
+                    "and interval are in lifts.csv)"
+                )
             continue
         after = last_day is None or iv.start > last_day
         if not after and iv.name not in in_fit:
-            out.notes.append(f"intervention {iv.name} starts inside the history ({start}) but the model was "
-                             "fitted without it, so it is not in the plan; fit again with this calendar")
+            out.notes.append(
+                f"intervention {iv.name} starts inside the history ({start}) but the model was "
+                "fitted without it, so it is not in the plan; fit again with this calendar"
+            )
             continue
         column = InterventionTerm.from_spec(iv).column(periods)
         out.handled.add(iv.name)
@@ -119,10 +124,11 @@ def future_changes(result: Any, cal: Any, periods: pd.PeriodIndex,
             a = float(iv.effect.assume or 0.0)
             out.columns[iv.name] = column
             out.assumed[iv.name] = a
-            out.texts[iv.name] = (f"{iv.name}: assumed {TYPE_WORDS[iv.type]} {_pct(a)} from {start} "
-                                  f"({where})")
+            out.texts[iv.name] = f"{iv.name}: assumed {TYPE_WORDS[iv.type]} {_pct(a)} from {start} ({where})"
         else:
-            out.notes.append(f"intervention {iv.name} {where} ({start}) and has no assumed size, so it is "
-                             "not in the plan; add `effect: {assume: N%}` to it in the calendar to plan it "
-                             "(e.g. {assume: -10%})")
+            out.notes.append(
+                f"intervention {iv.name} {where} ({start}) and has no assumed size, so it is "
+                "not in the plan; add `effect: {assume: N%}` to it in the calendar to plan it "
+                "(e.g. {assume: -10%})"
+            )
     return out

@@ -26,9 +26,11 @@ from evcal.cli import app
 from evcal.plan import make_plan
 
 sys.path.insert(0, str(Path(__file__).parent))
+import test_panel_plans_batched as batched_tests  # noqa: E402
 from test_plan import EASTER_CAL, monthly_history  # noqa: E402
 
 runner = CliRunner()
+panel_dir = batched_tests.panel_dir  # the invented panel's fitted folder (a fixture)
 SHIFT = "  - {name: price-rise, type: level_shift, start: 2024-04-01, effect: {assume: -10%}}\n"
 
 
@@ -211,3 +213,22 @@ def test_bad_effect_on_an_intervention_is_one_line(model_dir: Path, effect: str,
     assert lines[0].startswith(f"error: {cal}:5: ")  # the file, the intervention's line
     assert expect in lines[0]
     assert not out.exists()
+
+
+def test_panel_blocks_plan_a_future_change_as_the_single_series_plan(panel_dir: Path) -> None:
+    """Invented panel (tests/test_panel.py's products, weekly 2021-2023): the batched plan of a future
+    change gives the single-series plan's numbers, and 0.9 times the plan without it."""
+    from evcal.panel.planning import plan_panel
+
+    plan_cal, compare = batched_tests.PLAN_CAL, batched_tests._compare
+    future = plan_cal + SHIFT
+    kw = dict(n_sims=100, progress=False, series=["P01", "P02", "P04"])
+    a = plan_panel(panel_dir, "2024-01-01", "2024-12-31", calendar=future, **kw)
+    b = plan_panel(panel_dir, "2024-01-01", "2024-12-31", calendar=future, batched=False, **kw)
+    lifts = [c for c in a.columns if c.startswith("lift:")]
+    assert "lift:price-rise" in lifts
+    compare(a, b, ["base", "plan", *lifts], rtol=1e-9)
+    compare(a, b, ["low", "high"], rtol=1e-7)
+    c = plan_panel(panel_dir, "2024-01-01", "2024-12-31", calendar=plan_cal, **kw)
+    after = np.asarray(pd.DatetimeIndex(a["date"]) >= "2024-04-08")  # weeks wholly after the change
+    np.testing.assert_allclose(a["plan"].to_numpy()[after] / c["plan"].to_numpy()[after], 0.9, rtol=1e-9)

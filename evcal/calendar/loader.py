@@ -167,9 +167,10 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
             )
             continue
         decay = (0.7 if iv.decay is None else iv.decay) if iv.type == "temporary" else None
-        fields = iv.model_dump(exclude={"decay", "label"})
+        fields = iv.model_dump(exclude={"decay", "label", "effect"})
         line = log.line(("interventions", i))
-        interventions.append(InterventionSpec(**fields, decay=decay, label=iv.label or iv.name, line=line))
+        interventions.append(InterventionSpec(**fields, decay=decay, label=iv.label or iv.name, line=line,
+                                              effect=iv.effect))
     exclusions = [
         ExclusionSpec(**ex.model_dump(), line=log.line(("exclude", i)))
         for i, raw in enumerate(_items(data, "exclude"))

@@ -65,6 +65,15 @@ def _check_strength(value: float) -> float:
     return value
 
 
+def _intervention_effect(value: Any) -> EffectSpec:
+    """An intervention's ``effect``: ``estimate`` (the default) or ``{assume: N%}`` (its size in a plan)."""
+    effect = parse_effect(value)
+    if effect.kind not in ("estimate", "assume"):
+        raise ValueError(f"effect {effect.describe()} is for events; an intervention takes effect: "
+                         "{assume: N%} (its assumed size, e.g. {assume: -10%}) or effect: estimate")
+    return effect
+
+
 def _check_decay(value: float | None) -> float | None:
     if value is not None and not (math.isfinite(value) and 0 < value < 1):
         raise ValueError(
@@ -113,6 +122,7 @@ SpanDay = Annotated[tuple[int, int], BeforeValidator(lambda v: parse_month_day(v
 Weekday = Annotated[int, BeforeValidator(parse_weekday)]
 Years = Annotated[YearsSpec, BeforeValidator(parse_years)]
 Effect = Annotated[EffectSpec, BeforeValidator(parse_effect)]
+InterventionEffect = Annotated[EffectSpec, BeforeValidator(_intervention_effect)]
 Days = Annotated[int, _bounded(0, MAX_DAYS, "a number of days")]
 #: run-up days, or `auto`: chosen by the fit (Easter-relative events; evcal.model.choose)
 def _run_up(value: Any) -> int | str:
@@ -268,6 +278,7 @@ class InterventionModel(_Section):
     end: Stamp | None = None
     decay: Decay = None
     label: str | None = None
+    effect: InterventionEffect = EffectSpec()  # {assume: N%}: the size a plan gives it (evcal.plan)
 
     @model_validator(mode="after")
     def _consistent(self) -> InterventionModel:

@@ -186,6 +186,7 @@ class InterventionSpec:
     decay: float | None = None
     label: str = ""
     line: int | None = None
+    effect: EffectSpec = field(default_factory=EffectSpec)  # estimate, or {assume: x}: its size in a plan
 
 
 @dataclass(frozen=True)

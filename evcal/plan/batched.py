@@ -192,7 +192,10 @@ def _level_map(fit: BlockFit, h: Horizon, curved: dict[str, np.ndarray]) -> tupl
         if c in idx:
             M[:, :, idx[c]] = h.X[c].to_numpy(dtype=float)
     scale = np.ones((m, n))
-    for x, source, assumed in scheduled_terms(h.schedule, curved.__getitem__):
+    def column(c: str) -> np.ndarray:  # a future change is the same for every series
+        return curved[c] if c in curved else np.broadcast_to(h.X[c].to_numpy(dtype=float), (m, n))
+
+    for x, source, assumed in scheduled_terms(h.schedule, column):
         if assumed is None:
             if source in idx:
                 M[:, :, idx[source]] += x

@@ -18,7 +18,7 @@ model's trend, seasonal and intervention terms. What goes into the plan:
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -29,6 +29,8 @@ from evcal.design.matrix import build_design
 from evcal.effects import GroupInfo, SpanContext, closure_shares
 from evcal.effects.decompose import decompose_block
 from evcal.errors import PlanError
+from evcal.model.identify import ColumnStatus
+from evcal.plan.future import future_changes, history_last_day
 from evcal.plan.horizon import full_years, horizon_periods, period_dates, period_years
 from evcal.plan.result import Plan
 from evcal.plan.schedule import Schedule, resolve_schedule
@@ -165,9 +167,15 @@ def plan_periods(
     table, factors, target = spread(table, years, total, totals)
 
     notes = []
-    dropped = [t.name for t in result.spec.intervention_terms() if t.type not in PERSISTENT]
+    dropped = [t.name for t in result.spec.intervention_terms() if t.type not in PERSISTENT
+               and t.name not in h.handled]
     if dropped:
         notes.append(f"not planned (over before the horizon): {', '.join(dropped)}")
+    notes += h.notes
+    if h.future and (total is not None or totals is not None):
+        notes.append(f"the target keeps the total, so the assumed change of {', '.join(h.future)} moves "
+                     "volume between periods (the periods it touches lose share to the others) rather "
+                     "than changing the total")
     if err.kind == "arima":
         notes.append("the base includes the forecast of the ARIMA error from the end of the history")
     return Plan(
@@ -176,7 +184,7 @@ def plan_periods(
         full_years=full_years(periods, result.label), last_year=dict(result.last_year or {}),
         average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
         interval_note=interval_note(n_sims), notes=notes, target_total=total, in_season=h.in_season,
-        result=result,
+        result=result, future={name: h.schedule.assumed[name] for name in h.future},
     )
 
 
@@ -194,7 +202,10 @@ class Horizon:
 
     ``X`` holds the horizon's columns (event columns at the model's θ; the
     batched plan bends them per series), ``base_cols`` the columns that make the
-    base, ``events`` the events touching the horizon in order of first appearance.
+    base, ``events`` the events touching the horizon in order of first appearance
+    (with the ``future`` interventions planned at an assumed size: :mod:`evcal.plan.future`),
+    ``notes`` what the plan says about the calendar's interventions, ``handled``
+    the interventions taken out of the fitted design.
     """
 
     periods: pd.PeriodIndex
@@ -209,6 +220,14 @@ class Horizon:
     events: list[str]
     in_season: list[str]
     active: dict[str, str]
+    future: list[str] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    handled: set[str] = field(default_factory=set)
+
+    @property
+    def terms(self) -> list[str]:
+        """The columns the decomposition gives a part: the event columns, then the future changes."""
+        return self.event_cols + self.future
 
     def assumption_texts(self) -> list[str]:
         """The assumptions active in each period (the plan's ``assumptions`` column)."""
@@ -220,32 +239,43 @@ def horizon(result: Any, cal: Any, periods: pd.PeriodIndex, new_events: str = "e
     """The horizon's design, schedule and events for ``result`` (a model, or a design group's view of one)."""
     colmap = cal.event_columns()
     event_cols = [c for c, ev in colmap.items() if cal.event(ev).effect.kind != "zero"]
-    spec = replace(result.spec, event_columns=event_cols)
+    fc = future_changes(result, cal, periods, history_last_day(result))
+    spec = replace(result.spec, event_columns=event_cols,
+                   interventions=[d for d in result.spec.interventions if d["name"] not in fc.handled])
     design = build_design(spec, cal, periods)
     X = design.X.copy()
     schedule = resolve_schedule(result, cal, X[event_cols], new_events)
+    for name, column in fc.columns.items():  # known future changes: assumed, as assumed lifts are
+        X[name] = column
+        colmap = {**colmap, name: name}
+        schedule.columns.append(name)
+        schedule.assumed[name] = fc.assumed[name]
+        schedule.status[name] = ColumnStatus("assumed", fc.texts[name])
+        schedule.notes[name] = fc.texts[name]
     persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
     base_cols = [c for c in list(result.base_columns) + persistent if c in X.columns]
     closures = closure_shares(cal, periods)
     # which periods each event touches (its own columns, then its closures too)
-    on_own = X[event_cols].abs().gt(0).T.groupby(colmap).any().T
+    future = list(fc.columns)
+    on_own = X[event_cols + future].abs().gt(0).T.groupby(colmap).any().T
     on = pd.concat([on_own, closures.gt(0)], axis=1).T.groupby(level=0).any().T
     first = {ev: int(np.argmax(hit)) for ev, hit in on.items() if hit.any()}
     events = sorted(first, key=lambda e: (first[e], e))  # in order of first appearance
     # events whose effect the fit left inside the seasonal index: no lift of their own
     in_season = [ev for ev in events if ev not in closures.columns and all(
         schedule.status[c].status == "unidentifiable"
-        for c in event_cols if colmap[c] == ev)]
+        for c in event_cols + future if colmap[c] == ev)]
     active = {ev: note for ev, note in schedule.notes.items() if on_own[ev].any()}
     return Horizon(periods, X, design.open_share, closures, colmap, event_cols, schedule, base_cols, on_own,
-                   events, in_season, active)
+                   events, in_season, active, future, fc.notes, fc.handled)
 
 
 def plan_group(result: Any, h: Horizon) -> GroupInfo:
     """The decomposition's view of ``result`` on the horizon: the schedule's statuses, the plan's base."""
     info = GroupInfo.of_result(result)
     return replace(info, status=h.schedule.status, like_map=h.schedule.like_map, assumed=h.schedule.assumed,
-                   base_columns=h.base_cols + [ERROR_COLUMN])
+                   base_columns=h.base_cols + [ERROR_COLUMN],
+                   intervention_names=list(info.intervention_names) + h.future)
 
 
 def plan_parts(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
@@ -269,7 +299,7 @@ def plan_parts(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear:
     support = {c: np.flatnonzero(np.any(v != 0, axis=0)) for c, v in (curved or {}).items()}
     with np.errstate(over="ignore", invalid="ignore"):  # a non-finite plan is one line in the caller
         base, fitted, parts = decompose_block(ctx, group, pmap, np.ones(m), curved=curved,
-                                              curved_support=support, terms=h.event_cols)
+                                              curved_support=support, terms=h.terms)
     base, fitted = base * smear, fitted * smear
     lifts = {}
     for ev in h.events:

@@ -40,6 +40,9 @@ class Plan:
     in_season : list of str
         Events in the horizon whose effect the fit could not tell apart from the
         season (their ``lift:`` column is zero: the seasonal index holds them).
+    future : dict
+        Known future changes planned at an assumed size (:mod:`evcal.plan.future`):
+        intervention -> assumed change as a fraction; ``assumptions`` holds their texts.
     """
 
     table: pd.DataFrame
@@ -60,6 +63,7 @@ class Plan:
     target_total: float | None = None
     in_season: list[str] = field(default_factory=list)
     result: Any = field(default=None, repr=False)
+    future: dict[str, float] = field(default_factory=dict)
 
     @property
     def total(self) -> float:
@@ -86,8 +90,21 @@ class Plan:
                 write_csv(self.table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
             return path
         empty = pd.DataFrame()
-        model_tables = [getattr(self.result, name, empty) for name in ("lifts", "profile", "occurrences")]
-        return write_workbook(path, self.table, *model_tables)
+        lifts, profile, occurrences = [getattr(self.result, name, empty)
+                                       for name in ("lifts", "profile", "occurrences")]
+        return write_workbook(path, self.table, self._with_future(lifts), profile, occurrences,
+                              notes=self.notes)
+
+    def _with_future(self, lifts: pd.DataFrame) -> pd.DataFrame:
+        """The model's lifts plus a row per known future change, marked assumed as assumed lifts are."""
+        if not self.future:
+            return lifts
+        rows = pd.DataFrame([{"event": name, "lift_pct": 100.0 * a, "low_pct": 100.0 * a,
+                              "high_pct": 100.0 * a, "identifiable": "yes", "kind": "intervention",
+                              "label": name, "note": f"assumed in the plan calendar, not estimated: "
+                              f"{self.assumptions.get(name, name).split(': ', 1)[-1]}"}
+                             for name, a in self.future.items()])
+        return pd.concat([lifts, rows], ignore_index=True) if len(lifts.columns) else rows
 
 
 def output_path(path: str | Path, stem: str) -> Path:

@@ -57,6 +57,7 @@ def write_workbook(
     lifts: pd.DataFrame,
     profile: pd.DataFrame,
     occurrences: pd.DataFrame,
+    notes: list[str] | None = None,
 ) -> Path:
     """Write the four-sheet workbook (plus Notes) atomically; returns the path.
 
@@ -70,6 +71,8 @@ def write_workbook(
     lifts, profile, occurrences : DataFrame
         As in the model folder's ``lifts.csv``, ``profile.csv`` and
         ``occurrences.csv``. An empty frame gives a sheet with a note.
+    notes : list of str, optional
+        The plan's notes (what it left out and why), added to the Notes sheet.
 
     Returns
     -------
@@ -80,7 +83,7 @@ def write_workbook(
     wb.remove(wb.active)
     for name, frame in zip(SHEETS, (plan, lifts, profile, occurrences), strict=True):
         _write_sheet(wb.create_sheet(name), _with_date_column(frame))
-    _notes_sheet(wb.create_sheet("Notes"))
+    _notes_sheet(wb.create_sheet("Notes"), notes or [])
     out = Path(out_xlsx)
     with atomic_path(out) as tmp:
         wb.save(tmp)
@@ -185,7 +188,7 @@ def _display_len(value: object) -> int:
     return len(str(value))
 
 
-def _notes_sheet(ws: Worksheet) -> None:
+def _notes_sheet(ws: Worksheet, plan_notes: list[str]) -> None:
     ws.append(["About this workbook"])
     ws["A1"].font = Font(bold=True, size=13)
     for line in (
@@ -197,8 +200,9 @@ def _notes_sheet(ws: Worksheet) -> None:
         "the lift rests on too little to trust (its note says why).",
         "Seasonal index: the base profile over one cycle, mean 100.",
         "Past occurrences: what each past occurrence of an event added, in units and %.",
+        *(f"Plan note: {n}" for n in plan_notes),
     ):
-        ws.append([line])
+        ws.append([workbook_text(line)])
     ws.column_dimensions["A"].width = 110
     for row in ws.iter_rows(min_row=2):
         row[0].alignment = Alignment(wrap_text=True, vertical="top")

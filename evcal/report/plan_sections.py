@@ -11,6 +11,7 @@ Examples
 
 from __future__ import annotations
 
+import re
 from typing import Any
 
 import numpy as np
@@ -83,11 +84,15 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
     total = float(plan["plan"].sum())
     base_total = float(plan["base"].sum())
     share_rows = []
+    has_assump = "assumptions" in plan.columns
     for event in events:
         units = float(plan[f"lift:{event}"].fillna(0).sum())
         if units == 0:
             continue
-        note = "assumed lift" if event in ctx.assumed else ("closure" if event in ctx.closures else "")
+        # a known future change (evcal.plan.future) is assumed in the plan calendar, not in the model's
+        assumed = event in ctx.assumed or (has_assump and plan["assumptions"].str.contains(
+            f"(?:^|; ){re.escape(event)}: assumed ", regex=True).any())
+        note = "assumed lift" if assumed else ("closure" if event in ctx.closures else "")
         share_rows.append(
             [ctx.label(event), num(units), pct(units / total * 100 if total else np.nan, sign=False), note]
         )

@@ -30,7 +30,7 @@ import os
 import sys
 import tempfile
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
 
@@ -117,6 +117,25 @@ def _passes(seen: dict[str, Any]) -> str:
     return "; ".join(parts)
 
 
+def _alternate(fit: Callable[[str, int | None], tuple[float, pd.Series]], repeat: int,
+               each: Callable[[dict[str, tuple[float, pd.Series]]], None] | None = None
+               ) -> dict[str, tuple[float, pd.Series]]:
+    """Plain passes (limit 8) and the secant step in alternating order; prints each pair's CPU ratio.
+
+    ``each`` is called with every pair's results; the last pair's are returned.
+    """
+    ratios, got = [], {}
+    for r in range(repeat):
+        order = [("plain", 8), ("secant", None)] if r % 2 == 0 else [("secant", None), ("plain", 8)]
+        got = {label: fit(label, limit) for label, limit in order}
+        ratios.append(got["plain"][0] / got["secant"][0])
+        if each is not None:
+            each(got)
+    pairs = ", ".join(f"{x:.2f}" for x in ratios)
+    print(f"  CPU plain / secant per pair: {pairs}; median {np.median(ratios):.2f}")
+    return got
+
+
 def run_real(repeat: int) -> None:
     import evcal
 
@@ -135,18 +154,12 @@ def run_real(repeat: int) -> None:
             return cpu, res.lifts.set_index("event")["lift_pct"]
 
         _, fixed = fit("plain, 60", 60)
-        ratios = []
-        for r in range(repeat):
-            order = [("plain", 8), ("secant", None)] if r % 2 == 0 else [("secant", None), ("plain", 8)]
-            got = {label: fit(label, limit) for label, limit in order}
-            ratios.append(got["plain"][0] / got["secant"][0])
+        got = _alternate(fit, repeat)
         for label, (_, lifts) in got.items():
             gap = (lifts - fixed).abs()
             worst = gap.idxmax()
             print(f"    {label}: largest distance from the fixed point {gap.max():.4f} points ({worst}: "
                   f"{lifts[worst]:.3f} % vs {fixed[worst]:.3f} %)")
-        pairs = ", ".join(f"{x:.2f}" for x in ratios)
-        print(f"  CPU plain / secant per pair: {pairs}; median {np.median(ratios):.2f}")
 
 
 def run_panel(n_series: int, repeat: int) -> None:
@@ -182,16 +195,13 @@ def run_panel(n_series: int, repeat: int) -> None:
     print(f"panel benchmark data, {n_series} series (fit_long_panel, one BLAS thread):")
     fit("warm-up (secant)", None)
     _, fixed = fit("plain, 60", 60)
-    ratios = []
-    for r in range(repeat):
-        order = [("plain", 8), ("secant", None)] if r % 2 == 0 else [("secant", None), ("plain", 8)]
-        got = {label: fit(label, limit) for label, limit in order}
-        ratios.append(got["plain"][0] / got["secant"][0])
+
+    def distances(got: dict[str, tuple[float, pd.Series]]) -> None:
         for label, (_, lifts) in got.items():
             gap = (lifts - fixed).abs().max()
             print(f"    {label}: largest distance from the fixed point {gap:.4f} points")
-    pairs = ", ".join(f"{x:.2f}" for x in ratios)
-    print(f"  CPU plain / secant per pair: {pairs}; median {np.median(ratios):.2f}")
+
+    _alternate(fit, repeat, each=distances)
 
 
 def main() -> None:

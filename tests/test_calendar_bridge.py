@@ -11,19 +11,16 @@ from __future__ import annotations
 
 import calendar as pycal
 import datetime as dt
-import re
 
 import hypothesis.strategies as st
 import numpy as np
 import pandas as pd
 import pytest
+from calendar_problems import assert_one_problem
 from hypothesis import given, settings
-from typer.testing import CliRunner
 
 import evcal
 from evcal.calendar import load_calendar
-from evcal.cli import app
-from evcal.errors import CalendarError
 from evcal.plan.build import make_plan
 
 holidays = pytest.importorskip("holidays")
@@ -129,14 +126,7 @@ def test_bridge_days_follow_the_definition(days: set[dt.date]) -> None:
 def test_bad_bridge_is_one_line_with_file_line_and_key(tmp_path, body, line, key, words) -> None:
     path = tmp_path / "cal.yaml"
     path.write_text("name: t\nevents:\n" + body)
-    with pytest.raises(CalendarError) as err:
-        load_calendar(path)
-    assert len(err.value.problems) == 1, err.value.problems
-    assert err.value.problems[0].startswith(f"{path}:{line}: {key}: ")
-    assert words in err.value.problems[0]
-    result = CliRunner().invoke(app, ["calendar", "check", str(path)])
-    assert result.exit_code == 2 and "Traceback" not in result.output
-    assert re.search(rf"{re.escape(str(path))}:{line}: {re.escape(key)}: ", result.output)
+    assert_one_problem(path, line, key, words)
 
 
 def _invented_daily(lifts: dict[str, float], cal, seed: int = 7) -> pd.DataFrame:

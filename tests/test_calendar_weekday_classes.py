@@ -8,17 +8,14 @@ the lifts against an invented daily series with a known truth per class.
 from __future__ import annotations
 
 import datetime as dt
-import re
 
 import numpy as np
 import pandas as pd
 import pytest
-from typer.testing import CliRunner
+from calendar_problems import assert_one_problem
 
 import evcal
 from evcal.calendar import load_calendar
-from evcal.cli import app
-from evcal.errors import CalendarError
 from evcal.plan.build import make_plan
 
 holidays = pytest.importorskip("holidays")
@@ -77,14 +74,7 @@ def test_single_days_and_moved_occurrences() -> None:
 def test_bad_classes_are_one_line_with_file_line_and_key(tmp_path, body, line, key, words) -> None:
     path = tmp_path / "cal.yaml"
     path.write_text("name: t\nevents:\n  - name: h\n    when: {fixed: '12-25'}\n" + body)
-    with pytest.raises(CalendarError) as err:
-        load_calendar(path)
-    assert len(err.value.problems) == 1, err.value.problems
-    assert err.value.problems[0].startswith(f"{path}:{line}: {key}: ")
-    assert words in err.value.problems[0]
-    result = CliRunner().invoke(app, ["calendar", "check", str(path)])
-    assert result.exit_code == 2 and "Traceback" not in result.output
-    assert re.search(rf"{re.escape(str(path))}:{line}: {re.escape(key)}: ", result.output)
+    assert_one_problem(path, line, key, words)
 
 
 @pytest.mark.parametrize(("text", "line", "key", "words"), [
@@ -100,11 +90,7 @@ def test_bad_classes_are_one_line_with_file_line_and_key(tmp_path, body, line, k
 def test_bad_uses_of_classes(tmp_path, text, line, key, words) -> None:
     path = tmp_path / "cal.yaml"
     path.write_text("name: t\nevents:\n" + text)
-    with pytest.raises(CalendarError) as err:
-        load_calendar(path)
-    assert len(err.value.problems) == 1, err.value.problems
-    assert err.value.problems[0].startswith(f"{path}:{line}: {key}: ")
-    assert words in err.value.problems[0]
+    assert_one_problem(path, line, key, words, cli=False)
 
 
 def test_bridge_of_a_split_event_uses_all_its_classes() -> None:

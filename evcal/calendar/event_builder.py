@@ -42,6 +42,7 @@ _RULES = {
     "span": lambda s: R.SpanRule(*s.start, *s.end),
     "every_weekday": R.EveryWeekdayRule,
     "dates": lambda dates: R.DatesRule(tuple(R.Hit(d.start, d.end, d.strength) for d in dates)),
+    "file": lambda rule: rule,  # the loader has read the CSV into its rule (evcal.calendar.datefile)
 }
 
 
@@ -88,8 +89,8 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
             "every_weekday occurs on many days a year, so it cannot be moved; use skip and a `dates` "
             "event instead",
         )
-    if kind == "dates" and ev.years.kind != "all":
-        log.add((*loc, "years"), "a `dates` rule lists its own years; remove `years`")
+    if kind in ("dates", "file") and ev.years.kind != "all":
+        log.add((*loc, "years"), f"a `{kind}` rule lists its own years; remove `years`")
     if ev.shape == "daily":
         _check_daily(log, ev, loc, rule, length)
     auto = ev.before == "auto"

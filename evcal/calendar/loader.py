@@ -21,6 +21,7 @@ from typing import Any
 
 from evcal.calendar import rules as R
 from evcal.calendar.core import Calendar, PublicHolidays
+from evcal.calendar.datefile import SAVED_KEY, read_rule, saved_text
 from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event, split_by_weekday
 from evcal.calendar.holidays_source import HolidaySource, HolidaySourceError, suggest
 from evcal.calendar.problem_log import ProblemLog
@@ -72,12 +73,14 @@ def load_calendar(path_or_text: str | Path) -> Calendar:
     text, source = _read_source(path_or_text)
     data, lines, problems = read_yaml(text)
     log = ProblemLog(lines)
-    cal = None if problems else _read_calendar(data, source, log)
+    folder = Path(source).resolve().parent if source != "<text>" else None
+    files: dict[str, str] = {}  # date files read from disk (evcal.calendar.datefile), kept with the text
+    cal = None if problems else _read_calendar(data, source, log, folder, files)
     problems = problems or log.problems
     if problems:
         raise CalendarError([p.format(source) for p in sorted(problems, key=lambda p: (p.line or 0, p.path))])
     assert cal is not None
-    cal.text = text
+    cal.text = text + saved_text(files) if files else text
     return cal
 
 
@@ -108,8 +111,13 @@ def _read_source(path_or_text: str | Path) -> tuple[str, str]:
         raise CalendarError(f"{source}: cannot be read ({err.strerror}); check permissions") from None
 
 
-def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
-    """The calendar that ``data`` (the file's YAML, parsed) describes, or None when ``log`` has problems."""
+def _read_calendar(data: Any, source: str, log: ProblemLog, folder: Path | None = None,
+                   files: dict[str, str] | None = None) -> Calendar | None:
+    """The calendar that ``data`` (the file's YAML, parsed) describes, or None when ``log`` has problems.
+
+    ``folder`` is the calendar file's folder (date files are read relative to it); ``files``
+    collects the date files read from disk.
+    """
     if data is None:
         log.problems.append(
             Problem(1, "(top level)", "the file is empty; write at least `name:` and `events:`")
@@ -142,8 +150,11 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
     _check_names(log, raw_events, holiday_names)
     events: list[EventSpec] = []
     item_of: dict[str, int] = {}  # event name -> its item in `events:` (for the key of a problem)
+    saved = _saved_files(log, data)
     for i, raw in enumerate(raw_events):
         ev = log.validate(EventModel, raw, ("events", i), partial=True)
+        if ev is not None and ev.when.kind == "file":
+            ev = _with_file_rule(log, ev, i, folder, saved, files if files is not None else {})
         spec = build_event(log, ev, i, holidays) if ev is not None else None
         if spec is not None and ev is not None:
             for part in split_by_weekday(spec, ev):
@@ -179,6 +190,30 @@ def _read_calendar(data: Any, source: str, log: ProblemLog) -> Calendar | None:
     if log.problems:
         return None
     return Calendar(name, source, events, interventions, exclusions, public, weekday_profile=profile)
+
+
+def _saved_files(log: ProblemLog, data: dict[str, Any]) -> dict[str, str]:
+    """The ``saved_files:`` block evcal appends to a calendar's text (path -> the CSV's text)."""
+    saved = data.get(SAVED_KEY)
+    if saved is None:
+        return {}
+    if not isinstance(saved, dict) or not all(isinstance(k, str) and isinstance(v, str)
+                                              for k, v in saved.items()):
+        log.add((SAVED_KEY,), "is not a block of file paths and their text; remove it (evcal writes it into "
+                "the calendar a model folder keeps)")
+        return {}
+    return saved
+
+
+def _with_file_rule(log: ProblemLog, ev: EventModel, i: int, folder: Path | None, saved: dict[str, str],
+                    files: dict[str, str]) -> EventModel | None:
+    """``ev`` with its ``file:`` read into a rule (evcal.calendar.datefile), or None (problems in ``log``)."""
+    assert ev.when.file is not None
+    loc = ("events", i, "when", "file")
+    rule = read_rule(log, loc, ev.when.file.path, ev.when.file.where, ev.length or 1, folder, saved, files)
+    if rule is None:
+        return None
+    return ev.model_copy(update={"when": ev.when.model_copy(update={"file": rule})})
 
 
 def _items(data: dict[str, Any], section: str) -> list[Any]:

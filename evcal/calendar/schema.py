@@ -48,6 +48,8 @@ RULE_VALUES = {
     "every_weekday": "one or more weekdays, e.g. every_weekday: [sun]",
     "dates": "at least one date, e.g. dates: [2024-03-29]",
     "bridge": "an event name or public_holidays, e.g. bridge: public_holidays",
+    "file": "a CSV file of dates, e.g. file: school-holidays.csv, or file: {path: school-holidays.csv, "
+            "where: {region: north}}",
 }
 RULE_KEYS = tuple(RULE_VALUES)
 MAX_DAYS = 366  # longest occurrence, run-up, run-down or offset, in days
@@ -112,6 +114,26 @@ def _bridge_target(value: str) -> str:
     if not value.strip():
         raise ValueError("`bridge` names no event; write an event name or public_holidays")
     return value.strip()
+
+
+def _file_path(value: str) -> str:
+    if not value.strip():
+        raise ValueError("`file` names no file; write the CSV's path, e.g. file: school-holidays.csv")
+    return value.strip()
+
+
+def _file_where(value: Any) -> tuple[tuple[str, str], ...]:
+    """``where: {region: north}`` as ((column, value), ...): the rows of the file to keep."""
+    if not isinstance(value, dict) or not value:
+        raise ValueError(f"{show(value)} is not a filter; write the column and the value of the rows to "
+                         "keep, e.g. where: {region: north}")
+    out = []
+    for key, cell in value.items():
+        if isinstance(cell, (dict, list)) or cell is None or isinstance(key, (dict, list)):
+            raise ValueError(f"{show(key)}: {show(cell)} is not a column and one value; write e.g. "
+                             "where: {region: north}")
+        out.append((str(key).strip().lower(), str(cell).strip()))
+    return tuple(out)
 
 
 Date = Annotated[dt.date, BeforeValidator(parse_date)]
@@ -199,6 +221,18 @@ class SpanModel(_Section):
     end: SpanDay
 
 
+class FileModel(_Section):
+    """``file:``: a CSV of dates (evcal.calendar.datefile), relative to the calendar file's folder."""
+
+    path: Annotated[str, AfterValidator(_file_path)]
+    where: Annotated[tuple[tuple[str, str], ...], BeforeValidator(_file_where)] = ()
+
+    @model_validator(mode="before")
+    @classmethod
+    def _bare(cls, value: Any) -> Any:
+        return {"path": value} if isinstance(value, str) else value
+
+
 class WhenModel(_Section):
     """Exactly one rule key, plus an optional ``offset`` in days."""
 
@@ -211,6 +245,7 @@ class WhenModel(_Section):
     every_weekday: Annotated[tuple[int, ...], BeforeValidator(_weekday_list)] | None = None
     dates: list[DateItem] | None = None
     bridge: Annotated[str, AfterValidator(_bridge_target)] | None = None
+    file: FileModel | None = None
     offset: Offset = 0
 
     @model_validator(mode="before")
@@ -341,3 +376,4 @@ class CalendarModel(_Section):
     events: list[Any] | None = None
     interventions: list[Any] | None = None
     exclude: list[Any] | None = None
+    saved_files: Any = None  # written by evcal: the date files' text (evcal.calendar.datefile)

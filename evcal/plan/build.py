@@ -24,6 +24,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.calendar.datefile import coverage_notes
 from evcal.design.interventions import PERSISTENT
 from evcal.design.matrix import build_design
 from evcal.effects import GroupInfo, SpanContext, closure_shares
@@ -172,6 +173,7 @@ def plan_periods(
     if dropped:
         notes.append(f"not planned (over before the horizon): {', '.join(dropped)}")
     notes += h.notes
+    notes += coverage_notes(cal, periods[-1].end_time)  # date files that stop inside the horizon
     if h.future and (total is not None or totals is not None):
         notes.append(f"the target keeps the total, so the assumed change of {', '.join(h.future)} moves "
                      "volume between periods (the periods it touches lose share to the others) rather "

@@ -20,7 +20,13 @@ from evcal.calendar.schema import EventModel, WhenModel
 from evcal.calendar.spec import EventSpec, MovedSpec
 from evcal.calendar.weekday_classes import SPLIT_RULES, class_event_name
 
-__all__ = ["DEFAULT_HOLIDAY_YEARS", "build_event", "build_rule", "split_by_weekday"]
+__all__ = ["DEFAULT_HOLIDAY_YEARS", "DIP_SIDES", "build_event", "build_rule", "dip_event_name",
+           "split_by_weekday"]
+
+#: the keys that give an event a dip period with its own coefficient, and the side of its window
+DIP_SIDES = {"dip_after": "after", "dip_before": "before"}
+#: rules whose events cannot have a dip: a day every week has no "after", a bridge day is found later
+_NO_DIP_RULES = ("every_weekday", "bridge")
 
 # Years whose holiday names make up the public-holiday events when the block gives no
 # `years` bounds. Wide enough for any history or plan we expect; a choice, documented.
@@ -83,6 +89,9 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
         log.add((*loc, "by_weekday"), "by_weekday is for estimated lifts of rules whose weekday changes "
                 f"from year to year ({', '.join(SPLIT_RULES)}), not a `{kind}` rule with effect "
                 f"{ev.effect.describe()}; remove it")
+    for key in DIP_SIDES:
+        if getattr(ev, key) and (why := _no_dip(ev, kind)):
+            log.add((*loc, key), f"{key} is for an estimated lift with one column, not {why}; remove it")
     if kind == "every_weekday" and ev.moved:
         log.add(
             (*loc, "moved"),
@@ -129,6 +138,19 @@ def build_event(log: ProblemLog, ev: EventModel, i: int, source: HolidaySource |
             end = item.end or item.start + dt.timedelta(days=length - 1)
             spec.moved[year] = MovedSpec(pd.Timestamp(item.start), pd.Timestamp(end), item.strength)
     return spec
+
+
+def _no_dip(ev: EventModel, kind: str) -> str:
+    """Why this event cannot have a dip period ("" when it can)."""
+    if ev.effect.kind != "estimate":
+        return f"effect {ev.effect.describe()} (there is no fitted lift to net the dip against)"
+    if ev.shape == "daily":
+        return "shape daily (it has a coefficient per day already: lengthen `after` or `before` instead)"
+    if ev.by_weekday is not None:
+        return "an event split by_weekday (give each class its own event to add a dip)"
+    if kind in _NO_DIP_RULES:
+        return f"a `{kind}` rule (its days are not single occurrences with a day after)"
+    return ""
 
 
 def _check_daily(log: ProblemLog, ev: EventModel, loc: tuple[Any, ...], rule: R.Rule, length: int) -> None:
@@ -190,8 +212,14 @@ def _years_text(spec: EventSpec) -> str:
     return years.describe()
 
 
+def dip_event_name(event: str, side: str) -> str:
+    """The name of an event's dip period: ``promo (dip after)``, ``promo (dip before)``."""
+    return f"{event} (dip {side})"
+
+
 def split_by_weekday(spec: EventSpec, ev: EventModel) -> list[EventSpec]:
-    """One event per ``by_weekday`` class (``xmas (weekend)``, ...), or ``[spec]`` without a split.
+    """One event per ``by_weekday`` class (``xmas (weekend)``, ...), or ``[spec]`` without a split;
+    then the event's dip periods (``dip_after``, ``dip_before``), each an event of its own.
 
     Examples
     --------
@@ -201,7 +229,12 @@ def split_by_weekday(spec: EventSpec, ev: EventModel) -> list[EventSpec]:
     [('xmas (weekend)', (5, 6)), ('xmas (workday)', (0, 1, 2, 3, 4))]
     """
     if ev.by_weekday is None:
-        return [spec]
+        dips = [dataclasses.replace(spec, name=dip_event_name(spec.name, side),
+                                    label=dip_event_name(spec.label, side), length=getattr(ev, key), before=0,
+                                    after=0, shape="flat", before_auto=False, moved={}, dip_of=spec,
+                                    dip_side=side)
+                for key, side in DIP_SIDES.items() if getattr(ev, key)]
+        return [spec, *dips]
     return [
         dataclasses.replace(spec, name=class_event_name(spec.name, cls), moved=dict(spec.moved),
                             label=class_event_name(spec.label, cls), on_weekdays=days, split_of=spec.name)

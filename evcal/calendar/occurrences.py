@@ -68,6 +68,9 @@ def as_day(value: object, *, end: bool = False, what: str = "start") -> pd.Times
 
 
 def _max_length(ev: EventSpec) -> int:
+    if ev.dip_of is not None:  # a dip period sits next to its event's window, whose rule dates it
+        parent = ev.dip_of
+        return _max_length(parent) + parent.before + parent.after + abs(parent.offset) + ev.length
     lengths = [ev.length]
     if isinstance(ev.when, R.DatesRule):
         lengths += [(h.end - h.start).days + 1 for h in ev.when.items if h.end is not None]

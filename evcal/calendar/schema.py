@@ -293,6 +293,10 @@ class EventModel(_Section):
     moved: dict[Year, MovedItem] = {}
     effect: Effect = EffectSpec()
     by_weekday: WeekdayClasses | None = None
+    # pull-forward: days after (before) the event's window whose effect is estimated on its own
+    # (evcal.calendar.event_builder.dip_companions)
+    dip_after: Days = 0
+    dip_before: Days = 0
 
 
 class PublicHolidaysModel(_Section):

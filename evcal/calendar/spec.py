@@ -133,6 +133,11 @@ class EventSpec:
     #: occurrences that start on ``on_weekdays`` (Monday = 0)
     on_weekdays: tuple[int, ...] | None = None
     split_of: str | None = None
+    #: ``dip_after`` / ``dip_before``: this event is the dip period of the event ``dip_of`` (its own
+    #: coefficient, one occurrence per occurrence of that event): ``length`` days right after its
+    #: window (``dip_side`` "after") or right before it ("before")
+    dip_of: EventSpec | None = None
+    dip_side: Literal["after", "before"] | None = None
 
     @property
     def window_offsets(self) -> list[int]:
@@ -159,7 +164,18 @@ class EventSpec:
         return self.when.hits(year)
 
     def dated(self, year: int) -> list[tuple[dt.date, dt.date, float]]:
-        """The occurrences of ``year`` as (start, end, strength), inclusive, without window."""
+        """The occurrences of ``year`` as (start, end, strength), inclusive, without window.
+
+        A dip period's are its event's occurrences of ``year`` moved next to their windows (so a dip
+        may fall in the next or the previous year).
+        """
+        if self.dip_of is not None:
+            parent, days = self.dip_of, dt.timedelta(days=self.length)
+            if self.dip_side == "after":
+                gap = dt.timedelta(days=parent.after + 1)
+                return [(e + gap, e + gap + days - dt.timedelta(days=1), w) for _, e, w in parent.dated(year)]
+            gap = dt.timedelta(days=parent.before)
+            return [(s - gap - days, s - gap - dt.timedelta(days=1), w) for s, _, w in parent.dated(year)]
         if year in self.moved:
             m = self.moved[year]
             out = [(m.start.date(), m.end.date(), m.strength)]

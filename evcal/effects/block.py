@@ -17,6 +17,7 @@ import pandas as pd
 from evcal.design.seasonal import AnnualFourier, SeasonalDummies, cycle_length
 from evcal.effects.columns import Columns, tiled_text
 from evcal.effects.decompose import decompose_block
+from evcal.effects.netlift import NET_LIFT_COLUMNS, net_columns
 from evcal.effects.occurrences import Z95, occurrences_columns
 from evcal.effects.span import FittedBlock, GroupInfo, SpanContext
 
@@ -85,6 +86,8 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
 
     occ = occurrences_columns(ctx, group, parts, base, pmap, se_map, sids, curved, cov)
     lifts = lifts_columns(ctx, group, parts, base, pmap, se_map, occ, sids)
+    if ctx.dip_links:
+        _add_net(ctx, group, parts, base, pmap, se_map, cov, curved, occ, lifts, len(sids))
     profile = profile_columns(group, pmap, mean_base, sids, season_var)
     fitted_block = FittedBlock(sids, ctx.dates.to_numpy(),
                                {"actual": actual, "fitted": fitted, "base": base, **parts}, in_fit)
@@ -103,6 +106,22 @@ def block_tables(ctx: SpanContext, group: GroupInfo, params: np.ndarray, se: np.
     quality = Columns({"_sid": sids, "periods_fitted": n_ok.astype(int), "wape_pct": wape,
                        "resid_sd": sd, "mean_base": mean_base})
     return BlockTables(lifts, occ, profile, [fitted_block], quality)
+
+
+def _add_net(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
+             pmap: dict[str, np.ndarray], se_map: dict[str, np.ndarray], cov: np.ndarray | None,
+             curved: dict[str, np.ndarray], occ: Columns, lifts: Columns, m: int) -> None:
+    """The gross / dip / net columns (:mod:`evcal.effects.netlift`) added to the occurrences and lifts."""
+    added = np.asarray(occ["added_units"]).reshape(m, -1)
+    occ_net, lift_net = net_columns(ctx, group, parts, base, pmap, se_map, cov, curved, added)
+    for c, v in occ_net.items():
+        occ[c] = v.ravel()
+    events = list(dict.fromkeys(lifts["event"][: len(lifts["event"]) // m]))
+    dip_of = {d: link.event for link in ctx.dip_links for d in link.dips}
+    lifts["dip_of"] = tiled_text([dip_of.get(e, "") for e in events], m)
+    nan = np.full(m, np.nan)
+    for c in NET_LIFT_COLUMNS[1:]:
+        lifts[c] = np.column_stack([lift_net.get(e, {}).get(c, nan) for e in events]).ravel()
 
 
 def _pct(b: np.ndarray, transform: str, scale: np.ndarray | float) -> np.ndarray:

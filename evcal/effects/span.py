@@ -15,6 +15,7 @@ import pandas as pd
 
 from evcal.design.base import day_span, period_days
 from evcal.design.dayweights import aggregate_day_weights
+from evcal.effects.netlift import DipLink, dip_links
 
 __all__ = ["GroupInfo", "SpanContext", "OccGroup", "FittedBlock", "closure_shares"]
 
@@ -82,6 +83,7 @@ class SpanContext:
     in_fit: np.ndarray
     occs: pd.DataFrame = field(default_factory=pd.DataFrame)  # event, start, end (ISO dates) in order
     occ_groups: list[OccGroup] = field(default_factory=list)
+    dip_links: list[DipLink] = field(default_factory=list)  # events with dip periods (evcal.effects.netlift)
     columns: dict[str, np.ndarray] = field(init=False)  # design column -> (n,), taken out of the frame once
 
     def __post_init__(self, raw: pd.DataFrame) -> None:
@@ -107,6 +109,7 @@ class SpanContext:
         ctx = cls(periods, dates, raw, share, closure_shares(calendar, periods), in_fit)
         parts_cols = {c for c in status if c in ctx.columns} | set(ctx.closures.columns)
         ctx.occs, ctx.occ_groups = _occurrence_windows(calendar, ctx, parts_cols)
+        ctx.dip_links = dip_links(calendar, ctx.occs)
         starts = {t.name: pd.Timestamp(t.start) for t in getattr(calendar, "interventions", [])
                   if t.name in status and t.name in ctx.columns}
         if starts:

@@ -111,6 +111,7 @@ def describe(result: Any) -> str:
         lines.append(f"{str(r.event)[:28]:<28} {ident:<6} {_fmt(r.lift_pct):>8} {interval:>19} {units:>11}  "
                      f"{note}")
     lines.append(IDENT_LEGEND)
+    lines += _net_lines(result.lifts)
     if result.exclusions:
         lines.append("")
         for ex in result.exclusions:
@@ -122,3 +123,21 @@ def describe(result: Any) -> str:
     lines.append("Lifts are estimates from past data; intervals are 95 %. Decisions stay with the people "
                  "who own them.")
     return "\n".join(lines)
+
+
+def _net_lines(lifts: Any) -> list[str]:
+    """One line per event with dip periods: gross, dips and the net over its whole footprint."""
+    if "net_pct" not in getattr(lifts, "columns", ()):
+        return []
+    out = []
+    dips = lifts[lifts["dip_of"].fillna("").astype(str) != ""]
+    for r in lifts[lifts["event"].isin(set(dips["dip_of"]))].itertuples(index=False):
+        parts = ", ".join(f"{d.event} {_fmt(d.lift_pct)} %" for d in dips.itertuples(index=False)
+                          if d.dip_of == r.event)
+        net = "not measured" if _fmt(r.net_pct) == "" else (
+            f"{_fmt(r.net_pct)} % [{_fmt(r.net_low_pct)}, {_fmt(r.net_high_pct)}], "
+            f"{float(r.net_units_per_occurrence):,.0f} units per occurrence")
+        out.append(f"net     : {r.event}: {net} over its window and dip days (gross {_fmt(r.lift_pct)} %; "
+                   f"{parts})")
+    return out
+

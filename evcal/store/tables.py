@@ -33,7 +33,7 @@ class Table:
 
 
 LIFTS = Table(("event", "lift_pct", "low_pct", "high_pct", "units_per_occurrence", "identifiable", "note"),
-              ("event", "identifiable", "note", "kind", "label", "within"))
+              ("event", "identifiable", "note", "kind", "label", "within", "dip_of"))
 OCCURRENCES = Table(("event", "start", "end", "added_units", "added_pct"), ("event",), ("start", "end"))
 PROFILE = Table(("period", "index"), finite=("period", "index"))
 FITTED = Table(("date", "actual", "fitted", "base"), dates=("date",), finite=("fitted", "base"))

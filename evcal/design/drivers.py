@@ -63,14 +63,14 @@ class DriverTerm:
         values = pd.Series([np.nan if x is None else float(x) for x in d["values"]], index=index, dtype=float)
         return cls(d["name"], d["scale"], float(d["centre"]), values, pd.Period(d["last_history"], freq=freq))
 
-    def column(self, periods: pd.PeriodIndex, source: str = "the drivers") -> np.ndarray:
+    def column(self, periods: pd.PeriodIndex) -> np.ndarray:
         """The centred column on ``periods``; a period after the history without a value is an error."""
         v = self.values.reindex(periods).to_numpy(dtype=float)
         after = (periods > self.last_history) & ~np.isfinite(v)
         if after.any():
             missing = periods[after]
             more = f" (and {len(missing) - 1} more periods)" if len(missing) > 1 else ""
-            raise DriverError(f"{source}: driver {self.name!r} has no value for period {missing[0]}{more}; "
+            raise DriverError(f"driver {self.name!r} has no value for period {missing[0]}{more}; "
                               f"a plan needs the driver's future values: give a file with a date column and "
                               f"a {self.name!r} column covering every planned period (--drivers FILE)")
         x = on_scale(v, self.scale) - self.centre
@@ -83,10 +83,9 @@ class Drivers:
     """Every driver of a design as one block, a column each (named as the driver)."""
 
     terms: tuple[DriverTerm, ...]
-    source: str = "the drivers"
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
-        data = {t.name: t.column(periods, self.source) for t in self.terms}
+        data = {t.name: t.column(periods) for t in self.terms}
         return pd.DataFrame(data, index=periods, columns=[t.name for t in self.terms])
 
 

@@ -58,3 +58,18 @@ def driver_table(result: Any) -> pd.DataFrame:
                      "mean_abs_units": float(np.nanmean(np.abs(part))),
                      "identifiable": ident, "note": getattr(st, "note", "") or ""})
     return pd.DataFrame(rows, columns=DRIVER_COLUMNS)
+
+
+def describe_drivers(result: Any) -> str:
+    """The drivers' lines of the fit's summary: coefficient, interval and the effect of the table's change."""
+    lines = ["outside drivers (drivers.csv):"]
+    for row in driver_table(result).itertuples():
+        what = "elasticity" if row.scale == "log" and result.transform != "none" else "coefficient"
+        effect = "" if not np.isfinite(row.effect_pct) else (
+            f"; a {row.change}: {row.effect_pct:+.1f}% "
+            f"[{row.effect_low_pct:+.1f}, {row.effect_high_pct:+.1f}]")
+        lines.append(f"  {row.driver} ({row.scale}): {what} {row.coefficient:.3f} "
+                     f"[{row.low:.3f}, {row.high:.3f}]{effect}; "
+                     f"moves sales {row.mean_abs_units:,.0f} units a period on average"
+                     + (f" ({row.identifiable}: {row.note})" if row.identifiable != "yes" else ""))
+    return "\n".join(lines)

@@ -115,10 +115,16 @@ def fit_cmd(
     group_col: str = typer.Option(None, "--group-col", help="Column grouping series for pooled lifts."),
     workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
+    driver: list[str] = typer.Option(
+        None, "--driver", help="An outside driver: a numeric column of the history, NAME (as it is) or "
+        "NAME:log (entered as its log: an elasticity); repeat for several."),
     force: Force = False,
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
     panel = bool(series_col or level or group_col or workers or scheduler)
+    if panel and driver:
+        raise EvcalError("--driver: outside drivers are fitted for a single series only so far; fit each "
+                         "series alone, or leave --driver out for the panel")
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                           trading_days, allow_negative, leap_year)
@@ -135,10 +141,22 @@ def fit_cmd(
     from evcal.engine import fit
     from evcal.model.summary import describe
 
-    result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq, **options)
+    source: Any = history
+    if driver:
+        from evcal.io import read_history
+
+        source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
+                              allow_negative=allow_negative, drivers=driver)
+    result = fit(source, calendar, date_col=date_col, value_col=value_col, freq=freq, **options)
     result.save(out)
     typer.echo(describe(result))
-    typer.echo(f"\nwrote {out}/ (model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv)")
+    files = "model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv"
+    if result.spec.drivers:
+        from evcal.model.drivers import describe_drivers
+
+        typer.echo(describe_drivers(result))
+        files += ", drivers.csv"
+    typer.echo(f"\nwrote {out}/ ({files})")
 
 
 @command("show")
@@ -179,12 +197,17 @@ def plan_cmd(
     allocate: str | None = typer.Option(
         None, "--allocate", help="Panel models: spread the plan over this child panel model."),
     workers: int | None = typer.Option(None, "--workers", help="Panel models: plan on N processes."),
+    drivers: str | None = typer.Option(
+        None, "--drivers",
+        help="Outside drivers' future values: a file with a date column and one column per driver."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
     from evcal.panel.result import is_panel_dir
 
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
+        if drivers:
+            raise PlanError("--drivers: panel models have no outside drivers; leave --drivers out")
         from evcal.panel.planning import plan_panel_cmd
 
         return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
@@ -194,7 +217,7 @@ def plan_cmd(
     kind = "compare" if compare_cal else "plan"
     if Path(out).suffix.lower() not in (".csv", ".xlsx"):  # refused before any work
         raise PlanError(f"--out {out}: unknown file type; write {kind}.csv or {kind}.xlsx")
-    check_output(out, kind, inputs=[model_dir, calendar, totals, compare_cal, allocate], force=force)
+    check_output(out, kind, inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers], force=force)
     from evcal.model import load_model
     from evcal.plan import compare, make_plan
 
@@ -208,7 +231,7 @@ def plan_cmd(
         typer.echo(cmp.summary())
         typer.echo(f"\nwrote {out} (date, plan_a, plan_b, difference; last row: totals)")
         return
-    plan = make_plan(result, start, end, calendar=calendar, **options)
+    plan = make_plan(result, start, end, calendar=calendar, drivers=drivers, **options)
     plan.save(out)
     typer.echo(plan.summary())
     typer.echo(f"\nwrote {out} ({len(plan.table)} periods)")

@@ -14,6 +14,7 @@ from typing import Any
 import pandas as pd
 
 from evcal.design.base import Block
+from evcal.design.drivers import Drivers, DriverTerm
 from evcal.design.events import EventColumns, OpenShare
 from evcal.design.interventions import Interventions, InterventionTerm
 from evcal.design.seasonal import (
@@ -54,12 +55,14 @@ class DesignSpec:
     weekday_weights: dict[str, Any] = field(default_factory=dict)
     # a season that drifts (evcal.design.seasonal.SeasonDrift): the year its lines start from; None: fixed
     season_drift_origin: float | None = None
+    # outside drivers (evcal.design.drivers.DriverTerm.to_dict()): name, scale, centre and known values
+    drivers: list[dict[str, Any]] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
         # settings at their old values are left out, as folders written before they existed have them
         olds = (("leap_year", False), ("event_windows", {}), ("choices", []), ("weekday_weights", {}),
-                ("season_drift_origin", None))
+                ("season_drift_origin", None), ("drivers", []))
         for key, old in olds:
             if d[key] == old:
                 del d[key]
@@ -76,6 +79,9 @@ class DesignSpec:
 
     def intervention_terms(self) -> tuple[InterventionTerm, ...]:
         return tuple(InterventionTerm.from_dict(t) for t in self.interventions)
+
+    def driver_terms(self) -> tuple[DriverTerm, ...]:
+        return tuple(DriverTerm.from_dict(d, self.freq) for d in self.drivers)
 
     def annual_block(self) -> AnnualFourier | SeasonalDummies:
         """The annual cycle's block: Fourier terms for daily data or when asked, else period dummies."""
@@ -101,7 +107,7 @@ class Design:
 
     X: pd.DataFrame
     open_share: pd.Series
-    roles: dict[str, str]  # column -> "trend" | "seasonal" | "event" | "intervention"
+    roles: dict[str, str]  # column -> "trend" | "seasonal" | "event" | "intervention" | "driver"
 
 
 def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> Design:
@@ -123,6 +129,7 @@ def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> De
         *[("seasonal", block) for block in spec.seasonal_blocks()],
         ("event", EventColumns(calendar, list(spec.event_columns), dict(spec.event_theta))),
         ("intervention", Interventions(spec.intervention_terms())),
+        ("driver", Drivers(spec.driver_terms())),
     ]
     parts = [(role, block.columns(periods)) for role, block in blocks]
     roles = {c: role for role, frame in parts for c in frame.columns}

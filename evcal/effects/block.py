@@ -152,7 +152,10 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
         return added[:, idx].mean(axis=1) if len(idx) else nan
 
     rows: list[dict[str, Any]] = []
+    drivers = {d["name"] for d in getattr(group.spec, "drivers", None) or []}  # their own table (drivers.csv)
     for col, st in group.status.items():
+        if col in drivers:
+            continue
         kind = "intervention" if col in group.intervention_names else "event"
         info = group.event_info.get(col, {})
         scale: np.ndarray | float = 1.0

@@ -29,6 +29,11 @@ class History:
         File name for messages (``"<frame>"`` for a DataFrame).
     missing : list of pandas.Period
         Periods with no row or an empty value.
+    drivers : DataFrame, optional
+        Outside drivers' values (one column per driver, on ``values``' index; NaN
+        where the history has no sales), see :mod:`evcal.io.drivers`.
+    driver_scales : dict
+        Each driver's scale: ``"log"`` or ``"level"``.
 
     Examples
     --------
@@ -46,6 +51,8 @@ class History:
     label: str
     source: str
     missing: list[pd.Period] = field(default_factory=list)
+    drivers: pd.DataFrame | None = None
+    driver_scales: dict[str, str] = field(default_factory=dict)
 
     def dates(self, index: pd.PeriodIndex | None = None) -> pd.DatetimeIndex:
         """Date stamp of each period as the user writes it (``label``).

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from pathlib import Path
 
 import numpy as np
@@ -18,6 +19,7 @@ from evcal.io.cells import (
     parse_values,
     quote,
 )
+from evcal.io.drivers import driver_cells, parse_drivers
 from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_freq_option, resolve_freq
 from evcal.io.history import History
 from evcal.io.tables import find_column, load_table
@@ -34,6 +36,7 @@ def read_history(
     freq: str | None = None,
     allow_negative: bool = False,
     sheet: str | int | None = None,
+    drivers: Sequence[str | tuple[str, str]] | None = None,
 ) -> History:
     """Read a history of one value per period into a regular series.
 
@@ -52,6 +55,9 @@ def read_history(
         Accept values below zero (returns, net flows).
     sheet : str or int, optional
         Excel sheet name or 0-based number (default: the first sheet).
+    drivers : sequence of str, optional
+        Outside drivers: columns of the file read as numbers, ``NAME`` (as it is)
+        or ``NAME:log`` (entered as its logarithm); see :mod:`evcal.io.drivers`.
 
     Returns
     -------
@@ -85,6 +91,7 @@ def read_history(
     """
     if freq is not None:
         parse_freq_option(freq)  # a bad --freq is one line before the file is read
+    wanted = parse_drivers(drivers)
     table = load_table(source, sheet=sheet, date_col=date_col)
     name = table.source
     dcol = find_column(table, date_col, "date", "--date-col")
@@ -134,7 +141,15 @@ def read_history(
     series = pd.Series(np.nan, index=index, dtype="float64", name=value_col)
     series.loc[periods] = values.to_numpy(dtype="float64")
     missing = list(index[series.isna().to_numpy()])
-    return History(series, freq_used, detect_label(stamps, freq_used), name, missing)
+    driver_frame = None
+    if wanted:
+        cells = driver_cells(table, keep, rows, wanted, [dcol, vcol], values.notna().to_numpy())
+        driver_frame = pd.DataFrame(np.nan, index=index, columns=[n for n, _ in wanted])
+        for n, v in cells.items():
+            driver_frame.loc[periods, n] = v.to_numpy(dtype="float64")
+        driver_frame = driver_frame.where(series.notna())  # a driver counts only where there are sales
+    return History(series, freq_used, detect_label(stamps, freq_used), name, missing, driver_frame,
+                   dict(wanted))
 
 
 def _swapped(date_cells: pd.Series, value_cells: pd.Series) -> bool:

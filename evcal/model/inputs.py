@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.design.base import period_mid_years
+from evcal.design.drivers import DriverTerm
 from evcal.design.interventions import InterventionTerm
 from evcal.design.matrix import Design, DesignSpec, build_design
 from evcal.design.seasonal import base_freq, cycle_length, season_position
@@ -112,12 +113,14 @@ def seasonal_kind(options: FitOptions, freq: str) -> str:
 
 
 def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, freq: str,
-                theta: dict[str, float] | None = None, chosen: Chosen | None = None) -> DesignSpec:
+                theta: dict[str, float] | None = None, chosen: Chosen | None = None,
+                drivers: list[dict[str, Any]] | None = None) -> DesignSpec:
     """The design settings of a history on ``periods`` (the trend's origin is the year it starts).
 
     ``chosen`` holds the settings the data chose for the options left open
     (:func:`evcal.model.choose.choose`); without it those take their stand-ins
-    (:func:`evcal.model.choose.given`).
+    (:func:`evcal.model.choose.given`). ``drivers``: the outside drivers' records
+    (:func:`driver_records`).
     """
     chosen = given(options) if chosen is None else chosen
     # a drifting season's lines start from the middle of the history's last year: the seasonal dummies
@@ -140,7 +143,17 @@ def design_spec(calendar: Any, options: FitOptions, periods: pd.PeriodIndex, fre
         choices=list(chosen.choices),
         weekday_weights=weights_record(calendar, freq),
         season_drift_origin=drift_origin,
+        drivers=list(drivers or []),
     )
+
+
+def driver_records(history: Any) -> list[dict[str, Any]]:
+    """The history's outside drivers as design records (:class:`evcal.design.drivers.DriverTerm`)."""
+    frame = getattr(history, "drivers", None)
+    if frame is None:
+        return []
+    return [DriverTerm.of_history(name, history.driver_scales.get(name, "level"), frame[name]).to_dict()
+            for name in frame.columns]
 
 
 def prepare(history: Any, calendar: Any, options: FitOptions,
@@ -167,7 +180,8 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
     actual = history.values.astype(float)
     if chosen is None:
         chosen = given(options)
-    spec = design_spec(calendar, options, periods, history.freq, theta, chosen)
+    drivers = driver_records(history)
+    spec = design_spec(calendar, options, periods, history.freq, theta, chosen, drivers)
     design = build_design(spec, calendar, periods)
     share = design.open_share.to_numpy()
     closed_full = share <= 1e-9
@@ -191,6 +205,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         else:
             candidates.append(c)
     candidates += [t["name"] for t in spec.interventions]
+    candidates += [d["name"] for d in spec.drivers]
 
     # `like` events share their target's coefficient: add their column to it.
     def merged(frame: pd.DataFrame) -> pd.DataFrame:
@@ -213,7 +228,7 @@ def prepare(history: Any, calendar: Any, options: FitOptions,
         # panel engine's design groups grade it (evcal.engine.groups), whatever the pass
         graded = None
         if grade:
-            first_spec = design_spec(calendar, options, periods, history.freq, chosen=chosen)
+            first_spec = design_spec(calendar, options, periods, history.freq, chosen=chosen, drivers=drivers)
             graded = merged(build_design(first_spec, calendar, periods).X) if theta else X
             if transform == "none":  # on the rows the additive fit solves: scaled by the open share
                 graded = _additive(graded, design.roles, X, assumed, design.open_share)

@@ -132,6 +132,10 @@ class FitResult:
         """Write the output folder of the contract (atomically: all files or none; :mod:`evcal.store`)."""
         tables = {"lifts": self.lifts, "occurrences": self.occurrences, "profile": self.profile,
                   "fitted": self.fitted}
+        if self.spec.drivers:  # outside drivers: their own table (evcal.model.drivers)
+            from evcal.model.drivers import driver_table
+
+            tables["drivers"] = driver_table(self)
         return save_folder(directory, "model", self.to_json(), tables)
 
     @classmethod

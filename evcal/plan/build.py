@@ -52,6 +52,7 @@ def make_plan(
     new_events: str = "error",
     n_sims: int = 1000,
     seed: int = 0,
+    drivers: Any = None,
 ) -> Plan:
     """Plan the periods from ``start`` to ``end``.
 
@@ -78,6 +79,10 @@ def make_plan(
         NaN), and at most 50 million draws x periods (:func:`evcal.plan.simulate.check_sims`).
     seed : int
         Random seed of the simulation.
+    drivers : path or DataFrame, optional
+        The outside drivers' future values: a date column and one column per
+        driver of the model over the horizon (:func:`evcal.io.drivers.read_driver_file`);
+        needed when the model has drivers.
 
     Returns
     -------
@@ -102,8 +107,27 @@ def make_plan(
     target_total = check_total(total) if total is not None else None
     year_totals = read_totals(totals) if totals is not None else None
     periods = horizon_periods(result, start, end)
+    if drivers is not None:
+        result = with_driver_values(result, drivers)
     return plan_periods(result, periods, calendar=calendar, total=target_total, totals=year_totals,
                         new_events=new_events, n_sims=n_sims, seed=seed)
+
+
+def with_driver_values(result: Any, drivers: Any) -> Any:
+    """``result`` (a copy) whose drivers carry the future values of ``drivers`` (a file or a frame)."""
+    import copy
+
+    from evcal.design.drivers import with_future
+    from evcal.io.drivers import read_driver_file
+
+    records = result.spec.drivers
+    if not records:
+        raise PlanError("--drivers: this model has no outside drivers; leave --drivers out (or refit with "
+                        "--driver NAME)")
+    future = read_driver_file(drivers, [(d["name"], d["scale"]) for d in records], result.freq)
+    out = copy.copy(result)
+    out.spec = replace(result.spec, drivers=with_future(records, future, result.freq))
+    return out
 
 
 def _check_finite(table: pd.DataFrame, result: Any) -> None:
@@ -160,8 +184,11 @@ def plan_periods(
         table["low"], table["high"] = low, high
     else:
         table["low"] = table["high"] = np.nan
-    for ev in h.events:
+    events = [ev for ev in h.events if ev not in h.drivers]
+    for ev in events:
         table[f"lift:{ev}"] = lifts[ev][0]
+    for name in h.drivers:  # what each outside driver's planned values add against its history average
+        table[f"driver:{name}"] = lifts[name][0] if name in lifts else 0.0
     table["assumptions"] = h.assumption_texts()
     years = period_years(periods, result.label)
     model_totals = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}
@@ -181,7 +208,7 @@ def plan_periods(
     if err.kind == "arima":
         notes.append("the base includes the forecast of the ARIMA error from the end of the history")
     return Plan(
-        table=table, periods=periods, freq=result.freq, label=result.label, events=h.events,
+        table=table, periods=periods, freq=result.freq, label=result.label, events=events,
         assumptions=h.active, model_totals=model_totals, target=target, factors=factors,
         full_years=full_years(periods, result.label), last_year=dict(result.last_year or {}),
         average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
@@ -225,11 +252,12 @@ class Horizon:
     future: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     handled: set[str] = field(default_factory=set)
+    drivers: list[str] = field(default_factory=list)  # outside drivers: a part each, planned at their values
 
     @property
     def terms(self) -> list[str]:
-        """The columns the decomposition gives a part: the event columns, then the future changes."""
-        return self.event_cols + self.future
+        """The columns the decomposition gives a part: the event columns, the future changes, the drivers."""
+        return self.event_cols + self.future + self.drivers
 
     def assumption_texts(self) -> list[str]:
         """The assumptions active in each period (the plan's ``assumptions`` column)."""
@@ -254,22 +282,28 @@ def horizon(result: Any, cal: Any, periods: pd.PeriodIndex, new_events: str = "e
         schedule.assumed[name] = fc.assumed[name]
         schedule.status[name] = ColumnStatus("assumed", fc.texts[name])
         schedule.notes[name] = fc.texts[name]
+    drivers = [d["name"] for d in spec.drivers if result.status.get(d["name"]) is not None
+               and result.status[d["name"]].status == "fitted"]
+    for name in drivers:  # planned at the values given for the horizon, with their fitted coefficient
+        colmap = {**colmap, name: name}
+        schedule.columns.append(name)
+        schedule.status[name] = result.status[name]
     persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
     base_cols = [c for c in list(result.base_columns) + persistent if c in X.columns]
     closures = closure_shares(cal, periods)
     # which periods each event touches (its own columns, then its closures too)
     future = list(fc.columns)
-    on_own = X[event_cols + future].abs().gt(0).T.groupby(colmap).any().T
+    on_own = X[event_cols + future + drivers].abs().gt(0).T.groupby(colmap).any().T
     on = pd.concat([on_own, closures.gt(0)], axis=1).T.groupby(level=0).any().T
     first = {ev: int(np.argmax(hit)) for ev, hit in on.items() if hit.any()}
     events = sorted(first, key=lambda e: (first[e], e))  # in order of first appearance
     # events whose effect the fit left inside the seasonal index: no lift of their own
     in_season = [ev for ev in events if ev not in closures.columns and all(
         schedule.status[c].status == "unidentifiable"
-        for c in event_cols + future if colmap[c] == ev)]
+        for c in event_cols + future + drivers if colmap[c] == ev)]
     active = {ev: note for ev, note in schedule.notes.items() if on_own[ev].any()}
     return Horizon(periods, X, design.open_share, closures, colmap, event_cols, schedule, base_cols, on_own,
-                   events, in_season, active, future, fc.notes, fc.handled)
+                   events, in_season, active, future, fc.notes, fc.handled, drivers)
 
 
 def plan_group(result: Any, h: Horizon) -> GroupInfo:

@@ -137,7 +137,7 @@ def spread(table: pd.DataFrame, years: np.ndarray, total: float | None, totals: 
     out = table.copy()
     f = np.array([factors[int(y)] for y in years], dtype=float)
     for c in out.columns:
-        if c in AMOUNT_COLUMNS or str(c).startswith("lift:"):
+        if c in AMOUNT_COLUMNS or str(c).startswith(("lift:", "driver:")):
             out[c] = out[c].to_numpy(dtype=float) * f
     scaled = out["plan"].to_numpy()
     target = {y: float(scaled[years == y].sum()) for y in needed} if totals is None \

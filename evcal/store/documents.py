@@ -47,6 +47,15 @@ class Intervention(Strict):
     decay: Finite | None
 
 
+class Driver(Strict):  # an outside driver (design.drivers.DriverTerm): its history's values, a plan's added
+    name: str
+    scale: Literal["level", "log"]
+    centre: Finite
+    first: str
+    last_history: str
+    values: list[Finite | None]
+
+
 class ChoiceCandidate(Strict):
     value: str
     aicc: Num  # AICc above the chosen candidate's
@@ -84,6 +93,8 @@ class Design(Strict):
     weekday_weights: WeekdayWeights = None  # type: ignore[assignment]
     # the year a drifting season's lines start from (design.seasonal.SeasonDrift); absent: a fixed season
     season_drift_origin: Finite = None  # type: ignore[assignment]
+    # outside drivers (design.drivers); absent when the fit had none
+    drivers: list[Driver] = []
 
 
 class ColumnNote(Strict):  # what identification said of an event column

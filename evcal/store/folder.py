@@ -60,7 +60,9 @@ def write_folder(directory: Path, kind: str, document: dict[str, Any], tables: d
     layout = LAYOUTS[kind]
     (directory / layout.document).write_text(dumps(document), encoding="utf-8")
     with ThreadPoolExecutor(max_workers=2) as pool:
-        for job in [pool.submit(t.write_table, frame, directory / layout.tables[name], layout.digits)
+        # a table outside the layout (drivers.csv, only when the fit has drivers) is written as NAME.csv
+        for job in [pool.submit(t.write_table, frame, directory / layout.tables.get(name, f"{name}.csv"),
+                                layout.digits)
                     for name, frame in tables.items()]:
             job.result()
 
@@ -138,7 +140,8 @@ def read_folder(directory: str | Path, kind: str | None = None) -> Folder:
     doc = validate_document(kind, path, raw)
     if kind == "model":
         cal, periods = check_model(path, doc)
-        events = [*doc.status, *doc.closure_events]
+        drivers = {d.name for d in doc.design.drivers}  # in drivers.csv, not lifts.csv
+        events = [*(c for c in doc.status if c not in drivers), *doc.closure_events]
         tables = _tables(directory, doc.freq, t.Rows([]), set(events), len(events),
                          {info.event for info in doc.event_info.values()} | set(doc.closure_events))
         tables["fitted"] = t.check_fitted(directory / "fitted.csv", periods, doc.label,

@@ -114,9 +114,10 @@ def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
         raise fail(path, "intervention_names", "do not match design.interventions and the saved calendar")
     if m.closure_events != [e.name for e in cal.events if e.effect.kind == "zero"]:
         raise fail(path, "closure_events", "do not match the saved calendar's closures")
+    drivers = {d.name for d in m.design.drivers}
     for name, st in m.status.items():
-        if name not in set(m.design.event_columns) | set(inter):
-            raise fail(path, f"status.{name}", "not an event column or intervention of the design")
+        if name not in set(m.design.event_columns) | set(inter) | drivers:
+            raise fail(path, f"status.{name}", "not an event column, intervention or driver of the design")
         if st.status == "fitted" and name not in m.params:
             raise fail(path, f"status.{name}", "marked fitted but has no coefficient in params")
         if st.status == "assumed" and name not in m.assumed:
@@ -124,7 +125,7 @@ def check_model(path: Path, m: ModelJson) -> tuple[Any, pd.PeriodIndex]:
         if st.status == "like" and name not in m.like_map:
             raise fail(path, f"like_map.{name}", "missing (status says like)")
     for name in [*m.status, *m.closure_events]:
-        if name not in m.event_info:
+        if name not in m.event_info and name not in drivers:
             raise fail(path, f"event_info.{name}", "missing")
     for name, target in m.like_map.items():
         # a borrowing event whose source could not be estimated is written as unidentifiable (its

@@ -1,0 +1,144 @@
+"""Outside drivers in files: the driver columns of a history, and a file of their future values.
+
+A driver is named ``NAME`` (entered as it is: ``level``) or ``NAME:log`` (entered
+as its logarithm, so its coefficient is an elasticity in a log model). Every
+problem with a driver column is one line naming the file, the column and the
+first bad row, with the count of the others.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from evcal.errors import HistoryError
+from evcal.io.cells import RowProblem, count_problems, empty_mask, parse_dates, parse_values, quote
+from evcal.io.tables import RawTable, find_column, load_table
+
+SCALES = ("level", "log")
+
+
+class DriverError(HistoryError):
+    """A driver named wrongly, or a driver column that cannot be used."""
+
+
+def parse_driver(text: str | tuple[str, str]) -> tuple[str, str]:
+    """``"price:log"`` -> ``("price", "log")``; ``"temperature"`` -> ``("temperature", "level")``.
+
+    Examples
+    --------
+    >>> parse_driver("price:log"), parse_driver("temperature"), parse_driver(("spend", "level"))
+    (('price', 'log'), ('temperature', 'level'), ('spend', 'level'))
+    """
+    if isinstance(text, tuple):
+        name, scale = text
+    else:
+        name, sep, scale = str(text).rpartition(":")
+        if not sep:
+            name, scale = str(text), "level"
+    name, scale = str(name).strip(), str(scale).strip().lower()
+    if not name or scale not in SCALES:
+        raise DriverError(f"driver {text!r}: write NAME, NAME:log or NAME:level (NAME a column of the "
+                          "history; log enters log(value), level the value as it is)")
+    return name, scale
+
+
+def parse_drivers(drivers: Sequence[str | tuple[str, str]] | None) -> list[tuple[str, str]]:
+    """Each driver's (name, scale); a name given twice is one line."""
+    out = [parse_driver(d) for d in (drivers or [])]
+    names = [n for n, _ in out]
+    twice = sorted({n for n in names if names.count(n) > 1})
+    if twice:
+        raise DriverError(f"driver {twice[0]!r} is named more than once; name each driver once")
+    return out
+
+
+def driver_cells(table: RawTable, keep: np.ndarray, rows: list[int], drivers: list[tuple[str, str]],
+                 reserved: Sequence[str], needed: np.ndarray) -> dict[str, pd.Series]:
+    """Each driver's values on the kept rows of ``table``, positionally (float, NaN where empty).
+
+    ``needed`` marks the rows that must have a value (the rows with sales). A
+    missing column, a date or value column named as a driver, a cell that is
+    not a number, an empty cell on a needed row, or (``log``) a value not above
+    zero is one line naming the file, the column and the first bad row.
+    """
+    name = table.source
+    out: dict[str, pd.Series] = {}
+    lines: list[str] = []
+    for driver, scale in drivers:
+        col = find_column(table, driver, "driver", "--driver")
+        if col in reserved:
+            raise DriverError(f"{name} row 1: column {col!r} is the date or value column and cannot "
+                              "also be a driver; name another column with --driver")
+        cells = table.frame[col].reset_index(drop=True).iloc[keep].reset_index(drop=True)
+        values, problems = parse_values(cells, rows, col, allow_negative=True)
+        empty = np.flatnonzero(empty_mask(cells) & needed)
+        problems += [RowProblem(rows[i], col, "empty driver value on a row with sales; every period with "
+                                "sales needs the driver's value (or leave that row's sales empty too)")
+                     for i in empty[:1]]
+        if scale == "log":
+            low = np.flatnonzero((values <= 0).to_numpy())
+            problems += [RowProblem(rows[i], col, f"value {values.iloc[i]:g} is not above zero and the "
+                                    f"driver is entered on the log scale; use --driver {driver}:level, or "
+                                    "fix the value")
+                         for i in low[:1]]
+            n_low = len(low)
+        else:
+            n_low = 0
+        if problems:
+            first = min(problems)
+            total = count_problems(problems) + max(len(empty) - 1, 0) + max(n_low - 1, 0)
+            more = f" (and {total - 1:,} more bad cells in this column)" if total > 1 else ""
+            lines.append(first.line(name) + more)
+        out[driver] = values
+    if lines:
+        raise DriverError(lines)
+    return out
+
+
+def read_driver_file(source: str | Path | pd.DataFrame, drivers: Sequence[str | tuple[str, str]], freq: str,
+                     date_col: str = "date") -> pd.DataFrame:
+    """Read a file of drivers' future values: a date column and one column per driver.
+
+    Parameters
+    ----------
+    source : path or DataFrame
+        ``.csv``, ``.parquet`` or ``.xlsx`` (as histories are read).
+    drivers : sequence of str or (name, scale)
+        The drivers (``NAME`` or ``NAME:log``: columns of the file; other columns are ignored).
+    freq : str
+        The model's period frequency; each date names the period holding it.
+
+    Returns
+    -------
+    DataFrame
+        One column per driver on a PeriodIndex at ``freq`` (the periods the file names).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> f = pd.DataFrame({"date": ["2026-01-31", "2026-02-28"], "price": ["2.5", "2.25"]})
+    >>> read_driver_file(f, ["price"], "M")["price"].tolist()
+    [2.5, 2.25]
+    """
+    table = load_table(source, date_col=date_col)
+    name = table.source
+    dcol = find_column(table, date_col, "date", "--date-col")
+    cells = table.frame[dcol].reset_index(drop=True)
+    keep = np.flatnonzero(~empty_mask(cells))
+    rows = [table.rows[i] for i in keep]
+    dates, problems = parse_dates(cells.iloc[keep].reset_index(drop=True), rows, dcol, name)
+    if problems:
+        raise DriverError(min(problems).line(name))
+    values = driver_cells(table, keep, rows, parse_drivers(drivers), [dcol], np.ones(len(keep), bool))
+    periods = pd.DatetimeIndex(dates.dt.normalize()).to_period(freq)
+    repeated = np.flatnonzero(periods.duplicated())
+    if len(repeated):
+        i = int(repeated[0])
+        raise DriverError(f"{name} row {rows[i]}, column {dcol!r}: {quote(cells.iloc[keep[i]])} falls in "
+                          f"period {periods[i]}, which an earlier row already gives; one row per period")
+    return pd.DataFrame({d: v.to_numpy(dtype=float) for d, v in values.items()}, index=periods,
+                        columns=list(values))

@@ -23,6 +23,12 @@ class Block(Protocol):
         ...
 
 
+def term_columns(terms: Any, periods: pd.PeriodIndex) -> pd.DataFrame:
+    """A block of one column per term (each has a ``name`` and a ``column(periods)``), in the terms' order."""
+    data = {t.name: t.column(periods) for t in terms}
+    return pd.DataFrame(data, index=periods, columns=[t.name for t in terms])
+
+
 def _cached(fn: Any) -> Any:
     """Per-period arrays are asked for many times over the same runs of periods: keep them (read-only)."""
 

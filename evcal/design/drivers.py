@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.design.base import term_columns
 from evcal.io.drivers import DriverError
 
 
@@ -85,8 +86,7 @@ class Drivers:
     terms: tuple[DriverTerm, ...]
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
-        data = {t.name: t.column(periods) for t in self.terms}
-        return pd.DataFrame(data, index=periods, columns=[t.name for t in self.terms])
+        return term_columns(self.terms, periods)
 
 
 def with_future(records: list[dict[str, Any]], future: pd.DataFrame, freq: str) -> list[dict[str, Any]]:

@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.calendar.spec import InterventionSpec
-from evcal.design.base import period_days
+from evcal.design.base import period_days, term_columns
 
 PERSISTENT = ("level_shift", "ramp")
 
@@ -77,5 +77,4 @@ class Interventions:
     terms: tuple[InterventionTerm, ...]
 
     def columns(self, periods: pd.PeriodIndex) -> pd.DataFrame:
-        data = {t.name: t.column(periods) for t in self.terms}
-        return pd.DataFrame(data, index=periods, columns=[t.name for t in self.terms])
+        return term_columns(self.terms, periods)

@@ -160,6 +160,9 @@ def test_cli_fit_and_plan_with_drivers(tmp_path):
                               "--out", str(tmp_path / "m")])
     assert res.exit_code == 0, res.output
     assert "price (log): elasticity -1.8" in res.output and "drivers.csv" in res.output
+    # the model folder read back shows its drivers too (before: show left them out)
+    res = runner.invoke(app, ["show", str(tmp_path / "m")])
+    assert res.exit_code == 0 and res.output.count("price (log): elasticity -1.8") == 1, res.output
     res = runner.invoke(app, ["plan", str(tmp_path / "m"), "--from", "2024-01-01", "--to", "2024-12-31",
                               "--drivers", str(fut), "--out", str(tmp_path / "p.csv"), "--sims", "0"])
     assert res.exit_code == 0, res.output

@@ -152,9 +152,6 @@ def fit_cmd(
     typer.echo(describe(result))
     files = "model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv"
     if result.spec.drivers:
-        from evcal.model.drivers import describe_drivers
-
-        typer.echo(describe_drivers(result))
         files += ", drivers.csv"
     typer.echo(f"\nwrote {out}/ ({files})")
 

@@ -112,6 +112,10 @@ def describe(result: Any) -> str:
                      f"{note}")
     lines.append(IDENT_LEGEND)
     lines += _net_lines(result.lifts)
+    if getattr(result.spec, "drivers", None):  # outside drivers: their own table, their own lines
+        from evcal.model.drivers import describe_drivers
+
+        lines += ["", describe_drivers(result)]
     if result.exclusions:
         lines.append("")
         for ex in result.exclusions:

@@ -164,3 +164,16 @@ def test_workbook_from_model_folder_files(tmp_path: Path) -> None:
     occ = wb["Past occurrences"]
     assert isinstance(occ["B2"].value, dt.datetime)
     assert occ.max_row == len(pd.read_csv(paths["model"] / "occurrences.csv")) + 1
+
+
+def test_every_percentage_column_is_formatted_as_a_percentage(tmp_path: Path) -> None:
+    # the net lift's columns (events with dip periods) are percentages like lift_pct: before, only four
+    # named columns were, and net_pct showed as units ("12.5" in a units format)
+    frames = invented_frames(tmp_path)
+    lifts = frames["lifts"].assign(net_pct=12.5, net_low_pct=12.0, net_high_pct=13.0)
+    out = write_workbook(tmp_path / "net.xlsx", **{**frames, "lifts": lifts})
+    ws = load_workbook(out)["Lifts"]
+    header = [c.value for c in ws[1]]
+    for name in ("lift_pct", "net_pct", "net_low_pct", "net_high_pct"):
+        cell = ws.cell(row=2, column=header.index(name) + 1)
+        assert cell.number_format == '0.0" %"', (name, cell.number_format)

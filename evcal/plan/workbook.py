@@ -48,7 +48,6 @@ _HEADER_FILL = PatternFill("solid", fgColor="1E2B2F")
 _HEADER_FONT = Font(bold=True, color="FFFFFF")
 _MAX_WIDTH = 60
 _DATE_COLUMNS = {"date", "start", "end"}
-_PCT_COLUMNS = {"lift_pct", "low_pct", "high_pct", "added_pct"}
 
 
 def write_workbook(
@@ -140,7 +139,7 @@ def _number_format(column: str, value: object) -> str | None:
     if isinstance(value, bool):
         return None
     if isinstance(value, float):
-        if column in _PCT_COLUMNS:
+        if column.endswith("_pct"):  # every percentage column (lift, interval, added, net, pooled...)
             return PCT_FORMAT
         if column == "index":
             return "0.00"

@@ -167,6 +167,12 @@ def test_cli_fit_and_plan_with_drivers(tmp_path):
                               "--drivers", str(fut), "--out", str(tmp_path / "p.csv"), "--sims", "0"])
     assert res.exit_code == 0, res.output
     assert "driver:price" in pd.read_csv(tmp_path / "p.csv").columns
+    # the workbook has the drivers' own sheet (before: none), with the fitted elasticity
+    res = runner.invoke(app, ["plan", str(tmp_path / "m"), "--from", "2024-01-01", "--to", "2024-12-31",
+                              "--drivers", str(fut), "--out", str(tmp_path / "p.xlsx"), "--sims", "0"])
+    assert res.exit_code == 0, res.output
+    sheet = pd.read_excel(tmp_path / "p.xlsx", sheet_name="Drivers")
+    assert sheet["driver"].tolist() == ["price"] and -1.9 < sheet["coefficient"].iloc[0] < -1.7
     res = runner.invoke(app, ["fit", str(path), "--driver", "price:log", "--series-col", "x",
                               "--out", str(tmp_path / "panel")])
     assert res.exit_code == 2

@@ -92,8 +92,13 @@ class Plan:
         empty = pd.DataFrame()
         lifts, profile, occurrences = [getattr(self.result, name, empty)
                                        for name in ("lifts", "profile", "occurrences")]
+        drivers = None
+        if getattr(getattr(self.result, "spec", None), "drivers", None):  # outside drivers: their own sheet
+            from evcal.model.drivers import driver_table
+
+            drivers = driver_table(self.result)
         return write_workbook(path, self.table, self._with_future(lifts), profile, occurrences,
-                              notes=self.notes)
+                              notes=self.notes, drivers=drivers)
 
     def _with_future(self, lifts: pd.DataFrame) -> pd.DataFrame:
         """The model's lifts plus a row per known future change, marked assumed as assumed lifts are."""

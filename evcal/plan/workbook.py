@@ -57,8 +57,9 @@ def write_workbook(
     profile: pd.DataFrame,
     occurrences: pd.DataFrame,
     notes: list[str] | None = None,
+    drivers: pd.DataFrame | None = None,
 ) -> Path:
-    """Write the four-sheet workbook (plus Notes) atomically; returns the path.
+    """Write the four-sheet workbook (plus Drivers when there are any, and Notes) atomically.
 
     Parameters
     ----------
@@ -72,6 +73,8 @@ def write_workbook(
         ``occurrences.csv``. An empty frame gives a sheet with a note.
     notes : list of str, optional
         The plan's notes (what it left out and why), added to the Notes sheet.
+    drivers : DataFrame, optional
+        The model's outside drivers as in ``drivers.csv``: a Drivers sheet after the four.
 
     Returns
     -------
@@ -82,6 +85,8 @@ def write_workbook(
     wb.remove(wb.active)
     for name, frame in zip(SHEETS, (plan, lifts, profile, occurrences), strict=True):
         _write_sheet(wb.create_sheet(name), _with_date_column(frame))
+    if drivers is not None and len(drivers):
+        _write_sheet(wb.create_sheet("Drivers"), drivers)
     _notes_sheet(wb.create_sheet("Notes"), notes or [])
     out = Path(out_xlsx)
     with atomic_path(out) as tmp:

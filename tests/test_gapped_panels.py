@@ -15,6 +15,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from test_units_panel_equal import PROMO, on_days, weekly_sums
 
 import evcal
 from evcal.calendar import load_calendar
@@ -22,8 +23,6 @@ from evcal.engine.run import fit_long_panel
 from evcal.io.longformat import read_panel
 from evcal.model.options import FitOptions
 
-PROMO = [("2019-03-04", "2019-03-17"), ("2020-03-02", "2020-03-15"), ("2021-03-01", "2021-03-14"),
-         ("2022-03-07", "2022-03-20"), ("2019-09-02", "2019-09-08"), ("2021-09-06", "2021-09-12")]
 GALA = ("2020-06-10", "2020-06-12")  # Wednesday to Friday of the week ending 2020-06-14
 CAL = f"""
 name: promotion and a one-off gala (invented)
@@ -43,16 +42,10 @@ LOSES_GALA = 3  # the series whose gaps take the gala's only week
 def _frame(seed: int = 11) -> pd.DataFrame:
     """Invented weekly sums: +35 % promotion, +40 % gala, +10 % shift, noise sd 3 %; two weeks missing."""
     rng = np.random.default_rng(seed)
-    days = pd.date_range("2018-01-01", "2023-12-31", freq="D")
-    doy = days.day_of_year.to_numpy()
-    promo = sum(((days >= a) & (days <= b)).astype(float) for a, b in PROMO)
-    gala = ((days >= GALA[0]) & (days <= GALA[1])).astype(float)
+    events = 0.3 * on_days(PROMO) + 0.34 * on_days([GALA])
     frames = []
     for i in range(N_SERIES):
-        log_daily = (np.log(100.0 * (1 + i)) + 0.2 * np.sin(2 * np.pi * doy / 365.25) + 0.3 * promo
-                     + 0.34 * gala + 0.1 * (days >= "2021-01-04"))
-        weekly = pd.Series(np.exp(log_daily), index=days).resample("W-SUN").sum()
-        weekly = weekly * np.exp(rng.normal(0, 0.03, len(weekly)))
+        weekly = weekly_sums(i, events, rng)
         # two weeks of its own inside the history (never the first or last week, nor the gala's)
         inner = np.flatnonzero((weekly.index > weekly.index[0]) & (weekly.index < weekly.index[-1])
                                & (weekly.index != GALA_WEEK))

@@ -41,19 +41,31 @@ interventions:
 """
 
 
+DAYS = pd.date_range("2018-01-01", "2023-12-31", freq="D")
+
+
+def on_days(spans: list[tuple[str, str]]) -> np.ndarray:
+    """1.0 on the days of ``spans`` (inclusive date ranges), 0.0 elsewhere, over DAYS."""
+    return sum(((a <= DAYS) & (b >= DAYS)).astype(float) for a, b in spans)
+
+
+def weekly_sums(i: int, events: np.ndarray, rng: np.random.Generator) -> pd.Series:
+    """Series i of the invented panels: daily sales (level 100(1+i), a yearly wave, the log-lifts
+    ``events``, +10 % from 2021-01-04) summed to weeks ending Sunday, times log-normal noise sd 3 %."""
+    doy = DAYS.day_of_year.to_numpy()
+    log_daily = (np.log(100.0 * (1 + i)) + 0.2 * np.sin(2 * np.pi * doy / 365.25) + events
+                 + 0.1 * (DAYS >= "2021-01-04"))
+    weekly = pd.Series(np.exp(log_daily), index=DAYS).resample("W-SUN").sum()
+    return weekly * np.exp(rng.normal(0, 0.03, len(weekly)))
+
+
 def _frame(n_series: int = 3, seed: int = 3) -> pd.DataFrame:
     """Invented weekly sums of daily sales: +35 % promotion, +65 % fair, +10 % level shift, noise sd 3 %."""
     rng = np.random.default_rng(seed)
-    days = pd.date_range("2018-01-01", "2023-12-31", freq="D")
-    doy = days.day_of_year.to_numpy()
-    promo = sum(((days >= a) & (days <= b)).astype(float) for a, b in PROMO)
-    fair = sum(((days >= a) & (days <= b)).astype(float) for a, b in FAIR)
+    events = 0.3 * on_days(PROMO) + 0.5 * on_days(FAIR)
     frames = []
     for i in range(n_series):
-        log_daily = (np.log(100.0 * (1 + i)) + 0.2 * np.sin(2 * np.pi * doy / 365.25) + 0.3 * promo
-                     + 0.5 * fair + 0.1 * (days >= "2021-01-04"))
-        weekly = pd.Series(np.exp(log_daily), index=days).resample("W-SUN").sum()
-        weekly = weekly * np.exp(rng.normal(0, 0.03, len(weekly)))
+        weekly = weekly_sums(i, events, rng)
         frames.append(pd.DataFrame({"product": f"P{i}", "date": weekly.index,
                                     "value": weekly.round(2).to_numpy()}))
     return pd.concat(frames, ignore_index=True)

@@ -1,8 +1,8 @@
 """The occurrence intervals' single-precision screen changes no number (evcal.effects.screen).
 
 * numpy's single-precision ``exp`` is within the 4 ulp the error bound assumes (it takes twice
-  that), measured on a dense grid over the logs' range (numpy documents its SIMD ``exp`` at under
-  3 ulp; from memory, hence measured here);
+  that), measured here on a dense grid over the logs' range (the bound rests on this measurement,
+  not on a documented accuracy);
 * the bound holds: every screened draw is within its bound of the double-precision draw, and the
   draws recomputed for the candidates equal the double-precision draws bit for bit;
 * the joint bounds with the screen equal those without it exactly (``assert_array_equal``) for

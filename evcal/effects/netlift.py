@@ -36,8 +36,6 @@ __all__ = ["DipLink", "dip_links", "net_columns", "NET_LIFT_COLUMNS", "NET_OCC_C
 NET_LIFT_COLUMNS = ["dip_of", "net_pct", "net_low_pct", "net_high_pct", "net_units_per_occurrence"]
 #: occurrences.csv columns added when the calendar has dip periods (on the event's rows)
 NET_OCC_COLUMNS = ["dip_units", "net_units", "net_low_units", "net_high_units", "net_pct"]
-_N_DRAWS = 1000
-_SEED = 7
 
 
 @dataclass
@@ -90,24 +88,11 @@ def _own_x(ctx: SpanContext, group: GroupInfo, curved: dict[str, np.ndarray], m:
         x_sum = x_sum * og.mask
         x_tot = x_sum * og.days
         frac = np.where(x_tot > og.own + 1e-9, og.own / np.maximum(x_tot, 1e-12), 1.0)
+        x_own = x_sum * frac
         for i, pos in enumerate(og.pos):
             keep = og.mask[i] > 0
-            out[int(pos)] = (og.idx[i][keep], (x_sum * frac)[:, i][:, keep])
+            out[int(pos)] = (og.idx[i][keep], x_own[:, i][:, keep])
     return out
-
-
-def _root(cov: np.ndarray | None, se_map: dict[str, np.ndarray], group: GroupInfo, cols: list[str],
-          m: int) -> np.ndarray:
-    """(m, K, K) square roots of the joint covariance of ``cols``' coefficients (se alone without it)."""
-    if cov is None:
-        root = np.zeros((m, len(cols), len(cols)))
-        for i, c in enumerate(cols):
-            root[:, i, i] = se_map[c]
-        return root
-    where = [group.term_cols.index(c) for c in cols]
-    sub = cov[:, where][:, :, where]
-    vals, vecs = np.linalg.eigh(0.5 * (sub + np.swapaxes(sub, 1, 2)))
-    return vecs * np.sqrt(np.clip(vals, 0.0, None))[:, None, :]
 
 
 def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray], base: np.ndarray,
@@ -118,6 +103,13 @@ def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray]
 
     ``added`` is the occurrence table's ``added_units`` as (m, n_occ).
     """
+    from evcal.effects.occurrences import (  # occurrences imports span, which imports this module
+        N_DRAWS,
+        _joint_normals,
+        _quantiles,
+        cov_root,
+    )
+
     m, n_occ = added.shape
     occ_out = {c: np.full((m, n_occ), np.nan) for c in NET_OCC_COLUMNS}
     lift_out: dict[str, dict[str, np.ndarray]] = {}
@@ -125,18 +117,20 @@ def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray]
     ints = [c for c in group.status if c in group.intervention_names and c in parts]
     open_base = base * ctx.share[None, :]
     level = open_base + sum(parts[c] for c in ints) if ints else open_base
-    z = np.random.default_rng(_SEED).standard_normal
     where = {int(pos): (og, i) for og in ctx.occ_groups for i, pos in enumerate(og.pos)}
     for link in ctx.dip_links:
         cols = [link.event, *link.dips]
         if not all(group.source(c) == c and c in pmap for c in cols):
             continue  # a coefficient the fit could not estimate: the net is not measured
-        ok = (link.rows >= 0).all(axis=1) & np.isin(link.rows[:, 0], list(xs))
-        ok &= np.array([all(int(r) in xs for r in row) for row in link.rows])
+        # measured where the event and every dip of the occurrence lie in the span (no -1 row)
+        ok = np.array([all(int(r) in xs for r in row) for row in link.rows], dtype=bool)
         b = np.stack([pmap[c] for c in cols], axis=1)  # (m, K)
-        draws = b[:, None, :] + np.einsum("mkj,dj->mdk", _root(cov, se_map, group, cols, m),
-                                           z((_N_DRAWS, len(cols))))  # (m, D, K)
-        total_d = np.zeros((m, _N_DRAWS))
+        where_cols = [group.term_cols.index(c) for c in cols]
+        sub = None if cov is None else cov[:, where_cols][:, :, where_cols]
+        root = cov_root(sub, se_map, cols, m)
+        # the occurrence tables' own draws and seed (evcal.effects.occurrences)
+        draws = b[:, None, :] + np.einsum("mkj,dj->mdk", root, _joint_normals(len(cols)))  # (m, D, K)
+        total_d = np.zeros((m, N_DRAWS))
         total_net, total_base = np.zeros(m), np.zeros(m)
         for row in link.rows[ok]:
             periods = np.unique(np.concatenate([xs[int(r)][0] for r in row]))
@@ -159,17 +153,16 @@ def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray]
             p = row[0]
             occ_out["dip_units"][:, p] = added[:, row[1:]].sum(axis=1)
             occ_out["net_units"][:, p] = net
-            occ_out["net_low_units"][:, p], occ_out["net_high_units"][:, p] = np.quantile(v, [0.025, 0.975],
-                                                                                          axis=1)
+            total_d += v  # before the quantiles, which partition v in place
+            occ_out["net_low_units"][:, p], occ_out["net_high_units"][:, p] = _quantiles(v)
             with np.errstate(divide="ignore", invalid="ignore"):
                 occ_out["net_pct"][:, p] = np.where(foot != 0, 100.0 * net / foot, np.nan)
-            total_d += v
             total_net += net
             total_base += foot
         with np.errstate(divide="ignore", invalid="ignore"):
             scale = np.where(total_base != 0, 100.0 / total_base, np.nan)
         k = int(ok.sum())
-        lo, hi = np.quantile(total_d, [0.025, 0.975], axis=1) if k else (np.full(m, np.nan),) * 2
+        lo, hi = _quantiles(total_d) if k else (np.full(m, np.nan),) * 2
         lift_out[link.event] = {"net_pct": total_net * scale if k else np.full(m, np.nan),
                                 "net_low_pct": lo * scale, "net_high_pct": hi * scale,
                                 "net_units_per_occurrence": total_net / k if k else np.full(m, np.nan)}

@@ -118,6 +118,18 @@ def _joint_normals(k: int) -> np.ndarray:
     return z
 
 
+def cov_root(cov: np.ndarray | None, se_map: dict[str, np.ndarray], names: list[str], m: int) -> np.ndarray:
+    """(m, K, K) square roots of the covariances (m, K, K) of the coefficients ``names``, taking a singular
+    one too; without a covariance, independent draws from their standard errors in ``se_map``."""
+    if cov is None:
+        root = np.zeros((m, len(names), len(names)))
+        for i, c in enumerate(names):
+            root[:, i, i] = se_map[c]
+        return root
+    vals, vecs = np.linalg.eigh(0.5 * (cov + np.swapaxes(cov, 1, 2)))
+    return vecs * np.sqrt(np.clip(vals, 0.0, None))[:, None, :]
+
+
 class _Draws:
     """Coefficient draws of the term columns, (N_DRAWS, m) each, from their covariance (m, K, K)."""
 
@@ -126,14 +138,7 @@ class _Draws:
         self.group, self.pmap = group, pmap
         names = list(group.term_cols)
         m = len(next(iter(pmap.values()))) if pmap else 0
-        if cov is None:  # only the standard errors: independent draws
-            root = np.zeros((m, len(names), len(names)))
-            for i, c in enumerate(names):
-                root[:, i, i] = se_map[c]
-        else:
-            # a symmetric square root that takes a singular covariance too
-            vals, vecs = np.linalg.eigh(0.5 * (cov + np.swapaxes(cov, 1, 2)))
-            root = vecs * np.sqrt(np.clip(vals, 0.0, None))[:, None, :]
+        root = cov_root(cov, se_map, names, m)
         self.names = {c: i for i, c in enumerate(names)}
         self.root = root  # (m, K, K)
         # an intervention is in force in the periods of many events' occurrences: its draws are made

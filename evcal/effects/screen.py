@@ -41,7 +41,8 @@ single precision's range) is computed wholly in double precision.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+import functools
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -184,20 +185,26 @@ class JointUnits:
     k: int
     width: int
     n_draws: int
-    flat32: dict[str, np.ndarray] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        self.flat32 = {c: v.astype(np.float32) for c, v in self.flat.items()}
         self.player_cols = [c for cols in self.players.values() for c in cols]
-        # the distinct (gain, factor) pairs of the positions (with several players the factor is
-        # inside the gain) and, per occurrence and period, which pair it takes: one-hot (k, width, pairs)
+
+    # what only the single-precision screen uses, made when it first runs (small blocks never screen)
+    @functools.cached_property
+    def flat32(self) -> dict[str, np.ndarray]:
+        return {c: v.astype(np.float32) for c, v in self.flat.items()}
+
+    @functools.cached_property
+    def _pairs(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """The distinct (gain, factor) pairs of the positions (with several players the factor is inside
+        the gain): their gain and factor indices, and per occurrence and period which pair it takes as a
+        one-hot (k, width, pairs)."""
         n_f = len(self.f_first) if len(self.players) == 1 and self.factor_cols else 1
         pair = self.g_which * n_f + (self.f_which if n_f > 1 else 0)
         _, first, which = np.unique(pair, return_index=True, return_inverse=True)
-        self.pair_g, self.pair_f = self.g_which[first], self.f_which[first]
-        self.onehot = np.zeros((self.k * self.width, len(first)))
-        self.onehot[np.arange(self.k * self.width), which.ravel()] = 1.0
-        self.onehot = self.onehot.reshape(self.k, self.width, len(first))
+        onehot = np.zeros((self.k * self.width, len(first)))
+        onehot[np.arange(self.k * self.width), which.ravel()] = 1.0
+        return self.g_which[first], self.f_which[first], onehot.reshape(self.k, self.width, len(first))
 
     def _log_of(self, cols: list[str], first: np.ndarray, beta: dict[str, np.ndarray], sl: slice,
                 ms: int, dtype: type) -> np.ndarray:
@@ -246,15 +253,16 @@ class JointUnits:
             if self.factor_cols:
                 fac = self._log_of(self.factor_cols, self.f_first, beta, sl, ms, dtype)
                 np.exp(fac, out=fac)
-                if len(self.f_first) == 1 and len(self.pair_g) == len(self.g_first):
+                pair_g, pair_f, _ = self._pairs
+                if len(self.f_first) == 1 and len(pair_g) == len(self.g_first):
                     unit *= fac
                 else:
-                    unit = gather(unit, self.pair_g) * gather(fac, self.pair_f)
+                    unit = gather(unit, pair_g) * gather(fac, pair_f)
         else:
             unit = np.zeros((ms, len(self.g_first), self.n_draws), dtype=dtype)
             for pos, inside in self.coalitions:
                 unit[:, pos] = self._shapley_single(beta, sl, ms, self.g_first[pos], inside)
-        w = np.einsum("mkt,ktp->mkp", np.broadcast_to(weight, (ms, self.k, self.width)), self.onehot)
+        w = np.einsum("mkt,ktp->mkp", np.broadcast_to(weight, (ms, self.k, self.width)), self._pairs[2])
         w = w.astype(dtype)
         if unit.shape[1] == 1:
             return w * unit  # (ms, k, 1) × (ms, 1, draws)

@@ -28,6 +28,7 @@ line and key in front.
 Examples
 --------
 >>> from evcal.calendar.problem_log import ProblemLog
+from evcal.calendar.schema import MAX_DAYS, MAX_STRENGTH  # the longest occurrence and strength, as for dates
 >>> log = ProblemLog({})
 >>> text = "region,start,end\\nnorth,2024-02-12,2024-02-16\\nsouth,2024-02-19,2024-02-23\\n"
 >>> rule = rule_from_text(log, text, "school.csv", (("region", "north"),), 1, ())
@@ -51,6 +52,7 @@ import yaml
 from evcal.calendar import rules as R
 from evcal.calendar.holidays_source import suggest
 from evcal.calendar.problem_log import ProblemLog
+from evcal.calendar.schema import MAX_DAYS, MAX_STRENGTH  # the longest occurrence and strength, as for dates
 from evcal.calendar.value_parsers import parse_date, show
 from evcal.errors import clip
 
@@ -63,8 +65,6 @@ SAVED_KEY = "saved_files"
 #: row problems named one by one before the rest are only counted (a file with a wrong date
 #: format would otherwise give one line per row)
 SHOWN_ROWS = 5
-#: longest occurrence and strength, as for ``dates`` (evcal.calendar.schema)
-MAX_DAYS, MAX_STRENGTH = 366, 100.0
 
 
 @dataclass(frozen=True)

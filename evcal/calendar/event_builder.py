@@ -21,7 +21,7 @@ from evcal.calendar.spec import EventSpec, MovedSpec
 from evcal.calendar.weekday_classes import SPLIT_RULES, class_event_name
 
 __all__ = ["DEFAULT_HOLIDAY_YEARS", "DIP_SIDES", "build_event", "build_rule", "dip_event_name",
-           "split_by_weekday"]
+           "derived_events"]
 
 #: the keys that give an event a dip period with its own coefficient, and the side of its window
 DIP_SIDES = {"dip_after": "after", "dip_before": "before"}
@@ -217,15 +217,16 @@ def dip_event_name(event: str, side: str) -> str:
     return f"{event} (dip {side})"
 
 
-def split_by_weekday(spec: EventSpec, ev: EventModel) -> list[EventSpec]:
-    """One event per ``by_weekday`` class (``xmas (weekend)``, ...), or ``[spec]`` without a split;
-    then the event's dip periods (``dip_after``, ``dip_before``), each an event of its own.
+def derived_events(spec: EventSpec, ev: EventModel) -> list[EventSpec]:
+    """The events one calendar entry becomes: one per ``by_weekday`` class (``xmas (weekend)``, ...),
+    or ``[spec]`` without a split; then its dip periods (``dip_after``, ``dip_before``), each an event
+    of its own.
 
     Examples
     --------
     >>> ev = EventModel.model_validate(
     ...     {"name": "xmas", "when": {"fixed": "12-25"}, "by_weekday": ["weekend", "workday"]})
-    >>> [(e.name, e.on_weekdays) for e in split_by_weekday(build_event(ProblemLog({}), ev, 0, None), ev)]
+    >>> [(e.name, e.on_weekdays) for e in derived_events(build_event(ProblemLog({}), ev, 0, None), ev)]
     [('xmas (weekend)', (5, 6)), ('xmas (workday)', (0, 1, 2, 3, 4))]
     """
     if ev.by_weekday is None:

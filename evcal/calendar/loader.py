@@ -22,7 +22,7 @@ from typing import Any
 from evcal.calendar import rules as R
 from evcal.calendar.core import Calendar, PublicHolidays
 from evcal.calendar.datefile import SAVED_KEY, read_rule, saved_text
-from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event, split_by_weekday
+from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event, derived_events
 from evcal.calendar.holidays_source import HolidaySource, HolidaySourceError, suggest
 from evcal.calendar.problem_log import ProblemLog
 from evcal.calendar.schema import (
@@ -157,7 +157,7 @@ def _read_calendar(data: Any, source: str, log: ProblemLog, folder: Path | None 
             ev = _with_file_rule(log, ev, i, folder, saved, files if files is not None else {})
         spec = build_event(log, ev, i, holidays) if ev is not None else None
         if spec is not None and ev is not None:
-            for part in split_by_weekday(spec, ev):
+            for part in derived_events(spec, ev):
                 _check_class_name(log, part, i, raw_events, holiday_names, item_of)
                 events.append(part)
                 item_of[part.name] = i

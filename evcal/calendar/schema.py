@@ -294,7 +294,7 @@ class EventModel(_Section):
     effect: Effect = EffectSpec()
     by_weekday: WeekdayClasses | None = None
     # pull-forward: days after (before) the event's window whose effect is estimated on its own
-    # (evcal.calendar.event_builder.dip_companions)
+    # (made in evcal.calendar.event_builder.derived_events)
     dip_after: Days = 0
     dip_before: Days = 0
 

@@ -161,31 +161,32 @@ class Group:
         self.refine_cache = {}
 
 
-def group_info(template: Template, calendar: Any, observed: np.ndarray, origin: float
-                ) -> tuple[GroupInfo, np.ndarray, list[str]]:
+def group_info(template: Template, observed: np.ndarray, origin: float
+               ) -> tuple[GroupInfo, np.ndarray, list[str]]:
     """Fit rows and column statuses for one observed pattern (prepare's last steps; the fit matrix:
     :func:`fit_matrix`)."""
     inp = template.inp
     rows = observed & inp.rows
     roles = inp.design.roles
     X, all_base, base_full = template.at_origin(origin)
-    if template.identified and origin == inp.spec.trend_origin and np.array_equal(rows, inp.rows):
+    same_rows = np.array_equal(rows, inp.rows)
+    if template.identified and origin == inp.spec.trend_origin and same_rows:
         # a panel of one whose inputs were identified on these very rows (evcal.fit): checking the
         # columns again would give the same statuses (measured: a daily 20-year fit with 100 events,
         # benchmarks/fit.py's case, went from a median 0.56 s to 0.50 s over 5 runs without it)
         status, fitted_cols = dict(inp.status), list(inp.fitted_cols)
     else:
         values = template.values(origin)
-        base_cols = _independent_base(values, rows, all_base, base_full, np.array_equal(rows, inp.rows))
+        base_cols = _independent_base(values, rows, all_base, base_full, same_rows)
         fixed = {c: st for c, st in inp.status.items() if st.status in ("assumed", "like")}
         candidates = [c for c in inp.status if c not in fixed]
         # graded on the rows the fit solves (the additive model's are scaled by the open share)
         graded = template.values(origin, graded=True) if template.transform == "none" else None
-        status = check_columns(values, rows, base_cols, candidates, roles, calendar, graded_on=graded)
+        status = check_columns(values, rows, base_cols, candidates, roles, template.calendar,
+                               graded_on=graded)
         status.update(fixed)
         fitted_cols = base_cols + [c for c in candidates if status[c].status == "fitted"]
-    terms = template.terms() if calendar is template.calendar else \
-        {k: v for k, v in calendar_terms(calendar).items() if k != "exclusions"}
+    terms = template.terms()
     info = GroupInfo(transform=template.transform, status=status, fitted_cols=fitted_cols,
                      base_columns=all_base, like_map=dict(inp.like_map), assumed=dict(inp.assumed), **terms,
                      spec=replace(inp.spec, trend_origin=origin), roles=dict(roles))

@@ -120,7 +120,7 @@ def plan_units(panel: Panel, calendar: Any, options: FitOptions, single: ModelIn
             tpl = template(tr)
             origin = float(origins[gid_local == gl][0])
             observed = ~np.isnan(panel.values[:, members[0]])
-            info, rows, notes = group_info(tpl, calendar, observed, origin)
+            info, rows, notes = group_info(tpl, observed, origin)
             n_fit, k = int(rows.sum()), len(info.fitted_cols)
             if n_fit <= k:
                 screen.skip(members, "too few periods for the model",

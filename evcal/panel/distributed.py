@@ -197,12 +197,6 @@ class DaskRunner:
                 fut.release()
 
 
-def dask_runner(workers: int | None = None, scheduler: str | None = None, progress: bool = False,
-                label: str = "fitting series") -> DaskRunner:
-    """A :class:`DaskRunner`: use it in a ``with`` block, so its cluster is shut down at the end."""
-    return DaskRunner(workers, scheduler, progress, label)
-
-
 def _import_modules(names: tuple[str, ...]) -> None:
     import importlib
 

@@ -180,7 +180,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         ``total``/``totals`` with more than one series (a target is per plan:
         plan one series, or fit the level the target belongs to and allocate).
     """
-    from evcal.panel.distributed import dask_runner, local_runner
+    from evcal.panel.distributed import DaskRunner, local_runner
     from evcal.plan.simulate import check_sims
     from evcal.progress import progress_enabled
 
@@ -213,7 +213,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
                             options, positions=alone[a:a + PLAN_CHUNK])
                   for i, a in enumerate(range(0, len(alone), PLAN_CHUNK))]
         if in_workers:
-            with dask_runner(workers, None, show, "planning series") as run:
+            with DaskRunner(workers, None, show, "planning series") as run:
                 frames += [c.frame for c in run(chunks, _plan_chunk)]
         else:
             run = local_runner(show, threads=1, label="planning series")

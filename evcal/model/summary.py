@@ -10,6 +10,7 @@ import pandas as pd
 
 from evcal.design.weekdays import fitted_profile, profile_line, weekday_note
 from evcal.io.history import period_dates
+from evcal.model.leap import leap_year_line
 
 
 def last_full_year(values: pd.Series, label: str) -> dict[str, Any]:
@@ -96,6 +97,8 @@ def describe(result: Any) -> str:
     # settings the data chose (evcal.model.choose): what, among which candidates, and why
     lines += [f"chosen  : {c['reason']}" for c in getattr(result.spec, "choices", None) or []]
     lines += weekday_lines(result)
+    leap = leap_year_line(result)
+    lines += [leap] if leap else []
     q = result.quality or {}
     if q:
         wape, sd = q.get("wape_pct", float("nan")), q.get("resid_sd", float("nan"))

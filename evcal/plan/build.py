@@ -31,6 +31,7 @@ from evcal.effects import GroupInfo, SpanContext, closure_shares
 from evcal.effects.decompose import decompose_block
 from evcal.errors import PlanError
 from evcal.model.identify import ColumnStatus
+from evcal.model.leap import leap_year_notes
 from evcal.plan.future import future_changes, history_last_day
 from evcal.plan.horizon import full_years, horizon_periods, period_dates, period_years
 from evcal.plan.result import Plan
@@ -207,6 +208,7 @@ def plan_periods(
                      "than changing the total")
     if err.kind == "arima":
         notes.append("the base includes the forecast of the ARIMA error from the end of the history")
+    notes += leap_year_notes(result, periods)
     return Plan(
         table=table, periods=periods, freq=result.freq, label=result.label, events=events,
         assumptions=h.active, model_totals=model_totals, target=target, factors=factors,

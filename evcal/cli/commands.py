@@ -126,6 +126,10 @@ def fit_cmd(
         raise EvcalError("--driver: outside drivers are fitted for a single series only so far; fit each "
                          "series alone, or leave --driver out for the panel")
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
+    cal, drivers = _calendar_and_drivers(calendar, driver)
+    if panel and drivers:
+        raise EvcalError(f"{cal.source}: drivers: outside drivers are fitted for a single series only so "
+                         "far; fit each series alone, or use a calendar without drivers: for the panel")
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                           trading_days, allow_negative, leap_year)
     if panel:  # many series: evcal.panel
@@ -142,18 +146,28 @@ def fit_cmd(
     from evcal.model.summary import describe
 
     source: Any = history
-    if driver:
+    if drivers:
         from evcal.io import read_history
 
         source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
-                              allow_negative=allow_negative, drivers=driver)
-    result = fit(source, calendar, date_col=date_col, value_col=value_col, freq=freq, **options)
+                              allow_negative=allow_negative, drivers=drivers)
+    result = fit(source, cal, date_col=date_col, value_col=value_col, freq=freq, **options)
     result.save(out)
     typer.echo(describe(result))
     files = "model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv"
     if result.spec.drivers:
         files += ", drivers.csv"
     typer.echo(f"\nwrote {out}/ ({files})")
+
+
+def _calendar_and_drivers(calendar: str | None,
+                          driver: list[str] | None) -> tuple[Any, list[tuple[str, str]]]:
+    """The calendar and the outside drivers: its ``drivers:``, then ``--driver`` (which wins)."""
+    from evcal.io.drivers import merge_drivers
+    from evcal.model.inputs import load_calendar_any
+
+    cal = load_calendar_any(calendar)
+    return cal, merge_drivers(cal.drivers, driver)
 
 
 @command("show")

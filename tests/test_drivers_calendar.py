@@ -118,7 +118,7 @@ def test_a_driver_named_like_a_term_or_an_output_column_is_one_line(tmp_path, co
 
 
 def test_a_driver_moving_with_the_trend_does_not_drop_the_others():
-    """Before: with an event in the calendar, price and spend both vanished (no driver in the spec, exit 0)."""
+    """Before: with an event in the calendar, price and spend both vanished (no driver in the spec)."""
     frame = invented().assign(spend=lambda f: np.linspace(1.0, 2.0, len(f)))
     calendar = "name: shop\nevents:\n  - {name: promo, when: {dates: [2021-03-07, 2022-03-06]}}\n"
     res = evcal.fit(read_history(frame, drivers=["price:log", "spend"]), calendar, errors="ols")

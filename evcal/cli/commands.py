@@ -36,6 +36,9 @@ TradingDays = Annotated[bool | None, typer.Option(
 LeapYear = Annotated[bool | None, typer.Option(
     "--leap-year/--no-leap-year", help="Leap-year term (monthly, quarterly); neither given: chosen by AICc.")]
 AllowNegative = Annotated[bool, typer.Option("--allow-negative", help="Accept negative values.")]
+Driver = Annotated[list[str] | None, typer.Option(
+    "--driver", help="An outside driver: a numeric column of the history, NAME (as it is) or NAME:log "
+    "(entered as its log: an elasticity); repeat for several; adds to the calendar's drivers: (and wins).")]
 Force = Annotated[bool, typer.Option(
     "--force", help="Replace evcal's own output of another kind or version at --out (never a file or "
     "folder evcal did not write, never an input).")]
@@ -115,9 +118,7 @@ def fit_cmd(
     group_col: str = typer.Option(None, "--group-col", help="Column grouping series for pooled lifts."),
     workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
-    driver: list[str] = typer.Option(
-        None, "--driver", help="An outside driver: a numeric column of the history, NAME (as it is) or "
-        "NAME:log (entered as its log: an elasticity); repeat for several."),
+    driver: Driver = None,
     force: Force = False,
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
@@ -266,6 +267,7 @@ def backtest_cmd(
     trading_days: TradingDays = None,
     allow_negative: AllowNegative = False,
     leap_year: LeapYear = None,
+    driver: Driver = None,
     force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
@@ -275,7 +277,7 @@ def backtest_cmd(
     from evcal.backtesting import backtest, format_table, save_backtest
 
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
-                  value_col=value_col, freq=freq,
+                  value_col=value_col, freq=freq, drivers=driver,
                   **fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                                     trading_days, allow_negative, leap_year))
     save_backtest(bt, out)

@@ -212,31 +212,41 @@ def plan_cmd(
     drivers: str | None = typer.Option(
         None, "--drivers",
         help="Outside drivers' future values: a file with a date column and one column per driver."),
+    compare_drivers: str | None = typer.Option(
+        None, "--compare-drivers",
+        help="Scenario B's outside drivers' future values (a file like --drivers, e.g. with a price cut): "
+        "write both plans side by side; calendar B is --compare, or the same calendar."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
     from evcal.panel.result import is_panel_dir
 
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
-        if drivers:
-            raise PlanError("--drivers: panel models have no outside drivers; leave --drivers out")
+        if drivers or compare_drivers:
+            option = "--drivers" if drivers else "--compare-drivers"
+            raise PlanError(f"{option}: panel models have no outside drivers; leave {option} out")
         from evcal.panel.planning import plan_panel_cmd
 
         return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
                               totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
                               seed=seed, series=series or None, allocate=allocate, workers=workers,
                               force=force)
-    kind = "compare" if compare_cal else "plan"
+    if compare_drivers and not drivers:
+        raise PlanError(f"--compare-drivers {compare_drivers}: give scenario A's driver values with "
+                        "--drivers too (scenario B is the same file with the change, e.g. a price cut)")
+    kind = "compare" if compare_cal or compare_drivers else "plan"
     if Path(out).suffix.lower() not in (".csv", ".xlsx"):  # refused before any work
         raise PlanError(f"--out {out}: unknown file type; write {kind}.csv or {kind}.xlsx")
-    check_output(out, kind, inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers], force=force)
+    check_output(out, kind, force=force,
+                 inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers, compare_drivers])
     from evcal.model import load_model
     from evcal.plan import compare, make_plan
 
     result = load_model(model_dir)
     options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed}
-    if compare_cal:
-        cmp = compare(result, start, end, compare_cal, calendar_a=calendar, **options)
+    if compare_cal or compare_drivers:
+        cmp = compare(result, start, end, compare_cal, calendar_a=calendar, drivers_a=drivers,
+                      drivers_b=compare_drivers, **options)
         cmp.save(out)
         typer.echo(cmp.plan_a.summary())
         typer.echo("")

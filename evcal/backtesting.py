@@ -89,6 +89,20 @@ def _seasonal_naive(values: pd.Series, test: pd.PeriodIndex, prev_mask: np.ndarr
     return np.where(np.isfinite(lagged), lagged, fallback)
 
 
+def _with_held_out_drivers(res: Any, actual: pd.DataFrame) -> Any:
+    """The fold's model planning with the held-out year's own driver values (known actuals).
+
+    A driver is empty only where the history has no sales; those periods are not
+    scored, so the nearest known value stands in for them.
+    """
+    from evcal.plan.build import with_driver_values
+
+    filled = actual.ffill().bfill()
+    frame = pd.DataFrame({"date": filled.index.start_time.strftime("%Y-%m-%d"),
+                          **{c: filled[c].to_numpy() for c in filled.columns}})
+    return with_driver_values(res, frame)
+
+
 def backtest(
     history: Any,
     calendar: Any,
@@ -98,6 +112,7 @@ def backtest(
     value_col: str = "value",
     freq: str | None = None,
     progress: bool | None = None,
+    drivers: Any = None,
     **fit_options: Any,
 ) -> pd.DataFrame:
     """Rolling-origin backtest by calendar year: evcal against average-share and seasonal naive.
@@ -114,6 +129,11 @@ def backtest(
         Passed to :func:`evcal.io.read_history`.
     progress : bool, optional
         Show a progress bar on stderr (default: when stderr is a terminal).
+    drivers : sequence of str, optional
+        Outside drivers (``NAME`` or ``NAME:log``) besides the calendar's ``drivers:``
+        (these win, as ``--driver`` does in a fit). Each held-out year is planned
+        with the history's own driver values for that year: they are known actuals,
+        so the score is the plan's given what the drivers did.
     **fit_options
         :class:`evcal.model.FitOptions` fields, used for every fold's fit.
 
@@ -139,6 +159,7 @@ def backtest(
     """
     from evcal.engine import fit
     from evcal.io import History, read_history
+    from evcal.io.drivers import check_history_drivers, merge_drivers
     from evcal.model.fit_rows import excluded_periods
     from evcal.model.inputs import load_calendar_any
     from evcal.plan.build import plan_periods
@@ -147,10 +168,12 @@ def backtest(
     if isinstance(holdout_years, bool) or not isinstance(holdout_years, int | np.integer) \
             or holdout_years < 1:
         raise PlanError(f"--holdout-years {holdout_years!r}: must be a whole number of years, 1 or more")
+    cal = load_calendar_any(calendar)
+    wanted = merge_drivers(cal.drivers, drivers)
     hist = history if isinstance(history, History) else read_history(
         history, date_col=date_col, value_col=value_col, freq=freq,
-        allow_negative=bool(fit_options.get("allow_negative", False)))
-    cal = load_calendar_any(calendar)
+        allow_negative=bool(fit_options.get("allow_negative", False)), drivers=wanted or None)
+    check_history_drivers(hist, cal)
     values = hist.values.astype(float)
     periods = values.index
     years = period_years(periods, hist.label)
@@ -175,11 +198,15 @@ def backtest(
                     f"a fit needs at least {2 * p} (two full years); use fewer --holdout-years")
             train_hist = History(values=values[train], freq=hist.freq, label=hist.label,
                                  source=f"{hist.source} (before {y})",
-                                 missing=[m for m in hist.missing if m < periods[train][-1] + 1])
+                                 missing=[m for m in hist.missing if m < periods[train][-1] + 1],
+                                 drivers=None if hist.drivers is None else hist.drivers[train],
+                                 driver_scales=dict(hist.driver_scales))
             res = fit(train_hist, cal, **fit_options)
             advance(1)
             test_mask = years == y
             test = periods[test_mask]
+            if hist.drivers is not None:
+                res = _with_held_out_drivers(res, hist.drivers[test_mask])
             plan = plan_periods(res, test, calendar=cal, new_events="zero", n_sims=0)
             actual = values[test_mask].to_numpy(dtype=float)
             scored = np.isfinite(actual) & ~excluded[test_mask]
@@ -221,6 +248,11 @@ def backtest(
                     rows.append({"year": int(y), "method": method, "spread": how, **score(f, a)})
     out = pd.DataFrame(rows, columns=COLUMNS)
     out["peak_error"] = out["peak_error"].astype(int)
+    if hist.drivers is not None:
+        names = ", ".join(hist.drivers.columns)
+        notes.append(f"outside drivers ({names}): each held-out year is planned with "
+                     "its own driver values from the history (known actuals), so the score is the plan's "
+                     "given what the drivers did, not a forecast of the drivers")
     out.attrs["notes"] = notes
     out.attrs["average_share"] = average_share_kind(hist.freq)
     return out

@@ -64,6 +64,8 @@ class Calendar:
     public_holidays: PublicHolidays | None = None
     #: relative sales level of each weekday, Monday..Sunday (``weekday_profile:``), or None (flat)
     weekday_profile: tuple[float, ...] | None = None
+    #: outside drivers as (column, scale) pairs (``drivers:``); the fit reads them from the history
+    drivers: tuple[tuple[str, str], ...] = ()
     text: str = field(default="", repr=False)  # the YAML as read, e.g. to keep with a model
 
     # ------------------------------------------------------------ look-up

@@ -32,6 +32,8 @@ from evcal.calendar.schema import (
     InterventionModel,
     PublicHolidaysModel,
     check_weekday_profile,
+    driver_name_problems,
+    read_drivers,
 )
 from evcal.calendar.spec import EventSpec, ExclusionSpec, InterventionSpec
 from evcal.calendar.value_parsers import parse_effect, show
@@ -187,9 +189,15 @@ def _read_calendar(data: Any, source: str, log: ProblemLog, folder: Path | None 
         for i, raw in enumerate(_items(data, "exclude"))
         if (ex := log.validate(ExclusionModel, raw, ("exclude", i))) is not None
     ]
+    drivers, driver_problems = read_drivers(data.get("drivers"))  # outside drivers (evcal.design.drivers)
+    taken = {**{e.name: "an event" for e in events},
+             **{iv.name: "an intervention" for iv in interventions}}
+    for loc, message in driver_problems + driver_name_problems(drivers, taken):
+        log.add(loc, message)
     if log.problems:
         return None
-    return Calendar(name, source, events, interventions, exclusions, public, weekday_profile=profile)
+    return Calendar(name, source, events, interventions, exclusions, public, weekday_profile=profile,
+                    drivers=tuple(drivers))
 
 
 def _saved_files(log: ProblemLog, data: dict[str, Any]) -> dict[str, str]:

@@ -36,6 +36,9 @@ TradingDays = Annotated[bool | None, typer.Option(
 LeapYear = Annotated[bool | None, typer.Option(
     "--leap-year/--no-leap-year", help="Leap-year term (monthly, quarterly); neither given: chosen by AICc.")]
 AllowNegative = Annotated[bool, typer.Option("--allow-negative", help="Accept negative values.")]
+Driver = Annotated[list[str] | None, typer.Option(
+    "--driver", help="An outside driver: a numeric column of the history, NAME (as it is) or NAME:log "
+    "(entered as its log: an elasticity); repeat for several; adds to the calendar's drivers: (and wins).")]
 Force = Annotated[bool, typer.Option(
     "--force", help="Replace evcal's own output of another kind or version at --out (never a file or "
     "folder evcal did not write, never an input).")]
@@ -115,9 +118,7 @@ def fit_cmd(
     group_col: str = typer.Option(None, "--group-col", help="Column grouping series for pooled lifts."),
     workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
-    driver: list[str] = typer.Option(
-        None, "--driver", help="An outside driver: a numeric column of the history, NAME (as it is) or "
-        "NAME:log (entered as its log: an elasticity); repeat for several."),
+    driver: Driver = None,
     force: Force = False,
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
@@ -126,6 +127,10 @@ def fit_cmd(
         raise EvcalError("--driver: outside drivers are fitted for a single series only so far; fit each "
                          "series alone, or leave --driver out for the panel")
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
+    cal, drivers = _calendar_and_drivers(calendar, driver)
+    if panel and drivers:
+        raise EvcalError(f"{cal.source}: drivers: outside drivers are fitted for a single series only so "
+                         "far; fit each series alone, or use a calendar without drivers: for the panel")
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                           trading_days, allow_negative, leap_year)
     if panel:  # many series: evcal.panel
@@ -142,18 +147,28 @@ def fit_cmd(
     from evcal.model.summary import describe
 
     source: Any = history
-    if driver:
+    if drivers:
         from evcal.io import read_history
 
         source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
-                              allow_negative=allow_negative, drivers=driver)
-    result = fit(source, calendar, date_col=date_col, value_col=value_col, freq=freq, **options)
+                              allow_negative=allow_negative, drivers=drivers)
+    result = fit(source, cal, date_col=date_col, value_col=value_col, freq=freq, **options)
     result.save(out)
     typer.echo(describe(result))
     files = "model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv"
     if result.spec.drivers:
         files += ", drivers.csv"
     typer.echo(f"\nwrote {out}/ ({files})")
+
+
+def _calendar_and_drivers(calendar: str | None,
+                          driver: list[str] | None) -> tuple[Any, list[tuple[str, str]]]:
+    """The calendar and the outside drivers: its ``drivers:``, then ``--driver`` (which wins)."""
+    from evcal.io.drivers import merge_drivers
+    from evcal.model.inputs import load_calendar_any
+
+    cal = load_calendar_any(calendar)
+    return cal, merge_drivers(cal.drivers, driver)
 
 
 @command("show")
@@ -197,31 +212,41 @@ def plan_cmd(
     drivers: str | None = typer.Option(
         None, "--drivers",
         help="Outside drivers' future values: a file with a date column and one column per driver."),
+    compare_drivers: str | None = typer.Option(
+        None, "--compare-drivers",
+        help="Scenario B's outside drivers' future values (a file like --drivers, e.g. with a price cut): "
+        "write both plans side by side; calendar B is --compare, or the same calendar."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
     from evcal.panel.result import is_panel_dir
 
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
-        if drivers:
-            raise PlanError("--drivers: panel models have no outside drivers; leave --drivers out")
+        if drivers or compare_drivers:
+            option = "--drivers" if drivers else "--compare-drivers"
+            raise PlanError(f"{option}: panel models have no outside drivers; leave {option} out")
         from evcal.panel.planning import plan_panel_cmd
 
         return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
                               totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
                               seed=seed, series=series or None, allocate=allocate, workers=workers,
                               force=force)
-    kind = "compare" if compare_cal else "plan"
+    if compare_drivers and not drivers:
+        raise PlanError(f"--compare-drivers {compare_drivers}: give scenario A's driver values with "
+                        "--drivers too (scenario B is the same file with the change, e.g. a price cut)")
+    kind = "compare" if compare_cal or compare_drivers else "plan"
     if Path(out).suffix.lower() not in (".csv", ".xlsx"):  # refused before any work
         raise PlanError(f"--out {out}: unknown file type; write {kind}.csv or {kind}.xlsx")
-    check_output(out, kind, inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers], force=force)
+    check_output(out, kind, force=force,
+                 inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers, compare_drivers])
     from evcal.model import load_model
     from evcal.plan import compare, make_plan
 
     result = load_model(model_dir)
     options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed}
-    if compare_cal:
-        cmp = compare(result, start, end, compare_cal, calendar_a=calendar, **options)
+    if compare_cal or compare_drivers:
+        cmp = compare(result, start, end, compare_cal, calendar_a=calendar, drivers_a=drivers,
+                      drivers_b=compare_drivers, **options)
         cmp.save(out)
         typer.echo(cmp.plan_a.summary())
         typer.echo("")
@@ -252,6 +277,7 @@ def backtest_cmd(
     trading_days: TradingDays = None,
     allow_negative: AllowNegative = False,
     leap_year: LeapYear = None,
+    driver: Driver = None,
     force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
@@ -261,7 +287,7 @@ def backtest_cmd(
     from evcal.backtesting import backtest, format_table, save_backtest
 
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
-                  value_col=value_col, freq=freq,
+                  value_col=value_col, freq=freq, drivers=driver,
                   **fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                                     trading_days, allow_negative, leap_year))
     save_backtest(bt, out)

@@ -89,6 +89,35 @@ class Drivers:
         return term_columns(self.terms, periods)
 
 
+#: the columns of the fitted table (``fitted.csv``) besides one per term: a driver may not take these names
+FITTED_COLUMNS = ("date", "actual", "fitted", "base", "in_fit")
+
+
+def check_driver_names(drivers: Drivers, others: dict[str, str], calendar: Any) -> None:
+    """One line when a driver is named like an event or intervention of ``calendar`` or a column evcal makes.
+
+    ``others`` maps each column of the design's other blocks to its role (trend,
+    seasonal, event, intervention). A driver sharing a name would share a column
+    of the design, of ``fitted.csv`` and of the plan with that term.
+    """
+    source = getattr(calendar, "source", "the calendar")
+
+    def where(item: Any) -> str:
+        return f"{source}, line {item.line}" if getattr(item, "line", None) else source
+
+    taken = {**{e.name: f"an event of the calendar ({where(e)})" for e in getattr(calendar, "events", ())},
+             **{iv.name: f"an intervention of the calendar ({where(iv)})"
+                for iv in getattr(calendar, "interventions", ())},
+             **{c: f"a {role} column evcal makes" for c, role in others.items()
+                if role in ("trend", "seasonal")},
+             **{c: "a column of fitted.csv" for c in FITTED_COLUMNS}}
+    for term in drivers.terms:
+        if term.name in taken:
+            raise DriverError(f"driver {term.name!r} is also the name of {taken[term.name]}; a driver "
+                              "needs a name of its own: rename the history's column and the driver (--driver "
+                              "or the calendar's drivers:)")
+
+
 def with_future(records: list[dict[str, Any]], future: pd.DataFrame, freq: str) -> list[dict[str, Any]]:
     """Driver records (``DesignSpec.drivers``) with the future values of ``future`` added.
 

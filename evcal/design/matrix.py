@@ -14,7 +14,7 @@ from typing import Any
 import pandas as pd
 
 from evcal.design.base import Block
-from evcal.design.drivers import Drivers, DriverTerm
+from evcal.design.drivers import Drivers, DriverTerm, check_driver_names
 from evcal.design.events import EventColumns, OpenShare
 from evcal.design.interventions import Interventions, InterventionTerm
 from evcal.design.seasonal import (
@@ -124,15 +124,18 @@ def build_design(spec: DesignSpec, calendar: Any, periods: pd.PeriodIndex) -> De
     0.0323
     """
     calendar = spec.calendar(calendar)
+    drivers = Drivers(spec.driver_terms())
     blocks: list[tuple[str, Block]] = [
         ("trend", Trend(spec.trend_origin, spec.trend_order, spec.constant)),
         *[("seasonal", block) for block in spec.seasonal_blocks()],
         ("event", EventColumns(calendar, list(spec.event_columns), dict(spec.event_theta))),
         ("intervention", Interventions(spec.intervention_terms())),
-        ("driver", Drivers(spec.driver_terms())),
+        ("driver", drivers),
     ]
     parts = [(role, block.columns(periods)) for role, block in blocks]
     roles = {c: role for role, frame in parts for c in frame.columns}
+    if drivers.terms:  # a driver named like another term would share its column
+        check_driver_names(drivers, {c: r for r, f in parts[:-1] for c in f.columns}, calendar)
     X = pd.concat([frame for _, frame in parts], axis=1).astype(float)
     return Design(X=X, open_share=OpenShare(calendar).values(periods), roles=roles)
 

@@ -56,6 +56,37 @@ def parse_drivers(drivers: Sequence[str | tuple[str, str]] | None) -> list[tuple
     return out
 
 
+def merge_drivers(from_calendar: Sequence[tuple[str, str]], given: Sequence[str | tuple[str, str]] | None
+                  ) -> list[tuple[str, str]]:
+    """The calendar's ``drivers:`` with the command line's ``--driver`` added; the command line wins.
+
+    A driver named in both takes the command line's scale (``--driver price:level``
+    over ``drivers: {price: {scale: log}}``), so one run can try the other scale
+    without editing the calendar.
+
+    Examples
+    --------
+    >>> merge_drivers([("price", "log"), ("temperature", "level")], ["price:level", "spend:log"])
+    [('price', 'level'), ('temperature', 'level'), ('spend', 'log')]
+    """
+    out = dict(from_calendar)
+    out.update(parse_drivers(given))
+    return list(out.items())
+
+
+def check_history_drivers(history: object, calendar: object) -> None:
+    """One line when the calendar names a driver the history was read without (never ignored silently)."""
+    wanted = [n for n, _ in getattr(calendar, "drivers", ())]
+    frame = getattr(history, "drivers", None)
+    have = set(frame.columns) if frame is not None else set()
+    missing = [n for n in wanted if n not in have]
+    if missing:
+        source = getattr(calendar, "source", "the calendar")
+        raise DriverError(f"{source}: drivers: {missing[0]!r} is not among the history's driver columns; "
+                          "read the history with its drivers "
+                          "(read_history(..., drivers=...)), or give the history as a file")
+
+
 def driver_cells(table: RawTable, keep: np.ndarray, rows: list[int], drivers: list[tuple[str, str]],
                  reserved: Sequence[str], needed: np.ndarray) -> dict[str, pd.Series]:
     """Each driver's values on the kept rows of ``table``, positionally (float, NaN where empty).

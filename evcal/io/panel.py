@@ -42,6 +42,9 @@ class Panel:
     source: str
     value_col: str = "value"
     attrs: pd.DataFrame | None = None  # per-series attribute columns (constant within a series)
+    #: a panel of one made from a History with outside drivers: their values and scales, kept for
+    #: :meth:`history` (a pass that prepares the series again must see its drivers)
+    drivers: tuple[pd.DataFrame, dict[str, str]] | None = None
 
     @property
     def key_cols(self) -> list[str]:
@@ -57,7 +60,8 @@ class Panel:
         values = history.values
         return cls(pd.DataFrame(index=range(1)), values.to_numpy(dtype=float)[:, None], values.index,
                    np.zeros(1, dtype=int), np.array([len(values) - 1]), history.freq, history.label,
-                   history.source, str(values.name or "value"))
+                   history.source, str(values.name or "value"),
+                   drivers=(history.drivers, history.driver_scales) if history.drivers is not None else None)
 
     def key_text(self, j: int) -> str:
         """``product='P1', store='S2'``: how messages name series ``j``."""
@@ -74,7 +78,9 @@ class Panel:
         vals = pd.Series(self.values[sl, j].copy(), index=index, name=self.value_col)
         missing = list(index[np.isnan(vals.to_numpy())])
         source = f"{self.source} [{self.key_text(j)}]" if self.key_cols else self.source
-        return History(values=vals, freq=self.freq, label=self.label, source=source, missing=missing)
+        extra = {} if self.drivers is None else {"drivers": self.drivers[0].iloc[sl],
+                                                 "driver_scales": dict(self.drivers[1])}
+        return History(values=vals, freq=self.freq, label=self.label, source=source, missing=missing, **extra)
 
     def dates(self, periods: pd.PeriodIndex | None = None) -> pd.DatetimeIndex:
         """Date stamps of ``periods`` as the file writes them."""

@@ -1,10 +1,11 @@
-"""Scenarios: the same plan under a second calendar, side by side.
+"""Scenarios: the same plan under a second calendar, or second driver values, side by side.
 
-A promotion moved, a tournament cancelled, a closure added: plan the same
-horizon with calendar A and with calendar B (same model, same target, same
-simulation seed) and write ``date, plan_a, plan_b, difference`` per period,
-with a last row of totals. With a target both plans add up to it, so the
-difference shows where the volume moves rather than how much there is.
+A promotion moved, a tournament cancelled, a closure added, a price cut in
+week 20: plan the same horizon as scenario A and scenario B (same model, same
+target, same simulation seed; B's calendar or outside drivers' future values
+differ) and write ``date, plan_a, plan_b, difference`` per period, with a last
+row of totals. With a target both plans add up to it, so the difference shows
+where the volume moves rather than how much there is.
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ import numpy as np
 import pandas as pd
 
 from evcal._files import atomic_path
+from evcal.errors import PlanError
 from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
@@ -59,7 +61,7 @@ class Comparison:
                      for k in order]
             lines.append("Periods that differ most: " + "; ".join(parts) + ".")
         else:
-            lines.append("The two calendars give the same plan in every period.")
+            lines.append("The two scenarios give the same plan in every period.")
         gained = sorted(set(self.plan_b.events) - set(self.plan_a.events))
         lost = sorted(set(self.plan_a.events) - set(self.plan_b.events))
         if gained:
@@ -87,27 +89,54 @@ class Comparison:
         return path
 
 
+def _label(calendar_name: str | None, drivers: Any, differ: bool) -> str | None:
+    """A scenario's name: its calendar's, and its drivers' file when the scenarios' drivers differ."""
+    if not differ or drivers is None:
+        return calendar_name
+    what = Path(drivers).name if isinstance(drivers, (str, Path)) else "drivers given"
+    return f"{calendar_name}, {what}" if calendar_name else what
+
+
+def _plan(result: Any, start: Any, end: Any, calendar: Any, drivers: Any, option: str | None,
+          **plan_options: Any) -> Plan:
+    """One scenario's plan; a problem with its driver values names the option and file that gave them."""
+    from evcal.io.drivers import DriverError
+
+    try:
+        return make_plan(result, start, end, calendar=calendar, drivers=drivers, **plan_options)
+    except DriverError as err:
+        if option is None or not isinstance(drivers, (str, Path)):
+            raise
+        raise DriverError(f"{option} {Path(drivers).name}: {err.problems[0]}") from None
+
+
 def compare(
     result: Any,
     start: Any,
     end: Any,
-    calendar_b: Any,
+    calendar_b: Any = None,
     calendar_a: Any = None,
     name_a: str | None = None,
     name_b: str | None = None,
+    drivers_a: Any = None,
+    drivers_b: Any = None,
     **plan_options: Any,
 ) -> Comparison:
-    """Plan ``[start, end]`` under ``calendar_a`` (the fitted one by default) and ``calendar_b``.
+    """Plan ``[start, end]`` as scenario A and scenario B: calendars, or outside drivers' values, differ.
 
     Parameters
     ----------
     result : FitResult
     start, end
         The horizon, as for :func:`evcal.plan.make_plan`.
-    calendar_b : path, YAML text or Calendar
-        The second scenario's calendar.
+    calendar_b : path, YAML text, Calendar or None
+        The second scenario's calendar (``calendar_a`` when None).
     calendar_a : path, YAML text, Calendar or None
         The first scenario's calendar (the fitted one when None).
+    drivers_a, drivers_b : path or DataFrame, optional
+        The outside drivers' future values of each scenario (as ``--drivers`` of
+        :func:`evcal.plan.make_plan`); ``drivers_b`` defaults to ``drivers_a``.
+        A price cut in week 20: the same file with that week's price 10 % lower.
     name_a, name_b : str, optional
         Labels for the summary (default: the calendars' ``name``).
     **plan_options
@@ -118,8 +147,15 @@ def compare(
     >>> cmp = compare(res, "2027-01-01", "2027-12-31", "calendar-no-tournament.yaml")  # doctest: +SKIP
     >>> print(cmp.summary())                                                         # doctest: +SKIP
     """
-    plan_a = make_plan(result, start, end, calendar=calendar_a, **plan_options)
-    plan_b = make_plan(result, start, end, calendar=calendar_b, **plan_options)
+    if calendar_b is None and drivers_b is None:
+        raise PlanError("a comparison needs a second scenario: a second calendar (--compare) or second "
+                        "driver values (--compare-drivers)")
+    differ = drivers_b is not None
+    calendar_b = calendar_a if calendar_b is None else calendar_b
+    drivers_b = drivers_a if drivers_b is None else drivers_b
+    plan_a = _plan(result, start, end, calendar_a, drivers_a, "--drivers" if differ else None, **plan_options)
+    plan_b = _plan(result, start, end, calendar_b, drivers_b, "--compare-drivers" if differ else None,
+                   **plan_options)
     a = plan_a.table["plan"].to_numpy(dtype=float)
     b = plan_b.table["plan"].to_numpy(dtype=float)
     table = pd.DataFrame({"date": list(plan_a.table["date"]), "plan_a": a, "plan_b": b,
@@ -128,5 +164,5 @@ def compare(
                            "difference": [b.sum() - a.sum()]})
     table = pd.concat([table, totals], ignore_index=True)
     return Comparison(table=table, plan_a=plan_a, plan_b=plan_b,
-                      name_a=name_a or plan_a.calendar_name or "A",
-                      name_b=name_b or plan_b.calendar_name or "B")
+                      name_a=name_a or _label(plan_a.calendar_name, drivers_a, differ) or "A",
+                      name_b=name_b or _label(plan_b.calendar_name, drivers_b, differ) or "B")

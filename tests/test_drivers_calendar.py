@@ -124,3 +124,14 @@ def test_a_driver_moving_with_the_trend_does_not_drop_the_others():
     res = evcal.fit(read_history(frame, drivers=["price:log", "spend"]), calendar, errors="ols")
     assert [d["name"] for d in res.spec.drivers] == ["price", "spend"]
     assert abs(res.params["price"] - TRUE_ELASTICITY) < 0.1
+
+
+def test_a_panel_fit_from_python_refuses_the_calendars_drivers(tmp_path):
+    """The CLI refused a panel calendar with drivers:; the Python panel fit did not (fails on main)."""
+    from evcal.panel import fit_panel
+
+    frame = invented(weeks=110).assign(store="north")
+    hist, cal = _files(tmp_path, frame=frame)
+    with pytest.raises(EvcalError, match=r"cal\.yaml: drivers: outside drivers are fitted for a single "
+                                         r"series only so far"):
+        fit_panel(hist, cal, "store", errors="ols")

@@ -128,9 +128,10 @@ def fit_cmd(
                          "series alone, or leave --driver out for the panel")
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
     cal, drivers = _calendar_and_drivers(calendar, driver)
-    if panel and drivers:
-        raise EvcalError(f"{cal.source}: drivers: outside drivers are fitted for a single series only so "
-                         "far; fit each series alone, or use a calendar without drivers: for the panel")
+    if panel:
+        from evcal.panel import refuse_drivers
+
+        refuse_drivers(cal)  # before the history is read
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                           trading_days, allow_negative, leap_year)
     if panel:  # many series: evcal.panel

@@ -31,6 +31,15 @@ from evcal.panel.result import PanelResult, is_panel_dir, load_panel
 __all__ = ["fit_panel", "PanelResult", "load_panel", "is_panel_dir", "plan_panel"]
 
 
+def refuse_drivers(cal: Any) -> None:
+    """One line when a panel's calendar names outside drivers: they are fitted for single series only."""
+    if getattr(cal, "drivers", None):
+        from evcal.errors import EvcalError
+
+        raise EvcalError(f"{cal.source}: drivers: outside drivers are fitted for a single series only so "
+                         "far; fit each series alone, or use a calendar without drivers: for the panel")
+
+
 def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str | None = None, *,
               date_col: str = "date", value_col: str = "value", freq: str | None = None,
               level: list[str] | str | None = None, group_col: str | None = None,
@@ -85,6 +94,8 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
         panel, keys, levels, cal = read_for_panel(history, series_cols, date_col, value_col, freq, level,
                                                   group_col, meanwhile=lambda: _ready_to_fit(calendar))
         from evcal.engine.run import fit_long_panel  # imported by _ready_to_fit while the file was read
+
+        refuse_drivers(cal)
 
         if out is None:
             fitted = fit_long_panel(panel, cal, opts, runner=runner)

@@ -74,3 +74,44 @@ def test_intervals_reaching_minus_100_or_missing():
     assert wide.tolist() == [True, True, False, False]
     assert np.isnan(interval_ratio(np.nan, 3.0))
     assert "reaches -100 %" in wide_note(-100.0, 10.0)
+
+
+def _one_class_fits(seeds: range) -> pd.DataFrame:
+    """Invented: three years of daily noise (sd 5 %, no event effect) with 4 July split by weekday class;
+    2023-2025 hold it once on a Monday or Friday (2025) and twice midweek. The true lift is 0."""
+    cal = (
+        "name: t\nevents:\n"
+        "  - {name: fete, when: {fixed: '07-04'}, by_weekday: [monday_friday, midweek, weekend]}\n"
+    )
+    days = pd.date_range("2023-01-01", "2025-12-31", freq="D")
+    rows = []
+    for seed in seeds:
+        y = 1000 * np.exp(np.random.default_rng(seed).normal(0, 0.05, len(days)))
+        fitted = evcal.fit(pd.DataFrame({"date": days, "value": y}), cal, errors="ols")
+        lifts = fitted.lifts.set_index("event")
+        for event in ("fete (monday_friday)", "fete (midweek)"):
+            rows.append({"event": event, **lifts.loc[event, ["low_pct", "high_pct", "note"]].to_dict()})
+    out = pd.DataFrame(rows)
+    out["covers"] = (out["low_pct"] <= 0) & (out["high_pct"] >= 0)
+    return out
+
+
+def test_a_one_period_lift_says_its_interval_is_too_narrow():
+    """Invented (above): the one-occurrence class is weak and its note warns that the interval is not
+    its precision. Fails on main: no such warning; passes."""
+    fits = _one_class_fits(range(1))
+    assert all("narrower than the truth" in n for n in fits["note"])
+
+
+@pytest.mark.xfail(
+    strict=True,
+    reason="the robust covariance (evcal/model/estimators.py) reads the noise "
+    "of a one-period lift from its own residual, which the fit makes 0: measured coverage "
+    "35 % (one period) and 82 % (two) for 95 % intervals; the fix is in that file",
+)
+def test_one_and_two_period_intervals_hold_the_truth_nineteen_times_in_twenty():
+    """Invented (above), 40 series with a known lift of 0: a 95 % interval should hold it in about
+    38 of 40 (at least 34 allows for chance: binomial 95 %, 40 draws, lower 2.5 % point 35)."""
+    fits = _one_class_fits(range(40))
+    covered = fits.groupby("event")["covers"].sum()
+    assert covered.min() >= 34, covered.to_dict()

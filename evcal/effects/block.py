@@ -163,7 +163,8 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
             active = ctx.columns[col] > 0
             scale = base[:, active].mean(axis=1) if active.any() else nan
         lift = low = high = nan
-        if (src := group.source(col)) in pmap:
+        estimated = (src := group.source(col)) in pmap  # (fitted or borrowed: an interval of its own)
+        if estimated:
             b, s = pmap[src], se_map[src]
             lift, low, high = (_pct(v, group.transform, scale) for v in (b, b - Z95 * s, b + Z95 * s))
         elif st.status == "assumed":
@@ -178,6 +179,7 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
         rows.append({"event": col, "lift_pct": lift, "low_pct": low, "high_pct": high,
                      "units_per_occurrence": units, "identifiable": ident, "note": note, "kind": kind,
                      "label": info.get("label", col), "_fitted": st.status == "fitted",
+                     "_estimated": estimated,
                      **{c: checks.get(c, "" if c == "within" else np.nan) for c in STRENGTH_COLUMNS}})
     for ev in group.closure_events:
         rows.append({"event": ev, "lift_pct": np.full(m, -100.0), "low_pct": np.full(m, -100.0),
@@ -186,7 +188,11 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
                      "kind": "event", "label": group.event_labels.get(ev, ev), "_fitted": False,
                      **{c: "" if c == "within" else np.nan for c in STRENGTH_COLUMNS}})
     out: dict[str, Any] = {"_sid": np.repeat(sids, len(rows))}
+    wide_text = _wide_grades(rows, m)  # a fitted lift whose interval spans more than an order of magnitude
     for c in LIFT_COLUMNS + ["kind", "label", "_fitted"] + STRENGTH_COLUMNS:
+        if c in wide_text:
+            out[c] = wide_text[c]
+            continue
         values = [row[c] for row in rows]
         if c == "_fitted":
             out[c] = np.tile(np.array(values, dtype=bool), m)
@@ -197,6 +203,29 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
         else:
             out[c] = np.column_stack(values).ravel() if rows else np.zeros(0)
     return Columns(out)
+
+
+def _wide_grades(rows: list[dict[str, Any]], m: int) -> dict[str, pd.Categorical]:
+    """``identifiable`` and ``note`` per series where a lift's interval is too wide to trust, else nothing.
+
+    The rule is :func:`evcal.model.strength.too_wide` on each series' own interval (a panel's series share
+    their design's grade, not their intervals); such a ``yes`` lift becomes ``weak`` with the rule's note.
+    """
+    from evcal.model.strength import too_wide, wide_note
+
+    wide = [too_wide(r["low_pct"], r["high_pct"]) if r.get("_estimated") else np.zeros(m, dtype=bool)
+            for r in rows]
+    if not rows or not np.any(wide):
+        return {}
+    ident = np.empty((m, len(rows)), dtype=object)
+    note = np.empty((m, len(rows)), dtype=object)
+    for j, (r, w) in enumerate(zip(rows, wide, strict=True)):
+        ident[:, j], note[:, j] = r["identifiable"], r["note"]
+        for i in np.flatnonzero(w):
+            extra = wide_note(float(r["low_pct"][i]), float(r["high_pct"][i]))
+            ident[i, j] = "weak"
+            note[i, j] = f"{r['note']}; {extra}" if r["note"] else extra
+    return {"identifiable": pd.Categorical(ident.ravel()), "note": pd.Categorical(note.ravel())}
 
 
 def _identifiable(group: GroupInfo, col: str, st: Any) -> tuple[str, str]:

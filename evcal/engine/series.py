@@ -125,6 +125,7 @@ def new_result(history: Any, calendar: Any, options: FitOptions, inp: ModelInput
 def adopt_tables(result: FitResult, tables: BlockTables, inp: ModelInputs) -> None:
     """Take one series' block tables into ``result`` (lifts, occurrences, profile, fitted, quality)."""
     result.lifts = _plain(tables.lifts).drop(columns=["_fitted"])
+    _weak_from_lifts(result)
     result.occurrences = _plain(tables.occurrences)
     result.profile = _plain(tables.profile)
     result.fitted = _plain(tables.fitted[0])
@@ -139,6 +140,16 @@ def adopt_tables(result: FitResult, tables: BlockTables, inp: ModelInputs) -> No
     result.quality = {"periods_fitted": int(q["periods_fitted"].iloc[0]),
                       "wape_pct": float(q["wape_pct"].iloc[0]), "resid_sd": float(q["resid_sd"].iloc[0])}
     result.warnings += status_notes(result.status)
+
+
+def _weak_from_lifts(result: FitResult) -> None:
+    """Mark weak the fitted columns the lifts table grades weak by their interval (model.json and plans
+    read the status; the rule is evcal.model.strength.too_wide, applied where the intervals are made)."""
+    weak = result.lifts.loc[result.lifts["identifiable"] == "weak", ["event", "note"]]
+    for col, note in zip(weak["event"], weak["note"], strict=True):
+        st = result.status.get(col)
+        if st is not None and st.status == "fitted" and not st.weak:
+            result.status = {**result.status, col: replace(st, weak=True, note=str(note))}
 
 
 def _plain(table: Any) -> pd.DataFrame:

@@ -28,7 +28,6 @@ line and key in front.
 Examples
 --------
 >>> from evcal.calendar.problem_log import ProblemLog
-from evcal.calendar.schema import MAX_DAYS, MAX_STRENGTH  # the longest occurrence and strength, as for dates
 >>> log = ProblemLog({})
 >>> text = "region,start,end\\nnorth,2024-02-12,2024-02-16\\nsouth,2024-02-19,2024-02-23\\n"
 >>> rule = rule_from_text(log, text, "school.csv", (("region", "north"),), 1, ())

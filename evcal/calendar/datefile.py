@@ -28,7 +28,6 @@ line and key in front.
 Examples
 --------
 >>> from evcal.calendar.problem_log import ProblemLog
-from evcal.calendar.schema import MAX_DAYS, MAX_STRENGTH  # the longest occurrence and strength, as for dates
 >>> log = ProblemLog({})
 >>> text = "region,start,end\\nnorth,2024-02-12,2024-02-16\\nsouth,2024-02-19,2024-02-23\\n"
 >>> rule = rule_from_text(log, text, "school.csv", (("region", "north"),), 1, ())
@@ -56,7 +55,8 @@ from evcal.calendar.schema import MAX_DAYS, MAX_STRENGTH  # the longest occurren
 from evcal.calendar.value_parsers import parse_date, show
 from evcal.errors import clip
 
-__all__ = ["SAVED_KEY", "FileRule", "coverage_notes", "read_rule", "rule_from_text", "saved_text"]
+__all__ = ["SAVED_KEY", "FileReach", "FileRule", "coverage_notes", "file_reaches", "history_notes",
+           "read_rule", "rule_from_text", "saved_text"]
 
 #: the columns the file's rows are read from; every other column can filter rows
 START, END, STRENGTH = "start", "end", "strength"
@@ -275,20 +275,92 @@ def saved_text(files: dict[str, str]) -> str:
             "loaded\n" + body)
 
 
+@dataclass(frozen=True)
+class FileReach:
+    """The days one calendar entry's date file speaks for: its first and last occurrence day.
+
+    ``first``/``last`` are days of the event (the rows' days moved by the entry's ``offset``);
+    ``first_row``/``last_row`` the CSV rows they come from; ``longest_gap`` the most days between
+    two consecutive kept rows with no occurrence (0 for one row): a stretch the file itself leaves
+    without the event.
+    """
+
+    event: str
+    rule: FileRule
+    first: dt.date
+    last: dt.date
+    first_row: int
+    last_row: int
+    longest_gap: int
+
+    def source(self) -> str:
+        """``promotions.csv (rows with store_region = north)``: the file and its filter."""
+        return self.rule.path + (f" (rows with {self.rule.filter_text()})" if self.rule.where else "")
+
+
+def file_reaches(cal: Any) -> list[FileReach]:
+    """One :class:`FileReach` per calendar entry whose dates come from a file.
+
+    An entry split ``by_weekday`` or with dip periods is several events of one rule: it is
+    counted once, under the entry's own name.
+    """
+    out: dict[str, FileReach] = {}
+    for ev in getattr(cal, "events", []):
+        rule = ev.when
+        if not isinstance(rule, FileRule) or not rule.items:
+            continue
+        name = ev.split_of or (ev.dip_of.name if ev.dip_of is not None else ev.name)
+        if name in out:
+            continue
+        shift = dt.timedelta(days=ev.dip_of.offset if ev.dip_of is not None else ev.offset)
+        items = sorted(zip(rule.items, rule.rows, strict=True), key=lambda p: (p[0].start, p[1]))
+        ends = sorted(items, key=lambda p: (p[0].end, p[1]))
+        gaps = [(b.start - a.end).days - 1 for (a, _), (b, _) in zip(items, items[1:], strict=False)]
+        out[name] = FileReach(name, rule, items[0][0].start + shift, ends[-1][0].end + shift, items[0][1],
+                              ends[-1][1], max([0, *gaps]))
+    return list(out.values())
+
+
 def coverage_notes(cal: Any, last: Any) -> list[str]:
     """The plan's notes for date files whose rows stop before the horizon's last day ``last`` (a Timestamp).
 
     A day past a file's last row has no occurrence only because the file says nothing about it,
     not because the event will not happen: never silently zero.
     """
+    return [f"{r.event}: {r.source()} lists dates up to {r.last} (row {r.last_row}) and the plan runs to "
+            f"{last.date()}, so the plan has no {r.event} after {r.last}; add the later dates to the file "
+            "and plan again"
+            for r in file_reaches(cal) if r.last < last.date()]
+
+
+def history_notes(cal: Any, first: dt.date, last: dt.date) -> list[str]:
+    """The fit's notes for date files that do not reach over the history ``first`` .. ``last`` (days).
+
+    Where the file has no rows the history is fitted as if the event did not happen: right if it
+    did not, a lift taken into the base if it did. A stretch no longer than the longest gap between
+    the file's own rows is what the file shows between occurrences anyway, so only a longer one
+    gets a note (a file of one row: any stretch).
+
+    Examples
+    --------
+    >>> from evcal.calendar import load_calendar
+    >>> cal = load_calendar("name: t\\nevents:\\n  - {name: p, when: {file: p.csv}}\\n"
+    ...                     + saved_text({"p.csv": "start\\n2021-03-01\\n2021-06-01\\n"}))
+    >>> print(history_notes(cal, dt.date(2021, 1, 1), dt.date(2022, 12, 31))[0])  # doctest: +ELLIPSIS
+    p: p.csv lists dates up to 2021-06-01 (row 3) and the history runs to 2022-12-31, so 2021-06-02 .. \
+2022-12-31 is fitted as if no p happened; ...
+    """
     notes = []
-    for ev in getattr(cal, "events", []):
-        rule = ev.when
-        if not isinstance(rule, FileRule) or rule.last_day is None or rule.last_day >= last.date():
-            continue
-        which = f" (rows with {rule.filter_text()})" if rule.where else ""
-        row = rule.rows[[h.end for h in rule.items].index(rule.last_day)]
-        notes.append(f"{ev.name}: {rule.path}{which} lists dates up to {rule.last_day} (row {row}) and the "
-                     f"plan runs to {last.date()}, so the plan has no {ev.name} after {rule.last_day}; add "
-                     "the later dates to the file and plan again")
+    for r in file_reaches(cal):
+        spans = []
+        if (r.first - first).days > r.longest_gap:
+            spans.append((f"lists dates from {r.first} (row {r.first_row}) and the history starts on {first}",
+                          first, r.first - dt.timedelta(days=1)))
+        if (last - r.last).days > r.longest_gap:
+            spans.append((f"lists dates up to {r.last} (row {r.last_row}) and the history runs to {last}",
+                          r.last + dt.timedelta(days=1), last))
+        for what, lo, hi in spans:
+            notes.append(f"{r.event}: {r.source()} {what}, so {lo} .. {hi} is fitted as if no {r.event} "
+                         f"happened; if it did, add those dates to the file (or exclude the periods) and fit "
+                         f"again")
     return notes

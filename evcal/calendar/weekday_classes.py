@@ -29,7 +29,7 @@ CLASSES: dict[str, tuple[int, ...]] = {
     "workday": (0, 1, 2, 3, 4),
 }
 #: the date rules whose occurrences fall on different weekdays from year to year
-SPLIT_RULES = ("fixed", "holiday", "dates", "span")
+SPLIT_RULES = ("fixed", "holiday", "dates", "file", "span")
 _EXAMPLE = "e.g. by_weekday: [weekend, monday_friday, midweek]"
 
 

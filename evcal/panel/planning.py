@@ -172,7 +172,8 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         ``keys..., date, base, plan, low, high, lift:<event>..., assumptions``
         (a ``lift:`` column is 0 for series whose horizon does not touch the
         event). With ``allocate``: the child keys, ``date, share`` and the
-        allocated amounts.
+        allocated amounts. ``attrs["notes"]``: the plan's notes for the whole panel (a date file
+        whose rows stop inside the horizon, :func:`evcal.calendar.datefile.coverage_notes`).
 
     Raises
     ------
@@ -224,6 +225,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
     table[lift_cols] = table[lift_cols].fillna(0.0)
     order = model.key_cols + ["date", "base", "plan", "low", "high"] + lift_cols + ["assumptions"]
     table = table[[c for c in order if c in table.columns]]
+    notes = _coverage_notes(model, calendar, table["date"], model.settings["freq"])
     if allocate is not None:
         from evcal.panel.rollup import allocate as _allocate
 
@@ -231,7 +233,21 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         table = _allocate(table, model.key_cols, children, calendar)
         table["note"] = ("allocated from the parent plan by each child's share of the parents' base; "
                          "low/high are the parent's interval times the share, not the child's own interval")
+    table.attrs["notes"] = notes
     return table
+
+
+def _coverage_notes(model: PanelResult, calendar: Any, dates: pd.Series, freq: str) -> list[str]:
+    """The single-series plan's notes for date files whose rows stop inside the horizon, once for the panel.
+
+    Every series plans with one calendar (the panel's, or ``calendar``) over one horizon, so the
+    notes are the panel's, not each series'.
+    """
+    from evcal.calendar.datefile import coverage_notes
+    from evcal.model.inputs import load_calendar_any
+
+    cal = model.fitted_options()[1] if calendar is None else load_calendar_any(calendar)
+    return coverage_notes(cal, pd.Timestamp(dates.max()).to_period(freq).end_time)
 
 
 def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callable[[str], None],
@@ -264,6 +280,8 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
         shown = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
         echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series error "
              f"models, or a block fit that broke down): {shown}{' ...' if len(alone) > 5 else ''}")
+    for note in table.attrs.get("notes", []):
+        echo(f"Note: {note}")
     if kwargs.get("allocate"):
         echo("allocated top-down: each parent's plan spread over its children by their own base profiles")
     echo("Plans are estimates; the decisions stay with the people who own them.")

@@ -7,6 +7,7 @@ occurrences, a daily series with log-scale effects on the file's days, fitted by
 from __future__ import annotations
 
 import datetime as dt
+import json
 
 import hypothesis.strategies as st
 import numpy as np
@@ -84,6 +85,9 @@ def test_fit_notes_the_history_the_file_does_not_reach(short_file_model) -> None
     shown = RUN.invoke(app, ["show", str(folder / "model")])
     assert shown.exit_code == 0, shown.output
     assert start in " ".join(shown.output.split()) and end in " ".join(shown.output.split())
+    # kept with the model's warnings, so the report (and anything reading model.json) has it too
+    saved = json.loads((folder / "model" / "model.json").read_text(encoding="utf-8"))["warnings"]
+    assert [w.split(";")[0] for w in saved if w.startswith("promo: promotions.csv")] == [start, end]
 
 
 def test_a_history_within_the_files_own_gaps_gets_no_note() -> None:

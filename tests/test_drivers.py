@@ -2,8 +2,8 @@
 
 Every series here is invented, with a known truth: weekly sales with an annual
 season, a log price that wanders and dips 20 % in promotion weeks, and a price
-elasticity of -1.8 (log sales move -1.8 x log price). No published price-elasticity
-example on an open dataset shipped by a registry package was found for this check.
+elasticity of -1.8 (log sales move -1.8 x log price). The check against a published
+demand regression on an open dataset is tests/test_elasticity_icecream.py.
 """
 
 from __future__ import annotations

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from evcal.calendar.datefile import history_notes
 from evcal.engine.run import PanelFit, fit_long_panel
 from evcal.engine.series import block_result
 from evcal.model.choose import chosen_settings
@@ -72,4 +73,7 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         result = model if isinstance(model, FitResult) else block_result(hist, cal, opts, inp, model)
     if short:
         result.warnings.insert(0, short)
+    # date files whose rows stop inside the history: those periods were fitted as if no event happened
+    result.warnings += history_notes(cal, hist.values.index[0].start_time.date(),
+                                     hist.values.index[-1].end_time.date())
     return result

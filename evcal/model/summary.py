@@ -126,31 +126,10 @@ def describe(result: Any) -> str:
     if result.warnings:
         lines.append("")
         lines.extend(f"warning : {w}" for w in result.warnings)
-    files = file_lines(result)
-    if files:
-        lines += ["", *files]
     lines.append("")
     lines.append("Lifts are estimates from past data; intervals are 95 %. Decisions stay with the people "
                  "who own them.")
     return "\n".join(lines)
-
-
-def file_lines(result: Any) -> list[str]:
-    """A note per date file whose rows do not reach over the history (evcal.calendar.datefile.history_notes).
-
-    The calendar is read back from its saved text only when that text kept date files: a model
-    without any needs no calendar load to be shown.
-    """
-    from evcal.calendar.datefile import SAVED_KEY, history_notes
-
-    cal = getattr(result, "_calendar", None)
-    if cal is None and f"\n{SAVED_KEY}:" in (getattr(result, "calendar_text", "") or ""):
-        cal = result.calendar
-    if cal is None:
-        return []
-    first = pd.Period(result.history_start, freq=result.freq).start_time.date()
-    last = pd.Period(result.history_end, freq=result.freq).end_time.date()
-    return [f"note    : {n}" for n in history_notes(cal, first, last)]
 
 
 def _net_lines(lifts: Any) -> list[str]:

@@ -11,6 +11,14 @@ linear column. That depends only on the *distinct* day intensities of a period
 and the weekday weight of the open days that carry each, so the columns of a thousand θ values (a
 panel's series, or one series' passes) are one small matrix product per event.
 This is the only place the aggregation with a lift is computed.
+
+Where two events' days fall in one period (a promotion's last days and its dip's first days in one
+week) the period's log-effect is ``log(1 + U)``, ``U = mean over its open days of (exp(A_d) − 1)``,
+``A_d = Σ_e θ_e w_ed`` the day's summed log-lift: the mean of the days' *combined* factors, not the
+product of each event's period mean. :meth:`CurvedEvents.columns` splits it between the events by
+each day's share of its log-lift, ``x_e = mean(w_ed · (exp(A_d) − 1) / A_d) · log(1 + U) / U``,
+so ``Σ_e θ_e x_e = log(1 + U)`` exactly, with no division by a θ (both ratios are 1 at 0); an
+event alone in a period gets the one-event column above, computed as before.
 """
 
 from __future__ import annotations
@@ -38,6 +46,16 @@ class CurvedEvents:
         self.touched: dict[str, np.ndarray] = {}  # periods that hold some of the event's days
         #: whether the calendar weighs the weekdays (else flat, or a fit's trading-day levels do)
         self.profiled = calendar_profile(calendar) is not None
+        #: periods that hold days of two or more of the events, their distinct day intensities
+        #: (one row per period and intensity vector, its events in ``names`` order) and each row's
+        #: weekday-weighted share of its period's open days (:meth:`columns`)
+        self.shared = np.zeros(0, dtype=int)
+        self.shared_days: tuple[list[str], np.ndarray, np.ndarray, np.ndarray] = (
+            [],
+            np.zeros((0, 0)),
+            np.zeros(0, dtype=int),
+            np.zeros(0),
+        )
         colmap = calendar.event_columns()
         wanted = sorted({colmap[c] for c in names if c in colmap})
         if not wanted:
@@ -66,6 +84,28 @@ class CurvedEvents:
             np.add.at(counts, (codes[nz], inv), omega[nz])
             self.basis[n] = (vals, counts / days[:, None])
             self.touched[n] = np.flatnonzero(counts.any(axis=1))
+        self._shared_basis(daily, codes, inside, omega, days)
+
+    def _shared_basis(
+        self, daily: pd.DataFrame, codes: np.ndarray, inside: np.ndarray, omega: np.ndarray, days: np.ndarray
+    ) -> None:
+        """The distinct day intensities of the periods two or more events share (``self.shared_days``)."""
+        names = list(self.basis)
+        hits = np.zeros(len(self.periods), dtype=int)
+        for n in names:
+            hits[self.touched[n]] += 1
+        self.shared = np.flatnonzero(hits >= 2)
+        if not len(self.shared):
+            return
+        W = daily[names].to_numpy(dtype=float)
+        in_shared = np.zeros(len(self.periods), dtype=bool)
+        in_shared[self.shared] = True
+        pick = inside & in_shared[np.where(inside, codes, 0)] & (W != 0).any(axis=1)
+        keys, inv = np.unique(np.column_stack([codes[pick], W[pick]]), axis=0, return_inverse=True)
+        weight = np.zeros(len(keys))
+        np.add.at(weight, inv.ravel(), omega[pick])
+        period = keys[:, 0].astype(int)
+        self.shared_days = (names, keys[:, 1:], period, weight / days[period])
 
     def floor(self, name: str) -> np.ndarray:
         """The lowest log-effect ``name`` can have on each period: ``log(1 − s)``, every event day removed.
@@ -104,4 +144,50 @@ class CurvedEvents:
             mean = np.expm1(t[:, None] * vals[None, :]) @ share.T
             sub[bent] = np.log1p(np.clip(mean, -0.999999, None)) / t[:, None]
         out[:, touched] = sub
+        return out
+
+    def columns(self, theta: dict[str, np.ndarray], at: np.ndarray | None = None) -> dict[str, np.ndarray]:
+        """Columns of the events ``theta`` names, each for its own θ (m,): name -> (m, periods).
+
+        The events are bent together: in a period two of them share (both with a lift, |θ| > 1e-9)
+        each gets its part of the mean of the days' combined factors (module note), so the columns
+        times their θ add up to the period's exact log-effect. Elsewhere each is :meth:`column`'s,
+        value for value. ``at`` restricts the result to those period positions (each once).
+        """
+        out = {n: self.column(n, np.asarray(t, dtype=float), at) for n, t in theta.items()}
+        names, W, period, weight = self.shared_days
+        own = [j for j, n in enumerate(names) if n in theta]
+        if len(own) < 2:
+            return out
+        # the shared periods of these events (in ``at`` when given), and their place in the output
+        touch = np.zeros((len(own), len(self.periods)), dtype=bool)
+        for i, j in enumerate(own):
+            touch[i, self.touched[names[j]]] = True
+        place = np.arange(len(self.periods)) if at is None else np.full(len(self.periods), -1)
+        if at is not None:
+            place[np.asarray(at)] = np.arange(len(at))
+        periods = np.flatnonzero((touch.sum(axis=0) >= 2) & (place >= 0))
+        if not len(periods):
+            return out
+        local = np.full(len(self.periods), -1)
+        local[periods] = np.arange(len(periods))
+        rows = np.flatnonzero(local[period] >= 0)
+        share = np.zeros((len(rows), len(periods)))  # day-intensity row -> its period's share
+        share[np.arange(len(rows)), local[period[rows]]] = weight[rows]
+        w = W[np.ix_(rows, own)]  # (rows, events)
+        th = np.stack([np.asarray(theta[names[j]], dtype=float) for j in own], axis=1)  # (m, events)
+        bent = np.abs(th) > 1e-9  # as in column(): a smaller θ keeps the linear share
+        A = np.where(bent, th, 0.0) @ w.T  # (m, rows): each day's summed log-lift
+        grow = np.expm1(A)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            per_log = np.where(A != 0, grow / np.where(A != 0, A, 1.0), 1.0)  # (exp(A) − 1) / A
+            U = np.clip(grow @ share, -0.999999, None)
+            per_mean = np.where(U != 0, np.log1p(U) / np.where(U != 0, U, 1.0), 1.0)  # log(1 + U) / U
+        sub = touch[:, periods]
+        joint = (bent.astype(int) @ sub.astype(int)) >= 2  # (m, periods): two lifts share the period
+        for i, j in enumerate(own):
+            x = ((per_log * w[:, i]) @ share) * per_mean
+            use = joint & bent[:, i : i + 1] & sub[i]
+            col = out[names[j]][:, place[periods]]
+            out[names[j]][:, place[periods]] = np.where(use, x, col)
         return out

@@ -65,8 +65,8 @@ class EventColumns:
         # closed days carry no lift and the mean is over the period's open days (the closure
         # itself enters as the open-share offset): CurvedEvents counts open days only
         curve = CurvedEvents(self.calendar, self.names, periods)
-        out = {n: curve.column(n, np.array([self.theta_of(n)]))[0] for n in self.names}
-        return pd.DataFrame(out, index=periods, columns=self.names)
+        bent = curve.columns({n: np.array([self.theta_of(n)]) for n in self.names})
+        return pd.DataFrame({n: v[0] for n, v in bent.items()}, index=periods, columns=self.names)
 
 
 @dataclass

@@ -140,11 +140,10 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     def event_values(th: dict[str, np.ndarray], sel: np.ndarray) -> np.ndarray:
         """(ms, n_curved, |U|): each series' event columns on the touched rows."""
         out = np.empty((len(sel), len(curved_cols), len(U)))
+        # the events are bent together (a period two of them share takes their days' combined lifts)
+        bent = curve.columns({e: th[c][sel] for c in curved_cols for e in [c] + like_into.get(c, [])}, at=at)
         for k, c in enumerate(curved_cols):
-            col = curve.column(c, th[c][sel], at=at)
-            for extra in like_into.get(c, []):
-                col = col + curve.column(extra, th[c][sel], at=at)
-            out[:, k, :] = col
+            out[:, k, :] = sum((bent[e] for e in like_into.get(c, [])), bent[c])
         return out
 
     def projections(V: np.ndarray, sel: np.ndarray) -> np.ndarray:
@@ -261,6 +260,6 @@ def refine(group: Any, curve: CurvedEvents, rows: np.ndarray, X_fit: np.ndarray,
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0, None)).T
     order = [term.index(c) for c in group.term_cols]
     sources = theta_sources(group.status, group.roles, group.like_map, cols)
-    curved = {c: curve.column(c, theta_in[src]) for c, src in sources.items() if src in theta_in}
+    curved = curve.columns({c: theta_in[src] for c, src in sources.items() if src in theta_in})
     return Refined(params, resid, sigma2, se[order], cov[:, order][:, :, order], theta_in, curved, errors,
                    beyond, passes)

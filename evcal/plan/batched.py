@@ -156,11 +156,11 @@ def plan_block(fit: BlockFit, h: Horizon, cal: Any, n_sims: int, seed: int) -> d
     # the horizon's event columns for each series' θ (EventColumns' rule for where θ comes from)
     ev = EventColumns(view.spec.calendar(cal), h.event_cols, {c: 0.0 for c in fit.theta})
     curve = CurvedEvents(ev.calendar, h.event_cols, h.periods)
-    curved = {}
+    theta = {}
     for c in h.event_cols:
         source, fixed = ev.theta_source(c)
-        th = fit.theta[source] if source in fit.theta else np.full(m, fixed)
-        curved[c] = curve.column(c, th)
+        theta[c] = fit.theta[source] if source in fit.theta else np.full(m, fixed)
+    curved = curve.columns(theta)
     smear = np.broadcast_to((fit.smear if g.transform == "log" else np.ones(m))[:, None], (m, n))
     base, fitted, lifts = plan_parts(h, plan_group(view, h), pmap, smear, curved=curved)
     out = {"base": base, "plan": fitted, "lifts": lifts}

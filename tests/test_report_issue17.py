@@ -19,6 +19,7 @@ import pandas as pd
 import pytest
 
 import evcal
+from evcal.plan import make_plan
 from evcal.report import write_report
 
 sys.path.insert(0, str(Path(__file__).parent))
@@ -195,3 +196,110 @@ def test_weekday_classes_and_bridge_days_read_as_what_they_are(weekday_report) -
         assert low <= 100 * WEEKDAY_TRUTH[name] <= high  # the invented truth inside its interval
     # the chart's alt text stays; the readable class labels are what the table and the chart show
     assert "Town fete (weekend)" not in page.text["lifts"]
+
+
+# ------------------------------------------------------------------ outside drivers
+
+
+@pytest.fixture(scope="module")
+def driver_report(tmp_path_factory) -> tuple[Sections, pd.DataFrame, pd.DataFrame]:
+    import test_drivers  # invented weekly sales with a price elasticity of -1.8
+
+    from evcal.io import read_history
+    from evcal.model.drivers import driver_table
+
+    fit = evcal.fit(
+        read_history(test_drivers.invented(), drivers=["price:log", "temperature"]), None, errors="ols"
+    )
+    folder = tmp_path_factory.mktemp("drv") / "m"
+    fit.save(folder)
+    future = test_drivers._future(np.full(26, 2.0))
+    future.to_csv(folder.parent / "future.csv", index=False)
+    plan = make_plan(
+        fit,
+        future["date"].iloc[0],
+        future["date"].iloc[-1],
+        drivers=folder.parent / "future.csv",
+        n_sims=100,
+        seed=1,
+    )
+    plan.save(folder.parent / "plan.csv")
+    page = write_report(folder, folder.parent / "r.html", plan_csv=folder.parent / "plan.csv")
+    return Sections(page.read_text(encoding="utf-8")), driver_table(fit), plan.table
+
+
+def test_outside_drivers_section_has_the_elasticity_and_its_interval(driver_report) -> None:
+    """The price's elasticity (invented truth -1.8) with its interval and what it added, as drivers.csv."""
+    page, table, _ = driver_report
+    price = table.set_index("driver").loc["price"]
+    row = page.table("drivers", "driver", "coefficient (95 % interval)").loc["price"]
+    coef, what = row["coefficient (95 % interval)"].split(" | ")
+    value, interval = coef.split(" (")
+    low, high = (number(x) for x in interval.rstrip(")").split(" to "))
+    assert what == "elasticity"
+    assert number(value) == pytest.approx(price["coefficient"], abs=1e-3)
+    assert (low, high) == pytest.approx((price["low"], price["high"]), abs=1e-3)
+    assert low <= -1.8 <= high  # the invented truth
+    assert number(row["added over the history (units)"]) == pytest.approx(
+        price["contribution_units"], abs=0.5
+    )
+    assert number(row["effect on sales (95 % interval)"].split(" (")[0]) == pytest.approx(
+        price["effect_pct"], abs=0.05
+    )
+
+
+def test_plan_counts_the_drivers_part(driver_report) -> None:
+    """The plan's parts add up: base + the price's driver: column = the plan (no events here)."""
+    page, _, plan = driver_report
+    shares = page.table("plan", "part of the plan", "share of total")
+    assert number(shares.loc["price (outside driver)", "units"]) == pytest.approx(
+        plan["driver:price"].sum(), abs=1
+    )
+    periods = page.table("plan", "period", "outside drivers")
+    first = periods.iloc[0]
+    assert number(first["base"]) + number(first["outside drivers"]) == pytest.approx(
+        number(first["plan"]), abs=1
+    )
+
+
+def test_no_drivers_section_without_drivers(dip_report) -> None:
+    page, _ = dip_report
+    assert "drivers" not in page.tables
+
+
+# ------------------------------------------------------------------ known future changes
+
+
+@pytest.fixture(scope="module")
+def future_plan(tmp_path_factory) -> tuple[Path, Path, Path]:
+    import test_plan_future_interventions as future  # invented monthly shop; a -10 % level shift in 2024
+
+    fit = evcal.fit(future.monthly_history(), future.EASTER_CAL, errors="ols")
+    folder = tmp_path_factory.mktemp("fut") / "m"
+    fit.save(folder)
+    cal = folder.parent / "plan.yaml"
+    cal.write_text(future._cal(future.SHIFT))
+    plan = make_plan(fit, "2024", "2024", calendar=cal, n_sims=100, seed=1)
+    plan.table["assumptions"] = ""  # the texts are for people: the report must not need them
+    plan.save(folder.parent / "plan.csv")
+    return folder, folder.parent / "plan.csv", cal
+
+
+def test_future_change_is_marked_an_assumption_without_its_text(future_plan) -> None:
+    folder, plan_csv, _ = future_plan
+    page = Sections(
+        write_report(folder, folder.parent / "r.html", plan_csv=plan_csv).read_text(encoding="utf-8")
+    )
+    shares = page.table("plan", "part of the plan", "share of total")
+    assert shares.loc["price-rise", ""] == "set in the plan calendar, not estimated from the history"
+    assert shares.loc["easter-run", ""] == ""  # fitted: no mark
+    assert "price-rise: set in the plan calendar" in page.text["plan"]
+
+
+def test_future_change_with_the_plan_calendar_names_its_size(future_plan) -> None:
+    folder, plan_csv, cal = future_plan
+    page = write_report(folder, folder.parent / "c.html", plan_csv=plan_csv, calendar=cal)
+    shares = Sections(page.read_text(encoding="utf-8")).table("plan", "part of the plan", "share of total")
+    assert shares.loc["price-rise", ""] == (
+        "known future change assumed in the plan calendar: level shift −10.0 % from 01 Apr 2024"
+    )

@@ -18,7 +18,7 @@ from evcal.report import palette as pal
 from evcal.report.calendar_view import fold_weights
 from evcal.report.event_kinds import event_roles
 from evcal.report.formatting import period_days
-from evcal.report.model_folder import ModelFolder, lift_columns
+from evcal.report.model_folder import DRIVER_PREFIX, ModelFolder, driver_columns, lift_columns
 
 
 class ReportContext:
@@ -53,6 +53,7 @@ class ReportContext:
         names = list(folder.lifts["event"])
         if folder.plan is not None:
             names += lift_columns(folder.plan)
+            names += [f"{DRIVER_PREFIX}{d}" for d in driver_columns(folder.plan)]
         if self.weights is not None:
             names += [str(c) for c in self.weights.columns]
         self.colours = pal.event_colours(names)

@@ -262,5 +262,7 @@ MODEL_SECTIONS = (
 
 
 def build_sections(ctx: ReportContext, sections: Iterable[tuple[str, str, str, Any]]) -> list[dict[str, Any]]:
-    """Each section's id, heading, template and data for one model."""
-    return [{"key": k, "title": t, "template": tpl, "data": build(ctx)} for k, t, tpl, build in sections]
+    """Each section's id, heading, template and data for one model; a builder's None leaves its section out
+    (a section about something the model does not have, such as outside drivers)."""
+    built = [{"key": k, "title": t, "template": tpl, "data": build(ctx)} for k, t, tpl, build in sections]
+    return [sec for sec in built if sec["data"] is not None]

@@ -291,9 +291,12 @@ def test_future_change_is_marked_an_assumption_without_its_text(future_plan) -> 
         write_report(folder, folder.parent / "r.html", plan_csv=plan_csv).read_text(encoding="utf-8")
     )
     shares = page.table("plan", "part of the plan", "share of total")
-    assert shares.loc["price-rise", ""] == "set in the plan calendar, not estimated from the history"
+    assert (
+        shares.loc["price-rise", ""]
+        == "assumed lift: set in the plan calendar, not estimated from the history"
+    )
     assert shares.loc["easter-run", ""] == ""  # fitted: no mark
-    assert "price-rise: set in the plan calendar" in page.text["plan"]
+    assert "price-rise: assumed lift: set in the plan calendar" in page.text["plan"]
 
 
 def test_future_change_with_the_plan_calendar_names_its_size(future_plan) -> None:

@@ -164,7 +164,7 @@ def plan_assumptions(ctx: ReportContext, events: list[str]) -> dict[str, str]:
             continue
         if name in estimated or name in ctx.closures:
             continue
-        out[name] = "set in the plan calendar, not estimated from the history"
+        out[name] = "assumed lift: set in the plan calendar, not estimated from the history"
         if cal is None:
             continue
         for iv in getattr(cal, "interventions", []):

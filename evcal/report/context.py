@@ -16,8 +16,9 @@ import pandas as pd
 
 from evcal.report import palette as pal
 from evcal.report.calendar_view import fold_weights
+from evcal.report.event_kinds import event_roles
 from evcal.report.formatting import period_days
-from evcal.report.model_folder import ModelFolder, lift_columns
+from evcal.report.model_folder import DRIVER_PREFIX, ModelFolder, driver_columns, lift_columns
 
 
 class ReportContext:
@@ -32,15 +33,27 @@ class ReportContext:
         self.folder = folder
         self.model = folder.model
         self.freq = folder.freq
+        if isinstance(calendar, str | Path):
+            from evcal.calendar import load_calendar  # the calendar step; imported only when used
+
+            calendar = load_calendar(calendar)
+        self.plan_calendar = None if isinstance(calendar, pd.DataFrame) else calendar
         self.weights, name, closures, labels = calendar_weights(calendar, folder)
         self.calendar_name = str(name or self.model["calendar_name"])
         events = {str(e["name"]): str(e["label"] or e["name"]) for e in self.model["events"]}
-        self.labels: dict[str, str] = labels | events | folder.labels()
+        # what each event is (weekday class, bridge day, dip), from the model's calendar and the plan's
+        roles, readable = event_roles(folder.calendar, folder.lifts)
+        if self.plan_calendar is not None:
+            plan_roles, plan_readable = event_roles(self.plan_calendar)
+            roles, readable = plan_roles | roles, plan_readable | readable
+        self.roles: dict[str, str] = roles
+        self.labels: dict[str, str] = labels | events | folder.labels() | readable
         self.closures = folder.closures() | closures
         self.assumed = folder.assumed()
         names = list(folder.lifts["event"])
         if folder.plan is not None:
             names += lift_columns(folder.plan)
+            names += [f"{DRIVER_PREFIX}{d}" for d in driver_columns(folder.plan)]
         if self.weights is not None:
             names += [str(c) for c in self.weights.columns]
         self.colours = pal.event_colours(names)

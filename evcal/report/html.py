@@ -23,6 +23,7 @@ from typing import Any
 from evcal._files import atomic_path
 from evcal.errors import ModelError
 from evcal.report.context import ReportContext
+from evcal.report.driver_sections import drivers_section
 from evcal.report.formatting import freq_words
 from evcal.report.model_folder import ModelFolder, read_model_folder
 from evcal.report.model_sections import MODEL_SECTIONS, build_sections
@@ -33,6 +34,7 @@ from evcal.report.templating import render_page
 #: the sections of a single model's report: (element id, heading, template, data builder)
 SECTIONS = (
     *MODEL_SECTIONS,
+    ("drivers", "Outside drivers", "drivers.html", drivers_section),
     ("plan", "The plan", "plan.html", plan_section),
     ("calendar", "Calendar of the plan", "calendar.html", calendar_section),
     ("backtest", "Backtest", "backtest.html", backtest_section),

@@ -24,6 +24,7 @@ from evcal.errors import ModelError
 from evcal.formula_safe import unguard_frame
 
 PLAN_COLUMNS = ("date", "base", "plan", "low", "high")
+DRIVER_PREFIX = "driver:"
 BACKTEST_COLUMNS = ("year", "method", "spread", "wape", "bias", "peak_error")
 LIFT_PREFIX = "lift:"
 
@@ -41,6 +42,11 @@ class ModelFolder:
         ``lifts`` always has ``kind`` ("event" or "intervention") and ``label``.
     plan, backtest : DataFrame or None
         ``plan.csv`` and ``backtest.csv`` when given; ``sources`` their paths.
+    drivers : DataFrame or None
+        ``drivers.csv`` (outside drivers), when the fit had drivers.
+    calendar : Calendar or None
+        The calendar the model was fitted with (kept in ``model.json``): what each event is
+        (a weekday class, a bridge day, a dip period).
     """
 
     path: Path
@@ -52,6 +58,8 @@ class ModelFolder:
     plan: pd.DataFrame | None = None
     backtest: pd.DataFrame | None = None
     sources: dict[str, Path] = field(default_factory=dict)
+    drivers: pd.DataFrame | None = None
+    calendar: Any = None
 
     def __post_init__(self) -> None:
         self.lifts = self.lifts.reset_index(drop=True)
@@ -131,7 +139,28 @@ def read_model_folder(
     if problems:
         raise ModelError(problems)
     tables = {**stored.tables, "lifts": lifts, **extra}  # lifts, occurrences, profile, fitted, plan, backtest
-    return ModelFolder(folder, model, **tables, sources=sources)
+    drivers = read_drivers_csv(folder) if model["design"].get("drivers") else None
+    return ModelFolder(folder, model, **tables, sources=sources, drivers=drivers, calendar=stored.calendar)
+
+
+def read_drivers_csv(folder: Path) -> pd.DataFrame:
+    """Read ``drivers.csv`` of a model fitted with outside drivers (columns as ``evcal fit`` writes them)."""
+    from evcal.model.drivers import DRIVER_COLUMNS
+
+    path = folder / "drivers.csv"
+    if not path.is_file():
+        raise ModelError(f"{path}: not found; model.json lists outside drivers (design.drivers), whose "
+                         "table evcal fit writes there: restore the file or fit again")
+    frame = _read_csv(path, tuple(DRIVER_COLUMNS), "fit")
+    problems: list[str] = []
+    for col in ("coefficient", "low", "high", "effect_pct", "effect_low_pct", "effect_high_pct",
+                "contribution_units", "mean_abs_units"):
+        frame[col] = _parse(frame[col], path, col, problems)
+    if problems:
+        raise ModelError(problems)
+    text = ["driver", "scale", "change", "identifiable", "note"]
+    frame[text] = frame[text].fillna("").astype(str)
+    return unguard_frame(frame)
 
 
 def read_plan_csv(path: str | Path) -> pd.DataFrame:
@@ -166,6 +195,11 @@ def read_backtest_csv(path: str | Path) -> pd.DataFrame:
 def lift_columns(plan: pd.DataFrame) -> list[str]:
     """The event names that have a ``lift:<event>`` column in a plan, in column order."""
     return [c[len(LIFT_PREFIX) :] for c in plan.columns if str(c).startswith(LIFT_PREFIX)]
+
+
+def driver_columns(plan: pd.DataFrame) -> list[str]:
+    """The outside drivers that have a ``driver:<name>`` column in a plan, in column order."""
+    return [c[len(DRIVER_PREFIX) :] for c in plan.columns if str(c).startswith(DRIVER_PREFIX)]
 
 
 def _read_csv(path: Path, required: tuple[str, ...], command: str) -> pd.DataFrame:
@@ -214,4 +248,5 @@ def workbook_from_files(
 
     folder = read_model_folder(model_dir, plan_csv=plan_csv)
     plan = folder.plan if folder.plan is not None else pd.DataFrame()
-    return write_workbook(out_xlsx, plan, folder.lifts, folder.profile, folder.occurrences)
+    return write_workbook(out_xlsx, plan, folder.lifts, folder.profile, folder.occurrences,
+                          drivers=folder.drivers)

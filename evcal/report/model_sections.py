@@ -91,11 +91,15 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
     lifts = ctx.folder.lifts
     if lifts.empty:
         return {"muted": "lifts.csv has no rows: the calendar had no events to fit."}
-    fig = charts.lifts_chart(lifts, ctx.colours, closures=ctx.closures, assumed=ctx.assumed)
+    shown = lifts.assign(label=[ctx.label(e) for e in lifts["event"]])
+    fig = charts.lifts_chart(with_net_rows(shown), ctx.colours, closures=ctx.closures, assumed=ctx.assumed)
+    counts = "occurrences_fitted" in lifts.columns
     rows, row_cls = [], []
-    for _, r in lifts.iterrows():
+    for _, r in shown.iterrows():
         closed = r["event"] in ctx.closures
         kind = "closure" if closed else "assumed" if r["event"] in ctx.assumed else r["kind"]
+        if r["event"] in ctx.roles:  # a weekday class, a bridge day, a dip period: say which
+            kind = f"{kind}: {ctx.roles[r['event']]}" if kind != "event" else ctx.roles[r["event"]]
         if closed:
             lift, interval, units = "closed (zero)", "–", num(r["units_per_occurrence"])
         elif r["identifiable"] != "no" and pd.notna(r["lift_pct"]):
@@ -103,20 +107,67 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
             units = num(r["units_per_occurrence"])
         else:
             lift, interval, units = "not estimated", "–", "–"
-        rows.append([r["label"], r["event"], kind, lift, interval, units, r["identifiable"], r["note"]])
+        row = [r["label"], r["event"], kind, lift, interval, units]
+        if counts:
+            row.append(num(r["occurrences_fitted"]))
+        rows.append([*row, r["identifiable"], r["note"]])
         row_cls.append({"no": "unident", "weak": "weak"}.get(r["identifiable"], ""))
-    not_ident = lifts[lifts["identifiable"] == "no"]
+    not_ident = shown[shown["identifiable"] == "no"]
     headers = ["event", "name in files", "kind", "lift", "95 % interval", "units / occurrence",
-               "identifiable", "note"]
+               *(["occurrences"] if counts else []), "identifiable", "note"]
     return {
         "figure": charts.figure(fig, "Event lifts with 95 % interval bars"),
         "not_estimated": [
             {"label": label, "note": note or "not identifiable"}
             for label, note in zip(not_ident["label"], not_ident["note"], strict=True)
         ],
-        "closures": ", ".join(lifts.loc[lifts["event"].isin(ctx.closures), "label"]),
-        "table": table(headers, rows, numeric=(3, 4, 5), row_classes=row_cls),
+        "closures": ", ".join(shown.loc[shown["event"].isin(ctx.closures), "label"]),
+        "table": table(headers, rows, numeric=range(3, 7 if counts else 6), row_classes=row_cls),
+        "net": net_table(ctx),
     }
+
+
+def with_net_rows(lifts: pd.DataFrame) -> pd.DataFrame:
+    """The lifts with a row after each event that has dips: its net lift over window and dip days."""
+    if "net_pct" not in lifts.columns:
+        return lifts
+    out = []
+    for _, r in lifts.iterrows():
+        out.append(r)
+        if pd.notna(r["net_pct"]):
+            net = r.copy()
+            net["event"] = f"{r['event']} (net)"
+            net["label"] = f"{r['label']}: net of its dips"
+            net[["lift_pct", "low_pct", "high_pct"]] = [r["net_pct"], r["net_low_pct"], r["net_high_pct"]]
+            out.append(net)
+    return pd.DataFrame(out).reset_index(drop=True)
+
+
+def net_table(ctx: ReportContext) -> dict[str, Any] | None:
+    """Gross lift, each dip and the net lift (with intervals) of each event with dip periods; None if none."""
+    lifts = ctx.folder.lifts
+    if "net_pct" not in lifts.columns or not lifts["net_pct"].notna().any():
+        return None
+    dips = lifts[lifts["dip_of"].fillna("").astype(str) != ""]
+    rows = []
+    for _, r in lifts[lifts["net_pct"].notna()].iterrows():
+        own = dips[dips["dip_of"] == r["event"]]
+        dip_text = [
+            {"main": f"{pct(d['lift_pct'])} ({pct(d['low_pct'])} to {pct(d['high_pct'])})",
+             "small": f"{ctx.label(d['event'])}: {num(d['units_per_occurrence'])} units"}
+            for _, d in own.iterrows()
+        ]
+        rows.append([
+            ctx.label(r["event"]),
+            {"main": pct(r["lift_pct"]), "small": f"{pct(r['low_pct'])} to {pct(r['high_pct'])}"},
+            dip_text[0] if len(dip_text) == 1 else "; ".join(d["main"] for d in dip_text) or "–",
+            {"main": pct(r["net_pct"]), "small": f"{pct(r['net_low_pct'])} to {pct(r['net_high_pct'])}"},
+            num(r["units_per_occurrence"]),
+            num(r["net_units_per_occurrence"]),
+        ])
+    headers = ["event", "gross lift (window)", "dip (95 % interval)", "net lift (95 % interval)",
+               "gross units / occurrence", "net units / occurrence"]
+    return table(headers, rows, numeric=range(1, 6))
 
 
 def added_by_year(occurrences: pd.DataFrame) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
@@ -170,6 +221,7 @@ def past_section(ctx: ReportContext) -> dict[str, Any]:
         row_classes=[""] * (len(rows) - 1) + ["total"],
     )
     has_interval = {"low_units", "high_units"} <= set(occ.columns)
+    has_net = {"dip_units", "net_units", "net_low_units", "net_high_units", "net_pct"} <= set(occ.columns)
     detail_rows = []
     for _, r in occ.iterrows():
         row = [
@@ -181,10 +233,16 @@ def past_section(ctx: ReportContext) -> dict[str, Any]:
         if has_interval:
             row.append(f"{num(r['low_units'])} to {num(r['high_units'])}")
         row.append(pct(r["added_pct"]))
+        if has_net:  # an event with dips: what its dips took and what it added net (the dips' rows: –)
+            with_net = pd.notna(r["net_units"])
+            row += [num(r["dip_units"]) if with_net else "–", num(r["net_units"]) if with_net else "–",
+                    f"{num(r['net_low_units'])} to {num(r['net_high_units'])}" if with_net else "–",
+                    pct(r["net_pct"]) if with_net else "–"]
         detail_rows.append(row)
     headers = ["event", "start", "end", "added units"]
     headers += ["95 % interval (units)"] if has_interval else []
     headers += ["added %"]
+    headers += ["dip units", "net units", "net 95 % interval (units)", "net %"] if has_net else []
     return {
         "figure": charts.figure(fig, "Stacked bars of units each event added per year"),
         "by_year": by_year,
@@ -204,5 +262,7 @@ MODEL_SECTIONS = (
 
 
 def build_sections(ctx: ReportContext, sections: Iterable[tuple[str, str, str, Any]]) -> list[dict[str, Any]]:
-    """Each section's id, heading, template and data for one model."""
-    return [{"key": k, "title": t, "template": tpl, "data": build(ctx)} for k, t, tpl, build in sections]
+    """Each section's id, heading, template and data for one model; a builder's None leaves its section out
+    (a section about something the model does not have, such as outside drivers)."""
+    built = [{"key": k, "title": t, "template": tpl, "data": build(ctx)} for k, t, tpl, build in sections]
+    return [sec for sec in built if sec["data"] is not None]

@@ -11,7 +11,6 @@ Examples
 
 from __future__ import annotations
 
-import re
 from typing import Any
 
 import numpy as np
@@ -23,7 +22,7 @@ from evcal.report.calendar_view import calendar_data, weights_from_plan
 from evcal.report.context import ReportContext, view_span
 from evcal.report.formatting import num, pct, period_days, period_label
 from evcal.report.headlines import average_share_spread, biggest_event, departure, moves_the_most
-from evcal.report.model_folder import lift_columns
+from evcal.report.model_folder import DRIVER_PREFIX, driver_columns, lift_columns
 from evcal.report.model_sections import table
 
 
@@ -79,23 +78,27 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
     if plan.empty:
         return {"muted": "The plan file has no rows."}
     events = lift_columns(plan)
+    drivers = [f"{DRIVER_PREFIX}{d}" for d in driver_columns(plan)]
+    # an outside driver's part (driver:<name>) is stacked and counted like an event's part
+    shown = plan.assign(**{f"lift:{d}": plan[d] for d in drivers})
+    parts = events + drivers
+    labels = {**ctx.labels, **{d: f"{d[len(DRIVER_PREFIX):]} (outside driver)" for d in drivers}}
     avg = average_share_spread(ctx.folder)
-    fig = charts.plan_chart(plan, events, ctx.labels, ctx.colours, avg)
+    fig = charts.plan_chart(shown, parts, labels, ctx.colours, avg)
     total = float(plan["plan"].sum())
     base_total = float(plan["base"].sum())
     share_rows = []
-    has_assump = "assumptions" in plan.columns
-    for event in events:
-        units = float(plan[f"lift:{event}"].fillna(0).sum())
+    notes = plan_assumptions(ctx, events)
+    for part in parts:
+        units = float(shown[f"lift:{part}"].fillna(0).sum())
         if units == 0:
             continue
-        # a known future change (evcal.plan.future) is assumed in the plan calendar, not in the model's
-        assumed = event in ctx.assumed or (has_assump and plan["assumptions"].str.contains(
-            f"(?:^|; ){re.escape(event)}: assumed ", regex=True).any())
-        note = "assumed lift" if assumed else ("closure" if event in ctx.closures else "")
-        share_rows.append(
-            [ctx.label(event), num(units), pct(units / total * 100 if total else np.nan, sign=False), note]
-        )
+        if part in drivers:
+            note = "outside driver at the plan's values (--drivers), against its history average"
+        else:
+            note = notes.get(part, "closure" if part in ctx.closures else "")
+        share = pct(units / total * 100 if total else np.nan, sign=False)
+        share_rows.append([labels.get(part, part), num(units), share, note])
     base_share = pct(base_total / total * 100 if total else np.nan, sign=False)
     share_rows.append(["base (no events)", num(base_total), base_share, ""])
     moved = None
@@ -118,19 +121,15 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
     period_rows = []
     for _, r in plan.iterrows():
         events_sum = sum(float(r[f"lift:{e}"]) for e in events if pd.notna(r[f"lift:{e}"]))
-        row = [
-            period_label(r["date"], ctx.freq),
-            f"{r['date']:%Y-%m-%d}",
-            num(r["base"]),
-            num(events_sum),
-            num(r["plan"]),
-            num(r["low"]),
-            num(r["high"]),
-        ]
+        row = [period_label(r["date"], ctx.freq), f"{r['date']:%Y-%m-%d}", num(r["base"]), num(events_sum)]
+        if drivers:
+            row.append(num(sum(float(r[d]) for d in drivers if pd.notna(r[d])), sign=True))
+        row += [num(r["plan"]), num(r["low"]), num(r["high"])]
         if has_assump:
             row.append(r["assumptions"])
         period_rows.append(row)
-    headers = ["period", "date", "base", "events", "plan", "low", "high"]
+    headers = ["period", "date", "base", "events", *(["outside drivers"] if drivers else []), "plan", "low",
+               "high"]
     if has_assump:
         headers.append("assumptions")
     return {
@@ -138,8 +137,47 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
         "shares": table(["part of the plan", "units", "share of total", ""], share_rows, numeric=(1, 2)),
         "moved": moved,
         "count": len(plan),
-        "periods": table(headers, period_rows, numeric=(2, 3, 4, 5, 6)),
+        "periods": table(headers, period_rows, numeric=range(2, 8 if drivers else 7)),
+        "assumed": [{"label": labels.get(e, e), "note": notes[e],
+                     "units": num(plan[f"lift:{e}"].fillna(0).sum(), sign=True),
+                     "first": period_label(plan["date"][plan[f"lift:{e}"].fillna(0) != 0].iloc[0], ctx.freq)}
+                    for e in events if e in notes and plan[f"lift:{e}"].fillna(0).ne(0).any()],
     }
+
+
+def plan_assumptions(ctx: ReportContext, events: list[str]) -> dict[str, str]:
+    """Event or intervention of the plan -> how its units were set, for those the fit did not estimate.
+
+    Found from structure, not from the plan's assumptions text: the model's own assumed and borrowed lifts
+    (its calendar), the plan calendar's ``effect`` when the report is given it (``--calendar``), and
+    otherwise every ``lift:`` column the model folder has no estimate for (not in lifts.csv, or not
+    identifiable there): the plan can only have taken its units from the plan calendar (a known future
+    change ``effect: {assume: N%}``, or an event with an assumed or borrowed lift).
+    """
+    lifts = ctx.folder.lifts
+    estimated = set(lifts.loc[lifts["identifiable"].isin(["yes", "weak"]), "event"]) - set(ctx.assumed)
+    cal = ctx.plan_calendar
+    out: dict[str, str] = {}
+    for name in events:
+        if name in ctx.assumed:
+            out[name] = "borrowed lift" if ctx.assumed[name].startswith("lift borrowed") else "assumed lift"
+            continue
+        if name in estimated or name in ctx.closures:
+            continue
+        out[name] = "assumed lift: set in the plan calendar, not estimated from the history"
+        if cal is None:
+            continue
+        for iv in getattr(cal, "interventions", []):
+            if iv.name == name and iv.effect.kind == "assume":
+                size = pct(100 * float(iv.effect.assume or 0.0), digits=1)
+                out[name] = (f"known future change assumed in the plan calendar: {iv.type.replace('_', ' ')} "
+                             f"{size} from {iv.start:%d %b %Y}")
+        ev = next((e for e in getattr(cal, "events", []) if e.name == name), None)
+        if ev is not None and ev.effect.kind == "assume":
+            out[name] = f"lift assumed at {pct(100 * float(ev.effect.assume or 0.0))} in the plan calendar"
+        elif ev is not None and ev.effect.kind == "like":
+            out[name] = "lift borrowed from another event in the plan calendar"
+    return out
 
 
 def calendar_section(ctx: ReportContext) -> dict[str, Any]:

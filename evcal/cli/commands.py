@@ -127,11 +127,6 @@ def fit_cmd(
         raise EvcalError("--driver: outside drivers are fitted for a single series only so far; fit each "
                          "series alone, or leave --driver out for the panel")
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
-    cal, drivers = _calendar_and_drivers(calendar, driver)
-    if panel:
-        from evcal.panel import refuse_drivers
-
-        refuse_drivers(cal)  # before the history is read
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                           trading_days, allow_negative, leap_year)
     if panel:  # many series: evcal.panel
@@ -147,6 +142,7 @@ def fit_cmd(
     from evcal.engine import fit
     from evcal.model.summary import describe
 
+    cal, drivers = _calendar_and_drivers(calendar, driver)
     source: Any = history
     if drivers:
         from evcal.io import read_history

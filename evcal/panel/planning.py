@@ -107,7 +107,7 @@ def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[st
     from evcal.engine.run import plan_units
     from evcal.engine.units import BatchUnit
     from evcal.model.inputs import load_calendar_any
-    from evcal.plan.batched import block_frame, group_horizon, plan_block, solve_block
+    from evcal.plan.batched import block_frame, group_horizon, plan_block, series_weak, solve_block
     from evcal.plan.horizon import horizon_periods
     from evcal.plan.simulate import check_sims
     from evcal.threads import held_blas
@@ -121,6 +121,7 @@ def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[st
                               options["start"], options["end"])
     n_sims = check_sims(options["n_sims"], len(periods))
     frames, alone = [], []
+    weak = series_weak(model.lifts, panel.keys)  # each series' own grade (its interval), as lifts.csv says
     horizons: dict[int, Any] = {}
     with held_blas(10**9, 10**3):  # blocks of many series: one BLAS thread, as the panel fit holds it
         units, _, _ = plan_units(panel, cal, opts)
@@ -137,7 +138,7 @@ def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[st
                 horizons[gid] = group_horizon(fit, plan_cal, periods, options["new_events"])
             h = horizons[gid]
             parts = plan_block(fit, h, plan_cal, n_sims, options["seed"])
-            frame = block_frame(fit, h, parts, panel.label)
+            frame = block_frame(fit, h, parts, panel.label, weak, plan_cal, options["new_events"])
             # a base or plan that is not a finite number: the single-series plan says so in one line
             bad = ~np.isfinite(frame[["base", "plan"]].to_numpy()).all(axis=1)
             if bad.any():

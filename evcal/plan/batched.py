@@ -32,9 +32,10 @@ from evcal.model.estimators import ar_covariances, prewhitened_errors
 from evcal.model.passes import theta_sources
 from evcal.plan.build import Horizon, horizon, plan_group, plan_parts
 from evcal.plan.horizon import period_dates
+from evcal.plan.schedule import resolve_schedule
 from evcal.plan.simulate import scheduled_terms, simulate_block
 
-__all__ = ["BlockFit", "solve_block", "plan_block"]
+__all__ = ["BlockFit", "solve_block", "plan_block", "series_weak"]
 
 #: series whose (periods x coefficients) designs are factorised at once for their covariances
 COV_CHUNK = 64
@@ -209,16 +210,69 @@ def _level_map(fit: BlockFit, h: Horizon, curved: dict[str, np.ndarray]) -> tupl
     return M, const
 
 
-def block_frame(fit: BlockFit, h: Horizon, parts: dict[str, Any], label: str) -> pd.DataFrame:
-    """The long plan table of a block: ``_sid, date, base, plan, low, high, lift:<event>..., assumptions``."""
+def block_frame(fit: BlockFit, h: Horizon, parts: dict[str, Any], label: str,
+                weak: dict[str, np.ndarray] | None = None, cal: Any = None,
+                new_events: str = "error") -> pd.DataFrame:
+    """The long plan table of a block: ``_sid, date, base, plan, low, high, lift:<event>..., assumptions``.
+
+    ``weak`` (column -> bool per series position, :func:`series_weak`) marks the
+    lifts a series' own interval makes weak; those series' ``assumptions`` say
+    so as the single-series plan does (``cal`` and ``new_events``: the plan's).
+    """
     m, n = len(fit.sids), len(h.periods)
     frame = {"_sid": np.repeat(fit.sids, n), "date": np.tile(period_dates(h.periods, label), m)}
     for c in ("base", "plan", "low", "high"):
         frame[c] = parts[c].ravel()
     for ev in h.events:
         frame[f"lift:{ev}"] = parts["lifts"][ev].ravel()
-    frame["assumptions"] = np.tile(np.array(h.assumption_texts(), dtype=object), m)
+    frame["assumptions"] = _assumptions(fit, h, weak or {}, cal, new_events).ravel()
     return pd.DataFrame(frame)
+
+
+def series_weak(lifts: pd.DataFrame, keys: pd.DataFrame) -> dict[str, np.ndarray]:
+    """Column -> whether each series of ``keys`` (in its order) has the lift ``weak`` in ``lifts``.
+
+    The panel's lifts table grades each series on its own interval
+    (:func:`evcal.model.strength.too_wide` in :func:`evcal.effects.block.lifts_columns`),
+    so a series can be weak where its design group is not; this reads it back, as
+    :func:`evcal.engine.series.adopt_tables` does for a single series.
+    """
+    cols = list(keys.columns)
+    weak = lifts.loc[lifts["identifiable"].astype(str) == "weak", [*cols, "event"]]
+    if weak.empty:
+        return {}
+    wanted = keys.astype(str).assign(_pos=np.arange(len(keys)))
+    hit = weak.astype(str).merge(wanted, on=cols)
+    out: dict[str, np.ndarray] = {}
+    for col, pos in hit.groupby("event")["_pos"]:
+        out[str(col)] = np.zeros(len(keys), dtype=bool)
+        out[str(col)][pos.to_numpy()] = True
+    return out
+
+
+def _assumptions(fit: BlockFit, h: Horizon, weak: dict[str, np.ndarray], cal: Any,
+                 new_events: str) -> np.ndarray:
+    """The ``assumptions`` texts (m, n) of a block's series: the group's, and where a series' own lift is
+    weak (its fitted column not weak in the group), the schedule resolved again with it weak."""
+    texts = np.array(h.assumption_texts(), dtype=object)
+    status = fit.group.info.status
+    cols = [c for c in weak if c in status and status[c].status == "fitted" and not status[c].weak]
+    out = np.tile(texts, (len(fit.sids), 1))
+    if not cols:
+        return out
+    marks = np.stack([weak[c][fit.sids] for c in cols], axis=1)
+    patterns, which = np.unique(marks, axis=0, return_inverse=True)
+    for p, pattern in enumerate(patterns):
+        if not pattern.any():
+            continue
+        mine = [c for c, w in zip(cols, pattern, strict=True) if w]
+        own = {**status, **{c: replace(status[c], weak=True) for c in mine}}
+        view = SimpleNamespace(**{**vars(group_view(fit.group)), "status": own})
+        schedule = resolve_schedule(view, cal, h.X[h.event_cols], new_events)
+        notes = {**schedule.notes, **{name: h.schedule.notes[name] for name in h.future}}
+        active = {ev: note for ev, note in notes.items() if h.on_own[ev].any()}
+        out[which.ravel() == p] = np.array(replace(h, active=active).assumption_texts(), dtype=object)
+    return out
 
 
 def group_horizon(fit: BlockFit, cal: Any, periods: pd.PeriodIndex, new_events: str) -> Horizon:

@@ -96,11 +96,12 @@ def _one_class_fits(seeds: range) -> pd.DataFrame:
     return out
 
 
-def test_a_one_period_lift_says_its_interval_is_too_narrow():
-    """Invented (above): the one-occurrence class is weak and its note warns that the interval is not
-    its precision. Fails on main: no such warning; passes."""
+def test_a_one_period_lift_says_what_its_interval_assumes():
+    """Invented (above): the one-occurrence class is weak and its note says its interval takes the
+    series' usual noise (the covariance's floor at high leverage, evcal.model.estimators.period_weights;
+    before it the note warned the interval was narrower than the truth, which no longer holds)."""
     fits = _one_class_fits(range(1))
-    assert all("narrower than the truth" in n for n in fits["note"])
+    assert all("takes the series' usual noise" in n for n in fits["note"])
 
 
 def test_one_and_two_period_intervals_hold_the_truth_nineteen_times_in_twenty():

@@ -30,7 +30,8 @@ _spec.loader.exec_module(cov_bench)
 
 def _reference_cov(X: np.ndarray, e: np.ndarray) -> tuple[np.ndarray, int]:
     """The prewhitened HC2 covariance, written out: statsmodels' Yule-Walker AR(p) (p by AIC), its whitening
-    filter as an explicit lower-triangular matrix A (zero before the first period), D = diag(ε² / (1 - h))
+    filter as an explicit lower-triangular matrix A (zero before the first period), D = diag(max(ε² / (1 - h),
+    ε² + h σ̄²)) with σ̄² = Σ ε² / (n - Σ h)
     and the sandwich (X'X)^-1 X' A^-1 D A^-T X (X'X)^-1 as dense products."""
     n, k = X.shape
     best = None
@@ -47,7 +48,12 @@ def _reference_cov(X: np.ndarray, e: np.ndarray) -> tuple[np.ndarray, int]:
     A = toeplitz(np.r_[1.0, -rho, np.zeros(n - p - 1)], np.zeros(n))
     Z = X @ np.linalg.inv(X.T @ X)
     h = np.diag(X @ np.linalg.inv(X.T @ X) @ X.T)
-    D = np.diag((A @ e) ** 2 / (1 - h))
+    # each period's weight: HC2, floored at its residual plus the share h its leverage hides at the pooled
+    # innovation variance (evcal.model.estimators.period_weights: the larger of the robust and the
+    # conventional variance, Angrist & Pischke 2009 §8.1, per period)
+    eps2 = (A @ e) ** 2
+    pooled = eps2.sum() / (n - h.sum())
+    D = np.diag(np.maximum(eps2 / (1 - h), eps2 + h * pooled))
     Ainv = np.linalg.inv(A)
     return Z.T @ Ainv @ D @ Ainv.T @ Z, p
 

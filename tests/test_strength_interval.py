@@ -96,19 +96,14 @@ def _one_class_fits(seeds: range) -> pd.DataFrame:
     return out
 
 
-def test_a_one_period_lift_says_its_interval_is_too_narrow():
-    """Invented (above): the one-occurrence class is weak and its note warns that the interval is not
-    its precision. Fails on main: no such warning; passes."""
+def test_a_one_period_lift_says_what_its_interval_assumes():
+    """Invented (above): the one-occurrence class is weak and its note says its interval takes the
+    series' usual noise (the covariance's floor at high leverage, evcal.model.estimators.period_weights;
+    before it the note warned the interval was narrower than the truth, which no longer holds)."""
     fits = _one_class_fits(range(1))
-    assert all("narrower than the truth" in n for n in fits["note"])
+    assert all("takes the series' usual noise" in n for n in fits["note"])
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="the robust covariance (evcal/model/estimators.py) reads the noise "
-    "of a one-period lift from its own residual, which the fit makes 0: measured coverage "
-    "35 % (one period) and 82 % (two) for 95 % intervals; the fix is in that file",
-)
 def test_one_and_two_period_intervals_hold_the_truth_nineteen_times_in_twenty():
     """Invented (above), 40 series with a known lift of 0: a 95 % interval should hold it in about
     38 of 40 (at least 34 allows for chance: binomial 95 %, 40 draws, lower 2.5 % point 35)."""

@@ -185,9 +185,9 @@ def _reasons(s: Strength, kind: str, iv_type: str, vif_full: float, held: int, f
                    f"of the fitted history (fewer than {MIN_OCCURRENCES}), too few to tell the event from "
                    f"whatever else happened then; {assume}, drop the event, or fit a longer history")
         if s.periods <= NARROW_PERIODS:
-            out.append(f"its 95 % interval is narrower than the truth: resting on {s.periods} period(s), it "
-                       f"reads the noise from residuals the fit makes near 0 there; do not read the "
-                       f"interval as the lift's precision")
+            out.append(f"its 95 % interval rests on {s.periods} period(s): the fit leaves no residual there "
+                       f"to read their own noise from, so it takes the series' usual noise; an event day "
+                       f"more erratic than ordinary days would need a wider one")
     if s.within and not daily:
         out.append(f"weakly identified: {s.within}'s window holds this event's days in {held} of "
                    f"{s.occurrences:.0f} occurrences, so {freq_word} periods cannot tell the two apart; "

@@ -117,11 +117,14 @@ def test_ols_coverage_small_simulation(phi):
     # (--errors ols; 1-2 s). Before the prewhitened covariance (Newey-West, 5 lags): 87.2/87.0 % (phi 0),
     # 90.2/89.7 % (0.6), 95.4/94.1 % (0.8). A correct 95 % interval: 95 ± 0.35 (one binomial se).
     # 1,000 replications were too few for the band: the promotion at phi 0.6 read 93.0 and then 92.9
-    # when the exact weekly aggregation of overlapping events moved one replication; over 12,000
-    # (seeds 1-3, 4,000 each) it reads 93.5-93.8 %, about 1.4 points short of 95 (measured 2026-12).
+    # when the exact weekly aggregation of overlapping events moved one replication (93.5-93.8 % over
+    # seeds 1-3). Since each period's weight is floored at its leverage's share of the pooled variance
+    # (evcal.model.estimators.period_weights; never below HC2, so conservative by construction) the
+    # intervals over-cover a little: seeds 1-2, 4,000 each, measured 2026-12: Easter 96.0-96.5 (phi 0),
+    # 96.4-96.5 (0.6), 95.9-97.4 (0.8); promotion 94.8-95.7. The band allows that side 3 points.
     c = cov_bench.coverage(cov_bench.Case("W", phi), "ols", 4000)
     for ev in cov_bench.TRUE_LIFT:
-        assert 93.0 <= c[ev] <= 97.0, (phi, c)
+        assert 93.0 <= c[ev] <= 98.0, (phi, c)
 
 
 def test_profile_interval_matches_replication_spread():

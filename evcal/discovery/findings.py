@@ -9,6 +9,7 @@ from typing import Any
 import pandas as pd
 
 from evcal._files import atomic_dir
+from evcal.amounts import amount
 from evcal.discovery.abnormal import AbnormalYear
 from evcal.discovery.cycles import Cycle, describe_cycles
 from evcal.discovery.lost_demand import LostDemand
@@ -101,8 +102,8 @@ class Findings:
         for lo in self.lost:
             lines.append(
                 f"lost demand {lo.start.date()}..{lo.end.date()} ({lo.reason}): expected "
-                f"{lo.expected:,.0f} (95% {lo.expected_low:,.0f}-{lo.expected_high:,.0f}), "
-                f"sold {lo.actual:,.0f}: about {lo.lost:,.0f} units lost")
+                f"{amount(lo.expected)} (95% {amount(lo.expected_low)}-{amount(lo.expected_high)}), "
+                f"sold {amount(lo.actual)}: about {amount(lo.lost)} units lost")
         if len(self.table) == 1 and not self.recurring and not self.abnormal and not self.lost and (
                 self.easter is None) and not self.neighbours and (
                 self.outliers is None or not self.outliers.outliers):

@@ -18,6 +18,7 @@ from typing import Any, NamedTuple
 import pandas as pd
 import yaml
 
+from evcal.amounts import amount
 from evcal.calendar.rules import WEEKDAY_ABBR
 from evcal.discovery.abnormal import AbnormalYear
 from evcal.discovery.cycles import Cycle
@@ -338,6 +339,6 @@ def lost_row(lo: LostDemand) -> Row:
     return Row(
         "lost_demand", lo.start.date(), lo.end.date(), round(-lo.lost_pct, 2),
         round(lo.lost / max((lo.expected_high - lo.expected_low) / 3.92, 1e-9), 2), None,
-        f"{lo.reason}: expected {lo.expected:,.0f} units (95% {lo.expected_low:,.0f} to "
-        f"{lo.expected_high:,.0f}) over {lo.periods} periods, sold {lo.actual:,.0f}: about "
-        f"{lo.lost:,.0f} units lost ({lo.lost_low:,.0f} to {lo.lost_high:,.0f})")
+        f"{lo.reason}: expected {amount(lo.expected)} units (95% {amount(lo.expected_low)} to "
+        f"{amount(lo.expected_high)}) over {lo.periods} periods, sold {amount(lo.actual)}: about "
+        f"{amount(lo.lost)} units lost ({amount(lo.lost_low)} to {amount(lo.lost_high)})")

@@ -11,6 +11,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.amounts import amount
 from evcal.effects import Z95
 
 DRIVER_COLUMNS = ["driver", "scale", "coefficient", "low", "high", "change", "effect_pct", "effect_low_pct",
@@ -70,6 +71,6 @@ def describe_drivers(result: Any) -> str:
             f"[{row.effect_low_pct:+.1f}, {row.effect_high_pct:+.1f}]")
         lines.append(f"  {row.driver} ({row.scale}): {what} {row.coefficient:.3f} "
                      f"[{row.low:.3f}, {row.high:.3f}]{effect}; "
-                     f"moves sales {row.mean_abs_units:,.0f} units a period on average"
+                     f"moves sales {amount(row.mean_abs_units)} units a period on average"
                      + (f" ({row.identifiable}: {row.note})" if row.identifiable != "yes" else ""))
     return "\n".join(lines)

@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from evcal.amounts import amount
 from evcal.effects import Z95
 
 COLUMN = "leap_year"
@@ -60,7 +61,8 @@ def leap_year_line(result: Any) -> str | None:
         size = f"{effect['effect']:+.1f} % [{effect['low']:+.1f}, {effect['high']:+.1f}]"
         return (f"leap year: a leap February sells {size} against a common one "
                 f"(one more day in 28 is +3.6 %)")
-    size = f"{effect['effect']:+,.0f} [{effect['low']:+,.0f}, {effect['high']:+,.0f}] units"
+    size = (f"{amount(effect['effect'], sign=True)} [{amount(effect['low'], sign=True)}, "
+            f"{amount(effect['high'], sign=True)}] units")
     return f"leap year: a leap February sells {size} against a common one"
 
 

@@ -8,6 +8,7 @@ from typing import Any
 
 import pandas as pd
 
+from evcal.amounts import amount
 from evcal.design.weekdays import fitted_profile, profile_line, weekday_note
 from evcal.io.history import period_dates
 from evcal.model.leap import leap_year_line
@@ -108,7 +109,7 @@ def describe(result: Any) -> str:
     lines.append(f"{'event':<28} {'ident.':<6} {'lift %':>8} {'95 % interval':>19} {'units/occ.':>11}  note")
     for r in result.lifts.itertuples(index=False):
         interval = "" if _fmt(r.low_pct) == "" else f"[{_fmt(r.low_pct)}, {_fmt(r.high_pct)}]"
-        units = "" if _fmt(r.units_per_occurrence) == "" else f"{float(r.units_per_occurrence):,.0f}"
+        units = "" if _fmt(r.units_per_occurrence) == "" else amount(float(r.units_per_occurrence))
         note = "" if not isinstance(r.note, str) else r.note
         ident = str(getattr(r, "identifiable", ""))
         lines.append(f"{str(r.event)[:28]:<28} {ident:<6} {_fmt(r.lift_pct):>8} {interval:>19} {units:>11}  "
@@ -143,7 +144,7 @@ def _net_lines(lifts: Any) -> list[str]:
                           if d.dip_of == r.event)
         net = "not measured" if _fmt(r.net_pct) == "" else (
             f"{_fmt(r.net_pct)} % [{_fmt(r.net_low_pct)}, {_fmt(r.net_high_pct)}], "
-            f"{float(r.net_units_per_occurrence):,.0f} units per occurrence")
+            f"{amount(float(r.net_units_per_occurrence))} units per occurrence")
         out.append(f"net     : {r.event}: {net} over its window and dip days (gross {_fmt(r.lift_pct)} %; "
                    f"{parts})")
     return out

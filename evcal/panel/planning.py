@@ -23,6 +23,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.amounts import amount
 from evcal.errors import EvcalError, PlanError
 from evcal.panel.result import PanelResult, load_panel
 
@@ -276,7 +277,7 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
                                                    "assumptions", "note") and not str(c).startswith("lift:")]
     n_series = len(table[keys].drop_duplicates()) if keys else 1
     echo(f"planned {n_series} series, {table['date'].nunique()} periods each; total "
-         f"{np.nansum(table['plan'].to_numpy(dtype=float)):,.0f}")
+         f"{amount(float(np.nansum(table['plan'].to_numpy(dtype=float))))}")
     if alone and kwargs.get("total") is None and kwargs.get("totals") is None:  # a target: one series, alone
         shown = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
         echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series error "

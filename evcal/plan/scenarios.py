@@ -18,6 +18,7 @@ import numpy as np
 import pandas as pd
 
 from evcal._files import atomic_path
+from evcal.amounts import amount
 from evcal.errors import PlanError
 from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.plan.build import make_plan
@@ -47,8 +48,8 @@ class Comparison:
         """Totals of both plans, their difference, and the periods that differ most."""
         a, b = self.plan_a.total, self.plan_b.total
         pct = 100.0 * (b - a) / a if a else float("nan")
-        lines = [f"Scenario A ({self.name_a}): total {a:,.0f}; scenario B ({self.name_b}): total {b:,.0f}; "
-                 f"difference B - A {b - a:+,.0f} ({pct:+.1f}%)."]
+        lines = [f"Scenario A ({self.name_a}): total {amount(a)}; scenario B ({self.name_b}): total "
+                 f"{amount(b)}; difference B - A {amount(b - a, sign=True)} ({pct:+.1f}%)."]
         if self.plan_a.target is not None:
             lines.append("Both plans are spread to the same target, so the difference shows where the "
                          "volume moves between periods.")
@@ -57,8 +58,8 @@ class Comparison:
         order = [k for k in np.argsort(-np.abs(diff))[:top] if abs(diff[k]) > 1e-9]
         if order:
             dates = pd.DatetimeIndex(rows["date"])
-            parts = [f"{period_name(self.plan_a.periods[k], dates[k], self.plan_a.label)} {diff[k]:+,.0f}"
-                     for k in order]
+            parts = [f"{period_name(self.plan_a.periods[k], dates[k], self.plan_a.label)} "
+                     f"{amount(diff[k], sign=True)}" for k in order]
             lines.append("Periods that differ most: " + "; ".join(parts) + ".")
         else:
             lines.append("The two scenarios give the same plan in every period.")

@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.amounts import amount
 from evcal.design.seasonal import base_freq, season_position
 from evcal.model.weekday_share import average_share_basis, spread_weekday_share
 
@@ -58,9 +59,7 @@ def average_share_plan(periods: pd.PeriodIndex, years: np.ndarray, plan: np.ndar
 
 
 def _num(x: float) -> str:
-    if not np.isfinite(x):
-        return "n/a"
-    return f"{x:,.0f}" if abs(x) >= 100 else f"{x:,.3g}"
+    return amount(float(x))
 
 
 def _pct(x: float) -> str:

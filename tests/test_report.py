@@ -581,7 +581,8 @@ def test_headlines_by_hand(tmp_path: Path) -> None:
     # By hand: total 1,500, uniform shares give 125 a month; March is +275, the rest −25 each,
     # so (275 + 11 × 25) / 2 = 275 units (18.3 % of 1,500) sit in other periods.
     assert lines == [
-        f"fair adds the most: about {fair.units_per_occurrence:,.0f} units each time, {fair.lift_pct:+.1f} % "
+        # under 100 units: three significant digits (evcal.amounts), 54.2 rather than 54
+        f"fair adds the most: about {fair.units_per_occurrence:.3g} units each time, {fair.lift_pct:+.1f} % "
         f"over base (95 % interval {fair.low_pct:+.1f} % to {fair.high_pct:+.1f} %).",
         "The plan's peak lands in Mar 2027: 400 units (low 350, high 450).",
         "Against an average-share profile spread to the same total, 275 units (18.3 % of the total) "

@@ -25,6 +25,7 @@ import math
 import pandas as pd
 from pandas.tseries.frequencies import get_period_alias
 
+from evcal.amounts import amount
 from evcal.design.seasonal import base_freq
 
 NO_VALUE = "–"
@@ -38,10 +39,23 @@ def _finite(x: object) -> float | None:
     return v if math.isfinite(v) else None
 
 
-def num(x: object, digits: int = 0, sign: bool = False) -> str:
-    """A number with thousands separators and ``digits`` decimals (``sign=True``: ``+1,234``)."""
+def num(x: object, digits: int | None = None, sign: bool = False) -> str:
+    """A number with thousands separators (``sign=True``: ``+1,234``).
+
+    Without ``digits`` it is an amount of units: whole from 100 up, three significant
+    digits below (:func:`evcal.amounts.amount`), so a series counted in thousands does not
+    read 0; with ``digits``, that many decimals.
+
+    Examples
+    --------
+    >>> num(94905.4), num(-0.217), num(3.14159, 2)
+    ('94,905', '−0.217', '3.14')
+    """
     v = _finite(x)
-    return NO_VALUE if v is None else f"{v:{'+' if sign else ''},.{digits}f}".replace("-", "−")
+    if v is None:
+        return NO_VALUE
+    text = amount(v, sign=sign) if digits is None else f"{v:{'+' if sign else ''},.{digits}f}"
+    return text.replace("-", "−")
 
 
 def sig(x: object, digits: int = 4) -> str:

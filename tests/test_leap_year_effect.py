@@ -9,6 +9,8 @@ trading-day columns). The fit must put that figure inside its interval.
 
 from __future__ import annotations
 
+import re
+
 import pandas as pd
 import pytest
 
@@ -52,3 +54,12 @@ def test_summary_and_plan_say_it(births_fit):
 def test_no_leap_column_no_line():
     without = evcal.fit(births_monthly(), None, errors="ols", trading_days=True, leap_year=False)
     assert leap_year_effect(without) is None and "leap year:" not in describe(without)
+
+
+def test_the_report_says_it(births_fit, tmp_path):
+    from evcal.report import write_report
+
+    births_fit.save(tmp_path / "m")
+    out = write_report(tmp_path / "m", out_html=tmp_path / "r.html")
+    text = " ".join(re.sub("<[^>]+>", " ", out.read_text(encoding="utf-8")).split())
+    assert "leap year: a leap February sells +3.7 % [+3.0, +4.5] against a common one" in text

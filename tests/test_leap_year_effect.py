@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import re
 
+import numpy as np
+import pandas as pd
 import pytest
 from births import births_monthly_frame
 
@@ -56,3 +58,14 @@ def test_the_report_says_it(births_fit, tmp_path):
     out = write_report(tmp_path / "m", out_html=tmp_path / "r.html")
     text = " ".join(re.sub("<[^>]+>", " ", out.read_text(encoding="utf-8")).split())
     assert "leap year: a leap February sells +3.7 % [+3.0, +4.5] against a common one" in text
+
+
+def test_a_report_without_the_column_has_no_line(tmp_path):
+    """Fails on the first version of the line (an undefined template field: every weekly report crashed)."""
+    from evcal.report import write_report
+
+    idx = pd.date_range("2021-01-03", periods=3 * 52, freq="W-SUN")
+    weekly = pd.DataFrame({"date": idx, "value": 100 + 10 * np.sin(np.arange(len(idx)) / 8.3)})
+    evcal.fit(weekly, None, errors="ols").save(tmp_path / "m")
+    out = write_report(tmp_path / "m", out_html=tmp_path / "r.html")
+    assert "leap year:" not in out.read_text(encoding="utf-8")

@@ -120,9 +120,8 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
             more = f" and {len(grp) - 6} more" if len(grp) > 6 else ""
             assumptions.append(f"{text} — in {periods}{more}")
     spans = [[e["start"], e["end"], e["reason"]] for e in ctx.model["exclusions"]]
-    leap = _leap_year_line(ctx.model)
-    if chosen is not None and leap:
-        chosen["leap_year"] = leap
+    if chosen is not None:
+        chosen["leap_year"] = _leap_year_line(ctx.model)  # None without the column: the line is left out
     return {
         "chosen": chosen,
         "warnings": ctx.model["warnings"],

@@ -55,8 +55,8 @@ from evcal.calendar.schema import MAX_DAYS, MAX_STRENGTH  # the longest occurren
 from evcal.calendar.value_parsers import parse_date, show
 from evcal.errors import clip
 
-__all__ = ["SAVED_KEY", "FileReach", "FileRule", "coverage_notes", "file_reaches", "history_notes",
-           "read_rule", "rule_from_text", "saved_text"]
+__all__ = ["SAVED_KEY", "FileReach", "FileRule", "coverage_notes", "entry_name", "file_reaches",
+           "history_notes", "read_rule", "rule_from_text", "saved_text"]
 
 #: the columns the file's rows are read from; every other column can filter rows
 START, END, STRENGTH = "start", "end", "strength"
@@ -298,6 +298,12 @@ class FileReach:
         return self.rule.path + (f" (rows with {self.rule.filter_text()})" if self.rule.where else "")
 
 
+def entry_name(event: Any) -> str:
+    """The calendar entry ``event`` comes from: a weekday class (``by_weekday``) or a dip period
+    (``dip_after``/``dip_before``) is one of its entry's events, all on the entry's dates."""
+    return event.split_of or (event.dip_of.name if event.dip_of is not None else event.name)
+
+
 def file_reaches(cal: Any) -> list[FileReach]:
     """One :class:`FileReach` per calendar entry whose dates come from a file.
 
@@ -309,7 +315,7 @@ def file_reaches(cal: Any) -> list[FileReach]:
         rule = ev.when
         if not isinstance(rule, FileRule) or not rule.items:
             continue
-        name = ev.split_of or (ev.dip_of.name if ev.dip_of is not None else ev.name)
+        name = entry_name(ev)
         if name in out:
             continue
         shift = dt.timedelta(days=ev.dip_of.offset if ev.dip_of is not None else ev.offset)

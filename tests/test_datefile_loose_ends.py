@@ -6,10 +6,15 @@ Every file, series and effect here is invented (named so), with a known truth wh
 
 from __future__ import annotations
 
+import datetime as dt
 from pathlib import Path
+from typing import Any
 
+import pandas as pd
 from typer.testing import CliRunner
 
+from evcal.calendar import load_calendar
+from evcal.calendar.datefile import coverage_notes, history_notes, saved_text
 from evcal.cli import app
 
 RUN = CliRunner()
@@ -49,3 +54,48 @@ def test_check_says_the_listed_dates_stop_once_per_entry(tmp_path: Path) -> None
         "planning them",
         "- listed: dates are listed up to 2022 only; add the dates of later years before planning them",
     ]
+
+
+# ------------------------------------------------- (c) the bridge days of a file event stop with its rows
+
+FETES = ["2023-05-11", "2023-11-14", "2024-05-16", "2024-10-01"]  # invented fetes: Thu, Tue, Thu, Tue
+BRIDGE_CAL = ("name: invented\nevents:\n  - name: fete\n    when: {file: fetes.csv}\n"
+              "  - name: fete-bridge\n    when: {bridge: fete}\n")
+
+
+def _bridge_calendar() -> Any:
+    return load_calendar(BRIDGE_CAL + saved_text({"fetes.csv": "start\n" + "".join(f"{d}\n" for d in FETES)}))
+
+
+def test_plan_note_says_the_bridge_days_stop_with_the_files_rows() -> None:
+    """The file's last fete is 2024-10-01 (a Tuesday, bridged by Monday 2024-09-30); a plan to the end of
+    2025 has no fete and so no bridge day after it: the note names the bridge entry once (main: only the
+    fete)."""
+    cal = _bridge_calendar()
+    occ = cal.occurrences(2023, 2025)
+    assert list(occ.loc[occ["event"] == "fete-bridge", "start"].dt.date.astype(str)) == [
+        "2023-05-12", "2023-11-13", "2024-05-17", "2024-09-30"]  # by hand: Friday after, Monday before
+    assert coverage_notes(cal, pd.Timestamp("2025-12-31 23:59")) == [
+        "fete: fetes.csv lists dates up to 2024-10-01 (row 5) and the plan runs to 2025-12-31, so the plan "
+        "has no fete after 2024-10-01, and no fete-bridge either (bridge days of fete: they follow its "
+        "dates); add the later dates to the file and plan again"]
+
+
+def test_fit_note_says_the_bridge_days_stop_with_the_files_rows() -> None:
+    cal = _bridge_calendar()
+    notes = history_notes(cal, dt.date(2023, 1, 1), dt.date(2025, 12, 31))
+    assert len(notes) == 1
+    assert notes[0].startswith(
+        "fete: fetes.csv lists dates up to 2024-10-01 (row 5) and the history runs to 2025-12-31, so "
+        "2024-10-02 .. 2025-12-31 is fitted as if no fete happened, and no fete-bridge either (bridge days "
+        "of fete: they follow its dates); ")
+
+
+def test_a_bridge_of_the_public_holidays_is_not_named() -> None:
+    """A bridge entry of another target keeps the note as it was."""
+    other = "  - {name: other, when: {fixed: 05-01}}\n"
+    text = BRIDGE_CAL.replace("{bridge: fete}", "{bridge: other}") + other
+    cal = load_calendar(text + saved_text({"fetes.csv": "start\n" + "".join(f"{d}\n" for d in FETES)}))
+    assert coverage_notes(cal, pd.Timestamp("2025-12-31")) == [
+        "fete: fetes.csv lists dates up to 2024-10-01 (row 5) and the plan runs to 2025-12-31, so the plan "
+        "has no fete after 2024-10-01; add the later dates to the file and plan again"]

@@ -334,9 +334,24 @@ def coverage_notes(cal: Any, last: Any) -> list[str]:
     not because the event will not happen: never silently zero.
     """
     return [f"{r.event}: {r.source()} lists dates up to {r.last} (row {r.last_row}) and the plan runs to "
-            f"{last.date()}, so the plan has no {r.event} after {r.last}; add the later dates to the file "
-            "and plan again"
+            f"{last.date()}, so the plan has no {r.event} after {r.last}{_bridged(cal, r.event)}; add the "
+            "later dates to the file and plan again"
             for r in file_reaches(cal) if r.last < last.date()]
+
+
+def _bridged(cal: Any, event: str) -> str:
+    """``, and no fete-bridge either (...)``: the bridge-day entries built on ``event``'s dates (or ``""``).
+
+    A bridge day sits next to a day of its target, so where the file has no rows the bridge entry
+    has no days either: the note names it, or the planner would look for the missing days in one
+    place only.
+    """
+    names = list(dict.fromkeys(entry_name(e) for e in getattr(cal, "events", [])
+                               if isinstance(e.when, R.BridgeRule) and e.when.target == event))
+    if not names:
+        return ""
+    shown = " or ".join(names)
+    return f", and no {shown} either (bridge days of {event}: they follow its dates)"
 
 
 def history_notes(cal: Any, first: dt.date, last: dt.date) -> list[str]:
@@ -367,6 +382,6 @@ def history_notes(cal: Any, first: dt.date, last: dt.date) -> list[str]:
                           r.last + dt.timedelta(days=1), last))
         for what, lo, hi in spans:
             notes.append(f"{r.event}: {r.source()} {what}, so {lo} .. {hi} is fitted as if no {r.event} "
-                         f"happened; if it did, add those dates to the file (or exclude the periods) and fit "
-                         f"again")
+                         f"happened{_bridged(cal, r.event)}; if it did, add those dates to the file (or "
+                         "exclude the periods) and fit again")
     return notes

@@ -10,6 +10,7 @@ import datetime as dt
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 from typer.testing import CliRunner
 
@@ -99,3 +100,46 @@ def test_a_bridge_of_the_public_holidays_is_not_named() -> None:
     assert coverage_notes(cal, pd.Timestamp("2025-12-31")) == [
         "fete: fetes.csv lists dates up to 2024-10-01 (row 5) and the plan runs to 2025-12-31, so the plan "
         "has no fete after 2024-10-01; add the later dates to the file and plan again"]
+
+
+# ------------------------------------------------- (a) a panel fit says the date file's coverage warning once
+
+# invented promotion weeks, 2018-2021 only; the history runs 2016-2023
+PROMOS = [("2018-03-05", "2018-03-11"), ("2019-04-01", "2019-04-07"), ("2020-08-03", "2020-08-09"),
+          ("2021-05-10", "2021-05-16")]
+
+
+def _invented_weekly(seed: int, promo: pd.DatetimeIndex) -> pd.DataFrame:
+    """An invented weekly shop: a yearly wave, 3 % noise, +25 % in the promotion weeks."""
+    weeks = pd.period_range("2016-01-04", "2023-12-31", freq="W-SUN")
+    rng = np.random.default_rng(seed)
+    log_y = np.log(5000) + 0.15 * np.sin(2 * np.pi * weeks.start_time.day_of_year.to_numpy() / 365.25)
+    log_y += rng.normal(0, 0.03, len(weeks)) + np.log(1.25) * weeks.start_time.isin(promo)
+    return pd.DataFrame({"date": weeks.end_time.normalize(), "value": np.exp(log_y)})
+
+
+def test_panel_fit_and_show_say_the_files_coverage_once(tmp_path: Path) -> None:
+    """Two invented weekly stores, one promotion file (rows 2018-03-05 .. 2021-05-16): the panel's fit and
+    its show each say once per side, as the single-series fit does, that the file does not reach over
+    2016-01-04 .. 2023-12-31 (main: nothing)."""
+    (tmp_path / "promos.csv").write_text("start,end\n" + "".join(f"{s},{e}\n" for s, e in PROMOS))
+    (tmp_path / "cal.yaml").write_text("name: invented\nevents:\n- {name: promo, when: {file: promos.csv}}\n")
+    starts = pd.DatetimeIndex([s for s, _ in PROMOS])
+    frames = [_invented_weekly(k, starts).assign(store=store) for k, store in enumerate(("north", "south"))]
+    pd.concat(frames).to_csv(tmp_path / "long.csv", index=False)
+    fit = RUN.invoke(app, ["fit", str(tmp_path / "long.csv"), "--series-col", "store", "-c",
+                           str(tmp_path / "cal.yaml"), "--out", str(tmp_path / "panel")])
+    assert fit.exit_code == 0, fit.output
+    start = ("warning : promo: promos.csv lists dates from 2018-03-05 (row 2) and the history starts on "
+             "2016-01-04, so 2016-01-04 .. 2018-03-04 is fitted as if no promo happened; ")
+    end = ("warning : promo: promos.csv lists dates up to 2021-05-16 (row 5) and the history runs to "
+           "2023-12-31, so 2021-05-17 .. 2023-12-31 is fitted as if no promo happened; ")
+    shown = RUN.invoke(app, ["show", str(tmp_path / "panel")])
+    assert shown.exit_code == 0, shown.output
+    for output in (fit.output, shown.output):
+        flat = " ".join(output.split())
+        assert flat.count(start) == 1 and flat.count(end) == 1, output
+    # one series alone (its single-series fit) says the same, with its own history's days
+    one = RUN.invoke(app, ["show", str(tmp_path / "panel"), "--series", "north"])
+    assert one.exit_code == 0, one.output
+    assert end.removeprefix("warning : ") in " ".join(one.output.split())

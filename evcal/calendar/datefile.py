@@ -55,8 +55,8 @@ from evcal.calendar.schema import MAX_DAYS, MAX_STRENGTH  # the longest occurren
 from evcal.calendar.value_parsers import parse_date, show
 from evcal.errors import clip
 
-__all__ = ["SAVED_KEY", "FileReach", "FileRule", "coverage_notes", "file_reaches", "history_notes",
-           "read_rule", "rule_from_text", "saved_text"]
+__all__ = ["SAVED_KEY", "FileReach", "FileRule", "coverage_notes", "entry_name", "file_reaches",
+           "history_notes", "read_rule", "rule_from_text", "saved_text"]
 
 #: the columns the file's rows are read from; every other column can filter rows
 START, END, STRENGTH = "start", "end", "strength"
@@ -298,6 +298,12 @@ class FileReach:
         return self.rule.path + (f" (rows with {self.rule.filter_text()})" if self.rule.where else "")
 
 
+def entry_name(event: Any) -> str:
+    """The calendar entry ``event`` comes from: a weekday class (``by_weekday``) or a dip period
+    (``dip_after``/``dip_before``) is one of its entry's events, all on the entry's dates."""
+    return event.split_of or (event.dip_of.name if event.dip_of is not None else event.name)
+
+
 def file_reaches(cal: Any) -> list[FileReach]:
     """One :class:`FileReach` per calendar entry whose dates come from a file.
 
@@ -309,7 +315,7 @@ def file_reaches(cal: Any) -> list[FileReach]:
         rule = ev.when
         if not isinstance(rule, FileRule) or not rule.items:
             continue
-        name = ev.split_of or (ev.dip_of.name if ev.dip_of is not None else ev.name)
+        name = entry_name(ev)
         if name in out:
             continue
         shift = dt.timedelta(days=ev.dip_of.offset if ev.dip_of is not None else ev.offset)
@@ -328,9 +334,24 @@ def coverage_notes(cal: Any, last: Any) -> list[str]:
     not because the event will not happen: never silently zero.
     """
     return [f"{r.event}: {r.source()} lists dates up to {r.last} (row {r.last_row}) and the plan runs to "
-            f"{last.date()}, so the plan has no {r.event} after {r.last}; add the later dates to the file "
-            "and plan again"
+            f"{last.date()}, so the plan has no {r.event} after {r.last}{_bridged(cal, r.event)}; add the "
+            "later dates to the file and plan again"
             for r in file_reaches(cal) if r.last < last.date()]
+
+
+def _bridged(cal: Any, event: str) -> str:
+    """``, and no fete-bridge either (...)``: the bridge-day entries built on ``event``'s dates (or ``""``).
+
+    A bridge day sits next to a day of its target, so where the file has no rows the bridge entry
+    has no days either: the note names it, or the planner would look for the missing days in one
+    place only.
+    """
+    names = list(dict.fromkeys(entry_name(e) for e in getattr(cal, "events", [])
+                               if isinstance(e.when, R.BridgeRule) and e.when.target == event))
+    if not names:
+        return ""
+    shown = " or ".join(names)
+    return f", and no {shown} either (bridge days of {event}: they follow its dates)"
 
 
 def history_notes(cal: Any, first: dt.date, last: dt.date) -> list[str]:
@@ -361,6 +382,6 @@ def history_notes(cal: Any, first: dt.date, last: dt.date) -> list[str]:
                           r.last + dt.timedelta(days=1), last))
         for what, lo, hi in spans:
             notes.append(f"{r.event}: {r.source()} {what}, so {lo} .. {hi} is fitted as if no {r.event} "
-                         f"happened; if it did, add those dates to the file (or exclude the periods) and fit "
-                         f"again")
+                         f"happened{_bridged(cal, r.event)}; if it did, add those dates to the file (or "
+                         "exclude the periods) and fit again")
     return notes

@@ -23,6 +23,7 @@ import numpy as np
 
 from evcal.calendar import rules as R
 from evcal.calendar.core import Calendar
+from evcal.calendar.datefile import FileRule, entry_name
 from evcal.calendar.occurrences import EPOCH_ORDINAL, as_day, coverage, day_number, expand
 
 
@@ -111,6 +112,7 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
 
     warnings: list[str] = []
     quiet_public: list[str] = []
+    listed: set[str] = set()
     for e in events:
         if int(counts.get(e.name, 0)) == 0:
             if e in public:
@@ -125,11 +127,12 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
                                 f"{_year_list(missing)}; no occurrence those years")
         if isinstance(e.when, R.FixedRule) and (e.when.month, e.when.day) == (2, 29):
             warnings.append(f"{e.name}: 02-29 occurs in leap years only")
-        if isinstance(e.when, R.DatesRule):
+        if isinstance(e.when, R.DatesRule) and entry_name(e) not in listed:
+            # once per calendar entry: its weekday classes and dip periods share its dates
+            listed.add(entry_name(e))
             last_listed = max(e.when.years())
             if last_listed < last_year:
-                warnings.append(f"{e.name}: dates are listed up to {last_listed} only; add the "
-                                "dates of later years before planning them")
+                warnings.append(_listed_until(e, last_listed))
         if e.effect.kind == "assume" and e.effect.assume is not None and (
                 0 < abs(e.effect.assume) < 0.01):
             warnings.append(f"{e.name}: assume is {e.effect.assume * 100:g} %; write "
@@ -157,6 +160,17 @@ def check_calendar(cal: Calendar, first_year: int, last_year: int) -> CheckRepor
                     warnings.append(f"{a.name} and {b.name} overlap on {int(shared[i, j])} days"
                                     f" (in {_year_list(_years_of(both))})")
     return CheckReport(lines, warnings, first_year, last_year)
+
+
+def _listed_until(e: Any, year: int) -> str:
+    """The warning for an entry whose listed dates stop in ``year``, before the last year checked
+    (a date file: the file, its last day and the row it comes from)."""
+    if isinstance(e.when, FileRule):
+        row = max(zip(e.when.items, e.when.rows, strict=True), key=lambda p: (p[0].end, p[1]))[1]
+        return (f"{entry_name(e)}: {e.when.path} lists dates up to {e.when.last_day} (row {row}) only; add "
+                "the later dates to the file before planning them")
+    return (f"{entry_name(e)}: dates are listed up to {year} only; add the dates of later years before "
+            "planning them")
 
 
 def auto_run_up_text(event: Any) -> str:

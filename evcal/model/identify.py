@@ -37,6 +37,9 @@ MAX_LEVEL_RATIO = 99.0
 #: event sits in the same period (nearly) every year (wording only, not a rule)
 SEASONAL_SHARE = 0.1
 Z95 = 1.959963984540054
+#: the note of a column with no occurrence in the fitted periods (an intervention after the history
+#: says more: :func:`no_history_note`)
+NO_HISTORY = "no occurrence inside the fitted history; not fitted"
 
 
 @dataclass
@@ -179,7 +182,8 @@ def check_columns(
     chol = np.zeros((0, 0))
     for j, c in enumerate(candidate_cols):
         if norms[j] == 0.0:
-            out[c] = ColumnStatus("no_history", "no occurrence inside the fitted history; not fitted")
+            note = no_history_note(c, calendar, X.index) if kind_of.get(c) == "intervention" else NO_HISTORY
+            out[c] = ColumnStatus("no_history", note)
             continue
         twin = None
         for k in kept:
@@ -283,9 +287,36 @@ def status_notes(status: dict[str, ColumnStatus]) -> list[str]:
     for c, st in status.items():
         if st.status in ("unidentifiable", "duplicate"):
             notes.append(f"{c}: {st.note}")
-        elif st.status == "no_history":
-            notes.append(f"{c}: no occurrence in the history; listed, not fitted")
+        elif st.status == "no_history":  # an intervention after the history: when it starts, what plans do
+            notes.append(f"{c}: {st.note}" if st.note != NO_HISTORY else
+                         f"{c}: no occurrence in the history; listed, not fitted")
     return notes
+
+
+def no_history_note(name: str, calendar: Any, index: pd.Index) -> str:
+    """The note of an intervention column with nothing in the fitted periods.
+
+    One that starts after the history's last day (``index``'s last period) is a known future change:
+    the note says when it starts and what a plan does with it (:mod:`evcal.plan.future`: its assumed
+    size, or left out with a note until it has one); any other gets :data:`NO_HISTORY`.
+
+    Examples
+    --------
+    >>> from evcal.calendar import load_calendar
+    >>> cal = load_calendar("name: t\\ninterventions:\\n  - {name: rise, type: level_shift, "
+    ...                     "start: 2024-04-01, effect: {assume: -10%}}\\n")
+    >>> no_history_note("rise", cal, pd.period_range("2020-01", "2023-12", freq="M"))
+    'starts 2024-04-01, after the history: not fitted; plans use its assumed -10%'
+    """
+    iv = next((i for i in getattr(calendar, "interventions", []) if i.name == name), None)
+    last = index[-1].end_time if isinstance(index, pd.PeriodIndex) and len(index) else None
+    if iv is None or last is None or iv.start <= last:
+        return NO_HISTORY
+    start = f"starts {iv.start:%Y-%m-%d}, after the history: not fitted"
+    if iv.effect.kind == "assume":
+        return f"{start}; plans use its assumed {(iv.effect.assume or 0.0) * 100:+.4g}%"
+    return (f"{start}; with no assumed size a plan leaves it out (and says so): add `effect: {{assume: N%}}` "
+            "to it in the calendar to plan it")
 
 
 def _bound(transform: str, level: Any = 1.0) -> Any:

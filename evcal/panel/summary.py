@@ -40,6 +40,24 @@ def lift_distribution(lifts: pd.DataFrame) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=columns)
 
 
+def history_warnings(result: Any) -> list[str]:
+    """The single-series fit's warnings for date files that do not reach over the history, once for the panel.
+
+    Every series is fitted with one calendar, so a file's rows that stop inside the panel's span
+    (:func:`evcal.calendar.datefile.history_notes`) are said once, on the panel's first and last days,
+    not once per series; read from ``panel.json`` (its calendar text keeps the files' rows), so
+    ``evcal show`` of a panel folder says it as the fit did.
+    """
+    from evcal.calendar.datefile import history_notes
+    from evcal.model.inputs import load_calendar_any
+
+    s = result.settings
+    cal = load_calendar_any(s["calendar_text"])
+    first = pd.Period(s["periods"]["start"], freq=s["freq"]).start_time.date()
+    last = pd.Period(s["periods"]["end"], freq=s["freq"]).end_time.date()
+    return history_notes(cal, first, last)
+
+
 def describe_panel(result: Any) -> str:
     """Series fitted and skipped, fit quality, each event's lift across series, pooling."""
     from evcal.io.frequency import describe_freq
@@ -65,6 +83,7 @@ def describe_panel(result: Any) -> str:
                      + ", ".join(f"{r} {n}" for r, n in by.items()))
     else:
         lines.append("skipped : none")
+    lines += [f"warning : {w}" for w in history_warnings(result)]
     fitted = series[series["status"] == "fitted"]
     if len(fitted):
         w = fitted["wape_pct"].to_numpy(dtype=float)

@@ -60,6 +60,8 @@ def score(plan: np.ndarray, actual: np.ndarray) -> dict[str, float]:
     >>> score(np.array([1.0, 3.0, 2.0]), np.array([1.0, 2.0, 3.0]))
     {'wape': 0.3333333333333333, 'bias': 0.0, 'peak_error': 1}
     """
+    if len(plan) and not np.isfinite(plan).all():  # a method with no plan for the year (no profile)
+        return {"wape": float("nan"), "bias": float("nan"), "peak_error": None}
     denom = float(np.abs(actual).sum())
     wape = float(np.abs(plan - actual).sum()) / denom if denom else float("nan")
     bias = float((plan - actual).sum()) / float(actual.sum()) if actual.sum() else float("nan")
@@ -247,7 +249,7 @@ def backtest(
                         f = raw * (a.sum() / tot) if tot > 0 else np.full(len(raw), np.nan)
                     rows.append({"year": int(y), "method": method, "spread": how, **score(f, a)})
     out = pd.DataFrame(rows, columns=COLUMNS)
-    out["peak_error"] = out["peak_error"].astype(int)
+    out["peak_error"] = out["peak_error"].astype("Int64")  # empty where a method had no plan
     if hist.drivers is not None:
         names = ", ".join(hist.drivers.columns)
         notes.append(f"outside drivers ({names}): each held-out year is planned with "
@@ -267,16 +269,32 @@ def save_backtest(bt: pd.DataFrame, path: str | Path) -> None:
         write_csv(bt, tmp, index=False, float_format="%.6f")
 
 
+def _mean_wape(row: pd.Series) -> str:
+    """A method's mean WAPE over the years it could plan, saying so when that is not every year."""
+    if not row["count"]:
+        return "n/a"
+    part = f" over {row['count']} of {row['size']} years" if row["count"] < row["size"] else ""
+    return f"{100 * row['mean']:.1f}%{part}"
+
+
 def format_table(bt: pd.DataFrame) -> str:
     """The backtest as a fixed-width text table (WAPE and bias in %)."""
     lines = [f"{'year':>6}  {'method':<15} {'spread':<9} {'WAPE':>8} {'bias':>8} {'peak':>5}"]
     for r in bt.itertuples(index=False):
+        if pd.isna(r.wape):  # no plan from this method for the year: nothing to score
+            lines.append(f"{r.year:>6}  {r.method:<15} {r.spread:<9} {'n/a':>8} {'n/a':>8} {'n/a':>5}")
+            continue
         lines.append(f"{r.year:>6}  {r.method:<15} {r.spread:<9} {100 * r.wape:>7.1f}% "
-                     f"{100 * r.bias:>+7.1f}% {r.peak_error:>5d}")
+                     f"{100 * r.bias:>+7.1f}% {int(r.peak_error):>5d}")
     if len(bt):
-        mean = bt.groupby(["spread", "method"], sort=False)["wape"].mean()
+        mean = bt.groupby(["spread", "method"], sort=False)["wape"].agg(["mean", "count", "size"])
         lines.append("")
-        lines.append("mean WAPE: " + "; ".join(f"{m} ({s}) {100 * v:.1f}%" for (s, m), v in mean.items()))
+        means = [f"{m} ({s}) {_mean_wape(row)}" for (s, m), row in mean.iterrows()]
+        lines.append("mean WAPE: " + "; ".join(means))
+        missing = sorted(bt.loc[bt["wape"].isna() & (bt["method"] == "average_share"), "year"].unique())
+        if missing:
+            lines.append(f"average_share: n/a in {', '.join(str(y) for y in missing)}: no full calendar year "
+                         "before it to take each period's share from")
     if bt.attrs.get("average_share"):
         lines.append(f"average_share: {bt.attrs['average_share']}")
     return "\n".join(lines)

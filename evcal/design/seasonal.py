@@ -43,6 +43,25 @@ def season_position(periods: pd.PeriodIndex) -> np.ndarray:
     return doy - leap_shift
 
 
+def season_year(periods: pd.PeriodIndex) -> np.ndarray:
+    """The year whose annual cycle each period's :func:`season_position` counts in.
+
+    A week is placed by its middle day (the Thursday of a Monday-to-Sunday week), so it
+    belongs to that day's year: the week of Monday 30 December 2019 to Sunday 5 January
+    2020 is week 1 of 2020. Other periods belong to the year they start in.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> season_year(pd.period_range("2020-01-05", periods=2, freq="W-SUN")).tolist()
+    [2020, 2020]
+    """
+    start = periods.start_time.normalize()
+    if base_freq(periods.freqstr) == "W":
+        start = start + pd.Timedelta(days=3)
+    return start.year.to_numpy()
+
+
 @dataclass(frozen=True)
 class SeasonalDummies:
     """One dummy per position of the annual cycle except the first (the reference).

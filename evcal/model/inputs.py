@@ -13,7 +13,7 @@ from evcal.design.base import period_mid_years
 from evcal.design.drivers import DriverTerm
 from evcal.design.interventions import InterventionTerm
 from evcal.design.matrix import Design, DesignSpec, build_design
-from evcal.design.seasonal import base_freq, cycle_length, season_position
+from evcal.design.seasonal import base_freq, cycle_length, season_position, season_year
 from evcal.design.weekdays import weights_record
 from evcal.errors import HistoryError
 from evcal.model.fit_rows import excluded_periods
@@ -296,7 +296,7 @@ def average_share_profile(values: pd.Series, closed: Any = None) -> pd.Series:
     if closed is not None:
         v[np.asarray(closed, dtype=bool)] = 0.0
     pos = season_position(periods)
-    years = periods.start_time.year
+    years = season_year(periods)  # the year the position counts in (a week: the year of its Thursday)
     frame = pd.DataFrame({"v": v, "pos": pos, "year": years})
     p = cycle_length(periods.freqstr)
     # a full year has a value (or a known closure) at every position of the cycle

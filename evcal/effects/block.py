@@ -20,6 +20,7 @@ from evcal.effects.decompose import decompose_block
 from evcal.effects.netlift import NET_LIFT_COLUMNS, net_columns
 from evcal.effects.occurrences import Z95, occurrences_columns
 from evcal.effects.span import FittedBlock, GroupInfo, SpanContext
+from evcal.effects.wide import too_wide, wide_note
 
 __all__ = ["BlockTables", "block_tables", "LIFT_COLUMNS"]
 
@@ -208,11 +209,9 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
 def _wide_grades(rows: list[dict[str, Any]], m: int) -> dict[str, pd.Categorical]:
     """``identifiable`` and ``note`` per series where a lift's interval is too wide to trust, else nothing.
 
-    The rule is :func:`evcal.model.strength.too_wide` on each series' own interval (a panel's series share
+    The rule is :func:`evcal.effects.wide.too_wide` on each series' own interval (a panel's series share
     their design's grade, not their intervals); such a ``yes`` lift becomes ``weak`` with the rule's note.
     """
-    from evcal.model.strength import too_wide, wide_note
-
     wide = [too_wide(r["low_pct"], r["high_pct"]) if r.get("_estimated") else np.zeros(m, dtype=bool)
             for r in rows]
     if not rows or not np.any(wide):

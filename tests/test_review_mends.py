@@ -46,3 +46,33 @@ def test_a_drivers_csv_naming_a_driver_the_model_lacks_is_one_line(folder, tmp_p
     assert 'drivers.csv: line 3: column driver: "rain" is not one of price, temperature' in str(err.value)
     with pytest.raises(ModelError, match="drivers.csv: not found; model.json lists outside drivers"):
         check_drivers(tmp_path / "none" / "drivers.csv", {"price"})
+
+
+def test_a_panel_refuses_drivers_with_one_wording_naming_the_option(tmp_path) -> None:
+    """The panel's fit (--driver, the calendar's drivers:) and plan (--drivers, --compare-drivers) say the
+    same line with the option's name (before: the plan said 'panel models have no outside drivers')."""
+    from typer.testing import CliRunner
+
+    from evcal.cli import app
+
+    frame = pd.concat([invented(weeks=110).assign(store=s) for s in ("north", "south")])
+    hist = tmp_path / "h.csv"
+    frame.to_csv(hist, index=False)
+    runner = CliRunner()
+    res = runner.invoke(app, ["fit", str(hist), "--series-col", "store", "--errors", "ols",
+                              "--out", str(tmp_path / "p")])
+    assert res.exit_code == 0, res.output
+    fut = tmp_path / "f.csv"
+    pd.DataFrame({"date": ["2022-02-06"], "price": [2.0]}).to_csv(fut, index=False)
+    for option in ("--drivers", "--compare-drivers"):
+        res = runner.invoke(app, ["plan", str(tmp_path / "p"), "--from", "2022-02-01", "--to", "2022-02-28",
+                                  option, str(fut), "--out", str(tmp_path / "plan.csv")])
+        assert res.exit_code == 2
+        assert (f"{option}: outside drivers are fitted for a single series only so far, not for a panel; "
+                f"fit each series alone, or leave {option} out for the panel") in " ".join(res.output.split())
+    res = runner.invoke(app, ["fit", str(hist), "--series-col", "store", "--driver", "price",
+                              "--out", str(tmp_path / "q")])
+    assert res.exit_code == 2
+    line = " ".join(res.output.split())
+    assert ("--driver: outside drivers are fitted for a single series only so far, not for a panel; fit each "
+            "series alone, or leave --driver out for the panel") in line

@@ -12,7 +12,7 @@ import pytest
 from test_drivers import invented
 
 import evcal
-from evcal.errors import ModelError
+from evcal.errors import EvcalError, ModelError
 from evcal.io import read_history
 from evcal.model.drivers import driver_table
 from evcal.report.model_folder import read_model_folder
@@ -76,3 +76,66 @@ def test_a_panel_refuses_drivers_with_one_wording_naming_the_option(tmp_path) ->
     line = " ".join(res.output.split())
     assert ("--driver: outside drivers are fitted for a single series only so far, not for a panel; fit each "
             "series alone, or leave --driver out for the panel") in line
+
+
+def _one(res) -> str:
+    assert res.exit_code == 2, res.output
+    lines = [x for x in res.output.splitlines() if x.strip()]
+    assert len(lines) == 1, res.output
+    return lines[0]
+
+
+def test_a_driver_of_the_calendar_the_history_lacks_names_the_calendar(tmp_path) -> None:
+    """Fails on main: the line said 'name the driver column with --driver' for a driver no --driver named."""
+    from typer.testing import CliRunner
+
+    from evcal.cli import app
+
+    hist = tmp_path / "h.csv"
+    invented().drop(columns=["temperature"]).to_csv(hist, index=False)
+    cal = tmp_path / "cal.yaml"
+    cal.write_text("name: shop\ndrivers:\n  price: {scale: log}\n  temperature: {}\n")
+    runner = CliRunner()
+    line = _one(runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--errors", "ols",
+                                    "--out", str(tmp_path / "m")]))
+    assert "h.csv row 1: no driver column 'temperature'; columns found: 'date', 'value', 'price'" in line
+    assert f"the calendar's drivers: ({cal}) names it; add the column to the history, or remove " \
+           "'temperature' from the calendar's drivers:" in line
+    assert "--driver" not in line
+    # the backtest and the Python fit say the same
+    line = _one(runner.invoke(app, ["backtest", str(hist), "-c", str(cal), "--errors", "ols",
+                                    "--out", str(tmp_path / "bt.csv")]))
+    assert "the calendar's drivers: (" in line and "--driver" not in line
+    with pytest.raises(EvcalError, match=r"the calendar's drivers: \(.*cal\.yaml\) names it"):
+        evcal.fit(hist, cal, errors="ols")
+    # a driver named with --driver keeps the --driver advice
+    line = _one(runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--driver", "temperature",
+                                    "--errors", "ols", "--out", str(tmp_path / "m")]))
+    assert line.endswith("no driver column 'temperature'; columns found: 'date', 'value', 'price'; name the "
+                         "driver column with --driver")
+
+
+def test_a_compare_drivers_file_without_a_driver_column_says_so(folder, tmp_path) -> None:
+    """Fails on main: '--compare-drivers' was missing from the line, whose advice was '... with --driver'."""
+    from typer.testing import CliRunner
+
+    from evcal.cli import app
+
+    _, out = folder
+    weeks = pd.date_range("2024-01-07", periods=52, freq="W-SUN").strftime("%Y-%m-%d")
+    base = pd.DataFrame({"date": weeks, "price": 2.0, "temperature": 12.0})
+    base.to_csv(tmp_path / "base.csv", index=False)
+    pd.DataFrame({"date": weeks, "temperature": 12.0}).to_csv(tmp_path / "cut.csv", index=False)
+    line = _one(CliRunner().invoke(app, ["plan", str(out), "--from", "2024-01-01", "--to", "2024-12-31",
+                                         "--drivers", str(tmp_path / "base.csv"), "--compare-drivers",
+                                         str(tmp_path / "cut.csv"), "--out", str(tmp_path / "p.csv")]))
+    assert line.startswith("error: --compare-drivers cut.csv: ")
+    assert "no driver column 'price'; columns found: 'date', 'temperature'; a drivers file has a date " \
+           "column and one column per outside driver of the model (price, temperature)" in line
+    assert "--driver " not in line
+    # a drivers file without its date column names the option too (a HistoryError, not a DriverError)
+    base.rename(columns={"date": "day"}).to_csv(tmp_path / "nodate.csv", index=False)
+    line = _one(CliRunner().invoke(app, ["plan", str(out), "--from", "2024-01-01", "--to", "2024-12-31",
+                                         "--drivers", str(tmp_path / "base.csv"), "--compare-drivers",
+                                         str(tmp_path / "nodate.csv"), "--out", str(tmp_path / "p.csv")]))
+    assert line.startswith("error: --compare-drivers nodate.csv: ")

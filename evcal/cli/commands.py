@@ -147,9 +147,11 @@ def fit_cmd(
     source: Any = history
     if drivers:
         from evcal.io import read_history
+        from evcal.io.drivers import named_by_calendar
 
-        source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
-                              allow_negative=allow_negative, drivers=drivers)
+        with named_by_calendar(cal, driver):
+            source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
+                                  allow_negative=allow_negative, drivers=drivers)
     result = fit(source, cal, date_col=date_col, value_col=value_col, freq=freq, **options)
     result.save(out)
     typer.echo(describe(result))

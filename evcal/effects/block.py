@@ -138,8 +138,8 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
     """The lifts table for m series: one row per series and column.
 
     A lift's 95 % interval is the coefficient's (beta ± 1.96 se, from the fit's
-    covariance: AR-prewhitened HC2 for OLS) through the monotone 100 (exp(b) - 1); in the
-    additive model, divided by the mean base of the event's periods.
+    covariance: AR-prewhitened HC2 with a floor at high leverage for OLS) through the monotone
+    100 (exp(b) - 1); in the additive model, divided by the mean base of the event's periods.
     ``identifiable`` is ``yes``, ``weak`` or ``no`` (:attr:`ColumnStatus.identifiable`); a
     borrowed lift is as weak as the lift it borrows.
     """

@@ -22,9 +22,9 @@ import pandas as pd
 
 from evcal.errors import ModelError
 from evcal.formula_safe import unguard_frame
+from evcal.plan.spread import DRIVER_PREFIX  # the plan's driver columns, as evcal.plan writes them
 
 PLAN_COLUMNS = ("date", "base", "plan", "low", "high")
-DRIVER_PREFIX = "driver:"
 BACKTEST_COLUMNS = ("year", "method", "spread", "wape", "bias", "peak_error")
 LIFT_PREFIX = "lift:"
 

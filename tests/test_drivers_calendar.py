@@ -92,7 +92,8 @@ def test_command_line_driver_overrides_the_calendars_scale_and_adds(tmp_path):
     ("drivers:\n  price: {scal: log}",
      r"cal\.yaml:3: drivers\.price\.scal: unknown key 'scal'; a driver takes only scale"),
     ("drivers:\n  promo: {scale: log}",
-     r"cal\.yaml:3: drivers\.promo: 'promo' is already the name of an event in this calendar"),
+     r"cal\.yaml:3: drivers\.promo: 'promo' is already the name of an event of the calendar "
+     r"\(.*cal\.yaml, line 5\)"),
 ])
 def test_bad_drivers_key_is_one_line_with_file_and_line(tmp_path, drivers, expected):
     calendar = "name: shop\n" + drivers + "\nevents:\n  - {name: promo, when: {dates: [2021-03-07]}}\n"

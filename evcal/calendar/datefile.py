@@ -31,9 +31,8 @@ Examples
 >>> log = ProblemLog({})
 >>> text = "region,start,end\\nnorth,2024-02-12,2024-02-16\\nsouth,2024-02-19,2024-02-23\\n"
 >>> rule = rule_from_text(log, text, "school.csv", (("region", "north"),), 1, ())
->>> rule.items, rule.last_day, log.problems
-((Hit(start=datetime.date(2024, 2, 12), end=datetime.date(2024, 2, 16), strength=1.0),), \
-datetime.date(2024, 2, 16), [])
+>>> rule.items, rule.rows, log.problems
+((Hit(start=datetime.date(2024, 2, 12), end=datetime.date(2024, 2, 16), strength=1.0),), (2,), [])
 """
 
 from __future__ import annotations
@@ -71,15 +70,13 @@ SHOWN_ROWS = 5
 class FileRule(R.DatesRule):
     """The rows of a date file as explicit occurrences (a ``dates`` rule that knows where they came from).
 
-    ``rows`` holds the CSV row of each item; ``last_day`` is the last day the kept rows reach
-    (the plan notes a horizon that runs past it).
+    ``rows`` holds the CSV row of each item.
     """
 
     kind: str = "file"
     path: str = ""
     where: tuple[tuple[str, str], ...] = ()
     rows: tuple[int, ...] = ()
-    last_day: dt.date | None = None
 
     def filter_text(self) -> str:
         return ", ".join(f"{k} = {v}" for k, v in self.where)
@@ -197,7 +194,7 @@ def rule_from_text(log: ProblemLog, text: str, path: str, where: tuple[tuple[str
             return None
     return FileRule(
         items=tuple(R.Hit(s, e, k) for _, s, e, k in kept), path=path, where=where,
-        rows=tuple(n for n, *_ in kept), last_day=max(e for _, _, e, _ in kept),
+        rows=tuple(n for n, *_ in kept),
     )
 
 

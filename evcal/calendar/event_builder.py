@@ -226,8 +226,9 @@ def derived_events(spec: EventSpec, ev: EventModel) -> list[EventSpec]:
     --------
     >>> ev = EventModel.model_validate(
     ...     {"name": "xmas", "when": {"fixed": "12-25"}, "by_weekday": ["weekend", "workday"]})
-    >>> [(e.name, e.on_weekdays) for e in derived_events(build_event(ProblemLog({}), ev, 0, None), ev)]
-    [('xmas (weekend)', (5, 6)), ('xmas (workday)', (0, 1, 2, 3, 4))]
+    >>> [(e.name, e.weekday_class, e.on_weekdays)
+    ...  for e in derived_events(build_event(ProblemLog({}), ev, 0, None), ev)]
+    [('xmas (weekend)', 'weekend', (5, 6)), ('xmas (workday)', 'workday', (0, 1, 2, 3, 4))]
     """
     if ev.by_weekday is None:
         dips = [dataclasses.replace(spec, name=dip_event_name(spec.name, side),
@@ -238,6 +239,7 @@ def derived_events(spec: EventSpec, ev: EventModel) -> list[EventSpec]:
         return [spec, *dips]
     return [
         dataclasses.replace(spec, name=class_event_name(spec.name, cls), moved=dict(spec.moved),
-                            label=class_event_name(spec.label, cls), on_weekdays=days, split_of=spec.name)
+                            label=class_event_name(spec.label, cls), on_weekdays=days, split_of=spec.name,
+                            weekday_class=cls)
         for cls, days in ev.by_weekday
     ]

@@ -22,6 +22,7 @@ from typing import Any
 from evcal.calendar import rules as R
 from evcal.calendar.core import Calendar, PublicHolidays
 from evcal.calendar.datefile import SAVED_KEY, read_rule, saved_text
+from evcal.calendar.drivers import driver_name_problems, read_drivers, taken_names
 from evcal.calendar.event_builder import DEFAULT_HOLIDAY_YEARS, build_event, derived_events
 from evcal.calendar.holidays_source import HolidaySource, HolidaySourceError, suggest
 from evcal.calendar.problem_log import ProblemLog
@@ -32,8 +33,6 @@ from evcal.calendar.schema import (
     InterventionModel,
     PublicHolidaysModel,
     check_weekday_profile,
-    driver_name_problems,
-    read_drivers,
 )
 from evcal.calendar.spec import EventSpec, ExclusionSpec, InterventionSpec
 from evcal.calendar.value_parsers import parse_effect, show
@@ -190,8 +189,7 @@ def _read_calendar(data: Any, source: str, log: ProblemLog, folder: Path | None 
         if (ex := log.validate(ExclusionModel, raw, ("exclude", i))) is not None
     ]
     drivers, driver_problems = read_drivers(data.get("drivers"))  # outside drivers (evcal.design.drivers)
-    taken = {**{e.name: "an event" for e in events},
-             **{iv.name: "an intervention" for iv in interventions}}
+    taken = taken_names(events, interventions, source)
     for loc, message in driver_problems + driver_name_problems(drivers, taken):
         log.add(loc, message)
     if log.problems:

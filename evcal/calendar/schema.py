@@ -371,62 +371,6 @@ def check_weekday_profile(value: Any) -> tuple[float, ...]:
     return tuple(levels)
 
 
-#: ``drivers:``: each outside driver (a numeric column of the history) and the scale it enters on
-DRIVER_SCALES = ("level", "log")
-DRIVER_EXAMPLE = "drivers: {price: {scale: log}, temperature: {scale: level}}"
-DRIVER_KEY = "drivers"
-#: a key path of the file and what is wrong there
-Located = tuple[tuple[str, ...], str]
-
-
-def read_drivers(value: Any) -> tuple[list[tuple[str, str]], list[Located]]:
-    """``drivers:`` as (name, scale) pairs, and its problems as (key path, message), one per driver.
-
-    Examples
-    --------
-    >>> read_drivers({"price": {"scale": "log"}, "temperature": None})
-    ([('price', 'log'), ('temperature', 'level')], [])
-    >>> read_drivers({"price": "log"})[1][0][1][:40]
-    "'log' is not a mapping; write each drive"
-    """
-    if value is None:
-        return [], []
-    if not isinstance(value, dict):
-        return [], [((DRIVER_KEY,), f"{show(value)} is not a mapping of driver names; write e.g. "
-                                    f"{DRIVER_EXAMPLE}")]
-    out, problems = [], []
-    for name, entry in value.items():
-        where = (DRIVER_KEY, str(name))
-        if not isinstance(name, str) or not name.strip():
-            problems.append((where, f"{show(name)} is not a column name; name a column of the history"))
-            continue
-        entry = {} if entry is None else entry
-        if not isinstance(entry, dict):
-            problems.append((where, f"{show(entry)} is not a mapping; write each driver as a mapping, "
-                                    f"e.g. {DRIVER_EXAMPLE}"))
-            continue
-        unknown = [str(k) for k in entry if k != "scale"]
-        scale = str(entry.get("scale", "level")).strip().lower()
-        if unknown:
-            problems.append((where + (unknown[0],),
-                             f"unknown key {unknown[0]!r}; a driver takes only scale (log or level)"))
-        elif scale not in DRIVER_SCALES:
-            problems.append((where + ("scale",),
-                             f"{show(entry.get('scale'))} is not a scale; write scale: log (enters "
-                             "log(value): an elasticity) or scale: level (the value as it is)"))
-        else:
-            out.append((name.strip(), scale))
-    return out, problems
-
-
-def driver_name_problems(drivers: list[tuple[str, str]], taken: dict[str, str]) -> list[Located]:
-    """A driver named like an event or intervention of the calendar (``taken``: name -> what it is)."""
-    return [((DRIVER_KEY, name), f"{name!r} is already the name of {taken[name]} in this calendar; a driver "
-                                 "needs a name of its own (rename the history's column and the driver)")
-            for name, _ in drivers if name in taken]
-
-
-
 class CalendarModel(_Section):
     """The top level; the lists are validated item by item by the loader."""
 
@@ -436,5 +380,5 @@ class CalendarModel(_Section):
     events: list[Any] | None = None
     interventions: list[Any] | None = None
     exclude: list[Any] | None = None
-    drivers: Any = None  # outside drivers: checked by read_drivers (one line per driver)
+    drivers: Any = None  # outside drivers: checked by evcal.calendar.drivers.read_drivers
     saved_files: Any = None  # written by evcal: the date files' text (evcal.calendar.datefile)

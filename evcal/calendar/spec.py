@@ -129,10 +129,11 @@ class EventSpec:
     offset: int = 0
     line: int | None = None
     before_auto: bool = False  # `before: auto`: the fit chooses the run-up (``before`` is a stand-in)
-    #: ``by_weekday``: this event is one weekday class of the event ``split_of`` and keeps only the
-    #: occurrences that start on ``on_weekdays`` (Monday = 0)
+    #: ``by_weekday``: this event is one weekday class (``weekday_class``, e.g. ``weekend``) of the event
+    #: ``split_of`` and keeps only the occurrences that start on ``on_weekdays`` (Monday = 0)
     on_weekdays: tuple[int, ...] | None = None
     split_of: str | None = None
+    weekday_class: str | None = None
     #: ``dip_after`` / ``dip_before``: this event is the dip period of the event ``dip_of`` (its own
     #: coefficient, one occurrence per occurrence of that event): ``length`` days right after its
     #: window (``dip_side`` "after") or right before it ("before")

@@ -124,8 +124,9 @@ def fit_cmd(
     """Fit base, event lifts and interventions; write the model folder."""
     panel = bool(series_col or level or group_col or workers or scheduler)
     if panel and driver:
-        raise EvcalError("--driver: outside drivers are fitted for a single series only so far; fit each "
-                         "series alone, or leave --driver out for the panel")
+        from evcal.panel import refuse_drivers
+
+        refuse_drivers("--driver")
     check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                           trading_days, allow_negative, leap_year)
@@ -146,9 +147,11 @@ def fit_cmd(
     source: Any = history
     if drivers:
         from evcal.io import read_history
+        from evcal.io.drivers import named_by_calendar
 
-        source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
-                              allow_negative=allow_negative, drivers=drivers)
+        with named_by_calendar(cal, driver):
+            source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
+                                  allow_negative=allow_negative, drivers=drivers)
     result = fit(source, cal, date_col=date_col, value_col=value_col, freq=freq, **options)
     result.save(out)
     typer.echo(describe(result))
@@ -220,8 +223,9 @@ def plan_cmd(
 
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
         if drivers or compare_drivers:
-            option = "--drivers" if drivers else "--compare-drivers"
-            raise PlanError(f"{option}: panel models have no outside drivers; leave {option} out")
+            from evcal.panel import refuse_drivers
+
+            refuse_drivers("--drivers" if drivers else "--compare-drivers")
         from evcal.panel.planning import plan_panel_cmd
 
         return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,

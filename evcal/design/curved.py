@@ -46,10 +46,9 @@ class CurvedEvents:
         self.touched: dict[str, np.ndarray] = {}  # periods that hold some of the event's days
         #: whether the calendar weighs the weekdays (else flat, or a fit's trading-day levels do)
         self.profiled = calendar_profile(calendar) is not None
-        #: periods that hold days of two or more of the events, their distinct day intensities
-        #: (one row per period and intensity vector, its events in ``names`` order) and each row's
-        #: weekday-weighted share of its period's open days (:meth:`columns`)
-        self.shared = np.zeros(0, dtype=int)
+        #: the distinct day intensities of the periods that hold days of two or more of the events (one
+        #: row per period and intensity vector, its events in ``names`` order), each row's period and
+        #: its weekday-weighted share of that period's open days (:meth:`columns`)
         self.shared_days: tuple[list[str], np.ndarray, np.ndarray, np.ndarray] = (
             [],
             np.zeros((0, 0)),
@@ -94,12 +93,12 @@ class CurvedEvents:
         hits = np.zeros(len(self.periods), dtype=int)
         for n in names:
             hits[self.touched[n]] += 1
-        self.shared = np.flatnonzero(hits >= 2)
-        if not len(self.shared):
+        shared = np.flatnonzero(hits >= 2)  # columns() finds those of the events it bends together
+        if not len(shared):
             return
         W = daily[names].to_numpy(dtype=float)
         in_shared = np.zeros(len(self.periods), dtype=bool)
-        in_shared[self.shared] = True
+        in_shared[shared] = True
         pick = inside & in_shared[np.where(inside, codes, 0)] & (W != 0).any(axis=1)
         keys, inv = np.unique(np.column_stack([codes[pick], W[pick]]), axis=0, return_inverse=True)
         weight = np.zeros(len(keys))

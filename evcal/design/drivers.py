@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.calendar.drivers import taken_names
 from evcal.design.base import term_columns
 from evcal.io.drivers import DriverError
 
@@ -100,14 +101,8 @@ def check_driver_names(drivers: Drivers, others: dict[str, str], calendar: Any) 
     seasonal, event, intervention). A driver sharing a name would share a column
     of the design, of ``fitted.csv`` and of the plan with that term.
     """
-    source = getattr(calendar, "source", "the calendar")
-
-    def where(item: Any) -> str:
-        return f"{source}, line {item.line}" if getattr(item, "line", None) else source
-
-    taken = {**{e.name: f"an event of the calendar ({where(e)})" for e in getattr(calendar, "events", ())},
-             **{iv.name: f"an intervention of the calendar ({where(iv)})"
-                for iv in getattr(calendar, "interventions", ())},
+    taken = {**taken_names(getattr(calendar, "events", ()), getattr(calendar, "interventions", ()),
+                           getattr(calendar, "source", "the calendar")),
              **{c: f"a {role} column evcal makes" for c, role in others.items()
                 if role in ("trend", "seasonal")},
              **{c: "a column of fitted.csv" for c in FITTED_COLUMNS}}

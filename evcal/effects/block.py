@@ -20,6 +20,7 @@ from evcal.effects.decompose import decompose_block
 from evcal.effects.netlift import NET_LIFT_COLUMNS, net_columns
 from evcal.effects.occurrences import Z95, occurrences_columns
 from evcal.effects.span import FittedBlock, GroupInfo, SpanContext
+from evcal.effects.wide import too_wide, wide_note
 
 __all__ = ["BlockTables", "block_tables", "LIFT_COLUMNS"]
 
@@ -137,8 +138,8 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
     """The lifts table for m series: one row per series and column.
 
     A lift's 95 % interval is the coefficient's (beta ± 1.96 se, from the fit's
-    covariance: AR-prewhitened HC2 for OLS) through the monotone 100 (exp(b) - 1); in the
-    additive model, divided by the mean base of the event's periods.
+    covariance: AR-prewhitened HC2 with a floor at high leverage for OLS) through the monotone
+    100 (exp(b) - 1); in the additive model, divided by the mean base of the event's periods.
     ``identifiable`` is ``yes``, ``weak`` or ``no`` (:attr:`ColumnStatus.identifiable`); a
     borrowed lift is as weak as the lift it borrows.
     """
@@ -208,11 +209,9 @@ def lifts_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarra
 def _wide_grades(rows: list[dict[str, Any]], m: int) -> dict[str, pd.Categorical]:
     """``identifiable`` and ``note`` per series where a lift's interval is too wide to trust, else nothing.
 
-    The rule is :func:`evcal.model.strength.too_wide` on each series' own interval (a panel's series share
+    The rule is :func:`evcal.effects.wide.too_wide` on each series' own interval (a panel's series share
     their design's grade, not their intervals); such a ``yes`` lift becomes ``weak`` with the rule's note.
     """
-    from evcal.model.strength import too_wide, wide_note
-
     wide = [too_wide(r["low_pct"], r["high_pct"]) if r.get("_estimated") else np.zeros(m, dtype=bool)
             for r in rows]
     if not rows or not np.any(wide):

@@ -78,8 +78,6 @@ def dip_links(calendar: Any, occs: pd.DataFrame) -> list[DipLink]:
 def _own_x(ctx: SpanContext, group: GroupInfo, curved: dict[str, np.ndarray], m: int
            ) -> dict[int, tuple[np.ndarray, np.ndarray]]:
     """Each event occurrence row -> (its periods, its own share of its column there, (m, L))."""
-    from evcal.effects.occurrences import _window_share  # occurrences imports span, which imports this
-
     out: dict[int, tuple[np.ndarray, np.ndarray]] = {}
     for og in ctx.occ_groups:
         if og.kind != "event" or og.zero or len(og.cols) != 1:
@@ -88,7 +86,7 @@ def _own_x(ctx: SpanContext, group: GroupInfo, curved: dict[str, np.ndarray], m:
         x_sum = (curved[c][:, og.idx] if c in curved else np.broadcast_to(ctx.columns[c][og.idx], (m,
                                                                                                    *og.idx.shape)))
         # the occurrence's own share of the column, by the occurrence table's rule
-        x_own = _window_share(x_sum * og.mask, og)[1]
+        x_own = og.window_share(x_sum * og.mask)[1]
         for i, pos in enumerate(og.pos):
             keep = og.mask[i] > 0
             out[int(pos)] = (og.idx[i][keep], x_own[:, i][:, keep])

@@ -97,19 +97,6 @@ def _quantiles(sims: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return (_lerp(lo0, lo1, _H_LOW - lo_i).reshape(shape), _lerp(hi0, hi1, _H_HIGH - hi_i).reshape(shape))
 
 
-def _window_share(x_sum: np.ndarray, og: OccGroup) -> tuple[np.ndarray, np.ndarray]:
-    """The occurrence's share of each period's event part (other occurrences may share it), and its x.
-
-    The share is the occurrence's own days over all the event's occurrences' days in the period: 1 where
-    it is alone there. Not read off the column, which a fitted lift bends away from the share of days.
-    """
-    total = np.zeros(int(og.idx.max()) + 1 if og.idx.size else 0)
-    np.add.at(total, og.idx, og.own)  # padding has own 0
-    there = total[og.idx]
-    frac = np.where(there > 0, og.own / np.where(there > 0, there, 1.0), 1.0)
-    return frac, x_sum * frac
-
-
 @functools.cache
 def _sorted_draws() -> np.ndarray:
     """The single-series table's standard normal draws (fixed seed), sorted; made once."""
@@ -392,7 +379,7 @@ def occurrences_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.
             x_sum = sum(curved[c][:, idx] if c in curved else ctx.columns[c][idx] for c in og.cols) * mask
             if og.kind == "event":
                 # the occurrence's share of the event's column (each series' own where it is curved)
-                frac, xs = _window_share(x_sum, og)
+                frac, xs = og.window_share(x_sum)
             else:
                 xs = x_sum
         add = (contrib * frac).sum(axis=-1)  # (m, k)

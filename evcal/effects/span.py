@@ -70,6 +70,29 @@ class OccGroup:
     wdays: np.ndarray  # the occurrence's days / the period's days
     kind: str = "event"  # or "intervention": one row per calendar year of an intervention
 
+    def window_share(self, x_sum: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Each occurrence's share of each period's event part (other occurrences may share it), and its x.
+
+        The share is the occurrence's own days over all the event's occurrences' days in the period: 1
+        where it is alone there. Not read off the column, which a fitted lift bends away from the share
+        of days. One rule for the occurrence table and the net lift (:mod:`evcal.effects.netlift`).
+
+        Parameters
+        ----------
+        x_sum : numpy.ndarray
+            The event's column on the occurrences' periods, (m, k, L) or (k, L).
+
+        Returns
+        -------
+        tuple of numpy.ndarray
+            The share (k, L) and ``x_sum`` times it.
+        """
+        total = np.zeros(int(self.idx.max()) + 1 if self.idx.size else 0)
+        np.add.at(total, self.idx, self.own)  # padding has own 0
+        there = total[self.idx]
+        frac = np.where(there > 0, self.own / np.where(there > 0, there, 1.0), 1.0)
+        return frac, x_sum * frac
+
 
 @dataclass
 class SpanContext:

@@ -51,14 +51,15 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
     FitResult
     """
     from evcal.io import History, read_history
-    from evcal.io.drivers import check_history_drivers
+    from evcal.io.drivers import check_history_drivers, named_by_calendar
     from evcal.io.panel import Panel
 
     opts = FitOptions(**options)
     cal = load_calendar_any(calendar)
-    hist = history if isinstance(history, History) else read_history(
-        history, date_col=date_col, value_col=value_col, freq=freq, allow_negative=opts.allow_negative,
-        drivers=list(cal.drivers) or None)  # the calendar's drivers: (evcal.io.drivers)
+    with named_by_calendar(cal):
+        hist = history if isinstance(history, History) else read_history(
+            history, date_col=date_col, value_col=value_col, freq=freq, allow_negative=opts.allow_negative,
+            drivers=list(cal.drivers) or None)  # the calendar's drivers: (evcal.io.drivers)
     check_history_drivers(hist, cal)
     check_history_length(hist)
     # the design's width before it is built, at most: a seasonal term per period of the year (daily

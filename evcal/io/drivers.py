@@ -8,8 +8,10 @@ first bad row, with the count of the others.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -23,6 +25,23 @@ SCALES = ("level", "log")
 
 class DriverError(HistoryError):
     """A driver named wrongly, or a driver column that cannot be used."""
+
+
+#: the advice of a history without a driver's column, when the command line named the driver
+HISTORY_ADVICE = "name the driver column with --driver"
+
+
+class MissingDriverColumn(DriverError):
+    """A file without a driver's column: ``found`` says which file and what columns it has, ``driver``
+    which driver, so the caller can word the advice for whoever named the driver (:meth:`advised`)."""
+
+    def __init__(self, found: str, driver: str, advice: str = HISTORY_ADVICE) -> None:
+        self.found, self.driver = found, driver
+        super().__init__(f"{found}; {advice}")
+
+    def advised(self, advice: str) -> MissingDriverColumn:
+        """The same line with other advice."""
+        return MissingDriverColumn(self.found, self.driver, advice)
 
 
 def parse_driver(text: str | tuple[str, str]) -> tuple[str, str]:
@@ -87,20 +106,41 @@ def check_history_drivers(history: object, calendar: object) -> None:
                           "(read_history(..., drivers=...)), or give the history as a file")
 
 
+@contextmanager
+def named_by_calendar(calendar: Any, given: Sequence[str | tuple[str, str]] | None = None) -> Iterator[None]:
+    """Around reading a history: a driver column it lacks that the calendar's ``drivers:`` named (and
+    ``--driver``, ``given``, did not) is one line saying so, with the calendar file, not "--driver"."""
+    try:
+        yield
+    except MissingDriverColumn as err:
+        by_option = {n for n, _ in parse_drivers(given)}
+        if err.driver in by_option or err.driver not in {n for n, _ in getattr(calendar, "drivers", ())}:
+            raise
+        source = getattr(calendar, "source", "the calendar")
+        raise err.advised(f"the calendar's drivers: ({source}) names it; add the column to the history, or "
+                          f"remove {err.driver!r} from the calendar's drivers:") from None
+
+
 def driver_cells(table: RawTable, keep: np.ndarray, rows: list[int], drivers: list[tuple[str, str]],
-                 reserved: Sequence[str], needed: np.ndarray) -> dict[str, pd.Series]:
+                 reserved: Sequence[str], needed: np.ndarray, advice: str = HISTORY_ADVICE
+                 ) -> dict[str, pd.Series]:
     """Each driver's values on the kept rows of ``table``, positionally (float, NaN where empty).
 
     ``needed`` marks the rows that must have a value (the rows with sales). A
     missing column, a date or value column named as a driver, a cell that is
     not a number, an empty cell on a needed row, or (``log``) a value not above
-    zero is one line naming the file, the column and the first bad row.
+    zero is one line naming the file, the column and the first bad row; a missing column's line ends
+    with ``advice`` (:class:`MissingDriverColumn`).
     """
     name = table.source
     out: dict[str, pd.Series] = {}
     lines: list[str] = []
     for driver, scale in drivers:
-        col = find_column(table, driver, "driver", "--driver")
+        try:
+            col = find_column(table, driver, "driver", "--driver")
+        except HistoryError as err:
+            raise MissingDriverColumn(err.problems[0].removesuffix(f"; {HISTORY_ADVICE}"), driver,
+                                      advice) from None
         if col in reserved:
             raise DriverError(f"{name} row 1: column {col!r} is the date or value column and cannot "
                               "also be a driver; name another column with --driver")
@@ -164,7 +204,10 @@ def read_driver_file(source: str | Path | pd.DataFrame, drivers: Sequence[str | 
     dates, problems = parse_dates(cells.iloc[keep].reset_index(drop=True), rows, dcol, name)
     if problems:
         raise DriverError(min(problems).line(name))
-    values = driver_cells(table, keep, rows, parse_drivers(drivers), [dcol], np.ones(len(keep), bool))
+    wanted = parse_drivers(drivers)
+    advice = (f"a drivers file has a date column and one column per outside driver of the model "
+              f"({', '.join(n for n, _ in wanted)})")
+    values = driver_cells(table, keep, rows, wanted, [dcol], np.ones(len(keep), bool), advice)
     periods = pd.DatetimeIndex(dates.dt.normalize()).to_period(freq)
     repeated = np.flatnonzero(periods.duplicated())
     if len(repeated):

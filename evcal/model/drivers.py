@@ -13,9 +13,10 @@ import pandas as pd
 
 from evcal.amounts import amount
 from evcal.effects import Z95
+from evcal.store.tables import DRIVERS
 
-DRIVER_COLUMNS = ["driver", "scale", "coefficient", "low", "high", "change", "effect_pct", "effect_low_pct",
-                  "effect_high_pct", "contribution_units", "mean_abs_units", "identifiable", "note"]
+#: drivers.csv's columns: the store's table definition (evcal.store.tables.DRIVERS), written and read back
+DRIVER_COLUMNS = list(DRIVERS.columns)
 
 
 def _effect(b: np.ndarray, scale: str, transform: str) -> np.ndarray:

@@ -164,16 +164,16 @@ def _ar_backward(w: np.ndarray, phi: np.ndarray) -> np.ndarray:
 
 
 def prewhitened_errors(E: np.ndarray, leverage: np.ndarray) -> PrewhitenedErrors:
-    """An AR(p) model of each residual column of ``E`` (n, m), p by AIC, and each period's HC2 weight.
+    """An AR(p) model of each residual column of ``E`` (n, m), p by AIC, and each period's weight.
 
     Yule–Walker estimates for p = 0 .. :func:`ar_max_order` by the Levinson–Durbin
     recursion (Brockwell & Davis 1991, §8.2), vectorised over the series; each
     series keeps the order of lowest AIC ``n log σ²ₚ + 2p`` (Yule–Walker estimates
     are always stationary). The residuals are whitened by that model and each
-    period is weighted by ``ε̂ₜ² / (1 − hₜ)`` (HC2, MacKinnon & White 1985), with
-    ``hₜ`` the period's ``leverage`` in the regression ((n,) shared, or (n, m)):
-    a prewhitened heteroskedasticity-robust estimate in the manner of Andrews &
-    Monahan (1992).
+    period is weighted by :func:`period_weights`: ``ε̂ₜ² / (1 − hₜ)`` (HC2, MacKinnon
+    & White 1985) with a model-based floor at high leverage, ``hₜ`` the period's
+    ``leverage`` in the regression ((n,) shared, or (n, m)): a prewhitened
+    heteroskedasticity-robust estimate in the manner of Andrews & Monahan (1992).
     """
     n, m = E.shape
     P = ar_max_order(n)
@@ -269,7 +269,8 @@ def fit_ols(y: pd.Series, X: pd.DataFrame, offset: pd.Series) -> Estimate:
     The coefficients are OLS; their covariance is the sandwich
     ``(XᵀX)⁻¹ Xᵀ A⁻¹ diag(d) A⁻ᵀ X (XᵀX)⁻¹`` (:func:`prewhitened_errors`): ``A``
     the whitening filter of an AR(p) model of the residuals (p by AIC), ``dₜ``
-    each period's squared whitened residual over ``1 − hₜ`` (HC2). The AR model
+    each period's squared whitened residual over ``1 − hₜ`` (HC2) with a floor at high
+    leverage (:func:`period_weights`). The AR model
     carries the errors' autocorrelation, learnt from every period (as in the
     autoregressive spectral estimators of Berk 1974 and den Haan & Levin 1997);
     the weights let a period whose errors are larger count for more (an

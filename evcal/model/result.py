@@ -17,7 +17,7 @@ from evcal.store import FORMAT_VERSION, MODEL_FILES, json_safe, read_folder, sav
 from evcal.store.documents import plain, validate_document
 from evcal.store.settings import check_model
 
-__all__ = ["FitResult", "load_model", "json_safe", "FORMAT_VERSION", "MODEL_FILES"]
+__all__ = ["FitResult", "cov_frame", "load_model", "json_safe", "FORMAT_VERSION", "MODEL_FILES"]
 
 
 @dataclass
@@ -158,14 +158,13 @@ class FitResult:
     def _from_checked(cls, d: dict[str, Any]) -> FitResult:
         """A model from a checked ``model.json`` (:func:`evcal.store.documents.plain`): the keys that are
         fields of their own name as they are, the others converted."""
-        cols, history = d["cov"]["columns"], d["history"]
+        history = d["history"]
         return cls(
             **{k: d[k] for k in _AS_SAVED},
             options=FitOptions.from_dict(d["options"]),
             spec=DesignSpec.from_dict(d["design"]),
             params=pd.Series(d["params"], dtype=float),
-            cov=pd.DataFrame(np.array(d["cov"]["values"], dtype=float).reshape(len(cols), len(cols)),
-                             index=cols, columns=cols),
+            cov=cov_frame(d),
             model_choice=d["model"],
             status={k: ColumnStatus(v["status"], v["note"], v["twin"], bool(v.get("weak", False)))
                     for k, v in d["status"].items()},
@@ -175,6 +174,31 @@ class FitResult:
             weekday_share={"month": {int(k): v for k, v in d["weekday_share"]["month"].items()},
                            "weekday": d["weekday_share"]["weekday"]} if d.get("weekday_share") else {},
         )
+
+
+def cov_frame(doc: dict[str, Any]) -> pd.DataFrame:
+    """The coefficients' covariance of a ``model.json`` document, labelled by column on both axes.
+
+    Parameters
+    ----------
+    doc : dict
+        The model document (its ``cov`` key: ``columns`` and the ``values`` row by row).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Square, index and columns the coefficient names; 0 x 0 for a model without coefficients.
+
+    Examples
+    --------
+    >>> cov_frame({"cov": {"columns": ["a", "b"], "values": [[1.0, 0.5], [0.5, 2.0]]}}).loc["b", "a"]
+    np.float64(0.5)
+    >>> cov_frame({"cov": {"columns": [], "values": []}}).shape
+    (0, 0)
+    """
+    cols = list(doc["cov"]["columns"])
+    values = np.array(doc["cov"]["values"], dtype=float).reshape(len(cols), len(cols))
+    return pd.DataFrame(values, index=cols, columns=cols)
 
 
 #: keys of model.json that are fields of FitResult of the same name and type (checked by evcal.store)

@@ -31,13 +31,18 @@ from evcal.panel.result import PanelResult, is_panel_dir, load_panel
 __all__ = ["fit_panel", "PanelResult", "load_panel", "is_panel_dir", "plan_panel"]
 
 
-def refuse_drivers(cal: Any) -> None:
-    """One line when a panel's calendar names outside drivers: they are fitted for single series only."""
-    if getattr(cal, "drivers", None):
-        from evcal.errors import EvcalError
+def refuse_drivers(option: str, source: str | None = None) -> None:
+    """One line: outside drivers given to a panel (fitted for single series only so far).
 
-        raise EvcalError(f"{cal.source}: drivers: outside drivers are fitted for a single series only so "
-                         "far; fit each series alone, or use a calendar without drivers: for the panel")
+    ``option`` names where they came from (``--driver``, ``--drivers``, ``--compare-drivers``, or
+    ``drivers:`` of the calendar file ``source``), in front of the line and in its advice. The one
+    wording of the panel fit (Python and CLI) and the panel plan.
+    """
+    from evcal.errors import EvcalError
+
+    where = f"{source}: {option.rstrip(':')}" if source else option  # the calendar's key: "cal.yaml: drivers"
+    raise EvcalError(f"{where}: outside drivers are fitted for a single series only so far, not for a "
+                     f"panel; fit each series alone, or leave {option} out for the panel")
 
 
 def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str | None = None, *,
@@ -95,7 +100,8 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
                                                   group_col, meanwhile=lambda: _ready_to_fit(calendar))
         from evcal.engine.run import fit_long_panel  # imported by _ready_to_fit while the file was read
 
-        refuse_drivers(cal)
+        if getattr(cal, "drivers", None):
+            refuse_drivers("drivers:", cal.source)
 
         if out is None:
             fitted = fit_long_panel(panel, cal, opts, runner=runner)

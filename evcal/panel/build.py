@@ -222,7 +222,7 @@ def build_result(fit: Any, keys: list[str], levels: list[str], group_col: str | 
                     "end": panel.dates(panel.periods[-1:]).strftime("%Y-%m-%d")[0]},
         "options": fit.options.to_dict(),
         "errors": ("OLS with intervals robust to autocorrelation and heteroskedasticity (AR-prewhitened, "
-                   "HC2), solved in blocks of series that share a design"
+                   "HC2 with a floor at high leverage), solved in blocks of series that share a design"
                    if fit.options.errors in ("auto", "ols") else f"errors {fit.options.errors}, per series"),
         "calendar_name": fit.calendar.name, "calendar_text": calendar_text(fit.calendar, None),
         # the shared design settings (each series' own trend origin is in series.csv)

@@ -2,8 +2,8 @@
 
 For one event and one group of series (a product family, say) each series
 ``i`` has an estimated log-lift ``bᵢ`` (the model-scale coefficient) with
-standard error ``sᵢ`` (AR-prewhitened HC2 for OLS). The lifts are treated as draws around a
-group mean ``μ`` with between-series variance ``τ²``:
+standard error ``sᵢ`` (AR-prewhitened HC2 with a floor at high leverage for OLS). The lifts are
+treated as draws around a group mean ``μ`` with between-series variance ``τ²``:
 
 * ``τ²`` by the method of moments of DerSimonian & Laird (1986, "Meta-analysis
   in clinical trials", Controlled Clinical Trials 7:177-188):

@@ -100,9 +100,9 @@ def _covariances(X: np.ndarray, own: dict[int, np.ndarray], E: np.ndarray) -> np
     """Each series' coefficient covariance (m, k, k): design ``X`` (n, k), whose columns ``own`` (j -> (m, n))
     each series has its own values in; residuals ``E`` (n, m).
 
-    The prewhitened HC2 sandwich of :class:`evcal.engine.batched.SharedSolve`, a
-    few series at a time, with ``Z = X (XᵀX)⁻¹`` by Frisch–Waugh–Lovell: the
-    shared columns ``S`` are factorised once (``S = QR``), each series' own
+    The prewhitened sandwich (HC2 with a floor at high leverage) of
+    :class:`evcal.engine.batched.SharedSolve`, a few series at a time, with ``Z = X (XᵀX)⁻¹``
+    by Frisch–Waugh–Lovell: the shared columns ``S`` are factorised once (``S = QR``), each series' own
     columns ``V`` projected off them (``Ṽ = V − QQᵀV``), and
     ``Z = [S R⁻¹ Q-part − Z_V (R⁻¹QᵀV)ᵀ, Z_V]`` with ``Z_V = Ṽ (ṼᵀṼ)⁻¹``; the
     leverage is ``Σ Q² + Σ Z_V Ṽ``. Only the few event columns are per series.

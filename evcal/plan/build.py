@@ -37,7 +37,7 @@ from evcal.plan.horizon import full_years, horizon_periods, period_dates, period
 from evcal.plan.result import Plan
 from evcal.plan.schedule import Schedule, resolve_schedule
 from evcal.plan.simulate import check_sims, error_forecast, simulate_interval
-from evcal.plan.spread import check_total, read_totals, spread
+from evcal.plan.spread import DRIVER_PREFIX, check_total, read_totals, spread
 from evcal.threads import held_blas
 
 ERROR_COLUMN = "__error_forecast__"
@@ -189,7 +189,7 @@ def plan_periods(
     for ev in events:
         table[f"lift:{ev}"] = lifts[ev][0]
     for name in h.drivers:  # what each outside driver's planned values add against its history average
-        table[f"driver:{name}"] = lifts[name][0] if name in lifts else 0.0
+        table[f"{DRIVER_PREFIX}{name}"] = lifts[name][0] if name in lifts else 0.0
     table["assumptions"] = h.assumption_texts()
     years = period_years(periods, result.label)
     model_totals = {int(y): float(table["plan"].to_numpy()[years == y].sum()) for y in np.unique(years)}

@@ -100,12 +100,14 @@ def _label(calendar_name: str | None, drivers: Any, differ: bool) -> str | None:
 
 def _plan(result: Any, start: Any, end: Any, calendar: Any, drivers: Any, option: str | None,
           **plan_options: Any) -> Plan:
-    """One scenario's plan; a problem with its driver values names the option and file that gave them."""
+    """One scenario's plan; a problem with its driver values or file (a missing driver or date column,
+    an unreadable file) names the option and file that gave them."""
+    from evcal.errors import HistoryError
     from evcal.io.drivers import DriverError
 
     try:
         return make_plan(result, start, end, calendar=calendar, drivers=drivers, **plan_options)
-    except DriverError as err:
+    except HistoryError as err:  # DriverError is one
         if option is None or not isinstance(drivers, (str, Path)):
             raise
         raise DriverError(f"{option} {Path(drivers).name}: {err.problems[0]}") from None

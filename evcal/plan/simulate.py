@@ -8,8 +8,8 @@ is added to the base, its variance goes into the interval. With iid errors
 the mean is zero and the variance the residual variance of the fit.
 
 Each draw takes a coefficient vector from the normal distribution of the
-estimates, N(params, cov) (the fit's covariance: AR-prewhitened HC2 for OLS, GLS for ARIMA
-errors, the GLM's for count models), rebuilds base and event lifts with it,
+estimates, N(params, cov) (the fit's covariance: AR-prewhitened HC2 with a floor at high
+leverage for OLS, GLS for ARIMA errors, the GLM's for count models), rebuilds base and event lifts with it,
 and adds one period's noise:
 
 * log model: ``exp`` of a normal error on the log scale, variance

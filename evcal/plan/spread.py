@@ -18,6 +18,8 @@ import pandas as pd
 from evcal.errors import PlanError
 
 AMOUNT_COLUMNS = ("base", "plan", "low", "high")
+#: the plan table's column of what each outside driver's planned values add: ``driver:price``
+DRIVER_PREFIX = "driver:"
 
 
 def check_total(value: Any, what: str = "--total") -> float:
@@ -137,7 +139,7 @@ def spread(table: pd.DataFrame, years: np.ndarray, total: float | None, totals: 
     out = table.copy()
     f = np.array([factors[int(y)] for y in years], dtype=float)
     for c in out.columns:
-        if c in AMOUNT_COLUMNS or str(c).startswith(("lift:", "driver:")):
+        if c in AMOUNT_COLUMNS or str(c).startswith(("lift:", DRIVER_PREFIX)):
             out[c] = out[c].to_numpy(dtype=float) * f
     scaled = out["plan"].to_numpy()
     target = {y: float(scaled[years == y].sum()) for y in needed} if totals is None \

@@ -56,12 +56,15 @@ def drivers_section(ctx: ReportContext) -> dict[str, Any] | None:
         "note",
     ]
     text = (
-        "Numeric columns of the history fitted beside the events (named with --driver). For a driver on "
-        "the log scale in a log model the coefficient is an elasticity: sales move by that many % for a "
-        "1 % move of the driver. The effect column is the % change of sales for a 10 % rise of a log "
-        "driver or one unit of a level driver. What a driver added is measured against its own history "
-        "average, so it sums to about zero over the history when the driver only wanders around it; the "
-        "mean size says how much it moves sales in a typical period. An interval that crosses zero means "
-        "the history cannot tell the driver's effect from noise."
+        "Numeric columns of the history fitted beside the events (named with --driver or the calendar's "
+        "drivers:). For a driver on the log scale in a log model the coefficient is an elasticity: sales "
+        "move by that many % for a 1 % move of the driver. The effect column is the % change of sales for "
+        "a 10 % rise of a log driver or one unit of a level driver. What a driver added is measured "
+        "against its own history average (on its scale): in the additive model it sums to about zero over "
+        "the history; in a log model it need not, because the effect is multiplicative and a period below "
+        "the average does not take away what one above it adds (a 10 % price cut adds more than a 10 % "
+        "rise takes away), so the sum can be large. The mean size says how much it moves sales in a "
+        "typical period. An interval that crosses zero means the history cannot tell the driver's effect "
+        "from noise."
     )
     return {"text": text, "table": table(headers, rows, numeric=(2, 3, 4, 5), row_classes=row_cls)}

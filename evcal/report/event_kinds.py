@@ -17,7 +17,7 @@ from typing import Any
 
 import pandas as pd
 
-DAY_NAMES = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
+from evcal.calendar.schema import PROFILE_DAYS as DAY_NAMES  # the weekdays' short names, Monday first
 
 
 def weekday_span(days: Iterable[int]) -> str:
@@ -49,7 +49,7 @@ def event_roles(calendar: Any, lifts: pd.DataFrame | None = None) -> tuple[dict[
     for ev in getattr(calendar, "events", None) or []:
         name = str(ev.name)
         if getattr(ev, "split_of", None) and getattr(ev, "on_weekdays", None) is not None:
-            cls = name[len(ev.split_of) :].strip().strip("()")
+            cls = ev.weekday_class
             # the class's label is its entry's label with the class after it ("Christmas (weekend)")
             own = str(getattr(ev, "label", "") or name)
             parent_label = own.removesuffix(f" ({cls})") or ev.split_of

@@ -22,9 +22,9 @@ import pandas as pd
 
 from evcal.errors import ModelError
 from evcal.formula_safe import unguard_frame
+from evcal.plan.spread import DRIVER_PREFIX  # the plan's driver columns, as evcal.plan writes them
 
 PLAN_COLUMNS = ("date", "base", "plan", "low", "high")
-DRIVER_PREFIX = "driver:"
 BACKTEST_COLUMNS = ("year", "method", "spread", "wape", "bias", "peak_error")
 LIFT_PREFIX = "lift:"
 
@@ -139,28 +139,15 @@ def read_model_folder(
     if problems:
         raise ModelError(problems)
     tables = {**stored.tables, "lifts": lifts, **extra}  # lifts, occurrences, profile, fitted, plan, backtest
-    drivers = read_drivers_csv(folder) if model["design"].get("drivers") else None
+    drivers = read_drivers_csv(folder, model) if model["design"].get("drivers") else None
     return ModelFolder(folder, model, **tables, sources=sources, drivers=drivers, calendar=stored.calendar)
 
 
-def read_drivers_csv(folder: Path) -> pd.DataFrame:
-    """Read ``drivers.csv`` of a model fitted with outside drivers (columns as ``evcal fit`` writes them)."""
-    from evcal.model.drivers import DRIVER_COLUMNS
+def read_drivers_csv(folder: Path, model: dict[str, Any]) -> pd.DataFrame:
+    """Read and check ``drivers.csv`` of a model fitted with outside drivers (the store's reader)."""
+    from evcal.store.tables import check_drivers
 
-    path = folder / "drivers.csv"
-    if not path.is_file():
-        raise ModelError(f"{path}: not found; model.json lists outside drivers (design.drivers), whose "
-                         "table evcal fit writes there: restore the file or fit again")
-    frame = _read_csv(path, tuple(DRIVER_COLUMNS), "fit")
-    problems: list[str] = []
-    for col in ("coefficient", "low", "high", "effect_pct", "effect_low_pct", "effect_high_pct",
-                "contribution_units", "mean_abs_units"):
-        frame[col] = _parse(frame[col], path, col, problems)
-    if problems:
-        raise ModelError(problems)
-    text = ["driver", "scale", "change", "identifiable", "note"]
-    frame[text] = frame[text].fillna("").astype(str)
-    return unguard_frame(frame)
+    return check_drivers(folder / "drivers.csv", {d["name"] for d in model["design"]["drivers"]})
 
 
 def read_plan_csv(path: str | Path) -> pd.DataFrame:

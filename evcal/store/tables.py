@@ -46,6 +46,10 @@ SERIES_ADDED = ("error_ar_order",)
 POOLING = Table(("group", "event", "series", "mean_pct", "mean_low_pct", "mean_high_pct", "tau", "q",
                  "i2_pct"), ("group", "event"), finite=("series",))
 SKIPPED = Table(("reason", "detail"), ("reason", "detail"))
+#: ``drivers.csv`` of a model fitted with outside drivers (built by evcal.model.drivers.driver_table)
+DRIVERS = Table(("driver", "scale", "coefficient", "low", "high", "change", "effect_pct", "effect_low_pct",
+                 "effect_high_pct", "contribution_units", "mean_abs_units", "identifiable", "note"),
+                ("driver", "scale", "change", "identifiable", "note"))
 #: ``identifiable`` as written (folders written before it had three values held True/False) -> its value
 IDENTIFIABLE = {"yes": "yes", "weak": "weak", "no": "no", "true": "yes", "false": "no"}
 
@@ -338,6 +342,19 @@ def check_skipped(path: Path, rows: Rows) -> pd.DataFrame:
                  "that series.csv marks skipped")
     names(path, skipped, "reason")
     return typed(path, skipped, SKIPPED, rows.keys)
+
+
+def check_drivers(path: Path, drivers: set[str]) -> pd.DataFrame:
+    """``drivers.csv``: a driver the document lists on every row, numbers; one line if the file is missing."""
+    if not path.is_file():
+        raise ModelError(f"{path}: not found; model.json lists outside drivers (design.drivers), whose "
+                         "table evcal fit writes there: restore the file or fit again")
+    frame = read_table(path, DRIVERS, [])
+    names(path, frame, "driver", drivers)
+    frame = typed(path, frame, DRIVERS, [])
+    text = list(DRIVERS.text)  # as driver_table makes them: an empty cell is an empty text
+    frame[text] = frame[text].fillna("").astype(str)
+    return frame
 
 
 def read_parquet(path: Path, needed: tuple[str, ...], rows: Rows | None = None) -> pd.DataFrame | None:

@@ -18,6 +18,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.model.leap import leap_year_line
+from evcal.model.result import cov_frame
 from evcal.model.weekday_share import average_share_kind
 from evcal.report import charts
 from evcal.report.context import ReportContext
@@ -137,6 +138,5 @@ def _leap_year_line(model: dict[str, Any]) -> str | None:
     params = pd.Series(model.get("params") or {}, dtype=float)
     if "leap_year" not in params.index:
         return None
-    cols = list(model["cov"]["columns"])
-    cov = pd.DataFrame(np.asarray(model["cov"]["values"], dtype=float), index=cols, columns=cols)
-    return leap_year_line(SimpleNamespace(params=params, cov=cov, transform=model["transform"]))
+    return leap_year_line(SimpleNamespace(params=params, cov=cov_frame(model), transform=model["transform"],
+                                          freq=model["freq"]))

@@ -166,8 +166,8 @@ def _listed_until(e: Any, year: int) -> str:
     """The warning for an entry whose listed dates stop in ``year``, before the last year checked
     (a date file: the file, its last day and the row it comes from)."""
     if isinstance(e.when, FileRule):
-        row = max(zip(e.when.items, e.when.rows, strict=True), key=lambda p: (p[0].end, p[1]))[1]
-        return (f"{entry_name(e)}: {e.when.path} lists dates up to {e.when.last_day} (row {row}) only; add "
+        item, row = max(zip(e.when.items, e.when.rows, strict=True), key=lambda p: (p[0].end, p[1]))
+        return (f"{entry_name(e)}: {e.when.path} lists dates up to {item.end} (row {row}) only; add "
                 "the later dates to the file before planning them")
     return (f"{entry_name(e)}: dates are listed up to {year} only; add the dates of later years before "
             "planning them")

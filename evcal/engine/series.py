@@ -144,7 +144,7 @@ def adopt_tables(result: FitResult, tables: BlockTables, inp: ModelInputs) -> No
 
 def _weak_from_lifts(result: FitResult) -> None:
     """Mark weak the fitted columns the lifts table grades weak by their interval (model.json and plans
-    read the status; the rule is evcal.model.strength.too_wide, applied where the intervals are made)."""
+    read the status; the rule is evcal.effects.wide.too_wide, applied where the intervals are made)."""
     weak = result.lifts.loc[result.lifts["identifiable"] == "weak", ["event", "note"]]
     for col, note in zip(weak["event"], weak["note"], strict=True):
         st = result.status.get(col)

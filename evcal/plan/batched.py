@@ -233,7 +233,7 @@ def series_weak(lifts: pd.DataFrame, keys: pd.DataFrame) -> dict[str, np.ndarray
     """Column -> whether each series of ``keys`` (in its order) has the lift ``weak`` in ``lifts``.
 
     The panel's lifts table grades each series on its own interval
-    (:func:`evcal.model.strength.too_wide` in :func:`evcal.effects.block.lifts_columns`),
+    (:func:`evcal.effects.wide.too_wide` in :func:`evcal.effects.block.lifts_columns`),
     so a series can be weak where its design group is not; this reads it back, as
     :func:`evcal.engine.series.adopt_tables` does for a single series.
     """

@@ -670,9 +670,26 @@ def test_headline_event_is_the_biggest_move_up_or_down() -> None:
     lifts = pd.DataFrame({
         "event": ["a", "b", "c", "d"], "kind": "event", "identifiable": ["yes", "yes", "yes", "weak"],
         "lift_pct": [-1.5, -84.2, -32.3, -92.9], "units_per_occurrence": [-0.2, -13.0, -5.0, -35.0],
+        "low_pct": [-3.0, -90.0, -40.0, -99.0], "high_pct": [0.5, -70.0, -20.0, -50.0],
     })
     top = biggest_event(SimpleNamespace(lifts=lifts), skip=set())
     assert top["event"] == "b" and moves_the_most(top) == "takes the most away"  # the weak d is no headline
-    lifts.loc[2, ["lift_pct", "units_per_occurrence"]] = [40.0, 20.0]
+    lifts.loc[2, ["lift_pct", "units_per_occurrence", "low_pct", "high_pct"]] = [40.0, 20.0, 10.0, 75.0]
     top = biggest_event(SimpleNamespace(lifts=lifts), skip=set())
     assert top["event"] == "c" and moves_the_most(top) == "adds the most"
+
+
+def test_headline_event_has_a_known_sign() -> None:
+    """Issue 18: the "adds the most" card picked an event whose interval crosses zero. Invented lifts:
+    e moves the most units but its interval holds 0, so b (interval all below 0) is the headline."""
+    from types import SimpleNamespace
+
+    from evcal.report.headlines import biggest_event
+
+    lifts = pd.DataFrame({
+        "event": ["b", "e"], "kind": "event", "identifiable": "yes", "lift_pct": [-20.0, 60.0],
+        "units_per_occurrence": [-5.0, 30.0], "low_pct": [-30.0, -10.0], "high_pct": [-10.0, 150.0],
+    })
+    assert biggest_event(SimpleNamespace(lifts=lifts), skip=set())["event"] == "b"
+    lifts.loc[1, "low_pct"] = 5.0  # now its sign is known: it is the headline
+    assert biggest_event(SimpleNamespace(lifts=lifts), skip=set())["event"] == "e"

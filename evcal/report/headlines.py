@@ -45,7 +45,8 @@ def biggest_event(folder: ModelFolder, skip: set[str]) -> pd.Series | None:
     """The estimated event (not in ``skip``: closures, assumed) that moves the most units per occurrence.
 
     The largest in size, up or down: when every event is a dip, the one that adds the most would be the
-    smallest dip (about 0 units), no headline.
+    smallest dip (about 0 units), no headline. Only a lift whose 95 % interval leaves out zero can be
+    one: a headline that an event "adds the most" when the history cannot tell its sign claims too much.
     """
     lifts = folder.lifts
     rows = lifts[
@@ -53,6 +54,7 @@ def biggest_event(folder: ModelFolder, skip: set[str]) -> pd.Series | None:
         & (lifts["identifiable"] == "yes")  # a weak lift is no headline
         & lifts["lift_pct"].notna()
         & lifts["units_per_occurrence"].notna()
+        & ((lifts["low_pct"] > 0) | (lifts["high_pct"] < 0))  # the sign is known
         & ~lifts["event"].isin(skip)
     ]
     return None if rows.empty else rows.loc[rows["units_per_occurrence"].abs().idxmax()]

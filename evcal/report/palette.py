@@ -1,13 +1,14 @@
 """The report's colours, shared by the charts, the calendar view and the CSS.
 
 One colour per event, kept the same in every chart and in the calendar view so
-a reader learns it once. The event colours are earthy and distinct from the
-neutral base grey; neighbours in the list differ in hue and lightness so they
-stay apart in a greyscale print.
+a reader learns it once; no colour repeats, however many events there are. The
+event colours are earthy and distinct from the neutral base grey; neighbours in
+the list differ in hue and lightness so they stay apart in a greyscale print.
 """
 
 from __future__ import annotations
 
+import colorsys
 from collections.abc import Iterable
 
 INK = "#1e2b2f"  # text, axes
@@ -39,8 +40,36 @@ EVENT_COLOURS = (
 )
 
 
+#: lightness and saturation (HLS) of the colours after the twelve above, in turn: darker and lighter
+#: neighbours stay apart in a greyscale print; muted, like the hand-picked ones
+_MORE_LIGHTNESS = (0.36, 0.52, 0.44)
+_MORE_SATURATION = (0.55, 0.45, 0.62)
+#: the golden-ratio step around the hue circle: each new hue lands in the widest gap left
+_GOLDEN = 0.6180339887
+
+
+def event_colour(k: int) -> str:
+    """The ``k``-th event colour: the twelve hand-picked ones, then as many more as there are events.
+
+    Beyond twelve the hue steps by the golden ratio around the circle (lightness and saturation in
+    turn), so 24 events get 24 colours at least 13 CIELAB units apart (the test measures it); no
+    colour repeats, so an event keeps its own colour in every chart however many there are.
+
+    Examples
+    --------
+    >>> event_colour(0), event_colour(12)
+    ('#2f7d5b', '#8e6c29')
+    """
+    if k < len(EVENT_COLOURS):
+        return EVENT_COLOURS[k]
+    m = k - len(EVENT_COLOURS)
+    hue = (0.11 + m * _GOLDEN) % 1.0
+    r, g, b = colorsys.hls_to_rgb(hue, _MORE_LIGHTNESS[m % 3], _MORE_SATURATION[m % 3])
+    return f"#{round(r * 255):02x}{round(g * 255):02x}{round(b * 255):02x}"
+
+
 def event_colours(names: Iterable[str]) -> dict[str, str]:
-    """Give each name a colour, in order; the list repeats after twelve names.
+    """Give each name its own colour, in order (:func:`event_colour`).
 
     Examples
     --------
@@ -50,5 +79,5 @@ def event_colours(names: Iterable[str]) -> dict[str, str]:
     out: dict[str, str] = {}
     for name in names:
         if name not in out:
-            out[name] = EVENT_COLOURS[len(out) % len(EVENT_COLOURS)]
+            out[name] = event_colour(len(out))
     return out

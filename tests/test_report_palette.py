@@ -38,3 +38,15 @@ def test_an_event_keeps_its_colour_whatever_comes_after_it():
     few = event_colours(["a", "b"])
     many = event_colours(["a", "b", *[f"x{k}" for k in range(30)]])
     assert many["a"] == few["a"] and many["b"] == few["b"]
+
+
+def test_long_labels_wrap_instead_of_being_cut():
+    """Issue 18: legend labels were cut ("Mothering Sunday and the six days bef…")."""
+    from evcal.report.charts import plain
+
+    label = "Mothering Sunday and the six days before it"
+    wrapped = plain(label)
+    assert "…" not in wrapped and " ".join(wrapped.split()) == label
+    assert all(len(line) <= 38 for line in wrapped.splitlines())
+    very_long = " ".join(["word"] * 60)
+    assert plain(very_long).count("\n") == 2 and plain(very_long).endswith("…")  # three lines at most

@@ -13,6 +13,7 @@ from __future__ import annotations
 import base64
 import calendar
 import io
+import textwrap
 from collections.abc import Iterable, Mapping
 
 import matplotlib.dates as mdates
@@ -29,17 +30,25 @@ DPI = 130
 _MAX_LABEL = 38
 
 
+#: lines a chart label may take before the rest is cut with "…" (a legend entry, an axis label)
+_MAX_LINES = 3
+
+
 def plain(text: object, limit: int = _MAX_LABEL) -> str:
-    """User text made safe for matplotlib: no mathtext, shortened to ``limit`` characters.
+    """User text made safe for matplotlib: no mathtext, wrapped at ``limit`` characters a line.
+
+    A long event label is wrapped onto up to three lines rather than cut (a legend that reads
+    "Mothering Sunday and the six days bef…" names no event); only past three lines is it cut.
 
     Examples
     --------
     >>> plain("$5 off")
     '\\\\$5 off'
+    >>> print(plain("Mothering Sunday and the six days before it", 24))
+    Mothering Sunday and the
+    six days before it
     """
-    s = " ".join(str(text).split())
-    if len(s) > limit:
-        s = s[: limit - 1] + "…"
+    s = textwrap.fill(" ".join(str(text).split()), width=limit, max_lines=_MAX_LINES, placeholder=" …")
     return s.replace("\\", "\\\\").replace("$", r"\$")
 
 

@@ -105,6 +105,8 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
         elif r["identifiable"] != "no" and pd.notna(r["lift_pct"]):
             lift, interval = pct(r["lift_pct"]), f"{pct(r['low_pct'])} to {pct(r['high_pct'])}"
             units = num(r["units_per_occurrence"])
+            if r["kind"] == "intervention":  # one "occurrence" from its start to the history's end
+                units = f"{units} in all, from its start"
         else:
             lift, interval, units = "not estimated", "–", "–"
         row = [r["label"], r["event"], kind, lift, interval, units]

@@ -13,7 +13,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from test_plan import DAILY_CAL, EASTER_CAL, daily_history, monthly_history
 from typer.testing import CliRunner
@@ -81,7 +81,8 @@ def test_rounded_table_meets_its_target_in_every_group(rows: list, n_groups: int
     base = np.array([r[0] for r in rows])
     lift = np.maximum(np.array([r[1] for r in rows]), -base)  # a closure takes at most the base
     plan = base + lift
-    scale = target / plan.sum() if plan.sum() > 0 else 1.0
+    assume(plan.sum() >= 1.0)  # a plan of some units, spread to a target of 1,000 to 10 million
+    scale = target / plan.sum()
     t = pd.DataFrame({"base": base * scale, "lift:promo": lift * scale, "plan": plan * scale})
     t["low"] = t["plan"] - np.array([r[2] for r in rows]) * scale
     t["high"] = t["plan"] + np.array([r[3] for r in rows]) * scale
@@ -107,6 +108,7 @@ def test_whole_unit_plan_adds_up_exactly_to_the_target(daily_fit: evcal.FitResul
     closed = whole.table["date"].dt.strftime("%m-%d") == "12-25"
     assert (whole.table.loc[closed, "plan"] == 0).all()  # a closed day stays at zero
     assert not (exact.table["plan"] % 1 == 0).all()  # the unrounded plan has fractions to round
+    assert any("adds up exactly to the target" in n for n in whole.notes)
 
 
 def test_per_year_targets_and_a_fractional_target(monthly_fit: evcal.FitResult) -> None:

@@ -40,6 +40,7 @@ def test_each_series_is_whole_and_adds_up_to_its_rounded_total(panel_dir) -> Non
     goals = exact.groupby("product")["plan"].sum().round()
     assert sums.to_dict() == {k: int(v) for k, v in goals.items()}
     assert len(sums) == 3
+    assert any("largest remainder" in n for n in whole.attrs["notes"])
 
 
 def test_one_series_with_a_target_through_the_cli(panel_dir, tmp_path) -> None:

@@ -240,10 +240,11 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         table["note"] = ("allocated from the parent plan by each child's share of the parents' base; "
                          "low/high are the parent's interval times the share, not the child's own interval")
     if whole_units:  # per series; a series already rounded to its target by make_plan is left as it is
-        from evcal.plan.spread import round_table
+        from evcal.plan.spread import PANEL_WHOLE_UNITS_NOTE, round_table
 
         keys = children.key_cols if allocate is not None else model.key_cols
         table = round_table(table, table.groupby(keys, sort=False).ngroup().to_numpy())
+        notes.append(PANEL_WHOLE_UNITS_NOTE)
     table.attrs["notes"] = notes
     return table
 

@@ -9,6 +9,7 @@ a lift and the base, stays what the model said.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -16,8 +17,13 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import PlanError
+from evcal.plan.horizon import period_years
 
 AMOUNT_COLUMNS = ("base", "plan", "low", "high")
+#: the panel plan's note when each series is in whole units (:func:`round_table` per series)
+PANEL_WHOLE_UNITS_NOTE = ("whole units: each series' periods are whole numbers, apportioned by largest "
+                          "remainder (Hamilton's method) so they add up exactly to its target or its total "
+                          "rounded to a whole unit; low is rounded down and high up")
 #: the plan table's column of what each outside driver's planned values add: ``driver:price``
 DRIVER_PREFIX = "driver:"
 
@@ -224,10 +230,6 @@ def whole_unit_plan(plan: Any, by_year: bool) -> Any:
     otherwise the whole horizon adds up to ``target_total``, or without a
     target to the model's plan total rounded to a whole number.
     """
-    from dataclasses import replace
-
-    from evcal.plan.horizon import period_years
-
     years = period_years(plan.periods, plan.label)
     notes = list(plan.notes)
     if by_year and plan.target:
@@ -238,6 +240,11 @@ def whole_unit_plan(plan: Any, by_year: bool) -> Any:
         goals = None if plan.target_total is None else {0: whole_number(plan.target_total)}
         shown = {} if goals is None or plan.target_total == goals[0] else {"the horizon": plan.target_total}
     table = round_table(plan.table, groups, goals)
+    goal = "each year's target" if by_year and goals else "the target" if goals \
+        else "the model's total rounded to a whole unit"
+    notes.append(f"whole units: every period is a whole number, apportioned by largest remainder (Hamilton's "
+                 f"method) so the plan adds up exactly to {goal}; no period moves by more than one unit; "
+                 "low is rounded down and high up, so the band does not narrow")
     if shown:
         notes.append("whole units: the target " + ", ".join(f"{t:,.2f} ({y})" for y, t in shown.items())
                      + " is not a whole number; the plan adds up to it rounded to the nearest unit")

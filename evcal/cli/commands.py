@@ -216,6 +216,8 @@ def plan_cmd(
         None, "--compare-drivers",
         help="Scenario B's outside drivers' future values (a file like --drivers, e.g. with a price cut): "
         "write both plans side by side; calendar B is --compare, or the same calendar."),
+    round_units: bool = typer.Option(
+        False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
@@ -231,7 +233,7 @@ def plan_cmd(
         return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
                               totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
                               seed=seed, series=series or None, allocate=allocate, workers=workers,
-                              force=force)
+                              force=force, whole_units=round_units)
     if compare_drivers and not drivers:
         raise PlanError(f"--compare-drivers {compare_drivers}: give scenario A's driver values with "
                         "--drivers too (scenario B is the same file with the change, e.g. a price cut)")
@@ -244,7 +246,8 @@ def plan_cmd(
     from evcal.plan import compare, make_plan
 
     result = load_model(model_dir)
-    options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed}
+    options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed,
+               "whole_units": round_units}
     if compare_cal or compare_drivers:
         cmp = compare(result, start, end, compare_cal, calendar_a=calendar, drivers_a=drivers,
                       drivers_b=compare_drivers, **options)

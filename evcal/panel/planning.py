@@ -157,7 +157,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
                calendar: Any = None, new_events: str = "error", n_sims: int = 1000, seed: int = 0,
                total: Any = None, totals: Any = None, allocate: PanelResult | str | Path | None = None,
                workers: int | None = None, progress: bool | None = None, batched: bool = True,
-               fallback: list[dict[str, Any]] | None = None) -> pd.DataFrame:
+               fallback: list[dict[str, Any]] | None = None, whole_units: bool = False) -> pd.DataFrame:
     """Plan each selected series of a panel; optionally allocate the plans to a child panel.
 
     Parameters
@@ -167,6 +167,10 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         every series with the single-series plan.
     fallback : list, optional
         Receives the keys of the series planned one by one (the blocks do not handle them).
+    whole_units : bool
+        Each series (each child, with ``allocate``) in whole units adding up to its target or its
+        rounded total (:func:`evcal.plan.spread.round_table`); allocated children are rounded on
+        their own, so in a period they may differ from the parent's whole plan by a few units.
 
     Returns
     -------
@@ -203,7 +207,7 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
                         "plan; name one series with --series, or fit the level the target is set for "
                         "(--level) and spread it down with --allocate")
     options = {"start": start, "end": end, "calendar": calendar, "new_events": new_events,
-               "n_sims": n_sims, "seed": seed, "total": total, "totals": totals}
+               "n_sims": n_sims, "seed": seed, "total": total, "totals": totals, "whole_units": whole_units}
     in_workers = bool(workers) and path is not None
     show = progress_enabled(progress)
     frames: list[pd.DataFrame] = []
@@ -235,6 +239,12 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         table = _allocate(table, model.key_cols, children, calendar)
         table["note"] = ("allocated from the parent plan by each child's share of the parents' base; "
                          "low/high are the parent's interval times the share, not the child's own interval")
+    if whole_units:  # per series; a series already rounded to its target by make_plan is left as it is
+        from evcal.plan.spread import PANEL_WHOLE_UNITS_NOTE, round_table
+
+        keys = children.key_cols if allocate is not None else model.key_cols
+        table = round_table(table, table.groupby(keys, sort=False).ngroup().to_numpy())
+        notes.append(PANEL_WHOLE_UNITS_NOTE)
     table.attrs["notes"] = notes
     return table
 

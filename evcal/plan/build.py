@@ -37,7 +37,7 @@ from evcal.plan.horizon import full_years, horizon_periods, period_dates, period
 from evcal.plan.result import Plan
 from evcal.plan.schedule import Schedule, resolve_schedule
 from evcal.plan.simulate import check_sims, error_forecast, simulate_interval
-from evcal.plan.spread import DRIVER_PREFIX, check_total, read_totals, spread
+from evcal.plan.spread import DRIVER_PREFIX, check_total, read_totals, spread, whole_unit_plan
 from evcal.threads import held_blas
 
 ERROR_COLUMN = "__error_forecast__"
@@ -54,6 +54,7 @@ def make_plan(
     n_sims: int = 1000,
     seed: int = 0,
     drivers: Any = None,
+    whole_units: bool = False,
 ) -> Plan:
     """Plan the periods from ``start`` to ``end``.
 
@@ -84,6 +85,10 @@ def make_plan(
         The outside drivers' future values: a date column and one column per
         driver of the model over the horizon (:func:`evcal.io.drivers.read_driver_file`);
         needed when the model has drivers.
+    whole_units : bool
+        Whole-unit plan (``plan --round``): integers that add up exactly to the target, or
+        without one to the model's total rounded, by largest remainder (Hamilton's method);
+        ``low`` floored and ``high`` ceiled (:func:`evcal.plan.spread.whole_unit_plan`).
 
     Returns
     -------
@@ -110,8 +115,9 @@ def make_plan(
     periods = horizon_periods(result, start, end)
     if drivers is not None:
         result = with_driver_values(result, drivers)
-    return plan_periods(result, periods, calendar=calendar, total=target_total, totals=year_totals,
+    plan = plan_periods(result, periods, calendar=calendar, total=target_total, totals=year_totals,
                         new_events=new_events, n_sims=n_sims, seed=seed)
+    return whole_unit_plan(plan, by_year=year_totals is not None) if whole_units else plan
 
 
 def with_driver_values(result: Any, drivers: Any) -> Any:

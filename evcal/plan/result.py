@@ -43,6 +43,10 @@ class Plan:
     future : dict
         Known future changes planned at an assumed size (:mod:`evcal.plan.future`):
         intervention -> assumed change as a fraction; ``assumptions`` holds their texts.
+    whole_units : bool
+        The amounts are whole units (``make_plan(..., whole_units=True)``, ``plan --round``):
+        the plan apportioned by largest remainder to the whole target, ``low`` floored
+        and ``high`` ceiled (:func:`evcal.plan.spread.round_table`).
     """
 
     table: pd.DataFrame
@@ -64,6 +68,7 @@ class Plan:
     in_season: list[str] = field(default_factory=list)
     result: Any = field(default=None, repr=False)
     future: dict[str, float] = field(default_factory=dict)
+    whole_units: bool = False
 
     @property
     def total(self) -> float:

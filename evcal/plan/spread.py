@@ -9,6 +9,7 @@ a lift and the base, stays what the model said.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -16,8 +17,13 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import PlanError
+from evcal.plan.horizon import period_years
 
 AMOUNT_COLUMNS = ("base", "plan", "low", "high")
+#: the panel plan's note when each series is in whole units (:func:`round_table` per series)
+PANEL_WHOLE_UNITS_NOTE = ("whole units: each series' periods are whole numbers, apportioned by largest "
+                          "remainder (Hamilton's method) so they add up exactly to its target or its total "
+                          "rounded to a whole unit; low is rounded down and high up")
 #: the plan table's column of what each outside driver's planned values add: ``driver:price``
 DRIVER_PREFIX = "driver:"
 
@@ -145,3 +151,104 @@ def spread(table: pd.DataFrame, years: np.ndarray, total: float | None, totals: 
     target = {y: float(scaled[years == y].sum()) for y in needed} if totals is None \
         else {y: float(totals[y]) for y in needed}
     return out, factors, target
+
+
+def apportion(values: np.ndarray, total: int) -> np.ndarray:
+    """Whole numbers that add up to ``total``, each the floor or the ceiling of its value.
+
+    Largest-remainder apportionment (Hamilton's method): every value is
+    floored, then the units still missing go one each to the values with the
+    largest fractional remainders (ties: the earlier value first). It needs
+    ``|total - sum(values)| < 1``, which holds when ``total`` is the rounded sum
+    or the rounded target the values were spread to; then every result is
+    within 1 of its value. Negative values (closures) are floored like the rest.
+
+    Examples
+    --------
+    >>> apportion(np.array([10.4, 20.4, 30.2]), 61).tolist()
+    [11, 20, 30]
+    >>> apportion(np.array([0.5, 0.5, 0.5, 0.5]), 2).tolist()
+    [1, 1, 0, 0]
+    >>> apportion(np.array([-2.5, 7.5]), 5).tolist()
+    [-2, 7]
+    """
+    v = np.asarray(values, dtype=float)
+    floors = np.floor(v)
+    missing = int(round(total - float(floors.sum())))
+    if not 0 <= missing <= len(v):
+        raise ValueError(f"apportion: {len(v)} values adding up to {float(v.sum()):g} cannot be "
+                         f"rounded to a total of {total}")
+    order = np.argsort(-(v - floors), kind="stable")  # largest remainder first; ties keep their order
+    out = floors.astype(np.int64)
+    out[order[:missing]] += 1
+    return out
+
+
+def whole_number(x: float) -> int:
+    """``x`` rounded to the nearest whole number, halves away from zero (a total of 0.5 units is 1)."""
+    return int(math.floor(abs(x) + 0.5)) * (1 if x >= 0 else -1)
+
+
+def round_table(table: pd.DataFrame, groups: np.ndarray, targets: dict[Any, int] | None = None
+                ) -> pd.DataFrame:
+    """The plan table in whole units: ``plan`` by group, its parts by period, ``low``/``high`` outward.
+
+    ``groups`` labels each row (a year, a series, or one label for the whole
+    table); the rows of a group are apportioned (:func:`apportion`) to its
+    target in ``targets``, or to the group's rounded sum when it has none. In
+    each period, ``base`` and the ``lift:``/``driver:`` columns are then
+    apportioned to the period's whole plan, so they still add up to it exactly.
+    ``low`` is floored and ``high`` ceiled, so the band never narrows and
+    still holds the plan. The amount columns become integers (nullable
+    ``Int64`` for a ``low``/``high`` left empty without simulation).
+    """
+    out = table.copy()
+    plan = out["plan"].astype("float64").to_numpy()
+    whole = np.zeros(len(plan), dtype=np.int64)
+    groups = np.asarray(groups)
+    for g in pd.unique(groups):
+        rows = np.flatnonzero(groups == g)
+        goal = (targets or {}).get(g)
+        whole[rows] = apportion(plan[rows], whole_number(float(plan[rows].sum())) if goal is None else goal)
+    parts = ["base"] + [c for c in out.columns if str(c).startswith(("lift:", DRIVER_PREFIX))]
+    values = out[parts].astype("float64").to_numpy()
+    split = np.vstack([apportion(values[i], int(whole[i])) for i in range(len(out))]) if len(out) \
+        else np.zeros((0, len(parts)), dtype=np.int64)
+    for j, c in enumerate(parts):
+        out[c] = split[:, j]
+    out["plan"] = whole
+    for c, edge in (("low", np.floor), ("high", np.ceil)):
+        if c in out.columns:
+            out[c] = pd.array(edge(out[c].astype("float64").to_numpy()), dtype="Int64")
+    return out
+
+
+def whole_unit_plan(plan: Any, by_year: bool) -> Any:
+    """``plan`` (a :class:`~evcal.plan.result.Plan`) in whole units, adding up exactly to its whole target.
+
+    ``by_year``: each year's periods add up to that year's target (``totals``);
+    otherwise the whole horizon adds up to ``target_total``, or without a
+    target to the model's plan total rounded to a whole number.
+    """
+    years = period_years(plan.periods, plan.label)
+    notes = list(plan.notes)
+    if by_year and plan.target:
+        groups, goals = years, {y: whole_number(t) for y, t in plan.target.items()}
+        shown = {y: t for y, t in plan.target.items() if t != goals[y]}
+    else:
+        groups = np.zeros(len(years), dtype=int)
+        goals = None if plan.target_total is None else {0: whole_number(plan.target_total)}
+        shown = {} if goals is None or plan.target_total == goals[0] else {"the horizon": plan.target_total}
+    table = round_table(plan.table, groups, goals)
+    goal = "each year's target" if by_year and goals else "the target" if goals \
+        else "the model's total rounded to a whole unit"
+    notes.append(f"whole units: every period is a whole number, apportioned by largest remainder (Hamilton's "
+                 f"method) so the plan adds up exactly to {goal}; no period moves by more than one unit; "
+                 "low is rounded down and high up, so the band does not narrow")
+    if shown:
+        notes.append("whole units: the target " + ", ".join(f"{t:,.2f} ({y})" for y, t in shown.items())
+                     + " is not a whole number; the plan adds up to it rounded to the nearest unit")
+    plan_col = table["plan"].to_numpy()
+    target = None if plan.target is None else {y: float(plan_col[years == y].sum()) for y in plan.target}
+    total = None if plan.target_total is None else float(whole_number(plan.target_total))
+    return replace(plan, table=table, target=target, target_total=total, notes=notes, whole_units=True)

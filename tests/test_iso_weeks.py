@@ -173,3 +173,28 @@ def test_fpp3_us_gasoline_reads_as_1355_weeks() -> None:
     assert h.values.index[0].end_time.date() == dt.date.fromisocalendar(1991, 6, 7) == dt.date(1991, 2, 10)
     assert h.values.index[-1].end_time.date() == dt.date.fromisocalendar(2017, 3, 7)
     assert h.values.iloc[0] == 6.621 and h.values.iloc[-1] == 8.039  # the first and last rows of the file
+
+
+def test_drivers_file_of_week_labels() -> None:
+    # invented prices by ISO week; fails on main: "cannot read '2025-W01' as a date"
+    from evcal.io.drivers import read_driver_file
+
+    frame = pd.DataFrame({"date": ["2025-W01", "2025 W02", "2025W03"], "price": ["2.5", "2.25", "2.4"]})
+    got = read_driver_file(frame, ["price"], "W-SUN")
+    assert [p.end_time.date() for p in got.index] == [dt.date.fromisocalendar(2025, w, 7) for w in (1, 2, 3)]
+    assert got["price"].tolist() == [2.5, 2.25, 2.4]
+
+
+def test_another_week_end_is_refused_for_iso_labels() -> None:
+    # ISO weeks end on Sunday: --freq W-SAT would move every week a day; refused, naming W-SUN
+    with pytest.raises(HistoryError, match="fall on Sundays.*pass --freq W-SUN"):
+        read_history(_frame("{y}-W{w:02d}"), freq="W-SAT")
+    assert read_history(_frame("{y}-W{w:02d}"), freq="W").freq == "W-SUN"
+
+
+def test_a_year_evcal_cannot_hold_is_named_with_its_row() -> None:
+    _, problems = parse_dates(pd.Series(["1500-W03"]), [9], "date", "f")
+    assert [p.line("f") for p in problems] == [
+        "f row 9, column 'date': date '1500-W03' is outside the dates evcal can hold (1677-09-22 to "
+        "2262-04-11); check the year"
+    ]

@@ -125,9 +125,19 @@ def database_file(db: str | None) -> Path | None:
         return None
     if "://" not in db:
         return Path(db)
-    head, _, rest = db.partition(":///")
-    if head.split("+")[0] in ("sqlite", "duckdb") and rest and not rest.startswith(":memory:"):
-        return Path(rest.split("?")[0])
+    if db.lower().startswith("duckdb://"):
+        path = db.split("://", 1)[1]
+        path = path[1:] if path.startswith("/") else path  # duckdb:///rel.duckdb, duckdb:////abs.duckdb
+        return Path(path) if path not in ("", ":memory:") else None
+    from sqlalchemy import exc
+    from sqlalchemy.engine import make_url
+
+    try:
+        url = make_url(db)
+    except exc.ArgumentError:
+        return None  # open_database says what is wrong with it
+    if url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
+        return Path(url.database)
     return None
 
 
@@ -137,17 +147,11 @@ def open_database(db: str | None) -> Database:
         return Database("duckdb", "", "DuckDB")
     shown = mask_password(db)
     if "://" in db:
-        scheme = db.split("://", 1)[0].lower()
-        if scheme == "duckdb":
-            path = db.split("://", 1)[1]
-            path = path[1:] if path.startswith("/") else path  # duckdb:///rel.duckdb, duckdb:////abs.duckdb
-            if path in ("", ":memory:"):
-                return Database("duckdb", "", shown)
-            _existing(Path(path), shown)
-            return Database("duckdb", path, shown)
         file = database_file(db)
         if file is not None:
             _existing(file, shown)
+        if db.lower().startswith("duckdb://"):
+            return Database("duckdb", str(file) if file else "", shown)
         return Database("sqlalchemy", db, shown)
     path = Path(db)
     if path.suffix.lower() not in DATABASE_SUFFIXES:
@@ -264,6 +268,10 @@ def _sqlalchemy_rows(sql: str, where: Database) -> pd.DataFrame:
     except exc.NoSuchModuleError:
         raise HistoryError(
             f"--db {where.shown}: unknown kind of database {url.drivername!r}; {_URL_ADVICE}"
+        ) from None
+    except exc.ArgumentError as err:
+        raise HistoryError(
+            f"--db {where.shown}: not a readable database URL ({_first(err, where)}); {_URL_ADVICE}"
         ) from None
     except ImportError as err:
         raise HistoryError(

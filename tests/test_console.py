@@ -50,7 +50,7 @@ def test_user_error_exit_code_two_and_one_line(tmp_path: Path) -> None:
 
 
 def test_usage_error_keeps_its_exit_code() -> None:
-    proc = _run("fit")  # the history file is missing: click's usage error, exit code 2
+    proc = _run("show")  # the model folder is missing: click's usage error, exit code 2
     assert proc.returncode == 2
     assert "Missing argument" in proc.stderr
 
@@ -72,7 +72,7 @@ def test_debug_flag_keeps_user_errors_one_line_and_usage_errors_code_two(tmp_pat
     proc = _run("--debug", "calendar", "check", str(bad))
     assert proc.returncode == 2
     assert len(proc.stderr.strip().splitlines()) == 1 and "Traceback" not in proc.stderr
-    proc = _run("--debug", "fit")
+    proc = _run("--debug", "show")
     assert proc.returncode == 2 and "Missing argument" in proc.stderr
 
 

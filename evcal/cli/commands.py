@@ -39,9 +39,33 @@ AllowNegative = Annotated[bool, typer.Option("--allow-negative", help="Accept ne
 Driver = Annotated[list[str] | None, typer.Option(
     "--driver", help="An outside driver: a numeric column of the history, NAME (as it is) or NAME:log "
     "(entered as its log: an elasticity); repeat for several; adds to the calendar's drivers: (and wins).")]
+Db = Annotated[str | None, typer.Option(
+    "--db", help="Database to read the history from with --sql: a SQLAlchemy URL (sqlite:///sales.db), "
+    "duckdb:///sales.duckdb, or a .duckdb/.db/.sqlite file; left out: DuckDB over the files the query "
+    "names.")]
+Sql = Annotated[str | None, typer.Option(
+    "--sql", help="Read the history from this query instead of a file, e.g. \"SELECT day AS date, units AS "
+    "value FROM sales\"; the same columns and checks as a file (panels: the long format).")]
 Force = Annotated[bool, typer.Option(
     "--force", help="Replace evcal's own output of another kind or version at --out (never a file or "
     "folder evcal did not write, never an input).")]
+
+
+def _query_inputs(history: str | None, db: str | None, sql: str | None) -> list[Any]:
+    """The history's inputs for ``check_output`` (a database file too); one line if they clash."""
+    from evcal.io.database import check_query_options, database_file
+
+    check_query_options(history, db, sql)
+    return [history, database_file(db)]
+
+
+def _history_source(history: str | None, db: str | None, sql: str | None) -> Any:
+    """The history file, or the rows of ``--sql`` as a frame (read only after ``--out`` was checked)."""
+    if sql is None:
+        return history
+    from evcal.io.database import read_query
+
+    return read_query(sql, db)
 
 
 def parse_order(text: str | None) -> tuple[int, int, int] | None:
@@ -97,7 +121,7 @@ def parse_fourier_order(text: int | str) -> int | str:
 
 @command("fit")
 def fit_cmd(
-    history: str = typer.Argument(..., help="History file: CSV, Parquet or .xlsx."),
+    history: str | None = typer.Argument(None, help="History file: CSV, Parquet or .xlsx (or --sql)."),
     calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML)."),
     out: str = typer.Option(..., "--out", "-o", help="Output folder for the model."),
     date_col: DateCol = "date",
@@ -119,6 +143,8 @@ def fit_cmd(
     workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
     driver: Driver = None,
+    db: Db = None,
+    sql: Sql = None,
     force: Force = False,
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
@@ -127,7 +153,9 @@ def fit_cmd(
         from evcal.panel import refuse_drivers
 
         refuse_drivers("--driver")
-    check_output(out, "panel" if panel else "model", inputs=[history, calendar], force=force)
+    inputs = _query_inputs(history, db, sql)
+    check_output(out, "panel" if panel else "model", inputs=[*inputs, calendar], force=force)
+    history = _history_source(history, db, sql)
     options = fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                           trading_days, allow_negative, leap_year)
     if panel:  # many series: evcal.panel
@@ -265,7 +293,7 @@ def plan_cmd(
 
 @command("backtest")
 def backtest_cmd(
-    history: str = typer.Argument(..., help="History file: CSV, Parquet or .xlsx."),
+    history: str | None = typer.Argument(None, help="History file: CSV, Parquet or .xlsx (or --sql)."),
     calendar: str = typer.Option(..., "--calendar", "-c", help="Event calendar (YAML)."),
     out: str = typer.Option(..., "--out", "-o", help="backtest.csv to write."),
     holdout_years: int = typer.Option(2, "--holdout-years", help="Last full years to hold out, one each."),
@@ -282,12 +310,16 @@ def backtest_cmd(
     allow_negative: AllowNegative = False,
     leap_year: LeapYear = None,
     driver: Driver = None,
+    db: Db = None,
+    sql: Sql = None,
     force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
     if Path(out).suffix.lower() != ".csv":
         raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
-    check_output(out, "backtest", inputs=[history, calendar], force=force)
+    inputs = _query_inputs(history, db, sql)
+    check_output(out, "backtest", inputs=[*inputs, calendar], force=force)
+    history = _history_source(history, db, sql)
     from evcal.backtesting import backtest, format_table, save_backtest
 
     bt = backtest(history, calendar, holdout_years=holdout_years, date_col=date_col,
@@ -339,8 +371,8 @@ def report_command(
 
 @command("discover")
 def discover_cmd(
-    history: str = typer.Argument(
-        ..., help="History file (CSV, Parquet or .xlsx), or a model folder written by evcal fit."),
+    history: str | None = typer.Argument(
+        None, help="History file (CSV, Parquet or .xlsx), a model folder written by evcal fit, or --sql."),
     calendar: str = typer.Option(None, "--calendar", "-c", help="Event calendar (YAML), if any."),
     out: str = typer.Option(..., "--out", "-o", help="Output folder for the suggestions."),
     stockouts: str = typer.Option(None, "--stockouts", help="CSV of stock-outs: start,end[,reason]."),
@@ -351,14 +383,18 @@ def discover_cmd(
     errors: Errors = "auto",
     critical: float = typer.Option(None, "--critical", help="Chen-Liu critical |tau| (default by length)."),
     series: str = typer.Option(None, "--series", help="Panel model folders: the one series to look into."),
+    db: Db = None,
+    sql: Sql = None,
     force: Force = False,
 ) -> None:
     """Find cycles, unexplained peaks, dips and breaks, abnormal years and lost demand."""
-    check_output(out, "findings", inputs=[history, calendar, stockouts], force=force)
+    inputs = _query_inputs(history, db, sql)
+    check_output(out, "findings", inputs=[*inputs, calendar, stockouts], force=force)
     if critical is not None and not 2.0 <= critical <= 10.0:
         raise EvcalError(f"option --critical: {critical:g} must be between 2 and 10 (3 to 4 is usual)")
     from evcal.discovery import discover
 
+    history = _history_source(history, db, sql)
     found = discover(history, calendar, stockouts=stockouts, date_col=date_col, value_col=value_col,
                      freq=freq, cval=critical, transform=transform, errors=errors, series=series)
     found.save(out)

@@ -40,10 +40,11 @@ def load_table(
 
     A DataFrame whose dates are its index (a DatetimeIndex or PeriodIndex)
     rather than a ``date_col`` column is accepted as if the index were that
-    column. The caller's frame is never modified.
+    column. The caller's frame is never modified. A frame names itself in
+    messages by ``frame.attrs["source"]`` (a database query's result), else ``<frame>``.
     """
     if isinstance(source, pd.DataFrame):
-        frame, name = source.copy(), "<frame>"
+        frame, name = source.copy(), str(source.attrs.get("source", "<frame>"))
         frame.columns = [str(c) for c in frame.columns]
         if date_col not in frame.columns and isinstance(frame.index, pd.DatetimeIndex | pd.PeriodIndex):
             index = frame.index

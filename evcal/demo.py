@@ -3,28 +3,35 @@
 Calendar check, fit, a 2027 plan spread to a stated target, a backtest, the
 HTML report and the Excel workbook, each written into one folder; then where
 everything is and three lines a planner would quote. Everything here is
-invented (see ``demo/README.md`` and ``demo/generate.py``).
+invented (see ``evcal/data/demo/README.md`` and ``generate.py`` beside it).
+
+The history and calendar are package data (``evcal/data/demo/``), installed
+with evcal, so ``evcal demo`` runs from any folder after ``pip install``.
 """
 
 from __future__ import annotations
 
+import shutil
 import time
 from collections.abc import Callable
 from pathlib import Path
 
 from evcal.errors import EvcalError
 
+#: the bundled demo data: installed with the package (``package-data`` in pyproject.toml)
+DEMO_DATA = Path(__file__).resolve().parent / "data" / "demo"
 HISTORY = "fernhollow-history.csv"
 CALENDAR = "fernhollow-calendar.yaml"
 PLAN_YEAR = 2027
 #: Finance's (invented) unit target for the plan year: about 7 % over 2025.
 TARGET = 210_000.0
 #: every file the demo writes into its folder (named in the folder's marker before the first is written)
-DEMO_FILES = ("model/evcal-output.json", "model/model.json", "model/lifts.csv", "model/occurrences.csv",
-              "model/profile.csv", "model/fitted.csv", "plan.csv", "plan.xlsx", "backtest.csv",
-              "report.html")
+DEMO_FILES = (HISTORY, CALENDAR, "model/evcal-output.json", "model/model.json", "model/lifts.csv",
+              "model/occurrences.csv", "model/profile.csv", "model/fitted.csv", "plan.csv", "plan.xlsx",
+              "backtest.csv", "report.html")
 #: what the demo lists at the end: each output's label and its name in the folder
-OUTPUTS = (("model folder (lifts, occurrences, profile, fitted)", "model"), ("plan (CSV)", "plan.csv"),
+OUTPUTS = (("demo history (a copy to try things on)", HISTORY), ("demo calendar (a copy to edit)", CALENDAR),
+           ("model folder (lifts, occurrences, profile, fitted)", "model"), ("plan (CSV)", "plan.csv"),
            ("plan workbook (Excel)", "plan.xlsx"), ("backtest table", "backtest.csv"),
            ("HTML report (open in a browser)", "report.html"))
 
@@ -32,17 +39,18 @@ OUTPUTS = (("model folder (lifts, occurrences, profile, fitted)", "model"), ("pl
 def find_demo_data(data: str | Path | None = None) -> Path:
     """The folder with the demo history and calendar.
 
-    Looked for in ``data`` if given, else ``./demo``, else the source tree next
-    to this package (an editable install or a clone).
+    ``data`` if given, else the copy installed with the package
+    (:data:`DEMO_DATA`), wherever the command runs from.
     """
-    candidates = [Path(data)] if data is not None else [
-        Path.cwd() / "demo", Path(__file__).resolve().parents[1] / "demo"]
-    for c in candidates:
-        if (c / HISTORY).is_file() and (c / CALENDAR).is_file():
-            return c
-    where = ", ".join(str(c) for c in candidates)
-    raise EvcalError(f"demo data not found (looked in {where}); run from the evcal source folder "
-                     f"or pass --data DIR holding {HISTORY} and {CALENDAR}")
+    src = DEMO_DATA if data is None else Path(data)
+    missing = [name for name in (HISTORY, CALENDAR) if not (src / name).is_file()]
+    if missing:
+        if data is None:  # the package itself is incomplete: a broken or partial install
+            raise EvcalError(f"demo data not found: {src} lacks {', '.join(missing)}; reinstall evcal "
+                             f"or pass --data DIR holding {HISTORY} and {CALENDAR}")
+        raise EvcalError(f"--data {data}: no {' or '.join(missing)} there; pass a folder holding "
+                         f"{HISTORY} and {CALENDAR}, or leave --data out to use the bundled demo data")
+    return src
 
 
 def run_demo(out: str | Path, data: str | Path | None = None,
@@ -79,11 +87,11 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     out = check_output(out, "demo", inputs=[history, calendar], force=force)
     owner = folder_owner(out) if out.is_dir() else None
     if owner is not None and owner.kind != "demo":  # --force over evcal's own output of another kind
-        import shutil
-
         shutil.rmtree(out)
     out.mkdir(exist_ok=True)
     write_marker(out, "demo", files=list(DEMO_FILES))
+    for name in (HISTORY, CALENDAR):  # copies to edit and re-run (docs/tutorial.md); the originals stay
+        shutil.copyfile(src / name, out / name)
     echo("evcal demo: Fernhollow Garden Centres, an invented chain of garden centres "
          "(all data invented).")
 

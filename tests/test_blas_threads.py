@@ -55,8 +55,8 @@ def test_a_single_fit_and_its_plan_run_on_one_thread(monkeypatch):
 
     monkeypatch.setattr(engine, "fit_long_panel", spy_fit)
     monkeypatch.setattr(build, "simulate_interval", spy_sim)
-    hist = pd.read_csv(ROOT / "demo" / "fernhollow-history.csv")
+    hist = pd.read_csv(ROOT / "evcal" / "data" / "demo" / "fernhollow-history.csv")
     with threadpool_limits(limits=2, user_api="blas"):
-        res = evcal.fit(hist, ROOT / "demo" / "fernhollow-calendar.yaml", errors="ols")
+        res = evcal.fit(hist, ROOT / "evcal" / "data" / "demo" / "fernhollow-calendar.yaml", errors="ols")
         build.make_plan(res, "2027-01-01", "2027-06-30", n_sims=50)
     assert seen == {"fit": 1, "plan": 1}

@@ -30,7 +30,7 @@ CALENDAR = ROOT / "calendars" / "garden-centres.yaml"
 
 
 def quarterly_demo(tmp: Path) -> Path:
-    weekly = pd.read_csv(ROOT / "demo" / "fernhollow-history.csv", parse_dates=["date"])
+    weekly = pd.read_csv(ROOT / "evcal" / "data" / "demo" / "fernhollow-history.csv", parse_dates=["date"])
     quarters = weekly.set_index("date")["value"].resample("QE").sum().reset_index()
     path = tmp / "quarterly.csv"
     quarters.to_csv(path, index=False)
@@ -176,7 +176,7 @@ def test_degenerate_rule() -> None:
 # --------------------------------------------------------------- exclusions that leave too little
 
 def _history(tmp: Path) -> Path:
-    weekly = pd.read_csv(ROOT / "demo" / "fernhollow-history.csv")
+    weekly = pd.read_csv(ROOT / "evcal" / "data" / "demo" / "fernhollow-history.csv")
     path = tmp / "sales.csv"
     weekly.to_csv(path, index=False)
     return path

@@ -3,16 +3,15 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import openpyxl
 import pandas as pd
 from typer.testing import CliRunner
 
 from evcal.cli import app
-from evcal.demo import TARGET
+from evcal.demo import DEMO_DATA, TARGET
 
-DEMO = Path(__file__).resolve().parents[1] / "demo"
+DEMO = DEMO_DATA  # the package data evcal demo reads
 
 
 def test_demo_writes_everything_and_quotes_three_lines(tmp_path):

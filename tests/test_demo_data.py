@@ -23,9 +23,10 @@ import pandas as pd
 import pytest
 
 from evcal.calendar import load_calendar
+from evcal.demo import DEMO_DATA
 from evcal.io import read_history
 
-DEMO = Path(__file__).resolve().parents[1] / "demo"
+DEMO = DEMO_DATA  # the package data evcal demo reads
 FILES = ("fernhollow-history.csv", "fernhollow-calendar.yaml", "truth.json")
 
 

@@ -191,14 +191,14 @@ def test_history_from_a_dataframe_and_from_a_file(tmp_path) -> None:
 
 
 def test_demo_history_without_its_calendar_shows_what_the_calendar_holds() -> None:
-    # The invented demo (demo/generate.py, truth in demo/truth.json): Mothering
+    # The invented demo (evcal/data/demo/generate.py and truth.json): Mothering
     # Sunday is {easter: -21} with 6 days before, i.e. Easter -27 .. -21, and
     # the centres close on Dec 25. Without the calendar, discover must suggest
     # both with those rules, and the new store's level shift near 2022-03-07.
     import json
     from pathlib import Path
 
-    demo = Path(__file__).resolve().parents[1] / "demo"
+    demo = Path(__file__).resolve().parents[1] / "evcal" / "data" / "demo"
     truth = json.loads((demo / "truth.json").read_text())
     found = evcal.discover(demo / "fernhollow-history.csv", errors="ols")
     rules = {(r.rule.kind, r.rule.value, r.length, r.sign) for r in found.recurring}

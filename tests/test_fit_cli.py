@@ -15,7 +15,7 @@ from typer.testing import CliRunner
 
 from evcal.cli import app
 
-DEMO = Path(__file__).resolve().parents[1] / "demo"
+DEMO = Path(__file__).resolve().parents[1] / "evcal" / "data" / "demo"
 runner = CliRunner()
 
 GOOD_CAL = "name: cli test (invented)\nevents:\n  - {name: spring, when: {easter: -2}, length: 4}\n"

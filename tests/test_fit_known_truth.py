@@ -1,7 +1,7 @@
-"""Known-truth checks on the invented demo history (demo/generate.py is the truth).
+"""Known-truth checks on the invented demo history (evcal/data/demo/generate.py is the truth).
 
 The Fernhollow Garden Centres data are invented: a seeded generator writes the
-weekly history from stated lifts (demo/truth.json). The history has a moving
+weekly history from stated lifts (evcal/data/demo/truth.json). The history has a moving
 Easter weekend (with a closed Easter Sunday inside it: a partial-week
 closure), an Easter-relative Sunday, a tournament every four years whose 2022
 edition moved to November-December, a spring sale on new dates each year, a
@@ -19,7 +19,7 @@ import pytest
 
 import evcal
 
-DEMO = Path(__file__).resolve().parents[1] / "demo"
+DEMO = Path(__file__).resolve().parents[1] / "evcal" / "data" / "demo"
 
 
 @pytest.fixture(scope="module")

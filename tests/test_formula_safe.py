@@ -48,7 +48,7 @@ def attacked_model(tmp_path_factory: pytest.TempPathFactory):
     from evcal.engine import fit
 
     tmp = tmp_path_factory.mktemp("attack")
-    hist = pd.read_csv(ROOT / "demo" / "fernhollow-history.csv", parse_dates=["date"])
+    hist = pd.read_csv(ROOT / "evcal" / "data" / "demo" / "fernhollow-history.csv", parse_dates=["date"])
     hist = hist[hist["date"] < "2023-01-01"]
     cal = (f"name: injection\nevents:\n  - name: '{ATTACK}'\n    label: '{ATTACK}'\n"
            "    when: {easter: -2}\n    length: 4\n    after: 3\n")

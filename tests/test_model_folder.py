@@ -1,6 +1,6 @@
 """Model folders: whatever `fit` writes, `load_model` reads; a damaged folder is one line, exit 2.
 
-Histories here are either the bundled invented demo (demo/, Fernhollow) or
+Histories here are either the bundled invented demo (evcal/data/demo/, Fernhollow) or
 synthetic shops with a known truth, invented for the test and named as such.
 The reference for "the same plan" is the in-memory model's own plan.
 """
@@ -31,6 +31,7 @@ from evcal.model.inputs import average_share_profile
 from evcal.plan import make_plan
 
 ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "evcal" / "data" / "demo"
 runner = CliRunner()
 
 
@@ -125,7 +126,7 @@ def test_borrowing_event_whose_source_is_not_estimated_round_trips(tmp_path: Pat
     # spring-promotion cannot be pinned down from 25 quarters, so autumn-promotion (like: spring-promotion)
     # cannot either; fit wrote the folder, and plan refused it ("like_map.autumn-promotion: not a
     # borrowing event with a fitted source") -- found by the slow bad-input corpus
-    weekly = pd.read_csv(ROOT / "demo" / "fernhollow-history.csv", parse_dates=["date"]).set_index("date")
+    weekly = pd.read_csv(DEMO / "fernhollow-history.csv", parse_dates=["date"]).set_index("date")
     quarters = weekly["value"].resample("QS").sum().loc["2020-04-01":"2026-07-01"]
     hist = pd.DataFrame({"date": quarters.index, "value": quarters.to_numpy()})
     res = evcal.fit(hist, ROOT / "calendars" / "garden-centres.yaml", errors="ols")
@@ -206,7 +207,7 @@ def test_the_folder_kind_is_told_by_the_marker_or_the_document(tmp_path: Path) -
 def demo_model(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """The invented Fernhollow demo, fitted once (OLS for speed) and saved."""
     out = tmp_path_factory.mktemp("demo") / "model"
-    evcal.fit(ROOT / "demo" / "fernhollow-history.csv", ROOT / "demo" / "fernhollow-calendar.yaml",
+    evcal.fit(DEMO / "fernhollow-history.csv", DEMO / "fernhollow-calendar.yaml",
               errors="ols").save(out)
     return out
 

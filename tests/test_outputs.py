@@ -3,7 +3,7 @@
 Issue 13, "What was seen" 1, 4 (``--out`` in a read-only folder or naming an
 existing directory) and 6 (leftovers of a killed save), and the last-resort
 handler. The data are the bundled demo files (invented Fernhollow Garden
-Centres, see demo/README.md), fitted with ``--errors ols`` for speed. Every
+Centres, see evcal/data/demo/README.md), fitted with ``--errors ols`` for speed. Every
 refusal must leave every file byte-identical (hashes before and after), exit
 with code 2, say one line and show no traceback.
 """
@@ -26,7 +26,7 @@ from typer.testing import CliRunner
 from evcal.cli import app
 
 ROOT = Path(__file__).resolve().parents[1]
-DEMO = ROOT / "demo"
+DEMO = ROOT / "evcal" / "data" / "demo"
 HISTORY = DEMO / "fernhollow-history.csv"
 CALENDAR = DEMO / "fernhollow-calendar.yaml"
 MODEL_FILES = {"model.json", "lifts.csv", "occurrences.csv", "profile.csv", "fitted.csv"}

@@ -3,8 +3,8 @@
 Examples
 --------
 >>> import evcal                                     # doctest: +SKIP
->>> res = evcal.fit("demo/fernhollow-history.csv",   # doctest: +SKIP
-...                 "demo/fernhollow-calendar.yaml")
+>>> res = evcal.fit("evcal/data/demo/fernhollow-history.csv",   # doctest: +SKIP
+...                 "evcal/data/demo/fernhollow-calendar.yaml")
 >>> res.lifts[["event", "lift_pct", "low_pct", "high_pct"]]  # doctest: +SKIP
 """
 

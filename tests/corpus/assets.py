@@ -1,7 +1,7 @@
 """Inputs the strategies start from: the invented demo's files, a model folder fitted on them,
 and synthetic histories with a known truth.
 
-The demo data (``demo/``) are invented (see ``demo/README.md``); the synthetic
+The demo data (``evcal/data/demo/``) are invented (see its ``README.md``); the synthetic
 histories here are invented too, and named as such.
 """
 
@@ -16,8 +16,8 @@ import numpy as np
 import pandas as pd
 
 ROOT = Path(__file__).resolve().parents[2]
-DEMO_HISTORY = ROOT / "demo" / "fernhollow-history.csv"
-DEMO_CALENDAR = ROOT / "demo" / "fernhollow-calendar.yaml"
+DEMO_HISTORY = ROOT / "evcal" / "data" / "demo" / "fernhollow-history.csv"
+DEMO_CALENDAR = ROOT / "evcal" / "data" / "demo" / "fernhollow-calendar.yaml"
 GARDEN_CALENDAR = ROOT / "calendars" / "garden-centres.yaml"
 #: the first year after the demo history (it ends in November 2026): where plans go
 PLAN_YEAR = 2027

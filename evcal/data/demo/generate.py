@@ -4,7 +4,7 @@ All numbers here are invented. The script is the known truth the demo's fit is
 checked against, so it computes every date itself (Easter from
 ``dateutil.easter``) and does not use evcal to build the data.
 
-Run ``python demo/generate.py`` to rewrite, next to this file:
+Run ``python evcal/data/demo/generate.py`` to rewrite, next to this file:
 
 * ``fernhollow-history.csv``: ``date,value``, units sold per week, weeks ending Sunday,
   from the week ending 2020-01-05 to the week ending 2026-11-29;
@@ -284,7 +284,7 @@ def _flow(value: object) -> str:
 def calendar_yaml() -> str:
     out = [
         "# Fernhollow Garden Centres: an INVENTED chain of garden centres (demo data).",
-        "# Written by demo/generate.py; the true lifts behind the history are in truth.json.",
+        "# Written by evcal/data/demo/generate.py; the true lifts behind the history are in truth.json.",
         "name: Fernhollow Garden Centres (invented demo)",
         "events:",
     ]
@@ -378,7 +378,7 @@ def truth(daily: pd.DataFrame, weekly: pd.Series) -> dict[str, object]:
     return {
         "scenario": "Fernhollow Garden Centres: an invented chain of garden centres. All data are invented.",
         "seed": SEED,
-        "generator": "demo/generate.py",
+        "generator": "evcal/data/demo/generate.py",
         "history": {
             "file": "fernhollow-history.csv",
             "frequency": "weekly, weeks ending Sunday (W-SUN)",

@@ -24,8 +24,8 @@ duckdb = pytest.importorskip("duckdb")
 pytest.importorskip("sqlalchemy")
 
 ROOT = Path(__file__).resolve().parents[1]
-DEMO_HISTORY = ROOT / "demo" / "fernhollow-history.csv"
-DEMO_CALENDAR = ROOT / "demo" / "fernhollow-calendar.yaml"
+DEMO_HISTORY = ROOT / "evcal" / "data" / "demo" / "fernhollow-history.csv"
+DEMO_CALENDAR = ROOT / "evcal" / "data" / "demo" / "fernhollow-calendar.yaml"
 SECRET = "hunter2-not-real"
 runner = CliRunner()
 

@@ -154,3 +154,17 @@ def test_cli_round_writes_integers_to_csv_and_workbook(daily_fit: evcal.FitResul
     cells = [ws.cell(row=r, column=col) for r in range(2, ws.max_row + 1)]
     assert all(isinstance(c.value, int) for c in cells) and sum(c.value for c in cells) == 210_000
     assert cells[0].number_format == "0"  # shown as a whole number, no decimal place
+
+
+def test_cli_round_with_compare_writes_integers(daily_fit: evcal.FitResult, tmp_path) -> None:
+    """Both scenarios rounded: the side-by-side table is whole too (it wrote 556.000000)."""
+    daily_fit.save(tmp_path / "model")
+    cal = tmp_path / "b.yaml"
+    cal.write_text("name: b\n", encoding="utf-8")
+    res = CliRunner().invoke(app, ["plan", str(tmp_path / "model"), "--from", "2024-01-01", "--to",
+                                   "2024-12-31", "--total", "210000", "--round", "--sims", "0",
+                                   "--compare", str(cal), "--out", str(tmp_path / "cmp.csv")])
+    assert res.exit_code == 0, res.output
+    lines = (tmp_path / "cmp.csv").read_text().splitlines()
+    assert "." not in "".join(lines[1:])
+    assert lines[-1].split(",")[1:3] == ["210000", "210000"]

@@ -166,6 +166,9 @@ def compare(
     totals = pd.DataFrame({"date": ["total"], "plan_a": [a.sum()], "plan_b": [b.sum()],
                            "difference": [b.sum() - a.sum()]})
     table = pd.concat([table, totals], ignore_index=True)
+    if plan_a.whole_units and plan_b.whole_units:  # --round: both plans whole, so is every column
+        cols = ["plan_a", "plan_b", "difference"]
+        table[cols] = table[cols].round().astype(int)
     return Comparison(table=table, plan_a=plan_a, plan_b=plan_b,
                       name_a=name_a or _label(plan_a.calendar_name, drivers_a, differ) or "A",
                       name_b=name_b or _label(plan_b.calendar_name, drivers_b, differ) or "B")

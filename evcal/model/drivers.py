@@ -12,7 +12,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.amounts import amount
-from evcal.effects import Z95
+from evcal.model.result import coefficient_interval
 from evcal.store.tables import DRIVERS
 
 #: drivers.csv's columns: the store's table definition (evcal.store.tables.DRIVERS), written and read back
@@ -47,9 +47,7 @@ def driver_table(result: Any) -> pd.DataFrame:
     for d in getattr(result.spec, "drivers", None) or []:
         name, scale = d["name"], d["scale"]
         st = result.status.get(name)
-        b = float(result.params.get(name, np.nan))
-        se = float(np.sqrt(result.cov.loc[name, name])) if name in result.cov.index else np.nan
-        coef = np.array([b, b - Z95 * se, b + Z95 * se])
+        coef = coefficient_interval(result, name)
         effect = _effect(coef, scale, result.transform)
         part = fitted[name].to_numpy(dtype=float)[in_fit] if name in fitted else np.array([np.nan])
         ident = getattr(st, "identifiable", "no") if st is not None else "no"

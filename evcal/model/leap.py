@@ -16,7 +16,7 @@ import numpy as np
 
 from evcal.amounts import amount
 from evcal.design.seasonal import LeapYear, base_freq
-from evcal.effects import Z95
+from evcal.model.result import coefficient_interval
 
 COLUMN = "leap_year"
 
@@ -34,9 +34,7 @@ def leap_year_effect(result: Any) -> dict[str, Any] | None:
     """
     if COLUMN not in result.params.index:
         return None
-    b = float(result.params[COLUMN])
-    se = float(np.sqrt(result.cov.loc[COLUMN, COLUMN])) if COLUMN in result.cov.index else np.nan
-    coef = np.array([b, b - Z95 * se, b + Z95 * se])
+    coef = coefficient_interval(result, COLUMN)
     additive = result.transform == "none"
     values = coef if additive else 100.0 * np.expm1(coef)
     return {"unit": "units" if additive else "%", "effect": float(values[0]), "low": float(values[1]),

@@ -11,6 +11,7 @@ import pandas as pd
 
 from evcal import __version__
 from evcal.design.matrix import DesignSpec
+from evcal.effects import Z95
 from evcal.model.identify import ColumnStatus
 from evcal.model.options import FitOptions
 from evcal.store import FORMAT_VERSION, MODEL_FILES, json_safe, read_folder, save_folder
@@ -174,6 +175,23 @@ class FitResult:
             weekday_share={"month": {int(k): v for k, v in d["weekday_share"]["month"].items()},
                            "weekday": d["weekday_share"]["weekday"]} if d.get("weekday_share") else {},
         )
+
+
+def coefficient_interval(result: Any, name: str) -> np.ndarray:
+    """``[b, low, high]``: a fit's coefficient with its 95 % interval, ``b ± 1.96 se`` (its covariance).
+
+    NaN where the fit has no such coefficient (or no variance for it).
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> fit = SimpleNamespace(params=pd.Series({"a": 1.0}), cov=pd.DataFrame({"a": [0.25]}, index=["a"]))
+    >>> coefficient_interval(fit, "a").round(3).tolist()
+    [1.0, 0.02, 1.98]
+    """
+    b = float(result.params.get(name, np.nan))
+    se = float(np.sqrt(result.cov.loc[name, name])) if name in result.cov.index else np.nan
+    return np.array([b, b - Z95 * se, b + Z95 * se])
 
 
 def cov_frame(doc: dict[str, Any]) -> pd.DataFrame:

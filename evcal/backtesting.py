@@ -160,8 +160,8 @@ def backtest(
     >>> bt[bt.spread == "spread"].pivot(index="year", columns="method", values="wape")  # doctest: +SKIP
     """
     from evcal.engine import fit
-    from evcal.io import History, read_history
-    from evcal.io.drivers import check_history_drivers, merge_drivers, named_by_calendar
+    from evcal.io import History
+    from evcal.io.reader import history_for
     from evcal.model.fit_rows import excluded_periods
     from evcal.model.inputs import load_calendar_any
     from evcal.plan.build import plan_periods
@@ -171,12 +171,8 @@ def backtest(
             or holdout_years < 1:
         raise PlanError(f"--holdout-years {holdout_years!r}: must be a whole number of years, 1 or more")
     cal = load_calendar_any(calendar)
-    wanted = merge_drivers(cal.drivers, drivers)
-    with named_by_calendar(cal, drivers):
-        hist = history if isinstance(history, History) else read_history(
-            history, date_col=date_col, value_col=value_col, freq=freq,
-            allow_negative=bool(fit_options.get("allow_negative", False)), drivers=wanted or None)
-    check_history_drivers(hist, cal)
+    hist = history_for(history, cal, drivers, date_col=date_col, value_col=value_col, freq=freq,
+                       allow_negative=bool(fit_options.get("allow_negative", False)))
     values = hist.values.astype(float)
     periods = values.index
     years = period_years(periods, hist.label)

@@ -171,32 +171,14 @@ def fit_cmd(
     from evcal.engine import fit
     from evcal.model.summary import describe
 
-    cal, drivers = _calendar_and_drivers(calendar, driver)
-    source: Any = history
-    if drivers:
-        from evcal.io import read_history
-        from evcal.io.drivers import named_by_calendar
-
-        with named_by_calendar(cal, driver):
-            source = read_history(history, date_col=date_col, value_col=value_col, freq=freq,
-                                  allow_negative=allow_negative, drivers=drivers)
-    result = fit(source, cal, date_col=date_col, value_col=value_col, freq=freq, **options)
+    result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq, drivers=driver,
+                 **options)
     result.save(out)
     typer.echo(describe(result))
     files = "model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv"
     if result.spec.drivers:
         files += ", drivers.csv"
     typer.echo(f"\nwrote {out}/ ({files})")
-
-
-def _calendar_and_drivers(calendar: str | None,
-                          driver: list[str] | None) -> tuple[Any, list[tuple[str, str]]]:
-    """The calendar and the outside drivers: its ``drivers:``, then ``--driver`` (which wins)."""
-    from evcal.io.drivers import merge_drivers
-    from evcal.model.inputs import load_calendar_any
-
-    cal = load_calendar_any(calendar)
-    return cal, merge_drivers(cal.drivers, driver)
 
 
 @command("show")

@@ -26,7 +26,7 @@ __all__ = ["fit", "fit_long_panel", "PanelFit"]
 
 
 def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col: str = "value",
-        freq: str | None = None, **options: Any) -> FitResult:
+        freq: str | None = None, drivers: Any = None, **options: Any) -> FitResult:
     """Fit base, event lifts and interventions to a history.
 
     The series is fitted by the same engine as every series of a panel (a
@@ -41,6 +41,9 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
         The event calendar.
     date_col, value_col, freq
         Passed to :func:`evcal.io.read_history`.
+    drivers : sequence of str, optional
+        Outside drivers (``NAME`` or ``NAME:log``) besides the calendar's ``drivers:``; these win
+        (``--driver``). Not used when ``history`` is a History already.
     **options
         :class:`~evcal.model.FitOptions` fields: ``transform``, ``errors``, ``arima_order``,
         ``seasonal``, ``fourier_order``, ``trend_order``, ``trading_days``,
@@ -50,17 +53,13 @@ def fit(history: Any, calendar: Any = None, *, date_col: str = "date", value_col
     -------
     FitResult
     """
-    from evcal.io import History, read_history
-    from evcal.io.drivers import check_history_drivers, named_by_calendar
     from evcal.io.panel import Panel
+    from evcal.io.reader import history_for
 
     opts = FitOptions(**options)
     cal = load_calendar_any(calendar)
-    with named_by_calendar(cal):
-        hist = history if isinstance(history, History) else read_history(
-            history, date_col=date_col, value_col=value_col, freq=freq, allow_negative=opts.allow_negative,
-            drivers=list(cal.drivers) or None)  # the calendar's drivers: (evcal.io.drivers)
-    check_history_drivers(hist, cal)
+    hist = history_for(history, cal, drivers, date_col=date_col, value_col=value_col, freq=freq,
+                       allow_negative=opts.allow_negative)
     check_history_length(hist)
     # the design's width before it is built, at most: a seasonal term per period of the year (daily
     # data: Fourier pairs and weekdays), the calendar's columns, trend and trading days

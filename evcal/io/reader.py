@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -19,7 +20,13 @@ from evcal.io.cells import (
     parse_values,
     quote,
 )
-from evcal.io.drivers import driver_cells, parse_drivers
+from evcal.io.drivers import (
+    check_history_drivers,
+    driver_cells,
+    merge_drivers,
+    named_by_calendar,
+    parse_drivers,
+)
 from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_freq_option, resolve_freq
 from evcal.io.history import History
 from evcal.io.tables import find_column, load_table
@@ -236,3 +243,21 @@ def _problem_lines(problems: list[RowProblem], name: str) -> list[str]:
     if rest > 0:
         lines.append(f"{name}: and {rest:,} more problems like these (first {len(lines)} shown)")
     return lines
+
+
+def history_for(history: Any, calendar: Any, drivers: Any = None, **read_options: Any) -> History:
+    """The history a fit reads with ``calendar``: its ``drivers:`` plus ``drivers`` (``--driver``, which win).
+
+    A :class:`History` is taken as it is. A driver column the history lacks is one line
+    that says whether the calendar or ``--driver`` named it; a history read without a
+    driver the calendar names is refused (:func:`evcal.io.drivers.check_history_drivers`).
+    ``read_options`` go to :func:`read_history`.
+    """
+    if isinstance(history, History):
+        hist = history
+    else:
+        wanted = merge_drivers(getattr(calendar, "drivers", ()), drivers)
+        with named_by_calendar(calendar, drivers):
+            hist = read_history(history, drivers=wanted or None, **read_options)
+    check_history_drivers(hist, calendar)
+    return hist

@@ -48,10 +48,12 @@ def history_warnings(result: Any) -> list[str]:
     not once per series; read from ``panel.json`` (its calendar text keeps the files' rows), so
     ``evcal show`` of a panel folder says it as the fit did.
     """
-    from evcal.calendar.datefile import history_notes
+    from evcal.calendar.datefile import SAVED_KEY, history_notes
     from evcal.model.inputs import load_calendar_any
 
     s = result.settings
+    if f"\n{SAVED_KEY}:" not in (s.get("calendar_text") or ""):  # no date file: no calendar to read back
+        return []
     cal = load_calendar_any(s["calendar_text"])
     first = pd.Period(s["periods"]["start"], freq=s["freq"]).start_time.date()
     last = pd.Period(s["periods"]["end"], freq=s["freq"]).end_time.date()

@@ -172,16 +172,30 @@ def apportion(values: np.ndarray, total: int) -> np.ndarray:
     >>> apportion(np.array([-2.5, 7.5]), 5).tolist()
     [-2, 7]
     """
+    return apportion_rows(np.asarray(values, dtype=float)[None, :], np.array([total]))[0]
+
+
+def apportion_rows(values: np.ndarray, totals: np.ndarray) -> np.ndarray:
+    """:func:`apportion` of each row of ``values`` (n x k) to its whole ``totals[i]``, all rows at once.
+
+    Examples
+    --------
+    >>> apportion_rows(np.array([[10.4, 20.4, 30.2], [0.5, 0.5, 0.5]]), np.array([61, 2])).tolist()
+    [[11, 20, 30], [1, 1, 0]]
+    """
     v = np.asarray(values, dtype=float)
     floors = np.floor(v)
-    missing = int(round(total - float(floors.sum())))
-    if not 0 <= missing <= len(v):
-        raise ValueError(f"apportion: {len(v)} values adding up to {float(v.sum()):g} cannot be "
-                         f"rounded to a total of {total}")
-    order = np.argsort(-(v - floors), kind="stable")  # largest remainder first; ties keep their order
-    out = floors.astype(np.int64)
-    out[order[:missing]] += 1
-    return out
+    missing = np.rint(np.asarray(totals, dtype=float) - floors.sum(axis=1)).astype(np.int64)
+    bad = (missing < 0) | (missing > v.shape[1])
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise ValueError(f"apportion: {v.shape[1]} values adding up to {float(v[i].sum()):g} cannot be "
+                         f"rounded to a total of {totals[i]}")
+    # each value's rank by remainder within its row, largest first (ties: the earlier value first)
+    order = np.argsort(-(v - floors), axis=1, kind="stable")
+    rank = np.empty_like(order)
+    np.put_along_axis(rank, order, np.arange(v.shape[1])[None, :].repeat(len(v), axis=0), axis=1)
+    return floors.astype(np.int64) + (rank < missing[:, None])
 
 
 def whole_number(x: float) -> int:
@@ -212,8 +226,7 @@ def round_table(table: pd.DataFrame, groups: np.ndarray, targets: dict[Any, int]
         whole[rows] = apportion(plan[rows], whole_number(float(plan[rows].sum())) if goal is None else goal)
     parts = ["base"] + [c for c in out.columns if str(c).startswith(("lift:", DRIVER_PREFIX))]
     values = out[parts].astype("float64").to_numpy()
-    split = np.vstack([apportion(values[i], int(whole[i])) for i in range(len(out))]) if len(out) \
-        else np.zeros((0, len(parts)), dtype=np.int64)
+    split = apportion_rows(values, whole)  # each period's parts to its whole plan
     for j, c in enumerate(parts):
         out[c] = split[:, j]
     out["plan"] = whole

@@ -159,16 +159,13 @@ def compare(
     plan_a = _plan(result, start, end, calendar_a, drivers_a, "--drivers" if differ else None, **plan_options)
     plan_b = _plan(result, start, end, calendar_b, drivers_b, "--compare-drivers" if differ else None,
                    **plan_options)
-    a = plan_a.table["plan"].to_numpy(dtype=float)
-    b = plan_b.table["plan"].to_numpy(dtype=float)
+    a = plan_a.table["plan"].to_numpy()  # whole units (plan --round) stay integers, differences too
+    b = plan_b.table["plan"].to_numpy()
     table = pd.DataFrame({"date": list(plan_a.table["date"]), "plan_a": a, "plan_b": b,
                           "difference": b - a})
     totals = pd.DataFrame({"date": ["total"], "plan_a": [a.sum()], "plan_b": [b.sum()],
                            "difference": [b.sum() - a.sum()]})
     table = pd.concat([table, totals], ignore_index=True)
-    if plan_a.whole_units and plan_b.whole_units:  # --round: both plans whole, so is every column
-        cols = ["plan_a", "plan_b", "difference"]
-        table[cols] = table[cols].round().astype(int)
     return Comparison(table=table, plan_a=plan_a, plan_b=plan_b,
                       name_a=name_a or _label(plan_a.calendar_name, drivers_a, differ) or "A",
                       name_b=name_b or _label(plan_b.calendar_name, drivers_b, differ) or "B")

@@ -207,7 +207,9 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
                         "plan; name one series with --series, or fit the level the target is set for "
                         "(--level) and spread it down with --allocate")
     options = {"start": start, "end": end, "calendar": calendar, "new_events": new_events,
-               "n_sims": n_sims, "seed": seed, "total": total, "totals": totals, "whole_units": whole_units}
+               "n_sims": n_sims, "seed": seed, "total": total, "totals": totals,
+               # a series planned to its own target is rounded to it by make_plan; the rest once, below
+               "whole_units": whole_units and (total is not None or totals is not None) and allocate is None}
     in_workers = bool(workers) and path is not None
     show = progress_enabled(progress)
     frames: list[pd.DataFrame] = []
@@ -239,11 +241,12 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         table = _allocate(table, model.key_cols, children, calendar)
         table["note"] = ("allocated from the parent plan by each child's share of the parents' base; "
                          "low/high are the parent's interval times the share, not the child's own interval")
-    if whole_units:  # per series; a series already rounded to its target by make_plan is left as it is
+    if whole_units:  # per series (or per allocated child), unless make_plan already rounded it to its target
         from evcal.plan.spread import PANEL_WHOLE_UNITS_NOTE, round_table
 
-        keys = children.key_cols if allocate is not None else model.key_cols
-        table = round_table(table, table.groupby(keys, sort=False).ngroup().to_numpy())
+        if not options["whole_units"]:
+            keys = children.key_cols if allocate is not None else model.key_cols
+            table = round_table(table, table.groupby(keys, sort=False).ngroup().to_numpy())
         notes.append(PANEL_WHOLE_UNITS_NOTE)
     table.attrs["notes"] = notes
     return table

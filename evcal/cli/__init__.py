@@ -2,7 +2,8 @@
 
 :mod:`evcal.cli.console` holds the typer ``app``, the error handling
 (:func:`guarded`) and the console entry point (:func:`main`);
-:mod:`evcal.cli.commands` the commands and their shared options, registered on the app when imported here.
+:mod:`evcal.cli.options` the options several commands share; the command modules register their commands
+on the app when imported here, in the order ``evcal --help`` lists them.
 
 Examples
 --------
@@ -14,7 +15,12 @@ Examples
 
 from __future__ import annotations
 
-from evcal.cli import commands  # noqa: F401 - registers the commands on the app
+import importlib
+
 from evcal.cli.console import app, calendar_app, guarded, last_resort_line, main
+
+# importing a command module registers its commands on the app: in this order, the order of `evcal --help`
+for _module in ("commands", "plan_command", "history_commands", "report_command", "calendar_commands"):
+    importlib.import_module(f"evcal.cli.{_module}")
 
 __all__ = ["app", "calendar_app", "guarded", "last_resort_line", "main"]

@@ -47,6 +47,10 @@ class Plan:
         The amounts are whole units (``make_plan(..., whole_units=True)``, ``plan --round``):
         the plan apportioned by largest remainder to the whole target, ``low`` floored
         and ``high`` ceiled (:func:`evcal.plan.spread.round_table`).
+    actuals : DataFrame or None
+        ``date, actual``: the periods of the plan's year before its start, as sold (a year-to-date
+        re-plan, ``plan --actuals``); the plan is spread so that these plus ``table["plan"]`` meet
+        the year's target. None for an ordinary plan.
     """
 
     table: pd.DataFrame
@@ -69,6 +73,7 @@ class Plan:
     result: Any = field(default=None, repr=False)
     future: dict[str, float] = field(default_factory=dict)
     whole_units: bool = False
+    actuals: pd.DataFrame | None = None
 
     @property
     def total(self) -> float:

@@ -1,0 +1,88 @@
+"""``evcal plan``: a forward plan (or two side by side) from a model folder, single or panel."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from evcal.cli.console import command
+from evcal.cli.options import Force
+from evcal.errors import PlanError
+from evcal.outputs import check_output
+
+__all__ = ["plan_cmd"]
+
+
+@command("plan")
+def plan_cmd(
+    model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
+    start: str = typer.Option(..., "--from", help="First day (or year) of the plan, e.g. 2027-01-01."),
+    end: str = typer.Option(..., "--to", help="Last day (or year) of the plan, e.g. 2027-12-31."),
+    out: str = typer.Option(..., "--out", "-o", help="plan.csv or plan.xlsx."),
+    calendar: str | None = typer.Option(
+        None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
+    total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
+    totals: str | None = typer.Option(None, "--totals", help="CSV of year,total targets."),
+    compare_cal: str | None = typer.Option(
+        None, "--compare", help="Second calendar: write both plans side by side."),
+    new_events: str = typer.Option(
+        "error", "--new-events", help="error | zero: events the model never saw."),
+    sims: int = typer.Option(1000, "--sims", help="Simulation draws for low/high (0: none)."),
+    seed: int = typer.Option(0, "--seed", help="Random seed of the simulation."),
+    series: list[str] = typer.Option(None, "--series", help="Panel models: plan these series only."),
+    allocate: str | None = typer.Option(
+        None, "--allocate", help="Panel models: spread the plan over this child panel model."),
+    workers: int | None = typer.Option(None, "--workers", help="Panel models: plan on N processes."),
+    drivers: str | None = typer.Option(
+        None, "--drivers",
+        help="Outside drivers' future values: a file with a date column and one column per driver."),
+    compare_drivers: str | None = typer.Option(
+        None, "--compare-drivers",
+        help="Scenario B's outside drivers' future values (a file like --drivers, e.g. with a price cut): "
+        "write both plans side by side; calendar B is --compare, or the same calendar."),
+    round_units: bool = typer.Option(
+        False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
+    force: Force = False,
+) -> None:
+    """Plan future periods from the base and the scheduled events, optionally spread to a total."""
+    from evcal.panel.result import is_panel_dir
+
+    if is_panel_dir(model_dir):  # many series: evcal.panel.planning
+        if drivers or compare_drivers:
+            from evcal.panel import refuse_drivers
+
+            refuse_drivers("--drivers" if drivers else "--compare-drivers")
+        from evcal.panel.planning import plan_panel_cmd
+
+        return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
+                              totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
+                              seed=seed, series=series or None, allocate=allocate, workers=workers,
+                              force=force, whole_units=round_units)
+    if compare_drivers and not drivers:
+        raise PlanError(f"--compare-drivers {compare_drivers}: give scenario A's driver values with "
+                        "--drivers too (scenario B is the same file with the change, e.g. a price cut)")
+    kind = "compare" if compare_cal or compare_drivers else "plan"
+    if Path(out).suffix.lower() not in (".csv", ".xlsx"):  # refused before any work
+        raise PlanError(f"--out {out}: unknown file type; write {kind}.csv or {kind}.xlsx")
+    check_output(out, kind, force=force,
+                 inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers, compare_drivers])
+    from evcal.model import load_model
+    from evcal.plan import compare, make_plan
+
+    result = load_model(model_dir)
+    options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed,
+               "whole_units": round_units}
+    if compare_cal or compare_drivers:
+        cmp = compare(result, start, end, compare_cal, calendar_a=calendar, drivers_a=drivers,
+                      drivers_b=compare_drivers, **options)
+        cmp.save(out)
+        typer.echo(cmp.plan_a.summary())
+        typer.echo("")
+        typer.echo(cmp.summary())
+        typer.echo(f"\nwrote {out} (date, plan_a, plan_b, difference; last row: totals)")
+        return
+    plan = make_plan(result, start, end, calendar=calendar, drivers=drivers, **options)
+    plan.save(out)
+    typer.echo(plan.summary())
+    typer.echo(f"\nwrote {out} ({len(plan.table)} periods)")

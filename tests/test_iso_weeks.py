@@ -23,7 +23,8 @@ from typer.testing import CliRunner
 from evcal.cli import app
 from evcal.errors import HistoryError
 from evcal.io import read_history
-from evcal.io.cells import iso_week_sundays, parse_dates
+from evcal.io.cells import parse_dates
+from evcal.io.isoweeks import iso_week_sundays
 from evcal.io.longformat import read_panel
 
 runner = CliRunner()

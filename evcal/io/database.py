@@ -26,6 +26,7 @@ from typing import Any
 import pandas as pd
 
 from evcal.errors import HistoryError
+from evcal.io.tables import CSV_SUFFIXES, EXCEL_SUFFIXES, PARQUET_SUFFIXES
 
 #: plain paths given to ``--db`` that name a database file (its kind read from its first bytes)
 DATABASE_SUFFIXES = {".duckdb", ".ddb", ".db", ".sqlite", ".sqlite3"}
@@ -136,8 +137,14 @@ def database_file(db: str | None) -> Path | None:
         url = make_url(db)
     except exc.ArgumentError:
         return None  # open_database says what is wrong with it
+    file = _sqlite_file(url)
+    return Path(file) if file else None
+
+
+def _sqlite_file(url: Any) -> str | None:
+    """The file of a SQLAlchemy URL to a SQLite database on disk (None: another database, or memory)."""
     if url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
-        return Path(url.database)
+        return str(url.database)
     return None
 
 
@@ -156,7 +163,7 @@ def open_database(db: str | None) -> Database:
     path = Path(db)
     if path.suffix.lower() not in DATABASE_SUFFIXES:
         hint = ""
-        if path.suffix.lower() in (".csv", ".parquet", ".pq", ".xlsx", ".tsv", ".txt"):
+        if path.suffix.lower() in CSV_SUFFIXES | PARQUET_SUFFIXES | EXCEL_SUFFIXES:
             hint = f"; a table file needs no --db: --sql \"SELECT * FROM '{db}'\" (DuckDB reads it)"
         raise HistoryError(f"--db {db}: not a database file or URL; {_URL_ADVICE}{hint}")
     _existing(path, shown)
@@ -240,10 +247,7 @@ def _duckdb_rows(sql: str, where: Database) -> pd.DataFrame:
     try:
         relation = con.sql(sql)
         if relation is None:
-            raise HistoryError(
-                f"--sql: the statement returned no rows on {where.shown}; give a SELECT that "
-                "returns a date and a value column"
-            )
+            raise _no_rows(where)
         return relation.df()
     except duckdb.Error as err:
         raise HistoryError(f"--sql: the query failed on {where.shown} ({_first(err, where)})") from None
@@ -260,9 +264,9 @@ def _sqlalchemy_rows(sql: str, where: Database) -> pd.DataFrame:
         url = make_url(where.target)
     except exc.ArgumentError:
         raise HistoryError(f"--db {where.shown}: not a readable database URL; {_URL_ADVICE}") from None
-    if url.get_backend_name() == "sqlite" and url.database not in (None, "", ":memory:"):
-        # read-only: a query can then never change the user's file
-        url = url.set(database=f"file:{url.database}?mode=ro", query={**url.query, "uri": "true"})
+    file = _sqlite_file(url)
+    if file:  # read-only: a query can then never change the user's file
+        url = url.set(database=f"file:{file}?mode=ro", query={**url.query, "uri": "true"})
     try:
         engine = create_engine(url, poolclass=NullPool)
     except exc.NoSuchModuleError:
@@ -285,10 +289,7 @@ def _sqlalchemy_rows(sql: str, where: Database) -> pd.DataFrame:
         try:  # closed without a commit: anything the statement changed is rolled back
             result = conn.exec_driver_sql(sql)
             if not result.returns_rows:
-                raise HistoryError(
-                    f"--sql: the statement returned no rows on {where.shown}; give a SELECT "
-                    "that returns a date and a value column"
-                )
+                raise _no_rows(where)
             return pd.DataFrame(result.fetchall(), columns=list(result.keys()))
         except exc.SQLAlchemyError as err:
             raise HistoryError(f"--sql: the query failed on {where.shown} ({_first(err, where)})") from None
@@ -296,6 +297,14 @@ def _sqlalchemy_rows(sql: str, where: Database) -> pd.DataFrame:
             conn.close()
     finally:
         engine.dispose()
+
+
+def _no_rows(where: Database) -> HistoryError:
+    """A statement that returns no result set (an INSERT, a CREATE): one line."""
+    return HistoryError(
+        f"--sql: the statement returned no rows on {where.shown}; give a SELECT that returns a date and a "
+        "value column"
+    )
 
 
 def _first(err: BaseException, where: Database) -> str:

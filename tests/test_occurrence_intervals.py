@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from evcal.effects.occurrences import N_DRAWS, OCC_SEED, _sim_bounds
+from evcal.effects.draws import N_DRAWS, OCC_SEED
+from evcal.effects.occurrences import _sim_bounds
 
 
 def test_bounds_equal_the_quantiles_of_all_draws() -> None:

@@ -16,7 +16,8 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from evcal.effects.occurrences import _Draws, _joint_bounds, _joint_normals
+from evcal.effects.draws import joint_normals
+from evcal.effects.occurrences import _Draws, _joint_bounds
 from evcal.effects.span import GroupInfo, OccGroup
 
 M, N = 3, 9
@@ -43,7 +44,7 @@ def _setup(seed: int):
 
 def _reference(pmap, cov, xs, level0, frac, mask, own, others, factors):
     """Quantiles of the plain simulation; xs: column -> (m, k, L)."""
-    z = _joint_normals(len(NAMES))
+    z = joint_normals(len(NAMES))
     vals, vecs = np.linalg.eigh(cov)
     low, high = np.empty(level0.shape[:2]), np.empty(level0.shape[:2])
     for i in range(M):

@@ -21,7 +21,8 @@ import numpy as np
 import pytest
 
 from evcal.effects.decompose import shapley_exp
-from evcal.effects.occurrences import _Draws, _joint_bounds, _joint_normals
+from evcal.effects.draws import joint_normals
+from evcal.effects.occurrences import _Draws, _joint_bounds
 from evcal.effects.span import GroupInfo, OccGroup
 
 hypothesis = pytest.importorskip("hypothesis")
@@ -84,7 +85,7 @@ def test_joint_bounds_with_several_coalitions_equal_the_subset_definition(monkey
     args = (ctx, group, og, np.arange(3), level0, frac, _Draws(group, pmap, {}, cov), {"promo": promo}, NAMES)
     got = np.array(_joint_bounds(*args))
 
-    z = _joint_normals(len(NAMES))
+    z = joint_normals(len(NAMES))
     vals, vecs = np.linalg.eigh(cov)
     want = np.empty_like(got)
     for i in range(M):

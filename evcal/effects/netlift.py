@@ -26,6 +26,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
+from evcal.effects.draws import N_DRAWS, cov_root, joint_normals, quantiles95
+
 if TYPE_CHECKING:  # span.py builds the links with dip_links below
     from evcal.effects.span import GroupInfo, SpanContext
 
@@ -101,13 +103,6 @@ def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray]
 
     ``added`` is the occurrence table's ``added_units`` as (m, n_occ).
     """
-    from evcal.effects.occurrences import (  # occurrences imports span, which imports this module
-        N_DRAWS,
-        _joint_normals,
-        _quantiles,
-        cov_root,
-    )
-
     m, n_occ = added.shape
     occ_out = {c: np.full((m, n_occ), np.nan) for c in NET_OCC_COLUMNS}
     lift_out: dict[str, dict[str, np.ndarray]] = {}
@@ -127,7 +122,7 @@ def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray]
         sub = None if cov is None else cov[:, where_cols][:, :, where_cols]
         root = cov_root(sub, se_map, cols, m)
         # the occurrence tables' own draws and seed (evcal.effects.occurrences)
-        draws = b[:, None, :] + np.einsum("mkj,dj->mdk", root, _joint_normals(len(cols)))  # (m, D, K)
+        draws = b[:, None, :] + np.einsum("mkj,dj->mdk", root, joint_normals(len(cols)))  # (m, D, K)
         total_d = np.zeros((m, N_DRAWS))
         total_net, total_base = np.zeros(m), np.zeros(m)
         for row in link.rows[ok]:
@@ -152,7 +147,7 @@ def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray]
             occ_out["dip_units"][:, p] = added[:, row[1:]].sum(axis=1)
             occ_out["net_units"][:, p] = net
             total_d += v  # before the quantiles, which partition v in place
-            occ_out["net_low_units"][:, p], occ_out["net_high_units"][:, p] = _quantiles(v)
+            occ_out["net_low_units"][:, p], occ_out["net_high_units"][:, p] = quantiles95(v)
             with np.errstate(divide="ignore", invalid="ignore"):
                 occ_out["net_pct"][:, p] = np.where(foot != 0, 100.0 * net / foot, np.nan)
             total_net += net
@@ -160,7 +155,7 @@ def net_columns(ctx: SpanContext, group: GroupInfo, parts: dict[str, np.ndarray]
         with np.errstate(divide="ignore", invalid="ignore"):
             scale = np.where(total_base != 0, 100.0 / total_base, np.nan)
         k = int(ok.sum())
-        lo, hi = _quantiles(total_d) if k else (np.full(m, np.nan),) * 2
+        lo, hi = quantiles95(total_d) if k else (np.full(m, np.nan),) * 2
         lift_out[link.event] = {"net_pct": total_net * scale if k else np.full(m, np.nan),
                                 "net_low_pct": lo * scale, "net_high_pct": hi * scale,
                                 "net_units_per_occurrence": total_net / k if k else np.full(m, np.nan)}

@@ -25,12 +25,21 @@ all 1,000 draws.
 
 from __future__ import annotations
 
-import functools
-
 import numpy as np
 
 from evcal.effects.columns import Columns, tiled_text
 from evcal.effects.decompose import player_of
+from evcal.effects.draws import (
+    H_HIGH,
+    H_LOW,
+    N_DRAWS,
+    cov_root,
+    joint_normals,
+    joint_normals_single,
+    lerp,
+    quantiles95,
+    sorted_normals,
+)
 from evcal.effects.screen import U32, JointUnits
 from evcal.effects.span import GroupInfo, OccGroup, SpanContext
 
@@ -38,10 +47,6 @@ __all__ = ["occurrences_columns", "OCC_COLUMNS", "Z95"]
 
 Z95 = 1.959963984540054
 OCC_COLUMNS = ["event", "start", "end", "added_units", "added_pct"]
-N_DRAWS = 1000
-OCC_SEED = 7
-_H_LOW = (N_DRAWS - 1) * 0.025
-_H_HIGH = (N_DRAWS - 1) * 0.975
 # elements of one chunk's working set of the joint draws (series × draws × arrays)
 _CHUNK = 1 << 19
 # the joint draws' single-precision screen (off: every draw in double precision; the same numbers)
@@ -59,68 +64,18 @@ def _sim_bounds(b: np.ndarray, s: np.ndarray, xs: np.ndarray, base_t: np.ndarray
     (m, k, L), ``xs`` (k, L) or (m, k, L) (zero on padding), ``b`` and ``s``
     (m,), ``ratio`` (m, k). Returns two (m, k) arrays.
     """
-    lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
+    lo_i, hi_i = int(np.floor(H_LOW)), int(np.floor(H_HIGH))
     need = [lo_i, lo_i + 1, hi_i, hi_i + 1]
 
     def draws(order: list[int]) -> np.ndarray:
         """The draws at these order statistics, (len(order), m, k), in one expression."""
-        slope = (b + s * _sorted_draws()[order][:, None])[:, :, None, None]
+        slope = (b + s * sorted_normals()[order][:, None])[:, :, None, None]
         return ratio * (base_t * np.expm1(slope * xs)).sum(axis=-1)
 
     up = draws(need)
     # a negative ratio turns the order of the draws around
     pick = up if (ratio >= 0).all() else np.where(ratio >= 0, up, draws([N_DRAWS - 1 - i for i in need]))
-    return _lerp(pick[0], pick[1], _H_LOW - lo_i), _lerp(pick[2], pick[3], _H_HIGH - hi_i)
-
-
-def _lerp(a: np.ndarray, b: np.ndarray, t: float) -> np.ndarray:
-    # numpy's quantile interpolation (it computes from the upper end when t >= 0.5)
-    diff = b - a
-    return b - diff * (1 - t) if t >= 0.5 else a + diff * t
-
-
-def _quantiles(sims: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """``np.quantile(sims, [0.025, 0.975], axis=-1)`` for draws on the last axis (same numbers).
-
-    ``sims`` (..., N_DRAWS) is partitioned in place. The four order statistics numpy interpolates
-    come from two single-index partitions: numpy selects one index with a vectorised routine, while
-    several indices at once take a scalar path about ten times slower.
-    """
-    lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
-    flat = sims.reshape(-1, N_DRAWS)
-    flat.partition(lo_i + 1, axis=-1)  # the lo_i + 1 smallest first: order statistic lo_i is their largest
-    lo0, lo1 = flat[:, : lo_i + 1].max(axis=-1), flat[:, lo_i + 1].copy()
-    upper = flat[:, lo_i + 1 :]
-    upper.partition(hi_i - lo_i - 1, axis=-1)  # order statistic hi_i + 1 is the smallest after hi_i
-    hi0, hi1 = upper[:, hi_i - lo_i - 1].copy(), upper[:, hi_i - lo_i :].min(axis=-1)
-    shape = sims.shape[:-1]
-    return (_lerp(lo0, lo1, _H_LOW - lo_i).reshape(shape), _lerp(hi0, hi1, _H_HIGH - hi_i).reshape(shape))
-
-
-@functools.cache
-def _sorted_draws() -> np.ndarray:
-    """The single-series table's standard normal draws (fixed seed), sorted; made once."""
-    return np.sort(np.random.default_rng(OCC_SEED).standard_normal(N_DRAWS))
-
-
-@functools.cache
-def _joint_normals(k: int) -> np.ndarray:
-    """(N_DRAWS, k) standard normal draws for the joint simulation (fixed seed), made once per k."""
-    z = np.random.default_rng(OCC_SEED).standard_normal((N_DRAWS, k))
-    z.setflags(write=False)
-    return z
-
-
-def cov_root(cov: np.ndarray | None, se_map: dict[str, np.ndarray], names: list[str], m: int) -> np.ndarray:
-    """(m, K, K) square roots of the covariances (m, K, K) of the coefficients ``names``, taking a singular
-    one too; without a covariance, independent draws from their standard errors in ``se_map``."""
-    if cov is None:
-        root = np.zeros((m, len(names), len(names)))
-        for i, c in enumerate(names):
-            root[:, i, i] = se_map[c]
-        return root
-    vals, vecs = np.linalg.eigh(0.5 * (cov + np.swapaxes(cov, 1, 2)))
-    return vecs * np.sqrt(np.clip(vals, 0.0, None))[:, None, :]
+    return lerp(pick[0], pick[1], H_LOW - lo_i), lerp(pick[2], pick[3], H_HIGH - hi_i)
 
 
 class _Draws:
@@ -159,7 +114,7 @@ class _Draws:
     def _drawn(self, src: str, sl: slice) -> np.ndarray:
         # b + Σⱼ rootⱼ zⱼ, summed in j's order for each series and draw on its own (einsum's loop, not
         # BLAS, whose blocking would make the last bit depend on how the series are cut into chunks)
-        out = np.einsum("mk,dk->md", self.root[sl, self.names[src], :], _joint_normals(len(self.names)))
+        out = np.einsum("mk,dk->md", self.root[sl, self.names[src], :], joint_normals(len(self.names)))
         out += self.pmap[src][sl, None]
         return out
 
@@ -187,7 +142,7 @@ class _Draws:
             exact = self.of(col, slice(None))
             big = np.abs(exact).max(axis=1, keepdims=True)
             return big, U32 * big
-        z = _joint_normals(len(self.names))
+        z = joint_normals(len(self.names))
         root = self.root[:, self.names[src], :]
         big = (np.abs(self.pmap[src]) + np.abs(root) @ np.abs(z).max(axis=0))[:, None] * (1 + 1e-12)
         return big, 2 * (len(self.names) + 4) * U32 * big
@@ -198,7 +153,7 @@ class _Draws:
         if src is None:
             return self.of(col, sl).astype(np.float32)
         root = self.root[sl, self.names[src], :]
-        out = root.astype(np.float32) @ _joint_normals_single(len(self.names)).T
+        out = root.astype(np.float32) @ joint_normals_single(len(self.names)).T
         out += self.pmap[src][sl].astype(np.float32)[:, None]
         return out
 
@@ -210,15 +165,9 @@ class _Draws:
             return np.broadcast_to(v[s if v.shape[0] > 1 else 0, d if v.shape[1] > 1 else 0], s.shape)
         # einsum's dot product of each pair is the one it makes inside the (series × draws) product
         rows = np.arange(sl.start, sl.stop)[s]
-        out = np.einsum("ck,ck->c", self.root[rows, self.names[src], :], _joint_normals(len(self.names))[d])
+        out = np.einsum("ck,ck->c", self.root[rows, self.names[src], :], joint_normals(len(self.names))[d])
         out += self.pmap[src][rows]
         return out
-
-
-@functools.cache
-def _joint_normals_single(k: int) -> np.ndarray:
-    """:func:`_joint_normals` rounded to single precision, made once per k."""
-    return _joint_normals(k).astype(np.float32)
 
 
 def _distinct(flat: dict[str, np.ndarray], cols: list[str], n_pos: int) -> tuple[np.ndarray, np.ndarray]:
@@ -301,7 +250,7 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
     n_g = len(g_first) * (len(names) + 2)
     units = JointUnits({c: flat[c] for c in used}, factor_cols, players, own, f_first, f_which, g_first,
                        g_which, coalitions, k, width, N_DRAWS)
-    lo_i, hi_i = int(np.floor(_H_LOW)), int(np.floor(_H_HIGH))
+    lo_i, hi_i = int(np.floor(H_LOW)), int(np.floor(H_HIGH))
     # the four order statistics from single-precision draws, the few near them recomputed exactly
     # (evcal.effects.screen); in double precision throughout where the screen's bound does not hold
     screened = _SCREEN and m >= _SCREEN_MIN_SERIES
@@ -316,7 +265,7 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
         got = None if err is None else units.screen(draws, used, sl, ms, weight[sl], err[sl], (lo_i, hi_i))
         if got is None:
             beta = {c: draws.of(c, sl) for c in used}
-            lo[sl], hi[sl] = _quantiles(units.sims(units.units(beta, sl, ms), weight[sl]))
+            lo[sl], hi[sl] = quantiles95(units.sims(units.units(beta, sl, ms), weight[sl]))
         else:
             found.append((s0 * k, ms * k, *got))
     if found:
@@ -324,8 +273,8 @@ def _joint_bounds(ctx: SpanContext, group: GroupInfo, og: OccGroup, pick: np.nda
         if picked is None:  # (the bound rules this out) every chunk again in double precision
             return _joint_bounds_double(units, draws, used, m, step, weight)
         (lo0, lo1), (hi0, hi1) = picked
-        lo.reshape(-1)[rows] = _lerp(lo0, lo1, _H_LOW - lo_i)
-        hi.reshape(-1)[rows] = _lerp(hi0, hi1, _H_HIGH - hi_i)
+        lo.reshape(-1)[rows] = lerp(lo0, lo1, H_LOW - lo_i)
+        hi.reshape(-1)[rows] = lerp(hi0, hi1, H_HIGH - hi_i)
     return lo, hi
 
 
@@ -336,7 +285,7 @@ def _joint_bounds_double(units: JointUnits, draws: _Draws, used: list[str], m: i
     for s0 in range(0, m, step):
         sl = slice(s0, min(m, s0 + step))
         beta = {c: draws.of(c, sl) for c in used}
-        lo[sl], hi[sl] = _quantiles(units.sims(units.units(beta, sl, sl.stop - s0), weight[sl]))
+        lo[sl], hi[sl] = quantiles95(units.sims(units.units(beta, sl, sl.stop - s0), weight[sl]))
     return lo, hi
 
 

@@ -161,3 +161,23 @@ def test_cli_refuses_a_target_below_the_actuals_in_one_line(model_dir: Path, tmp
     lines = [ln for ln in res.output.splitlines() if ln.strip()]
     assert len(lines) == 1 and "a negative or zero rest cannot be planned" in lines[0]
     assert "Traceback" not in res.output and not out.exists()
+
+
+def test_report_shows_the_year_side_by_side(model_dir: Path, tmp_path: Path) -> None:
+    # fails on main: the report has no year-to-date part (and reads the actual rows as plan rows)
+    actuals_2024().to_csv(tmp_path / "actuals.csv", index=False)
+    plan_csv, html = tmp_path / "plan.csv", tmp_path / "report.html"
+    run = CliRunner()
+    res = run.invoke(app, ["plan", str(model_dir), "--from", "2024-07-01", "--to", "2024-12-31", "--total",
+                           "14000", "--actuals", str(tmp_path / "actuals.csv"), "--sims", "0", "-o",
+                           str(plan_csv)])
+    assert res.exit_code == 0, res.output
+    res = run.invoke(app, ["report", str(model_dir), "--plan", str(plan_csv), "--out", str(html)])
+    assert res.exit_code == 0, res.output
+    text = html.read_text()
+    assert "The year so far and the rest" in text
+    so_far = f"{actuals_2024()['value'].sum():,.0f}"
+    assert f"2024 so far as sold (6 periods, {so_far} units)" in text
+    assert "14,000 for the year" in text
+    # the plan's own cards count the plan's periods only: six, not twelve
+    assert "over 6 periods" in text

@@ -7,7 +7,7 @@ from pathlib import Path
 import typer
 
 from evcal.cli.console import command
-from evcal.cli.options import Force
+from evcal.cli.options import DateCol, Force, ValueCol
 from evcal.errors import PlanError
 from evcal.outputs import check_output
 
@@ -43,12 +43,21 @@ def plan_cmd(
         "write both plans side by side; calendar B is --compare, or the same calendar."),
     round_units: bool = typer.Option(
         False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
+    actuals: str | None = typer.Option(
+        None, "--actuals",
+        help="Year-to-date re-plan: this year's sales so far, read like a history (--date-col, --value-col); "
+        "--total (or the year's --totals) counts them and the rest is spread over the plan."),
+    date_col: DateCol = "date",
+    value_col: ValueCol = "value",
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
     from evcal.panel.result import is_panel_dir
 
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
+        if actuals:
+            raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is made for a single model; plan "
+                            "each series' model folder on its own")
         if drivers or compare_drivers:
             from evcal.panel import refuse_drivers
 
@@ -62,11 +71,15 @@ def plan_cmd(
     if compare_drivers and not drivers:
         raise PlanError(f"--compare-drivers {compare_drivers}: give scenario A's driver values with "
                         "--drivers too (scenario B is the same file with the change, e.g. a price cut)")
+    if actuals and (compare_cal or compare_drivers):
+        raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is one plan; leave out "
+                        f"{'--compare' if compare_cal else '--compare-drivers'} (or --actuals)")
     kind = "compare" if compare_cal or compare_drivers else "plan"
     if Path(out).suffix.lower() not in (".csv", ".xlsx"):  # refused before any work
         raise PlanError(f"--out {out}: unknown file type; write {kind}.csv or {kind}.xlsx")
     check_output(out, kind, force=force,
-                 inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers, compare_drivers])
+                 inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers, compare_drivers,
+                         actuals])
     from evcal.model import load_model
     from evcal.plan import compare, make_plan
 
@@ -82,7 +95,8 @@ def plan_cmd(
         typer.echo(cmp.summary())
         typer.echo(f"\nwrote {out} (date, plan_a, plan_b, difference; last row: totals)")
         return
-    plan = make_plan(result, start, end, calendar=calendar, drivers=drivers, **options)
+    plan = make_plan(result, start, end, calendar=calendar, drivers=drivers, actuals=actuals,
+                     date_col=date_col, value_col=value_col, **options)
     plan.save(out)
     typer.echo(plan.summary())
     typer.echo(f"\nwrote {out} ({len(plan.table)} periods)")

@@ -32,6 +32,7 @@ from evcal.effects.decompose import decompose_block
 from evcal.errors import PlanError
 from evcal.model.identify import ColumnStatus
 from evcal.model.leap import leap_year_notes
+from evcal.plan.actuals import check_rest, with_year_to_date, year_to_date
 from evcal.plan.future import future_changes, history_last_day
 from evcal.plan.horizon import full_years, horizon_periods, period_dates, period_years
 from evcal.plan.result import Plan
@@ -55,6 +56,9 @@ def make_plan(
     seed: int = 0,
     drivers: Any = None,
     whole_units: bool = False,
+    actuals: Any = None,
+    date_col: str = "date",
+    value_col: str = "value",
 ) -> Plan:
     """Plan the periods from ``start`` to ``end``.
 
@@ -89,6 +93,14 @@ def make_plan(
         Whole-unit plan (``plan --round``): integers that add up exactly to the target, or
         without one to the model's total rounded, by largest remainder (Hamilton's method);
         ``low`` floored and ``high`` ceiled (:func:`evcal.plan.spread.whole_unit_plan`).
+    actuals : path or DataFrame, optional
+        A year-to-date re-plan (``plan --actuals``): the sales of the plan's year before ``start``, read
+        like a history (``date_col``, ``value_col``). They count towards ``total`` (or the year's
+        ``totals``): the plan's periods are spread to the target less the actuals. Left out, the
+        model's own history is the actuals when it holds every period of the plan's year before
+        ``start`` (:mod:`evcal.plan.actuals`). ``Plan.actuals`` holds them.
+    date_col, value_col : str
+        The columns of the ``actuals`` file.
 
     Returns
     -------
@@ -113,10 +125,13 @@ def make_plan(
     target_total = check_total(total) if total is not None else None
     year_totals = read_totals(totals) if totals is not None else None
     periods = horizon_periods(result, start, end)
+    ytd = year_to_date(result, periods, actuals, date_col, value_col)
+    rest_total, rest_totals = check_rest(ytd, target_total, year_totals)
     if drivers is not None:
         result = with_driver_values(result, drivers)
-    plan = plan_periods(result, periods, calendar=calendar, total=target_total, totals=year_totals,
+    plan = plan_periods(result, periods, calendar=calendar, total=rest_total, totals=rest_totals,
                         new_events=new_events, n_sims=n_sims, seed=seed)
+    plan = with_year_to_date(plan, ytd, target_total)
     return whole_unit_plan(plan, by_year=year_totals is not None) if whole_units else plan
 
 

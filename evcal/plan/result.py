@@ -92,12 +92,14 @@ class Plan:
         Text cells are formula-safe (:mod:`evcal.formula_safe`). The workbook
         adds the model's lifts, seasonal index and past occurrences.
         """
+        from evcal.plan.actuals import plan_file_frame
         from evcal.plan.workbook import write_workbook
 
         path = output_path(path, "plan")
         if path.suffix.lower() == ".csv":
             with atomic_path(path) as tmp:
-                write_csv(self.table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+                write_csv(plan_file_frame(self), tmp, index=False, date_format="%Y-%m-%d",
+                          float_format="%.6f")
             return path
         empty = pd.DataFrame()
         lifts, profile, occurrences = [getattr(self.result, name, empty)

@@ -241,20 +241,29 @@ def whole_unit_plan(plan: Any, by_year: bool) -> Any:
 
     ``by_year``: each year's periods add up to that year's target (``totals``);
     otherwise the whole horizon adds up to ``target_total``, or without a
-    target to the model's plan total rounded to a whole number.
+    target to the model's plan total rounded to a whole number. With year-to-date
+    actuals (``plan.actuals``) the targets count them, so the plan's periods add up
+    to the target less the actuals, rounded to a whole unit.
     """
+    from evcal.plan.actuals import actual_by_year
+
+    done = actual_by_year(plan)
     years = period_years(plan.periods, plan.label)
     notes = list(plan.notes)
     if by_year and plan.target:
-        groups, goals = years, {y: whole_number(t) for y, t in plan.target.items()}
-        shown = {y: t for y, t in plan.target.items() if t != goals[y]}
+        groups, goals = years, {y: whole_number(t - done.get(y, 0.0)) for y, t in plan.target.items()}
+        shown = {y: t for y, t in plan.target.items() if t != whole_number(t)}
     else:
         groups = np.zeros(len(years), dtype=int)
-        goals = None if plan.target_total is None else {0: whole_number(plan.target_total)}
-        shown = {} if goals is None or plan.target_total == goals[0] else {"the horizon": plan.target_total}
+        rest = None if plan.target_total is None else plan.target_total - sum(done.values())
+        goals = None if rest is None else {0: whole_number(rest)}
+        shown = {} if goals is None or plan.target_total == whole_number(plan.target_total) \
+            else {"the horizon": plan.target_total}
     table = round_table(plan.table, groups, goals)
     goal = "each year's target" if by_year and goals else "the target" if goals \
         else "the model's total rounded to a whole unit"
+    if done and goals:
+        goal += " less the actuals so far"
     notes.append(f"whole units: every period is a whole number, apportioned by largest remainder (Hamilton's "
                  f"method) so the plan adds up exactly to {goal}; no period moves by more than one unit; "
                  "low is rounded down and high up, so the band does not narrow")
@@ -262,6 +271,8 @@ def whole_unit_plan(plan: Any, by_year: bool) -> Any:
         notes.append("whole units: the target " + ", ".join(f"{t:,.2f} ({y})" for y, t in shown.items())
                      + " is not a whole number; the plan adds up to it rounded to the nearest unit")
     plan_col = table["plan"].to_numpy()
-    target = None if plan.target is None else {y: float(plan_col[years == y].sum()) for y in plan.target}
-    total = None if plan.target_total is None else float(whole_number(plan.target_total))
+    target = None if plan.target is None else \
+        {y: float(plan_col[years == y].sum()) + done.get(y, 0.0) for y in plan.target}
+    total = None if plan.target_total is None else float(goals[0]) + sum(done.values()) if not by_year \
+        else plan.target_total
     return replace(plan, table=table, target=target, target_total=total, notes=notes, whole_units=True)

@@ -18,6 +18,7 @@ import pandas as pd
 from evcal.amounts import amount
 from evcal.design.seasonal import base_freq, season_position
 from evcal.model.weekday_share import average_share_basis, spread_weekday_share
+from evcal.plan.actuals import actual_by_year, year_table
 
 
 def period_name(period: pd.Period, date: pd.Timestamp, label: str) -> str:
@@ -77,7 +78,10 @@ def plan_summary(plan: Any, top: int = 3) -> str:
     lines: list[str] = []
     span = names[0] if len(names) == 1 else f"{names[0]} to {names[-1]}"
     lines.append(f"Plan {span} ({len(t)} periods): total {_num(total)} units.")
-    if plan.target_total is not None:
+    done = actual_by_year(plan)
+    if done:
+        lines += _year_to_date_lines(plan, done)
+    elif plan.target_total is not None:
         model = sum(plan.model_totals.values())
         lines.append(f"Spread to the target {_num(plan.target_total)}, shape kept: the model alone "
                      f"planned {_num(model)} (every period scaled by {plan.target_total / model:.4f}).")
@@ -133,12 +137,42 @@ def _change_lines(plan: Any) -> list[str]:
         return []
     base_total = float(last["total"])
     out = []
+    done = actual_by_year(plan)
     for y in sorted(plan.full_years):
-        amount = plan.target[y] if plan.target is not None else plan.model_totals[y]
+        amount = plan.target[y] if plan.target is not None else plan.model_totals[y] + done.get(y, 0.0)
         what = "target" if plan.target is not None else "plan"
         out.append(f"The {y} {what} {_num(amount)} is {_pct(100.0 * (amount / base_total - 1.0))} on "
                    f"{last['year']} ({_num(base_total)}), the last full year of history.")
     if not plan.full_years:
         out.append("The horizon holds no full year, so no change against the last full year of "
                    f"history ({last['year']}, {_num(base_total)}) is given.")
+    return out
+
+
+def _year_to_date_lines(plan: Any, done: dict[int, float]) -> list[str]:
+    """The re-plan's lines: actuals so far + the plan = the year, and the year side by side by month."""
+    actual = sum(done.values())
+    planned = float(plan.table["plan"].sum())
+    model = sum(plan.model_totals.values())
+    year = min(done)
+    dates = pd.DatetimeIndex(plan.actuals["date"])
+    so_far = (f"{_num(actual)} actual so far ({len(dates)} periods, {dates[0].date()} to {dates[-1].date()})")
+    if plan.target_total is not None or plan.target is not None:
+        goal = plan.target_total if plan.target_total is not None else plan.target[year]
+        factor = planned / model if model else float("nan")
+        out = [f"Year to date: the target {_num(goal)} = {so_far} + {_num(planned)} planned for the rest, "
+               f"spread with the shape kept (the model alone planned {_num(model)} for the rest; every "
+               f"period scaled by {factor:.4f}).",
+               f"The actuals plus the model's own plan would make {_num(actual + model)}, "
+               f"{_pct(100.0 * ((actual + model) / goal - 1.0))} against the target."]
+    else:
+        out = [f"Year to date: {so_far} + {_num(planned)} planned = {_num(actual + planned)} "
+               "(no target given)."]
+    side = year_table(plan)
+    month = pd.DatetimeIndex(side["date"]).to_period("M")
+    by_month = side.groupby(month)[["actual", "plan"]].sum(min_count=1)
+    out.append(f"{year} side by side, by month of the period's date (actual | plan):")
+    for m, row in by_month.iterrows():
+        cells = [f"{_num(row[c])} {c}" for c in ("actual", "plan") if np.isfinite(row[c])]
+        out.append(f"  {m}: " + " + ".join(cells))
     return out

@@ -22,6 +22,7 @@ import pandas as pd
 
 from evcal.errors import ModelError
 from evcal.formula_safe import unguard_frame
+from evcal.plan.actuals import split_plan_file
 from evcal.plan.spread import DRIVER_PREFIX  # the plan's driver columns, as evcal.plan writes them
 
 PLAN_COLUMNS = ("date", "base", "plan", "low", "high")
@@ -163,7 +164,10 @@ def read_plan_csv(path: str | Path) -> pd.DataFrame:
     if problems:
         raise ModelError(problems)
     plan = unguard_frame(plan)  # the plan writer quotes text that a spreadsheet would run as a formula
-    return plan.sort_values("date").reset_index(drop=True)
+    plan, actuals = split_plan_file(plan)  # a year-to-date re-plan's actual rows: kept apart, in attrs
+    plan = plan.sort_values("date").reset_index(drop=True)
+    plan.attrs["actuals"] = actuals
+    return plan
 
 
 def read_backtest_csv(path: str | Path) -> pd.DataFrame:

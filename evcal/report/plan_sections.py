@@ -133,6 +133,7 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
     if has_assump:
         headers.append("assumptions")
     return {
+        "year": year_section(plan, ctx.freq),
         "figure": charts.figure(fig, "Plan: base with stacked event contributions and interval"),
         "shares": table(["part of the plan", "units", "share of total", ""], share_rows, numeric=(1, 2)),
         "moved": moved,
@@ -142,6 +143,37 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
                      "units": num(plan[f"lift:{e}"].fillna(0).sum(), sign=True),
                      "first": period_label(plan["date"][plan[f"lift:{e}"].fillna(0) != 0].iloc[0], ctx.freq)}
                     for e in events if e in notes and plan[f"lift:{e}"].fillna(0).ne(0).any()],
+    }
+
+
+def year_section(plan: pd.DataFrame, freq: str) -> dict[str, Any] | None:
+    """A year-to-date re-plan's year side by side: a chart (actuals a line, the plan beside) and a table."""
+    actuals = plan.attrs.get("actuals")
+    if actuals is None or len(actuals) == 0:
+        return None
+    done, planned = float(actuals["actual"].sum()), float(plan["plan"].sum())
+    fig, ax = charts._figure(3.2)
+    ax.plot(actuals["date"], actuals["actual"], color=charts.pal.INK, linewidth=1.6, marker="o",
+            markersize=2.5, label="actual so far")
+    ax.fill_between(plan["date"], plan["low"], plan["high"], color=charts.pal.BAND, alpha=0.35, linewidth=0,
+                    label="low–high interval")
+    ax.plot(plan["date"], plan["plan"], color=charts.pal.FITTED, linewidth=1.6, linestyle=(0, (4, 2)),
+            label="plan for the rest")
+    charts._date_axis(ax)
+    charts._legend(ax)
+    rows = [[period_label(r["date"], freq), f"{r['date']:%Y-%m-%d}", num(r["actual"]), "", "", ""]
+            for _, r in actuals.iterrows()]
+    rows += [[period_label(r["date"], freq), f"{r['date']:%Y-%m-%d}", "", num(r["plan"]), num(r["low"]),
+              num(r["high"])] for _, r in plan.iterrows()]
+    rows.append(["year", "", num(done), num(planned), "", ""])
+    first = pd.Timestamp(actuals["date"].iloc[0])
+    return {
+        "text": f"{first.year} so far as sold ({len(actuals)} periods, {num(done)} units) and the rest as "
+        f"planned ({len(plan)} periods, {num(planned)} units): {num(done + planned)} for the year. A target "
+        "given to the plan counts the actuals, so only the rest was spread over the plan's periods.",
+        "figure": charts.figure(fig, f"{first.year}: actual sales so far as a line, the plan for the rest "
+                                "beside it with its interval"),
+        "table": table(["period", "date", "actual", "plan", "low", "high"], rows, numeric=(2, 3, 4, 5)),
     }
 
 

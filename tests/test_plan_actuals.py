@@ -1,0 +1,183 @@
+"""Year-to-date re-planning (issue 18 item 4): actuals so far plus the rest of the year meet the target.
+
+``make_plan(..., actuals=...)`` and ``evcal plan ... --actuals FILE`` count the sales of the plan's year
+before the plan towards ``--total`` and spread only the rest over the plan, shape kept. Without
+``--actuals`` a history that runs into the plan's year up to the plan is its own actuals. Histories here
+are invented (tests/test_plan.py's made-up monthly shop), so the model's own plan is the reference the
+re-plan's shape must keep.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from test_plan import EASTER_CAL, monthly_history
+from typer.testing import CliRunner
+
+import evcal
+from evcal.cli import app
+from evcal.errors import PlanError
+from evcal.plan import make_plan
+
+TARGET = 14_000.0
+
+
+@pytest.fixture(scope="module")
+def fit_2023() -> evcal.FitResult:
+    """Invented monthly shop, history 2016-01 to 2023-12 (ends before the actuals)."""
+    return evcal.fit(monthly_history(), EASTER_CAL, errors="ols")
+
+
+@pytest.fixture(scope="module")
+def fit_mid_2024() -> evcal.FitResult:
+    """The same invented shop with its history running into 2024, to June."""
+    return evcal.fit(monthly_history(end="2024-06"), EASTER_CAL, errors="ols")
+
+
+def actuals_2024(end: str = "2024-06", start: str = "2024-01") -> pd.DataFrame:
+    """Invented sales of 2024 so far (month-end dates), whole units."""
+    frame = monthly_history(start, end, seed=7)
+    return frame.assign(value=frame["value"].round())
+
+
+def test_rest_of_year_is_spread_so_actuals_plus_plan_meet_the_target(fit_2023: evcal.FitResult) -> None:
+    # fails on main: make_plan() got an unexpected keyword argument 'actuals'
+    act = actuals_2024()
+    plan = make_plan(fit_2023, "2024-07-01", "2024-12-31", total=TARGET, actuals=act, n_sims=0)
+    model = make_plan(fit_2023, "2024-07-01", "2024-12-31", n_sims=0)
+    so_far = act["value"].sum()
+    assert plan.actuals is not None and len(plan.actuals) == 6
+    assert plan.actuals["actual"].tolist() == act["value"].tolist()
+    assert so_far + plan.total == pytest.approx(TARGET, rel=1e-12)
+    # shape kept: every period the model's own plan times one factor, (target - actuals) / model total
+    factor = (TARGET - so_far) / model.total
+    np.testing.assert_allclose(plan.table["plan"], model.table["plan"] * factor, rtol=1e-12)
+    assert plan.target == {2024: pytest.approx(TARGET)} and plan.target_total == TARGET
+    text = plan.summary()
+    assert "Year to date: the target 14,000" in text and "2024-01: " in text and "2024-12: " in text
+
+
+def test_history_running_into_the_year_is_its_own_actuals(fit_mid_2024: evcal.FitResult) -> None:
+    # fails on main: the plan sums to the target alone (14,000 over Jul-Dec; no actuals counted)
+    plan = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", total=TARGET, n_sims=0)
+    hist = monthly_history(end="2024-06")
+    so_far = hist["value"].iloc[-6:].sum()
+    assert plan.actuals is not None
+    np.testing.assert_allclose(plan.actuals["actual"], hist["value"].iloc[-6:], rtol=1e-12)
+    assert so_far + plan.total == pytest.approx(TARGET, rel=1e-12)
+
+
+def test_without_a_target_the_actuals_are_shown_and_the_plan_is_the_models(
+        fit_mid_2024: evcal.FitResult) -> None:
+    with_ytd = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", n_sims=0)
+    assert with_ytd.actuals is not None and with_ytd.target is None
+    # the plan itself is the model's: the same figures as a plan of the same periods in a later year's form
+    assert with_ytd.total == pytest.approx(sum(with_ytd.model_totals.values()), rel=1e-12)
+
+
+def test_whole_units_meet_the_target_less_the_actuals(fit_2023: evcal.FitResult) -> None:
+    act = actuals_2024()
+    plan = make_plan(fit_2023, "2024-07-01", "2024-12-31", total=TARGET, actuals=act, n_sims=0,
+                     whole_units=True)
+    assert pd.api.types.is_integer_dtype(plan.table["plan"])
+    assert int(plan.table["plan"].sum()) + int(act["value"].sum()) == int(TARGET)
+
+
+@settings(max_examples=15, deadline=None)
+@given(months_done=st.integers(1, 11), target=st.floats(8_000, 40_000))
+def test_actuals_plus_plan_always_meet_the_target(fit_2023: evcal.FitResult, months_done: int,
+                                                  target: float) -> None:
+    act = actuals_2024(end=f"2024-{months_done:02d}")
+    plan = make_plan(fit_2023, f"2024-{months_done + 1:02d}-01", "2024-12-31", total=target, actuals=act,
+                     n_sims=0)
+    assert len(plan.actuals) == months_done and len(plan.table) == 12 - months_done
+    assert plan.actuals["actual"].sum() + plan.total == pytest.approx(target, rel=1e-10)
+    assert (plan.table["plan"] > 0).all()
+
+
+# ------------------------------------------------------------------ bad input: one line each
+
+
+@pytest.mark.parametrize("actuals, start, total, words", [
+    (actuals_2024(end="2024-07"), "2024-07-01", TARGET, "falls inside the plan"),
+    (monthly_history("2023-01", "2023-06", seed=7), "2024-07-01", TARGET, "no period of 2024"),
+    (actuals_2024(), "2024-07-01", 3_000.0, "is not above the"),
+    (actuals_2024(start="2024-03"), "2024-07-01", TARGET, "no actual for 2 period(s) of 2024"),
+    (actuals_2024(end="2024-05"), "2024-07-01", TARGET, "no actual for 1 period(s) of 2024 before the plan"),
+    (actuals_2024(), "2025-01-01", TARGET, "starts with the first period of 2025"),
+])
+def test_bad_actuals_are_one_line(fit_2023: evcal.FitResult, actuals: pd.DataFrame, start: str,
+                                  total: float, words: str) -> None:
+    with pytest.raises(PlanError) as err:
+        make_plan(fit_2023, start, "2025-12-31" if start.startswith("2025") else "2024-12-31", total=total,
+                  actuals=actuals, n_sims=0)
+    assert len(err.value.problems) == 1 and words in err.value.problems[0], err.value.problems
+
+
+def test_a_history_file_as_actuals_uses_only_the_plans_year(fit_2023: evcal.FitResult) -> None:
+    both = pd.concat([monthly_history("2023-01", "2023-12", seed=9), actuals_2024()], ignore_index=True)
+    plan = make_plan(fit_2023, "2024-07-01", "2024-12-31", total=TARGET, actuals=both, n_sims=0)
+    assert len(plan.actuals) == 6 and any("12 period(s) before 2024 left out" in n for n in plan.notes)
+
+
+# ------------------------------------------------------------------ the command line
+
+
+@pytest.fixture(scope="module")
+def model_dir(fit_2023: evcal.FitResult, tmp_path_factory: pytest.TempPathFactory) -> Path:
+    out = tmp_path_factory.mktemp("ytd") / "model"
+    fit_2023.save(out)
+    return out
+
+
+def test_cli_writes_the_year_side_by_side(model_dir: Path, tmp_path: Path) -> None:
+    act = actuals_2024().rename(columns={"date": "month", "value": "units"})
+    act.to_csv(tmp_path / "actuals.csv", index=False)
+    out = tmp_path / "plan.csv"
+    res = CliRunner().invoke(app, ["plan", str(model_dir), "--from", "2024-07-01", "--to", "2024-12-31",
+                                   "--total", "14000", "--actuals", str(tmp_path / "actuals.csv"),
+                                   "--date-col", "month", "--value-col", "units", "--sims", "0",
+                                   "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    written = pd.read_csv(out)
+    assert list(written.columns[:4]) == ["date", "actual", "base", "plan"]
+    assert written["actual"].notna().sum() == 6 and written["plan"].notna().sum() == 6
+    assert written["actual"].sum() + written["plan"].sum() == pytest.approx(TARGET, rel=1e-6)
+    assert "Year to date: the target 14,000" in res.output
+
+
+def test_cli_refuses_a_target_below_the_actuals_in_one_line(model_dir: Path, tmp_path: Path) -> None:
+    actuals_2024().to_csv(tmp_path / "actuals.csv", index=False)
+    out = tmp_path / "plan.csv"
+    res = CliRunner().invoke(app, ["plan", str(model_dir), "--from", "2024-07-01", "--to", "2024-12-31",
+                                   "--total", "2000", "--actuals", str(tmp_path / "actuals.csv"),
+                                   "--sims", "0", "-o", str(out)])
+    assert res.exit_code == 2
+    lines = [ln for ln in res.output.splitlines() if ln.strip()]
+    assert len(lines) == 1 and "a negative or zero rest cannot be planned" in lines[0]
+    assert "Traceback" not in res.output and not out.exists()
+
+
+def test_report_shows_the_year_side_by_side(model_dir: Path, tmp_path: Path) -> None:
+    # fails on main: the report has no year-to-date part (and reads the actual rows as plan rows)
+    actuals_2024().to_csv(tmp_path / "actuals.csv", index=False)
+    plan_csv, html = tmp_path / "plan.csv", tmp_path / "report.html"
+    run = CliRunner()
+    res = run.invoke(app, ["plan", str(model_dir), "--from", "2024-07-01", "--to", "2024-12-31", "--total",
+                           "14000", "--actuals", str(tmp_path / "actuals.csv"), "--sims", "0", "-o",
+                           str(plan_csv)])
+    assert res.exit_code == 0, res.output
+    res = run.invoke(app, ["report", str(model_dir), "--plan", str(plan_csv), "--out", str(html)])
+    assert res.exit_code == 0, res.output
+    text = html.read_text()
+    assert "The year so far and the rest" in text
+    so_far = f"{actuals_2024()['value'].sum():,.0f}"
+    assert f"2024 so far as sold (6 periods, {so_far} units)" in text
+    assert "14,000 for the year" in text
+    # the plan's own cards count the plan's periods only: six, not twelve
+    assert "over 6 periods" in text

@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from test_plan import EASTER_CAL, monthly_history
 from typer.testing import CliRunner
@@ -62,22 +62,25 @@ def test_rest_of_year_is_spread_so_actuals_plus_plan_meet_the_target(fit_2023: e
     assert "Year to date: the target 14,000" in text and "2024-01: " in text and "2024-12: " in text
 
 
-def test_history_running_into_the_year_is_its_own_actuals(fit_mid_2024: evcal.FitResult) -> None:
-    # fails on main: the plan sums to the target alone (14,000 over Jul-Dec; no actuals counted)
-    plan = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", total=TARGET, n_sims=0)
+def test_history_running_into_the_year_counts_only_when_asked(fit_mid_2024: evcal.FitResult,
+                                                            tmp_path: Path) -> None:
+    # a plan starting right after a history that runs into its year: --total stays the target of the
+    # plan's periods (as documented) and a note names the history's periods of the year and --actuals
+    plain = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", total=TARGET, n_sims=0)
+    assert plain.actuals is None and plain.total == pytest.approx(TARGET, rel=1e-12)
+    assert any("holds 6 period(s) of 2024 before the plan" in n and "--actuals" in n for n in plain.notes)
+    # the history file itself as --actuals: the year so far counts towards the target
     hist = monthly_history(end="2024-06")
+    path = tmp_path / "history.csv"
+    hist.to_csv(path, index=False)
+    plan = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", total=TARGET, actuals=path, n_sims=0)
     so_far = hist["value"].iloc[-6:].sum()
     assert plan.actuals is not None
     np.testing.assert_allclose(plan.actuals["actual"], hist["value"].iloc[-6:], rtol=1e-12)
     assert so_far + plan.total == pytest.approx(TARGET, rel=1e-12)
-
-
-def test_without_a_target_the_actuals_are_shown_and_the_plan_is_the_models(
-        fit_mid_2024: evcal.FitResult) -> None:
-    with_ytd = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", n_sims=0)
-    assert with_ytd.actuals is not None and with_ytd.target is None
-    # the plan itself is the model's: the same figures as a plan of the same periods in a later year's form
-    assert with_ytd.total == pytest.approx(sum(with_ytd.model_totals.values()), rel=1e-12)
+    # without a target the plan is the model's own
+    alone = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", n_sims=0)
+    assert alone.actuals is None and alone.total == pytest.approx(sum(alone.model_totals.values()), rel=1e-12)
 
 
 def test_whole_units_meet_the_target_less_the_actuals(fit_2023: evcal.FitResult) -> None:
@@ -93,6 +96,7 @@ def test_whole_units_meet_the_target_less_the_actuals(fit_2023: evcal.FitResult)
 def test_actuals_plus_plan_always_meet_the_target(fit_2023: evcal.FitResult, months_done: int,
                                                   target: float) -> None:
     act = actuals_2024(end=f"2024-{months_done:02d}")
+    assume(target > act["value"].sum() * 1.001)  # a target not above the actuals is refused (tested below)
     plan = make_plan(fit_2023, f"2024-{months_done + 1:02d}-01", "2024-12-31", total=target, actuals=act,
                      n_sims=0)
     assert len(plan.actuals) == months_done and len(plan.table) == 12 - months_done

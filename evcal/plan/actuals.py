@@ -10,9 +10,9 @@ label; its actuals are every period of that year before the plan starts, each pr
   rows before the plan's year are left out (a whole history file may be given), rows inside or after
   the plan are refused, and periods the file lacks are taken from the model's own history when it has
   them;
-* without ``--actuals``, from the model's own history (``fitted.csv``'s ``actual``) when it holds
-  every period of the plan's year before the plan (a plan starting right after a history that runs
-  into its last year). A history that holds only some of them gives no actuals and a note.
+* never without ``--actuals``: a target is then the plan's periods' alone, as ``--total`` says. A
+  history that runs into the plan's year gives a note naming its periods of that year and the way to
+  count them (``--actuals`` with the history file itself).
 
 The actuals are counted, not learned from: the model's base stays as fitted.
 """
@@ -115,22 +115,17 @@ def year_to_date(result: Any, periods: pd.PeriodIndex, actuals: Any = None, date
     year, need = year_periods_before(periods[0], label)
     history = _history_actuals(result)
     if actuals is None:
-        if len(need) == 0:
-            return YearToDate(year, None)
         have = history.reindex(need)
-        if have.notna().all():
-            return YearToDate(year, _frame(have, label), "the model's history",
-                              [f"year to date: {year}'s {len(need)} period(s) before the plan "
-                               f"({_when(need[0], label)} to {_when(need[-1], label)}) are the model's own "
-                               "history; they count as actuals towards the year"])
-        if have.notna().any():
-            gap = need[have.isna()]
-            return YearToDate(year, None, notes=[
-                f"the history holds part of {year} but not {_when(gap[0], label)} to "
-                f"{_when(gap[-1], label)}, "
-                f"so no actuals are counted: the plan and any target cover the plan's periods alone; give "
-                f"--actuals with {year}'s sales so far to plan the rest of the year against its target"])
-        return YearToDate(year, None)
+        if len(need) == 0 or have.isna().all():
+            return YearToDate(year, None)
+        # the history's own periods of the year are not counted unless asked: --total stays the target of
+        # the plan's periods, as documented; a full-year target needs --actuals (the history file will do)
+        held = need[have.notna().to_numpy()]
+        return YearToDate(year, None, notes=[
+            f"the history holds {len(held)} period(s) of {year} before the plan ({_when(held[0], label)} to "
+            f"{_when(held[-1], label)}, {amount(float(have.sum()))} in all), not counted: any target covers "
+            f"the plan's periods alone; to plan the rest of {year} against a full-year target, give "
+            "--actuals (the history file itself will do)"])
     name = "<frame>" if isinstance(actuals, pd.DataFrame) else str(actuals)
     if len(need) == 0:
         raise PlanError(f"--actuals {name}: the plan starts with the first period of {year} "

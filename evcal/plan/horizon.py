@@ -86,7 +86,8 @@ def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
     if first <= hist_end:
         raise PlanError(
             f"--from {first_day.date()}: the plan must start after the history, which ends with "
-            f"period {hist_end}; start on or after {(hist_end + 1).start_time.date()}")
+            f"period {hist_end}; start on or after {(hist_end + 1).start_time.date()} (to re-plan the rest "
+            "of a year against its target, start there and give the sales so far with --actuals)")
     if last < first:
         raise PlanError(
             f"--to {last_day.date()} is before --from {first_day.date()}; the horizon must end on or "

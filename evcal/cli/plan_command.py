@@ -45,6 +45,9 @@ def plan_cmd(
         "write both plans side by side; calendar B is --compare, or the same calendar."),
     round_units: bool = typer.Option(
         False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
+    week_labels: str | None = typer.Option(
+        None, "--week-labels", help="iso: add an ISO week column (2027-W05) after date; weekly plans with "
+        "weeks ending Sunday."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
@@ -53,6 +56,9 @@ def plan_cmd(
     kind = "compare" if compare_cal or compare_drivers else "plan"
     path = talk.table_path(out, f"{kind}.csv")  # out, or the file printed on stdout for --out -
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
+        if week_labels:
+            raise PlanError("--week-labels: panel plans are written without week labels for now; leave out "
+                            "--week-labels (each row's date is the week's Sunday)")
         if drivers or compare_drivers:
             from evcal.panel import refuse_drivers
 
@@ -75,12 +81,18 @@ def plan_cmd(
 
     with talk.stage(f"plan: reading the model {model_dir}"):
         result = load_model(model_dir)
+    if week_labels:
+        from evcal.io.weeklabels import check_week_labels, with_week_labels
+
+        check_week_labels(result.freq, week_labels)  # refused before the simulations run
     options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed,
                "whole_units": round_units}
     if compare_cal or compare_drivers:
         with talk.stage("plan: planning both" + (f" ({sims} simulations each)" if sims else "")):
             cmp = compare(result, start, end, compare_cal, calendar_a=calendar, drivers_a=drivers,
                           drivers_b=compare_drivers, **options)
+        if week_labels:
+            cmp.table = with_week_labels(cmp.table, result.freq, week_labels)
         cmp.save(path)
         talk.say(cmp.plan_a.summary())
         talk.say("")
@@ -89,6 +101,8 @@ def plan_cmd(
         return
     with talk.stage("plan: planning" + (f" ({sims} simulations for low/high)" if sims else "")):
         plan = make_plan(result, start, end, calendar=calendar, drivers=drivers, **options)
+    if week_labels:
+        plan.table = with_week_labels(plan.table, result.freq, week_labels)
     plan.save(path)
     talk.say(plan.summary())
     talk.say(f"\nwrote {talk.named(out)} ({len(plan.table)} periods)")

@@ -6,9 +6,8 @@ and a step can be used without importing the ones after it.
 
 from __future__ import annotations
 
+import functools
 from typing import Any
-
-__version__ = "0.1.0"
 
 # name -> "module:attribute"; filled in as each step lands.
 _EXPORTS: dict[str, str] = {
@@ -23,7 +22,27 @@ _EXPORTS: dict[str, str] = {
 }
 
 
+@functools.cache
+def installed_version() -> str:
+    """The version of the installed package (its metadata: one source, pyproject.toml's ``version``).
+
+    Examples
+    --------
+    >>> import importlib.metadata
+    >>> installed_version() == importlib.metadata.version("evcal")
+    True
+    """
+    import importlib.metadata
+
+    try:
+        return importlib.metadata.version("evcal")
+    except importlib.metadata.PackageNotFoundError:  # run from a source tree that was never installed
+        return "unknown (not installed)"
+
+
 def __getattr__(name: str) -> Any:
+    if name == "__version__":  # read when asked, so that `import evcal` does not read package metadata
+        return installed_version()
     if name in _EXPORTS:
         import importlib
 
@@ -32,4 +51,4 @@ def __getattr__(name: str) -> Any:
     raise AttributeError(f"module 'evcal' has no attribute {name!r}")
 
 
-__all__ = sorted(_EXPORTS) + ["__version__"]
+__all__ = sorted(_EXPORTS) + ["__version__", "installed_version"]

@@ -7,6 +7,7 @@ from pathlib import Path
 import typer
 
 from evcal._files import atomic_path
+from evcal.cli import talk
 from evcal.cli.console import calendar_app, command
 from evcal.cli.options import Force
 from evcal.errors import CalendarError
@@ -33,14 +34,14 @@ def calendar_check(
     _check_year_range(first, last)
     report = check_calendar(cal, first, last)
     for line in report.lines:
-        typer.echo(line)
+        talk.say(line)
     if report.warnings:
-        typer.echo(f"warnings ({len(report.warnings)}):")
-        for line in report.warnings:
-            typer.echo(f"  - {line}")
+        talk.say(f"warnings ({len(report.warnings)}):")
+        for line in report.warnings:  # under --quiet too: they are the warnings
+            (talk.warn if talk.quiet() else talk.say)(f"  - {line}")
     else:
-        typer.echo("warnings: none")
-    typer.echo("ok: the calendar is valid")
+        talk.say("warnings: none")
+    talk.say("ok: the calendar is valid")
 
 
 @command("dates", calendar_app)
@@ -48,7 +49,8 @@ def calendar_dates(
     file: str = typer.Argument(..., help="Calendar file (YAML)."),
     from_year: int = typer.Option(..., "--from", help="First year (inclusive)."),
     to_year: int = typer.Option(..., "--to", help="Last year (inclusive)."),
-    out: str | None = typer.Option(None, "--out", help="CSV file to write (default: print to stdout)."),
+    out: str | None = typer.Option(
+        None, "--out", "-o", help="CSV file to write; - or left out: print it on stdout."),
     force: Force = False,
 ) -> None:
     """List every occurrence (event, start, end, strength) between two years, as CSV."""
@@ -56,14 +58,15 @@ def calendar_dates(
     from evcal.calendar.summary import auto_run_up_text
     from evcal.formula_safe import formula_safe_frame
 
+    if talk.is_stdout(out):
+        out = None
     if out is not None:
         check_output(out, "dates", inputs=[file], force=force)
     _check_year_range(from_year, to_year)
     cal = load_calendar(Path(file))
     table = cal.occurrences(from_year, to_year)
     for ev in (e for e in cal.events if getattr(e, "before_auto", False)):  # the rows hold no run-up
-        typer.echo(f"note: {ev.name}: before: {auto_run_up_text(ev)}; the rows are the event's own days",
-                   err=True)
+        talk.warn(f"note: {ev.name}: before: {auto_run_up_text(ev)}; the rows are the event's own days")
     table["start"] = table["start"].dt.strftime("%Y-%m-%d")
     table["end"] = table["end"].dt.strftime("%Y-%m-%d")
     text = formula_safe_frame(table).to_csv(index=False, float_format="%g", lineterminator="\n")
@@ -72,7 +75,8 @@ def calendar_dates(
         return
     with atomic_path(out) as tmp:
         tmp.write_text(text, encoding="utf-8")
-    typer.echo(f"{len(table)} occurrences written to {out}", err=True)
+    if not talk.quiet():
+        typer.echo(f"{len(table)} occurrences written to {out}", err=True)
 
 
 def _check_year_range(first: int, last: int) -> None:

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import typer
 
+from evcal.cli import talk
 from evcal.cli.console import command
 from evcal.cli.options import (
     AllowNegative,
@@ -66,6 +67,7 @@ def fit_cmd(
     force: Force = False,
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
+    talk.refuse_stdout(out, "a model folder", "model")
     panel = bool(series_col or level or group_col or workers or scheduler)
     if panel and driver:
         from evcal.panel import refuse_drivers
@@ -82,21 +84,23 @@ def fit_cmd(
         result = fit_panel(history, calendar, series_col, level=level, group_col=group_col, workers=workers,
                            scheduler=scheduler, out=out, date_col=date_col, value_col=value_col, freq=freq,
                            **options)
-        typer.echo(result.summary())
-        typer.echo(f"\nwrote {out}/ (panel.json, series.csv, lifts.csv, pooling.csv, occurrences.csv, "
+        talk.say(result.summary())
+        talk.say(f"\nwrote {out}/ (panel.json, series.csv, lifts.csv, pooling.csv, occurrences.csv, "
                    "profile.csv, fitted.parquet, coefficients.parquet, skipped.csv)")
         return
     from evcal.engine import fit
     from evcal.model.summary import describe
 
-    result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq, drivers=driver,
-                 **options)
-    result.save(out)
-    typer.echo(describe(result))
+    with talk.stage("fit: reading the history and fitting the model"):
+        result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq, drivers=driver,
+                     **options)
+    with talk.stage(f"fit: writing {out}"):
+        result.save(out)
+    talk.say(describe(result))
     files = "model.json, lifts.csv, occurrences.csv, profile.csv, fitted.csv"
     if result.spec.drivers:
         files += ", drivers.csv"
-    typer.echo(f"\nwrote {out}/ ({files})")
+    talk.say(f"\nwrote {out}/ ({files})")
 
 
 @command("show")
@@ -109,6 +113,7 @@ def show_cmd(
     from evcal.model.summary import describe
     from evcal.panel import is_panel_dir, load_panel
 
+    # the summary is what `show` is for: printed under --quiet too, like a table on stdout
     if not is_panel_dir(model_dir):
         typer.echo(describe(load_model(model_dir)))
     elif series is None:

@@ -18,6 +18,7 @@ from typing import Any, TypeVar
 
 import click
 import typer
+import typer.core
 
 from evcal.errors import EvcalError, clip
 
@@ -25,14 +26,57 @@ __all__ = ["app", "calendar_app", "command", "guarded", "last_resort_line", "mai
 
 F = TypeVar("F", bound=Callable[..., Any])
 
+#: ``-h`` as well as ``--help`` on every command (click hands a group's context settings to its commands)
+HELP_OPTIONS = {"help_option_names": ["-h", "--help"]}
+
+
+def _plain_switches(params: list[Any]) -> None:
+    """Show an on/off switch without a value in the help (the rich help would print ``<bool>`` beside
+    ``--round``, as if it took one); a repeatable option as its one value, repeated."""
+    for param in params:
+        # typer builds its parameters with its own copy of click: known by their kind, not their class
+        if getattr(param, "param_type_name", "") == "option" and param.metavar is None:
+            if param.is_flag:
+                param.metavar = ""
+            elif param.multiple:
+                param.metavar = "<str> ..."
+
+
+class _PlainSwitches:
+    """Help that shows switches as switches (:func:`_plain_switches`), ``--help`` itself too."""
+
+    params: list[Any]
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        _plain_switches(self.params)
+
+    def get_help_option(self, ctx: Any) -> Any:
+        option = super().get_help_option(ctx)  # type: ignore[misc]  # made when the help is asked for
+        if option is not None:
+            _plain_switches([option])
+        return option
+
+
+class _Command(_PlainSwitches, typer.core.TyperCommand):
+    """A command of evcal."""
+
+
+class _Group(_PlainSwitches, typer.core.TyperGroup):
+    """The root and ``calendar`` groups."""
+
+
 app = typer.Typer(
     name="evcal",
     help="Calendar-effect models: event lifts, a clean seasonal base, forward plans.",
     no_args_is_help=True,
     add_completion=False,
     pretty_exceptions_enable=False,
+    context_settings=HELP_OPTIONS,
+    cls=_Group,
 )
-calendar_app = typer.Typer(help="Check an event calendar and list its dates.", no_args_is_help=True)
+calendar_app = typer.Typer(help="Check an event calendar and list its dates.", no_args_is_help=True,
+                           context_settings=HELP_OPTIONS, cls=_Group)
 app.add_typer(calendar_app, name="calendar")
 
 #: set by the global ``--debug`` flag for the command being run
@@ -43,11 +87,32 @@ _INPUT_PARAMS = ("history", "file", "model_dir", "calendar", "plan", "backtest",
 _REPORT = "please report this with the command line and the input files"
 
 
+def _print_version(asked: bool) -> None:
+    if asked:
+        from evcal import installed_version
+
+        typer.echo(f"evcal {installed_version()}")
+        raise typer.Exit()
+
+
 @app.callback()
 def _root(
+    version: bool = typer.Option(
+        False, "--version", "-V", callback=_print_version, is_eager=True,
+        help="Print the installed version of evcal and stop."),
+    quiet: bool = typer.Option(
+        False, "--quiet", "-q", help="Print only errors and warnings (no summaries, no progress)."),
+    verbose: bool = typer.Option(
+        False, "--verbose", "-v", help="Also print each stage on stderr as it starts."),
     debug: bool = typer.Option(
         False, "--debug", help="Show the traceback of an unexpected problem (as EVCAL_DEBUG=1 does)."),
 ) -> None:
+    from evcal.cli import talk
+
+    if quiet and verbose:
+        typer.echo("error: --quiet and --verbose ask for opposite things; give one of them", err=True)
+        raise typer.Exit(code=2)
+    talk.configure(quiet=quiet, verbose=verbose)
     _DEBUG["on"] = debug
 
 
@@ -87,8 +152,13 @@ def guarded(fn: F, name: str = "evcal") -> F:
 
     @functools.wraps(fn)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
+        from evcal.cli import talk
+
+        succeeded = False
         try:
-            return fn(*args, **kwargs)
+            done = fn(*args, **kwargs)
+            succeeded = True
+            return done
         except EvcalError as err:
             for line in err.problems:
                 typer.echo(f"error: {line}", err=True)
@@ -104,6 +174,8 @@ def guarded(fn: F, name: str = "evcal") -> F:
             inputs = [str(kwargs[k]) for k in _INPUT_PARAMS if isinstance(kwargs.get(k), str) and kwargs[k]]
             typer.echo(f"error: {last_resort_line(err, name, inputs)}", err=True)
             raise typer.Exit(code=1) from None
+        finally:
+            talk.finish(succeeded)  # the table of --out - on stdout, only when the command succeeded
 
     return wrapper  # type: ignore[return-value]
 
@@ -118,7 +190,7 @@ def command(name: str, group: typer.Typer = app) -> Callable[[F], F]:
     ...     typer.echo(f"hello {name}")
     """
     prefix = "evcal calendar" if group is calendar_app else "evcal"
-    return lambda fn: group.command(name)(guarded(fn, f"{prefix} {name}"))
+    return lambda fn: group.command(name, cls=_Command)(guarded(fn, f"{prefix} {name}"))
 
 
 def main() -> None:

@@ -7,6 +7,7 @@ from pathlib import Path
 
 import typer
 
+from evcal.cli import talk
 from evcal.cli.console import command
 from evcal.cli.options import (
     AllowNegative,
@@ -39,7 +40,7 @@ __all__ = ["backtest_cmd", "demo_cmd", "discover_cmd"]
 def backtest_cmd(
     history: str | None = typer.Argument(None, help="History file: CSV, Parquet or .xlsx (or --sql)."),
     calendar: str = typer.Option(..., "--calendar", "-c", help="Event calendar (YAML)."),
-    out: str = typer.Option(..., "--out", "-o", help="backtest.csv to write."),
+    out: str = typer.Option(..., "--out", "-o", help="backtest.csv to write; - prints it on stdout."),
     holdout_years: int = typer.Option(2, "--holdout-years", help="Last full years to hold out, one each."),
     date_col: DateCol = "date",
     value_col: ValueCol = "value",
@@ -59,10 +60,12 @@ def backtest_cmd(
     force: Force = False,
 ) -> None:
     """Hold out the last years one at a time; score evcal against average-share and seasonal naive."""
-    if Path(out).suffix.lower() != ".csv":
-        raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv")
+    path = talk.table_path(out, "backtest.csv")  # out, or the file printed on stdout for --out -
+    if Path(path).suffix.lower() != ".csv":
+        raise PlanError(f"--out {out}: the backtest is written as CSV; use e.g. --out backtest.csv (or - for "
+                        "stdout)")
     inputs = query_inputs(history, db, sql)
-    check_output(out, "backtest", inputs=[*inputs, calendar], force=force)
+    check_output(path, "backtest", inputs=[*inputs, calendar], force=force)
     history = history_source(history, db, sql)
     from evcal.backtesting import backtest, format_table, save_backtest
 
@@ -70,13 +73,13 @@ def backtest_cmd(
                   value_col=value_col, freq=freq, drivers=driver,
                   **fit_options(transform, errors, arima_order, seasonal, fourier_order, trend_order,
                                     trading_days, allow_negative, leap_year))
-    save_backtest(bt, out)
-    typer.echo(format_table(bt))
-    typer.echo("spread: scaled to each year's actual total (compares the profile); unspread: as planned.")
-    typer.echo("Periods excluded in the calendar, and periods without a value, are not scored.")
+    save_backtest(bt, path)
+    talk.say(format_table(bt))
+    talk.say("spread: scaled to each year's actual total (compares the profile); unspread: as planned.")
+    talk.say("Periods excluded in the calendar, and periods without a value, are not scored.")
     for note in bt.attrs.get("notes", []):
-        typer.echo(f"note: {note}")
-    typer.echo(f"\nwrote {out} ({len(bt)} rows)")
+        talk.say(f"note: {note}")
+    talk.say(f"\nwrote {talk.named(out)} ({len(bt)} rows)")
 
 
 @command("discover")
@@ -98,6 +101,7 @@ def discover_cmd(
     force: Force = False,
 ) -> None:
     """Find cycles, unexplained peaks, dips and breaks, abnormal years and lost demand."""
+    talk.refuse_stdout(out, "a folder of findings", "findings")
     inputs = query_inputs(history, db, sql)
     check_output(out, "findings", inputs=[*inputs, calendar, stockouts], force=force)
     if critical is not None and not 2.0 <= critical <= 10.0:
@@ -108,10 +112,10 @@ def discover_cmd(
     found = discover(history, calendar, stockouts=stockouts, date_col=date_col, value_col=value_col,
                      freq=freq, cval=critical, transform=transform, errors=errors, series=series)
     found.save(out)
-    typer.echo(found.summary())
+    talk.say(found.summary())
     extra = [n for n, keep in (("index_effects.csv", not found.index_effects.empty),
                                ("lost_demand.csv", bool(found.lost))) if keep]
-    typer.echo(f"\nwrote {out}/ (suggestions.csv, suggestions.yaml, findings.png"
+    talk.say(f"\nwrote {out}/ (suggestions.csv, suggestions.yaml, findings.png"
                f"{''.join(', ' + e for e in extra)})")
 
 
@@ -124,4 +128,5 @@ def demo_cmd(
     """Run the whole job on the bundled, invented demo data (Fernhollow Garden Centres)."""
     from evcal.demo import run_demo
 
-    run_demo(out, data=data, echo=typer.echo, force=force)  # checks --out first
+    talk.refuse_stdout(out, "a folder of outputs", "demo-output")
+    run_demo(out, data=data, echo=talk.say, force=force)  # checks --out first

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import typer
 
+from evcal.cli import talk
 from evcal.cli.console import command
 from evcal.cli.options import DateCol, Force, ValueCol
 from evcal.errors import PlanError
@@ -19,7 +20,8 @@ def plan_cmd(
     model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
     start: str = typer.Option(..., "--from", help="First day (or year) of the plan, e.g. 2027-01-01."),
     end: str = typer.Option(..., "--to", help="Last day (or year) of the plan, e.g. 2027-12-31."),
-    out: str = typer.Option(..., "--out", "-o", help="plan.csv or plan.xlsx."),
+    out: str = typer.Option(
+        ..., "--out", "-o", help="plan.csv or plan.xlsx; - prints the plan as CSV on stdout."),
     calendar: str | None = typer.Option(
         None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
     total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
@@ -49,22 +51,30 @@ def plan_cmd(
         "--total (or the year's --totals) counts them and the rest is spread over the plan."),
     date_col: DateCol = "date",
     value_col: ValueCol = "value",
+    week_labels: str | None = typer.Option(
+        None, "--week-labels", help="iso: add an ISO week column (2027-W05) after date; weekly plans with "
+        "weeks ending Sunday."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
     from evcal.panel.result import is_panel_dir
 
+    kind = "compare" if compare_cal or compare_drivers else "plan"
+    path = talk.table_path(out, f"{kind}.csv")  # out, or the file printed on stdout for --out -
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
         if actuals:
             raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is made for a single model; plan "
                             "each series' model folder on its own")
+        if week_labels:
+            raise PlanError("--week-labels: panel plans are written without week labels for now; leave out "
+                            "--week-labels (each row's date is the week's Sunday)")
         if drivers or compare_drivers:
             from evcal.panel import refuse_drivers
 
             refuse_drivers("--drivers" if drivers else "--compare-drivers")
         from evcal.panel.planning import plan_panel_cmd
 
-        return plan_panel_cmd(model_dir, start, end, out, typer.echo, calendar=calendar, total=total,
+        return plan_panel_cmd(model_dir, start, end, path, talk.say, calendar=calendar, total=total,
                               totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
                               seed=seed, series=series or None, allocate=allocate, workers=workers,
                               force=force, whole_units=round_units)
@@ -74,29 +84,39 @@ def plan_cmd(
     if actuals and (compare_cal or compare_drivers):
         raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is one plan; leave out "
                         f"{'--compare' if compare_cal else '--compare-drivers'} (or --actuals)")
-    kind = "compare" if compare_cal or compare_drivers else "plan"
-    if Path(out).suffix.lower() not in (".csv", ".xlsx"):  # refused before any work
-        raise PlanError(f"--out {out}: unknown file type; write {kind}.csv or {kind}.xlsx")
-    check_output(out, kind, force=force,
+    if Path(path).suffix.lower() not in (".csv", ".xlsx"):  # refused before any work
+        raise PlanError(f"--out {out}: unknown file type; write {kind}.csv or {kind}.xlsx (or - for stdout)")
+    check_output(path, kind, force=force,
                  inputs=[model_dir, calendar, totals, compare_cal, allocate, drivers, compare_drivers,
                          actuals])
     from evcal.model import load_model
     from evcal.plan import compare, make_plan
 
-    result = load_model(model_dir)
+    with talk.stage(f"plan: reading the model {model_dir}"):
+        result = load_model(model_dir)
+    if week_labels:
+        from evcal.io.weeklabels import check_week_labels, with_week_labels
+
+        check_week_labels(result.freq, week_labels)  # refused before the simulations run
     options = {"total": total, "totals": totals, "new_events": new_events, "n_sims": sims, "seed": seed,
                "whole_units": round_units}
     if compare_cal or compare_drivers:
-        cmp = compare(result, start, end, compare_cal, calendar_a=calendar, drivers_a=drivers,
-                      drivers_b=compare_drivers, **options)
-        cmp.save(out)
-        typer.echo(cmp.plan_a.summary())
-        typer.echo("")
-        typer.echo(cmp.summary())
-        typer.echo(f"\nwrote {out} (date, plan_a, plan_b, difference; last row: totals)")
+        with talk.stage("plan: planning both" + (f" ({sims} simulations each)" if sims else "")):
+            cmp = compare(result, start, end, compare_cal, calendar_a=calendar, drivers_a=drivers,
+                          drivers_b=compare_drivers, **options)
+        if week_labels:
+            cmp.table = with_week_labels(cmp.table, result.freq, week_labels)
+        cmp.save(path)
+        talk.say(cmp.plan_a.summary())
+        talk.say("")
+        talk.say(cmp.summary())
+        talk.say(f"\nwrote {talk.named(out)} (date, plan_a, plan_b, difference; last row: totals)")
         return
-    plan = make_plan(result, start, end, calendar=calendar, drivers=drivers, actuals=actuals,
-                     date_col=date_col, value_col=value_col, **options)
-    plan.save(out)
-    typer.echo(plan.summary())
-    typer.echo(f"\nwrote {out} ({len(plan.table)} periods)")
+    with talk.stage("plan: planning" + (f" ({sims} simulations for low/high)" if sims else "")):
+        plan = make_plan(result, start, end, calendar=calendar, drivers=drivers, actuals=actuals,
+                         date_col=date_col, value_col=value_col, **options)
+    if week_labels:
+        plan.table = with_week_labels(plan.table, result.freq, week_labels)
+    plan.save(path)
+    talk.say(plan.summary())
+    talk.say(f"\nwrote {talk.named(out)} ({len(plan.table)} periods)")

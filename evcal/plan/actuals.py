@@ -29,6 +29,7 @@ from evcal.amounts import amount
 from evcal.design.seasonal import base_freq
 from evcal.errors import PlanError
 from evcal.io.history import period_dates
+from evcal.io.weeklabels import ISO_WEEK_COLUMN, iso_week_labels
 from evcal.plan.horizon import full_years, period_years
 
 __all__ = ["YearToDate", "actual_by_year", "check_rest", "plan_file_frame", "split_plan_file", "year_table",
@@ -244,6 +245,8 @@ def plan_file_frame(plan: Any) -> pd.DataFrame:
     values = actuals[ACTUAL].to_numpy(dtype=float)
     if np.all(values == np.round(values)):  # units sold are whole: written as such
         actuals[ACTUAL] = pd.array(values.astype(np.int64), dtype="Int64")
+    if ISO_WEEK_COLUMN in table.columns:  # plan --week-labels: the year's actual rows are labelled too
+        actuals.insert(1, ISO_WEEK_COLUMN, iso_week_labels(actuals["date"]).to_numpy())
     table.insert(1, ACTUAL, pd.array([pd.NA] * len(table), dtype=actuals[ACTUAL].dtype)
                  if actuals[ACTUAL].dtype == "Int64" else np.nan)
     return pd.concat([actuals, table], ignore_index=True)[list(table.columns)]

@@ -97,8 +97,37 @@ def _legend(ax: Axes, **kw: object) -> None:
         text.set_color(pal.INK)
 
 
-def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]]) -> Figure:
-    """Actual, fitted and base over the history; excluded periods shaded."""
+#: a daily history longer than this many days is drawn as light daily points under rolling means: a line
+#: through every day of a long daily series is a solid block of ink (issue 18)
+DAILY_POINTS_FROM = 120
+#: the rolling mean over a daily history: 28 days hold four of each weekday, so the weekday pattern averages
+#: out and the season, the trend and the longer events read
+ROLLING_DAYS = 28
+#: the light grey of the daily points under the rolling means
+DAY_POINTS = "#a9b5b0"
+
+
+def rolling_days(dates: pd.Series, values: pd.Series) -> np.ndarray:
+    """The centred :data:`ROLLING_DAYS`-day mean of a daily series (by calendar days, so a gap stays a gap).
+
+    Examples
+    --------
+    >>> d = pd.Series(pd.date_range("2024-01-01", periods=60, freq="D"))
+    >>> v = pd.Series(np.tile([1.0, 1, 1, 1, 1, 8, 8], 9)[:60])
+    >>> float(rolling_days(d, v)[30])  # four of each weekday: (5 * 1 + 2 * 8) / 7
+    3.0
+    """
+    s = pd.Series(np.asarray(values, dtype=float), index=pd.DatetimeIndex(dates))
+    return s.rolling(f"{ROLLING_DAYS}D", center=True, min_periods=ROLLING_DAYS // 2).mean().to_numpy()
+
+
+def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]], freq: str = "") -> Figure:
+    """Actual, fitted and base over the history; excluded periods shaded.
+
+    A long daily history (more than :data:`DAILY_POINTS_FROM` days) shows each day's actual as a light
+    point and actual, fitted and base as :data:`ROLLING_DAYS`-day centred means over them; weekly and
+    monthly histories are drawn as they are.
+    """
     fig, ax = _figure(3.6)
     dates = fitted["date"].to_numpy()
     for i, ex in enumerate(exclusions):  # ISO days (the model folder's reader checked them)
@@ -106,18 +135,22 @@ def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]]) -> Fig
         ax.axvspan(
             pd.Timestamp(ex["start"]), pd.Timestamp(ex["end"]), color=pal.EXCLUDED, zorder=0, label=label
         )
-    ax.plot(dates, fitted["base"], color=pal.BASE, linewidth=2.4, label="base (no events)")
-    ax.plot(dates, fitted["fitted"], color=pal.FITTED, linewidth=1.3, label="fitted")
-    marker = "o" if len(fitted) <= 160 else None
-    ax.plot(
-        dates,
-        fitted["actual"],
-        color=pal.ACTUAL,
-        linewidth=0.9,
-        marker=marker,
-        markersize=2.2,
-        label="actual",
-    )
+    if freq_base(freq) == "D" and len(fitted) > DAILY_POINTS_FROM:
+        mean = f", {ROLLING_DAYS}-day mean"
+        ax.plot(dates, fitted["actual"], linestyle="none", marker="o", markersize=1.6, color=DAY_POINTS,
+                markeredgewidth=0, label="actual, each day")
+        ax.plot(dates, rolling_days(fitted["date"], fitted["base"]), color=pal.BASE, linewidth=2.4,
+                label="base (no events)" + mean)
+        ax.plot(dates, rolling_days(fitted["date"], fitted["fitted"]), color=pal.FITTED, linewidth=1.4,
+                label="fitted" + mean)
+        ax.plot(dates, rolling_days(fitted["date"], fitted["actual"]), color=pal.ACTUAL, linewidth=1.1,
+                label="actual" + mean)
+    else:
+        ax.plot(dates, fitted["base"], color=pal.BASE, linewidth=2.4, label="base (no events)")
+        ax.plot(dates, fitted["fitted"], color=pal.FITTED, linewidth=1.3, label="fitted")
+        marker = "o" if len(fitted) <= 160 else None
+        ax.plot(dates, fitted["actual"], color=pal.ACTUAL, linewidth=0.9, marker=marker, markersize=2.2,
+                label="actual")
     _date_axis(ax)
     ax.yaxis.set_major_formatter(_units)
     ax.set_ylabel("units", color=pal.MUTED, fontsize=9)

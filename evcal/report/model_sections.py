@@ -23,7 +23,7 @@ import pandas as pd
 
 from evcal.report import charts
 from evcal.report.context import ReportContext
-from evcal.report.formatting import cycle_name, num, pct
+from evcal.report.formatting import cycle_name, freq_base, num, pct
 
 
 def table(
@@ -53,7 +53,7 @@ def history_section(ctx: ReportContext) -> dict[str, Any]:
     if fitted.empty:
         return {"muted": "fitted.csv has no rows."}
     exclusions = ctx.model["exclusions"]
-    fig = charts.history_chart(fitted, exclusions)
+    fig = charts.history_chart(fitted, exclusions, ctx.freq)
     a = fitted["actual"].to_numpy(float)
     f = fitted["fitted"].to_numpy(float)
     ok = np.isfinite(a) & np.isfinite(f)
@@ -64,6 +64,12 @@ def history_section(ctx: ReportContext) -> dict[str, Any]:
     if ok.any() and np.abs(a[ok]).sum() > 0:
         wape = np.abs(a[ok] - f[ok]).sum() / np.abs(a[ok]).sum() * 100
         text += f" In-sample, fitted values are off by {wape:.1f} % of actual sales (WAPE)."
+    if freq_base(ctx.freq) == "D" and len(fitted) > charts.DAILY_POINTS_FROM:
+        text += (
+            f" Each day's actual is a light point; the lines are {charts.ROLLING_DAYS}-day centred means"
+            " (four of each weekday, so the weekday pattern averages out and the season and longer events"
+            " show)."
+        )
     if exclusions:
         text += " Shaded spans were left out of the fit (see Warnings)."
     alt = "Line chart of actual, fitted and base over the history"

@@ -1,0 +1,106 @@
+"""A report that reads at any size (issue 18, item 9): the daily history chart, the notes column, an
+assumed lift listed once, what a level shift adds per period.
+
+Data: the invented weekly "Fernhollow" model of tests/test_report.py (known truth there) and an invented
+daily series made here (a season, a weekday pattern and noise; no real data).
+"""
+
+from __future__ import annotations
+
+import io
+import re
+from html import unescape
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from PIL import Image
+from test_report import invented_day_weights, write_invented_model
+
+from evcal.report import charts, write_report
+
+
+def invented_daily(days: int = 3 * 365) -> pd.DataFrame:
+    """An invented daily fitted table: a yearly season, a strong weekday pattern, 12 % noise."""
+    dates = pd.date_range("2022-01-01", periods=days, freq="D")
+    doy = dates.day_of_year.to_numpy()
+    base = 200 * (1 + 0.3 * np.sin(2 * np.pi * (doy - 80) / 365.25))
+    weekday = np.array([0.8, 0.85, 0.9, 0.95, 1.1, 1.4, 1.0])[dates.day_of_week]
+    fitted = base * weekday
+    actual = fitted * np.exp(np.random.default_rng(3).normal(0, 0.12, days))
+    return pd.DataFrame({"date": dates, "actual": actual, "fitted": fitted, "base": base})
+
+
+def dark_share(fig) -> float:
+    """Share of the plot area's pixels drawn dark (luma under 140 of 255: lines, not light points)."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=charts.DPI)
+    image = np.asarray(Image.open(buf).convert("RGB")).astype(float)
+    box = fig.axes[0].get_window_extent()
+    h = image.shape[0]
+    area = image[int(h - box.y1):int(h - box.y0), int(box.x0):int(box.x1)]
+    return float((area @ np.array([0.299, 0.587, 0.114]) < 140).mean())
+
+
+def draw_history(fitted: pd.DataFrame, freq: str):
+    try:
+        return charts.history_chart(fitted, [], freq)
+    except TypeError:  # main before this change: no frequency argument, every history drawn alike
+        return charts.history_chart(fitted, [])
+
+
+def test_daily_history_is_not_a_block_of_ink() -> None:
+    """Issue 18: "the daily history chart is a solid block of ink".
+
+    Measured on three invented years: main drew a line through every day, 21.5 % of the plot area dark;
+    light daily points under 28-day means: 2.2 %. The bound (8 %) is between, common practice, no source.
+    """
+    fig = draw_history(invented_daily(), "D")
+    assert dark_share(fig) < 0.08
+    labels = fig.axes[0].get_legend_handles_labels()[1]
+    assert labels == ["actual, each day", "base (no events), 28-day mean", "fitted, 28-day mean",
+                      "actual, 28-day mean"]
+
+
+def test_rolling_mean_averages_the_weekday_pattern_out() -> None:
+    fitted = invented_daily()
+    mean = charts.rolling_days(fitted["date"], fitted["fitted"])
+    inner = slice(30, -30)
+    # the invented weekday factors average 1.0: the 28-day mean of fitted is the base within 1 %
+    assert np.allclose(mean[inner], fitted["base"].to_numpy()[inner], rtol=0.01)
+    # while the daily fitted values swing by the weekday factors, 0.8 to 1.4 of the base
+    assert (fitted["fitted"] / fitted["base"]).max() > 1.39
+
+
+@pytest.mark.parametrize("freq", ["W-SUN", "MS"])
+def test_weekly_and_monthly_history_unchanged(freq: str) -> None:
+    dates = pd.date_range("2020-01-01", periods=150, freq=freq)
+    values = np.linspace(100, 200, len(dates))
+    fitted = pd.DataFrame({"date": dates, "actual": values, "fitted": values, "base": values * 0.9})
+    ax = draw_history(fitted, freq).axes[0]
+    assert ax.get_legend_handles_labels()[1] == ["base (no events)", "fitted", "actual"]
+    assert [len(line.get_xdata()) for line in ax.get_lines()] == [150, 150, 150]
+    assert ax.get_lines()[2].get_marker() == "o"  # 150 points: each one marked, as before
+
+
+def test_short_daily_history_is_drawn_as_it_is() -> None:
+    ax = draw_history(invented_daily(90), "D").axes[0]
+    assert ax.get_legend_handles_labels()[1] == ["base (no events)", "fitted", "actual"]
+
+
+# ---------------------------------------------------------------- the report's text
+
+
+def page_text(path: Path) -> str:
+    html = re.sub(r'src="data:[^"]*"', "", path.read_text(encoding="utf-8"))
+    return " ".join(unescape(re.sub(r"<[^>]+>", " ", html)).split())
+
+
+@pytest.fixture(scope="module")
+def fernhollow(tmp_path_factory: pytest.TempPathFactory) -> dict:
+    tmp = tmp_path_factory.mktemp("readable")
+    paths = write_invented_model(tmp / "model")
+    paths["html"] = write_report(paths["model"], tmp / "report.html", plan_csv=paths["plan"],
+                                 backtest_csv=paths["backtest"], calendar=invented_day_weights())
+    return paths

@@ -104,3 +104,22 @@ def fernhollow(tmp_path_factory: pytest.TempPathFactory) -> dict:
     paths["html"] = write_report(paths["model"], tmp / "report.html", plan_csv=paths["plan"],
                                  backtest_csv=paths["backtest"], calendar=invented_day_weights())
     return paths
+
+
+def notes_assumptions(html: Path) -> list[str]:
+    """The items of the report's "Assumptions in the plan" list, as text."""
+    page = html.read_text(encoding="utf-8")
+    block = page.split("Assumptions in the plan", 1)[1].split("</ul>", 1)[0]
+    return [" ".join(unescape(re.sub(r"<[^>]+>", " ", li)).split()) for li in block.split("<li>")[1:]]
+
+
+def test_an_assumed_lift_is_listed_once(fernhollow: dict) -> None:
+    """Issue 18: "an assumed lift listed twice in the report".
+
+    The invented autumn fair has ``effect: {assume: 15%}`` in the model's calendar and the plan marks its
+    week "autumn-fair: assumed +15%". Fails on main: two items, "Autumn plant fair (autumn-fair): lift
+    assumed at +15% in the calendar file" and "autumn-fair: assumed +15% — in week to 20 Sep 2026";
+    passes: one item naming the event, what the plan assumed and the week.
+    """
+    items = notes_assumptions(fernhollow["html"])
+    assert items == ["Autumn plant fair (autumn-fair): assumed +15% — in week to 20 Sep 2026"]

@@ -123,3 +123,33 @@ def test_an_assumed_lift_is_listed_once(fernhollow: dict) -> None:
     """
     items = notes_assumptions(fernhollow["html"])
     assert items == ["Autumn plant fair (autumn-fair): assumed +15% — in week to 20 Sep 2026"]
+
+
+def lifts_row(html: Path, label: str) -> list[str]:
+    """The cells (as text) of the lifts table's row whose first cell is ``label``."""
+    page = html.read_text(encoding="utf-8")
+    table = page.split('id="lifts"', 1)[1].split("</table>", 1)[0]
+    for row in table.split("<tr")[2:]:
+        cells = [" ".join(unescape(re.sub(r"<[^>]+>", " ", c)).split())
+                 for c in re.findall(r"<td[^>]*>(.*?)</td>", row, flags=re.S)]
+        if cells and cells[0] == label:
+            return cells
+    raise AssertionError(f"no lifts row {label!r}")
+
+
+def test_level_shift_units_are_per_period(fernhollow: dict) -> None:
+    """Issue 18: "units per occurrence" for a level shift read as a total (94,905 on a real series).
+
+    The invented shop refit (a level shift of +5 % from 2024-03-01, known truth) added 3,732 units over
+    the 96 weeks from its start (fitted.csv's shop-refit column, summed here). Fails on main: the cell read
+    "1,866 in all, from its start" (the mean of its two yearly slices in occurrences.csv, neither a week's
+    units nor the total); passes: "+38.9 a week", with the rate a year and the total beside it.
+    """
+    fitted = pd.read_csv(fernhollow["model"] / "fitted.csv")
+    added = fitted["shop-refit"].to_numpy(float)
+    span = added[np.flatnonzero(added)[0]:]
+    assert len(span) == 96 and round(span.sum()) == 3732
+    cells = lifts_row(fernhollow["html"], "shop-refit")
+    units = cells[5]
+    assert units.startswith(f"+{span.mean():.1f} a week"), units
+    assert f"+{span.mean() * 365.25 / 7:,.0f} a year" in units and "+3,732 over the 96 weeks" in units

@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from matplotlib.backends.backend_agg import FigureCanvasAgg
 from PIL import Image
 from test_report import invented_day_weights, write_invented_model
 
@@ -153,3 +154,24 @@ def test_level_shift_units_are_per_period(fernhollow: dict) -> None:
     units = cells[5]
     assert units.startswith(f"+{span.mean():.1f} a week"), units
     assert f"+{span.mean() * 365.25 / 7:,.0f} a year" in units and "+3,732 over the 96 weeks" in units
+
+
+def test_a_key_of_twenty_long_labels_fits_the_figure() -> None:
+    """Issue 18: legends cut. Twenty invented events with 70-character labels in the chart of what each
+    event added per year. Fails on main: the key at the right ran past the figure (8 of 20 entries inside,
+    each cut at the right edge, and a constrained-layout warning); passes: the key under the chart in
+    three columns, the figure taller, every entry inside."""
+    names = [f"ev{k:02d}" for k in range(20)]
+    labels = {n: f"Invented event number {k} with a long label that runs over forty characters"
+              for k, n in enumerate(names)}
+    by_year = pd.DataFrame(np.full((4, 20), 300.0), index=[2021, 2022, 2023, 2024], columns=names)
+    fig = charts.occurrences_chart(by_year, labels, {n: "#2f7d5b" for n in names})
+    FigureCanvasAgg(fig).draw()  # lay the figure out as savefig does
+    legend = fig.legends[0] if fig.legends else fig.axes[0].get_legend()
+    box = fig.bbox
+    texts = legend.get_texts()
+    assert len(texts) == 20
+    for text in texts:
+        extent = text.get_window_extent()
+        assert box.x0 <= extent.x0 and extent.x1 <= box.x1 and box.y0 <= extent.y0 and extent.y1 <= box.y1
+    assert " ".join(texts[19].get_text().split()) == labels["ev19"]  # wrapped, not cut

@@ -121,6 +121,31 @@ def rolling_days(dates: pd.Series, values: pd.Series) -> np.ndarray:
     return s.rolling(f"{ROLLING_DAYS}D", center=True, min_periods=ROLLING_DAYS // 2).mean().to_numpy()
 
 
+#: a key with more entries than this goes under the chart in columns, and the figure grows to hold it: at
+#: the side, 20 wrapped event labels overflow the figure's height and are cut (issue 18)
+SIDE_KEY_MAX = 8
+_KEY_COLUMNS = 3
+_KEY_LINE_IN = 0.19  # inches a legend line takes at fontsize 8.5, with its spacing
+
+
+def _side_or_below_key(fig: Figure, ax: Axes, handles: list | None = None, labels: list | None = None
+                       ) -> None:
+    """The chart's key at its right side when short, else under it in columns, with the figure made taller
+    by the key's lines (each label wraps to at most three, :func:`plain`)."""
+    if handles is None or labels is None:
+        handles, labels = ax.get_legend_handles_labels()
+    if len(labels) <= SIDE_KEY_MAX:
+        _legend(ax, handles=handles, labels=labels, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+        return
+    rows = -(-len(labels) // _KEY_COLUMNS)  # the key fills its columns top to bottom
+    lines = rows * max(str(label).count("\n") + 1 for label in labels)
+    fig.set_figheight(fig.get_figheight() + _KEY_LINE_IN * lines + 0.3)
+    leg = fig.legend(handles, labels, loc="outside lower center", ncols=_KEY_COLUMNS, frameon=False,
+                     fontsize=8.5)
+    for text in leg.get_texts():
+        text.set_color(pal.INK)
+
+
 def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]], freq: str = "") -> Figure:
     """Actual, fitted and base over the history; excluded periods shaded.
 
@@ -280,7 +305,7 @@ def occurrences_chart(
     ax.set_xticks(x, [str(y) for y in by_year.index])
     ax.yaxis.set_major_formatter(_units)
     ax.set_ylabel("units added", color=pal.MUTED, fontsize=9)
-    _legend(ax, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+    _side_or_below_key(fig, ax)
     return fig
 
 
@@ -343,7 +368,7 @@ def plan_chart(
     lead = ("plan", "low–high interval", "average-share profile, same total")
     order = sorted(range(len(names)), key=lambda i: names[i] not in lead)  # the lead first, else as drawn
     handles, names = [handles[i] for i in order], [names[i] for i in order]
-    _legend(ax, handles=handles, labels=names, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+    _side_or_below_key(fig, ax, handles, names)
     return fig
 
 

@@ -25,6 +25,9 @@ from evcal.report import charts
 from evcal.report.context import ReportContext
 from evcal.report.formatting import cycle_name, freq_base, num, pct
 
+#: columns of sentences, given room to read (CSS ``.prose``) instead of one word a line beside the numbers
+PROSE_COLUMNS = frozenset({"note", "notes", "assumptions", "reason"})
+
 
 def table(
     headers: Sequence[str],
@@ -40,10 +43,12 @@ def table(
     [0]
     """
     rows = [["" if c is None else c if isinstance(c, dict) else str(c) for c in row] for row in rows]
+    headers = [str(h) for h in headers]
     return {
-        "headers": [str(h) for h in headers],
+        "headers": headers,
         "rows": rows,
         "numeric": sorted(set(numeric)),
+        "prose": [i for i, h in enumerate(headers) if h in PROSE_COLUMNS],
         "row_classes": list(row_classes) if row_classes else [""] * len(rows),
     }
 

@@ -97,8 +97,62 @@ def _legend(ax: Axes, **kw: object) -> None:
         text.set_color(pal.INK)
 
 
-def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]]) -> Figure:
-    """Actual, fitted and base over the history; excluded periods shaded."""
+#: a daily history longer than this many days is drawn as light daily points under rolling means: a line
+#: through every day of a long daily series is a solid block of ink (issue 18)
+DAILY_POINTS_FROM = 120
+#: the rolling mean over a daily history: 28 days hold four of each weekday, so the weekday pattern averages
+#: out and the season, the trend and the longer events read
+ROLLING_DAYS = 28
+#: the light grey of the daily points under the rolling means
+DAY_POINTS = "#a9b5b0"
+
+
+def rolling_days(dates: pd.Series, values: pd.Series) -> np.ndarray:
+    """The centred :data:`ROLLING_DAYS`-day mean of a daily series (by calendar days, so a gap stays a gap).
+
+    Examples
+    --------
+    >>> d = pd.Series(pd.date_range("2024-01-01", periods=60, freq="D"))
+    >>> v = pd.Series(np.tile([1.0, 1, 1, 1, 1, 8, 8], 9)[:60])
+    >>> float(rolling_days(d, v)[30])  # four of each weekday: (5 * 1 + 2 * 8) / 7
+    3.0
+    """
+    s = pd.Series(np.asarray(values, dtype=float), index=pd.DatetimeIndex(dates))
+    return s.rolling(f"{ROLLING_DAYS}D", center=True, min_periods=ROLLING_DAYS // 2).mean().to_numpy()
+
+
+#: a key with more entries than this goes under the chart in columns, and the figure grows to hold it: at
+#: the side, 20 wrapped event labels overflow the figure's height and are cut (issue 18)
+SIDE_KEY_MAX = 8
+_KEY_COLUMNS = 3
+_KEY_LINE_IN = 0.19  # inches a legend line takes at fontsize 8.5, with its spacing
+
+
+def _side_or_below_key(fig: Figure, ax: Axes, handles: list | None = None, labels: list | None = None
+                       ) -> None:
+    """The chart's key at its right side when short, else under it in columns, with the figure made taller
+    by the key's lines (each label wraps to at most three, :func:`plain`)."""
+    if handles is None or labels is None:
+        handles, labels = ax.get_legend_handles_labels()
+    if len(labels) <= SIDE_KEY_MAX:
+        _legend(ax, handles=handles, labels=labels, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+        return
+    rows = -(-len(labels) // _KEY_COLUMNS)  # the key fills its columns top to bottom
+    lines = rows * max(str(label).count("\n") + 1 for label in labels)
+    fig.set_figheight(fig.get_figheight() + _KEY_LINE_IN * lines + 0.3)
+    leg = fig.legend(handles, labels, loc="outside lower center", ncols=_KEY_COLUMNS, frameon=False,
+                     fontsize=8.5)
+    for text in leg.get_texts():
+        text.set_color(pal.INK)
+
+
+def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]], freq: str = "") -> Figure:
+    """Actual, fitted and base over the history; excluded periods shaded.
+
+    A long daily history (more than :data:`DAILY_POINTS_FROM` days) shows each day's actual as a light
+    point and actual, fitted and base as :data:`ROLLING_DAYS`-day centred means over them; weekly and
+    monthly histories are drawn as they are.
+    """
     fig, ax = _figure(3.6)
     dates = fitted["date"].to_numpy()
     for i, ex in enumerate(exclusions):  # ISO days (the model folder's reader checked them)
@@ -106,18 +160,22 @@ def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]]) -> Fig
         ax.axvspan(
             pd.Timestamp(ex["start"]), pd.Timestamp(ex["end"]), color=pal.EXCLUDED, zorder=0, label=label
         )
-    ax.plot(dates, fitted["base"], color=pal.BASE, linewidth=2.4, label="base (no events)")
-    ax.plot(dates, fitted["fitted"], color=pal.FITTED, linewidth=1.3, label="fitted")
-    marker = "o" if len(fitted) <= 160 else None
-    ax.plot(
-        dates,
-        fitted["actual"],
-        color=pal.ACTUAL,
-        linewidth=0.9,
-        marker=marker,
-        markersize=2.2,
-        label="actual",
-    )
+    if freq_base(freq) == "D" and len(fitted) > DAILY_POINTS_FROM:
+        mean = f", {ROLLING_DAYS}-day mean"
+        ax.plot(dates, fitted["actual"], linestyle="none", marker="o", markersize=1.6, color=DAY_POINTS,
+                markeredgewidth=0, label="actual, each day")
+        ax.plot(dates, rolling_days(fitted["date"], fitted["base"]), color=pal.BASE, linewidth=2.4,
+                label="base (no events)" + mean)
+        ax.plot(dates, rolling_days(fitted["date"], fitted["fitted"]), color=pal.FITTED, linewidth=1.4,
+                label="fitted" + mean)
+        ax.plot(dates, rolling_days(fitted["date"], fitted["actual"]), color=pal.ACTUAL, linewidth=1.1,
+                label="actual" + mean)
+    else:
+        ax.plot(dates, fitted["base"], color=pal.BASE, linewidth=2.4, label="base (no events)")
+        ax.plot(dates, fitted["fitted"], color=pal.FITTED, linewidth=1.3, label="fitted")
+        marker = "o" if len(fitted) <= 160 else None
+        ax.plot(dates, fitted["actual"], color=pal.ACTUAL, linewidth=0.9, marker=marker, markersize=2.2,
+                label="actual")
     _date_axis(ax)
     ax.yaxis.set_major_formatter(_units)
     ax.set_ylabel("units", color=pal.MUTED, fontsize=9)
@@ -247,7 +305,7 @@ def occurrences_chart(
     ax.set_xticks(x, [str(y) for y in by_year.index])
     ax.yaxis.set_major_formatter(_units)
     ax.set_ylabel("units added", color=pal.MUTED, fontsize=9)
-    _legend(ax, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+    _side_or_below_key(fig, ax)
     return fig
 
 
@@ -310,7 +368,7 @@ def plan_chart(
     lead = ("plan", "low–high interval", "average-share profile, same total")
     order = sorted(range(len(names)), key=lambda i: names[i] not in lead)  # the lead first, else as drawn
     handles, names = [handles[i] for i in order], [names[i] for i in order]
-    _legend(ax, handles=handles, labels=names, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+    _side_or_below_key(fig, ax, handles, names)
     return fig
 
 

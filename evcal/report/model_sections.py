@@ -23,7 +23,10 @@ import pandas as pd
 
 from evcal.report import charts
 from evcal.report.context import ReportContext
-from evcal.report.formatting import cycle_name, num, pct
+from evcal.report.formatting import cycle_name, freq_base, num, pct
+
+#: columns of sentences, given room to read (CSS ``.prose``) instead of one word a line beside the numbers
+PROSE_COLUMNS = frozenset({"note", "notes", "assumptions", "reason"})
 
 
 def table(
@@ -40,10 +43,12 @@ def table(
     [0]
     """
     rows = [["" if c is None else c if isinstance(c, dict) else str(c) for c in row] for row in rows]
+    headers = [str(h) for h in headers]
     return {
-        "headers": [str(h) for h in headers],
+        "headers": headers,
         "rows": rows,
         "numeric": sorted(set(numeric)),
+        "prose": [i for i, h in enumerate(headers) if h in PROSE_COLUMNS],
         "row_classes": list(row_classes) if row_classes else [""] * len(rows),
     }
 
@@ -53,7 +58,7 @@ def history_section(ctx: ReportContext) -> dict[str, Any]:
     if fitted.empty:
         return {"muted": "fitted.csv has no rows."}
     exclusions = ctx.model["exclusions"]
-    fig = charts.history_chart(fitted, exclusions)
+    fig = charts.history_chart(fitted, exclusions, ctx.freq)
     a = fitted["actual"].to_numpy(float)
     f = fitted["fitted"].to_numpy(float)
     ok = np.isfinite(a) & np.isfinite(f)
@@ -64,6 +69,12 @@ def history_section(ctx: ReportContext) -> dict[str, Any]:
     if ok.any() and np.abs(a[ok]).sum() > 0:
         wape = np.abs(a[ok] - f[ok]).sum() / np.abs(a[ok]).sum() * 100
         text += f" In-sample, fitted values are off by {wape:.1f} % of actual sales (WAPE)."
+    if freq_base(ctx.freq) == "D" and len(fitted) > charts.DAILY_POINTS_FROM:
+        text += (
+            f" Each day's actual is a light point; the lines are {charts.ROLLING_DAYS}-day centred means"
+            " (four of each weekday, so the weekday pattern averages out and the season and longer events"
+            " show)."
+        )
     if exclusions:
         text += " Shaded spans were left out of the fit (see Warnings)."
     alt = "Line chart of actual, fitted and base over the history"
@@ -105,8 +116,8 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
         elif r["identifiable"] != "no" and pd.notna(r["lift_pct"]):
             lift, interval = pct(r["lift_pct"]), f"{pct(r['low_pct'])} to {pct(r['high_pct'])}"
             units = num(r["units_per_occurrence"])
-            if r["kind"] == "intervention":  # one "occurrence" from its start to the history's end
-                units = f"{units} in all, from its start"
+            if r["kind"] == "intervention":  # not an occurrence: what it adds each period from its start
+                units = intervention_units(ctx, r["event"]) or units
         else:
             lift, interval, units = "not estimated", "–", "–"
         row = [r["label"], r["event"], kind, lift, interval, units]
@@ -126,6 +137,35 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
         "closures": ", ".join(shown.loc[shown["event"].isin(ctx.closures), "label"]),
         "table": table(headers, rows, numeric=range(3, 7 if counts else 6), row_classes=row_cls),
         "net": net_table(ctx),
+    }
+
+
+#: a period's name and how many periods make a year, by the kind of period
+PERIOD_WORDS = {"D": ("day", 365.25), "W": ("week", 365.25 / 7), "M": ("month", 12.0), "Q": ("quarter", 4.0)}
+
+
+def intervention_units(ctx: ReportContext, name: str) -> dict[str, str] | None:
+    """What an intervention (a level shift, ramp or temporary change) adds per period, on average from its
+    start to the history's end, with the rate a year and the total; None when fitted.csv has no column.
+
+    lifts.csv's ``units_per_occurrence`` of an intervention is the mean of its yearly slices in
+    occurrences.csv, which reads as neither a period's nor the whole span's units; fitted.csv has the units
+    it added in each period.
+    """
+    fitted = ctx.folder.fitted
+    if name not in fitted.columns:
+        return None
+    added = pd.to_numeric(fitted[name], errors="coerce").fillna(0.0).to_numpy(float)
+    moved = np.flatnonzero(added)
+    if not moved.size:
+        return None
+    span = added[moved[0]:]  # from the first period it touches to the history's end
+    word, per_year = PERIOD_WORDS[freq_base(ctx.freq)]
+    mean = float(span.mean())
+    return {
+        "main": f"{num(mean, sign=True)} a {word}",
+        "small": f"{num(mean * per_year, sign=True)} a year; {num(span.sum(), sign=True)} over the "
+        f"{len(span)} {word}s from its start",
     }
 
 

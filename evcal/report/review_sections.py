@@ -11,6 +11,7 @@ Examples
 
 from __future__ import annotations
 
+import re
 from types import SimpleNamespace
 from typing import Any
 
@@ -23,6 +24,7 @@ from evcal.model.weekday_share import average_share_kind
 from evcal.report import charts
 from evcal.report.context import ReportContext
 from evcal.report.formatting import num, pct, period_label, sig
+from evcal.report.model_folder import lift_columns
 from evcal.report.model_sections import table
 
 METHOD_NAMES = {
@@ -112,14 +114,7 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
         {"label": r["label"], "event": r["event"], "note": r["note"] or "not identifiable from this history"}
         for _, r in lifts[lifts["identifiable"] == "no"].iterrows()
     ]
-    assumptions = [f"{ctx.label(name)} ({name}): {text}" for name, text in ctx.assumed.items()]
-    plan = ctx.folder.plan
-    if plan is not None and "assumptions" in plan.columns:
-        marked = plan[plan["assumptions"].str.strip() != ""]
-        for text, grp in marked.groupby("assumptions", sort=False):
-            periods = ", ".join(period_label(d, ctx.freq) for d in grp["date"].head(6))
-            more = f" and {len(grp) - 6} more" if len(grp) > 6 else ""
-            assumptions.append(f"{text} — in {periods}{more}")
+    assumptions = assumption_lines(ctx)
     spans = [[e["start"], e["end"], e["reason"]] for e in ctx.model["exclusions"]]
     if chosen is not None:
         chosen["leap_year"] = _leap_year_line(ctx.model)  # None without the column: the line is left out
@@ -131,6 +126,41 @@ def notes_section(ctx: ReportContext) -> dict[str, Any]:
         "exclusions": table(["start", "end", "reason"], spans) if spans else None,
         "empty": not (chosen or ctx.model["warnings"] or not_estimated or assumptions or spans),
     }
+
+
+def assumption_lines(ctx: ReportContext) -> list[str]:
+    """One line per assumption: each assumed or borrowed lift once, with the plan's periods it touches.
+
+    The model's own assumed lifts (its calendar) and the plan's ``assumptions`` column name the same
+    event; each event is listed once, with the plan's text when the plan used it (what the plan did) and
+    the periods it touched, else the model's text. A period's text holds one ``event: note`` per
+    assumption, joined by "; " (evcal/plan/build.py); a text that names no known event is listed as it is.
+    """
+    notes: dict[str, str] = {}
+    periods: dict[str, list[pd.Timestamp]] = {}
+    plan = ctx.folder.plan
+    if plan is not None and "assumptions" in plan.columns:
+        names = set(ctx.assumed) | set(lift_columns(plan)) | set(ctx.folder.lifts["event"])
+        known = "|".join(re.escape(n) for n in sorted(names, key=len, reverse=True))
+        # split only before "name: ", so a "; " inside a note does not cut it
+        split = re.compile(f"; (?=(?:{known}): )") if names else None
+        for date, text in zip(plan["date"], plan["assumptions"].fillna("").astype(str), strict=True):
+            text = text.strip()
+            for part in (split.split(text) if split else [text]) if text else []:
+                name, sep, note = part.partition(": ")
+                key = name if sep and name in names else part  # an unknown text is its own key
+                notes.setdefault(key, note if key == name else "")
+                periods.setdefault(key, []).append(date)
+    lines = []
+    for key in [*ctx.assumed, *(k for k in notes if k not in ctx.assumed)]:
+        text = notes.get(key) or ctx.assumed.get(key)
+        line = f"{ctx.label(key)} ({key}): {text}" if text else key
+        when = periods.get(key, [])
+        if when:
+            more = f" and {len(when) - 6} more" if len(when) > 6 else ""
+            line += f" — in {', '.join(period_label(d, ctx.freq) for d in when[:6])}{more}"
+        lines.append(line)
+    return lines
 
 
 def _leap_year_line(model: dict[str, Any]) -> str | None:

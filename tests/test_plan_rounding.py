@@ -148,12 +148,17 @@ def test_cli_round_writes_integers_to_csv_and_workbook(daily_fit: evcal.FitResul
     assert res.exit_code == 0, res.output
     from openpyxl import load_workbook
 
-    ws = load_workbook(tmp_path / "plan.xlsx")["Plan"]
-    header = [c.value for c in ws[1]]
-    col = header.index("plan") + 1
-    cells = [ws.cell(row=r, column=col) for r in range(2, ws.max_row + 1)]
-    assert all(isinstance(c.value, int) for c in cells) and sum(c.value for c in cells) == 210_000
-    assert cells[0].number_format == "0"  # shown as a whole number, no decimal place
+    wb = load_workbook(tmp_path / "plan.xlsx")
+    ws = wb["Plan"]
+    rows = list(ws.iter_rows())
+    at = next(i for i, r in enumerate(rows) if r[0].value == "date")  # the codes row (hidden)
+    col = [c.value for c in rows[at]].index("plan")
+    cells = [r[col] for r in rows[at + 2:-1]]
+    # the plan re-spreads from the target cell by formulas, each period rounded to a whole unit (the
+    # values Calc computes are checked in tests/test_workbook_planner.py)
+    assert ws["B1"].value == 210_000 and "target" in wb.defined_names
+    assert all(str(c.value).startswith("=ROUND(") for c in cells)
+    assert cells[0].number_format == "#,##0"  # shown as a whole number, no decimal place
 
 
 def test_cli_round_with_compare_writes_integers(daily_fit: evcal.FitResult, tmp_path) -> None:

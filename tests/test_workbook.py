@@ -64,29 +64,42 @@ def book(tmp_path: Path):
     return load_workbook(out), frames, out
 
 
+def plan_rows(ws) -> tuple[list[str], list[tuple]]:
+    """The Plan sheet's codes (its hidden row, plan.csv's column names) and its periods' cells.
+
+    The sheet starts with the target block (issue 18: a target a planner edits) and ends with a total row.
+    """
+    rows = list(ws.iter_rows())
+    at = next(i for i, r in enumerate(rows) if r[0].value == "date")
+    return [c.value for c in rows[at]], [r for r in rows[at + 2:] if r[0].value != "Total"]
+
+
 def test_sheets_and_frozen_header(book) -> None:
     wb, _, _ = book
     assert wb.sheetnames[:4] == ["Plan", "Lifts", "Seasonal index", "Past occurrences"]
-    for name in wb.sheetnames[:4]:
+    for name in wb.sheetnames[1:4]:
         assert wb[name].freeze_panes == "A2"
+    # the Plan sheet freezes below its header row (after the target block): the date column stays too
+    assert wb["Plan"].freeze_panes == "B5"
 
 
 def test_numbers_are_numbers_and_dates_are_dates(book) -> None:
     wb, frames, _ = book
     ws = wb["Plan"]
-    header = [c.value for c in ws[1]]
-    assert header == list(frames["plan"].columns)
+    header, rows = plan_rows(ws)
+    assert header[:len(frames["plan"].columns)] == list(frames["plan"].columns)
     col = {name: i for i, name in enumerate(header)}
-    rows = list(ws.iter_rows(min_row=2, values_only=False))
     assert len(rows) == 3
     for row in rows:
         date_cell = row[col["date"]]
         assert isinstance(date_cell.value, dt.datetime)
         assert date_cell.number_format == "yyyy-mm-dd"
         for name in ("base", "plan", "low", "high", "lift:spring-weekend"):
-            assert isinstance(row[col[name]].value, int | float)
+            # the spread amounts are formulas (model value x factor); the model's own values are numbers
+            assert str(row[col[name]].value).startswith("=")
+            assert isinstance(row[col[f"model:{name}"]].value, int | float)
     assert rows[1][col["date"]].value == dt.datetime(2027, 3, 28)
-    assert sum(r[col["plan"]].value for r in rows) == pytest.approx(900.5 + 1240.0 + 1100.25)
+    assert sum(r[col["model:plan"]].value for r in rows) == pytest.approx(900.5 + 1240.0 + 1100.25)
     # an empty assumption is an empty cell; a real one stays text
     assert rows[0][col["assumptions"]].value is None
     assert rows[2][col["assumptions"]].value == "autumn-fair: assumed +15%"
@@ -95,7 +108,7 @@ def test_numbers_are_numbers_and_dates_are_dates(book) -> None:
 def test_lifts_occurrences_and_profile_types(book) -> None:
     wb, _, _ = book
     lifts = list(wb["Lifts"].iter_rows(min_row=2, values_only=True))
-    assert lifts[0][1] == pytest.approx(31.5) and lifts[0][5] is True
+    assert lifts[0][1] == pytest.approx(0.315) and lifts[0][5] is True  # 31.5 % in a percent format
     # a lift the history cannot identify is left empty, not written as text "nan"
     assert lifts[1][1] is None and lifts[1][5] is False
     occ = wb["Past occurrences"]
@@ -109,11 +122,11 @@ def test_lifts_occurrences_and_profile_types(book) -> None:
 
 def test_column_widths_fit_the_header(book) -> None:
     wb, _, _ = book
-    ws = wb["Plan"]
-    for cell in ws[1]:
-        width = ws.column_dimensions[cell.column_letter].width
-        assert width >= len(str(cell.value)), cell.value
-        assert width <= 60
+    for ws in (wb["Lifts"], wb["Past occurrences"]):
+        for cell in ws[1]:
+            width = ws.column_dimensions[cell.column_letter].width
+            assert width >= len(str(cell.value)), cell.value
+            assert width <= 60
 
 
 def test_plan_with_datetime_index(tmp_path: Path) -> None:
@@ -122,8 +135,8 @@ def test_plan_with_datetime_index(tmp_path: Path) -> None:
         index=pd.to_datetime(["2027-01-31", "2027-02-28"]),
     )
     out = write_workbook(tmp_path / "p.xlsx", plan, pd.DataFrame(), pd.DataFrame(), pd.DataFrame())
-    ws = load_workbook(out)["Plan"]
-    assert ws["A1"].value == "date" and ws["A3"].value == dt.datetime(2027, 2, 28)
+    _, rows = plan_rows(load_workbook(out)["Plan"])
+    assert rows[1][0].value == dt.datetime(2027, 2, 28)
 
 
 def test_failed_write_leaves_nothing(tmp_path: Path) -> None:
@@ -148,9 +161,9 @@ def test_workbook_from_model_folder_files(tmp_path: Path) -> None:
     out = workbook_from_files(tmp_path / "plan.xlsx", paths["model"], paths["plan"])
     wb = load_workbook(out)
     plan = pd.read_csv(paths["plan"])
-    ws = wb["Plan"]
-    assert ws.max_row == len(plan) + 1
-    assert isinstance(ws["A2"].value, dt.datetime)
+    _, rows = plan_rows(wb["Plan"])
+    assert len(rows) == len(plan)
+    assert isinstance(rows[0][0].value, dt.datetime)
     lifts_header = [c.value for c in wb["Lifts"][1]]
     assert lifts_header[:7] == [
         "event",
@@ -176,4 +189,4 @@ def test_every_percentage_column_is_formatted_as_a_percentage(tmp_path: Path) ->
     header = [c.value for c in ws[1]]
     for name in ("lift_pct", "net_pct", "net_low_pct", "net_high_pct"):
         cell = ws.cell(row=2, column=header.index(name) + 1)
-        assert cell.number_format == '0.0" %"', (name, cell.number_format)
+        assert cell.number_format == "0.0%", (name, cell.number_format)  # a fraction in a percent format

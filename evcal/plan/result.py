@@ -94,6 +94,7 @@ class Plan:
         """
         from evcal.plan.actuals import plan_file_frame
         from evcal.plan.workbook import write_workbook
+        from evcal.plan.workbook_plan import plan_layout
 
         path = output_path(path, "plan")
         if path.suffix.lower() == ".csv":
@@ -110,7 +111,7 @@ class Plan:
 
             drivers = driver_table(self.result)
         return write_workbook(path, self.table, self._with_future(lifts), profile, occurrences,
-                              notes=self.notes, drivers=drivers)
+                              notes=self.notes, drivers=drivers, layout=plan_layout(self))
 
     def _with_future(self, lifts: pd.DataFrame) -> pd.DataFrame:
         """The model's lifts plus a row per known future change, marked assumed as assumed lifts are."""

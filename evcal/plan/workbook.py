@@ -33,6 +33,7 @@ from openpyxl.worksheet.worksheet import Worksheet
 
 from evcal._files import atomic_path
 from evcal.formula_safe import formula_safe_sheet, workbook_text
+from evcal.plan.workbook_plan import PlanLayout, write_plan_sheet
 
 CAUTION = (
     "This plan is an estimate. It is built from past sales and the events in the "
@@ -42,8 +43,8 @@ CAUTION = (
 )
 SHEETS = ("Plan", "Lifts", "Seasonal index", "Past occurrences")
 DATE_FORMAT = "yyyy-mm-dd"
-UNITS_FORMAT = "#,##0.0"
-PCT_FORMAT = '0.0" %"'
+UNITS_FORMAT = "#,##0"  # whole units shown; the cell keeps the exact number
+PCT_FORMAT = "0.0%"  # a *_pct column is written as a fraction (31.5 % is 0.315) in a percent format
 _HEADER_FILL = PatternFill("solid", fgColor="1E2B2F")
 _HEADER_FONT = Font(bold=True, color="FFFFFF")
 _MAX_WIDTH = 60
@@ -58,6 +59,7 @@ def write_workbook(
     occurrences: pd.DataFrame,
     notes: list[str] | None = None,
     drivers: pd.DataFrame | None = None,
+    layout: PlanLayout | None = None,
 ) -> Path:
     """Write the four-sheet workbook (plus Drivers when there are any, and Notes) atomically.
 
@@ -75,6 +77,10 @@ def write_workbook(
         The plan's notes (what it left out and why), added to the Notes sheet.
     drivers : DataFrame, optional
         The model's outside drivers as in ``drivers.csv``: a Drivers sheet after the four.
+    layout : PlanLayout, optional
+        How the plan was spread (:func:`evcal.plan.workbook_plan.plan_layout`): its targets,
+        factors, actuals and the seasonal index's dates. Without it (a plan read back from
+        plan.csv) the Plan sheet has one target, the plan's own total.
 
     Returns
     -------
@@ -83,14 +89,40 @@ def write_workbook(
     wb = Workbook()
     wb.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook (evcal.outputs)
     wb.remove(wb.active)
-    for name, frame in zip(SHEETS, (plan, lifts, profile, occurrences), strict=True):
-        _write_sheet(wb.create_sheet(name), _with_date_column(frame))
+    labels = _event_labels(lifts)
+    plan = _with_date_column(plan)
+    if plan.empty and not len(plan.columns):
+        _write_sheet(wb.create_sheet(SHEETS[0]), plan)
+    else:
+        write_plan_sheet(wb.create_sheet(SHEETS[0]), plan, labels, layout)
+    _write_sheet(wb.create_sheet(SHEETS[1]), lifts if lifts is not None else pd.DataFrame())
+    _write_sheet(wb.create_sheet(SHEETS[2]), _dated_profile(profile, layout))
+    _write_sheet(wb.create_sheet(SHEETS[3]), _with_date_column(occurrences))
     if drivers is not None and len(drivers):
         _write_sheet(wb.create_sheet("Drivers"), drivers)
     _notes_sheet(wb.create_sheet("Notes"), notes or [])
     out = Path(out_xlsx)
     with atomic_path(out) as tmp:
         wb.save(tmp)
+    return out
+
+
+def _event_labels(lifts: pd.DataFrame | None) -> dict[str, str]:
+    """Event code -> its label from the calendar (the lifts table's ``label``), where it has one."""
+    if lifts is None or "event" not in getattr(lifts, "columns", ()) or "label" not in lifts.columns:
+        return {}
+    return {str(e): str(lb) for e, lb in zip(lifts["event"], lifts["label"], strict=True)
+            if isinstance(lb, str) and lb.strip()}
+
+
+def _dated_profile(profile: pd.DataFrame | None, layout: PlanLayout | None) -> pd.DataFrame:
+    """The seasonal index with each period's date in the plan's first year beside its number."""
+    if profile is None or profile.empty or "period" not in profile.columns or layout is None \
+            or not layout.season_dates:
+        return profile if profile is not None else pd.DataFrame()
+    out = profile.copy()
+    dates = [layout.season_dates.get(int(p)) for p in out["period"]]
+    out.insert(list(out.columns).index("period") + 1, "date", pd.to_datetime(dates))
     return out
 
 
@@ -167,7 +199,7 @@ def _write_sheet(ws: Worksheet, frame: pd.DataFrame) -> None:
         cell.alignment = Alignment(vertical="center")
     widths = [len(c) + 2 for c in columns]
     for row in frame.itertuples(index=False, name=None):
-        values = [cell_value(v, c) for v, c in zip(row, columns, strict=True)]
+        values = [_as_fraction(cell_value(v, c), c) for v, c in zip(row, columns, strict=True)]
         ws.append(values)
         r = ws.max_row
         for j, (v, c) in enumerate(zip(values, columns, strict=True)):
@@ -182,13 +214,20 @@ def _write_sheet(ws: Worksheet, frame: pd.DataFrame) -> None:
     ws.auto_filter.ref = ws.dimensions
 
 
+def _as_fraction(value: object, column: str) -> object:
+    """A ``*_pct`` number as the fraction a spreadsheet's percent format shows (31.5 -> 0.315)."""
+    if column.endswith("_pct") and isinstance(value, float):
+        return value / 100.0
+    return value
+
+
 def _display_len(value: object) -> int:
     if value is None:
         return 0
     if isinstance(value, dt.datetime):
         return 10
     if isinstance(value, float):
-        return len(f"{value:,.1f}")
+        return len(f"{value:,.0f}")
     return len(str(value))
 
 
@@ -197,12 +236,19 @@ def _notes_sheet(ws: Worksheet, plan_notes: list[str]) -> None:
     ws["A1"].font = Font(bold=True, size=13)
     for line in (
         CAUTION,
-        "Plan: base is the trend and regular season with no event; each lift:<event> column "
-        "is that event's contribution in units; low and high bound the plan's interval.",
-        "Lifts: % over base across the event's window with a 95 % interval; "
+        "Plan: change the target (the yellow cell, named target; target_2027... when each year has its "
+        "own) and every period re-spreads: each amount is its model value (the model columns) times the "
+        "factor, target over the model plan (less the actuals so far in a year-to-date re-plan), so each "
+        "period keeps its share of the base-plus-lifts profile. base is the trend and regular season with "
+        "no event; each event's column (headed by its label; the hidden row above the headers holds the "
+        "codes of plan.csv, lift:<event>) is its contribution in units; low and high bound the plan's "
+        "interval. The last row totals each column.",
+        "Lifts: % over base across the event's window with a 95 % interval (the *_pct columns hold "
+        "fractions in a percent format: 31.5 % is 0.315); "
         "identifiable = no means the history cannot separate the event from the season; weak means "
         "the lift rests on too little to trust (its note says why).",
-        "Seasonal index: the base profile over one cycle, mean 100.",
+        "Seasonal index: the base profile over one cycle, mean 100; date is the period's date in the "
+        "plan's first year.",
         "Past occurrences: what each past occurrence of an event added, in units and %.",
         *(f"Plan note: {n}" for n in plan_notes),
     ):

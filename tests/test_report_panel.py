@@ -147,8 +147,9 @@ def test_unknown_series_is_one_line(panel: Path, tmp_path: Path) -> None:
 
 
 def test_options_that_do_not_apply_are_one_line(panel: Path, tmp_path: Path) -> None:
-    with pytest.raises(ModelError, match="--plan is read for a single-series model folder only"):
-        write_report(panel, tmp_path / "r.html", plan_csv=tmp_path / "plan.csv")
+    # a panel's plan is read (tests/test_report_panel_plan.py); a backtest is a single model's
+    with pytest.raises(ModelError, match="--backtest is read for a single-series model folder only"):
+        write_report(panel, tmp_path / "r.html", backtest_csv=tmp_path / "backtest.csv")
     single = tmp_path / "single"
     (single).mkdir()
     (single / "model.json").write_text("{}")

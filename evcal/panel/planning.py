@@ -26,6 +26,8 @@ import pandas as pd
 from evcal.amounts import amount
 from evcal.errors import EvcalError, PlanError
 from evcal.panel.result import PanelResult, load_panel
+from evcal.panel.targets import TARGET_RULE, apply_targets, read_panel_totals
+from evcal.plan.spread import check_total
 
 __all__ = ["plan_panel", "plan_panel_cmd"]
 
@@ -202,10 +204,19 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         keys = fitted[model.key_cols].to_dict("records")
     if not keys:
         raise PlanError("the panel model has no fitted series to plan")
-    if (total is not None or totals is not None) and len(keys) > 1:
-        raise PlanError(f"--total/--totals: the panel has {len(keys)} series and a target belongs to one "
-                        "plan; name one series with --series, or fit the level the target is set for "
-                        "(--level) and spread it down with --allocate")
+    if total is not None and totals is not None:
+        raise PlanError("give either --total (one target, allocated over the series) or --totals (a file "
+                        "with a target per series), not both")
+    # one series with --total or a year,total file: its own plan to the target, as before; otherwise the
+    # panel's targets are applied to the panel's plan (evcal.panel.targets)
+    panel_targets = None
+    if total is not None and len(keys) > 1:
+        panel_targets = check_total(total)
+    elif totals is not None and (len(keys) > 1 or _keyed_totals(totals, model.key_cols)):
+        panel_targets = read_panel_totals(totals, model.key_cols, model.series,
+                                          pd.DataFrame(keys, columns=model.key_cols))
+    if panel_targets is not None:
+        total = totals = None
     options = {"start": start, "end": end, "calendar": calendar, "new_events": new_events,
                "n_sims": n_sims, "seed": seed, "total": total, "totals": totals,
                # a series planned to its own target is rounded to it by make_plan; the rest once, below
@@ -234,6 +245,8 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
     order = model.key_cols + ["date", "base", "plan", "low", "high"] + lift_cols + ["assumptions"]
     table = table[[c for c in order if c in table.columns]]
     notes = _coverage_notes(model, calendar, table["date"], model.settings["freq"])
+    if panel_targets is not None:
+        table, notes = _to_targets(table, model, panel_targets, whole_units and allocate is None, notes)
     if allocate is not None:
         from evcal.panel.rollup import allocate as _allocate
 
@@ -244,12 +257,44 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
     if whole_units:  # per series (or per allocated child), unless make_plan already rounded it to its target
         from evcal.plan.spread import PANEL_WHOLE_UNITS_NOTE, round_table
 
-        if not options["whole_units"]:
+        if not options["whole_units"] and (panel_targets is None or allocate is not None):
             keys = children.key_cols if allocate is not None else model.key_cols
             table = round_table(table, table.groupby(keys, sort=False).ngroup().to_numpy())
         notes.append(PANEL_WHOLE_UNITS_NOTE)
     table.attrs["notes"] = notes
     return table
+
+
+def _keyed_totals(totals: Any, key_cols: list[str]) -> bool:
+    """Whether a ``--totals`` file is a panel's (its header names every key column), not a year,total one."""
+    path = Path(str(totals))
+    if isinstance(totals, dict) or not path.is_file():
+        return False
+    try:
+        header = pd.read_csv(path, nrows=0, dtype=str).columns
+    except (OSError, ValueError, pd.errors.ParserError):
+        return False  # the targets reader says what is wrong with it
+    return set(key_cols) <= {str(c).strip() for c in header}
+
+
+def _to_targets(table: pd.DataFrame, model: PanelResult, targets: float | pd.DataFrame, whole_units: bool,
+                notes: list[str]) -> tuple[pd.DataFrame, list[str]]:
+    """The panel plan scaled to one total or each series' target (evcal.panel.targets.apply_targets).
+
+    The notes gain the rule the targets were applied by.
+    """
+    years = pd.DatetimeIndex(pd.to_datetime(table["date"])).year.to_numpy()  # the date label's year
+    one = isinstance(targets, float)
+    table, goals = apply_targets(table, model.key_cols, years, total=targets if one else None,
+                                 targets=None if one else targets, whole_units=whole_units)
+    n = table[model.key_cols].drop_duplicates().shape[0]
+    if one:
+        notes = [*notes, TARGET_RULE.format(total=amount(targets), n=n)]
+    else:
+        per = "series and year" if "year" in targets.columns else "series"
+        notes = [*notes, f"each of the {n} series is spread to its own target (one per {per}, "
+                 f"{amount(sum(goals.values()))} in all) by its own profile: one factor for all its periods"]
+    return table, notes
 
 
 def _coverage_notes(model: PanelResult, calendar: Any, dates: pd.Series, freq: str) -> list[str]:

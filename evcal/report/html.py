@@ -62,7 +62,8 @@ def write_report(
     out_html : path
         Where to write; written to a temporary file first, then renamed.
     plan_csv, backtest_csv : path, optional
-        Files written by ``evcal plan`` and ``evcal backtest`` (single model only).
+        Files written by ``evcal plan`` and ``evcal backtest`` (the backtest: single model only; a
+        panel's plan is the long table of ``evcal plan PANEL_DIR``).
     calendar : path, Calendar or DataFrame, optional
         For the calendar view: a calendar YAML file, a loaded calendar (with
         ``day_weights``), or a frame of day weights (one column per event).
@@ -89,12 +90,11 @@ def write_report(
     if is_panel_dir(model_dir) and not (Path(model_dir) / "model.json").is_file():
         from evcal.report.panel_report import render_panel_report
 
-        given = [f"--{n}" for n, v in (("plan", plan_csv), ("backtest", backtest_csv), ("calendar", calendar))
-                 if v is not None]
+        given = [f"--{n}" for n, v in (("backtest", backtest_csv), ("calendar", calendar)) if v is not None]
         if given:
             raise ModelError(f"{model_dir}: a panel model folder: {', '.join(given)} is read for a "
                              "single-series model folder only; leave it out, or report one series' own fit")
-        page = render_panel_report(model_dir, series=series, title=title)
+        page = render_panel_report(model_dir, series=series, title=title, plan_csv=plan_csv)
     else:
         if series is not None:
             raise ModelError(f"{model_dir}: --series picks series of a panel model folder; this is a "

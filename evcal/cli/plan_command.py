@@ -25,7 +25,8 @@ def plan_cmd(
     calendar: str | None = typer.Option(
         None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
     total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
-    totals: str | None = typer.Option(None, "--totals", help="CSV of year,total targets."),
+    totals: str | None = typer.Option(
+        None, "--totals", help="CSV of targets: year,total; panels: key columns, total, optional year."),
     compare_cal: str | None = typer.Option(
         None, "--compare", help="Second calendar: write both plans side by side."),
     new_events: str = typer.Option(
@@ -65,16 +66,14 @@ def plan_cmd(
         if actuals:
             raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is made for a single model; plan "
                             "each series' model folder on its own")
-        if week_labels:
-            raise PlanError("--week-labels: panel plans are written without week labels for now; leave out "
-                            "--week-labels (each row's date is the week's Sunday)")
         if drivers or compare_drivers:
             from evcal.panel import refuse_drivers
 
             refuse_drivers("--drivers" if drivers else "--compare-drivers")
         from evcal.panel.planning import plan_panel_cmd
 
-        return plan_panel_cmd(model_dir, start, end, path, talk.say, calendar=calendar, total=total,
+        return plan_panel_cmd(model_dir, start, end, path, talk.say, shown=talk.named(out),
+                              week_labels=week_labels, calendar=calendar, total=total,
                               totals=totals, compare=compare_cal, new_events=new_events, n_sims=sims,
                               seed=seed, series=series or None, allocate=allocate, workers=workers,
                               force=force, whole_units=round_units)

@@ -311,10 +311,13 @@ def _coverage_notes(model: PanelResult, calendar: Any, dates: pd.Series, freq: s
 
 
 def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callable[[str], None],
-                   **kwargs: Any) -> None:
-    """What ``evcal plan`` does with a panel folder: plan, write one CSV, print a short summary.
+                   shown: str | None = None, week_labels: str | None = None, **kwargs: Any) -> None:
+    """What ``evcal plan`` does with a panel folder: plan, write one CSV or workbook, print a short summary.
 
-    The output location is checked first (:func:`evcal.outputs.check_output`), before the panel is read.
+    The output location and ``week_labels`` are checked first (:func:`evcal.outputs.check_output`,
+    :func:`evcal.io.weeklabels.check_week_labels`), before any series is planned. ``shown`` is how the
+    last line names the output (``stdout`` for ``--out -``, whose table is written to a temporary file
+    first); ``out`` itself when left out.
     """
     from evcal._files import atomic_path
     from evcal.formula_safe import write_csv
@@ -323,15 +326,32 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
     force = bool(kwargs.pop("force", False))
     if kwargs.pop("compare", None):
         raise PlanError("--compare plans one series; for a panel, plan each calendar to its own file")
-    if Path(out).suffix.lower() != ".csv":
-        raise PlanError(f"--out {out}: a panel plan is one long table; write it as CSV (e.g. plan.csv)")
+    suffix = Path(out).suffix.lower()
+    if suffix not in (".csv", ".xlsx"):
+        raise PlanError(f"--out {shown or out}: unknown file type; write the panel plan as plan.csv or "
+                        "plan.xlsx (or - for stdout)")
     check_output(out, "plan", inputs=[model_dir, kwargs.get("calendar"), kwargs.get("totals"),
                                       kwargs.get("allocate")], force=force)
+    if week_labels:
+        from evcal.io.weeklabels import check_week_labels
+
+        check_week_labels(_panel_freq(model_dir), week_labels)  # refused before any series is planned
     alone: list[dict[str, Any]] = []
     table = plan_panel(model_dir, start, end, fallback=alone, **kwargs)
-    with atomic_path(out) as tmp:
-        write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
-    keys = [c for c in table.columns if c not in ("date", "share", "base", "plan", "low", "high",
+    notes = list(table.attrs.get("notes", []))
+    if week_labels:
+        from evcal.io.weeklabels import with_week_labels
+
+        table = with_week_labels(table, _panel_freq(model_dir), week_labels)
+    if suffix == ".xlsx":
+        from evcal.plan.workbook_panel import write_panel_workbook
+
+        how = notes + ([ALLOCATED] if kwargs.get("allocate") else [])
+        write_panel_workbook(out, table, _event_labels(kwargs.get("allocate") or model_dir), how)
+    else:
+        with atomic_path(out) as tmp:
+            write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+    keys = [c for c in table.columns if c not in ("date", "iso_week", "share", "base", "plan", "low", "high",
                                                    "assumptions", "note") and not str(c).startswith("lift:")]
     n_series = len(table[keys].drop_duplicates()) if keys else 1
     echo(f"planned {n_series} series, {table['date'].nunique()} periods each; total "
@@ -340,9 +360,32 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
         shown = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
         echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series error "
              f"models, or a block fit that broke down): {shown}{' ...' if len(alone) > 5 else ''}")
-    for note in table.attrs.get("notes", []):
+    for note in notes:
         echo(f"Note: {note}")
     if kwargs.get("allocate"):
-        echo("allocated top-down: each parent's plan spread over its children by their own base profiles")
+        echo(ALLOCATED)
     echo("Plans are estimates; the decisions stay with the people who own them.")
-    echo(f"\nwrote {out} ({len(table)} rows)")
+    echo(f"\nwrote {shown or out} ({len(table)} rows)")
+
+
+#: how an allocated (``--allocate``) panel plan was made
+ALLOCATED = "allocated top-down: each parent's plan spread over its children by their own base profiles"
+
+
+def _panel_document(model_dir: str) -> dict[str, Any]:
+    """A panel folder's ``panel.json`` (its settings), read without its tables."""
+    from evcal.store.values import read_json
+
+    return read_json(Path(model_dir) / "panel.json")
+
+
+def _panel_freq(model_dir: str) -> str:
+    """The period frequency of a panel folder (:func:`_panel_document`)."""
+    return str(_panel_document(model_dir).get("freq", ""))
+
+
+def _event_labels(model_dir: str) -> dict[str, str]:
+    """Event code -> its label (``panel.json``'s ``events``), for the workbook's headers."""
+    events = _panel_document(model_dir).get("events") or {}
+    return {str(name): str(info.get("label") or name) if isinstance(info, dict) else str(name)
+            for name, info in events.items()}

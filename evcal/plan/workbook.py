@@ -33,7 +33,7 @@ from openpyxl.worksheet.worksheet import Worksheet
 
 from evcal._files import atomic_path
 from evcal.formula_safe import formula_safe_sheet, workbook_text
-from evcal.plan.workbook_plan import PlanLayout, write_plan_sheet
+from evcal.plan.workbook_plan import PlanLayout, is_amount, write_plan_sheet
 
 CAUTION = (
     "This plan is an estimate. It is built from past sales and the events in the "
@@ -45,8 +45,8 @@ SHEETS = ("Plan", "Lifts", "Seasonal index", "Past occurrences")
 DATE_FORMAT = "yyyy-mm-dd"
 UNITS_FORMAT = "#,##0"  # whole units shown; the cell keeps the exact number
 PCT_FORMAT = "0.0%"  # a *_pct column is written as a fraction (31.5 % is 0.315) in a percent format
-_HEADER_FILL = PatternFill("solid", fgColor="1E2B2F")
-_HEADER_FONT = Font(bold=True, color="FFFFFF")
+HEADER_FILL = PatternFill("solid", fgColor="1E2B2F")
+HEADER_FONT = Font(bold=True, color="FFFFFF")
 _MAX_WIDTH = 60
 _DATE_COLUMNS = {"date", "start", "end"}
 
@@ -89,7 +89,7 @@ def write_workbook(
     wb = Workbook()
     wb.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook (evcal.outputs)
     wb.remove(wb.active)
-    labels = _event_labels(lifts)
+    labels = event_labels(lifts)
     plan = _with_date_column(plan)
     if plan.empty and not len(plan.columns):
         _write_sheet(wb.create_sheet(SHEETS[0]), plan)
@@ -107,7 +107,7 @@ def write_workbook(
     return out
 
 
-def _event_labels(lifts: pd.DataFrame | None) -> dict[str, str]:
+def event_labels(lifts: pd.DataFrame | None) -> dict[str, str]:
     """Event code -> its label from the calendar (the lifts table's ``label``), where it has one."""
     if lifts is None or "event" not in getattr(lifts, "columns", ()) or "label" not in lifts.columns:
         return {}
@@ -170,7 +170,8 @@ def cell_value(value: object, column: str) -> object:
     return workbook_text(str(value))
 
 
-def _number_format(column: str, value: object) -> str | None:
+def number_format(column: str, value: object) -> str | None:
+    """The number format of a cell: dates, percent fractions (``*_pct``), whole units for amounts."""
     if column in _DATE_COLUMNS or isinstance(value, dt.datetime):
         return DATE_FORMAT
     if isinstance(value, bool):
@@ -182,36 +183,60 @@ def _number_format(column: str, value: object) -> str | None:
             return "0.00"
         return UNITS_FORMAT
     if isinstance(value, int):
-        return "0"
+        return UNITS_FORMAT if is_amount(column) else "0"  # a whole-unit plan (--round) reads 12,345
     return None
 
 
 def _write_sheet(ws: Worksheet, frame: pd.DataFrame) -> None:
+    write_table(ws, frame)
+
+
+def write_table(ws: Worksheet, frame: pd.DataFrame, headers: list[str] | None = None) -> int:
+    """Write ``frame`` below what ``ws`` holds: a styled header row, one row per record, number formats,
+    widths, filter and frozen header; text never a formula.
+
+    Parameters
+    ----------
+    headers : list of str, optional
+        What the header row shows (e.g. an event's label for ``lift:<event>``); the column names when
+        left out, else the column names go in a hidden row above the headers (plan.csv's codes).
+
+    Returns
+    -------
+    int
+        The sheet row of the header.
+    """
     if frame.empty and not len(frame.columns):
         ws.append(["nothing to show"])
         ws.column_dimensions["A"].width = 24
-        return
+        return ws.max_row
     columns = [str(c) for c in frame.columns]
-    ws.append([workbook_text(c) for c in columns])
-    for cell in ws[1]:
-        cell.fill = _HEADER_FILL
-        cell.font = _HEADER_FONT
+    shown = columns if headers is None else headers
+    if headers is not None:
+        ws.append([workbook_text(c) for c in columns])
+        ws.row_dimensions[ws.max_row].hidden = True
+    ws.append([workbook_text(c) for c in shown])
+    header_row = ws.max_row
+    for cell in ws[header_row]:
+        cell.fill = HEADER_FILL
+        cell.font = HEADER_FONT
         cell.alignment = Alignment(vertical="center")
-    widths = [len(c) + 2 for c in columns]
+    widths = [len(c) + 2 for c in shown]
     for row in frame.itertuples(index=False, name=None):
         values = [_as_fraction(cell_value(v, c), c) for v, c in zip(row, columns, strict=True)]
         ws.append(values)
         r = ws.max_row
         for j, (v, c) in enumerate(zip(values, columns, strict=True)):
-            fmt = _number_format(c, v)
+            fmt = number_format(c, v)
             if v is not None and fmt:
                 ws.cell(row=r, column=j + 1).number_format = fmt
             widths[j] = max(widths[j], _display_len(v))
     for j, w in enumerate(widths, start=1):
         ws.column_dimensions[get_column_letter(j)].width = min(w + 1, _MAX_WIDTH)
     formula_safe_sheet(ws.iter_rows())  # text from the calendar is text, never a live formula
-    ws.freeze_panes = "A2"
-    ws.auto_filter.ref = ws.dimensions
+    ws.freeze_panes = ws.cell(header_row + 1, 1)
+    ws.auto_filter.ref = f"A{header_row}:{get_column_letter(len(columns))}{ws.max_row}"
+    return header_row
 
 
 def _as_fraction(value: object, column: str) -> object:
@@ -232,10 +257,7 @@ def _display_len(value: object) -> int:
 
 
 def _notes_sheet(ws: Worksheet, plan_notes: list[str]) -> None:
-    ws.append(["About this workbook"])
-    ws["A1"].font = Font(bold=True, size=13)
-    for line in (
-        CAUTION,
+    notes_sheet(ws, [
         "Plan: change the target (the yellow cell, named target; target_2027... when each year has its "
         "own) and every period re-spreads: each amount is its model value (the model columns) times the "
         "factor, target over the model plan (less the actuals so far in a year-to-date re-plan), so each "
@@ -250,8 +272,14 @@ def _notes_sheet(ws: Worksheet, plan_notes: list[str]) -> None:
         "Seasonal index: the base profile over one cycle, mean 100; date is the period's date in the "
         "plan's first year.",
         "Past occurrences: what each past occurrence of an event added, in units and %.",
-        *(f"Plan note: {n}" for n in plan_notes),
-    ):
+    ], plan_notes)
+
+
+def notes_sheet(ws: Worksheet, about: list[str], plan_notes: list[str]) -> None:
+    """The Notes sheet: the caution that a plan is an estimate, what each sheet holds, the plan's notes."""
+    ws.append(["About this workbook"])
+    ws["A1"].font = Font(bold=True, size=13)
+    for line in (CAUTION, *about, *(f"Plan note: {n}" for n in plan_notes)):
         ws.append([workbook_text(line)])
     ws.column_dimensions["A"].width = 110
     for row in ws.iter_rows(min_row=2):

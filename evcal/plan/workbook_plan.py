@@ -33,6 +33,7 @@ from openpyxl.workbook.defined_name import DefinedName
 from openpyxl.worksheet.worksheet import Worksheet
 
 from evcal.formula_safe import formula_safe_cell, workbook_text
+from evcal.io.weeklabels import ISO_WEEK_COLUMN, iso_week_labels
 from evcal.plan.spread import AMOUNT_COLUMNS, DRIVER_PREFIX
 
 WHOLE_FORMAT = "#,##0"
@@ -213,10 +214,13 @@ def write_plan_sheet(ws: Worksheet, table: pd.DataFrame, labels: dict[str, str],
 
     # the actuals so far
     sold = zip(actuals["date"], actuals["actual"], strict=True) if actuals is not None else []
+    labelled = ISO_WEEK_COLUMN in col  # --week-labels: the actual rows are labelled too, as in plan.csv
     for k, (date, value) in enumerate(sold):
         r = first_actual + k
         ws.cell(r, 1, cell_value(pd.Timestamp(date), "date")).number_format = DATE_FORMAT
         ws.cell(r, col["actual"], cell_value(value, "actual")).number_format = WHOLE_FORMAT
+        if labelled:
+            ws.cell(r, col[ISO_WEEK_COLUMN], iso_week_labels(pd.Series([pd.Timestamp(date)])).iloc[0])
 
     # the plan's periods: formulas for the spread amounts, values for the model and the rest
     for i, row in enumerate(table.itertuples(index=False, name=None)):

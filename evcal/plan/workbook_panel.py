@@ -1,0 +1,106 @@
+"""The workbook of a panel plan: one Plan sheet (the series' keys first) and a Notes sheet.
+
+The sheet is the long table of ``plan.csv`` with the single plan's formats and headers
+(:mod:`evcal.plan.workbook`): the events' labels over their columns (the codes of plan.csv
+in a hidden row above), dates as dates, amounts in whole units. A line above the table says
+how the plan was made (each series by its own model, or how a panel target was allocated),
+and a total row sums every amount with ``SUBTOTAL(109, ...)``, so filtering the sheet to one
+series or one product family shows that selection's total. There is no target cell: a panel
+target is allocated over the series (:mod:`evcal.panel.targets`), which is not a formula a
+planner can re-run by editing one cell; re-plan with ``--total`` or ``--totals`` instead.
+
+Examples
+--------
+>>> import pandas as pd, tempfile, pathlib
+>>> table = pd.DataFrame({"store": ["north", "south"], "date": pd.to_datetime(["2027-01-03"] * 2),
+...                       "base": [100.0, 50.0], "plan": [110.0, 55.0], "low": [95.0, 45.0],
+...                       "high": [125.0, 66.0], "lift:sale": [10.0, 5.0]})
+>>> out = pathlib.Path(tempfile.mkdtemp()) / "plan.xlsx"
+>>> write_panel_workbook(out, table, {"sale": "Spring sale"}, ["an invented note"]).name
+'plan.xlsx'
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+from openpyxl import Workbook
+from openpyxl.styles import Font
+from openpyxl.utils import get_column_letter
+
+from evcal._files import atomic_path
+from evcal.formula_safe import workbook_text
+from evcal.plan.workbook import UNITS_FORMAT, notes_sheet, write_table
+from evcal.plan.workbook_plan import is_amount, readable
+
+__all__ = ["PANEL_SHEETS", "write_panel_workbook"]
+
+#: the sheets of a panel plan's workbook
+PANEL_SHEETS = ("Plan", "Notes")
+_ABOUT = (
+    "Plan: one row per series and period, the series' keys first (filter them to see one series). base is "
+    "the trend and regular season with no event; each event's column (headed by its label; the hidden row "
+    "above the headers holds the codes of plan.csv, lift:<event>) is its contribution in units; low and "
+    "high bound the plan's interval. The last row totals the rows shown: filter to a series and it is "
+    "that series' total. The line above the table says how the plan was made; a target is changed by "
+    "planning again (evcal plan --total or --totals), not in the sheet."
+)
+
+
+def write_panel_workbook(out_xlsx: str | Path, table: pd.DataFrame, labels: dict[str, str],
+                         notes: list[str]) -> Path:
+    """Write a panel plan's workbook atomically (the whole file or nothing).
+
+    Parameters
+    ----------
+    out_xlsx : path
+        The ``.xlsx`` file to write.
+    table : DataFrame
+        The panel plan as :func:`evcal.panel.planning.plan_panel` returns it (keys, ``date``,
+        amounts, ``lift:<event>``..., ``assumptions``), perhaps with ``iso_week`` after ``date``.
+    labels : dict
+        Event code -> its label from the calendar, for the headers.
+    notes : list of str
+        The plan's notes (a panel target's allocation rule first when there is one).
+
+    Returns
+    -------
+    Path
+    """
+    wb = Workbook()
+    wb.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook (evcal.outputs)
+    wb.remove(wb.active)
+    ws = wb.create_sheet(PANEL_SHEETS[0])
+    ws.append([workbook_text(how_made(notes))])
+    ws["A1"].font = Font(italic=True)
+    columns = [str(c) for c in table.columns]
+    header_row = write_table(ws, table, headers=[readable(c, labels) for c in columns])
+    first, last = header_row + 1, ws.max_row
+    total_row = last + 1
+    ws.cell(total_row, 1, "Total").font = Font(bold=True)
+    for j, c in enumerate(columns, start=1):
+        if not is_amount(c) or last < first:
+            continue
+        ref = f"{get_column_letter(j)}{first}:{get_column_letter(j)}{last}"
+        cell = ws.cell(total_row, j, f"=SUBTOTAL(109,{ref})")  # 109: the sum of the rows a filter shows
+        cell.number_format, cell.font = UNITS_FORMAT, Font(bold=True)
+    notes_sheet(wb.create_sheet(PANEL_SHEETS[1]), [_ABOUT], notes)
+    out = Path(out_xlsx)
+    with atomic_path(out) as tmp:
+        wb.save(tmp)
+    return out
+
+
+def how_made(notes: list[str]) -> str:
+    """The Plan sheet's first line: how the plan was made (a panel target's rule, from the plan's notes).
+
+    Examples
+    --------
+    >>> how_made([])
+    'Each series is planned by its own model; no target was given. Plans are estimates.'
+    """
+    rules = [n for n in notes if "target" in n or "allocated" in n]
+    if rules:
+        return "How the plan was made: " + " ".join(rules) + ". Plans are estimates."
+    return "Each series is planned by its own model; no target was given. Plans are estimates."

@@ -165,6 +165,50 @@ def test_a_series_named_for_a_history(tmp_path: Path) -> None:
     _same_but_spelling(api, cli, [("drop series=", "drop --series")])
 
 
+def test_a_log_transform_on_a_zero(tmp_path: Path) -> None:
+    """model/inputs: the transform to use instead. Fails on main: the API said 'use --transform count'."""
+    values = list(100.0 + (WEEKS.month % 5))
+    values[7] = 0.0
+    path = _weekly(tmp_path, value=values)
+    api = _api_line(lambda: evcal.fit(path, transform="log"))
+    cli = _cli_line(["fit", str(path), "--transform", "log", "-o", str(tmp_path / "m")])
+    assert "is zero and transform='log' needs positive values; use transform='count' for series" in api
+    _same_but_spelling(api, cli, [("transform='log'", "--transform log"),
+                                  ("transform='count'", "--transform count")])
+
+
+@pytest.fixture(scope="module")
+def model(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """An invented weekly model (no calendar), fitted once for the plan cases."""
+    folder = tmp_path_factory.mktemp("spelling")
+    evcal.fit(_weekly(folder), errors="ols").save(folder / "model")
+    return folder / "model"
+
+
+def test_a_horizon_that_ends_before_it_starts(model: Path, tmp_path: Path) -> None:
+    """plan/horizon: two settings and their days. Fails on main: the API said '--to ... --from ...'."""
+    from evcal.plan import make_plan
+
+    api = _api_line(lambda: make_plan(evcal.load_model(model), "2025-06-01", "2025-03-31", n_sims=0))
+    cli = _cli_line(["plan", str(model), "--from", "2025-06-01", "--to", "2025-03-31",
+                     "-o", str(tmp_path / "p.csv")])
+    assert api.startswith("end='2025-03-31' is before start='2025-06-01'; the horizon must end")
+    _same_but_spelling(api, cli, [("end='2025-03-31'", "--to 2025-03-31"),
+                                  ("start='2025-06-01'", "--from 2025-06-01")])
+
+
+def test_a_target_that_is_not_positive(model: Path, tmp_path: Path) -> None:
+    """plan/spread.check_total. Fails on main: the API said '--total -5: ... e.g. --total 125000'."""
+    from evcal.plan import make_plan
+
+    fitted = evcal.load_model(model)
+    api = _api_line(lambda: make_plan(fitted, "2025-01-01", "2025-12-31", total=-5, n_sims=0))
+    cli = _cli_line(["plan", str(model), "--from", "2025-01-01", "--to", "2025-12-31", "--total", "-5",
+                     "-o", str(tmp_path / "p.csv")])
+    assert api == "total=-5: the target total must be a positive number of units, e.g. total=125000"
+    _same_but_spelling(api, cli, [("total=-5", "--total -5"), ("total=125000", "--total 125000")])
+
+
 def test_the_api_spells_arguments_again_after_a_command_ran_in_process(tmp_path: Path) -> None:
     """The command line switches the flag spelling on for its own run only."""
     from evcal import spelling

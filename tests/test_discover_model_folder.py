@@ -95,7 +95,7 @@ def test_panel_folder_without_series_is_one_line_naming_five_keys(panel) -> None
     with pytest.raises(ModelError) as err:
         evcal.discover(panel, errors="ols")
     (line,) = err.value.problems
-    assert str(panel) in line and "7 series" in line and "--series" in line
+    assert str(panel) in line and "7 series" in line and "name one with series=" in line
     assert "store=S1,product=P0; store=S1,product=P1" in line
     assert "store=S1,product=P4; ... (2 more)" in line and "product=P5" not in line
 
@@ -108,15 +108,15 @@ def test_panel_folder_with_an_unknown_series_is_one_line(panel) -> None:
 
 def test_series_is_refused_for_a_history_and_for_a_single_model(single) -> None:
     folder, series = single
-    with pytest.raises(HistoryError, match="drop --series"):
+    with pytest.raises(HistoryError, match="drop series="):
         evcal.discover(series, series="P1", errors="ols")
-    with pytest.raises(ModelError, match="single-series model folder; drop --series"):
+    with pytest.raises(ModelError, match="single-series model folder; drop series="):
         evcal.discover(folder, series="P1", errors="ols")
 
 
 def test_a_frequency_other_than_the_model_s_is_refused(single) -> None:
     folder, _ = single
-    with pytest.raises(HistoryError, match="the model in .* is M; drop --freq"):
+    with pytest.raises(HistoryError, match="the model in .* is M; drop freq="):
         evcal.discover(folder, freq="W", errors="ols")
     assert evcal.discover(folder, freq="monthly", errors="ols").freq == "M"
 

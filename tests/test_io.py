@@ -194,7 +194,7 @@ def test_freq_override_daily_on_weekly_dates_is_refused(option: str) -> None:
     with pytest.raises(HistoryError) as e:
         read_history(pd.DataFrame({"date": dates, "value": 1.0}), freq=option)
     (line,) = problems_of(e)
-    assert "typically 7 days apart" in line and "pass --freq W-SUN" in line
+    assert "typically 7 days apart" in line and "pass freq='W-SUN'" in line
 
 
 def test_freq_override_monthly_on_quarterly_dates_is_refused() -> None:
@@ -204,7 +204,7 @@ def test_freq_override_monthly_on_quarterly_dates_is_refused() -> None:
     with pytest.raises(HistoryError) as e:
         read_history(frame, freq="monthly")
     (line,) = problems_of(e)
-    assert "typically 3 months apart" in line and "pass --freq Q" in line
+    assert "typically 3 months apart" in line and "pass freq='Q'" in line
 
 
 def test_freq_override_that_puts_two_rows_in_one_period() -> None:
@@ -352,7 +352,7 @@ def test_missing_columns_name_the_existing_ones(tmp_path: Path) -> None:
         read_history(f)
     assert problems_of(e) == [
         "c.csv row 1: no date column 'date'; columns found: 'day', 'units'; "
-        "name the date column with --date-col"
+        "name the date column with date_col="
     ]
     with pytest.raises(HistoryError, match="no value column 'value'; columns found: 'day'"):
         read_history(f, date_col="day")
@@ -405,7 +405,7 @@ def test_negative_values_suggest_the_option(tmp_path: Path) -> None:
     with pytest.raises(
         HistoryError,
         match=r"n.csv row 3, column 'value': negative value -3.*"
-        r"--allow-negative",
+        r"allow_negative=True",
     ):
         read_history(f)
 
@@ -435,7 +435,7 @@ def test_mixed_frequency_daily_then_weekly() -> None:
     assert problems_of(e) == [
         "<frame>: mixed frequency: rows 32 to 41 are 7 periods apart at the daily rate the "
         "other rows follow; evcal reads one frequency per file: split or aggregate the rows, "
-        "or give --freq to force one (the skipped periods then count as missing)"
+        "or give freq= to force one (the skipped periods then count as missing)"
     ]
 
 
@@ -497,7 +497,7 @@ def test_values_under_the_date_header_are_one_line(tmp_path: Path) -> None:
     with pytest.raises(HistoryError) as err:
         read_history(path)
     text = str(err.value)
-    assert "\n" not in text and "look swapped" in text and "--date-col 'value' --value-col 'date'" in text
+    assert "\n" not in text and "look swapped" in text and "date_col='value', value_col='date'" in text
 
 
 def test_columns_in_the_other_order_are_read_by_name(tmp_path: Path) -> None:

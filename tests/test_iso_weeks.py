@@ -188,7 +188,7 @@ def test_drivers_file_of_week_labels() -> None:
 
 def test_another_week_end_is_refused_for_iso_labels() -> None:
     # ISO weeks end on Sunday: --freq W-SAT would move every week a day; refused, naming W-SUN
-    with pytest.raises(HistoryError, match="fall on Sundays.*pass --freq W-SUN"):
+    with pytest.raises(HistoryError, match="fall on Sundays.*pass freq='W-SUN'"):
         read_history(_frame("{y}-W{w:02d}"), freq="W-SAT")
     assert read_history(_frame("{y}-W{w:02d}"), freq="W").freq == "W-SUN"
 

@@ -151,13 +151,13 @@ def test_totals_file_missing_a_year(monthly_fit: evcal.FitResult, tmp_path: Path
 def test_bad_total(monthly_fit: evcal.FitResult, bad: object) -> None:
     with pytest.raises(PlanError) as err:
         make_plan(monthly_fit, "2024-01", "2024-12", total=bad, n_sims=0)
-    assert len(err.value.problems) == 1 and "--total" in err.value.problems[0]
+    assert len(err.value.problems) == 1 and "total=" in err.value.problems[0]
 
 
 def test_bad_horizons(monthly_fit: evcal.FitResult) -> None:
     with pytest.raises(PlanError, match="must start after the history, which ends with period 2023-12"):
         make_plan(monthly_fit, "2023-12-01", "2024-06-30")
-    with pytest.raises(PlanError, match="is before --from"):
+    with pytest.raises(PlanError, match="is before start='2024-06-01'"):
         make_plan(monthly_fit, "2024-06-01", "2024-03-31")
     with pytest.raises(PlanError, match="not a date"):
         make_plan(monthly_fit, "next spring", "2024-03-31")

@@ -20,6 +20,7 @@ import click
 import typer
 import typer.core
 
+from evcal import spelling
 from evcal.errors import EvcalError, clip
 
 __all__ = ["app", "calendar_app", "command", "guarded", "last_resort_line", "main"]
@@ -97,6 +98,7 @@ def _print_version(asked: bool) -> None:
 
 @app.callback()
 def _root(
+    ctx: typer.Context,
     version: bool = typer.Option(
         False, "--version", "-V", callback=_print_version, is_eager=True,
         help="Print the installed version of evcal and stop."),
@@ -113,6 +115,7 @@ def _root(
         typer.echo("error: --quiet and --verbose ask for opposite things; give one of them", err=True)
         raise typer.Exit(code=2)
     talk.configure(quiet=quiet, verbose=verbose)
+    spelling.use_flags(ctx)  # messages name flags until the command ends
     _DEBUG["on"] = debug
 
 

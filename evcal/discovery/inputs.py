@@ -18,6 +18,7 @@ import pandas as pd
 import yaml
 
 from evcal.errors import CalendarError, HistoryError, ModelError
+from evcal.spelling import option
 
 __all__ = ["calendar_text", "read_discover_inputs", "read_history_input", "with_entries"]
 
@@ -47,13 +48,14 @@ def read_discover_inputs(history: Any, calendar: Any, *, series: Any = None, dat
     if folder is None:
         if series is not None:
             raise HistoryError(f"{_shown(history)}: a series is named ({series!r}), but only a panel model "
-                               "folder (written by evcal fit --series-col) holds several; drop --series")
+                               "folder (written by evcal fit --series-col) holds several; drop "
+                               f"{option('series')}")
         return read_history_input(history, date_col, value_col, freq), calendar_text(calendar)
     if (folder / "panel.json").is_file():
         hist, model_text = _panel_series(folder, series)
     else:
         if series is not None:
-            raise ModelError(f"{folder}: a single-series model folder; drop --series ({series!r}), "
+            raise ModelError(f"{folder}: a single-series model folder; drop {option('series')} ({series!r}), "
                              "which names one series of a panel model folder")
         hist, model_text = _single_series(folder)
     _check_freq(folder, freq, hist.freq)
@@ -97,8 +99,8 @@ def _panel_series(folder: Path, series: Any) -> tuple[Any, str]:
 
     panel = load_panel(folder)
     if series is None:
-        raise ModelError(f"{folder}: a panel model of {len(panel.series)} series; name one with --series "
-                         f"(series= in Python), e.g. {_some_keys(panel)} (all in series.csv)")
+        raise ModelError(f"{folder}: a panel model of {len(panel.series)} series; name one with "
+                         f"{option('series')}, e.g. {_some_keys(panel)} (all in series.csv)")
     key = panel.find(series)
     return panel.history(key), str(panel.settings["calendar_text"])
 
@@ -123,7 +125,8 @@ def _check_freq(folder: Path, freq: str | None, model_freq: str) -> None:
     wanted = parse_freq_option(freq)
     same = model_freq.startswith("W-") if wanted is None else wanted == model_freq
     if not same:
-        raise HistoryError(f"--freq {freq}: the model in {folder} is {model_freq}; drop --freq (a model "
+        raise HistoryError(f"{option('freq', freq)}: the model in {folder} is {model_freq}; drop "
+                           f"{option('freq')} (a model "
                            "folder's history keeps the frequency it was fitted at)")
 
 

@@ -17,6 +17,7 @@ import pandas as pd
 from evcal.errors import HistoryError
 from evcal.io.isoweeks import read_iso_weeks
 from evcal.io.problems import KEEP_PROBLEMS, RowProblem, capped, count_problems, key_text, quote
+from evcal.spelling import option
 
 # the readers import the cell problems from here, beside the parsers
 __all__ = ["EMPTY_TOKENS", "FIRST_DAY", "KEEP_PROBLEMS", "LAST_DAY", "MAX_VALUE", "RowProblem", "capped",
@@ -253,7 +254,7 @@ def parse_values(
             rows[i],
             column,
             f"negative value {numbers.iloc[i]:g}; sales and demand cannot be below "
-            "zero: fix the value, or pass --allow-negative (allow_negative=True) if "
+            f"zero: fix the value, or pass {option('allow_negative', True)} if "
             "negatives are real (returns, net flows)",
         ))
     return numbers, problems

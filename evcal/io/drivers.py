@@ -19,6 +19,7 @@ import pandas as pd
 from evcal.errors import HistoryError
 from evcal.io.cells import RowProblem, count_problems, empty_mask, parse_dates, parse_values, quote
 from evcal.io.tables import RawTable, find_column, load_table
+from evcal.spelling import option
 
 SCALES = ("level", "log")
 
@@ -27,17 +28,25 @@ class DriverError(HistoryError):
     """A driver named wrongly, or a driver column that cannot be used."""
 
 
-#: the advice of a history without a driver's column, when the command line named the driver
-HISTORY_ADVICE = "name the driver column with --driver"
+def history_advice() -> str:
+    """The advice of a history without a driver's column, when the user named the driver."""
+    return f"name the driver column with {_driver_option()}"
+
+
+def _driver_option(value: str | None = None) -> str:
+    """``--driver`` on the command line, ``drivers=`` in Python (with ``value`` when given)."""
+    if value is None:
+        return option("drivers", flag="--driver")
+    return option("drivers", [value], flag="--driver", cli_value=value)
 
 
 class MissingDriverColumn(DriverError):
     """A file without a driver's column: ``found`` says which file and what columns it has, ``driver``
     which driver, so the caller can word the advice for whoever named the driver (:meth:`advised`)."""
 
-    def __init__(self, found: str, driver: str, advice: str = HISTORY_ADVICE) -> None:
+    def __init__(self, found: str, driver: str, advice: str | None = None) -> None:
         self.found, self.driver = found, driver
-        super().__init__(f"{found}; {advice}")
+        super().__init__(f"{found}; {history_advice() if advice is None else advice}")
 
     def advised(self, advice: str) -> MissingDriverColumn:
         """The same line with other advice."""
@@ -122,7 +131,7 @@ def named_by_calendar(calendar: Any, given: Sequence[str | tuple[str, str]] | No
 
 
 def driver_cells(table: RawTable, keep: np.ndarray, rows: list[int], drivers: list[tuple[str, str]],
-                 reserved: Sequence[str], needed: np.ndarray, advice: str = HISTORY_ADVICE
+                 reserved: Sequence[str], needed: np.ndarray, advice: str | None = None
                  ) -> dict[str, pd.Series]:
     """Each driver's values on the kept rows of ``table``, positionally (float, NaN where empty).
 
@@ -137,13 +146,13 @@ def driver_cells(table: RawTable, keep: np.ndarray, rows: list[int], drivers: li
     lines: list[str] = []
     for driver, scale in drivers:
         try:
-            col = find_column(table, driver, "driver", "--driver")
+            col = find_column(table, driver, "driver", _driver_option())
         except HistoryError as err:
-            raise MissingDriverColumn(err.problems[0].removesuffix(f"; {HISTORY_ADVICE}"), driver,
+            raise MissingDriverColumn(err.problems[0].removesuffix(f"; {history_advice()}"), driver,
                                       advice) from None
         if col in reserved:
             raise DriverError(f"{name} row 1: column {col!r} is the date or value column and cannot "
-                              "also be a driver; name another column with --driver")
+                              f"also be a driver; name another column with {_driver_option()}")
         cells = table.frame[col].reset_index(drop=True).iloc[keep].reset_index(drop=True)
         values, problems = parse_values(cells, rows, col, allow_negative=True)
         empty = np.flatnonzero(empty_mask(cells) & needed)
@@ -153,8 +162,8 @@ def driver_cells(table: RawTable, keep: np.ndarray, rows: list[int], drivers: li
         if scale == "log":
             low = np.flatnonzero((values <= 0).to_numpy())
             problems += [RowProblem(rows[i], col, f"value {values.iloc[i]:g} is not above zero and the "
-                                    f"driver is entered on the log scale; use --driver {driver}:level, or "
-                                    "fix the value")
+                                    "driver is entered on the log scale; use "
+                                    f"{_driver_option(f'{driver}:level')}, or fix the value")
                          for i in low[:1]]
             n_low = len(low)
         else:
@@ -197,7 +206,7 @@ def read_driver_file(source: str | Path | pd.DataFrame, drivers: Sequence[str | 
     """
     table = load_table(source, date_col=date_col)
     name = table.source
-    dcol = find_column(table, date_col, "date", "--date-col")
+    dcol = find_column(table, date_col, "date", option("date_col"))
     cells = table.frame[dcol].reset_index(drop=True)
     keep = np.flatnonzero(~empty_mask(cells))
     rows = [table.rows[i] for i in keep]

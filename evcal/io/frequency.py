@@ -18,6 +18,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
+from evcal import spelling
 from evcal.errors import HistoryError
 
 WEEKDAYS: tuple[str, ...] = ("MON", "TUE", "WED", "THU", "FRI", "SAT", "SUN")
@@ -79,7 +80,7 @@ def parse_freq_option(text: str) -> str | None:
     key = text.strip().upper()
     if key not in _FREQ_WORDS:
         raise HistoryError(
-            f"--freq: unknown frequency {text!r}; use D (daily), W (weekly, week end "
+            f"{spelling.subject('freq')}: unknown frequency {text!r}; use D (daily), W (weekly, week end "
             "taken from the dates) or W-MON .. W-SUN, M (monthly) or Q (quarterly)"
         )
     return _FREQ_WORDS[key]
@@ -109,7 +110,7 @@ def weekday_problem(dates: pd.DatetimeIndex, rows: Sequence[int] | None, source:
     return (
         f"{source}: dates look weekly with weeks ending on {_WEEKDAY_NAMES[weekday]}, but "
         f"{shown}{more} {'falls' if len(off) == 1 else 'fall'} on another day; weekly dates "
-        "must all be the same week-ending day (or give --freq D if the data are daily)"
+        f"must all be the same week-ending day (or give {spelling.option('freq', 'D')} if the data are daily)"
     )
 
 
@@ -155,7 +156,7 @@ def detect_freq(
     if len(idx) < 2:
         raise HistoryError(
             f"{source}: only {len(idx)} date; the frequency cannot be detected from fewer "
-            "than two dates (give --freq, and note a fit needs two full seasonal cycles)"
+            f"than two dates (give {spelling.option('freq')}, and note a fit needs two full seasonal cycles)"
         )
     if not idx.is_unique:
         dup = idx[idx.duplicated()][0]
@@ -179,7 +180,7 @@ def detect_freq(
         raise HistoryError(
             f"{source}: cannot tell the frequency: consecutive dates are typically "
             f"{typical} days apart; evcal reads daily, weekly (every row on the same "
-            "week-ending day), monthly or quarterly data; give --freq to choose one"
+            f"week-ending day), monthly or quarterly data; give {spelling.option('freq')} to choose one"
         )
     run = _longest_run_above_one(steps)
     if run is not None:
@@ -188,7 +189,7 @@ def detect_freq(
             f"{source}: mixed frequency: {_span(row_list, first, last + 1)} are {step} "
             f"periods apart at the {describe_freq(freq)} rate the other rows follow; "
             "evcal reads one frequency per file: split or aggregate the rows, or give "
-            "--freq to force one (the skipped periods then count as missing)"
+            f"{spelling.option('freq')} to force one (the skipped periods then count as missing)"
         )
     return freq
 
@@ -249,11 +250,12 @@ def check_forced_freq(
     >>> check_forced_freq(sundays, None, "f.csv", "D", "D")
     Traceback (most recent call last):
     ...
-    evcal.errors.HistoryError: f.csv: --freq D reads the dates as daily, but consecutive dates are \
+    evcal.errors.HistoryError: f.csv: freq='D' reads the dates as daily, but consecutive dates are \
 typically 7 days apart, so most periods would be missing: the dates are weekly (week ending Sunday): \
-pass --freq W-SUN, or leave --freq out to detect it
+pass freq='W-SUN', or leave freq= out to detect it
     """
     option = option.strip()
+    given = spelling.option("freq", option)
     if forced.startswith("W-"):
         want = WEEKDAYS.index(forced[2:])
         weekdays = np.asarray(stamps.day_of_week)
@@ -267,12 +269,13 @@ pass --freq W-SUN, or leave --freq out to detect it
             if len(set(weekdays.tolist())) == 1:
                 day = int(weekdays[0])
                 raise HistoryError(
-                    f"{name}: --freq {option} reads weeks ending {_WEEKDAY_NAMES[want]}, but the dates "
+                    f"{name}: {given} reads weeks ending {_WEEKDAY_NAMES[want]}, but the dates "
                     f"fall on {_WEEKDAY_NAMES[day]}s ({shown}); weekly dates name the last day of each "
-                    f"week: pass --freq {weekly_freq(day)}, or leave --freq out to detect it"
+                    f"week: pass {spelling.option('freq', weekly_freq(day))}, or leave "
+                    f"{spelling.option('freq')} out to detect it"
                 )
             raise HistoryError(
-                f"{name}: --freq {option} reads weeks ending {_WEEKDAY_NAMES[want]}, but {shown} "
+                f"{name}: {given} reads weeks ending {_WEEKDAY_NAMES[want]}, but {shown} "
                 f"fall on other days; weekly dates name the last day of each week: "
                 f"{_instead(stamps, rows, name)}"
             )
@@ -285,7 +288,7 @@ pass --freq W-SUN, or leave --freq out to detect it
     typical = int(np.median(steps))
     if typical > 1:
         raise HistoryError(
-            f"{name}: --freq {option} reads the dates as {describe_freq(forced)}, but consecutive "
+            f"{name}: {given} reads the dates as {describe_freq(forced)}, but consecutive "
             f"dates are typically {typical} {_UNITS[forced[0]]} apart, so most periods would be "
             f"missing: {_instead(stamps, rows, name)}"
         )
@@ -295,9 +298,10 @@ def _instead(stamps: pd.DatetimeIndex, rows: Sequence[int] | None, name: str) ->
     try:
         found = detect_freq(stamps, source=name, rows=rows)
     except HistoryError:
-        return "give the frequency the dates have, or leave --freq out to detect it"
+        return f"give the frequency the dates have, or leave {spelling.option('freq')} out to detect it"
     code = "Q" if found.startswith("Q") else found  # what to type after --freq
-    return f"the dates are {describe_freq(found)}: pass --freq {code}, or leave --freq out to detect it"
+    return (f"the dates are {describe_freq(found)}: pass {spelling.option('freq', code)}, or leave "
+            f"{spelling.option('freq')} out to detect it")
 
 
 def detect_label(dates: pd.DatetimeIndex, freq: str) -> str:

@@ -24,10 +24,13 @@ from evcal.io.frequency import describe_freq, detect_label
 from evcal.io.panel import Panel
 from evcal.io.series_freq import series_frequency
 from evcal.io.tables import PARQUET_SUFFIXES, RawTable, find_column, load_table
+from evcal.spelling import option, subject
 
 __all__ = ["Panel", "read_panel", "panel_from_frame", "split_key_option"]
 
 NS_PER_DAY = 86_400 * 10**9
+#: the command line's flag for ``series_cols``
+_KEYS = "--series-col"
 
 
 def split_key_option(values: str | list[str] | tuple[str, ...] | None) -> list[str]:
@@ -70,7 +73,8 @@ def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_c
     ('M', 2, [[1.0, 3.0], [2.0, 4.0]])
     """
     if not series_cols:
-        raise HistoryError("--series-col: give at least one key column (e.g. --series-col product)")
+        raise HistoryError(f"{subject('series_cols', flag=_KEYS)}: give at least one key column "
+                           f"(e.g. {option('series_cols', ['product'], flag=_KEYS, cli_value='product')})")
     attr_cols = [c for c in (attr_cols or []) if c not in series_cols]
     table = _load(source, series_cols, attr_cols, date_col, value_col)
     return panel_from_frame(table, series_cols, date_col, value_col, freq, attr_cols)
@@ -78,7 +82,7 @@ def read_panel(source: str | Path | pd.DataFrame, series_cols: list[str], date_c
 
 def _grouping_column(table: RawTable, wanted: str) -> str:
     # a column asked for by --level or --group-col (the message points back at those options)
-    return find_column(table, wanted, "grouping", "--level or --group-col")
+    return find_column(table, wanted, "grouping", f"{option('level')} or {option('group_col')}")
 
 
 def _load(source: Any, series_cols: list[str], attr_cols: list[str], date_col: str, value_col: str
@@ -99,10 +103,10 @@ def _load_parquet(path: Path, series_cols: list[str], attr_cols: list[str], date
     except Exception as err:  # pyarrow raises many types for a damaged file
         raise HistoryError(f"{path.name}: not a readable Parquet file ({type(err).__name__})") from None
     probe = RawTable(pd.DataFrame(columns=names), [], path.name)
-    wanted = [find_column(probe, c, "key", "--series-col") for c in series_cols]
+    wanted = [find_column(probe, c, "key", option("series_cols", flag=_KEYS)) for c in series_cols]
     wanted += [_grouping_column(probe, c) for c in attr_cols]
-    wanted += [find_column(probe, date_col, "date", "--date-col"),
-               find_column(probe, value_col, "value", "--value-col")]
+    wanted += [find_column(probe, date_col, "date", option("date_col")),
+               find_column(probe, value_col, "value", option("value_col"))]
     keys = list(dict.fromkeys(wanted[:-2]))
     try:
         # key columns as dictionaries: each distinct key is decoded once, rows carry integer codes
@@ -129,13 +133,14 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
     """Build the panel from a loaded table (see :func:`read_panel`)."""
     name = table.source
     frame = table.frame
-    kcols = [find_column(table, c, "key", "--series-col") for c in series_cols]
-    dcol = find_column(table, date_col, "date", "--date-col")
-    vcol = find_column(table, value_col, "value", "--value-col")
+    kcols = [find_column(table, c, "key", option("series_cols", flag=_KEYS)) for c in series_cols]
+    dcol = find_column(table, date_col, "date", option("date_col"))
+    vcol = find_column(table, value_col, "value", option("value_col"))
     clash = sorted({c for c in kcols if c in (dcol, vcol)} | ({dcol} if dcol == vcol else set()))
     if clash or len(set(kcols)) != len(kcols):
-        raise HistoryError(f"{name}: column {(clash or kcols)[0]!r} is named twice among --series-col, "
-                           "--date-col and --value-col; give each role its own column")
+        raise HistoryError(f"{name}: column {(clash or kcols)[0]!r} is named twice among "
+                           f"{option('series_cols', flag=_KEYS)}, {option('date_col')} and "
+                           f"{option('value_col')}; give each role its own column")
     n_rows = len(frame)
     if n_rows == 0:
         raise HistoryError(f"{name}: no data rows; expected one row per series and period")
@@ -156,7 +161,8 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
         if bad.any():
             i = int(np.flatnonzero(bad)[0])
             raise HistoryError(f"{name} row {_row_number(table, i)}, column {c!r}: empty key; every row "
-                               f"needs a value in each --series-col column ({int(bad.sum())} such rows)")
+                               f"needs a value in each {option('series_cols', flag=_KEYS)} column "
+                               f"({int(bad.sum())} such rows)")
         del bad
         uniques.append(uu)
         # 4 bytes a row while the combinations fit (the usual case), 8 beyond
@@ -283,7 +289,7 @@ def _attributes(table: RawTable, cols: list[str], sid: np.ndarray, n_series: int
             raise HistoryError(
                 f"{table.source} row {_row_number(table, i)}, column {c!r}: series {key_text(keys, j)} has "
                 f"both {quote(uniq[first[j]])} and {quote(uniq[codes[i]])}; a grouping column needs one "
-                "value per series (add it to --series-col if it is part of the key)")
+                f"value per series (add it to {option('series_cols', flag=_KEYS)} if it is part of the key)")
         out[c] = pd.Series(np.asarray(uniq, dtype=object)[first]).astype(str).to_numpy(dtype=object)
     return pd.DataFrame(out)
 

@@ -30,6 +30,7 @@ from evcal.io.drivers import (
 from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_freq_option, resolve_freq
 from evcal.io.history import History
 from evcal.io.tables import find_column, load_table
+from evcal.spelling import option, options
 
 _MAX_CLASHES = 3
 # Rows named for one repeated date or period; the others are counted.
@@ -101,12 +102,12 @@ def read_history(
     wanted = parse_drivers(drivers)
     table = load_table(source, sheet=sheet, date_col=date_col)
     name = table.source
-    dcol = find_column(table, date_col, "date", "--date-col")
-    vcol = find_column(table, value_col, "value", "--value-col")
+    dcol = find_column(table, date_col, "date", option("date_col"))
+    vcol = find_column(table, value_col, "value", option("value_col"))
     if dcol == vcol:
         raise HistoryError(
             f"{name}: the date and value columns are both {dcol!r}; name two different "
-            "columns with --date-col and --value-col"
+            f"columns with {option('date_col')} and {option('value_col')}"
         )
 
     frame = table.frame
@@ -126,7 +127,7 @@ def read_history(
         raise HistoryError(
             f"{name}: column {dcol!r} holds numbers and column {vcol!r} holds dates, so the two look "
             f"swapped; put the dates under {dcol!r} and the values under {vcol!r}, or pass "
-            f"--date-col {vcol!r} --value-col {dcol!r}"
+            f"{options(option('date_col', vcol, quote=True), option('value_col', dcol, quote=True))}"
         )
     problems += value_problems
     dates = dates.dt.normalize()
@@ -218,7 +219,7 @@ def _check_one_row_per_period(
         return
     try:
         shown_freq = detect_freq(stamps, source=name, rows=rows)
-        hint = f"the dates look {describe_freq(shown_freq)}; leave out --freq to use that"
+        hint = f"the dates look {describe_freq(shown_freq)}; leave out {option('freq')} to use that"
     except HistoryError:
         hint = "give one row per period"
     clashes = _repeats(pd.Series(periods.asi8))

@@ -20,6 +20,7 @@ from evcal.model.fit_rows import excluded_periods
 from evcal.model.identify import ColumnStatus, check_columns, independent_base_columns
 from evcal.model.options import FitOptions
 from evcal.model.settings import Chosen, given
+from evcal.spelling import option
 
 
 @dataclass
@@ -73,13 +74,13 @@ def choose_transform(values: pd.Series, options: FitOptions, source: str, known_
                            "level or season to fit: check that the value column is the one meant")
     if options.allow_negative and (v < 0).any() and options.transform in ("log", "count"):
         raise HistoryError(f"{source}: column value has negative values; transform "
-                           f"{options.transform} needs values >= 0; use --transform none")
+                           f"{options.transform} needs values >= 0; use {option('transform', 'none')}")
     if options.transform == "log" and (open_v <= 0).any():
         first = open_v[open_v <= 0].index[0]
         raise HistoryError(
-            f"{source}: period {first}: value {open_v[first]:g} is zero and --transform log needs "
-            "positive values; use --transform count for series with zeros (or mark closures "
-            "with effect: zero)")
+            f"{source}: period {first}: value {open_v[first]:g} is zero and {option('transform', 'log')} "
+            f"needs positive values; use {option('transform', 'count')} for series with zeros (or mark "
+            "closures with effect: zero)")
     values_2d = values.to_numpy(dtype=float)[:, None]
     return str(transforms(values_2d, ~known_zero, options.transform, options.allow_negative)[0])
 

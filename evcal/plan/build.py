@@ -39,6 +39,7 @@ from evcal.plan.result import Plan
 from evcal.plan.schedule import Schedule, resolve_schedule
 from evcal.plan.simulate import check_sims, error_forecast, simulate_interval
 from evcal.plan.spread import DRIVER_PREFIX, check_total, read_totals, spread, whole_unit_plan
+from evcal.spelling import option, subject
 from evcal.threads import held_blas
 
 ERROR_COLUMN = "__error_forecast__"
@@ -119,8 +120,8 @@ def make_plan(
     >>> plan.save("plan.xlsx")                                           # doctest: +SKIP
     """
     if total is not None and totals is not None:
-        raise PlanError("give either --total (one target for the horizon) or --totals (a target per "
-                        "year), not both")
+        raise PlanError(f"give either {option('total')} (one target for the horizon) or {option('totals')} "
+                        "(a target per year), not both")
     check_sims(n_sims)
     target_total = check_total(total) if total is not None else None
     year_totals = read_totals(totals) if totals is not None else None
@@ -144,8 +145,9 @@ def with_driver_values(result: Any, drivers: Any) -> Any:
 
     records = result.spec.drivers
     if not records:
-        raise PlanError("--drivers: this model has no outside drivers; leave --drivers out (or refit with "
-                        "--driver NAME)")
+        raise PlanError(f"{subject('drivers')}: this model has no outside drivers; leave {option('drivers')} "
+                        "out (or refit with "
+                        f"{option('drivers', ['NAME'], flag='--driver', cli_value='NAME')})")
     future = read_driver_file(drivers, [(d["name"], d["scale"]) for d in records], result.freq)
     out = copy.copy(result)
     out.spec = replace(result.spec, drivers=with_future(records, future, result.freq))

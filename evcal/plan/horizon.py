@@ -19,6 +19,7 @@ from evcal.calendar.occurrences import as_day
 from evcal.design.seasonal import base_freq
 from evcal.errors import CalendarError, PlanError, clip
 from evcal.io.history import period_dates
+from evcal.spelling import option, options, subject
 
 _YEAR = re.compile(r"^\s*(\d{4})\s*$")
 
@@ -38,6 +39,16 @@ def _as_day(value: Any, *, end: bool, what: str) -> pd.Timestamp:
         raise PlanError(f"{what} {day.date()}: outside the years a plan can cover; give a date from "
                         f"{YEAR_RANGE[0]} to {YEAR_RANGE[1]}")
     return day
+
+
+def _from(day: pd.Timestamp) -> str:
+    """The first day of the horizon as the user gave it: ``--from 2026-07-01`` / ``start='2026-07-01'``."""
+    return option("start", str(day.date()), flag="--from")
+
+
+def _to(day: pd.Timestamp) -> str:
+    """The last day of the horizon: ``--to 2026-12-31`` / ``end='2026-12-31'``."""
+    return option("end", str(day.date()), flag="--to")
 
 
 def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
@@ -68,8 +79,8 @@ def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
     >>> [str(p) for p in horizon_periods(res, "2025", "2025-03-15")]
     ['2025-01', '2025-02', '2025-03']
     """
-    first_day = _as_day(start, end=False, what="--from")
-    last_day = _as_day(end, end=True, what="--to")
+    first_day = _as_day(start, end=False, what=subject("start", flag="--from"))
+    last_day = _as_day(end, end=True, what=subject("end", flag="--to"))
     freq = result.freq
     first, last = first_day.to_period(freq), last_day.to_period(freq)
     if base_freq(freq) == "W" and last >= first:
@@ -79,18 +90,19 @@ def horizon_periods(result: Any, start: Any, end: Any) -> pd.PeriodIndex:
         inside = around[(stamps >= first_day) & (stamps <= last_day)]
         if len(inside) == 0:
             raise PlanError(
-                f"--from {first_day.date()} --to {last_day.date()}: no week is dated between these days "
+                f"{options(_from(first_day), _to(last_day))}: no week is dated "
+                "between these days "
                 f"(weeks are dated by their {'last' if label == 'end' else 'first'} day); widen the horizon")
         first, last = inside[0], inside[-1]
     hist_end = pd.Period(result.history_end, freq=freq)
     if first <= hist_end:
         raise PlanError(
-            f"--from {first_day.date()}: the plan must start after the history, which ends with "
+            f"{_from(first_day)}: the plan must start after the history, which ends with "
             f"period {hist_end}; start on or after {(hist_end + 1).start_time.date()} (to re-plan the rest "
-            "of a year against its target, start there and give the sales so far with --actuals)")
+            f"of a year against its target, start there and give the sales so far with {option('actuals')})")
     if last < first:
         raise PlanError(
-            f"--to {last_day.date()} is before --from {first_day.date()}; the horizon must end on or "
+            f"{_to(last_day)} is before {_from(first_day)}; the horizon must end on or "
             "after the day it starts")
     return pd.period_range(first, last, freq=freq)
 

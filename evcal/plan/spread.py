@@ -18,6 +18,7 @@ import pandas as pd
 
 from evcal.errors import PlanError
 from evcal.plan.horizon import period_years
+from evcal.spelling import option, subject
 
 AMOUNT_COLUMNS = ("base", "plan", "low", "high")
 #: the panel plan's note when each series is in whole units (:func:`round_table` per series)
@@ -28,7 +29,7 @@ PANEL_WHOLE_UNITS_NOTE = ("whole units: each series' periods are whole numbers, 
 DRIVER_PREFIX = "driver:"
 
 
-def check_total(value: Any, what: str = "--total") -> float:
+def check_total(value: Any, what: str | None = None) -> float:
     """A target total as a positive finite float, or a one-line :class:`PlanError`.
 
     Examples
@@ -38,18 +39,20 @@ def check_total(value: Any, what: str = "--total") -> float:
     >>> check_total(-5)  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    evcal.errors.PlanError: --total -5: the target total must be a positive number of units, ...
+    evcal.errors.PlanError: total=-5: the target total must be a positive number of units, ...
     """
     try:
         if isinstance(value, bool):
             raise TypeError
         x = float(str(value).replace(",", "").replace("_", "")) if isinstance(value, str) else float(value)
     except (TypeError, ValueError):
-        raise PlanError(f"{what} {value!r}: not a number; give the target total in units, "
-                        "e.g. --total 125000") from None
+        head = option("total", value, quote=True) if what is None else f"{what} {value!r}"
+        raise PlanError(f"{head}: not a number; give the target total in units, "
+                        f"e.g. {option('total', 125000)}") from None
     if not math.isfinite(x) or x <= 0:
-        raise PlanError(f"{what} {value}: the target total must be a positive number of units, "
-                        "e.g. --total 125000")
+        head = option("total", value) if what is None else f"{what} {value}"
+        raise PlanError(f"{head}: the target total must be a positive number of units, "
+                        f"e.g. {option('total', 125000)}")
     return x
 
 
@@ -124,8 +127,8 @@ def spread(table: pd.DataFrame, years: np.ndarray, total: float | None, totals: 
     if total is not None:
         whole = float(plan.sum())
         if not np.isfinite(whole) or whole <= 0:
-            raise PlanError(f"--total: the plan adds up to {whole:g}, so it cannot be spread to a total; "
-                            "check that the horizon is not wholly closed")
+            raise PlanError(f"{subject('total')}: the plan adds up to {whole:g}, so it cannot be spread to a "
+                            "total; check that the horizon is not wholly closed")
         factors = dict.fromkeys(needed, total / whole)
     elif totals is not None:
         missing = [y for y in needed if y not in totals]

@@ -14,8 +14,10 @@ import math
 from pathlib import Path
 
 import numpy as np
+import openpyxl
 import pandas as pd
 import pytest
+from test_workbook import plan_rows
 
 import evcal
 from evcal.errors import PlanError
@@ -359,8 +361,12 @@ def test_save_csv_and_xlsx(monthly_fit: evcal.FitResult, tmp_path: Path) -> None
     assert back["date"].iloc[0] == "2024-01-31"
     np.testing.assert_allclose(back["plan"], plan.table["plan"], rtol=1e-9)
     plan.save(tmp_path / "plan.xlsx")
-    sheet = pd.read_excel(tmp_path / "plan.xlsx", sheet_name="Plan")
-    np.testing.assert_allclose(sheet["plan"], plan.table["plan"], rtol=1e-9)
+    # the Plan sheet: a target block, then the table keyed by plan.csv's codes; the plan column holds
+    # formulas (target x share), the model's own amounts sit beside it as values
+    codes, rows = plan_rows(openpyxl.load_workbook(tmp_path / "plan.xlsx")["Plan"])
+    model_plan = [r[codes.index("model:plan")].value for r in rows]
+    np.testing.assert_allclose(model_plan, plan.table["plan"], rtol=1e-9)
+    assert all(str(r[codes.index("plan")].value).startswith("=") for r in rows)
     with pytest.raises(PlanError, match="plan.csv or plan.xlsx"):
         plan.save(tmp_path / "plan.txt")
     assert sorted(p.name for p in tmp_path.iterdir()) == ["plan.csv", "plan.xlsx"]

@@ -55,6 +55,7 @@ _CSV_HEADERS = {("event", "start", "end", "strength"): "dates",
 _PLAN_RUNS = (("date", "base", "plan", "low", "high"), ("date", "share", "base", "plan", "low", "high"))
 #: sheet names of evcal's workbooks (evcal.plan.workbook.SHEETS + Notes; a compare; a plain plan)
 _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Notes"): "plan",
+                    ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Notes"): "plan",
                     ("Plan",): "plan", ("Plan", "Notes"): "plan", ("Scenarios",): "compare"}
 
 

@@ -87,3 +87,17 @@ def test_bad_compare_drivers_is_one_line(model, extra, expected):
     lines = [ln for ln in res.output.splitlines() if ln.strip()]
     assert len(lines) == 1 and "Traceback" not in res.output, res.output
     assert re.search(expected, lines[0]), lines[0]
+
+
+def test_a_driver_plan_workbook_can_be_written_again(model):
+    """A plan workbook with a Drivers sheet is evcal's own plan: planning again onto it replaces it.
+    Before: its sheets (Plan, Lifts, Seasonal index, Past occurrences, Drivers, Notes) were not known as a
+    plan's, so the second run was refused as a file evcal did not write."""
+    from evcal.outputs import file_kind
+
+    folder, _ = model
+    out = folder / "drivers-plan.xlsx"
+    for _ in range(2):
+        res = _plan(folder, "--drivers", str(folder / "base.csv"), "--out", str(out))
+        assert res.exit_code == 0, res.output
+    assert file_kind(out) == "plan"

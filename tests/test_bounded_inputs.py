@@ -422,15 +422,16 @@ def sunday_weeks(n: int = 60) -> pd.DataFrame:
 
 
 def test_freq_w_sat_on_sunday_weeks_is_refused() -> None:
+    # From Python the line names the argument (freq=); the command line's names --freq.
     # Before: accepted; each Sunday was read as the week ending the next Saturday and the
     # lifts collapsed.
     with pytest.raises(HistoryError) as e:
         read_history(sunday_weeks(), freq="W-SAT")
     (line,) = e.value.problems
     assert line == (
-        "<frame>: --freq W-SAT reads weeks ending Saturday, but the dates fall on Sundays (row 2 "
+        "<frame>: freq='W-SAT' reads weeks ending Saturday, but the dates fall on Sundays (row 2 "
         "(2023-01-01), row 3 (2023-01-08), row 4 (2023-01-15) and 57 more); weekly dates name the last "
-        "day of each week: pass --freq W-SUN, or leave --freq out to detect it"
+        "day of each week: pass freq='W-SUN', or leave freq= out to detect it"
     )
 
 
@@ -447,11 +448,11 @@ def test_freq_w_sat_on_sunday_weeks_through_the_cli(tmp_path: Path) -> None:
     ("dates", "option", "words"),
     [
         (pd.date_range("2020-01-31", periods=36, freq="ME"), "D", "typically 31 days apart"),
-        (pd.date_range("2020-01-31", periods=36, freq="ME"), "W-SUN", "pass --freq M"),
+        (pd.date_range("2020-01-31", periods=36, freq="ME"), "W-SUN", "pass freq='M'"),
         (pd.date_range("2015-03-31", periods=24, freq="QE"), "M", "typically 3 months apart"),
-        (pd.date_range("2015-03-31", periods=24, freq="QE"), "daily", "pass --freq Q"),
+        (pd.date_range("2015-03-31", periods=24, freq="QE"), "daily", "pass freq='Q'"),
         (pd.date_range("2023-01-01", periods=60, freq="W-SUN"), "D", "typically 7 days apart"),
-        (pd.date_range("2022-01-01", periods=800, freq="D"), "W-SAT", "the dates are daily: pass --freq D"),
+        (pd.date_range("2022-01-01", periods=800, freq="D"), "W-SAT", "the dates are daily: pass freq='D'"),
         (pd.date_range("2020-01-01", periods=36, freq="MS"), "W", "look weekly with weeks ending"),
     ],
 )

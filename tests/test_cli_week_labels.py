@@ -107,3 +107,14 @@ def test_unknown_kind_refused(weekly: Path, tmp_path: Path) -> None:
                               str(tmp_path / "p.csv"), "--week-labels", "us"])
     assert res.exit_code == 2
     assert res.stderr.startswith("error: --week-labels us: unknown kind of week label; use iso")
+
+
+def test_a_labelled_plan_reads_back_into_the_report(weekly: Path, tmp_path: Path) -> None:
+    """The round trip: a plan written with --week-labels iso is read by `evcal report --plan`.
+    Before: "plan.csv: line 2: column iso_week: '2026-W53' is not a number" (exit 2)."""
+    out = tmp_path / "plan.csv"
+    assert _plan(weekly, out).exit_code == 0
+    html = tmp_path / "r.html"
+    res = runner.invoke(app, ["report", str(weekly), "--plan", str(out), "-o", str(html)])
+    assert res.exit_code == 0, res.output
+    assert "2027" in html.read_text(encoding="utf-8")

@@ -140,3 +140,11 @@ def test_a_panel_workbook_is_replaced_by_the_next_plan(books: dict[str, Path]) -
     from evcal.outputs import file_kind
 
     assert file_kind(books["plain"]) == "plan"
+
+
+def test_a_labelled_panel_plan_reads_back_into_the_panel_report(panel_dir: Path, tmp_path: Path) -> None:
+    """Before: the panel report read iso_week as a number and refused the plan (exit 2)."""
+    out = tmp_path / "plan.csv"
+    assert _plan(panel_dir, out, "--week-labels", "iso").exit_code == 0
+    res = runner.invoke(app, ["report", str(panel_dir), "--plan", str(out), "-o", str(tmp_path / "r.html")])
+    assert res.exit_code == 0, res.output

@@ -22,6 +22,7 @@ import pandas as pd
 
 from evcal.errors import ModelError
 from evcal.formula_safe import unguard_frame
+from evcal.io.weeklabels import ISO_WEEK_COLUMN
 from evcal.plan.actuals import split_plan_file
 from evcal.plan.spread import DRIVER_PREFIX  # the plan's driver columns, as evcal.plan writes them
 
@@ -151,16 +152,21 @@ def read_drivers_csv(folder: Path, model: dict[str, Any]) -> pd.DataFrame:
     return check_drivers(folder / "drivers.csv", {d["name"] for d in model["design"]["drivers"]})
 
 
+#: the text columns of a plan file: what each period assumed, and its ISO week label (plan --week-labels)
+PLAN_TEXT_COLUMNS = ("assumptions", ISO_WEEK_COLUMN)
+
+
 def read_plan_csv(path: str | Path) -> pd.DataFrame:
     """Read ``plan.csv`` (``date, base, plan, low, high, lift:<event>..., [assumptions]``)."""
     path = Path(path)
     plan = _read_csv(path, PLAN_COLUMNS, "plan")
     problems: list[str] = []
     plan["date"] = _parse(plan["date"], path, "date", problems, date=True)
-    for col in plan.columns.drop(["date", "assumptions"], errors="ignore"):
+    for col in plan.columns.drop(["date", *PLAN_TEXT_COLUMNS], errors="ignore"):
         plan[col] = _parse(plan[col], path, col, problems)
-    if "assumptions" in plan.columns:
-        plan["assumptions"] = plan["assumptions"].fillna("").astype(str)
+    for col in PLAN_TEXT_COLUMNS:
+        if col in plan.columns:
+            plan[col] = plan[col].fillna("").astype(str)
     if problems:
         raise ModelError(problems)
     plan = unguard_frame(plan)  # the plan writer quotes text that a spreadsheet would run as a formula

@@ -198,16 +198,16 @@ def read_panel_plan(path: str | Path, panel: PanelResult) -> pd.DataFrame:
         the panel (its line).
     """
     from evcal.formula_safe import unguard_frame
-    from evcal.report.model_folder import PLAN_COLUMNS, _parse, _read_csv
+    from evcal.report.model_folder import PLAN_COLUMNS, PLAN_TEXT_COLUMNS, _parse, _read_csv
 
     path = Path(path)
     frame = _read_csv(path, (*panel.key_cols, *PLAN_COLUMNS), "plan")
     problems: list[str] = []
     frame["date"] = _parse(frame["date"], path, "date", problems, date=True)
-    text = {*panel.key_cols, "date", "assumptions", "note"}
+    text = {*panel.key_cols, "date", *PLAN_TEXT_COLUMNS, "note"}
     for col in [c for c in frame.columns if c not in text]:
         frame[col] = _parse(frame[col], path, col, problems)
-    for col in ("assumptions", "note"):
+    for col in (*PLAN_TEXT_COLUMNS, "note"):
         if col in frame.columns:
             frame[col] = frame[col].fillna("").astype(str)
     frame[panel.key_cols] = frame[panel.key_cols].fillna("").astype(str)

@@ -9,6 +9,7 @@ re-plan's shape must keep.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -185,3 +186,34 @@ def test_report_shows_the_year_side_by_side(model_dir: Path, tmp_path: Path) -> 
     assert "14,000 for the year" in text
     # the plan's own cards count the plan's periods only: six, not twelve
     assert "over 6 periods" in text
+
+
+def test_per_year_targets_past_the_actuals_year_keep_the_year_to_date_lines_to_that_year(
+        fit_2023: evcal.FitResult, model_dir: Path, tmp_path: Path) -> None:
+    """--totals for two years with actuals of the first: the summary's 'target = actuals + rest' and the
+    report's year part speak of the actuals' year only (the next year has its own target).
+    Before: "the target 14,000 = ... + 29,xxx planned for the rest" (both years' plan against one target)."""
+    totals = tmp_path / "totals.csv"
+    totals.write_text("year,total\n2024,14000\n2025,15000\n")
+    act = actuals_2024()
+    plan = make_plan(fit_2023, "2024-07-01", "2025-12-31", totals=totals, actuals=act, n_sims=0)
+    years = pd.DatetimeIndex(plan.table["date"]).year
+    rest_2024 = float(plan.table["plan"][years == 2024].sum())
+    assert act["value"].sum() + rest_2024 == pytest.approx(14_000, rel=1e-10)
+    assert float(plan.table["plan"][years == 2025].sum()) == pytest.approx(15_000, rel=1e-10)
+    line = next(ln for ln in plan.summary().splitlines() if ln.startswith("Year to date"))
+    assert f"+ {rest_2024:,.0f} planned for the rest" in line
+    text = plan.summary().splitlines()
+    at = next(i for i, ln in enumerate(text) if ln.startswith("2024 side by side"))
+    months = [ln.split(":")[0].strip() for ln in text[at + 1:] if re.match(r"^  \d{4}-\d{2}: ", ln)]
+    assert months == [f"2024-{m:02d}" for m in range(1, 13)]
+    # the report's year part: 2024 only
+    act.to_csv(tmp_path / "actuals.csv", index=False)
+    plan_csv, html = tmp_path / "plan.csv", tmp_path / "report.html"
+    res = CliRunner().invoke(app, ["plan", str(model_dir), "--from", "2024-07-01", "--to", "2025-12-31",
+                                   "--totals", str(totals), "--actuals", str(tmp_path / "actuals.csv"),
+                                   "--sims", "0", "-o", str(plan_csv)])
+    assert res.exit_code == 0, res.output
+    res = CliRunner().invoke(app, ["report", str(model_dir), "--plan", str(plan_csv), "-o", str(html)])
+    assert res.exit_code == 0, res.output
+    assert "14,000 for the year" in html.read_text(encoding="utf-8")

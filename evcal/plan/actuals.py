@@ -33,7 +33,7 @@ from evcal.io.weeklabels import ISO_WEEK_COLUMN, iso_week_labels
 from evcal.plan.horizon import full_years, period_years
 
 __all__ = ["YearToDate", "actual_by_year", "check_rest", "plan_file_frame", "split_plan_file", "year_table",
-           "year_to_date", "with_year_to_date"]
+           "year_to_date", "year_to_date_periods", "with_year_to_date"]
 
 #: the plan file's column of the year-to-date actuals (rows before the plan; empty on the plan's rows)
 ACTUAL = "actual"
@@ -220,12 +220,27 @@ def actual_by_year(plan: Any) -> dict[int, float]:
 
 
 def year_table(plan: Any) -> pd.DataFrame:
-    """The plan's year side by side: ``date, actual, plan, low, high`` (actuals first; NaN where none)."""
+    """The plan's year side by side: ``date, actual, plan, low, high`` (actuals first; NaN where none).
+
+    Only the periods of the actuals' year: a horizon that runs into the next year (per-year ``--totals``)
+    lists those periods with its other years, not here.
+    """
     rows = plan.table[["date", "plan", "low", "high"]].copy()
     rows.insert(1, ACTUAL, np.nan)
     if plan.actuals is None:
         return rows
+    rows = rows[year_to_date_periods(plan)]
     return pd.concat([plan.actuals[["date", ACTUAL]], rows], ignore_index=True)
+
+
+def year_to_date_periods(plan: Any) -> np.ndarray:
+    """Mask of the plan's periods in the year of its actuals (all of them when it has none)."""
+    years = period_years(plan.periods, plan.label)
+    if plan.actuals is None:
+        return np.ones(len(years), dtype=bool)
+    year = int(period_years(pd.DatetimeIndex(plan.actuals["date"][:1]).to_period(plan.periods.freq),
+                            plan.label)[0])
+    return years == year
 
 
 def plan_file_frame(plan: Any) -> pd.DataFrame:

@@ -18,7 +18,7 @@ import pandas as pd
 from evcal.amounts import amount
 from evcal.design.seasonal import base_freq, season_position
 from evcal.model.weekday_share import average_share_basis, spread_weekday_share
-from evcal.plan.actuals import actual_by_year, year_table
+from evcal.plan.actuals import actual_by_year, year_table, year_to_date_periods
 
 
 def period_name(period: pd.Period, date: pd.Timestamp, label: str) -> str:
@@ -152,9 +152,12 @@ def _change_lines(plan: Any) -> list[str]:
 def _year_to_date_lines(plan: Any, done: dict[int, float]) -> list[str]:
     """The re-plan's lines: actuals so far + the plan = the year, and the year side by side by month."""
     actual = sum(done.values())
-    planned = float(plan.table["plan"].sum())
-    model = sum(plan.model_totals.values())
     year = min(done)
+    # one target for the horizon counts all of it; per-year targets (--totals) only the actuals' year's
+    per_year = plan.target_total is None and plan.target is not None
+    in_year = year_to_date_periods(plan) if per_year else np.ones(len(plan.table), dtype=bool)
+    planned = float(plan.table["plan"][in_year].sum())
+    model = plan.model_totals.get(year, 0.0) if per_year else sum(plan.model_totals.values())
     dates = pd.DatetimeIndex(plan.actuals["date"])
     so_far = (f"{_num(actual)} actual so far ({len(dates)} periods, {dates[0].date()} to {dates[-1].date()})")
     if plan.target_total is not None or plan.target is not None:

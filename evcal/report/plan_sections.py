@@ -151,6 +151,8 @@ def year_section(plan: pd.DataFrame, freq: str) -> dict[str, Any] | None:
     actuals = plan.attrs.get("actuals")
     if actuals is None or len(actuals) == 0:
         return None
+    # the actuals' year only: a horizon running into the next year (per-year --totals) shows it below
+    plan = plan[plan["date"].dt.year == pd.Timestamp(actuals["date"].iloc[0]).year]
     done, planned = float(actuals["actual"].sum()), float(plan["plan"].sum())
     fig, ax = charts._figure(3.2)
     ax.plot(actuals["date"], actuals["actual"], color=charts.pal.INK, linewidth=1.6, marker="o",

@@ -217,3 +217,27 @@ def test_per_year_targets_past_the_actuals_year_keep_the_year_to_date_lines_to_t
     res = CliRunner().invoke(app, ["report", str(model_dir), "--plan", str(plan_csv), "-o", str(html)])
     assert res.exit_code == 0, res.output
     assert "14,000 for the year" in html.read_text(encoding="utf-8")
+
+
+def test_a_workbook_rebuilt_from_a_year_to_date_plan_file_keeps_its_actuals(model_dir: Path,
+                                                                            tmp_path: Path) -> None:
+    """evcal.report.workbook_from_files on a year-to-date plan.csv: the actual rows come first and the
+    target cell counts them (14,000). Before: no actual rows, and a target of the rest alone."""
+    from openpyxl import load_workbook
+
+    from evcal.report import workbook_from_files
+
+    act = actuals_2024()
+    act.to_csv(tmp_path / "actuals.csv", index=False)
+    plan_csv = tmp_path / "plan.csv"
+    res = CliRunner().invoke(app, ["plan", str(model_dir), "--from", "2024-07-01", "--to", "2024-12-31",
+                                   "--total", "14000", "--actuals", str(tmp_path / "actuals.csv"),
+                                   "--sims", "0", "-o", str(plan_csv)])
+    assert res.exit_code == 0, res.output
+    ws = load_workbook(workbook_from_files(tmp_path / "plan.xlsx", model_dir, plan_csv))["Plan"]
+    assert ws["A1"].value == "Target" and ws["B1"].value == pytest.approx(14_000, rel=1e-9)
+    header = next(r for r in ws.iter_rows(values_only=True) if r[0] == "date")
+    assert header[1] == "actual"
+    rows = list(ws.iter_rows(values_only=True))
+    at = rows.index(header) + 2  # the codes row, then the labels' header
+    np.testing.assert_allclose([r[1] for r in rows[at:at + 6]], act["value"], rtol=1e-12)

@@ -99,8 +99,11 @@ def how_made(notes: list[str]) -> str:
     --------
     >>> how_made([])
     'Each series is planned by its own model; no target was given. Plans are estimates.'
+    >>> how_made(["the target 100 is allocated over 2 series", "whole units: each adds up to its target"])
+    'How the plan was made: the target 100 is allocated over 2 series; whole units: each adds up to its \
+target. Plans are estimates.'
     """
-    rules = [n for n in notes if "target" in n or "allocated" in n]
+    rules = [n.rstrip(". ") for n in notes if "target" in n or "allocated" in n]
     if rules:
-        return "How the plan was made: " + " ".join(rules) + ". Plans are estimates."
+        return "How the plan was made: " + "; ".join(rules) + ". Plans are estimates."
     return "Each series is planned by its own model; no target was given. Plans are estimates."

@@ -242,8 +242,12 @@ def workbook_from_files(
     Without a plan the Plan sheet says so; the other sheets come from the folder.
     """
     from evcal.plan.workbook import write_workbook
+    from evcal.plan.workbook_plan import PlanLayout
 
     folder = read_model_folder(model_dir, plan_csv=plan_csv)
     plan = folder.plan if folder.plan is not None else pd.DataFrame()
+    layout = None
+    if plan.attrs.get("actuals") is not None:  # a year-to-date plan: its actuals first, counted in the target
+        layout = PlanLayout(groups=np.zeros(len(plan), dtype=int), actuals=plan.attrs["actuals"])
     return write_workbook(out_xlsx, plan, folder.lifts, folder.profile, folder.occurrences,
-                          drivers=folder.drivers)
+                          drivers=folder.drivers, layout=layout)

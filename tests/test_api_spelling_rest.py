@@ -1,0 +1,172 @@
+"""Errors speak the user's language, the rest of the modules (issue 18 item 8): the same bad input
+through the Python API names the argument (``holdout_years=0``, ``out='...'``) and through ``evcal`` on
+the command line (in-process) the flag (``--holdout-years 0``, ``--out ...``); the rest of the line is
+the same text. Modules: backtesting, plan/simulate, plan/schedule, demo, outputs (through the demo),
+and further below the panel and report modules. The histories and calendars are invented (a few
+weekly rows, a street fair), named as such.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+import evcal
+from evcal.cli import app
+from evcal.errors import EvcalError
+
+runner = CliRunner()
+#: invented weekly Sundays, 2020-2024 (four full calendar years and a bit)
+WEEKS = pd.date_range("2020-01-05", periods=260, freq="W-SUN")
+#: an invented calendar: one event inside the history
+CALENDAR = """name: invented shop
+events:
+  - {name: spring-sale, when: {fixed: "04-01"}}
+"""
+#: the same with an event the history never saw, inside the plan's year
+NEW_EVENT = CALENDAR + '  - {name: street-fair, when: {dates: [2025-06-15]}}\n'
+
+
+def _api_line(call: Callable[[], Any]) -> str:
+    with pytest.raises(EvcalError) as err:
+        call()
+    (line,) = err.value.problems
+    return line
+
+
+def _cli_line(args: list[str]) -> str:
+    res = runner.invoke(app, args)
+    assert res.exit_code == 2, res.output
+    lines = res.output.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("error: "), res.output
+    return lines[0].removeprefix("error: ")
+
+
+def _same_but_spelling(api: str, cli: str, pairs: list[tuple[str, str]]) -> None:
+    """The API line names each argument, the CLI line each flag, and nothing else differs."""
+    for arg, flag in pairs:
+        assert arg in api and arg not in cli, (arg, api, cli)
+        assert flag in cli, (flag, cli)
+    translated = api
+    for arg, flag in pairs:
+        translated = translated.replace(arg, flag)
+    assert translated == cli
+
+
+@pytest.fixture(scope="module")
+def files(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
+    """An invented weekly history, its calendar, a plan calendar with a new event, and a model."""
+    folder = tmp_path_factory.mktemp("spelling-rest")
+    history = folder / "h.csv"
+    pd.DataFrame({"date": WEEKS.strftime("%Y-%m-%d"), "value": 100.0 + (WEEKS.month % 5)}).to_csv(
+        history, index=False)
+    calendar = folder / "cal.yaml"
+    calendar.write_text(CALENDAR)
+    new_event = folder / "new.yaml"
+    new_event.write_text(NEW_EVENT)
+    evcal.fit(history, calendar, errors="ols").save(folder / "model")
+    return {"history": history, "calendar": calendar, "new_event": new_event, "model": folder / "model"}
+
+
+def test_backtest_holdout_years_not_a_whole_number(files: dict[str, Path], tmp_path: Path) -> None:
+    """backtesting. Fails on main: the API said '--holdout-years 0: must be a whole number'."""
+    api = _api_line(lambda: evcal.backtest(files["history"], files["calendar"], holdout_years=0))
+    cli = _cli_line(["backtest", str(files["history"]), "-c", str(files["calendar"]), "--holdout-years", "0",
+                     "-o", str(tmp_path / "bt.csv")])
+    assert api == "holdout_years=0: must be a whole number of years, 1 or more"
+    _same_but_spelling(api, cli, [("holdout_years=0", "--holdout-years 0")])
+
+
+def test_backtest_more_holdout_years_than_the_history_has(files: dict[str, Path], tmp_path: Path) -> None:
+    """backtesting: the setting inside the line, after the history. Fails on main ('--holdout-years 9')."""
+    api = _api_line(lambda: evcal.backtest(files["history"], files["calendar"], holdout_years=9))
+    cli = _cli_line(["backtest", str(files["history"]), "-c", str(files["calendar"]), "--holdout-years", "9",
+                     "-o", str(tmp_path / "bt.csv")])
+    assert "h.csv: holdout_years=9 but the history has only 4 full calendar year(s)" in api
+    _same_but_spelling(api, cli, [("holdout_years=9", "--holdout-years 9")])
+
+
+def test_plan_simulation_draws_out_of_range(files: dict[str, Path], tmp_path: Path) -> None:
+    """plan/simulate.check_sims: the argument is n_sims, the flag --sims. Fails on main ('--sims -1')."""
+    from evcal.plan import make_plan
+
+    fitted = evcal.load_model(files["model"])
+    api = _api_line(lambda: make_plan(fitted, "2025-01-01", "2025-12-31", n_sims=-1))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-01-01", "--to", "2025-12-31",
+                     "--sims", "-1", "-o", str(tmp_path / "p.csv")])
+    assert api.startswith("n_sims=-1: must be 0 (no interval) to ")
+    _same_but_spelling(api, cli, [("n_sims=-1", "--sims -1")])
+
+
+def test_plan_unknown_new_events_choice(files: dict[str, Path], tmp_path: Path) -> None:
+    """plan/schedule: a choice that is not one of error, zero. Fails on main ('--new-events 'maybe'')."""
+    from evcal.plan import make_plan
+
+    fitted = evcal.load_model(files["model"])
+    api = _api_line(lambda: make_plan(fitted, "2025-01-01", "2025-12-31", calendar=files["new_event"],
+                                      new_events="maybe", n_sims=0))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-01-01", "--to", "2025-12-31", "-c",
+                     str(files["new_event"]), "--new-events", "maybe", "--sims", "0",
+                     "-o", str(tmp_path / "p.csv")])
+    assert api == "new_events='maybe': must be one of error, zero"
+    _same_but_spelling(api, cli, [("new_events='maybe'", "--new-events 'maybe'")])
+
+
+def test_plan_an_event_the_model_never_saw(files: dict[str, Path], tmp_path: Path) -> None:
+    """plan/schedule: the advice to plan it with no lift. Fails on main: 'or pass --new-events zero'."""
+    from evcal.plan import make_plan
+
+    fitted = evcal.load_model(files["model"])
+    api = _api_line(lambda: make_plan(fitted, "2025-01-01", "2025-12-31", calendar=files["new_event"],
+                                      n_sims=0))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-01-01", "--to", "2025-12-31", "-c",
+                     str(files["new_event"]), "--sims", "0", "-o", str(tmp_path / "p.csv")])
+    assert api.startswith("event street-fair is new in the plan calendar")
+    assert "or pass new_events='zero' to plan it with no lift" in api
+    _same_but_spelling(api, cli, [("new_events='zero'", "--new-events zero")])
+
+
+def test_demo_data_folder_without_the_files(tmp_path: Path) -> None:
+    """demo.find_demo_data. Fails on main: the API said '--data ...: ... or leave --data out'."""
+    from evcal.demo import run_demo
+
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    api = _api_line(lambda: run_demo(tmp_path / "d1", data=empty, echo=lambda _: None))
+    cli = _cli_line(["demo", "--data", str(empty), "-o", str(tmp_path / "d2")])
+    assert api.startswith(f"data={str(empty)!r}: no ")
+    assert api.endswith("or leave data= out to use the bundled demo data")
+    _same_but_spelling(api, cli, [(f"data={str(empty)!r}", f"--data {empty}"), ("data=", "--data")])
+    assert not (tmp_path / "d1").exists() and not (tmp_path / "d2").exists()
+
+
+def test_output_over_a_file_of_the_users(tmp_path: Path) -> None:
+    """outputs.check_output through the demo. Fails on main: the API said '--out ...: is a file ...'."""
+    from evcal.demo import run_demo
+
+    mine = tmp_path / "sales.csv"
+    mine.write_text("date,value\n")
+    api = _api_line(lambda: run_demo(mine, echo=lambda _: None))
+    cli = _cli_line(["demo", "-o", str(mine)])
+    assert api.startswith(f"out={str(mine)!r}: is a file, and the demo folder is a folder; choose a new")
+    _same_but_spelling(api, cli, [(f"out={str(mine)!r}", f"--out {mine}")])
+    assert mine.read_text() == "date,value\n"
+
+
+def test_output_over_evcals_own_output_of_another_kind(files: dict[str, Path], tmp_path: Path) -> None:
+    """outputs.check_output: the switch that would replace it. Fails on main: 'or add --force'."""
+    import shutil
+
+    from evcal.demo import run_demo
+
+    model = tmp_path / "model"
+    shutil.copytree(files["model"], model)
+    api = _api_line(lambda: run_demo(model, echo=lambda _: None))
+    cli = _cli_line(["demo", "-o", str(model)])
+    assert api.endswith("or add force=True to replace it")
+    _same_but_spelling(api, cli, [(f"out={str(model)!r}", f"--out {model}"), ("force=True", "--force")])

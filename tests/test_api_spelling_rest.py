@@ -170,3 +170,89 @@ def test_output_over_evcals_own_output_of_another_kind(files: dict[str, Path], t
     cli = _cli_line(["demo", "-o", str(model)])
     assert api.endswith("or add force=True to replace it")
     _same_but_spelling(api, cli, [(f"out={str(model)!r}", f"--out {model}"), ("force=True", "--force")])
+
+
+# ---------------------------------------------------------------- panels and the report
+@pytest.fixture(scope="module")
+def panel(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
+    """An invented long table of two stores' weekly sales, and its panel model fitted once."""
+    from evcal.panel import fit_panel
+
+    folder = tmp_path_factory.mktemp("spelling-panel")
+    long = folder / "long.csv"
+    dates = list(WEEKS.strftime("%Y-%m-%d"))
+    pd.DataFrame({"date": dates * 2, "value": list(100.0 + (WEEKS.month % 5)) * 2,
+                  "store": ["north"] * len(WEEKS) + ["south"] * len(WEEKS)}).to_csv(long, index=False)
+    fit_panel(long, None, ["store"], errors="ols", progress=False).save(folder / "panel")
+    return {"long": long, "panel": folder / "panel"}
+
+
+def test_panel_level_without_key_columns(panel: dict[str, Path], tmp_path: Path) -> None:
+    """panel/build.read_for_panel. Fails on main: the API said '--level needs --series-col'."""
+    from evcal.panel import fit_panel
+
+    api = _api_line(lambda: fit_panel(panel["long"], None, level="store", progress=False))
+    cli = _cli_line(["fit", str(panel["long"]), "--level", "store", "-o", str(tmp_path / "m")])
+    assert api == "level= needs series_cols=: the child series to add up"
+    _same_but_spelling(api, cli, [("level=", "--level"), ("series_cols=", "--series-col")])
+
+
+def test_panel_plan_of_a_series_not_in_the_model(panel: dict[str, Path], tmp_path: Path) -> None:
+    """panel/result.PanelResult.find through plan_panel. Fails on main ('--series store=east: ...')."""
+    from evcal.panel.planning import plan_panel
+
+    api = _api_line(lambda: plan_panel(panel["panel"], "2025-01-01", "2025-12-31", series=["store=east"],
+                                       n_sims=0, progress=False))
+    cli = _cli_line(["plan", str(panel["panel"]), "--from", "2025-01-01", "--to", "2025-12-31", "--series",
+                     "store=east", "--sims", "0", "-o", str(tmp_path / "p.csv")])
+    assert api == "series='store=east': no such series in the model; see series.csv for the keys"
+    _same_but_spelling(api, cli, [("series='store=east'", "--series store=east")])
+
+
+def test_panel_plan_with_both_kinds_of_target(panel: dict[str, Path], tmp_path: Path) -> None:
+    """panel/planning.plan_panel. Fails on main: 'give either --total ... or --totals ...'."""
+    from evcal.panel.planning import plan_panel
+
+    targets = tmp_path / "targets.csv"
+    targets.write_text("store,total\nnorth,100\nsouth,200\n")
+    api = _api_line(lambda: plan_panel(panel["panel"], "2025-01-01", "2025-12-31", total=300.0,
+                                       totals=targets, n_sims=0, progress=False))
+    cli = _cli_line(["plan", str(panel["panel"]), "--from", "2025-01-01", "--to", "2025-12-31", "--total",
+                     "300", "--totals", str(targets), "--sims", "0", "-o", str(tmp_path / "p.csv")])
+    assert api.startswith("give either total= (one target, allocated over the series) or totals= (a file")
+    _same_but_spelling(api, cli, [("total=", "--total"), ("totals=", "--totals")])
+
+
+def test_report_series_for_a_single_model(files: dict[str, Path], tmp_path: Path) -> None:
+    """report/html.write_report. Fails on main: the API said '--series picks series ... (leave --series'."""
+    from evcal.report.html import write_report
+
+    api = _api_line(lambda: write_report(files["model"], tmp_path / "r1.html", series=["north"]))
+    cli = _cli_line(["report", str(files["model"]), "--series", "north", "-o", str(tmp_path / "r2.html")])
+    assert api.endswith("this is a single-series model folder (leave series= out)")
+    _same_but_spelling(api, cli, [("series=", "--series")])
+    assert not (tmp_path / "r1.html").exists() and not (tmp_path / "r2.html").exists()
+
+
+def test_report_backtest_for_a_panel(panel: dict[str, Path], tmp_path: Path) -> None:
+    """report/html: a setting read for single models only; the argument is backtest_csv, the flag
+    --backtest. Fails on main: the API said '--backtest is read for a single-series model folder'."""
+    from evcal.report.html import write_report
+
+    bt = tmp_path / "bt.csv"
+    bt.write_text("year,method,spread,wape,bias,peak_error\n")
+    api = _api_line(lambda: write_report(panel["panel"], tmp_path / "r1.html", backtest_csv=bt))
+    cli = _cli_line(["report", str(panel["panel"]), "--backtest", str(bt), "-o", str(tmp_path / "r2.html")])
+    assert "a panel model folder: backtest_csv= is read for a single-series model folder only" in api
+    _same_but_spelling(api, cli, [("backtest_csv=", "--backtest")])
+
+
+def test_panel_workers_below_one(panel: dict[str, Path], tmp_path: Path) -> None:
+    """panel/distributed.make_runner. Fails on main: the API said '--workers 0: give 1 or more'."""
+    from evcal.panel import fit_panel
+
+    api = _api_line(lambda: fit_panel(panel["long"], None, ["store"], workers=0, progress=False))
+    cli = _cli_line(["fit", str(panel["long"]), "--series-col", "store", "--workers", "0",
+                     "-o", str(tmp_path / "m")])
+    assert api == "workers=0: give 1 or more worker processes"
+    _same_but_spelling(api, cli, [("workers=0", "--workers 0")])

@@ -256,3 +256,64 @@ def test_panel_workers_below_one(panel: dict[str, Path], tmp_path: Path) -> None
                      "-o", str(tmp_path / "m")])
     assert api == "workers=0: give 1 or more worker processes"
     _same_but_spelling(api, cli, [("workers=0", "--workers 0")])
+
+
+# ---------------------------------------------------------------- plan targets, actuals, the plan file
+def test_plan_totals_without_a_year_of_the_horizon(files: dict[str, Path], tmp_path: Path) -> None:
+    """plan/spread.spread: the line starts with the setting. Fails on main: '--totals: no total for 2026'."""
+    from evcal.plan import make_plan
+
+    targets = tmp_path / "totals.csv"
+    targets.write_text("year,total\n2025,5000\n")
+    fitted = evcal.load_model(files["model"])
+    api = _api_line(lambda: make_plan(fitted, "2025-01-01", "2026-12-31", totals=targets, n_sims=0))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-01-01", "--to", "2026-12-31", "--totals",
+                     str(targets), "--sims", "0", "-o", str(tmp_path / "p.csv")])
+    assert api.startswith("totals: no total for 2026; the horizon covers 2025, 2026")
+    assert api.replace("totals:", "--totals:", 1) == cli
+
+
+def test_plan_actuals_that_run_into_the_plan(files: dict[str, Path], tmp_path: Path) -> None:
+    """plan/actuals.year_to_date: file and start. Fails on main: '--actuals ...: ... before --from'."""
+    from evcal.plan import make_plan
+
+    weeks = pd.date_range("2025-01-05", "2025-07-13", freq="W-SUN")
+    actuals = tmp_path / "actuals.csv"
+    pd.DataFrame({"date": weeks.strftime("%Y-%m-%d"), "value": 100.0}).to_csv(actuals, index=False)
+    fitted = evcal.load_model(files["model"])
+    api = _api_line(lambda: make_plan(fitted, "2025-07-01", "2025-12-31", actuals=actuals, n_sims=0))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-07-01", "--to", "2025-12-31", "--actuals",
+                     str(actuals), "--sims", "0", "-o", str(tmp_path / "p.csv")])
+    assert api.startswith(f"actuals={str(actuals)!r}: the row dated 2025-07-06")
+    assert api.endswith("the actuals must end before start: give only the periods sold so far")
+    _same_but_spelling(api, cli, [(f"actuals={str(actuals)!r}", f"--actuals {actuals}"),
+                                  ("before start:", "before --from:")])
+
+
+def test_plan_target_below_the_actuals_so_far(files: dict[str, Path], tmp_path: Path) -> None:
+    """plan/actuals.check_rest. Fails on main: the API said '--total 1,000 is not above ...'."""
+    from evcal.plan import make_plan
+
+    weeks = pd.date_range("2025-01-05", "2025-06-29", freq="W-SUN")
+    actuals = tmp_path / "actuals.csv"
+    pd.DataFrame({"date": weeks.strftime("%Y-%m-%d"), "value": 100.0}).to_csv(actuals, index=False)
+    fitted = evcal.load_model(files["model"])
+    api = _api_line(lambda: make_plan(fitted, "2025-07-01", "2025-12-31", total=1000, actuals=actuals,
+                                      n_sims=0))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-07-01", "--to", "2025-12-31", "--total",
+                     "1000", "--actuals", str(actuals), "--sims", "0", "-o", str(tmp_path / "p.csv")])
+    assert api.startswith("total 1,000 is not above the 2,600 already sold in 2025")
+    assert api.replace("total", "--total", 1) == cli
+
+
+def test_plan_saved_to_an_unknown_file_type(files: dict[str, Path], tmp_path: Path) -> None:
+    """plan/result.output_path (Plan.save). Fails on main: the API said '--out ...: unknown file type'."""
+    from evcal.plan import make_plan
+
+    plan = make_plan(evcal.load_model(files["model"]), "2025-01-01", "2025-12-31", n_sims=0)
+    api = _api_line(lambda: plan.save(tmp_path / "plan.txt"))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-01-01", "--to", "2025-12-31", "--sims", "0",
+                     "-o", str(tmp_path / "plan.txt")])
+    assert api == f"path={str(tmp_path / 'plan.txt')!r}: unknown file type .txt; write plan.csv or plan.xlsx"
+    # the command line checks --out itself first and adds stdout to its advice
+    assert cli.startswith(f"--out {tmp_path / 'plan.txt'}: unknown file type") and "path=" not in cli

@@ -317,3 +317,60 @@ def test_plan_saved_to_an_unknown_file_type(files: dict[str, Path], tmp_path: Pa
     assert api == f"path={str(tmp_path / 'plan.txt')!r}: unknown file type .txt; write plan.csv or plan.xlsx"
     # the command line checks --out itself first and adds stdout to its advice
     assert cli.startswith(f"--out {tmp_path / 'plan.txt'}: unknown file type") and "path=" not in cli
+
+
+# ---------------------------------------------------------------- outside drivers in plans and scenarios
+@pytest.fixture(scope="module")
+def priced(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
+    """An invented weekly history with a price column, its model, and future prices for part of 2025."""
+    folder = tmp_path_factory.mktemp("spelling-drivers")
+    history = folder / "h.csv"
+    price = 2.0 + 0.1 * (WEEKS.month % 3)
+    pd.DataFrame({"date": WEEKS.strftime("%Y-%m-%d"), "value": 100.0 + (WEEKS.month % 5) - 3 * price,
+                  "price": price}).to_csv(history, index=False)
+    evcal.fit(history, drivers=["price"], errors="ols").save(folder / "model")
+    future = pd.date_range("2024-12-29", periods=60, freq="W-SUN")
+    short = folder / "short.csv"
+    pd.DataFrame({"date": future[:20].strftime("%Y-%m-%d"), "price": 2.0}).to_csv(short, index=False)
+    base = folder / "base.csv"
+    pd.DataFrame({"date": future.strftime("%Y-%m-%d"), "price": 2.0}).to_csv(base, index=False)
+    return {"model": folder / "model", "short": short, "base": base}
+
+
+def test_plan_driver_values_that_stop_early(priced: dict[str, Path], tmp_path: Path) -> None:
+    """design/drivers.DriverTerm.column. Fails on main: the API said '(--drivers FILE)'."""
+    from evcal.plan import make_plan
+
+    fitted = evcal.load_model(priced["model"])
+    api = _api_line(lambda: make_plan(fitted, "2025-01-01", "2025-12-31", drivers=priced["short"], n_sims=0))
+    cli = _cli_line(["plan", str(priced["model"]), "--from", "2025-01-01", "--to", "2025-12-31", "--drivers",
+                     str(priced["short"]), "--sims", "0", "-o", str(tmp_path / "p.csv")])
+    assert api.startswith("driver 'price' has no value for period 2025-05-12/2025-05-18 (and 32 more")
+    assert api.endswith("a 'price' column covering every planned period (drivers='FILE')")
+    _same_but_spelling(api, cli, [("drivers='FILE'", "--drivers FILE")])
+
+
+def test_compare_driver_values_that_stop_early(priced: dict[str, Path], tmp_path: Path) -> None:
+    """plan/scenarios.compare names scenario B. Fails on main: '--compare-drivers short.csv: ...'."""
+    from evcal.plan.scenarios import compare
+
+    fitted = evcal.load_model(priced["model"])
+    api = _api_line(lambda: compare(fitted, "2025-01-01", "2025-12-31", drivers_a=priced["base"],
+                                    drivers_b=priced["short"], n_sims=0))
+    cli = _cli_line(["plan", str(priced["model"]), "--from", "2025-01-01", "--to", "2025-12-31", "--drivers",
+                     str(priced["base"]), "--compare-drivers", str(priced["short"]), "--sims", "0",
+                     "-o", str(tmp_path / "c.csv")])
+    assert api.startswith("drivers_b short.csv: driver 'price' has no value for period")
+    _same_but_spelling(api, cli, [("drivers_b short.csv", "--compare-drivers short.csv"),
+                                  ("drivers='FILE'", "--drivers FILE")])
+
+
+def test_compare_without_a_second_scenario(priced: dict[str, Path]) -> None:
+    """plan/scenarios.compare from Python only (the command line compares only when asked to).
+    Fails on main: 'a second calendar (--compare) or second driver values (--compare-drivers)'."""
+    from evcal.plan.scenarios import compare
+
+    fitted = evcal.load_model(priced["model"])
+    api = _api_line(lambda: compare(fitted, "2025-01-01", "2025-12-31"))
+    assert api == ("a comparison needs a second scenario: a second calendar (calendar_b=) or second driver "
+                   "values (drivers_b=)")

@@ -374,3 +374,25 @@ def test_compare_without_a_second_scenario(priced: dict[str, Path]) -> None:
     api = _api_line(lambda: compare(fitted, "2025-01-01", "2025-12-31"))
     assert api == ("a comparison needs a second scenario: a second calendar (calendar_b=) or second driver "
                    "values (drivers_b=)")
+
+
+def test_panel_series_skipped_for_a_negative_value(tmp_path: Path) -> None:
+    """engine/screen: the skip detail of skipped.csv (its reason, a documented value, stays). Fails on
+    main: the API's detail said 'or pass --allow-negative if negatives are real'."""
+    from evcal.panel import fit_panel
+
+    south = list(100.0 + (WEEKS.month % 5))
+    south[3] = -2.0
+    long = tmp_path / "long.csv"
+    pd.DataFrame({"date": list(WEEKS.strftime("%Y-%m-%d")) * 2,
+                  "value": list(100.0 + (WEEKS.month % 5)) + south,
+                  "store": ["north"] * len(WEEKS) + ["south"] * len(WEEKS)}).to_csv(long, index=False)
+    api = fit_panel(long, None, ["store"], errors="ols", progress=False).skipped
+    res = runner.invoke(app, ["fit", str(long), "--series-col", "store", "--errors", "ols",
+                              "-o", str(tmp_path / "m")])
+    assert res.exit_code == 0, res.output
+    cli = pd.read_csv(tmp_path / "m" / "skipped.csv")
+    assert list(api["reason"]) == list(cli["reason"]) == ["negative values"]
+    (api_detail,), (cli_detail,) = api["detail"], cli["detail"]
+    assert api_detail.endswith("fix the values, or pass allow_negative=True if negatives are real")
+    _same_but_spelling(api_detail, cli_detail, [("allow_negative=True", "--allow-negative")])

@@ -396,3 +396,17 @@ def test_panel_series_skipped_for_a_negative_value(tmp_path: Path) -> None:
     (api_detail,), (cli_detail,) = api["detail"], cli["detail"]
     assert api_detail.endswith("fix the values, or pass allow_negative=True if negatives are real")
     _same_but_spelling(api_detail, cli_detail, [("allow_negative=True", "--allow-negative")])
+
+
+def test_week_labels_of_an_unknown_kind(files: dict[str, Path], tmp_path: Path) -> None:
+    """io/weeklabels: the default names the argument from Python. Fails on main: '--week-labels fiscal'."""
+    from evcal.io.weeklabels import with_week_labels
+    from evcal.plan import make_plan
+
+    plan = make_plan(evcal.load_model(files["model"]), "2025-01-01", "2025-03-31", n_sims=0)
+    api = _api_line(lambda: with_week_labels(plan.table, "W-SUN", "fiscal"))
+    cli = _cli_line(["plan", str(files["model"]), "--from", "2025-01-01", "--to", "2025-03-31", "--sims", "0",
+                     "--week-labels", "fiscal", "-o", str(tmp_path / "p.csv")])
+    assert api == ("week_labels='fiscal': unknown kind of week label; use iso (2027-W05: ISO 8601 year "
+                   "and week)")
+    _same_but_spelling(api, cli, [("week_labels='fiscal'", "--week-labels fiscal")])

@@ -410,3 +410,31 @@ def test_week_labels_of_an_unknown_kind(files: dict[str, Path], tmp_path: Path) 
     assert api == ("week_labels='fiscal': unknown kind of week label; use iso (2027-W05: ISO 8601 year "
                    "and week)")
     _same_but_spelling(api, cli, [("week_labels='fiscal'", "--week-labels fiscal")])
+
+
+def test_database_that_is_a_table_file(files: dict[str, Path], tmp_path: Path) -> None:
+    """io/database.read_query (public; the commands' --db/--sql read through it). Fails on main: the API
+    said '--db ...: not a database file or URL; ... a table file needs no --db: --sql "SELECT ..."'."""
+    from evcal.io.database import read_query
+
+    table = str(files["history"])
+    api = _api_line(lambda: read_query("SELECT date, value FROM t", table))
+    cli = _cli_line(["fit", "--db", table, "--sql", "SELECT date, value FROM t", "-o", str(tmp_path / "m")])
+    query = f"SELECT * FROM '{table}'"
+    assert api.startswith(f"db={table!r}: not a database file or URL; ")
+    assert api.endswith(f"; a table file needs no db=: sql={query!r} (DuckDB reads it)")
+    _same_but_spelling(api, cli, [(f"db={table!r}", f"--db {table}"), (f"sql={query!r}", f'--sql "{query}"'),
+                                  ("no db=", "no --db")])
+
+
+def test_database_file_that_is_not_there(tmp_path: Path) -> None:
+    """io/database: a missing file is never created. Fails on main: the API said '--db ...: no such file'."""
+    from evcal.io.database import read_query
+
+    missing = str(tmp_path / "sales.db")
+    api = _api_line(lambda: read_query("SELECT date, value FROM sales", missing))
+    cli = _cli_line(["fit", "--db", missing, "--sql", "SELECT date, value FROM sales",
+                     "-o", str(tmp_path / "m")])
+    assert api == f"db={missing!r}: no such file; check the path (evcal never creates a database)"
+    _same_but_spelling(api, cli, [(f"db={missing!r}", f"--db {missing}")])
+    assert not Path(missing).exists()

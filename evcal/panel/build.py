@@ -62,8 +62,9 @@ def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str
     if levels and not keys:
         raise HistoryError(f"{option('level')} needs {_keys_option()}: the child series to add up")
     if not keys:
+        example = option("series_cols", ["product"], flag="--series-col", cli_value="product")
         raise HistoryError(f"{subject('series_cols', flag='--series-col')}: give at least one key column "
-                           f"(e.g. {option('series_cols', 'product', flag='--series-col')})")
+                           f"(e.g. {example})")  # as io/longformat.read_panel says it
     attr_cols = [c for c in levels + ([group_col] if group_col else []) if c not in keys]
     extra: Any = None
     problem: BaseException | None = None

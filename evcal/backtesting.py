@@ -44,6 +44,7 @@ from evcal.design.seasonal import base_freq, cycle_length, season_position
 from evcal.errors import PlanError
 from evcal.model.weekday_share import average_share_kind, spread_weekday_share, weekday_share_profile
 from evcal.plan.horizon import full_years, period_years
+from evcal.spelling import option, subject
 
 __all__ = ["COLUMNS", "METHODS", "backtest", "format_table", "save_backtest", "score"]
 
@@ -169,7 +170,8 @@ def backtest(
 
     if isinstance(holdout_years, bool) or not isinstance(holdout_years, int | np.integer) \
             or holdout_years < 1:
-        raise PlanError(f"--holdout-years {holdout_years!r}: must be a whole number of years, 1 or more")
+        raise PlanError(f"{option('holdout_years', holdout_years)}: must be a whole number of years, "
+                        "1 or more")
     cal = load_calendar_any(calendar)
     hist = history_for(history, cal, drivers, date_col=date_col, value_col=value_col, freq=freq,
                        allow_negative=bool(fit_options.get("allow_negative", False)))
@@ -179,7 +181,7 @@ def backtest(
     full = full_years(periods, hist.label)
     p = cycle_length(hist.freq)
     if len(full) < int(holdout_years):
-        raise PlanError(f"{hist.source}: --holdout-years {holdout_years} but the history has only "
+        raise PlanError(f"{hist.source}: {option('holdout_years', holdout_years)} but the history has only "
                         f"{len(full)} full calendar year(s) ({', '.join(map(str, full)) or 'none'})")
     holdout = full[-int(holdout_years):]
     excluded = excluded_periods(cal, periods)
@@ -194,7 +196,7 @@ def backtest(
             if n_train < 2 * p:
                 raise PlanError(
                     f"{hist.source}: holding out {y} leaves {n_train} periods with values before it; "
-                    f"a fit needs at least {2 * p} (two full years); use fewer --holdout-years")
+                    f"a fit needs at least {2 * p} (two full years); use fewer {subject('holdout_years')}")
             train_hist = History(values=values[train], freq=hist.freq, label=hist.label,
                                  source=f"{hist.source} (before {y})",
                                  missing=[m for m in hist.missing if m < periods[train][-1] + 1],

@@ -17,6 +17,7 @@ from collections.abc import Callable
 from pathlib import Path
 
 from evcal.errors import EvcalError
+from evcal.spelling import option
 
 #: the bundled demo data: installed with the package (``package-data`` in pyproject.toml)
 DEMO_DATA = Path(__file__).resolve().parent / "data" / "demo"
@@ -47,9 +48,11 @@ def find_demo_data(data: str | Path | None = None) -> Path:
     if missing:
         if data is None:  # the package itself is incomplete: a broken or partial install
             raise EvcalError(f"demo data not found: {src} lacks {', '.join(missing)}; reinstall evcal "
-                             f"or pass --data DIR holding {HISTORY} and {CALENDAR}")
-        raise EvcalError(f"--data {data}: no {' or '.join(missing)} there; pass a folder holding "
-                         f"{HISTORY} and {CALENDAR}, or leave --data out to use the bundled demo data")
+                             f"or pass {option('data', 'DIR', cli_value='DIR')} holding {HISTORY} and "
+                             f"{CALENDAR}")
+        raise EvcalError(f"{option('data', str(data))}: no {' or '.join(missing)} there; pass a folder "
+                         f"holding {HISTORY} and {CALENDAR}, or leave {option('data')} out to use the "
+                         "bundled demo data")
     return src
 
 

@@ -31,6 +31,7 @@ from typing import Any
 
 from evcal._files import FOLDER_KINDS, MARKER_VERSION, _temp_name, folder_owner, foreign_problem
 from evcal.errors import OutputError
+from evcal.spelling import option, subject
 
 __all__ = ["FILE_KINDS", "FOLDER_KINDS", "KINDS", "check_output", "file_kind"]
 
@@ -131,6 +132,16 @@ def _suggest(near: Path, kind: str) -> str:
     return str(near / name)
 
 
+def _out(out: Path) -> str:
+    """The output as the user gave it: ``--out PATH`` on the command line, ``out='PATH'`` in Python."""
+    return option("out", str(out))
+
+
+def _force() -> str:
+    """The switch that replaces evcal's own output of another kind: ``--force`` / ``force=True``."""
+    return option("force", True)
+
+
 def _same(a: Path, b: Path) -> bool:
     if a.exists() and b.exists():
         with contextlib.suppress(OSError):
@@ -144,28 +155,28 @@ def _check_inputs(out: Path, inputs: Iterable[Any], kind: str) -> None:
     for inp in paths:
         real_in = inp.resolve()
         if _same(out, inp):
-            raise OutputError(f"--out {out}: is an input of this command ({inp}); evcal never writes over "
+            raise OutputError(f"{_out(out)}: is an input of this command ({inp}); evcal never writes over "
                               f"an input; choose a new {_WHAT[kind]} such as {_suggest(out.parent, kind)}")
         if real_in.is_relative_to(real_out):
-            raise OutputError(f"--out {out}: holds {inp}, an input of this command, and would be replaced; "
+            raise OutputError(f"{_out(out)}: holds {inp}, an input of this command, and would be replaced; "
                               f"choose a new {_WHAT[kind]} such as {_suggest(out, kind)}")
         if inp.is_dir() and real_out.is_relative_to(real_in):
-            raise OutputError(f"--out {out}: is inside {inp}, an input of this command; write the "
+            raise OutputError(f"{_out(out)}: is inside {inp}, an input of this command; write the "
                               f"{_WHAT[kind]} outside it, e.g. {_suggest(inp.parent, kind)}")
 
 
 def _check_parent(out: Path) -> None:
     parent = out.parent
     if not parent.exists():
-        raise OutputError(f"--out {out}: the folder {parent} does not exist; create it first or choose "
+        raise OutputError(f"{_out(out)}: the folder {parent} does not exist; create it first or choose "
                           "an existing folder")
     if not parent.is_dir():
-        raise OutputError(f"--out {out}: {parent} is a file, not a folder; choose a path in a folder")
+        raise OutputError(f"{_out(out)}: {parent} is a file, not a folder; choose a path in a folder")
     probe = _temp_name(out, suffix=out.suffix)
     try:  # really write: os.access says yes to root on a read-only share, and on /sys
         fd = os.open(probe, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
     except OSError as err:
-        raise OutputError(f"--out {out}: cannot write in the folder {parent} ({err.strerror or err}); "
+        raise OutputError(f"{_out(out)}: cannot write in the folder {parent} ({err.strerror or err}); "
                           f"choose a folder you can write to") from None
     os.close(fd)
     probe.unlink(missing_ok=True)
@@ -174,35 +185,35 @@ def _check_parent(out: Path) -> None:
 def _check_folder(out: Path, kind: str, force: bool) -> None:
     if out.is_symlink() or not out.is_dir():
         what = "link" if out.is_symlink() else "file"
-        raise OutputError(f"--out {out}: is a {what}, and the {_WHAT[kind]} is a folder; choose a new "
+        raise OutputError(f"{_out(out)}: is a {what}, and the {_WHAT[kind]} is a folder; choose a new "
                           f"folder such as {_suggest(out.parent, kind)}")
     owner = folder_owner(out)
     problem = foreign_problem(owner)
     if owner is None:
-        raise OutputError(f"--out {out}: {problem}; choose a new folder such as {_suggest(out, kind)}")
+        raise OutputError(f"{_out(out)}: {problem}; choose a new folder such as {_suggest(out, kind)}")
     if problem is not None:
-        raise OutputError(f"--out {out}: {problem}; move {'them' if len(owner.extra) > 1 else 'it'} out "
+        raise OutputError(f"{_out(out)}: {problem}; move {'them' if len(owner.extra) > 1 else 'it'} out "
                           f"of the folder, or choose a new folder such as {_suggest(out.parent, kind)}")
     if (owner.kind != kind or owner.version not in (MARKER_VERSION, 1)) and not force:
         found = f"{_WHAT.get(owner.kind, owner.kind)} (format version {owner.version})"
-        raise OutputError(f"--out {out}: holds evcal's {found}, not a {_WHAT[kind]}; choose a new folder "
-                          f"such as {_suggest(out.parent, kind)}, or add --force to replace it")
+        raise OutputError(f"{_out(out)}: holds evcal's {found}, not a {_WHAT[kind]}; choose a new folder "
+                          f"such as {_suggest(out.parent, kind)}, or add {_force()} to replace it")
 
 
 def _check_file(out: Path, kind: str, force: bool) -> None:
     if out.is_symlink():
-        raise OutputError(f"--out {out}: is a link; evcal does not replace links; name the file itself "
+        raise OutputError(f"{_out(out)}: is a link; evcal does not replace links; name the file itself "
                           f"or a new file such as {_suggest(out.parent, kind)}")
     if out.is_dir():
-        raise OutputError(f"--out {out}: is a folder, and the {_WHAT[kind]} is one file; name a new file "
+        raise OutputError(f"{_out(out)}: is a folder, and the {_WHAT[kind]} is one file; name a new file "
                           f"such as {_suggest(out.parent, kind)}")
     found = file_kind(out)
     if found is None:
-        raise OutputError(f"--out {out}: this file was not written by evcal and would be replaced; "
+        raise OutputError(f"{_out(out)}: this file was not written by evcal and would be replaced; "
                           f"choose a new file such as {_suggest(out.parent, kind)}")
     if found != kind and not force:
-        raise OutputError(f"--out {out}: holds evcal's {_WHAT[found]}, not a {_WHAT[kind]}; choose a new "
-                          f"file such as {_suggest(out.parent, kind)}, or add --force to replace it")
+        raise OutputError(f"{_out(out)}: holds evcal's {_WHAT[found]}, not a {_WHAT[kind]}; choose a new "
+                          f"file such as {_suggest(out.parent, kind)}, or add {_force()} to replace it")
 
 
 def check_output(out: str | Path, kind: str, inputs: Iterable[Any] = (), force: bool = False) -> Path:
@@ -239,12 +250,12 @@ def check_output(out: str | Path, kind: str, inputs: Iterable[Any] = (), force: 
     >>> check_output(d / "sales.csv", "plan")  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    evcal.errors.OutputError: --out .../sales.csv: this file was not written by evcal ...
+    evcal.errors.OutputError: out='.../sales.csv': this file was not written by evcal ...
     """
     if kind not in KINDS:
         raise ValueError(f"kind {kind!r}: not one of {', '.join(KINDS)}")
     if out is None or not str(out).strip():
-        raise OutputError(f"--out: empty; name a new {_WHAT[kind]} such as {_DEFAULT_NAME[kind]}")
+        raise OutputError(f"{subject('out')}: empty; name a new {_WHAT[kind]} such as {_DEFAULT_NAME[kind]}")
     out = Path(out)
     _check_inputs(out, inputs, kind)
     if out.exists() or out.is_symlink():

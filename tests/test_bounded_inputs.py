@@ -304,12 +304,23 @@ def test_year_range_bounds_are_inclusive() -> None:
 def test_year_span_problems_for_calendar_dates() -> None:
     assert year_span_problems(2026, 2027) == []
     assert year_span_problems(1900, 2200) == []
+    from evcal import spelling
+
+    with spelling.flags():  # as `evcal calendar dates` says it
+        assert year_span_problems(1, 99999) == [
+            "--from 1: outside the years a calendar can hold; give a year from 1900 to 2200",
+            "--to 99999: outside the years a calendar can hold; give a year from 1900 to 2200",
+        ]
+        assert year_span_problems(2027, 2026) == [
+            "--to 2026 is before --from 2027; give --to the same year or later"
+        ]
+    # from Python the arguments (issue 18 item 8)
     assert year_span_problems(1, 99999) == [
-        "--from 1: outside the years a calendar can hold; give a year from 1900 to 2200",
-        "--to 99999: outside the years a calendar can hold; give a year from 1900 to 2200",
+        "first=1: outside the years a calendar can hold; give a year from 1900 to 2200",
+        "last=99999: outside the years a calendar can hold; give a year from 1900 to 2200",
     ]
     assert year_span_problems(2027, 2026) == [
-        "--to 2026 is before --from 2027; give --to the same year or later"
+        "last=2026 is before first=2027; give last= the same year or later"
     ]
 
 

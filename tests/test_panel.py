@@ -254,7 +254,7 @@ def test_skipped_series_with_reasons(cal):
                        "NEG": "negative values"}
     detail = res.skipped.set_index("product")["detail"]
     assert "60 periods with values; at least 104" in detail["SHORT"]
-    assert "-3" in detail["NEG"] and "--allow-negative" in detail["NEG"]
+    assert "-3" in detail["NEG"] and "allow_negative=True" in detail["NEG"]  # fit_panel from Python
     status = res.series.set_index("product")["status"]
     assert (status[["P00", "P01", "P02"]] == "fitted").all()
     assert len(res.series) == 8  # every series is listed, fitted or not

@@ -212,11 +212,11 @@ def test_unknown_event_error_names_it_and_both_fixes(daily_fit: evcal.FitResult)
     (line,) = err.value.problems
     assert "street-fair" in line
     assert "effect: {assume: N%}" in line and "effect: {like: other-event}" in line
-    assert "--new-events zero" in line
+    assert "new_events='zero'" in line
     # the same calendar plans when asked to give new events no lift
     t = make_plan(daily_fit, "2024-06-01", "2024-06-30", calendar=cal, new_events="zero", n_sims=0).table
     np.testing.assert_allclose(t["lift:street-fair"], 0.0)
-    assert "no lift (--new-events zero)" in t.set_index("date").loc["2024-06-15", "assumptions"]
+    assert "no lift (new_events='zero')" in t.set_index("date").loc["2024-06-15", "assumptions"]
     # an event outside the horizon needs no lift
     make_plan(daily_fit, "2024-07-01", "2024-07-31", calendar=cal, n_sims=0)
 

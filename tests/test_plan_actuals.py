@@ -66,10 +66,11 @@ def test_rest_of_year_is_spread_so_actuals_plus_plan_meet_the_target(fit_2023: e
 def test_history_running_into_the_year_counts_only_when_asked(fit_mid_2024: evcal.FitResult,
                                                             tmp_path: Path) -> None:
     # a plan starting right after a history that runs into its year: --total stays the target of the
-    # plan's periods (as documented) and a note names the history's periods of the year and --actuals
+    # plan's periods (as documented) and a note names the history's periods of the year and actuals=
     plain = make_plan(fit_mid_2024, "2024-07-01", "2024-12-31", total=TARGET, n_sims=0)
     assert plain.actuals is None and plain.total == pytest.approx(TARGET, rel=1e-12)
-    assert any("holds 6 period(s) of 2024 before the plan" in n and "--actuals" in n for n in plain.notes)
+    assert any("holds 6 period(s) of 2024 before the plan" in n and "give actuals= (the history file" in n
+               for n in plain.notes)
     # the history file itself as --actuals: the year so far counts towards the target
     hist = monthly_history(end="2024-06")
     path = tmp_path / "history.csv"

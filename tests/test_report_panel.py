@@ -148,12 +148,12 @@ def test_unknown_series_is_one_line(panel: Path, tmp_path: Path) -> None:
 
 def test_options_that_do_not_apply_are_one_line(panel: Path, tmp_path: Path) -> None:
     # a panel's plan is read (tests/test_report_panel_plan.py); a backtest is a single model's
-    with pytest.raises(ModelError, match="--backtest is read for a single-series model folder only"):
+    with pytest.raises(ModelError, match="backtest_csv= is read for a single-series model folder only"):
         write_report(panel, tmp_path / "r.html", backtest_csv=tmp_path / "backtest.csv")
     single = tmp_path / "single"
     (single).mkdir()
     (single / "model.json").write_text("{}")
-    with pytest.raises(ModelError, match="--series picks series of a panel model folder"):
+    with pytest.raises(ModelError, match="series= picks series of a panel model folder"):
         write_report(single, tmp_path / "r.html", series=["north"])
     assert not (tmp_path / "r.html").exists()
 

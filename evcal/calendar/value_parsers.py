@@ -18,6 +18,7 @@ from evcal.calendar.holidays_source import suggest
 from evcal.calendar.rules import WEEKDAYS
 from evcal.calendar.spec import FIRST_YEAR, LAST_YEAR, EffectSpec, YearsSpec
 from evcal.errors import clip
+from evcal.spelling import option
 
 MONTHS = tuple(_stdcal.month_name)[1:]
 # Accepted ranges of the numeric settings, checked when the file is read (so `calendar
@@ -76,29 +77,37 @@ def check_year(year: int, what: str = "the year") -> int:
     return year
 
 
-def year_span_problems(first: int, last: int, names: tuple[str, str] = ("--from", "--to")) -> list[str]:
+def year_span_problems(first: int, last: int, names: tuple[str, str] | None = None) -> list[str]:
     """One line per problem with a span of years asked for (``calendar dates --from --to``).
 
     Both years must be in :data:`~evcal.calendar.spec.YEAR_RANGE` and ``last``
-    not before ``first``; ``names`` are how the user wrote the two bounds.
+    not before ``first``; ``names`` are how the user wrote the two bounds (by default ``first=``
+    and ``last=`` from Python, ``--from`` and ``--to`` on the command line: :mod:`evcal.spelling`).
 
     Examples
     --------
     >>> year_span_problems(2024, 2026)
     []
     >>> year_span_problems(1, 2026)
+    ['first=1: outside the years a calendar can hold; give a year from 1900 to 2200']
+    >>> year_span_problems(1, 2026, names=("--from", "--to"))
     ['--from 1: outside the years a calendar can hold; give a year from 1900 to 2200']
     """
+    if names is None:
+        bounds = (("first", "--from"), ("last", "--to"))
+        named = [option(arg, year, flag=flag, cli_value=show(year))
+                 for (arg, flag), year in zip(bounds, (first, last), strict=True)]
+        later = option("last", flag="--to")
+    else:
+        named = [f"{name} {show(year)}" for name, year in zip(names, (first, last), strict=True)]
+        later = names[1]
     problems = [
-        f"{name} {show(year)}: outside the years a calendar can hold; give a year from "
-        f"{FIRST_YEAR} to {LAST_YEAR}"
-        for name, year in zip(names, (first, last), strict=True)
+        f"{name}: outside the years a calendar can hold; give a year from {FIRST_YEAR} to {LAST_YEAR}"
+        for name, year in zip(named, (first, last), strict=True)
         if not FIRST_YEAR <= year <= LAST_YEAR
     ]
     if not problems and last < first:
-        problems.append(
-            f"{names[1]} {last} is before {names[0]} {first}; give {names[1]} the same year or later"
-        )
+        problems.append(f"{named[1]} is before {named[0]}; give {later} the same year or later")
     return problems
 
 

@@ -24,6 +24,7 @@ import pandas as pd
 from evcal.calendar.drivers import taken_names
 from evcal.design.base import term_columns
 from evcal.io.drivers import DriverError
+from evcal.spelling import option
 
 
 def on_scale(values: np.ndarray, scale: str) -> np.ndarray:
@@ -74,7 +75,8 @@ class DriverTerm:
             more = f" (and {len(missing) - 1} more periods)" if len(missing) > 1 else ""
             raise DriverError(f"driver {self.name!r} has no value for period {missing[0]}{more}; "
                               f"a plan needs the driver's future values: give a file with a date column and "
-                              f"a {self.name!r} column covering every planned period (--drivers FILE)")
+                              f"a {self.name!r} column covering every planned period "
+                              f"({option('drivers', 'FILE', cli_value='FILE')})")
         x = on_scale(v, self.scale) - self.centre
         # inside the history a driver is missing only where sales are (no row): not fitted, no effect
         return np.where(np.isfinite(x), x, 0.0)
@@ -109,8 +111,8 @@ def check_driver_names(drivers: Drivers, others: dict[str, str], calendar: Any) 
     for term in drivers.terms:
         if term.name in taken:
             raise DriverError(f"driver {term.name!r} is also the name of {taken[term.name]}; a driver "
-                              "needs a name of its own: rename the history's column and the driver (--driver "
-                              "or the calendar's drivers:)")
+                              "needs a name of its own: rename the history's column and the driver "
+                              f"({option('drivers', flag='--driver')} or the calendar's drivers:)")
 
 
 def with_future(records: list[dict[str, Any]], future: pd.DataFrame, freq: str) -> list[dict[str, Any]]:

@@ -18,6 +18,7 @@ import pandas as pd
 
 from evcal.model.fit_rows import min_periods
 from evcal.model.inputs import transforms
+from evcal.spelling import option
 
 __all__ = ["Screen", "screen_series", "SKIPPED_COLUMNS"]
 
@@ -84,9 +85,10 @@ def screen_series(values: np.ndarray, periods: pd.PeriodIndex, freq: str, transf
     has_neg = neg.any(axis=0)
     if not allow_negative:
         cols = np.flatnonzero(has_neg)
+        allow = option("allow_negative", True)  # allow_negative=True / --allow-negative
         scr.skip(cols, "negative values",
-                 [f"{t}; sales and demand cannot be below zero: fix the values, or pass --allow-negative "
-                  "if negatives are real" for t in _first_where(neg, values, periods, cols)])
+                 [f"{t}; sales and demand cannot be below zero: fix the values, or pass {allow} if "
+                  "negatives are real" for t in _first_where(neg, values, periods, cols)])
     del neg
     need = min_periods(freq)
     short = (n_obs > 0) & (n_obs < need)
@@ -103,14 +105,14 @@ def screen_series(values: np.ndarray, periods: pd.PeriodIndex, freq: str, transf
              [f"every value is {v:g}; no season or event can be estimated from it" for v in vmax[constant]])
     if allow_negative and transform in ("log", "count"):
         scr.skip(has_neg, "negative values",
-                 f"--transform {transform} needs values >= 0; use --transform none")
+                 f"{option('transform', transform)} needs values >= 0; use {option('transform', 'none')}")
     open_rows = np.ones(len(periods), dtype=bool) if closed_full is None else ~closed_full
     if transform == "log":
         zero_open = open_rows[:, None] & (values <= 0)
         cols = np.flatnonzero(zero_open.any(axis=0))
         scr.skip(cols, "zeros with --transform log",
-                 [f"{t}; a log model needs positive values: use --transform count (or auto) for "
-                  "series with zeros" for t in _first_where(zero_open, values, periods, cols)])
+                 [f"{t}; a log model needs positive values: use {option('transform', 'count')} (or auto) "
+                  "for series with zeros" for t in _first_where(zero_open, values, periods, cols)])
     chosen = transforms(values, open_rows, transform, allow_negative)
     scr.transform = np.where(scr.ok, chosen, "").astype(object)
     return scr

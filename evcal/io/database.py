@@ -27,6 +27,7 @@ import pandas as pd
 
 from evcal.errors import HistoryError
 from evcal.io.tables import CSV_SUFFIXES, EXCEL_SUFFIXES, PARQUET_SUFFIXES
+from evcal.spelling import option, subject
 
 #: plain paths given to ``--db`` that name a database file (its kind read from its first bytes)
 DATABASE_SUFFIXES = {".duckdb", ".ddb", ".db", ".sqlite", ".sqlite3"}
@@ -47,6 +48,17 @@ class Database:
     kind: str
     target: str
     shown: str
+
+
+def _db(shown: str) -> str:
+    """The database as the user named it: ``--db sales.db`` / ``db='sales.db'`` (password masked)."""
+    return option("db", shown, cli_value=shown)
+
+
+def _sql_example(table: str) -> str:
+    """A query to give: ``--sql "SELECT date, value FROM t"`` / ``sql='SELECT date, value FROM t'``."""
+    query = f"SELECT date, value FROM {table}"
+    return option("sql", query, cli_value=f'"{query}"')
 
 
 def mask_password(text: str) -> str:
@@ -90,9 +102,8 @@ def check_query_options(history: str | None, db: str | None, sql: str | None) ->
 out (a query reads files itself: --sql "SELECT * FROM 'sales.csv'"), or drop --sql
     """
     if sql is not None and not sql.strip():
-        raise HistoryError(
-            '--sql: the query is empty; give a SELECT, e.g. --sql "SELECT date, value FROM sales"'
-        )
+        raise HistoryError(f"{subject('sql')}: the query is empty; give a SELECT, e.g. "
+                           f"{_sql_example('sales')}")
     if sql is None and db is not None:
         raise HistoryError(
             f"--db {mask_password(db)}: no query; give the rows to read with --sql, e.g. "
@@ -164,8 +175,11 @@ def open_database(db: str | None) -> Database:
     if path.suffix.lower() not in DATABASE_SUFFIXES:
         hint = ""
         if path.suffix.lower() in CSV_SUFFIXES | PARQUET_SUFFIXES | EXCEL_SUFFIXES:
-            hint = f"; a table file needs no --db: --sql \"SELECT * FROM '{db}'\" (DuckDB reads it)"
-        raise HistoryError(f"--db {db}: not a database file or URL; {_URL_ADVICE}{hint}")
+            query = f"SELECT * FROM '{db}'"
+            quoted = f'"{query}"'  # as a shell takes it
+            hint = (f"; a table file needs no {option('db')}: {option('sql', query, cli_value=quoted)} "
+                    "(DuckDB reads it)")
+        raise HistoryError(f"{_db(db)}: not a database file or URL; {_URL_ADVICE}{hint}")
     _existing(path, shown)
     with path.open("rb") as fh:
         head = fh.read(16)
@@ -174,16 +188,16 @@ def open_database(db: str | None) -> Database:
     if head[8:12] == _DUCKDB_MAGIC:
         return Database("duckdb", str(path), path.name)
     raise HistoryError(
-        f"--db {db}: neither a SQLite nor a DuckDB database file (its first bytes say neither); {_URL_ADVICE}"
+        f"{_db(db)}: neither a SQLite nor a DuckDB database file (its first bytes say neither); {_URL_ADVICE}"
     )
 
 
 def _existing(path: Path, shown: str) -> None:
     # a SQLite or DuckDB connection to a missing path would create an empty database there
     if not path.exists():
-        raise HistoryError(f"--db {shown}: no such file; check the path (evcal never creates a database)")
+        raise HistoryError(f"{_db(shown)}: no such file; check the path (evcal never creates a database)")
     if path.is_dir():
-        raise HistoryError(f"--db {shown}: is a folder; give the database file inside it")
+        raise HistoryError(f"{_db(shown)}: is a folder; give the database file inside it")
 
 
 def read_query(sql: str, db: str | None = None) -> pd.DataFrame:
@@ -242,7 +256,7 @@ def _duckdb_rows(sql: str, where: Database) -> pd.DataFrame:
         con = duckdb.connect(where.target or ":memory:", read_only=bool(where.target))
     except duckdb.Error as err:
         raise HistoryError(
-            f"--db {where.shown}: cannot open the DuckDB database ({_first(err, where)})"
+            f"{_db(where.shown)}: cannot open the DuckDB database ({_first(err, where)})"
         ) from None
     try:
         relation = con.sql(sql)
@@ -250,7 +264,8 @@ def _duckdb_rows(sql: str, where: Database) -> pd.DataFrame:
             raise _no_rows(where)
         return relation.df()
     except duckdb.Error as err:
-        raise HistoryError(f"--sql: the query failed on {where.shown} ({_first(err, where)})") from None
+        raise HistoryError(f"{subject('sql')}: the query failed on {where.shown} "
+                           f"({_first(err, where)})") from None
     finally:
         con.close()
 
@@ -263,7 +278,7 @@ def _sqlalchemy_rows(sql: str, where: Database) -> pd.DataFrame:
     try:
         url = make_url(where.target)
     except exc.ArgumentError:
-        raise HistoryError(f"--db {where.shown}: not a readable database URL; {_URL_ADVICE}") from None
+        raise HistoryError(f"{_db(where.shown)}: not a readable database URL; {_URL_ADVICE}") from None
     file = _sqlite_file(url)
     if file:  # read-only: a query can then never change the user's file
         url = url.set(database=f"file:{file}?mode=ro", query={**url.query, "uri": "true"})
@@ -271,28 +286,29 @@ def _sqlalchemy_rows(sql: str, where: Database) -> pd.DataFrame:
         engine = create_engine(url, poolclass=NullPool)
     except exc.NoSuchModuleError:
         raise HistoryError(
-            f"--db {where.shown}: unknown kind of database {url.drivername!r}; {_URL_ADVICE}"
+            f"{_db(where.shown)}: unknown kind of database {url.drivername!r}; {_URL_ADVICE}"
         ) from None
     except exc.ArgumentError as err:
         raise HistoryError(
-            f"--db {where.shown}: not a readable database URL ({_first(err, where)}); {_URL_ADVICE}"
+            f"{_db(where.shown)}: not a readable database URL ({_first(err, where)}); {_URL_ADVICE}"
         ) from None
     except ImportError as err:
         raise HistoryError(
-            f"--db {where.shown}: needs the Python package {err.name or 'of its driver'!r} (pip install it)"
+            f"{_db(where.shown)}: needs the Python package {err.name or 'of its driver'!r} (pip install it)"
         ) from None
     try:
         try:
             conn = engine.connect()
         except exc.SQLAlchemyError as err:
-            raise HistoryError(f"--db {where.shown}: cannot connect ({_first(err, where)})") from None
+            raise HistoryError(f"{_db(where.shown)}: cannot connect ({_first(err, where)})") from None
         try:  # closed without a commit: anything the statement changed is rolled back
             result = conn.exec_driver_sql(sql)
             if not result.returns_rows:
                 raise _no_rows(where)
             return pd.DataFrame(result.fetchall(), columns=list(result.keys()))
         except exc.SQLAlchemyError as err:
-            raise HistoryError(f"--sql: the query failed on {where.shown} ({_first(err, where)})") from None
+            raise HistoryError(f"{subject('sql')}: the query failed on {where.shown} "
+                               f"({_first(err, where)})") from None
         finally:
             conn.close()
     finally:
@@ -302,8 +318,8 @@ def _sqlalchemy_rows(sql: str, where: Database) -> pd.DataFrame:
 def _no_rows(where: Database) -> HistoryError:
     """A statement that returns no result set (an INSERT, a CREATE): one line."""
     return HistoryError(
-        f"--sql: the statement returned no rows on {where.shown}; give a SELECT that returns a date and a "
-        "value column"
+        f"{subject('sql')}: the statement returned no rows on {where.shown}; give a SELECT that returns a "
+        "date and a value column"
     )
 
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import pandas as pd
 
+from evcal import spelling
 from evcal.errors import PlanError
 
 __all__ = ["ISO_WEEK_COLUMN", "WEEK_LABELS", "check_week_labels", "iso_week_labels", "with_week_labels"]
@@ -36,31 +37,34 @@ def iso_week_labels(dates: pd.Series | pd.DatetimeIndex) -> pd.Series:
                      index=stamps.index, dtype=object)
 
 
-def check_week_labels(freq: str, kind: str = "iso", option: str = "--week-labels") -> None:
+def check_week_labels(freq: str, kind: str = "iso", option: str | None = None) -> None:
     """One :class:`~evcal.errors.PlanError` line unless ``kind`` is known and ``freq`` is weekly ending
-    Sunday (before any work is done).
+    Sunday (before any work is done). ``option`` names the request (by default ``week_labels='iso'``
+    from Python, ``--week-labels iso`` on the command line: :mod:`evcal.spelling`).
 
     Examples
     --------
     >>> check_week_labels("M")
     Traceback (most recent call last):
     ...
-    evcal.errors.PlanError: --week-labels iso: ISO week labels are for weekly plans whose weeks end on \
-Sunday (ISO weeks run Monday to Sunday); this plan is monthly; leave out --week-labels
+    evcal.errors.PlanError: week_labels='iso': ISO week labels are for weekly plans whose weeks end on \
+Sunday (ISO weeks run Monday to Sunday); this plan is monthly; leave out week_labels=
     """
+    asked = spelling.option("week_labels", kind) if option is None else f"{option} {kind}"
+    bare = spelling.option("week_labels") if option is None else option
     if kind not in WEEK_LABELS:
-        raise PlanError(f"{option} {kind}: unknown kind of week label; use {' or '.join(WEEK_LABELS)} "
+        raise PlanError(f"{asked}: unknown kind of week label; use {' or '.join(WEEK_LABELS)} "
                         "(2027-W05: ISO 8601 year and week)")
     code = str(freq).upper()
     if code != "W-SUN":
         from evcal.io.frequency import describe_freq
 
-        raise PlanError(f"{option} {kind}: ISO week labels are for weekly plans whose weeks end on Sunday "
+        raise PlanError(f"{asked}: ISO week labels are for weekly plans whose weeks end on Sunday "
                         f"(ISO weeks run Monday to Sunday); this plan is {describe_freq(code)}; leave out "
-                        f"{option}")
+                        f"{bare}")
 
 
-def with_week_labels(table: pd.DataFrame, freq: str, kind: str = "iso", option: str = "--week-labels") -> \
+def with_week_labels(table: pd.DataFrame, freq: str, kind: str = "iso", option: str | None = None) -> \
         pd.DataFrame:
     """``table`` with an :data:`ISO_WEEK_COLUMN` column right after ``date`` (a new frame).
 
@@ -74,7 +78,7 @@ def with_week_labels(table: pd.DataFrame, freq: str, kind: str = "iso", option: 
     kind : str
         ``iso``, the one kind there is.
     option : str
-        How the message names the request (the command line's option).
+        How the message names the request (by default the argument or the command line's option).
 
     Examples
     --------

@@ -16,6 +16,7 @@ from evcal.errors import HistoryError
 from evcal.io.longformat import read_panel, split_key_option
 from evcal.io.panel import Panel
 from evcal.panel.result import PanelResult
+from evcal.spelling import option, subject
 from evcal.store import PANEL_FORMAT, PANEL_VERSION
 
 __all__ = ["read_for_panel", "build_result", "FittedWriter"]
@@ -59,9 +60,11 @@ def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str
     keys = split_key_option(series_cols)
     levels = split_key_option(level)
     if levels and not keys:
-        raise HistoryError("--level needs --series-col: the child series to add up")
+        raise HistoryError(f"{option('level')} needs {_keys_option()}: the child series to add up")
     if not keys:
-        raise HistoryError("--series-col: give at least one key column (e.g. --series-col product)")
+        example = option("series_cols", ["product"], flag="--series-col", cli_value="product")
+        raise HistoryError(f"{subject('series_cols', flag='--series-col')}: give at least one key column "
+                           f"(e.g. {example})")  # as io/longformat.read_panel says it
     attr_cols = [c for c in levels + ([group_col] if group_col else []) if c not in keys]
     extra: Any = None
     problem: BaseException | None = None
@@ -83,10 +86,15 @@ def read_for_panel(history: Any, series_cols: Any, date_col: str, value_col: str
         try:
             panel.column(group_col)
         except KeyError:
-            raise HistoryError(f"--group-col {group_col}: it takes more than one value inside a --level "
-                               f"group ({', '.join(levels)}); pool by a column that is constant within "
-                               "each fitted series") from None
+            raise HistoryError(f"{option('group_col', group_col)}: it takes more than one value inside a "
+                               f"{option('level')} group ({', '.join(levels)}); pool by a column that is "
+                               "constant within each fitted series") from None
     return panel, keys, levels, extra
+
+
+def _keys_option() -> str:
+    """The key columns' setting: ``--series-col`` / ``series_cols=``."""
+    return option("series_cols", flag="--series-col")
 
 
 class FittedWriter:

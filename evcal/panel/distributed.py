@@ -19,6 +19,7 @@ from typing import Any
 
 from evcal.errors import EvcalError
 from evcal.progress import progress_bar, progress_enabled
+from evcal.spelling import option
 
 __all__ = ["make_runner"]
 
@@ -105,7 +106,8 @@ class DaskRunner:
         try:
             import dask.distributed  # noqa: F401
         except ImportError:
-            raise EvcalError("--workers/--scheduler need dask.distributed: pip install 'evcal[dask]'") \
+            raise EvcalError(f"{option('workers')}/{option('scheduler')} need dask.distributed: "
+                             "pip install 'evcal[dask]'") \
                 from None
         self.workers, self.scheduler, self.progress, self.label = workers, scheduler, progress, label
         self._stack = contextlib.ExitStack()
@@ -120,7 +122,8 @@ class DaskRunner:
             try:
                 client = self._stack.enter_context(Client(self.scheduler, timeout="10s"))
             except (OSError, TimeoutError) as err:
-                raise EvcalError(f"--scheduler {self.scheduler}: cannot connect ({type(err).__name__}: "
+                named = option("scheduler", self.scheduler, cli_value=self.scheduler)
+                raise EvcalError(f"{named}: cannot connect ({type(err).__name__}: "
                                  f"{err}); start the scheduler first (dask scheduler) or check the "
                                  "address") from None
         else:
@@ -239,9 +242,10 @@ def make_runner(workers: int | None = None, scheduler: str | None = None, progre
     """
     show = progress_enabled(progress)
     if workers is not None and workers < 1:
-        raise EvcalError(f"--workers {workers}: give 1 or more worker processes")
+        raise EvcalError(f"{option('workers', workers)}: give 1 or more worker processes")
     if workers is not None and scheduler:
-        raise EvcalError("give either --workers (start a local cluster) or --scheduler (use a running one)")
+        raise EvcalError(f"give either {option('workers')} (start a local cluster) or {option('scheduler')} "
+                         "(use a running one)")
     if workers or scheduler:
         return DaskRunner(workers, scheduler, show)
     return _Local(local_runner(show))

@@ -28,6 +28,7 @@ from evcal.errors import EvcalError, PlanError
 from evcal.panel.result import PanelResult, load_panel
 from evcal.panel.targets import TARGET_RULE, apply_targets, read_panel_totals
 from evcal.plan.spread import check_total
+from evcal.spelling import option
 
 __all__ = ["plan_panel", "plan_panel_cmd"]
 
@@ -205,8 +206,8 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
     if not keys:
         raise PlanError("the panel model has no fitted series to plan")
     if total is not None and totals is not None:
-        raise PlanError("give either --total (one target, allocated over the series) or --totals (a file "
-                        "with a target per series), not both")
+        raise PlanError(f"give either {option('total')} (one target, allocated over the series) or "
+                        f"{option('totals')} (a file with a target per series), not both")
     # one series with --total or a year,total file: its own plan to the target, as before; otherwise the
     # panel's targets are applied to the panel's plan (evcal.panel.targets)
     panel_targets = None

@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import ModelError
+from evcal.spelling import option, subject
 from evcal.store import folder_kind, read_folder, write_folder
 
 __all__ = ["PanelResult", "load_panel", "is_panel_dir"]
@@ -84,13 +85,15 @@ class PanelResult:
             key = dict(zip(cols, key, strict=False))
         unknown = [k for k in key if k not in cols]
         if unknown:
-            raise ModelError(f"--series: {unknown[0]!r} is not a key column; the keys are {', '.join(cols)}")
+            raise ModelError(f"{subject('series')}: {unknown[0]!r} is not a key column; the keys are "
+                             f"{', '.join(cols)}")
         hits = np.flatnonzero(key_mask(self.series, key))
         shown = ", ".join(f"{c}={v}" for c, v in key.items())
+        named = option("series", shown, cli_value=shown)  # series='store=north' / --series store=north
         if len(hits) == 0:
-            raise ModelError(f"--series {shown}: no such series in the model; see series.csv for the keys")
+            raise ModelError(f"{named}: no such series in the model; see series.csv for the keys")
         if len(hits) > 1:
-            raise ModelError(f"--series {shown}: {len(hits)} series match; give every key column "
+            raise ModelError(f"{named}: {len(hits)} series match; give every key column "
                              f"({', '.join(cols)})")
         return {c: self.series[c].iloc[hits[0]] for c in cols}
 

@@ -26,6 +26,7 @@ import pandas as pd
 
 from evcal.errors import PlanError
 from evcal.io.panel import Panel
+from evcal.spelling import subject
 
 __all__ = ["aggregate", "allocate", "child_base"]
 
@@ -153,15 +154,15 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
     """
     missing = [c for c in parent_keys if c not in children.key_cols]
     if missing:
-        raise PlanError(f"--allocate: the child model has no key column {missing[0]!r}; its keys are "
-                        f"{', '.join(children.key_cols)}; fit the children with the parent columns among "
+        raise PlanError(f"{subject('allocate')}: the child model has no key column {missing[0]!r}; its keys "
+                        f"are {', '.join(children.key_cols)}; fit the children with the parent columns among "
                         "--series-col")
     freq = children.settings["freq"]
     dates = pd.DatetimeIndex(pd.to_datetime(parent_plan["date"]).unique()).sort_values()
     periods = pd.PeriodIndex(dates.to_period(freq))
     base = child_base(children, periods, calendar)
     if base.empty:
-        raise PlanError("--allocate: the child model has no fitted series to allocate to")
+        raise PlanError(f"{subject('allocate')}: the child model has no fitted series to allocate to")
     total = base.groupby(parent_keys + ["date"], sort=False)["base"].transform("sum")
     base["share"] = np.where(total > 0, base["base"] / total, np.nan)
     plan = parent_plan.copy()
@@ -179,6 +180,6 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
     if orphans:
         first = sorted(orphans)[0]
         shown = ", ".join(f"{c}={v!r}" for c, v in zip(parent_keys, first, strict=True))
-        raise PlanError(f"--allocate: parent {shown} has no fitted child in the child model; fit the "
-                        "children of every parent")
+        raise PlanError(f"{subject('allocate')}: parent {shown} has no fitted child in the child model; fit "
+                        "the children of every parent")
     return merged.sort_values(children.key_cols + ["date"], kind="stable").reset_index(drop=True)

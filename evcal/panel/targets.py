@@ -37,6 +37,7 @@ import pandas as pd
 
 from evcal.errors import PlanError
 from evcal.plan.spread import AMOUNT_COLUMNS, apportion, check_total, whole_number
+from evcal.spelling import option, subject
 
 __all__ = ["apply_targets", "read_panel_totals", "TARGET_RULE"]
 
@@ -137,7 +138,7 @@ def read_panel_totals(path: str | Path, key_cols: list[str], panel_keys: pd.Data
         more = f" and {len(absent) - LISTED} more" if len(absent) > LISTED else ""
         shown = "; ".join(_key_text(key_cols, k) for k in absent[:LISTED])
         problems.append(f"{path}: no total for series {shown}{more}; add a row per series planned, or plan "
-                        "only the series in the file with --series")
+                        f"only the series in the file with {option('series')}")
     if problems:
         raise PlanError(problems)
     out = pd.DataFrame(rows, columns=[*key_cols, *(["year"] if by_year else []), "total"])
@@ -188,8 +189,9 @@ def apply_targets(table: pd.DataFrame, key_cols: list[str], years: np.ndarray, t
         open_ = np.isfinite(model) & (model > 0)  # a series closed all horizon long gets none of it
         whole = float(model[open_].sum())
         if not open_.any():
-            raise PlanError(f"--total: the series' plans add up to {float(np.nansum(model)):g}, so they "
-                            "cannot be spread to a total; check that the horizon is not wholly closed")
+            raise PlanError(f"{subject('total')}: the series' plans add up to {float(np.nansum(model)):g}, "
+                            "so they cannot be spread to a total; check that the horizon is not wholly "
+                            "closed")
         goal = np.where(open_, model * (total / whole), 0.0)
     else:
         given = {tuple(str(v) for v in r[:-1]): float(r[-1])
@@ -197,15 +199,16 @@ def apply_targets(table: pd.DataFrame, key_cols: list[str], years: np.ndarray, t
         lost = [i for i in idents if tuple(map(str, i)) not in given]
         if lost:
             shown = "; ".join(f"{_key_text(key_cols, i[:-1])}, year {i[-1]}" for i in lost[:LISTED])
-            raise PlanError(f"--totals: no total for {shown}{' ...' if len(lost) > LISTED else ''}; the "
-                            "horizon covers these years: add a row per series and year")
+            more = " ..." if len(lost) > LISTED else ""
+            raise PlanError(f"{subject('totals')}: no total for {shown}{more}; the horizon covers these "
+                            "years: add a row per series and year")
         goal = np.array([given[tuple(map(str, i))] for i in idents])
     bad = ~np.isfinite(model) | (model <= 0)
     if bad.any() and total is None:
         i = int(np.flatnonzero(bad)[0])
         shown = _key_text(group_cols, tuple(map(str, idents[i])))
-        raise PlanError(f"--totals: the model plan of {shown} adds up to {model[i]:g}, so it cannot be "
-                        "spread to a total; check that its horizon is not wholly closed")
+        raise PlanError(f"{subject('totals')}: the model plan of {shown} adds up to {model[i]:g}, so it "
+                        "cannot be spread to a total; check that its horizon is not wholly closed")
     factor = np.where(model > 0, goal / np.where(model > 0, model, 1.0), 0.0)
     out = table.copy()
     f = factor[gid]

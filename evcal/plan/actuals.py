@@ -31,6 +31,7 @@ from evcal.errors import PlanError
 from evcal.io.history import period_dates
 from evcal.io.weeklabels import ISO_WEEK_COLUMN, iso_week_labels
 from evcal.plan.horizon import full_years, period_years
+from evcal.spelling import option, subject
 
 __all__ = ["YearToDate", "actual_by_year", "check_rest", "plan_file_frame", "split_plan_file", "year_table",
            "year_to_date", "year_to_date_periods", "with_year_to_date"]
@@ -126,25 +127,28 @@ def year_to_date(result: Any, periods: pd.PeriodIndex, actuals: Any = None, date
             f"the history holds {len(held)} period(s) of {year} before the plan ({_when(held[0], label)} to "
             f"{_when(held[-1], label)}, {amount(float(have.sum()))} in all), not counted: any target covers "
             f"the plan's periods alone; to plan the rest of {year} against a full-year target, give "
-            "--actuals (the history file itself will do)"])
+            f"{option('actuals')} (the history file itself will do)"])
     name = "<frame>" if isinstance(actuals, pd.DataFrame) else str(actuals)
+    # actuals='sales.csv' / --actuals sales.csv; a DataFrame (Python only) is named as one
+    given = (f"{option('actuals')}<DataFrame>" if name == "<frame>"
+             else option("actuals", name, cli_value=name))
     if len(need) == 0:
-        raise PlanError(f"--actuals {name}: the plan starts with the first period of {year} "
+        raise PlanError(f"{given}: the plan starts with the first period of {year} "
                         f"({_when(periods[0], label)}), so there are no actuals so far to count; leave "
-                        "--actuals out, or start the plan later in the year")
+                        f"{option('actuals')} out, or start the plan later in the year")
     got = _read_actuals(actuals, result, date_col, value_col)
     late = got.index[got.index >= periods[0]]
     if len(late):
-        raise PlanError(f"--actuals {name}: the row dated {period_dates(late[:1], label)[0].date()} "
+        raise PlanError(f"{given}: the row dated {period_dates(late[:1], label)[0].date()} "
                         f"({_when(late[0], label)}) falls inside the plan, which starts with "
-                        f"{_when(periods[0], label)}; the actuals must end before --from: give only the "
-                        "periods sold so far")
+                        f"{_when(periods[0], label)}; the actuals must end before "
+                        f"{subject('start', flag='--from')}: give only the periods sold so far")
     years = period_years(got.index, label) if len(got) else np.array([], dtype=int)
     in_year = got[years == year]
     if in_year.empty:
         span = (f"its dates run {period_dates(got.index[:1], label)[0].date()} to "
                 f"{period_dates(got.index[-1:], label)[0].date()}") if len(got) else "it holds no values"
-        raise PlanError(f"--actuals {name}: no period of {year}, the plan's year ({span}); give {year}'s "
+        raise PlanError(f"{given}: no period of {year}, the plan's year ({span}); give {year}'s "
                         f"sales so far, {_when(need[0], label)} to {_when(need[-1], label)}")
     values = in_year.reindex(need)
     from_history = values.isna() & history.reindex(need).notna()
@@ -152,13 +156,13 @@ def year_to_date(result: Any, periods: pd.PeriodIndex, actuals: Any = None, date
     missing = need[values.isna().to_numpy()]
     if len(missing):
         shown = ", ".join(_when(p, label) for p in missing[:3]) + (" ..." if len(missing) > 3 else "")
-        raise PlanError(f"--actuals {name}: no actual for {len(missing)} period(s) of {year} before the "
+        raise PlanError(f"{given}: no actual for {len(missing)} period(s) of {year} before the "
                         f"plan ({shown}); the actuals must cover every period from {_when(need[0], label)} "
                         f"to {_when(need[-1], label)} (the model's history has none of these)")
     notes = []
     earlier = int((years < year).sum())
     if earlier:
-        notes.append(f"--actuals {name}: {earlier} period(s) before {year} left out (a re-plan counts the "
+        notes.append(f"{given}: {earlier} period(s) before {year} left out (a re-plan counts the "
                      "plan's year only)")
     if from_history.any():
         taken = need[from_history.to_numpy()]
@@ -187,7 +191,7 @@ def check_rest(ytd: YearToDate, total: float | None, totals: dict[int, float] | 
         return total, totals
     rest = given - ytd.total
     if rest <= 0:
-        what = "--total" if total is not None else f"--totals {ytd.year}:"
+        what = subject("total") if total is not None else f"{subject('totals')} {ytd.year}:"
         raise PlanError(f"{what} {amount(given)} is not above the {amount(ytd.total)} already sold in "
                         f"{ytd.year} (the actuals so far, from {ytd.source}); a negative or zero rest cannot "
                         f"be planned: give a target above {amount(ytd.total)}, or leave the target out to "

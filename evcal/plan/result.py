@@ -11,6 +11,7 @@ import pandas as pd
 from evcal._files import atomic_path
 from evcal.errors import PlanError
 from evcal.formula_safe import write_csv
+from evcal.spelling import option
 
 
 @dataclass
@@ -130,6 +131,6 @@ def output_path(path: str | Path, stem: str) -> Path:
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in (".csv", ".xlsx"):
-        raise PlanError(f"--out {path}: unknown file type {suffix or '(none)'}; "
+        raise PlanError(f"{option('path', str(path), flag='--out')}: unknown file type {suffix or '(none)'}; "
                         f"write {stem}.csv or {stem}.xlsx")
     return path

@@ -24,6 +24,7 @@ from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
 from evcal.plan.summary import period_name
+from evcal.spelling import option, subject
 
 
 @dataclass
@@ -98,19 +99,19 @@ def _label(calendar_name: str | None, drivers: Any, differ: bool) -> str | None:
     return f"{calendar_name}, {what}" if calendar_name else what
 
 
-def _plan(result: Any, start: Any, end: Any, calendar: Any, drivers: Any, option: str | None,
+def _plan(result: Any, start: Any, end: Any, calendar: Any, drivers: Any, setting: str | None,
           **plan_options: Any) -> Plan:
     """One scenario's plan; a problem with its driver values or file (a missing driver or date column,
-    an unreadable file) names the option and file that gave them."""
+    an unreadable file) names the setting and file that gave them."""
     from evcal.errors import HistoryError
     from evcal.io.drivers import DriverError
 
     try:
         return make_plan(result, start, end, calendar=calendar, drivers=drivers, **plan_options)
     except HistoryError as err:  # DriverError is one
-        if option is None or not isinstance(drivers, (str, Path)):
+        if setting is None or not isinstance(drivers, (str, Path)):
             raise
-        raise DriverError(f"{option} {Path(drivers).name}: {err.problems[0]}") from None
+        raise DriverError(f"{setting} {Path(drivers).name}: {err.problems[0]}") from None
 
 
 def compare(
@@ -151,14 +152,16 @@ def compare(
     >>> print(cmp.summary())                                                         # doctest: +SKIP
     """
     if calendar_b is None and drivers_b is None:
-        raise PlanError("a comparison needs a second scenario: a second calendar (--compare) or second "
-                        "driver values (--compare-drivers)")
+        raise PlanError(f"a comparison needs a second scenario: a second calendar "
+                        f"({option('calendar_b', flag='--compare')}) or second driver values "
+                        f"({option('drivers_b', flag='--compare-drivers')})")
     differ = drivers_b is not None
     calendar_b = calendar_a if calendar_b is None else calendar_b
     drivers_b = drivers_a if drivers_b is None else drivers_b
-    plan_a = _plan(result, start, end, calendar_a, drivers_a, "--drivers" if differ else None, **plan_options)
-    plan_b = _plan(result, start, end, calendar_b, drivers_b, "--compare-drivers" if differ else None,
-                   **plan_options)
+    plan_a = _plan(result, start, end, calendar_a, drivers_a,
+                   subject("drivers_a", flag="--drivers") if differ else None, **plan_options)
+    plan_b = _plan(result, start, end, calendar_b, drivers_b,
+                   subject("drivers_b", flag="--compare-drivers") if differ else None, **plan_options)
     a = plan_a.table["plan"].to_numpy()  # whole units (plan --round) stay integers, differences too
     b = plan_b.table["plan"].to_numpy()
     table = pd.DataFrame({"date": list(plan_a.table["date"]), "plan_a": a, "plan_b": b,

@@ -17,6 +17,7 @@ import pandas as pd
 
 from evcal.errors import PlanError
 from evcal.model.identify import ColumnStatus
+from evcal.spelling import option
 
 NEW_EVENTS = ("error", "zero")
 #: the plan's ``assumptions`` text for an event whose fitted lift is weakly identified (lifts.csv says why)
@@ -55,6 +56,11 @@ class Schedule:
             self.notes[event] = f"{event}: {note}"
 
 
+def _zero() -> str:
+    """The setting that plans new events with no lift: ``--new-events zero`` / ``new_events='zero'``."""
+    return option("new_events", "zero")
+
+
 def _pct(a: float) -> str:
     return f"{a * 100:+.4g}%"
 
@@ -83,7 +89,8 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
         One line per event that touches the horizon but has no lift to plan with.
     """
     if new_events not in NEW_EVENTS:
-        raise PlanError(f"--new-events {new_events!r}: must be one of {', '.join(NEW_EVENTS)}")
+        raise PlanError(f"{option('new_events', new_events, quote=True)}: must be one of "
+                        f"{', '.join(NEW_EVENTS)}")
     colmap = calendar.event_columns()
     cols = list(X_events.columns)
     cols_of: dict[str, list[str]] = {}
@@ -132,8 +139,8 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
                          f"assumed {_pct(plan.assumed[c])} (as fitted)")
         else:
             why = "is new in the plan calendar" if st is None else "has no occurrence in the fitted history"
-            no_lift(c, ev, why, "new event planned with no lift (--new-events zero)",
-                    "new event, no lift (--new-events zero)")
+            no_lift(c, ev, why, f"new event planned with no lift ({_zero()})",
+                    f"new event, no lift ({_zero()})")
 
     # second pass: borrowed lifts follow whatever their source event got
     for c in cols:
@@ -160,12 +167,12 @@ def resolve_schedule(result: Any, calendar: Any, X_events: pd.DataFrame,
         else:
             no_lift(c, ev, f"borrows from {src_event}, which the model has no lift for",
                     f"{src_event} has no fitted lift to borrow",
-                    f"{src_event} has no fitted lift to borrow; no lift (--new-events zero)")
+                    f"{src_event} has no fitted lift to borrow; no lift ({_zero()})")
 
     if unseen:
         raise PlanError([
             f"event {ev} {why}, so the model has no lift for it; add `effect: {{assume: N%}}` or "
-            f"`effect: {{like: other-event}}` to it in the calendar, or pass --new-events zero to "
+            f"`effect: {{like: other-event}}` to it in the calendar, or pass {_zero()} to "
             "plan it with no lift"
             for ev, why in unseen.items()
         ])

@@ -48,6 +48,7 @@ import pandas as pd
 from evcal.design.level import ErrorLevel
 from evcal.errors import PlanError
 from evcal.plan.schedule import Schedule
+from evcal.spelling import option
 
 #: a coefficient of a count model whose standard error on the log scale is above this is not
 #: drawn: its 95 % interval would span a factor of exp(2 x 1.96 x 10), about 1e17, which only
@@ -65,6 +66,11 @@ MAX_SIMS = 100_000
 MAX_DRAW_CELLS = 50_000_000
 
 
+def _sims(n: Any) -> str:
+    """The number of draws as set: ``--sims 1000`` on the command line, ``n_sims=1000`` in Python."""
+    return option("n_sims", n, flag="--sims")
+
+
 def check_sims(n_sims: Any, n_periods: int | None = None) -> int:
     """The number of simulation draws as an int in 0..:data:`MAX_SIMS`, or a one-line :class:`PlanError`.
 
@@ -78,18 +84,18 @@ def check_sims(n_sims: Any, n_periods: int | None = None) -> int:
     >>> check_sims(100_000_000)  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    evcal.errors.PlanError: --sims 100000000: ...
+    evcal.errors.PlanError: n_sims=100000000: ...
     """
     if isinstance(n_sims, bool) or not isinstance(n_sims, int | np.integer):
-        raise PlanError(f"--sims {n_sims!r}: not a whole number; give 0 (no interval) to {MAX_SIMS:,}")
+        raise PlanError(f"{_sims(n_sims)}: not a whole number; give 0 (no interval) to {MAX_SIMS:,}")
     n = int(n_sims)
     if not 0 <= n <= MAX_SIMS:
-        raise PlanError(f"--sims {n}: must be 0 (no interval) to {MAX_SIMS:,} draws; the simulation "
+        raise PlanError(f"{_sims(n)}: must be 0 (no interval) to {MAX_SIMS:,} draws; the simulation "
                         f"keeps draws x periods numbers of 8 bytes in memory several times over, and "
                         f"{MAX_SIMS:,} draws already fix the 95 % interval's ends closely")
     if n_periods and n * n_periods > MAX_DRAW_CELLS:
         most = MAX_DRAW_CELLS // n_periods
-        raise PlanError(f"--sims {n}: a horizon of {n_periods} periods allows at most {most:,} draws "
+        raise PlanError(f"{_sims(n)}: a horizon of {n_periods} periods allows at most {most:,} draws "
                         f"(draws x periods x 8 bytes, at most {MAX_DRAW_CELLS * 8 // 10**6} MB per array); "
                         "use fewer draws or a shorter horizon")
     return n
@@ -313,7 +319,7 @@ def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base
             mu = np.exp(log_mu)
         if not (np.all(mu <= MAX_COUNT_MEAN) and np.all(np.isfinite(log_mu) | (log_mu == -np.inf))):
             raise PlanError("the count model's coefficients give a mean beyond any count in some "
-                            "simulation draws, so no interval can be simulated; plan with --sims 0 "
+                            f"simulation draws, so no interval can be simulated; plan with {_sims(0)} "
                             "(no low/high), or refit on a longer history")
         if result.error_model.get("kind") == "negative_binomial":
             r = 1.0 / max(float(result.error_model.get("alpha", 0.0)), 1e-12)

@@ -134,14 +134,15 @@ def spread(table: pd.DataFrame, years: np.ndarray, total: float | None, totals: 
         missing = [y for y in needed if y not in totals]
         if missing:
             have = ", ".join(str(y) for y in sorted(totals)) or "none"
-            raise PlanError(f"--totals: no total for {', '.join(map(str, missing))}; the horizon covers "
-                            f"{', '.join(map(str, needed))} (totals given for {have}); add a row per year")
+            raise PlanError(f"{subject('totals')}: no total for {', '.join(map(str, missing))}; the horizon "
+                            f"covers {', '.join(map(str, needed))} (totals given for {have}); add a row per "
+                            "year")
         factors = {}
         for y in needed:
             s = float(plan[years == y].sum())
             if not np.isfinite(s) or s <= 0:
-                raise PlanError(f"--totals: the plan for {y} adds up to {s:g}, so it cannot be spread to "
-                                "a total; check that the horizon is not wholly closed")
+                raise PlanError(f"{subject('totals')}: the plan for {y} adds up to {s:g}, so it cannot be "
+                                "spread to a total; check that the horizon is not wholly closed")
             factors[y] = totals[y] / s
     else:
         return table, {}, None

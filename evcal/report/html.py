@@ -30,6 +30,7 @@ from evcal.report.model_sections import MODEL_SECTIONS, build_sections
 from evcal.report.plan_sections import calendar_section, glance, plan_section
 from evcal.report.review_sections import backtest_section, notes_section
 from evcal.report.templating import render_page
+from evcal.spelling import option
 
 #: the sections of a single model's report: (element id, heading, template, data builder)
 SECTIONS = (
@@ -90,15 +91,16 @@ def write_report(
     if is_panel_dir(model_dir) and not (Path(model_dir) / "model.json").is_file():
         from evcal.report.panel_report import render_panel_report
 
-        given = [f"--{n}" for n, v in (("backtest", backtest_csv), ("calendar", calendar)) if v is not None]
+        asked = (("backtest_csv", "--backtest", backtest_csv), ("calendar", "--calendar", calendar))
+        given = [option(arg, flag=flag) for arg, flag, value in asked if value is not None]
         if given:
             raise ModelError(f"{model_dir}: a panel model folder: {', '.join(given)} is read for a "
                              "single-series model folder only; leave it out, or report one series' own fit")
         page = render_panel_report(model_dir, series=series, title=title, plan_csv=plan_csv)
     else:
         if series is not None:
-            raise ModelError(f"{model_dir}: --series picks series of a panel model folder; this is a "
-                             "single-series model folder (leave --series out)")
+            raise ModelError(f"{model_dir}: {option('series')} picks series of a panel model folder; this is "
+                             f"a single-series model folder (leave {option('series')} out)")
         folder = read_model_folder(model_dir, plan_csv=plan_csv, backtest_csv=backtest_csv)
         page = render_report(folder, calendar=calendar, title=title)
     out = Path(out_html)

@@ -475,3 +475,22 @@ def test_arrow_pool_switch_nested_restores_the_first_pool(monkeypatch):
             assert pa.default_memory_pool().backend_name == "system"
         assert pa.default_memory_pool().backend_name == "system"  # the outer fit is still running
     assert pa.default_memory_pool().backend_name == before
+
+
+def test_allocated_whole_units_add_up_to_the_target(tmp_path):
+    """--total N --round --allocate: the children are whole and add up to N exactly, and each family's
+    children to that family's whole share. Before: each child was rounded to its own sum (187,776 for
+    187,777 on the review's panel). Invented data (_panel_frame)."""
+    frame = _panel_frame(4)
+    child = fit_panel(frame, CAL, ["family", "product"], errors="ols", out=tmp_path / "child")
+    fit_panel(frame, CAL, ["family", "product"], level="family", errors="ols", out=tmp_path / "parent")
+    from evcal.panel.planning import plan_panel
+
+    for total in (12_345.6, 20_001.2, 9_999.4):  # no half units: their rounding is a float tie
+        alloc = plan_panel(tmp_path / "parent", "2024-01-01", "2024-06-30", n_sims=0, allocate=child,
+                           total=total, whole_units=True)
+        assert pd.api.types.is_integer_dtype(alloc["plan"].dtype)
+        assert int(alloc["plan"].sum()) == round(total)
+        exact = plan_panel(tmp_path / "parent", "2024-01-01", "2024-06-30", n_sims=0, total=total)
+        by_family = alloc.groupby("family")["plan"].sum()
+        assert (by_family - exact.groupby("family")["plan"].sum()).abs().max() < 1.0

@@ -260,7 +260,14 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
 
         if not options["whole_units"] and (panel_targets is None or allocate is not None):
             keys = children.key_cols if allocate is not None else model.key_cols
-            table = round_table(table, table.groupby(keys, sort=False).ngroup().to_numpy())
+            groups = table.groupby(keys, sort=False).ngroup().to_numpy()
+            goals = None
+            if allocate is not None and panel_targets is not None:  # the children add up to the target
+                from evcal.panel.targets import nested_whole_goals
+
+                goals = nested_whole_goals(table["plan"].to_numpy(dtype=float), groups,
+                                           table.groupby(model.key_cols, sort=False).ngroup().to_numpy())
+            table = round_table(table, groups, goals)
         notes.append(PANEL_WHOLE_UNITS_NOTE)
     table.attrs["notes"] = notes
     return table

@@ -39,7 +39,7 @@ from evcal.errors import PlanError
 from evcal.plan.spread import AMOUNT_COLUMNS, apportion, check_total, whole_number
 from evcal.spelling import option, subject
 
-__all__ = ["apply_targets", "read_panel_totals", "TARGET_RULE"]
+__all__ = ["apply_targets", "nested_whole_goals", "read_panel_totals", "TARGET_RULE"]
 
 #: the note of a panel plan spread to one total (the rule, as the docs state it)
 TARGET_RULE = ("the target {total} is allocated over the {n} series in proportion to each series' own "
@@ -226,3 +226,27 @@ def apply_targets(table: pd.DataFrame, key_cols: list[str], years: np.ndarray, t
         out = round_table(out, gid, dict(enumerate(int(g) for g in whole_goal)))
         goals = {i: float(g) for i, g in zip(idents, whole_goal, strict=True)}
     return out, goals
+
+
+def nested_whole_goals(plan: np.ndarray, children: np.ndarray, parents: np.ndarray) -> dict[int, int]:
+    """Whole targets of allocated children that add up to their parents' whole targets and to the whole
+    total: the parents' sums apportioned to the rounded total, then each parent's children's sums to its
+    whole target (largest remainder, :func:`evcal.plan.spread.apportion`, at each level).
+
+    ``plan`` holds the rows' amounts; ``children`` and ``parents`` label each row (a child lies in one
+    parent). Returns child label -> whole target.
+
+    Examples
+    --------
+    >>> nested_whole_goals(np.array([10.4, 20.4, 30.2, 0.0]), np.array([0, 1, 2, 2]), np.array([0, 0, 1, 1]))
+    {0: 11, 1: 20, 2: 30}
+    """
+    child_sum = pd.Series(plan).groupby(children).sum()
+    parent_of = pd.Series(parents).groupby(children).first()
+    parent_sum = child_sum.groupby(parent_of).sum()
+    parent_goal = dict(zip(parent_sum.index, apportion(parent_sum.to_numpy(),
+                                                       whole_number(float(parent_sum.sum()))), strict=True))
+    goals: dict[int, int] = {}
+    for parent, kids in child_sum.groupby(parent_of):
+        goals.update(zip(kids.index, apportion(kids.to_numpy(), int(parent_goal[parent])), strict=True))
+    return {int(k): int(v) for k, v in goals.items()}

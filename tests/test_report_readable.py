@@ -19,7 +19,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from PIL import Image
 from test_report import invented_day_weights, write_invented_model
 
-from evcal.report import charts, write_report
+from evcal.report import chart_parts, charts, write_report
 
 
 def invented_daily(days: int = 3 * 365) -> pd.DataFrame:
@@ -36,7 +36,7 @@ def invented_daily(days: int = 3 * 365) -> pd.DataFrame:
 def dark_share(fig) -> float:
     """Share of the plot area's pixels drawn dark (luma under 140 of 255: lines, not light points)."""
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=charts.DPI)
+    fig.savefig(buf, format="png", dpi=chart_parts.DPI)
     image = np.asarray(Image.open(buf).convert("RGB")).astype(float)
     box = fig.axes[0].get_window_extent()
     h = image.shape[0]

@@ -10,92 +10,23 @@ Text from the user (event names and labels) goes through :func:`plain` because m
 
 from __future__ import annotations
 
-import base64
 import calendar
-import io
-import textwrap
 from collections.abc import Iterable, Mapping
 
-import matplotlib.dates as mdates
 import numpy as np
 import pandas as pd
-from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
 from evcal.report import palette as pal
+from evcal.report.chart_parts import (
+    date_axis,
+    legend,
+    new_figure,
+    plain,
+    side_or_below_key,
+    units_tick,
+)
 from evcal.report.formatting import cycle_name, freq_base
-
-WIDTH_IN = 10.0
-DPI = 130
-_MAX_LABEL = 38
-
-
-#: lines a chart label may take before the rest is cut with "…" (a legend entry, an axis label)
-_MAX_LINES = 3
-
-
-def plain(text: object, limit: int = _MAX_LABEL) -> str:
-    """User text made safe for matplotlib: no mathtext, wrapped at ``limit`` characters a line.
-
-    A long event label is wrapped onto up to three lines rather than cut (a legend that reads
-    "Mothering Sunday and the six days bef…" names no event); only past three lines is it cut.
-
-    Examples
-    --------
-    >>> plain("$5 off")
-    '\\\\$5 off'
-    >>> print(plain("Mothering Sunday and the six days before it", 24))
-    Mothering Sunday and the
-    six days before it
-    """
-    s = textwrap.fill(" ".join(str(text).split()), width=limit, max_lines=_MAX_LINES, placeholder=" …")
-    return s.replace("\\", "\\\\").replace("$", r"\$")
-
-
-def figure(fig: Figure | None, alt: str, caption: str = "") -> dict[str, str] | None:
-    """A chart as a PNG data URI (no timestamp in the file) with its alternative text; None for no chart."""
-    if fig is None:
-        return None
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=DPI, metadata={"Software": None}, facecolor=fig.get_facecolor())
-    uri = "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
-    return {"uri": uri, "alt": alt, "caption": caption}
-
-
-def _figure(height: float) -> tuple[Figure, Axes]:
-    fig = Figure(figsize=(WIDTH_IN, height), facecolor="white", layout="constrained")
-    ax = fig.add_subplot()
-    ax.set_facecolor("white")
-    ax.spines[["top", "right"]].set_visible(False)
-    ax.spines[["left", "bottom"]].set_color(pal.MUTED)
-    ax.tick_params(colors=pal.INK, labelsize=9)
-    ax.grid(True, axis="y", color=pal.GRID, linewidth=0.8)
-    ax.set_axisbelow(True)
-    return fig, ax
-
-
-def _units(x: float, _pos: int) -> str:
-    """An axis tick in units: 1.2M, 45k, 3.4k, 950."""
-    if abs(x) >= 1e6:
-        return f"{x / 1e6:.1f}M"
-    if abs(x) >= 1e4:
-        return f"{x / 1e3:.0f}k"
-    if abs(x) >= 1e3:
-        return f"{x / 1e3:.1f}k"
-    return f"{x:.0f}"
-
-
-def _date_axis(ax: Axes) -> None:
-    locator = mdates.AutoDateLocator(minticks=4, maxticks=12)
-    ax.xaxis.set_major_locator(locator)
-    ax.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
-
-
-def _legend(ax: Axes, **kw: object) -> None:
-    leg = ax.legend(frameon=False, fontsize=8.5, **kw)
-    for text in leg.get_texts():
-        text.set_color(pal.INK)
-
 
 #: a daily history longer than this many days is drawn as light daily points under rolling means: a line
 #: through every day of a long daily series is a solid block of ink (issue 18)
@@ -121,31 +52,6 @@ def rolling_days(dates: pd.Series, values: pd.Series) -> np.ndarray:
     return s.rolling(f"{ROLLING_DAYS}D", center=True, min_periods=ROLLING_DAYS // 2).mean().to_numpy()
 
 
-#: a key with more entries than this goes under the chart in columns, and the figure grows to hold it: at
-#: the side, 20 wrapped event labels overflow the figure's height and are cut (issue 18)
-SIDE_KEY_MAX = 8
-_KEY_COLUMNS = 3
-_KEY_LINE_IN = 0.19  # inches a legend line takes at fontsize 8.5, with its spacing
-
-
-def _side_or_below_key(fig: Figure, ax: Axes, handles: list | None = None, labels: list | None = None
-                       ) -> None:
-    """The chart's key at its right side when short, else under it in columns, with the figure made taller
-    by the key's lines (each label wraps to at most three, :func:`plain`)."""
-    if handles is None or labels is None:
-        handles, labels = ax.get_legend_handles_labels()
-    if len(labels) <= SIDE_KEY_MAX:
-        _legend(ax, handles=handles, labels=labels, loc="upper left", bbox_to_anchor=(1.0, 1.0))
-        return
-    rows = -(-len(labels) // _KEY_COLUMNS)  # the key fills its columns top to bottom
-    lines = rows * max(str(label).count("\n") + 1 for label in labels)
-    fig.set_figheight(fig.get_figheight() + _KEY_LINE_IN * lines + 0.3)
-    leg = fig.legend(handles, labels, loc="outside lower center", ncols=_KEY_COLUMNS, frameon=False,
-                     fontsize=8.5)
-    for text in leg.get_texts():
-        text.set_color(pal.INK)
-
-
 def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]], freq: str = "") -> Figure:
     """Actual, fitted and base over the history; excluded periods shaded.
 
@@ -153,7 +59,7 @@ def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]], freq: 
     point and actual, fitted and base as :data:`ROLLING_DAYS`-day centred means over them; weekly and
     monthly histories are drawn as they are.
     """
-    fig, ax = _figure(3.6)
+    fig, ax = new_figure(3.6)
     dates = fitted["date"].to_numpy()
     for i, ex in enumerate(exclusions):  # ISO days (the model folder's reader checked them)
         label = None if i else "excluded from the fit"
@@ -176,16 +82,16 @@ def history_chart(fitted: pd.DataFrame, exclusions: list[dict[str, str]], freq: 
         marker = "o" if len(fitted) <= 160 else None
         ax.plot(dates, fitted["actual"], color=pal.ACTUAL, linewidth=0.9, marker=marker, markersize=2.2,
                 label="actual")
-    _date_axis(ax)
-    ax.yaxis.set_major_formatter(_units)
+    date_axis(ax)
+    ax.yaxis.set_major_formatter(units_tick)
     ax.set_ylabel("units", color=pal.MUTED, fontsize=9)
-    _legend(ax, loc="lower left", bbox_to_anchor=(0.0, 1.0), ncols=4)
+    legend(ax, loc="lower left", bbox_to_anchor=(0.0, 1.0), ncols=4)
     return fig
 
 
 def index_chart(profile: pd.DataFrame, freq: str) -> Figure:
     """The seasonal index over one cycle as bars from the 100 line."""
-    fig, ax = _figure(3.0)
+    fig, ax = new_figure(3.0)
     period = profile["period"].to_numpy(dtype=float)
     index = profile["index"].to_numpy(dtype=float)
     colours = [pal.ABOVE if v >= 100 else pal.BELOW for v in index]
@@ -243,7 +149,7 @@ def lifts_chart(
         return None
     rows = rows.iloc[::-1]  # first row at the top
     assumed = set(assumed)
-    fig, ax = _figure(0.9 + 0.36 * len(rows))
+    fig, ax = new_figure(0.9 + 0.36 * len(rows))
     ax.grid(True, axis="x", color=pal.GRID, linewidth=0.8)
     ax.grid(False, axis="y")
     x0, x1 = lift_axis(rows)
@@ -288,7 +194,7 @@ def occurrences_chart(
     """Units each event added per year, stacked (added below zero when it took away)."""
     if by_year.empty:
         return None
-    fig, ax = _figure(3.2)
+    fig, ax = new_figure(3.2)
     x = np.arange(len(by_year))
     pos = np.zeros(len(by_year))
     neg = np.zeros(len(by_year))
@@ -303,9 +209,9 @@ def occurrences_chart(
         neg += down
     ax.axhline(0.0, color=pal.INK, linewidth=1.0)
     ax.set_xticks(x, [str(y) for y in by_year.index])
-    ax.yaxis.set_major_formatter(_units)
+    ax.yaxis.set_major_formatter(units_tick)
     ax.set_ylabel("units added", color=pal.MUTED, fontsize=9)
-    _side_or_below_key(fig, ax)
+    side_or_below_key(fig, ax)
     return fig
 
 
@@ -322,7 +228,7 @@ def plan_chart(
     drawn dashed so the reader sees where the plan departs from it. Events that take units away
     (closures, negative lifts) are drawn hatched, stacked down from the top of the base.
     """
-    fig, ax = _figure(3.9)
+    fig, ax = new_figure(3.9)
     x = plan["date"].to_numpy()
     width = _bar_width_days(plan["date"])
     base = plan["base"].to_numpy(dtype=float)
@@ -360,15 +266,15 @@ def plan_chart(
         if mask.any():
             marks = {"linestyle": "none", "marker": "v", "markersize": 6, "color": pal.FITTED}
             ax.plot(x[mask], high[mask] * 1.04, label="uses an assumed lift", **marks)
-    _date_axis(ax)
-    ax.yaxis.set_major_formatter(_units)
+    date_axis(ax)
+    ax.yaxis.set_major_formatter(units_tick)
     ax.set_ylabel("units", color=pal.MUTED, fontsize=9)
     ax.set_ylim(bottom=0)
     handles, names = ax.get_legend_handles_labels()
     lead = ("plan", "low–high interval", "average-share profile, same total")
     order = sorted(range(len(names)), key=lambda i: names[i] not in lead)  # the lead first, else as drawn
     handles, names = [handles[i] for i in order], [names[i] for i in order]
-    _side_or_below_key(fig, ax, handles, names)
+    side_or_below_key(fig, ax, handles, names)
     return fig
 
 
@@ -387,7 +293,7 @@ def backtest_chart(backtest: pd.DataFrame, method_names: Mapping[str, str]) -> F
     bt = bt.dropna(subset=["wape", "year"])
     if bt.empty:
         return None
-    fig, ax = _figure(2.8)
+    fig, ax = new_figure(2.8)
     years = sorted(bt["year"].astype(int).unique())
     methods = list(dict.fromkeys(bt["method"]))
     x = np.arange(len(years))
@@ -405,5 +311,5 @@ def backtest_chart(backtest: pd.DataFrame, method_names: Mapping[str, str]) -> F
         )
     ax.set_xticks(x, [str(y) for y in years])
     ax.set_ylabel("WAPE %", color=pal.MUTED, fontsize=9)
-    _legend(ax, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+    legend(ax, loc="upper left", bbox_to_anchor=(1.0, 1.0))
     return fig

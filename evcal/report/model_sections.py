@@ -21,7 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.report import charts
+from evcal.report import chart_parts, charts
 from evcal.report.context import ReportContext
 from evcal.report.formatting import cycle_name, freq_base, num, pct
 
@@ -78,7 +78,7 @@ def history_section(ctx: ReportContext) -> dict[str, Any]:
     if exclusions:
         text += " Shaded spans were left out of the fit (see Warnings)."
     alt = "Line chart of actual, fitted and base over the history"
-    return {"text": text, "figure": charts.figure(fig, alt)}
+    return {"text": text, "figure": chart_parts.figure(fig, alt)}
 
 
 def season_section(ctx: ReportContext) -> dict[str, Any]:
@@ -95,7 +95,7 @@ def season_section(ctx: ReportContext) -> dict[str, Any]:
         f"{name} {int(lo['period'])} at {lo['index']:.0f}. Events that always fall in the "
         "same period cannot be told apart from the season and stay inside this index."
     )
-    return {"text": text, "figure": charts.figure(fig, "Bar chart of the seasonal index around 100")}
+    return {"text": text, "figure": chart_parts.figure(fig, "Bar chart of the seasonal index around 100")}
 
 
 def lifts_section(ctx: ReportContext) -> dict[str, Any]:
@@ -129,7 +129,7 @@ def lifts_section(ctx: ReportContext) -> dict[str, Any]:
     headers = ["event", "name in files", "kind", "lift", "95 % interval", "units / occurrence",
                *(["occurrences"] if counts else []), "identifiable", "note"]
     return {
-        "figure": charts.figure(fig, "Event lifts with 95 % interval bars"),
+        "figure": chart_parts.figure(fig, "Event lifts with 95 % interval bars"),
         "not_estimated": [
             {"label": label, "note": note or "not identifiable"}
             for label, note in zip(not_ident["label"], not_ident["note"], strict=True)
@@ -286,7 +286,7 @@ def past_section(ctx: ReportContext) -> dict[str, Any]:
     headers += ["added %"]
     headers += ["dip units", "net units", "net 95 % interval (units)", "net %"] if has_net else []
     return {
-        "figure": charts.figure(fig, "Stacked bars of units each event added per year"),
+        "figure": chart_parts.figure(fig, "Stacked bars of units each event added per year"),
         "by_year": by_year,
         "count": len(occ),
         "every": table(headers, detail_rows, numeric=range(3, len(headers))),

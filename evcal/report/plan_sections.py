@@ -17,7 +17,8 @@ import numpy as np
 import pandas as pd
 
 from evcal.model.weekday_share import average_share_phrase
-from evcal.report import charts
+from evcal.report import chart_parts, charts
+from evcal.report import palette as pal
 from evcal.report.calendar_view import calendar_data, weights_from_plan
 from evcal.report.context import ReportContext, view_span
 from evcal.report.formatting import num, pct, period_days, period_label
@@ -134,7 +135,7 @@ def plan_section(ctx: ReportContext) -> dict[str, Any]:
         headers.append("assumptions")
     return {
         "year": year_section(plan, ctx.freq),
-        "figure": charts.figure(fig, "Plan: base with stacked event contributions and interval"),
+        "figure": chart_parts.figure(fig, "Plan: base with stacked event contributions and interval"),
         "shares": table(["part of the plan", "units", "share of total", ""], share_rows, numeric=(1, 2)),
         "moved": moved,
         "count": len(plan),
@@ -154,15 +155,15 @@ def year_section(plan: pd.DataFrame, freq: str) -> dict[str, Any] | None:
     # the actuals' year only: a horizon running into the next year (per-year --totals) shows it below
     plan = plan[plan["date"].dt.year == pd.Timestamp(actuals["date"].iloc[0]).year]
     done, planned = float(actuals["actual"].sum()), float(plan["plan"].sum())
-    fig, ax = charts._figure(3.2)
-    ax.plot(actuals["date"], actuals["actual"], color=charts.pal.INK, linewidth=1.6, marker="o",
+    fig, ax = chart_parts.new_figure(3.2)
+    ax.plot(actuals["date"], actuals["actual"], color=pal.INK, linewidth=1.6, marker="o",
             markersize=2.5, label="actual so far")
-    ax.fill_between(plan["date"], plan["low"], plan["high"], color=charts.pal.BAND, alpha=0.35, linewidth=0,
+    ax.fill_between(plan["date"], plan["low"], plan["high"], color=pal.BAND, alpha=0.35, linewidth=0,
                     label="low–high interval")
-    ax.plot(plan["date"], plan["plan"], color=charts.pal.FITTED, linewidth=1.6, linestyle=(0, (4, 2)),
+    ax.plot(plan["date"], plan["plan"], color=pal.FITTED, linewidth=1.6, linestyle=(0, (4, 2)),
             label="plan for the rest")
-    charts._date_axis(ax)
-    charts._legend(ax)
+    chart_parts.date_axis(ax)
+    chart_parts.legend(ax)
     rows = [[period_label(r["date"], freq), f"{r['date']:%Y-%m-%d}", num(r["actual"]), "", "", ""]
             for _, r in actuals.iterrows()]
     rows += [[period_label(r["date"], freq), f"{r['date']:%Y-%m-%d}", "", num(r["plan"]), num(r["low"]),
@@ -173,8 +174,8 @@ def year_section(plan: pd.DataFrame, freq: str) -> dict[str, Any] | None:
         "text": f"{first.year} so far as sold ({len(actuals)} periods, {num(done)} units) and the rest as "
         f"planned ({len(plan)} periods, {num(planned)} units): {num(done + planned)} for the year. A target "
         "given to the plan counts the actuals, so only the rest was spread over the plan's periods.",
-        "figure": charts.figure(fig, f"{first.year}: actual sales so far as a line, the plan for the rest "
-                                "beside it with its interval"),
+        "figure": chart_parts.figure(fig, f"{first.year}: actual sales so far as a line, the plan for the "
+                                     "rest beside it with its interval"),
         "table": table(["period", "date", "actual", "plan", "low", "high"], rows, numeric=(2, 3, 4, 5)),
     }
 

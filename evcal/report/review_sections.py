@@ -21,7 +21,7 @@ import pandas as pd
 from evcal.model.leap import leap_year_line
 from evcal.model.result import cov_frame
 from evcal.model.weekday_share import average_share_kind
-from evcal.report import charts
+from evcal.report import chart_parts, charts
 from evcal.report.context import ReportContext
 from evcal.report.formatting import num, pct, period_label, sig
 from evcal.report.model_folder import lift_columns
@@ -88,7 +88,7 @@ def backtest_section(ctx: ReportContext) -> dict[str, Any]:
         "average_share": f"Average share of year here: {average_share_kind(ctx.freq)}.",
         "summary": summary,
         "table": table(headers, rows, numeric=range(2, len(years) + 5), row_classes=row_cls),
-        "figure": charts.figure(fig, "WAPE per held-out year and method",
+        "figure": chart_parts.figure(fig, "WAPE per held-out year and method",
                          "WAPE % per held-out year (plans spread to the actual total)"),
     }
 

@@ -186,11 +186,11 @@ def test_drivers_file_of_week_labels() -> None:
     assert got["price"].tolist() == [2.5, 2.25, 2.4]
 
 
-def test_another_week_end_is_refused_for_iso_labels() -> None:
-    # ISO weeks end on Sunday: --freq W-SAT would move every week a day; refused, naming W-SUN
-    with pytest.raises(HistoryError, match="fall on Sundays.*pass freq='W-SUN'"):
-        read_history(_frame("{y}-W{w:02d}"), freq="W-SAT")
+def test_plain_weekly_on_iso_labels_is_weeks_ending_sunday() -> None:
+    # ISO weeks end on Sunday; a named other week end dates each label by that day of its week
+    # (test_labels_end_on_the_week_end_the_user_names; it was refused before issue 18's "unless told")
     assert read_history(_frame("{y}-W{w:02d}"), freq="W").freq == "W-SUN"
+    assert read_history(_frame("{y}-W{w:02d}")).freq == "W-SUN"
 
 
 def test_a_year_evcal_cannot_hold_is_named_with_its_row() -> None:
@@ -199,3 +199,27 @@ def test_a_year_evcal_cannot_hold_is_named_with_its_row() -> None:
         "f row 9, column 'date': date '1500-W03' is outside the dates evcal can hold (1677-09-22 to "
         "2262-04-11); check the year"
     ]
+
+
+@pytest.mark.parametrize(("freq", "weekday"), [("W-FRI", 5), ("W-SAT", 6), ("W-MON", 1), ("W-SUN", 7)])
+def test_labels_end_on_the_week_end_the_user_names(freq: str, weekday: int) -> None:
+    """Weeks said to end on another day (freq='W-FRI') are dated by that day of the labelled ISO week
+    (published weekly series label a week ending Friday by the ISO week of that Friday).
+    Before: read as Sundays, and the forced W-FRI then refused. Outside check: dt.date.fromisocalendar."""
+    labels = [f"2021-W{w:02d}" for w in range(1, 53)] + [f"2022-W{w:02d}" for w in range(1, 53)]
+    frame = pd.DataFrame({"week": labels, "value": np.arange(len(labels), dtype=float) + 10})
+    hist = read_history(frame, date_col="week", freq=freq)
+    assert hist.freq == freq
+    expected = [dt.date.fromisocalendar(int(x[:4]), int(x[6:]), weekday) for x in labels]
+    got = [p.end_time.date() for p in hist.values.index]
+    assert got == expected
+
+
+def test_panel_labels_end_on_the_week_end_the_user_names() -> None:
+    """The same rule in a long file of several series (evcal.io.read_panel)."""
+    labels = [f"2023-W{w:02d}" for w in range(1, 53)]
+    frame = pd.DataFrame({"store": np.repeat(["a", "b"], len(labels)), "week": labels * 2,
+                          "value": np.arange(2 * len(labels), dtype=float) + 1})
+    panel = read_panel(frame, ["store"], date_col="week", freq="W-FRI")
+    assert panel.freq == "W-FRI"
+    assert panel.periods[0].end_time.date() == dt.date.fromisocalendar(2023, 1, 5)

@@ -107,14 +107,15 @@ _YEAR_FIRST = r"^\d{4}[-/.]"
 
 
 def parse_dates(
-    cells: pd.Series, rows: list[int], column: str, source: str
+    cells: pd.Series, rows: list[int], column: str, source: str, week_end: int = 6
 ) -> tuple[pd.Series, list[RowProblem]]:
     """Parse a date column. Empty cells become NaT; bad cells become problems.
 
     ISO week labels (``2024-W05``, ``2024 W05``, ``2024W05``; ``202405`` in a
     column of six-digit cells, see
     :func:`~evcal.io.isoweeks.read_iso_weeks`) are read as the week's
-    Sunday, the last day of the ISO week, so the history is weekly ending Sunday.
+    Sunday, the last day of the ISO week, so the history is weekly ending Sunday; ``week_end`` (Monday 0 ..
+    Sunday 6, from a forced ``freq='W-FRI'``) dates them by that day of the labelled week instead.
     Other text is read as ISO 8601 first (``2024-01-31``, ``2024-01``). Text that is
     not ISO goes to pandas' format inference, once month-first and once
     day-first: if both read every such cell but disagree (``03/04/2024``), the
@@ -140,11 +141,12 @@ def parse_dates(
         return out, problems
 
     cells_array = values.to_numpy(dtype=object)
-    week_cells, sundays, week_problems = read_iso_weeks(cells_array, empty_mask(values), rows, column, source)
+    week_cells, ends, week_problems = read_iso_weeks(cells_array, empty_mask(values), rows, column, source,
+                                                     week_end)
     problems += week_problems
     if week_cells.any():
         at = np.flatnonzero(week_cells)
-        problems += _place(out, at, pd.Series(sundays[at].astype("datetime64[us]")), list(cells_array[at]),
+        problems += _place(out, at, pd.Series(ends[at].astype("datetime64[us]")), list(cells_array[at]),
                            rows, column)
     empty = empty_mask(values) | week_cells  # a week label is read; the rest of the column as dates
     is_text = np.array([isinstance(c, str) for c in cells_array], dtype=bool) & ~empty

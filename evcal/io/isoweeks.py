@@ -1,5 +1,5 @@
 """ISO 8601 week labels in a date column (``2024-W05``, ``2024 W05``, ``2024W05``, ``202405``), read as
-the Sunday that ends each week.
+the Sunday that ends each week (or the week-ending day the user names, ``freq='W-FRI'``).
 
 ISO weeks run Monday to Sunday; week 01 is the week holding the year's first
 Thursday (4 January), so a year has 52 or 53 weeks.
@@ -15,7 +15,7 @@ import pandas as pd
 from evcal.errors import HistoryError
 from evcal.io.problems import RowProblem, capped, quote
 
-__all__ = ["iso_week_sundays", "read_iso_weeks"]
+__all__ = ["iso_week_sundays", "read_iso_weeks", "week_end_day"]
 
 #: ISO 8601 week labels: ``2024-W05``, ``2024 W05``, ``2024W05`` (a lower-case w too).
 _ISO_WEEK = re.compile(r"^(\d{4})(?:-| ?)[Ww](\d{2})$")
@@ -31,15 +31,16 @@ def _first_monday(years: np.ndarray) -> np.ndarray:
     return jan4 - weekday.astype("timedelta64[D]")
 
 
-def _week_table(years: np.ndarray, weeks: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Each week's Sunday (NaT where the week does not exist) and how many ISO weeks its year has."""
+def _week_table(years: np.ndarray, weeks: np.ndarray, last_day: int = 6) -> tuple[np.ndarray, np.ndarray]:
+    """Each week's day ``last_day`` (Monday 0 .. Sunday 6; NaT where the week does not exist) and how many
+    ISO weeks its year has."""
     years = np.asarray(years, dtype=np.int64)
     weeks = np.asarray(weeks, dtype=np.int64)
     monday = _first_monday(years)
     in_year = (_first_monday(years + 1) - monday).astype(np.int64) // 7
     real = (weeks >= 1) & (weeks <= in_year)
-    sunday = monday + (7 * (weeks - 1) + 6).astype("timedelta64[D]")
-    return np.where(real, sunday, np.datetime64("NaT", "D")), in_year
+    day = monday + (7 * (weeks - 1) + last_day).astype("timedelta64[D]")
+    return np.where(real, day, np.datetime64("NaT", "D")), in_year
 
 
 def iso_week_sundays(years: np.ndarray, weeks: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -64,10 +65,28 @@ def _week_text(cell: object) -> str:
     return str(cell).strip()
 
 
+def week_end_day(freq: str | None) -> int:
+    """The weekday (Monday 0 .. Sunday 6) that ends the weeks of a forced weekly frequency (``W-FRI``: 4);
+    Sunday, the end of an ISO week, for anything else.
+
+    Examples
+    --------
+    >>> week_end_day("W-FRI"), week_end_day("W-SUN"), week_end_day(None), week_end_day("M")
+    (4, 6, 6, 6)
+    """
+    days = ("MON", "TUE", "WED", "THU", "FRI", "SAT", "SUN")
+    code = str(freq or "").upper()
+    return days.index(code[2:]) if code.startswith("W-") and code[2:] in days else 6
+
+
 def read_iso_weeks(
-    cells: np.ndarray, empty: np.ndarray, rows: list[int], column: str, source: str
+    cells: np.ndarray, empty: np.ndarray, rows: list[int], column: str, source: str, last_day: int = 6
 ) -> tuple[np.ndarray, np.ndarray, list[RowProblem]]:
-    """Read the ISO week labels of a date column: (mask of label cells, their Sundays, problems).
+    """Read the ISO week labels of a date column: (mask of label cells, their last days, problems).
+
+    A label is dated by its week's Sunday, the last day of the ISO week, unless the weeks are said to end
+    on another day (``last_day``, from ``freq='W-FRI'``): then by that day of the labelled ISO week, as
+    published series that label a week ending Friday by the ISO week of that Friday do.
 
     ``YYYY-Www``, ``YYYY Www`` and ``YYYYWww`` are labels wherever they stand.
     ``YYYYww`` (six digits) is a label only when every filled cell of the column
@@ -97,9 +116,9 @@ def read_iso_weeks(
     at = filled[found]
     mask = np.zeros(n, dtype=bool)
     mask[at] = True
-    sundays = np.full(n, np.datetime64("NaT", "D"))
+    ends = np.full(n, np.datetime64("NaT", "D"))
     years, weeks = parts[0][found].astype(int).to_numpy(), parts[1][found].astype(int).to_numpy()
-    sundays[at], in_year = _week_table(years, weeks)
+    ends[at], in_year = _week_table(years, weeks, last_day)
 
     def no_such_week(j: int) -> RowProblem:
         return RowProblem(
@@ -109,4 +128,4 @@ def read_iso_weeks(
             "to Sunday, week 01 holds the year's first Thursday)",
         )
 
-    return mask, sundays, capped(np.flatnonzero(np.isnat(sundays[at])), no_such_week)
+    return mask, ends, capped(np.flatnonzero(np.isnat(ends[at])), no_such_week)

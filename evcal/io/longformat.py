@@ -20,7 +20,8 @@ import pandas as pd
 
 from evcal.errors import HistoryError
 from evcal.io.cells import MAX_VALUE, count_problems, empty_mask, key_text, parse_dates, parse_values, quote
-from evcal.io.frequency import describe_freq, detect_label
+from evcal.io.frequency import describe_freq, detect_label, parse_freq_option
+from evcal.io.isoweeks import week_end_day
 from evcal.io.panel import Panel
 from evcal.io.series_freq import series_frequency
 from evcal.io.tables import PARQUET_SUFFIXES, RawTable, find_column, load_table
@@ -215,7 +216,8 @@ def panel_from_frame(table: RawTable, series_cols: list[str], date_col: str, val
         # factorize numbers cells in order of first appearance: the first row of each
         _, first_pos = np.unique(dcode, return_index=True)
         u_rows = [_row_number(table, int(p)) for p in first_pos]
-        parsed, problems = parse_dates(pd.Series(ucells), u_rows, dcol, name)
+        week_end = week_end_day(parse_freq_option(freq) if freq else None)  # ISO labels: Sunday unless told
+        parsed, problems = parse_dates(pd.Series(ucells), u_rows, dcol, name, week_end)
         if problems:
             raise HistoryError(sorted(problems)[0].line(name))
         if parsed.isna().any():

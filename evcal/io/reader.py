@@ -29,6 +29,7 @@ from evcal.io.drivers import (
 )
 from evcal.io.frequency import describe_freq, detect_freq, detect_label, parse_freq_option, resolve_freq
 from evcal.io.history import History
+from evcal.io.isoweeks import week_end_day
 from evcal.io.tables import find_column, load_table
 from evcal.spelling import option, options
 
@@ -121,7 +122,9 @@ def read_history(
     date_cells = date_cells.iloc[keep].reset_index(drop=True)
     value_cells = value_cells.iloc[keep].reset_index(drop=True)
 
-    dates, problems = parse_dates(date_cells, rows, dcol, name)
+    # ISO week labels end on Sunday unless the weeks are said to end on another day (freq='W-FRI')
+    week_end = week_end_day(parse_freq_option(freq) if freq is not None else None)
+    dates, problems = parse_dates(date_cells, rows, dcol, name, week_end)
     values, value_problems = parse_values(value_cells, rows, vcol, allow_negative)
     if problems and value_problems and _swapped(date_cells, value_cells):
         raise HistoryError(

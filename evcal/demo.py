@@ -80,6 +80,7 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     from evcal.model.summary import describe
     from evcal.outputs import check_output
     from evcal.plan import make_plan
+    from evcal.progress import progress_spinner
     from evcal.report.headlines import headlines
     from evcal.report.html import write_report
     from evcal.report.model_folder import read_model_folder
@@ -106,24 +107,28 @@ def run_demo(out: str | Path, data: str | Path | None = None,
     echo(f"  warnings: {len(report.warnings)}")
 
     echo(f"\n[2/6] fit: weekly history {history.name}")
-    result = fit(history, cal)
-    result.save(out / "model")
+    with progress_spinner("demo: fitting"):  # each step takes seconds: a spinner on a terminal
+        result = fit(history, cal)
+        result.save(out / "model")
     echo("  " + describe(result).replace("\n", "\n  "))
 
     echo(f"\n[3/6] plan {PLAN_YEAR}, spread to finance's target of {TARGET:,.0f} units")
-    plan = make_plan(result, f"{PLAN_YEAR}-01-01", f"{PLAN_YEAR}-12-31", total=TARGET)
-    plan.save(out / "plan.csv")
-    plan.save(out / "plan.xlsx")
+    with progress_spinner("demo: planning (1,000 simulations)"):
+        plan = make_plan(result, f"{PLAN_YEAR}-01-01", f"{PLAN_YEAR}-12-31", total=TARGET)
+        plan.save(out / "plan.csv")
+        plan.save(out / "plan.xlsx")
     echo("  " + plan.summary().replace("\n", "\n  "))
 
     echo("\n[4/6] backtest: hold out 2024 and 2025 in turn, fit on the years before")
-    bt = backtest(history, cal, holdout_years=2, progress=False)
-    save_backtest(bt, out / "backtest.csv")
+    with progress_spinner("demo: backtest"):
+        bt = backtest(history, cal, holdout_years=2, progress=False)
+        save_backtest(bt, out / "backtest.csv")
     echo("  " + format_table(bt).replace("\n", "\n  "))
 
     echo("\n[5/6] report")
-    write_report(out / "model", out / "report.html", plan_csv=out / "plan.csv",
-                 backtest_csv=out / "backtest.csv", calendar=calendar)
+    with progress_spinner("demo: report"):
+        write_report(out / "model", out / "report.html", plan_csv=out / "plan.csv",
+                     backtest_csv=out / "backtest.csv", calendar=calendar)
     echo("\n[6/6] workbook written with the plan (plan.xlsx)")
 
     write_marker(out, "demo")  # every file now there

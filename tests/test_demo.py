@@ -16,8 +16,12 @@ DEMO = DEMO_DATA  # the package data evcal demo reads
 
 def test_demo_writes_everything_and_quotes_three_lines(tmp_path):
     out = tmp_path / "demo-output"
-    res = CliRunner().invoke(app, ["demo", "--out", str(out), "--data", str(DEMO)])
+    res = CliRunner().invoke(app, ["-v", "demo", "--out", str(out), "--data", str(DEMO)])
     assert res.exit_code == 0, res.output
+    # each step of seconds names its stage (a spinner on a terminal, a line under --verbose)
+    stages = [line for line in res.stderr.splitlines() if line.startswith("evcal: demo: ")]
+    assert stages == ["evcal: demo: fitting", "evcal: demo: planning (1,000 simulations)",
+                      "evcal: demo: backtest", "evcal: demo: report"]
     for f in ("model/model.json", "model/lifts.csv", "plan.csv", "plan.xlsx", "backtest.csv", "report.html"):
         assert (out / f).is_file(), f
     assert "What a planner would quote:" in res.output

@@ -8,17 +8,15 @@ weekly rows, a street fair), named as such.
 
 from __future__ import annotations
 
-from collections.abc import Callable
 from pathlib import Path
-from typing import Any
 
 import pandas as pd
 import pytest
+from test_api_spelling import _api_line, _cli_line, _same_but_spelling
 from typer.testing import CliRunner
 
 import evcal
 from evcal.cli import app
-from evcal.errors import EvcalError
 
 runner = CliRunner()
 #: invented weekly Sundays, 2020-2024 (four full calendar years and a bit)
@@ -30,32 +28,6 @@ events:
 """
 #: the same with an event the history never saw, inside the plan's year
 NEW_EVENT = CALENDAR + '  - {name: street-fair, when: {dates: [2025-06-15]}}\n'
-
-
-def _api_line(call: Callable[[], Any]) -> str:
-    with pytest.raises(EvcalError) as err:
-        call()
-    (line,) = err.value.problems
-    return line
-
-
-def _cli_line(args: list[str]) -> str:
-    res = runner.invoke(app, args)
-    assert res.exit_code == 2, res.output
-    lines = res.output.strip().splitlines()
-    assert len(lines) == 1 and lines[0].startswith("error: "), res.output
-    return lines[0].removeprefix("error: ")
-
-
-def _same_but_spelling(api: str, cli: str, pairs: list[tuple[str, str]]) -> None:
-    """The API line names each argument, the CLI line each flag, and nothing else differs."""
-    for arg, flag in pairs:
-        assert arg in api and arg not in cli, (arg, api, cli)
-        assert flag in cli, (flag, cli)
-    translated = api
-    for arg, flag in pairs:
-        translated = translated.replace(arg, flag)
-    assert translated == cli
 
 
 @pytest.fixture(scope="module")

@@ -86,9 +86,7 @@ def write_workbook(
     -------
     Path
     """
-    wb = Workbook()
-    wb.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook (evcal.outputs)
-    wb.remove(wb.active)
+    wb = new_workbook()
     labels = event_labels(lifts)
     plan = _with_date_column(plan)
     if plan.empty and not len(plan.columns):
@@ -105,6 +103,15 @@ def write_workbook(
     with atomic_path(out) as tmp:
         wb.save(tmp)
     return out
+
+
+def new_workbook() -> Workbook:
+    """An empty workbook marked as evcal's (its creator: how ``--out`` knows evcal's own file,
+    :mod:`evcal.outputs`)."""
+    wb = Workbook()
+    wb.properties.creator = "evcal"
+    wb.remove(wb.active)
+    return wb
 
 
 def event_labels(lifts: pd.DataFrame | None) -> dict[str, str]:

@@ -25,13 +25,12 @@ from __future__ import annotations
 from pathlib import Path
 
 import pandas as pd
-from openpyxl import Workbook
 from openpyxl.styles import Font
 from openpyxl.utils import get_column_letter
 
 from evcal._files import atomic_path
 from evcal.formula_safe import workbook_text
-from evcal.plan.workbook import UNITS_FORMAT, notes_sheet, write_table
+from evcal.plan.workbook import UNITS_FORMAT, new_workbook, notes_sheet, write_table
 from evcal.plan.workbook_plan import is_amount, readable
 
 __all__ = ["PANEL_SHEETS", "write_panel_workbook"]
@@ -68,9 +67,7 @@ def write_panel_workbook(out_xlsx: str | Path, table: pd.DataFrame, labels: dict
     -------
     Path
     """
-    wb = Workbook()
-    wb.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook (evcal.outputs)
-    wb.remove(wb.active)
+    wb = new_workbook()
     ws = wb.create_sheet(PANEL_SHEETS[0])
     ws.append([workbook_text(how_made(notes))])
     ws["A1"].font = Font(italic=True)

@@ -23,7 +23,8 @@ WEEK_LABELS = ("iso",)
 
 
 def iso_week_labels(dates: pd.Series | pd.DatetimeIndex) -> pd.Series:
-    """``YYYY-Www`` of each date (its ISO year and week, from :meth:`datetime.date.isocalendar`).
+    """``YYYY-Www`` of each date (its ISO year and week, from :meth:`pandas.Series.dt.isocalendar`); an
+    empty label where there is no date.
 
     Examples
     --------
@@ -32,9 +33,9 @@ def iso_week_labels(dates: pd.Series | pd.DatetimeIndex) -> pd.Series:
     >>> iso_week_labels(pd.Series(pd.to_datetime(["2027-01-03", "2027-01-10", "2027-02-07"]))).tolist()
     ['2026-W53', '2027-W01', '2027-W05']
     """
-    stamps = pd.Series(pd.to_datetime(dates))
-    return pd.Series([f"{d.isocalendar()[0]:04d}-W{d.isocalendar()[1]:02d}" for d in stamps],
-                     index=stamps.index, dtype=object)
+    iso = pd.Series(pd.to_datetime(dates)).dt.isocalendar()  # pandas' ISO year and week; <NA> for no date
+    labels = iso["year"].astype(str).str.zfill(4) + "-W" + iso["week"].astype(str).str.zfill(2)
+    return labels.where(iso["week"].notna(), "").astype(object)
 
 
 def check_week_labels(freq: str, kind: str = "iso", option: str | None = None) -> None:
@@ -88,8 +89,6 @@ def with_week_labels(table: pd.DataFrame, freq: str, kind: str = "iso", option: 
     """
     check_week_labels(freq, kind, option)
     out = table.copy()
-    dates = pd.to_datetime(out["date"], errors="coerce")
-    labels = iso_week_labels(dates.fillna(pd.Timestamp("2000-01-02")))
-    labels[dates.isna()] = ""  # e.g. the totals row of a side-by-side plan
+    labels = iso_week_labels(pd.to_datetime(out["date"], errors="coerce"))  # a totals row: no label
     out.insert(int(out.columns.get_loc("date")) + 1, ISO_WEEK_COLUMN, labels.to_numpy())
     return out

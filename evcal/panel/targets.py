@@ -36,7 +36,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.errors import PlanError
-from evcal.plan.spread import AMOUNT_COLUMNS, apportion, check_total, whole_number
+from evcal.plan.spread import AMOUNT_COLUMNS, apportion, check_total, round_table, whole_number
 from evcal.spelling import option, subject
 
 __all__ = ["apply_targets", "nested_whole_goals", "read_panel_totals", "TARGET_RULE"]
@@ -217,8 +217,6 @@ def apply_targets(table: pd.DataFrame, key_cols: list[str], years: np.ndarray, t
             out[c] = out[c].to_numpy(dtype=float) * f
     goals = {i: float(g) for i, g in zip(idents, goal, strict=True)}
     if whole_units:
-        from evcal.plan.spread import round_table
-
         if total is not None:
             whole_goal = apportion(goal, whole_number(total))
         else:

@@ -240,11 +240,8 @@ def year_table(plan: Any) -> pd.DataFrame:
 def year_to_date_periods(plan: Any) -> np.ndarray:
     """Mask of the plan's periods in the year of its actuals (all of them when it has none)."""
     years = period_years(plan.periods, plan.label)
-    if plan.actuals is None:
-        return np.ones(len(years), dtype=bool)
-    year = int(period_years(pd.DatetimeIndex(plan.actuals["date"][:1]).to_period(plan.periods.freq),
-                            plan.label)[0])
-    return years == year
+    done = actual_by_year(plan)  # the actuals lie in one year, the plan's (year_to_date)
+    return years == min(done) if done else np.ones(len(years), dtype=bool)
 
 
 def plan_file_frame(plan: Any) -> pd.DataFrame:

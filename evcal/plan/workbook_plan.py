@@ -213,14 +213,15 @@ def write_plan_sheet(ws: Worksheet, table: pd.DataFrame, labels: dict[str, str],
     ws.row_dimensions[codes_row].hidden = True
 
     # the actuals so far
-    sold = zip(actuals["date"], actuals["actual"], strict=True) if actuals is not None else []
+    sold = actuals if actuals is not None else pd.DataFrame({"date": [], "actual": []})
     labelled = ISO_WEEK_COLUMN in col  # --week-labels: the actual rows are labelled too, as in plan.csv
-    for k, (date, value) in enumerate(sold):
+    weeks = iso_week_labels(sold["date"]).tolist() if labelled else [None] * len(sold)
+    for k, (date, value, week) in enumerate(zip(sold["date"], sold["actual"], weeks, strict=True)):
         r = first_actual + k
         ws.cell(r, 1, cell_value(pd.Timestamp(date), "date")).number_format = DATE_FORMAT
         ws.cell(r, col["actual"], cell_value(value, "actual")).number_format = WHOLE_FORMAT
         if labelled:
-            ws.cell(r, col[ISO_WEEK_COLUMN], iso_week_labels(pd.Series([pd.Timestamp(date)])).iloc[0])
+            ws.cell(r, col[ISO_WEEK_COLUMN], week)
 
     # the plan's periods: formulas for the spread amounts, values for the model and the rest
     for i, row in enumerate(table.itertuples(index=False, name=None)):

@@ -202,8 +202,11 @@ def fit_long_panel(panel: Panel, calendar: Any, options: FitOptions, runner: Run
     skipped_pos = np.flatnonzero(~screen.ok)
     skipped = pd.DataFrame({"_sid": skipped_pos, "reason": screen.reason[skipped_pos],
                             "detail": screen.detail[skipped_pos]})
+    # a group counts the series its block fitted: those fitted again on their own (``again``) or
+    # skipped are not its series any more (panel.json checks the sum against counts.batched)
+    in_block = series["group"][series["engine"] == "batched"].to_numpy() if len(series) else np.zeros(0)
     group_rows = [{"group": g.gid, "transform": g.transform, "trend_origin": g.origin,
-                   "series": int(len(g.members)), "periods_fitted": int(g.rows.sum()),
+                   "series": int((in_block == g.gid).sum()), "periods_fitted": int(g.rows.sum()),
                    "coefficients": len(g.info.fitted_cols), "hac_lags": None,
                    "status": {c: {"status": st.status, "note": st.note, **({"weak": True} if st.weak else {})}
                               for c, st in g.info.status.items()},

@@ -27,7 +27,7 @@ def explain_cmd(
     model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
     date: str = typer.Option(..., "--date", help="A day of the period to explain, e.g. 2027-05-09."),
     start: str | None = typer.Option(
-        None, "--from", help="First day of the plan the period belongs to (needed with a target or --round)."),
+        None, "--from", help="First day of the plan the period belongs to (needed with a target, --round)."),
     end: str | None = typer.Option(None, "--to", help="Last day of that plan."),
     out: str | None = typer.Option(
         None, "--out", "-o", help="explain.csv: the parts as a table; - prints it as CSV on stdout."),
@@ -51,21 +51,20 @@ def explain_cmd(
         if Path(path).suffix.lower() != ".csv":
             raise PlanError(f"--out {out}: unknown file type; write explain.csv (or - for stdout)")
         check_output(path, "explain", force=force, inputs=[model_dir, calendar, totals, drivers])
+    import pandas as pd
+
+    from evcal.io.history import period_dates
     from evcal.model import load_model
     from evcal.plan import make_plan
     from evcal.plan.explain import explain_history, explain_plan
     from evcal.plan.horizon import _as_day
 
-    import pandas as pd
-
-    from evcal.io.history import period_dates
-
     day = _as_day(date, end=False, what="--date")  # not a date: one line, before the model is read
     with talk.stage(f"explain: reading the model {model_dir}"):
         result = load_model(model_dir)
-    shaping = [flag for flag, given in (("--from", start), ("--to", end), ("--total", total),
-                                        ("--totals", totals), ("--round", round_units), ("--drivers", drivers),
-                                        ("--calendar", calendar)) if given]
+    given = {"--from": start, "--to": end, "--total": total, "--totals": totals, "--round": round_units,
+             "--drivers": drivers, "--calendar": calendar}
+    shaping = [flag for flag, value in given.items() if value]
     period = day.to_period(result.freq)
     if period <= pd.Period(result.history_end, freq=result.freq):
         if shaping:

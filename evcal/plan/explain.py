@@ -185,7 +185,8 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str = "error",
     h = horizon(result, cal, periods, new_events)
     err, smear = error_and_smear(result, periods)
     pmap = {c: np.array([float(v)]) for c, v in result.params.items()}
-    base, fitted, parts = plan_decomposition(h, plan_group(result, h), pmap, smear[None, :], err.mean[None, :])
+    base, fitted, parts = plan_decomposition(h, plan_group(result, h), pmap, smear[None, :],
+                                             err.mean[None, :])
     columns = {**dict(h.X.items()), ERROR_COLUMN: err.mean}
     coefs = {**{c: float(v) for c, v in result.params.items()}, ERROR_COLUMN: 1.0}
     # differenced errors: no constant, the level is the error's (see the module notes)
@@ -202,7 +203,7 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str = "error",
     frame = pd.DataFrame(out, index=periods)
     model = fitted[0] * smear
     years = period_years(periods, result.label)
-    factor = np.array([plan.factors.get(int(y), 1.0) for y in years]) if plan.factors else np.ones(len(periods))
+    factor = np.array([(plan.factors or {}).get(int(y), 1.0) for y in years])
     if plan.factors:
         frame["spread to the target"] = (factor - 1.0) * model
         kinds["spread to the target"] = "target"
@@ -307,7 +308,8 @@ def explain_history(result: Any, date: Any) -> Explanation:
     ctx = SpanContext(periods, None, X, design.open_share.to_numpy(dtype=float), closures, np.ones(1, bool))
     pmap = {c: np.array([v]) for c, v in coefs.items()}
     base, fitted, parts = decompose_block(ctx, group, pmap, np.array([float(result.smear)]))
-    anchor, others = _base_groups({c: X[c].to_numpy() for c in X.columns}, coefs, design.roles, base_cols, level)
+    anchor, others = _base_groups({c: X[c].to_numpy() for c in X.columns}, coefs, design.roles, base_cols,
+                                  level)
     values = {k: float(v[0]) for k, v in split_base(result.transform, anchor, others,
                                                      np.full(1, float(result.smear))).items()}
     kinds = {k: "base" for k in values}
@@ -359,7 +361,9 @@ def _words(result: Any, values: dict[str, float], kinds: dict[str, str], assumpt
             out[k] = f"{label}: the base lost to closed days"
         elif k in terms and kind in ("base", "intervention"):
             t = terms[k]
-            out[k] = f"{t.type.replace('_', ' ')} from {pd.Timestamp(t.start).date()} ({pct(values[k], trend if kind == 'base' else base)} "                      f"on the {'trend' if kind == 'base' else 'base'})"
+            on = "trend" if kind == "base" else "base"
+            out[k] = (f"{t.type.replace('_', ' ')} from {pd.Timestamp(t.start).date()} "
+                      f"({pct(values[k], trend if kind == 'base' else base)} on the {on})")
         elif kind == "driver":
             out[k] = f"outside driver {k} at its planned values, against its history average"
         else:

@@ -156,6 +156,12 @@ def _base_groups(columns: dict[str, np.ndarray], coefs: dict[str, float], roles:
     return anchor, others
 
 
+def _differenced(result: Any) -> bool:
+    """ARIMA errors with d ≥ 1: no constant, the series' level lives in the error (:mod:`evcal.design.level`)."""
+    em = result.error_model or {}
+    return em.get("kind") == "arima" and int((em.get("order") or [0, 0, 0])[1]) >= 1
+
+
 def _kind(result: Any, name: str, h: Any = None) -> str:
     if h is not None and name in h.drivers:
         return "driver"
@@ -190,7 +196,7 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str = "error",
     columns = {**dict(h.X.items()), ERROR_COLUMN: err.mean}
     coefs = {**{c: float(v) for c, v in result.params.items()}, ERROR_COLUMN: 1.0}
     # differenced errors: no constant, the level is the error's (see the module notes)
-    level = {ERROR_COLUMN} if not result.spec.constant else set()
+    level = {ERROR_COLUMN} if _differenced(result) else set()
     base_cols = h.base_cols + ([ERROR_COLUMN] if err.kind == "arima" else [])
     anchor, others = _base_groups(columns, coefs, h.roles, base_cols, level)
     out = split_base(result.transform, anchor, others, smear)
@@ -294,7 +300,7 @@ def explain_history(result: Any, date: Any) -> Explanation:
     coefs = {c: float(v) for c, v in result.params.items()}
     base_cols = [c for c in group.base_columns if c in X.columns]
     level: set[str] = set()
-    if result.error_model.get("kind") == "arima" and int(result.error_model["order"][1]) >= 1:
+    if _differenced(result):
         # differenced errors: the base holds the error's level (evcal.design.level), which the folder keeps
         # only inside the base of fitted.csv: what the base is beyond the other base terms
         eta = sum(coefs.get(c, 0.0) * X[c].to_numpy() for c in base_cols)
@@ -302,7 +308,7 @@ def explain_history(result: Any, date: Any) -> Explanation:
         X[LEVEL_COLUMN] = (np.log(b / result.smear) if result.transform == "log" else b) - eta
         coefs[LEVEL_COLUMN] = 1.0
         base_cols.append(LEVEL_COLUMN)
-        level = {LEVEL_COLUMN} if not result.spec.constant else set()
+        level = {LEVEL_COLUMN}
         group = replace(group, base_columns=base_cols)
     closures = closure_shares(result.calendar, periods)
     ctx = SpanContext(periods, None, X, design.open_share.to_numpy(dtype=float), closures, np.ones(1, bool))
@@ -345,7 +351,9 @@ def _words(result: Any, values: dict[str, float], kinds: dict[str, str], assumpt
         return f"{100.0 * amount / of:+.1f}%" if of else "n/a"
 
     log = result.transform == "log"
-    out = {TREND: "constant and trend terms" + (": the level the other base parts act on" if log else ""),
+    trend_words = "trend terms and the series' level from the ARIMA error (differenced errors: no constant)" \
+        if _differenced(result) else "constant and trend terms"
+    out = {TREND: trend_words + (": the level the other base parts act on" if log else ""),
            SEASON: f"regular season ({pct(values.get(SEASON, 0.0), trend)} on the trend)",
            ERROR: f"ARIMA error: where the series stood against the model at the end of the history "
                   f"({pct(values.get(ERROR, 0.0), trend)} on the trend)",

@@ -148,8 +148,8 @@ def test_demo_cli_number_is_the_plan_commands(demo_model: str, tmp_path) -> None
     assert round(parts["amount"].sum(), 2) == plan.loc["2027-05-09"]
     assert {"new-store-opening", "spring-sale", "spread to the target", "whole units"} <= set(parts["part"])
     assert "Spring sale" in r.output and "= plan" in r.output
-    again = runner.invoke(app, ["explain", demo_model, "--date", "2027-05-05", "--out", str(tmp_path / "e.csv"),
-                                *opts])
+    again = runner.invoke(app, ["explain", demo_model, "--date", "2027-05-05",
+                                "--out", str(tmp_path / "e.csv"), *opts])
     assert again.exit_code == 0  # its own output is recognised and replaced
 
 

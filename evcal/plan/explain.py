@@ -157,7 +157,7 @@ def _base_groups(columns: dict[str, np.ndarray], coefs: dict[str, float], roles:
 
 
 def _differenced(result: Any) -> bool:
-    """ARIMA errors with d ≥ 1: no constant, the series' level lives in the error (:mod:`evcal.design.level`)."""
+    """ARIMA errors with d ≥ 1: no constant, the series' level is the error's (:mod:`evcal.design.level`)."""
     em = result.error_model or {}
     return em.get("kind") == "arima" and int((em.get("order") or [0, 0, 0])[1]) >= 1
 

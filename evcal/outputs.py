@@ -36,22 +36,23 @@ from evcal.spelling import option, subject
 __all__ = ["FILE_KINDS", "FOLDER_KINDS", "KINDS", "check_output", "file_kind"]
 
 #: kinds of single file evcal writes
-FILE_KINDS = ("plan", "compare", "backtest", "dates", "report")
+FILE_KINDS = ("plan", "compare", "backtest", "dates", "report", "explain")
 KINDS = FOLDER_KINDS + FILE_KINDS
 
 #: a name to suggest for a new output of each kind
 _DEFAULT_NAME = {"model": "model", "panel": "panel-model", "findings": "findings", "demo": "demo-output",
                  "plan": "plan.csv", "compare": "compare.csv", "backtest": "backtest.csv",
-                 "dates": "dates.csv", "report": "report.html"}
+                 "dates": "dates.csv", "report": "report.html", "explain": "explain.csv"}
 _WHAT = {"model": "model folder", "panel": "panel model folder", "findings": "findings folder",
          "demo": "demo folder", "plan": "plan", "compare": "comparison", "backtest": "backtest table",
-         "dates": "dates list", "report": "HTML report"}
+         "dates": "dates list", "report": "HTML report", "explain": "explanation"}
 
 # Header rows of the CSV files evcal writes (DESIGN.md "Outputs — contract", evcal.backtesting.COLUMNS,
 # evcal.plan.scenarios); kept here as text so this check imports nothing heavy.
 _CSV_HEADERS = {("event", "start", "end", "strength"): "dates",
                 ("year", "method", "spread", "wape", "bias", "peak_error"): "backtest",
-                ("date", "plan_a", "plan_b", "difference"): "compare"}
+                ("date", "plan_a", "plan_b", "difference"): "compare",
+                ("date", "part", "kind", "amount", "share_pct", "what"): "explain"}  # evcal.plan.explain
 #: a plan's columns (a panel plan puts its key columns first)
 _PLAN_RUNS = (("date", "base", "plan", "low", "high"), ("date", "share", "base", "plan", "low", "high"))
 #: sheet names of evcal's workbooks (evcal.plan.workbook.SHEETS + Notes; a compare; a plain plan)

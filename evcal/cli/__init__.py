@@ -20,7 +20,8 @@ import importlib
 from evcal.cli.console import app, calendar_app, guarded, last_resort_line, main
 
 # importing a command module registers its commands on the app: in this order, the order of `evcal --help`
-for _module in ("commands", "plan_command", "history_commands", "report_command", "calendar_commands"):
+for _module in ("commands", "plan_command", "explain_command", "history_commands", "report_command",
+                "calendar_commands"):
     importlib.import_module(f"evcal.cli.{_module}")
 
 __all__ = ["app", "calendar_app", "guarded", "last_resort_line", "main"]

@@ -188,14 +188,7 @@ def plan_periods(
     n_sims = check_sims(n_sims, len(periods))
     cal = result.calendar if calendar is None else load_calendar_any(calendar)
     h = horizon(result, cal, periods, new_events)
-    steps = periods.asi8 - pd.Period(result.history_end, freq=result.freq).ordinal
-    err = error_forecast(result.error_model, result.sigma2, steps)
-    if result.transform == "log":
-        # mean of a lognormal: exp(sigma^2 / 2) on the forecast variance (ARIMA),
-        # the fit's smearing factor (Duan 1983) for iid errors
-        smear = np.exp(err.var / 2.0) if err.kind == "arima" else np.full(len(periods), result.smear)
-    else:
-        smear = np.ones(len(periods))
+    err, smear = error_and_smear(result, periods)
     pmap = {c: np.array([float(v)]) for c, v in result.params.items()}
     base, fitted, lifts = plan_parts(h, plan_group(result, h), pmap, smear[None, :], err.mean[None, :])
 
@@ -242,6 +235,17 @@ def plan_periods(
     )
 
 
+def error_and_smear(result: Any, periods: pd.PeriodIndex) -> tuple[Any, np.ndarray]:
+    """The error's forecast over ``periods`` and each period's mean correction (ones for additive models)."""
+    steps = periods.asi8 - pd.Period(result.history_end, freq=result.freq).ordinal
+    err = error_forecast(result.error_model, result.sigma2, steps)
+    if result.transform == "log":
+        # mean of a lognormal: exp(sigma^2 / 2) on the forecast variance (ARIMA),
+        # the fit's smearing factor (Duan 1983) for iid errors
+        return err, np.exp(err.var / 2.0) if err.kind == "arima" else np.full(len(periods), result.smear)
+    return err, np.ones(len(periods))
+
+
 def interval_note(n_sims: int) -> str:
     """The plan's sentence on how its low/high were made."""
     if n_sims > 0:
@@ -278,6 +282,7 @@ class Horizon:
     notes: list[str] = field(default_factory=list)
     handled: set[str] = field(default_factory=set)
     drivers: list[str] = field(default_factory=list)  # outside drivers: a part each, planned at their values
+    roles: dict[str, str] = field(default_factory=dict)  # design column -> role (build_design)
 
     @property
     def terms(self) -> list[str]:
@@ -328,7 +333,7 @@ def horizon(result: Any, cal: Any, periods: pd.PeriodIndex, new_events: str = "e
         for c in event_cols + future + drivers if colmap[c] == ev)]
     active = {ev: note for ev, note in schedule.notes.items() if on_own[ev].any()}
     return Horizon(periods, X, design.open_share, closures, colmap, event_cols, schedule, base_cols, on_own,
-                   events, in_season, active, future, fc.notes, fc.handled, drivers)
+                   events, in_season, active, future, fc.notes, fc.handled, drivers, design.roles)
 
 
 def plan_group(result: Any, h: Horizon) -> GroupInfo:
@@ -349,6 +354,21 @@ def plan_parts(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear:
     (zero when None), ``curved`` event columns that differ by series (m, n).
     One decomposition (:func:`evcal.effects.decompose_block`) for one model and many.
     """
+    base, fitted, parts = plan_decomposition(h, group, pmap, smear, err_mean, curved)
+    base, fitted = base * smear, fitted * smear
+    lifts = {}
+    for ev in h.events:
+        cols = [c for c in parts if h.colmap.get(c, c) == ev]
+        lifts[ev] = sum(parts[c] for c in cols) * smear if cols else np.zeros(smear.shape)
+    return base, fitted, lifts
+
+
+def plan_decomposition(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
+                       err_mean: np.ndarray | None = None, curved: dict[str, np.ndarray] | None = None,
+                       ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+    """:func:`plan_parts` before the mean correction and before the parts are summed by event: base,
+    plan and each column's part (m, n) (the closures under their own names); times ``smear`` they are
+    in units. :mod:`evcal.plan.explain` shows them one by one."""
     m, n = smear.shape
     columns = dict(h.X.items())
     columns[ERROR_COLUMN] = np.zeros(n) if err_mean is None else err_mean[0]
@@ -361,9 +381,4 @@ def plan_parts(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear:
     with np.errstate(over="ignore", invalid="ignore"):  # a non-finite plan is one line in the caller
         base, fitted, parts = decompose_block(ctx, group, pmap, np.ones(m), curved=curved,
                                               curved_support=support, terms=h.terms)
-    base, fitted = base * smear, fitted * smear
-    lifts = {}
-    for ev in h.events:
-        cols = [c for c in parts if h.colmap.get(c, c) == ev]
-        lifts[ev] = sum(parts[c] for c in cols) * smear if cols else np.zeros((m, n))
-    return base, fitted, lifts
+    return base, fitted, parts

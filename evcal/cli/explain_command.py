@@ -1,0 +1,97 @@
+"""``evcal explain``: one period's number split into its parts (:mod:`evcal.plan.explain`).
+
+A date after the history is a plan period: the command replans with the options that shape the
+number (the same ``--calendar``, ``--from``/``--to``, ``--total``/``--totals``, ``--round``,
+``--drivers``, ``--new-events`` as ``evcal plan``), so the number explained is the one ``evcal plan``
+with those options writes. A date inside the history is a past period: actual, fitted, each part and
+the residual.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from evcal.cli import talk
+from evcal.cli.console import command
+from evcal.cli.options import Force
+from evcal.errors import PlanError
+from evcal.outputs import check_output
+
+__all__ = ["explain_cmd"]
+
+
+@command("explain")
+def explain_cmd(
+    model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
+    date: str = typer.Option(..., "--date", help="A day of the period to explain, e.g. 2027-05-09."),
+    start: str | None = typer.Option(
+        None, "--from", help="First day of the plan the period belongs to (needed with a target, --round)."),
+    end: str | None = typer.Option(None, "--to", help="Last day of that plan."),
+    out: str | None = typer.Option(
+        None, "--out", "-o", help="explain.csv: the parts as a table; - prints it as CSV on stdout."),
+    calendar: str | None = typer.Option(
+        None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
+    total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
+    totals: str | None = typer.Option(None, "--totals", help="CSV of targets: year,total."),
+    new_events: str = typer.Option("error", "--new-events", help="error | zero: events the model never saw."),
+    drivers: str | None = typer.Option(
+        None, "--drivers",
+        help="Outside drivers' future values: a file with a date column and one column per driver."),
+    round_units: bool = typer.Option(
+        False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
+    force: Force = False,
+) -> None:
+    """Split one period's plan (or past actual) into trend, season, level shifts, events, closures and
+    the target's factor, adding up exactly to the number."""
+    path = None
+    if out is not None:
+        path = talk.table_path(out, "explain.csv")
+        if Path(path).suffix.lower() != ".csv":
+            raise PlanError(f"--out {out}: unknown file type; write explain.csv (or - for stdout)")
+        check_output(path, "explain", force=force, inputs=[model_dir, calendar, totals, drivers])
+    import pandas as pd
+
+    from evcal.io.history import period_dates
+    from evcal.model import load_model
+    from evcal.plan import make_plan
+    from evcal.plan.explain import explain_history, explain_plan
+    from evcal.plan.horizon import _as_day
+
+    day = _as_day(date, end=False, what="--date")  # not a date: one line, before the model is read
+    with talk.stage(f"explain: reading the model {model_dir}"):
+        result = load_model(model_dir)
+    given = {"--from": start, "--to": end, "--total": total, "--totals": totals, "--round": round_units,
+             "--drivers": drivers, "--calendar": calendar}
+    shaping = [flag for flag, value in given.items() if value]
+    period = day.to_period(result.freq)
+    if period <= pd.Period(result.history_end, freq=result.freq):
+        if shaping:
+            raise PlanError(f"--date {date}: a period of the history is explained from the model's fit; "
+                            f"leave out {', '.join(shaping)} (they shape plan periods)")
+        explanation = explain_history(result, date)
+    else:
+        if (start is None) != (end is None):
+            raise PlanError(f"{'--from' if start is None else '--to'}: give --from and --to together (the "
+                            "plan the period belongs to)")
+        if start is None and (total or totals or round_units):
+            raise PlanError(f"{'--total' if total else '--totals' if totals else '--round'}: a target or "
+                            "whole units depend on the whole plan; give its horizon with --from and --to, "
+                            "as for evcal plan")
+        first, last = start, end
+        if start is None:  # the period alone: without a target its number does not depend on the horizon
+            first = last = str(period_dates(pd.PeriodIndex([period]), result.label)[0].date())
+        with talk.stage("explain: planning"):
+            plan = make_plan(result, first, last, calendar=calendar, total=total, totals=totals,
+                             new_events=new_events, n_sims=0, drivers=drivers, whole_units=round_units)
+        explanation = explain_plan(plan, date, calendar=calendar, new_events=new_events)
+    talk.say(explanation.text())
+    if path is not None:
+        from evcal._files import atomic_path
+        from evcal.formula_safe import write_csv
+
+        with atomic_path(path) as tmp:
+            write_csv(explanation.table(), tmp, index=False, float_format="%.2f")
+        talk.say(f"\nwrote {talk.named(out)} ({len(explanation.parts)} parts)")
+

@@ -211,7 +211,7 @@ def _long(structure: Any, rec: Reconciled, dates: pd.DatetimeIndex) -> pd.DataFr
     H = len(dates)
     key_cols = [c for c in structure.bottom_keys.columns]
     bottom = structure.bottom_keys.assign(level=structure.levels[0])
-    agg = structure.agg_keys.reindex(columns=["level", *key_cols]).fillna("")
+    agg = structure.agg_keys.reindex(columns=["level", *key_cols]).astype(object).fillna("")
     keys = pd.concat([bottom[["level", *key_cols]], agg], ignore_index=True)
     table = keys.loc[keys.index.repeat(H)].reset_index(drop=True)
     table["date"] = np.tile(dates.to_numpy(), len(keys))

@@ -54,7 +54,8 @@ _CSV_HEADERS = {("event", "start", "end", "strength"): "dates",
                 ("date", "plan_a", "plan_b", "difference"): "compare",
                 ("date", "part", "kind", "amount", "share_pct", "what"): "explain"}  # evcal.plan.explain
 #: a plan's columns (a panel plan puts its key columns first)
-_PLAN_RUNS = (("date", "base", "plan", "low", "high"), ("date", "share", "base", "plan", "low", "high"))
+_PLAN_RUNS = (("date", "base", "plan", "low", "high"), ("date", "share", "base", "plan", "low", "high"),
+              ("date", "plan", "plan_before", "adjustment"))
 #: sheet names of evcal's workbooks (evcal.plan.workbook.SHEETS + Notes; a compare; a plain plan)
 _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Notes"): "plan",
                     ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Notes"): "plan",

@@ -55,6 +55,10 @@ def plan_cmd(
     week_labels: str | None = typer.Option(
         None, "--week-labels", help="iso: add an ISO week column (2027-W05) after date; weekly plans with "
         "weeks ending Sunday."),
+    reconcile: list[str] = typer.Option(
+        None, "--reconcile", help="Panel models: the model of a level above (repeatable); every level's plan "
+        "is reconciled to add up (docs/levels.md)."),
+    reconcile_method: str = typer.Option("auto", "--reconcile-method", help="auto | ols | wls | mint."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
@@ -62,6 +66,14 @@ def plan_cmd(
 
     kind = "compare" if compare_cal or compare_drivers else "plan"
     path = talk.table_path(out, f"{kind}.csv")  # out, or the file printed on stdout for --out -
+    if reconcile:  # plans of several levels made to add up: evcal.panel.levels
+        from evcal.panel.levels import plan_levels_cmd
+
+        return plan_levels_cmd(model_dir, start, end, path, talk.say, talk.named(out), reconcile,
+                               reconcile_method, calendar=calendar, new_events=new_events, force=force,
+                               total=total, totals=totals, allocate=allocate, compare=compare_cal,
+                               series=series, whole_units=round_units, actuals=actuals, drivers=drivers,
+                               compare_drivers=compare_drivers, week_labels=week_labels)
     if is_panel_dir(model_dir):  # many series: evcal.panel.planning
         if actuals:
             raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is made for a single model; plan "

@@ -1,0 +1,256 @@
+"""Plans that agree across levels: each level's model plans, then the plans are reconciled.
+
+``evcal plan BOTTOM --reconcile LEVEL ...`` plans the bottom panel model and
+each level's model (a panel fitted with ``--level`` on the bottom's key
+columns, or a one-series model of the grand total) over one horizon, then
+moves every plan as little as it can so that each parent is exactly the sum
+of its bottom series (:mod:`evcal.panel.reconcile`). The weights come from
+each series' in-sample residuals (actual − fitted of its model folder) on the
+periods all series share. The plan file is long: ``level``, the key columns
+(blank for columns the level does not have), ``date, plan, plan_before,
+adjustment``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.amounts import amount
+from evcal.errors import PlanError
+from evcal.panel.reconcile import METHODS, Reconciled, reconcile, summing_structure
+from evcal.panel.result import PanelResult, is_panel_dir, load_panel
+
+__all__ = ["LevelModel", "plan_levels", "plan_levels_cmd"]
+
+#: what a reconciled plan table holds besides the level and keys
+COLUMNS = ["date", "plan", "plan_before", "adjustment"]
+
+
+class LevelModel:
+    """One level's model folder: a panel (keys = the level's columns) or one series (the grand total)."""
+
+    def __init__(self, path: str, flag: str = "--reconcile") -> None:
+        from evcal.model import load_model
+
+        self.path, self.flag = path, flag
+        self.panel: PanelResult | None = load_panel(path) if is_panel_dir(path) else None
+        self.single = None if self.panel is not None else load_model(path)
+        self.keys: list[str] = self.panel.key_cols if self.panel is not None else []
+        self.freq = str(self.panel.settings["freq"]) if self.panel is not None else self.single.freq
+
+    def plan(self, start: str, end: str, calendar: Any, new_events: str) -> pd.DataFrame:
+        """``keys..., date, plan`` (keys as text) without simulations: only the plan is reconciled."""
+        if self.panel is not None:
+            from evcal.panel.planning import plan_panel
+
+            table = plan_panel(self.panel, start, end, calendar=calendar, new_events=new_events, n_sims=0,
+                               progress=False)
+        else:
+            from evcal.plan import make_plan
+
+            table = make_plan(self.single, start, end, calendar=calendar, new_events=new_events,
+                              n_sims=0).table
+        out = table[self.keys + ["date", "plan"]].copy()
+        out["date"] = pd.to_datetime(out["date"])
+        for c in self.keys:
+            out[c] = out[c].astype(str)
+        return out
+
+    def residuals(self) -> pd.DataFrame:
+        """In-sample actual − fitted: one column per series (a tuple of its keys as text), dates down."""
+        fitted = self.panel.fitted if self.panel is not None else self.single.fitted
+        frame = pd.DataFrame({"date": pd.to_datetime(fitted["date"]),
+                              "resid": fitted["actual"].to_numpy(dtype=float)
+                              - fitted["fitted"].to_numpy(dtype=float)})
+        frame["series"] = series_ids(fitted, self.keys)
+        return frame.pivot_table(index="date", columns="series", values="resid", aggfunc="first",
+                                 dropna=False)
+
+
+def series_ids(frame: pd.DataFrame, keys: list[str]) -> np.ndarray:
+    """One text id per row from its key columns (``""`` for the grand total, which has none)."""
+    if not keys:
+        return np.full(len(frame), "", dtype=object)
+    return frame[keys].astype(str).agg("\x1f".join, axis=1).to_numpy(dtype=object) if len(keys) > 1 \
+        else frame[keys[0]].astype(str).to_numpy(dtype=object)
+
+
+def _bottom_keys(bottom: LevelModel, plan: pd.DataFrame) -> pd.DataFrame:
+    """The bottom series' keys (and pooling group column, an attribute a level may name), as text."""
+    keys = plan[bottom.keys].drop_duplicates().reset_index(drop=True)
+    group = bottom.panel.settings.get("group_col")
+    if group and group not in keys.columns:
+        table = bottom.panel.series[bottom.keys + ["pool_group"]].astype(str)
+        keys = keys.merge(table.rename(columns={"pool_group": group}), on=bottom.keys, how="left")
+    return keys
+
+
+def refuse(options: dict[str, Any]) -> None:
+    """One line for a setting the reconciled plan cannot honour, before any work."""
+    if options.get("total") is not None or options.get("totals") is not None:
+        flag = "--total" if options.get("total") is not None else "--totals"
+        raise PlanError(f"{flag} with --reconcile: a target moves one level's plan and the reconciliation "
+                        "moves it again, so both cannot hold; plan without the target, or plan one level "
+                        "to it and spread it down with --allocate")
+    for name, flag in (("allocate", "--allocate"), ("compare", "--compare"), ("series", "--series"),
+                       ("whole_units", "--round"), ("actuals", "--actuals"), ("drivers", "--drivers"),
+                       ("compare_drivers", "--compare-drivers"), ("week_labels", "--week-labels")):
+        if options.get(name):
+            why = {"--round": "whole units would break the exact sums",
+                   "--week-labels": "the reconciled plan is written without them"}.get(
+                flag, "it is made for one model's plan")
+            raise PlanError(f"{flag} with --reconcile: {why}; leave out {flag} (or --reconcile)")
+
+
+def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, method: str = "auto",
+                calendar: Any = None, new_events: str = "error"
+                ) -> tuple[pd.DataFrame, Reconciled, list[str]]:
+    """Plan the bottom model and each level's, then reconcile them (see the module notes).
+
+    Returns
+    -------
+    table : DataFrame
+        ``level, keys..., date, plan, plan_before, adjustment``: the bottom rows first, then each
+        level's, keys blank where a level does not have the column.
+    reconciled : Reconciled
+        The numbers (:func:`evcal.panel.reconcile.reconcile`): method, why, λ, the summary per level.
+    notes : list of str
+        What the reader should know (series left out).
+
+    Examples
+    --------
+    >>> table, rec, notes = plan_levels("models/items", ["models/products", "models/stores"],
+    ...                                 "2027-01-01", "2027-12-31")          # doctest: +SKIP
+    """
+    if method not in METHODS:
+        raise PlanError(f"--reconcile-method {method}: use one of {', '.join(METHODS)}")
+    if not is_panel_dir(bottom_dir):
+        raise PlanError(f"--reconcile: {bottom_dir} is a one-series model; plan the panel model of the "
+                        "bottom series (fitted with --series-col) and each level's model with --reconcile")
+    bottom = LevelModel(bottom_dir)
+    levels = [LevelModel(d) for d in level_dirs]
+    bottom_plan = bottom.plan(start, end, calendar, new_events)
+    bkeys = _bottom_keys(bottom, bottom_plan)
+    for lv in levels:
+        outside = [c for c in lv.keys if c not in bkeys.columns]
+        if outside or lv.keys == bottom.keys:
+            raise PlanError(f"--reconcile {lv.path}: its keys ({', '.join(lv.keys)}) are "
+                            f"{'not among' if outside else 'the same as'} the bottom model's "
+                            f"({', '.join(bkeys.columns)}); give a model fitted with --level on some of them")
+        if lv.freq != bottom.freq:
+            raise PlanError(f"--reconcile {lv.path}: its periods are {lv.freq}, the bottom model's "
+                            f"{bottom.freq}; fit every level at the bottom model's frequency")
+    structure = summing_structure(bkeys, [lv.keys for lv in levels])
+    bottom_plan = bottom_plan.merge(bkeys, on=bottom.keys, how="left")
+    dates = pd.DatetimeIndex(sorted(bottom_plan["date"].unique()))
+    yb = _wide(bottom_plan, bottom.keys, bkeys, dates, bottom_dir, "the bottom model")
+    agg_rows, notes = [], []
+    res_cols = [bottom.residuals()]
+    for lv in levels:
+        plan = lv.plan(start, end, calendar, new_events)
+        got = pd.DatetimeIndex(sorted(plan["date"].unique()))
+        if not got.equals(dates):
+            raise PlanError(f"--reconcile {lv.path}: its plan has {len(got)} periods "
+                            f"({got.min():%Y-%m-%d} to {got.max():%Y-%m-%d}), the bottom model's "
+                            f"{len(dates)} ({dates.min():%Y-%m-%d} to {dates.max():%Y-%m-%d}); fit both with "
+                            "the same date labels")
+        mine = structure.agg_keys[structure.agg_keys["level"] == (",".join(lv.keys) or "total")]
+        agg_rows.append(_wide(plan, lv.keys, mine[lv.keys], dates, lv.path, "its model"))
+        extra = len(plan[lv.keys].drop_duplicates()) - len(mine) if lv.keys else 0
+        if extra > 0:
+            notes.append(f"{lv.path}: {extra} series with no planned bottom series were left out")
+        res_cols.append(lv.residuals())
+    skipped = int((bottom.panel.series["status"] != "fitted").sum())
+    if skipped:
+        notes.append(f"{skipped} bottom series were not fitted: the parents' plans include them, the "
+                     "reconciled bottom plans do not")
+    Eb, Ea = _residuals(res_cols, bkeys[bottom.keys], structure, levels)
+    rec = reconcile(structure, yb, np.vstack(agg_rows), Eb, Ea, method=method)
+    return _long(structure, rec, dates), rec, notes
+
+
+def _wide(plan: pd.DataFrame, keys: list[str], want: pd.DataFrame, dates: pd.DatetimeIndex, path: str,
+          whose: str) -> np.ndarray:
+    """Rows of ``want`` (keys as text) × ``dates`` from a long plan; one line if a series is missing."""
+    if not keys:
+        return plan.set_index("date")["plan"].reindex(dates).to_numpy(dtype=float)[None, :]
+    index = pd.MultiIndex.from_frame(want[keys].astype(str))
+    wide = plan.pivot_table(index=keys, columns="date", values="plan", aggfunc="first")
+    wide = wide.reindex(index=index if len(keys) > 1 else index.get_level_values(0), columns=dates)
+    gaps = np.flatnonzero(wide.isna().any(axis=1).to_numpy())
+    if len(gaps):
+        shown = ", ".join(f"{c}={v}" for c, v in zip(keys, want.iloc[gaps[0]][keys], strict=True))
+        raise PlanError(f"--reconcile {path}: {whose} has no plan for {shown}, which the bottom series make; "
+                        "fit that level from the same history as the bottom model")
+    return wide.to_numpy(dtype=float)
+
+
+def _residuals(frames: list[pd.DataFrame], bottom_keys: pd.DataFrame, structure: Any,
+               levels: list[LevelModel]) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """T × n_b and T × n_a residuals on the dates every series has one; None when there are none."""
+    wanted = [series_ids(bottom_keys, list(bottom_keys.columns))]
+    for lv in levels:
+        mine = structure.agg_keys[structure.agg_keys["level"] == (",".join(lv.keys) or "total")]
+        wanted.append(series_ids(mine, lv.keys))
+    cols = [frame.reindex(columns=pd.Index(ids)) for frame, ids in zip(frames, wanted, strict=True)]
+    joined = pd.concat(cols, axis=1, join="inner").dropna(axis=0, how="any")
+    if joined.empty:
+        return None, None
+    values = joined.to_numpy(dtype=float)
+    n_b = len(wanted[0])
+    return values[:, :n_b], values[:, n_b:]
+
+
+def _long(structure: Any, rec: Reconciled, dates: pd.DatetimeIndex) -> pd.DataFrame:
+    """The long plan table: bottoms then aggregates, each series' periods in order."""
+    H = len(dates)
+    key_cols = [c for c in structure.bottom_keys.columns]
+    bottom = structure.bottom_keys.assign(level=structure.levels[0])
+    agg = structure.agg_keys.reindex(columns=["level", *key_cols]).astype(object).fillna("")
+    keys = pd.concat([bottom[["level", *key_cols]], agg], ignore_index=True)
+    table = keys.loc[keys.index.repeat(H)].reset_index(drop=True)
+    table["date"] = np.tile(dates.to_numpy(), len(keys))
+    table["plan"] = np.vstack([rec.bottom, rec.agg]).ravel()
+    table["plan_before"] = np.vstack([rec.bottom_before, rec.agg_before]).ravel()
+    table["adjustment"] = table["plan"] - table["plan_before"]
+    return table
+
+
+def describe(rec: Reconciled) -> list[str]:
+    """The summary lines: the method, why, and the adjustment sizes per level."""
+    lam = f"; shrinkage intensity λ = {rec.lam:.3f}" if rec.lam is not None else ""
+    lines = [f"reconciled by {rec.method} ({rec.reason}{lam}): every parent's plan is now the sum of "
+             "its bottom series' plans"]
+    for r in rec.summary.itertuples():
+        lines.append(f"  {r.level}: {r.series} series moved {r.mean_abs_pct:.2f} % on average, at most "
+                     f"{r.max_abs_pct:.2f} % ({amount(r.max_abs_units)} units, {r.largest_at})")
+    return lines
+
+
+def plan_levels_cmd(model_dir: str, start: str, end: str, out: str, echo: Callable[[str], None],
+                    shown: str | None, level_dirs: list[str], method: str, **options: Any) -> None:
+    """What ``evcal plan --reconcile`` does: refuse what cannot hold, plan, reconcile, write one CSV."""
+    from evcal._files import atomic_path
+    from evcal.formula_safe import write_csv
+    from evcal.outputs import check_output
+
+    refuse(options)
+    if Path(out).suffix.lower() != ".csv":
+        raise PlanError(f"--out {shown or out}: a reconciled plan is one long table; write plan.csv "
+                        "(or - for stdout)")
+    check_output(out, "plan", inputs=[model_dir, *level_dirs, options.get("calendar")],
+                 force=bool(options.get("force")))
+    table, rec, notes = plan_levels(model_dir, level_dirs, start, end, method=method,
+                                    calendar=options.get("calendar"),
+                                    new_events=options.get("new_events") or "error")
+    with atomic_path(out) as tmp:
+        write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+    for line in describe(rec) + [f"Note: {n}" for n in notes]:
+        echo(line)
+    echo("Plans are estimates; the decisions stay with the people who own them.")
+    echo(f"\nwrote {shown or out} ({len(table)} rows: level, keys, date, plan, plan_before, adjustment)")

@@ -59,7 +59,10 @@ _PLAN_RUNS = (("date", "base", "plan", "low", "high"), ("date", "share", "base",
 #: sheet names of evcal's workbooks (evcal.plan.workbook.SHEETS + Notes; a compare; a plain plan)
 _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Notes"): "plan",
                     ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Notes"): "plan",
-                    ("Plan",): "plan", ("Plan", "Notes"): "plan", ("Scenarios",): "compare"}
+                    ("Plan",): "plan", ("Plan", "Notes"): "plan", ("Scenarios",): "compare",
+                    ("Scenarios", "Events", "Plans"): "compare"}
+#: the first columns of the tables of ``plan --scenario`` (evcal.plan.scenarios: side by side, by event)
+_SCENARIO_RUNS = (("date", "plan:"), ("date", "iso_week", "plan:"), ("event", "units:"))
 
 
 # ---------------------------------------------------------------- what a file is
@@ -70,6 +73,10 @@ def _csv_kind(head: str) -> str | None:
     cols = tuple(c.strip().strip('"') for c in line.split(","))
     if any(cols[i:i + len(run)] == run for run in _PLAN_RUNS for i in range(len(cols))):
         return "plan"
+    for *head, prefix in _SCENARIO_RUNS:  # the first scenario's name follows the prefix
+        k = len(head)
+        if len(cols) > k and list(cols[:k]) == head and cols[k].startswith(prefix):
+            return "compare"
     return _CSV_HEADERS.get(cols)
 
 

@@ -1,4 +1,4 @@
-"""``evcal plan``: a forward plan (or two side by side) from a model folder, single or panel."""
+"""``evcal plan``: a forward plan (or two or more side by side) from a model folder, single or panel."""
 
 from __future__ import annotations
 
@@ -29,6 +29,11 @@ def plan_cmd(
         None, "--totals", help="CSV of targets: year,total; panels: key columns, total, optional year."),
     compare_cal: str | None = typer.Option(
         None, "--compare", help="Second calendar: write both plans side by side."),
+    scenario: list[str] = typer.Option(
+        None, "--scenario",
+        help="A scenario's calendar, NAME=calendar.yaml (or the path alone: named by its file), repeated for "
+        "two or more, or a folder of calendars (in file-name order); the first is the reference: write all "
+        "plans side by side, and a by-event table beside a CSV (NAME-events.csv)."),
     new_events: str = typer.Option(
         "error", "--new-events", help="error | zero: events the model never saw."),
     sims: int = typer.Option(1000, "--sims", help="Simulation draws for low/high (0: none)."),
@@ -64,6 +69,13 @@ def plan_cmd(
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
     from evcal.panel.result import is_panel_dir
 
+    if scenario:
+        from evcal.cli.scenarios_cli import refuse_with_scenarios, scenarios_cmd
+
+        refuse_with_scenarios(scenario, compare_cal, compare_drivers, calendar, actuals)
+        return scenarios_cmd(model_dir, start, end, out, scenario, [model_dir, totals, drivers], week_labels,
+                             force, drivers, total=total, totals=totals, new_events=new_events, n_sims=sims,
+                             seed=seed, whole_units=round_units)
     kind = "compare" if compare_cal or compare_drivers else "plan"
     path = talk.table_path(out, f"{kind}.csv")  # out, or the file printed on stdout for --out -
     if reconcile:  # plans of several levels made to add up: evcal.panel.levels

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from evcal.plan.build import make_plan, plan_periods
 from evcal.plan.result import Plan
-from evcal.plan.scenarios import Comparison, compare
+from evcal.plan.scenarios import Comparison, Scenario, Scenarios, compare, plan_scenarios
 
-__all__ = ["make_plan", "plan_periods", "Plan", "compare", "Comparison"]
+__all__ = ["make_plan", "plan_periods", "Plan", "compare", "Comparison", "plan_scenarios", "Scenario",
+           "Scenarios"]

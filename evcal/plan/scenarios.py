@@ -1,16 +1,32 @@
-"""Scenarios: the same plan under a second calendar, or second driver values, side by side.
+"""Scenarios: the same plan under several calendars (or driver values), side by side.
 
 A promotion moved, a tournament cancelled, a closure added, a price cut in
-week 20: plan the same horizon as scenario A and scenario B (same model, same
-target, same simulation seed; B's calendar or outside drivers' future values
-differ) and write ``date, plan_a, plan_b, difference`` per period, with a last
-row of totals. With a target both plans add up to it, so the difference shows
-where the volume moves rather than how much there is.
+week 20: plan the same horizon once per scenario (same model, same target, same
+simulation seed; only the calendar or the outside drivers' future values
+differ). The first scenario is the reference. Two tables come out:
+
+* side by side, per period: ``date``, ``plan:<name>`` for every scenario, then
+  ``difference:<name>`` (that scenario less the reference) for every other one,
+  with a last row of totals;
+* by event: ``event``, ``units:<name>`` (what the event adds over the horizon in
+  that scenario, from the plan's ``lift:<event>`` column; 0 where the scenario
+  does not schedule it) and ``difference:<name>`` against the reference.
+
+With a target every plan adds up to it, so the differences show where the
+volume moves rather than how much there is. :func:`compare` is the
+two-scenario case written as ``date, plan_a, plan_b, difference``.
+
+Examples
+--------
+>>> sc = plan_scenarios(res, "2027", "2027", {"current": "now.yaml", "moved": "moved.yaml",
+...                                             "dropped": "dropped.yaml"}, total=210_000)  # doctest: +SKIP
+>>> print(sc.summary()); sc.save("scenarios.csv")                                          # doctest: +SKIP
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -19,23 +35,284 @@ import pandas as pd
 
 from evcal._files import atomic_path
 from evcal.amounts import amount
-from evcal.errors import PlanError
+from evcal.errors import EvcalError, PlanError
 from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
 from evcal.plan.summary import period_name
 from evcal.spelling import option, subject
 
+#: the column prefixes of the two tables (plan: and units: per scenario, difference: against the first)
+PLAN_PREFIX, UNITS_PREFIX, DIFF_PREFIX = "plan:", "units:", "difference:"
+#: an event's change smaller than this (units over the horizon) is rounding, not a difference worth naming
+_NEGLIGIBLE = 0.5
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """One scenario to plan: its name, its calendar and its outside drivers' future values.
+
+    ``calendar`` is a path, YAML text, a Calendar, or None (the fitted calendar); ``drivers`` a
+    path or DataFrame as for :func:`evcal.plan.make_plan`. ``setting`` is how a problem with its
+    driver file names it (``--compare-drivers``); None leaves such a problem as it is.
+    """
+
+    name: str
+    calendar: Any = None
+    drivers: Any = None
+    setting: str | None = None
+
+
+@dataclass
+class Scenarios:
+    """Plans of one horizon under several scenarios; the first is the reference.
+
+    Attributes
+    ----------
+    plans : dict
+        Scenario name -> its :class:`Plan`, in the scenarios' order.
+    table : DataFrame
+        Side by side: ``date``, ``plan:<name>`` each, ``difference:<name>`` each but the first;
+        a last ``total`` row.
+    events : DataFrame
+        By event: ``event``, ``units:<name>`` each, ``difference:<name>`` each but the first.
+    """
+
+    plans: dict[str, Plan]
+    table: pd.DataFrame
+    events: pd.DataFrame = field(default_factory=pd.DataFrame)
+
+    @property
+    def names(self) -> list[str]:
+        return list(self.plans)
+
+    @property
+    def reference(self) -> str:
+        return self.names[0]
+
+    def summary(self, top: int = 3) -> str:
+        """Each scenario's total and difference, the periods that move most, the events that differ."""
+        ref = self.reference
+        first = self.plans[ref]
+        lines = [f"Scenarios against the first, {ref} (total {amount(first.total)}):"]
+        rows = self.table.iloc[:-1]
+        for name in self.names[1:]:
+            total = self.plans[name].total
+            diff = total - first.total
+            pct = 100.0 * diff / first.total if first.total else float("nan")
+            moves = largest_moves(rows[DIFF_PREFIX + name].to_numpy(dtype=float), rows["date"], first, top)
+            where = f"; moves most in {moves}" if moves else "; the same plan in every period"
+            lines.append(f"  {name}: total {amount(total)}, {amount(diff, sign=True)} ({pct:+.1f}%){where}.")
+        if first.target is not None:
+            lines.append("Every plan is spread to the same target, so the differences show where the volume "
+                         "moves between periods.")
+        lines += self._event_lines()
+        lines.append("All are estimates; the choice between the scenarios stays with the people who own it.")
+        return "\n".join(lines)
+
+    def _event_lines(self, top: int = 6) -> list[str]:
+        # an event differs when the model gives it other units, before the spread to a target: scaling
+        # every scenario to one total changes each event a little, and that is not the event moving
+        events = list(self.events["event"])
+        model = {n: np.array([_model_units(self.plans[n], e) for e in events]) for n in self.names}
+        moved = {n: np.abs(model[n] - model[self.reference]) >= _NEGLIGIBLE for n in self.names[1:]}
+        diffs = self.events[[DIFF_PREFIX + n for n in self.names[1:]]].to_numpy(dtype=float)
+        size = np.where(np.column_stack(list(moved.values())), np.abs(diffs), 0.0).max(axis=1)
+        order = [k for k in np.argsort(-size, kind="stable") if size[k] > 0]
+        if not order:
+            return ["No event adds a different amount in any scenario."]
+        parts = []
+        for k in order[:top]:
+            each = [f"{n} {amount(self.events[DIFF_PREFIX + n].iloc[k], sign=True)}"
+                    f"{'' if events[k] in self.plans[n].events else ' (not in it)'}"
+                    for n in self.names[1:] if moved[n][k]]
+            parts.append(f"{events[k]}: {', '.join(each)}")
+        more = f"; {len(order) - top} more in the by-event table" if len(order) > top else ""
+        return [f"Events that differ (units over the horizon, against {self.reference}): "
+                + "; ".join(parts) + more + "."]
+
+    def save(self, path: str | Path, events: bool = True) -> list[Path]:
+        """Write the tables atomically (text formula-safe); returns the paths written.
+
+        ``.csv``: the side-by-side table at ``path`` and, with ``events``, the by-event table beside it
+        (:func:`events_path`). ``.xlsx``: one workbook with the sheets ``Scenarios``, ``Events`` and
+        ``Plans`` (every scenario's plan, a ``scenario`` column first).
+        """
+        path = output_path(path, "scenarios")
+        if path.suffix.lower() == ".csv":
+            written = [_write_table_csv(self.table, path)]
+            if events:
+                beside = events_path(path)
+                with atomic_path(beside) as tmp:
+                    write_csv(self.events, tmp, index=False, float_format="%.6f")
+                written.append(beside)
+            return written
+        frames = []
+        for name, plan in self.plans.items():  # one long sheet: events differ between scenarios
+            frame = plan.table.copy()
+            frame["date"] = frame["date"].dt.date
+            frame.insert(0, "scenario", name)
+            frames.append(frame)
+        plans = pd.concat(frames, ignore_index=True)
+        sheets = {"Scenarios": _excel_dates(self.table), "Events": self.events, "Plans": plans}
+        with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
+            writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
+            for sheet, frame in sheets.items():
+                frame.to_excel(writer, index=False, sheet_name=sheet)
+                formula_safe_sheet(writer.sheets[sheet].iter_rows())
+        return [path]
+
+
+def _model_units(plan: Plan, event: str) -> float:
+    """What ``event`` adds over the horizon in the model's own plan, before the spread to a target."""
+    if event not in plan.events:
+        return 0.0
+    factor = plan.table["date"].dt.year.map(lambda y: plan.factors.get(int(y), 1.0)).to_numpy(dtype=float)
+    return float((plan.table[f"lift:{event}"].fillna(0.0).to_numpy(dtype=float) / factor).sum())
+
+
+def events_path(path: str | Path) -> Path:
+    """Where the by-event table of a scenarios CSV goes: beside it, ``<stem>-events.csv``.
+
+    Examples
+    --------
+    >>> events_path("out/scenarios.csv").as_posix()
+    'out/scenarios-events.csv'
+    """
+    path = Path(path)
+    return path.with_name(f"{path.stem}-events.csv")
+
+
+def largest_moves(diff: np.ndarray, dates: Any, plan: Plan, top: int) -> str:
+    """The ``top`` periods whose difference is largest in size, as ``period +N; period -M`` ("" for none)."""
+    order = [k for k in np.argsort(-np.abs(diff), kind="stable")[:top] if abs(diff[k]) > 1e-9]
+    dates = pd.DatetimeIndex(list(dates))
+    return "; ".join(f"{period_name(plan.periods[k], dates[k], plan.label)} {amount(diff[k], sign=True)}"
+                     for k in order)
+
+
+def side_by_side(plans: Mapping[str, Plan]) -> pd.DataFrame:
+    """``date``, ``plan:<name>`` each, ``difference:<name>`` each but the first; a last ``total`` row."""
+    names = list(plans)
+    values = {n: plans[n].table["plan"].to_numpy() for n in names}  # whole units stay integers
+    ref = values[names[0]]
+    cols = {PLAN_PREFIX + n: values[n] for n in names}
+    cols |= {DIFF_PREFIX + n: values[n] - ref for n in names[1:]}
+    table = pd.DataFrame({"date": list(plans[names[0]].table["date"]), **cols})
+    totals = {PLAN_PREFIX + n: [values[n].sum()] for n in names}
+    totals |= {DIFF_PREFIX + n: [values[n].sum() - ref.sum()] for n in names[1:]}
+    return pd.concat([table, pd.DataFrame({"date": ["total"], **totals})], ignore_index=True)
+
+
+def by_event(plans: Mapping[str, Plan]) -> pd.DataFrame:
+    """``event``, ``units:<name>`` each (0 where a scenario has no such event), ``difference:<name>``."""
+    names = list(plans)
+    events = list(dict.fromkeys(e for p in plans.values() for e in p.events))  # first seen first
+    units = {n: np.array([float(plans[n].table[f"lift:{e}"].fillna(0.0).sum()) if e in plans[n].events
+                          else 0.0 for e in events]) for n in names}
+    cols = {UNITS_PREFIX + n: units[n] for n in names}
+    cols |= {DIFF_PREFIX + n: units[n] - units[names[0]] for n in names[1:]}
+    return pd.DataFrame({"event": events, **cols})
+
+
+def plan_scenarios(
+    result: Any,
+    start: Any,
+    end: Any,
+    scenarios: Mapping[str, Any] | Sequence[Scenario],
+    drivers: Any = None,
+    name_problems: bool = True,
+    **plan_options: Any,
+) -> Scenarios:
+    """Plan ``[start, end]`` under each scenario; the first is the reference.
+
+    Parameters
+    ----------
+    result : FitResult
+    start, end
+        The horizon, as for :func:`evcal.plan.make_plan`.
+    scenarios : mapping or sequence of Scenario
+        Name -> calendar (path, YAML text, Calendar; None: the fitted one), in order, or
+        :class:`Scenario` items. Two or more, names unique.
+    drivers : path or DataFrame, optional
+        The outside drivers' future values, the same for every scenario that gives none of its own.
+    name_problems : bool
+        Start each problem of a scenario's calendar or plan with ``scenario NAME:`` (:func:`compare`
+        keeps its own wording).
+    **plan_options
+        ``total``, ``totals``, ``new_events``, ``n_sims``, ``seed``, ``whole_units``: the same for all.
+
+    Examples
+    --------
+    >>> sc = plan_scenarios(res, "2027", "2027", {"now": None, "moved": "moved.yaml"})  # doctest: +SKIP
+    >>> sc.table.columns.tolist()                                                      # doctest: +SKIP
+    ['date', 'plan:now', 'plan:moved', 'difference:moved']
+    """
+    items = ([Scenario(str(n), cal) for n, cal in scenarios.items()]
+             if isinstance(scenarios, Mapping) else list(scenarios))
+    items = [replace(s, drivers=drivers) if s.drivers is None else s for s in items]
+    check_scenarios([s.name for s in items])
+    plans = {s.name: _plan(result, start, end, s, named=name_problems,
+                           **plan_options) for s in items}
+    return Scenarios(plans=plans, table=side_by_side(plans), events=by_event(plans))
+
+
+def check_scenarios(names: Sequence[str]) -> None:
+    """Two or more scenarios, each named, no name twice: else one :class:`PlanError` line.
+
+    Examples
+    --------
+    >>> check_scenarios(["now", "moved"])
+    >>> try:
+    ...     check_scenarios(["now", "now"])
+    ... except PlanError as err:
+    ...     print(err.problems[0][:45])
+    scenarios=: the name 'now' is used twice; giv
+    """
+    what = option("scenarios", flag="--scenario")
+    if len(names) < 2:
+        raise PlanError(f"{what}: {len(names)} scenario(s) given; give two or more (the first is the "
+                        "reference the others are compared with)")
+    seen: set[str] = set()
+    for name in names:
+        if not name.strip():
+            raise PlanError(f"{what}: a scenario has an empty name; name each one, e.g. moved=moved.yaml")
+        if name in seen:
+            raise PlanError(f"{what}: the name {name!r} is used twice; give each scenario its own name "
+                            "(NAME=calendar.yaml)")
+        seen.add(name)
+
+
+def _plan(result: Any, start: Any, end: Any, scenario: Scenario, named: bool = True,
+          **plan_options: Any) -> Plan:
+    """One scenario's plan. A problem with its driver values or file (a missing driver or date column,
+    an unreadable file) names the setting and file that gave them; with ``named``, any problem of its
+    calendar or plan starts with the scenario's name."""
+    from evcal.errors import HistoryError
+    from evcal.io.drivers import DriverError
+
+    drivers, setting = scenario.drivers, scenario.setting
+    try:
+        return make_plan(result, start, end, calendar=scenario.calendar, drivers=drivers, **plan_options)
+    except EvcalError as err:  # a DriverError is a HistoryError
+        if setting is not None and isinstance(err, HistoryError) and isinstance(drivers, (str, Path)):
+            raise DriverError(f"{setting} {Path(drivers).name}: {err.problems[0]}") from None
+        if not named:
+            raise
+        raise type(err)([f"scenario {scenario.name}: {p}" for p in err.problems]) from None
+
+
+# ---------------------------------------------------------------- the two-scenario case
+
 
 @dataclass
 class Comparison:
-    """Two plans of one horizon under two calendars.
+    """Two plans of one horizon under two calendars (or driver values): :func:`compare`.
 
     Attributes
     ----------
     table : DataFrame
-        ``date, plan_a, plan_b, difference`` (``b - a``) per period, then a
-        ``total`` row.
+        ``date, plan_a, plan_b, difference`` (``b - a``) per period, then a ``total`` row.
     plan_a, plan_b : Plan
     """
 
@@ -55,15 +332,9 @@ class Comparison:
             lines.append("Both plans are spread to the same target, so the difference shows where the "
                          "volume moves between periods.")
         rows = self.table.iloc[:-1]
-        diff = rows["difference"].to_numpy(dtype=float)
-        order = [k for k in np.argsort(-np.abs(diff))[:top] if abs(diff[k]) > 1e-9]
-        if order:
-            dates = pd.DatetimeIndex(rows["date"])
-            parts = [f"{period_name(self.plan_a.periods[k], dates[k], self.plan_a.label)} "
-                     f"{amount(diff[k], sign=True)}" for k in order]
-            lines.append("Periods that differ most: " + "; ".join(parts) + ".")
-        else:
-            lines.append("The two scenarios give the same plan in every period.")
+        moves = largest_moves(rows["difference"].to_numpy(dtype=float), rows["date"], self.plan_a, top)
+        lines.append(f"Periods that differ most: {moves}." if moves
+                     else "The two scenarios give the same plan in every period.")
         gained = sorted(set(self.plan_b.events) - set(self.plan_a.events))
         lost = sorted(set(self.plan_a.events) - set(self.plan_b.events))
         if gained:
@@ -76,19 +347,30 @@ class Comparison:
     def save(self, path: str | Path) -> Path:
         """Write the side-by-side table as ``.csv`` or ``.xlsx`` (atomically; text formula-safe)."""
         path = output_path(path, "compare")
-        out = self.table.copy()
         if path.suffix.lower() == ".csv":
-            out["date"] = [d.strftime("%Y-%m-%d") if isinstance(d, pd.Timestamp) else d for d in out["date"]]
-            with atomic_path(path) as tmp:
-                write_csv(out, tmp, index=False, float_format="%.6f")
-            return path
+            return _write_table_csv(self.table, path)
         # dates stay Excel dates; the totals row is labelled in the same column
-        out["date"] = [d.date() if isinstance(d, pd.Timestamp) else d for d in out["date"]]
         with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
             writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
-            out.to_excel(writer, index=False, sheet_name="Scenarios")
+            _excel_dates(self.table).to_excel(writer, index=False, sheet_name="Scenarios")
             formula_safe_sheet(writer.sheets["Scenarios"].iter_rows())
         return path
+
+
+def _write_table_csv(table: pd.DataFrame, path: Path) -> Path:
+    """A side-by-side table as CSV: dates as ``YYYY-MM-DD``, the totals row's label kept."""
+    out = table.copy()
+    out["date"] = [d.strftime("%Y-%m-%d") if isinstance(d, pd.Timestamp) else d for d in out["date"]]
+    with atomic_path(path) as tmp:
+        write_csv(out, tmp, index=False, float_format="%.6f")
+    return path
+
+
+def _excel_dates(table: pd.DataFrame) -> pd.DataFrame:
+    """A side-by-side table whose dates are Excel dates (the totals row's label kept)."""
+    out = table.copy()
+    out["date"] = [d.date() if isinstance(d, pd.Timestamp) else d for d in out["date"]]
+    return out
 
 
 def _label(calendar_name: str | None, drivers: Any, differ: bool) -> str | None:
@@ -97,21 +379,6 @@ def _label(calendar_name: str | None, drivers: Any, differ: bool) -> str | None:
         return calendar_name
     what = Path(drivers).name if isinstance(drivers, (str, Path)) else "drivers given"
     return f"{calendar_name}, {what}" if calendar_name else what
-
-
-def _plan(result: Any, start: Any, end: Any, calendar: Any, drivers: Any, setting: str | None,
-          **plan_options: Any) -> Plan:
-    """One scenario's plan; a problem with its driver values or file (a missing driver or date column,
-    an unreadable file) names the setting and file that gave them."""
-    from evcal.errors import HistoryError
-    from evcal.io.drivers import DriverError
-
-    try:
-        return make_plan(result, start, end, calendar=calendar, drivers=drivers, **plan_options)
-    except HistoryError as err:  # DriverError is one
-        if setting is None or not isinstance(drivers, (str, Path)):
-            raise
-        raise DriverError(f"{setting} {Path(drivers).name}: {err.problems[0]}") from None
 
 
 def compare(
@@ -127,6 +394,8 @@ def compare(
     **plan_options: Any,
 ) -> Comparison:
     """Plan ``[start, end]`` as scenario A and scenario B: calendars, or outside drivers' values, differ.
+
+    The two-scenario case of :func:`plan_scenarios`, written as ``date, plan_a, plan_b, difference``.
 
     Parameters
     ----------
@@ -158,17 +427,12 @@ def compare(
     differ = drivers_b is not None
     calendar_b = calendar_a if calendar_b is None else calendar_b
     drivers_b = drivers_a if drivers_b is None else drivers_b
-    plan_a = _plan(result, start, end, calendar_a, drivers_a,
-                   subject("drivers_a", flag="--drivers") if differ else None, **plan_options)
-    plan_b = _plan(result, start, end, calendar_b, drivers_b,
-                   subject("drivers_b", flag="--compare-drivers") if differ else None, **plan_options)
-    a = plan_a.table["plan"].to_numpy()  # whole units (plan --round) stay integers, differences too
-    b = plan_b.table["plan"].to_numpy()
-    table = pd.DataFrame({"date": list(plan_a.table["date"]), "plan_a": a, "plan_b": b,
-                          "difference": b - a})
-    totals = pd.DataFrame({"date": ["total"], "plan_a": [a.sum()], "plan_b": [b.sum()],
-                           "difference": [b.sum() - a.sum()]})
-    table = pd.concat([table, totals], ignore_index=True)
+    pair = [Scenario("A", calendar_a, drivers_a, subject("drivers_a", flag="--drivers") if differ else None),
+            Scenario("B", calendar_b, drivers_b,
+                     subject("drivers_b", flag="--compare-drivers") if differ else None)]
+    both = plan_scenarios(result, start, end, pair, name_problems=False, **plan_options)
+    table = both.table.rename(columns={"plan:A": "plan_a", "plan:B": "plan_b", "difference:B": "difference"})
+    plan_a, plan_b = both.plans["A"], both.plans["B"]
     return Comparison(table=table, plan_a=plan_a, plan_b=plan_b,
                       name_a=name_a or _label(plan_a.calendar_name, drivers_a, differ) or "A",
                       name_b=name_b or _label(plan_b.calendar_name, drivers_b, differ) or "B")

@@ -22,6 +22,7 @@ from typing import Any
 
 from evcal._files import atomic_path
 from evcal.errors import ModelError
+from evcal.plan.scenario_files import is_scenarios_file, read_scenario_tables
 from evcal.report.context import ReportContext
 from evcal.report.driver_sections import drivers_section
 from evcal.report.formatting import freq_words
@@ -29,6 +30,7 @@ from evcal.report.model_folder import ModelFolder, read_model_folder
 from evcal.report.model_sections import MODEL_SECTIONS, build_sections
 from evcal.report.plan_sections import calendar_section, glance, plan_section
 from evcal.report.review_sections import backtest_section, notes_section
+from evcal.report.scenario_sections import Tables, with_scenarios
 from evcal.report.templating import render_page
 from evcal.spelling import option
 
@@ -64,7 +66,9 @@ def write_report(
         Where to write; written to a temporary file first, then renamed.
     plan_csv, backtest_csv : path, optional
         Files written by ``evcal plan`` and ``evcal backtest`` (the backtest: single model only; a
-        panel's plan is the long table of ``evcal plan PANEL_DIR``).
+        panel's plan is the long table of ``evcal plan PANEL_DIR``). A single model's ``plan_csv`` may
+        be the side-by-side table of ``evcal plan --scenario``: a Scenarios section (with the by-event
+        table beside it, ``NAME-events.csv``) takes the place of the plan.
     calendar : path, Calendar or DataFrame, optional
         For the calendar view: a calendar YAML file, a loaded calendar (with
         ``day_weights``), or a frame of day weights (one column per event).
@@ -96,21 +100,33 @@ def write_report(
         if given:
             raise ModelError(f"{model_dir}: a panel model folder: {', '.join(given)} is read for a "
                              "single-series model folder only; leave it out, or report one series' own fit")
+        if plan_csv is not None and is_scenarios_file(plan_csv):
+            raise ModelError(f"{option('plan_csv', str(plan_csv), flag='--plan')}: a scenarios table (plan "
+                             "--scenario), made for a single model; give a panel plan, or report one series' "
+                             "model folder with it")
         page = render_panel_report(model_dir, series=series, title=title, plan_csv=plan_csv)
     else:
         if series is not None:
             raise ModelError(f"{model_dir}: {option('series')} picks series of a panel model folder; this is "
                              f"a single-series model folder (leave {option('series')} out)")
-        folder = read_model_folder(model_dir, plan_csv=plan_csv, backtest_csv=backtest_csv)
-        page = render_report(folder, calendar=calendar, title=title)
+        scenarios = None
+        if plan_csv is not None and is_scenarios_file(plan_csv):  # plan --scenario: several plans
+            scenarios = read_scenario_tables(plan_csv)
+        folder = read_model_folder(model_dir, plan_csv=None if scenarios else plan_csv,
+                                   backtest_csv=backtest_csv)
+        if scenarios:
+            folder.sources["scenarios"] = Path(plan_csv)  # type: ignore[arg-type]
+        page = render_report(folder, calendar=calendar, title=title, scenarios=scenarios)
     out = Path(out_html)
     with atomic_path(out) as tmp:
         tmp.write_text(page, encoding="utf-8")
     return out
 
 
-def render_report(folder: ModelFolder, calendar: Any = None, title: str | None = None) -> str:
-    """The report as one HTML string (see :func:`write_report`)."""
+def render_report(folder: ModelFolder, calendar: Any = None, title: str | None = None,
+                  scenarios: Tables | None = None) -> str:
+    """The report as one HTML string (see :func:`write_report`); ``scenarios``: the tables of a
+    ``plan --scenario`` file, shown in place of the plan."""
     ctx = ReportContext(folder, calendar)
     heading = title or f"Calendar effects and plan: {ctx.calendar_name or folder.path.name}"
     return render_page(
@@ -120,7 +136,7 @@ def render_report(folder: ModelFolder, calendar: Any = None, title: str | None =
         heading=heading,
         subtitle=subtitle(ctx),
         cards=glance(ctx),
-        sections=build_sections(ctx, SECTIONS),
+        sections=build_sections(ctx, SECTIONS if scenarios is None else with_scenarios(SECTIONS, scenarios)),
     )
 
 

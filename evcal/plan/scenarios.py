@@ -102,7 +102,8 @@ class Scenarios:
             pct = 100.0 * diff / first.total if first.total else float("nan")
             moves = largest_moves(rows[DIFF_PREFIX + name].to_numpy(dtype=float), rows["date"], first, top)
             where = f"; moves most in {moves}" if moves else "; the same plan in every period"
-            lines.append(f"  {name}: total {amount(total)}, {amount(diff, sign=True)} ({pct:+.1f}%){where}.")
+            change = f"difference {amount(diff, sign=True)} ({pct:+.1f}%)"
+            lines.append(f"  {name}: total {amount(total)}, {change}{where}.")
         if first.target is not None:
             lines.append("Every plan is spread to the same target, so the differences show where the volume "
                          "moves between periods.")

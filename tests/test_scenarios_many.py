@@ -261,6 +261,7 @@ def _refused(res, tmp_path: Path) -> str:
     (["--scenario", "{booked}", "--scenario", "{both}", "--actuals", "{history}"],
      "a year-to-date re-plan is one plan"),
     (["--scenario", "={booked}", "--scenario", "{both}"], "no name before '='"),
+    (["--scenario", "{booked}", "--scenario", "{both}", "--reconcile", "{booked}"], "use one of them"),
 ])
 def test_cli_refusals_are_one_line(shop: Path, tmp_path: Path, args: list[str], expected: str) -> None:
     import re

@@ -72,7 +72,7 @@ def plan_cmd(
     if scenario:
         from evcal.cli.scenarios_cli import refuse_with_scenarios, scenarios_cmd
 
-        refuse_with_scenarios(scenario, compare_cal, compare_drivers, calendar, actuals)
+        refuse_with_scenarios(scenario, compare_cal, compare_drivers, calendar, actuals, reconcile)
         return scenarios_cmd(model_dir, start, end, out, scenario, [model_dir, totals, drivers], week_labels,
                              force, drivers, total=total, totals=totals, new_events=new_events, n_sims=sims,
                              seed=seed, whole_units=round_units)

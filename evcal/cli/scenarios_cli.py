@@ -13,7 +13,8 @@ __all__ = ["refuse_with_scenarios", "scenarios_cmd"]
 
 
 def refuse_with_scenarios(values: list[str], compare: str | None, compare_drivers: str | None,
-                          calendar: str | None, actuals: str | None) -> None:
+                          calendar: str | None, actuals: str | None,
+                          reconcile: list[str] | None = None) -> None:
     """One line when ``--scenario`` meets an option it cannot go with (say which to use)."""
     first = f"--scenario {values[0]}"
     if compare or compare_drivers:
@@ -26,6 +27,9 @@ def refuse_with_scenarios(values: list[str], compare: str | None, compare_driver
     if actuals:
         raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is one plan; leave out --scenario "
                         "(or --actuals)")
+    if reconcile:
+        raise PlanError(f"{first}: --reconcile plans a panel's levels to add up, and --scenario plans one "
+                        "model under several calendars; use one of them")
 
 
 def refuse_panel(model_dir: str, values: list[str]) -> None:

@@ -28,7 +28,17 @@ from evcal.errors import PlanError
 from evcal.io.panel import Panel
 from evcal.spelling import subject
 
-__all__ = ["aggregate", "allocate", "child_base"]
+__all__ = ["aggregate", "allocate", "plan_gaps", "plan_shares", "ALLOCATED_NOTE", "OWN_PLAN"]
+
+#: the amounts of a plan row besides its lifts
+AMOUNTS = ("base", "plan", "low", "high")
+#: the allocated plan's column holding each child's own plan before allocation (bottom-up)
+OWN_PLAN = "own_plan"
+#: the ``note`` of every allocated row
+ALLOCATED_NOTE = ("allocated from the parent plan by each child's share of its siblings' own plans in the "
+                  "period (base and the events scheduled there); own_plan is the child's own plan before "
+                  "allocation; low/high are the parent's interval times the share, not the child's own "
+                  "interval")
 
 
 def aggregate(panel: Panel, level: list[str]) -> Panel:
@@ -89,52 +99,69 @@ def aggregate(panel: Panel, level: list[str]) -> Panel:
                  f"{panel.source} (added up to {', '.join(level)})", panel.value_col, attrs)
 
 
-def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> pd.DataFrame:
-    """Each fitted child's base over ``periods`` from its coefficients: ``keys..., date, base``.
+def plan_shares(own: np.ndarray, groups: np.ndarray, fallback: np.ndarray | None = None
+                ) -> tuple[np.ndarray, np.ndarray]:
+    """Each row's share of its group (one parent in one period), and whether its own plan gave it.
 
-    The base is the plan's base without events: trend and seasonal terms plus
-    persistent interventions (``level_shift``, ``ramp``), times the smearing
-    factor on the log scale. ARIMA error forecasts are left out (allocation
-    uses the profile, not the short-term error).
+    A share is the row's own plan over the sum of its group's own plans; a plan
+    below zero (an additive model's) or not a number counts as 0. A group whose
+    own plans add up to nothing (every child closed, or all below zero) is
+    shared by ``fallback`` the same way (the children's own base), and failing
+    that equally. Every share is ≥ 0 and each group's add up to 1.
+
+    Parameters
+    ----------
+    own : array (n,)
+        The rows' own plans.
+    groups : array of int (n,)
+        Each row's group, numbered 0, 1, ...
+    fallback : array (n,), optional
+        The weights of a group whose own plans add up to nothing.
+
+    Returns
+    -------
+    share : array (n,)
+    by_own : array of bool (n,)
+        The rows whose group is shared by its own plans.
+
+    Examples
+    --------
+    >>> share, by_own = plan_shares(np.array([3.0, 1.0, 0.0, -2.0]), np.array([0, 0, 1, 1]),
+    ...                             np.array([1.0, 1.0, 2.0, 6.0]))
+    >>> share.tolist(), by_own.tolist()
+    ([0.75, 0.25, 0.25, 0.75], [True, True, False, False])
     """
-    from dataclasses import replace
-
-    from evcal.design.interventions import PERSISTENT
-    from evcal.design.matrix import DesignSpec, build_design
-    from evcal.io.history import period_dates
-    from evcal.model.inputs import load_calendar_any
-
-    cal = load_calendar_any(calendar if calendar is not None else children.settings["calendar_text"])
-    spec0 = DesignSpec.from_dict(children.settings["design"])
-    keys = children.key_cols
-    series = children.series[children.series["status"] == "fitted"].reset_index(drop=True)
-    coef = children.coefficients.set_index(keys).reindex(pd.MultiIndex.from_frame(series[keys])) \
-        if len(keys) > 1 else children.coefficients.set_index(keys[0]).reindex(series[keys[0]])
-    out = []
-    dates = period_dates(periods, children.settings["label"]).to_numpy()
-    for origin, idx in series.groupby("trend_origin").groups.items():
-        spec = replace(spec0, trend_origin=float(origin), event_columns=[])
-        design = build_design(spec, cal, periods)
-        X = design.X
-        persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
-        cols = [c for c in X.columns if design.roles[c] in ("trend", "seasonal")] + \
-            [c for c in persistent if c in X.columns]
-        beta = coef.iloc[np.asarray(idx)].reindex(columns=cols).fillna(0.0).to_numpy()
-        eta = beta @ X[cols].to_numpy().T  # (series, periods)
-        rows = series.iloc[np.asarray(idx)]
-        additive = rows["transform"].to_numpy() == "none"
-        smear = rows["smear"].to_numpy(dtype=float)
-        base = np.where(additive[:, None], eta, smear[:, None] * np.exp(eta))
-        frame = pd.DataFrame({c: np.repeat(rows[c].to_numpy(dtype=object), len(periods)) for c in keys})
-        frame["date"] = np.tile(dates, len(rows))
-        frame["base"] = base.ravel()
-        out.append(frame)
-    return pd.concat(out, ignore_index=True) if out else pd.DataFrame(columns=keys + ["date", "base"])
+    groups = np.asarray(groups, dtype=np.int64)
+    n_groups = int(groups.max()) + 1 if len(groups) else 0
+    share = np.zeros(len(groups))
+    pending = np.ones(len(groups), dtype=bool)
+    by_own = pending.copy()
+    for step, weights in enumerate((own, fallback, np.ones(len(groups)))):
+        if weights is None:
+            continue
+        w = np.asarray(weights, dtype=float)
+        w = np.where(np.isfinite(w) & (w > 0), w, 0.0)
+        total = np.bincount(groups, weights=w, minlength=n_groups)[groups]
+        done = pending & (total > 0)
+        share[done] = w[done] / total[done]
+        if step == 0:
+            by_own = done.copy()
+        pending &= ~done
+    return share, by_own
 
 
-def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
-             calendar: Any = None) -> pd.DataFrame:
-    """Spread each parent's plan over its children by the children's own base over the horizon.
+def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], own: pd.DataFrame,
+             child_keys: list[str]) -> pd.DataFrame:
+    """Share each parent's plan in each period over its children by the children's own plans there.
+
+    A child's share of a period is its own plan there (its base and the lifts of
+    the events scheduled in it, closures included) over its siblings' own plans,
+    so the children add up to the parent's plan exactly. The child's ``base`` and
+    ``lift:<event>`` columns are its own times the period's factor ``parent plan /
+    sum of the children's own plans``: each row's base and lifts still add up to
+    its plan. Where the children's own plans add up to nothing the shares are
+    those of :func:`plan_shares` and each amount is the parent's times the share.
+    ``low``/``high`` are the parent's times the share: not the child's interval.
 
     Parameters
     ----------
@@ -142,39 +169,45 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
         ``parent keys..., date, base, plan, low, high, lift:<event>...`` (a panel plan
         at the parent level).
     parent_keys : list of str
-        The parent key columns; every child model key table must contain them.
-    children : PanelResult
-        The child-level panel model (its keys include the parent keys).
+        The parent key columns; the child keys must contain them.
+    own : DataFrame
+        The children's own plans (``child keys..., date, base, plan, lift:<event>...,
+        assumptions``; their intervals are not used), over the parent plan's periods.
+    child_keys : list of str
 
     Returns
     -------
     DataFrame
-        ``child keys..., date, share, base, plan, low, high, lift:<event>...``:
-        the parent's amounts times each child's share of the parents' base.
+        ``child keys..., date, share, base, plan, low, high, lift:<event>..., assumptions,
+        own_plan``: ``own_plan`` is the child's own plan before allocation (bottom-up).
+
+    Examples
+    --------
+    >>> d = pd.Timestamp("2027-04-04")
+    >>> parent = pd.DataFrame({"f": ["A"], "date": [d], "base": [100.0], "plan": [130.0], "low": [120.0],
+    ...                        "high": [140.0], "lift:easter": [30.0]})
+    >>> own = pd.DataFrame({"f": ["A", "A"], "p": ["x", "y"], "date": [d, d], "base": [60.0, 40.0],
+    ...                     "plan": [84.0, 46.0], "lift:easter": [24.0, 6.0]})
+    >>> allocate(parent, ["f"], own, ["f", "p"])[["p", "share", "base", "plan", "lift:easter"]].round(4)
+       p   share  base  plan  lift:easter
+    0  x  0.6462  60.0  84.0         24.0
+    1  y  0.3538  40.0  46.0          6.0
     """
-    missing = [c for c in parent_keys if c not in children.key_cols]
+    missing = [c for c in parent_keys if c not in child_keys]
     if missing:
         raise PlanError(f"{subject('allocate')}: the child model has no key column {missing[0]!r}; its keys "
-                        f"are {', '.join(children.key_cols)}; fit the children with the parent columns among "
+                        f"are {', '.join(child_keys)}; fit the children with the parent columns among "
                         "--series-col")
-    freq = children.settings["freq"]
-    dates = pd.DatetimeIndex(pd.to_datetime(parent_plan["date"]).unique()).sort_values()
-    periods = pd.PeriodIndex(dates.to_period(freq))
-    base = child_base(children, periods, calendar)
-    if base.empty:
+    if own.empty:
         raise PlanError(f"{subject('allocate')}: the child model has no fitted series to allocate to")
-    total = base.groupby(parent_keys + ["date"], sort=False)["base"].transform("sum")
-    base["share"] = np.where(total > 0, base["base"] / total, np.nan)
-    plan = parent_plan.copy()
-    plan["date"] = pd.to_datetime(plan["date"])
-    for c in parent_keys:
-        plan[c] = plan[c].astype(str)
-        base[c] = base[c].astype(str)
-    amounts = [c for c in plan.columns if c in ("base", "plan", "low", "high") or str(c).startswith("lift:")]
-    merged = base[children.key_cols + ["date", "share"]].merge(
-        plan[parent_keys + ["date"] + amounts], on=parent_keys + ["date"], how="inner")
-    for c in amounts:
-        merged[c] = merged[c].to_numpy(dtype=float) * merged["share"].to_numpy()
+    plan = parent_plan.assign(date=pd.to_datetime(parent_plan["date"]),
+                              **{c: parent_plan[c].astype(str) for c in parent_keys})
+    mine = own.assign(date=pd.to_datetime(own["date"]), **{c: own[c].astype(str) for c in parent_keys})
+    amounts = [c for c in plan.columns if c in AMOUNTS or str(c).startswith("lift:")]
+    lifts = list(dict.fromkeys([c for c in mine.columns if str(c).startswith("lift:")] +
+                               [c for c in amounts if str(c).startswith("lift:")]))
+    renamed = plan[parent_keys + ["date"] + amounts].rename(columns={c: f"parent {c}" for c in amounts})
+    merged = mine.merge(renamed, on=parent_keys + ["date"], how="inner")
     orphans = set(map(tuple, plan[parent_keys].drop_duplicates().to_numpy())) - \
         set(map(tuple, merged[parent_keys].drop_duplicates().to_numpy()))
     if orphans:
@@ -182,4 +215,56 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
         shown = ", ".join(f"{c}={v!r}" for c, v in zip(parent_keys, first, strict=True))
         raise PlanError(f"{subject('allocate')}: parent {shown} has no fitted child in the child model; fit "
                         "the children of every parent")
-    return merged.sort_values(children.key_cols + ["date"], kind="stable").reset_index(drop=True)
+    groups = merged.groupby(parent_keys + ["date"], sort=False).ngroup().to_numpy()
+    own_plan = merged["plan"].to_numpy(dtype=float)
+    share, by_own = plan_shares(own_plan, groups, merged["base"].to_numpy(dtype=float))
+    parent = {c: merged[f"parent {c}"].to_numpy(dtype=float) if f"parent {c}" in merged else
+              np.full(len(merged), 0.0 if c.startswith("lift:") else np.nan) for c in [*AMOUNTS, *lifts]}
+    positive = np.where(np.isfinite(own_plan) & (own_plan > 0), own_plan, 0.0)
+    total = np.bincount(groups, weights=positive)[groups]
+    # the period's factor on the child's own parts; 0 for a child whose own plan is nothing (its share)
+    factor = np.where(by_own & (positive > 0), parent["plan"] / np.where(total > 0, total, 1.0), 0.0)
+    out = merged[child_keys + ["date"]].copy()
+    out["share"] = share
+    out["base"] = np.where(by_own, merged["base"].to_numpy(dtype=float) * factor, share * parent["base"])
+    for c in ("plan", "low", "high"):
+        out[c] = share * parent[c]
+    for c in lifts:
+        mine_c = merged[c].fillna(0.0).to_numpy(dtype=float) if c in merged else np.zeros(len(merged))
+        out[c] = np.where(by_own, mine_c * factor, share * parent[c])
+    if "assumptions" in merged:
+        out["assumptions"] = merged["assumptions"].to_numpy()
+    out[OWN_PLAN] = own_plan
+    return out.sort_values(child_keys + ["date"], kind="stable").reset_index(drop=True)
+
+
+def plan_gaps(allocated: pd.DataFrame, parent_keys: list[str]) -> pd.DataFrame:
+    """Top-down against bottom-up for each parent and period of an allocated plan.
+
+    ``top_down`` is the parent's plan (the sum of its children's allocated plans),
+    ``bottom_up`` the sum of its children's own plans (``own_plan``); ``gap`` is
+    top-down minus bottom-up and ``gap_pct`` that in % of bottom-up (empty where
+    bottom-up is not above zero).
+
+    Returns
+    -------
+    DataFrame
+        ``parent keys..., date, top_down, bottom_up, gap, gap_pct``.
+
+    Examples
+    --------
+    >>> t = pd.DataFrame({"f": ["A", "A"], "p": ["x", "y"], "date": ["2027-04-04"] * 2,
+    ...                   "plan": [84.0, 46.0], "own_plan": [80.0, 50.0]})
+    >>> plan_gaps(t, ["f"]).to_dict("records")[0]["gap_pct"]
+    0.0
+    >>> plan_gaps(t.assign(plan=[91.0, 52.0]), ["f"]).to_dict("records")[0]["gap_pct"]
+    10.0
+    """
+    sums = allocated.groupby(parent_keys + ["date"], sort=True)[["plan", OWN_PLAN]].sum()
+    out = sums.rename(columns={"plan": "top_down", OWN_PLAN: "bottom_up"}).reset_index()
+    out["top_down"] = out["top_down"].astype(float)
+    out["gap"] = out["top_down"] - out["bottom_up"]
+    bottom = out["bottom_up"].to_numpy(dtype=float)
+    gap = out["gap"].to_numpy(dtype=float)
+    out["gap_pct"] = np.where(bottom > 0, 100.0 * gap / np.where(bottom > 0, bottom, 1.0), np.nan)
+    return out

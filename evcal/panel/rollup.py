@@ -34,6 +34,9 @@ __all__ = ["aggregate", "allocate", "plan_gaps", "plan_shares", "ALLOCATED_NOTE"
 AMOUNTS = ("base", "plan", "low", "high")
 #: the allocated plan's column holding each child's own plan before allocation (bottom-up)
 OWN_PLAN = "own_plan"
+#: a group's own plans that add up to at most this fraction of its children's own base count as nothing
+#: (a closed period's rounding): it is shared by the base (common practice, no source)
+NOTHING = 1e-9
 #: the ``note`` of every allocated row
 ALLOCATED_NOTE = ("allocated from the parent plan by each child's share of its siblings' own plans in the "
                   "period (base and the events scheduled there); own_plan is the child's own plan before "
@@ -105,9 +108,10 @@ def plan_shares(own: np.ndarray, groups: np.ndarray, fallback: np.ndarray | None
 
     A share is the row's own plan over the sum of its group's own plans; a plan
     below zero (an additive model's) or not a number counts as 0. A group whose
-    own plans add up to nothing (every child closed, or all below zero) is
-    shared by ``fallback`` the same way (the children's own base), and failing
-    that equally. Every share is ≥ 0 and each group's add up to 1.
+    own plans add up to nothing (every child closed, or all below zero: at most
+    :data:`NOTHING` of the group's ``fallback``) is shared by ``fallback`` the same
+    way (the children's own base), and failing that equally. Every share is ≥ 0
+    and each group's add up to 1.
 
     Parameters
     ----------
@@ -133,16 +137,22 @@ def plan_shares(own: np.ndarray, groups: np.ndarray, fallback: np.ndarray | None
     """
     groups = np.asarray(groups, dtype=np.int64)
     n_groups = int(groups.max()) + 1 if len(groups) else 0
+
+    def weights_and_totals(x: Any) -> tuple[np.ndarray, np.ndarray]:
+        w = np.asarray(x, dtype=float)
+        w = np.where(np.isfinite(w) & (w > 0), w, 0.0)
+        return w, np.bincount(groups, weights=w, minlength=n_groups)[groups]
+
+    steps = [weights_and_totals(own)]
+    steps += [weights_and_totals(fallback)] if fallback is not None else []
+    steps.append(weights_and_totals(np.ones(len(groups))))
+    # own plans that are only the rounding left of a closed period would blow their parts up: the fallback
+    floors = [NOTHING * steps[1][1] if fallback is not None else 0.0] + [0.0] * (len(steps) - 1)
     share = np.zeros(len(groups))
     pending = np.ones(len(groups), dtype=bool)
     by_own = pending.copy()
-    for step, weights in enumerate((own, fallback, np.ones(len(groups)))):
-        if weights is None:
-            continue
-        w = np.asarray(weights, dtype=float)
-        w = np.where(np.isfinite(w) & (w > 0), w, 0.0)
-        total = np.bincount(groups, weights=w, minlength=n_groups)[groups]
-        done = pending & (total > 0)
+    for step, ((w, total), floor) in enumerate(zip(steps, floors, strict=True)):
+        done = pending & (total > floor)
         share[done] = w[done] / total[done]
         if step == 0:
             by_own = done.copy()

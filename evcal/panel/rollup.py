@@ -189,7 +189,8 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], own: pd.DataFram
     -------
     DataFrame
         ``child keys..., date, share, base, plan, low, high, lift:<event>..., assumptions,
-        own_plan``: ``own_plan`` is the child's own plan before allocation (bottom-up).
+        own_plan``, in the order of ``own``: ``own_plan`` is the child's own plan before
+        allocation (bottom-up).
 
     Examples
     --------
@@ -210,14 +211,17 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], own: pd.DataFram
                         "--series-col")
     if own.empty:
         raise PlanError(f"{subject('allocate')}: the child model has no fitted series to allocate to")
+    on = parent_keys + ["date"]
     plan = parent_plan.assign(date=pd.to_datetime(parent_plan["date"]),
                               **{c: parent_plan[c].astype(str) for c in parent_keys})
-    mine = own.assign(date=pd.to_datetime(own["date"]), **{c: own[c].astype(str) for c in parent_keys})
     amounts = [c for c in plan.columns if c in AMOUNTS or str(c).startswith("lift:")]
-    lifts = list(dict.fromkeys([c for c in mine.columns if str(c).startswith("lift:")] +
+    lifts = list(dict.fromkeys([c for c in own.columns if str(c).startswith("lift:")] +
                                [c for c in amounts if str(c).startswith("lift:")]))
-    renamed = plan[parent_keys + ["date"] + amounts].rename(columns={c: f"parent {c}" for c in amounts})
-    merged = mine.merge(renamed, on=parent_keys + ["date"], how="inner")
+    # the children's rows in their own order (an inner merge keeps the left order): no sort afterwards
+    left = pd.DataFrame({**{c: own[c].astype(str) for c in parent_keys}, "date": pd.to_datetime(own["date"]),
+                         "_row": np.arange(len(own))})
+    merged = left.merge(plan[on + amounts].rename(columns={c: f"parent {c}" for c in amounts}), on=on,
+                        how="inner")
     orphans = set(map(tuple, plan[parent_keys].drop_duplicates().to_numpy())) - \
         set(map(tuple, merged[parent_keys].drop_duplicates().to_numpy()))
     if orphans:
@@ -225,27 +229,32 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], own: pd.DataFram
         shown = ", ".join(f"{c}={v!r}" for c, v in zip(parent_keys, first, strict=True))
         raise PlanError(f"{subject('allocate')}: parent {shown} has no fitted child in the child model; fit "
                         "the children of every parent")
-    groups = merged.groupby(parent_keys + ["date"], sort=False).ngroup().to_numpy()
-    own_plan = merged["plan"].to_numpy(dtype=float)
-    share, by_own = plan_shares(own_plan, groups, merged["base"].to_numpy(dtype=float))
-    parent = {c: merged[f"parent {c}"].to_numpy(dtype=float) if f"parent {c}" in merged else
-              np.full(len(merged), 0.0 if c.startswith("lift:") else np.nan) for c in [*AMOUNTS, *lifts]}
+    rows = merged["_row"].to_numpy()
+    groups = merged.groupby(on, sort=False).ngroup().to_numpy()
+
+    def mine(c: str) -> np.ndarray:  # a child's own amount, 0 for an event its plan has no column for
+        return own[c].to_numpy(dtype=float)[rows] if c in own.columns else np.zeros(len(rows))
+
+    def parents(c: str) -> np.ndarray:
+        return merged[f"parent {c}"].to_numpy(dtype=float) if f"parent {c}" in merged else \
+            np.full(len(rows), 0.0 if c.startswith("lift:") else np.nan)
+
+    own_plan = mine("plan")
+    share, by_own = plan_shares(own_plan, groups, mine("base"))
     positive = np.where(np.isfinite(own_plan) & (own_plan > 0), own_plan, 0.0)
     total = np.bincount(groups, weights=positive)[groups]
     # the period's factor on the child's own parts; 0 for a child whose own plan is nothing (its share)
-    factor = np.where(by_own & (positive > 0), parent["plan"] / np.where(total > 0, total, 1.0), 0.0)
-    out = merged[child_keys + ["date"]].copy()
+    factor = np.where(by_own & (positive > 0), parents("plan") / np.where(total > 0, total, 1.0), 0.0)
+    out: dict[str, Any] = {c: own[c].iloc[rows].reset_index(drop=True) for c in child_keys}  # dtype kept
+    out["date"] = merged["date"]
     out["share"] = share
-    out["base"] = np.where(by_own, merged["base"].to_numpy(dtype=float) * factor, share * parent["base"])
-    for c in ("plan", "low", "high"):
-        out[c] = share * parent[c]
-    for c in lifts:
-        mine_c = merged[c].fillna(0.0).to_numpy(dtype=float) if c in merged else np.zeros(len(merged))
-        out[c] = np.where(by_own, mine_c * factor, share * parent[c])
-    if "assumptions" in merged:
-        out["assumptions"] = merged["assumptions"].to_numpy()
+    out["base"] = np.where(by_own, mine("base") * factor, share * parents("base"))
+    out.update({c: share * parents(c) for c in ("plan", "low", "high")})
+    out.update({c: np.where(by_own, np.nan_to_num(mine(c)) * factor, share * parents(c)) for c in lifts})
+    if "assumptions" in own.columns:
+        out["assumptions"] = own["assumptions"].iloc[rows].reset_index(drop=True)
     out[OWN_PLAN] = own_plan
-    return out.sort_values(child_keys + ["date"], kind="stable").reset_index(drop=True)
+    return pd.DataFrame(out)
 
 
 def plan_gaps(allocated: pd.DataFrame, parent_keys: list[str]) -> pd.DataFrame:

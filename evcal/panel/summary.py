@@ -150,7 +150,7 @@ def gap_lines(gaps: pd.DataFrame, parent_keys: list[str], listed: int = GAPS_LIS
       f=A: +4.5 % (+10); largest gaps 2027-04-04 +8.3 %, 2027-04-11 0.0 %
       f=B: -2.0 % (-2); largest gaps 2027-04-11 -3.8 %, 2027-04-04 0.0 %
     (gap: a parent's plan minus the sum of its children's own plans, in % of that sum; per child and period
-    the plan file has own_plan beside the allocated plan)
+    the plan file has own_plan beside plan)
     """
     if gaps.empty:
         return []
@@ -172,7 +172,7 @@ def gap_lines(gaps: pd.DataFrame, parent_keys: list[str], listed: int = GAPS_LIS
         lines.append(f"  {named}: {_pct(t, b, amount(t - b, sign=True))}; largest gaps {shown}")
     more = len(sums) - len(order)
     what = ("gap: a parent's plan minus the sum of its children's own plans, in % of that sum; per child and "
-            "period the plan file has own_plan beside the allocated plan)")
+            "period the plan file has own_plan beside plan)")
     lines.append(f"({more} more parents; {what}" if more else f"({what}")
     return lines
 

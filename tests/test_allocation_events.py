@@ -216,3 +216,28 @@ def test_allocated_children_add_up_to_their_parent(rows: list[tuple[int, float, 
     # each row's base and lift add up to its plan, to the rounding of the (scaled) parts' size
     size = out["base"].abs() + out["lift:e"].abs()
     assert ((out["base"] + out["lift:e"] - out["plan"]).abs() <= 1e-12 * size.max() + 1e-9).all()
+
+
+def test_workbook_and_report_show_own_plan_beside_the_allocated_plan(models: dict[str, Path]) -> None:
+    from openpyxl import load_workbook
+
+    from evcal.report.panel_report import render_panel_report
+
+    book, csv = models["tmp"] / "plan.xlsx", models["tmp"] / "plan2.csv"
+    for out in (book, csv):
+        res = CliRunner().invoke(app, ["plan", str(models["parents"]), "--from", HORIZON[0], "--to",
+                                       HORIZON[1], "--allocate", str(models["children"]), "--out", str(out)])
+        assert res.exit_code == 0, res.output
+    ws = load_workbook(book)["Plan"]
+    codes = [c.value for c in ws[2]]
+    own_col, share_col = codes.index("own_plan") + 1, codes.index("share") + 1
+    assert ws.cell(4, share_col).number_format == "0.0%"
+    assert ws.cell(ws.max_row, own_col).value == f"=SUBTOTAL(109,{ws.cell(4, own_col).column_letter}4:" \
+        f"{ws.cell(ws.max_row - 1, own_col).column_letter}{ws.max_row - 1})"
+    notes = " ".join(str(c.value) for row in load_workbook(book)["Notes"].iter_rows() for c in row if c.value)
+    assert "top-down against bottom-up" in notes
+    page = render_panel_report(models["children"], plan_csv=csv)
+    assert "own plan (before allocation)" in page and "allocated against own" in page
+    table = pd.read_csv(csv)
+    own, total = table["own_plan"].sum(), table["plan"].sum()
+    assert f"{100 * (total / own - 1):+.1f} %".replace("-", "−") in page

@@ -3,11 +3,13 @@
 ``evcal plan PANEL_DIR --from 2027-01-01 --to 2027-12-31 --out plan.csv``
 plans every fitted series (or the ones named with ``--series``) with
 :func:`evcal.plan.make_plan` on the series' own model and writes one long
-table, keys first. ``--allocate CHILD_DIR`` plans the panel's series (the
-parents, fitted with ``--level``) and spreads each parent's plan over its
-children in the child panel by the children's own base profiles
-(:func:`evcal.panel.rollup.allocate`): the fast way to plan thousands of
-items, since only the parents are simulated.
+table, keys first. ``--allocate CHILD_DIR`` plans the panel's series (the parents, fitted with
+``--level``) and shares each parent's plan over its children in the child
+panel by the children's own plans, period by period
+(:func:`evcal.panel.rollup.allocate`): the children are planned in blocks
+without simulation, so only the parents' intervals are drawn. The summary
+sets each parent's plan (top-down) against its children's own plans
+(bottom-up).
 
 Planning a series rebuilds its single model first (a fraction of a second);
 ``--workers N`` spreads the series over N processes.

@@ -7,14 +7,23 @@ a child outside its own span (not launched yet, or discontinued) adds zero,
 but a child *inside* its span without a value makes the parent's period a gap
 (NaN): adding up the others would read as a dip that did not happen.
 
-Top-down allocation spreads a parent's plan over its children in proportion
-to each child's own base over the horizon (trend × seasonal profile, with the
-persistent interventions, from the child's fitted coefficients): a child
-whose season peaks in May gets more of May than one that peaks in December.
-The shares of one parent's children add up to 1 in every period, so the
-children's plans add up to the parent's plan exactly. Intervals (``low``,
-``high``) are allocated by the same shares, which keeps their order but is
-not a statistical interval for the child: the table says so.
+Top-down allocation shares a parent's plan in each period over its children
+by each child's **own plan** for that period (:func:`allocate`): its base
+(trend × seasonal profile with the persistent interventions) plus the lifts of
+the events scheduled there, closures included, as the child's own model plans
+them (:mod:`evcal.panel.own_plans`, without simulation). A child whose Easter
+lift is +40 % gets more of the Easter week than a sibling whose lift is +15 %,
+and a child whose season peaks in May more of May. The shares of one parent's
+children add up to 1 in every period (:func:`plan_shares`), so the children's
+plans add up to the parent's plan exactly. A child's ``base`` and
+``lift:<event>`` columns are its own times the period's factor (parent plan /
+sum of the children's own plans), so each row's base and lifts add up to its
+plan; only the plans, not the parts, add up to the parent's. Intervals
+(``low``, ``high``) are the parent's times the shares, which keeps their order
+but is not a statistical interval for the child: the table says so.
+``own_plan`` keeps each child's own plan; :func:`plan_gaps` sets each parent's
+plan (top-down) against the sum of its children's own plans (bottom-up), per
+period.
 """
 
 from __future__ import annotations

@@ -204,14 +204,14 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], own: pd.DataFram
     Examples
     --------
     >>> d = pd.Timestamp("2027-04-04")
-    >>> parent = pd.DataFrame({"f": ["A"], "date": [d], "base": [100.0], "plan": [130.0], "low": [120.0],
-    ...                        "high": [140.0], "lift:easter": [30.0]})
+    >>> parent = pd.DataFrame({"f": ["A"], "date": [d], "base": [110.0], "plan": [143.0], "low": [130.0],
+    ...                        "high": [156.0], "lift:easter": [33.0]})
     >>> own = pd.DataFrame({"f": ["A", "A"], "p": ["x", "y"], "date": [d, d], "base": [60.0, 40.0],
-    ...                     "plan": [84.0, 46.0], "lift:easter": [24.0, 6.0]})
-    >>> allocate(parent, ["f"], own, ["f", "p"])[["p", "share", "base", "plan", "lift:easter"]].round(4)
-       p   share  base  plan  lift:easter
-    0  x  0.6462  60.0  84.0         24.0
-    1  y  0.3538  40.0  46.0          6.0
+    ...                     "plan": [84.0, 46.0], "lift:easter": [24.0, 6.0]})  # +40 % and +15 % Easter
+    >>> allocate(parent, ["f"], own, ["f", "p"])[["p", "share", "base", "plan", "lift:easter", "own_plan"]]
+       p     share  base  plan  lift:easter  own_plan
+    0  x  0.646154  66.0  92.4         26.4      84.0
+    1  y  0.353846  44.0  50.6          6.6      46.0
     """
     missing = [c for c in parent_keys if c not in child_keys]
     if missing:

@@ -3,11 +3,13 @@
 ``evcal plan PANEL_DIR --from 2027-01-01 --to 2027-12-31 --out plan.csv``
 plans every fitted series (or the ones named with ``--series``) with
 :func:`evcal.plan.make_plan` on the series' own model and writes one long
-table, keys first. ``--allocate CHILD_DIR`` plans the panel's series (the
-parents, fitted with ``--level``) and spreads each parent's plan over its
-children in the child panel by the children's own base profiles
-(:func:`evcal.panel.rollup.allocate`): the fast way to plan thousands of
-items, since only the parents are simulated.
+table, keys first. ``--allocate CHILD_DIR`` plans the panel's series (the parents, fitted with
+``--level``) and shares each parent's plan over its children in the child
+panel by the children's own plans, period by period
+(:func:`evcal.panel.rollup.allocate`): the children are planned in blocks
+without simulation, so only the parents' intervals are drawn. The summary
+sets each parent's plan (top-down) against its children's own plans
+(bottom-up).
 
 Planning a series rebuilds its single model first (a fraction of a second);
 ``--workers N`` spreads the series over N processes.
@@ -16,7 +18,6 @@ Planning a series rebuilds its single model first (a fraction of a second);
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -24,137 +25,14 @@ import numpy as np
 import pandas as pd
 
 from evcal.amounts import amount
-from evcal.errors import EvcalError, PlanError
+from evcal.errors import PlanError
+from evcal.panel.own_plans import plan_series
 from evcal.panel.result import PanelResult, load_panel
 from evcal.panel.targets import TARGET_RULE, apply_targets, read_panel_totals
 from evcal.plan.spread import check_total
 from evcal.spelling import option
 
 __all__ = ["plan_panel", "plan_panel_cmd"]
-
-PLAN_CHUNK = 8
-
-
-@dataclass
-class PlanChunk:
-    """A few series to plan: a unit for the runners of :mod:`evcal.panel.distributed`.
-
-    ``model`` is the panel, or its folder when the chunk is planned in a worker
-    (which reads the folder itself); ``frame`` holds the plans once made.
-    """
-
-    index: int
-    model: PanelResult | str
-    sids: list[dict[str, Any]]  # the series' keys
-    options: dict[str, Any]
-    frame: pd.DataFrame | None = None
-    positions: list[int] | None = None  # the series' places in the plan's order
-
-
-def _plan_chunk(chunk: PlanChunk) -> PlanChunk:
-    """Plan each series of ``chunk`` with the single-series plan; keys first in its table."""
-    from evcal.plan import make_plan
-
-    model = chunk.model if isinstance(chunk.model, PanelResult) else load_panel(chunk.model)
-    frames = []
-    for pos, key in zip(chunk.positions or range(len(chunk.sids)), chunk.sids, strict=True):
-        res = model.series_result(key)
-        try:
-            plan = make_plan(res, **chunk.options)
-        except EvcalError as err:
-            shown = ", ".join(f"{c}={key[c]!r}" for c in model.key_cols)
-            raise PlanError([f"series {shown}: {p}" for p in err.problems]) from None
-        table = plan.table.copy()
-        for i, c in enumerate(model.key_cols):
-            table.insert(i, c, key[c])
-        table["_pos"] = pos
-        frames.append(table)
-    chunk.frame = pd.concat(frames, ignore_index=True)
-    return chunk
-
-
-def _stored_panel(model: PanelResult, keys: list[dict[str, Any]]) -> Any:
-    """The selected series' stored histories as a :class:`~evcal.io.panel.Panel`, in ``keys``' order."""
-    from evcal.io.panel import Panel
-
-    cols = model.key_cols
-    rows = model.fitted[cols + ["date", "actual"]] if model._fitted is not None else \
-        pd.read_parquet(model.fitted_path, columns=cols + ["date", "actual"])
-    wanted = pd.DataFrame(keys, columns=cols).astype(str)
-    wanted["_pos"] = np.arange(len(keys))
-    rows = rows.assign(**{c: rows[c].astype(str) for c in cols}).merge(wanted, on=cols)
-    freq = model.settings["freq"]
-    per = pd.DatetimeIndex(rows["date"]).to_period(freq)
-    periods = pd.period_range(per.min(), per.max(), freq=freq)
-    t = (per.asi8 - periods[0].ordinal).astype(int)
-    pos = rows["_pos"].to_numpy()
-    values = np.full((len(periods), len(keys)), np.nan)
-    values[t, pos] = rows["actual"].to_numpy(dtype=float)
-    first = np.full(len(keys), len(periods), dtype=int)
-    last = np.full(len(keys), -1, dtype=int)
-    np.minimum.at(first, pos, t)
-    np.maximum.at(last, pos, t)
-    return Panel(pd.DataFrame(keys, columns=cols), values, periods, first, last, freq,
-                 model.settings["label"], str(model.settings["source"]),
-                 str(model.settings.get("value_col", "value")))
-
-
-def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[str, Any]
-                ) -> tuple[list[pd.DataFrame], list[int]]:
-    """Plan the series that the engine solves in blocks, a block at a time (:mod:`evcal.plan.batched`).
-
-    Returns the blocks' tables (keys first, ``_pos`` the series' place in
-    ``keys``) and the places of the series left to the single-series plan.
-    """
-    from types import SimpleNamespace
-
-    from evcal.engine.run import plan_units
-    from evcal.engine.units import BatchUnit
-    from evcal.model.inputs import load_calendar_any
-    from evcal.plan.batched import block_frame, group_horizon, plan_block, series_weak, solve_block
-    from evcal.plan.horizon import horizon_periods
-    from evcal.plan.simulate import check_sims
-    from evcal.threads import held_blas
-
-    opts, cal = model.fitted_options()
-    opts = replace(opts, errors="ols" if opts.errors in ("auto", "ols") else opts.errors)
-    panel = _stored_panel(model, keys)
-    plan_cal = cal if options["calendar"] is None else load_calendar_any(options["calendar"])
-    end = panel.periods[int(panel.last.max())]
-    periods = horizon_periods(SimpleNamespace(freq=panel.freq, history_end=str(end), label=panel.label),
-                              options["start"], options["end"])
-    n_sims = check_sims(options["n_sims"], len(periods))
-    frames, alone = [], []
-    weak = series_weak(model.lifts, panel.keys)  # each series' own grade (its interval), as lifts.csv says
-    horizons: dict[int, Any] = {}
-    with held_blas(10**9, 10**3):  # blocks of many series: one BLAS thread, as the panel fit holds it
-        units, _, _ = plan_units(panel, cal, opts)
-        for unit in units:
-            if not isinstance(unit, BatchUnit):
-                alone.extend(int(s) for s in unit.sids)
-                continue
-            fit = solve_block(unit, covariance=n_sims > 0)
-            alone.extend(int(s) for s in fit.broken)
-            if not len(fit.sids):
-                continue
-            gid = fit.group.gid
-            if gid not in horizons:
-                horizons[gid] = group_horizon(fit, plan_cal, periods, options["new_events"])
-            h = horizons[gid]
-            parts = plan_block(fit, h, plan_cal, n_sims, options["seed"])
-            frame = block_frame(fit, h, parts, panel.label, weak, plan_cal, options["new_events"])
-            # a base or plan that is not a finite number: the single-series plan says so in one line
-            bad = ~np.isfinite(frame[["base", "plan"]].to_numpy()).all(axis=1)
-            if bad.any():
-                lost = np.unique(frame["_sid"].to_numpy()[bad])
-                alone.extend(int(s) for s in lost)
-                frame = frame[~frame["_sid"].isin(lost)]
-            sid = frame["_sid"].to_numpy()
-            for i, c in enumerate(model.key_cols):
-                frame.insert(i, c, panel.keys[c].to_numpy()[sid])
-            frames.append(frame.rename(columns={"_sid": "_pos"}))
-    return frames, sorted(alone)
-
 
 def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: list[str] | None = None,
                calendar: Any = None, new_events: str = "error", n_sims: int = 1000, seed: int = 0,
@@ -190,7 +68,6 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         ``total``/``totals`` with more than one series (a target is per plan:
         plan one series, or fit the level the target belongs to and allocate).
     """
-    from evcal.panel.distributed import DaskRunner, local_runner
     from evcal.plan.simulate import check_sims
     from evcal.progress import progress_enabled
 
@@ -222,39 +99,18 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
                "n_sims": n_sims, "seed": seed, "total": total, "totals": totals,
                # a series planned to its own target is rounded to it by make_plan; the rest once, below
                "whole_units": whole_units and (total is not None or totals is not None) and allocate is None}
-    in_workers = bool(workers) and path is not None
     show = progress_enabled(progress)
-    frames: list[pd.DataFrame] = []
-    alone = list(range(len(keys)))
-    if total is None and totals is None and batched:
-        frames, alone = plan_blocks(model, keys, options)
-    fallback.extend(keys[i] for i in alone)
-    if alone:
-        chunks = [PlanChunk(i, path if in_workers else model, [keys[j] for j in alone[a:a + PLAN_CHUNK]],
-                            options, positions=alone[a:a + PLAN_CHUNK])
-                  for i, a in enumerate(range(0, len(alone), PLAN_CHUNK))]
-        if in_workers:
-            with DaskRunner(workers, None, show, "planning series") as run:
-                frames += [c.frame for c in run(chunks, _plan_chunk)]
-        else:
-            run = local_runner(show, threads=1, label="planning series")
-            frames += [c.frame for c in run(chunks, _plan_chunk)]
-    table = pd.concat(frames, ignore_index=True).sort_values("_pos", kind="stable").drop(columns="_pos")
-    table = table.reset_index(drop=True)
-    lift_cols = [c for c in table.columns if str(c).startswith("lift:")]
-    table[lift_cols] = table[lift_cols].fillna(0.0)
-    order = model.key_cols + ["date", "base", "plan", "low", "high"] + lift_cols + ["assumptions"]
-    table = table[[c for c in order if c in table.columns]]
+    table = plan_series(model, path, keys, options, workers, show, batched, fallback)
     notes = _coverage_notes(model, calendar, table["date"], model.settings["freq"])
     if panel_targets is not None:
         table, notes = _to_targets(table, model, panel_targets, whole_units and allocate is None, notes)
     if allocate is not None:
+        from evcal.panel.rollup import ALLOCATED_NOTE
         from evcal.panel.rollup import allocate as _allocate
 
-        children = allocate if isinstance(allocate, PanelResult) else load_panel(allocate)
-        table = _allocate(table, model.key_cols, children, calendar)
-        table["note"] = ("allocated from the parent plan by each child's share of the parents' base; "
-                         "low/high are the parent's interval times the share, not the child's own interval")
+        children, own = _own_plans(allocate, table, model.key_cols, options, workers, show, batched)
+        table = _allocate(table, model.key_cols, own, children.key_cols)
+        table["note"] = ALLOCATED_NOTE
     if whole_units:  # per series (or per allocated child), unless make_plan already rounded it to its target
         from evcal.plan.spread import PANEL_WHOLE_UNITS_NOTE, round_table
 
@@ -271,6 +127,28 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
         notes.append(PANEL_WHOLE_UNITS_NOTE)
     table.attrs["notes"] = notes
     return table
+
+
+def _own_plans(allocate: PanelResult | str | Path, parents: pd.DataFrame, parent_keys: list[str],
+               options: dict[str, Any], workers: int | None, show: bool, batched: bool
+               ) -> tuple[PanelResult, pd.DataFrame]:
+    """The child panel and its children's own plans over the parents' horizon, by their own models.
+
+    Only the children of the parents in ``parents`` are planned, without simulation
+    (an allocation uses their plans, not their intervals) and without a target.
+    """
+    path = None if isinstance(allocate, PanelResult) else str(allocate)
+    children = load_panel(path) if path is not None else allocate
+    fitted = children.series[children.series["status"] == "fitted"]
+    if not set(parent_keys) <= set(children.key_cols) or fitted.empty:
+        return children, pd.DataFrame()  # the allocation says what is wrong
+    wanted = pd.MultiIndex.from_frame(parents[parent_keys].astype(str))
+    fitted = fitted[pd.MultiIndex.from_frame(fitted[parent_keys].astype(str)).isin(wanted)]
+    if fitted.empty:
+        return children, pd.DataFrame()
+    mine = {**options, "n_sims": 0, "total": None, "totals": None, "whole_units": False}
+    keys = fitted[children.key_cols].to_dict("records")
+    return children, plan_series(children, path, keys, mine, workers, show, batched)
 
 
 def _keyed_totals(totals: Any, key_cols: list[str]) -> bool:
@@ -351,16 +229,18 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
         from evcal.io.weeklabels import with_week_labels
 
         table = with_week_labels(table, _panel_freq(model_dir), week_labels)
+    gaps = _gap_lines(table, model_dir) if kwargs.get("allocate") else []
     if suffix == ".xlsx":
         from evcal.plan.workbook_panel import write_panel_workbook
 
-        how = notes + ([ALLOCATED] if kwargs.get("allocate") else [])
+        how = notes + ([ALLOCATED, *gaps] if kwargs.get("allocate") else [])
         write_panel_workbook(out, table, _event_labels(kwargs.get("allocate") or model_dir), how)
     else:
         with atomic_path(out) as tmp:
             write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
     keys = [c for c in table.columns if c not in ("date", "iso_week", "share", "base", "plan", "low", "high",
-                                                   "assumptions", "note") and not str(c).startswith("lift:")]
+                                                   "assumptions", "note", "own_plan")
+            and not str(c).startswith("lift:")]
     n_series = len(table[keys].drop_duplicates()) if keys else 1
     echo(f"planned {n_series} series, {table['date'].nunique()} periods each; total "
          f"{amount(float(np.nansum(table['plan'].to_numpy(dtype=float))))}")
@@ -372,12 +252,24 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
         echo(f"Note: {note}")
     if kwargs.get("allocate"):
         echo(ALLOCATED)
+        for line in gaps:
+            echo(line)
     echo("Plans are estimates; the decisions stay with the people who own them.")
     echo(f"\nwrote {shown or out} ({len(table)} rows)")
 
 
 #: how an allocated (``--allocate``) panel plan was made
-ALLOCATED = "allocated top-down: each parent's plan spread over its children by their own base profiles"
+ALLOCATED = ("allocated top-down: each parent's plan in each period shared over its children by their own "
+             "plans there (base and scheduled event lifts)")
+
+
+def _gap_lines(table: pd.DataFrame, model_dir: str) -> list[str]:
+    """The summary's lines on top-down against bottom-up of an allocated plan (:mod:`evcal.panel.summary`)."""
+    from evcal.panel.rollup import plan_gaps
+    from evcal.panel.summary import gap_lines
+
+    parent_keys = [str(c) for c in _panel_document(model_dir)["keys"]]
+    return gap_lines(plan_gaps(table, parent_keys), parent_keys)
 
 
 def _panel_document(model_dir: str) -> dict[str, Any]:

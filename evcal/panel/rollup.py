@@ -7,14 +7,23 @@ a child outside its own span (not launched yet, or discontinued) adds zero,
 but a child *inside* its span without a value makes the parent's period a gap
 (NaN): adding up the others would read as a dip that did not happen.
 
-Top-down allocation spreads a parent's plan over its children in proportion
-to each child's own base over the horizon (trend × seasonal profile, with the
-persistent interventions, from the child's fitted coefficients): a child
-whose season peaks in May gets more of May than one that peaks in December.
-The shares of one parent's children add up to 1 in every period, so the
-children's plans add up to the parent's plan exactly. Intervals (``low``,
-``high``) are allocated by the same shares, which keeps their order but is
-not a statistical interval for the child: the table says so.
+Top-down allocation shares a parent's plan in each period over its children
+by each child's **own plan** for that period (:func:`allocate`): its base
+(trend × seasonal profile with the persistent interventions) plus the lifts of
+the events scheduled there, closures included, as the child's own model plans
+them (:mod:`evcal.panel.own_plans`, without simulation). A child whose Easter
+lift is +40 % gets more of the Easter week than a sibling whose lift is +15 %,
+and a child whose season peaks in May more of May. The shares of one parent's
+children add up to 1 in every period (:func:`plan_shares`), so the children's
+plans add up to the parent's plan exactly. A child's ``base`` and
+``lift:<event>`` columns are its own times the period's factor (parent plan /
+sum of the children's own plans), so each row's base and lifts add up to its
+plan; only the plans, not the parts, add up to the parent's. Intervals
+(``low``, ``high``) are the parent's times the shares, which keeps their order
+but is not a statistical interval for the child: the table says so.
+``own_plan`` keeps each child's own plan; :func:`plan_gaps` sets each parent's
+plan (top-down) against the sum of its children's own plans (bottom-up), per
+period.
 """
 
 from __future__ import annotations
@@ -28,7 +37,20 @@ from evcal.errors import PlanError
 from evcal.io.panel import Panel
 from evcal.spelling import subject
 
-__all__ = ["aggregate", "allocate", "child_base"]
+__all__ = ["aggregate", "allocate", "plan_gaps", "plan_shares", "ALLOCATED_NOTE", "OWN_PLAN"]
+
+#: the amounts of a plan row besides its lifts
+AMOUNTS = ("base", "plan", "low", "high")
+#: the allocated plan's column holding each child's own plan before allocation (bottom-up)
+OWN_PLAN = "own_plan"
+#: a group's own plans that add up to at most this fraction of its children's own base count as nothing
+#: (a closed period's rounding): it is shared by the base (common practice, no source)
+NOTHING = 1e-9
+#: the ``note`` of every allocated row
+ALLOCATED_NOTE = ("allocated from the parent plan by each child's share of its siblings' own plans in the "
+                  "period (base and the events scheduled there); own_plan is the child's own plan before "
+                  "allocation; low/high are the parent's interval times the share, not the child's own "
+                  "interval")
 
 
 def aggregate(panel: Panel, level: list[str]) -> Panel:
@@ -89,52 +111,76 @@ def aggregate(panel: Panel, level: list[str]) -> Panel:
                  f"{panel.source} (added up to {', '.join(level)})", panel.value_col, attrs)
 
 
-def child_base(children: Any, periods: pd.PeriodIndex, calendar: Any = None) -> pd.DataFrame:
-    """Each fitted child's base over ``periods`` from its coefficients: ``keys..., date, base``.
+def plan_shares(own: np.ndarray, groups: np.ndarray, fallback: np.ndarray | None = None
+                ) -> tuple[np.ndarray, np.ndarray]:
+    """Each row's share of its group (one parent in one period), and whether its own plan gave it.
 
-    The base is the plan's base without events: trend and seasonal terms plus
-    persistent interventions (``level_shift``, ``ramp``), times the smearing
-    factor on the log scale. ARIMA error forecasts are left out (allocation
-    uses the profile, not the short-term error).
+    A share is the row's own plan over the sum of its group's own plans; a plan
+    below zero (an additive model's) or not a number counts as 0. A group whose
+    own plans add up to nothing (every child closed, or all below zero: at most
+    :data:`NOTHING` of the group's ``fallback``) is shared by ``fallback`` the same
+    way (the children's own base), and failing that equally. Every share is ≥ 0
+    and each group's add up to 1.
+
+    Parameters
+    ----------
+    own : array (n,)
+        The rows' own plans.
+    groups : array of int (n,)
+        Each row's group, numbered 0, 1, ...
+    fallback : array (n,), optional
+        The weights of a group whose own plans add up to nothing.
+
+    Returns
+    -------
+    share : array (n,)
+    by_own : array of bool (n,)
+        The rows whose group is shared by its own plans.
+
+    Examples
+    --------
+    >>> share, by_own = plan_shares(np.array([3.0, 1.0, 0.0, -2.0]), np.array([0, 0, 1, 1]),
+    ...                             np.array([1.0, 1.0, 2.0, 6.0]))
+    >>> share.tolist(), by_own.tolist()
+    ([0.75, 0.25, 0.25, 0.75], [True, True, False, False])
     """
-    from dataclasses import replace
+    groups = np.asarray(groups, dtype=np.int64)
+    n_groups = int(groups.max()) + 1 if len(groups) else 0
 
-    from evcal.design.interventions import PERSISTENT
-    from evcal.design.matrix import DesignSpec, build_design
-    from evcal.io.history import period_dates
-    from evcal.model.inputs import load_calendar_any
+    def weights_and_totals(x: Any) -> tuple[np.ndarray, np.ndarray]:
+        w = np.asarray(x, dtype=float)
+        w = np.where(np.isfinite(w) & (w > 0), w, 0.0)
+        return w, np.bincount(groups, weights=w, minlength=n_groups)[groups]
 
-    cal = load_calendar_any(calendar if calendar is not None else children.settings["calendar_text"])
-    spec0 = DesignSpec.from_dict(children.settings["design"])
-    keys = children.key_cols
-    series = children.series[children.series["status"] == "fitted"].reset_index(drop=True)
-    coef = children.coefficients.set_index(keys).reindex(pd.MultiIndex.from_frame(series[keys])) \
-        if len(keys) > 1 else children.coefficients.set_index(keys[0]).reindex(series[keys[0]])
-    out = []
-    dates = period_dates(periods, children.settings["label"]).to_numpy()
-    for origin, idx in series.groupby("trend_origin").groups.items():
-        spec = replace(spec0, trend_origin=float(origin), event_columns=[])
-        design = build_design(spec, cal, periods)
-        X = design.X
-        persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
-        cols = [c for c in X.columns if design.roles[c] in ("trend", "seasonal")] + \
-            [c for c in persistent if c in X.columns]
-        beta = coef.iloc[np.asarray(idx)].reindex(columns=cols).fillna(0.0).to_numpy()
-        eta = beta @ X[cols].to_numpy().T  # (series, periods)
-        rows = series.iloc[np.asarray(idx)]
-        additive = rows["transform"].to_numpy() == "none"
-        smear = rows["smear"].to_numpy(dtype=float)
-        base = np.where(additive[:, None], eta, smear[:, None] * np.exp(eta))
-        frame = pd.DataFrame({c: np.repeat(rows[c].to_numpy(dtype=object), len(periods)) for c in keys})
-        frame["date"] = np.tile(dates, len(rows))
-        frame["base"] = base.ravel()
-        out.append(frame)
-    return pd.concat(out, ignore_index=True) if out else pd.DataFrame(columns=keys + ["date", "base"])
+    steps = [weights_and_totals(own)]
+    steps += [weights_and_totals(fallback)] if fallback is not None else []
+    steps.append(weights_and_totals(np.ones(len(groups))))
+    # own plans that are only the rounding left of a closed period would blow their parts up: the fallback
+    floors = [NOTHING * steps[1][1] if fallback is not None else 0.0] + [0.0] * (len(steps) - 1)
+    share = np.zeros(len(groups))
+    pending = np.ones(len(groups), dtype=bool)
+    by_own = pending.copy()
+    for step, ((w, total), floor) in enumerate(zip(steps, floors, strict=True)):
+        done = pending & (total > floor)
+        share[done] = w[done] / total[done]
+        if step == 0:
+            by_own = done.copy()
+        pending &= ~done
+    return share, by_own
 
 
-def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
-             calendar: Any = None) -> pd.DataFrame:
-    """Spread each parent's plan over its children by the children's own base over the horizon.
+def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], own: pd.DataFrame,
+             child_keys: list[str]) -> pd.DataFrame:
+    """Share each parent's plan in each period over its children by the children's own plans there.
+
+    A child's share of a period is its own plan there (its base and the lifts of
+    the events scheduled in it, closures included) over its siblings' own plans,
+    so the children add up to the parent's plan exactly. The child's ``base`` and
+    ``lift:<event>`` columns are its own times the period's factor ``parent plan /
+    sum of the children's own plans``: each row's base and lifts still add up to
+    its plan. Where the children's own plans add up to nothing the shares are
+    those of :func:`plan_shares` and each amount is the parent's times the share.
+    ``low``/``high`` are the parent's times the share: not the child's interval.
 
     Parameters
     ----------
@@ -142,39 +188,49 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
         ``parent keys..., date, base, plan, low, high, lift:<event>...`` (a panel plan
         at the parent level).
     parent_keys : list of str
-        The parent key columns; every child model key table must contain them.
-    children : PanelResult
-        The child-level panel model (its keys include the parent keys).
+        The parent key columns; the child keys must contain them.
+    own : DataFrame
+        The children's own plans (``child keys..., date, base, plan, lift:<event>...,
+        assumptions``; their intervals are not used), over the parent plan's periods.
+    child_keys : list of str
 
     Returns
     -------
     DataFrame
-        ``child keys..., date, share, base, plan, low, high, lift:<event>...``:
-        the parent's amounts times each child's share of the parents' base.
+        ``child keys..., date, share, base, plan, low, high, lift:<event>..., assumptions,
+        own_plan``, in the order of ``own``: ``own_plan`` is the child's own plan before
+        allocation (bottom-up).
+
+    Examples
+    --------
+    >>> d = pd.Timestamp("2027-04-04")
+    >>> parent = pd.DataFrame({"f": ["A"], "date": [d], "base": [110.0], "plan": [143.0], "low": [130.0],
+    ...                        "high": [156.0], "lift:easter": [33.0]})
+    >>> own = pd.DataFrame({"f": ["A", "A"], "p": ["x", "y"], "date": [d, d], "base": [60.0, 40.0],
+    ...                     "plan": [84.0, 46.0], "lift:easter": [24.0, 6.0]})  # +40 % and +15 % Easter
+    >>> allocate(parent, ["f"], own, ["f", "p"])[["p", "share", "base", "plan", "lift:easter", "own_plan"]]
+       p     share  base  plan  lift:easter  own_plan
+    0  x  0.646154  66.0  92.4         26.4      84.0
+    1  y  0.353846  44.0  50.6          6.6      46.0
     """
-    missing = [c for c in parent_keys if c not in children.key_cols]
+    missing = [c for c in parent_keys if c not in child_keys]
     if missing:
         raise PlanError(f"{subject('allocate')}: the child model has no key column {missing[0]!r}; its keys "
-                        f"are {', '.join(children.key_cols)}; fit the children with the parent columns among "
+                        f"are {', '.join(child_keys)}; fit the children with the parent columns among "
                         "--series-col")
-    freq = children.settings["freq"]
-    dates = pd.DatetimeIndex(pd.to_datetime(parent_plan["date"]).unique()).sort_values()
-    periods = pd.PeriodIndex(dates.to_period(freq))
-    base = child_base(children, periods, calendar)
-    if base.empty:
+    if own.empty:
         raise PlanError(f"{subject('allocate')}: the child model has no fitted series to allocate to")
-    total = base.groupby(parent_keys + ["date"], sort=False)["base"].transform("sum")
-    base["share"] = np.where(total > 0, base["base"] / total, np.nan)
-    plan = parent_plan.copy()
-    plan["date"] = pd.to_datetime(plan["date"])
-    for c in parent_keys:
-        plan[c] = plan[c].astype(str)
-        base[c] = base[c].astype(str)
-    amounts = [c for c in plan.columns if c in ("base", "plan", "low", "high") or str(c).startswith("lift:")]
-    merged = base[children.key_cols + ["date", "share"]].merge(
-        plan[parent_keys + ["date"] + amounts], on=parent_keys + ["date"], how="inner")
-    for c in amounts:
-        merged[c] = merged[c].to_numpy(dtype=float) * merged["share"].to_numpy()
+    on = parent_keys + ["date"]
+    plan = parent_plan.assign(date=pd.to_datetime(parent_plan["date"]),
+                              **{c: parent_plan[c].astype(str) for c in parent_keys})
+    amounts = [c for c in plan.columns if c in AMOUNTS or str(c).startswith("lift:")]
+    lifts = list(dict.fromkeys([c for c in own.columns if str(c).startswith("lift:")] +
+                               [c for c in amounts if str(c).startswith("lift:")]))
+    # the children's rows in their own order (an inner merge keeps the left order): no sort afterwards
+    left = pd.DataFrame({**{c: own[c].astype(str) for c in parent_keys}, "date": pd.to_datetime(own["date"]),
+                         "_row": np.arange(len(own))})
+    merged = left.merge(plan[on + amounts].rename(columns={c: f"parent {c}" for c in amounts}), on=on,
+                        how="inner")
     orphans = set(map(tuple, plan[parent_keys].drop_duplicates().to_numpy())) - \
         set(map(tuple, merged[parent_keys].drop_duplicates().to_numpy()))
     if orphans:
@@ -182,4 +238,61 @@ def allocate(parent_plan: pd.DataFrame, parent_keys: list[str], children: Any,
         shown = ", ".join(f"{c}={v!r}" for c, v in zip(parent_keys, first, strict=True))
         raise PlanError(f"{subject('allocate')}: parent {shown} has no fitted child in the child model; fit "
                         "the children of every parent")
-    return merged.sort_values(children.key_cols + ["date"], kind="stable").reset_index(drop=True)
+    rows = merged["_row"].to_numpy()
+    groups = merged.groupby(on, sort=False).ngroup().to_numpy()
+
+    def mine(c: str) -> np.ndarray:  # a child's own amount, 0 for an event its plan has no column for
+        return own[c].to_numpy(dtype=float)[rows] if c in own.columns else np.zeros(len(rows))
+
+    def parents(c: str) -> np.ndarray:
+        return merged[f"parent {c}"].to_numpy(dtype=float) if f"parent {c}" in merged else \
+            np.full(len(rows), 0.0 if c.startswith("lift:") else np.nan)
+
+    own_plan = mine("plan")
+    share, by_own = plan_shares(own_plan, groups, mine("base"))
+    positive = np.where(np.isfinite(own_plan) & (own_plan > 0), own_plan, 0.0)
+    total = np.bincount(groups, weights=positive)[groups]
+    # the period's factor on the child's own parts; 0 for a child whose own plan is nothing (its share)
+    factor = np.where(by_own & (positive > 0), parents("plan") / np.where(total > 0, total, 1.0), 0.0)
+    out: dict[str, Any] = {c: own[c].iloc[rows].reset_index(drop=True) for c in child_keys}  # dtype kept
+    out["date"] = merged["date"]
+    out["share"] = share
+    out["base"] = np.where(by_own, mine("base") * factor, share * parents("base"))
+    out.update({c: share * parents(c) for c in ("plan", "low", "high")})
+    out.update({c: np.where(by_own, np.nan_to_num(mine(c)) * factor, share * parents(c)) for c in lifts})
+    if "assumptions" in own.columns:
+        out["assumptions"] = own["assumptions"].iloc[rows].reset_index(drop=True)
+    out[OWN_PLAN] = own_plan
+    return pd.DataFrame(out)
+
+
+def plan_gaps(allocated: pd.DataFrame, parent_keys: list[str]) -> pd.DataFrame:
+    """Top-down against bottom-up for each parent and period of an allocated plan.
+
+    ``top_down`` is the parent's plan (the sum of its children's allocated plans),
+    ``bottom_up`` the sum of its children's own plans (``own_plan``); ``gap`` is
+    top-down minus bottom-up and ``gap_pct`` that in % of bottom-up (empty where
+    bottom-up is not above zero).
+
+    Returns
+    -------
+    DataFrame
+        ``parent keys..., date, top_down, bottom_up, gap, gap_pct``.
+
+    Examples
+    --------
+    >>> t = pd.DataFrame({"f": ["A", "A"], "p": ["x", "y"], "date": ["2027-04-04"] * 2,
+    ...                   "plan": [84.0, 46.0], "own_plan": [80.0, 50.0]})
+    >>> plan_gaps(t, ["f"]).to_dict("records")[0]["gap_pct"]
+    0.0
+    >>> plan_gaps(t.assign(plan=[91.0, 52.0]), ["f"]).to_dict("records")[0]["gap_pct"]
+    10.0
+    """
+    sums = allocated.groupby(parent_keys + ["date"], sort=True)[["plan", OWN_PLAN]].sum()
+    out = sums.rename(columns={"plan": "top_down", OWN_PLAN: "bottom_up"}).reset_index()
+    out["top_down"] = out["top_down"].astype(float)
+    out["gap"] = out["top_down"] - out["bottom_up"]
+    bottom = out["bottom_up"].to_numpy(dtype=float)
+    gap = out["gap"].to_numpy(dtype=float)
+    out["gap_pct"] = np.where(bottom > 0, 100.0 * gap / np.where(bottom > 0, bottom, 1.0), np.nan)
+    return out

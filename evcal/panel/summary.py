@@ -1,4 +1,5 @@
-"""A readable panel summary: what was fitted, what was skipped, each event's lifts across series."""
+"""A readable panel summary: what was fitted, what was skipped, each event's lifts across series; and how far
+an allocated plan's top-down and bottom-up sums differ."""
 
 from __future__ import annotations
 
@@ -6,6 +7,13 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+
+from evcal.amounts import amount
+
+#: parents listed in the terminal summary of an allocated plan, largest gap first (the plan file has them all)
+GAPS_LISTED = 5
+#: periods named per parent listed, largest gap first
+GAP_PERIODS = 3
 
 
 def _q(values: np.ndarray, p: float) -> float:
@@ -121,3 +129,62 @@ def describe_panel(result: Any) -> str:
     lines.append("\nLifts are estimates from past data; intervals are 95 %. Decisions stay with the people "
                  "who own them.")
     return "\n".join(lines)
+
+
+def gap_lines(gaps: pd.DataFrame, parent_keys: list[str], listed: int = GAPS_LISTED,
+              periods: int = GAP_PERIODS) -> list[str]:
+    """Top-down against bottom-up in a few lines: in all, then the parents with the largest gaps.
+
+    ``gaps`` is :func:`evcal.panel.rollup.plan_gaps`'s table (``parent keys..., date, top_down,
+    bottom_up, gap, gap_pct``). A parent's gap is its plan over the horizon against the sum of
+    its children's own plans, in % of the latter; beside it the periods whose gaps are largest.
+
+    Examples
+    --------
+    >>> g = pd.DataFrame({"f": ["A", "A", "B", "B"], "date": pd.to_datetime(["2027-04-04", "2027-04-11"] * 2),
+    ...                   "top_down": [130.0, 100.0, 50.0, 50.0], "bottom_up": [120.0, 100.0, 50.0, 52.0]})
+    >>> g["gap"] = g["top_down"] - g["bottom_up"]
+    >>> g["gap_pct"] = 100 * g["gap"] / g["bottom_up"]
+    >>> print("\\n".join(gap_lines(g, ["f"])))  # doctest: +NORMALIZE_WHITESPACE
+    top-down against bottom-up: the parents' plans add up to 330, their children's own plans to 322 (+2.5 %)
+      f=A: +4.5 % (+10); largest gaps 2027-04-04 +8.3 %, 2027-04-11 0.0 %
+      f=B: -2.0 % (-2); largest gaps 2027-04-11 -3.8 %, 2027-04-04 0.0 %
+    (gap: a parent's plan minus the sum of its children's own plans, in % of that sum; per child and period
+    the plan file has own_plan beside plan)
+    """
+    if gaps.empty:
+        return []
+    top, bottom = float(gaps["top_down"].sum()), float(gaps["bottom_up"].sum())
+    lines = [f"top-down against bottom-up: the parents' plans add up to {amount(top)}, their children's own "
+             f"plans to {amount(bottom)} ({_pct(top, bottom)})"]
+    by = gaps.groupby(parent_keys, sort=False)
+    sums = by[["top_down", "bottom_up"]].sum()
+    size = (sums["top_down"] - sums["bottom_up"]).abs() / sums["bottom_up"].where(sums["bottom_up"] > 0)
+    order = size.fillna(np.inf).sort_values(ascending=False, kind="stable").index[:listed]
+    for key in order:
+        parts = key if isinstance(key, tuple) else (key,)
+        rows = by.get_group(parts)
+        worst = rows.iloc[np.argsort(-rows["gap_pct"].abs().fillna(np.inf).to_numpy(), kind="stable")]
+        named = ", ".join(f"{c}={v}" for c, v in zip(parent_keys, parts, strict=True))
+        t, b = float(sums.loc[key, "top_down"]), float(sums.loc[key, "bottom_up"])
+        shown = ", ".join(f"{pd.Timestamp(r.date):%Y-%m-%d} {_signed(r.gap_pct)}"
+                          for r in worst.head(periods).itertuples(index=False))
+        lines.append(f"  {named}: {_pct(t, b, amount(t - b, sign=True))}; largest gaps {shown}")
+    more = len(sums) - len(order)
+    what = ("gap: a parent's plan minus the sum of its children's own plans, in % of that sum; per child and "
+            "period the plan file has own_plan beside plan)")
+    lines.append(f"({more} more parents; {what}" if more else f"({what}")
+    return lines
+
+
+def _signed(pct: float) -> str:
+    """A percentage with its sign (``0.0 %`` without one), or ``n/a``."""
+    if not np.isfinite(pct):
+        return "n/a"
+    return "0.0 %" if round(pct, 1) == 0 else f"{pct:+.1f} %"
+
+
+def _pct(top: float, bottom: float, units: str | None = None) -> str:
+    """``top`` against ``bottom`` in % of ``bottom`` (with ``units`` in brackets)."""
+    pct = 100.0 * (top - bottom) / bottom if bottom > 0 else float("nan")
+    return _signed(pct) + (f" ({units})" if units is not None else "")

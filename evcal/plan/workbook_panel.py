@@ -30,7 +30,7 @@ from openpyxl.utils import get_column_letter
 
 from evcal._files import atomic_path
 from evcal.formula_safe import workbook_text
-from evcal.plan.workbook import UNITS_FORMAT, new_workbook, notes_sheet, write_table
+from evcal.plan.workbook import PCT_FORMAT, UNITS_FORMAT, new_workbook, notes_sheet, write_table
 from evcal.plan.workbook_plan import is_amount, readable
 
 __all__ = ["PANEL_SHEETS", "write_panel_workbook"]
@@ -43,8 +43,14 @@ _ABOUT = (
     "above the headers holds the codes of plan.csv, lift:<event>) is its contribution in units; low and "
     "high bound the plan's interval. The last row totals the rows shown: filter to a series and it is "
     "that series' total. The line above the table says how the plan was made; a target is changed by "
-    "planning again (evcal plan --total or --totals), not in the sheet."
+    "planning again (evcal plan --total or --totals), not in the sheet. An allocated plan (evcal plan "
+    "--allocate) adds share (the child's share of its parent's plan in the period) and own_plan (the child's "
+    "own plan before allocation, bottom-up): filter to one parent and the total row sets its top-down plan "
+    "beside the sum of its children's own plans."
 )
+#: an allocated plan's columns: each child's own plan (totalled like the amounts) and its share (a fraction);
+#: the names of :mod:`evcal.panel.rollup`, which comes after this step
+OWN_PLAN, SHARE = "own_plan", "share"
 
 
 def write_panel_workbook(out_xlsx: str | Path, table: pd.DataFrame, labels: dict[str, str],
@@ -77,7 +83,10 @@ def write_panel_workbook(out_xlsx: str | Path, table: pd.DataFrame, labels: dict
     total_row = last + 1
     ws.cell(total_row, 1, "Total").font = Font(bold=True)
     for j, c in enumerate(columns, start=1):
-        if not is_amount(c) or last < first:
+        if c == SHARE:
+            for row in range(first, last + 1):
+                ws.cell(row, j).number_format = PCT_FORMAT
+        if not (is_amount(c) or c == OWN_PLAN) or last < first:
             continue
         ref = f"{get_column_letter(j)}{first}:{get_column_letter(j)}{last}"
         cell = ws.cell(total_row, j, f"=SUBTOTAL(109,{ref})")  # 109: the sum of the rows a filter shows

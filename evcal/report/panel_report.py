@@ -7,8 +7,9 @@ a key, else the first :data:`SHOWN_BY_DEFAULT` fitted ones) gets the single-mode
 the panel folder's long tables filtered by the series' key: nothing is fitted again.
 
 With a panel plan (``evcal plan PANEL_DIR ... --out plan.csv``) the overview lists every planned
-series' plan total (its share of the panel and what its events add) and each series shown gets the
-single model's plan section, from its own rows of the plan.
+series' plan total (its share of the panel and what its events add; for an allocated plan also its
+own plan before allocation and the gap between the two) and each series shown gets the single
+model's plan section, from its own rows of the plan.
 
 Examples
 --------
@@ -31,6 +32,7 @@ from evcal.errors import ModelError
 from evcal.model.inputs import calendar_terms
 from evcal.panel import PanelResult, load_panel
 from evcal.panel.result import key_mask
+from evcal.panel.rollup import OWN_PLAN
 from evcal.panel.summary import lift_distribution
 from evcal.report.context import ReportContext
 from evcal.report.formatting import freq_words, num, pct
@@ -226,11 +228,16 @@ def read_panel_plan(path: str | Path, panel: PanelResult) -> pd.DataFrame:
 
 
 def plan_overview(panel: PanelResult, plan: pd.DataFrame, path: Path) -> dict[str, Any]:
-    """Every planned series' plan total, its share of the panel and what its events add, largest first."""
+    """Every planned series' plan total, its share of the panel and what its events add, largest first.
+
+    An allocated plan (``own_plan``: each child's own plan before allocation) also gets each series'
+    own plan total and how far the allocated plan is from it (top-down against bottom-up).
+    """
     cols = panel.key_cols
     lifts = [c for c in plan.columns if str(c).startswith("lift:")]
+    allocated = OWN_PLAN in plan.columns
     per = plan.assign(events=plan[lifts].sum(axis=1) if lifts else 0.0)
-    sums = per.groupby(cols, sort=False)[["plan", "base", "events"]].sum()
+    sums = per.groupby(cols, sort=False)[["plan", "base", "events", *([OWN_PLAN] if allocated else [])]].sum()
     sums["periods"] = per.groupby(cols, sort=False).size()
     sums = sums.sort_values("plan", ascending=False, kind="stable")
     total = float(sums["plan"].sum())
@@ -244,6 +251,12 @@ def plan_overview(panel: PanelResult, plan: pd.DataFrame, path: Path) -> dict[st
     ]
     notes = sorted({n for n in plan.get("note", pd.Series(dtype=str)) if n})
     lines += [f"Note: {n}" for n in notes]
+    if allocated:
+        own = float(sums[OWN_PLAN].sum())
+        lines.append(f"Allocated top-down: the series' own plans (bottom-up) add up to {num(own)} units, the "
+                     f"allocated plans to {num(total)} ({_against(total, own)}). The last column is each "
+                     "series' allocated plan against its own; the summary of evcal plan names "
+                     "each parent's largest gaps by period.")
     lines.append("Plans are estimates: each series' periods carry their own low-high band in its section "
                  "(the series' bands do not add up to a band for the panel).")
     listed = sums.head(PLAN_LISTED)
@@ -255,12 +268,19 @@ def plan_overview(panel: PanelResult, plan: pd.DataFrame, path: Path) -> dict[st
             pct(100.0 * r.plan / total if total else np.nan, sign=False),
             num(r.base),
             num(r.events, sign=True),
+            *([num(getattr(r, OWN_PLAN)), _against(r.plan, getattr(r, OWN_PLAN))] if allocated else []),
         ]
         for k, r in zip(listed.index, listed.itertuples(index=False), strict=True)
     ]
     headers = ["series", "periods", "plan total", "share of the panel", "base (no events)", "events add"]
-    return {"lines": lines, "table": table(headers, rows, numeric=range(1, 6)),
+    headers += ["own plan (before allocation)", "allocated against own"] if allocated else []
+    return {"lines": lines, "table": table(headers, rows, numeric=range(1, len(headers))),
             "more": max(len(sums) - PLAN_LISTED, 0)}
+
+
+def _against(plan: float, own: float) -> str:
+    """An allocated plan against the series' own plan, in % of the own plan."""
+    return pct(100.0 * (plan / own - 1) if own > 0 else np.nan)
 
 
 def series_model(panel: PanelResult) -> dict[str, Any]:

@@ -238,3 +238,23 @@ def test_missing_grouping_column_names_the_option_that_asked_for_it(tmp_path):
                                   "product", option, "region"])
         _bad(res, out, "long.parquet", "no grouping column 'region'", "name the grouping column with "
              "--level or --group-col")
+
+
+def test_plan_names_its_file_when_series_are_planned_alone(tmp_path):
+    """The last line names the file written, also when some series are planned one by one.
+
+    Found on real data (Chicago station ridership by area, every series sent to the per-series fit):
+    the list of series planned alone took the name meant for the output, so the command ended with
+    "wrote area=downtown; area=outlying" instead of the file's name.
+    """
+    hist, cal = _files(tmp_path, _long(n_items=2))
+    model = tmp_path / "model"
+    res = runner.invoke(app, ["fit", str(hist), "-c", str(cal), "--out", str(model),
+                              "--series-col", "product", "--errors", "arima"])  # ARIMA: each planned alone
+    assert res.exit_code == 0, res.output
+    out = tmp_path / "plan.csv"
+    res = runner.invoke(app, ["plan", str(model), "--from", "2024-01-01", "--to", "2024-03-31", "--sims", "0",
+                              "--out", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "one by one" in res.output  # the case of the bug: some series planned alone
+    assert res.output.strip().splitlines()[-1].startswith(f"wrote {out} (")

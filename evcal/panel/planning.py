@@ -245,9 +245,14 @@ def plan_panel_cmd(model_dir: str, start: str, end: str, out: str, echo: Callabl
     echo(f"planned {n_series} series, {table['date'].nunique()} periods each; total "
          f"{amount(float(np.nansum(table['plan'].to_numpy(dtype=float))))}")
     if alone and kwargs.get("total") is None and kwargs.get("totals") is None:  # a target: one series, alone
-        shown = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
-        echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series error "
-             f"models, or a block fit that broke down): {shown}{' ...' if len(alone) > 5 else ''}")
+        listed = "; ".join(", ".join(f"{c}={k[c]}" for c in k) for k in alone[:5])
+        more = " ..." if len(alone) > 5 else ""
+        if kwargs.get("allocate"):  # the series planned alone are parents; the table holds their children
+            echo(f"{len(alone)} parent series planned one by one (per-series error models, or a block fit "
+                 f"that broke down): {listed}{more}")
+        else:
+            echo(f"{n_series - len(alone)} series planned in blocks, {len(alone)} one by one (per-series "
+                 f"error models, or a block fit that broke down): {listed}{more}")
     for note in notes:
         echo(f"Note: {note}")
     if kwargs.get("allocate"):

@@ -1,0 +1,138 @@
+"""The parts of ``evcal explain`` everywhere a planner looks (issue 19 part 4): the workbook's Parts sheet,
+the report's "What makes the plan" section, panel folders, the shared plan options.
+
+Models: the bundled demo (invented Fernhollow data: a log model with ARIMA(1,0,1) errors, a level shift,
+closures, an assumed lift) and the invented two-store file of ``docs/examples/stores.py``. The references
+are the plan itself (the Plan sheet's amount, plan.csv's number: the parts must add up to them),
+``evcal explain`` (the report and the sheet must show its parts, one computation) and the single model of
+a panel series rebuilt from the panel folder. The spreadsheet checks open the workbook in LibreOffice Calc
+with recalculation on load (the helper of tests/test_workbook_planner.py) and read what Calc computed.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from openpyxl import load_workbook
+from typer.testing import CliRunner
+
+import evcal
+from evcal.cli import app
+from evcal.demo import CALENDAR, DEMO_DATA, HISTORY
+from evcal.plan import make_plan
+from evcal.plan.explain import plan_part_frame
+
+runner = CliRunner()
+YEAR = ("2027-01-01", "2027-12-31")
+
+
+@pytest.fixture(scope="module")
+def demo_model(tmp_path_factory: pytest.TempPathFactory) -> str:
+    folder = tmp_path_factory.mktemp("demo") / "model"
+    evcal.fit(str(DEMO_DATA / HISTORY), str(DEMO_DATA / CALENDAR)).save(folder)
+    return str(folder)
+
+
+def parts_sheet(path: Path, values: bool = False) -> tuple[pd.DataFrame, list[str]]:
+    """The Parts sheet's periods as a frame (by header) and its kinds row."""
+    ws = load_workbook(path, data_only=values)["Parts"]
+    rows = [[c.value for c in row] for row in ws.iter_rows()]
+    at = next(i for i, r in enumerate(rows) if r[0] == "date")
+    frame = pd.DataFrame(rows[at + 1:], columns=rows[at])
+    return frame, rows[at - 1]
+
+
+def plan_sheet_amounts(path: Path) -> pd.Series:
+    """The Plan sheet's ``plan`` column as Calc computed it, by date."""
+    ws = load_workbook(path, data_only=True)["Plan"]
+    rows = [[c.value for c in row] for row in ws.iter_rows()]
+    at = next(i for i, r in enumerate(rows) if r[0] == "date")  # the hidden codes row
+    frame = pd.DataFrame(rows[at + 2:], columns=rows[at])
+    frame = frame[frame["date"] != "Total"]
+    return pd.Series(frame["plan"].astype(float).to_numpy(), index=pd.to_datetime(frame["date"]))
+
+
+# ---------------------------------------------------------------- the workbook's Parts sheet
+
+
+@pytest.mark.parametrize("rounded", [False, True])
+def test_parts_sheet_holds_the_explain_parts_of_every_period(demo_model: str, rounded: bool,
+                                                             tmp_path: Path) -> None:
+    result = evcal.load_model(demo_model)
+    plan = make_plan(result, *YEAR, total=210_000, n_sims=0, whole_units=rounded)
+    out = plan.save(tmp_path / "plan.xlsx")
+    frame, kinds = parts_sheet(out)
+    body = frame[frame["date"] != "Total"]
+    assert len(body) == len(plan.table)
+    parts, part_kinds = plan_part_frame(plan)
+    model_parts = [c for c in parts.columns if part_kinds[c] not in ("target", "rounding")]
+    # the static parts are explain's own, before the target (one computation)
+    np.testing.assert_allclose(body[model_parts].astype(float).to_numpy(), parts[model_parts].to_numpy(),
+                               rtol=1e-12)
+    assert kinds[1:3] == ["base", "base"] and "target" in kinds and ("rounding" in kinds) == rounded
+    # the lines that follow the target are formulas on the Plan sheet's factor and amounts
+    assert str(body["spread to the target"].iat[0]).startswith("=(factor-1)*SUM(")
+    assert str(body["Plan sheet"].iat[0]).startswith("=Plan!C")
+    # as written, the parts times the factor are the spread plan (to the cent; whole units: within a unit)
+    factor = next(iter(plan.factors.values()))
+    spread = body[model_parts].astype(float).sum(axis=1).to_numpy() * factor
+    tol = 1.0 if rounded else 0.005
+    assert np.abs(spread - plan.table["plan"].to_numpy(dtype=float)).max() <= tol
+    wb = load_workbook(out)
+    about = " ".join(str(c.value) for row in wb["Parts"].iter_rows(max_row=2) for c in row if c.value)
+    assert "Shapley" in about and "before the spread to the target" in about
+
+
+def test_plans_without_parts_get_no_parts_sheet(demo_model: str, tmp_path: Path) -> None:
+    """A year-to-date re-plan is not split: no Parts sheet, and the Notes sheet says why."""
+    result = evcal.load_model(demo_model)
+    history = pd.read_csv(DEMO_DATA / HISTORY)
+    plan = make_plan(result, "2027-04-01", "2027-12-31", total=210_000, n_sims=0,
+                     actuals=history.assign(date=pd.to_datetime(history["date"]) + pd.Timedelta(days=364))
+                     .query("'2027-01-01' <= date < '2027-04-01'"))
+    wb = load_workbook(plan.save(tmp_path / "ytd.xlsx"))
+    assert "Parts" not in wb.sheetnames
+    notes = " ".join(str(c.value) for c in wb["Notes"]["A"])
+    assert "not split" in notes
+
+
+def test_plan_over_its_own_workbook_with_parts_is_allowed(demo_model: str, tmp_path: Path) -> None:
+    out = tmp_path / "plan.xlsx"
+    args = ["plan", demo_model, *["--from", YEAR[0], "--to", YEAR[1]], "--sims", "0", "--out", str(out)]
+    assert runner.invoke(app, args).exit_code == 0
+    again = runner.invoke(app, args)
+    assert again.exit_code == 0, again.output  # its own workbook (with Parts) is recognised and replaced
+    assert "Parts" in load_workbook(out).sheetnames
+
+
+@pytest.fixture(scope="module")
+def calc_books(demo_model: str, tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
+    """Plan workbooks as Calc computes them: as written, and after a new target typed in."""
+    from test_workbook_planner import recalculated, with_target
+
+    tmp = tmp_path_factory.mktemp("calc-parts")
+    result = evcal.load_model(demo_model)
+    plain = make_plan(result, *YEAR, total=210_000, n_sims=0).save(tmp / "plain.xlsx")
+    whole = make_plan(result, *YEAR, total=210_000, n_sims=0, whole_units=True).save(tmp / "whole.xlsx")
+    done = recalculated([plain, with_target(plain, 250_000.0), whole, with_target(whole, 199_999.0)], tmp)
+    return {"plain": done["plain.xlsx"], "plain 250000": done["changed-plain.xlsx"],
+            "whole": done["whole.xlsx"], "whole 199999": done["changed-whole.xlsx"]}
+
+
+@pytest.mark.parametrize("book", ["plain", "plain 250000", "whole", "whole 199999"])
+def test_calc_parts_add_up_to_the_plan_sheet_per_period(calc_books: dict[str, Path], book: str) -> None:
+    frame, _ = parts_sheet(calc_books[book], values=True)
+    body = frame[frame["date"] != "Total"]
+    check = body["sum of parts"].astype(float).to_numpy()
+    plan = plan_sheet_amounts(calc_books[book]).to_numpy()
+    assert np.abs(check - plan).max() < 0.005  # to the cent, every period
+    assert np.abs(body["Plan sheet"].astype(float).to_numpy() - plan).max() < 1e-9
+    target = {"plain": 210_000.0, "plain 250000": 250_000.0, "whole": 210_000.0,
+              "whole 199999": 199_999.0}[book]
+    if book.startswith("plain"):  # a new target: the parts' total follows it exactly
+        assert float(frame["sum of parts"].iat[-1]) == pytest.approx(target, rel=1e-12)
+    else:  # whole units: each period rounded, so the total misses by at most half a unit a period
+        assert abs(float(frame["sum of parts"].iat[-1]) - target) <= 0.5 * len(body)

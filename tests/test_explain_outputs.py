@@ -136,3 +136,70 @@ def test_calc_parts_add_up_to_the_plan_sheet_per_period(calc_books: dict[str, Pa
         assert float(frame["sum of parts"].iat[-1]) == pytest.approx(target, rel=1e-12)
     else:  # whole units: each period rounded, so the total misses by at most half a unit a period
         assert abs(float(frame["sum of parts"].iat[-1]) - target) <= 0.5 * len(body)
+
+
+# ---------------------------------------------------------------- the report's "What makes the plan"
+
+
+def _section(model: str, plan_csv: Path, calendar: object = None) -> dict:
+    from evcal.report.context import ReportContext
+    from evcal.report.explain_sections import explain_section
+    from evcal.report.model_folder import read_model_folder
+
+    return explain_section(ReportContext(read_model_folder(model, plan_csv=plan_csv), calendar))
+
+
+def _units(text: str) -> float:
+    return float(text.replace("−", "-").replace(",", "").replace("+", ""))
+
+
+@pytest.mark.parametrize("options", [["--total", "210000"], ["--total", "210000", "--round"], []])
+def test_report_section_shows_the_explain_parts_of_the_peak(demo_model: str, options: list[str],
+                                                            tmp_path: Path) -> None:
+    plan_csv = tmp_path / "plan.csv"
+    args = ["plan", demo_model, "--from", YEAR[0], "--to", YEAR[1], "--sims", "0", "--out", str(plan_csv)]
+    assert runner.invoke(app, [*args, *options]).exit_code == 0
+    section = _section(demo_model, plan_csv)
+    assert "muted" not in section, section
+    file_plan = pd.read_csv(plan_csv)
+    peak = file_plan.loc[file_plan["plan"].idxmax()]
+    block = section["periods"][0]
+    assert block["title"].startswith("Busiest period")
+    rows = block["table"]["rows"]
+    assert rows[-1][0] == "= plan"
+    amounts = [_units(r[2]) for r in rows[:-1]]
+    assert round(sum(amounts), 2) == round(float(peak["plan"]), 2)  # they add up to the plan, to the cent
+    assert _units(rows[-1][2]) == round(float(peak["plan"]), 2)
+    # the same parts as evcal explain prints for that period (one computation)
+    r = runner.invoke(app, ["explain", demo_model, "--date", peak["date"], "--out", str(tmp_path / "e.csv"),
+                            "--from", YEAR[0], "--to", YEAR[1], *options])
+    assert r.exit_code == 0, r.output
+    parts = pd.read_csv(tmp_path / "e.csv")
+    assert amounts == pytest.approx(parts["amount"].tolist(), abs=1e-9)
+    assert [row[1] for row in rows[:-1]] == parts["kind"].tolist()
+    assert ("spread to the target" in parts["part"].tolist()) == bool(options)
+    assert block["figure"]["uri"].startswith("data:image/png;base64,")
+    assert "add up to the plan" in block["sum"]
+
+
+def test_report_section_says_so_when_the_file_is_not_the_models_plan(demo_model: str, tmp_path: Path) -> None:
+    plan_csv = tmp_path / "plan.csv"
+    args = ["plan", demo_model, "--from", YEAR[0], "--to", YEAR[1], "--sims", "0", "--out", str(plan_csv)]
+    assert runner.invoke(app, [*args, "--total", "210000"]).exit_code == 0
+    edited = pd.read_csv(plan_csv)
+    edited.loc[3, "plan"] += 250.0  # a planner's hand edit: no longer a plan of this model
+    edited.to_csv(plan_csv, index=False)
+    section = _section(demo_model, plan_csv)
+    assert "could not be made again" in section["muted"]
+
+
+def test_report_page_has_the_section(demo_model: str, tmp_path: Path) -> None:
+    plan_csv = tmp_path / "plan.csv"
+    args = ["plan", demo_model, "--from", YEAR[0], "--to", YEAR[1], "--sims", "0", "--out", str(plan_csv)]
+    assert runner.invoke(app, [*args, "--total", "210000"]).exit_code == 0
+    r = runner.invoke(app, ["report", demo_model, "--plan", str(plan_csv), "--out", str(tmp_path / "r.html")])
+    assert r.exit_code == 0, r.output
+    page = (tmp_path / "r.html").read_text()
+    assert 'id="explain"' in page and "What makes the plan" in page and "to the cent" in page
+    bare = runner.invoke(app, ["report", demo_model, "--out", str(tmp_path / "bare.html")])
+    assert bare.exit_code == 0 and 'id="explain"' not in (tmp_path / "bare.html").read_text()

@@ -203,3 +203,80 @@ def test_report_page_has_the_section(demo_model: str, tmp_path: Path) -> None:
     assert 'id="explain"' in page and "What makes the plan" in page and "to the cent" in page
     bare = runner.invoke(app, ["report", demo_model, "--out", str(tmp_path / "bare.html")])
     assert bare.exit_code == 0 and 'id="explain"' not in (tmp_path / "bare.html").read_text()
+
+
+# ---------------------------------------------------------------- panel folders
+
+KEY = "product=P0042,store=S07"
+
+
+@pytest.fixture(scope="module")
+def panel_model(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The invented six-series panel of docs/examples/stores.py (made from the demo's history), fitted."""
+    import os
+    import runpy
+    import shutil
+
+    tmp = tmp_path_factory.mktemp("panel")
+    (tmp / "demo-output").mkdir()
+    shutil.copy(DEMO_DATA / HISTORY, tmp / "demo-output" / "fernhollow-history.csv")
+    here = os.getcwd()
+    os.chdir(tmp)
+    try:
+        runpy.run_path(str(Path(__file__).resolve().parents[1] / "docs" / "examples" / "stores.py"))
+    finally:
+        os.chdir(here)
+    r = runner.invoke(app, ["fit", str(tmp / "sales.parquet"), "--series-col", "product,store", "--calendar",
+                            str(DEMO_DATA / CALENDAR), "--out", str(tmp / "all")])
+    assert r.exit_code == 0, r.output
+    return tmp / "all"
+
+
+@pytest.mark.parametrize("args", [
+    ["--date", "2027-05-09", "--from", YEAR[0], "--to", YEAR[1], "--total", "30000"],
+    ["--date", "2027-12-26"],
+    ["--date", "2024-03-31"],  # a past period: actual, fitted parts and residual
+])
+def test_panel_series_is_explained_as_its_own_model(panel_model: Path, args: list[str],
+                                                    tmp_path: Path) -> None:
+    from evcal.panel import load_panel
+
+    single = tmp_path / "single"
+    load_panel(panel_model).series_result(KEY).save(single)  # the series' single model, rebuilt
+    a = runner.invoke(app, ["explain", str(panel_model), "--series", KEY, *args, "--out",
+                            str(tmp_path / "a.csv")])
+    b = runner.invoke(app, ["explain", str(single), *args, "--out", str(tmp_path / "b.csv")])
+    assert a.exit_code == 0 and b.exit_code == 0, a.output + b.output
+    pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "a.csv"), pd.read_csv(tmp_path / "b.csv"))
+    assert a.output.split("\nwrote")[0] == b.output.split("\nwrote")[0]
+
+
+def test_panel_number_is_the_panel_plans(panel_model: Path, tmp_path: Path) -> None:
+    """evcal plan PANEL --series KEY --total T writes the number explain PANEL --series KEY splits."""
+    opts = ["--from", YEAR[0], "--to", YEAR[1], "--total", "30000"]
+    p = runner.invoke(app, ["plan", str(panel_model), "--series", KEY, "--sims", "0", "--out",
+                            str(tmp_path / "plan.csv"), *opts])
+    assert p.exit_code == 0, p.output
+    plan = pd.read_csv(tmp_path / "plan.csv").set_index("date")["plan"]
+    for day in ("2027-05-09", "2027-10-03"):
+        r = runner.invoke(app, ["explain", str(panel_model), "--series", KEY, "--date", day, "--out",
+                                str(tmp_path / "e.csv"), *opts])
+        assert r.exit_code == 0, r.output
+        assert round(pd.read_csv(tmp_path / "e.csv")["amount"].sum(), 2) == round(plan.loc[day], 2)
+
+
+@pytest.mark.parametrize(("where", "args", "words"), [
+    ("panel", ["--date", "2027-05-09"], "6 fitted series; name the one to explain"),
+    ("panel", ["--date", "2027-05-09", "--series", "product=P9999,store=S07"], "no such series"),
+    ("panel", ["--date", "2027-05-09", "--series", KEY, "--drivers", "d.csv"], "outside drivers"),
+    ("single", ["--date", "2027-05-09", "--series", KEY], "single-series model folder"),
+])
+def test_panel_refusals_are_one_line(panel_model: Path, demo_model: str, where: str, args: list[str],
+                                     words: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.chdir(tmp_path)
+    folder = str(panel_model) if where == "panel" else demo_model
+    r = runner.invoke(app, ["explain", folder, *args])
+    assert r.exit_code == 2, r.output
+    lines = [line for line in r.output.splitlines() if line.strip()]
+    assert len(lines) == 1 and words in lines[0] and "Traceback" not in r.output, r.output
+    assert list(tmp_path.iterdir()) == []  # nothing written

@@ -280,3 +280,22 @@ def test_panel_refusals_are_one_line(panel_model: Path, demo_model: str, where: 
     lines = [line for line in r.output.splitlines() if line.strip()]
     assert len(lines) == 1 and words in lines[0] and "Traceback" not in r.output, r.output
     assert list(tmp_path.iterdir()) == []  # nothing written
+
+
+# ---------------------------------------------------------------- one definition of the plan options
+
+
+def test_plan_options_of_explain_read_as_plans() -> None:
+    """The options that shape a plan number (evcal.cli.options) read the same in explain as in plan."""
+    import typer
+
+    commands = typer.main.get_command(app).commands  # type: ignore[attr-defined]
+    flags = ("--from", "--to", "--calendar", "--total", "--totals", "--round", "--drivers", "--new-events")
+
+    def declared(name: str) -> dict[str, tuple]:
+        return {p.opts[0]: (tuple(p.opts), p.help, p.default if p.opts[0] not in ("--from", "--to") else None)
+                for p in commands[name].params if p.opts and p.opts[0] in flags}
+
+    explain, plan = declared("explain"), declared("plan")
+    assert set(explain) == set(flags)
+    assert explain == {f: plan[f] for f in flags}

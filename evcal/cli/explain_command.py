@@ -15,7 +15,17 @@ import typer
 
 from evcal.cli import talk
 from evcal.cli.console import command
-from evcal.cli.options import Force
+from evcal.cli.options import (
+    Force,
+    NewEvents,
+    PlanCalendar,
+    PlanDrivers,
+    PlanFrom,
+    PlanTo,
+    RoundUnits,
+    Total,
+    Totals,
+)
 from evcal.errors import PlanError
 from evcal.outputs import check_output
 
@@ -28,21 +38,16 @@ def explain_cmd(
     date: str = typer.Option(..., "--date", help="A day of the period to explain, e.g. 2027-05-09."),
     series: str | None = typer.Option(
         None, "--series", help="Panel models: the series to explain, e.g. product=P0042,store=S07."),
-    start: str | None = typer.Option(
-        None, "--from", help="First day of the plan the period belongs to (needed with a target, --round)."),
-    end: str | None = typer.Option(None, "--to", help="Last day of that plan."),
+    start: PlanFrom = None,
+    end: PlanTo = None,
     out: str | None = typer.Option(
         None, "--out", "-o", help="explain.csv: the parts as a table; - prints it as CSV on stdout."),
-    calendar: str | None = typer.Option(
-        None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
-    total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
-    totals: str | None = typer.Option(None, "--totals", help="CSV of targets: year,total."),
-    new_events: str = typer.Option("error", "--new-events", help="error | zero: events the model never saw."),
-    drivers: str | None = typer.Option(
-        None, "--drivers",
-        help="Outside drivers' future values: a file with a date column and one column per driver."),
-    round_units: bool = typer.Option(
-        False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
+    calendar: PlanCalendar = None,
+    total: Total = None,
+    totals: Totals = None,
+    new_events: NewEvents = "error",
+    drivers: PlanDrivers = None,
+    round_units: RoundUnits = False,
     force: Force = False,
 ) -> None:
     """Split one period's plan (or past actual) into trend, season, level shifts, events, closures and

@@ -223,7 +223,7 @@ def panel_model(tmp_path_factory: pytest.TempPathFactory) -> Path:
     here = os.getcwd()
     os.chdir(tmp)
     try:
-        runpy.run_path(str(Path(__file__).resolve().parents[1] / "docs" / "examples" / "stores.py"))
+        runpy.run_path(str(Path(evcal.__file__).resolve().parents[1] / "docs" / "examples" / "stores.py"))
     finally:
         os.chdir(here)
     r = runner.invoke(app, ["fit", str(tmp / "sales.parquet"), "--series-col", "product,store", "--calendar",

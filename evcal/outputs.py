@@ -80,6 +80,12 @@ def _csv_kind(head: str) -> str | None:
     return _CSV_HEADERS.get(cols)
 
 
+#: a plan's workbook with its Parts sheet (evcal.plan.workbook_parts: each period's parts)
+_WORKBOOK_SHEETS.update({("Plan", "Lifts", "Seasonal index", "Past occurrences", "Parts", "Notes"): "plan",
+                         ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Parts", "Notes"):
+                         "plan"})
+
+
 def _workbook_kind(path: Path) -> str | None:
     try:
         with zipfile.ZipFile(path) as book:

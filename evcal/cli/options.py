@@ -11,7 +11,8 @@ from evcal.errors import EvcalError
 
 __all__ = ["ArimaOrder", "Db", "DateCol", "Driver", "Errors", "Force", "FourierOrder", "Freq", "LeapYear",
            "Seasonal", "Sql", "TradingDays", "Transform", "TrendOrder", "ValueCol", "AllowNegative",
-           "fit_options", "history_source", "parse_fourier_order", "parse_order", "query_inputs"]
+           "fit_options", "history_source", "parse_fourier_order", "parse_order", "query_inputs",
+           "PlanFrom", "PlanTo", "PlanCalendar", "Total", "Totals", "NewEvents", "PlanDrivers", "RoundUnits"]
 
 
 DateCol = Annotated[str, typer.Option("--date-col", help="Column with the period dates.")]
@@ -111,3 +112,21 @@ def parse_fourier_order(text: int | str) -> int | str:
     except ValueError:
         raise EvcalError(f"option --fourier-order: {text!r} is not a whole number or auto (e.g. 10, or "
                          "auto: chosen by AICc)") from None
+
+
+# ---------------------------------------------------------------- the options that shape a plan's number
+# (evcal plan, evcal explain: a number explained is the number the plan with the same options writes)
+
+PlanFrom = Annotated[str | None, typer.Option(
+    "--from", help="First day (or year) of the plan, e.g. 2027-01-01.")]
+PlanTo = Annotated[str | None, typer.Option("--to", help="Last day (or year) of the plan, e.g. 2027-12-31.")]
+PlanCalendar = Annotated[str | None, typer.Option(
+    "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one.")]
+Total = Annotated[str | None, typer.Option("--total", help="Target total for the whole horizon.")]
+Totals = Annotated[str | None, typer.Option(
+    "--totals", help="CSV of targets: year,total; panels: key columns, total, optional year.")]
+NewEvents = Annotated[str, typer.Option("--new-events", help="error | zero: events the model never saw.")]
+PlanDrivers = Annotated[str | None, typer.Option(
+    "--drivers", help="Outside drivers' future values: a file with a date column and one column per driver.")]
+RoundUnits = Annotated[bool, typer.Option(
+    "--round", help="Whole units: integers adding up exactly to the target (largest remainder).")]

@@ -172,14 +172,15 @@ def _kind(result: Any, name: str, h: Any = None) -> str:
     return "event"
 
 
-def plan_part_frame(plan: Any, calendar: Any = None, new_events: str = "error",
+def plan_part_frame(plan: Any, calendar: Any = None, new_events: str | None = None,
                     ) -> tuple[pd.DataFrame, dict[str, str]]:
     """Every period's parts in units (periods × parts, adding up to the plan's ``plan`` column) and each
     part's kind.
 
-    ``plan`` is a :class:`~evcal.plan.result.Plan` from :func:`evcal.plan.make_plan`, made with
-    ``calendar`` and ``new_events`` (the design and schedule are rebuilt from them, as
-    :func:`evcal.plan.build.plan_periods` built them). A year-to-date re-plan is not split.
+    ``plan`` is a :class:`~evcal.plan.result.Plan` from :func:`evcal.plan.make_plan`; the design and
+    schedule are rebuilt as :func:`evcal.plan.build.plan_periods` built them, from the calendar and
+    ``new_events`` the plan records (``calendar``, ``new_events``: the ones it was made with, for a plan
+    that does not record them). A year-to-date re-plan is not split.
     """
     from evcal.model.inputs import load_calendar_any
 
@@ -187,6 +188,10 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str = "error",
         raise PlanError("explain: a year-to-date re-plan (--actuals) is not split into parts; explain the "
                         "plan without --actuals")
     result, periods = plan.result, plan.periods
+    if calendar is None:
+        calendar = getattr(plan, "calendar", None)
+    if new_events is None:
+        new_events = getattr(plan, "new_events", "error")
     cal = result.calendar if calendar is None else load_calendar_any(calendar)
     h = horizon(result, cal, periods, new_events)
     err, smear = error_and_smear(result, periods)
@@ -243,7 +248,7 @@ def _parts_table(values: dict[str, float], kinds: dict[str, str], words: dict[st
                          "share_pct": np.round(share, 2), "what": [words.get(k, "") for k in names]})
 
 
-def explain_plan(plan: Any, date: Any, calendar: Any = None, new_events: str = "error") -> Explanation:
+def explain_plan(plan: Any, date: Any, calendar: Any = None, new_events: str | None = None) -> Explanation:
     """The plan's period holding ``date``, split into parts adding up to its number in the plan file.
 
     Raises

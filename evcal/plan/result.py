@@ -52,6 +52,11 @@ class Plan:
         ``date, actual``: the periods of the plan's year before its start, as sold (a year-to-date
         re-plan, ``plan --actuals``); the plan is spread so that these plus ``table["plan"]`` meet
         the year's target. None for an ordinary plan.
+    calendar : Calendar or None
+        The plan calendar the plan was made with, and ``new_events`` what it did with events the
+        model never saw: what rebuilds the plan's design to split each period into its parts
+        (:func:`evcal.plan.explain.plan_part_frame`, the workbook's Parts sheet). None for a plan
+        built by hand.
     """
 
     table: pd.DataFrame
@@ -75,6 +80,8 @@ class Plan:
     future: dict[str, float] = field(default_factory=dict)
     whole_units: bool = False
     actuals: pd.DataFrame | None = None
+    calendar: Any = field(default=None, repr=False)
+    new_events: str = "error"
 
     @property
     def total(self) -> float:

@@ -33,6 +33,7 @@ from openpyxl.worksheet.worksheet import Worksheet
 
 from evcal._files import atomic_path
 from evcal.formula_safe import formula_safe_sheet, workbook_text
+from evcal.plan.workbook_parts import PARTS_SHEET, write_parts_sheet
 from evcal.plan.workbook_plan import PlanLayout, is_amount, write_plan_sheet
 
 CAUTION = (
@@ -89,16 +90,22 @@ def write_workbook(
     wb = new_workbook()
     labels = event_labels(lifts)
     plan = _with_date_column(plan)
+    cells = None
     if plan.empty and not len(plan.columns):
         _write_sheet(wb.create_sheet(SHEETS[0]), plan)
     else:
-        write_plan_sheet(wb.create_sheet(SHEETS[0]), plan, labels, layout)
+        cells = write_plan_sheet(wb.create_sheet(SHEETS[0]), plan, labels, layout)
     _write_sheet(wb.create_sheet(SHEETS[1]), lifts if lifts is not None else pd.DataFrame())
     _write_sheet(wb.create_sheet(SHEETS[2]), _dated_profile(profile, layout))
     _write_sheet(wb.create_sheet(SHEETS[3]), _with_date_column(occurrences))
     if drivers is not None and len(drivers):
         _write_sheet(wb.create_sheet("Drivers"), drivers)
-    _notes_sheet(wb.create_sheet("Notes"), notes or [])
+    notes = list(notes or [])
+    if layout is not None and layout.parts is not None and cells is not None:
+        write_parts_sheet(wb.create_sheet(PARTS_SHEET), plan, layout, cells)
+    elif layout is not None and layout.parts_note:  # a plan evcal could not split (a year-to-date re-plan)
+        notes.append(layout.parts_note)
+    _notes_sheet(wb.create_sheet("Notes"), notes, parts=layout is not None and layout.parts is not None)
     out = Path(out_xlsx)
     with atomic_path(out) as tmp:
         wb.save(tmp)
@@ -263,7 +270,7 @@ def _display_len(value: object) -> int:
     return len(str(value))
 
 
-def _notes_sheet(ws: Worksheet, plan_notes: list[str]) -> None:
+def _notes_sheet(ws: Worksheet, plan_notes: list[str], parts: bool = False) -> None:
     notes_sheet(ws, [
         "Plan: change the target (the yellow cell, named target; target_2027... when each year has its "
         "own) and every period re-spreads: each amount is its model value (the model columns) times the "
@@ -279,6 +286,10 @@ def _notes_sheet(ws: Worksheet, plan_notes: list[str]) -> None:
         "Seasonal index: the base profile over one cycle, mean 100; date is the period's date in the "
         "plan's first year.",
         "Past occurrences: what each past occurrence of an event added, in units and %.",
+        *(["Parts: each plan period split into trend, regular season, level shifts, error forecast, mean "
+           "correction, each event, driver and closure (in the model's units, before the target), then the "
+           "spread to the target and the rounding as formulas on the Plan sheet; sum of parts equals the "
+           "Plan sheet's amount, also after the target changes."] if parts else []),
     ], plan_notes)
 
 

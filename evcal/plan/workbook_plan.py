@@ -43,24 +43,43 @@ _INPUT_FILL = PatternFill("solid", fgColor="FFF2CC")
 _HEADER_FILL = PatternFill("solid", fgColor="1E2B2F")
 _HEADER_FONT = Font(bold=True, color="FFFFFF")
 _ROUNDING = {"low": "ROUNDDOWN", "high": "ROUNDUP"}
-#: every formula the Plan sheet writes, and nothing else (a calendar's text never becomes one)
+#: the sheets that hold formulas evcal writes: the Plan sheet and the Parts sheet that follows its target
+FORMULA_SHEETS = ("Plan", "Parts")
+_CELL, _FACTOR = r"[A-Z]{1,3}\d+", r"factor(?:_\d+)?"
+#: every formula the Plan and Parts sheets write, and nothing else (a calendar's text never becomes one)
 _OWN_FORMULA = re.compile(
-    r"=(?:(?:ROUND|ROUNDDOWN|ROUNDUP)\([A-Z]{1,3}\d+\*factor(?:_\d+)?,0\)|[A-Z]{1,3}\d+\*factor(?:_\d+)?"
-    r"|SUM\([A-Z]{1,3}\d+:[A-Z]{1,3}\d+\)|\(B\d+-F\d+\)/D\d+|B\d+/D\d+)")
+    rf"=(?:(?:ROUND|ROUNDDOWN|ROUNDUP)\({_CELL}\*{_FACTOR},0\)|{_CELL}\*{_FACTOR}"
+    rf"|SUM\({_CELL}:{_CELL}\)|\(B\d+-F\d+\)/D\d+|B\d+/D\d+"
+    # the Parts sheet (evcal.plan.workbook_parts): the spread line, the whole units, the Plan sheet's amount
+    rf"|\({_FACTOR}-1\)\*SUM\({_CELL}:{_CELL}\)|Plan!{_CELL}-{_FACTOR}\*SUM\({_CELL}:{_CELL}\)|Plan!{_CELL})")
 
 
 def is_own_formula(text: str) -> bool:
-    """Whether ``text`` is one of the formulas the Plan sheet writes (a cell reference times a factor,
-    a SUM of a range, a factor): any other formula in an evcal workbook would be text that leaked.
+    """Whether ``text`` is one of the formulas the Plan and Parts sheets write (a cell reference times a
+    factor, a SUM of a range, a factor, the Parts sheet's spread line and its reference to the Plan
+    sheet): any other formula in an evcal workbook would be text that leaked.
 
     Examples
     --------
     >>> is_own_formula("=ROUND(N5*factor,0)"), is_own_formula("=SUM(C5:C12)")
     (True, True)
+    >>> is_own_formula("=(factor_2027-1)*SUM(B5:H5)"), is_own_formula("=Plan!C5-factor*SUM(B5:H5)")
+    (True, True)
     >>> is_own_formula('=HYPERLINK("http://x.example","click")')
     False
     """
     return bool(_OWN_FORMULA.fullmatch(text))
+
+
+@dataclass
+class PlanCells:
+    """Where the Plan sheet put each period (for the Parts sheet's formulas): the sheet row of the first
+    plan period, the column letter of the spread ``plan``, and each period's factor name (``factor``,
+    ``factor_2027``...)."""
+
+    first_row: int
+    plan: str
+    factors: list[str]
 
 
 @dataclass
@@ -86,6 +105,9 @@ class PlanLayout:
     whole_units: bool = False
     actuals: pd.DataFrame | None = None
     season_dates: dict[int, pd.Timestamp] = field(default_factory=dict)
+    parts: pd.DataFrame | None = None
+    part_kinds: dict[str, str] = field(default_factory=dict)
+    parts_note: str = ""
 
 
 def plan_layout(plan: Any) -> PlanLayout:
@@ -110,8 +132,13 @@ def plan_layout(plan: Any) -> PlanLayout:
         for pos, date in zip(season_position(cycle), period_dates(cycle, plan.label), strict=True):
             if date.year == year:  # a week dated in the year next door is not this year's date
                 season_dates.setdefault(int(pos), date)
-    return PlanLayout(groups=groups, factors=factors, whole_units=bool(plan.whole_units),
-                      actuals=getattr(plan, "actuals", None), season_dates=season_dates)
+    layout = PlanLayout(groups=groups, factors=factors, whole_units=bool(plan.whole_units),
+                        actuals=getattr(plan, "actuals", None), season_dates=season_dates)
+    if getattr(plan, "calendar", None) is not None:  # a plan made by make_plan: its parts for the Parts sheet
+        from evcal.plan.workbook_parts import layout_parts
+
+        layout.parts, layout.part_kinds, layout.parts_note = layout_parts(plan)
+    return layout
 
 
 def is_amount(column: str) -> bool:
@@ -138,8 +165,9 @@ def readable(column: str, labels: dict[str, str]) -> str:
 
 
 def write_plan_sheet(ws: Worksheet, table: pd.DataFrame, labels: dict[str, str],
-                     layout: PlanLayout | None) -> None:
-    """Write ``table`` (the plan, ``date`` first) on ``ws`` with target cells and formulas."""
+                     layout: PlanLayout | None) -> PlanCells:
+    """Write ``table`` (the plan, ``date`` first) on ``ws`` with target cells and formulas; returns where
+    the periods are."""
     from evcal.plan.workbook import cell_value
 
     n = len(table)
@@ -261,3 +289,5 @@ def write_plan_sheet(ws: Worksheet, table: pd.DataFrame, labels: dict[str, str],
         ws.column_dimensions[get_column_letter(j)].width = min(max(w, 11), 40)
     ws.freeze_panes = ws.cell(header_row + 1, 2)
     ws.auto_filter.ref = f"A{header_row}:{get_column_letter(len(heads))}{last_plan}"
+    return PlanCells(first_row=first_plan, plan=letter("plan") if "plan" in col else "",
+                     factors=[f"factor{names[g]}" for g in groups])

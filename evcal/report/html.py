@@ -25,6 +25,7 @@ from evcal.errors import ModelError
 from evcal.plan.scenario_files import is_scenarios_file, read_scenario_tables
 from evcal.report.context import ReportContext
 from evcal.report.driver_sections import drivers_section
+from evcal.report.explain_sections import explain_section
 from evcal.report.formatting import freq_words
 from evcal.report.model_folder import ModelFolder, read_model_folder
 from evcal.report.model_sections import MODEL_SECTIONS, build_sections
@@ -39,6 +40,7 @@ SECTIONS = (
     *MODEL_SECTIONS,
     ("drivers", "Outside drivers", "drivers.html", drivers_section),
     ("plan", "The plan", "plan.html", plan_section),
+    ("explain", "What makes the plan", "explain.html", explain_section),
     ("calendar", "Calendar of the plan", "calendar.html", calendar_section),
     ("backtest", "Backtest", "backtest.html", backtest_section),
     ("notes", "Warnings and model", "notes.html", notes_section),

@@ -234,13 +234,14 @@ def _formula_cells(path: Path) -> list[str]:
     elif path.suffix.lower() == ".xlsx":
         import openpyxl
 
-        from evcal.plan.workbook_plan import is_own_formula
+        from evcal.plan.workbook_plan import FORMULA_SHEETS, is_own_formula
 
         wb = openpyxl.load_workbook(path, read_only=True)
         for ws in wb.worksheets:
             for row in ws.iter_rows():
                 for cell in row:
-                    own = ws.title == "Plan" and is_own_formula(str(cell.value))  # the plan's re-spread
+                    # the plan's re-spread and the parts that follow it
+                    own = ws.title in FORMULA_SHEETS and is_own_formula(str(cell.value))
                     if getattr(cell, "data_type", None) == "f" and not own:
                         found.append(f"{path.name} {ws.title}!{cell.coordinate}: {str(cell.value)[:60]!r}")
         wb.close()

@@ -8,7 +8,19 @@ import typer
 
 from evcal.cli import talk
 from evcal.cli.console import command
-from evcal.cli.options import DateCol, Force, ValueCol
+from evcal.cli.options import (
+    DateCol,
+    Force,
+    NewEvents,
+    PlanCalendar,
+    PlanDrivers,
+    PlanFrom,
+    PlanTo,
+    RoundUnits,
+    Total,
+    Totals,
+    ValueCol,
+)
 from evcal.errors import PlanError
 from evcal.outputs import check_output
 
@@ -18,15 +30,13 @@ __all__ = ["plan_cmd"]
 @command("plan")
 def plan_cmd(
     model_dir: str = typer.Argument(..., help="Model folder written by `evcal fit`."),
-    start: str = typer.Option(..., "--from", help="First day (or year) of the plan, e.g. 2027-01-01."),
-    end: str = typer.Option(..., "--to", help="Last day (or year) of the plan, e.g. 2027-12-31."),
+    start: PlanFrom = ...,  # required: a plan has a horizon
+    end: PlanTo = ...,
     out: str = typer.Option(
         ..., "--out", "-o", help="plan.csv or plan.xlsx; - prints the plan as CSV on stdout."),
-    calendar: str | None = typer.Option(
-        None, "--calendar", "-c", help="Plan calendar (YAML); default: the fitted one."),
-    total: str | None = typer.Option(None, "--total", help="Target total for the whole horizon."),
-    totals: str | None = typer.Option(
-        None, "--totals", help="CSV of targets: year,total; panels: key columns, total, optional year."),
+    calendar: PlanCalendar = None,
+    total: Total = None,
+    totals: Totals = None,
     compare_cal: str | None = typer.Option(
         None, "--compare", help="Second calendar: write both plans side by side."),
     scenario: list[str] = typer.Option(
@@ -34,23 +44,19 @@ def plan_cmd(
         help="A scenario's calendar, NAME=calendar.yaml (or the path alone: named by its file), repeated for "
         "two or more, or a folder of calendars (in file-name order); the first is the reference: write all "
         "plans side by side, and a by-event table beside a CSV (NAME-events.csv)."),
-    new_events: str = typer.Option(
-        "error", "--new-events", help="error | zero: events the model never saw."),
+    new_events: NewEvents = "error",
     sims: int = typer.Option(1000, "--sims", help="Simulation draws for low/high (0: none)."),
     seed: int = typer.Option(0, "--seed", help="Random seed of the simulation."),
     series: list[str] = typer.Option(None, "--series", help="Panel models: plan these series only."),
     allocate: str | None = typer.Option(
         None, "--allocate", help="Panel models: spread the plan over this child panel model."),
     workers: int | None = typer.Option(None, "--workers", help="Panel models: plan on N processes."),
-    drivers: str | None = typer.Option(
-        None, "--drivers",
-        help="Outside drivers' future values: a file with a date column and one column per driver."),
+    drivers: PlanDrivers = None,
     compare_drivers: str | None = typer.Option(
         None, "--compare-drivers",
         help="Scenario B's outside drivers' future values (a file like --drivers, e.g. with a price cut): "
         "write both plans side by side; calendar B is --compare, or the same calendar."),
-    round_units: bool = typer.Option(
-        False, "--round", help="Whole units: integers adding up exactly to the target (largest remainder)."),
+    round_units: RoundUnits = False,
     actuals: str | None = typer.Option(
         None, "--actuals",
         help="Year-to-date re-plan: this year's sales so far, read like a history (--date-col, --value-col); "

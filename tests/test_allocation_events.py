@@ -241,3 +241,21 @@ def test_workbook_and_report_show_own_plan_beside_the_allocated_plan(models: dic
     table = pd.read_csv(csv)
     own, total = table["own_plan"].sum(), table["plan"].sum()
     assert f"{100 * (total / own - 1):+.1f} %".replace("-", "−") in page
+
+
+def test_largest_gaps_are_ranked_in_units_not_percent() -> None:
+    """A near-zero period (a holiday the children plan at almost nothing) does not crowd out real gaps.
+
+    Seen on Chicago station ridership by day (modeldata::Chicago): 4 July came first as "n/a" and a
+    quiet Sunday as +225 %, each a few thousand rides, ahead of weeks that moved far more.
+    """
+    from evcal.panel.summary import gap_lines
+
+    g = pd.DataFrame({"f": ["A"] * 3, "date": pd.to_datetime(["2027-07-04", "2027-07-05", "2027-07-06"]),
+                      "top_down": [3.0, 1_050.0, 980.0], "bottom_up": [1.0, 1_000.0, 1_000.0]})
+    g["gap"] = g["top_down"] - g["bottom_up"]
+    g["gap_pct"] = 100 * g["gap"] / g["bottom_up"]
+    line = gap_lines(g, ["f"])[1]
+    listed = line.split("largest gaps ", 1)[1]
+    want = "2027-07-05 +50 (+5.0 %), 2027-07-06 -20 (-2.0 %), 2027-07-04 +2 (+200.0 %)"
+    assert listed.startswith(want), line

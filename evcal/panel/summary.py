@@ -147,8 +147,8 @@ def gap_lines(gaps: pd.DataFrame, parent_keys: list[str], listed: int = GAPS_LIS
     >>> g["gap_pct"] = 100 * g["gap"] / g["bottom_up"]
     >>> print("\\n".join(gap_lines(g, ["f"])))  # doctest: +NORMALIZE_WHITESPACE
     top-down against bottom-up: the parents' plans add up to 330, their children's own plans to 322 (+2.5 %)
-      f=A: +4.5 % (+10); largest gaps 2027-04-04 +8.3 %, 2027-04-11 0.0 %
-      f=B: -2.0 % (-2); largest gaps 2027-04-11 -3.8 %, 2027-04-04 0.0 %
+      f=A: +4.5 % (+10); largest gaps 2027-04-04 +10 (+8.3 %), 2027-04-11 0 (0.0 %)
+      f=B: -2.0 % (-2); largest gaps 2027-04-11 -2 (-3.8 %), 2027-04-04 0 (0.0 %)
     (gap: a parent's plan minus the sum of its children's own plans, in % of that sum; per child and period
     the plan file has own_plan beside plan)
     """
@@ -164,10 +164,12 @@ def gap_lines(gaps: pd.DataFrame, parent_keys: list[str], listed: int = GAPS_LIS
     for key in order:
         parts = key if isinstance(key, tuple) else (key,)
         rows = by.get_group(parts)
-        worst = rows.iloc[np.argsort(-rows["gap_pct"].abs().fillna(np.inf).to_numpy(), kind="stable")]
+        # ranked in units: a % of a period whose children's own plans are near zero (a holiday, a closed
+        # day) is large but moves nothing; the % is shown beside the units
+        worst = rows.iloc[np.argsort(-rows["gap"].abs().to_numpy(dtype=float), kind="stable")]
         named = ", ".join(f"{c}={v}" for c, v in zip(parent_keys, parts, strict=True))
         t, b = float(sums.loc[key, "top_down"]), float(sums.loc[key, "bottom_up"])
-        shown = ", ".join(f"{pd.Timestamp(r.date):%Y-%m-%d} {_signed(r.gap_pct)}"
+        shown = ", ".join(f"{pd.Timestamp(r.date):%Y-%m-%d} {amount(r.gap, sign=True)} ({_signed(r.gap_pct)})"
                           for r in worst.head(periods).itertuples(index=False))
         lines.append(f"  {named}: {_pct(t, b, amount(t - b, sign=True))}; largest gaps {shown}")
     more = len(sums) - len(order)

@@ -39,6 +39,7 @@ from evcal.errors import EvcalError, PlanError
 from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
+from evcal.plan.scenario_notes import NOTE_ROW, summary_lines, with_assumptions
 from evcal.plan.summary import period_name
 from evcal.spelling import option, subject
 
@@ -75,7 +76,9 @@ class Scenarios:
         Side by side: ``date``, ``plan:<name>`` each, ``difference:<name>`` each but the first;
         a last ``total`` row.
     events : DataFrame
-        By event: ``event``, ``units:<name>`` each, ``difference:<name>`` each but the first.
+        By event: ``event``, ``units:<name>`` each, ``difference:<name>`` each but the first, then
+        ``assumptions`` (each row's assumptions with the scenarios they hold in,
+        :mod:`evcal.plan.scenario_notes`); a ``[note]`` row for each note about no event of the table.
     """
 
     plans: dict[str, Plan]
@@ -108,23 +111,25 @@ class Scenarios:
             lines.append("Every plan is spread to the same target, so the differences show where the volume "
                          "moves between periods.")
         lines += self._event_lines()
+        lines += summary_lines(self.plans)
         lines.append("All are estimates; the choice between the scenarios stays with the people who own it.")
         return "\n".join(lines)
 
     def _event_lines(self, top: int = 6) -> list[str]:
         # an event differs when the model gives it other units, before the spread to a target: scaling
         # every scenario to one total changes each event a little, and that is not the event moving
-        events = list(self.events["event"])
+        rows = self.events[self.events["event"] != NOTE_ROW]
+        events = list(rows["event"])
         model = {n: np.array([_model_units(self.plans[n], e) for e in events]) for n in self.names}
         moved = {n: np.abs(model[n] - model[self.reference]) >= _NEGLIGIBLE for n in self.names[1:]}
-        diffs = self.events[[DIFF_PREFIX + n for n in self.names[1:]]].to_numpy(dtype=float)
+        diffs = rows[[DIFF_PREFIX + n for n in self.names[1:]]].to_numpy(dtype=float)
         size = np.where(np.column_stack(list(moved.values())), np.abs(diffs), 0.0).max(axis=1)
         order = [k for k in np.argsort(-size, kind="stable") if size[k] > 0]
         if not order:
             return ["No event adds a different amount in any scenario."]
         parts = []
         for k in order[:top]:
-            each = [f"{n} {amount(self.events[DIFF_PREFIX + n].iloc[k], sign=True)}"
+            each = [f"{n} {amount(rows[DIFF_PREFIX + n].iloc[k], sign=True)}"
                     f"{'' if events[k] in self.plans[n].events else ' (not in it)'}"
                     for n in self.names[1:] if moved[n][k]]
             parts.append(f"{events[k]}: {', '.join(each)}")
@@ -255,7 +260,7 @@ def plan_scenarios(
     check_scenarios([s.name for s in items])
     plans = {s.name: _plan(result, start, end, s, named=name_problems,
                            **plan_options) for s in items}
-    return Scenarios(plans=plans, table=side_by_side(plans), events=by_event(plans))
+    return Scenarios(plans=plans, table=side_by_side(plans), events=with_assumptions(by_event(plans), plans))
 
 
 def check_scenarios(names: Sequence[str]) -> None:

@@ -21,6 +21,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
+from evcal.plan.scenario_notes import ASSUMPTIONS, JOIN, NOTE_ROW
 from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX, UNITS_PREFIX
 from evcal.report import chart_parts
 from evcal.report import palette as pal
@@ -91,10 +92,28 @@ def scenarios_section(ctx: ReportContext, tables: Tables) -> dict[str, Any]:
         "side": table(["period", "date", *names, *(f"{n} − {ref}" for n in others)], rows,
                       numeric=range(2, width)),
         "events": None,
+        "assumptions": [],
     }
     if events is not None:
+        out["assumptions"] = assumption_lines(events)
+        events = events[events["event"] != NOTE_ROW]
         event_rows = [[ctx.labels.get(r["event"], r["event"]), *(num(r[UNITS_PREFIX + n]) for n in names),
                        *(num(r[DIFF_PREFIX + n], sign=True) for n in others)] for _, r in events.iterrows()]
         out["events"] = table(["event", *names, *(f"{n} − {ref}" for n in others)], event_rows,
                               numeric=range(1, 1 + len(names) + len(others)))
     return out
+
+
+def assumption_lines(events: pd.DataFrame) -> list[str]:
+    """The by-event table's assumptions, one line each as the command wrote them (none in a table
+    written without the column).
+
+    Examples
+    --------
+    >>> lines = ["promo: assumed +15% (only a)", "n (every scenario)"]
+    >>> assumption_lines(pd.DataFrame({"event": ["promo", "[note]"], "assumptions": lines}))
+    ['promo: assumed +15% (only a)', 'n (every scenario)']
+    """
+    if ASSUMPTIONS not in events.columns:
+        return []
+    return [line for cell in events[ASSUMPTIONS].fillna("") for line in str(cell).split(JOIN) if line.strip()]

@@ -33,10 +33,11 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal._files import atomic_path
+from evcal._files import atomic_path, atomic_paths
 from evcal.amounts import amount
 from evcal.errors import EvcalError, PlanError
 from evcal.formula_safe import formula_safe_sheet, write_csv
+from evcal.outputs import check_beside
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
 from evcal.plan.scenario_notes import NOTE_ROW, summary_lines, with_assumptions
@@ -45,6 +46,8 @@ from evcal.spelling import option, subject
 
 #: the column prefixes of the two tables (plan: and units: per scenario, difference: against the first)
 PLAN_PREFIX, UNITS_PREFIX, DIFF_PREFIX = "plan:", "units:", "difference:"
+#: what goes beside a scenarios CSV, as a refusal names it
+BY_EVENT = "the by-event table"
 #: an event's change smaller than this (units over the horizon) is rounding, not a difference worth naming
 _NEGLIGIBLE = 0.5
 
@@ -141,18 +144,25 @@ class Scenarios:
         """Write the tables atomically (text formula-safe); returns the paths written.
 
         ``.csv``: the side-by-side table at ``path`` and, with ``events``, the by-event table beside it
-        (:func:`events_path`). ``.xlsx``: one workbook with the sheets ``Scenarios``, ``Events`` and
-        ``Plans`` (every scenario's plan, a ``scenario`` column first).
+        (:func:`events_path`): both or neither (one failing leaves both as they were), and the one
+        beside only over a file evcal wrote (:class:`~evcal.errors.OutputError` otherwise).
+        ``.xlsx``: one workbook with the sheets ``Scenarios``, ``Events`` and ``Plans`` (every scenario's
+        plan, a ``scenario`` column first).
         """
         path = output_path(path, "scenarios")
         if path.suffix.lower() == ".csv":
-            written = [_write_table_csv(self.table, path)]
-            if events:
-                beside = events_path(path)
-                with atomic_path(beside) as tmp:
-                    write_csv(self.events, tmp, index=False, float_format="%.6f")
-                written.append(beside)
-            return written
+            if not events:
+                with atomic_path(path) as tmp:
+                    _write_table_csv(self.table, tmp)
+                return [path]
+            beside = events_path(path)
+            # the user named only the first file: the one beside it is replaced only when evcal wrote it
+            check_beside(path, beside, BY_EVENT, "compare", force=True,
+                         named=option("path", str(path), flag="--out"))
+            with atomic_paths(path, beside) as (tmp, tmp_events):  # both or neither
+                _write_table_csv(self.table, tmp)
+                write_csv(self.events, tmp_events, index=False, float_format="%.6f")
+            return [path, beside]
         frames = []
         for name, plan in self.plans.items():  # one long sheet: events differ between scenarios
             frame = plan.table.copy()
@@ -354,7 +364,9 @@ class Comparison:
         """Write the side-by-side table as ``.csv`` or ``.xlsx`` (atomically; text formula-safe)."""
         path = output_path(path, "compare")
         if path.suffix.lower() == ".csv":
-            return _write_table_csv(self.table, path)
+            with atomic_path(path) as tmp:
+                _write_table_csv(self.table, tmp)
+            return path
         # dates stay Excel dates; the totals row is labelled in the same column
         with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
             writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
@@ -364,11 +376,11 @@ class Comparison:
 
 
 def _write_table_csv(table: pd.DataFrame, path: Path) -> Path:
-    """A side-by-side table as CSV: dates as ``YYYY-MM-DD``, the totals row's label kept."""
+    """A side-by-side table as CSV at ``path`` as it is (callers write to a temporary): dates as
+    ``YYYY-MM-DD``, the totals row's label kept."""
     out = table.copy()
     out["date"] = [d.strftime("%Y-%m-%d") if isinstance(d, pd.Timestamp) else d for d in out["date"]]
-    with atomic_path(path) as tmp:
-        write_csv(out, tmp, index=False, float_format="%.6f")
+    write_csv(out, path, index=False, float_format="%.6f")
     return path
 
 

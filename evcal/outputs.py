@@ -62,7 +62,8 @@ _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Not
                     ("Plan",): "plan", ("Plan", "Notes"): "plan", ("Scenarios",): "compare",
                     ("Scenarios", "Events", "Plans"): "compare"}
 #: the first columns of the tables of ``plan --scenario`` (evcal.plan.scenarios: side by side, by event)
-_SCENARIO_RUNS = (("date", "plan:"), ("date", "iso_week", "plan:"), ("event", "units:"))
+_SCENARIO_RUNS = (("date", "plan:"), ("date", "iso_week", "plan:"), ("event", "units_before_spread:"),
+                  ("event", "units:"))
 
 
 # ---------------------------------------------------------------- what a file is

@@ -48,7 +48,8 @@ def test_each_assumption_once_with_the_scenarios_it_holds_in(result) -> None:  #
     assert week["lift:flash-sale"] == pytest.approx(0.15 * week["base"], rel=1e-9)
     ev = sc.events.set_index("event")
     assert ev.loc["flash-sale", "assumptions"] == FLASH_LINE
-    assert ev.loc["flash-sale", "units:flash"] == pytest.approx(week["lift:flash-sale"], rel=1e-9)
+    assert ev.loc["flash-sale", "units_before_spread:flash"] == pytest.approx(week["lift:flash-sale"],
+                                                                             rel=1e-9)
     assert ev.loc["mystery-day", "assumptions"].startswith("mystery-day: new event, no lift")
     assert ev.loc["promo", "assumptions"] == ""  # estimated from the history: nothing assumed
 
@@ -68,7 +69,7 @@ def test_a_note_about_no_event_has_its_own_row(result, tmp_path: Path) -> None: 
                for ln in lines), lines
     notes = sc.events[sc.events["event"] == NOTE_ROW]
     assert list(notes["assumptions"]) == [ln for ln in lines if ln.startswith("whole units")]
-    assert notes["units:filed"].isna().all()  # a note has no amount
+    assert notes["units_before_spread:filed"].isna().all()  # a note has no amount
 
 
 def _run(shop: Path, out: Path) -> None:  # noqa: F811

@@ -8,9 +8,11 @@ differ). The first scenario is the reference. Two tables come out:
 * side by side, per period: ``date``, ``plan:<name>`` for every scenario, then
   ``difference:<name>`` (that scenario less the reference) for every other one,
   with a last row of totals;
-* by event: ``event``, ``units:<name>`` (what the event adds over the horizon in
-  that scenario, from the plan's ``lift:<event>`` column; 0 where the scenario
-  does not schedule it) and ``difference:<name>`` against the reference.
+* by event (:mod:`evcal.plan.scenario_events`): ``event``, ``units_before_spread:<name>`` (what
+  the event adds over the horizon in that scenario, in the model's units before any spread to a
+  target; 0 where the scenario does not schedule it) and ``difference_before_spread:<name>``
+  against the reference, then the base and the spread to the target on rows of their own, so each
+  column adds up exactly to the total (difference).
 
 With a target every plan adds up to it, so the differences show where the
 volume moves rather than how much there is. :func:`compare` is the
@@ -40,12 +42,15 @@ from evcal.formula_safe import formula_safe_sheet, write_csv
 from evcal.outputs import check_beside
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
+from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
+from evcal.plan.scenario_events import PART_ROWS, by_event
 from evcal.plan.scenario_notes import NOTE_ROW, summary_lines, with_assumptions
 from evcal.plan.summary import period_name
 from evcal.spelling import option, subject
 
-#: the column prefixes of the two tables (plan: and units: per scenario, difference: against the first)
-PLAN_PREFIX, UNITS_PREFIX, DIFF_PREFIX = "plan:", "units:", "difference:"
+#: the side-by-side table's column prefixes (plan: per scenario, difference: against the first); the
+#: by-event table's are in evcal.plan.scenario_events
+PLAN_PREFIX, DIFF_PREFIX = "plan:", "difference:"
 #: what goes beside a scenarios CSV, as a refusal names it
 BY_EVENT = "the by-event table"
 #: an event's change smaller than this (units over the horizon) is rounding, not a difference worth naming
@@ -79,7 +84,8 @@ class Scenarios:
         Side by side: ``date``, ``plan:<name>`` each, ``difference:<name>`` each but the first;
         a last ``total`` row.
     events : DataFrame
-        By event: ``event``, ``units:<name>`` each, ``difference:<name>`` each but the first, then
+        By event (:func:`evcal.plan.scenario_events.by_event`): ``event``,
+        ``units_before_spread:<name>`` each, ``difference_before_spread:<name>`` each but the first, then
         ``assumptions`` (each row's assumptions with the scenarios they hold in,
         :mod:`evcal.plan.scenario_notes`); a ``[note]`` row for each note about no event of the table.
     """
@@ -119,26 +125,32 @@ class Scenarios:
         return "\n".join(lines)
 
     def _event_lines(self, top: int = 6) -> list[str]:
-        # an event differs when the model gives it other units, before the spread to a target: scaling
-        # every scenario to one total changes each event a little, and that is not the event moving
+        # the by-event table is in the model's units before any spread to a target: scaling every
+        # scenario to one total changes each event a little, and that is not the event moving
+        others = self.names[1:]
         rows = self.events[self.events["event"] != NOTE_ROW]
-        events = list(rows["event"])
-        model = {n: np.array([_model_units(self.plans[n], e) for e in events]) for n in self.names}
-        moved = {n: np.abs(model[n] - model[self.reference]) >= _NEGLIGIBLE for n in self.names[1:]}
-        diffs = rows[[DIFF_PREFIX + n for n in self.names[1:]]].to_numpy(dtype=float)
-        size = np.where(np.column_stack(list(moved.values())), np.abs(diffs), 0.0).max(axis=1)
-        order = [k for k in np.argsort(-size, kind="stable") if size[k] > 0]
-        if not order:
-            return ["No event adds a different amount in any scenario."]
-        parts = []
-        for k in order[:top]:
-            each = [f"{n} {amount(rows[DIFF_PREFIX + n].iloc[k], sign=True)}"
-                    f"{'' if events[k] in self.plans[n].events else ' (not in it)'}"
-                    for n in self.names[1:] if moved[n][k]]
-            parts.append(f"{events[k]}: {', '.join(each)}")
-        more = f"; {len(order) - top} more in the by-event table" if len(order) > top else ""
-        return [f"Events that differ (units over the horizon, against {self.reference}): "
-                + "; ".join(parts) + more + "."]
+        diffs = rows[[EVENT_DIFF + n for n in others]].to_numpy(dtype=float)
+        moved = np.abs(diffs) >= _NEGLIGIBLE
+        size = np.where(moved, np.abs(diffs), 0.0).max(axis=1)
+        is_event = ~rows["event"].isin(list(PART_ROWS)).to_numpy()
+        order = [k for k in np.argsort(-size, kind="stable") if size[k] > 0 and is_event[k]]
+        rest = [k for k in range(len(rows)) if size[k] > 0 and not is_event[k]]
+
+        def each(k: int) -> str:
+            event = rows["event"].iloc[k]
+            return ", ".join(f"{n} {amount(diffs[k, j], sign=True)}"
+                             f"{' (not in it)' if is_event[k] and event not in self.plans[n].events else ''}"
+                             for j, n in enumerate(others) if moved[k, j])
+
+        lines = [f"Events that differ (the model's units over the horizon, before any spread to a target, "
+                 f"against {self.reference}): "
+                 + "; ".join(f"{rows['event'].iloc[k]}: {each(k)}" for k in order[:top])
+                 + (f"; {len(order) - top} more in the by-event table" if len(order) > top else "") + "."
+                 if order else "No event adds a different amount in any scenario."]
+        if rest:
+            lines.append("The rest of each difference: "
+                         + "; ".join(f"{PART_ROWS[rows['event'].iloc[k]]}: {each(k)}" for k in rest) + ".")
+        return lines
 
     def save(self, path: str | Path, events: bool = True) -> list[Path]:
         """Write the tables atomically (text formula-safe); returns the paths written.
@@ -179,14 +191,6 @@ class Scenarios:
         return [path]
 
 
-def _model_units(plan: Plan, event: str) -> float:
-    """What ``event`` adds over the horizon in the model's own plan, before the spread to a target."""
-    if event not in plan.events:
-        return 0.0
-    factor = plan.table["date"].dt.year.map(lambda y: plan.factors.get(int(y), 1.0)).to_numpy(dtype=float)
-    return float((plan.table[f"lift:{event}"].fillna(0.0).to_numpy(dtype=float) / factor).sum())
-
-
 def events_path(path: str | Path) -> Path:
     """Where the by-event table of a scenarios CSV goes: beside it, ``<stem>-events.csv``.
 
@@ -218,17 +222,6 @@ def side_by_side(plans: Mapping[str, Plan]) -> pd.DataFrame:
     totals = {PLAN_PREFIX + n: [values[n].sum()] for n in names}
     totals |= {DIFF_PREFIX + n: [values[n].sum() - ref.sum()] for n in names[1:]}
     return pd.concat([table, pd.DataFrame({"date": ["total"], **totals})], ignore_index=True)
-
-
-def by_event(plans: Mapping[str, Plan]) -> pd.DataFrame:
-    """``event``, ``units:<name>`` each (0 where a scenario has no such event), ``difference:<name>``."""
-    names = list(plans)
-    events = list(dict.fromkeys(e for p in plans.values() for e in p.events))  # first seen first
-    units = {n: np.array([float(plans[n].table[f"lift:{e}"].fillna(0.0).sum()) if e in plans[n].events
-                          else 0.0 for e in events]) for n in names}
-    cols = {UNITS_PREFIX + n: units[n] for n in names}
-    cols |= {DIFF_PREFIX + n: units[n] - units[names[0]] for n in names[1:]}
-    return pd.DataFrame({"event": events, **cols})
 
 
 def plan_scenarios(

@@ -21,8 +21,10 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
+from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
+from evcal.plan.scenario_events import PART_ROWS, UNITS_PREFIX
 from evcal.plan.scenario_notes import ASSUMPTIONS, JOIN, NOTE_ROW
-from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX, UNITS_PREFIX
+from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX
 from evcal.report import chart_parts
 from evcal.report import palette as pal
 from evcal.report.context import ReportContext
@@ -97,10 +99,15 @@ def scenarios_section(ctx: ReportContext, tables: Tables) -> dict[str, Any]:
     if events is not None:
         out["assumptions"] = assumption_lines(events)
         events = events[events["event"] != NOTE_ROW]
-        event_rows = [[ctx.labels.get(r["event"], r["event"]), *(num(r[UNITS_PREFIX + n]) for n in names),
-                       *(num(r[DIFF_PREFIX + n], sign=True) for n in others)] for _, r in events.iterrows()]
+        cols = [UNITS_PREFIX + n for n in names] + [EVENT_DIFF + n for n in others]
+        event_rows = [[PART_ROWS.get(r["event"]) or ctx.labels.get(r["event"], r["event"]),
+                       *(num(r[c], sign=c.startswith(EVENT_DIFF)) for c in cols)]
+                      for _, r in events.iterrows()]
+        sums = events[cols].astype(float).sum()  # the parts add up to each total (difference)
+        event_rows.append(["total", *(num(sums[c], sign=c.startswith(EVENT_DIFF)) for c in cols)])
         out["events"] = table(["event", *names, *(f"{n} − {ref}" for n in others)], event_rows,
-                              numeric=range(1, 1 + len(names) + len(others)))
+                              numeric=range(1, 1 + len(cols)))
+        out["after_spread"] = bool(events.attrs.get("after_spread"))
     return out
 
 

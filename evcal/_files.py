@@ -311,6 +311,71 @@ def atomic_path(target: str | Path) -> Iterator[Path]:
 
 
 @contextlib.contextmanager
+def atomic_paths(*targets: str | Path) -> Iterator[list[Path]]:
+    """Yield temporary file paths next to ``targets``; put them all in place on success, or none.
+
+    The files are written to temporaries first (as :func:`atomic_path` does); only when every one is
+    written are they renamed into place, each existing target first set aside (``.evcal-old.``...) so
+    that a rename failing half way puts back the ones already replaced. On any failure every
+    temporary is removed and the targets are as they were: a pair of tables that belong together
+    (a scenarios table and its by-event table) is never left half new.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> with atomic_paths(d / "a.csv", d / "b.csv") as (a, b):
+    ...     _ = a.write_text("1"), b.write_text("2")
+    >>> sorted(p.name for p in d.iterdir())
+    ['a.csv', 'b.csv']
+    """
+    paths = [Path(t) for t in targets]
+    for target in paths:
+        if target.is_dir():
+            raise OutputError(f"{target}: is a folder, and a file is to be written here; name a file "
+                              "inside it or beside it instead")
+        target.parent.mkdir(parents=True, exist_ok=True)
+        remove_leftovers(target)
+    temps: list[Path] = []
+    try:
+        for target in paths:
+            temps.append(_temp_name(target, suffix=target.suffix))
+            os.close(os.open(temps[-1], os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
+        yield list(temps)
+        _swap_in(paths, temps)
+    except BaseException:
+        for tmp in temps:
+            tmp.unlink(missing_ok=True)
+        raise
+
+
+def _swap_in(targets: list[Path], temps: list[Path]) -> None:
+    """Rename each of ``temps`` onto its target; on a failure, put back what was there before."""
+    done: list[tuple[Path, Path | None]] = []  # target, where its former file was set aside
+    try:
+        for target, tmp in zip(targets, temps, strict=True):
+            _as_created(tmp, 0o666)
+            old = None
+            if target.exists() or target.is_symlink():
+                old = _temp_name(target, OLD_PREFIX, suffix=target.suffix)
+                os.replace(target, old)
+            done.append((target, old))
+            os.replace(tmp, target)
+    except BaseException:
+        for target, old in reversed(done):
+            with contextlib.suppress(OSError):
+                if old is not None:
+                    os.replace(old, target)
+                else:
+                    target.unlink(missing_ok=True)
+        raise
+    for _, old in done:
+        if old is not None:
+            with contextlib.suppress(OSError):
+                old.unlink()
+
+
+@contextlib.contextmanager
 def atomic_dir(target: str | Path, kind: str | None = None) -> Iterator[Path]:
     """Yield a temporary folder next to ``target``; swap it into place on success.
 

@@ -33,7 +33,7 @@ from evcal._files import FOLDER_KINDS, MARKER_VERSION, _temp_name, folder_owner,
 from evcal.errors import OutputError
 from evcal.spelling import option, subject
 
-__all__ = ["FILE_KINDS", "FOLDER_KINDS", "KINDS", "check_output", "file_kind"]
+__all__ = ["FILE_KINDS", "FOLDER_KINDS", "KINDS", "check_beside", "check_output", "file_kind"]
 
 #: kinds of single file evcal writes
 FILE_KINDS = ("plan", "compare", "backtest", "dates", "report", "explain")
@@ -62,7 +62,8 @@ _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Not
                     ("Plan",): "plan", ("Plan", "Notes"): "plan", ("Scenarios",): "compare",
                     ("Scenarios", "Events", "Plans"): "compare"}
 #: the first columns of the tables of ``plan --scenario`` (evcal.plan.scenarios: side by side, by event)
-_SCENARIO_RUNS = (("date", "plan:"), ("date", "iso_week", "plan:"), ("event", "units:"))
+_SCENARIO_RUNS = (("date", "plan:"), ("date", "iso_week", "plan:"), ("event", "units_before_spread:"),
+                  ("event", "units:"))
 
 
 # ---------------------------------------------------------------- what a file is
@@ -277,3 +278,47 @@ def check_output(out: str | Path, kind: str, inputs: Iterable[Any] = (), force: 
         (_check_folder if kind in FOLDER_KINDS else _check_file)(out, kind, force)
     _check_parent(out)
     return out
+
+
+
+def check_beside(out: str | Path, beside: str | Path, what: str, kind: str, inputs: Iterable[Any] = (),
+                 force: bool = False, named: str | None = None) -> Path:
+    """Check the file a command writes beside ``out`` without being told its name (a scenarios table's
+    by-event table, ``<stem>-events.csv``) by the rule of :func:`check_output`, naming ``out``.
+
+    ``what`` says what goes there; ``named`` how the message names ``out`` (default: ``--out PATH``
+    on the command line, ``out='PATH'`` in Python). A writer checks again just before it writes, with
+    ``force=True``: evcal's own file of any kind may go, never one evcal did not write.
+
+    Raises
+    ------
+    OutputError
+        One line: ``out`` as given, the file beside it and what is wrong with it, what to do.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "s-events.csv").write_text("my,own,notes\\n")
+    >>> check_beside(d / "s.csv", d / "s-events.csv", "the by-event table", "compare")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    evcal.errors.OutputError: out='.../s.csv': s-events.csv beside it, where the by-event table goes, was ...
+    """
+    out, beside = Path(out), Path(beside)
+    where = f"{named or _out(out)}: {beside.name} beside it, where {what} goes,"
+    other = f"choose another name for {subject('out')}"
+    paths = [Path(i) for i in inputs if isinstance(i, str | os.PathLike) and str(i) and "://" not in str(i)]
+    if any(_same(beside, p) for p in paths):
+        raise OutputError(f"{where} is an input of this command; evcal never writes over an input; {other}")
+    if beside.is_symlink() or beside.is_dir():
+        raise OutputError(f"{where} is a {'link' if beside.is_symlink() else 'folder'}, which evcal does "
+                          f"not replace; move it, or {other}")
+    if not beside.exists():
+        return beside
+    found = file_kind(beside)
+    if found is None:
+        raise OutputError(f"{where} was not written by evcal and would be replaced; move it, or {other}")
+    if found != kind and not force:
+        raise OutputError(f"{where} holds evcal's {_WHAT[found]}; {other}, or add {_force()} to replace it")
+    return beside

@@ -24,7 +24,8 @@ from typer.testing import CliRunner
 import evcal
 from evcal.cli import app
 from evcal.plan import make_plan, plan_scenarios
-from evcal.plan.scenarios import Plan, by_event, side_by_side
+from evcal.plan.scenario_events import by_event
+from evcal.plan.scenarios import Plan, side_by_side
 
 runner = CliRunner()
 
@@ -132,12 +133,15 @@ def test_differences_by_period_and_event_match_the_known_lifts(result: evcal.Fit
     assert total["difference:both"] == pytest.approx(-PROMO_UNITS, abs=TOLERANCE)
     # by event: what each adds in each scenario, from the plans' lift: columns
     ev = sc.events.set_index("event")
-    assert ev.loc["promo", "units:booked"] == pytest.approx(PROMO_UNITS, abs=TOLERANCE)
-    assert ev.loc["tournament", "units:booked"] == pytest.approx(4 * TOURNAMENT_WEEKLY, abs=4 * TOLERANCE)
-    assert ev.loc["promo", "units:promo-dropped"] == 0.0  # not scheduled in it
-    assert ev.loc["promo", "difference:promo-dropped"] == pytest.approx(-ev.loc["promo", "units:booked"])
-    assert ev.loc["tournament", "difference:tournament-moved"] == pytest.approx(0.0, abs=1e-6)
-    assert ev.loc["promo", "difference:both"] == pytest.approx(-PROMO_UNITS, abs=TOLERANCE)
+    assert ev.loc["promo", "units_before_spread:booked"] == pytest.approx(PROMO_UNITS, abs=TOLERANCE)
+    assert ev.loc["tournament", "units_before_spread:booked"] == pytest.approx(4 * TOURNAMENT_WEEKLY,
+                                                                              abs=4 * TOLERANCE)
+    assert ev.loc["promo", "units_before_spread:promo-dropped"] == 0.0  # not scheduled in it
+    assert ev.loc["promo", "difference_before_spread:promo-dropped"] == pytest.approx(
+        -ev.loc["promo", "units_before_spread:booked"])
+    moved = ev.loc["tournament", "difference_before_spread:tournament-moved"]
+    assert moved == pytest.approx(0.0, abs=1e-6)
+    assert ev.loc["promo", "difference_before_spread:both"] == pytest.approx(-PROMO_UNITS, abs=TOLERANCE)
     text = sc.summary()
     assert "tournament-moved: total" in text and "promo: promo-dropped -" in text
     assert "tournament:" not in text  # moved, so it adds as much: not named as a difference
@@ -151,10 +155,10 @@ def test_an_event_in_only_some_scenarios_is_listed(result: evcal.FitResult) -> N
     sc = plan_scenarios(result, "2024-01-01", "2024-12-31",
                         {"booked": SCENARIOS["booked"], "promo-only": only_promo}, n_sims=0)
     ev = sc.events.set_index("event")
-    assert list(ev.index) == ["promo", "tournament"]
-    assert ev.loc["tournament", "units:promo-only"] == 0.0
-    assert ev.loc["tournament", "difference:promo-only"] == pytest.approx(-4 * TOURNAMENT_WEEKLY,
-                                                                         abs=4 * TOLERANCE)
+    assert list(ev.index) == ["promo", "tournament", "[base]"]
+    assert ev.loc["tournament", "units_before_spread:promo-only"] == 0.0
+    assert ev.loc["tournament", "difference_before_spread:promo-only"] == pytest.approx(
+        -4 * TOURNAMENT_WEEKLY, abs=4 * TOLERANCE)
     assert "tournament: promo-only -" in sc.summary() and "(not in it)" in sc.summary()
 
 
@@ -192,8 +196,8 @@ def test_cli_writes_both_tables_and_the_workbook(shop: Path, tmp_path: Path) -> 
     events = pd.read_csv(tmp_path / "scenarios-events.csv")
     assert side.columns[1:5].tolist() == [f"plan:{n}" for n in SCENARIOS]
     assert side["date"].iloc[-1] == "total"
-    assert events["event"].tolist() == ["promo", "tournament"]
-    assert events.set_index("event").loc["promo", "difference:promo-dropped"] == \
+    assert events["event"].tolist() == ["promo", "tournament", "[base]"]
+    assert events.set_index("event").loc["promo", "difference_before_spread:promo-dropped"] == \
         pytest.approx(-PROMO_UNITS, abs=TOLERANCE)
     assert "Scenarios against the first, booked" in res.output
     assert "scenarios-events.csv" in res.output
@@ -297,9 +301,11 @@ def test_report_shows_the_scenarios(shop: Path, tmp_path: Path) -> None:
 
 
 def _plan(values: list[float], lifts: dict[str, list[float]]) -> Plan:
-    """A bare Plan holding only what the tables read (dates, plan, lift: columns)."""
+    """A bare Plan holding only what the tables read (dates, base, plan, lift: columns)."""
     dates = pd.date_range("2030-01-06", periods=len(values), freq="W-SUN")
-    table = pd.DataFrame({"date": dates, "plan": values, **{f"lift:{e}": v for e, v in lifts.items()}})
+    base = np.asarray(values) - np.sum([np.asarray(v) for v in lifts.values()], axis=0)
+    table = pd.DataFrame({"date": dates, "base": base, "plan": values,
+                          **{f"lift:{e}": v for e, v in lifts.items()}})
     return Plan(table=table, periods=dates.to_period("W-SUN"), freq="W-SUN", label="end", events=list(lifts),
                 assumptions={}, model_totals={}, target=None, factors={}, full_years=[], last_year={},
                 average_share={}, calendar_name="", interval_note="")
@@ -323,10 +329,10 @@ def test_tables_add_up_for_any_plans(k: int, n: int, data: st.DataObject) -> Non
                                    body[f"plan:s{j}"].astype(float) - body["plan:s0"].astype(float))
     for col in t.columns[1:]:
         assert t[col].iloc[-1] == pytest.approx(body[col].astype(float).sum(), rel=1e-9, abs=1e-3)
-    ev = by_event(plans).set_index("event")
+    ev = by_event(plans).set_index("event").drop("[base]")
     for e in ev.index:
         units = [float(plans[f"s{j}"].table[f"lift:{e}"].sum()) if e in plans[f"s{j}"].events else 0.0
                  for j in range(k)]
-        assert ev.loc[e, [f"units:s{j}" for j in range(k)]].tolist() == pytest.approx(units)
+        assert ev.loc[e, [f"units_before_spread:s{j}" for j in range(k)]].tolist() == pytest.approx(units)
         for j in range(1, k):
-            assert ev.loc[e, f"difference:s{j}"] == pytest.approx(units[j] - units[0], abs=1e-6)
+            assert ev.loc[e, f"difference_before_spread:s{j}"] == pytest.approx(units[j] - units[0], abs=1e-6)

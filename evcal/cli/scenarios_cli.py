@@ -7,7 +7,7 @@ from typing import Any
 
 from evcal.cli import talk
 from evcal.errors import PlanError
-from evcal.outputs import check_output
+from evcal.outputs import check_beside, check_output
 
 __all__ = ["refuse_with_scenarios", "scenarios_cmd"]
 
@@ -46,7 +46,7 @@ def scenarios_cmd(model_dir: str, start: str, end: str, out: str, values: list[s
                   week_labels: str | None, force: bool, drivers: str | None, **options: Any) -> None:
     """Check ``--out``, read the scenarios' calendars, plan each, write and summarise (see ``evcal plan``)."""
     from evcal.plan.scenario_files import load_scenarios, scenario_sources
-    from evcal.plan.scenarios import check_scenarios, events_path
+    from evcal.plan.scenarios import BY_EVENT, check_scenarios, events_path
 
     refuse_panel(model_dir, values)
     path = talk.table_path(out, "scenarios.csv")
@@ -57,8 +57,9 @@ def scenarios_cmd(model_dir: str, start: str, end: str, out: str, values: list[s
     beside = not talk.is_stdout(out) and Path(path).suffix.lower() == ".csv"
     sources = scenario_sources(values)  # only folders' lists of files are read before --out is checked
     given = [*inputs, *values, *(p for _, p, _ in sources)]
-    for target in [path, *([events_path(path)] if beside else [])]:
-        check_output(target, "compare", force=force, inputs=given)
+    check_output(path, "compare", force=force, inputs=given)
+    if beside:  # the by-event table goes beside it: evcal's own file there, or none
+        check_beside(path, events_path(path), BY_EVENT, "compare", force=force, inputs=given)
     check_scenarios([name for name, _, _ in sources])
     scenarios = load_scenarios(sources)
     from evcal.model import load_model

@@ -20,7 +20,9 @@ import pandas as pd
 
 from evcal.errors import EvcalError, ModelError, PlanError
 from evcal.formula_safe import unguard_frame
-from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX, UNITS_PREFIX, Scenario, events_path
+from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
+from evcal.plan.scenario_events import OLD_DIFF_PREFIX, OLD_UNITS_PREFIX, UNITS_PREFIX
+from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX, Scenario, events_path
 from evcal.spelling import subject
 
 __all__ = ["is_scenarios_file", "load_scenarios", "read_scenario_tables", "scenario_sources"]
@@ -135,7 +137,14 @@ def read_scenario_tables(path: str | Path) -> tuple[pd.DataFrame, pd.DataFrame |
     beside = events_path(path)
     if beside.is_file():
         events = unguard_frame(pd.read_csv(beside, dtype=str, keep_default_na=False))
-        wanted = ["event", *(UNITS_PREFIX + n for n in names), *(DIFF_PREFIX + n for n in names[1:])]
+        # a table written before the spread had its own row: amounts after the spread, read as they are
+        after = not any(c.startswith(UNITS_PREFIX) for c in events.columns) and \
+            any(c.startswith(OLD_UNITS_PREFIX) for c in events.columns)
+        events = events.rename(columns={c: c.replace(OLD_UNITS_PREFIX, UNITS_PREFIX, 1)
+                                        .replace(OLD_DIFF_PREFIX, EVENT_DIFF, 1) for c in events.columns}) \
+            if after else events
+        events.attrs["after_spread"] = after
+        wanted = ["event", *(UNITS_PREFIX + n for n in names), *(EVENT_DIFF + n for n in names[1:])]
         missing = [c for c in wanted if c not in events.columns]
         if missing:
             problems.append(f"{beside}: missing column(s) {', '.join(missing)}; it is not the by-event table "

@@ -8,9 +8,11 @@ differ). The first scenario is the reference. Two tables come out:
 * side by side, per period: ``date``, ``plan:<name>`` for every scenario, then
   ``difference:<name>`` (that scenario less the reference) for every other one,
   with a last row of totals;
-* by event: ``event``, ``units:<name>`` (what the event adds over the horizon in
-  that scenario, from the plan's ``lift:<event>`` column; 0 where the scenario
-  does not schedule it) and ``difference:<name>`` against the reference.
+* by event (:mod:`evcal.plan.scenario_events`): ``event``, ``units_before_spread:<name>`` (what
+  the event adds over the horizon in that scenario, in the model's units before any spread to a
+  target; 0 where the scenario does not schedule it) and ``difference_before_spread:<name>``
+  against the reference, then the base and the spread to the target on rows of their own, so each
+  column adds up exactly to the total (difference).
 
 With a target every plan adds up to it, so the differences show where the
 volume moves rather than how much there is. :func:`compare` is the
@@ -33,17 +35,24 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal._files import atomic_path
+from evcal._files import atomic_path, atomic_paths
 from evcal.amounts import amount
 from evcal.errors import EvcalError, PlanError
 from evcal.formula_safe import formula_safe_sheet, write_csv
+from evcal.outputs import check_beside
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
+from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
+from evcal.plan.scenario_events import PART_ROWS, by_event
+from evcal.plan.scenario_notes import NOTE_ROW, summary_lines, with_assumptions
 from evcal.plan.summary import period_name
 from evcal.spelling import option, subject
 
-#: the column prefixes of the two tables (plan: and units: per scenario, difference: against the first)
-PLAN_PREFIX, UNITS_PREFIX, DIFF_PREFIX = "plan:", "units:", "difference:"
+#: the side-by-side table's column prefixes (plan: per scenario, difference: against the first); the
+#: by-event table's are in evcal.plan.scenario_events
+PLAN_PREFIX, DIFF_PREFIX = "plan:", "difference:"
+#: what goes beside a scenarios CSV, as a refusal names it
+BY_EVENT = "the by-event table"
 #: an event's change smaller than this (units over the horizon) is rounding, not a difference worth naming
 _NEGLIGIBLE = 0.5
 
@@ -75,7 +84,10 @@ class Scenarios:
         Side by side: ``date``, ``plan:<name>`` each, ``difference:<name>`` each but the first;
         a last ``total`` row.
     events : DataFrame
-        By event: ``event``, ``units:<name>`` each, ``difference:<name>`` each but the first.
+        By event (:func:`evcal.plan.scenario_events.by_event`): ``event``,
+        ``units_before_spread:<name>`` each, ``difference_before_spread:<name>`` each but the first, then
+        ``assumptions`` (each row's assumptions with the scenarios they hold in,
+        :mod:`evcal.plan.scenario_notes`); a ``[note]`` row for each note about no event of the table.
     """
 
     plans: dict[str, Plan]
@@ -108,46 +120,61 @@ class Scenarios:
             lines.append("Every plan is spread to the same target, so the differences show where the volume "
                          "moves between periods.")
         lines += self._event_lines()
+        lines += summary_lines(self.plans)
         lines.append("All are estimates; the choice between the scenarios stays with the people who own it.")
         return "\n".join(lines)
 
     def _event_lines(self, top: int = 6) -> list[str]:
-        # an event differs when the model gives it other units, before the spread to a target: scaling
-        # every scenario to one total changes each event a little, and that is not the event moving
-        events = list(self.events["event"])
-        model = {n: np.array([_model_units(self.plans[n], e) for e in events]) for n in self.names}
-        moved = {n: np.abs(model[n] - model[self.reference]) >= _NEGLIGIBLE for n in self.names[1:]}
-        diffs = self.events[[DIFF_PREFIX + n for n in self.names[1:]]].to_numpy(dtype=float)
-        size = np.where(np.column_stack(list(moved.values())), np.abs(diffs), 0.0).max(axis=1)
-        order = [k for k in np.argsort(-size, kind="stable") if size[k] > 0]
-        if not order:
-            return ["No event adds a different amount in any scenario."]
-        parts = []
-        for k in order[:top]:
-            each = [f"{n} {amount(self.events[DIFF_PREFIX + n].iloc[k], sign=True)}"
-                    f"{'' if events[k] in self.plans[n].events else ' (not in it)'}"
-                    for n in self.names[1:] if moved[n][k]]
-            parts.append(f"{events[k]}: {', '.join(each)}")
-        more = f"; {len(order) - top} more in the by-event table" if len(order) > top else ""
-        return [f"Events that differ (units over the horizon, against {self.reference}): "
-                + "; ".join(parts) + more + "."]
+        # the by-event table is in the model's units before any spread to a target: scaling every
+        # scenario to one total changes each event a little, and that is not the event moving
+        others = self.names[1:]
+        rows = self.events[self.events["event"] != NOTE_ROW]
+        diffs = rows[[EVENT_DIFF + n for n in others]].to_numpy(dtype=float)
+        moved = np.abs(diffs) >= _NEGLIGIBLE
+        size = np.where(moved, np.abs(diffs), 0.0).max(axis=1)
+        is_event = ~rows["event"].isin(list(PART_ROWS)).to_numpy()
+        order = [k for k in np.argsort(-size, kind="stable") if size[k] > 0 and is_event[k]]
+        rest = [k for k in range(len(rows)) if size[k] > 0 and not is_event[k]]
+
+        def each(k: int) -> str:
+            event = rows["event"].iloc[k]
+            return ", ".join(f"{n} {amount(diffs[k, j], sign=True)}"
+                             f"{' (not in it)' if is_event[k] and event not in self.plans[n].events else ''}"
+                             for j, n in enumerate(others) if moved[k, j])
+
+        lines = [f"Events that differ (the model's units over the horizon, before any spread to a target, "
+                 f"against {self.reference}): "
+                 + "; ".join(f"{rows['event'].iloc[k]}: {each(k)}" for k in order[:top])
+                 + (f"; {len(order) - top} more in the by-event table" if len(order) > top else "") + "."
+                 if order else "No event adds a different amount in any scenario."]
+        if rest:
+            lines.append("The rest of each difference: "
+                         + "; ".join(f"{PART_ROWS[rows['event'].iloc[k]]}: {each(k)}" for k in rest) + ".")
+        return lines
 
     def save(self, path: str | Path, events: bool = True) -> list[Path]:
         """Write the tables atomically (text formula-safe); returns the paths written.
 
         ``.csv``: the side-by-side table at ``path`` and, with ``events``, the by-event table beside it
-        (:func:`events_path`). ``.xlsx``: one workbook with the sheets ``Scenarios``, ``Events`` and
-        ``Plans`` (every scenario's plan, a ``scenario`` column first).
+        (:func:`events_path`): both or neither (one failing leaves both as they were), and the one
+        beside only over a file evcal wrote (:class:`~evcal.errors.OutputError` otherwise).
+        ``.xlsx``: one workbook with the sheets ``Scenarios``, ``Events`` and ``Plans`` (every scenario's
+        plan, a ``scenario`` column first).
         """
         path = output_path(path, "scenarios")
         if path.suffix.lower() == ".csv":
-            written = [_write_table_csv(self.table, path)]
-            if events:
-                beside = events_path(path)
-                with atomic_path(beside) as tmp:
-                    write_csv(self.events, tmp, index=False, float_format="%.6f")
-                written.append(beside)
-            return written
+            if not events:
+                with atomic_path(path) as tmp:
+                    _write_table_csv(self.table, tmp)
+                return [path]
+            beside = events_path(path)
+            # the user named only the first file: the one beside it is replaced only when evcal wrote it
+            check_beside(path, beside, BY_EVENT, "compare", force=True,
+                         named=option("path", str(path), flag="--out"))
+            with atomic_paths(path, beside) as (tmp, tmp_events):  # both or neither
+                _write_table_csv(self.table, tmp)
+                write_csv(self.events, tmp_events, index=False, float_format="%.6f")
+            return [path, beside]
         frames = []
         for name, plan in self.plans.items():  # one long sheet: events differ between scenarios
             frame = plan.table.copy()
@@ -162,14 +189,6 @@ class Scenarios:
                 frame.to_excel(writer, index=False, sheet_name=sheet)
                 formula_safe_sheet(writer.sheets[sheet].iter_rows())
         return [path]
-
-
-def _model_units(plan: Plan, event: str) -> float:
-    """What ``event`` adds over the horizon in the model's own plan, before the spread to a target."""
-    if event not in plan.events:
-        return 0.0
-    factor = plan.table["date"].dt.year.map(lambda y: plan.factors.get(int(y), 1.0)).to_numpy(dtype=float)
-    return float((plan.table[f"lift:{event}"].fillna(0.0).to_numpy(dtype=float) / factor).sum())
 
 
 def events_path(path: str | Path) -> Path:
@@ -203,17 +222,6 @@ def side_by_side(plans: Mapping[str, Plan]) -> pd.DataFrame:
     totals = {PLAN_PREFIX + n: [values[n].sum()] for n in names}
     totals |= {DIFF_PREFIX + n: [values[n].sum() - ref.sum()] for n in names[1:]}
     return pd.concat([table, pd.DataFrame({"date": ["total"], **totals})], ignore_index=True)
-
-
-def by_event(plans: Mapping[str, Plan]) -> pd.DataFrame:
-    """``event``, ``units:<name>`` each (0 where a scenario has no such event), ``difference:<name>``."""
-    names = list(plans)
-    events = list(dict.fromkeys(e for p in plans.values() for e in p.events))  # first seen first
-    units = {n: np.array([float(plans[n].table[f"lift:{e}"].fillna(0.0).sum()) if e in plans[n].events
-                          else 0.0 for e in events]) for n in names}
-    cols = {UNITS_PREFIX + n: units[n] for n in names}
-    cols |= {DIFF_PREFIX + n: units[n] - units[names[0]] for n in names[1:]}
-    return pd.DataFrame({"event": events, **cols})
 
 
 def plan_scenarios(
@@ -255,7 +263,7 @@ def plan_scenarios(
     check_scenarios([s.name for s in items])
     plans = {s.name: _plan(result, start, end, s, named=name_problems,
                            **plan_options) for s in items}
-    return Scenarios(plans=plans, table=side_by_side(plans), events=by_event(plans))
+    return Scenarios(plans=plans, table=side_by_side(plans), events=with_assumptions(by_event(plans), plans))
 
 
 def check_scenarios(names: Sequence[str]) -> None:
@@ -349,7 +357,9 @@ class Comparison:
         """Write the side-by-side table as ``.csv`` or ``.xlsx`` (atomically; text formula-safe)."""
         path = output_path(path, "compare")
         if path.suffix.lower() == ".csv":
-            return _write_table_csv(self.table, path)
+            with atomic_path(path) as tmp:
+                _write_table_csv(self.table, tmp)
+            return path
         # dates stay Excel dates; the totals row is labelled in the same column
         with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
             writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
@@ -359,11 +369,11 @@ class Comparison:
 
 
 def _write_table_csv(table: pd.DataFrame, path: Path) -> Path:
-    """A side-by-side table as CSV: dates as ``YYYY-MM-DD``, the totals row's label kept."""
+    """A side-by-side table as CSV at ``path`` as it is (callers write to a temporary): dates as
+    ``YYYY-MM-DD``, the totals row's label kept."""
     out = table.copy()
     out["date"] = [d.strftime("%Y-%m-%d") if isinstance(d, pd.Timestamp) else d for d in out["date"]]
-    with atomic_path(path) as tmp:
-        write_csv(out, tmp, index=False, float_format="%.6f")
+    write_csv(out, path, index=False, float_format="%.6f")
     return path
 
 

@@ -21,7 +21,10 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
-from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX, UNITS_PREFIX
+from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
+from evcal.plan.scenario_events import PART_ROWS, UNITS_PREFIX
+from evcal.plan.scenario_notes import ASSUMPTIONS, JOIN, NOTE_ROW
+from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX
 from evcal.report import chart_parts
 from evcal.report import palette as pal
 from evcal.report.context import ReportContext
@@ -91,10 +94,33 @@ def scenarios_section(ctx: ReportContext, tables: Tables) -> dict[str, Any]:
         "side": table(["period", "date", *names, *(f"{n} − {ref}" for n in others)], rows,
                       numeric=range(2, width)),
         "events": None,
+        "assumptions": [],
     }
     if events is not None:
-        event_rows = [[ctx.labels.get(r["event"], r["event"]), *(num(r[UNITS_PREFIX + n]) for n in names),
-                       *(num(r[DIFF_PREFIX + n], sign=True) for n in others)] for _, r in events.iterrows()]
+        out["assumptions"] = assumption_lines(events)
+        events = events[events["event"] != NOTE_ROW]
+        cols = [UNITS_PREFIX + n for n in names] + [EVENT_DIFF + n for n in others]
+        event_rows = [[PART_ROWS.get(r["event"]) or ctx.labels.get(r["event"], r["event"]),
+                       *(num(r[c], sign=c.startswith(EVENT_DIFF)) for c in cols)]
+                      for _, r in events.iterrows()]
+        sums = events[cols].astype(float).sum()  # the parts add up to each total (difference)
+        event_rows.append(["total", *(num(sums[c], sign=c.startswith(EVENT_DIFF)) for c in cols)])
         out["events"] = table(["event", *names, *(f"{n} − {ref}" for n in others)], event_rows,
-                              numeric=range(1, 1 + len(names) + len(others)))
+                              numeric=range(1, 1 + len(cols)))
+        out["after_spread"] = bool(events.attrs.get("after_spread"))
     return out
+
+
+def assumption_lines(events: pd.DataFrame) -> list[str]:
+    """The by-event table's assumptions, one line each as the command wrote them (none in a table
+    written without the column).
+
+    Examples
+    --------
+    >>> lines = ["promo: assumed +15% (only a)", "n (every scenario)"]
+    >>> assumption_lines(pd.DataFrame({"event": ["promo", "[note]"], "assumptions": lines}))
+    ['promo: assumed +15% (only a)', 'n (every scenario)']
+    """
+    if ASSUMPTIONS not in events.columns:
+        return []
+    return [line for cell in events[ASSUMPTIONS].fillna("") for line in str(cell).split(JOIN) if line.strip()]

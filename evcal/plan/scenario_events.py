@@ -1,0 +1,96 @@
+"""The by-event table of ``plan --scenario``: what each event adds in each scenario, in the model's own
+units before the spread to a target, and the spread on a row of its own.
+
+Under a target every amount of a plan is scaled by its year's factor, and the factor differs between
+scenarios (a dropped promotion leaves more volume to spread over the rest), so every event's scaled
+units shift a little from the scaling alone. What a planner reads from this table ("what dropping the
+promotion costs") is the model's answer, before the spread: each event's ``lift:`` column divided by
+its period's factor, summed over the horizon. The rows that are not events:
+
+* ``[base]``: the base (trend, season, persistent changes) before the spread;
+* ``[outside drivers]``: what the drivers' planned values add, before the spread (a model with drivers);
+* ``[spread to the target]``: the plan less the model's plan, ``Σ plan · (1 − 1/factor)`` (a target).
+
+So each ``units_before_spread:<name>`` column adds up to that scenario's total, and each
+``difference_before_spread:<name>`` column to its total difference from the reference, exactly: the
+plan is base plus lifts plus drivers in every period (:mod:`evcal.plan.build`), before and after the
+spread and the rounding to whole units. With ``--round`` the parts are the whole-unit plan's, divided by
+the factor. Square brackets cannot be in an event's name, so no event is named like these rows.
+
+Examples
+--------
+>>> by_event(sc.plans).columns.tolist()  # doctest: +SKIP
+['event', 'units_before_spread:now', 'units_before_spread:moved', 'difference_before_spread:moved']
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from evcal.plan.horizon import period_years
+from evcal.plan.spread import DRIVER_PREFIX
+
+__all__ = ["BASE_ROW", "DIFF_PREFIX", "DRIVERS_ROW", "PART_ROWS", "SPREAD_ROW", "UNITS_PREFIX", "by_event",
+           "model_parts"]
+
+#: the by-event table's columns: each scenario's units and each one's difference, before the spread
+UNITS_PREFIX, DIFF_PREFIX = "units_before_spread:", "difference_before_spread:"
+#: the columns of a by-event table written before the spread had its own row (amounts after it)
+OLD_UNITS_PREFIX, OLD_DIFF_PREFIX = "units:", "difference:"
+BASE_ROW, DRIVERS_ROW, SPREAD_ROW = "[base]", "[outside drivers]", "[spread to the target]"
+#: the rows that are not events, and how the report names them
+PART_ROWS = {BASE_ROW: "base (without the events)", DRIVERS_ROW: "outside drivers",
+             SPREAD_ROW: "spread to the target"}
+
+
+def model_parts(plan: Any) -> dict[str, float]:
+    """A plan's total split into its parts over the horizon: each event, the base and the drivers in the
+    model's units before the spread, and the spread (each a key of :data:`PART_ROWS` or an event).
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace as P
+    >>> periods = pd.period_range("2030-01", periods=2, freq="M")
+    >>> t = pd.DataFrame({"base": [90.0, 110.0], "lift:sale": [10.0, 0.0], "plan": [100.0, 110.0]})
+    >>> plan = P(table=t * 2, periods=periods, label="end", events=["sale"], factors={2030: 2.0})
+    >>> parts = model_parts(plan)
+    >>> parts
+    {'sale': 10.0, '[base]': 200.0, '[outside drivers]': 0.0, '[spread to the target]': 210.0}
+    >>> sum(parts.values()) == float((t["plan"] * 2).sum())
+    True
+    """
+    t = plan.table
+    years = period_years(plan.periods, plan.label)
+    factor = np.array([(plan.factors or {}).get(int(y), 1.0) for y in years], dtype=float)
+
+    def before(col: str) -> float:  # a column's sum over the horizon, each period unscaled
+        return float((t[col].fillna(0.0).to_numpy(dtype=float) / factor).sum())
+
+    parts = {ev: before(f"lift:{ev}") for ev in plan.events}
+    parts[BASE_ROW] = before("base")
+    parts[DRIVERS_ROW] = sum((before(c) for c in t.columns if str(c).startswith(DRIVER_PREFIX)), 0.0)
+    values = t["plan"].to_numpy(dtype=float)
+    parts[SPREAD_ROW] = float(values.sum() - (values / factor).sum())
+    return parts
+
+
+def by_event(plans: Mapping[str, Any]) -> pd.DataFrame:
+    """``event``, ``units_before_spread:<name>`` each (0 where a scenario has no such event),
+    ``difference_before_spread:<name>`` each but the first; events first (first seen first), then
+    ``[base]``, ``[outside drivers]`` (when a plan has drivers) and ``[spread to the target]`` (when a
+    plan has a target)."""
+    names = list(plans)
+    parts = {n: model_parts(plans[n]) for n in names}
+    rows = list(dict.fromkeys(e for p in plans.values() for e in p.events)) + [BASE_ROW]
+    if any(any(str(c).startswith(DRIVER_PREFIX) for c in p.table.columns) for p in plans.values()):
+        rows.append(DRIVERS_ROW)
+    if any(p.factors for p in plans.values()):
+        rows.append(SPREAD_ROW)
+    units = {n: np.array([parts[n].get(r, 0.0) for r in rows]) for n in names}
+    cols = {UNITS_PREFIX + n: units[n] for n in names}
+    cols |= {DIFF_PREFIX + n: units[n] - units[names[0]] for n in names[1:]}
+    return pd.DataFrame({"event": rows, **cols})

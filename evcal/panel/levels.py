@@ -221,6 +221,24 @@ def _long(structure: Any, rec: Reconciled, dates: pd.DatetimeIndex) -> pd.DataFr
     return table
 
 
+def method_lines(rec: Reconciled) -> list[str]:
+    """How the plans were moved, one line each: the method, why, and MinT's λ (the workbook, the report).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from evcal.panel.reconcile import reconcile, summing_structure
+    >>> st = summing_structure(pd.DataFrame({"store": ["s", "t"]}), [[]])
+    >>> method_lines(reconcile(st, np.array([[10.0], [20.0]]), np.array([[33.0]]), method="ols"))
+    ['method: ols', 'why: as asked']
+    """
+    lines = [f"method: {rec.method}", f"why: {rec.reason}"]
+    if rec.lam is not None:
+        lines.append(f"shrinkage intensity λ = {rec.lam:.3f} (0: the residuals' covariance as estimated, "
+                     "1: its diagonal only)")
+    return lines
+
+
 def describe(rec: Reconciled) -> list[str]:
     """The summary lines: the method, why, and the adjustment sizes per level."""
     lam = f"; shrinkage intensity λ = {rec.lam:.3f}" if rec.lam is not None else ""
@@ -234,23 +252,33 @@ def describe(rec: Reconciled) -> list[str]:
 
 def plan_levels_cmd(model_dir: str, start: str, end: str, out: str, echo: Callable[[str], None],
                     shown: str | None, level_dirs: list[str], method: str, **options: Any) -> None:
-    """What ``evcal plan --reconcile`` does: refuse what cannot hold, plan, reconcile, write one CSV."""
+    """What ``evcal plan --reconcile`` does: refuse what cannot hold, plan, reconcile, write one CSV (the long
+    table) or a workbook (a sheet per level, :mod:`evcal.plan.workbook_levels`)."""
     from evcal._files import atomic_path
     from evcal.formula_safe import write_csv
     from evcal.outputs import check_output
 
     refuse(options)
-    if Path(out).suffix.lower() != ".csv":
-        raise PlanError(f"--out {shown or out}: a reconciled plan is one long table; write plan.csv "
-                        "(or - for stdout)")
+    suffix = Path(out).suffix.lower()
+    if suffix not in (".csv", ".xlsx"):
+        raise PlanError(f"--out {shown or out}: unknown file type; write plan.csv (one long table), "
+                        "plan.xlsx (a sheet per level) or - for stdout")
     check_output(out, "plan", inputs=[model_dir, *level_dirs, options.get("calendar")],
                  force=bool(options.get("force")))
     table, rec, notes = plan_levels(model_dir, level_dirs, start, end, method=method,
                                     calendar=options.get("calendar"),
                                     new_events=options.get("new_events") or "error")
-    with atomic_path(out) as tmp:
-        write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+    if suffix == ".xlsx":
+        from evcal.plan.workbook_levels import write_levels_workbook
+
+        write_levels_workbook(out, table, rec.summary, method_lines(rec), notes)
+        names = ", ".join(rec.summary["level"])
+        wrote = f"{len(rec.summary) + 2} sheets: Levels, one per level ({names}), Notes"
+    else:
+        with atomic_path(out) as tmp:
+            write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+        wrote = f"{len(table)} rows: level, keys, date, plan, plan_before, adjustment"
     for line in describe(rec) + [f"Note: {n}" for n in notes]:
         echo(line)
     echo("Plans are estimates; the decisions stay with the people who own them.")
-    echo(f"\nwrote {shown or out} ({len(table)} rows: level, keys, date, plan, plan_before, adjustment)")
+    echo(f"\nwrote {shown or out} ({wrote})")

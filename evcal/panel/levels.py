@@ -239,6 +239,26 @@ def method_lines(rec: Reconciled) -> list[str]:
     return lines
 
 
+def with_note(table: pd.DataFrame, rec: Reconciled, notes: list[str]) -> pd.DataFrame:
+    """The CSV's table with a last column ``note``: each level's first row says how the plans were moved
+    (the method, why, λ) and what was left out; the other rows leave it empty (it would repeat on every
+    row of every series). ``evcal report --plan`` reads it.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from evcal.panel.reconcile import reconcile, summing_structure
+    >>> st = summing_structure(pd.DataFrame({"store": ["s", "t"]}), [[]])
+    >>> rec = reconcile(st, np.array([[10.0], [20.0]]), np.array([[33.0]]), method="ols")
+    >>> t = with_note(pd.DataFrame({"level": ["store", "store", "total"]}), rec, [])
+    >>> [n[:22] for n in t["note"]]
+    ['reconciled by ols (as ', '', 'reconciled by ols (as ']
+    """
+    text = "; ".join([describe(rec)[0], *(f"note: {n}" for n in notes)])
+    first = ~table["level"].duplicated().to_numpy()
+    return table.assign(note=np.where(first, text, ""))
+
+
 def describe(rec: Reconciled) -> list[str]:
     """The summary lines: the method, why, and the adjustment sizes per level."""
     lam = f"; shrinkage intensity λ = {rec.lam:.3f}" if rec.lam is not None else ""
@@ -276,8 +296,9 @@ def plan_levels_cmd(model_dir: str, start: str, end: str, out: str, echo: Callab
         wrote = f"{len(rec.summary) + 2} sheets: Levels, one per level ({names}), Notes"
     else:
         with atomic_path(out) as tmp:
-            write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
-        wrote = f"{len(table)} rows: level, keys, date, plan, plan_before, adjustment"
+            write_csv(with_note(table, rec, notes), tmp, index=False, date_format="%Y-%m-%d",
+                      float_format="%.6f")
+        wrote = f"{len(table)} rows: level, keys, date, plan, plan_before, adjustment, note"
     for line in describe(rec) + [f"Note: {n}" for n in notes]:
         echo(line)
     echo("Plans are estimates; the decisions stay with the people who own them.")

@@ -130,7 +130,7 @@ def write_levels_workbook(out_xlsx: str | Path, table: pd.DataFrame, summary: pd
         for row in range(header + 1, ws.max_row + 1) if fmt else ():
             ws.cell(row, j).number_format = fmt
     levels = [str(lv) for lv in summary["level"]]
-    keys = [c for c in table.columns if c not in ("level", "date", *AMOUNTS)]
+    keys = [c for c in table.columns if c not in ("level", "date", *AMOUNTS, "note")]
     for name, title in zip(levels, level_sheet_titles(levels), strict=True):
         rows = table[table["level"].astype(str) == name]
         mine = [c for c in keys if (rows[c].astype(str).str.strip() != "").any()]

@@ -61,6 +61,9 @@ _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Not
                     ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Notes"): "plan",
                     ("Plan",): "plan", ("Plan", "Notes"): "plan", ("Scenarios",): "compare",
                     ("Scenarios", "Events", "Plans"): "compare"}
+#: the first and last sheets of a reconciled plan's workbook, a sheet per level between them
+#: (evcal.plan.workbook_levels.LEVELS_SHEETS)
+_LEVELS_WORKBOOK = ("Levels", "Notes")
 #: the first columns of the tables of ``plan --scenario`` (evcal.plan.scenarios: side by side, by event)
 _SCENARIO_RUNS = (("date", "plan:"), ("date", "iso_week", "plan:"), ("event", "units_before_spread:"),
                   ("event", "units:"))
@@ -97,6 +100,8 @@ def _workbook_kind(path: Path) -> str | None:
     creator = re.search(r"<dc:creator>([^<]*)</dc:creator>", core)
     sheets = tuple(re.findall(r'<sheet [^>]*name="([^"]*)"', workbook))
     kind = _WORKBOOK_SHEETS.get(sheets)
+    if kind is None and len(sheets) > 2 and (sheets[0], sheets[-1]) == _LEVELS_WORKBOOK:
+        kind = "plan"
     if creator is None or kind is None:
         return None
     # evcal's own creator; "openpyxl" (its default) for workbooks written before evcal set it,

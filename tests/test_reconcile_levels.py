@@ -73,7 +73,7 @@ def test_reconciled_plan_adds_up_at_the_product_and_store_levels(models, method)
 
 @pytest.mark.parametrize(("extra", "says"), [
     (["--total", "5000"], "--total with --reconcile"),
-    (["--round"], "--round with --reconcile"),
+    (["--week-labels", "iso"], "--week-labels with --reconcile"),
     (["--reconcile-method", "best"], "--reconcile-method best: use one of auto, ols, wls, mint"),
 ])
 def test_settings_that_cannot_hold_are_refused_in_one_line(models, extra, says):

@@ -57,7 +57,9 @@ def fit_cmd(
     leap_year: LeapYear = None,
     series_col: list[str] = typer.Option(
         None, "--series-col", help="Key column(s) of a long file, one series per key (repeat, or a,b)."),
-    level: str = typer.Option(None, "--level", help="Add the series up to these key columns first (a,b)."),
+    level: str = typer.Option(
+        None, "--level", help="Add the series up to these key columns first (a,b); total: every series up to "
+        "one, fitted as one series."),
     group_col: str = typer.Option(None, "--group-col", help="Column grouping series for pooled lifts."),
     workers: int = typer.Option(None, "--workers", help="Fit on a local Dask cluster of N processes."),
     scheduler: str = typer.Option(None, "--scheduler", help="Fit on the Dask cluster at this address."),
@@ -68,8 +70,15 @@ def fit_cmd(
 ) -> None:
     """Fit base, event lifts and interventions; write the model folder."""
     talk.refuse_stdout(out, "a model folder", "model")
-    panel = bool(series_col or level or group_col or workers or scheduler)
-    if panel and driver:
+    total = False
+    if level:  # the grand total of a long file is one series: a one-series model folder
+        from evcal.panel.total import is_total, refuse_with_total
+
+        total = is_total(level)
+        if total:
+            refuse_with_total(level, group_col=group_col, workers=workers, scheduler=scheduler)
+    panel = bool(series_col or level or group_col or workers or scheduler) and not total
+    if (panel or total) and driver:
         from evcal.panel import refuse_drivers
 
         refuse_drivers("--driver")
@@ -92,8 +101,14 @@ def fit_cmd(
     from evcal.model.summary import describe
 
     with talk.stage("fit: reading the history and fitting the model"):
-        result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq, drivers=driver,
-                     **options)
+        if total:
+            from evcal.panel.total import fit_total
+
+            result = fit_total(history, calendar, series_col, date_col=date_col, value_col=value_col,
+                               freq=freq, **options)
+        else:
+            result = fit(history, calendar, date_col=date_col, value_col=value_col, freq=freq,
+                         drivers=driver, **options)
     with talk.stage(f"fit: writing {out}"):
         result.save(out)
     talk.say(describe(result))

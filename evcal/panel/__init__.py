@@ -63,7 +63,8 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     date_col, value_col, freq
         As for :func:`evcal.fit`.
     level : list of str or "a,b", optional
-        Add the series up to these columns first (a roll-up) and fit those.
+        Add the series up to these columns first (a roll-up) and fit those. The grand total
+        (``total``) is one series: :func:`evcal.panel.total.fit_total` fits it.
     group_col : str, optional
         Column naming each series' pooling group (e.g. ``family``); one group when omitted.
     workers, scheduler : optional
@@ -89,7 +90,14 @@ def fit_panel(history: Any, calendar: Any = None, series_cols: list[str] | str |
     from evcal.model.options import FitOptions
     from evcal.panel.build import FittedWriter, build_result, read_for_panel
     from evcal.panel.distributed import make_runner
+    from evcal.panel.total import TOTAL, is_total
 
+    if is_total(level):  # one series, not a panel: its own function, its own folder kind
+        from evcal.errors import EvcalError
+        from evcal.spelling import option
+
+        raise EvcalError(f"{option('level', TOTAL)}: the grand total is one series; fit it with "
+                         "evcal.panel.total.fit_total (a one-series model)")
     opts = FitOptions(**options)
     # the matrices are small: one BLAS thread each, the cores go to the units instead; pyarrow
     # and numpy share one heap, so the pages one frees the other reuses (evcal.engine.memory); a Dask

@@ -98,19 +98,20 @@ def refuse(options: dict[str, Any]) -> None:
                         "moves it again, so both cannot hold; plan without the target, or plan one level "
                         "to it and spread it down with --allocate")
     for name, flag in (("allocate", "--allocate"), ("compare", "--compare"), ("series", "--series"),
-                       ("whole_units", "--round"), ("actuals", "--actuals"), ("drivers", "--drivers"),
+                       ("actuals", "--actuals"), ("drivers", "--drivers"),
                        ("compare_drivers", "--compare-drivers"), ("week_labels", "--week-labels")):
         if options.get(name):
-            why = {"--round": "whole units would break the exact sums",
-                   "--week-labels": "the reconciled plan is written without them"}.get(
+            why = {"--week-labels": "the reconciled plan is written without them"}.get(
                 flag, "it is made for one model's plan")
             raise PlanError(f"{flag} with --reconcile: {why}; leave out {flag} (or --reconcile)")
 
 
 def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, method: str = "auto",
-                calendar: Any = None, new_events: str = "error"
+                calendar: Any = None, new_events: str = "error", whole_units: bool = False
                 ) -> tuple[pd.DataFrame, Reconciled, list[str]]:
     """Plan the bottom model and each level's, then reconcile them (see the module notes).
+
+    ``whole_units``: the reconciled plans in whole units that still add up (:func:`round_reconciled`).
 
     Returns
     -------
@@ -171,7 +172,52 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
                      "reconciled bottom plans do not")
     Eb, Ea = _residuals(res_cols, bkeys[bottom.keys], structure, levels)
     rec = reconcile(structure, yb, np.vstack(agg_rows), Eb, Ea, method=method)
+    if whole_units:
+        rec, note = round_reconciled(rec)
+        notes.append(note)
     return _long(structure, rec, dates), rec, notes
+
+
+def round_reconciled(rec: Reconciled) -> tuple[Reconciled, str]:
+    """The reconciled plans in whole units that still add up at every level, and the note that says how.
+
+    In each period the bottom series' plans are rounded by largest remainder
+    (:func:`evcal.plan.spread.apportion_rows`) to the period's rounded grand total, so each is within a
+    unit of its reconciled plan; every level above is then the sum of its rounded bottom series. Rounding
+    each level on its own cannot keep the sums when levels are crossed (a product × store bottom rounded
+    within each product need not add up within each store), so the aggregates are not rounded themselves:
+    each is within a unit per bottom series in it of its reconciled plan (the note gives the largest gap
+    per level). The adjustment sizes are those of the whole-unit plans.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from evcal.panel.reconcile import reconcile, summing_structure
+    >>> st = summing_structure(pd.DataFrame({"store": ["s", "t", "u"]}), [[]])
+    >>> rec = reconcile(st, np.array([[10.4], [20.4], [30.2]]), np.array([[61.0]]), method="ols")
+    >>> whole, note = round_reconciled(rec)
+    >>> whole.bottom.ravel().tolist(), whole.agg.ravel().tolist()
+    ([11, 20, 30], [61])
+    """
+    from dataclasses import replace
+
+    from evcal.panel.reconcile import adjustment_summary
+    from evcal.plan.spread import apportion_rows, whole_number
+
+    totals = np.array([whole_number(x) for x in rec.bottom.sum(axis=0)], dtype=np.int64)
+    bottom = apportion_rows(rec.bottom.T, totals).T  # periods as rows: each period's bottoms to its total
+    agg = np.rint(rec.structure.A @ bottom.astype(float)).astype(np.int64)
+    gaps = []
+    names = rec.structure.agg_keys["level"].to_numpy()
+    for name in rec.structure.levels[1:]:
+        gap = np.abs(agg[names == name] - rec.agg[names == name])
+        gaps.append(f"{name} {amount(float(gap.max())) if gap.size else 0}")
+    note = ("whole units: in each period the bottom series' plans are rounded by largest remainder to the "
+            "period's rounded total, and every level above is the sum of its rounded bottom series (largest "
+            f"gap to its reconciled plan, in units: {', '.join(gaps)})")
+    summary = adjustment_summary(rec.structure, bottom - rec.bottom_before, rec.bottom_before,
+                                 agg - rec.agg_before, rec.agg_before)
+    return replace(rec, bottom=bottom, agg=agg, summary=summary), note
 
 
 def _wide(plan: pd.DataFrame, keys: list[str], want: pd.DataFrame, dates: pd.DatetimeIndex, path: str,
@@ -221,6 +267,44 @@ def _long(structure: Any, rec: Reconciled, dates: pd.DatetimeIndex) -> pd.DataFr
     return table
 
 
+def method_lines(rec: Reconciled) -> list[str]:
+    """How the plans were moved, one line each: the method, why, and MinT's λ (the workbook, the report).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from evcal.panel.reconcile import reconcile, summing_structure
+    >>> st = summing_structure(pd.DataFrame({"store": ["s", "t"]}), [[]])
+    >>> method_lines(reconcile(st, np.array([[10.0], [20.0]]), np.array([[33.0]]), method="ols"))
+    ['method: ols', 'why: as asked']
+    """
+    lines = [f"method: {rec.method}", f"why: {rec.reason}"]
+    if rec.lam is not None:
+        lines.append(f"shrinkage intensity λ = {rec.lam:.3f} (0: the residuals' covariance as estimated, "
+                     "1: its diagonal only)")
+    return lines
+
+
+def with_note(table: pd.DataFrame, rec: Reconciled, notes: list[str]) -> pd.DataFrame:
+    """The CSV's table with a last column ``note``: each level's first row says how the plans were moved
+    (the method, why, λ) and what was left out; the other rows leave it empty (it would repeat on every
+    row of every series). ``evcal report --plan`` reads it.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from evcal.panel.reconcile import reconcile, summing_structure
+    >>> st = summing_structure(pd.DataFrame({"store": ["s", "t"]}), [[]])
+    >>> rec = reconcile(st, np.array([[10.0], [20.0]]), np.array([[33.0]]), method="ols")
+    >>> t = with_note(pd.DataFrame({"level": ["store", "store", "total"]}), rec, [])
+    >>> [n[:22] for n in t["note"]]
+    ['reconciled by ols (as ', '', 'reconciled by ols (as ']
+    """
+    text = "; ".join([describe(rec)[0], *(f"note: {n}" for n in notes)])
+    first = ~table["level"].duplicated().to_numpy()
+    return table.assign(note=np.where(first, text, ""))
+
+
 def describe(rec: Reconciled) -> list[str]:
     """The summary lines: the method, why, and the adjustment sizes per level."""
     lam = f"; shrinkage intensity λ = {rec.lam:.3f}" if rec.lam is not None else ""
@@ -234,23 +318,35 @@ def describe(rec: Reconciled) -> list[str]:
 
 def plan_levels_cmd(model_dir: str, start: str, end: str, out: str, echo: Callable[[str], None],
                     shown: str | None, level_dirs: list[str], method: str, **options: Any) -> None:
-    """What ``evcal plan --reconcile`` does: refuse what cannot hold, plan, reconcile, write one CSV."""
+    """What ``evcal plan --reconcile`` does: refuse what cannot hold, plan, reconcile, write one CSV (the long
+    table) or a workbook (a sheet per level, :mod:`evcal.plan.workbook_levels`)."""
     from evcal._files import atomic_path
     from evcal.formula_safe import write_csv
     from evcal.outputs import check_output
 
     refuse(options)
-    if Path(out).suffix.lower() != ".csv":
-        raise PlanError(f"--out {shown or out}: a reconciled plan is one long table; write plan.csv "
-                        "(or - for stdout)")
+    suffix = Path(out).suffix.lower()
+    if suffix not in (".csv", ".xlsx"):
+        raise PlanError(f"--out {shown or out}: unknown file type; write plan.csv (one long table), "
+                        "plan.xlsx (a sheet per level) or - for stdout")
     check_output(out, "plan", inputs=[model_dir, *level_dirs, options.get("calendar")],
                  force=bool(options.get("force")))
     table, rec, notes = plan_levels(model_dir, level_dirs, start, end, method=method,
                                     calendar=options.get("calendar"),
-                                    new_events=options.get("new_events") or "error")
-    with atomic_path(out) as tmp:
-        write_csv(table, tmp, index=False, date_format="%Y-%m-%d", float_format="%.6f")
+                                    new_events=options.get("new_events") or "error",
+                                    whole_units=bool(options.get("whole_units")))
+    if suffix == ".xlsx":
+        from evcal.plan.workbook_levels import write_levels_workbook
+
+        write_levels_workbook(out, table, rec.summary, method_lines(rec), notes)
+        names = ", ".join(rec.summary["level"])
+        wrote = f"{len(rec.summary) + 2} sheets: Levels, one per level ({names}), Notes"
+    else:
+        with atomic_path(out) as tmp:
+            write_csv(with_note(table, rec, notes), tmp, index=False, date_format="%Y-%m-%d",
+                      float_format="%.6f")
+        wrote = f"{len(table)} rows: level, keys, date, plan, plan_before, adjustment, note"
     for line in describe(rec) + [f"Note: {n}" for n in notes]:
         echo(line)
     echo("Plans are estimates; the decisions stay with the people who own them.")
-    echo(f"\nwrote {shown or out} ({len(table)} rows: level, keys, date, plan, plan_before, adjustment)")
+    echo(f"\nwrote {shown or out} ({wrote})")

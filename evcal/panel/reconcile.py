@@ -43,7 +43,7 @@ import scipy.linalg
 import scipy.sparse as sp
 
 __all__ = ["METHODS", "MINT_MIN_PERIODS", "WLS_MIN_PERIODS", "Reconciled", "Structure", "choose_method",
-           "reconcile", "shrinkage_intensity", "summing_structure"]
+           "level_sizes", "reconcile", "shrinkage_intensity", "summing_structure"]
 
 METHODS = ("auto", "ols", "wls", "mint")
 #: common periods of residuals below which ``auto`` does not estimate a covariance for ``mint``: a year of
@@ -309,23 +309,43 @@ def adjustment_summary(structure: Structure, adj_b: np.ndarray, before_b: np.nda
                        adj_a: np.ndarray, before_a: np.ndarray) -> pd.DataFrame:
     """Adjustment sizes per level: ``level, series, mean_abs_pct, max_abs_pct, max_abs_units, largest_at``.
 
-    Percentages are of the plan before, over the periods where it is not zero.
+    Percentages are of the plan before, over the periods where it is not zero (:func:`level_sizes`).
     """
     levels = structure.agg_keys["level"].to_numpy()
     parts = [(structure.levels[0], adj_b, before_b, structure.bottom_keys)]
     for name in structure.levels[1:]:
         m = levels == name
         parts.append((name, adj_a[m], before_a[m], structure.agg_keys[m].drop(columns="level")))
-    rows = []
-    for name, adj, before, keys in parts:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            pct = np.where(before != 0, 100 * np.abs(adj) / np.abs(before), np.nan)
-        where = int(np.argmax(np.abs(adj).max(axis=1))) if adj.size else 0
-        shown = ", ".join(f"{c}={v}" for c, v in keys.iloc[where].items() if v is not None) \
-            if adj.size else ""
-        rows.append({"level": name, "series": adj.shape[0],
-                     "mean_abs_pct": float(np.nanmean(pct)) if np.isfinite(pct).any() else np.nan,
-                     "max_abs_pct": float(np.nanmax(pct)) if np.isfinite(pct).any() else np.nan,
-                     "max_abs_units": float(np.abs(adj).max()) if adj.size else 0.0,
-                     "largest_at": shown or TOTAL})
-    return pd.DataFrame(rows)
+    return pd.DataFrame([level_sizes(*part) for part in parts])
+
+
+def level_sizes(name: str, adj: np.ndarray, before: np.ndarray, keys: pd.DataFrame) -> dict[str, object]:
+    """One level's adjustment sizes: series, mean and largest absolute adjustment in % of the plan before
+    (over the periods where it is not zero), the largest in units and the series it was in.
+
+    Parameters
+    ----------
+    name : str
+        The level's name.
+    adj, before : ndarray
+        ``series × periods``: the adjustments and the plans before.
+    keys : DataFrame
+        One row per series: its key columns (None or blank where the level does not have one).
+
+    Examples
+    --------
+    >>> level_sizes("store", np.array([[1.0, -2.0], [0.5, 0.0]]), np.array([[100.0, 100.0], [50.0, 0.0]]),
+    ...             pd.DataFrame({"store": ["s", "t"]}))
+    {'level': 'store', 'series': 2, 'mean_abs_pct': 1.3333333333333333, 'max_abs_pct': 2.0, \
+'max_abs_units': 2.0, 'largest_at': 'store=s'}
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        pct = np.where(before != 0, 100 * np.abs(adj) / np.abs(before), np.nan)
+    where = int(np.argmax(np.abs(adj).max(axis=1))) if adj.size else 0
+    shown = ", ".join(f"{c}={v}" for c, v in keys.iloc[where].items() if v is not None and str(v) != "") \
+        if adj.size else ""
+    return {"level": name, "series": adj.shape[0],
+            "mean_abs_pct": float(np.nanmean(pct)) if np.isfinite(pct).any() else np.nan,
+            "max_abs_pct": float(np.nanmax(pct)) if np.isfinite(pct).any() else np.nan,
+            "max_abs_units": float(np.abs(adj).max()) if adj.size else 0.0,
+            "largest_at": shown or TOTAL}

@@ -56,6 +56,9 @@ ALLOCATED_NOTE = ("allocated from the parent plan by each child's share of its s
 def aggregate(panel: Panel, level: list[str]) -> Panel:
     """The panel added up to the ``level`` columns (keys or attribute columns of ``panel``).
 
+    An empty ``level`` adds every series up to one, the grand total: a panel of one with no key
+    columns, as :meth:`Panel.of_history` makes (its :meth:`~Panel.history` is the total's history).
+
     Examples
     --------
     >>> import numpy as np, pandas as pd
@@ -66,6 +69,9 @@ def aggregate(panel: Panel, level: list[str]) -> Panel:
     ...           np.array([2, 2, 2]), "M", "end", "<frame>", attrs=attrs)
     >>> aggregate(p, ["family"]).values.tolist()
     [[3.0, 5.0], [nan, 6.0], [8.0, 7.0]]
+    >>> total = aggregate(p, [])
+    >>> total.values.ravel().tolist(), total.key_cols, total.source
+    ([8.0, nan, 15.0], [], '<frame> (added up to the total)')
     """
     cols = {c: panel.column(c) for c in level}
     parent_keys = pd.DataFrame({c: v.to_numpy(dtype=object) for c, v in cols.items()})
@@ -81,7 +87,8 @@ def aggregate(panel: Panel, level: list[str]) -> Panel:
     for c, uu in zip(reversed(level), reversed(uniques), strict=True):
         keys[c] = np.asarray(uu, dtype=object)[rem % len(uu)]
         rem //= len(uu)
-    out_keys = pd.DataFrame({c: keys[c] for c in level})
+    # the grand total: one series and no key columns (a frame of one row, as a panel of one has)
+    out_keys = pd.DataFrame({c: keys[c] for c in level}) if level else pd.DataFrame(index=range(1))
 
     n = len(panel.periods)
     t = np.arange(n)[:, None]
@@ -108,7 +115,7 @@ def aggregate(panel: Panel, level: list[str]) -> Panel:
                 keep[c] = col[starts]
         attrs = pd.DataFrame(keep) if keep else None
     return Panel(out_keys, values, panel.periods, first, last, panel.freq, panel.label,
-                 f"{panel.source} (added up to {', '.join(level)})", panel.value_col, attrs)
+                 f"{panel.source} (added up to {', '.join(level) or 'the total'})", panel.value_col, attrs)
 
 
 def plan_shares(own: np.ndarray, groups: np.ndarray, fallback: np.ndarray | None = None

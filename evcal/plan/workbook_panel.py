@@ -22,18 +22,20 @@ Examples
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 
 import pandas as pd
 from openpyxl.styles import Font
 from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.worksheet import Worksheet
 
 from evcal._files import atomic_path
 from evcal.formula_safe import workbook_text
 from evcal.plan.workbook import PCT_FORMAT, UNITS_FORMAT, new_workbook, notes_sheet, write_table
 from evcal.plan.workbook_plan import is_amount, readable
 
-__all__ = ["PANEL_SHEETS", "write_panel_workbook"]
+__all__ = ["PANEL_SHEETS", "total_row", "write_panel_workbook"]
 
 #: the sheets of a panel plan's workbook
 PANEL_SHEETS = ("Plan", "Notes")
@@ -79,23 +81,42 @@ def write_panel_workbook(out_xlsx: str | Path, table: pd.DataFrame, labels: dict
     ws["A1"].font = Font(italic=True)
     columns = [str(c) for c in table.columns]
     header_row = write_table(ws, table, headers=[readable(c, labels) for c in columns])
-    first, last = header_row + 1, ws.max_row
-    total_row = last + 1
-    ws.cell(total_row, 1, "Total").font = Font(bold=True)
-    for j, c in enumerate(columns, start=1):
-        if c == SHARE:
-            for row in range(first, last + 1):
-                ws.cell(row, j).number_format = PCT_FORMAT
-        if not (is_amount(c) or c == OWN_PLAN) or last < first:
-            continue
-        ref = f"{get_column_letter(j)}{first}:{get_column_letter(j)}{last}"
-        cell = ws.cell(total_row, j, f"=SUBTOTAL(109,{ref})")  # 109: the sum of the rows a filter shows
-        cell.number_format, cell.font = UNITS_FORMAT, Font(bold=True)
+    if SHARE in columns:
+        j = columns.index(SHARE) + 1
+        for row in range(header_row + 1, ws.max_row + 1):
+            ws.cell(row, j).number_format = PCT_FORMAT
+    total_row(ws, columns, header_row, lambda c: is_amount(c) or c == OWN_PLAN)
     notes_sheet(wb.create_sheet(PANEL_SHEETS[1]), [_ABOUT], notes)
     out = Path(out_xlsx)
     with atomic_path(out) as tmp:
         wb.save(tmp)
     return out
+
+
+def total_row(ws: Worksheet, columns: list[str], header_row: int, totalled: Callable[[str], bool]) -> int:
+    """A bold Total row under the table whose header is ``header_row``: ``SUBTOTAL(109, ...)`` of each
+    column ``totalled`` says yes to, so filtering the sheet totals the rows it shows; returns its row.
+
+    Examples
+    --------
+    >>> from openpyxl import Workbook
+    >>> ws = Workbook().active
+    >>> for row in (["store", "plan"], ["north", 110.0], ["south", 55.0]):
+    ...     ws.append(row)
+    >>> r = total_row(ws, ["store", "plan"], 1, lambda c: c == "plan")
+    >>> r, ws.cell(r, 1).value, ws.cell(r, 2).value
+    (4, 'Total', '=SUBTOTAL(109,B2:B3)')
+    """
+    first, last = header_row + 1, ws.max_row
+    row = last + 1
+    ws.cell(row, 1, "Total").font = Font(bold=True)
+    for j, c in enumerate(columns, start=1):
+        if not totalled(c) or last < first:
+            continue
+        ref = f"{get_column_letter(j)}{first}:{get_column_letter(j)}{last}"
+        cell = ws.cell(row, j, f"=SUBTOTAL(109,{ref})")  # 109: the sum of the rows a filter shows
+        cell.number_format, cell.font = UNITS_FORMAT, Font(bold=True)
+    return row
 
 
 def how_made(notes: list[str]) -> str:

@@ -6,7 +6,9 @@ as ``evcal show`` does). Each series shown (those named, as :meth:`evcal.panel.P
 a key, else the first :data:`SHOWN_BY_DEFAULT` fitted ones) gets the single-model sections, built from
 the panel folder's long tables filtered by the series' key: nothing is fitted again.
 
-With a panel plan (``evcal plan PANEL_DIR ... --out plan.csv``) the overview lists every planned
+With the plan of ``evcal plan PANEL_DIR --reconcile ...`` a "Plans across levels" section follows the
+overview (:mod:`evcal.report.levels_sections`). With a panel plan (``evcal plan PANEL_DIR ... --out
+plan.csv``) the overview lists every planned
 series' plan total (its share of the panel and what its events add; for an allocated plan also its
 own plan before allocation and the gap between the two) and each series shown gets the single
 model's plan section, from its own rows of the plan.
@@ -36,6 +38,7 @@ from evcal.panel.rollup import OWN_PLAN
 from evcal.panel.summary import lift_distribution
 from evcal.report.context import ReportContext
 from evcal.report.formatting import freq_words, num, pct
+from evcal.report.levels_sections import is_levels_file, levels_part
 from evcal.report.model_folder import ModelFolder
 from evcal.report.model_sections import MODEL_SECTIONS, build_sections, table
 from evcal.report.templating import render_page
@@ -65,16 +68,20 @@ def render_panel_report(
     """
     folder = Path(model_dir)
     panel = load_panel(folder)
-    plan = read_panel_plan(plan_csv, panel) if plan_csv is not None else None
+    levels = None
+    if plan_csv is not None and is_levels_file(plan_csv):  # plan --reconcile: every level's plan, reconciled
+        levels = levels_part(plan_csv, panel)
+    plan = read_panel_plan(plan_csv, panel) if plan_csv is not None and levels is None else None
     keys = [panel.find(s) for s in series] if series is not None else _first_fitted(panel)
     keys = list({key_text(panel, k): k for k in keys}.values())  # a series named twice is shown once
     settings = panel.settings
     heading = title or f"Calendar effects by series: {settings['calendar_name'] or folder.name}"
     fitted = int((panel.series["status"] == "fitted").sum())
     model = series_model(panel)
-    shown = [series_part(panel, key, folder, i, model, plan) for i, key in enumerate(keys, 2)]
+    first = 2 if levels is None else 3  # the levels' section comes second
+    shown = [series_part(panel, key, folder, i, model, plan) for i, key in enumerate(keys, first)]
     overview = panel_overview(panel, shown=len(keys), fitted=fitted, named=series is not None)
-    overview["plan"] = plan_overview(panel, plan, Path(plan_csv)) if plan_csv is not None else None
+    overview["plan"] = plan_overview(panel, plan, Path(plan_csv)) if plan is not None else None
     files = [f"panel model folder {folder}"] + ([f"plan {plan_csv}"] if plan_csv is not None else [])
     return render_page(
         "panel.html",
@@ -83,6 +90,7 @@ def render_panel_report(
         heading=heading,
         subtitle=panel_subtitle(panel, folder),
         overview=overview,
+        levels=levels,
         series=shown,
     )
 

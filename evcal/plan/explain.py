@@ -207,10 +207,13 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str | None = No
     base_cols = h.base_cols + ([ERROR_COLUMN] if err.kind == "arima" else [])
     anchor, others = _base_groups(columns, coefs, h.roles, base_cols, level)
     out = split_base(result.transform, anchor, others, smear)
-    below = floored[0] & (base[0] < 0.0)  # floored with the base scaled: it was below zero (evcal.plan.floor)
+    # a base below zero is scaled with the negative lifts (evcal.plan.floor): the base's parts stay as the
+    # model makes them, the scaling is a part of its own
+    gap = base[0] * smear - sum(out.values())
+    size = 1.0 + sum(np.abs(v) for v in out.values())
+    below = floored[0] & (base[0] <= 0.0) & (np.abs(gap) > 1e-9 * size)
     if below.any():
-        # the base's parts stay as the model makes them; the base's scaling is a part of its own
-        out[FLOORED] = np.where(below, base[0] * smear - sum(out.values()), 0.0)
+        out[FLOORED] = np.where(below, gap, 0.0)
     kinds = {k: "base" for k in out}
     closures = set(h.closures.columns)
     for c, v in parts.items():

@@ -75,7 +75,7 @@ def floor_parts(base: np.ndarray, fitted: np.ndarray, parts: dict[str, np.ndarra
     s = np.divide(pos, -neg, out=np.ones_like(base), where=hit)  # -neg > 0 where hit: the plan is below zero
 
     def scaled(a: np.ndarray) -> np.ndarray:
-        return np.where(hit & (a < 0.0), a * s, a)
+        return np.where(hit & (a < 0.0), a * s + 0.0, a)  # + 0.0: a scale of 0 gives 0, not -0 ("-0.000000")
 
     return (scaled(base), np.where(hit, 0.0, fitted), {c: scaled(v) for c, v in parts.items()}, hit)
 

@@ -14,6 +14,8 @@ model's trend, seasonal and intervention terms. What goes into the plan:
   in units, adding up exactly);
 * **closures**: periods are planned at their open share, so a fully closed
   day is zero and a week with one closed day keeps six sevenths of its plan.
+* **at zero, not below**: an additive model of a series that cannot be negative is
+  floored at zero, its negative amounts scaled so base + lifts = 0 (:mod:`evcal.plan.floor`).
 """
 
 from __future__ import annotations

@@ -221,7 +221,9 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str | None = No
         kinds.setdefault(name, "closure" if c in closures else _kind(result, name, h))
         out[name] = out.get(name, 0.0) + v[0] * smear
     frame = pd.DataFrame(out, index=periods)
-    frame.attrs["floored"] = floored[0]  # the periods planned at 0, not below (evcal.plan.floor)
+    # the positions of the periods planned at 0, not below (evcal.plan.floor): plain ints, as pandas compares
+    # attrs when frames are combined
+    frame.attrs["floored"] = tuple(int(j) for j in np.flatnonzero(floored[0]))
     model = fitted[0] * smear
     years = period_years(periods, result.label)
     factor = np.array([(plan.factors or {}).get(int(y), 1.0) for y in years])
@@ -280,7 +282,7 @@ def explain_plan(plan: Any, date: Any, calendar: Any = None, new_events: str | N
     factor = plan.factors.get(int(period_years(plan.periods[i:i + 1], result.label)[0]), 1.0) \
         if plan.factors else 1.0
     words = _words(result, values, kinds, dict(plan.assumptions), factor)
-    if frame.attrs["floored"][i]:
+    if i in frame.attrs["floored"]:
         for k, v in values.items():
             if v < 0.0 and kinds.get(k) != "base":
                 words[k] += ("; scaled down with the period's other negative parts so the plan is 0, "

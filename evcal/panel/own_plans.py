@@ -130,7 +130,8 @@ def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[st
                 continue
             gid = fit.group.gid
             if gid not in horizons:
-                horizons[gid] = group_horizon(fit, plan_cal, periods, options["new_events"])
+                horizons[gid] = group_horizon(fit, plan_cal, periods, options["new_events"],
+                                              allow_negative=opts.allow_negative)
             h = horizons[gid]
             parts = plan_block(fit, h, plan_cal, n_sims, options["seed"])
             frame = block_frame(fit, h, parts, panel.label, weak, plan_cal, options["new_events"])

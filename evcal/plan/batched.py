@@ -137,10 +137,15 @@ def _covariances(X: np.ndarray, own: dict[int, np.ndarray], E: np.ndarray) -> np
     return out
 
 
-def group_view(g: Any) -> SimpleNamespace:
-    """What the plan reads of a model, for a design group (θ apart: the plan bends the columns per series)."""
+def group_view(g: Any, allow_negative: bool = False) -> SimpleNamespace:
+    """What the plan reads of a model, for a design group (θ apart: the plan bends the columns per series).
+
+    ``allow_negative``: the panel was fitted with it (its series may be negative: no floor at zero,
+    :mod:`evcal.plan.floor`).
+    """
     info = g.info
-    return SimpleNamespace(spec=replace(info.spec, event_theta={}), base_columns=info.base_columns,
+    return SimpleNamespace(options=SimpleNamespace(allow_negative=allow_negative),
+                           spec=replace(info.spec, event_theta={}), base_columns=info.base_columns,
                            status=info.status, params=pd.Series(0.0, index=info.fitted_cols),
                            like_map=info.like_map, assumed=info.assumed, event_info=info.event_info,
                            transform=info.transform, intervention_names=info.intervention_names,
@@ -163,13 +168,13 @@ def plan_block(fit: BlockFit, h: Horizon, cal: Any, n_sims: int, seed: int) -> d
         theta[c] = fit.theta[source] if source in fit.theta else np.full(m, fixed)
     curved = curve.columns(theta)
     smear = np.broadcast_to((fit.smear if g.transform == "log" else np.ones(m))[:, None], (m, n))
-    base, fitted, lifts = plan_parts(h, plan_group(view, h), pmap, smear, curved=curved)
-    out = {"base": base, "plan": fitted, "lifts": lifts}
+    base, fitted, lifts, floored = plan_parts(h, plan_group(view, h), pmap, smear, curved=curved)
+    out = {"base": base, "plan": fitted, "lifts": lifts, "floored": floored}
     if n_sims > 0 and fit.cov is not None:
         M, const = _level_map(fit, h, curved)
         out["low"], out["high"] = simulate_block(g.transform, fit.params.T, fit.cov, M, const,
                                                  np.sqrt(np.clip(fit.sigma2, 0.0, None)),
-                                                 h.share.to_numpy(dtype=float), n_sims, seed)
+                                                 h.share.to_numpy(dtype=float), n_sims, seed, floor=h.floor)
     else:
         out["low"] = out["high"] = np.full((m, n), np.nan)
     return out
@@ -275,6 +280,8 @@ def _assumptions(fit: BlockFit, h: Horizon, weak: dict[str, np.ndarray], cal: An
     return out
 
 
-def group_horizon(fit: BlockFit, cal: Any, periods: pd.PeriodIndex, new_events: str) -> Horizon:
-    """The horizon of a block's design group."""
-    return horizon(group_view(fit.group), cal, periods, new_events)
+def group_horizon(fit: BlockFit, cal: Any, periods: pd.PeriodIndex, new_events: str,
+                  allow_negative: bool = False) -> Horizon:
+    """The horizon of a block's design group (``allow_negative``: the panel's fit option; without it an
+    additive group's plans are floored at zero, :mod:`evcal.plan.floor`)."""
+    return horizon(group_view(fit.group, allow_negative), cal, periods, new_events)

@@ -14,6 +14,8 @@ model's trend, seasonal and intervention terms. What goes into the plan:
   in units, adding up exactly);
 * **closures**: periods are planned at their open share, so a fully closed
   day is zero and a week with one closed day keeps six sevenths of its plan.
+* **at zero, not below**: an additive model of a series that cannot be negative is
+  floored at zero, its negative amounts scaled so base + lifts = 0 (:mod:`evcal.plan.floor`).
 """
 
 from __future__ import annotations
@@ -33,6 +35,7 @@ from evcal.errors import PlanError
 from evcal.model.identify import ColumnStatus
 from evcal.model.leap import leap_year_notes
 from evcal.plan.actuals import check_rest, with_year_to_date, year_to_date
+from evcal.plan.floor import floor_note, floor_parts, floors
 from evcal.plan.future import future_changes, history_last_day
 from evcal.plan.horizon import full_years, horizon_periods, period_dates, period_years
 from evcal.plan.result import Plan
@@ -190,14 +193,16 @@ def plan_periods(
     h = horizon(result, cal, periods, new_events)
     err, smear = error_and_smear(result, periods)
     pmap = {c: np.array([float(v)]) for c, v in result.params.items()}
-    base, fitted, lifts = plan_parts(h, plan_group(result, h), pmap, smear[None, :], err.mean[None, :])
+    base, fitted, lifts, floored = plan_parts(h, plan_group(result, h), pmap, smear[None, :],
+                                              err.mean[None, :])
 
-    table = pd.DataFrame({"date": period_dates(periods, result.label), "base": base[0], "plan": fitted[0]})
+    dates = period_dates(periods, result.label)
+    table = pd.DataFrame({"date": dates, "base": base[0], "plan": fitted[0]})
     _check_finite(table, result)
     if n_sims > 0:
         with held_blas(n_sims, len(result.params)):  # draws x coefficients: small, one thread
             low, high = simulate_interval(result, h.X, h.share.to_numpy(), h.base_cols, h.schedule, err,
-                                          n_sims=n_sims, seed=seed)
+                                          n_sims=n_sims, seed=seed, floor=h.floor)
         table["low"], table["high"] = low, high
     else:
         table["low"] = table["high"] = np.nan
@@ -217,6 +222,9 @@ def plan_periods(
     if dropped:
         notes.append(f"not planned (over before the horizon): {', '.join(dropped)}")
     notes += h.notes
+    floor_text = floor_note(floored[0], base[0], {ev: lifts[ev][0] for ev in h.events}, periods,
+                            pd.DatetimeIndex(dates), result.label, result.event_labels)
+    notes += [floor_text] if floor_text else []
     notes += coverage_notes(cal, periods[-1].end_time)  # date files that stop inside the horizon
     if h.future and (total is not None or totals is not None):
         notes.append(f"the target keeps the total, so the assumed change of {', '.join(h.future)} moves "
@@ -284,6 +292,7 @@ class Horizon:
     handled: set[str] = field(default_factory=set)
     drivers: list[str] = field(default_factory=list)  # outside drivers: a part each, planned at their values
     roles: dict[str, str] = field(default_factory=dict)  # design column -> role (build_design)
+    floor: bool = False  # plans floored at zero (evcal.plan.floor: additive, negatives not allowed)
 
     @property
     def terms(self) -> list[str]:
@@ -334,7 +343,8 @@ def horizon(result: Any, cal: Any, periods: pd.PeriodIndex, new_events: str = "e
         for c in event_cols + future + drivers if colmap[c] == ev)]
     active = {ev: note for ev, note in schedule.notes.items() if on_own[ev].any()}
     return Horizon(periods, X, design.open_share, closures, colmap, event_cols, schedule, base_cols, on_own,
-                   events, in_season, active, future, fc.notes, fc.handled, drivers, design.roles)
+                   events, in_season, active, future, fc.notes, fc.handled, drivers, design.roles,
+                   floors(result))
 
 
 def plan_group(result: Any, h: Horizon) -> GroupInfo:
@@ -347,29 +357,32 @@ def plan_group(result: Any, h: Horizon) -> GroupInfo:
 
 def plan_parts(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
                err_mean: np.ndarray | None = None, curved: dict[str, np.ndarray] | None = None,
-               ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
-    """Base, plan and each event's lift (m, n) for m coefficient vectors on one horizon.
+               ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray], np.ndarray]:
+    """Base, plan and each event's lift (m, n) for m coefficient vectors on one horizon, and the (m, n)
+    mask of the periods floored at zero (:mod:`evcal.plan.floor`).
 
     ``pmap`` maps each coefficient to its (m,) values, ``smear`` (m, n) the
     mean correction, ``err_mean`` (m, n) the error's forecast on the model scale
     (zero when None), ``curved`` event columns that differ by series (m, n).
     One decomposition (:func:`evcal.effects.decompose_block`) for one model and many.
     """
-    base, fitted, parts = plan_decomposition(h, group, pmap, smear, err_mean, curved)
+    base, fitted, parts, floored = plan_decomposition(h, group, pmap, smear, err_mean, curved)
     base, fitted = base * smear, fitted * smear
     lifts = {}
     for ev in h.events:
         cols = [c for c in parts if h.colmap.get(c, c) == ev]
         lifts[ev] = sum(parts[c] for c in cols) * smear if cols else np.zeros(smear.shape)
-    return base, fitted, lifts
+    return base, fitted, lifts, floored
 
 
 def plan_decomposition(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray], smear: np.ndarray,
                        err_mean: np.ndarray | None = None, curved: dict[str, np.ndarray] | None = None,
-                       ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
+                       ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray], np.ndarray]:
     """:func:`plan_parts` before the mean correction and before the parts are summed by event: base,
     plan and each column's part (m, n) (the closures under their own names); times ``smear`` they are
-    in units. :mod:`evcal.plan.explain` shows them one by one."""
+    in units. :mod:`evcal.plan.explain` shows them one by one. The floor at zero is applied here
+    (``h.floor``: :func:`evcal.plan.floor.floor_parts`), so every plan, the panel's and the explained
+    ones too, gets it; the last array is the (m, n) mask of the periods it floored."""
     m, n = smear.shape
     columns = dict(h.X.items())
     columns[ERROR_COLUMN] = np.zeros(n) if err_mean is None else err_mean[0]
@@ -382,4 +395,6 @@ def plan_decomposition(h: Horizon, group: GroupInfo, pmap: dict[str, np.ndarray]
     with np.errstate(over="ignore", invalid="ignore"):  # a non-finite plan is one line in the caller
         base, fitted, parts = decompose_block(ctx, group, pmap, np.ones(m), curved=curved,
                                               curved_support=support, terms=h.terms)
-    return base, fitted, parts
+    if h.floor:  # an additive model's smear is 1: these are the plan's units
+        return floor_parts(base, fitted, parts)
+    return base, fitted, parts, np.zeros((m, n), dtype=bool)

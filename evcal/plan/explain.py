@@ -70,6 +70,8 @@ __all__ = ["Explanation", "PART_COLUMNS", "explain_history", "explain_plan", "pl
 PART_COLUMNS = ("date", "part", "kind", "amount", "share_pct", "what")
 #: the base's parts, named as the table shows them
 TREND, SEASON, ERROR, SMEAR = "trend", "regular season", "error forecast", "mean correction"
+#: the part that brings a base below zero up with the plan floored at zero (:mod:`evcal.plan.floor`)
+FLOORED = "base floored at zero"
 
 
 @dataclass
@@ -196,8 +198,8 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str | None = No
     h = horizon(result, cal, periods, new_events)
     err, smear = error_and_smear(result, periods)
     pmap = {c: np.array([float(v)]) for c, v in result.params.items()}
-    base, fitted, parts = plan_decomposition(h, plan_group(result, h), pmap, smear[None, :],
-                                             err.mean[None, :])
+    base, fitted, parts, floored = plan_decomposition(h, plan_group(result, h), pmap, smear[None, :],
+                                                      err.mean[None, :])
     columns = {**dict(h.X.items()), ERROR_COLUMN: err.mean}
     coefs = {**{c: float(v) for c, v in result.params.items()}, ERROR_COLUMN: 1.0}
     # differenced errors: no constant, the level is the error's (see the module notes)
@@ -205,6 +207,13 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str | None = No
     base_cols = h.base_cols + ([ERROR_COLUMN] if err.kind == "arima" else [])
     anchor, others = _base_groups(columns, coefs, h.roles, base_cols, level)
     out = split_base(result.transform, anchor, others, smear)
+    # a base below zero is scaled with the negative lifts (evcal.plan.floor): the base's parts stay as the
+    # model makes them, the scaling is a part of its own
+    gap = base[0] * smear - sum(out.values())
+    size = 1.0 + sum(np.abs(v) for v in out.values())
+    below = floored[0] & (base[0] <= 0.0) & (np.abs(gap) > 1e-9 * size)
+    if below.any():
+        out[FLOORED] = np.where(below, gap, 0.0)
     kinds = {k: "base" for k in out}
     closures = set(h.closures.columns)
     for c, v in parts.items():
@@ -212,6 +221,9 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str | None = No
         kinds.setdefault(name, "closure" if c in closures else _kind(result, name, h))
         out[name] = out.get(name, 0.0) + v[0] * smear
     frame = pd.DataFrame(out, index=periods)
+    # the positions of the periods planned at 0, not below (evcal.plan.floor): plain ints, as pandas compares
+    # attrs when frames are combined
+    frame.attrs["floored"] = tuple(int(j) for j in np.flatnonzero(floored[0]))
     model = fitted[0] * smear
     years = period_years(periods, result.label)
     factor = np.array([(plan.factors or {}).get(int(y), 1.0) for y in years])
@@ -270,6 +282,11 @@ def explain_plan(plan: Any, date: Any, calendar: Any = None, new_events: str | N
     factor = plan.factors.get(int(period_years(plan.periods[i:i + 1], result.label)[0]), 1.0) \
         if plan.factors else 1.0
     words = _words(result, values, kinds, dict(plan.assumptions), factor)
+    if i in frame.attrs["floored"]:
+        for k, v in values.items():
+            if v < 0.0 and kinds.get(k) != "base":
+                words[k] += ("; scaled down with the period's other negative parts so the plan is 0, "
+                             "not below (a series that cannot be negative)")
     day = period_dates(plan.periods[i:i + 1], result.label)[0]
     lines = [f"{_period_text(result, period, day)}: plan {number:,.2f} (an estimate from past data and the "
              "calendar; the people who own the decision decide)"]
@@ -365,7 +382,9 @@ def _words(result: Any, values: dict[str, float], kinds: dict[str, str], assumpt
            SMEAR: "log model: the mean of the expected sales is above their median (smearing)",
            "spread to the target": f"spread to the target: every part above times {factor:.6f}",
            "whole units": "whole units (--round): largest-remainder rounding of the spread plan",
-           "residual": "actual minus fitted: what the model does not explain"}
+           "residual": "actual minus fitted: what the model does not explain",
+           FLOORED: "the base is below zero here: scaled with the negative lifts so the plan is 0, not below "
+                    "(a series that cannot be negative)"}
     for k, kind in kinds.items():
         if k in out:
             continue

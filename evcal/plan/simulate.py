@@ -19,7 +19,9 @@ and adds one period's noise:
   fitted ``alpha``, around the period's mean.
 
 ``low``/``high`` are the 2.5 % and 97.5 % quantiles of the draws in each
-period. Borrowed lifts (``like``) move with the coefficient they borrow;
+period; for an additive model of a series that cannot be negative each draw's
+plan is floored at zero first (:mod:`evcal.plan.floor`: the rule the plan itself
+follows). Borrowed lifts (``like``) move with the coefficient they borrow;
 assumed lifts are fixed (they carry no uncertainty of their own). Fully closed
 periods are zero in every draw.
 
@@ -271,12 +273,13 @@ def scheduled_terms(schedule: Schedule, column: Callable[[str], np.ndarray]
 
 def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base_cols: list[str],
                       schedule: Schedule, err: ErrorForecast, n_sims: int = 1000, seed: int = 0,
-                      level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
+                      level: float = 0.95, floor: bool = False) -> tuple[np.ndarray, np.ndarray]:
     """Low and high ends of the plan's prediction interval in each period.
 
     ``X`` is the horizon's design (unmerged event columns, no error column),
     ``base_cols`` its columns that make the base, ``err`` the error's forecast;
-    the same ``seed`` gives the same interval.
+    the same ``seed`` gives the same interval. ``floor``: each draw of an additive
+    model floored at zero (:mod:`evcal.plan.floor`).
     """
     rng = np.random.default_rng(seed)
     n = int(n_sims)
@@ -311,6 +314,8 @@ def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base
     if transform == "none":
         level_units = eta_base + terms + assumed_units + err.mean[None, :]
         y = share[None, :] * level_units + (share > 0).astype(float)[None, :] * sd[None, :] * z
+        if floor:
+            y = np.maximum(y, 0.0)
     elif transform == "count":
         # the mean on the log scale: closed periods are exactly zero (no 0 x overflow)
         with np.errstate(divide="ignore", over="ignore"):
@@ -331,6 +336,14 @@ def simulate_interval(result: Any, X: pd.DataFrame, open_share: np.ndarray, base
     tail = (1.0 - level) / 2.0
     low, high = np.quantile(y, [tail, 1.0 - tail], axis=0)
     return low, high
+
+
+def _same(x: np.ndarray) -> np.ndarray:
+    return x
+
+
+def _at_zero(x: np.ndarray) -> np.ndarray:  # a draw's plan floored at zero (evcal.plan.floor)
+    return np.maximum(x, 0.0)
 
 
 #: series whose draws are formed at once by simulate_block (draws x series x periods numbers)
@@ -435,7 +448,7 @@ def _order_stats(x: np.ndarray, ranks: np.ndarray, mean: np.ndarray | None, sd: 
 
 def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarray, const: np.ndarray,
                    sd: np.ndarray, open_share: np.ndarray, n_sims: int = 1000, seed: int = 0,
-                   level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
+                   level: float = 0.95, floor: bool = False) -> tuple[np.ndarray, np.ndarray]:
     """:func:`simulate_interval` for m series of one design with iid errors (log or additive), at once.
 
     ``mu`` (m, k) and ``cov`` (m, k, k) are each series' coefficients and their
@@ -447,7 +460,9 @@ def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarra
     same order, so its interval does not depend on the other series of the
     block, and equals the single-series plan's up to rounding. The draws are
     laid out last (series, periods, draws); in the log model only the order
-    statistics that give the quantiles are exponentiated (``exp`` keeps the order).
+    statistics that give the quantiles are exponentiated (``exp`` keeps the order); so are
+    the additive model's draws floored at zero (``floor``: ``max(x, 0)`` keeps the order too,
+    so the quantiles are those of the floored draws exactly).
     """
     rng = np.random.default_rng(seed)
     m, n_periods, k = M.shape
@@ -480,7 +495,7 @@ def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarra
             noise *= (share > 0)[:, None]
             y = np.add(eta, noise, out=eta)
             guide_sd = np.sqrt(share**2 * spread + (share > 0) * sd[a:b, None] ** 2)
-            low[a:b], high[a:b] = _order_quantiles(y, (tail, 1.0 - tail), lambda x: x,
+            low[a:b], high[a:b] = _order_quantiles(y, (tail, 1.0 - tail), _at_zero if floor else _same,
                                                    share * center[a:b], guide_sd)
         else:
             eta += noise

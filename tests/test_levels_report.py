@@ -48,8 +48,8 @@ def test_the_section_shows_the_method_the_sizes_and_the_total_before_and_after(m
     assert f"Reconciled by {method.group(1)} ({method.group(2)} common periods" in words
     assert "Plans are estimates" in words
     # the sizes table: each level's row as the command printed it (two decimals)
-    for level, n, mean, most in re.findall(r"^  (\S+): (\d+) series moved ([\d.]+) % on average, at most "
-                                            r"([\d.]+) %", said, re.M):
+    for level, n, mean, most in re.findall(r"^  (\S+): (\d+) series moved ([\d.]+) % of their plans in all; "
+                                            r"the largest move [\d.,]+ units \(([\d.]+) %", said, re.M):
         assert f" {level} {n} {mean} % {most} % " in words, level
     # the chart: the grand total, and its caption's gap from the plan file (own − bottom series, before)
     assert "The total level before and after" in words

@@ -196,10 +196,12 @@ def test_summary_reports_each_levels_adjustment():
     structure = summing_structure(pd.DataFrame({"store": ["s", "t"]}), [[]])
     r = reconcile(structure, np.array([[40.0, 10.0], [45.0, 20.0]]), np.array([[100.0, 30.0]]), method="ols")
     s = r.summary.set_index("level")
-    # adjustments: total −5 and 0 (gap 15 and 0), each store +5 and 0; in % of the plan before
+    # adjustments: total −5 and 0 (gap 15 and 0), each store +5 and 0; all of a level's adjustments in %
+    # of all its plans before, the largest in % of its series' average period
     assert s.loc["total", "max_abs_units"] == pytest.approx(5.0)
-    assert s.loc["total", "mean_abs_pct"] == pytest.approx((5 / 100 * 100 + 0) / 2)
-    assert s.loc["store", "max_abs_pct"] == pytest.approx(5 / 40 * 100)
+    assert s.loc["total", "mean_abs_pct"] == pytest.approx(100 * 5 / (100 + 30))
+    assert s.loc["store", "mean_abs_pct"] == pytest.approx(100 * (5 + 5) / (40 + 10 + 45 + 20))
+    assert s.loc["store", "max_abs_pct"] == pytest.approx(100 * 5 / ((40 + 10) / 2))
     assert s.loc["store", "largest_at"] == "store=s"
     assert s.loc["store", "series"] == 2
 

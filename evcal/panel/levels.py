@@ -311,8 +311,9 @@ def describe(rec: Reconciled) -> list[str]:
     lines = [f"reconciled by {rec.method} ({rec.reason}{lam}): every parent's plan is now the sum of "
              "its bottom series' plans"]
     for r in rec.summary.itertuples():
-        lines.append(f"  {r.level}: {r.series} series moved {r.mean_abs_pct:.2f} % on average, at most "
-                     f"{r.max_abs_pct:.2f} % ({amount(r.max_abs_units)} units, {r.largest_at})")
+        lines.append(f"  {r.level}: {r.series} series moved {r.mean_abs_pct:.2f} % of their plans in all; "
+                     f"the largest move {amount(r.max_abs_units)} units ({r.max_abs_pct:.2f} % of an average "
+                     f"period of {r.largest_at})")
     return lines
 
 

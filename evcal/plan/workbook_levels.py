@@ -47,8 +47,9 @@ LEVELS_SHEETS = ("Levels", "Notes")
 #: the amounts of a level's sheet, totalled in its last row
 AMOUNTS = ("plan", "plan_before", "adjustment")
 #: what a planner reads over each column of the tables (plan.csv's codes are in a hidden row above)
-HEADERS = {"plan_before": "plan before", "mean_abs_pct": "mean adjustment (% of plan before)",
-           "max_abs_pct": "largest adjustment (%)", "max_abs_units": "largest adjustment (units)",
+HEADERS = {"plan_before": "plan before", "mean_abs_pct": "adjustments in all (% of plans before)",
+           "max_abs_pct": "largest adjustment (% of its series' average period)",
+           "max_abs_units": "largest adjustment (units)",
            "largest_at": "largest at"}
 #: the adjustment sizes' formats: two decimals, as the command prints them (percentages are fractions)
 SIZE_FORMATS = {"mean_abs_pct": "0.00%", "max_abs_pct": "0.00%", "max_abs_units": "#,##0.00"}

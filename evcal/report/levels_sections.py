@@ -187,7 +187,8 @@ def levels_section(plan: pd.DataFrame, freq: str, path: str | Path) -> dict[str,
                                        f"{len(dates)} periods", caption)
     lines.append("Plans are estimates: the numbers to commit to at each level are the call of the people "
                  "who own that level's plan.")
-    sizes = table(["level", "series", "mean adjustment (% of plan before)", "largest adjustment (%)",
+    sizes = table(["level", "series", "adjustments in all (% of plans before)",
+                   "largest adjustment (% of its series' average period)",
                    "largest adjustment (units)", "largest at"], rows, numeric=(1, 2, 3, 4))
     return {"lines": lines, "sizes": sizes, "figure": chart, "chart_level": shown}
 

@@ -11,8 +11,9 @@ differ). The first scenario is the reference. Two tables come out:
 * by event (:mod:`evcal.plan.scenario_events`): ``event``, ``units_before_spread:<name>`` (what
   the event adds over the horizon in that scenario, in the model's units before any spread to a
   target; 0 where the scenario does not schedule it) and ``difference_before_spread:<name>``
-  against the reference, then the base and the spread to the target on rows of their own, so each
-  column adds up exactly to the total (difference).
+  against the reference, then the base, the spread to the target and the rounding to whole units
+  (``--round``: the parts are the plan's before it) on rows of their own, so each column adds up
+  exactly to the total (difference).
 
 With a target every plan adds up to it, so the differences show where the
 volume moves rather than how much there is. :func:`compare` is the
@@ -45,6 +46,7 @@ from evcal.plan.result import Plan, output_path
 from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
 from evcal.plan.scenario_events import PART_ROWS, by_event
 from evcal.plan.scenario_notes import NOTE_ROW, summary_lines, with_assumptions
+from evcal.plan.spread import whole_unit_plan
 from evcal.plan.summary import period_name
 from evcal.spelling import option, subject
 
@@ -80,6 +82,9 @@ class Scenarios:
     ----------
     plans : dict
         Scenario name -> its :class:`Plan`, in the scenarios' order.
+    unrounded : dict
+        Scenario name -> its plan before the rounding to whole units (``whole_units=``, ``--round``):
+        what the by-event table's parts come from. The same plans as ``plans`` without the rounding.
     table : DataFrame
         Side by side: ``date``, ``plan:<name>`` each, ``difference:<name>`` each but the first;
         a last ``total`` row.
@@ -93,6 +98,7 @@ class Scenarios:
     plans: dict[str, Plan]
     table: pd.DataFrame
     events: pd.DataFrame = field(default_factory=pd.DataFrame)
+    unrounded: dict[str, Plan] = field(default_factory=dict)
 
     @property
     def names(self) -> list[str]:
@@ -249,7 +255,9 @@ def plan_scenarios(
         Start each problem of a scenario's calendar or plan with ``scenario NAME:`` (:func:`compare`
         keeps its own wording).
     **plan_options
-        ``total``, ``totals``, ``new_events``, ``n_sims``, ``seed``, ``whole_units``: the same for all.
+        ``total``, ``totals``, ``new_events``, ``n_sims``, ``seed``, ``whole_units``: the same for all. With
+        ``whole_units`` each plan is rounded as :func:`evcal.plan.make_plan` rounds it, and the by-event
+        table takes its parts from the plan before the rounding (``Scenarios.unrounded``).
 
     Examples
     --------
@@ -261,9 +269,14 @@ def plan_scenarios(
              if isinstance(scenarios, Mapping) else list(scenarios))
     items = [replace(s, drivers=drivers) if s.drivers is None else s for s in items]
     check_scenarios([s.name for s in items])
-    plans = {s.name: _plan(result, start, end, s, named=name_problems,
-                           **plan_options) for s in items}
-    return Scenarios(plans=plans, table=side_by_side(plans), events=with_assumptions(by_event(plans), plans))
+    whole = bool(plan_options.pop("whole_units", False))
+    unrounded = {s.name: _plan(result, start, end, s, named=name_problems, **plan_options) for s in items}
+    # rounded as make_plan rounds (the one rounding), after the plan before it is kept: the by-event
+    # table's parts come from that, and the rounding is a row of its own
+    by_year = plan_options.get("totals") is not None
+    plans = {n: whole_unit_plan(p, by_year=by_year) for n, p in unrounded.items()} if whole else unrounded
+    events = with_assumptions(by_event(plans, unrounded if whole else None), plans)
+    return Scenarios(plans=plans, table=side_by_side(plans), events=events, unrounded=unrounded)
 
 
 def check_scenarios(names: Sequence[str]) -> None:

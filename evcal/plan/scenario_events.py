@@ -31,16 +31,18 @@ Examples
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from evcal.design.base import day_span
 from evcal.plan.horizon import period_years
 from evcal.plan.spread import DRIVER_PREFIX
 
 __all__ = ["BASE_ROW", "DIFF_PREFIX", "DRIVERS_ROW", "PART_ROWS", "SPREAD_ROW", "UNITS_PREFIX", "WHOLE_ROW",
-           "by_event", "model_parts"]
+           "by_event", "model_parts", "why_no_lift"]
 
 #: the by-event table's columns: each scenario's units and each one's difference, before the spread
 UNITS_PREFIX, DIFF_PREFIX = "units_before_spread:", "difference_before_spread:"
@@ -49,6 +51,11 @@ OLD_UNITS_PREFIX, OLD_DIFF_PREFIX = "units:", "difference:"
 BASE_ROW, DRIVERS_ROW, SPREAD_ROW = "[base]", "[outside drivers]", "[spread to the target]"
 #: the rounding to whole units (``--round``), named as ``evcal explain`` names that part
 WHOLE_ROW = "[whole units]"
+#: why a scenario's plan has no lift for an event another scenario plans (:func:`why_no_lift`)
+NOT_IN_CALENDAR = "not in its calendar"
+NOT_IN_HORIZON = "in its calendar, no occurrence in the horizon"
+CLOSED = "in its calendar, no lift there: {} its days"
+NO_LIFT = "in its calendar, no lift in the horizon"
 #: the rows that are not events, and how the report names them
 PART_ROWS = {BASE_ROW: "base (without the events)", DRIVERS_ROW: "outside drivers",
              SPREAD_ROW: "spread to the target", WHOLE_ROW: "whole units"}
@@ -123,3 +130,49 @@ def by_event(plans: Mapping[str, Any], unrounded: Mapping[str, Any] | None = Non
     cols = {UNITS_PREFIX + n: units[n] for n in names}
     cols |= {DIFF_PREFIX + n: units[n] - units[names[0]] for n in names[1:]}
     return pd.DataFrame({"event": rows, **cols})
+
+
+def why_no_lift(plan: Any, event: str) -> str:
+    """Why ``plan`` has no ``lift:`` column for ``event``, from its calendar and horizon.
+
+    ``not in its calendar``; ``in its calendar, no occurrence in the horizon``; ``in its calendar, no lift
+    there: NAME closes its days`` when every day of its occurrences in the horizon is closed
+    (closed days carry no lift: :mod:`evcal.design.events`), naming the closures that cover them; else
+    ``in its calendar, no lift in the horizon``. A plan built without its calendar: ``not in its calendar``.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace as P
+    >>> from evcal.calendar import load_calendar
+    >>> cal = load_calendar('''
+    ... name: invented
+    ... events:
+    ...   - {name: sale, when: {dates: [2030-03-04]}}
+    ...   - {name: fair, when: {dates: [2031-06-01]}}
+    ...   - {name: stocktake, when: {dates: [2030-03-04]}, effect: zero}
+    ... ''')
+    >>> plan = P(calendar=cal, periods=pd.period_range("2030-01", periods=12, freq="M"))
+    >>> [why_no_lift(plan, e) for e in ("sale", "fair", "promo")]  # doctest: +NORMALIZE_WHITESPACE
+    ['in its calendar, no lift there: stocktake closes its days',
+     'in its calendar, no occurrence in the horizon', 'not in its calendar']
+    """
+    cal = getattr(plan, "calendar", None)
+    names = [] if cal is None else [e.name for e in cal.events]
+    if event not in names:
+        return NO_LIFT if cal is not None and event in {iv.name for iv in cal.interventions} \
+            else NOT_IN_CALENDAR
+    first, last = day_span(plan.periods)
+    days = cal.day_weights(first, last, normalize="none", events=[event]).ne(0).any(axis=1)
+    if not days.any():
+        return NOT_IN_HORIZON
+    closed = cal.closed_days(first, last).reindex(days.index, fill_value=False)
+    if (days & ~closed).any():
+        return NO_LIFT
+
+    def closes(closure: Any) -> bool:  # the days one closure closes, as the design closes them
+        own = replace(cal, events=[closure]).closed_days(first, last).reindex(days.index, fill_value=False)
+        return bool((days & own).any())
+
+    # every day it touches is closed, so none carries its lift: name the closures that close them
+    by = [c.name for c in cal.closures() if c.name != event and closes(c)]
+    return CLOSED.format(f"{', '.join(by)} close{'s' if len(by) == 1 else ''}" if by else "closures close")

@@ -44,7 +44,7 @@ from evcal.outputs import check_beside
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
 from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
-from evcal.plan.scenario_events import PART_ROWS, by_event
+from evcal.plan.scenario_events import PART_ROWS, by_event, why_no_lift
 from evcal.plan.scenario_notes import NOTE_ROW, summary_lines, with_assumptions
 from evcal.plan.spread import whole_unit_plan
 from evcal.plan.summary import period_name
@@ -144,8 +144,11 @@ class Scenarios:
 
         def each(k: int) -> str:
             event = rows["event"].iloc[k]
-            return ", ".join(f"{n} {amount(diffs[k, j], sign=True)}"
-                             f"{' (not in it)' if is_event[k] and event not in self.plans[n].events else ''}"
+            # a scenario without the event's lift: say why, from its calendar (not there, no occurrence
+            # in the horizon, or its days closed), not one word for all three
+            why = {n: f" ({why_no_lift(self.plans[n], event)})" for j, n in enumerate(others)
+                   if moved[k, j] and is_event[k] and event not in self.plans[n].events}
+            return ", ".join(f"{n} {amount(diffs[k, j], sign=True)}{why.get(n, '')}"
                              for j, n in enumerate(others) if moved[k, j])
 
         lines = [f"Events that differ (the model's units over the horizon, before any spread to a target, "

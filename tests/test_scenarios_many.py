@@ -159,7 +159,7 @@ def test_an_event_in_only_some_scenarios_is_listed(result: evcal.FitResult) -> N
     assert ev.loc["tournament", "units_before_spread:promo-only"] == 0.0
     assert ev.loc["tournament", "difference_before_spread:promo-only"] == pytest.approx(
         -4 * TOURNAMENT_WEEKLY, abs=4 * TOLERANCE)
-    assert "tournament: promo-only -" in sc.summary() and "(not in it)" in sc.summary()
+    assert "tournament: promo-only -" in sc.summary() and "(not in its calendar)" in sc.summary()
 
 
 def test_totals_equal_under_a_target(result: evcal.FitResult) -> None:

@@ -13,8 +13,9 @@ Examples
 from __future__ import annotations
 
 from evcal.plan.build import make_plan, plan_periods
+from evcal.plan.comparison import Comparison, compare
 from evcal.plan.result import Plan
-from evcal.plan.scenarios import Comparison, Scenario, Scenarios, compare, plan_scenarios
+from evcal.plan.scenarios import Scenario, Scenarios, plan_scenarios
 
 __all__ = ["make_plan", "plan_periods", "Plan", "compare", "Comparison", "plan_scenarios", "Scenario",
            "Scenarios"]

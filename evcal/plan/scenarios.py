@@ -11,12 +11,13 @@ differ). The first scenario is the reference. Two tables come out:
 * by event (:mod:`evcal.plan.scenario_events`): ``event``, ``units_before_spread:<name>`` (what
   the event adds over the horizon in that scenario, in the model's units before any spread to a
   target; 0 where the scenario does not schedule it) and ``difference_before_spread:<name>``
-  against the reference, then the base and the spread to the target on rows of their own, so each
-  column adds up exactly to the total (difference).
+  against the reference, then the base, the spread to the target and the rounding to whole units
+  (``--round``: the parts are the plan's before it) on rows of their own, so each column adds up
+  exactly to the total (difference).
 
 With a target every plan adds up to it, so the differences show where the
 volume moves rather than how much there is. :func:`compare` is the
-two-scenario case written as ``date, plan_a, plan_b, difference``.
+two-scenario case written as ``date, plan_a, plan_b, difference`` (:mod:`evcal.plan.comparison`).
 
 Examples
 --------
@@ -43,10 +44,11 @@ from evcal.outputs import check_beside
 from evcal.plan.build import make_plan
 from evcal.plan.result import Plan, output_path
 from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
-from evcal.plan.scenario_events import PART_ROWS, by_event
+from evcal.plan.scenario_events import PART_ROWS, by_event, why_no_lift
 from evcal.plan.scenario_notes import NOTE_ROW, summary_lines, with_assumptions
+from evcal.plan.spread import whole_unit_plan
 from evcal.plan.summary import period_name
-from evcal.spelling import option, subject
+from evcal.spelling import option
 
 #: the side-by-side table's column prefixes (plan: per scenario, difference: against the first); the
 #: by-event table's are in evcal.plan.scenario_events
@@ -80,6 +82,9 @@ class Scenarios:
     ----------
     plans : dict
         Scenario name -> its :class:`Plan`, in the scenarios' order.
+    unrounded : dict
+        Scenario name -> its plan before the rounding to whole units (``whole_units=``, ``--round``):
+        what the by-event table's parts come from. The same plans as ``plans`` without the rounding.
     table : DataFrame
         Side by side: ``date``, ``plan:<name>`` each, ``difference:<name>`` each but the first;
         a last ``total`` row.
@@ -93,6 +98,7 @@ class Scenarios:
     plans: dict[str, Plan]
     table: pd.DataFrame
     events: pd.DataFrame = field(default_factory=pd.DataFrame)
+    unrounded: dict[str, Plan] = field(default_factory=dict)
 
     @property
     def names(self) -> list[str]:
@@ -138,8 +144,11 @@ class Scenarios:
 
         def each(k: int) -> str:
             event = rows["event"].iloc[k]
-            return ", ".join(f"{n} {amount(diffs[k, j], sign=True)}"
-                             f"{' (not in it)' if is_event[k] and event not in self.plans[n].events else ''}"
+            # a scenario without the event's lift: say why, from its calendar (not there, no occurrence
+            # in the horizon, or its days closed), not one word for all three
+            why = {n: f" ({why_no_lift(self.plans[n], event)})" for j, n in enumerate(others)
+                   if moved[k, j] and is_event[k] and event not in self.plans[n].events}
+            return ", ".join(f"{n} {amount(diffs[k, j], sign=True)}{why.get(n, '')}"
                              for j, n in enumerate(others) if moved[k, j])
 
         lines = [f"Events that differ (the model's units over the horizon, before any spread to a target, "
@@ -165,14 +174,14 @@ class Scenarios:
         if path.suffix.lower() == ".csv":
             if not events:
                 with atomic_path(path) as tmp:
-                    _write_table_csv(self.table, tmp)
+                    write_table_csv(self.table, tmp)
                 return [path]
             beside = events_path(path)
             # the user named only the first file: the one beside it is replaced only when evcal wrote it
             check_beside(path, beside, BY_EVENT, "compare", force=True,
                          named=option("path", str(path), flag="--out"))
             with atomic_paths(path, beside) as (tmp, tmp_events):  # both or neither
-                _write_table_csv(self.table, tmp)
+                write_table_csv(self.table, tmp)
                 write_csv(self.events, tmp_events, index=False, float_format="%.6f")
             return [path, beside]
         frames = []
@@ -182,7 +191,7 @@ class Scenarios:
             frame.insert(0, "scenario", name)
             frames.append(frame)
         plans = pd.concat(frames, ignore_index=True)
-        sheets = {"Scenarios": _excel_dates(self.table), "Events": self.events, "Plans": plans}
+        sheets = {"Scenarios": excel_dates(self.table), "Events": self.events, "Plans": plans}
         with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
             writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
             for sheet, frame in sheets.items():
@@ -249,7 +258,9 @@ def plan_scenarios(
         Start each problem of a scenario's calendar or plan with ``scenario NAME:`` (:func:`compare`
         keeps its own wording).
     **plan_options
-        ``total``, ``totals``, ``new_events``, ``n_sims``, ``seed``, ``whole_units``: the same for all.
+        ``total``, ``totals``, ``new_events``, ``n_sims``, ``seed``, ``whole_units``: the same for all. With
+        ``whole_units`` each plan is rounded as :func:`evcal.plan.make_plan` rounds it, and the by-event
+        table takes its parts from the plan before the rounding (``Scenarios.unrounded``).
 
     Examples
     --------
@@ -261,9 +272,14 @@ def plan_scenarios(
              if isinstance(scenarios, Mapping) else list(scenarios))
     items = [replace(s, drivers=drivers) if s.drivers is None else s for s in items]
     check_scenarios([s.name for s in items])
-    plans = {s.name: _plan(result, start, end, s, named=name_problems,
-                           **plan_options) for s in items}
-    return Scenarios(plans=plans, table=side_by_side(plans), events=with_assumptions(by_event(plans), plans))
+    whole = bool(plan_options.pop("whole_units", False))
+    unrounded = {s.name: _plan(result, start, end, s, named=name_problems, **plan_options) for s in items}
+    # rounded as make_plan rounds (the one rounding), after the plan before it is kept: the by-event
+    # table's parts come from that, and the rounding is a row of its own
+    by_year = plan_options.get("totals") is not None
+    plans = {n: whole_unit_plan(p, by_year=by_year) for n, p in unrounded.items()} if whole else unrounded
+    events = with_assumptions(by_event(plans, unrounded if whole else None), plans)
+    return Scenarios(plans=plans, table=side_by_side(plans), events=events, unrounded=unrounded)
 
 
 def check_scenarios(names: Sequence[str]) -> None:
@@ -311,64 +327,7 @@ def _plan(result: Any, start: Any, end: Any, scenario: Scenario, named: bool = T
         raise type(err)([f"scenario {scenario.name}: {p}" for p in err.problems]) from None
 
 
-# ---------------------------------------------------------------- the two-scenario case
-
-
-@dataclass
-class Comparison:
-    """Two plans of one horizon under two calendars (or driver values): :func:`compare`.
-
-    Attributes
-    ----------
-    table : DataFrame
-        ``date, plan_a, plan_b, difference`` (``b - a``) per period, then a ``total`` row.
-    plan_a, plan_b : Plan
-    """
-
-    table: pd.DataFrame
-    plan_a: Plan
-    plan_b: Plan
-    name_a: str = "A"
-    name_b: str = "B"
-
-    def summary(self, top: int = 3) -> str:
-        """Totals of both plans, their difference, and the periods that differ most."""
-        a, b = self.plan_a.total, self.plan_b.total
-        pct = 100.0 * (b - a) / a if a else float("nan")
-        lines = [f"Scenario A ({self.name_a}): total {amount(a)}; scenario B ({self.name_b}): total "
-                 f"{amount(b)}; difference B - A {amount(b - a, sign=True)} ({pct:+.1f}%)."]
-        if self.plan_a.target is not None:
-            lines.append("Both plans are spread to the same target, so the difference shows where the "
-                         "volume moves between periods.")
-        rows = self.table.iloc[:-1]
-        moves = largest_moves(rows["difference"].to_numpy(dtype=float), rows["date"], self.plan_a, top)
-        lines.append(f"Periods that differ most: {moves}." if moves
-                     else "The two scenarios give the same plan in every period.")
-        gained = sorted(set(self.plan_b.events) - set(self.plan_a.events))
-        lost = sorted(set(self.plan_a.events) - set(self.plan_b.events))
-        if gained:
-            lines.append(f"Only in B: {', '.join(gained)}.")
-        if lost:
-            lines.append(f"Only in A: {', '.join(lost)}.")
-        lines.append("Both are estimates; the choice between the scenarios stays with the people who own it.")
-        return "\n".join(lines)
-
-    def save(self, path: str | Path) -> Path:
-        """Write the side-by-side table as ``.csv`` or ``.xlsx`` (atomically; text formula-safe)."""
-        path = output_path(path, "compare")
-        if path.suffix.lower() == ".csv":
-            with atomic_path(path) as tmp:
-                _write_table_csv(self.table, tmp)
-            return path
-        # dates stay Excel dates; the totals row is labelled in the same column
-        with atomic_path(path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as writer:
-            writer.book.properties.creator = "evcal"  # how `--out` recognises evcal's own workbook
-            _excel_dates(self.table).to_excel(writer, index=False, sheet_name="Scenarios")
-            formula_safe_sheet(writer.sheets["Scenarios"].iter_rows())
-        return path
-
-
-def _write_table_csv(table: pd.DataFrame, path: Path) -> Path:
+def write_table_csv(table: pd.DataFrame, path: Path) -> Path:
     """A side-by-side table as CSV at ``path`` as it is (callers write to a temporary): dates as
     ``YYYY-MM-DD``, the totals row's label kept."""
     out = table.copy()
@@ -377,73 +336,18 @@ def _write_table_csv(table: pd.DataFrame, path: Path) -> Path:
     return path
 
 
-def _excel_dates(table: pd.DataFrame) -> pd.DataFrame:
+def excel_dates(table: pd.DataFrame) -> pd.DataFrame:
     """A side-by-side table whose dates are Excel dates (the totals row's label kept)."""
     out = table.copy()
     out["date"] = [d.date() if isinstance(d, pd.Timestamp) else d for d in out["date"]]
     return out
 
 
-def _label(calendar_name: str | None, drivers: Any, differ: bool) -> str | None:
-    """A scenario's name: its calendar's, and its drivers' file when the scenarios' drivers differ."""
-    if not differ or drivers is None:
-        return calendar_name
-    what = Path(drivers).name if isinstance(drivers, (str, Path)) else "drivers given"
-    return f"{calendar_name}, {what}" if calendar_name else what
+def __getattr__(name: str) -> Any:
+    """``Comparison`` and ``compare`` live in :mod:`evcal.plan.comparison` (which builds on this module);
+    code that imported them from here still gets them (PEP 562)."""
+    if name in ("Comparison", "compare"):
+        from evcal.plan import comparison
 
-
-def compare(
-    result: Any,
-    start: Any,
-    end: Any,
-    calendar_b: Any = None,
-    calendar_a: Any = None,
-    name_a: str | None = None,
-    name_b: str | None = None,
-    drivers_a: Any = None,
-    drivers_b: Any = None,
-    **plan_options: Any,
-) -> Comparison:
-    """Plan ``[start, end]`` as scenario A and scenario B: calendars, or outside drivers' values, differ.
-
-    The two-scenario case of :func:`plan_scenarios`, written as ``date, plan_a, plan_b, difference``.
-
-    Parameters
-    ----------
-    result : FitResult
-    start, end
-        The horizon, as for :func:`evcal.plan.make_plan`.
-    calendar_b : path, YAML text, Calendar or None
-        The second scenario's calendar (``calendar_a`` when None).
-    calendar_a : path, YAML text, Calendar or None
-        The first scenario's calendar (the fitted one when None).
-    drivers_a, drivers_b : path or DataFrame, optional
-        The outside drivers' future values of each scenario (as ``--drivers`` of
-        :func:`evcal.plan.make_plan`); ``drivers_b`` defaults to ``drivers_a``.
-        A price cut in week 20: the same file with that week's price 10 % lower.
-    name_a, name_b : str, optional
-        Labels for the summary (default: the calendars' ``name``).
-    **plan_options
-        ``total``, ``totals``, ``new_events``, ``n_sims``, ``seed``: the same for both plans.
-
-    Examples
-    --------
-    >>> cmp = compare(res, "2027-01-01", "2027-12-31", "calendar-no-tournament.yaml")  # doctest: +SKIP
-    >>> print(cmp.summary())                                                         # doctest: +SKIP
-    """
-    if calendar_b is None and drivers_b is None:
-        raise PlanError(f"a comparison needs a second scenario: a second calendar "
-                        f"({option('calendar_b', flag='--compare')}) or second driver values "
-                        f"({option('drivers_b', flag='--compare-drivers')})")
-    differ = drivers_b is not None
-    calendar_b = calendar_a if calendar_b is None else calendar_b
-    drivers_b = drivers_a if drivers_b is None else drivers_b
-    pair = [Scenario("A", calendar_a, drivers_a, subject("drivers_a", flag="--drivers") if differ else None),
-            Scenario("B", calendar_b, drivers_b,
-                     subject("drivers_b", flag="--compare-drivers") if differ else None)]
-    both = plan_scenarios(result, start, end, pair, name_problems=False, **plan_options)
-    table = both.table.rename(columns={"plan:A": "plan_a", "plan:B": "plan_b", "difference:B": "difference"})
-    plan_a, plan_b = both.plans["A"], both.plans["B"]
-    return Comparison(table=table, plan_a=plan_a, plan_b=plan_b,
-                      name_a=name_a or _label(plan_a.calendar_name, drivers_a, differ) or "A",
-                      name_b=name_b or _label(plan_b.calendar_name, drivers_b, differ) or "B")
+        return getattr(comparison, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -324,7 +324,7 @@ def test_plan_driver_values_that_stop_early(priced: dict[str, Path], tmp_path: P
 
 def test_compare_driver_values_that_stop_early(priced: dict[str, Path], tmp_path: Path) -> None:
     """plan/scenarios.compare names scenario B. Fails on main: '--compare-drivers short.csv: ...'."""
-    from evcal.plan.scenarios import compare
+    from evcal.plan.comparison import compare
 
     fitted = evcal.load_model(priced["model"])
     api = _api_line(lambda: compare(fitted, "2025-01-01", "2025-12-31", drivers_a=priced["base"],
@@ -340,7 +340,7 @@ def test_compare_driver_values_that_stop_early(priced: dict[str, Path], tmp_path
 def test_compare_without_a_second_scenario(priced: dict[str, Path]) -> None:
     """plan/scenarios.compare from Python only (the command line compares only when asked to).
     Fails on main: 'a second calendar (--compare) or second driver values (--compare-drivers)'."""
-    from evcal.plan.scenarios import compare
+    from evcal.plan.comparison import compare
 
     fitted = evcal.load_model(priced["model"])
     api = _api_line(lambda: compare(fitted, "2025-01-01", "2025-12-31"))

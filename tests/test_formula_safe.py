@@ -91,7 +91,7 @@ def test_plan_csv_text_is_prefixed_and_numbers_are_not(attacked_model) -> None:
 
 
 def test_compare_table_is_formula_safe(attacked_model) -> None:
-    from evcal.plan.scenarios import Comparison
+    from evcal.plan.comparison import Comparison
 
     res, tmp = attacked_model
     plan = make_plan(res, "2023-01-01", "2023-03-31", n_sims=0)

@@ -19,14 +19,10 @@ MAX_LINES = 400
 def test_compare_lives_in_its_own_module() -> None:
     comparison = importlib.import_module("evcal.plan.comparison")
     from evcal.plan import Comparison, compare
-    from evcal.plan.scenarios import Comparison as OldComparison
-    from evcal.plan.scenarios import compare as old_compare
 
-    assert compare is comparison.compare is old_compare
-    assert Comparison is comparison.Comparison is OldComparison
+    assert compare is comparison.compare
+    assert Comparison is comparison.Comparison
     assert Comparison.__module__ == "evcal.plan.comparison"
-    with pytest.raises(AttributeError, match="no attribute 'nothing'"):
-        _ = importlib.import_module("evcal.plan.scenarios").nothing
 
 
 @pytest.mark.parametrize("name", MODULES)

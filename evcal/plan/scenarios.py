@@ -342,12 +342,3 @@ def excel_dates(table: pd.DataFrame) -> pd.DataFrame:
     out["date"] = [d.date() if isinstance(d, pd.Timestamp) else d for d in out["date"]]
     return out
 
-
-def __getattr__(name: str) -> Any:
-    """``Comparison`` and ``compare`` live in :mod:`evcal.plan.comparison` (which builds on this module);
-    code that imported them from here still gets them (PEP 562)."""
-    if name in ("Comparison", "compare"):
-        from evcal.plan import comparison
-
-        return getattr(comparison, name)
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -20,7 +20,7 @@ import pandas as pd
 from evcal.errors import EvcalError, PlanError
 from evcal.panel.result import PanelResult, load_panel
 
-__all__ = ["PlanChunk", "plan_blocks", "plan_series"]
+__all__ = ["PlanChunk", "event_labels", "floor_note", "plan_blocks", "plan_series"]
 
 #: series per unit of the single-series plan
 PLAN_CHUNK = 8
@@ -59,6 +59,7 @@ def _plan_chunk(chunk: PlanChunk) -> PlanChunk:
         for i, c in enumerate(model.key_cols):
             table.insert(i, c, key[c])
         table["_pos"] = pos
+        table["_floored"] = np.isin(np.arange(len(table)), plan.floored)  # named once for the panel
         frames.append(table)
     chunk.frame = pd.concat(frames, ignore_index=True)
     return chunk
@@ -135,6 +136,7 @@ def plan_blocks(model: PanelResult, keys: list[dict[str, Any]], options: dict[st
             h = horizons[gid]
             parts = plan_block(fit, h, plan_cal, n_sims, options["seed"])
             frame = block_frame(fit, h, parts, panel.label, weak, plan_cal, options["new_events"])
+            frame["_floored"] = parts["floored"].ravel()  # block_frame's rows: series by series, in order
             # a base or plan that is not a finite number: the single-series plan says so in one line
             bad = ~np.isfinite(frame[["base", "plan"]].to_numpy()).all(axis=1)
             if bad.any():
@@ -184,5 +186,68 @@ def plan_series(model: PanelResult, path: str | None, keys: list[dict[str, Any]]
     table = table.reset_index(drop=True)
     lift_cols = [c for c in table.columns if str(c).startswith("lift:")]
     table[lift_cols] = table[lift_cols].fillna(0.0)
+    note = floor_note(table, model.key_cols, str(model.settings["freq"]), str(model.settings["label"]),
+                      event_labels(model.settings))
     order = model.key_cols + ["date", "base", "plan", "low", "high"] + lift_cols + ["assumptions"]
-    return table[[c for c in order if c in table.columns]]
+    table = table[[c for c in order if c in table.columns]]
+    table.attrs["notes"] = [note] if note else []
+    return table
+
+
+#: at most this many series named in a panel's note on its floored plans (then a count of the others)
+FLOOR_SERIES_SHOWN = 5
+#: at most this many periods named per event of each series named there
+FLOOR_PERIODS_SHOWN = 3
+
+
+def floor_note(table: pd.DataFrame, key_cols: list[str], freq: str, label: str,
+               labels: dict[str, str] | None = None) -> str | None:
+    """A panel plan's one note on the periods planned at 0, not below (``table["_floored"]``), or None.
+
+    The panel's counterpart of :func:`evcal.plan.floor.floor_note`: how many periods of how many
+    series were floored, then the first :data:`FLOOR_SERIES_SHOWN` series with the events and
+    periods that took them below zero (:func:`evcal.plan.floor.floor_causes`), so the note stays one
+    line for 10,000 series.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> t = pd.DataFrame({"site": ["A", "A", "B", "B"],
+    ...                   "date": pd.to_datetime(["2024-03-02", "2024-03-03"] * 2),
+    ...                   "base": [10.0, 10.0, 80.0, 80.0], "plan": [0.0, 10.0, 20.0, 80.0],
+    ...                   "lift:stocktake": [-10.0, 0.0, -60.0, 0.0],
+    ...                   "_floored": [True, False, False, False]})
+    >>> floor_note(t, ["site"], "D", "start").split("; these")[0]
+    'planned at 0, not below, in 1 period of 1 series (series that cannot be negative, additive models): \
+site=A: the stocktake lift on 2024-03-02 (Sat)'
+    """
+    from evcal.plan.floor import FLOOR_HOW, FLOOR_WHY, floor_causes
+
+    hit = table["_floored"].to_numpy(dtype=bool)
+    if not hit.any():
+        return None
+    ids = table.groupby(key_cols, sort=False).ngroup().to_numpy()
+    floored = pd.unique(ids[hit])
+    lifts = [c for c in table.columns if str(c).startswith("lift:")]
+    named = []
+    for sid in floored[:FLOOR_SERIES_SHOWN]:
+        rows = table[ids == sid]
+        dates = pd.DatetimeIndex(pd.to_datetime(rows["date"]))
+        what = floor_causes(rows["_floored"].to_numpy(dtype=bool), rows["base"].to_numpy(dtype=float),
+                            {c[len("lift:"):]: rows[c].to_numpy(dtype=float) for c in lifts},
+                            dates.to_period(freq), dates, label, labels, most=FLOOR_PERIODS_SHOWN)
+        key = ", ".join(f"{c}={rows[c].iat[0]}" for c in key_cols)
+        named.append(f"{key}: {what}")
+    more = len(floored) - len(named)
+    n = int(hit.sum())
+    return (f"planned at 0, not below, in {n} period{'s' if n > 1 else ''} of {len(floored)} series "
+            f"(series that cannot be negative, additive models): {'; '.join(named)}"
+            f"{f'; and {more} more series' if more else ''}; these would take the plan below zero "
+            f"{FLOOR_WHY}; {FLOOR_HOW}")
+
+
+def event_labels(settings: dict[str, Any]) -> dict[str, str]:
+    """Event code -> its label, from a panel's settings (``panel.json``'s ``events``)."""
+    events = settings.get("events") or {}
+    return {str(name): str(info.get("label") or name) if isinstance(info, dict) else str(name)
+            for name, info in events.items()}

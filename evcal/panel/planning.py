@@ -26,7 +26,7 @@ import pandas as pd
 
 from evcal.amounts import amount
 from evcal.errors import PlanError
-from evcal.panel.own_plans import plan_series
+from evcal.panel.own_plans import event_labels, plan_series
 from evcal.panel.result import PanelResult, load_panel
 from evcal.panel.targets import TARGET_RULE, apply_targets, read_panel_totals
 from evcal.plan.spread import check_total
@@ -101,7 +101,8 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
                "whole_units": whole_units and (total is not None or totals is not None) and allocate is None}
     show = progress_enabled(progress)
     table = plan_series(model, path, keys, options, workers, show, batched, fallback)
-    notes = _coverage_notes(model, calendar, table["date"], model.settings["freq"])
+    notes = [*table.attrs.get("notes", []),  # the series' own notes, once for the panel (planned at 0)
+             *_coverage_notes(model, calendar, table["date"], model.settings["freq"])]
     if panel_targets is not None:
         table, notes = _to_targets(table, model, panel_targets, whole_units and allocate is None, notes)
     if allocate is not None:
@@ -291,6 +292,4 @@ def _panel_freq(model_dir: str) -> str:
 
 def _event_labels(model_dir: str) -> dict[str, str]:
     """Event code -> its label (``panel.json``'s ``events``), for the workbook's headers."""
-    events = _panel_document(model_dir).get("events") or {}
-    return {str(name): str(info.get("label") or name) if isinstance(info, dict) else str(name)
-            for name, info in events.items()}
+    return event_labels(_panel_document(model_dir))

@@ -240,7 +240,7 @@ def plan_periods(
         average_share=dict(result.average_share or {}), calendar_name=getattr(cal, "name", ""),
         interval_note=interval_note(n_sims), notes=notes, target_total=total, in_season=h.in_season,
         result=result, future={name: h.schedule.assumed[name] for name in h.future},
-        calendar=cal, new_events=new_events,
+        calendar=cal, new_events=new_events, floored=tuple(int(i) for i in np.flatnonzero(floored[0])),
     )
 
 

@@ -27,7 +27,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-__all__ = ["floors", "floor_parts", "floor_note"]
+__all__ = ["FLOOR_HOW", "FLOOR_WHY", "floors", "floor_parts", "floor_causes", "floor_note"]
 
 
 def floors(result: Any) -> bool:
@@ -80,14 +80,31 @@ def floor_parts(base: np.ndarray, fitted: np.ndarray, parts: dict[str, np.ndarra
     return (scaled(base), np.where(hit, 0.0, fitted), {c: scaled(v) for c, v in parts.items()}, hit)
 
 
-def floor_note(floored: np.ndarray, base: np.ndarray, lifts: dict[str, np.ndarray], periods: pd.PeriodIndex,
-               dates: pd.DatetimeIndex, label: str, labels: dict[str, str] | None = None,
-               most: int = 6) -> str | None:
-    """The plan's one note on its floored periods (``floored`` (n,)), naming events and periods (or None).
+#: why a lift can take an additive plan below zero (the single plan's note and the panel's)
+FLOOR_WHY = ("(an additive lift is an average in units over the days the event fell on, and can be larger "
+             "than a low day's base)")
+#: what the plan does about it (the single plan's note and the panel's)
+FLOOR_HOW = ("in such a period the negative amounts are scaled by one factor so that base + lifts = 0, and "
+             "each simulation draw is floored at 0 for low/high")
+
+
+def floor_causes(floored: np.ndarray, base: np.ndarray, lifts: dict[str, np.ndarray], periods: pd.PeriodIndex,
+                 dates: pd.DatetimeIndex, label: str, labels: dict[str, str] | None = None,
+                 most: int = 6) -> str | None:
+    """What took a plan's floored periods (``floored`` (n,)) below zero: events and periods (or None).
 
     ``base`` and ``lifts`` (event -> (n,)) are the plan's, after the floor; an
-    event is named for the floored periods where its lift is negative.
-    ``labels``: an event's name as the plan shows it (its name by default).
+    event is named for the floored periods where its lift is negative, at most
+    ``most`` periods each. ``labels``: an event's name as the plan shows it (its
+    name by default).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> days = pd.period_range("2024-03-01", periods=3, freq="D")
+    >>> floor_causes(np.array([False, True, False]), np.array([5.0, 2.0, 5.0]),
+    ...              {"stocktake": np.array([0.0, -2.0, 0.0])}, days, days.to_timestamp(), "start")
+    'the stocktake lift on 2024-03-02 (Sat)'
     """
     from evcal.plan.summary import period_name
 
@@ -108,9 +125,18 @@ def floor_note(floored: np.ndarray, base: np.ndarray, lifts: dict[str, np.ndarra
     low = [int(i) for i in where if base[i] < 0.0]
     if low:
         causes.append(f"a base below zero on {named(low)}")
-    what = "; ".join(causes) if causes else f"the lifts on {named([int(i) for i in where])}"
+    return "; ".join(causes) if causes else f"the lifts on {named([int(i) for i in where])}"
+
+
+def floor_note(floored: np.ndarray, base: np.ndarray, lifts: dict[str, np.ndarray], periods: pd.PeriodIndex,
+               dates: pd.DatetimeIndex, label: str, labels: dict[str, str] | None = None,
+               most: int = 6) -> str | None:
+    """The plan's one note on its floored periods (``floored`` (n,)), naming events and periods (or None).
+
+    The arguments are :func:`floor_causes`'.
+    """
+    what = floor_causes(floored, base, lifts, periods, dates, label, labels, most)
+    if what is None:
+        return None
     return (f"planned at 0, not below (a series that cannot be negative, additive model): {what} "
-            "would take the plan below zero (an additive lift is an average in units over the days the "
-            "event fell on, and can be larger than a low day's base); in such a period the negative "
-            "amounts are scaled by one factor so that base + lifts = 0, and each simulation draw is "
-            "floored at 0 for low/high")
+            f"would take the plan below zero {FLOOR_WHY}; {FLOOR_HOW}")

@@ -57,6 +57,9 @@ class Plan:
         model never saw: what rebuilds the plan's design to split each period into its parts
         (:func:`evcal.plan.explain.plan_part_frame`, the workbook's Parts sheet). None for a plan
         built by hand.
+    floored : tuple of int
+        The positions (``table`` rows) of the periods planned at 0, not below (:mod:`evcal.plan.floor`),
+        which ``notes`` names; a panel plan names them once for all its series.
     """
 
     table: pd.DataFrame
@@ -82,6 +85,7 @@ class Plan:
     actuals: pd.DataFrame | None = None
     calendar: Any = field(default=None, repr=False)
     new_events: str = "error"
+    floored: tuple[int, ...] = ()
 
     @property
     def total(self) -> float:

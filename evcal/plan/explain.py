@@ -54,6 +54,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from evcal.design.interventions import PERSISTENT
 from evcal.design.level import LEVEL_COLUMN
 from evcal.design.matrix import build_design
 from evcal.effects import GroupInfo, SpanContext, closure_shares
@@ -157,6 +158,20 @@ def _base_groups(columns: dict[str, np.ndarray], coefs: dict[str, float], roles:
             name = SEASON if role == "seasonal" else ERROR if c in (ERROR_COLUMN, LEVEL_COLUMN) else c
             others[name] = others.get(name, np.zeros(n)) + value
     return anchor, others
+
+
+def persistent_columns(result: Any) -> list[str]:
+    """The model's level shifts and ramps: interventions that last, so a plan counts them in the base.
+
+    :func:`evcal.plan.build.horizon` adds them to the plan's base columns; a past period's
+    explanation adds them to the history's base the same way, so both read a shift as a base part.
+
+    Examples
+    --------
+    >>> persistent_columns(evcal.load_model("demo-output/model"))  # doctest: +SKIP
+    ['new-store-opening']
+    """
+    return [t.name for t in result.spec.intervention_terms() if t.type in PERSISTENT]
 
 
 def _differenced(result: Any) -> bool:
@@ -322,6 +337,7 @@ def explain_history(result: Any, date: Any) -> Explanation:
     coefs = {c: float(v) for c, v in result.params.items()}
     base_cols = [c for c in group.base_columns if c in X.columns]
     level: set[str] = set()
+    lasting = [c for c in persistent_columns(result) if c in X.columns and c not in base_cols]
     if _differenced(result):
         # differenced errors: the base holds the error's level (evcal.design.level), which the folder keeps
         # only inside the base of fitted.csv: what the base is beyond the other base terms
@@ -331,11 +347,15 @@ def explain_history(result: Any, date: Any) -> Explanation:
         coefs[LEVEL_COLUMN] = 1.0
         base_cols.append(LEVEL_COLUMN)
         level = {LEVEL_COLUMN}
-        group = replace(group, base_columns=base_cols)
+    # level shifts and ramps are parts of the base, as in a plan period (evcal.plan.build.horizon), so a
+    # past week and a planned week read the same shift one way (its share of the base with the season)
+    base_cols += lasting
+    group = replace(group, base_columns=base_cols)
     closures = closure_shares(result.calendar, periods)
     ctx = SpanContext(periods, None, X, design.open_share.to_numpy(dtype=float), closures, np.ones(1, bool))
     pmap = {c: np.array([v]) for c, v in coefs.items()}
-    base, fitted, parts = decompose_block(ctx, group, pmap, np.array([float(result.smear)]))
+    terms = [c for c in group.status if c not in set(base_cols)]  # a base part is not a term on top of it
+    base, fitted, parts = decompose_block(ctx, group, pmap, np.array([float(result.smear)]), terms=terms)
     anchor, others = _base_groups({c: X[c].to_numpy() for c in X.columns}, coefs, design.roles, base_cols,
                                   level)
     values = {k: float(v[0]) for k, v in split_base(result.transform, anchor, others,

@@ -26,6 +26,12 @@ from evcal.design.base import period_days, term_columns
 PERSISTENT = ("level_shift", "ramp")
 
 
+def persistent_names(spec: Any) -> list[str]:
+    """The level shifts and ramps of a design spec: the interventions that last, so the base counts them
+    (a plan's base, and a past period's in ``evcal explain``)."""
+    return [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
+
+
 @dataclass(frozen=True)
 class InterventionTerm(InterventionSpec):
     """A calendar's intervention as the design uses it: its column, its settings in ``model.json``."""

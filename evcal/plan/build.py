@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from evcal.calendar.datefile import coverage_notes
-from evcal.design.interventions import PERSISTENT
+from evcal.design.interventions import PERSISTENT, persistent_names
 from evcal.design.matrix import build_design
 from evcal.effects import GroupInfo, SpanContext, closure_shares
 from evcal.effects.decompose import decompose_block
@@ -328,7 +328,7 @@ def horizon(result: Any, cal: Any, periods: pd.PeriodIndex, new_events: str = "e
         colmap = {**colmap, name: name}
         schedule.columns.append(name)
         schedule.status[name] = result.status[name]
-    persistent = [t.name for t in spec.intervention_terms() if t.type in PERSISTENT]
+    persistent = persistent_names(spec)
     base_cols = [c for c in list(result.base_columns) + persistent if c in X.columns]
     closures = closure_shares(cal, periods)
     # which periods each event touches (its own columns, then its closures too)

@@ -54,7 +54,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from evcal.design.interventions import PERSISTENT
+from evcal.design.interventions import persistent_names
 from evcal.design.level import LEVEL_COLUMN
 from evcal.design.matrix import build_design
 from evcal.effects import GroupInfo, SpanContext, closure_shares
@@ -158,20 +158,6 @@ def _base_groups(columns: dict[str, np.ndarray], coefs: dict[str, float], roles:
             name = SEASON if role == "seasonal" else ERROR if c in (ERROR_COLUMN, LEVEL_COLUMN) else c
             others[name] = others.get(name, np.zeros(n)) + value
     return anchor, others
-
-
-def persistent_columns(result: Any) -> list[str]:
-    """The model's level shifts and ramps: interventions that last, so a plan counts them in the base.
-
-    :func:`evcal.plan.build.horizon` adds them to the plan's base columns; a past period's
-    explanation adds them to the history's base the same way, so both read a shift as a base part.
-
-    Examples
-    --------
-    >>> persistent_columns(evcal.load_model("demo-output/model"))  # doctest: +SKIP
-    ['new-store-opening']
-    """
-    return [t.name for t in result.spec.intervention_terms() if t.type in PERSISTENT]
 
 
 def _differenced(result: Any) -> bool:
@@ -337,7 +323,7 @@ def explain_history(result: Any, date: Any) -> Explanation:
     coefs = {c: float(v) for c, v in result.params.items()}
     base_cols = [c for c in group.base_columns if c in X.columns]
     level: set[str] = set()
-    lasting = [c for c in persistent_columns(result) if c in X.columns and c not in base_cols]
+    lasting = [c for c in persistent_names(result.spec) if c in X.columns and c not in base_cols]
     if _differenced(result):
         # differenced errors: the base holds the error's level (evcal.design.level), which the folder keeps
         # only inside the base of fitted.csv: what the base is beyond the other base terms

@@ -22,8 +22,10 @@ import pandas as pd
 
 from evcal.amounts import amount
 from evcal.errors import PlanError
+from evcal.panel.level_checks import check_levels, named, skipped_inside
 from evcal.panel.reconcile import METHODS, Reconciled, reconcile, summing_structure
 from evcal.panel.result import PanelResult, is_panel_dir, load_panel
+from evcal.spelling import option, subject
 
 __all__ = ["LevelModel", "plan_levels", "plan_levels_cmd"]
 
@@ -34,10 +36,10 @@ COLUMNS = ["date", "plan", "plan_before", "adjustment"]
 class LevelModel:
     """One level's model folder: a panel (keys = the level's columns) or one series (the grand total)."""
 
-    def __init__(self, path: str, flag: str = "--reconcile") -> None:
+    def __init__(self, path: str) -> None:
         from evcal.model import load_model
 
-        self.path, self.flag = path, flag
+        self.path = path
         self.panel: PanelResult | None = load_panel(path) if is_panel_dir(path) else None
         self.single = None if self.panel is not None else load_model(path)
         self.keys: list[str] = self.panel.key_cols if self.panel is not None else []
@@ -129,34 +131,33 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
     ...                                 "2027-01-01", "2027-12-31")          # doctest: +SKIP
     """
     if method not in METHODS:
-        raise PlanError(f"--reconcile-method {method}: use one of {', '.join(METHODS)}")
+        raise PlanError(f"{option('method', method, flag='--reconcile-method')}: use one of "
+                        f"{', '.join(METHODS)}")
     if not is_panel_dir(bottom_dir):
-        raise PlanError(f"--reconcile: {bottom_dir} is a one-series model; plan the panel model of the "
-                        "bottom series (fitted with --series-col) and each level's model with --reconcile")
+        raise PlanError(f"{subject('level_dirs', flag='--reconcile')}: {bottom_dir} is a one-series model; "
+                        "plan the panel model of the bottom series (fitted with --series-col) and each "
+                        f"level's model with {subject('level_dirs', flag='--reconcile')}")
     bottom = LevelModel(bottom_dir)
     levels = [LevelModel(d) for d in level_dirs]
+    check_levels(bottom, levels)
+    notes = skipped_inside(bottom, levels)
     bottom_plan = bottom.plan(start, end, calendar, new_events)
     bkeys = _bottom_keys(bottom, bottom_plan)
     for lv in levels:
-        outside = [c for c in lv.keys if c not in bkeys.columns]
-        if outside or lv.keys == bottom.keys:
-            raise PlanError(f"--reconcile {lv.path}: its keys ({', '.join(lv.keys)}) are "
-                            f"{'not among' if outside else 'the same as'} the bottom model's "
-                            f"({', '.join(bkeys.columns)}); give a model fitted with --level on some of them")
         if lv.freq != bottom.freq:
-            raise PlanError(f"--reconcile {lv.path}: its periods are {lv.freq}, the bottom model's "
+            raise PlanError(f"{named(lv.path)}: its periods are {lv.freq}, the bottom model's "
                             f"{bottom.freq}; fit every level at the bottom model's frequency")
-    structure = summing_structure(bkeys, [lv.keys for lv in levels])
+    structure = summing_structure(bkeys, [lv.keys for lv in levels], bottom_cols=bottom.keys)
     bottom_plan = bottom_plan.merge(bkeys, on=bottom.keys, how="left")
     dates = pd.DatetimeIndex(sorted(bottom_plan["date"].unique()))
     yb = _wide(bottom_plan, bottom.keys, bkeys, dates, bottom_dir, "the bottom model")
-    agg_rows, notes = [], []
+    agg_rows = []
     res_cols = [bottom.residuals()]
     for lv in levels:
         plan = lv.plan(start, end, calendar, new_events)
         got = pd.DatetimeIndex(sorted(plan["date"].unique()))
         if not got.equals(dates):
-            raise PlanError(f"--reconcile {lv.path}: its plan has {len(got)} periods "
+            raise PlanError(f"{named(lv.path)}: its plan has {len(got)} periods "
                             f"({got.min():%Y-%m-%d} to {got.max():%Y-%m-%d}), the bottom model's "
                             f"{len(dates)} ({dates.min():%Y-%m-%d} to {dates.max():%Y-%m-%d}); fit both with "
                             "the same date labels")
@@ -166,10 +167,6 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
         if extra > 0:
             notes.append(f"{lv.path}: {extra} series with no planned bottom series were left out")
         res_cols.append(lv.residuals())
-    skipped = int((bottom.panel.series["status"] != "fitted").sum())
-    if skipped:
-        notes.append(f"{skipped} bottom series were not fitted: the parents' plans include them, the "
-                     "reconciled bottom plans do not")
     Eb, Ea = _residuals(res_cols, bkeys[bottom.keys], structure, levels)
     rec = reconcile(structure, yb, np.vstack(agg_rows), Eb, Ea, method=method)
     if whole_units:
@@ -231,7 +228,7 @@ def _wide(plan: pd.DataFrame, keys: list[str], want: pd.DataFrame, dates: pd.Dat
     gaps = np.flatnonzero(wide.isna().any(axis=1).to_numpy())
     if len(gaps):
         shown = ", ".join(f"{c}={v}" for c, v in zip(keys, want.iloc[gaps[0]][keys], strict=True))
-        raise PlanError(f"--reconcile {path}: {whose} has no plan for {shown}, which the bottom series make; "
+        raise PlanError(f"{named(path)}: {whose} has no plan for {shown}, which the bottom series make; "
                         "fit that level from the same history as the bottom model")
     return wide.to_numpy(dtype=float)
 

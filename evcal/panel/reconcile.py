@@ -97,7 +97,8 @@ def level_name(cols: list[str]) -> str:
     return ",".join(cols) if cols else TOTAL
 
 
-def summing_structure(bottom_keys: pd.DataFrame, levels: list[list[str]]) -> Structure:
+def summing_structure(bottom_keys: pd.DataFrame, levels: list[list[str]],
+                      bottom_cols: list[str] | None = None) -> Structure:
     """The summing structure of the bottom series to each level (nested or crossed).
 
     Parameters
@@ -107,6 +108,9 @@ def summing_structure(bottom_keys: pd.DataFrame, levels: list[list[str]]) -> Str
     levels : list of list of str
         Each level's columns (``[]``: the grand total). Product and store levels of a product × store
         panel are crossed: neither nests in the other, and both are allowed.
+    bottom_cols : list of str, optional
+        The bottom series' key columns, which name the bottom level; the other columns of
+        ``bottom_keys`` are attributes (a pooling group). Default: every column.
 
     Examples
     --------
@@ -143,7 +147,7 @@ def summing_structure(bottom_keys: pd.DataFrame, levels: list[list[str]]) -> Str
                       shape=(n_a, n_b))
     agg_keys = pd.DataFrame(key_rows, columns=["level", *shown]).astype(object)
     agg_keys = agg_keys.where(agg_keys.notna(), None)
-    bottom_name = level_name([str(c) for c in bottom_keys.columns])
+    bottom_name = level_name([str(c) for c in (bottom_keys.columns if bottom_cols is None else bottom_cols)])
     return Structure(bottom_keys, agg_keys, A, [bottom_name, *names])
 
 

@@ -1,0 +1,109 @@
+"""``evcal plan BOTTOM --reconcile LEVEL``: what is refused before planning, and the bottom level's name.
+
+Invented weekly product × store sales (a known truth: each series a seasonal wave with its own size and
+noise, the levels their exact sums), named as such, plus one invented series ``p4,s1`` with only eight
+weeks: too short to fit (two seasonal cycles are needed), so the bottom model skips it, while the store
+level's ``s1`` history includes it.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from evcal.cli import app
+from evcal.errors import PlanError
+from evcal.panel.levels import plan_levels
+
+runner = CliRunner()
+CALENDAR = "name: no events (invented test)\nevents: []\n"
+PLAN = ("--from", "2025-01-01", "--to", "2025-03-31")
+
+
+def invoke(*args: str):
+    return runner.invoke(app, list(args))
+
+
+def fit(d, source, name, *extra):
+    r = invoke("fit", str(d / source), "--series-col", "product,store", "-c", str(d / "cal.yaml"),
+               "--out", str(d / name), *extra)
+    assert r.exit_code == 0, r.output
+
+
+@pytest.fixture(scope="module")
+def models(tmp_path_factory):
+    """Models of the invented sales with the short series (every level) and without it (``clean``)."""
+    d = tmp_path_factory.mktemp("levels-checks")
+    rng = np.random.default_rng(4)
+    dates = pd.date_range("2022-01-02", periods=156, freq="W-SUN")
+    wave = 1 + 0.3 * np.sin(2 * np.pi * np.arange(156) / 52.18)
+    rows = [pd.DataFrame({"family": f, "product": p, "store": s, "date": dates,
+                          "value": np.round(size * wave * rng.lognormal(0, 0.05, 156))})
+            for f, p, s, size in [("a", "p1", "s1", 300), ("a", "p1", "s2", 200), ("b", "p2", "s1", 150),
+                                  ("b", "p2", "s2", 90), ("b", "p3", "s2", 120)]]
+    clean = pd.concat(rows)
+    clean.to_csv(d / "clean.csv", index=False)
+    short = pd.DataFrame({"family": "b", "product": "p4", "store": "s1", "date": dates[-8:], "value": 500.0})
+    pd.concat([clean, short]).to_csv(d / "sales.csv", index=False)
+    (d / "cal.yaml").write_text(CALENDAR)
+    fit(d, "sales.csv", "items")
+    fit(d, "sales.csv", "products", "--level", "product")
+    fit(d, "sales.csv", "stores", "--level", "store")
+    fit(d, "clean.csv", "clean-stores", "--level", "store")
+    return d
+
+
+def plan(d, *levels):
+    args = [a for lv in levels for a in ("--reconcile", str(d / lv))]
+    return invoke("plan", str(d / "items"), *PLAN, *args, "--out", str(d / "plan.csv"), "--force")
+
+
+def test_a_level_whose_history_includes_a_skipped_bottom_series_is_refused(models):
+    """Fails on main: the store s1's plan (with p4's 500 a week) was spread over p1,s1 and p2,s1."""
+    r = plan(models, "products", "stores")
+    assert r.exit_code == 2, r.output
+    line = r.output.strip()
+    assert "\n" not in line and "Traceback" not in line
+    assert f"--reconcile {models / 'stores'}: its histories include 1 bottom series" in line
+    assert "(p4,s1;" in line and "spread their volume" in line and "without them" in line
+    assert not (models / "plan.csv").exists()
+
+
+def test_levels_without_the_skipped_series_reconcile_and_the_note_says_they_are_left_out(models):
+    """The product level skipped p4 too and the clean store level never had it: nothing is spread.
+    Fails on main: its note said 'the parents' plans include them'."""
+    r = plan(models, "products", "clean-stores")
+    assert r.exit_code == 0, r.output
+    assert "1 bottom series were not fitted (p4,s1;" in r.output
+    assert "no level's history includes them" in r.output
+    t = pd.read_csv(models / "plan.csv", keep_default_na=False)
+    assert set(t[t["level"] == "product,store"]["product"]) == {"p1", "p2", "p3"}
+
+
+@pytest.mark.parametrize("twice", [("products", "products"), ("products", "products-again")])
+def test_the_same_level_twice_is_refused_in_one_line(models, twice):
+    """Fails on main: 'unexpected problem (ValueError: residuals_bottom=...)'."""
+    if not (models / "products-again").exists():
+        fit(models, "clean.csv", "products-again", "--level", "product")
+    r = plan(models, *twice)
+    assert r.exit_code == 2, r.output
+    assert r.output.strip() == (f"error: --reconcile {models / twice[1]}: its keys (product) are those of "
+                                f"--reconcile {models / twice[0]}; give each level once")
+
+
+def test_a_level_with_the_bottoms_keys_is_refused(models):
+    r = plan(models, "items")
+    assert r.exit_code == 2, r.output
+    assert "its keys (product, store) are the same as the bottom model's" in r.output
+
+
+def test_python_errors_name_arguments_not_flags(models):
+    """Fails on main: plan_levels said '--reconcile-method best' and '--reconcile ...' from Python."""
+    with pytest.raises(PlanError, match=r"^method='best': use one of auto, ols, wls, mint$"):
+        plan_levels(str(models / "items"), [str(models / "products")], "2025-01-01", "2025-03-31",
+                    method="best")
+    with pytest.raises(PlanError, match=r"^level_dirs='.*products': its keys \(product\) are those of "
+                                        r"level_dirs='.*products'; give each level once$"):
+        plan_levels(str(models / "items"), [str(models / "products")] * 2, "2025-01-01", "2025-03-31")

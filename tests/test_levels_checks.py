@@ -107,3 +107,25 @@ def test_python_errors_name_arguments_not_flags(models):
     with pytest.raises(PlanError, match=r"^level_dirs='.*products': its keys \(product\) are those of "
                                         r"level_dirs='.*products'; give each level once$"):
         plan_levels(str(models / "items"), [str(models / "products")] * 2, "2025-01-01", "2025-03-31")
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".xlsx"])
+def test_allocating_a_parent_with_a_skipped_child_names_it_in_a_note(models, suffix):
+    """Store s1's plan includes p4,s1's history; the allocation gives it to p1,s1 and p2,s1, and says so
+    on the terminal and in the workbook's Notes. Fails on main: no note."""
+    out = models / f"allocated{suffix}"
+    r = invoke("plan", str(models / "stores"), *PLAN, "--allocate", str(models / "items"), "--out", str(out),
+               "--force")
+    assert r.exit_code == 0, r.output
+    said = "1 child was not fitted (product=p4, store=s1; skipped in the child model's series.csv)"
+    assert said in r.output and "goes to their fitted siblings" in r.output
+    if suffix == ".xlsx":
+        import openpyxl
+
+        cells = [str(c) for row in openpyxl.load_workbook(out)["Notes"].iter_rows(values_only=True)
+                 for c in row if c]
+        assert any(said in c for c in cells)
+    else:
+        t = pd.read_csv(out)
+        s1 = t[t["store"] == "s1"]
+        assert set(s1["product"]) == {"p1", "p2"}

@@ -129,3 +129,26 @@ def test_allocating_a_parent_with_a_skipped_child_names_it_in_a_note(models, suf
         t = pd.read_csv(out)
         s1 = t[t["store"] == "s1"]
         assert set(s1["product"]) == {"p1", "p2"}
+
+
+@pytest.mark.parametrize("levels", [("products",), ("products", "families")])
+def test_the_bottom_level_is_the_bottom_models_keys_with_a_group_column(models, levels):
+    """Bottom fitted with --group-col family (and a family level made from it): the bottom level is
+    ``product,store`` and the report of the bottom model reads the plan. Fails on main: the level was
+    ``product,store,family`` and the report refused its own file."""
+    d = models
+    if not (d / "grouped").exists():
+        fit(d, "clean.csv", "grouped", "--group-col", "family")
+        r = invoke("fit", str(d / "clean.csv"), "--series-col", "family,product,store", "--level", "family",
+                   "-c", str(d / "cal.yaml"), "--out", str(d / "families"))
+        assert r.exit_code == 0, r.output
+    args = [a for lv in levels for a in ("--reconcile", str(d / lv))]
+    r = invoke("plan", str(d / "grouped"), *PLAN, *args, "--out", str(d / "grouped.csv"), "--force")
+    assert r.exit_code == 0, r.output
+    t = pd.read_csv(d / "grouped.csv", keep_default_na=False)
+    named = {"products": "product", "families": "family"}
+    assert list(dict.fromkeys(t["level"])) == ["product,store", *(named[lv] for lv in levels)]
+    assert ("family" in t.columns) == ("families" in levels)  # an attribute only where a level uses it
+    r = invoke("report", str(d / "grouped"), "--plan", str(d / "grouped.csv"), "--out",
+               str(d / "grouped.html"), "--force")
+    assert r.exit_code == 0, r.output

@@ -82,11 +82,11 @@ def series_ids(frame: pd.DataFrame, keys: list[str]) -> np.ndarray:
         else frame[keys[0]].astype(str).to_numpy(dtype=object)
 
 
-def _bottom_keys(bottom: LevelModel, plan: pd.DataFrame) -> pd.DataFrame:
-    """The bottom series' keys (and pooling group column, an attribute a level may name), as text."""
+def _bottom_keys(bottom: LevelModel, plan: pd.DataFrame, levels: list[LevelModel]) -> pd.DataFrame:
+    """The bottom series' keys (and the pooling group column when a level names it: an attribute), as text."""
     keys = plan[bottom.keys].drop_duplicates().reset_index(drop=True)
     group = bottom.panel.settings.get("group_col")
-    if group and group not in keys.columns:
+    if group and group not in keys.columns and any(group in lv.keys for lv in levels):
         table = bottom.panel.series[bottom.keys + ["pool_group"]].astype(str)
         keys = keys.merge(table.rename(columns={"pool_group": group}), on=bottom.keys, how="left")
     return keys
@@ -142,7 +142,7 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
     check_levels(bottom, levels)
     notes = skipped_inside(bottom, levels)
     bottom_plan = bottom.plan(start, end, calendar, new_events)
-    bkeys = _bottom_keys(bottom, bottom_plan)
+    bkeys = _bottom_keys(bottom, bottom_plan, levels)
     for lv in levels:
         if lv.freq != bottom.freq:
             raise PlanError(f"{named(lv.path)}: its periods are {lv.freq}, the bottom model's "

@@ -169,10 +169,34 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
         res_cols.append(lv.residuals())
     Eb, Ea = _residuals(res_cols, bkeys[bottom.keys], structure, levels)
     rec = reconcile(structure, yb, np.vstack(agg_rows), Eb, Ea, method=method)
+    if not bool((bottom.panel.settings.get("options") or {}).get("allow_negative")):
+        rec, note = _floored(rec, dates)
+        notes += [note] if note else []
     if whole_units:
         rec, note = round_reconciled(rec)
         notes.append(note)
     return _long(structure, rec, dates), rec, notes
+
+
+def _floored(rec: Reconciled, dates: pd.DatetimeIndex) -> tuple[Reconciled, str | None]:
+    """Bottom plans below zero set to zero for a bottom model fitted without allow_negative, and the note
+    naming the level, the series and the periods (:func:`evcal.panel.reconcile.floor_at_zero`)."""
+    from evcal.panel.reconcile import floor_at_zero
+
+    rec, hit = floor_at_zero(rec)
+    if not hit.any():
+        return rec, None
+    rows, cols = np.nonzero(hit)
+    level = rec.structure.levels[0]
+    keys = rec.structure.bottom_keys[level.split(",")].astype(str)
+    shown = [f"{','.join(keys.iloc[r])} {dates[c]:%Y-%m-%d}"
+             for r, c in zip(rows[:3], cols[:3], strict=True)]
+    more = f" and {len(rows) - 3} more" if len(rows) > 3 else ""
+    return rec, (f"{len(rows)} reconciled plans of {len(set(rows))} series of level {level} were below zero "
+                 f"({'; '.join(shown)}{more}); the bottom model's series cannot be negative "
+                 "(fitted without allow_negative), so they were set to zero and every level above is the sum "
+                 "of its bottom series again: those parents moved a little more than the least the "
+                 "reconciliation needs")
 
 
 def round_reconciled(rec: Reconciled) -> tuple[Reconciled, str]:

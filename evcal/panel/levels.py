@@ -134,7 +134,7 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
         raise PlanError(f"{option('method', method, flag='--reconcile-method')}: use one of "
                         f"{', '.join(METHODS)}")
     if not is_panel_dir(bottom_dir):
-        raise PlanError(f"{subject('level_dirs', flag='--reconcile')}: {bottom_dir} is a one-series model; "
+        raise PlanError(f"{subject('bottom_dir', flag='--reconcile')}: {bottom_dir} is a one-series model; "
                         "plan the panel model of the bottom series (fitted with --series-col) and each "
                         f"level's model with {subject('level_dirs', flag='--reconcile')}")
     bottom = LevelModel(bottom_dir)

@@ -22,8 +22,10 @@ import pandas as pd
 
 from evcal.amounts import amount
 from evcal.errors import PlanError
+from evcal.panel.level_checks import check_levels, named, skipped_inside
 from evcal.panel.reconcile import METHODS, Reconciled, reconcile, summing_structure
 from evcal.panel.result import PanelResult, is_panel_dir, load_panel
+from evcal.spelling import option, subject
 
 __all__ = ["LevelModel", "plan_levels", "plan_levels_cmd"]
 
@@ -34,10 +36,10 @@ COLUMNS = ["date", "plan", "plan_before", "adjustment"]
 class LevelModel:
     """One level's model folder: a panel (keys = the level's columns) or one series (the grand total)."""
 
-    def __init__(self, path: str, flag: str = "--reconcile") -> None:
+    def __init__(self, path: str) -> None:
         from evcal.model import load_model
 
-        self.path, self.flag = path, flag
+        self.path = path
         self.panel: PanelResult | None = load_panel(path) if is_panel_dir(path) else None
         self.single = None if self.panel is not None else load_model(path)
         self.keys: list[str] = self.panel.key_cols if self.panel is not None else []
@@ -80,11 +82,11 @@ def series_ids(frame: pd.DataFrame, keys: list[str]) -> np.ndarray:
         else frame[keys[0]].astype(str).to_numpy(dtype=object)
 
 
-def _bottom_keys(bottom: LevelModel, plan: pd.DataFrame) -> pd.DataFrame:
-    """The bottom series' keys (and pooling group column, an attribute a level may name), as text."""
+def _bottom_keys(bottom: LevelModel, plan: pd.DataFrame, levels: list[LevelModel]) -> pd.DataFrame:
+    """The bottom series' keys (and the pooling group column when a level names it: an attribute), as text."""
     keys = plan[bottom.keys].drop_duplicates().reset_index(drop=True)
     group = bottom.panel.settings.get("group_col")
-    if group and group not in keys.columns:
+    if group and group not in keys.columns and any(group in lv.keys for lv in levels):
         table = bottom.panel.series[bottom.keys + ["pool_group"]].astype(str)
         keys = keys.merge(table.rename(columns={"pool_group": group}), on=bottom.keys, how="left")
     return keys
@@ -129,34 +131,33 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
     ...                                 "2027-01-01", "2027-12-31")          # doctest: +SKIP
     """
     if method not in METHODS:
-        raise PlanError(f"--reconcile-method {method}: use one of {', '.join(METHODS)}")
+        raise PlanError(f"{option('method', method, flag='--reconcile-method')}: use one of "
+                        f"{', '.join(METHODS)}")
     if not is_panel_dir(bottom_dir):
-        raise PlanError(f"--reconcile: {bottom_dir} is a one-series model; plan the panel model of the "
-                        "bottom series (fitted with --series-col) and each level's model with --reconcile")
+        raise PlanError(f"{subject('bottom_dir', flag='--reconcile')}: {bottom_dir} is a one-series model; "
+                        "plan the panel model of the bottom series (fitted with --series-col) and each "
+                        f"level's model with {subject('level_dirs', flag='--reconcile')}")
     bottom = LevelModel(bottom_dir)
     levels = [LevelModel(d) for d in level_dirs]
+    check_levels(bottom, levels)
+    notes = skipped_inside(bottom, levels)
     bottom_plan = bottom.plan(start, end, calendar, new_events)
-    bkeys = _bottom_keys(bottom, bottom_plan)
+    bkeys = _bottom_keys(bottom, bottom_plan, levels)
     for lv in levels:
-        outside = [c for c in lv.keys if c not in bkeys.columns]
-        if outside or lv.keys == bottom.keys:
-            raise PlanError(f"--reconcile {lv.path}: its keys ({', '.join(lv.keys)}) are "
-                            f"{'not among' if outside else 'the same as'} the bottom model's "
-                            f"({', '.join(bkeys.columns)}); give a model fitted with --level on some of them")
         if lv.freq != bottom.freq:
-            raise PlanError(f"--reconcile {lv.path}: its periods are {lv.freq}, the bottom model's "
+            raise PlanError(f"{named(lv.path)}: its periods are {lv.freq}, the bottom model's "
                             f"{bottom.freq}; fit every level at the bottom model's frequency")
-    structure = summing_structure(bkeys, [lv.keys for lv in levels])
+    structure = summing_structure(bkeys, [lv.keys for lv in levels], bottom_cols=bottom.keys)
     bottom_plan = bottom_plan.merge(bkeys, on=bottom.keys, how="left")
     dates = pd.DatetimeIndex(sorted(bottom_plan["date"].unique()))
     yb = _wide(bottom_plan, bottom.keys, bkeys, dates, bottom_dir, "the bottom model")
-    agg_rows, notes = [], []
+    agg_rows = []
     res_cols = [bottom.residuals()]
     for lv in levels:
         plan = lv.plan(start, end, calendar, new_events)
         got = pd.DatetimeIndex(sorted(plan["date"].unique()))
         if not got.equals(dates):
-            raise PlanError(f"--reconcile {lv.path}: its plan has {len(got)} periods "
+            raise PlanError(f"{named(lv.path)}: its plan has {len(got)} periods "
                             f"({got.min():%Y-%m-%d} to {got.max():%Y-%m-%d}), the bottom model's "
                             f"{len(dates)} ({dates.min():%Y-%m-%d} to {dates.max():%Y-%m-%d}); fit both with "
                             "the same date labels")
@@ -166,16 +167,36 @@ def plan_levels(bottom_dir: str, level_dirs: list[str], start: str, end: str, me
         if extra > 0:
             notes.append(f"{lv.path}: {extra} series with no planned bottom series were left out")
         res_cols.append(lv.residuals())
-    skipped = int((bottom.panel.series["status"] != "fitted").sum())
-    if skipped:
-        notes.append(f"{skipped} bottom series were not fitted: the parents' plans include them, the "
-                     "reconciled bottom plans do not")
     Eb, Ea = _residuals(res_cols, bkeys[bottom.keys], structure, levels)
     rec = reconcile(structure, yb, np.vstack(agg_rows), Eb, Ea, method=method)
+    if not bool((bottom.panel.settings.get("options") or {}).get("allow_negative")):
+        rec, note = _floored(rec, dates)
+        notes += [note] if note else []
     if whole_units:
         rec, note = round_reconciled(rec)
         notes.append(note)
     return _long(structure, rec, dates), rec, notes
+
+
+def _floored(rec: Reconciled, dates: pd.DatetimeIndex) -> tuple[Reconciled, str | None]:
+    """Bottom plans below zero set to zero for a bottom model fitted without allow_negative, and the note
+    naming the level, the series and the periods (:func:`evcal.panel.reconcile.floor_at_zero`)."""
+    from evcal.panel.reconcile import floor_at_zero
+
+    rec, hit = floor_at_zero(rec)
+    if not hit.any():
+        return rec, None
+    rows, cols = np.nonzero(hit)
+    level = rec.structure.levels[0]
+    keys = rec.structure.bottom_keys[level.split(",")].astype(str)
+    shown = [f"{','.join(keys.iloc[r])} {dates[c]:%Y-%m-%d}"
+             for r, c in zip(rows[:3], cols[:3], strict=True)]
+    more = f" and {len(rows) - 3} more" if len(rows) > 3 else ""
+    return rec, (f"{len(rows)} reconciled plans of {len(set(rows))} series of level {level} were below zero "
+                 f"({'; '.join(shown)}{more}); the bottom model's series cannot be negative "
+                 "(fitted without allow_negative), so they were set to zero and every level above is the sum "
+                 "of its bottom series again: those parents moved a little more than the least the "
+                 "reconciliation needs")
 
 
 def round_reconciled(rec: Reconciled) -> tuple[Reconciled, str]:
@@ -231,7 +252,7 @@ def _wide(plan: pd.DataFrame, keys: list[str], want: pd.DataFrame, dates: pd.Dat
     gaps = np.flatnonzero(wide.isna().any(axis=1).to_numpy())
     if len(gaps):
         shown = ", ".join(f"{c}={v}" for c, v in zip(keys, want.iloc[gaps[0]][keys], strict=True))
-        raise PlanError(f"--reconcile {path}: {whose} has no plan for {shown}, which the bottom series make; "
+        raise PlanError(f"{named(path)}: {whose} has no plan for {shown}, which the bottom series make; "
                         "fit that level from the same history as the bottom model")
     return wide.to_numpy(dtype=float)
 

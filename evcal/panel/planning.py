@@ -106,11 +106,13 @@ def plan_panel(model: PanelResult | str | Path, start: Any, end: Any, series: li
     if panel_targets is not None:
         table, notes = _to_targets(table, model, panel_targets, whole_units and allocate is None, notes)
     if allocate is not None:
-        from evcal.panel.rollup import ALLOCATED_NOTE
+        from evcal.panel.rollup import ALLOCATED_NOTE, unfitted_note
         from evcal.panel.rollup import allocate as _allocate
 
         children, own = _own_plans(allocate, table, model.key_cols, options, workers, show, batched)
+        unfitted = unfitted_note(children.series, children.key_cols, table, model.key_cols)
         table = _allocate(table, model.key_cols, own, children.key_cols)
+        notes += [unfitted] if unfitted else []
         table["note"] = ALLOCATED_NOTE
     if whole_units:  # per series (or per allocated child), unless make_plan already rounded it to its target
         from evcal.plan.spread import PANEL_WHOLE_UNITS_NOTE, round_table

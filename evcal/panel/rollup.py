@@ -37,7 +37,8 @@ from evcal.errors import PlanError
 from evcal.io.panel import Panel
 from evcal.spelling import subject
 
-__all__ = ["aggregate", "allocate", "plan_gaps", "plan_shares", "ALLOCATED_NOTE", "OWN_PLAN"]
+__all__ = ["aggregate", "allocate", "plan_gaps", "plan_shares", "unfitted_note", "ALLOCATED_NOTE",
+           "OWN_PLAN"]
 
 #: the amounts of a plan row besides its lifts
 AMOUNTS = ("base", "plan", "low", "high")
@@ -303,3 +304,41 @@ def plan_gaps(allocated: pd.DataFrame, parent_keys: list[str]) -> pd.DataFrame:
     gap = out["gap"].to_numpy(dtype=float)
     out["gap_pct"] = np.where(bottom > 0, 100.0 * gap / np.where(bottom > 0, bottom, 1.0), np.nan)
     return out
+
+
+def unfitted_note(children: pd.DataFrame, child_keys: list[str], parents: pd.DataFrame,
+                  parent_keys: list[str], shown: int = 3) -> str | None:
+    """The note naming the children of planned parents that were not fitted, or None when there are none.
+
+    A parent's model is fitted on the sum of all its children's histories, skipped or not, so its plan
+    includes them; the allocation shares it among the fitted children only, so their share goes to their
+    fitted siblings.
+
+    Parameters
+    ----------
+    children : DataFrame
+        The child model's ``series`` table (``status`` and the child keys).
+    parents : DataFrame
+        The parent plan (its key columns): the parents planned.
+
+    Examples
+    --------
+    >>> kids = pd.DataFrame({"store": ["s", "s", "t"], "product": ["a", "b", "c"],
+    ...                      "status": ["fitted", "skipped", "skipped"]})
+    >>> unfitted_note(kids, ["product", "store"], pd.DataFrame({"store": ["s"]}), ["store"])[:48]
+    '1 child was not fitted (product=b, store=s; skip'
+    """
+    out = children[children["status"].astype(str) != "fitted"]
+    if out.empty or not set(parent_keys) <= set(children.columns):
+        return None
+    wanted = pd.MultiIndex.from_frame(parents[parent_keys].astype(str).drop_duplicates())
+    out = out[pd.MultiIndex.from_frame(out[parent_keys].astype(str)).isin(wanted)]
+    if out.empty:
+        return None
+    names = [", ".join(f"{c}={v}" for c, v in zip(child_keys, row, strict=True))
+             for row in out[child_keys].astype(str).to_numpy()]
+    listed = "; ".join(names[:shown]) + (f" and {len(names) - shown} more" if len(names) > shown else "")
+    n = len(names)
+    return (f"{n} {'child was' if n == 1 else 'children were'} not fitted ({listed}; skipped in the child "
+            "model's series.csv): the parent's plan includes their history, so their share of it goes to "
+            "their fitted siblings")

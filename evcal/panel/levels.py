@@ -97,8 +97,8 @@ def refuse(options: dict[str, Any]) -> None:
     if options.get("total") is not None or options.get("totals") is not None:
         flag = "--total" if options.get("total") is not None else "--totals"
         raise PlanError(f"{flag} with --reconcile: a target moves one level's plan and the reconciliation "
-                        "moves it again, so both cannot hold; plan without the target, or plan one level "
-                        "to it and spread it down with --allocate")
+                        "moves it again, so both cannot hold; plan without the target, or plan a panel "
+                        "level (fitted with --level) to it and spread it down with --allocate")
     for name, flag in (("allocate", "--allocate"), ("compare", "--compare"), ("series", "--series"),
                        ("actuals", "--actuals"), ("drivers", "--drivers"),
                        ("compare_drivers", "--compare-drivers"), ("week_labels", "--week-labels")):

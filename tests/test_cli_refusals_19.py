@@ -10,37 +10,25 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 import pytest
+from test_plan_cli import model_dir  # noqa: F401  (the invented monthly shop, fitted once)
 from typer.testing import CliRunner
 
-import evcal
 from evcal.cli import app
 
 runner = CliRunner()
 
-CAL = "name: invented shop (test)\nevents:\n  - {name: easter-run, when: {easter: 0}, before: 10, after: 1}\n"
-
 
 @pytest.fixture(scope="module")
-def folder(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    # invented monthly shop, 2018-2023, a fixed season and 2 % noise
-    rng = np.random.default_rng(19)
-    idx = pd.period_range("2018-01", "2023-12", freq="M")
-    season = np.array([0.8, 0.85, 1.0, 1.1, 1.2, 1.15, 1.1, 1.05, 0.95, 0.9, 1.0, 1.3])
-    y = 1000 * season[idx.month - 1] * np.exp(rng.normal(0, 0.02, len(idx)))
-    d = tmp_path_factory.mktemp("refusals")
-    pd.DataFrame({"date": idx.end_time.normalize().strftime("%Y-%m-%d"), "value": y}).to_csv(
-        d / "history.csv", index=False)
-    (d / "cal.yaml").write_text(CAL)
-    evcal.fit(d / "history.csv", d / "cal.yaml", errors="ols").save(d / "total")
-    return d
+def folder(model_dir: Path) -> Path:  # noqa: F811
+    """test_plan_cli's invented monthly shop, fitted once: a one-series model folder (``model``)."""
+    return model_dir
 
 
 def _refused(folder: Path, tmp_path: Path, *extra: str) -> str:
     out = tmp_path / "al.csv"
-    res = runner.invoke(app, ["plan", str(folder / "total"), "--from", "2024-01-01", "--to", "2024-12-31",
+    res = runner.invoke(app, ["plan", str(folder / "model"), "--from", "2024-01-01", "--to", "2024-12-31",
                               "--sims", "0", "--out", str(out), *extra])
     assert res.exit_code == 2, res.output
     assert "Traceback" not in res.output
@@ -63,7 +51,7 @@ def test_one_series_folder_refuses_panel_options(folder: Path, tmp_path: Path, e
     line = _refused(folder, tmp_path, *extra)
     for w in words:
         assert w in line, line
-    assert str(folder / "total") in line or "--reconcile-method" in line
+    assert str(folder / "model") in line or "--reconcile-method" in line
 
 
 @pytest.mark.parametrize("flag, value", [("--allocate", "ITEMS"), ("--series", "a"), ("--workers", "2"),
@@ -77,7 +65,7 @@ def test_scenario_refuses_panel_options(folder: Path, tmp_path: Path, flag: str,
 def test_one_series_plan_still_runs(folder: Path, tmp_path: Path) -> None:
     # the same folder without the refused options plans as before: the refusals are not too wide
     out = tmp_path / "plan.csv"
-    res = runner.invoke(app, ["plan", str(folder / "total"), "--from", "2024-01-01", "--to", "2024-12-31",
+    res = runner.invoke(app, ["plan", str(folder / "model"), "--from", "2024-01-01", "--to", "2024-12-31",
                               "--sims", "0", "--out", str(out)])
     assert res.exit_code == 0, res.output
     assert len(pd.read_csv(out)) == 12  # the 12 months of 2024

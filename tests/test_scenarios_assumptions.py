@@ -15,7 +15,16 @@ from pathlib import Path
 import openpyxl
 import pandas as pd
 import pytest
-from test_scenarios_many import SCENARIOS, _dates, _week, calendar_text, result, runner, shop  # noqa: F401
+from test_scenarios_many import (  # noqa: F401
+    SCENARIOS,
+    _dates,
+    _week,
+    calendar_text,
+    result,
+    runner,
+    scenarios_section,
+    shop,
+)
 
 from evcal.cli import app
 from evcal.plan import make_plan, plan_scenarios
@@ -95,11 +104,7 @@ def test_csv_workbook_and_report_show_the_assumptions(shop: Path, tmp_path: Path
     col = rows[0].index("assumptions")
     assert FLASH_LINE in [r[col] for r in rows[1:]]
     html = tmp_path / "report.html"
-    res = runner.invoke(app, ["report", str(shop / "model"), "--plan", str(out), "--out", str(html)])
-    assert res.exit_code == 0, res.output
-    page = html.read_text(encoding="utf-8")
-    section = page[page.index('<section id="scenarios"'):]
-    section = section[:section.index("</section>")]
+    section = scenarios_section(shop, out, html)
     assert "What the plans assume" in section and f"<li>{FLASH_LINE}</li>" in section
     assert "<li>mystery-day: new event, no lift (--new-events zero) (only mystery)</li>" in section
 

@@ -287,15 +287,11 @@ def test_report_shows_the_scenarios(shop: Path, tmp_path: Path) -> None:
     out = tmp_path / "scenarios.csv"
     assert _cli(shop, out, *_scenario_args(shop)).exit_code == 0
     html = tmp_path / "report.html"
-    res = runner.invoke(app, ["report", str(shop / "model"), "--plan", str(out), "--out", str(html)])
-    assert res.exit_code == 0, res.output
-    page = html.read_text(encoding="utf-8")
-    section = page[page.index('<section id="scenarios"'):]
-    section = section[:section.index("</section>")]
+    section = scenarios_section(shop, out, html)
     assert '<img src="data:image/png;base64,' in section and "Plans of 4 scenarios" in section
     assert "What each event adds in each scenario" in section and "promo-dropped − booked" in section
     assert "Every period side by side (52)" in section
-    assert '<section id="plan"' not in page  # the scenarios take the plan's place
+    assert '<section id="plan"' not in html.read_text(encoding="utf-8")  # the scenarios take the plan's place
     # re-running the plan over its own two tables is allowed (evcal's own output of the same kind)
     assert _cli(shop, out, *_scenario_args(shop)).exit_code == 0
 
@@ -336,3 +332,12 @@ def test_tables_add_up_for_any_plans(k: int, n: int, data: st.DataObject) -> Non
         assert ev.loc[e, [f"units_before_spread:s{j}" for j in range(k)]].tolist() == pytest.approx(units)
         for j in range(1, k):
             assert ev.loc[e, f"difference_before_spread:s{j}"] == pytest.approx(units[j] - units[0], abs=1e-6)
+
+
+def scenarios_section(shop: Path, plan_file: Path, html: Path) -> str:
+    """The Scenarios section of ``evcal report`` on the shop's model with ``plan_file`` (its HTML)."""
+    res = runner.invoke(app, ["report", str(shop / "model"), "--plan", str(plan_file), "--out", str(html)])
+    assert res.exit_code == 0, res.output
+    page = html.read_text(encoding="utf-8")
+    section = page[page.index('<section id="scenarios"'):]
+    return section[:section.index("</section>")]

@@ -48,6 +48,9 @@ def explain_cmd(
     new_events: NewEvents = "error",
     drivers: PlanDrivers = None,
     round_units: RoundUnits = False,
+    plan_file: str | None = typer.Option(
+        None, "--plan", help="A plan.csv written by evcal plan from this model: explain its number for the "
+        "date (the plan is made again from the model and must give the file's numbers)."),
     force: Force = False,
 ) -> None:
     """Split one period's plan (or past actual) into trend, season, level shifts, events, closures and
@@ -84,7 +87,9 @@ def explain_cmd(
              "--drivers": drivers, "--calendar": calendar}
     shaping = [flag for flag, value in given.items() if value]
     period = day.to_period(result.freq)
-    if period <= pd.Period(result.history_end, freq=result.freq):
+    if plan_file is not None:
+        explanation = _from_plan_file(result, plan_file, date, calendar, new_events, shaping)
+    elif period <= pd.Period(result.history_end, freq=result.freq):
         if shaping:
             raise PlanError(f"--date {date}: a period of the history is explained from the model's fit; "
                             f"leave out {', '.join(shaping)} (they shape plan periods)")
@@ -115,6 +120,32 @@ def explain_cmd(
             write_csv(explanation.table(), tmp, index=False, float_format="%.2f")
         talk.say(f"\nwrote {talk.named(out)} ({len(explanation.parts)} parts)")
 
+
+
+def _from_plan_file(result: object, plan_file: str, date: str, calendar: str | None, new_events: str,
+                    shaping: list[str]) -> object:
+    """The explanation of ``date`` in ``plan_file``: the plan made again from the model with the file's
+    own total(s) and whole units (:func:`evcal.report.explain_sections.remake_plan`, as the report's
+    section does), refused in one line when no such plan gives the file's numbers."""
+    from evcal.plan.explain import explain_plan
+    from evcal.report.explain_sections import remake_plan
+    from evcal.report.model_folder import read_plan_csv
+
+    fixed = [flag for flag in shaping if flag != "--calendar"]
+    if fixed:
+        raise PlanError(f"{fixed[0]} with --plan {plan_file}: the plan file fixes its horizon, target and "
+                        "whole units; leave it out (or leave out --plan and give the plan's options)")
+    file_plan = read_plan_csv(plan_file)
+    with talk.stage(f"explain: making the plan of {plan_file} again from the model"):
+        made = remake_plan(result, file_plan, calendar)
+    if made is None:
+        raise PlanError(f"--plan {plan_file}: this model does not give the file's numbers with the file's "
+                        "own total(s) and calendar (edited by hand, made with --drivers or --actuals, or "
+                        "from another model); explain with the options the plan was made with instead "
+                        "(--from, --to, --total or --totals, --round, --calendar)")
+    plan, how = made
+    talk.say(f"(the plan of {plan_file}, made again from the model: {how})")
+    return explain_plan(plan, date, calendar=calendar, new_events=new_events)
 
 
 def _panel(model_dir: str, drivers: str | None) -> object:

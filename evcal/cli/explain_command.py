@@ -53,8 +53,7 @@ def explain_cmd(
         "date (the plan is made again from the model and must give the file's numbers)."),
     force: Force = False,
 ) -> None:
-    """Split one period's plan (or past actual) into trend, season, level shifts, events, closures and
-    the target's factor, adding up exactly to the number."""
+    """Split one period's plan (or a past actual) into parts that add up to it exactly."""
     path = None
     if out is not None:
         path = talk.table_path(out, "explain.csv")

@@ -60,7 +60,11 @@ _PLAN_RUNS = (("date", "base", "plan", "low", "high"), ("date", "share", "base",
 _WORKBOOK_SHEETS = {("Plan", "Lifts", "Seasonal index", "Past occurrences", "Notes"): "plan",
                     ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Notes"): "plan",
                     ("Plan",): "plan", ("Plan", "Notes"): "plan", ("Scenarios",): "compare",
-                    ("Scenarios", "Events", "Plans"): "compare"}
+                    ("Scenarios", "Events", "Plans"): "compare",
+                    # with the Parts sheet (evcal.plan.workbook_parts: each period's parts)
+                    ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Parts", "Notes"): "plan",
+                    ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Parts", "Notes"):
+                    "plan"}
 #: the first and last sheets of a reconciled plan's workbook, a sheet per level between them
 #: (evcal.plan.workbook_levels.LEVELS_SHEETS)
 _LEVELS_WORKBOOK = ("Levels", "Notes")
@@ -72,9 +76,29 @@ _SCENARIO_RUNS = (("date", "plan:"), ("date", "iso_week", "plan:"), ("event", "u
 # ---------------------------------------------------------------- what a file is
 
 
-def _csv_kind(head: str) -> str | None:
+def header_columns(head: str) -> tuple[str, ...]:
+    """The column names of a CSV's first line (``head``: the file's start), as evcal writes them.
+
+    Examples
+    --------
+    >>> header_columns('\\ufeff"date",plan:now\\r\\n2027-01-03,5\\n')
+    ('date', 'plan:now')
+    """
     line = head.lstrip("\ufeff").split("\n", 1)[0].rstrip("\r")
-    cols = tuple(c.strip().strip('"') for c in line.split(","))
+    return tuple(c.strip().strip('"') for c in line.split(","))
+
+
+def file_columns(path: str | Path) -> tuple[str, ...] | None:
+    """The column names of the CSV at ``path`` (:func:`header_columns`), None when it cannot be read."""
+    try:
+        with open(path, encoding="utf-8", errors="replace") as f:
+            return header_columns(f.readline())
+    except OSError:
+        return None
+
+
+def _csv_kind(head: str) -> str | None:
+    cols = header_columns(head)
     if any(cols[i:i + len(run)] == run for run in _PLAN_RUNS for i in range(len(cols))):
         return "plan"
     for *head, prefix in _SCENARIO_RUNS:  # the first scenario's name follows the prefix
@@ -82,12 +106,6 @@ def _csv_kind(head: str) -> str | None:
         if len(cols) > k and list(cols[:k]) == head and cols[k].startswith(prefix):
             return "compare"
     return _CSV_HEADERS.get(cols)
-
-
-#: a plan's workbook with its Parts sheet (evcal.plan.workbook_parts: each period's parts)
-_WORKBOOK_SHEETS.update({("Plan", "Lifts", "Seasonal index", "Past occurrences", "Parts", "Notes"): "plan",
-                         ("Plan", "Lifts", "Seasonal index", "Past occurrences", "Drivers", "Parts", "Notes"):
-                         "plan"})
 
 
 def _workbook_kind(path: Path) -> str | None:

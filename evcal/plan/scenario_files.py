@@ -20,6 +20,7 @@ import pandas as pd
 
 from evcal.errors import EvcalError, ModelError, PlanError
 from evcal.formula_safe import unguard_frame
+from evcal.outputs import file_columns
 from evcal.plan.scenario_events import DIFF_PREFIX as EVENT_DIFF
 from evcal.plan.scenario_events import OLD_DIFF_PREFIX, OLD_UNITS_PREFIX, UNITS_PREFIX
 from evcal.plan.scenarios import DIFF_PREFIX, PLAN_PREFIX, Scenario, events_path
@@ -100,12 +101,7 @@ def is_scenarios_file(path: str | Path) -> bool:
     >>> is_scenarios_file(p), is_scenarios_file(p.parent / "none.csv")
     (True, False)
     """
-    try:
-        with open(path, encoding="utf-8", errors="replace") as f:
-            head = f.readline()
-    except OSError:
-        return False
-    cols = [c.strip().strip('"') for c in head.lstrip("\ufeff").rstrip("\r\n").split(",")]
+    cols = file_columns(path)
     return bool(cols) and cols[0] == "date" and any(c.startswith(PLAN_PREFIX) for c in cols)
 
 

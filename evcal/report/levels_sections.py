@@ -26,6 +26,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from evcal.errors import ModelError
+from evcal.outputs import file_columns
 from evcal.panel.reconcile import TOTAL, level_sizes
 from evcal.report import chart_parts
 from evcal.report import palette as pal
@@ -51,12 +52,7 @@ def is_levels_file(path: str | Path) -> bool:
     >>> is_levels_file(p), is_levels_file(p.parent / "missing.csv")
     (True, False)
     """
-    try:
-        with open(path, encoding="utf-8-sig", errors="replace") as f:
-            head = f.readline()
-    except OSError:
-        return False
-    cols = [c.strip().strip('"') for c in head.rstrip("\r\n").split(",")]
+    cols = file_columns(path)
     return bool(cols) and cols[0] == "level" and all(c in cols for c in LEVELS_COLUMNS)
 
 
